@@ -1,0 +1,143 @@
+// Package airframe reads the airframe file: the strict TOML description of
+// a vehicle's rate loops that every verb of the tool starts from.
+//
+// A file names the airframe, the loop rate and compute delay, the numeric
+// type of the generated code, and one [axes.NAME] table per axis with its
+// plant, sensor, spec and controller choices (DESIGN.md, "Airframe file").
+// Parse decodes the file into the inputs of the designer (synth.Problem per
+// axis) and of the discretization (discrete.Loop, discrete.Numeric), with
+// every default applied; the defaults are all in defaults.go.
+//
+// The format is strict: an unknown key, a value of the wrong type, a
+// non-finite number (TOML allows nan and inf) or a value out of range is an
+// error. Parse does not stop at the first problem: it walks the whole file
+// and returns an *Errors holding every problem, each naming the file, the
+// key path and the value, and saying what is allowed:
+//
+//	examples/x.toml: axes.roll.spec.overshoot = 1.4: must be in (0, 1)
+package airframe
+
+import (
+	"bytes"
+	"crypto/sha256"
+	"encoding/hex"
+	"errors"
+	"fmt"
+	"os"
+	"slices"
+	"strings"
+	"unicode/utf8"
+
+	"github.com/pelletier/go-toml/v2"
+
+	"locusmith/discrete"
+	"locusmith/synth"
+)
+
+// File is a decoded and validated airframe file.
+type File struct {
+	Path        string // as given
+	SHA256      string // hex of the raw bytes
+	Airframe    string // identifier [a-z][a-z0-9_]{0,31}
+	Description string
+	Loop        discrete.Loop
+	Numeric     discrete.Numeric
+	Axes        []synth.Problem // sorted by axis name (deterministic)
+	Raw         map[string]any  // the decoded TOML tree (for a later `compare` verb)
+}
+
+// Load reads the file at path and calls Parse. A file that cannot be read
+// gives the wrapped os error; invalid content gives an *Errors.
+func Load(path string) (*File, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("read airframe file: %w", err)
+	}
+	return Parse(path, data)
+}
+
+// Parse decodes and validates data read from path (path only for
+// messages). It returns either a *File or an *Errors listing every problem
+// found.
+func Parse(path string, data []byte) (*File, error) {
+	c := &checker{path: path}
+	raw := c.decodeTOML(data)
+	var f *File
+	if raw != nil {
+		f = c.file(raw)
+	}
+	if len(c.errs) > 0 {
+		slices.SortStableFunc(c.errs, func(a, b *FieldError) int { return compareKeys(a.Key, b.Key) })
+		return nil, &Errors{Path: path, List: c.errs}
+	}
+	sum := sha256.Sum256(data)
+	f.Path = path
+	f.SHA256 = hex.EncodeToString(sum[:])
+	f.Raw = raw
+	return f, nil
+}
+
+// decodeTOML checks that data is text and decodes it; it returns nil after
+// recording the problem when it is not.
+func (c *checker) decodeTOML(data []byte) map[string]any {
+	if len(data) > maxFileBytes {
+		c.fail("", nil, "file is %d bytes; an airframe file is at most %d", len(data), maxFileBytes)
+		return nil
+	}
+	// A UTF-8 byte order mark, which some editors write, is not part of
+	// the TOML grammar; drop it rather than reject the file.
+	text := bytes.TrimPrefix(data, []byte("\uFEFF"))
+	if len(bytes.TrimSpace(text)) == 0 {
+		c.fail("", nil, "empty file: airframe, loop_hz and at least one [axes.NAME] table are required")
+		return nil
+	}
+	if i := bytes.IndexByte(text, 0); i >= 0 {
+		line, col := position(text, i)
+		c.fail("", nil, "line %d, column %d: not a text file (NUL byte); an airframe file is UTF-8 TOML", line, col)
+		return nil
+	}
+	if !utf8.Valid(text) {
+		i := firstInvalidUTF8(text)
+		line, col := position(text, i)
+		c.fail("", nil, "line %d, column %d: not a text file (invalid UTF-8); an airframe file is UTF-8 TOML", line, col)
+		return nil
+	}
+	var raw map[string]any
+	if err := toml.Unmarshal(text, &raw); err != nil {
+		var de *toml.DecodeError
+		if errors.As(err, &de) {
+			line, col := de.Position()
+			msg := strings.TrimPrefix(de.Error(), "toml: ")
+			c.fail("", nil, "line %d, column %d: TOML syntax error: %s", line, col, msg)
+		} else {
+			c.fail("", nil, "TOML syntax error: %v", err)
+		}
+		return nil
+	}
+	if raw == nil {
+		raw = map[string]any{}
+	}
+	return raw
+}
+
+// position converts byte offset i of text into a 1-based line and column
+// (the column counted in characters).
+func position(text []byte, i int) (line, col int) {
+	before := text[:i]
+	line = bytes.Count(before, []byte("\n")) + 1
+	lineStart := bytes.LastIndexByte(before, '\n') + 1
+	return line, utf8.RuneCount(before[lineStart:]) + 1
+}
+
+// firstInvalidUTF8 returns the offset of the first byte of data that is
+// not part of valid UTF-8.
+func firstInvalidUTF8(data []byte) int {
+	for i := 0; i < len(data); {
+		r, size := utf8.DecodeRune(data[i:])
+		if r == utf8.RuneError && size <= 1 {
+			return i
+		}
+		i += size
+	}
+	return len(data)
+}

@@ -1,0 +1,459 @@
+package airframe
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"locusmith/discrete"
+	"locusmith/internal/lti"
+	"locusmith/synth"
+)
+
+// The keys of each table, in the order of DESIGN.md; unknown-key messages
+// list them in this order. (Functions rather than package variables, so
+// that no caller can change a schema.)
+func topKeys() []string {
+	return []string{"airframe", "description", "loop_hz", "compute_delay", "numeric", "axes"}
+}
+func numericKeys() []string { return []string{"type", "input_full_scale", "output_full_scale"} }
+func axisKeys() []string    { return []string{"plant", "sensor", "spec", "control"} }
+func zpkKeys() []string     { return []string{"gain", "poles", "zeros"} }
+func physKeys() []string    { return []string{"effectiveness", "motor_tau"} }
+func plantKeys() []string {
+	return []string{"gain", "poles", "zeros", "effectiveness", "motor_tau", "delay"}
+}
+func sensorKeys() []string { return []string{"lowpass_hz", "gain", "poles", "zeros"} }
+func specKeys() []string {
+	return []string{"settling_time", "settling_band", "overshoot", "min_phase_margin", "min_gain_margin"}
+}
+func controlKeys() []string {
+	return []string{"form", "refine", "third_pole", "lead_zero", "derivative_lowpass_hz",
+		"derivative_on", "setpoint_weight", "output_limit", "integrator_limit", "antiwindup",
+		"tracking_time", "discretize"}
+}
+
+// Predicates shared by several number rules.
+func isPositive(x float64) bool    { return x > 0 }
+func isNonNegative(x float64) bool { return x >= 0 }
+func isNonZero(x float64) bool     { return x != 0 }
+
+// delayRule is the rule of the plant's transport delay.
+func delayRule() numRule {
+	return numRule{desc: fmt.Sprintf("in [0, %g]", maxDelay), unit: "s",
+		ok: func(x float64) bool { return x >= 0 && x <= maxDelay }}
+}
+
+// file checks the top level and everything below it. The result is only
+// meaningful when no problem was recorded.
+func (c *checker) file(raw map[string]any) *File {
+	top := c.newTable("", raw, topKeys()...)
+	f := &File{}
+	f.Airframe, _ = top.ident("airframe", "the airframe name")
+	f.Description, _ = top.str("description", false, "", "free text")
+
+	loopHz, loopOK := top.number("loop_hz", numRule{
+		desc: fmt.Sprintf("> 0 and ≤ %.0f", maxLoopHz), unit: "Hz",
+		ok: func(x float64) bool { return x > 0 && x <= maxLoopHz },
+	}, true, 0)
+	delay, _ := top.integer("compute_delay", 0, maxComputeDelay, "samples", defaultComputeDelay)
+	f.Loop = discrete.Loop{Hz: loopHz, ComputeDelay: int(delay)}
+
+	f.Numeric = c.numeric(top)
+
+	if !loopOK {
+		loopHz = 0 // checks against the loop rate are skipped
+	}
+	axes := top.subtable("axes", true, "one [axes.NAME] table per axis")
+	if axes == nil {
+		return f
+	}
+	if len(axes) == 0 {
+		c.fail("axes", nil, "at least one axis required: an [axes.NAME] table with plant and spec")
+		return f
+	}
+	for _, name := range sortedKeys(axes) { // sorted: File.Axes is in name order
+		key := joinKey("axes", name)
+		if msg := checkIdent(name); msg != "" {
+			c.fail(key, nil, "axis name %s", msg)
+		}
+		m, ok := axes[name].(map[string]any)
+		if !ok {
+			c.fail(key, axes[name], "must be a table [axes.NAME] with plant and spec, not %s", kind(axes[name]))
+			continue
+		}
+		f.Axes = append(f.Axes, c.axis(name, key, m, loopHz))
+	}
+	return f
+}
+
+// numeric checks [numeric].
+func (c *checker) numeric(top *table) discrete.Numeric {
+	n := discrete.Numeric{Type: defaultNumericType}
+	m := top.subtable("numeric", false, "type, input_full_scale, output_full_scale")
+	if m == nil {
+		return n
+	}
+	t := c.newTable("numeric", m, numericKeys()...)
+	typ, ok := t.enum("type", string(defaultNumericType),
+		string(discrete.Float32), string(discrete.Float64), string(discrete.Q15), string(discrete.Q31))
+	if ok {
+		n.Type = discrete.NumericType(typ)
+	}
+	// The full scales set the fixed-point formats, so a fixed-point type
+	// cannot do without them; float types may give them (0 when absent).
+	fixed := ok && n.Type.IsFixed()
+	if fixed {
+		for _, k := range []string{"input_full_scale", "output_full_scale"} {
+			if !t.has(k) {
+				c.fail(t.sub(k), nil, "required for type = %q: a number > 0 (the largest |value| the fixed-point format must hold)", typ)
+			}
+		}
+	}
+	in := numRule{desc: "> 0", unit: "rate units, the largest |setpoint| or |measured rate|", ok: isPositive}
+	out := numRule{desc: "> 0", unit: "command units, the largest |command|", ok: isPositive}
+	if t.has("input_full_scale") {
+		n.InputFullScale, _ = t.number("input_full_scale", in, false, 0)
+	}
+	if t.has("output_full_scale") {
+		n.OutputFullScale, _ = t.number("output_full_scale", out, false, 0)
+	}
+	return n
+}
+
+// axis checks [axes.NAME]; loopHz is 0 when loop_hz is invalid.
+func (c *checker) axis(name, key string, m map[string]any, loopHz float64) synth.Problem {
+	t := c.newTable(key, m, axisKeys()...)
+	p := synth.Problem{Axis: name, Sensor: idealSensor()}
+	if pm := t.subtable("plant", true, "gain/poles/zeros or effectiveness/motor_tau, and delay"); pm != nil {
+		p.Plant = c.plant(c.newTable(t.sub("plant"), pm, plantKeys()...))
+	}
+	if sm := t.subtable("sensor", false, "lowpass_hz, or gain/poles/zeros"); sm != nil {
+		p.Sensor = c.sensor(c.newTable(t.sub("sensor"), sm, sensorKeys()...))
+	}
+	if sm := t.subtable("spec", true, "settling_time, overshoot, ..."); sm != nil {
+		p.Spec = c.spec(c.newTable(t.sub("spec"), sm, specKeys()...))
+	}
+	cm := t.subtable("control", false, "form, limits, ...")
+	if cm == nil {
+		cm = map[string]any{} // absent (or not a table, reported): all defaults
+	}
+	p.Ctrl = c.control(c.newTable(t.sub("control"), cm, controlKeys()...), loopHz)
+	return p
+}
+
+// plant checks [axes.NAME.plant]: either the zpk form or the physical form.
+func (c *checker) plant(t *table) synth.Plant {
+	pl := synth.Plant{Delay: defaultPlantDelay}
+	zpk, phys := t.present(zpkKeys()...), t.present(physKeys()...)
+	both := len(zpk) > 0 && len(phys) > 0
+	switch {
+	case both:
+		c.fail(t.key, nil, "both the zpk form (%s) and the physical form (%s) are given: use one",
+			strings.Join(zpk, ", "), strings.Join(phys, ", "))
+	case len(zpk) == 0 && len(phys) == 0:
+		c.fail(t.key, nil, "required: either gain and poles (zpk form) or effectiveness and motor_tau (physical form)")
+	}
+	// With both forms given, still check each value, but do not ask for
+	// the missing keys of either form.
+	required := !both
+	if len(zpk) > 0 {
+		pl.Model, _ = c.zpk(t, required, true)
+	}
+	if len(phys) > 0 {
+		eff, okE := t.number("effectiveness", numRule{desc: "> 0", unit: "rad/s² per unit command", ok: isPositive}, required, 0)
+		tau, okT := t.number("motor_tau", numRule{desc: "> 0", unit: "s", ok: isPositive}, required, 0)
+		if okE && okT && !both {
+			pl.Model = physicalModel(eff, tau)
+		}
+	}
+	pl.Delay, _ = t.number("delay", delayRule(), false, defaultPlantDelay)
+	return pl
+}
+
+// physicalModel is the plant of the physical form: the command sets the
+// angular acceleration through a first-order motor lag, and the rate is
+// its integral,
+//
+//	G(s) = effectiveness / (s·(motor_tau·s + 1))
+//	     = (effectiveness/motor_tau) / (s·(s + 1/motor_tau)),
+//
+// so the gain is effectiveness/motor_tau and the poles are 0 and
+// −1/motor_tau.
+func physicalModel(effectiveness, motorTau float64) lti.ZPK {
+	return lti.ZPK{
+		Gain:  effectiveness / motorTau,
+		Poles: []complex128{0, complex(-1/motorTau, 0)},
+	}
+}
+
+// zpk checks gain, poles and zeros of t. polesRequired is false for a
+// sensor, which may be a pure gain.
+func (c *checker) zpk(t *table, required, polesRequired bool) (lti.ZPK, bool) {
+	var z lti.ZPK
+	gain, okG := t.number("gain", numRule{desc: "≠ 0", ok: isNonZero}, required, 0)
+	z.Gain = gain
+	okP := true
+	switch {
+	case t.has("poles"):
+		z.Poles, okP = t.roots("poles")
+	case required && polesRequired:
+		c.fail(t.sub("poles"), nil, "required: an array of real poles and pairs [re, im] (rad/s)")
+		okP = false
+	}
+	okZ := true
+	if t.has("zeros") {
+		z.Zeros, okZ = t.roots("zeros")
+	} else {
+		z.Zeros = defaultZeros()
+	}
+	if okP && okZ && len(z.Zeros) > len(z.Poles) {
+		c.fail(t.sub("zeros"), valueOrNil(t.m["zeros"]),
+			"improper: %s but %s (a pair counts as 2); at most as many zeros as poles",
+			count(len(z.Zeros), "zero"), count(len(z.Poles), "pole"))
+		okZ = false
+	}
+	return z, okG && okP && okZ
+}
+
+// count writes "1 pole", "2 poles".
+func count(n int, noun string) string {
+	if n == 1 {
+		return "1 " + noun
+	}
+	return fmt.Sprintf("%d %ss", n, noun)
+}
+
+// sensor checks [axes.NAME.sensor]: a first-order lowpass or a zpk model.
+func (c *checker) sensor(t *table) lti.ZPK {
+	zpk := t.present(zpkKeys()...)
+	switch {
+	case len(t.m) == 0:
+		c.fail(t.key, nil, "empty table: give lowpass_hz or gain/poles/zeros, or omit [sensor] for an ideal sensor")
+		return idealSensor()
+	case t.has("lowpass_hz") && len(zpk) > 0:
+		c.fail(t.key, nil, "both lowpass_hz and the zpk form (%s) are given: use one", strings.Join(zpk, ", "))
+		t.number("lowpass_hz", numRule{desc: "> 0", unit: "Hz", ok: isPositive}, false, 0)
+		c.zpk(t, false, false)
+		return idealSensor()
+	case t.has("lowpass_hz"):
+		f, ok := t.number("lowpass_hz", numRule{desc: "> 0", unit: "Hz", ok: isPositive}, true, 0)
+		if !ok {
+			return idealSensor()
+		}
+		return lowpassModel(f)
+	case len(zpk) == 0:
+		// Only unknown keys, already reported.
+		return idealSensor()
+	}
+	z, ok := c.zpk(t, true, false)
+	if !ok {
+		return idealSensor()
+	}
+	// A sensor is outside the loop: an unstable or marginal pole makes the
+	// measurement drift without bound whatever the controller does.
+	stable := true
+	reported := -1
+	for i, p := range z.Poles {
+		if real(p) < 0 {
+			continue
+		}
+		stable = false
+		// A pair expands to two roots of one array element; report it once.
+		if idx := rootIndex(t.m["poles"], i); idx != reported {
+			reported = idx
+			c.fail(fmt.Sprintf("%s[%d]", t.sub("poles"), idx), elementAt(t.m["poles"], idx),
+				"sensor poles must be stable (real part < 0)")
+		}
+	}
+	if !stable {
+		return idealSensor()
+	}
+	return z
+}
+
+// lowpassModel is the first-order sensor lowpass with corner f (Hz) and
+// unit DC gain: H(s) = ωc/(s + ωc), ωc = 2π·f, so Gain = ωc and the pole is
+// −ωc.
+func lowpassModel(f float64) lti.ZPK {
+	wc := float64(2 * math.Pi * f)
+	return lti.ZPK{Gain: wc, Poles: []complex128{complex(-wc, 0)}}
+}
+
+// rootIndex maps index i of the expanded roots back to the element of the
+// TOML array it came from (a pair expands to two roots).
+func rootIndex(v any, i int) int {
+	arr, _ := v.([]any)
+	n := 0
+	for idx, e := range arr {
+		width := 1
+		if _, isPair := e.([]any); isPair {
+			width = 2
+		}
+		if i < n+width {
+			return idx
+		}
+		n += width
+	}
+	return len(arr) - 1
+}
+
+// elementAt returns element idx of the TOML array v, or nil.
+func elementAt(v any, idx int) any {
+	arr, _ := v.([]any)
+	if idx < 0 || idx >= len(arr) {
+		return nil
+	}
+	return arr[idx]
+}
+
+// spec checks [axes.NAME.spec].
+func (c *checker) spec(t *table) synth.Spec {
+	var s synth.Spec
+	s.SettlingTime, _ = t.number("settling_time", numRule{desc: "> 0", unit: "s", ok: isPositive}, true, 0)
+	s.Band, _ = t.number("settling_band", numRule{
+		desc: fmt.Sprintf("in (0, %g]", maxSettlingBand), unit: "fraction of the final value; usually 0.02 or 0.05",
+		ok: func(x float64) bool { return x > 0 && x <= maxSettlingBand },
+	}, false, defaultSettlingBand)
+	s.Overshoot, _ = t.number("overshoot", numRule{
+		desc: "in (0, 1)", ok: func(x float64) bool { return x > 0 && x < 1 },
+	}, true, 0)
+	s.MinPhaseMargin, _ = t.number("min_phase_margin", numRule{
+		desc: fmt.Sprintf("in [0, %g)", maxPhaseMargin), unit: "deg",
+		ok: func(x float64) bool { return x >= 0 && x < maxPhaseMargin },
+	}, false, defaultMinPhaseMargin)
+	s.MinGainMargin, _ = t.number("min_gain_margin", numRule{desc: "≥ 0", unit: "dB", ok: isNonNegative}, false, defaultMinGainMargin)
+	return s
+}
+
+// control checks [axes.NAME.control]; loopHz is 0 when loop_hz is
+// invalid, which skips the checks against it.
+//
+// Keys that have no effect on the chosen form are errors rather than
+// silently ignored: a third_pole on a PI or a lead_zero on a PID is almost
+// certainly a form that was meant to be different.
+func (c *checker) control(t *table, loopHz float64) synth.Control {
+	ctl := synth.Control{
+		Form:              defaultForm,
+		Refine:            defaultRefine,
+		DerivativeOnError: defaultDerivativeOnError,
+		SetpointWeight:    defaultSetpointWeight,
+		OutputLimit:       [2]float64{defaultOutputLow, defaultOutputHigh},
+		AntiWindup:        defaultAntiWindup,
+		TrackingTime:      defaultTrackingTime,
+		Discretize:        defaultDiscretize,
+	}
+	forms := make([]string, len(synth.Forms))
+	for i, f := range synth.Forms {
+		forms[i] = string(f)
+	}
+	form, formOK := t.enum("form", string(defaultForm), forms...)
+	if formOK {
+		ctl.Form = synth.Form(form)
+	}
+	// only reports key k when the form is known and k does not apply to it.
+	only := func(k string, applies bool, which string) bool {
+		if formOK && !applies && t.has(k) {
+			c.fail(t.sub(k), valueOrNil(t.m[k]), "only for %s (form is %q)", which, form)
+			return false
+		}
+		return true
+	}
+
+	ctl.Refine, _ = t.boolean("refine", defaultRefine)
+
+	if only("third_pole", ctl.Form == synth.FormPID, `form = "pid"`) {
+		tp, _ := t.number("third_pole", numRule{desc: "> 1", unit: "multiple of the target's real part",
+			ok: func(x float64) bool { return x > 1 }}, false, defaultThirdPole)
+		if ctl.Form == synth.FormPID {
+			ctl.ThirdPole = tp
+		}
+	}
+
+	leadRule := numRule{desc: "< 0", unit: "rad/s", ok: func(x float64) bool { return x < 0 }}
+	if only("lead_zero", ctl.Form == synth.FormLead, `form = "lead"`) {
+		lz, _ := t.number("lead_zero", leadRule, formOK && ctl.Form == synth.FormLead, 0)
+		if ctl.Form == synth.FormLead {
+			ctl.LeadZero = lz
+		}
+	}
+
+	hasD := ctl.Form.HasDerivative()
+	if only("derivative_lowpass_hz", hasD, `forms with a derivative ("pd", "pid")`) {
+		rule := numRule{desc: "> 0", unit: "Hz", ok: isPositive}
+		if loopHz > 0 {
+			nyq := loopHz / 2
+			rule = numRule{desc: fmt.Sprintf("> 0 and below Nyquist (loop_hz/2 = %g)", nyq), unit: "Hz",
+				ok: func(x float64) bool { return x > 0 && x < nyq }}
+		}
+		fd, _ := t.number("derivative_lowpass_hz", rule, false, defaultDerivativeLowpassHz(loopHz))
+		if hasD {
+			ctl.DerivativeLowpassHz = fd
+		}
+	}
+	if only("derivative_on", hasD, `forms with a derivative ("pd", "pid")`) {
+		on, ok := t.enum("derivative_on", "measurement", "measurement", "error")
+		if ok {
+			ctl.DerivativeOnError = on == "error"
+		}
+	}
+
+	if only("setpoint_weight", ctl.Form != synth.FormLead, `forms "p", "pi", "pd", "pid"`) && t.has("setpoint_weight") {
+		b, ok := t.number("setpoint_weight", numRule{desc: "in [0, 1]", ok: func(x float64) bool { return x >= 0 && x <= 1 }}, false, defaultSetpointWeight)
+		if ok {
+			ctl.SetpointWeight, ctl.SetpointWeightSet = b, true
+		}
+	}
+
+	limOK := true
+	if t.has("output_limit") {
+		ctl.OutputLimit, limOK = c.outputLimit(t.sub("output_limit"), t.m["output_limit"])
+	}
+
+	hasI := ctl.Form.HasIntegral()
+	if only("integrator_limit", hasI, `forms with an integral ("pi", "pid")`) {
+		il, _ := t.number("integrator_limit", numRule{desc: "> 0", unit: "command units", ok: isPositive}, false, 0)
+		if hasI {
+			if !t.has("integrator_limit") && limOK {
+				il = defaultIntegratorLimit(ctl.OutputLimit)
+			}
+			ctl.IntegratorLimit = il
+		}
+	}
+
+	aw, awOK := t.enum("antiwindup", defaultAntiWindup, "none", "clamp", "backcalc")
+	if awOK {
+		ctl.AntiWindup = aw
+	}
+	if awOK && aw != "backcalc" && t.has("tracking_time") {
+		c.fail(t.sub("tracking_time"), valueOrNil(t.m["tracking_time"]), "only for antiwindup = \"backcalc\" (antiwindup is %q)", aw)
+	} else {
+		ctl.TrackingTime, _ = t.number("tracking_time", numRule{desc: "≥ 0", unit: "s; 0 picks the rule of thumb", ok: isNonNegative}, false, defaultTrackingTime)
+	}
+
+	if d, ok := t.enum("discretize", defaultDiscretize, "tustin", "tustin_prewarp", "backward", "forward"); ok {
+		ctl.Discretize = d
+	}
+	return ctl
+}
+
+// outputLimit checks output_limit = [low, high].
+func (c *checker) outputLimit(key string, v any) ([2]float64, bool) {
+	const allowed = "[low, high] with finite low < high and low ≤ 0 ≤ high (a rate controller must be able to command zero)"
+	arr, ok := v.([]any)
+	if !ok || len(arr) != 2 {
+		c.fail(key, valueOrNil(v), "must be an array %s", allowed)
+		return [2]float64{}, false
+	}
+	lo, okL := asNumber(arr[0])
+	hi, okH := asNumber(arr[1])
+	if !okL || !okH {
+		c.fail(key, v, "must be two numbers %s", allowed)
+		return [2]float64{}, false
+	}
+	if math.IsNaN(lo) || math.IsInf(lo, 0) || math.IsNaN(hi) || math.IsInf(hi, 0) || !(lo < hi) || lo > 0 || hi < 0 {
+		c.fail(key, v, "must be %s", allowed)
+		return [2]float64{}, false
+	}
+	return [2]float64{lo, hi}, true
+}

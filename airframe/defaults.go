@@ -1,0 +1,159 @@
+package airframe
+
+import (
+	"math"
+
+	"locusmith/discrete"
+	"locusmith/internal/lti"
+	"locusmith/synth"
+)
+
+// Every default and every sanity limit of the airframe file lives in this
+// file, each with the reason for its value. The decoder refers to these
+// names only, so a default cannot differ between two places.
+
+// Defaults of optional keys.
+const (
+	// defaultComputeDelay is compute_delay: the command computed from the
+	// sample taken at one tick is applied at the next tick (common practice
+	// in sampled flight control loops: read, compute, write at the next
+	// timer interrupt, so that the output instant does not jitter with the
+	// computation time).
+	defaultComputeDelay = 1
+
+	// defaultNumericType is numeric.type: single-precision float, the
+	// native type of the FPUs found on most flight controllers (for example
+	// the Cortex-M4F/M7 single-precision unit; common practice).
+	defaultNumericType = discrete.Float32
+
+	// defaultSettlingBand is spec.settling_band: the 2 % criterion, the one
+	// behind the textbook estimate Ts ≈ 4/(ζ·ωn) (Nise, Control Systems
+	// Engineering; Ogata, Modern Control Engineering; from memory).
+	defaultSettlingBand = 0.02
+
+	// defaultMinPhaseMargin and defaultMinGainMargin are the margin
+	// requirements when absent: none beyond stability (synth.Spec treats 0
+	// as "no requirement").
+	defaultMinPhaseMargin = 0.0
+	defaultMinGainMargin  = 0.0
+
+	// defaultForm is control.form: a PID, the usual structure of a
+	// multirotor rate loop (common practice); the integral removes the
+	// steady-state error under a constant disturbance torque.
+	defaultForm = synth.FormPID
+
+	// defaultRefine is control.refine: let the designer refine the textbook
+	// placement against the full-order loop, since the plant, sensor and
+	// delay make the second-order estimates only approximate.
+	defaultRefine = true
+
+	// defaultThirdPole is control.third_pole (pid only): the third real
+	// closed-loop pole sits five times as far from the imaginary axis as the
+	// dominant pair, the usual rule for a negligible extra pole (Nise,
+	// dominant-pole approximation, "five times farther"; from memory).
+	defaultThirdPole = 5.0
+
+	// defaultDerivativeLowpassDivisor gives control.derivative_lowpass_hz =
+	// loop_hz / 8 (forms with a derivative). At fs/8 Tustin's frequency
+	// warping, ωa = (2/T)·tan(ωT/2), moves the filter corner by
+	// tan(π/8)/(π/8) − 1 ≈ 5.5 %, and the corner is a factor 4 below
+	// Nyquist (Franklin, Powell, Workman, Digital Control of Dynamic
+	// Systems, Tustin and prewarping; from memory), while the filter still
+	// passes the loop's crossover, which sits well below fs/8 at the usual
+	// sample rates of 10-40× the bandwidth (Åström, Wittenmark, Computer-
+	// Controlled Systems; from memory).
+	defaultDerivativeLowpassDivisor = 8.0
+
+	// defaultDerivativeOnError is control.derivative_on = "measurement":
+	// the derivative of the measurement instead of the error, which avoids
+	// the derivative kick on setpoint steps (Åström, Hägglund, Advanced PID
+	// Control; from memory).
+	defaultDerivativeOnError = false
+
+	// defaultSetpointWeight is control.setpoint_weight when absent: b = 1,
+	// the plain error-feedback PID; SetpointWeightSet stays false so that
+	// refinement may choose b (Åström, Hägglund, setpoint weighting).
+	defaultSetpointWeight = 1.0
+
+	// defaultOutputLow and defaultOutputHigh are control.output_limit: a
+	// command normalized to ±1, the usual input range of a motor mixer
+	// (common practice).
+	defaultOutputLow  = -1.0
+	defaultOutputHigh = 1.0
+
+	// defaultAntiWindup is control.antiwindup: back-calculation, which
+	// unwinds the integrator smoothly with the tracking time Tt instead of
+	// freezing it (Åström, Hägglund, Advanced PID Control, integrator
+	// windup; from memory).
+	defaultAntiWindup = "backcalc"
+
+	// defaultTrackingTime is control.tracking_time: 0 asks the designer for
+	// the rule of thumb Tt ≈ √(Ti·Td) (Åström, Hägglund; from memory).
+	defaultTrackingTime = 0.0
+
+	// defaultDiscretize is control.discretize: Tustin, which maps the
+	// stable half-plane onto the unit disc so that a stable continuous
+	// controller stays stable (Franklin, Powell, Workman; common practice).
+	defaultDiscretize = "tustin"
+
+	// defaultPlantDelay is the plant's transport delay when absent.
+	defaultPlantDelay = 0.0
+)
+
+// defaultZeros is the zeros list of a zpk plant or sensor when absent: none.
+// Roots lists that are empty are nil throughout, so that an absent list and
+// an empty one decode to the same value.
+func defaultZeros() []complex128 { return nil }
+
+// idealSensor is the sensor when [sensor] is absent: the measured rate is
+// the true rate (unit gain, no dynamics).
+func idealSensor() lti.ZPK { return lti.ZPK{Gain: 1} }
+
+// defaultDerivativeLowpassHz is control.derivative_lowpass_hz for a form
+// with a derivative; see defaultDerivativeLowpassDivisor.
+func defaultDerivativeLowpassHz(loopHz float64) float64 {
+	return loopHz / defaultDerivativeLowpassDivisor
+}
+
+// defaultIntegratorLimit is control.integrator_limit for a form with an
+// integral: max(|low|, |high|), so that the integral term alone can drive
+// the command to either limit but not wind up beyond it (common practice).
+func defaultIntegratorLimit(outputLimit [2]float64) float64 {
+	return math.Max(math.Abs(outputLimit[0]), math.Abs(outputLimit[1]))
+}
+
+// Sanity limits. Values beyond these are almost certainly typing errors (a
+// missing decimal point, milliseconds written as seconds).
+const (
+	// maxFileBytes bounds the input: a hand-written airframe file is a few
+	// kilobytes; anything near a megabyte is the wrong file.
+	maxFileBytes = 1 << 20
+
+	// maxLoopHz is the largest loop_hz: 1 MHz is far above any rate loop
+	// (flight controllers run 0.25-8 kHz).
+	maxLoopHz = 1e6
+
+	// maxComputeDelay is the largest compute_delay in samples.
+	maxComputeDelay = 4
+
+	// maxDelay is the largest plant transport delay in seconds; a rate
+	// loop with half a second of dead time is not what this tool designs.
+	maxDelay = 0.5
+
+	// maxSettlingBand bounds spec.settling_band: 20 % is already a loose
+	// band; 2 % and 5 % are the usual ones.
+	maxSettlingBand = 0.2
+
+	// maxPhaseMargin is the exclusive upper bound of min_phase_margin in
+	// degrees: a loop with a phase margin of 90° or more is not a
+	// requirement that can be traded against speed.
+	maxPhaseMargin = 90.0
+
+	// maxIdentLen is the longest airframe or axis name (the pattern
+	// [a-z][a-z0-9_]{0,31}). Both prefix generated C identifiers, and C99
+	// guarantees only 31 significant initial characters of an external
+	// name and 63 of an internal one (5.2.4.1); 32 keeps each part short.
+	// Whether a combined name such as <airframe>_<axis>_state fits is the
+	// emitter's check, since only it knows the suffixes.
+	maxIdentLen = 32
+)

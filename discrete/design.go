@@ -1,0 +1,148 @@
+package discrete
+
+import (
+	"fmt"
+	"math"
+
+	"locusmith/internal/lti"
+	"locusmith/synth"
+)
+
+// Design is the design of one axis at the loop rate.
+type Design struct {
+	Problem synth.Problem
+	Loop    Loop
+	Numeric Numeric
+	// Cont is the continuous design (refined against the sampled loop).
+	Cont   *synth.Design
+	Coeffs Coeffs
+	Plant  Plant
+	Verif  Verification
+	// Checks are the spec checks on the sampled loop, plus sampling.
+	Checks   []synth.Check
+	Warnings []string
+}
+
+// OK reports whether every check passed.
+func (d *Design) OK() bool {
+	for _, c := range d.Checks {
+		if !c.OK {
+			return false
+		}
+	}
+	return true
+}
+
+// Evaluator returns a refinement evaluator that judges candidates by the
+// sampled loop: the controller as discretized at the loop rate, the ZOH
+// plant, the compute delay.
+func Evaluator(p synth.Problem, pl Plant, d int) synth.Evaluator {
+	return func(c synth.Controller, bs []float64) (synth.Evaluation, error) {
+		var e synth.Evaluation
+		wc := math.NaN()
+		if Method(p.Ctrl.Discretize) == TustinPrewarp {
+			wc = synth.LoopMargins(p, c).Crossover
+		}
+		k, _, err := Realize(c, p.Ctrl, pl.T, wc)
+		if err != nil {
+			return e, err
+		}
+		lc := linearize(k)
+		L := newClosedLoop(pl, lc, d)
+		ps, err := L.poles()
+		if err != nil {
+			return e, err
+		}
+		if e.Stable = stabilityMargin(ps) > 0; !e.Stable {
+			return e, nil
+		}
+		lo, _ := spanOf(p)
+		e.Margins = loopMargins(pl, lc, d, lo)
+		n := horizon(p.Spec.SettlingTime, pl.T, ps)
+		k0, k1 := k, k
+		k0.KpB, k1.KpB = 0, k.Kp
+		L0, L1 := newClosedLoop(pl, linearize(k0), d), newClosedLoop(pl, linearize(k1), d)
+		y0, y1, y := make([]float64, n), make([]float64, n), make([]float64, n)
+		L0.stepInto(y0, nil)
+		L1.stepInto(y1, nil)
+		dc0, dc1 := L0.dcGain(), L1.dcGain()
+		for _, b := range bs {
+			for i := range y {
+				y[i] = y0[i] + b*(y1[i]-y0[i])
+			}
+			e.Steps = append(e.Steps, lti.StepMetrics(y, pl.T, dc0+b*(dc1-dc0), p.Spec.Band))
+		}
+		return e, nil
+	}
+}
+
+// Sampling rules of thumb (Åström & Wittenmark, Computer-Controlled
+// Systems, choice of sampling period, from memory): ωc·T between about
+// 0.15 and 0.5, and 4 to 10 samples per closed-loop rise time. locusmith
+// warns beyond the lenient ends of both ranges.
+const (
+	MaxCrossoverTimesT = 0.5
+	MinSamplesPerRise  = 4
+)
+
+// DesignAxis designs one axis for the loop rate: the continuous design,
+// refined so that the sampled loop meets the spec, then discretized and
+// verified at the samples.
+func DesignAxis(p synth.Problem, loop Loop, num Numeric) (*Design, error) {
+	if !(loop.Hz > 0) || math.IsInf(loop.Hz, 0) {
+		return nil, fmt.Errorf("axis %s: loop rate %g Hz: must be finite and > 0", p.Axis, loop.Hz)
+	}
+	T := 1 / loop.Hz
+	pl, err := NewPlant(p, T)
+	if err != nil {
+		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+	}
+	cd, err := synth.DesignAxis(p, Evaluator(p, pl, loop.ComputeDelay))
+	if err != nil {
+		return nil, err
+	}
+	d := &Design{Problem: p, Loop: loop, Numeric: num, Cont: cd, Plant: pl}
+	k, warns, err := Realize(cd.Ctrl, p.Ctrl, T, cd.Verif.Margins.Crossover)
+	if err != nil {
+		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+	}
+	d.Coeffs = k
+	d.Warnings = append(append(d.Warnings, cd.Warnings...), warns...)
+	d.Verif, err = Verify(p, pl, k, loop.ComputeDelay)
+	if err != nil {
+		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+	}
+	v := d.Verif
+	d.Checks = synth.SpecChecks(p.Spec, v.Stable, 0, v.Step.Overshoot, v.Step.Settling, v.Margins.PhaseDeg, v.Margins.GainDB)
+	d.Checks[0] = synth.Check{Name: "stable", Limit: 1, Value: 1 - v.StabilityMargin, Upper: true, OK: v.Stable}
+	d.Checks = append(d.Checks, d.samplingCheck())
+	return d, nil
+}
+
+// samplingCheck fails when the target, the crossover or the derivative
+// filter is at or beyond Nyquist, and warns when the rate is low.
+func (d *Design) samplingCheck() synth.Check {
+	T := 1 / d.Loop.Hz
+	ny := math.Pi / T
+	worst := d.Cont.Target.OmegaN
+	what := "target ωn"
+	if wc := d.Cont.Verif.Margins.Crossover; wc > worst {
+		worst, what = wc, "crossover"
+	}
+	if d.Problem.Ctrl.Form.HasDerivative() {
+		if wf := 2 * math.Pi * d.Problem.Ctrl.DerivativeLowpassHz; wf > worst {
+			worst, what = wf, "derivative filter"
+		}
+	}
+	c := synth.Check{Name: "sampling", Limit: 1, Value: worst / ny, Upper: true, OK: worst < ny}
+	if !c.OK {
+		d.Warnings = append(d.Warnings, fmt.Sprintf("%s %.4g rad/s is at or beyond Nyquist π/T = %.4g rad/s: raise loop_hz or slow the design", what, worst, ny))
+	}
+	if wc := d.Cont.Verif.Margins.Crossover; wc*T > MaxCrossoverTimesT {
+		d.Warnings = append(d.Warnings, fmt.Sprintf("ωc·T = %.3g > %.2g: the loop rate is low for this crossover (rule of thumb 0.15–0.5)", wc*T, MaxCrossoverTimesT))
+	}
+	if r := d.Cont.Verif.Step.Rise; r > 0 && r/T < MinSamplesPerRise {
+		d.Warnings = append(d.Warnings, fmt.Sprintf("%.1f samples per closed-loop rise time < %d: the loop rate is low for this design", r/T, MinSamplesPerRise))
+	}
+	return c
+}

@@ -1,0 +1,179 @@
+package discrete
+
+import (
+	"fmt"
+	"math"
+	"math/cmplx"
+
+	"locusmith/internal/lti"
+	"locusmith/synth"
+)
+
+// Verification is the behaviour of the sampled loop.
+type Verification struct {
+	Stable bool
+	// Poles are the closed-loop poles in z, sorted by descending real part.
+	Poles []complex128
+	// StabilityMargin is 1 − max|z|: the smallest distance of a pole to the
+	// unit circle (negative when unstable).
+	StabilityMargin  float64
+	Step             lti.StepInfo
+	SteadyStateError float64
+	Margins          lti.Margins
+	// Y and U are the true rate and the command at the samples, t = k·T,
+	// for a unit setpoint step.
+	Y, U      []float64
+	Saturated Saturated
+}
+
+// Saturated is the large-step response with the nonlinear controller, with
+// the configured anti-windup and with none, side by side.
+type Saturated struct {
+	// Amplitude is the setpoint step, chosen so that the linear loop would
+	// need twice the output limit: 2·Hi/LinearPeakCommand.
+	Amplitude         float64
+	LinearPeakCommand float64 // peak |u| of the linear loop for a unit step
+	AntiWindup        AntiWindup
+	// Overshoot and Recovery (the settling time of the large step) with the
+	// configured anti-windup; the None fields without.
+	Overshoot, Recovery         float64
+	Settled                     bool
+	OvershootNone, RecoveryNone float64
+	SettledNone                 bool
+	IntegratorPeak              float64 // largest |integrator state| with anti-windup
+	Y, YNone, U, UNone          []float64
+}
+
+// horizon returns the number of samples to simulate a step: at least
+// 3·Ts and 10 time constants of the slowest pole (σ = −ln|z|/T), capped at
+// 100·Ts and 200 000 samples.
+func horizon(ts, T float64, poles []complex128) int {
+	slow := math.Inf(1)
+	for _, z := range poles {
+		if a := cmplx.Abs(z); a > 0 && a < 1 {
+			if s := -math.Log(a) / T; s < slow {
+				slow = s
+			}
+		}
+	}
+	end := 3 * ts
+	if !math.IsInf(slow, 1) {
+		end = math.Max(end, math.Min(10/slow, 100*ts))
+	}
+	n := int(math.Ceil(end/T)) + 1
+	return min(max(n, 16), 200000)
+}
+
+func stabilityMargin(ps []complex128) float64 {
+	m := 0.0
+	for _, z := range ps {
+		m = math.Max(m, cmplx.Abs(z))
+	}
+	return 1 - m
+}
+
+// Verify analyses the sampled loop of coefficients k on plant pl with
+// compute delay d against the problem's spec.
+func Verify(p synth.Problem, pl Plant, k Coeffs, d int) (Verification, error) {
+	var v Verification
+	c := linearize(k)
+	L := newClosedLoop(pl, c, d)
+	ps, err := L.poles()
+	if err != nil {
+		return v, fmt.Errorf("discrete closed-loop poles: %w", err)
+	}
+	v.Poles = ps
+	v.StabilityMargin = stabilityMargin(ps)
+	v.Stable = v.StabilityMargin > 0
+	lo, _ := spanOf(p)
+	v.Margins = loopMargins(pl, c, d, lo)
+	if !v.Stable {
+		v.Step = lti.StepInfo{Final: math.NaN(), Overshoot: math.Inf(1), Settling: math.Inf(1), Rise: math.NaN()}
+		return v, nil
+	}
+	n := horizon(p.Spec.SettlingTime, pl.T, ps)
+	v.Y, v.U = make([]float64, n), make([]float64, n)
+	L.stepInto(v.Y, v.U)
+	dc := L.dcGain()
+	v.SteadyStateError = 1 - dc
+	v.Step = lti.StepMetrics(v.Y, pl.T, dc, p.Spec.Band)
+	v.Saturated = saturated(p, pl, k, d, v.U, dc, n)
+	return v, nil
+}
+
+// spanOf returns the frequency span of the problem's corners.
+func spanOf(p synth.Problem) (lo, hi float64) {
+	lo, hi = math.Inf(1), 0.0
+	for _, rs := range [][]complex128{p.Plant.Model.Poles, p.Plant.Model.Zeros, p.Sensor.Poles, p.Sensor.Zeros} {
+		for _, r := range rs {
+			if a := cmplx.Abs(r); a > 0 {
+				lo, hi = math.Min(lo, a), math.Max(hi, a)
+			}
+		}
+	}
+	w := 4 / p.Spec.SettlingTime
+	lo, hi = math.Min(lo, w), math.Max(hi, w)
+	return lo / 1000, hi * 100
+}
+
+// saturated simulates a setpoint step that would need twice the output
+// limit in the linear loop, with the nonlinear reference model, with the
+// configured anti-windup and with none.
+func saturated(p synth.Problem, pl Plant, k Coeffs, d int, ulin []float64, dc float64, n int) Saturated {
+	peak := 0.0
+	for _, u := range ulin {
+		peak = math.Max(peak, math.Abs(u))
+	}
+	s := Saturated{LinearPeakCommand: peak, AntiWindup: k.AntiWindup}
+	if !(peak > 0) {
+		return s
+	}
+	limit := k.Hi
+	s.Amplitude = 2 * limit / peak
+	s.Y, s.U, s.IntegratorPeak = simulateNonlinear(pl, k, d, s.Amplitude, n)
+	none := k
+	none.AntiWindup = AWNone
+	s.YNone, s.UNone, _ = simulateNonlinear(pl, none, d, s.Amplitude, n)
+	final := s.Amplitude * dc
+	m := lti.StepMetrics(s.Y, pl.T, final, p.Spec.Band)
+	mn := lti.StepMetrics(s.YNone, pl.T, final, p.Spec.Band)
+	s.Overshoot, s.Recovery, s.Settled = m.Overshoot, m.Settling, m.Settled
+	s.OvershootNone, s.RecoveryNone, s.SettledNone = mn.Overshoot, mn.Settling, mn.Settled
+	return s
+}
+
+// simulateNonlinear runs the reference model (float64) against the sampled
+// plant for a setpoint step of amplitude a, and returns the true rate, the
+// command and the largest |integrator state|.
+func simulateNonlinear(pl Plant, k Coeffs, d int, a float64, n int) (y, u []float64, ipeak float64) {
+	prm := ParamsOf[float64](k)
+	var st State[float64]
+	x := make([]float64, 2*pl.N)
+	xc, xn := x[:pl.N], x[pl.N:]
+	q := make([]float64, d+1) // q[0] newest
+	y, u = make([]float64, n), make([]float64, n)
+	for i := 0; i < n; i++ {
+		var ym, yt float64
+		for j := 0; j < pl.N; j++ {
+			ym += pl.Cm[j] * xc[j]
+			yt += pl.Cy[j] * xc[j]
+		}
+		y[i] = yt
+		cmd := Step(&prm, &st, a, ym)
+		u[i] = cmd
+		ipeak = math.Max(ipeak, math.Abs(st.S))
+		copy(q[1:], q[:d])
+		q[0] = cmd
+		ua := q[d]
+		for r := 0; r < pl.N; r++ {
+			acc := pl.B[r] * ua
+			row := pl.A[r*pl.N : (r+1)*pl.N]
+			for j, av := range row {
+				acc += av * xc[j]
+			}
+			xn[r] = acc
+		}
+		xc, xn = xn, xc
+	}
+	return y, u, ipeak
+}

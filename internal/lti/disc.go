@@ -1,0 +1,236 @@
+package lti
+
+import (
+	"math"
+	"math/cmplx"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Disc is a discrete SISO state-space model with sample period T:
+//
+//	x[k+1] = A x[k] + B u[k],  y[k] = C x[k] + D u[k],
+//
+// A row-major N×N, B and C of length N.
+type Disc struct {
+	N       int
+	A, B, C []float64
+	D       float64
+	T       float64
+}
+
+func (d Disc) dimsOK() bool {
+	return d.N >= 0 && len(d.A) == d.N*d.N && len(d.B) == d.N && len(d.C) == d.N
+}
+
+func (d Disc) checkFinite() error {
+	for _, v := range [][]float64{d.A, d.B, d.C, {d.D}} {
+		for _, x := range v {
+			if math.IsNaN(x) || math.IsInf(x, 0) {
+				return ErrNonFinite
+			}
+		}
+	}
+	return nil
+}
+
+// stackN is the state size up to which Simulate/StepInto keep their state on
+// the stack (no heap allocation).
+const stackN = 32
+
+// Simulate returns y[k] for the input sequence u, starting from x[0] = 0.
+// Inconsistent dimensions give a slice of NaN.
+func (d Disc) Simulate(u []float64) []float64 {
+	y := make([]float64, len(u))
+	d.SimulateInto(y, u)
+	return y
+}
+
+// SimulateInto writes the response to u into y[:len(u)] (y must be at least
+// as long as u; extra entries are untouched). No allocation for N <= 32;
+// unrolled kernels for N <= 10.
+func (d Disc) SimulateInto(y, u []float64) {
+	if len(y) < len(u) {
+		u = u[:len(y)]
+	}
+	if !d.dimsOK() {
+		for k := range u {
+			y[k] = math.NaN()
+		}
+		return
+	}
+	if simKernel(d.N, d.A, d.B, d.C, d.D, y, u) {
+		return
+	}
+	simGeneric(d.N, d.A, d.B, d.C, d.D, y, u)
+}
+
+// simGeneric is the reference loop; the unrolled kernels in kernels_gen.go
+// reproduce its summation order exactly.
+func simGeneric(n int, A, B, C []float64, D float64, y, u []float64) {
+	var xa, xb [stackN]float64
+	var x, xn []float64
+	if n <= stackN {
+		x, xn = xa[:n], xb[:n]
+	} else {
+		buf := make([]float64, 2*n)
+		x, xn = buf[:n], buf[n:]
+	}
+	A, B, C = A[:n*n], B[:n], C[:n]
+	y = y[:len(u)]
+	for k, uk := range u {
+		var acc float64
+		for i, c := range C {
+			acc += c * x[i]
+		}
+		y[k] = acc + D*uk
+		for i := 0; i < n; i++ {
+			row := A[i*n : i*n+n]
+			s := B[i] * uk
+			for j, a := range row {
+				s += a * x[j]
+			}
+			xn[i] = s
+		}
+		x, xn = xn, x
+	}
+}
+
+// Step returns the unit-step response y[0..n-1] (x[0] = 0, u[k] = 1).
+func (d Disc) Step(n int) []float64 {
+	if n < 0 {
+		n = 0
+	}
+	y := make([]float64, n)
+	d.StepInto(y)
+	return y
+}
+
+// StepInto writes the unit-step response into y (len(y) samples, x[0] = 0)
+// without allocating (for N <= 32). It is the inner loop of design searches:
+// for N <= 10 it runs a fully unrolled kernel (kernels_gen.go), about 10 ns
+// per sample for N = 6.
+func (d Disc) StepInto(y []float64) {
+	if !d.dimsOK() {
+		for k := range y {
+			y[k] = math.NaN()
+		}
+		return
+	}
+	if stepKernel(d.N, d.A, d.B, d.C, d.D, y) {
+		return
+	}
+	stepGeneric(d.N, d.A, d.B, d.C, d.D, y)
+}
+
+// stepGeneric is the reference loop for StepInto (see simGeneric).
+func stepGeneric(n int, A, B, C []float64, D float64, y []float64) {
+	var xa, xb [stackN]float64
+	var x, xn []float64
+	if n <= stackN {
+		x, xn = xa[:n], xb[:n]
+	} else {
+		buf := make([]float64, 2*n)
+		x, xn = buf[:n], buf[n:]
+	}
+	A, B, C = A[:n*n], B[:n], C[:n]
+	for k := range y {
+		acc := D
+		for i, c := range C {
+			acc += c * x[i]
+		}
+		y[k] = acc
+		for i := 0; i < n; i++ {
+			row := A[i*n : i*n+n]
+			s := B[i]
+			for j, a := range row {
+				s += a * x[j]
+			}
+			xn[i] = s
+		}
+		x, xn = xn, x
+	}
+}
+
+// Eval returns C (zI−A)^{-1} B + D (complex Inf if z is an eigenvalue of A).
+func (d Disc) Eval(z complex128) complex128 {
+	if !d.dimsOK() {
+		return cmplxNaN()
+	}
+	return resolvent(d.N, d.A, d.B, d.C, d.D, z)
+}
+
+// Poles returns the eigenvalues of A sorted by SortRoots.
+func (d Disc) Poles() ([]complex128, error) {
+	if !d.dimsOK() {
+		return nil, ErrBadDims
+	}
+	if d.N == 0 {
+		return []complex128{}, nil
+	}
+	ev, err := eigvals(mat.NewDense(d.N, d.N, append([]float64(nil), d.A...)))
+	if err != nil {
+		return nil, err
+	}
+	SortRoots(ev)
+	return ev, nil
+}
+
+func cmplxNaN() complex128 { return cmplx.NaN() }
+
+// resolvent computes C (zI−A)^{-1} B + D by complex Gaussian elimination
+// with partial pivoting on (zI−A) v = B.
+func resolvent(n int, a, b, c []float64, dd float64, z complex128) complex128 {
+	if n == 0 {
+		return complex(dd, 0)
+	}
+	m := make([]complex128, n*(n+1)) // augmented [zI−A | B]
+	w := n + 1
+	for i := 0; i < n; i++ {
+		for j := 0; j < n; j++ {
+			m[i*w+j] = complex(-a[i*n+j], 0)
+		}
+		m[i*w+i] += z
+		m[i*w+n] = complex(b[i], 0)
+	}
+	for col := 0; col < n; col++ {
+		p, best := col, -1.0
+		for r := col; r < n; r++ {
+			if v := cmplx.Abs(m[r*w+col]); v > best {
+				p, best = r, v
+			}
+		}
+		if math.IsNaN(best) {
+			return cmplxNaN()
+		}
+		if best == 0 {
+			return cmplx.Inf()
+		}
+		if p != col {
+			for j := col; j < w; j++ {
+				m[p*w+j], m[col*w+j] = m[col*w+j], m[p*w+j]
+			}
+		}
+		piv := m[col*w+col]
+		for r := col + 1; r < n; r++ {
+			f := m[r*w+col] / piv
+			if f == 0 {
+				continue
+			}
+			for j := col; j < w; j++ {
+				m[r*w+j] -= f * m[col*w+j]
+			}
+		}
+	}
+	var acc complex128
+	v := make([]complex128, n)
+	for i := n - 1; i >= 0; i-- {
+		s := m[i*w+n]
+		for j := i + 1; j < n; j++ {
+			s -= m[i*w+j] * v[j]
+		}
+		v[i] = s / m[i*w+i]
+		acc += complex(c[i], 0) * v[i]
+	}
+	return acc + complex(dd, 0)
+}

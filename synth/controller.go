@@ -1,0 +1,140 @@
+package synth
+
+import (
+	"math"
+
+	"locusmith/internal/lti"
+)
+
+// Controller is a designed continuous-time controller.
+//
+// For the PID family, C(s) = Kp + Ki/s + Kd·s/(Tf·s + 1) acts on the
+// measurement and F(s) = B·Kp + Ki/s (+ Kd·s/(Tf·s + 1) with the derivative
+// on the error) on the setpoint, so u = F·r − C·y_m. For the lead form,
+// C(s) = F(s) = K(s − Zero)/(s − Pole) acts on the error.
+type Controller struct {
+	Form              Form
+	Kp, Ki, Kd        float64
+	Tf                float64 // derivative filter time constant, s
+	B                 float64 // setpoint weight on P
+	DerivativeOnError bool
+	K, Zero, Pole     float64 // lead form only
+}
+
+// den returns the common denominator of C and F.
+func (c Controller) den() lti.Poly {
+	switch c.Form {
+	case FormPI:
+		return lti.Poly{0, 1}
+	case FormPD:
+		return lti.Poly{1, c.Tf}
+	case FormPID:
+		return lti.Poly{0, 1, c.Tf}
+	case FormLead:
+		return lti.Poly{-c.Pole, 1}
+	}
+	return lti.Poly{1}
+}
+
+// TF returns the feedback path C(s).
+func (c Controller) TF() lti.TF {
+	var n lti.Poly
+	switch c.Form {
+	case FormP:
+		n = lti.Poly{c.Kp}
+	case FormPI:
+		n = lti.Poly{c.Ki, c.Kp}
+	case FormPD:
+		n = lti.Poly{c.Kp, c.Kp*c.Tf + c.Kd}
+	case FormPID:
+		n = lti.Poly{c.Ki, c.Kp + c.Ki*c.Tf, c.Kp*c.Tf + c.Kd}
+	case FormLead:
+		n = lti.Poly{-c.K * c.Zero, c.K}
+	}
+	return lti.TF{Num: n, Den: c.den()}
+}
+
+// Setpoint returns the setpoint path F(s), over the same denominator as C.
+func (c Controller) Setpoint() lti.TF {
+	var n lti.Poly
+	kd := 0.0
+	if c.DerivativeOnError {
+		kd = c.Kd
+	}
+	switch c.Form {
+	case FormP:
+		n = lti.Poly{c.B * c.Kp}
+	case FormPI:
+		n = lti.Poly{c.Ki, c.B * c.Kp}
+	case FormPD:
+		n = lti.Poly{c.B * c.Kp, c.B*c.Kp*c.Tf + kd}
+	case FormPID:
+		n = lti.Poly{c.Ki, c.B*c.Kp + c.Ki*c.Tf, c.B*c.Kp*c.Tf + kd}
+	case FormLead:
+		return c.TF()
+	}
+	return lti.TF{Num: n, Den: c.den()}
+}
+
+// Eval returns C(s).
+func (c Controller) Eval(s complex128) complex128 {
+	switch c.Form {
+	case FormLead:
+		return complex(c.K, 0) * (s - complex(c.Zero, 0)) / (s - complex(c.Pole, 0))
+	}
+	v := complex(c.Kp, 0)
+	if c.Form.HasIntegral() {
+		v += complex(c.Ki, 0) / s
+	}
+	if c.Form.HasDerivative() {
+		v += complex(c.Kd, 0) * s / (complex(c.Tf, 0)*s + 1)
+	}
+	return v
+}
+
+// Series returns C(s) as gain, zeros and poles: C = Gain·Π(s − z)/Π(s − p).
+func (c Controller) Series() (lti.ZPK, error) {
+	t := c.TF()
+	n, d := t.Num.Trim(), t.Den.Trim()
+	zs, err := n.Roots()
+	if err != nil {
+		return lti.ZPK{}, err
+	}
+	ps, err := d.Roots()
+	if err != nil {
+		return lti.ZPK{}, err
+	}
+	return lti.ZPK{Gain: n[len(n)-1] / d[len(d)-1], Zeros: zs, Poles: ps}, nil
+}
+
+// HighFrequencyGain is |C(j∞)|, the gain from sensor noise at high frequency
+// to the command: Kp + Kd/Tf for the PID family, K for lead. Refinement
+// minimizes it, as it sets how much gyro noise reaches the actuators.
+func (c Controller) HighFrequencyGain() float64 {
+	switch c.Form {
+	case FormLead:
+		return math.Abs(c.K)
+	case FormPD, FormPID:
+		if c.Tf > 0 {
+			return c.Kp + c.Kd/c.Tf
+		}
+		return math.Inf(1)
+	}
+	return c.Kp
+}
+
+// Ti and Td are the integral and derivative times of the standard form.
+func (c Controller) Ti() float64 {
+	if c.Ki == 0 {
+		return math.Inf(1)
+	}
+	return c.Kp / c.Ki
+}
+
+// Td returns the derivative time Kd/Kp.
+func (c Controller) Td() float64 {
+	if c.Kp == 0 {
+		return 0
+	}
+	return c.Kd / c.Kp
+}

@@ -1,0 +1,188 @@
+package synth
+
+import (
+	"errors"
+	"fmt"
+	"math"
+)
+
+// Stage is one placement and its verification.
+type Stage struct {
+	Target  Target
+	Ctrl    Controller
+	Working Working
+	Verif   Verification
+}
+
+// Check is one pass/fail comparison against the spec.
+type Check struct {
+	Name  string  // e.g. "overshoot"
+	Limit float64 // the spec's bound
+	Value float64 // what the design achieves
+	Upper bool    // true when Value must not exceed Limit, false when it must reach it
+	OK    bool
+}
+
+// Design is the continuous design of one axis.
+type Design struct {
+	Problem Problem
+	// Stage is the design chosen: the refined one when refinement ran.
+	Stage
+	// Textbook is the unrefined placement at the spec's target, when
+	// refinement changed the design; nil otherwise.
+	Textbook *Stage
+	// TextbookErr says why the textbook target could not be placed, if so.
+	TextbookErr string
+	Refined     bool
+	// Met is false when no design of the form met the spec; the closest
+	// one found is then reported.
+	Met      bool
+	Checks   []Check
+	Warnings []string
+}
+
+// OK reports whether every check passed.
+func (d *Design) OK() bool {
+	for _, c := range d.Checks {
+		if !c.OK {
+			return false
+		}
+	}
+	return true
+}
+
+// DesignAxis designs and verifies one axis: textbook placement at the spec's
+// target, then (with refinement) the search for the least-gain design whose
+// full-order response meets the spec as judged by eval (nil: the continuous
+// loop). An *InfeasibleError is returned when the form cannot place any
+// stable design.
+func DesignAxis(p Problem, eval Evaluator) (*Design, error) {
+	t, err := TargetFromSpec(p.Spec)
+	if err != nil {
+		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+	}
+	if eval == nil {
+		eval = ContinuousEvaluator(p)
+	}
+	d := &Design{Problem: p}
+	tb, tbErr := placeStage(p, t)
+	if tbErr != nil {
+		var inf *InfeasibleError
+		if !errors.As(tbErr, &inf) {
+			return nil, fmt.Errorf("axis %s: %w", p.Axis, tbErr)
+		}
+		inf.Reach = reach(p, t.Zeta)
+		if !p.Ctrl.Refine {
+			return nil, fmt.Errorf("axis %s: %w", p.Axis, inf)
+		}
+		d.TextbookErr = inf.Error()
+		d.Warnings = append(d.Warnings, "textbook placement: "+inf.Error())
+	}
+	if !p.Ctrl.Refine {
+		d.Stage = tb
+		d.Met = true
+		d.finish()
+		return d, nil
+	}
+	c, met, err := refine(p, eval)
+	if err != nil {
+		if tbErr != nil {
+			return nil, fmt.Errorf("axis %s: %w", p.Axis, tbErr)
+		}
+		return nil, fmt.Errorf("axis %s: refinement: %w", p.Axis, err)
+	}
+	st, err := verifyStage(p, c.target, c.ctrl)
+	if err != nil {
+		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+	}
+	d.Stage, d.Refined, d.Met = st, true, met
+	if tbErr == nil && (tb.Ctrl != st.Ctrl) {
+		d.Textbook = &tb
+	}
+	if !met {
+		d.Warnings = append(d.Warnings, fmt.Sprintf("no %s design found meets the spec; the closest one is reported", p.Ctrl.Form))
+	}
+	d.finish()
+	return d, nil
+}
+
+func placeStage(p Problem, t Target) (Stage, error) {
+	var c Controller
+	var err error
+	if p.Ctrl.Form == FormP {
+		c, t, err = PlaceP(p, t.Zeta)
+	} else {
+		c, err = Place(p, t)
+	}
+	if err != nil {
+		return Stage{Target: t}, err
+	}
+	return verifyStage(p, t, c)
+}
+
+func verifyStage(p Problem, t Target, c Controller) (Stage, error) {
+	v, err := Verify(p, c, t)
+	if err != nil {
+		return Stage{}, err
+	}
+	return Stage{Target: t, Ctrl: c, Working: p.NewWorking(t.Pole), Verif: v}, nil
+}
+
+// finish fills the checks and collects warnings of the chosen stage.
+func (d *Design) finish() {
+	d.Checks = SpecChecks(d.Problem.Spec, d.Verif.Stable, maxReal(d.Verif.Poles), d.Verif.Step.Overshoot, d.Verif.Step.Settling, d.Verif.Margins.PhaseDeg, d.Verif.Margins.GainDB)
+	d.Warnings = append(d.Warnings, d.Verif.Warnings...)
+}
+
+// SpecChecks compares the achieved figures with the spec.
+func SpecChecks(s Spec, stable bool, maxRe, overshoot, settling, pm, gm float64) []Check {
+	cs := []Check{
+		{Name: "stable", Limit: 0, Value: maxRe, Upper: true, OK: stable},
+		{Name: "overshoot", Limit: s.Overshoot, Value: overshoot, Upper: true, OK: stable && overshoot <= s.Overshoot},
+		{Name: "settling_time", Limit: s.SettlingTime, Value: settling, Upper: true, OK: stable && settling <= s.SettlingTime},
+	}
+	if s.MinPhaseMargin > 0 {
+		cs = append(cs, Check{Name: "phase_margin", Limit: s.MinPhaseMargin, Value: pm, OK: stable && pm >= s.MinPhaseMargin})
+	}
+	if s.MinGainMargin > 0 {
+		cs = append(cs, Check{Name: "gain_margin", Limit: s.MinGainMargin, Value: gm, OK: stable && gm >= s.MinGainMargin})
+	}
+	return cs
+}
+
+func maxReal(ps []complex128) float64 {
+	m := math.Inf(-1)
+	for _, r := range ps {
+		m = math.Max(m, real(r))
+	}
+	return m
+}
+
+// reach says what the form can reach at damping ζ: the fastest settling of
+// the second-order target (envelope formula) whose placement gives positive
+// gains and a stable closed loop, found by scanning σ upward.
+func reach(p Problem, zeta float64) string {
+	if p.Ctrl.Form == FormP {
+		return ""
+	}
+	s0 := SigmaFromSettling(zeta, p.Spec.Band, p.Spec.SettlingTime)
+	best := 0.0
+	for k := 0; k < 60; k++ {
+		sigma := s0 * 1e-3 * math.Pow(10, float64(k)/15)
+		if sigma > s0 {
+			break
+		}
+		c, err := Place(p, NewTarget(zeta, sigma))
+		if err != nil {
+			continue
+		}
+		if ok, err := closedLoopStable(p, c); err == nil && ok {
+			best = sigma
+		}
+	}
+	if best == 0 {
+		return fmt.Sprintf("no target at ζ = %.3f gives positive gains and a stable loop", zeta)
+	}
+	ts := -math.Log(p.Spec.Band*math.Sqrt(1-zeta*zeta)) / best
+	return fmt.Sprintf("at this overshoot the form reaches about %.4g s settling (σ = %.4g rad/s)", ts, best)
+}

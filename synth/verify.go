@@ -1,0 +1,273 @@
+package synth
+
+import (
+	"fmt"
+	"math"
+	"math/cmplx"
+	"slices"
+
+	"locusmith/internal/lti"
+)
+
+// PadeOrder is the order of the Padé approximant that stands in for the
+// transport delay where a rational model is needed (closed-loop poles and
+// the continuous step response). The (4,4) approximant's phase error is
+// below 1e-6 rad for ωτ ≤ 1 (its error term is of order (ωτ)^9, Franklin,
+// Powell & Emami-Naeini, from memory); margins and the placement use the
+// exact e^(−sτ).
+const PadeOrder = 4
+
+// closedLoop holds the rational closed loop from setpoint to true rate,
+// T(s) = G·F / (1 + C·G·H) = Ng·Nf·Dh / (Dc·Dg·Dh + Nc·Ng·Nh).
+type closedLoop struct {
+	g, h, c, f lti.TF
+	char       lti.Poly // characteristic polynomial
+	num        lti.Poly // numerator of T
+}
+
+func newClosedLoop(p Problem, c Controller) (closedLoop, error) {
+	g, err := p.Plant.Model.TF()
+	if err != nil {
+		return closedLoop{}, fmt.Errorf("plant: %w", err)
+	}
+	if p.Plant.Delay > 0 {
+		g = g.Series(lti.Pade(p.Plant.Delay, PadeOrder))
+	}
+	h, err := p.Sensor.TF()
+	if err != nil {
+		return closedLoop{}, fmt.Errorf("sensor: %w", err)
+	}
+	cl := closedLoop{g: g, h: h, c: c.TF(), f: c.Setpoint()}
+	cl.char = lti.PolyAdd(lti.PolyMul(lti.PolyMul(cl.c.Den, g.Den), h.Den), lti.PolyMul(lti.PolyMul(cl.c.Num, g.Num), h.Num)).Trim()
+	cl.num = lti.PolyMul(lti.PolyMul(g.Num, cl.f.Num), h.Den).Trim()
+	return cl, nil
+}
+
+// Verification is the full-order behaviour of a continuous design.
+type Verification struct {
+	Stable bool
+	// Poles are all closed-loop poles (with the delay by its Padé
+	// approximant), sorted by descending real part.
+	Poles []complex128
+	// Zeros are the zeros of setpoint → true rate that come from the
+	// controller, the plant and the sensor (the approximant's are left out).
+	Zeros []complex128
+	// TargetResidual is |1 + C(s*)·L(s*)| with the exact delay: zero when
+	// the target is a closed-loop pole.
+	TargetResidual float64
+	// Dominance is Re(next pole)/Re(dominant pole): how much faster the
+	// slowest of the other poles is than the designed pair.
+	Dominance float64
+	Step      lti.StepInfo
+	// SteadyStateError is 1 − T(0): the true-rate error left after a unit
+	// setpoint step.
+	SteadyStateError float64
+	Margins          lti.Margins
+	// H and Y are the sampled step response: Y[k] at t = k·H.
+	H float64
+	Y []float64
+	// Warnings are dominance and approximation notes.
+	Warnings []string
+}
+
+// stepGrid chooses the simulation step and length for a closed loop. The
+// ZOH-stepped simulation is exact at the samples whatever the step, so the
+// step only sets how finely the peak and the settling instant are resolved:
+// h = Ts/200 resolves both to 0.5 % of the spec settling time. The horizon is
+// at least 3·Ts and 10 time constants of the slowest closed-loop pole (its
+// mode has then decayed to e^−10 ≈ 4.5e−5 of its amplitude), capped at
+// 100·Ts; at most maxSteps samples (the step grows beyond that).
+func stepGrid(ts float64, poles []complex128) (h float64, n int) {
+	const maxSteps = 20000
+	slow := math.Inf(1)
+	for _, r := range poles {
+		if a := -real(r); a > 0 && a < slow {
+			slow = a
+		}
+	}
+	end := 3 * ts
+	if !math.IsInf(slow, 1) {
+		end = math.Max(end, math.Min(10/slow, 100*ts))
+	}
+	h = ts / 200
+	n = int(math.Ceil(end/h)) + 1
+	if n > maxSteps {
+		n = maxSteps
+		h = end / float64(n-1)
+	}
+	return h, n
+}
+
+// stepResponses returns the step responses of the closed loop for
+// numerators nums over the common denominator den, sharing one ZOH.
+//
+// The polynomials of a closed loop span many decades (a 9th-order loop with
+// poles from 10 to 3000 rad/s has coefficients from 1e-17 to 1e8), which
+// overflows a companion realization. Time is therefore scaled first:
+// with s = ω0·ŝ and ω0 = |d0/dn|^(1/n), the geometric mean of the pole
+// magnitudes, the coefficients become d_i·ω0^i, all of order one, and the
+// step response of T(ω0·ŝ) at t̂ = ω0·t equals that of T(s) at t.
+func stepResponses(den lti.Poly, nums []lti.Poly, h float64, n int) ([][]float64, error) {
+	den = den.Trim()
+	w0 := 1.0
+	if deg := len(den) - 1; deg > 0 && den[0] != 0 {
+		w0 = math.Pow(math.Abs(den[0]/den[deg]), 1/float64(deg))
+	}
+	scale := func(p lti.Poly) lti.Poly {
+		q := make(lti.Poly, len(p))
+		f := 1.0
+		for i, c := range p {
+			q[i] = c * f
+			f *= w0
+		}
+		return q
+	}
+	den = scale(den)
+	scaled := make([]lti.Poly, len(nums))
+	for i, num := range nums {
+		scaled[i] = scale(num)
+	}
+	nums, h = scaled, h*w0
+	out := make([][]float64, len(nums))
+	var base lti.Disc
+	var baseSS lti.SS
+	for i, num := range nums {
+		ss, err := lti.TF{Num: num, Den: den}.SS()
+		if err != nil {
+			return nil, err
+		}
+		var d lti.Disc
+		if i > 0 && slices.Equal(ss.A, baseSS.A) && slices.Equal(ss.B, baseSS.B) {
+			d = base
+			d.C, d.D = ss.C, ss.D
+		} else {
+			d, err = lti.ZOH(ss, h)
+			if err != nil {
+				return nil, err
+			}
+			base, baseSS = d, ss
+		}
+		out[i] = make([]float64, n)
+		d.StepInto(out[i])
+	}
+	return out, nil
+}
+
+// Verify computes the full-order closed-loop behaviour of controller c on
+// problem p, designed for target t.
+func Verify(p Problem, c Controller, t Target) (Verification, error) {
+	var v Verification
+	cl, err := newClosedLoop(p, c)
+	if err != nil {
+		return v, err
+	}
+	v.Poles, err = cl.char.Roots()
+	if err != nil {
+		return v, fmt.Errorf("closed-loop poles: %w", err)
+	}
+	v.Stable = allStable(v.Poles)
+	v.TargetResidual = cmplx.Abs(1 + c.Eval(t.Pole)*p.Loop(t.Pole))
+	v.Zeros = clZeros(p, c)
+	v.Margins = loopMargins(p, c)
+	dc := evalRatio(cl.num, cl.char, 0)
+	v.SteadyStateError = 1 - dc
+	v.Dominance, v.Warnings = dominance(v.Poles, v.Zeros, t)
+	if !v.Stable {
+		v.Step = lti.StepInfo{Final: math.NaN(), Overshoot: math.Inf(1), Settling: math.Inf(1), Rise: math.NaN()}
+		return v, nil
+	}
+	var n int
+	v.H, n = stepGrid(p.Spec.SettlingTime, v.Poles)
+	ys, err := stepResponses(cl.char, []lti.Poly{cl.num}, v.H, n)
+	if err != nil {
+		return v, fmt.Errorf("step response: %w", err)
+	}
+	v.Y = ys[0]
+	v.Step = lti.StepMetrics(v.Y, v.H, dc, p.Spec.Band)
+	return v, nil
+}
+
+func evalRatio(num, den lti.Poly, x float64) float64 {
+	return num.At(x) / den.At(x)
+}
+
+// clZeros returns the zeros of setpoint → true rate that the controller's
+// setpoint path, the plant and the sensor's poles put there.
+func clZeros(p Problem, c Controller) []complex128 {
+	var zs []complex128
+	if f, err := c.Setpoint().Num.Trim().Roots(); err == nil {
+		zs = append(zs, f...)
+	}
+	zs = append(zs, p.Plant.Model.Zeros...)
+	zs = append(zs, p.Sensor.Poles...)
+	lti.SortRoots(zs)
+	return zs
+}
+
+// loopMargins returns the margins of C·G·H with the exact delay.
+func loopMargins(p Problem, c Controller) lti.Margins {
+	lo, hi := frequencySpan(p)
+	if c.Form.HasIntegral() && c.Kp > 0 {
+		lo = math.Min(lo, c.Ki/c.Kp/100)
+	}
+	if c.Form.HasDerivative() && c.Tf > 0 {
+		hi = math.Max(hi, 100/c.Tf)
+	}
+	if c.Form == FormLead {
+		lo = math.Min(lo, math.Min(-c.Zero, -c.Pole)/100)
+		hi = math.Max(hi, math.Max(-c.Zero, -c.Pole)*100)
+	}
+	n := int(math.Ceil(60*math.Log10(hi/lo))) + 1
+	return lti.LoopMargins(func(w float64) complex128 {
+		s := complex(0, w)
+		return c.Eval(s) * p.Loop(s)
+	}, lo, hi, n)
+}
+
+// DominanceRatio is the usual threshold for treating a pole pair as
+// dominant: the other poles at least five times farther into the left half
+// plane (Nise, Control Systems Engineering, the rule of thumb for
+// second-order approximation, from memory).
+const DominanceRatio = 5
+
+// dominance finds the closed-loop pole pair nearest the target and reports
+// how much faster the other poles are, with warnings when the second-order
+// approximation is weak.
+func dominance(poles, zeros []complex128, t Target) (float64, []string) {
+	if len(poles) == 0 {
+		return math.Inf(1), nil
+	}
+	best := 0
+	for i, r := range poles {
+		if cmplx.Abs(r-t.Pole) < cmplx.Abs(poles[best]-t.Pole) {
+			best = i
+		}
+	}
+	dom := poles[best]
+	next := math.Inf(1)
+	var nextPole complex128
+	for _, r := range poles {
+		if r == dom || r == cmplx.Conj(dom) {
+			continue
+		}
+		if rat := real(r) / real(dom); rat < next {
+			next, nextPole = rat, r
+		}
+	}
+	var warns []string
+	if !math.IsInf(next, 1) && next < DominanceRatio {
+		warns = append(warns, fmt.Sprintf("closed-loop pole %s is only %.2f× as far left as the dominant pair %s (rule of thumb: ≥ %d×); the second-order approximation is weak",
+			fmtComplex(nextPole), next, fmtComplex(dom), DominanceRatio))
+	}
+	for _, z := range zeros {
+		if real(z) < 0 && real(z)/real(dom) < DominanceRatio {
+			warns = append(warns, fmt.Sprintf("closed-loop zero %s is within %d× of the dominant pair's real part; expect more overshoot than the second-order target", fmtComplex(z), DominanceRatio))
+			break
+		}
+	}
+	return next, warns
+}
+
+// LoopMargins returns the gain, phase and delay margins of the continuous
+// loop C·G·H with the exact transport delay.
+func LoopMargins(p Problem, c Controller) lti.Margins { return loopMargins(p, c) }
