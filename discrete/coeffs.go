@@ -57,7 +57,7 @@ type Coeffs struct {
 	G0, G01           float64 // integrator: current-error weight and state increment weight
 	Ad, Bd            float64 // derivative filter
 	DerivativeOnError bool
-	DerivativeMethod  Method // the rule used for the derivative (see Realize)
+	DerivativeMethod  Method  // the rule used for the derivative (see Realize)
 	B0, B1, A1        float64 // lead
 	Lo, Hi            float64 // output limits
 	IL                float64 // integrator limit

@@ -57,7 +57,7 @@ func Evaluator(p synth.Problem, pl Plant, d int) synth.Evaluator {
 			return e, nil
 		}
 		lo, _ := spanOf(p)
-		e.Margins = loopMargins(pl, lc, d, lo)
+		e.Margins = func() lti.Margins { return loopMargins(pl, lc, d, lo) }
 		n := horizon(p.Spec.SettlingTime, pl.T, ps)
 		k0, k1 := k, k
 		k0.KpB, k1.KpB = 0, k.Kp

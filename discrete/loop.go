@@ -180,13 +180,12 @@ func (L closedLoop) dcGain() float64 {
 func loopMargins(pl Plant, c linearCtrl, d int, wlo float64) lti.Margins {
 	T := pl.T
 	ctrl := lti.Disc{N: c.M, A: c.Ac, B: c.By, C: c.Cc, D: c.Dy, T: T}
-	plant := pl.measured()
 	ny := math.Pi / T
 	lo := math.Min(wlo, ny/1e4)
-	n := int(math.Ceil(80*math.Log10(ny/lo))) + 1
+	n := int(math.Ceil(30*math.Log10(ny/lo))) + 1
 	return lti.LoopMargins(func(w float64) complex128 {
 		z := complexExp(w * T)
-		v := -ctrl.Eval(z) * plant.Eval(z)
+		v := -ctrl.Eval(z) * pl.evalMeasured(z)
 		for i := 0; i < d; i++ {
 			v /= z
 		}

@@ -42,20 +42,21 @@ type State[T Float] struct {
 	Fresh   bool // after Reset with the derivative on the error: prime Vp at the next step
 }
 
-// Reset makes the transfer bumpless: the integrator takes the command
-// output (clamped to the integrator limit), so the next command starts from
-// it at zero error, and the derivative history takes the measurement, so
-// there is no derivative kick.
+// Reset makes the transfer bumpless: the next command equals output when
+// the setpoint then equals the measurement (the usual engagement: hold the
+// current rate). The integrator takes output minus the proportional part
+// at that point, (KpB − Kp)·measured, clamped to the integrator limit; the
+// derivative history takes the measurement, so there is no derivative
+// kick.
 func Reset[T Float](p *Params[T], s *State[T], output, measured T) {
 	*s = State[T]{}
 	if p.Form == synth.FormLead {
-		// x such that ul = x at zero error, after the update x ← −A1·ul:
-		// the next output is B0·e + x with x = output.
+		// ul = B0·e + x, and e = 0 at engagement.
 		s.S = output
 		return
 	}
 	if p.Form.HasIntegral() {
-		s.S = clamp(output, -p.IL, p.IL)
+		s.S = clamp(output-(T(p.KpB*measured)-T(p.Kp*measured)), -p.IL, p.IL)
 	}
 	if p.DerivativeOnError {
 		s.Fresh = true

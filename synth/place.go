@@ -266,7 +266,7 @@ func PlaceP(p Problem, zeta float64) (Controller, Target, error) {
 		}
 		prevW, prev = w, cur
 	}
-		for _, h := range hits {
+	for _, h := range hits {
 		c.Kp = h.k
 		if stable, err := closedLoopStable(p, c); err == nil && stable {
 			return c, NewTarget(zeta, zeta*h.wn), nil

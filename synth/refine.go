@@ -10,8 +10,11 @@ import (
 
 // Evaluation is a candidate controller's behaviour as refinement judges it.
 type Evaluation struct {
-	Stable  bool
-	Margins lti.Margins
+	Stable bool
+	// Margins computes the loop's margins; refinement calls it only for
+	// candidates whose time response is good enough to matter, as the
+	// frequency sweep costs more than the step.
+	Margins func() lti.Margins
 	// Steps holds one step-response summary per setpoint weight asked for.
 	Steps []lti.StepInfo
 }
@@ -37,7 +40,7 @@ func ContinuousEvaluator(p Problem) Evaluator {
 		if e.Stable = allStable(poles); !e.Stable {
 			return e, nil
 		}
-		e.Margins = loopMargins(p, c)
+		e.Margins = func() lti.Margins { return loopMargins(p, c) }
 		h, n := stepGrid(p.Spec.SettlingTime, poles)
 		c0, c1 := c, c
 		c0.B, c1.B = 0, 1
@@ -63,13 +66,24 @@ func ContinuousEvaluator(p Problem) Evaluator {
 // relative excesses of overshoot and settling time and the relative
 // shortfalls of the margins; 0 when the spec is met, +Inf when unstable.
 func Violation(s Spec, stable bool, m lti.Margins, st lti.StepInfo) float64 {
-	if !stable || math.IsNaN(st.Overshoot) {
+	return timeViolation(s, stable, st) + marginViolation(s, m)
+}
+
+// timeViolation is the time-domain part of Violation.
+func timeViolation(s Spec, stable bool, st lti.StepInfo) float64 {
+	if !stable || math.IsNaN(st.Overshoot) || math.IsNaN(st.Settling) {
 		return math.Inf(1)
 	}
 	v := math.Max(0, st.Overshoot/s.Overshoot-1) + math.Max(0, st.Settling/s.SettlingTime-1)
 	if !st.Settled {
 		v += 1
 	}
+	return v
+}
+
+// marginViolation is the margin part of Violation.
+func marginViolation(s Spec, m lti.Margins) float64 {
+	v := 0.0
 	if s.MinPhaseMargin > 0 {
 		v += math.Max(0, (s.MinPhaseMargin-m.PhaseDeg)/s.MinPhaseMargin)
 	}
@@ -109,8 +123,10 @@ func setpointWeights(p Problem) []float64 {
 }
 
 // judge places and evaluates the target, choosing the best weight b: the
-// smallest violation, then the shortest settling, then the larger b.
-func judge(p Problem, eval Evaluator, t Target, bs []float64) (candidate, error) {
+// smallest violation, then the shortest settling, then the larger b. The
+// margins are computed only when the time response could make the
+// candidate the best or the closest so far (bound: violations only add).
+func judge(p Problem, eval Evaluator, t Target, bs []float64, bound float64) (candidate, error) {
 	var c candidate
 	var ctrl Controller
 	var err error
@@ -128,7 +144,7 @@ func judge(p Problem, eval Evaluator, t Target, bs []float64) (candidate, error)
 	}
 	c = candidate{target: t, ctrl: ctrl, eval: e, violation: math.Inf(1), gain: ctrl.HighFrequencyGain()}
 	for i, st := range e.Steps {
-		v := Violation(p.Spec, e.Stable, e.Margins, st)
+		v := timeViolation(p.Spec, e.Stable, st)
 		better := v < c.violation || v == c.violation && st.Settling < c.step.Settling
 		if i == 0 || better {
 			c.violation, c.step = v, st
@@ -138,22 +154,26 @@ func judge(p Problem, eval Evaluator, t Target, bs []float64) (candidate, error)
 	if len(e.Steps) == 0 {
 		c.ctrl.B = bs[0]
 	}
+	if e.Stable && e.Margins != nil && c.violation <= bound {
+		c.violation += marginViolation(p.Spec, e.Margins())
+	} else {
+		c.violation = math.Inf(1)
+	}
 	return c, nil
 }
 
 // refine searches the target (ζ, σ) and the setpoint weight b for the design
-// that meets the spec with the least high-frequency controller gain. For
-// each ζ on a grid it scans σ upward from well below the textbook value
+// that meets the spec with the least high-frequency controller gain.
+//
+// For each ζ of a coarse grid (0.3 to 0.9 by 0.1, and the spec's own ζ) it
+// scans σ upward by factors of 1.5 from 0.4× the textbook value of that ζ
 // (the gain grows with σ) and, at the first σ that meets the spec, narrows
-// the boundary by bisection. It returns the best feasible candidate, or the
-// closest one (least violation) and false.
+// the boundary by five bisections (to 1.3 % in σ). The best ζ is then
+// refined by ±0.05 and ±0.025. It returns the best feasible candidate, or
+// the closest one (least violation) and false. The search is bounded: at
+// most about 150 evaluations.
 func refine(p Problem, eval Evaluator) (candidate, bool, error) {
 	bs := setpointWeights(p)
-	z0 := ZetaFromOvershoot(p.Spec.Overshoot)
-	zetas := []float64{z0}
-	for z := 0.3; z < 0.96; z += 0.05 {
-		zetas = append(zetas, math.Round(z*100)/100)
-	}
 	var best, closest candidate
 	haveBest, haveClosest := false, false
 	consider := func(c candidate) {
@@ -164,59 +184,96 @@ func refine(p Problem, eval Evaluator) (candidate, bool, error) {
 			best, haveBest = c, true
 		}
 	}
+	bound := func() float64 {
+		if haveClosest {
+			return closest.violation
+		}
+		return math.Inf(1)
+	}
 	var firstErr error
-	for _, z := range zetas {
-		if p.Ctrl.Form == FormP {
-			c, err := judge(p, eval, NewTarget(z, 1), bs)
-			if err == nil {
-				consider(c)
-			} else if firstErr == nil {
-				firstErr = err
+	try := func(t Target) (candidate, bool, error) {
+		c, err := judge(p, eval, t, bs, bound())
+		if err != nil {
+			var inf *InfeasibleError
+			if errors.As(err, &inf) {
+				if firstErr == nil {
+					firstErr = err
+				}
+				return c, false, nil
 			}
-			continue
+			return c, false, err
+		}
+		consider(c)
+		return c, true, nil
+	}
+	// scan searches σ at damping z and returns the least feasible gain.
+	scan := func(z float64) error {
+		if p.Ctrl.Form == FormP {
+			_, _, err := try(NewTarget(z, 1))
+			return err
 		}
 		s0 := SigmaFromSettling(z, p.Spec.Band, p.Spec.SettlingTime)
 		prevF := 0.0
-		for k := 0; k < 18; k++ {
-			f := 0.4 * math.Pow(1.2, float64(k))
-			c, err := judge(p, eval, NewTarget(z, f*s0), bs)
+		for k := 0; k < 9; k++ {
+			f := 0.4 * math.Pow(1.5, float64(k))
+			c, ok, err := try(NewTarget(z, f*s0))
 			if err != nil {
-				var inf *InfeasibleError
-				if !errors.As(err, &inf) {
-					return candidate{}, false, err
-				}
+				return err
+			}
+			if !ok || c.violation > 0 {
 				prevF = f
 				continue
 			}
-			consider(c)
-			if c.violation > 0 {
-				prevF = f
-				continue
-			}
-			// Bisect (geometrically) between the last miss and this hit.
 			lo, hi := prevF, f
 			if lo == 0 {
-				break
+				return nil
 			}
-			for i := 0; i < 6; i++ {
+			for i := 0; i < 5; i++ {
 				m := math.Sqrt(lo * hi)
-				cm, err := judge(p, eval, NewTarget(z, m*s0), bs)
-				if err == nil {
-					consider(cm)
+				cm, ok, err := try(NewTarget(z, m*s0))
+				if err != nil {
+					return err
 				}
-				if err == nil && cm.violation == 0 {
+				if ok && cm.violation == 0 {
 					hi = m
 				} else {
 					lo = m
 				}
 			}
+			return nil
+		}
+		return nil
+	}
+	zetas := []float64{ZetaFromOvershoot(p.Spec.Overshoot)}
+	for z := 3; z <= 9; z++ {
+		zetas = append(zetas, float64(z)/10)
+	}
+	for _, z := range zetas {
+		if err := scan(z); err != nil {
+			return candidate{}, false, err
+		}
+	}
+	for _, dz := range []float64{0.05, 0.025} {
+		ref := closest
+		if haveBest {
+			ref = best
+		}
+		if !haveClosest {
 			break
+		}
+		for _, z := range []float64{ref.target.Zeta - dz, ref.target.Zeta + dz} {
+			if z < 0.2 || z > 0.97 {
+				continue
+			}
+			if err := scan(z); err != nil {
+				return candidate{}, false, err
+			}
 		}
 	}
 	if haveBest {
 		return best, true, nil
 	}
-	if haveClosest {
+	if haveClosest && !math.IsInf(closest.violation, 1) {
 		return closest, false, nil
 	}
 	if firstErr != nil {

@@ -217,7 +217,7 @@ func loopMargins(p Problem, c Controller) lti.Margins {
 		lo = math.Min(lo, math.Min(-c.Zero, -c.Pole)/100)
 		hi = math.Max(hi, math.Max(-c.Zero, -c.Pole)*100)
 	}
-	n := int(math.Ceil(60*math.Log10(hi/lo))) + 1
+	n := int(math.Ceil(24*math.Log10(hi/lo))) + 1
 	return lti.LoopMargins(func(w float64) complex128 {
 		s := complex(0, w)
 		return c.Eval(s) * p.Loop(s)

@@ -1,0 +1,658 @@
+package discrete
+
+import (
+	"math"
+	"math/cmplx"
+	"testing"
+
+	"locusmith/internal/lti"
+	"locusmith/internal/pyref"
+	"locusmith/synth"
+)
+
+// demo is a multirotor-like rate loop (demo data): an integrating plant
+// with a motor lag, a gyro lowpass and a transport delay.
+func demo(form synth.Form) synth.Problem {
+	tau := 0.03
+	return synth.Problem{Axis: "roll",
+		Plant:  synth.Plant{Model: lti.ZPK{Gain: 2000 / tau, Poles: []complex128{0, complex(-1/tau, 0)}}, Delay: 0.002},
+		Sensor: lti.ZPK{Gain: 2 * math.Pi * 100, Poles: []complex128{complex(-2*math.Pi*100, 0)}},
+		Spec:   synth.Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.08, MinPhaseMargin: 40, MinGainMargin: 6},
+		Ctrl: synth.Control{Form: form, Refine: true, ThirdPole: 5, LeadZero: -20, DerivativeLowpassHz: 125,
+			OutputLimit: [2]float64{-1, 1}, IntegratorLimit: 1, AntiWindup: "backcalc", Discretize: "tustin"},
+	}
+}
+
+// ctrlEval returns the feedback path C_fb(z) = u/(−y) of the discrete
+// controller.
+func ctrlEval(k Coeffs, z complex128) complex128 {
+	c := linearize(k)
+	return -lti.Disc{N: c.M, A: c.Ac, B: c.By, C: c.Cc, D: c.Dy, T: k.T}.Eval(z)
+}
+
+func pidControl(method string) synth.Control {
+	return synth.Control{Form: synth.FormPID, DerivativeLowpassHz: 60, OutputLimit: [2]float64{-1, 1}, IntegratorLimit: 1, AntiWindup: "none", Discretize: method}
+}
+
+// The Tustin integrator is Ki·(T/2)(z+1)/(z−1), backward Ki·T·z/(z−1),
+// forward Ki·T/(z−1) (Franklin, Powell & Workman, Digital Control, the
+// substitution rules; from memory).
+func TestIntegratorClosedForms(t *testing.T) {
+	c := synth.Controller{Form: synth.FormPI, Kp: 0, Ki: 3, B: 1}
+	T := 0.001
+	z := complexExp(0.3)
+	for _, m := range []struct {
+		method string
+		want   complex128
+	}{
+		{"tustin", complex(3*T/2, 0) * (z + 1) / (z - 1)},
+		{"backward", complex(3*T, 0) * z / (z - 1)},
+		{"forward", complex(3*T, 0) / (z - 1)},
+	} {
+		ctrl := pidControl(m.method)
+		ctrl.Form = synth.FormPI
+		k, _, err := Realize(c, ctrl, T, math.NaN())
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := ctrlEval(k, z); cmplx.Abs(got-m.want) > 1e-12*cmplx.Abs(m.want) {
+			t.Errorf("%s: %v, want %v", m.method, got, m.want)
+		}
+	}
+}
+
+// Prewarping: with s = (ω/tan(ωT/2))(z−1)/(z+1) the discrete integrator
+// equals Ki/(jω) exactly at the prewarp frequency ω, since
+// (z−1)/(z+1) = j·tan(ωT/2) on the unit circle (Franklin, Powell &
+// Workman, from memory).
+func TestPrewarpExactAtCrossover(t *testing.T) {
+	T, w := 0.002, 300.0
+	c := synth.Controller{Form: synth.FormPI, Kp: 0.01, Ki: 0.5, B: 1}
+	ctrl := pidControl("tustin_prewarp")
+	ctrl.Form = synth.FormPI
+	k, _, err := Realize(c, ctrl, T, w)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := complex(0.01, 0) + complex(0.5, 0)/complex(0, w)
+	if got := ctrlEval(k, complexExp(w*T)); cmplx.Abs(got-want) > 1e-12*cmplx.Abs(want) {
+		t.Errorf("prewarped C at ω: %v, want %v", got, want)
+	}
+	if got := 2 / w * math.Tan(w*T/2); math.Abs(k.G01/0.5-got) > 1e-15 {
+		t.Errorf("T' = %.17g, want (2/ω)tan(ωT/2) = %.17g", k.G01/0.5, got)
+	}
+}
+
+// The derivative filter is stable and does not ring for any filter
+// setting: its pole lies in [0, 1) even when Tf ≪ T.
+func TestDerivativePoleAlwaysInUnitInterval(t *testing.T) {
+	for _, m := range []string{"tustin", "tustin_prewarp", "backward", "forward"} {
+		for _, hz := range []float64{1, 50, 400, 4000, 1e6} {
+			ctrl := pidControl(m)
+			ctrl.DerivativeLowpassHz = hz
+			c := synth.Controller{Form: synth.FormPID, Kp: 1, Ki: 1, Kd: 0.01, Tf: ctrl.Tf(), B: 1}
+			k, _, err := Realize(c, ctrl, 0.001, 100)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !(k.Ad >= 0 && k.Ad < 1) {
+				t.Errorf("%s at %g Hz: derivative pole %g outside [0, 1)", m, hz, k.Ad)
+			}
+		}
+	}
+}
+
+const c2dScript = `
+import json, sys
+import numpy as np
+from scipy import signal
+out = []
+for c in json.load(sys.stdin):
+    zs = [complex(a, b) for a, b in c['z']]
+    if c['method'] == 'zoh':
+        # State-space route (tf2ss, then expm): ss2tf would lose digits.
+        A, B, C, D = signal.tf2ss(c['num'], c['den'])
+        Ad, Bd, Cd, Dd, _ = signal.cont2discrete((A, B, C, D), c['T'], method='zoh')
+        n = Ad.shape[0]
+        vals = [(Cd @ np.linalg.solve(z * np.eye(n) - Ad, Bd))[0, 0] + Dd[0, 0] for z in zs]
+    else:
+        num, den, dt = signal.cont2discrete((c['num'], c['den']), c['T'], method=c['method'])
+        num = np.atleast_1d(np.squeeze(num))
+        vals = [np.polyval(num, z) / np.polyval(den, z) for z in zs]
+    out.append([[complex(v).real, complex(v).imag] for v in vals])
+json.dump(out, sys.stdout)
+`
+
+type c2dCase struct {
+	Num    []float64    `json:"num"`
+	Den    []float64    `json:"den"`
+	T      float64      `json:"T"`
+	Method string       `json:"method"`
+	Z      [][2]float64 `json:"z"`
+}
+
+func desc(p lti.Poly) []float64 {
+	p = p.Trim()
+	out := make([]float64, len(p))
+	for i := range p {
+		out[i] = p[len(p)-1-i]
+	}
+	return out
+}
+
+var unitPoints = []float64{0.001, 0.01, 0.1, 0.5, 1, 2, 3}
+
+func zPoints() ([][2]float64, []complex128) {
+	var pairs [][2]float64
+	var zs []complex128
+	for _, th := range unitPoints {
+		z := complexExp(th)
+		pairs, zs = append(pairs, [2]float64{real(z), imag(z)}), append(zs, z)
+	}
+	return pairs, zs
+}
+
+// The discrete controllers (every form and rule) against SciPy's
+// signal.cont2discrete ('bilinear', 'backward_diff', 'euler'), compared
+// by their frequency responses at points on the unit circle (coefficients
+// of a transfer function are only defined up to a common factor). The
+// filter time constant is long enough that the derivative follows the
+// chosen rule. Tolerance 1e-9 relative: both are a few rational
+// operations on the same numbers.
+func TestControllersAgainstSciPy(t *testing.T) {
+	T := 0.001
+	methods := map[string]string{"tustin": "bilinear", "backward": "backward_diff", "forward": "euler"}
+	ctrls := []synth.Controller{
+		{Form: synth.FormP, Kp: 0.02, B: 1},
+		{Form: synth.FormPI, Kp: 0.02, Ki: 0.3, B: 1},
+		{Form: synth.FormPD, Kp: 0.02, Kd: 0.0004, Tf: 0.004, B: 1},
+		{Form: synth.FormPID, Kp: 0.03, Ki: 0.27, Kd: 0.0008, Tf: 0.004, B: 1},
+		{Form: synth.FormLead, K: 0.01, Zero: -20, Pole: -80},
+	}
+	pairs, zs := zPoints()
+	var in []c2dCase
+	var ours [][]complex128
+	for _, name := range []string{"tustin", "backward", "forward"} {
+		for _, c := range ctrls {
+			ctrl := pidControl(name)
+			ctrl.Form = c.Form
+			k, _, err := Realize(c, ctrl, T, math.NaN())
+			if err != nil {
+				t.Fatal(err)
+			}
+			if c.Form.HasDerivative() && k.DerivativeMethod != Method(name) {
+				t.Fatalf("%s %s: derivative used %s", name, c.Form, k.DerivativeMethod)
+			}
+			tf := c.TF()
+			in = append(in, c2dCase{Num: desc(tf.Num), Den: desc(tf.Den), T: T, Method: methods[name], Z: pairs})
+			var v []complex128
+			for _, z := range zs {
+				v = append(v, ctrlEval(k, z))
+			}
+			ours = append(ours, v)
+		}
+	}
+	var ref [][][2]float64
+	pyref.Run(t, c2dScript, in, &ref)
+	for i := range in {
+		for j, z := range ref[i] {
+			want := complex(z[0], z[1])
+			if got := ours[i][j]; cmplx.Abs(got-want) > 1e-9*cmplx.Abs(want) {
+				t.Errorf("case %d (%s) at θ=%g: %v, SciPy %v", i, in[i].Method, unitPoints[j], got, want)
+			}
+		}
+	}
+}
+
+// The sampled feedback path (ZOH of the cascade G·H) against SciPy's
+// cont2discrete(method='zoh') of the product G·H, for plants with real
+// and complex poles, an integrator, a zero, and sensors; compared by the
+// frequency response on the unit circle to 1e-8 relative (the
+// matrix-exponential and the transfer-function route differ by rounding
+// amplified by the conditioning of the companion form).
+func TestPlantZOHAgainstSciPy(t *testing.T) {
+	plants := []struct {
+		g lti.ZPK
+		h lti.ZPK
+	}{
+		{lti.ZPK{Gain: 66667, Poles: []complex128{0, -33.3}}, lti.ZPK{Gain: 628.3, Poles: []complex128{-628.3}}},
+		{lti.ZPK{Gain: 2600, Poles: []complex128{0, -40, complex(-60, 80), complex(-60, -80)}}, lti.ZPK{Gain: 1}},
+		{lti.ZPK{Gain: 500, Poles: []complex128{-5, -50}, Zeros: []complex128{-20}}, lti.ZPK{Gain: 400, Poles: []complex128{-400}}},
+		{lti.ZPK{Gain: 1, Poles: []complex128{-1}}, lti.ZPK{Gain: 1}},
+		{lti.ZPK{Gain: 9e4, Poles: []complex128{complex(-30, 300), complex(-30, -300)}}, lti.ZPK{Gain: 1e6, Poles: []complex128{complex(-700, 700), complex(-700, -700)}}},
+		{lti.ZPK{Gain: 3000, Poles: []complex128{0, 0}}, lti.ZPK{Gain: 1}},
+	}
+	T := 0.001
+	pairs, zs := zPoints()
+	var in []c2dCase
+	var ours [][]complex128
+	for _, c := range plants {
+		p := synth.Problem{Plant: synth.Plant{Model: c.g}, Sensor: c.h}
+		pl, err := NewPlant(p, T)
+		if err != nil {
+			t.Fatal(err)
+		}
+		g, _ := c.g.TF()
+		h, _ := c.h.TF()
+		gh := g.Series(h)
+		in = append(in, c2dCase{Num: desc(gh.Num), Den: desc(gh.Den), T: T, Method: "zoh", Z: pairs})
+		var v []complex128
+		for _, z := range zs {
+			v = append(v, pl.evalMeasured(z))
+		}
+		ours = append(ours, v)
+	}
+	var ref [][][2]float64
+	pyref.Run(t, c2dScript, in, &ref)
+	for i := range in {
+		for j, z := range ref[i] {
+			want := complex(z[0], z[1])
+			if got := ours[i][j]; cmplx.Abs(got-want) > 1e-8*cmplx.Abs(want) {
+				t.Errorf("plant %d at θ=%g: %v, SciPy %v", i, unitPoints[j], got, want)
+			}
+		}
+	}
+}
+
+// The closed form of the ZOH of a first-order lag 1/(τs+1):
+// y[k+1] = a·y[k] + (1 − a)·u[k], a = e^(−T/τ) (Franklin, Powell &
+// Workman; Åström & Wittenmark; from memory).
+func TestFirstOrderLagClosedForm(t *testing.T) {
+	tau, T := 0.025, 0.001
+	pl, err := NewPlant(synth.Problem{Plant: synth.Plant{Model: lti.ZPK{Gain: 1 / tau, Poles: []complex128{complex(-1/tau, 0)}}}, Sensor: lti.ZPK{Gain: 1}}, T)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := math.Exp(-T / tau)
+	if pl.N != 1 || math.Abs(pl.A[0]-a) > 1e-15 || math.Abs(pl.B[0]*pl.Cm[0]-(1-a)) > 1e-15 {
+		t.Errorf("A = %v, B·C = %v; want a = %.17g, 1−a = %.17g", pl.A, pl.B[0]*pl.Cm[0], a, 1-a)
+	}
+}
+
+const delayScript = `
+import json, sys
+import numpy as np
+from scipy import signal
+c = json.load(sys.stdin)
+q = c['q']
+T = c['T']
+u = np.array(c['u'])
+fine = np.repeat(u, q)
+d = c['dfine']
+ud = np.concatenate([np.zeros(d), fine[:len(fine)-d]])
+t = np.arange(len(fine)) * T / q
+_, y, _ = signal.lsim((c['num'], c['den']), ud, t)
+json.dump(list(y[::q]), sys.stdout)
+`
+
+// Transport delay of a whole and a fractional sample: the sampled plant
+// against SciPy's signal.lsim of the continuous plant driven by the
+// delayed piecewise-constant input on a grid 20 times finer, on which the
+// delay is a whole number of fine steps, so that lsim's linear
+// interpolation of the input is exact except on the fine steps holding a
+// switch (it interpolates across them; the 2e-3 relative tolerance covers
+// that, 1/20 of a sample at each switch).
+func TestTransportDelayAgainstSciPy(t *testing.T) {
+	T := 0.001
+	q := 20
+	for _, delay := range []float64{0.0013, 0.00235, 0.0005} {
+		g := lti.ZPK{Gain: 2000 / 0.03, Poles: []complex128{-5, complex(-1/0.03, 0)}}
+		pl, err := NewPlant(synth.Problem{Plant: synth.Plant{Model: g, Delay: delay}, Sensor: lti.ZPK{Gain: 1}}, T)
+		if err != nil {
+			t.Fatal(err)
+		}
+		u := make([]float64, 60)
+		for i := range u {
+			u[i] = math.Sin(float64(i)*0.37) + 0.5*float64(i%7)
+		}
+		d := pl.measured()
+		got := d.Simulate(u)
+		tf, _ := g.TF()
+		var want []float64
+		pyref.Run(t, delayScript, map[string]any{"q": q, "T": T, "u": u, "dfine": int(math.Round(delay / T * float64(q))), "num": desc(tf.Num), "den": desc(tf.Den)}, &want)
+		scale := 0.0
+		for _, v := range want {
+			scale = math.Max(scale, math.Abs(v))
+		}
+		for k := range got {
+			if math.Abs(got[k]-want[k]) > 2e-3*scale {
+				t.Errorf("delay %g: y[%d] = %.6g, SciPy %.6g", delay, k, got[k], want[k])
+			}
+		}
+	}
+}
+
+const polesScript = `
+import json, sys
+import numpy as np
+from scipy import signal
+out = []
+for c in json.load(sys.stdin):
+    nc, dc, _ = signal.cont2discrete((c['cnum'], c['cden']), c['T'], method='bilinear')
+    np_, dp, _ = signal.cont2discrete((c['pnum'], c['pden']), c['T'], method='zoh')
+    nc, np_ = np.atleast_1d(np.squeeze(nc)), np.atleast_1d(np.squeeze(np_))
+    zd = np.zeros(c['d'] + 1); zd[0] = 1.0   # z^d
+    char = np.polyadd(np.polymul(np.polymul(dc, dp), zd), np.polymul(nc, np_))
+    r = np.roots(np.trim_zeros(char, 'f'))
+    out.append([[v.real, v.imag] for v in r if abs(v) > 1e-9])
+json.dump(out, sys.stdout)
+`
+
+// Discrete closed-loop poles against NumPy's roots of the characteristic
+// polynomial built independently: controller by SciPy's bilinear
+// cont2discrete, plant by its ZOH, the compute delay (and a transport delay
+// of whole samples) as powers of z: Dc·Dp·z^d + Nc·Np. Poles at the
+// origin (delay registers) are left out of both sides. Tolerance 1e-6
+// relative: np.roots of a degree-10 polynomial with clustered roots near
+// z = 1 loses about half the digits.
+func TestClosedLoopPolesAgainstNumPy(t *testing.T) {
+	T := 0.001
+	type tc struct {
+		c     synth.Controller
+		delay float64
+		d     int
+	}
+	cases := []tc{
+		{synth.Controller{Form: synth.FormPI, Kp: 0.007, Ki: 0.02, B: 1}, 0, 1},
+		{synth.Controller{Form: synth.FormPID, Kp: 0.031, Ki: 0.27, Kd: 0.0008, Tf: 0.004, B: 0.5}, 0, 1},
+		{synth.Controller{Form: synth.FormPID, Kp: 0.031, Ki: 0.27, Kd: 0.0008, Tf: 0.004, B: 1}, 0.002, 0},
+		{synth.Controller{Form: synth.FormPD, Kp: 0.009, Kd: 0.0001, Tf: 0.004, B: 1}, 0.001, 2},
+		{synth.Controller{Form: synth.FormLead, K: 0.01, Zero: -20, Pole: -25}, 0, 1},
+	}
+	var in []map[string]any
+	var ours [][]complex128
+	for _, c := range cases {
+		p := demo(c.c.Form)
+		p.Plant.Delay = c.delay
+		pl, err := NewPlant(p, T)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ctrl := p.Ctrl
+		ctrl.DerivativeLowpassHz = 1 / (2 * math.Pi * c.c.Tf)
+		k, _, err := Realize(c.c, ctrl, T, math.NaN())
+		if err != nil {
+			t.Fatal(err)
+		}
+		ps, err := newClosedLoop(pl, linearize(k), c.d).poles()
+		if err != nil {
+			t.Fatal(err)
+		}
+		var nz []complex128
+		for _, z := range ps {
+			if cmplx.Abs(z) > 1e-9 {
+				nz = append(nz, z)
+			}
+		}
+		ours = append(ours, nz)
+		g, _ := p.Plant.Model.TF()
+		h, _ := p.Sensor.TF()
+		gh := g.Series(h)
+		tf := c.c.TF()
+		in = append(in, map[string]any{"cnum": desc(tf.Num), "cden": desc(tf.Den), "pnum": desc(gh.Num), "pden": desc(gh.Den),
+			"T": T, "d": c.d + int(math.Round(c.delay/T))})
+	}
+	var ref [][][2]float64
+	pyref.Run(t, polesScript, in, &ref)
+	for i := range cases {
+		var want []complex128
+		for _, z := range ref[i] {
+			want = append(want, complex(z[0], z[1]))
+		}
+		if d := rootDistance(ours[i], want); d > 1e-6 {
+			t.Errorf("case %d: poles %v\nNumPy %v (rel %.3g)", i, ours[i], want, d)
+		}
+	}
+}
+
+func rootDistance(got, want []complex128) float64 {
+	if len(got) != len(want) {
+		return math.Inf(1)
+	}
+	used := make([]bool, len(got))
+	worst := 0.0
+	for _, w := range want {
+		bi, bd := -1, math.Inf(1)
+		for i, g := range got {
+			if !used[i] && cmplx.Abs(g-w) < bd {
+				bi, bd = i, cmplx.Abs(g-w)
+			}
+		}
+		used[bi] = true
+		worst = math.Max(worst, bd/math.Max(1, cmplx.Abs(w)))
+	}
+	return worst
+}
+
+// antiWindupCases are three rate loops of different airframes (demo data):
+// a quadrotor roll axis (PID), a yaw axis (PI) and a gimbal (PID, no
+// delay).
+func antiWindupCases() []synth.Problem {
+	roll := demo(synth.FormPID)
+	yaw := demo(synth.FormPI)
+	yaw.Plant.Model = lti.ZPK{Gain: 300 / 0.05, Poles: []complex128{0, -20}}
+	yaw.Spec = synth.Spec{SettlingTime: 0.4, Band: 0.02, Overshoot: 0.1, MinPhaseMargin: 40, MinGainMargin: 6}
+	gim := demo(synth.FormPID)
+	gim.Plant = synth.Plant{Model: lti.ZPK{Gain: 4000, Poles: []complex128{-2, -60}}}
+	gim.Spec = synth.Spec{SettlingTime: 0.1, Band: 0.02, Overshoot: 0.05, MinPhaseMargin: 45, MinGainMargin: 6}
+	gim.Ctrl.IntegratorLimit = 0.8
+	return []synth.Problem{roll, yaw, gim}
+}
+
+// Anti-windup (Åström & Hägglund, Advanced PID Control: conditional
+// integration and back-calculation reduce the overshoot and the recovery
+// after saturation, from memory): on three airframes, with a step that
+// saturates the command, backcalc and clamp give no more overshoot and no
+// longer recovery than none, strictly less on at least one, and the
+// integrator never exceeds integrator_limit.
+func TestAntiWindupHelps(t *testing.T) {
+	for i, p := range antiWindupCases() {
+		p.Ctrl.SetpointWeight, p.Ctrl.SetpointWeightSet = 1, true
+		d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float32})
+		if err != nil {
+			t.Fatalf("case %d: %v", i, err)
+		}
+		n := horizon(p.Spec.SettlingTime, d.Plant.T, d.Verif.Poles) * 3
+		a := d.Verif.Saturated.Amplitude
+		metrics := func(aw AntiWindup) (lti.StepInfo, float64) {
+			k := d.Coeffs
+			k.AntiWindup = aw
+			y, _, ipk := simulateNonlinear(d.Plant, k, 1, a, n)
+			return lti.StepMetrics(y, d.Plant.T, a*d.Verif.Step.Final, p.Spec.Band), ipk
+		}
+		none, _ := metrics(AWNone)
+		for _, aw := range []AntiWindup{AWBackcalc, AWClamp} {
+			m, ipk := metrics(aw)
+			if ipk > d.Coeffs.IL+1e-12 {
+				t.Errorf("case %d %s: integrator peak %.6g > limit %.6g", i, aw, ipk, d.Coeffs.IL)
+			}
+			if m.Overshoot > none.Overshoot+1e-9 || m.Settling > none.Settling+1e-9 {
+				t.Errorf("case %d %s: overshoot %.4f recovery %.4f, none %.4f %.4f", i, aw, m.Overshoot, m.Settling, none.Overshoot, none.Settling)
+			}
+			if !(m.Overshoot < none.Overshoot || m.Settling < none.Settling) {
+				t.Errorf("case %d %s: no improvement over none (overshoot %.4f, recovery %.4f)", i, aw, m.Overshoot, m.Settling)
+			}
+			t.Logf("case %d %s: overshoot %.4f recovery %.4f s; none %.4f %.4f s", i, aw, m.Overshoot, m.Settling, none.Overshoot, none.Settling)
+		}
+	}
+}
+
+// Saturation downstream: the controller's own limits are wide, a mixer
+// clips the command at ±0.3 and reports it through Applied. With the
+// report, back-calculation makes the integrator track the clipped command
+// (it runs negative, against the proportional part) and never winds up in
+// the direction of the error; without it, the integrator winds up toward
+// its limit and the response overshoots more.
+func TestMixerSaturationBoundsWindup(t *testing.T) {
+	p := demo(synth.FormPID)
+	p.Ctrl.OutputLimit = [2]float64{-10, 10}
+	p.Ctrl.IntegratorLimit = 10
+	p.Ctrl.SetpointWeight, p.Ctrl.SetpointWeightSet = 1, true
+	d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float64})
+	if err != nil {
+		t.Fatal(err)
+	}
+	run := func(report bool) (ipk float64, y []float64) {
+		prm := ParamsOf[float64](d.Coeffs)
+		var st State[float64]
+		pl := d.Plant
+		x := make([]float64, pl.N)
+		xn := make([]float64, pl.N)
+		prev := 0.0
+		for i := 0; i < 3000; i++ {
+			ym, yt := 0.0, 0.0
+			for j := range x {
+				ym += pl.Cm[j] * x[j]
+				yt += pl.Cy[j] * x[j]
+			}
+			y = append(y, yt)
+			u := Step(&prm, &st, 150, ym)
+			ua := math.Max(-0.3, math.Min(0.3, u))
+			if report {
+				Applied(&st, ua)
+			}
+			ipk = math.Max(ipk, st.S) // windup is in the direction of the error (+)
+			for r := range x {
+				acc := pl.B[r] * prev
+				for j := range x {
+					acc += pl.A[r*pl.N+j] * x[j]
+				}
+				xn[r] = acc
+			}
+			x, xn = xn, x
+			prev = ua // one sample of compute delay
+		}
+		return ipk, y
+	}
+	withReport, yr := run(true)
+	without, yn := run(false)
+	t.Logf("largest integrator state: %.3g with Applied, %.3g without", withReport, without)
+	if withReport > 0.3 {
+		t.Errorf("integrator peak with Applied = %.3g, want ≤ 0.3 (the clipped range)", withReport)
+	}
+	if without < 5 {
+		t.Errorf("integrator peak without Applied = %.3g: expected windup toward the limit 10", without)
+	}
+	os := func(y []float64) float64 {
+		m := 0.0
+		for _, v := range y {
+			m = math.Max(m, v)
+		}
+		return m/150 - 1
+	}
+	if os(yr) >= os(yn) {
+		t.Errorf("overshoot with Applied %.3f ≥ without %.3f", os(yr), os(yn))
+	}
+}
+
+// Bumpless reset: after Reset(output, measured), a step with the setpoint
+// at the measurement returns output, and the derivative does not kick.
+func TestResetIsBumpless(t *testing.T) {
+	for _, f := range []synth.Form{synth.FormPI, synth.FormPID, synth.FormLead} {
+		d, err := DesignAxis(demo(f), Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float64})
+		if err != nil {
+			t.Fatal(err)
+		}
+		prm := ParamsOf[float64](d.Coeffs)
+		var st State[float64]
+		for i := 0; i < 10; i++ {
+			Step(&prm, &st, 5, float64(i))
+		}
+		Reset(&prm, &st, 0.25, 3)
+		if got := Step(&prm, &st, 3, 3); math.Abs(got-0.25) > 1e-15 {
+			t.Errorf("%s: first command after reset %.17g, want 0.25", f, got)
+		}
+	}
+}
+
+// Discrete metrics converge to the continuous ones as the loop rate grows
+// (the sampled loop tends to the continuous loop as T → 0): the same
+// continuous controller realized at ×1, ×10 and ×100 the rate, with no
+// compute delay, approaches the continuous overshoot and settling time.
+func TestConvergesToContinuous(t *testing.T) {
+	p := demo(synth.FormPID)
+	p.Ctrl.DerivativeLowpassHz = 40
+	d, err := synth.DesignAxis(p, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	prev := math.Inf(1)
+	for _, hz := range []float64{400, 4000, 40000} {
+		T := 1 / hz
+		pl, err := NewPlant(p, T)
+		if err != nil {
+			t.Fatal(err)
+		}
+		k, _, err := Realize(d.Ctrl, p.Ctrl, T, d.Verif.Margins.Crossover)
+		if err != nil {
+			t.Fatal(err)
+		}
+		v, err := Verify(p, pl, k, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		e := math.Abs(v.Step.Overshoot-d.Verif.Step.Overshoot) + math.Abs(v.Step.Settling-d.Verif.Step.Settling)/p.Spec.SettlingTime
+		t.Logf("%g Hz: overshoot %.5f (cont %.5f), settling %.5f (cont %.5f)", hz, v.Step.Overshoot, d.Verif.Step.Overshoot, v.Step.Settling, d.Verif.Step.Settling)
+		if e >= prev && e > 2e-3 {
+			t.Errorf("%g Hz: error %.4g did not shrink from %.4g", hz, e, prev)
+		}
+		prev = e
+	}
+	if prev > 5e-3 {
+		t.Errorf("at 40 kHz the discrete metrics are still %.3g from the continuous ones", prev)
+	}
+}
+
+// A loop rate too low for the design fails the sampling check (exit 1).
+func TestSamplingTooLow(t *testing.T) {
+	p := demo(synth.FormPD)
+	p.Ctrl.DerivativeLowpassHz = 20
+	d, err := DesignAxis(p, Loop{Hz: 30, ComputeDelay: 0}, Numeric{Type: Float32})
+	if err != nil {
+		return // an infeasible design is also a refusal
+	}
+	for _, c := range d.Checks {
+		if c.Name == "sampling" && c.OK {
+			t.Errorf("sampling check passed at 30 Hz: %+v", c)
+		}
+	}
+	if d.OK() {
+		t.Errorf("design at 30 Hz reported ok")
+	}
+}
+
+// BenchmarkDiscreteAxis: discretization, discrete verification and the
+// saturated simulation of one PID axis (target ≤ 1 ms).
+func BenchmarkDiscreteAxis(b *testing.B) {
+	p := demo(synth.FormPID)
+	d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float32})
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	for b.Loop() {
+		pl, err := NewPlant(p, 0.001)
+		if err != nil {
+			b.Fatal(err)
+		}
+		k, _, err := Realize(d.Cont.Ctrl, p.Ctrl, 0.001, d.Cont.Verif.Margins.Crossover)
+		if err != nil {
+			b.Fatal(err)
+		}
+		if _, err := Verify(p, pl, k, 1); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkDesignAxisAtRate: the whole design of one PID axis, refined
+// against the sampled loop.
+func BenchmarkDesignAxisAtRate(b *testing.B) {
+	p := demo(synth.FormPID)
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float32}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
