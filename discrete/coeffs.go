@@ -3,6 +3,7 @@ package discrete
 import (
 	"fmt"
 	"math"
+	"strconv"
 
 	"locusmith/synth"
 )
@@ -107,6 +108,9 @@ func Realize(c synth.Controller, ctrl synth.Control, T, crossover float64) (Coef
 		if !(w > 0) || math.IsInf(w, 0) || w*T/2 >= math.Pi/2 {
 			warns = append(warns, "tustin_prewarp: no usable crossover below Nyquist; plain Tustin used")
 		} else {
+			// The crossover comes from a search whose last bits may differ
+			// between CPU architectures; 10 digits make tp reproducible.
+			w = snap10(w)
 			k.PrewarpOmega = w
 			tp = 2 * math.Tan(w*T/2) / w
 		}
@@ -118,11 +122,11 @@ func Realize(c synth.Controller, ctrl synth.Control, T, crossover float64) (Coef
 		return k, warns, nil
 	}
 	if c.Form.HasIntegral() {
-		kit := float64(c.Ki * T)
+		kit := c.Ki * T
 		switch k.Method {
 		case Tustin, TustinPrewarp:
-			k.G0 = float64(c.Ki*tp) / 2
-			k.G01 = float64(c.Ki * tp)
+			k.G0 = c.Ki * tp / 2
+			k.G01 = c.Ki * tp
 		case Backward:
 			k.G0, k.G01 = kit, kit
 		case Forward:
@@ -180,17 +184,28 @@ func Realize(c synth.Controller, ctrl synth.Control, T, crossover float64) (Coef
 	return k, warns, nil
 }
 
-// leadCoeffs maps K(s − z)/(s − p) to (B0 + B1·z⁻¹)/(1 + A1·z⁻¹).
+// leadCoeffs maps K(s − z)/(s − p) to (B0 + B1·z⁻¹)/(1 + A1·z⁻¹). The
+// products are converted explicitly so that no compiler fuses them into a
+// multiply-add, which would change the last bit on some architectures.
 func leadCoeffs(c synth.Controller, m Method, T, tp float64) (b0, b1, a1 float64) {
 	kk, z, p := c.K, c.Zero, c.Pole
 	switch m {
 	case Backward:
-		d := 1 - p*T
-		return kk * (1 - z*T) / d, -kk / d, -1 / d
+		d := 1 - float64(p*T)
+		return kk * (1 - float64(z*T)) / d, -kk / d, -1 / d
 	case Forward:
-		return kk, -kk * (1 + z*T), -(1 + p*T)
+		return kk, -kk * (1 + float64(z*T)), -(1 + float64(p*T))
 	}
 	w := 2 / tp
 	d := w - p
 	return kk * (w - z) / d, -kk * (w + z) / d, -(w + p) / d
+}
+
+// snap10 rounds x to 10 significant digits (see synth.Controller.Snap).
+func snap10(x float64) float64 {
+	v, err := strconv.ParseFloat(strconv.FormatFloat(x, 'g', 10, 64), 64)
+	if err != nil {
+		return x
+	}
+	return v
 }

@@ -57,8 +57,8 @@ func Evaluator(p synth.Problem, pl Plant, d int) synth.Evaluator {
 			return e, nil
 		}
 		lo, _ := spanOf(p)
-		e.Margins = func() lti.Margins { return loopMargins(pl, lc, d, lo) }
-		n := horizon(p.Spec.SettlingTime, pl.T, ps)
+		e.Margins = func() lti.Margins { return loopMargins(pl, k, d, lo) }
+		n := horizon(p.Spec.SettlingTime, pl.T, ps, 6)
 		k0, k1 := k, k
 		k0.KpB, k1.KpB = 0, k.Kp
 		L0, L1 := newClosedLoop(pl, linearize(k0), d), newClosedLoop(pl, linearize(k1), d)

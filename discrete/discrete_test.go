@@ -58,6 +58,9 @@ func TestIntegratorClosedForms(t *testing.T) {
 		if got := ctrlEval(k, z); cmplx.Abs(got-m.want) > 1e-12*cmplx.Abs(m.want) {
 			t.Errorf("%s: %v, want %v", m.method, got, m.want)
 		}
+		if got := feedback(k, z); cmplx.Abs(got-m.want) > 1e-12*cmplx.Abs(m.want) {
+			t.Errorf("%s: feedback %v, want %v", m.method, got, m.want)
+		}
 	}
 }
 
@@ -188,6 +191,9 @@ func TestControllersAgainstSciPy(t *testing.T) {
 			var v []complex128
 			for _, z := range zs {
 				v = append(v, ctrlEval(k, z))
+				if f := feedback(k, z); cmplx.Abs(f-v[len(v)-1]) > 1e-12*cmplx.Abs(f) {
+					t.Errorf("%s %s: feedback %v, linearized model %v", name, c.Form, f, v[len(v)-1])
+				}
 			}
 			ours = append(ours, v)
 		}
@@ -452,7 +458,7 @@ func TestAntiWindupHelps(t *testing.T) {
 		if err != nil {
 			t.Fatalf("case %d: %v", i, err)
 		}
-		n := horizon(p.Spec.SettlingTime, d.Plant.T, d.Verif.Poles) * 3
+		n := horizon(p.Spec.SettlingTime, d.Plant.T, d.Verif.Poles, 100) * 3
 		a := d.Verif.Saturated.Amplitude
 		metrics := func(aw AntiWindup) (lti.StepInfo, float64) {
 			k := d.Coeffs

@@ -174,18 +174,40 @@ func (L closedLoop) dcGain() float64 {
 	return real(v)
 }
 
+// feedback returns the controller's feedback path C_fb(z) = u/(−y) from
+// the coefficients, with q = z⁻¹:
+//
+//	PID family: Kp + G0 + G01·q/(1 − q) + Bd·(1 − q)/(1 − Ad·q)
+//	lead:       (B0 + B1·q)/(1 + A1·q)
+//
+// (the terms the form lacks are zero). It equals the linearized model's
+// transfer function (a test checks it) at a fraction of the cost.
+func feedback(k Coeffs, z complex128) complex128 {
+	q := 1 / z
+	if k.Form == synth.FormLead {
+		return (complex(k.B0, 0) + complex(k.B1, 0)*q) / (1 + complex(k.A1, 0)*q)
+	}
+	v := complex(k.Kp, 0)
+	if k.Form.HasIntegral() {
+		v += complex(k.G0, 0) + complex(k.G01, 0)*q/(1-q)
+	}
+	if k.Form.HasDerivative() {
+		v += complex(k.Bd, 0) * (1 - q) / (1 - complex(k.Ad, 0)*q)
+	}
+	return v
+}
+
 // loopMargins returns the margins of the sampled loop
 // L(z) = C_fb(z)·P(z)·z^(−d) on the unit circle, z = e^(jωT), from a low
 // frequency up to just below Nyquist π/T.
-func loopMargins(pl Plant, c linearCtrl, d int, wlo float64) lti.Margins {
+func loopMargins(pl Plant, k Coeffs, d int, wlo float64) lti.Margins {
 	T := pl.T
-	ctrl := lti.Disc{N: c.M, A: c.Ac, B: c.By, C: c.Cc, D: c.Dy, T: T}
 	ny := math.Pi / T
 	lo := math.Min(wlo, ny/1e4)
 	n := int(math.Ceil(30*math.Log10(ny/lo))) + 1
 	return lti.LoopMargins(func(w float64) complex128 {
 		z := complexExp(w * T)
-		v := -ctrl.Eval(z) * pl.evalMeasured(z)
+		v := feedback(k, z) * pl.evalMeasured(z)
 		for i := 0; i < d; i++ {
 			v /= z
 		}

@@ -2,6 +2,7 @@ package synth
 
 import (
 	"math"
+	"strconv"
 
 	"locusmith/internal/lti"
 )
@@ -137,4 +138,30 @@ func (c Controller) Td() float64 {
 		return 0
 	}
 	return c.Kd / c.Kp
+}
+
+// Snap rounds every gain and corner of c to 10 significant digits.
+//
+// The design is a long chain of floating-point operations (eigenvalues,
+// matrix exponentials, searches) whose last bits may differ between CPU
+// architectures (fused multiply-add, assembly kernels); rounding the
+// placed controller makes the generated code a function of the input
+// alone, except in the rare case that a value falls within a few ulps of a
+// rounding boundary. Ten digits keep the placement residual near 1e−10.
+func (c Controller) Snap() Controller {
+	for _, v := range []*float64{&c.Kp, &c.Ki, &c.Kd, &c.Tf, &c.B, &c.K, &c.Zero, &c.Pole} {
+		*v = snap(*v)
+	}
+	return c
+}
+
+func snap(x float64) float64 {
+	if x == 0 || math.IsNaN(x) || math.IsInf(x, 0) {
+		return x
+	}
+	v, err := strconv.ParseFloat(strconv.FormatFloat(x, 'g', 10, 64), 64)
+	if err != nil {
+		return x
+	}
+	return v
 }

@@ -211,7 +211,7 @@ func Place(p Problem, t Target) (Controller, error) {
 	if c.Form.HasIntegral() && c.Ki == 0 || c.Form.HasDerivative() && c.Kd == 0 {
 		return infeasible("a gain of the form comes out zero")
 	}
-	return c, nil
+	return c.Snap(), nil
 }
 
 // PlaceP returns the proportional gain at which the root locus of K·L(s)
@@ -267,7 +267,7 @@ func PlaceP(p Problem, zeta float64) (Controller, Target, error) {
 		prevW, prev = w, cur
 	}
 	for _, h := range hits {
-		c.Kp = h.k
+		c.Kp = snap(h.k)
 		if stable, err := closedLoopStable(p, c); err == nil && stable {
 			return c, NewTarget(zeta, zeta*h.wn), nil
 		}
