@@ -187,10 +187,12 @@ func TestPhysicalPlant(t *testing.T) {
 func TestLowpassSensor(t *testing.T) {
 	f := mustParse(t, withSensor("lowpass_hz = 90.0"))
 	h := f.Axes[0].Sensor
-	// 2π·90 = 180π = 565.4866776461628 (by hand, π to 17 digits).
+	// 2π·90 = 180π = 565.48667764616278292… (Python's decimal module at 40
+	// digits with π to 50 digits, /usr/bin/python3 3.11), rounded to
+	// float64.
 	const wc = 565.4866776461628
-	// Tolerance: 2π·90 is one rounded product of exact float64 values
-	// (2·math.Pi is exact); 1e-15 relative allows that rounding.
+	// Tolerance: the decoder computes float64(2π)·90, two roundings of
+	// half an ulp each (≈1.1e-16 relative); 1e-15 allows them.
 	if !relClose(h.Gain, wc, 1e-15) || len(h.Poles) != 1 || !relClose(real(h.Poles[0]), -wc, 1e-15) || imag(h.Poles[0]) != 0 || len(h.Zeros) != 0 {
 		t.Fatalf("sensor %+v, want gain %v, pole %v", h, wc, -wc)
 	}

@@ -89,7 +89,7 @@ func (c *checker) file(raw map[string]any) *File {
 
 // numeric checks [numeric].
 func (c *checker) numeric(top *table) discrete.Numeric {
-	n := discrete.Numeric{Type: defaultNumericType}
+	n := discrete.Numeric{Type: defaultNumericType, InputFullScale: defaultFullScale, OutputFullScale: defaultFullScale}
 	m := top.subtable("numeric", false, "type, input_full_scale, output_full_scale")
 	if m == nil {
 		return n
@@ -112,12 +112,8 @@ func (c *checker) numeric(top *table) discrete.Numeric {
 	}
 	in := numRule{desc: "> 0", unit: "rate units, the largest |setpoint| or |measured rate|", ok: isPositive}
 	out := numRule{desc: "> 0", unit: "command units, the largest |command|", ok: isPositive}
-	if t.has("input_full_scale") {
-		n.InputFullScale, _ = t.number("input_full_scale", in, false, 0)
-	}
-	if t.has("output_full_scale") {
-		n.OutputFullScale, _ = t.number("output_full_scale", out, false, 0)
-	}
+	n.InputFullScale, _ = t.number("input_full_scale", in, false, defaultFullScale)
+	n.OutputFullScale, _ = t.number("output_full_scale", out, false, defaultFullScale)
 	return n
 }
 
@@ -392,9 +388,9 @@ func (c *checker) control(t *table, loopHz float64) synth.Control {
 		}
 	}
 	if only("derivative_on", hasD, `forms with a derivative ("pd", "pid")`) {
-		on, ok := t.enum("derivative_on", "measurement", "measurement", "error")
+		on, ok := t.enum("derivative_on", derivativeOnName(defaultDerivativeOnError), derivativeOnName(false), derivativeOnName(true))
 		if ok {
-			ctl.DerivativeOnError = on == "error"
+			ctl.DerivativeOnError = on == derivativeOnName(true)
 		}
 	}
 

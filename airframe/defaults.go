@@ -96,9 +96,24 @@ const (
 	// controller stays stable (Franklin, Powell, Workman; common practice).
 	defaultDiscretize = "tustin"
 
-	// defaultPlantDelay is the plant's transport delay when absent.
+	// defaultPlantDelay is the plant's transport delay when absent: none,
+	// the delay then being the compute delay alone.
 	defaultPlantDelay = 0.0
+
+	// defaultFullScale is numeric.input_full_scale and output_full_scale
+	// when absent with a float type: 0, "not given" (discrete.Numeric).
+	// The fixed-point types require both.
+	defaultFullScale = 0.0
 )
+
+// derivativeOnName is the control.derivative_on spelling of
+// defaultDerivativeOnError.
+func derivativeOnName(onError bool) string {
+	if onError {
+		return "error"
+	}
+	return "measurement"
+}
 
 // defaultZeros is the zeros list of a zpk plant or sensor when absent: none.
 // Roots lists that are empty are nil throughout, so that an absent list and

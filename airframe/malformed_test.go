@@ -224,6 +224,8 @@ func malformedCases(tb testing.TB) []malformedCase {
 			want: []string{`axes.roll.control.output_limit = [0.0, 0.0]: must be [low, high] with finite low < high`}, count: 1},
 		{name: "limits exclude zero", src: withControl("output_limit = [0.2, 0.8]"),
 			want: []string{`axes.roll.control.output_limit = [0.2, 0.8]: must be [low, high]`}, count: 1},
+		{name: "limits below zero", src: withControl("output_limit = [-0.8, -0.2]"),
+			want: []string{`axes.roll.control.output_limit = [-0.8, -0.2]: must be [low, high]`}, count: 1},
 		{name: "limits one element", src: withControl("output_limit = [1.0]"),
 			want: []string{`axes.roll.control.output_limit = [1.0]: must be an array [low, high]`}, count: 1},
 		{name: "limits nan", src: withControl("output_limit = [nan, 1.0]"),

@@ -105,7 +105,8 @@ func (r numRule) allowed() string {
 	return r.desc + " (" + r.unit + ")"
 }
 
-// check validates an already numeric v against the rule at key.
+// checkNumber validates the number v, decoded from raw, against the rule
+// at key.
 func (c *checker) checkNumber(key string, raw any, v float64, r numRule) bool {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		c.fail(key, raw, "must be a finite number %s", r.allowed())
