@@ -21,6 +21,10 @@ type Design struct {
 	// Checks are the spec checks on the sampled loop, plus sampling.
 	Checks   []synth.Check
 	Warnings []string
+	// Num is the numeric realization in Numeric's type: coefficient
+	// table, fixed-point formats and proved ranges, the integer model, and
+	// the verification with quantized coefficients (see RealizeNumeric).
+	Num *Realization
 }
 
 // OK reports whether every check passed.
@@ -47,24 +51,30 @@ func Evaluator(p synth.Problem, pl Plant, d int) synth.Evaluator {
 		if err != nil {
 			return e, err
 		}
-		lc := linearize(k)
-		L := newClosedLoop(pl, lc, d)
-		ps, err := L.poles()
-		if err != nil {
-			return e, err
+		// Stability by the Schur–Cohn test on the characteristic
+		// polynomial; eigenvalues only where it cannot be formed.
+		if ch := characteristic(pl, k, d); ch != nil {
+			e.Stable = schurStable(ch)
+		} else {
+			ps, err := newClosedLoop(pl, linearize(k), d).poles()
+			if err != nil {
+				return e, err
+			}
+			e.Stable = stabilityMargin(ps) > 0
 		}
-		if e.Stable = stabilityMargin(ps) > 0; !e.Stable {
+		if !e.Stable {
 			return e, nil
 		}
 		lo, _ := spanOf(p)
 		e.Margins = func() lti.Margins { return loopMargins(pl, k, d, lo) }
-		n := horizon(p.Spec.SettlingTime, pl.T, ps, 6)
+		n := horizon(p.Spec.SettlingTime, pl.T, nil, 6)
 		k0, k1 := k, k
 		k0.KpB, k1.KpB = 0, k.Kp
-		L0, L1 := newClosedLoop(pl, linearize(k0), d), newClosedLoop(pl, linearize(k1), d)
+		c0, c1 := linearize(k0), linearize(k1)
+		L0, L1 := newClosedLoop(pl, c0, d), newClosedLoop(pl, c1, d)
 		y0, y1, y := make([]float64, n), make([]float64, n), make([]float64, n)
-		L0.stepInto(y0, nil)
-		L1.stepInto(y1, nil)
+		simulate(pl, c0, d, y0, nil)
+		simulate(pl, c1, d, y1, nil)
 		dc0, dc1 := L0.dcGain(), L1.dcGain()
 		for _, b := range bs {
 			for i := range y {
@@ -116,6 +126,13 @@ func DesignAxis(p synth.Problem, loop Loop, num Numeric) (*Design, error) {
 	d.Checks = synth.SpecChecks(p.Spec, v.Stable, 0, v.Step.Overshoot, v.Step.Settling, v.Margins.PhaseDeg, v.Margins.GainDB)
 	d.Checks[0] = synth.Check{Name: "stable", Limit: 1, Value: 1 - v.StabilityMargin, Upper: true, OK: v.Stable}
 	d.Checks = append(d.Checks, d.samplingCheck())
+	// Numeric realization (numeric.go): its checks and warnings join the
+	// design's; bad numeric settings come back as an *InputError.
+	if d.Num, err = RealizeNumeric(d); err != nil {
+		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+	}
+	d.Checks = append(d.Checks, d.Num.Checks...)
+	d.Warnings = append(d.Warnings, d.Num.Warnings...)
 	return d, nil
 }
 

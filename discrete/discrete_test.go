@@ -311,7 +311,7 @@ func TestTransportDelayAgainstSciPy(t *testing.T) {
 		for i := range u {
 			u[i] = math.Sin(float64(i)*0.37) + 0.5*float64(i%7)
 		}
-		d := pl.measured()
+		d := pl.Full()
 		got := d.Simulate(u)
 		tf, _ := g.TF()
 		var want []float64
@@ -504,7 +504,7 @@ func TestMixerSaturationBoundsWindup(t *testing.T) {
 		pl := d.Plant
 		x := make([]float64, pl.N)
 		xn := make([]float64, pl.N)
-		prev := 0.0
+		ring := make([]float64, 1+pl.Delay)
 		for i := 0; i < 3000; i++ {
 			ym, yt := 0.0, 0.0
 			for j := range x {
@@ -518,6 +518,9 @@ func TestMixerSaturationBoundsWindup(t *testing.T) {
 				Applied(&st, ua)
 			}
 			ipk = math.Max(ipk, st.S) // windup is in the direction of the error (+)
+			// One sample of compute delay plus the plant's whole samples.
+			ring = append(ring, ua)
+			prev := ring[len(ring)-2-pl.Delay]
 			for r := range x {
 				acc := pl.B[r] * prev
 				for j := range x {
@@ -526,7 +529,6 @@ func TestMixerSaturationBoundsWindup(t *testing.T) {
 				xn[r] = acc
 			}
 			x, xn = xn, x
-			prev = ua // one sample of compute delay
 		}
 		return ipk, y
 	}
@@ -659,6 +661,137 @@ func BenchmarkDesignAxisAtRate(b *testing.B) {
 	for b.Loop() {
 		if _, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float32}); err != nil {
 			b.Fatal(err)
+		}
+	}
+}
+
+// FuzzDesignAtRate designs random plants at random loop rates, compute
+// delays, rules and anti-windup schemes: no panic, no NaN in a design
+// reported as passing, and poles inside the unit circle when stable.
+func FuzzDesignAtRate(f *testing.F) {
+	f.Add(2000.0, 0.03, 0.002, 100.0, 0.15, 0.08, 1000.0, uint8(1), uint8(3), uint8(0))
+	f.Add(300.0, 0.05, 0.0, 0.0, 0.3, 0.1, 400.0, uint8(0), uint8(1), uint8(5))
+	f.Add(50.0, 0.2, 0.01, 20.0, 1.0, 0.05, 50.0, uint8(4), uint8(4), uint8(10))
+	f.Fuzz(func(t *testing.T, eff, tau, delay, hz, ts, os, loop float64, cd, form, opt uint8) {
+		if !(eff > 0 && eff < 1e6 && tau > 1e-4 && tau < 10 && delay >= 0 && delay < 0.5 && hz >= 0 && hz < 1e4 &&
+			ts > 1e-3 && ts < 100 && os > 0.001 && os < 0.99 && loop > 1 && loop < 1e5 && ts*loop < 3000) {
+			t.Skip() // long horizons take seconds per run, too slow to fuzz
+		}
+		p := demo(synth.Forms[int(form)%len(synth.Forms)])
+		p.Plant = synth.Plant{Model: lti.ZPK{Gain: eff / tau, Poles: []complex128{0, complex(-1/tau, 0)}}, Delay: delay}
+		if hz > 0 {
+			p.Sensor = lti.ZPK{Gain: 2 * math.Pi * hz, Poles: []complex128{complex(-2*math.Pi*hz, 0)}}
+		} else {
+			p.Sensor = lti.ZPK{Gain: 1}
+		}
+		p.Spec.SettlingTime, p.Spec.Overshoot = ts, os
+		p.Ctrl.Discretize = []string{"tustin", "tustin_prewarp", "backward", "forward"}[int(opt)%4]
+		p.Ctrl.AntiWindup = []string{"none", "clamp", "backcalc"}[int(opt/4)%3]
+		p.Ctrl.DerivativeLowpassHz = loop / 8
+		d, err := DesignAxis(p, Loop{Hz: loop, ComputeDelay: int(cd) % 5}, Numeric{Type: Float32})
+		if err != nil {
+			return
+		}
+		if d.Verif.Stable && d.Verif.StabilityMargin <= 0 {
+			t.Fatalf("stable with margin %g", d.Verif.StabilityMargin)
+		}
+		if d.OK() {
+			for _, c := range d.Checks {
+				if math.IsNaN(c.Value) {
+					t.Fatalf("check %s passed with NaN", c.Name)
+				}
+			}
+		}
+	})
+}
+
+// The Schur–Cohn test against polynomials built from known roots: stable
+// exactly when the largest root modulus is below one (the definition),
+// including roots 1 % either side of the circle.
+func TestSchurCohnKnownRoots(t *testing.T) {
+	seed := uint64(1)
+	rnd := func() float64 { // xorshift: deterministic, no global state
+		seed ^= seed << 13
+		seed ^= seed >> 7
+		seed ^= seed << 17
+		return float64(seed>>11) / (1 << 53)
+	}
+	for trial := 0; trial < 500; trial++ {
+		n := 1 + trial%12
+		var rs []complex128
+		for len(rs) < n {
+			r, th := 0.95*rnd(), math.Pi*rnd()
+			if len(rs)+2 <= n && rnd() < 0.5 {
+				z := cmplx.Rect(r, th)
+				rs = append(rs, z, cmplx.Conj(z))
+			} else {
+				rs = append(rs, complex(r*math.Copysign(1, rnd()-0.5), 0))
+			}
+		}
+		want := trial%2 == 0
+		edge := 0.99
+		if !want {
+			edge = 1.01
+		}
+		rs[0] = complex(edge*real(rs[0])/cmplx.Abs(rs[0]), edge*imag(rs[0])/cmplx.Abs(rs[0]))
+		if imag(rs[0]) != 0 {
+			rs[1] = cmplx.Conj(rs[0])
+		}
+		p, err := lti.FromRoots(rs)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := schurStable(p.Scale(1 + 3*rnd())); got != want {
+			t.Errorf("trial %d: roots %v: stable = %v, want %v", trial, rs, got, want)
+		}
+	}
+}
+
+// The characteristic polynomial's roots equal the closed-loop state
+// matrix's eigenvalues (away from the origin, where the state model has
+// its unobservable delay and filter-history modes).
+func TestCharacteristicMatchesStateModel(t *testing.T) {
+	for _, f := range synth.Forms {
+		p := demo(f)
+		p.Plant.Delay = 0.0023
+		pl, err := NewPlant(p, 0.001)
+		if err != nil {
+			t.Fatal(err)
+		}
+		c := synth.Controller{Form: f, Kp: 0.02, Ki: 0.2, Kd: 0.0005, Tf: 0.002, B: 1, K: 0.01, Zero: -20, Pole: -60}
+		ctrl := p.Ctrl
+		ctrl.Form = f
+		k, _, err := Realize(c, ctrl, 0.001, math.NaN())
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, z := range []complex128{complexExp(0.2), complex(0.3, 0.1), 2} {
+			n, d := feedbackTF(k)
+			if got, want := n.Eval(z)/d.Eval(z), feedback(k, z); cmplx.Abs(got-want) > 1e-12*cmplx.Abs(want) {
+				t.Errorf("%s: feedbackTF %v, feedback %v", f, got, want)
+			}
+		}
+		roots, err := characteristic(pl, k, 1).Roots()
+		if err != nil {
+			t.Fatal(err)
+		}
+		ps, err := newClosedLoop(pl, linearize(k), 1).poles()
+		if err != nil {
+			t.Fatal(err)
+		}
+		nz := func(rs []complex128) (out []complex128) {
+			for _, r := range rs {
+				if cmplx.Abs(r) > 1e-6 {
+					out = append(out, r)
+				}
+			}
+			return out
+		}
+		if d := rootDistance(nz(roots), nz(ps)); d > 1e-6 {
+			t.Errorf("%s: characteristic roots %v, state-model poles %v", f, nz(roots), nz(ps))
+		}
+		if schurStable(characteristic(pl, k, 1)) != (stabilityMargin(ps) > 0) {
+			t.Errorf("%s: Schur–Cohn and eigenvalues disagree on stability", f)
 		}
 	}
 }

@@ -80,8 +80,10 @@ type closedLoop struct {
 }
 
 // newClosedLoop closes the loop of plant pl, controller c and compute delay
-// d (the command computed at t_k is applied over [t_(k+d), t_(k+d+1))).
+// d (the command computed at t_k is applied over [t_(k+d), t_(k+d+1))),
+// with the plant's whole-sample delay added to d.
 func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
+	d += pl.Delay
 	np, m := pl.N, c.M
 	n := np + d + m
 	L := closedLoop{N: n, A: make([]float64, n*n), B: make([]float64, n), Cy: make([]float64, n), Cu: make([]float64, n)}
@@ -134,6 +136,56 @@ func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
 // poles returns the closed-loop poles in z.
 func (L closedLoop) poles() ([]complex128, error) {
 	return lti.Disc{N: L.N, A: L.A, B: L.B, C: L.Cy, T: 1}.Poles()
+}
+
+// simulate runs the linear loop (controller c, compute delay d, plant pl
+// with its whole-sample delay) for a unit setpoint step, writing the true
+// rate into y and, if u is not nil, the command. The delays are a ring
+// buffer, so a long delay costs nothing per sample.
+func simulate(pl Plant, c linearCtrl, d int, y, u []float64) {
+	D := d + pl.Delay
+	np, m := pl.N, c.M
+	buf := make([]float64, 2*np+2*m+D+1)
+	x, xn := buf[:np], buf[np:2*np]
+	xc, xcn := buf[2*np:2*np+m], buf[2*np+m:2*np+2*m]
+	ring := buf[2*np+2*m:]
+	for k := range y {
+		var ym, yt float64
+		for j := 0; j < np; j++ {
+			ym += pl.Cm[j] * x[j]
+			yt += pl.Cy[j] * x[j]
+		}
+		y[k] = yt
+		cmd := c.Dr + c.Dy*ym
+		for j := 0; j < m; j++ {
+			cmd += c.Cc[j] * xc[j]
+		}
+		if u != nil {
+			u[k] = cmd
+		}
+		for i := 0; i < m; i++ {
+			acc := c.Br[i] + c.By[i]*ym
+			row := c.Ac[i*m : i*m+m]
+			for j, a := range row {
+				acc += a * xc[j]
+			}
+			xcn[i] = acc
+		}
+		xc, xcn = xcn, xc
+		// Slot k mod (D+1) takes this command; the next slot still holds
+		// the command of D samples ago.
+		ring[k%(D+1)] = cmd
+		ua := ring[(k+1)%(D+1)]
+		for i := 0; i < np; i++ {
+			acc := pl.B[i] * ua
+			row := pl.A[i*np : i*np+np]
+			for j, a := range row {
+				acc += a * x[j]
+			}
+			xn[i] = acc
+		}
+		x, xn = xn, x
+	}
 }
 
 // stepInto writes the true-rate response to a unit setpoint step into y
@@ -197,6 +249,66 @@ func feedback(k Coeffs, z complex128) complex128 {
 	return v
 }
 
+// feedbackTF returns C_fb(z) as num/den in powers of z (ascending); see
+// feedback for the terms.
+func feedbackTF(k Coeffs) (num, den lti.Poly) {
+	switch {
+	case k.Form == synth.FormLead:
+		return lti.Poly{k.B1, k.B0}, lti.Poly{k.A1, 1}
+	case k.Form == synth.FormPI:
+		g := k.Kp + k.G0
+		return lti.Poly{-g + k.G01, g}, lti.Poly{-1, 1}
+	case k.Form == synth.FormPD:
+		return lti.Poly{-k.Kp*k.Ad - k.Bd, k.Kp + k.Bd}, lti.Poly{-k.Ad, 1}
+	case k.Form == synth.FormPID:
+		den = lti.Poly{k.Ad, -(1 + k.Ad), 1} // (z − 1)(z − Ad)
+		num = lti.PolyAdd(den.Scale(k.Kp+k.G0), lti.PolyAdd(lti.Poly{-k.Ad, 1}.Scale(k.G01), lti.Poly{1, -2, 1}.Scale(k.Bd)))
+		return num, den
+	}
+	return lti.Poly{k.Kp}, lti.Poly{1}
+}
+
+// characteristic returns Dc·Dp·z^D + Nc·Np, whose roots are the closed-loop
+// poles of the loop's transfer functions (D: compute plus whole-sample
+// delay), or nil when the plant's transfer function is not available.
+func characteristic(pl Plant, k Coeffs, d int) lti.Poly {
+	if pl.den == nil {
+		return nil
+	}
+	nc, dc := feedbackTF(k)
+	zd := make(lti.Poly, d+pl.Delay+1)
+	zd[len(zd)-1] = 1
+	return lti.PolyAdd(lti.PolyMul(lti.PolyMul(dc, pl.den), zd), lti.PolyMul(nc, pl.num))
+}
+
+// schurStable reports whether every root of p lies strictly inside the
+// unit circle, by the Schur–Cohn step-down recursion (Jury's test; Åström
+// & Wittenmark, Computer-Controlled Systems, from memory): with
+// p*(z) = zⁿp(1/z), p is stable iff |p₀| < |pₙ| and
+// (pₙ·p(z) − p₀·p*(z))/z is stable. O(n²), against O(n³) for eigenvalues.
+func schurStable(p lti.Poly) bool {
+	a := append([]float64(nil), p.Trim()...)
+	for n := len(a) - 1; n > 0; n-- {
+		if !(math.Abs(a[0]) < math.Abs(a[n])) {
+			return false
+		}
+		q := make([]float64, n)
+		scale := 0.0
+		for i := 0; i < n; i++ {
+			q[i] = a[n]*a[i+1] - a[0]*a[n-1-i]
+			scale = math.Max(scale, math.Abs(q[i]))
+		}
+		if !(scale > 0) || math.IsInf(scale, 0) {
+			return false
+		}
+		for i := range q {
+			q[i] /= scale
+		}
+		a = q
+	}
+	return len(a) == 1 && a[0] != 0
+}
+
 // loopMargins returns the margins of the sampled loop
 // L(z) = C_fb(z)·P(z)·z^(−d) on the unit circle, z = e^(jωT), from a low
 // frequency up to just below Nyquist π/T.
@@ -208,7 +320,7 @@ func loopMargins(pl Plant, k Coeffs, d int, wlo float64) lti.Margins {
 	return lti.LoopMargins(func(w float64) complex128 {
 		z := complexExp(w * T)
 		v := feedback(k, z) * pl.evalMeasured(z)
-		for i := 0; i < d; i++ {
+		for i := 0; i < d+pl.Delay; i++ {
 			v /= z
 		}
 		return v

@@ -2,6 +2,7 @@ package discrete
 
 import (
 	"fmt"
+	"math"
 	"math/cmplx"
 	"slices"
 
@@ -19,10 +20,17 @@ import (
 // A transport delay τ = d·T + f is exact: whole samples as shift registers
 // and the fraction by the split-interval (modified z-transform) integral of
 // lti.ZOHDelay.
+//
+// The whole samples of the delay are kept apart, as Delay: the state-space
+// part (A, B, Cm, Cy) holds the plant, the sensor and the fraction of a
+// sample, and its input is the command delayed by Delay samples. A long
+// delay then costs a ring buffer, not a dense matrix, and the transfer
+// function stays well conditioned.
 type Plant struct {
 	N      int
-	A, B   []float64 // x[k+1] = A x[k] + B ua[k]
+	A, B   []float64 // x[k+1] = A x[k] + B ua[k − Delay]
 	Cm, Cy []float64 // measured and true rate: y = C x[k]
+	Delay  int       // whole samples of transport delay
 	T      float64
 	// num/den is the feedback path as a transfer function in z, for fast
 	// frequency sweeps; nil when it could not be formed accurately.
@@ -68,18 +76,19 @@ func NewPlant(p synth.Problem, T float64) (Plant, error) {
 		b[r] = hs.B[i] * gs.D
 		cm[r] = hs.C[i]
 	}
-	dm, err := lti.ZOHDelay(lti.SS{N: n, A: a, B: b, C: cm, D: hs.D * gs.D}, T, p.Plant.Delay)
+	whole, frac := splitDelay(p.Plant.Delay, T)
+	dm, err := lti.ZOHDelay(lti.SS{N: n, A: a, B: b, C: cm, D: hs.D * gs.D}, T, frac)
 	if err != nil {
 		return Plant{}, fmt.Errorf("sampling the plant and sensor: %w", err)
 	}
-	dy, err := lti.ZOHDelay(lti.SS{N: n, A: a, B: b, C: cy, D: gs.D}, T, p.Plant.Delay)
+	dy, err := lti.ZOHDelay(lti.SS{N: n, A: a, B: b, C: cy, D: gs.D}, T, frac)
 	if err != nil {
 		return Plant{}, fmt.Errorf("sampling the plant: %w", err)
 	}
 	if dm.N != dy.N || !slices.Equal(dm.A, dy.A) || !slices.Equal(dm.B, dy.B) {
 		return Plant{}, fmt.Errorf("sampling the plant: inconsistent realizations")
 	}
-	pl := Plant{N: dm.N, A: dm.A, B: dm.B, Cm: dm.C, Cy: dy.C, T: T}
+	pl := Plant{N: dm.N, A: dm.A, B: dm.B, Cm: dm.C, Cy: dy.C, Delay: whole, T: T}
 	if dm.D != 0 || dy.D != 0 {
 		// A sample at t_k sees the command held over the previous interval,
 		// so a feedthrough acts through one extra state holding it.
@@ -131,12 +140,55 @@ func (p Plant) transferFunction() (lti.Poly, lti.Poly) {
 	return num, den
 }
 
-// evalMeasured returns the feedback path's frequency response at z.
+// evalMeasured returns the frequency response at z of the feedback path
+// without its whole-sample delay (the caller applies z^(−Delay)).
 func (p Plant) evalMeasured(z complex128) complex128 {
 	if p.den != nil {
 		return p.num.Eval(z) / p.den.Eval(z)
 	}
 	return p.measured().Eval(z)
+}
+
+// splitDelay splits τ into whole samples and a fraction in [0, T), with a
+// fraction within 1e−12·T of a sample boundary snapped to it, so that a
+// delay of exactly d samples in decimal gives d samples.
+func splitDelay(tau, T float64) (int, float64) {
+	if !(tau > 0) {
+		return 0, 0
+	}
+	d := math.Floor(tau / T)
+	f := tau - d*T
+	if f < 1e-12*T {
+		f = 0
+	} else if T-f < 1e-12*T {
+		d++
+		f = 0
+	}
+	return int(d), math.Max(f, 0)
+}
+
+// Full returns the feedback path with the whole-sample delay as shift
+// registers, as one lti.Disc (for tests and reference comparisons).
+func (p Plant) Full() lti.Disc {
+	m := p.Delay
+	n := p.N + m
+	d := lti.Disc{N: n, A: make([]float64, n*n), B: make([]float64, n), C: make([]float64, n), T: p.T}
+	for i := 0; i < p.N; i++ {
+		copy(d.A[i*n:i*n+p.N], p.A[i*p.N:(i+1)*p.N])
+		d.C[i] = p.Cm[i]
+		if m == 0 {
+			d.B[i] = p.B[i]
+		} else {
+			d.A[i*n+p.N+m-1] = p.B[i]
+		}
+	}
+	if m > 0 {
+		d.B[p.N] = 1
+		for i := 1; i < m; i++ {
+			d.A[(p.N+i)*n+p.N+i-1] = 1
+		}
+	}
+	return d
 }
 
 // withHeldInput adds a state z[k+1] = ua[k] carrying the feedthroughs.

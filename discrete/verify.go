@@ -46,7 +46,8 @@ type Saturated struct {
 
 // horizon returns the number of samples to simulate a step: at least
 // 3·Ts and 10 time constants of the slowest pole (σ = −ln|z|/T, its mode
-// then down to e^−10 ≈ 4.5e−5), capped at maxTs·Ts and 200 000 samples.
+// then down to e^−10 ≈ 4.5e−5), capped at maxTs·Ts and 200 000 samples
+// (20 000 in refinement).
 // Verification uses maxTs = 100; refinement 6, since a candidate whose
 // slowest mode still matters after 6·Ts cannot settle by Ts (a decaying
 // mode that is inside the band stays inside), and the chosen design is
@@ -61,11 +62,17 @@ func horizon(ts, T float64, poles []complex128, maxTs float64) int {
 		}
 	}
 	end := 3 * ts
-	if !math.IsInf(slow, 1) {
+	if poles == nil {
+		end = maxTs * ts // unknown poles: the cap
+	} else if !math.IsInf(slow, 1) {
 		end = math.Max(end, math.Min(10/slow, maxTs*ts))
 	}
 	n := int(math.Ceil(end/T)) + 1
-	return min(max(n, 16), 200000)
+	limit := 200000
+	if maxTs < 100 {
+		limit = 20000
+	}
+	return min(max(n, 16), limit)
 }
 
 func stabilityMargin(ps []complex128) float64 {
@@ -97,7 +104,7 @@ func Verify(p synth.Problem, pl Plant, k Coeffs, d int) (Verification, error) {
 	}
 	n := horizon(p.Spec.SettlingTime, pl.T, ps, 100)
 	v.Y, v.U = make([]float64, n), make([]float64, n)
-	L.stepInto(v.Y, v.U)
+	simulate(pl, c, d, v.Y, v.U)
 	dc := L.dcGain()
 	v.SteadyStateError = 1 - dc
 	v.Step = lti.StepMetrics(v.Y, pl.T, dc, p.Spec.Band)
@@ -154,6 +161,7 @@ func simulateNonlinear(pl Plant, k Coeffs, d int, a float64, n int) (y, u []floa
 	var st State[float64]
 	x := make([]float64, 2*pl.N)
 	xc, xn := x[:pl.N], x[pl.N:]
+	d += pl.Delay
 	q := make([]float64, d+1) // q[0] newest
 	y, u = make([]float64, n), make([]float64, n)
 	for i := 0; i < n; i++ {
