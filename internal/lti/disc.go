@@ -179,12 +179,20 @@ func (d Disc) Poles() ([]complex128, error) {
 func cmplxNaN() complex128 { return cmplx.NaN() }
 
 // resolvent computes C (zI−A)^{-1} B + D by complex Gaussian elimination
-// with partial pivoting on (zI−A) v = B.
+// with partial pivoting on (zI−A) v = B; no heap allocation for n <= 12.
 func resolvent(n int, a, b, c []float64, dd float64, z complex128) complex128 {
 	if n == 0 {
 		return complex(dd, 0)
 	}
-	m := make([]complex128, n*(n+1)) // augmented [zI−A | B]
+	const small = 12
+	var mbuf [small * (small + 1)]complex128
+	var vbuf [small]complex128
+	var m, v []complex128 // augmented [zI−A | B], solution
+	if n <= small {
+		m, v = mbuf[:n*(n+1)], vbuf[:n]
+	} else {
+		m, v = make([]complex128, n*(n+1)), make([]complex128, n)
+	}
 	w := n + 1
 	for i := 0; i < n; i++ {
 		for j := 0; j < n; j++ {
@@ -196,7 +204,8 @@ func resolvent(n int, a, b, c []float64, dd float64, z complex128) complex128 {
 	for col := 0; col < n; col++ {
 		p, best := col, -1.0
 		for r := col; r < n; r++ {
-			if v := cmplx.Abs(m[r*w+col]); v > best {
+			e := m[r*w+col]
+			if v := math.Abs(real(e)) + math.Abs(imag(e)); v > best {
 				p, best = r, v
 			}
 		}
@@ -223,7 +232,6 @@ func resolvent(n int, a, b, c []float64, dd float64, z complex128) complex128 {
 		}
 	}
 	var acc complex128
-	v := make([]complex128, n)
 	for i := n - 1; i >= 0; i-- {
 		s := m[i*w+n]
 		for j := i + 1; j < n; j++ {

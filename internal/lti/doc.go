@@ -21,5 +21,5 @@
 //   - Phase margin is 180° + ∠L wrapped into (−180°, 180°]; gain margin is
 //     −20·log10|L| at a crossing of ∠L through −180° + k·360° (any k). When
 //     there are several crossovers the one with the smallest |margin| is
-//     reported (MATLAB margin/allmargin convention), see LoopMargins.
+//     reported (ties: the lowest frequency), see LoopMargins.
 package lti

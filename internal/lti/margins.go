@@ -41,12 +41,14 @@ func finiteNZ(z complex128) bool {
 // slope (per ln ω) measured on the previous accepted piece predicts more
 // than 60° over it, the interval is split again (recursively, down to 2^-40
 // of the interval), so fast phase roll-off such as a transport delay does
-// not alias the unwrapping even on a coarse grid. (No finite sampling can be fooled-proof: a phase that turns
-// by an exact multiple of 2π over both halves of an interval would still be
-// missed; choose n so that L is reasonably resolved.) The initial
-// branch is chosen from the low-frequency slope: if |L| falls like ω^−m the
-// first phase is put on the branch nearest −90°·m (so a type-m loop starts at
-// −90°·m); this choice changes neither margin, which are branch-independent.
+// not alias the unwrapping even on a coarse grid. Refinement stops after
+// 64·n+100000 extra evaluations. No finite sampling is fool-proof (a phase
+// turning by an exact multiple of 2π over both halves of an interval would
+// still be missed), so choose n to resolve L reasonably, e.g. 50–100 points
+// per decade. The initial branch is chosen from the low-frequency slope: if
+// |L| falls like ω^−m the first phase is put on the branch nearest −90°·m (a
+// type-m loop starts at −90°·m); this choice changes neither margin, since
+// both are branch-independent.
 //
 // Every sign change of ln|L| (gain crossover) and every crossing of the
 // unwrapped phase through −180° + k·360° for any integer k (phase crossover)
@@ -61,8 +63,9 @@ func finiteNZ(z complex128) bool {
 //     (−180°, 180°]. Of several, the one with the smallest |PM| is reported
 //     (ties: lowest frequency), and DelayMargin = PM[rad]/ω_c for it.
 //
-// This matches MATLAB's margin() choice of the minimum margins. All crossings
-// are also returned in GainCrossovers/PhaseCrossovers. Invalid ranges (wmin
+// All crossings are also returned in GainCrossovers/PhaseCrossovers. The
+// margins say how far the loop is from instability only if the closed loop
+// is stable; check the closed-loop poles separately. Invalid ranges (wmin
 // <= 0, wmax <= wmin, non-finite) return NaN for every field. Frequencies
 // where L is 0, NaN or Inf are skipped.
 func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margins {
@@ -115,6 +118,10 @@ func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margin
 	grid[first].ph = ph0
 	pts = append(pts, grid[first])
 	const maxStep = math.Pi / 3
+	// Refinement budget: beyond it intervals are accepted unrefined (the
+	// scan is then as good as the grid allows) so a pathological L cannot
+	// make the scan run away.
+	budget := 64*n + 100000
 	var refine func(a, b marginPoint, depth int)
 	slope := 0.0 // dφ/d(ln ω) of the last accepted sub-interval
 	refine = func(a, b marginPoint, depth int) {
@@ -129,6 +136,11 @@ func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margin
 			pts = append(pts, b)
 			return
 		}
+		if budget <= 0 {
+			b.ph = a.ph + cmplx.Phase(b.L*cmplx.Conj(a.L))
+			pts = append(pts, b)
+			return
+		}
 		mid := 0.5 * (a.lw + b.lw)
 		z := eval(mid)
 		mp := marginPoint{lw: mid, L: z, ok: finiteNZ(z)}
@@ -140,7 +152,8 @@ func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margin
 		d1 := cmplx.Phase(z * cmplx.Conj(a.L))
 		d2 := cmplx.Phase(b.L * cmplx.Conj(z))
 		mp.ph = a.ph + d1
-		if depth < 40 && (math.Abs(d1) > maxStep || math.Abs(d2) > maxStep || math.Abs(slope)*(b.lw-a.lw) > maxStep) {
+		budget--
+		if depth < 40 && budget > 0 && (math.Abs(d1) > maxStep || math.Abs(d2) > maxStep || math.Abs(slope)*(b.lw-a.lw) > maxStep) {
 			refine(a, mp, depth+1)
 			refine(pts[len(pts)-1], b, depth+1)
 			return

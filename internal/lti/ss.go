@@ -93,8 +93,10 @@ func (s SS) Eval(z complex128) complex128 {
 }
 
 // expAug returns Φ = e^{Aη} and Γ = ∫_0^η e^{Aσ}dσ B from the exponential of
-// the augmented matrix [[A B];[0 0]]·η (Van Loan), via gonum mat.Exp.
-func expAug(n int, a, b []float64, eta float64) (phi, gam []float64) {
+// the augmented matrix [[A B];[0 0]]·η (Van Loan), via gonum mat.Exp. It
+// fails with ErrNonFinite when the scaled matrix overflows (mat.Exp would
+// otherwise try to square Inf times).
+func expAug(n int, a, b []float64, eta float64) (phi, gam []float64, err error) {
 	m := n + 1
 	aug := mat.NewDense(m, m, nil)
 	for i := 0; i < n; i++ {
@@ -102,6 +104,9 @@ func expAug(n int, a, b []float64, eta float64) (phi, gam []float64) {
 			aug.Set(i, j, a[i*n+j]*eta)
 		}
 		aug.Set(i, n, b[i]*eta)
+	}
+	if nrm := mat.Norm(aug, 1); math.IsNaN(nrm) || math.IsInf(nrm, 0) {
+		return nil, nil, ErrNonFinite
 	}
 	var e mat.Dense
 	e.Exp(aug)
@@ -113,7 +118,7 @@ func expAug(n int, a, b []float64, eta float64) (phi, gam []float64) {
 		}
 		gam[i] = e.At(i, n)
 	}
-	return phi, gam
+	return phi, gam, nil
 }
 
 // ZOH returns the exact zero-order-hold equivalent with sample period T:
@@ -127,7 +132,10 @@ func ZOH(s SS, T float64) (Disc, error) {
 	if !(T > 0) || math.IsInf(T, 0) {
 		return Disc{}, ErrBadPeriod
 	}
-	phi, gam := expAug(s.N, s.A, s.B, T)
+	phi, gam, err := expAug(s.N, s.A, s.B, T)
+	if err != nil {
+		return Disc{}, err
+	}
 	d := Disc{N: s.N, A: phi, B: gam, C: append([]float64(nil), s.C...), D: s.D, T: T}
 	if err := d.checkFinite(); err != nil {
 		return Disc{}, err
@@ -140,7 +148,8 @@ func ZOH(s SS, T float64) (Disc, error) {
 // held constant over each sample interval.
 //
 // Method (modified z-transform / split interval, Åström & Wittenmark,
-// Computer-Controlled Systems, §2.3 "systems with time delay"): write
+// Computer-Controlled Systems, sampling of systems with time delay; quoted
+// from memory, and re-derived here): write
 // τ = d·T + f with d = floor(τ/T) and f ∈ [0,T). Over [kT,(k+1)T) the
 // delayed input equals u[k−d−1] on the first f seconds and u[k−d] on the
 // remaining T−f seconds, hence
@@ -186,13 +195,22 @@ func ZOHDelay(s SS, T, tau float64) (Disc, error) {
 		f = 0
 	}
 	n := s.N
-	phi, gam0 := expAug(n, s.A, s.B, T)
+	phi, gam0, err := expAug(n, s.A, s.B, T)
+	if err != nil {
+		return Disc{}, err
+	}
 	var gam1 []float64
 	m := d
 	if f > 0 {
 		m = d + 1
-		phiA, g0 := expAug(n, s.A, s.B, T-f)
-		_, gf := expAug(n, s.A, s.B, f)
+		phiA, g0, err := expAug(n, s.A, s.B, T-f)
+		if err != nil {
+			return Disc{}, err
+		}
+		_, gf, err := expAug(n, s.A, s.B, f)
+		if err != nil {
+			return Disc{}, err
+		}
 		gam0 = g0
 		gam1 = make([]float64, n)
 		for i := 0; i < n; i++ {
