@@ -126,6 +126,7 @@ func DesignAxis(p synth.Problem, loop Loop, num Numeric) (*Design, error) {
 	d.Checks = synth.SpecChecks(p.Spec, v.Stable, 0, v.Step.Overshoot, v.Step.Settling, v.Margins.PhaseDeg, v.Margins.GainDB)
 	d.Checks[0] = synth.Check{Name: "stable", Limit: 1, Value: 1 - v.StabilityMargin, Upper: true, OK: v.Stable}
 	d.Checks = append(d.Checks, d.samplingCheck())
+	d.integratorReach()
 	// Numeric realization (numeric.go): its checks and warnings join the
 	// design's; bad numeric settings come back as an *InputError.
 	if d.Num, err = RealizeNumeric(d); err != nil {
@@ -162,4 +163,41 @@ func (d *Design) samplingCheck() synth.Check {
 		d.Warnings = append(d.Warnings, fmt.Sprintf("%.1f samples per closed-loop rise time < %d: the loop rate is low for this design", r/T, MinSamplesPerRise))
 	}
 	return c
+}
+
+// integratorReach warns when the integrator limit caps the setpoints the
+// loop can hold (see reachLimit).
+func (d *Design) integratorReach() {
+	c := d.Cont.Ctrl
+	rmax := reachLimit(d.Problem, d.Coeffs)
+	if math.IsInf(rmax, 1) {
+		return
+	}
+	fs := d.Numeric.InputFullScale
+	switch {
+	case fs > 0 && rmax < fs:
+		d.Warnings = append(d.Warnings, fmt.Sprintf("integrator_limit %.4g holds steady setpoints up to |r| = %.4g only, below input_full_scale %.4g (setpoint weight b = %.3g)", d.Coeffs.IL, rmax, fs, c.B))
+	case fs == 0 && c.B < 1:
+		d.Warnings = append(d.Warnings, fmt.Sprintf("with setpoint weight b = %.3g the integrator carries (1 − b)·Kp·r at steady state: integrator_limit %.4g holds setpoints up to |r| = %.4g", c.B, d.Coeffs.IL, rmax))
+	}
+}
+
+// reachLimit returns the largest setpoint the loop can hold at steady state
+// with the integrator clamped to IL: there the integrator carries
+// s = (1/G(0) + Kp − KpB)·r (with H(0) = 1; 1/G(0) = 0 for a plant that
+// integrates), so |r| ≤ IL/|1/G(0) + Kp − KpB|. +Inf when unbounded or
+// without an integrator.
+func reachLimit(p synth.Problem, k Coeffs) float64 {
+	if !k.Form.HasIntegral() {
+		return math.Inf(1)
+	}
+	inv := 0.0
+	if g0 := real(p.Plant.Model.Eval(0)); !math.IsInf(g0, 0) && !math.IsNaN(g0) && g0 != 0 {
+		inv = 1 / g0
+	}
+	need := math.Abs(inv + k.Kp - k.KpB)
+	if need == 0 {
+		return math.Inf(1)
+	}
+	return k.IL / need
 }

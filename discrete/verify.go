@@ -30,7 +30,8 @@ type Verification struct {
 // the configured anti-windup and with none, side by side.
 type Saturated struct {
 	// Amplitude is the setpoint step, chosen so that the linear loop would
-	// need twice the output limit: 2·Hi/LinearPeakCommand.
+	// need twice the output limit: 2·Hi/LinearPeakCommand (see
+	// LimitedByReach).
 	Amplitude         float64
 	LinearPeakCommand float64 // peak |u| of the linear loop for a unit step
 	AntiWindup        AntiWindup
@@ -41,7 +42,10 @@ type Saturated struct {
 	OvershootNone, RecoveryNone float64
 	SettledNone                 bool
 	IntegratorPeak              float64 // largest |integrator state| with anti-windup
-	Y, YNone, U, UNone          []float64
+	// LimitedByReach is set when the step was reduced to 90 % of the
+	// largest setpoint the integrator limit can hold.
+	LimitedByReach     bool
+	Y, YNone, U, UNone []float64
 }
 
 // horizon returns the number of samples to simulate a step: at least
@@ -141,6 +145,12 @@ func saturated(p synth.Problem, pl Plant, k Coeffs, d int, ulin []float64, dc fl
 	}
 	limit := k.Hi
 	s.Amplitude = 2 * limit / peak
+	// A setpoint the integrator limit cannot hold never settles, with or
+	// without anti-windup; such a step says nothing about windup, so it
+	// is reduced to 90 % of the reach.
+	if rmax := reachLimit(p, k); s.Amplitude > 0.9*rmax {
+		s.Amplitude, s.LimitedByReach = 0.9*rmax, true
+	}
 	s.Y, s.U, s.IntegratorPeak = simulateNonlinear(pl, k, d, s.Amplitude, n)
 	none := k
 	none.AntiWindup = AWNone

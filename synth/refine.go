@@ -172,8 +172,23 @@ func judge(p Problem, eval Evaluator, t Target, bs []float64, bound float64) (ca
 // refined by ±0.05 and ±0.025. It returns the best feasible candidate, or
 // the closest one (least violation) and false. The search is bounded: at
 // most about 150 evaluations.
+//
+// The setpoint weight b = 1 is tried first, and b < 1 only when no design
+// with b = 1 meets the spec: with b < 1 the integrator must carry
+// (1 − b)·Kp·r at steady state, which the integrator limit caps.
 func refine(p Problem, eval Evaluator) (candidate, bool, error) {
 	bs := setpointWeights(p)
+	if len(bs) > 1 {
+		c, ok, err := refineWith(p, eval, []float64{1})
+		if err != nil || ok {
+			return c, ok, err
+		}
+	}
+	return refineWith(p, eval, bs)
+}
+
+// refineWith is refine for the given setpoint weights.
+func refineWith(p Problem, eval Evaluator, bs []float64) (candidate, bool, error) {
 	var best, closest candidate
 	haveBest, haveClosest := false, false
 	consider := func(c candidate) {
