@@ -67,7 +67,7 @@ func Evaluator(p synth.Problem, pl Plant, d int) synth.Evaluator {
 		}
 		lo, _ := spanOf(p)
 		e.Margins = func() lti.Margins { return loopMargins(pl, k, d, lo) }
-		n := horizon(p.Spec.SettlingTime, pl.T, nil, 6)
+		n := horizon(p.Spec.SettlingTime, pl.T, nil, 4)
 		k0, k1 := k, k
 		k0.KpB, k1.KpB = 0, k.Kp
 		c0, c1 := linearize(k0), linearize(k1)

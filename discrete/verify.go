@@ -52,10 +52,10 @@ type Saturated struct {
 // 3·Ts and 10 time constants of the slowest pole (σ = −ln|z|/T, its mode
 // then down to e^−10 ≈ 4.5e−5), capped at maxTs·Ts and 200 000 samples
 // (20 000 in refinement).
-// Verification uses maxTs = 100; refinement 6, since a candidate whose
-// slowest mode still matters after 6·Ts cannot settle by Ts (a decaying
-// mode that is inside the band stays inside), and the chosen design is
-// verified again on the long horizon.
+// Verification uses maxTs = 100; refinement 4, since a candidate must be
+// inside the band from Ts on, which 3·Ts of record inside shows for the
+// decaying modes of a stable loop, and the chosen design is verified
+// again on the long horizon.
 func horizon(ts, T float64, poles []complex128, maxTs float64) int {
 	slow := math.Inf(1)
 	for _, z := range poles {

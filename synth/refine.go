@@ -115,9 +115,10 @@ func setpointWeights(p Problem) []float64 {
 		// Without an integral term, b < 1 changes the final value.
 		return []float64{1}
 	}
-	bs := make([]float64, 11)
+	// The response is linear in b, so a fine grid costs only the metrics.
+	bs := make([]float64, 21)
 	for i := range bs {
-		bs[i] = 1 - float64(i)/10
+		bs[i] = 1 - float64(i)/20
 	}
 	return bs
 }
