@@ -123,40 +123,71 @@ func setpointWeights(p Problem) []float64 {
 	return bs
 }
 
-// judge places and evaluates the target, choosing the best weight b: the
-// smallest violation, then the shortest settling, then the larger b. The
-// margins are computed only when the time response could make the
-// candidate the best or the closest so far (bound: violations only add).
-func judge(p Problem, eval Evaluator, t Target, bs []float64, bound float64) (candidate, error) {
-	var c candidate
-	var ctrl Controller
-	var err error
-	if p.Ctrl.Form == FormP {
-		ctrl, t, err = PlaceP(p, t.Zeta)
+// searcher evaluates candidates for refinement, caching each target's
+// evaluation (for every setpoint weight at once) so that the second pass,
+// which admits b < 1, reuses the first pass's simulations.
+type searcher struct {
+	p     Problem
+	eval  Evaluator
+	bs    []float64 // all weights, bs[0] = 1
+	cache map[Target]*cached
+}
+
+type cached struct {
+	t       Target
+	ctrl    Controller
+	e       Evaluation
+	err     error
+	margins *lti.Margins
+}
+
+func (sr *searcher) lookup(t Target) *cached {
+	if c, ok := sr.cache[t]; ok {
+		return c
+	}
+	c := &cached{t: t}
+	if sr.p.Ctrl.Form == FormP {
+		c.ctrl, c.t, c.err = PlaceP(sr.p, t.Zeta)
 	} else {
-		ctrl, err = Place(p, t)
+		c.ctrl, c.err = Place(sr.p, t)
 	}
-	if err != nil {
-		return c, err
+	if c.err == nil {
+		c.e, c.err = sr.eval(c.ctrl, sr.bs)
 	}
-	e, err := eval(ctrl, bs)
-	if err != nil {
-		return c, err
+	sr.cache[t] = c
+	return c
+}
+
+// judge places and evaluates the target, choosing the best weight b among
+// the first nb: the smallest violation, then the shortest settling, then
+// the larger b. The margins are computed only when the time response could
+// make the candidate the best or the closest so far (bound: violations
+// only add).
+func (sr *searcher) judge(t Target, nb int, bound float64) (candidate, error) {
+	ce := sr.lookup(t)
+	if ce.err != nil {
+		return candidate{}, ce.err
 	}
-	c = candidate{target: t, ctrl: ctrl, eval: e, violation: math.Inf(1), gain: ctrl.HighFrequencyGain()}
+	e := ce.e
+	c := candidate{target: ce.t, ctrl: ce.ctrl, eval: e, violation: math.Inf(1), gain: ce.ctrl.HighFrequencyGain()}
+	c.ctrl.B = sr.bs[0]
 	for i, st := range e.Steps {
-		v := timeViolation(p.Spec, e.Stable, st)
+		if i >= nb {
+			break
+		}
+		v := timeViolation(sr.p.Spec, e.Stable, st)
 		better := v < c.violation || v == c.violation && st.Settling < c.step.Settling
 		if i == 0 || better {
 			c.violation, c.step = v, st
-			c.ctrl.B = bs[i]
+			c.ctrl.B = sr.bs[i]
 		}
 	}
-	if len(e.Steps) == 0 {
-		c.ctrl.B = bs[0]
-	}
 	if e.Stable && e.Margins != nil && c.violation <= bound {
-		c.violation += marginViolation(p.Spec, e.Margins())
+		if ce.margins == nil {
+			m := e.Margins()
+			ce.margins = &m
+		}
+		c.violation += marginViolation(sr.p.Spec, *ce.margins)
 	} else {
 		c.violation = math.Inf(1)
 	}
@@ -178,18 +209,19 @@ func judge(p Problem, eval Evaluator, t Target, bs []float64, bound float64) (ca
 // with b = 1 meets the spec: with b < 1 the integrator must carry
 // (1 − b)·Kp·r at steady state, which the integrator limit caps.
 func refine(p Problem, eval Evaluator) (candidate, bool, error) {
-	bs := setpointWeights(p)
-	if len(bs) > 1 {
-		c, ok, err := refineWith(p, eval, []float64{1})
+	sr := &searcher{p: p, eval: eval, bs: setpointWeights(p), cache: map[Target]*cached{}}
+	if len(sr.bs) > 1 {
+		c, ok, err := sr.refineWith(1)
 		if err != nil || ok {
 			return c, ok, err
 		}
 	}
-	return refineWith(p, eval, bs)
+	return sr.refineWith(len(sr.bs))
 }
 
-// refineWith is refine for the given setpoint weights.
-func refineWith(p Problem, eval Evaluator, bs []float64) (candidate, bool, error) {
+// refineWith is refine with the first nb setpoint weights admitted.
+func (sr *searcher) refineWith(nb int) (candidate, bool, error) {
+	p := sr.p
 	var best, closest candidate
 	haveBest, haveClosest := false, false
 	consider := func(c candidate) {
@@ -208,7 +240,7 @@ func refineWith(p Problem, eval Evaluator, bs []float64) (candidate, bool, error
 	}
 	var firstErr error
 	try := func(t Target) (candidate, bool, error) {
-		c, err := judge(p, eval, t, bs, bound())
+		c, err := sr.judge(t, nb, bound())
 		if err != nil {
 			var inf *InfeasibleError
 			if errors.As(err, &inf) {

@@ -1,0 +1,231 @@
+// Command locusmith turns a TOML airframe description into verified
+// rate-loop controller source code: root-locus PID design, verification of
+// the full-order and the sampled loop, discretization, fixed point, and C99
+// or Go source.
+//
+// Usage:
+//
+//	locusmith VERB [flags] FILE...
+//
+// Verbs: design, emit, report, compare, identify, version, help. Every verb
+// takes -h/--help. Exit status: 0 when everything met its spec, 1 when a
+// design check failed or a spec is infeasible (the output says which), 2
+// for bad input or usage. Results go to stdout, diagnostics to stderr.
+//
+// main is a thin wrapper around run, so that tests drive the whole command
+// in-process with their own argument lists and writers.
+package main
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"strings"
+
+	"github.com/spf13/pflag"
+
+	"locusmith/airframe"
+	"locusmith/emit"
+)
+
+// Exit statuses of every verb.
+const (
+	exitOK    = 0 // everything met its spec
+	exitUnmet = 1 // a design check failed, a spec is infeasible, files are stale
+	exitUsage = 2 // bad input (airframe file errors, unreadable file) or usage
+)
+
+func main() {
+	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
+}
+
+// verb is one subcommand.
+type verb struct {
+	name    string
+	summary string
+	run     func(args []string, stdout, stderr io.Writer) int
+}
+
+// verbs lists the subcommands in the order the usage shows them. A
+// function rather than a package variable, so that no state is global.
+func verbs() []verb {
+	return []verb{
+		{"design", "design and verify every axis; print a table per airframe, or --json", runDesign},
+		{"emit", "design, verify and write controller source code", runEmit},
+		{"report", "write a Markdown report with SVG plots per airframe", runReport},
+		{"compare", "compare two airframe files: inputs and results, regressions flagged", runCompare},
+		{"identify", "fit a plant model to a logged CSV and print the TOML section", runIdentify},
+		{"version", "print the version and build information", runVersion},
+	}
+}
+
+// run executes the command line args (without the program name) and
+// returns the exit status. It never panics: a panic below is a bug, and it
+// is reported as an internal error with exit status 2 rather than a stack
+// trace.
+func run(args []string, stdout, stderr io.Writer) (code int) {
+	defer func() {
+		if r := recover(); r != nil {
+			fmt.Fprintf(stderr, "locusmith: internal error (a bug; please report it with the input file): %v\n", r)
+			code = exitUsage
+		}
+	}()
+	if len(args) == 0 {
+		writeUsage(stderr)
+		return exitUsage
+	}
+	name, rest := args[0], args[1:]
+	switch name {
+	case "-h", "--help", "help":
+		if name == "help" && len(rest) > 0 {
+			if v, ok := findVerb(rest[0]); ok {
+				return v.run([]string{"--help"}, stdout, stderr)
+			}
+			fmt.Fprintf(stderr, "locusmith help: unknown verb %q; the verbs are %s\n", rest[0], verbNames())
+			return exitUsage
+		}
+		writeUsage(stdout)
+		return exitOK
+	case "--version", "-version":
+		return runVersion(nil, stdout, stderr)
+	}
+	v, ok := findVerb(name)
+	if !ok {
+		if strings.HasPrefix(name, "-") {
+			fmt.Fprintf(stderr, "locusmith: %q: a verb must come first (locusmith VERB [flags] FILE...)\n", name)
+		} else {
+			fmt.Fprintf(stderr, "locusmith: unknown verb %q; the verbs are %s\n", name, verbNames())
+		}
+		fmt.Fprintln(stderr, "Run 'locusmith --help' for usage.")
+		return exitUsage
+	}
+	return v.run(rest, stdout, stderr)
+}
+
+func findVerb(name string) (verb, bool) {
+	for _, v := range verbs() {
+		if v.name == name {
+			return v, true
+		}
+	}
+	return verb{}, false
+}
+
+// verbNames lists the verbs for messages: "design, emit, ...".
+func verbNames() string {
+	var names []string
+	for _, v := range verbs() {
+		names = append(names, v.name)
+	}
+	return strings.Join(names, ", ")
+}
+
+func writeUsage(w io.Writer) {
+	var b strings.Builder
+	b.WriteString(`locusmith turns a TOML airframe description into verified rate-loop
+controller source code.
+
+Usage:
+  locusmith VERB [flags] FILE...
+
+Verbs:
+`)
+	for _, v := range verbs() {
+		fmt.Fprintf(&b, "  %-9s %s\n", v.name, v.summary)
+	}
+	b.WriteString(`
+Run 'locusmith VERB --help' for the flags and examples of a verb.
+
+Exit status: 0 everything met its spec; 1 a design check failed or a spec
+is infeasible (the output says which); 2 bad input or usage.
+
+Results are model-based and do not replace flight testing: bench-test
+with propellers off, fly tethered first, follow local aviation rules and
+have the design reviewed by a qualified person before flight.
+`)
+	io.WriteString(w, b.String())
+}
+
+// newFlagSet returns the flag set of verb name and its -h/--help flag.
+// Errors are returned rather than printed, so that parseFlags controls
+// the output.
+func newFlagSet(name string) (*pflag.FlagSet, *bool) {
+	fs := pflag.NewFlagSet("locusmith "+name, pflag.ContinueOnError)
+	fs.SetOutput(io.Discard)
+	fs.SortFlags = false
+	help := fs.BoolP("help", "h", false, "show this help and exit")
+	return fs, help
+}
+
+// parseFlags parses args into fs. It returns done = true when the verb
+// must stop and return code: after --help (helpText, a usage line, a
+// description and examples, followed by the flag list, on stdout; status
+// 0) or a usage error (message on stderr, status 2).
+func parseFlags(fs *pflag.FlagSet, help *bool, args []string, helpText string, stdout, stderr io.Writer) (done bool, code int) {
+	if err := fs.Parse(args); err != nil {
+		if errors.Is(err, pflag.ErrHelp) {
+			writeHelp(stdout, fs, helpText)
+			return true, exitOK
+		}
+		fmt.Fprintf(stderr, "%s: %v\nRun '%s --help' for usage.\n", fs.Name(), err, fs.Name())
+		return true, exitUsage
+	}
+	if *help {
+		writeHelp(stdout, fs, helpText)
+		return true, exitOK
+	}
+	return false, exitOK
+}
+
+func writeHelp(w io.Writer, fs *pflag.FlagSet, helpText string) {
+	io.WriteString(w, strings.TrimRight(helpText, "\n")+"\n\nFlags:\n"+fs.FlagUsages())
+}
+
+// loadFiles reads and validates the airframe files at paths. It reports
+// every problem of every file on stderr (each line naming the file, the
+// key and what is allowed) and goes on with the others. It returns the
+// files that loaded, in the order given, and exitUsage when any did not.
+func loadFiles(paths []string, stderr io.Writer) ([]*airframe.File, int) {
+	var files []*airframe.File
+	code := exitOK
+	for _, p := range paths {
+		f, err := airframe.Load(p)
+		if err != nil {
+			reportLoadError(stderr, p, err)
+			code = exitUsage
+			continue
+		}
+		files = append(files, f)
+	}
+	return files, code
+}
+
+// reportLoadError writes why path could not be loaded. An *airframe.Errors
+// already names the file on each line; other errors (the file cannot be
+// read) are prefixed with it.
+func reportLoadError(w io.Writer, path string, err error) {
+	var errs *airframe.Errors
+	if errors.As(err, &errs) {
+		fmt.Fprintln(w, errs.Error())
+		return
+	}
+	fmt.Fprintf(w, "%s: %v\n", path, err)
+}
+
+// axisStatus is the exit status an axis contributes: 1 for an unmet check
+// or an infeasible spec, 2 for any other failure to design (an input the
+// decoder let through but the designer cannot use).
+func axisStatus(x emit.Axis) int {
+	switch {
+	case x.Err != nil && !emit.Infeasible(x.Err):
+		return exitUsage
+	case !x.OK():
+		return exitUnmet
+	}
+	return exitOK
+}
+
+// worst combines exit statuses: usage errors outrank unmet specs, which
+// outrank success.
+func worst(a, b int) int { return max(a, b) }

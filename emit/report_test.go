@@ -1,0 +1,337 @@
+package emit
+
+import (
+	"bytes"
+	"encoding/json"
+	"math"
+	"math/big"
+	"math/rand/v2"
+	"strconv"
+	"strings"
+	"testing"
+
+	"locusmith/airframe"
+)
+
+// TestRoundSigMatchesBig: roundSig is rounding to SignificantDigits
+// significant digits, checked against math/big, whose Text('e', n)
+// correctly rounds the exact binary value (Go standard library, math/big).
+func TestRoundSigMatchesBig(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 2))
+	for i := 0; i < 20000; i++ {
+		x := (rng.Float64() - 0.5) * math.Pow(10, float64(rng.IntN(40)-20))
+		if i%7 == 0 {
+			// Values on a tie of the 10th digit in decimal, which binary
+			// cannot hold exactly: the exact value decides the direction.
+			x = float64(rng.IntN(1e9)) + 0.5
+		}
+		want, _ := strconv.ParseFloat(new(big.Float).SetFloat64(x).Text('e', SignificantDigits-1), 64)
+		if got := roundSig(x); got != want {
+			t.Fatalf("roundSig(%v) = %v, math/big says %v", x, got, want)
+		}
+	}
+	if got := roundSig(math.Copysign(0, -1)); math.Signbit(got) {
+		t.Errorf("roundSig(−0) = −0, want 0 (−0 would print as -0)")
+	}
+}
+
+// TestRoundSigOfMatchesBig: roundSigOf(x, s) keeps the digits of x down to
+// the 10th significant digit of s, checked against math/big's correctly
+// rounded fixed-point text.
+func TestRoundSigOfMatchesBig(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	for i := 0; i < 20000; i++ {
+		s := math.Pow(10, float64(rng.IntN(12)-6)) * (1 + 8*rng.Float64())
+		x := (rng.Float64() - 0.5) * s * math.Pow(10, -float64(rng.IntN(14)))
+		exp := int(math.Floor(math.Log10(s)))
+		if math.Abs(s) >= math.Pow(10, float64(exp+1))*(1-5e-11) {
+			continue // s rounds up to the next decade at 10 digits; skip the boundary
+		}
+		prec := SignificantDigits - 1 - exp
+		if prec < 0 {
+			continue
+		}
+		want, _ := strconv.ParseFloat(new(big.Float).SetFloat64(x).Text('f', prec), 64)
+		if want == 0 {
+			want = 0 // −0
+		}
+		if got := roundSigOf(x, s); got != want {
+			t.Fatalf("roundSigOf(%v, %v) = %v, math/big says %v", x, s, got, want)
+		}
+	}
+}
+
+func TestJSONNumbersOmitNonFinite(t *testing.T) {
+	for _, x := range []float64{math.NaN(), math.Inf(1), math.Inf(-1)} {
+		if jsonNum(x) != nil || jsonFrac(x) != nil || jsonPair(complex(x, 0)) != nil {
+			t.Errorf("%v: want nil (omitted), got a number", x)
+		}
+	}
+	// Residue of floating point reads as 0: an overshoot of 2e-16 of the
+	// step, the imaginary part 1e-15 of a real pole at −3, a z pole at the
+	// origin computed as −7e−17.
+	if v := jsonFrac(2e-16); *v != 0 {
+		t.Errorf("jsonFrac(2e-16) = %v, want 0", *v)
+	}
+	if p := jsonPair(complex(-3, 1e-15)); p[0] != -3 || p[1] != 0 || math.Signbit(p[1]) {
+		t.Errorf("jsonPair(−3+1e−15j) = %v, want [−3, 0]", p)
+	}
+	if p := jsonPair(complex(-7e-17, 0)); p[0] != 0 || math.Signbit(p[0]) {
+		t.Errorf("jsonPair(−7e−17) = %v, want [0, 0]", p)
+	}
+	// A genuine small pole keeps its digits down to 1e-9.
+	if p := jsonPair(complex(-0.00312345, 0)); p[0] != -0.00312345 {
+		t.Errorf("jsonPair(−0.00312345) = %v", p)
+	}
+	ps := jsonPairs([]complex128{complex(-1, -2), complex(-5, 0), complex(-1, 2), complex(0, 0)})
+	want := [][]float64{{0, 0}, {-1, 2}, {-1, -2}, {-5, 0}}
+	for i := range want {
+		if ps[i][0] != want[i][0] || ps[i][1] != want[i][1] {
+			t.Fatalf("jsonPairs order = %v, want %v", ps, want)
+		}
+	}
+}
+
+// design parses an inline airframe and designs it.
+func design(t *testing.T, src string) *Airframe {
+	t.Helper()
+	f, err := airframe.Parse("inline.toml", []byte(src))
+	if err != nil {
+		t.Fatalf("parse: %v", err)
+	}
+	return DesignAirframe(f)
+}
+
+const twoAxes = `airframe = "testcraft"
+description = "demo data: report test"
+loop_hz = 1000.0
+
+[axes.a_pid.plant]
+effectiveness = 2400.0
+motor_tau = 0.03
+delay = 0.002
+[axes.a_pid.sensor]
+lowpass_hz = 100.0
+[axes.a_pid.spec]
+settling_time = 0.15
+overshoot = 0.10
+[axes.a_pid.control]
+form = "pid"
+output_limit = [-0.5, 0.5]
+
+[axes.b_lead.plant]
+effectiveness = 150.0
+motor_tau = 0.02
+[axes.b_lead.spec]
+settling_time = 0.25
+overshoot = 0.08
+[axes.b_lead.control]
+form = "lead"
+lead_zero = -40.0
+
+[axes.c_pi.plant]
+gain = 100.0
+poles = [-10.0]
+[axes.c_pi.spec]
+settling_time = 0.2
+overshoot = 0.05
+[axes.c_pi.control]
+form = "pi"
+`
+
+// TestReportFields: each form reports the fields that apply to it and no
+// others; a margin that does not exist is omitted, not invented.
+func TestReportFields(t *testing.T) {
+	a := design(t, twoAxes)
+	r := Report([]*Airframe{a})
+	if r.Version != Version || len(r.Airframes) != 1 {
+		t.Fatalf("report header: %+v", r)
+	}
+	ar := r.Airframes[0]
+	if ar.File != "inline.toml" || ar.Airframe != "testcraft" || *ar.LoopHz != 1000 || len(ar.Axes) != 3 {
+		t.Fatalf("airframe fields: %+v", ar)
+	}
+	byName := map[string]AxisReport{}
+	for _, x := range ar.Axes {
+		if x.Error != "" {
+			t.Fatalf("axis %s: %s", x.Axis, x.Error)
+		}
+		byName[x.Axis] = x
+	}
+	pid, lead, pi := byName["a_pid"].Continuous, byName["b_lead"].Continuous, byName["c_pi"].Continuous
+	if pid.Kp == nil || pid.Ki == nil || pid.Kd == nil || pid.DerivativeTau == nil || pid.SetpointWeight == nil {
+		t.Errorf("pid: a parallel gain is missing: %+v", pid)
+	}
+	// Tf = 1/(2π·f) with the default f = loop_hz/8 = 125 Hz (DESIGN.md).
+	if got, want := *pid.DerivativeTau, 1/(2*math.Pi*125); math.Abs(got-want) > 1e-9*want {
+		t.Errorf("pid derivative_tau = %v, want %v", got, want)
+	}
+	if lead.Kp != nil || lead.Ki != nil || lead.Kd != nil || lead.DerivativeTau != nil || lead.SetpointWeight != nil {
+		t.Errorf("lead: parallel gains must be omitted: %+v", lead)
+	}
+	if lead.Series == nil || len(lead.Series.Zeros) != 1 || lead.Series.Zeros[0][0] != -40 || len(lead.Series.Poles) != 1 {
+		t.Errorf("lead: series = %+v, want the zero at −40 and one pole", lead.Series)
+	}
+	if pi.Kd != nil || pi.DerivativeTau != nil || pi.Ki == nil {
+		t.Errorf("pi: kd/derivative_tau must be omitted, ki present: %+v", pi)
+	}
+	// PI on K/(s + 10) without delay or sensor: the loop's phase lies
+	// between −90° and −180° and never crosses −180°, so there is no
+	// continuous gain margin (Franklin, Powell & Emami-Naeini, margins
+	// from the Bode plot; from memory).
+	if pi.GainMarginDB != nil {
+		t.Errorf("pi on a first-order plant: continuous gain margin %v, want omitted (+Inf)", *pi.GainMarginDB)
+	}
+	// The series form of a PI is Kp(s + Ki/Kp)/s.
+	if s := pi.Series; s == nil || len(s.Poles) != 1 || s.Poles[0][0] != 0 || math.Abs(s.Zeros[0][0] + *pi.Ki / *pi.Kp) > 1e-8*math.Abs(s.Zeros[0][0]) || *s.Gain != *pi.Kp {
+		t.Errorf("pi series %+v does not match kp %v, ki %v", pi.Series, *pi.Kp, *pi.Ki)
+	}
+	for name, x := range byName {
+		if x.Discrete == nil || x.Discrete.Method != "tustin" || x.Target == nil || len(x.Checks) == 0 {
+			t.Errorf("axis %s: discrete, target or checks missing: %+v", name, x)
+		}
+	}
+	// The default numeric type is float32: a coefficient table without
+	// fixed-point fields, and the loop with quantized coefficients.
+	for name, x := range byName {
+		n, ok := x.Numeric.(*NumericReport)
+		if !ok || n.Type != "float32" || len(n.Coefficients) == 0 || n.Quantized == nil || n.Ranges != nil || n.WordBits != 0 {
+			t.Errorf("axis %s: numeric section %+v, want float32 coefficients and the quantized loop", name, x.Numeric)
+			continue
+		}
+		for _, c := range n.Coefficients {
+			if c.Format != "float32" || c.FracBits != nil || c.Raw != nil {
+				t.Errorf("axis %s: coefficient %+v: fixed-point fields on a float32 coefficient", name, c)
+			}
+		}
+	}
+	if s := byName["a_pid"].Discrete.Saturated; s == nil || s.AntiWindup != "backcalc" || s.IntegratorPeak == nil || s.OvershootNoAntiWindup == nil {
+		t.Errorf("pid saturated section incomplete: %+v", s)
+	}
+	if s := byName["b_lead"].Discrete.Saturated; s != nil && (s.AntiWindup != "" || s.IntegratorPeak != nil || s.OvershootNoAntiWindup != nil) {
+		t.Errorf("lead has no integrator: anti-windup fields must be omitted: %+v", s)
+	}
+}
+
+// TestReportJSONText: encoded, the report has no NaN/Inf, only numbers
+// with at most SignificantDigits significant digits, and is the same on
+// every run.
+func TestReportJSONText(t *testing.T) {
+	enc := func() []byte {
+		var b bytes.Buffer
+		e := json.NewEncoder(&b)
+		e.SetIndent("", "  ")
+		if err := e.Encode(Report([]*Airframe{design(t, twoAxes)})); err != nil {
+			t.Fatal(err)
+		}
+		return b.Bytes()
+	}
+	a, b := enc(), enc()
+	if !bytes.Equal(a, b) {
+		t.Fatal("two reports of the same input differ")
+	}
+	s := string(a)
+	if strings.Contains(s, "NaN") || strings.Contains(s, "Inf") {
+		t.Fatal("report contains NaN or Inf")
+	}
+	var walk func(v any)
+	walk = func(v any) {
+		switch x := v.(type) {
+		case map[string]any:
+			for _, e := range x {
+				walk(e)
+			}
+		case []any:
+			for _, e := range x {
+				walk(e)
+			}
+		case json.Number:
+			digits := strings.TrimLeft(strings.ReplaceAll(strings.Split(strings.ToLower(string(x)), "e")[0], ".", ""), "-0")
+			if len(digits) > SignificantDigits {
+				t.Errorf("number %s has %d significant digits, more than %d", x, len(digits), SignificantDigits)
+			}
+		}
+	}
+	d := json.NewDecoder(bytes.NewReader(a))
+	d.UseNumber()
+	var v any
+	if err := d.Decode(&v); err != nil {
+		t.Fatal(err)
+	}
+	walk(v)
+}
+
+// infeasibleYaw is a PI whose textbook target needs a negative integral
+// gain, placed without refinement.
+const infeasibleYaw = `airframe = "testcraft"
+description = "demo data: infeasible axis"
+loop_hz = 1000.0
+
+[axes.yaw.plant]
+effectiveness = 300.0
+motor_tau = 0.035
+delay = 0.002
+[axes.yaw.sensor]
+lowpass_hz = 100.0
+[axes.yaw.spec]
+settling_time = 0.25
+overshoot = 0.10
+[axes.yaw.control]
+form = "pi"
+refine = false
+`
+
+func TestReportInfeasibleAxis(t *testing.T) {
+	a := design(t, infeasibleYaw)
+	if len(a.Axes) != 1 || !Infeasible(a.Axes[0].Err) {
+		t.Fatalf("want one infeasible axis, got %+v", a.Axes)
+	}
+	r := Report([]*Airframe{a})
+	x := r.Airframes[0].Axes[0]
+	if x.OK || !strings.Contains(x.Error, "pi cannot place the target pole") || x.Continuous != nil || x.Discrete != nil || x.Form != "pi" {
+		t.Fatalf("infeasible axis: %+v", x)
+	}
+	if r.Airframes[0].OK {
+		t.Error("airframe ok with a failed axis")
+	}
+	if u := Unmet(a); len(u) != 1 || !strings.HasPrefix(u[0], "axis yaw: ") {
+		t.Errorf("Unmet = %q, want one line naming axis yaw", u)
+	}
+	var b bytes.Buffer
+	if err := WriteTable(&b, a); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(b.String(), "axis yaw  form pi  FAIL") || !strings.Contains(b.String(), "cannot design: ") {
+		t.Errorf("table does not show the failure:\n%s", b.String())
+	}
+}
+
+func TestWriteTable(t *testing.T) {
+	a := design(t, twoAxes)
+	var b1, b2 bytes.Buffer
+	if err := WriteTable(&b1, a); err != nil {
+		t.Fatal(err)
+	}
+	if err := WriteTable(&b2, design(t, twoAxes)); err != nil {
+		t.Fatal(err)
+	}
+	if b1.String() != b2.String() {
+		t.Fatal("table not deterministic")
+	}
+	s := b1.String()
+	for _, want := range []string{"airframe testcraft", "axis a_pid  form pid", "axis b_lead  form lead", "series     C(s) = ", "metric", "continuous", "discrete", "closed-loop poles, z:"} {
+		if !strings.Contains(s, want) {
+			t.Errorf("table lacks %q:\n%s", want, s)
+		}
+	}
+	for _, bad := range []string{"NaN", "%!", "+Inf"} {
+		if strings.Contains(s, bad) {
+			t.Errorf("table contains %q:\n%s", bad, s)
+		}
+	}
+	for _, line := range strings.Split(s, "\n") {
+		if strings.TrimRight(line, " ") != line {
+			t.Errorf("trailing blanks: %q", line)
+		}
+	}
+}

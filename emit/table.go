@@ -1,0 +1,610 @@
+package emit
+
+import (
+	"bufio"
+	"fmt"
+	"io"
+	"math"
+	"math/cmplx"
+	"slices"
+	"strings"
+
+	"locusmith/discrete"
+	"locusmith/synth"
+)
+
+// WriteTable writes the human-readable summary of one airframe: per axis
+// the target, the gains in parallel and series form, the continuous and the
+// sampled figures side by side against the spec with pass/FAIL, the
+// saturated step, the closed-loop poles and the warnings.
+//
+// Numbers are printed with four significant digits (%.4g): enough to
+// compare with a hand calculation, few enough that the last bits of a
+// floating-point result never show. The text depends only on the design,
+// so it is the same on every run.
+func WriteTable(w io.Writer, a *Airframe) error {
+	bw := bufio.NewWriter(w)
+	t := &tableWriter{w: bw}
+	t.airframe(a)
+	if err := bw.Flush(); err != nil {
+		return fmt.Errorf("write table: %w", err)
+	}
+	return nil
+}
+
+// Unmet lists, one line each, why the airframe is not ok: the axes that
+// could not be designed and the checks that failed. It is empty when
+// every axis passed.
+func Unmet(a *Airframe) []string {
+	var out []string
+	for _, x := range a.Axes {
+		switch {
+		case x.Err != nil:
+			out = append(out, fmt.Sprintf("axis %s: %s", x.Name, axisErr(x)))
+		case x.Design == nil:
+			out = append(out, fmt.Sprintf("axis %s: no design", x.Name))
+		default:
+			for _, c := range x.Design.Checks {
+				if !c.OK {
+					out = append(out, fmt.Sprintf("axis %s: %s", x.Name, tabCheck(c)))
+				}
+			}
+		}
+	}
+	return out
+}
+
+// axisErr is the axis's error without the "axis NAME: " prefix that the
+// designer puts on it, for lines that name the axis already.
+func axisErr(x Axis) string {
+	return strings.TrimPrefix(x.Err.Error(), "axis "+x.Name+": ")
+}
+
+// tabCheck says what a failed check found: "overshoot 12.3 % > 10 %".
+func tabCheck(c synth.Check) string {
+	rel := "<"
+	switch {
+	case c.Name == "stable" || c.Name == "sampling":
+		rel = "≥"
+	case c.Upper:
+		rel = ">"
+	}
+	what := map[string]string{
+		"stable":        "sampled loop unstable: max |z|",
+		"sampling":      "fastest dynamics / Nyquist",
+		"overshoot":     "overshoot",
+		"settling_time": "settling time",
+		"phase_margin":  "phase margin",
+		"gain_margin":   "gain margin",
+	}[c.Name]
+	if what == "" {
+		what = c.Name
+	}
+	return fmt.Sprintf("%s %s %s %s (sampled loop)", what, tabCheckValue(c.Name, c.Value), rel, tabCheckValue(c.Name, c.Limit))
+}
+
+// tabCheckValue formats a check's value or limit in its unit; the
+// quantized_ checks (the spec checks with quantized coefficients) share
+// the units of the spec checks.
+func tabCheckValue(name string, v float64) string {
+	switch strings.TrimPrefix(name, "quantized_") {
+	case "overflow":
+		return tabG4(v) + " bits"
+	case "limit_cycle":
+		return tabG4(v) + " LSB"
+	case "overshoot":
+		return tabPct(v)
+	case "settling_time":
+		return tabSec(v)
+	case "phase_margin":
+		return tabDeg(v)
+	case "gain_margin":
+		return tabDB(v)
+	}
+	return tabG4(v)
+}
+
+type tableWriter struct {
+	w io.Writer
+}
+
+func (t *tableWriter) line(format string, args ...any) {
+	fmt.Fprintf(t.w, format+"\n", args...)
+}
+
+func (t *tableWriter) airframe(a *Airframe) {
+	f := a.File
+	t.line("airframe %s  (%s)", f.Airframe, f.Path)
+	if f.Description != "" {
+		t.line("  %s", tabOneLine(f.Description))
+	}
+	t.line("  loop %s Hz (T = %s), compute delay %d sample%s, numeric %s",
+		tabG4(f.Loop.Hz), tabSec(1/f.Loop.Hz), f.Loop.ComputeDelay, tabPlural(f.Loop.ComputeDelay), f.Numeric.Type)
+	failed := 0
+	for _, x := range a.Axes {
+		if !x.OK() {
+			failed++
+		}
+	}
+	if failed == 0 {
+		t.line("  result: ok, %d of %d axes meet the spec at the loop rate", len(a.Axes), len(a.Axes))
+	} else {
+		t.line("  result: FAIL, %d of %d axes do not meet the spec", failed, len(a.Axes))
+	}
+	for _, x := range a.Axes {
+		t.line("")
+		t.axis(a, x)
+	}
+	t.line("")
+}
+
+func (t *tableWriter) axis(a *Airframe, x Axis) {
+	form := ""
+	if p, ok := axisProblem(a.File, x.Name); ok {
+		form = string(p.Ctrl.Form)
+	}
+	status := "ok"
+	if !x.OK() {
+		status = "FAIL"
+	}
+	t.line("axis %s  form %s  %s", x.Name, form, status)
+	if x.Err != nil {
+		t.line("  cannot design: %s", tabOneLine(axisErr(x)))
+		return
+	}
+	d := x.Design
+	if d == nil || d.Cont == nil {
+		t.line("  no design")
+		return
+	}
+	c := d.Cont
+	t.line("  target     %s", tabTarget(c.Target))
+	if tb := c.Textbook; tb != nil {
+		t.line("  textbook   %s", tabTarget(tb.Target))
+		t.line("             %s: %s (the full-order loop; refined below)", tabGains(tb.Ctrl), tabStep(tb.Verif.Stable, tb.Verif.Step.Overshoot, tb.Verif.Step.Settling))
+	} else if c.TextbookErr != "" {
+		t.line("  textbook   %s", tabOneLine(c.TextbookErr))
+	}
+	t.line("  gains      %s", tabGains(c.Ctrl))
+	if s := tabSeries(c.Ctrl); s != "" {
+		t.line("  series     C(s) = %s", s)
+	}
+	t.line("  discrete   %s", tabDiscrete(d))
+	t.line("")
+	t.metrics(d)
+	t.saturated(d)
+	t.numeric(d)
+	t.line("")
+	t.line("  closed-loop poles, s: %s", tabPoles(c.Verif.Poles, "rad/s"))
+	t.line("  closed-loop poles, z: %s", tabPoles(d.Verif.Poles, ""))
+	if ws := dedupWarnings(d.Warnings); len(ws) > 0 {
+		t.line("  warnings:")
+		for _, w := range ws {
+			t.line("    - %s", tabOneLine(w))
+		}
+	}
+}
+
+// metrics writes the continuous-vs-discrete table with the spec checks;
+// with a numeric realization whose coefficients differ from the design's
+// (float32, fixed point), a third column gives the sampled loop with the
+// coefficients as quantized, and the check column combines both checks.
+func (t *tableWriter) metrics(d *discrete.Design) {
+	cv, dv := d.Cont.Verif, d.Verif
+	var qv *discrete.Verification
+	if d.Num != nil {
+		qv = d.Num.Quantized
+	}
+	checks := d.Checks
+	used := make([]bool, len(checks))
+	find := func(name string) (synth.Check, bool) {
+		for i, c := range checks {
+			if c.Name == name && !used[i] {
+				used[i] = true
+				return c, true
+			}
+		}
+		return synth.Check{}, false
+	}
+	row := func(cells ...string) {
+		const w = "  %-20s %-15s %-15s"
+		line := fmt.Sprintf(w, cells[0], cells[1], cells[2])
+		if qv != nil {
+			line += fmt.Sprintf(" %-15s", cells[3])
+		}
+		line += fmt.Sprintf(" %-12s %s", cells[4], cells[5])
+		t.line("%s", strings.TrimRight(line, " "))
+	}
+	row("metric", "continuous", "discrete", "quantized", "spec", "check")
+	metric := func(label, name, cont, disc, quant string) {
+		spec, res := "", ""
+		if c, ok := find(name); ok {
+			spec, res = tabSpec(c), tabPass(c.OK)
+			if q, ok := find("quantized_" + name); ok && !q.OK && c.OK {
+				res = "FAIL (quantized)"
+			}
+		}
+		row(label, cont, disc, quant, spec, res)
+	}
+	stepVal := func(v *discrete.Verification, x func(*discrete.Verification) float64, f func(float64) string) string {
+		switch {
+		case v == nil:
+			return ""
+		case !v.Stable:
+			return "unstable"
+		}
+		return f(x(v))
+	}
+	contStep := func(stable bool, v float64, f func(float64) string) string {
+		if !stable {
+			return "unstable"
+		}
+		return f(v)
+	}
+	marg := func(v *discrete.Verification, x func(*discrete.Verification) float64, f func(float64) string) string {
+		if v == nil {
+			return ""
+		}
+		return f(x(v))
+	}
+	over := func(v *discrete.Verification) float64 { return v.Step.Overshoot }
+	settle := func(v *discrete.Verification) float64 { return v.Step.Settling }
+	rise := func(v *discrete.Verification) float64 { return v.Step.Rise }
+	sse := func(v *discrete.Verification) float64 { return v.SteadyStateError }
+	pm := func(v *discrete.Verification) float64 { return v.Margins.PhaseDeg }
+	gm := func(v *discrete.Verification) float64 { return v.Margins.GainDB }
+	wc := func(v *discrete.Verification) float64 { return v.Margins.Crossover }
+	dm := func(v *discrete.Verification) float64 { return v.Margins.DelayMargin }
+	maxZ := func(v *discrete.Verification) float64 { return 1 - v.StabilityMargin }
+	band := d.Problem.Spec.Band
+	metric("overshoot", "overshoot", contStep(cv.Stable, cv.Step.Overshoot, tabPct), stepVal(&dv, over, tabPct), stepVal(qv, over, tabPct))
+	metric(fmt.Sprintf("settling (%s band)", tabPctShort(band)), "settling_time", contStep(cv.Stable, cv.Step.Settling, tabSec), stepVal(&dv, settle, tabSec), stepVal(qv, settle, tabSec))
+	metric("rise time 10-90 %", "", contStep(cv.Stable, cv.Step.Rise, tabSec), stepVal(&dv, rise, tabSec), stepVal(qv, rise, tabSec))
+	metric("steady-state error", "", contStep(cv.Stable, cv.SteadyStateError, tabPct), stepVal(&dv, sse, tabPct), stepVal(qv, sse, tabPct))
+	metric("phase margin", "phase_margin", tabDeg(cv.Margins.PhaseDeg), marg(&dv, pm, tabDeg), marg(qv, pm, tabDeg))
+	metric("gain margin", "gain_margin", tabDB(cv.Margins.GainDB), marg(&dv, gm, tabDB), marg(qv, gm, tabDB))
+	metric("crossover", "", tabRadps(cv.Margins.Crossover), marg(&dv, wc, tabRadps), marg(qv, wc, tabRadps))
+	metric("delay margin", "", tabSec(cv.Margins.DelayMargin), marg(&dv, dm, tabSec), marg(qv, dm, tabSec))
+	zText := func(x float64) string { return "|z| " + tabG4(x) }
+	metric("stability (max)", "stable", "Re "+tabG4(tabMaxRe(cv.Poles)), marg(&dv, maxZ, zText), marg(qv, maxZ, zText))
+	metric("sampling", "sampling", "", "ω/Nyquist "+tabG4(tabSampling(checks)), "")
+	// The checks left are those of the numeric realization (overflow,
+	// limit cycle): their values go in the quantized column when there is
+	// one.
+	for i, c := range checks {
+		if !used[i] {
+			disc, quant := tabCheckValue(c.Name, c.Value), ""
+			if qv != nil {
+				disc, quant = "", disc
+			}
+			row(tabCheckLabel(c.Name), "", disc, quant, tabSpec(c), tabPass(c.OK))
+		}
+	}
+}
+
+// numeric writes the numeric realization: for float types the largest
+// coefficient rounding error, for fixed point the coefficient formats and
+// the proved range of every state and intermediate.
+func (t *tableWriter) numeric(d *discrete.Design) {
+	n := d.Num
+	if n == nil {
+		return
+	}
+	t.line("")
+	if !n.Type.IsFixed() {
+		worst, name := 0.0, ""
+		for _, c := range n.Coefficients {
+			if e := math.Abs(c.RelError); e > worst || name == "" {
+				worst, name = e, c.Name
+			}
+		}
+		if name == "" {
+			t.line("  numeric    %s", n.Type)
+			return
+		}
+		t.line("  numeric    %s: coefficients rounded to nearest, largest relative error %s (%s)", n.Type, tabG4(worst), name)
+		return
+	}
+	t.line("  numeric    %s (%d-bit words): input full scale %s, output full scale %s; input %s bits, output %s bits below the settling band",
+		n.Type, n.W, tabG4(n.InputFullScale), tabG4(n.OutputFullScale), tabG4(n.InputResolutionBits), tabG4(n.OutputResolutionBits))
+	t.line("             against the float64 model: max error %s LSB, SQNR %s dB, at rest %s LSB (bound %s)",
+		tabG4(n.MaxErrorLSB), tabG4(n.SQNRdB), tabG4(n.RestLSB), tabG4(n.RestBoundLSB))
+	const crow = "  %-20s %-15s %-15s %-9s %s"
+	t.line(crow, "coefficient", "value", "quantized", "format", "rel error")
+	for _, c := range n.Coefficients {
+		t.line(crow, c.Name, tabG4(c.Value), tabG4(c.Quantized), c.Format, tabG4(c.RelError))
+	}
+	if len(n.Ranges) == 0 {
+		return
+	}
+	t.line("")
+	const rrow = "  %-46s %-9s %-11s %-11s %s"
+	t.line(rrow, "range", "format", "bound", "capacity", "headroom")
+	for _, g := range n.Ranges {
+		head := tabG4(g.HeadroomBits) + " bits"
+		if g.Saturated {
+			head += ", saturates"
+		}
+		t.line("%s", strings.TrimRight(fmt.Sprintf(rrow, tabOneLine(g.Name), g.Format, tabG4(g.Bound), tabG4(g.Capacity), head), " "))
+	}
+}
+
+// tabCheckLabel names a check that has no row of its own.
+func tabCheckLabel(name string) string {
+	switch name {
+	case "overflow":
+		return "overflow headroom"
+	case "limit_cycle":
+		return "limit cycle at rest"
+	}
+	return strings.ReplaceAll(name, "_", " ")
+}
+
+func tabSampling(cs []synth.Check) float64 {
+	for _, c := range cs {
+		if c.Name == "sampling" {
+			return c.Value
+		}
+	}
+	return math.NaN()
+}
+
+// saturated writes the large-step response with and without anti-windup.
+func (t *tableWriter) saturated(d *discrete.Design) {
+	s, k := d.Verif.Saturated, d.Coeffs
+	if !d.Verif.Stable || !(s.Amplitude > 0) || math.IsInf(s.Amplitude, 0) {
+		return
+	}
+	t.line("")
+	t.line("  saturated step: setpoint %s, twice what the linear loop can follow within output_limit [%s, %s]",
+		tabG4(s.Amplitude), tabG4(k.Lo), tabG4(k.Hi))
+	rec := func(settled bool, v float64, y []float64) string {
+		if !settled {
+			if len(y) > 0 {
+				return "no, ends at " + tabG4(y[len(y)-1])
+			}
+			return "not settled"
+		}
+		return tabSec(v)
+	}
+	const row = "  %-20s %-24s %s"
+	if !d.Problem.Ctrl.Form.HasIntegral() {
+		t.line("%s", strings.TrimRight(fmt.Sprintf(row, "overshoot", tabPct(s.Overshoot), ""), " "))
+		t.line("%s", strings.TrimRight(fmt.Sprintf(row, "recovery time", rec(s.Settled, s.Recovery, s.Y), ""), " "))
+		return
+	}
+	aw := string(s.AntiWindup)
+	if s.AntiWindup == discrete.AWBackcalc && k.Tt > 0 {
+		aw += " Tt " + tabSec(k.Tt)
+	}
+	t.line(row, "", aw, "no anti-windup")
+	t.line(row, "overshoot", tabPct(s.Overshoot), tabPct(s.OvershootNone))
+	t.line(row, "recovery time", rec(s.Settled, s.Recovery, s.Y), rec(s.SettledNone, s.RecoveryNone, s.YNone))
+	t.line(row, "integrator peak", tabG4(s.IntegratorPeak), "limit "+tabG4(k.IL))
+}
+
+func tabTarget(tg synth.Target) string {
+	p := tg.Pole
+	return fmt.Sprintf("ζ = %s  ωn = %s  s* = %s ± %sj rad/s", tabG4(tg.Zeta), tabRadps(tg.OmegaN), tabG4(real(p)), tabG4(math.Abs(imag(p))))
+}
+
+func tabGains(c synth.Controller) string {
+	if c.Form == synth.FormLead {
+		return fmt.Sprintf("lead K = %s  zero %s  pole %s rad/s", tabG4(c.K), tabG4(c.Zero), tabG4(c.Pole))
+	}
+	parts := []string{"kp = " + tabG4(c.Kp)}
+	if c.Form.HasIntegral() {
+		parts = append(parts, "ki = "+tabG4(c.Ki))
+	}
+	if c.Form.HasDerivative() {
+		parts = append(parts, "kd = "+tabG4(c.Kd), "Tf = "+tabSec(c.Tf))
+	}
+	parts = append(parts, "b = "+tabG4(c.B))
+	return strings.Join(parts, "  ")
+}
+
+// tabSeries writes C(s) = gain·Π(s − z)/Π(s − p) with factors
+// (s + a) for real roots and (s² + 2as + |r|²) for pairs.
+func tabSeries(c synth.Controller) string {
+	z, err := c.Series()
+	if err != nil {
+		return ""
+	}
+	num, den := tabFactors(z.Zeros), tabFactors(z.Poles)
+	s := tabG4(z.Gain)
+	if num != "" {
+		s += " " + num
+	}
+	if den != "" {
+		s += " / " + den
+	}
+	return s
+}
+
+func tabFactors(rs []complex128) string {
+	var out []string
+	for _, r := range tabCanonical(rs) {
+		switch {
+		case imag(r) != 0:
+			out = append(out, fmt.Sprintf("(s² %s %s·s + %s)", tabSign(-2*real(r)), tabG4(math.Abs(2*real(r))), tabG4(real(r)*real(r)+imag(r)*imag(r))))
+		case real(r) == 0:
+			out = append(out, "s")
+		default:
+			out = append(out, fmt.Sprintf("(s %s %s)", tabSign(-real(r)), tabG4(math.Abs(real(r)))))
+		}
+	}
+	return strings.Join(out, "")
+}
+
+func tabSign(x float64) string {
+	if x < 0 {
+		return "−"
+	}
+	return "+"
+}
+
+// tabCanonical returns the roots with each conjugate pair once (upper
+// half), parts smaller than 1e-9 of max(modulus, 1) set to zero (as in the
+// JSON report), sorted by descending real part.
+func tabCanonical(rs []complex128) []complex128 {
+	var out []complex128
+	for _, r := range rs {
+		if cmplx.IsNaN(r) || cmplx.IsInf(r) {
+			continue
+		}
+		a := math.Max(cmplx.Abs(r), 1)
+		re, im := real(r), imag(r)
+		if math.Abs(im) <= 1e-9*a {
+			im = 0
+		}
+		if math.Abs(re) <= 1e-9*a {
+			re = 0
+		}
+		if im < 0 {
+			continue
+		}
+		out = append(out, complex(re, im))
+	}
+	slices.SortStableFunc(out, func(a, b complex128) int {
+		if real(a) != real(b) {
+			if real(a) > real(b) {
+				return -1
+			}
+			return 1
+		}
+		if imag(a) > imag(b) {
+			return -1
+		}
+		if imag(a) < imag(b) {
+			return 1
+		}
+		return 0
+	})
+	return out
+}
+
+func tabPoles(ps []complex128, unit string) string {
+	var out []string
+	for _, r := range tabCanonical(ps) {
+		if imag(r) != 0 {
+			out = append(out, fmt.Sprintf("%s ± %sj", tabG4(real(r)), tabG4(imag(r))))
+		} else {
+			out = append(out, tabG4(real(r)))
+		}
+	}
+	if len(out) == 0 {
+		return "none"
+	}
+	s := strings.Join(out, ", ")
+	if unit != "" {
+		s += " " + unit
+	}
+	return s
+}
+
+func tabDiscrete(d *discrete.Design) string {
+	k := d.Coeffs
+	s := fmt.Sprintf("%s at %s Hz", k.Method, tabG4(d.Loop.Hz))
+	if k.PrewarpOmega > 0 {
+		s += fmt.Sprintf(" (prewarped at %s)", tabRadps(k.PrewarpOmega))
+	}
+	if d.Problem.Ctrl.Form.HasDerivative() && k.DerivativeMethod != "" && k.DerivativeMethod != k.Method {
+		s += fmt.Sprintf(", derivative %s", k.DerivativeMethod)
+	}
+	if d.Problem.Ctrl.Form.HasIntegral() {
+		s += fmt.Sprintf(", anti-windup %s, integrator limit %s", k.AntiWindup, tabG4(k.IL))
+	}
+	return s
+}
+
+func tabStep(stable bool, overshoot, settling float64) string {
+	if !stable {
+		return "unstable"
+	}
+	return fmt.Sprintf("overshoot %s, settling %s", tabPct(overshoot), tabSec(settling))
+}
+
+func tabSpec(c synth.Check) string {
+	switch strings.TrimPrefix(c.Name, "quantized_") {
+	case "stable", "sampling":
+		return "< " + tabG4(c.Limit)
+	}
+	rel := "≥ "
+	if c.Upper {
+		rel = "≤ "
+	}
+	return rel + tabCheckValue(c.Name, c.Limit)
+}
+
+func tabPass(ok bool) string {
+	if ok {
+		return "pass"
+	}
+	return "FAIL"
+}
+
+func tabMaxRe(ps []complex128) float64 {
+	m := math.Inf(-1)
+	for _, p := range ps {
+		m = math.Max(m, real(p))
+	}
+	return m
+}
+
+// Unit formatting; a value that is not finite prints as "none" (no
+// crossover) or "n/a".
+
+func tabG4(x float64) string {
+	switch {
+	case math.IsNaN(x):
+		return "n/a"
+	case math.IsInf(x, 1):
+		return "inf"
+	case math.IsInf(x, -1):
+		return "-inf"
+	case x == 0:
+		return "0" // also −0
+	}
+	return fmt.Sprintf("%.4g", x)
+}
+
+func tabFiniteOr(x float64, f func(float64) string) string {
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return "none"
+	}
+	return f(x)
+}
+
+func tabSec(x float64) string {
+	return tabFiniteOr(x, func(v float64) string { return tabG4(v) + " s" })
+}
+func tabPct(x float64) string {
+	return tabFiniteOr(x, func(v float64) string {
+		if math.Abs(v) < 1e-9 {
+			v = 0
+		}
+		return tabG4(100*v) + " %"
+	})
+}
+func tabPctShort(x float64) string { return tabG4(100*x) + " %" }
+func tabDeg(x float64) string {
+	return tabFiniteOr(x, func(v float64) string { return tabG4(v) + "°" })
+}
+func tabDB(x float64) string {
+	return tabFiniteOr(x, func(v float64) string { return tabG4(v) + " dB" })
+}
+func tabRadps(x float64) string {
+	return tabFiniteOr(x, func(v float64) string { return tabG4(v) + " rad/s" })
+}
+
+func tabPlural(n int) string {
+	if n == 1 {
+		return ""
+	}
+	return "s"
+}
+
+// oneLine keeps a message on one line of the table.
+func tabOneLine(s string) string {
+	return strings.Join(strings.Fields(s), " ")
+}
