@@ -118,7 +118,11 @@ func DesignAxis(p synth.Problem, loop Loop, num Numeric) (*Design, error) {
 	}
 	d.Coeffs = k
 	d.Warnings = append(append(d.Warnings, cd.Warnings...), warns...)
-	d.Verif, err = Verify(p, pl, k, loop.ComputeDelay)
+	maxStep := math.Inf(1)
+	if num.InputFullScale > 0 {
+		maxStep = num.InputFullScale
+	}
+	d.Verif, err = verify(p, pl, k, loop.ComputeDelay, maxStep)
 	if err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
 	}

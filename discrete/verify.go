@@ -44,7 +44,10 @@ type Saturated struct {
 	IntegratorPeak              float64 // largest |integrator state| with anti-windup
 	// LimitedByReach is set when the step was reduced to 90 % of the
 	// largest setpoint the integrator limit can hold.
-	LimitedByReach     bool
+	LimitedByReach bool
+	// LimitedByFullScale is set when the step was reduced to the input
+	// full scale of the numeric realization.
+	LimitedByFullScale bool
 	Y, YNone, U, UNone []float64
 }
 
@@ -90,6 +93,12 @@ func stabilityMargin(ps []complex128) float64 {
 // Verify analyses the sampled loop of coefficients k on plant pl with
 // compute delay d against the problem's spec.
 func Verify(p synth.Problem, pl Plant, k Coeffs, d int) (Verification, error) {
+	return verify(p, pl, k, d, math.Inf(1))
+}
+
+// verify is Verify with the saturated step kept within maxStep, the largest
+// setpoint the numeric realization represents (input_full_scale).
+func verify(p synth.Problem, pl Plant, k Coeffs, d int, maxStep float64) (Verification, error) {
 	var v Verification
 	c := linearize(k)
 	L := newClosedLoop(pl, c, d)
@@ -112,7 +121,7 @@ func Verify(p synth.Problem, pl Plant, k Coeffs, d int) (Verification, error) {
 	dc := L.dcGain()
 	v.SteadyStateError = 1 - dc
 	v.Step = lti.StepMetrics(v.Y, pl.T, dc, p.Spec.Band)
-	v.Saturated = saturated(p, pl, k, d, v.U, dc, n)
+	v.Saturated = saturated(p, pl, k, d, v.U, dc, n, maxStep)
 	return v, nil
 }
 
@@ -134,7 +143,7 @@ func spanOf(p synth.Problem) (lo, hi float64) {
 // saturated simulates a setpoint step that would need twice the output
 // limit in the linear loop, with the nonlinear reference model, with the
 // configured anti-windup and with none.
-func saturated(p synth.Problem, pl Plant, k Coeffs, d int, ulin []float64, dc float64, n int) Saturated {
+func saturated(p synth.Problem, pl Plant, k Coeffs, d int, ulin []float64, dc float64, n int, maxStep float64) Saturated {
 	peak := 0.0
 	for _, u := range ulin {
 		peak = math.Max(peak, math.Abs(u))
@@ -150,6 +159,10 @@ func saturated(p synth.Problem, pl Plant, k Coeffs, d int, ulin []float64, dc fl
 	// is reduced to 90 % of the reach.
 	if rmax := reachLimit(p, k); s.Amplitude > 0.9*rmax {
 		s.Amplitude, s.LimitedByReach = 0.9*rmax, true
+	}
+	// Nor can a setpoint exceed the input full scale of the realization.
+	if s.Amplitude > maxStep {
+		s.Amplitude, s.LimitedByFullScale = maxStep, true
 	}
 	s.Y, s.U, s.IntegratorPeak = simulateNonlinear(pl, k, d, s.Amplitude, n)
 	none := k

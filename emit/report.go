@@ -164,6 +164,9 @@ type SaturatedReport struct {
 	EndValueNoAntiWindup     *float64  `json:"end_value_no_antiwindup,omitempty"`
 	IntegratorPeak           *float64  `json:"integrator_peak,omitempty"`
 	IntegratorLimit          *float64  `json:"integrator_limit,omitempty"`
+	// LimitedBy says why the amplitude is smaller than the step that would
+	// need twice the output limit: "integrator_reach" or "input_full_scale".
+	LimitedBy string `json:"limited_by,omitempty"`
 }
 
 // NumericReport is the numeric realization of one axis's controller.
@@ -415,6 +418,7 @@ func jsonSaturated(d *discrete.Design) *SaturatedReport {
 	}
 	sr := &SaturatedReport{
 		Amplitude:         jsonNum(s.Amplitude),
+		LimitedBy:         limitedBy(s),
 		LinearPeakCommand: jsonNum(s.LinearPeakCommand),
 		OutputLimit:       []float64{roundSig(k.Lo), roundSig(k.Hi)},
 		Overshoot:         jsonFrac(s.Overshoot),
@@ -599,4 +603,14 @@ func jsonPairs(zs []complex128) [][]float64 {
 		return cmp.Compare(b[1], a[1])
 	})
 	return out
+}
+
+func limitedBy(s discrete.Saturated) string {
+	switch {
+	case s.LimitedByFullScale:
+		return "input_full_scale"
+	case s.LimitedByReach:
+		return "integrator_reach"
+	}
+	return ""
 }

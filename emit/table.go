@@ -356,8 +356,15 @@ func (t *tableWriter) saturated(d *discrete.Design) {
 		return
 	}
 	t.line("")
-	t.line("  saturated step: setpoint %s, twice what the linear loop can follow within output_limit [%s, %s]",
-		tabG4(s.Amplitude), tabG4(k.Lo), tabG4(k.Hi))
+	why := "twice what the linear loop can follow within"
+	switch {
+	case s.LimitedByFullScale:
+		why = "the input full scale (the step that would need twice the limit is larger); output_limit"
+	case s.LimitedByReach:
+		why = "90 % of what the integrator limit can hold at steady state; output_limit"
+	}
+	t.line("  saturated step: setpoint %s, %s [%s, %s]",
+		tabG4(s.Amplitude), why, tabG4(k.Lo), tabG4(k.Hi))
 	rec := func(settled bool, v float64, y []float64) string {
 		if !settled {
 			if len(y) > 0 {
