@@ -1,0 +1,110 @@
+package review
+
+import (
+	"math"
+
+	"locusmith/discrete"
+)
+
+// fixedStep simulates the bit-exact integer controller of a fixed-point
+// realization in the sampled loop: a setpoint step of A, the measured rate
+// quantized to the input word with saturation, the raw command converted
+// back and held through the compute delay and the whole samples of the
+// transport delay into the ZOH plant. It returns A
+// and the true rate over A at the samples (as long as the discrete step
+// record), or nil when the design has no integer controller.
+//
+// A is half the realization's reference step (the largest step whose
+// linear command stays within the limits), as in the setpoint steps of
+// discrete.Accuracy: a step at the full reference would drive the
+// measurement near the input full scale, where its word saturates, and
+// the integrator near its limit, and the picture would show those limits
+// rather than the arithmetic.
+//
+// The raw conversions follow DESIGN.md's fixed-point convention,
+// raw = value/full_scale·2^(w−1) saturated to the word.
+func fixedStep(d *discrete.Design) (float64, []float64) {
+	if d == nil || d.Num == nil || d.Num.Fixed == nil {
+		return 0, nil
+	}
+	re, fx, pl := d.Num, d.Num.Fixed, d.Plant
+	w := fx.W
+	fin, fout := re.InputFullScale, re.OutputFullScale
+	a := 0.5 * re.ReferenceStep
+	if !(a > 0) || !(fin > 0) || !(fout > 0) || math.IsInf(a, 0) {
+		return 0, nil
+	}
+	n := len(d.Verif.Y)
+	dl := d.Loop.ComputeDelay + pl.Delay // whole samples, compute and transport
+	x, xn := make([]float64, pl.N), make([]float64, pl.N)
+	q := make([]float64, dl+1) // q[0] newest command
+	rr := discrete.ToRaw(a/fin, w)
+	var st discrete.FixedState
+	y := make([]float64, n)
+	for i := 0; i < n; i++ {
+		var ym, yt float64
+		for j := range x {
+			ym += pl.Cm[j] * x[j]
+			yt += pl.Cy[j] * x[j]
+		}
+		y[i] = yt / a
+		u := fx.Step(&st, int32(rr), int32(discrete.ToRaw(ym/fin, w)))
+		copy(q[1:], q[:dl])
+		q[0] = discrete.FromRaw(int64(u), w) * fout
+		for r := 0; r < pl.N; r++ {
+			acc := pl.B[r] * q[dl]
+			for j, av := range pl.A[r*pl.N : (r+1)*pl.N] {
+				acc += av * x[j]
+			}
+			xn[r] = acc
+		}
+		x, xn = xn, x
+	}
+	return a, y
+}
+
+// fixedOf returns the numeric realization's tables: the coefficients as
+// the generated code holds them, and for fixed point the proved ranges.
+func fixedOf(d *discrete.Design) *FixedPoint {
+	re := d.Num
+	if re == nil {
+		if d.Numeric.Type.IsFixed() {
+			return &FixedPoint{Type: string(d.Numeric.Type), Note: "no numeric realization was computed"}
+		}
+		return nil
+	}
+	fp := &FixedPoint{Type: string(re.Type)}
+	for _, c := range re.Coefficients {
+		fc := FixedCoeff{Name: c.Name, Value: g(c.Value, 7), Quantized: g(c.Quantized, 7), Format: c.Format, RelError: g(c.RelError, 3)}
+		if c.Bits > 0 {
+			fc.Quantized += " (raw " + g(float64(c.Raw), 12) + ")"
+		}
+		fp.Coeffs = append(fp.Coeffs, fc)
+	}
+	for _, r := range re.Ranges {
+		fr := FixedRange{Name: r.Name + " (" + r.Format + ")", Bound: g(r.Bound, 6), Capacity: g(r.Capacity, 10), Headroom: g(r.HeadroomBits, 3) + " bits"}
+		if r.Saturated {
+			fr.Headroom += ", saturates: " + mdText(r.Note)
+		} else if r.HeadroomBits < 0 {
+			fr.Headroom = "**" + fr.Headroom + ": possible overflow**"
+		}
+		fp.Ranges = append(fp.Ranges, fr)
+	}
+	if re.Fixed != nil {
+		fp.Note = mdText(fixedNote(re))
+	} else {
+		fp.Note = "coefficients rounded to " + string(re.Type) + "; no scaling or range analysis is needed"
+	}
+	return fp
+}
+
+func fixedNote(re *discrete.Realization) string {
+	s := "input full scale " + g(re.InputFullScale, 6) + " (rate units), output full scale " + g(re.OutputFullScale, 6) +
+		"; reference step " + g(re.ReferenceStep, 4) +
+		", input resolution " + g(re.InputResolutionBits, 3) + " bits and output resolution " + g(re.OutputResolutionBits, 3) + " bits over the settling band"
+	if isFinite(re.MaxErrorLSB) && (re.MaxErrorLSB > 0 || re.SQNRdB > 0) {
+		s += "; against the float64 reference model on the standard excitation: largest output error " + g(re.MaxErrorLSB, 3) + " LSB, SQNR " + dbs(re.SQNRdB) +
+			", rest peak-to-peak " + g(re.RestLSB, 3) + " LSB (bound " + g(re.RestBoundLSB, 3) + ")"
+	}
+	return s
+}

@@ -1,0 +1,805 @@
+package review
+
+import (
+	"fmt"
+	"math"
+	"math/cmplx"
+	"slices"
+	"strings"
+	"sync"
+
+	"locusmith/discrete"
+	"locusmith/emit"
+	"locusmith/synth"
+)
+
+// Report is the data of the Markdown template (templates/report.md.tmpl).
+// Every number is already formatted: the template only lays out, and
+// every piece of free text (the file's description, warnings, errors) is
+// already escaped for Markdown.
+type Report struct {
+	Airframe    string
+	Version     string
+	File        string // the input path as given
+	SHA256      string
+	Description string
+	LoopHz      string
+	Period      string
+	Delay       string // the compute delay, "1 sample"
+	Numeric     string
+	OK          bool
+	Summary     []SummaryRow
+	Axes        []AxisReport
+	Cautions    []string
+}
+
+// SummaryRow is one axis in the summary table.
+type SummaryRow struct {
+	Axis, Form, Status                           string
+	Overshoot, Settling, PhaseMargin, GainMargin string
+}
+
+// AxisReport is the section of one axis.
+type AxisReport struct {
+	Name  string
+	Error string // the design failed; nothing else is filled
+	Job   string
+	Form  string
+	// Controller describes the structure: form, derivative, weight,
+	// anti-windup, discretization.
+	Controller string
+	Plant      []string // lines: transfer function, poles, zeros, delay
+	Sensor     []string
+	Spec       []Row
+	Targets    []string // the target derivation, line by line
+	Working    Working
+	Gains      []Row
+	Coeffs     []Row
+	Metrics    []MetricRow
+	Checks     []Row
+	CPoles     string
+	DPoles     string
+	Fixed      *FixedPoint
+	Plots      []Plot
+	Notes      []string
+	Warnings   []string
+	OK         bool
+}
+
+// Row is a name and a value (and, in some tables, a unit or note).
+type Row struct {
+	Name, Value, Note string
+}
+
+// MetricRow is one line of the metrics table.
+type MetricRow struct {
+	Name, Spec, Continuous, Discrete, Fixed, Status string
+}
+
+// Working is the root-locus placement, for checking by hand.
+type Working struct {
+	Target   string
+	Terms    []Term
+	Sum      string // the loop angle and how it adds up
+	Deficit  string
+	Supplied string // what the designed controller supplies: ∠C(s*)
+	Mag      string // |L(s*)|
+	Needed   string // 1/|L(s*)|
+	Got      string // |C(s*)|
+	Residual string
+	Extra    []string // the form's extra condition (PID third pole, lead zero)
+}
+
+// Term is one row of the angle table.
+type Term struct {
+	Kind, Of, At, Angle, Distance string
+}
+
+// FixedPoint is the fixed-point table of an axis.
+type FixedPoint struct {
+	Type   string
+	Coeffs []FixedCoeff
+	Ranges []FixedRange
+	Note   string
+}
+
+// FixedCoeff is one quantized coefficient.
+type FixedCoeff struct{ Name, Value, Quantized, Format, RelError string }
+
+// FixedRange is one proved signal range.
+type FixedRange struct{ Name, Bound, Capacity, Headroom string }
+
+// Plot is one figure of an axis: the SVG it is in, or why it is missing.
+type Plot struct {
+	Kind, File, Caption, Note, Missing string
+}
+
+// cautions are the safety notes every report carries (a function, so
+// that no report shares a slice with another).
+func cautions() []string {
+	return []string{
+		"These results are model-based: they are only as good as the plant, sensor and delay models in the airframe file, and they do not replace flight testing.",
+		"Bench-test the generated controller with the propellers off (or the actuator disconnected) before anything can move: check signs, limits and the response to a rate step.",
+		"Make the first flight tethered or otherwise restrained, with a way to cut power at once.",
+		"Follow the local aviation rules, and have the design and the generated code reviewed by a qualified person before flight.",
+	}
+}
+
+// model builds the report data and renders the plots of an airframe.
+func model(a *emit.Airframe) (*Report, []builtFigure) {
+	f := a.File
+	r := &Report{
+		Airframe:    f.Airframe,
+		Version:     emit.Version,
+		File:        mdCode(f.Path),
+		SHA256:      f.SHA256,
+		Description: mdText(f.Description),
+		LoopHz:      g(f.Loop.Hz, 6),
+		Period:      g(1/f.Loop.Hz, 4),
+		Delay:       plural(f.Loop.ComputeDelay, "sample"),
+		Numeric:     string(f.Numeric.Type),
+		OK:          a.OK(),
+		Cautions:    cautions(),
+	}
+	// The axes are independent: their plots are drawn concurrently and
+	// collected in the file's axis order, so the output does not depend
+	// on the scheduling.
+	type result struct {
+		ar   AxisReport
+		figs []builtFigure
+	}
+	res := make([]result, len(a.Axes))
+	var wg sync.WaitGroup
+	for i, x := range a.Axes {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			defer func() {
+				if p := recover(); p != nil {
+					res[i] = result{ar: AxisReport{Name: x.Name, Error: mdText(fmt.Sprintf("the report of this axis failed (a bug; please report it with the input file): %v", p))}}
+				}
+			}()
+			ar, fs := axisModel(f.Airframe, x)
+			res[i] = result{ar, fs}
+		}()
+	}
+	wg.Wait()
+	var figs []builtFigure
+	for i, x := range a.Axes {
+		figs = append(figs, res[i].figs...)
+		r.Axes = append(r.Axes, res[i].ar)
+		r.Summary = append(r.Summary, summaryRow(x, res[i].ar))
+	}
+	return r, figs
+}
+
+func summaryRow(x emit.Axis, ar AxisReport) SummaryRow {
+	row := SummaryRow{Axis: x.Name, Form: ar.Form, Status: "met", Overshoot: "–", Settling: "–", PhaseMargin: "–", GainMargin: "–"}
+	if x.Err != nil || x.Design == nil {
+		row.Status = "**not designed**"
+		return row
+	}
+	d := x.Design
+	var failed []string
+	for _, c := range d.Checks {
+		if !c.OK {
+			failed = append(failed, strings.ReplaceAll(c.Name, "_", " "))
+		}
+	}
+	if len(failed) > 0 {
+		row.Status = "**FAIL**: " + strings.Join(failed, ", ")
+	}
+	v := d.Verif
+	if v.Stable {
+		row.Overshoot, row.Settling = pct(v.Step.Overshoot), sec(v.Step.Settling)
+	}
+	row.PhaseMargin, row.GainMargin = degs(v.Margins.PhaseDeg), dbs(v.Margins.GainDB)
+	return row
+}
+
+func axisModel(airframe string, x emit.Axis) (AxisReport, []builtFigure) {
+	ar := AxisReport{Name: x.Name}
+	if x.Err != nil || x.Design == nil || x.Design.Cont == nil {
+		msg := "no design"
+		if x.Err != nil {
+			msg = strings.TrimPrefix(x.Err.Error(), "axis "+x.Name+": ")
+		}
+		ar.Error = mdText(msg)
+		return ar, nil
+	}
+	d := x.Design
+	p := d.Problem
+	c := d.Cont
+	ar.OK = d.OK()
+	ar.Form = string(p.Ctrl.Form)
+	ar.Job = jobOf(x.Name, d)
+	ar.Controller = formText(d)
+	ar.Plant = plantLines(p)
+	ar.Sensor = sensorLines(p)
+	ar.Spec, ar.Targets = specRows(d)
+	ar.Working = workingOf(d)
+	ar.Gains = gainRows(c)
+	ar.Coeffs = coeffRows(d.Coeffs)
+	ar.Metrics, ar.Checks = metricRows(d)
+	ar.CPoles = polesText(c.Verif.Poles, "")
+	ar.DPoles = zPolesText(d.Verif.Poles, d.Plant.T)
+	ar.Fixed = fixedOf(d)
+	for _, w := range dedup(d.Warnings) {
+		ar.Warnings = append(ar.Warnings, mdText(w))
+	}
+	pa, notes := newPlotAxis(x)
+	figs, plots := axisFigures(airframe, pa)
+	ar.Plots = plots
+	for _, n := range notes {
+		ar.Notes = append(ar.Notes, mdText(n))
+	}
+	return ar, figs
+}
+
+// jobOf says what the loop does, in a reviewer's words.
+func jobOf(name string, d *discrete.Design) string {
+	about := map[string]string{
+		"roll":  "the body rate about the roll (longitudinal) axis",
+		"pitch": "the body rate about the pitch (lateral) axis",
+		"yaw":   "the body rate about the yaw (vertical) axis",
+	}[name]
+	if about == "" {
+		about = "the rate of axis " + mdText(name)
+	}
+	k := d.Coeffs
+	return fmt.Sprintf("The **%s** loop makes %s follow its setpoint: every %s s it reads the rate setpoint r and the measured rate y, and commands the actuator with u in [%s, %s].",
+		mdText(name), about, g(d.Plant.T, 4), g(k.Lo, 4), g(k.Hi, 4))
+}
+
+// formText describes the controller structure.
+func formText(d *discrete.Design) string {
+	p, c, k := d.Problem, d.Cont.Ctrl, d.Coeffs
+	var parts []string
+	switch c.Form {
+	case synth.FormP:
+		parts = append(parts, "P controller")
+	case synth.FormPI:
+		parts = append(parts, "PI controller")
+	case synth.FormPD, synth.FormPID:
+		on := "on the measurement (no derivative kick on a setpoint step)"
+		if c.DerivativeOnError {
+			on = "on the error"
+		}
+		parts = append(parts, fmt.Sprintf("%s controller with the derivative filtered at %s Hz (Tf = %s s), %s",
+			strings.ToUpper(string(c.Form)), g(p.Ctrl.DerivativeLowpassHz, 4), g(c.Tf, 4), on))
+	case synth.FormLead:
+		parts = append(parts, "lead compensator K(s − z)/(s − p) on the error")
+	}
+	if c.Form != synth.FormLead {
+		parts = append(parts, fmt.Sprintf("setpoint weight b = %s on the P term", g(c.B, 3)))
+	}
+	if c.Form.HasIntegral() {
+		aw := string(k.AntiWindup)
+		if k.AntiWindup == discrete.AWBackcalc {
+			aw = fmt.Sprintf("back-calculation with tracking time Tt = %s s", g(k.Tt, 4))
+		} else if k.AntiWindup == discrete.AWClamp {
+			aw = "conditional integration (clamping)"
+		}
+		parts = append(parts, "anti-windup: "+aw, "integrator limit ±"+g(k.IL, 4))
+	}
+	m := string(k.Method)
+	if k.PrewarpOmega > 0 {
+		m += fmt.Sprintf(" prewarped at %s rad/s", g(k.PrewarpOmega, 4))
+	}
+	parts = append(parts, "discretized by "+m+" at "+g(d.Loop.Hz, 6)+" Hz")
+	if c.Form.HasDerivative() && k.DerivativeMethod != "" && k.DerivativeMethod != k.Method {
+		parts = append(parts, "derivative by "+string(k.DerivativeMethod))
+	}
+	return strings.Join(parts, "; ") + "."
+}
+
+func plantLines(p synth.Problem) []string {
+	m := p.Plant.Model
+	tf := "G(s) = " + zpkText(m.Gain, m.Zeros, m.Poles)
+	if p.Plant.Delay > 0 {
+		tf += fmt.Sprintf(" · e^(−%s·s)", g(p.Plant.Delay, 4))
+	}
+	lines := []string{mdCode(tf)}
+	lines = append(lines, "poles: "+rootsText(m.Poles)+"; zeros: "+rootsText(m.Zeros))
+	if p.Plant.Delay > 0 {
+		lines = append(lines, fmt.Sprintf("transport delay %s s (exact in the margins and the placement; Padé (%d,%d) in the closed-loop poles and the root locus)", g(p.Plant.Delay, 4), synth.PadeOrder, synth.PadeOrder))
+	}
+	return lines
+}
+
+func sensorLines(p synth.Problem) []string {
+	s := p.Sensor
+	if len(s.Poles) == 0 && len(s.Zeros) == 0 && s.Gain == 1 {
+		return []string{"ideal: H(s) = 1"}
+	}
+	return []string{mdCode("H(s) = " + zpkText(s.Gain, s.Zeros, s.Poles)), "poles: " + rootsText(s.Poles) + "; zeros: " + rootsText(s.Zeros)}
+}
+
+// zpkText writes k·Π(s − z)/Π(s − p) with real factors (s + a) and
+// quadratic factors for pairs.
+func zpkText(k float64, zs, ps []complex128) string {
+	num, den := factors(zs), factors(ps)
+	s := g4(k)
+	if num != "" {
+		s += "·" + num
+	}
+	switch {
+	case den == "":
+	case strings.Contains(den, "·") || !strings.HasPrefix(den, "("):
+		s += " / (" + den + ")"
+	default:
+		s += " / " + den
+	}
+	return s
+}
+
+func factors(rs []complex128) string {
+	var out []string
+	for _, r := range canonical(rs) {
+		switch {
+		case imag(r) != 0:
+			out = append(out, fmt.Sprintf("(s² %s %s·s + %s)", signOf(-2*real(r)), g4(math.Abs(2*real(r))), g4(real(r)*real(r)+imag(r)*imag(r))))
+		case real(r) == 0:
+			out = append(out, "s")
+		default:
+			out = append(out, fmt.Sprintf("(s %s %s)", signOf(-real(r)), g4(math.Abs(real(r)))))
+		}
+	}
+	return strings.Join(out, "·")
+}
+
+func signOf(x float64) string {
+	if x < 0 {
+		return "−"
+	}
+	return "+"
+}
+
+// canonical returns each real root and the upper root of each pair,
+// parts below 1e-9 of max(|r|, 1) set to zero, by descending real part.
+func canonical(rs []complex128) []complex128 {
+	var out []complex128
+	for _, r := range rs {
+		if cmplx.IsNaN(r) || cmplx.IsInf(r) {
+			continue
+		}
+		a := math.Max(cmplx.Abs(r), 1)
+		re, im := real(r), imag(r)
+		if math.Abs(im) <= 1e-9*a {
+			im = 0
+		}
+		if math.Abs(re) <= 1e-9*a {
+			re = 0
+		}
+		if im < 0 {
+			continue
+		}
+		out = append(out, complex(re, im))
+	}
+	slices.SortStableFunc(out, func(a, b complex128) int {
+		switch {
+		case real(a) > real(b):
+			return -1
+		case real(a) < real(b):
+			return 1
+		case imag(a) > imag(b):
+			return -1
+		case imag(a) < imag(b):
+			return 1
+		}
+		return 0
+	})
+	return out
+}
+
+func rootsText(rs []complex128) string {
+	var out []string
+	for _, r := range canonical(rs) {
+		if imag(r) != 0 {
+			out = append(out, fmt.Sprintf("%s ± %sj", g4(real(r)), g4(imag(r))))
+		} else {
+			out = append(out, g4(real(r)))
+		}
+	}
+	if len(out) == 0 {
+		return "none"
+	}
+	return strings.Join(out, ", ")
+}
+
+func polesText(ps []complex128, unit string) string {
+	return rootsText(ps) + unit
+}
+
+// zPolesText lists the z-plane poles with their s-plane equivalents
+// ln(z)/T, which read like the continuous poles.
+func zPolesText(ps []complex128, T float64) string {
+	var out []string
+	for _, z := range canonical(ps) {
+		var s string
+		if imag(z) != 0 {
+			s = fmt.Sprintf("%s ± %sj", g4(real(z)), g4(imag(z)))
+		} else {
+			s = g4(real(z))
+		}
+		if z != 0 {
+			s += fmt.Sprintf(" (s = %s)", sEquiv(cmplx.Log(z)/complex(T, 0)))
+		}
+		out = append(out, s)
+	}
+	return strings.Join(out, "; ")
+}
+
+func sEquiv(s complex128) string {
+	if math.Abs(imag(s)) <= 1e-9*math.Max(1, cmplx.Abs(s)) {
+		return g4(real(s))
+	}
+	return fmt.Sprintf("%s ± %sj", g4(real(s)), g4(math.Abs(imag(s))))
+}
+
+func specRows(d *discrete.Design) ([]Row, []string) {
+	s := d.Problem.Spec
+	rows := []Row{
+		{"settling time", "≤ " + sec(s.SettlingTime), fmt.Sprintf("to within ±%s %% of the final value", g(100*s.Band, 3))},
+		{"overshoot", "≤ " + pct(s.Overshoot), ""},
+	}
+	if s.MinPhaseMargin > 0 {
+		rows = append(rows, Row{"phase margin", "≥ " + degs(s.MinPhaseMargin), ""})
+	}
+	if s.MinGainMargin > 0 {
+		rows = append(rows, Row{"gain margin", "≥ " + dbs(s.MinGainMargin), ""})
+	}
+	var lines []string
+	if t, err := synth.TargetFromSpec(s); err == nil {
+		lnMp := math.Log(s.Overshoot)
+		lines = append(lines,
+			fmt.Sprintf("ζ = −ln Mp / √(π² + ln² Mp) = %s / √(%s + %s) = %s", g4(-lnMp), g4(math.Pi*math.Pi), g4(lnMp*lnMp), g4(t.Zeta)),
+			fmt.Sprintf("σ = −ln(band·√(1 − ζ²)) / Ts = %s / %s = %s 1/s", g4(-math.Log(s.Band*math.Sqrt(1-t.Zeta*t.Zeta))), g4(s.SettlingTime), g4(t.Sigma)),
+			fmt.Sprintf("ωn = σ/ζ = %s rad/s, s\\* = −σ + jωn√(1 − ζ²) = %s", g4(t.OmegaN), fmtC(t.Pole, 4)),
+		)
+	}
+	c := d.Cont
+	if c.Refined {
+		what := "the least-gain design whose sampled response meets the spec"
+		if !c.Met {
+			what = "no design of the form meets the spec; this is the closest found"
+		}
+		lines = append(lines, fmt.Sprintf("refined target (%s): ζ = %s, ωn = %s rad/s, s\\* = %s",
+			what, g4(c.Target.Zeta), g4(c.Target.OmegaN), fmtC(c.Target.Pole, 4)))
+	}
+	if c.TextbookErr != "" {
+		lines = append(lines, "textbook placement: "+mdText(c.TextbookErr))
+	}
+	return rows, lines
+}
+
+func workingOf(d *discrete.Design) Working {
+	c := d.Cont
+	w := c.Working
+	p := d.Problem
+	out := Working{Target: fmtC(w.Target, 5)}
+	var zs, ps []float64
+	for _, t := range w.Terms {
+		tm := Term{Kind: t.Kind, Of: t.Of, At: fmtC(t.At, 5), Angle: g(t.AngleDeg, 5) + "°", Distance: g(t.Distance, 5)}
+		switch t.Kind {
+		case "delay":
+			tm.At = "τ = " + g(real(t.At), 4) + " s"
+			tm.Angle = fmt.Sprintf("−ωd·τ = %s°", g(t.AngleDeg, 5))
+			tm.Distance = "–"
+			zs = append(zs, t.AngleDeg)
+		case "pole":
+			ps = append(ps, t.AngleDeg)
+		default:
+			zs = append(zs, t.AngleDeg)
+		}
+		out.Terms = append(out.Terms, tm)
+	}
+	sum := "∠L(s\\*) = Σ∠zeros − Σ∠poles"
+	if p.Plant.Delay > 0 {
+		sum += " − ωd·τ"
+	}
+	sum += " = "
+	if len(zs) > 0 {
+		sum += signedSum(zs)
+	} else {
+		sum += "0°"
+	}
+	if len(ps) > 0 {
+		sum += " − (" + signedSum(ps) + ")"
+	}
+	if p.Plant.Model.Gain*p.Sensor.Gain < 0 {
+		sum += " + 180° (negative gain)"
+	}
+	out.Sum = sum + " = " + g(w.LoopAngleDeg, 5) + "°"
+	out.Deficit = fmt.Sprintf("−180° − ∠L(s\\*) = %s°, wrapped to (−180°, 180°]: %s°", g(-180-w.LoopAngleDeg, 5), g(w.DeficiencyDeg, 5))
+	cs := c.Ctrl.Eval(w.Target)
+	out.Supplied = g(cmplx.Phase(cs)*180/math.Pi, 5) + "°"
+	out.Mag = g(w.LoopMagnitude, 5)
+	out.Needed = g(w.NeededGain, 5)
+	out.Got = g(cmplx.Abs(cs), 5)
+	out.Residual = g(c.Verif.TargetResidual, 3)
+	if p.Plant.Delay > 0 {
+		out.Residual += " (with the exact delay)"
+	}
+	switch c.Ctrl.Form {
+	case synth.FormPID:
+		s3 := -p.Ctrl.ThirdPole * c.Target.Sigma
+		out.Extra = append(out.Extra, fmt.Sprintf("third real closed-loop pole at third_pole·(−σ) = %s·(−%s) = %s: 1 + C(s3)·L(s3) = 0 is the third equation", g(p.Ctrl.ThirdPole, 3), g4(c.Target.Sigma), g4(s3)))
+	case synth.FormLead:
+		out.Extra = append(out.Extra, fmt.Sprintf("the zero is fixed at %s; the pole %s is where a real pole subtends the remaining angle, and K = %s follows from the magnitude condition", g4(c.Ctrl.Zero), g4(c.Ctrl.Pole), g4(c.Ctrl.K)))
+	case synth.FormP:
+		out.Extra = append(out.Extra, "P has one gain: the target is where the locus crosses the damping line ζ, and Kp is the magnitude condition there")
+	}
+	return out
+}
+
+func gainRows(c *synth.Design) []Row {
+	k := c.Ctrl
+	var rows []Row
+	if k.Form == synth.FormLead {
+		rows = append(rows, Row{"K", g(k.K, 6), ""}, Row{"zero", g(k.Zero, 6), "rad/s"}, Row{"pole", g(k.Pole, 6), "rad/s"})
+	} else {
+		rows = append(rows, Row{"Kp", g(k.Kp, 6), "command per rad/s"})
+		if k.Form.HasIntegral() {
+			rows = append(rows, Row{"Ki", g(k.Ki, 6), "command per rad"}, Row{"Ti = Kp/Ki", g(k.Ti(), 5), "s"})
+		}
+		if k.Form.HasDerivative() {
+			rows = append(rows, Row{"Kd", g(k.Kd, 6), "command per rad/s²"}, Row{"Td = Kd/Kp", g(k.Td(), 5), "s"}, Row{"Tf", g(k.Tf, 5), "s (derivative filter)"})
+		}
+		rows = append(rows, Row{"b", g(k.B, 4), "setpoint weight"})
+	}
+	if z, err := k.Series(); err == nil {
+		rows = append(rows, Row{"series form", mdCode("C(s) = " + zpkText(z.Gain, z.Zeros, z.Poles)), ""})
+	}
+	if tb := c.Textbook; tb != nil {
+		t := tb.Ctrl
+		s := fmt.Sprintf("Kp = %s", g4(t.Kp))
+		if t.Form.HasIntegral() {
+			s += ", Ki = " + g4(t.Ki)
+		}
+		if t.Form.HasDerivative() {
+			s += ", Kd = " + g4(t.Kd)
+		}
+		if t.Form == synth.FormLead {
+			s = fmt.Sprintf("K = %s, pole %s", g4(t.K), g4(t.Pole))
+		}
+		note := "unrefined placement at the spec's target"
+		if tb.Verif.Stable {
+			note += fmt.Sprintf(": overshoot %s, settling %s (continuous)", pct(tb.Verif.Step.Overshoot), sec(tb.Verif.Step.Settling))
+		} else {
+			note += ": unstable"
+		}
+		rows = append(rows, Row{"textbook", s, note})
+	}
+	return rows
+}
+
+func coeffRows(k discrete.Coeffs) []Row {
+	var rows []Row
+	add := func(name string, v float64, note string) { rows = append(rows, Row{name, g(v, 7), note}) }
+	if k.Form == synth.FormLead {
+		add("B0", k.B0, "ul = B0·e + x")
+		add("B1", k.B1, "x ← B1·e − A1·ul")
+		add("A1", k.A1, "")
+	} else {
+		add("Kp", k.Kp, "on the measurement")
+		add("KpB", k.KpB, "b·Kp, on the setpoint")
+		if k.Form.HasIntegral() {
+			add("G0", k.G0, "integral: current-error weight")
+			add("G01", k.G01, "integral: state increment weight")
+			if k.AntiWindup == discrete.AWBackcalc {
+				add("Kt", k.Kt, "back-calculation gain T/Tt")
+			}
+			add("IL", k.IL, "integrator limit")
+		}
+		if k.Form.HasDerivative() {
+			add("Ad", k.Ad, "derivative filter pole")
+			add("Bd", k.Bd, "derivative filter gain")
+		}
+	}
+	add("Lo", k.Lo, "output limit")
+	add("Hi", k.Hi, "output limit")
+	return rows
+}
+
+func metricRows(d *discrete.Design) ([]MetricRow, []Row) {
+	s := d.Problem.Spec
+	cv, dv := d.Cont.Verif, d.Verif
+	status := map[string]string{}
+	var checks []Row
+	for _, c := range d.Checks {
+		st := "ok"
+		if !c.OK {
+			st = "**FAIL**"
+		}
+		status[c.Name] = st
+		checks = append(checks, Row{strings.ReplaceAll(c.Name, "_", " "), st, ""})
+	}
+	step := func(ok bool, v float64, f func(float64) string) string {
+		if !ok {
+			return "unstable"
+		}
+		return f(v)
+	}
+	// The quantized column: the sampled loop with the coefficients as the
+	// generated code holds them (float32 or fixed point).
+	qv := d.Verif
+	hasQ := d.Num != nil && d.Num.Quantized != nil
+	if hasQ {
+		qv = *d.Num.Quantized
+	}
+	qs := func(v string) string {
+		if !hasQ {
+			return "–"
+		}
+		return v
+	}
+	both := func(a, b string) string {
+		if a == "" {
+			return b
+		}
+		if b == "" || a == b {
+			return a
+		}
+		return a + ", " + b
+	}
+	rows := []MetricRow{
+		{"overshoot", "≤ " + pct(s.Overshoot), step(cv.Stable, cv.Step.Overshoot, pct), step(dv.Stable, dv.Step.Overshoot, pct), qs(step(qv.Stable, qv.Step.Overshoot, pct)), both(status["overshoot"], status["quantized_overshoot"])},
+		{fmt.Sprintf("settling time (±%s %%)", g(100*s.Band, 3)), "≤ " + sec(s.SettlingTime), step(cv.Stable, cv.Step.Settling, sec), step(dv.Stable, dv.Step.Settling, sec), qs(step(qv.Stable, qv.Step.Settling, sec)), both(status["settling_time"], status["quantized_settling_time"])},
+		{"rise time (10–90 %)", "–", step(cv.Stable, cv.Step.Rise, sec), step(dv.Stable, dv.Step.Rise, sec), qs(step(qv.Stable, qv.Step.Rise, sec)), ""},
+		{"steady-state error", "–", step(cv.Stable, cv.SteadyStateError, pct), step(dv.Stable, dv.SteadyStateError, pct), qs(step(qv.Stable, qv.SteadyStateError, pct)), ""},
+	}
+	pmSpec, gmSpec := "–", "–"
+	if s.MinPhaseMargin > 0 {
+		pmSpec = "≥ " + degs(s.MinPhaseMargin)
+	}
+	if s.MinGainMargin > 0 {
+		gmSpec = "≥ " + dbs(s.MinGainMargin)
+	}
+	rows = append(rows,
+		MetricRow{"phase margin", pmSpec, degs(cv.Margins.PhaseDeg), degs(dv.Margins.PhaseDeg), qs(degs(qv.Margins.PhaseDeg)), both(status["phase_margin"], status["quantized_phase_margin"])},
+		MetricRow{"gain margin", gmSpec, dbs(cv.Margins.GainDB), dbs(dv.Margins.GainDB), qs(dbs(qv.Margins.GainDB)), both(status["gain_margin"], status["quantized_gain_margin"])},
+		MetricRow{"crossover", "–", rads(cv.Margins.Crossover), rads(dv.Margins.Crossover), qs(rads(qv.Margins.Crossover)), ""},
+		MetricRow{"delay margin", "–", sec(cv.Margins.DelayMargin), sec(dv.Margins.DelayMargin), qs(sec(qv.Margins.DelayMargin)), ""},
+		MetricRow{"stability", "poles inside", "max Re s = " + g4(maxRe(cv.Poles)), "max \\|z\\| = " + g(1-dv.StabilityMargin, 6), qs("max \\|z\\| = " + g(1-qv.StabilityMargin, 6)), both(status["stable"], status["quantized_stable"])},
+	)
+	if sat := dv.Saturated; sat.Amplitude > 0 {
+		ov := fmt.Sprintf("%s (no anti-windup: %s)", pct(sat.Overshoot), pct(sat.OvershootNone))
+		rec := fmt.Sprintf("%s (no anti-windup: %s)", recovery(sat.Recovery, sat.Settled), recovery(sat.RecoveryNone, sat.SettledNone))
+		if !d.Problem.Ctrl.Form.HasIntegral() {
+			ov, rec = pct(sat.Overshoot), recovery(sat.Recovery, sat.Settled)
+		}
+		name := fmt.Sprintf("saturating step of %s", g(sat.Amplitude, 4))
+		rows = append(rows, MetricRow{name + ": overshoot", "–", "–", ov, "–", ""},
+			MetricRow{name + ": recovery", "–", "–", rec, "–", ""})
+	}
+	return rows, checks
+}
+
+// signedSum writes angles as "a + b − c" in degrees.
+func signedSum(xs []float64) string {
+	var b strings.Builder
+	for i, x := range xs {
+		switch {
+		case i == 0:
+			b.WriteString(g(x, 4) + "°")
+		case x < 0:
+			b.WriteString(" − " + g(-x, 4) + "°")
+		default:
+			b.WriteString(" + " + g(x, 4) + "°")
+		}
+	}
+	return b.String()
+}
+
+// recovery is the settling time of the saturating step, or "not settled".
+func recovery(t float64, settled bool) string {
+	if !settled {
+		return "not settled"
+	}
+	return sec(t)
+}
+
+func maxRe(ps []complex128) float64 {
+	m := math.Inf(-1)
+	for _, p := range ps {
+		m = math.Max(m, real(p))
+	}
+	return m
+}
+
+func dedup(ws []string) []string {
+	var out []string
+	for _, w := range ws {
+		if !slices.Contains(out, w) {
+			out = append(out, w)
+		}
+	}
+	return out
+}
+
+// Number formats: four significant digits for figures a reviewer
+// compares with a hand calculation; "–" for a value that does not exist
+// (no crossover, unstable).
+func g4(x float64) string { return g(x, 4) }
+
+func fin(x float64, f func(float64) string) string {
+	if !isFinite(x) {
+		if math.IsInf(x, 1) {
+			return "∞"
+		}
+		return "–"
+	}
+	return f(x)
+}
+
+// pct writes a fraction of the unit step in percent; a residue below
+// 1e−9 of the step (floating-point noise in a steady-state error) is 0.
+func pct(x float64) string {
+	return fin(x, func(v float64) string {
+		if math.Abs(v) < 1e-9 {
+			v = 0
+		}
+		return g(100*v, 3) + " %"
+	})
+}
+func sec(x float64) string  { return fin(x, func(v float64) string { return g(v, 4) + " s" }) }
+func degs(x float64) string { return fin(x, func(v float64) string { return g(v, 4) + "°" }) }
+func dbs(x float64) string  { return fin(x, func(v float64) string { return g(v, 4) + " dB" }) }
+func rads(x float64) string { return fin(x, func(v float64) string { return g(v, 4) + " rad/s" }) }
+
+func plural(n int, unit string) string {
+	if n == 1 {
+		return "1 " + unit
+	}
+	return fmt.Sprintf("%d %ss", n, unit)
+}
+
+// mdText escapes free text for Markdown: the characters that start
+// emphasis, links, code, HTML or table cells are backslash-escaped and
+// line breaks become spaces, so a description cannot change the report's
+// structure.
+func mdText(s string) string {
+	var b strings.Builder
+	for _, r := range s {
+		switch r {
+		case '\\', '`', '*', '_', '[', ']', '<', '>', '|', '#', '{', '}', '!':
+			b.WriteByte('\\')
+			b.WriteRune(r)
+		case '\n', '\r', '\t':
+			b.WriteByte(' ')
+		default:
+			if r < 0x20 || r == 0x7f {
+				continue
+			}
+			b.WriteRune(r)
+		}
+	}
+	return b.String()
+}
+
+// mdCode writes s as inline code, with a fence longer than any run of
+// backticks inside and pipes escaped (inside a table cell).
+func mdCode(s string) string {
+	s = strings.Map(func(r rune) rune {
+		if r == '\n' || r == '\r' || r == '\t' {
+			return ' '
+		}
+		return r
+	}, s)
+	run, longest := 0, 0
+	for _, r := range s {
+		if r == '`' {
+			run++
+			longest = max(longest, run)
+		} else {
+			run = 0
+		}
+	}
+	fence := strings.Repeat("`", longest+1)
+	pad := ""
+	if strings.HasPrefix(s, "`") || strings.HasSuffix(s, "`") {
+		pad = " "
+	}
+	return fence + pad + strings.ReplaceAll(s, "|", "\\|") + pad + fence
+}

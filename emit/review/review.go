@@ -1,0 +1,191 @@
+// Package review produces what a reviewer signs a controller change off
+// on: the design report of an airframe (Markdown with SVG plots: root
+// locus, step responses, loop frequency response, z-plane map) and the
+// comparison of two versions of an airframe file (changed inputs, changed
+// results, regressions flagged).
+//
+// Everything here is a pure function of the designs: Build returns the
+// files' bytes, which depend on nothing but the input (no timestamps, no
+// host names, no absolute paths), and Write puts them into a directory
+// atomically, file by file, so a failed run never leaves a half-written
+// report behind.
+package review
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"text/template"
+
+	"locusmith/emit"
+	"locusmith/synth"
+	"locusmith/templates"
+)
+
+// File is one output file of a report.
+type File struct {
+	Name string // base name, no directory
+	Data []byte
+}
+
+// Build renders the review report of one designed airframe: <airframe>.md
+// and the SVG plots it links, in a fixed order. An axis whose design
+// failed gets its error in the report and no plots. A plot that cannot be
+// drawn (a degenerate design) is left out with a note in the report,
+// rather than failing the whole report.
+func Build(a *emit.Airframe) ([]File, error) {
+	if a == nil || a.File == nil {
+		return nil, errors.New("review: no airframe")
+	}
+	m, figs := model(a)
+	var files []File
+	for _, f := range figs {
+		files = append(files, File{Name: f.name, Data: f.data})
+	}
+	md, err := renderMarkdown(m)
+	if err != nil {
+		return nil, fmt.Errorf("review %s: %w", a.File.Airframe, err)
+	}
+	return append([]File{{Name: a.File.Airframe + ".md", Data: md}}, files...), nil
+}
+
+// builtFigure is a rendered plot and where the report links it.
+type builtFigure struct {
+	name string
+	data []byte
+}
+
+// axisFigures renders the plots of one axis. It returns the files and,
+// per plot kind, the file name or the reason it is missing.
+func axisFigures(airframe string, a *plotAxis) ([]builtFigure, []Plot) {
+	type maker struct {
+		kind, caption string
+		make          func(*plotAxis) (*figure, error)
+	}
+	makers := []maker{
+		{"locus", "Root locus near the target", func(a *plotAxis) (*figure, error) { return locusFigure(a, false) }},
+		{"locus-wide", "Root locus, all open-loop poles and zeros", func(a *plotAxis) (*figure, error) { return locusFigure(a, true) }},
+		{"step", "Unit-step responses against the spec", stepFigure},
+		{"saturated", "Large setpoint step against the output limits, with and without anti-windup", saturatedFigure},
+		{"bode", "Loop frequency response with margins", bodeFigure},
+		{"zplane", "z-plane map of the sampled closed loop", zFigure},
+	}
+	var out []builtFigure
+	var plots []Plot
+	for _, mk := range makers {
+		name := fmt.Sprintf("%s-%s-%s.svg", airframe, a.name, mk.kind)
+		pl := Plot{Kind: mk.kind, File: name, Caption: mk.caption}
+		if (mk.kind == "locus" || mk.kind == "locus-wide") && a.locus == nil {
+			pl.File, pl.Missing = "", "the root locus could not be computed"
+			plots = append(plots, pl)
+			continue
+		}
+		if mk.kind == "zplane" && a.zmap == nil {
+			pl.File, pl.Missing = "", "the z-plane map could not be computed"
+			plots = append(plots, pl)
+			continue
+		}
+		f, err := mk.make(a)
+		if err == nil && f == nil {
+			continue // does not apply (no saturating step)
+		}
+		var data []byte
+		if err == nil {
+			data, err = f.svg()
+		}
+		if err != nil {
+			pl.File, pl.Missing = "", mdText(err.Error())
+			plots = append(plots, pl)
+			continue
+		}
+		out = append(out, builtFigure{name: name, data: data})
+		pl.Note = f.note
+		plots = append(plots, pl)
+	}
+	return out, plots
+}
+
+// Write writes files into dir (created if missing). Each file is written
+// to a temporary file in dir and renamed over its name, so a reader never
+// sees a partial file; on an error the temporary files are removed and
+// the files already renamed stay complete.
+func Write(dir string, files []File) error {
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return fmt.Errorf("create output directory: %w", err)
+	}
+	for _, f := range files {
+		if f.Name == "" || f.Name != filepath.Base(f.Name) || strings.HasPrefix(f.Name, ".") {
+			return fmt.Errorf("write %q: not a plain file name", f.Name)
+		}
+		if err := writeAtomic(filepath.Join(dir, f.Name), f.Data); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func writeAtomic(path string, data []byte) error {
+	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp*")
+	if err != nil {
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	name := tmp.Name()
+	_, werr := tmp.Write(data)
+	cerr := tmp.Close()
+	if werr == nil {
+		werr = cerr
+	}
+	if werr == nil {
+		werr = os.Chmod(name, 0o644)
+	}
+	if werr == nil {
+		werr = os.Rename(name, path)
+	}
+	if werr != nil {
+		os.Remove(name)
+		return fmt.Errorf("write %s: %w", path, werr)
+	}
+	return nil
+}
+
+// newPlotAxis gathers what the plots of a designed axis need. The parts
+// that can fail (the locus, the z-plane map) are left nil with the reason.
+func newPlotAxis(x emit.Axis) (*plotAxis, []string) {
+	d := x.Design
+	var notes []string
+	a := &plotAxis{name: x.Name, d: d}
+	if t, err := synth.TargetFromSpec(d.Problem.Spec); err == nil {
+		a.specT = t
+	} else {
+		a.specT = d.Cont.Target
+	}
+	if l, err := synth.RootLocus(d.Problem, d.Cont.Ctrl, LocusGainMax); err == nil {
+		a.locus = l
+	} else {
+		notes = append(notes, "root locus: "+err.Error())
+	}
+	a.fixedA, a.fixedY = fixedStep(d)
+	a.dloop = newDiscreteLoop(d)
+	if z, err := newZMap(a.dloop); err == nil {
+		a.zmap = &z
+	} else {
+		notes = append(notes, "z-plane map: "+err.Error())
+	}
+	return a, notes
+}
+
+// renderMarkdown renders the report template.
+func renderMarkdown(r *Report) ([]byte, error) {
+	t, err := template.New("report.md.tmpl").ParseFS(templates.FS, "report.md.tmpl")
+	if err != nil {
+		return nil, fmt.Errorf("report template: %w", err)
+	}
+	var b bytes.Buffer
+	if err := t.Execute(&b, r); err != nil {
+		return nil, fmt.Errorf("report template: %w", err)
+	}
+	return b.Bytes(), nil
+}
