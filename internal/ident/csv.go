@@ -1,0 +1,239 @@
+package ident
+
+import (
+	"bufio"
+	"encoding/csv"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+)
+
+// MinSamples is the fewest data rows a log may have. Below a few hundred
+// samples there is not enough data for the noise to average out of four
+// physical parameters plus the per-segment initial state, whatever the
+// sample rate (common practice in identification is tens of samples per
+// parameter and several time constants of the slowest mode).
+const MinSamples = 200
+
+// Columns names the CSV columns to read and the unit of the time column.
+type Columns struct {
+	Time, Command, Rate string
+	// TimeScale converts the time column to seconds (1 for s, 1e-3 for ms,
+	// 1e-6 for µs). Zero means 1.
+	TimeScale float64
+}
+
+// DefaultColumns are the column names used when none are given.
+func DefaultColumns() Columns {
+	return Columns{Time: "time", Command: "command", Rate: "rate", TimeScale: 1}
+}
+
+// Log is a logged command and measured rate, one sample per data row.
+type Log struct {
+	// File names the source in messages.
+	File string
+	// Time (s, strictly increasing), Command and Rate, one entry per
+	// sample.
+	Time, Command, Rate []float64
+	// Line is the 1-based source line of each sample (nil for a Log built
+	// in code).
+	Line []int
+}
+
+// InputError is bad input: the file, the line (0 when not tied to one) and
+// what is wrong and what is allowed.
+type InputError struct {
+	File string
+	Line int
+	Msg  string
+}
+
+func (e *InputError) Error() string {
+	switch {
+	case e.File == "" && e.Line == 0:
+		return e.Msg
+	case e.Line == 0:
+		return e.File + ": " + e.Msg
+	default:
+		return fmt.Sprintf("%s:%d: %s", e.File, e.Line, e.Msg)
+	}
+}
+
+// IsInputError reports whether err is (or wraps) an *InputError: bad input
+// rather than a failure of the fit.
+func IsInputError(err error) bool {
+	var ie *InputError
+	return errors.As(err, &ie)
+}
+
+// ReadCSV reads a log from r. name labels the source in errors. The first
+// non-comment row is the header; cols chooses the columns by name (exact
+// match after trimming blanks; other columns are ignored). Rows starting
+// with '#' and blank lines are skipped. Every selected field must be a
+// finite number, time must increase strictly, there must be at least
+// MinSamples rows and the command must not be constant. Errors are
+// *InputError with the line number.
+func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
+	if cols.TimeScale == 0 {
+		cols.TimeScale = 1
+	}
+	if !(cols.TimeScale > 0) || math.IsInf(cols.TimeScale, 0) {
+		return nil, &InputError{File: name, Msg: fmt.Sprintf("time scale %g: must be a positive finite number", cols.TimeScale)}
+	}
+	fail := func(line int, format string, a ...any) error {
+		return &InputError{File: name, Line: line, Msg: fmt.Sprintf(format, a...)}
+	}
+	br := bufio.NewReader(r)
+	// A UTF-8 byte-order mark before the header is common in files saved
+	// by spreadsheets; it is not part of the first column's name.
+	if b, err := br.Peek(3); err == nil && string(b) == "\xef\xbb\xbf" {
+		br.Discard(3)
+	}
+	cr := csv.NewReader(br)
+	cr.Comment = '#'
+	cr.FieldsPerRecord = -1 // checked here, with a clearer message
+	cr.ReuseRecord = true
+	cr.TrimLeadingSpace = true
+
+	header, err := cr.Read()
+	if errors.Is(err, io.EOF) {
+		return nil, fail(1, "no header row: the file is empty; the first row must name the columns (%s, %s, %s)", cols.Time, cols.Command, cols.Rate)
+	}
+	if err != nil {
+		return nil, csvError(name, err)
+	}
+	hline, _ := cr.FieldPos(0)
+	names := make([]string, len(header))
+	numeric := true
+	for i, h := range header {
+		names[i] = strings.TrimSpace(h)
+		if _, err := strconv.ParseFloat(names[i], 64); err != nil {
+			numeric = false
+		}
+	}
+	if numeric {
+		return nil, fail(hline, "no header row: the first row holds numbers; the first row must name the columns (%s, %s, %s)", cols.Time, cols.Command, cols.Rate)
+	}
+	var idx [3]int
+	for j, want := range [3]string{cols.Time, cols.Command, cols.Rate} {
+		idx[j] = -1
+		for i, h := range names {
+			if h != want {
+				continue
+			}
+			if idx[j] >= 0 {
+				return nil, fail(hline, "column %q appears twice in the header (columns %d and %d)", want, idx[j]+1, i+1)
+			}
+			idx[j] = i
+		}
+		if idx[j] < 0 {
+			return nil, fail(hline, "no column %q in the header (it has %s); choose the columns with --time, --command and --rate", want, quoteList(names))
+		}
+	}
+	nf := len(header)
+
+	l := &Log{File: name}
+	var parsed [3]float64
+	for {
+		rec, err := cr.Read()
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			return nil, csvError(name, err)
+		}
+		line, _ := cr.FieldPos(0)
+		if len(rec) != nf {
+			return nil, fail(line, "%d fields, but the header has %d", len(rec), nf)
+		}
+		for j, i := range idx {
+			s := strings.TrimSpace(rec[i])
+			v, err := strconv.ParseFloat(s, 64)
+			if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+				return nil, fail(line, "column %q: %q is not a finite number", names[i], clip(s))
+			}
+			parsed[j] = v
+		}
+		t := parsed[0] * cols.TimeScale
+		if math.IsInf(t, 0) {
+			return nil, fail(line, "column %q: %g s is out of range", names[idx[0]], t)
+		}
+		if n := len(l.Time); n > 0 {
+			if !(t > l.Time[n-1]) {
+				return nil, fail(line, "column %q: time %s is not after %s on line %d; time must increase strictly",
+					names[idx[0]], fmtG(parsed[0]), fmtG(l.Time[n-1]/cols.TimeScale), l.Line[n-1])
+			}
+			if math.IsInf(t-l.Time[n-1], 0) {
+				return nil, fail(line, "column %q: the step from the previous time is out of range", names[idx[0]])
+			}
+		}
+		l.Time = append(l.Time, t)
+		l.Command = append(l.Command, parsed[1])
+		l.Rate = append(l.Rate, parsed[2])
+		l.Line = append(l.Line, line)
+	}
+	if len(l.Time) < MinSamples {
+		last := hline
+		if n := len(l.Line); n > 0 {
+			last = l.Line[n-1]
+		}
+		return nil, fail(last, "only %d samples; at least %d are needed to identify the plant", len(l.Time), MinSamples)
+	}
+	if lo, hi := minMax(l.Command); lo == hi {
+		return nil, fail(l.Line[0], "column %q is constant (%s on every row to line %d): nothing to identify; the log must excite the axis",
+			names[idx[1]], fmtG(lo), l.Line[len(l.Line)-1])
+	}
+	return l, nil
+}
+
+// csvError converts an encoding/csv error into an *InputError with its
+// line.
+func csvError(name string, err error) error {
+	var pe *csv.ParseError
+	if errors.As(err, &pe) {
+		return &InputError{File: name, Line: pe.Line, Msg: "malformed CSV: " + pe.Err.Error()}
+	}
+	return &InputError{File: name, Msg: "reading: " + err.Error()}
+}
+
+func quoteList(names []string) string {
+	const maxShown = 12
+	var b strings.Builder
+	for i, n := range names {
+		if i == maxShown {
+			fmt.Fprintf(&b, ", … (%d more)", len(names)-maxShown)
+			break
+		}
+		if i > 0 {
+			b.WriteString(", ")
+		}
+		b.WriteString(strconv.Quote(clip(n)))
+	}
+	return b.String()
+}
+
+// clip shortens s for an error message.
+func clip(s string) string {
+	const max = 40
+	if r := []rune(s); len(r) > max {
+		return string(r[:max]) + "…"
+	}
+	return s
+}
+
+func fmtG(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+
+func minMax(v []float64) (lo, hi float64) {
+	if len(v) == 0 {
+		return 0, 0
+	}
+	lo, hi = v[0], v[0]
+	for _, x := range v[1:] {
+		lo = math.Min(lo, x)
+		hi = math.Max(hi, x)
+	}
+	return lo, hi
+}
