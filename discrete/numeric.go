@@ -1,0 +1,1101 @@
+package discrete
+
+import (
+	"fmt"
+	"math"
+	"math/cmplx"
+	"math/rand/v2"
+	"strconv"
+	"strings"
+
+	"locusmith/synth"
+)
+
+// InputError is a numeric setting the realization cannot work with: bad
+// input (exit status 2 in the CLI), naming the airframe key.
+type InputError struct {
+	Key   string // e.g. "numeric.input_full_scale"
+	Value string // the value as given
+	Msg   string // what is wrong and what is allowed
+}
+
+func (e *InputError) Error() string {
+	return fmt.Sprintf("%s = %s: %s", e.Key, e.Value, e.Msg)
+}
+
+// Coefficient is one row of the coefficient table of a realization.
+type Coefficient struct {
+	Name string
+	// Value is the coefficient as designed and Quantized as the generated
+	// code holds it, both in the units of Coeffs (gains in command per
+	// rate unit, limits in command units).
+	Value, Quantized float64
+	// RelError is (Quantized − Value)/Value; 0 when Value is 0.
+	RelError float64
+	// Format is "float32", "float64", or "Qm.n" for fixed point: m integer
+	// and n fractional bits, sign not counted, m + n = bits − 1 (common
+	// practice; m is negative for a coefficient below 2^−1 that keeps all
+	// its bits fractional, so that the word holds the most precision).
+	Format string
+	// The fixed-point fields (zero for float types): Scaled is the value
+	// in raw units (a gain times in_fs/out_fs, a limit over out_fs), Raw
+	// the integer in the word, FracBits n and Bits the word's width.
+	Scaled   float64
+	Raw      int64
+	FracBits int
+	Bits     int
+}
+
+// Range is one row of the range table: a state or intermediate of the
+// integer controller, its proved bound and the capacity of its word.
+type Range struct {
+	Name   string
+	Format string // Qm.n relative to the full scale of the signal it carries
+	// Bound is the largest |value| proved from the input ranges, in
+	// integer units of the word; Capacity is 2^(bits−1) − 1.
+	Bound, Capacity float64
+	// HeadroomBits is log2(Capacity/Bound) (capped at the word's bits);
+	// negative when the bound exceeds the capacity.
+	HeadroomBits float64
+	// Saturated says the arithmetic saturates at this point because the
+	// bound exceeds the capacity: no wrap-around, and Note says what it
+	// does. A negative headroom that is not Saturated is a possible
+	// overflow and fails the "overflow" check.
+	Saturated bool
+	Note      string
+}
+
+// Realization is the numeric realization of one axis's controller.
+type Realization struct {
+	Type NumericType
+	// W is the data word's width for fixed point (16, 32); 0 for float.
+	W                               int
+	InputFullScale, OutputFullScale float64
+	Coefficients                    []Coefficient
+	// Ranges is the range table (fixed point only).
+	Ranges []Range
+	// Fixed is the bit-exact integer controller (fixed point only).
+	Fixed *Fixed
+	// QuantizedCoeffs are the coefficients as the code holds them,
+	// converted back to real values, and Quantized the discrete
+	// verification with them (nil for float64, whose coefficients are the
+	// reference's own).
+	QuantizedCoeffs Coeffs
+	Quantized       *Verification
+	// Fixed point only: ReferenceStep is the setpoint step against whose
+	// settling band the input resolution is judged (see RealizeNumeric),
+	// InputResolutionBits log2(band·ReferenceStep/LSB_in) and
+	// OutputResolutionBits log2(band·min(|Lo|, Hi)/LSB_out).
+	ReferenceStep                             float64
+	InputResolutionBits, OutputResolutionBits float64
+	// Fixed point only, against the float64 reference model on the
+	// standard excitation (see Accuracy): the largest output error and the
+	// signal-to-quantization-noise ratio, and the peak-to-peak output
+	// after the excitation with zero input (RestLSB) and its stated bound.
+	MaxErrorLSB, SQNRdB, RestLSB, RestBoundLSB float64
+	// Checks are "overflow" (fixed point), the spec checks with quantized
+	// coefficients ("quantized_<metric>", float32 and fixed point) and
+	// "limit_cycle" (fixed point); Warnings explain failures.
+	Checks   []synth.Check
+	Warnings []string
+}
+
+// coefKind says how a coefficient is scaled into raw units.
+type coefKind int
+
+const (
+	kindGain   coefKind = iota // rate → command: times in_fs/out_fs
+	kindPure                   // dimensionless
+	kindLimit                  // command: over out_fs, Q0.(w−1) data word
+	kindILimit                 // integrator limit, in the integrator's format
+)
+
+// coefSpec describes one coefficient of Coeffs as the form uses it.
+type coefSpec struct {
+	name   string
+	kind   coefKind
+	val    func(*Coeffs) *float64
+	q      func(*Fixed) *QCoeff // nil for the limits
+	linear bool                 // enters the linear loop (poles, step, margins)
+}
+
+// coefSpecs lists the coefficients the form of k uses, in the order of the
+// reference model.
+func coefSpecs(k *Coeffs) []coefSpec {
+	lim := []coefSpec{
+		{name: "Lo", kind: kindLimit, val: func(c *Coeffs) *float64 { return &c.Lo }},
+		{name: "Hi", kind: kindLimit, val: func(c *Coeffs) *float64 { return &c.Hi }},
+	}
+	if k.Form == synth.FormLead {
+		return append([]coefSpec{
+			{"B0", kindGain, func(c *Coeffs) *float64 { return &c.B0 }, func(f *Fixed) *QCoeff { return &f.B0 }, true},
+			{"B1", kindGain, func(c *Coeffs) *float64 { return &c.B1 }, func(f *Fixed) *QCoeff { return &f.B1 }, true},
+			{"A1", kindPure, func(c *Coeffs) *float64 { return &c.A1 }, func(f *Fixed) *QCoeff { return &f.A1 }, true},
+		}, lim...)
+	}
+	cs := []coefSpec{
+		{"KpB", kindGain, func(c *Coeffs) *float64 { return &c.KpB }, func(f *Fixed) *QCoeff { return &f.KpB }, true},
+		{"Kp", kindGain, func(c *Coeffs) *float64 { return &c.Kp }, func(f *Fixed) *QCoeff { return &f.Kp }, true},
+	}
+	if k.Form.HasIntegral() {
+		cs = append(cs,
+			coefSpec{"G0", kindGain, func(c *Coeffs) *float64 { return &c.G0 }, func(f *Fixed) *QCoeff { return &f.G0 }, true},
+			coefSpec{"G01", kindGain, func(c *Coeffs) *float64 { return &c.G01 }, func(f *Fixed) *QCoeff { return &f.G01 }, true})
+		if k.AntiWindup == AWBackcalc {
+			cs = append(cs, coefSpec{"Kt", kindPure, func(c *Coeffs) *float64 { return &c.Kt }, func(f *Fixed) *QCoeff { return &f.Kt }, false})
+		}
+	}
+	if k.Form.HasDerivative() {
+		cs = append(cs,
+			coefSpec{"Ad", kindPure, func(c *Coeffs) *float64 { return &c.Ad }, func(f *Fixed) *QCoeff { return &f.Ad }, true},
+			coefSpec{"Bd", kindGain, func(c *Coeffs) *float64 { return &c.Bd }, func(f *Fixed) *QCoeff { return &f.Bd }, true})
+	}
+	cs = append(cs, lim...)
+	if k.Form.HasIntegral() {
+		cs = append(cs, coefSpec{name: "IL", kind: kindILimit, val: func(c *Coeffs) *float64 { return &c.IL }})
+	}
+	return cs
+}
+
+// RealizeNumeric realizes the designed controller d in d.Numeric's type.
+//
+// float32 and float64: the coefficient table (each coefficient rounded to
+// the type) and, for float32, the discrete verification again with the
+// rounded coefficients.
+//
+// q15 and q31 (w = 16, 32): raw scaling raw = value/full_scale·2^(w−1),
+// saturated (common practice; the input full scale for setpoint and
+// measurement, the output full scale for the command), so a gain K of
+// Coeffs acts in raw units as K·in_fs/out_fs. Each coefficient takes the
+// most fractional bits n its w-bit word allows (round-half-up of
+// value·2^n must fit; n ≤ 2w − 2 so that every shift stays inside the
+// accumulator). The states and the sum get their formats from their proved
+// bounds: the most fractional bits (at most w) that keep the bound within
+// the accumulator. Every product is rounded once, half up, into the
+// format of the value it feeds: add-then-shift, written so that it cannot
+// overflow (RoundShift), the cheapest exact rule C states in one
+// expression; its bias is +2^−(n+1) of the result's LSB when n bits are
+// dropped (+¼ LSB for one bit), far below an output LSB at the shifts the
+// formats give. The bounds, all in integer units and including the
+// rounding of every product (round-half-up errs by at most ½):
+//
+//   - e = r − y: 2^w − 1; each product K·x: |K_raw|·max|x|;
+//   - the integrator: its clamp ±IL; its update S + inc by interval sums,
+//     with saturating adds where that exceeds the word (exact under the
+//     clamp that follows when the word holds 2·IL: a saturated sum is
+//     beyond ±IL on the same side as the exact one);
+//   - the derivative state: the ℓ1 norm of the impulse response of
+//     Bd(1 − z⁻¹)/(1 − Ad·z⁻¹), |Bd|·(1 + |1 − Ad|/(1 − |Ad|)), times
+//     max|v|, plus the rounding errors through 1/(1 − Ad·z⁻¹),
+//     1/(1 − |Ad|) (Oppenheim & Schafer, Discrete-Time Signal Processing,
+//     ℓ1 overflow scaling, from memory);
+//   - the lead output: the ℓ1 norm of (B0 + B1·z⁻¹)/(1 + A1·z⁻¹) times
+//     max|e|, plus 1.5/(1 − |A1|) of rounding and the reset value;
+//   - the sum before saturation: the interval sum of its terms; the output:
+//     its limits; Reset's output − (KpB − Kp)·measured likewise.
+//
+// A bound beyond its word that saturation cannot make exact (a state or
+// the sum, even with no fractional bits) is a possible wrap-around: the
+// failing check "overflow" and a warning naming the variable, its bound,
+// its capacity and a way out.
+//
+// The realization then re-runs Verify with the quantized coefficients
+// converted back to real values; a spec metric or stability that fails
+// only with them is a failing check "quantized_<metric>" whose warning
+// names the coefficient responsible: the one whose quantization alone
+// moves the metric furthest toward failure (each tried alone).
+//
+// Bad input (an *InputError): a fixed-point type without finite positive
+// full scales, an output limit beyond the output full scale, or a full
+// scale that leaves fewer than 4 bits of resolution for the smallest step
+// the spec needs. That step: the spec is a statement about the step
+// response, which the loop follows linearly up to the reference step
+// A_ref = min(|Lo|, Hi)/max|u of a unit step| (the largest step that does
+// not saturate the command, capped at the input full scale); its settling
+// band ±band·A_ref is the coarsest band the spec asks the loop to hold,
+// so it must span at least 2^4 input LSB; and the command must resolve
+// band·min(|Lo|, Hi) with 2^4 output LSB. Smaller steps need finer
+// resolution still; failing this lenient test means no linear step's
+// settling can be seen by the fixed-point controller at all.
+func RealizeNumeric(d *Design) (*Realization, error) {
+	if d == nil {
+		return nil, fmt.Errorf("numeric realization: no design")
+	}
+	switch d.Numeric.Type {
+	case Float32, Float64:
+		return realizeFloat(d)
+	case Q15:
+		return realizeFixed(d, 16, true)
+	case Q31:
+		return realizeFixed(d, 32, true)
+	}
+	return nil, &InputError{Key: "numeric.type", Value: strconv.Quote(string(d.Numeric.Type)),
+		Msg: `must be one of "float32", "float64", "q15", "q31"`}
+}
+
+// realizeFloat rounds the coefficients to float32 or float64.
+func realizeFloat(d *Design) (*Realization, error) {
+	t := d.Numeric.Type
+	re := &Realization{Type: t, InputFullScale: d.Numeric.InputFullScale, OutputFullScale: d.Numeric.OutputFullScale}
+	kq := d.Coeffs
+	for _, cs := range coefSpecs(&d.Coeffs) {
+		v := *cs.val(&d.Coeffs)
+		q := v
+		if t == Float32 {
+			q = float64(float32(v))
+		}
+		*cs.val(&kq) = q
+		re.Coefficients = append(re.Coefficients, Coefficient{Name: cs.name, Value: v, Quantized: q, RelError: relErr(q, v), Format: string(t)})
+	}
+	re.QuantizedCoeffs = kq
+	if t == Float32 {
+		if err := re.verifyQuantized(d, 0); err != nil {
+			return nil, err
+		}
+	}
+	return re, nil
+}
+
+func relErr(q, v float64) float64 {
+	if v == 0 {
+		return 0
+	}
+	return (q - v) / v
+}
+
+// fixedPlan is the state of a fixed-point realization in progress.
+type fixedPlan struct {
+	d          *Design
+	w          int
+	m          float64 // 2^(w−1): the largest |raw input|
+	capA, capD float64 // 2^(2w−1) − 1, 2^(w−1) − 1
+	fin, fout  float64
+	f          Fixed
+	specs      []coefSpec
+	scaled     []float64 // each coefficient in raw units
+	overflow   []string  // possible wrap-arounds
+}
+
+// scale returns the factor from a coefficient of kind k to raw units.
+func (p *fixedPlan) scale(k coefKind) float64 {
+	switch k {
+	case kindGain:
+		return p.fin / p.fout
+	case kindLimit, kindILimit:
+		return 1 / p.fout
+	}
+	return 1
+}
+
+func fmtNum(x float64) string { return strconv.FormatFloat(x, 'g', 6, 64) }
+
+// qFormat returns "Qm.n" for n fractional bits in a word of bits bits.
+func qFormat(bits, n int) string { return fmt.Sprintf("Q%d.%d", bits-1-n, n) }
+
+// quantCoeff returns the raw word and the most fractional bits n ≤ nmax
+// with which round-half-up(x·2^n) fits a signed word of w bits.
+func quantCoeff(x float64, w, nmax int) (raw int64, n int) {
+	if x == 0 || math.IsNaN(x) || math.IsInf(x, 0) {
+		return 0, min(w-1, nmax)
+	}
+	_, e := math.Frexp(x) // |x| ∈ [2^(e−1), 2^e)
+	n = min(w-1-e, nmax)
+	for {
+		r, sat := ToWord(x, n, w)
+		if !sat {
+			return r, n
+		}
+		n--
+	}
+}
+
+// realizeFixed realizes d with w-bit data and 2w-bit accumulators; the
+// tests turn the resolution rule off to study the 8-bit analogue.
+func realizeFixed(d *Design, w int, checkResolution bool) (*Realization, error) {
+	num := d.Numeric
+	for _, fs := range []struct {
+		key string
+		v   float64
+	}{{"numeric.input_full_scale", num.InputFullScale}, {"numeric.output_full_scale", num.OutputFullScale}} {
+		if !(fs.v > 0) || math.IsInf(fs.v, 0) {
+			return nil, &InputError{Key: fs.key, Value: fmtNum(fs.v), Msg: fmt.Sprintf("must be a finite number > 0 for type = %q", num.Type)}
+		}
+	}
+	k := d.Coeffs
+	if lim := math.Max(math.Abs(k.Lo), math.Abs(k.Hi)); lim > num.OutputFullScale {
+		return nil, &InputError{Key: "numeric.output_full_scale", Value: fmtNum(num.OutputFullScale),
+			Msg: fmt.Sprintf("must be ≥ the largest |output limit| %s of axis %s: the command word cannot hold the limit", fmtNum(lim), d.Problem.Axis)}
+	}
+	p := &fixedPlan{d: d, w: w, m: math.Ldexp(1, w-1), capA: math.Ldexp(1, 2*w-1) - 1, capD: math.Ldexp(1, w-1) - 1,
+		fin: num.InputFullScale, fout: num.OutputFullScale}
+	re := &Realization{Type: num.Type, W: w, InputFullScale: p.fin, OutputFullScale: p.fout}
+	if err := p.resolution(re); err != nil && checkResolution {
+		return nil, err
+	}
+	p.quantize()
+	re.Ranges = p.chooseFormats()
+	re.Fixed = &p.f
+	re.QuantizedCoeffs = p.quantizedCoeffs()
+	re.Coefficients = p.table()
+
+	minHead := math.Inf(1)
+	for _, r := range re.Ranges {
+		if !r.Saturated {
+			minHead = math.Min(minHead, r.HeadroomBits)
+		}
+	}
+	re.Checks = append(re.Checks, synth.Check{Name: "overflow", Limit: 0, Value: minHead, OK: len(p.overflow) == 0})
+	re.Warnings = append(re.Warnings, p.overflow...)
+	if err := re.verifyQuantized(d, w); err != nil {
+		return nil, err
+	}
+	if len(p.overflow) == 0 {
+		acc := Accuracy(d, re)
+		re.MaxErrorLSB, re.SQNRdB, re.RestLSB = acc.MaxErrorLSB, acc.SQNRdB, acc.RestLSB
+		re.RestBoundLSB = p.restBound()
+		ok := re.RestLSB <= re.RestBoundLSB
+		re.Checks = append(re.Checks, synth.Check{Name: "limit_cycle", Limit: re.RestBoundLSB, Value: re.RestLSB, Upper: true, OK: ok})
+		if !ok {
+			re.Warnings = append(re.Warnings, fmt.Sprintf("limit_cycle: with zero input after the excitation the command still moves by %s LSB peak to peak (stated bound %s LSB)", fmtNum(re.RestLSB), fmtNum(re.RestBoundLSB)))
+		}
+	}
+	return re, nil
+}
+
+// resolution applies the resolution rules (see RealizeNumeric).
+func (p *fixedPlan) resolution(re *Realization) error {
+	d, k := p.d, p.d.Coeffs
+	lim := math.Min(math.Abs(k.Lo), math.Abs(k.Hi))
+	if !(lim > 0) {
+		lim = math.Max(math.Abs(k.Lo), math.Abs(k.Hi))
+	}
+	band := d.Problem.Spec.Band
+	peak := d.Verif.Saturated.LinearPeakCommand
+	aref := p.fin
+	if peak > 0 && !math.IsInf(peak, 0) {
+		aref = math.Min(lim/peak, p.fin)
+	}
+	re.ReferenceStep = aref
+	lsbIn, lsbOut := p.fin/p.m, p.fout/p.m
+	re.InputResolutionBits = math.Log2(band * aref / lsbIn)
+	re.OutputResolutionBits = math.Log2(band * lim / lsbOut)
+	if !(band > 0) || !(lim > 0) {
+		return nil
+	}
+	// The decisions compare the spans with 2^4 LSB directly (exact), the
+	// bits are for the report.
+	if band*aref/lsbIn < 16 {
+		return &InputError{Key: "numeric.input_full_scale", Value: fmtNum(p.fin), Msg: fmt.Sprintf(
+			"leaves %.1f bits (< 4) of resolution for the smallest step the spec needs on axis %s: the settling band ±%s of the reference step %s (the largest the loop follows without saturating the command) spans %.3g LSB of %s; use a full scale of at most %s, or q31",
+			re.InputResolutionBits, d.Problem.Axis, fmtNum(band*aref), fmtNum(aref), band*aref/lsbIn, fmtNum(lsbIn), fmtNum(band*aref*p.m/16))}
+	}
+	if band*lim/lsbOut < 16 {
+		return &InputError{Key: "numeric.output_full_scale", Value: fmtNum(p.fout), Msg: fmt.Sprintf(
+			"leaves %.1f bits (< 4) of command resolution on axis %s: the band ±%s of the output limit %s spans %.3g LSB of %s; use a full scale of at most %s, or q31",
+			re.OutputResolutionBits, d.Problem.Axis, fmtNum(band*lim), fmtNum(lim), band*lim/lsbOut, fmtNum(lsbOut), fmtNum(band*lim*p.m/16))}
+	}
+	return nil
+}
+
+// quantize fills the coefficients of p.f (except IL, which depends on the
+// integrator's format) at their most precise formats.
+func (p *fixedPlan) quantize() {
+	k := p.d.Coeffs
+	p.f = Fixed{Type: p.d.Numeric.Type, W: p.w, Form: k.Form, AntiWindup: k.AntiWindup, DerivativeOnError: k.DerivativeOnError}
+	p.specs = coefSpecs(&k)
+	p.scaled = make([]float64, len(p.specs))
+	for i, cs := range p.specs {
+		x := *cs.val(&k) * p.scale(cs.kind)
+		p.scaled[i] = x
+		switch cs.kind {
+		case kindLimit:
+			raw, _ := ToWord(x, p.w-1, p.w)
+			if cs.name == "Lo" {
+				p.f.Lo = raw
+			} else {
+				p.f.Hi = raw
+			}
+		case kindILimit:
+		default:
+			q := cs.q(&p.f)
+			q.Raw, q.Frac = quantCoeff(x, p.w, 2*p.w-2)
+		}
+	}
+}
+
+// entry collects one range row and what governs it.
+type entry struct {
+	Range
+	gov *int // the format whose reduction lowers the bound; nil: none
+}
+
+// ceilLog2 returns ⌈log2 x⌉ for x > 0, from the binary exponent (exact on
+// every platform, unlike math.Log2 rounded up).
+func ceilLog2(x float64) int {
+	f, e := math.Frexp(x) // x = f·2^e, f ∈ [½, 1)
+	if f == 0.5 {
+		return e - 1
+	}
+	return e
+}
+
+func headroom(bound, capacity float64, bits int) float64 {
+	h := float64(bits)
+	if bound >= 1 {
+		h = math.Min(math.Log2(capacity/bound), h)
+	}
+	return h
+}
+
+// fits reports whether bound ≤ capacity, with 2^−40 of relative margin
+// for the float64 evaluation of the bound (a handful of operations, each
+// with relative error ≤ 2^−53).
+func fits(bound, capacity float64) bool { return bound*(1+0x1p-40) <= capacity }
+
+// rnd is the bound of round(|K|·x·2^−sh): exact for sh ≤ 0, ½ more else.
+func rnd(c int64, x float64, sh int) float64 {
+	v := float64(math.Abs(float64(c)) * x * math.Ldexp(1, -sh))
+	if sh > 0 {
+		v += 0.5
+	}
+	return v
+}
+
+// half is the rounding bound of rsh(·, n).
+func half(n int) float64 {
+	if n > 0 {
+		return 0.5
+	}
+	return 0
+}
+
+// chooseFormats picks FS, FD and FU from the bounds, sets the shifts and
+// the Wide and saturation flags, and returns the range table. It starts
+// from the most fractional bits and lowers a format by as many bits as
+// its worst bound exceeds the word, until every bound fits or a format
+// would go below zero (a possible overflow).
+func (p *fixedPlan) chooseFormats() []Range {
+	f := &p.f
+	w := p.w
+	f.FS, f.FD, f.FU = w, w, w
+	if f.Form.HasIntegral() {
+		f.FS = min(f.FS, max(f.G01.Frac, 0))
+		if f.AntiWindup == AWBackcalc {
+			f.FS = min(f.FS, max(f.Kt.Frac, 0))
+		}
+	}
+	if f.Form.HasDerivative() {
+		f.FD = min(f.FD, max(f.Bd.Frac, 0))
+	}
+	var es []entry
+	for iter := 0; iter < 4*w; iter++ {
+		if f.Form.HasIntegral() {
+			f.FU = min(f.FU, f.FS)
+		}
+		if f.Form.HasDerivative() {
+			f.FU = min(f.FU, f.FD)
+		}
+		es = p.bounds()
+		worst, by := -1, 0.0
+		for i, e := range es {
+			if e.gov != nil && !e.Saturated && !fits(e.Bound, e.Capacity) {
+				if x := e.Bound / e.Capacity; x > by {
+					worst, by = i, x
+				}
+			}
+		}
+		if worst < 0 {
+			break
+		}
+		g := es[worst].gov
+		if *g == 0 {
+			break
+		}
+		*g = max(0, *g-max(1, ceilLog2(by)))
+	}
+	rs := make([]Range, len(es))
+	for i, e := range es {
+		rs[i] = e.Range
+		if !e.Saturated && !fits(e.Bound, e.Capacity) {
+			p.overflow = append(p.overflow, p.overflowMsg(e.Range))
+		}
+	}
+	return rs
+}
+
+// overflowMsg says which variable may wrap around and the ways out.
+func (p *fixedPlan) overflowMsg(r Range) string {
+	var outs []string
+	if strings.HasPrefix(r.Name, "integrator") {
+		outs = append(outs, fmt.Sprintf("a smaller control.integrator_limit (now %s, %s times the output full scale)", fmtNum(p.d.Coeffs.IL), fmtNum(p.d.Coeffs.IL/p.fout)))
+	}
+	if p.w < 32 {
+		outs = append(outs, "numeric.type = \"q31\" (32-bit data, 64-bit accumulators)")
+	}
+	if !strings.HasPrefix(r.Name, "integrator") {
+		outs = append(outs, fmt.Sprintf("a smaller numeric.input_full_scale or a larger numeric.output_full_scale (gains act in raw units times in_fs/out_fs = %s)", fmtNum(p.fin/p.fout)),
+			"lower gains")
+	}
+	return fmt.Sprintf("overflow: %s can reach %s but its %s word holds %s (%s); way out: %s",
+		r.Name, fmtNum(r.Bound), bitsName(r.Capacity), fmtNum(r.Capacity), r.Format, strings.Join(outs, ", or "))
+}
+
+func bitsName(capacity float64) string {
+	return fmt.Sprintf("%d-bit", int(math.Round(math.Log2(capacity+1)))+1)
+}
+
+// wideBound returns the largest intermediate of MulWide(c, x, sh) for
+// |x| ≤ xb: ch·2^(w−sh) (sh ≤ w) or ch + (cl >> w), and cl itself.
+func wideBound(c int64, xb float64, sh, w int) float64 {
+	ac := math.Abs(float64(c))
+	hi := math.Floor(xb/math.Ldexp(1, w)) + 1
+	cl := ac * (math.Ldexp(1, w) - 1)
+	if sh <= w {
+		return math.Max(ac*hi*math.Ldexp(1, w-sh), cl)
+	}
+	return math.Max(float64(ac*hi)+math.Ldexp(1, w-1), cl)
+}
+
+// product sets K's shift and Wide flag for operand bound xb into target
+// format frac bits ft (operand frac bits fx), and returns the row of the
+// product and the bound of the rounded term.
+func (p *fixedPlan) product(name string, k *QCoeff, xb float64, fx, ft int, gov *int) (entry, float64) {
+	k.Shift = k.Frac + fx - ft
+	pb := math.Abs(float64(k.Raw)) * xb
+	k.Wide = !fits(pb, p.capA) && k.Shift >= 0 && k.Shift <= 2*p.w-2
+	if k.Wide {
+		pb = wideBound(k.Raw, xb, k.Shift, p.w)
+	}
+	e := entry{Range: Range{Name: name + " (product)", Format: qFormat(2*p.w, k.Frac+fx+p.w-1), Bound: pb, Capacity: p.capA}, gov: gov}
+	if k.Wide {
+		e.Note = "split multiply (MulWide)"
+	}
+	return e, rnd(k.Raw, xb, k.Shift)
+}
+
+// bounds computes every bound at the current formats.
+func (p *fixedPlan) bounds() []entry {
+	f := &p.f
+	w, m, capA, capD := p.w, p.m, p.capA, p.capD
+	emax := 2*m - 1
+	accFmt := func(fr int) string { return qFormat(2*w, w-1+fr) }
+	var es []entry
+	add := func(e entry) { es = append(es, e) }
+	row := func(name, format string, bound, capacity float64, gov *int) entry {
+		return entry{Range: Range{Name: name, Format: format, Bound: bound, Capacity: capacity}, gov: gov}
+	}
+	add(row("error e = r − y", accFmt(0), emax, capA, nil))
+	var uu, ul float64 // sum bound (FU units)
+	if f.Form == synth.FormLead {
+		b0 := float64(f.B0.Raw) * math.Ldexp(1, -(f.B0.Frac-f.FU))
+		b1 := float64(f.B1.Raw) * math.Ldexp(1, -(f.B1.Frac-f.FU))
+		a1 := float64(f.A1.Raw) * math.Ldexp(1, -f.A1.Frac)
+		ul = math.Inf(1)
+		if math.Abs(a1) < 1 {
+			l1 := math.Abs(b0) + math.Abs(b1-float64(a1*b0))/(1-math.Abs(a1))
+			ul = float64(l1*emax) + 1.5/(1-math.Abs(a1)) + m*math.Ldexp(1, f.FU)
+		}
+		e0, _ := p.product("B0·e", &f.B0, emax, 0, f.FU, nil)
+		e1, _ := p.product("B1·E", &f.B1, emax, 0, f.FU, nil)
+		ea, _ := p.product("A1·ul", &f.A1, ul, f.FU, f.FU, &f.FU)
+		add(e0)
+		add(e1)
+		add(ea)
+		xb := ul + rnd(f.B0.Raw, emax, f.B0.Shift)
+		add(row("lead state x", accFmt(f.FU), xb, capA, &f.FU))
+		uu = ul
+	} else {
+		eKpB, tKpB := p.product("KpB·r", &f.KpB, m, 0, f.FU, nil)
+		eKp, tKp := p.product("Kp·y", &f.Kp, m, 0, f.FU, nil)
+		add(eKpB)
+		add(eKp)
+		uu = tKpB + tKp
+		var ils float64
+		if f.Form.HasIntegral() {
+			r := row("reset: output − (KpB − Kp)·measured", accFmt(f.FU), m*math.Ldexp(1, f.FU)+tKpB+tKp, capA, &f.FU)
+			r.Note = "then shifted to the integrator's format with saturation, exact under its clamp"
+			add(r)
+			// A limit the word cannot hold must not pass as its
+			// saturated value: the bound is the limit itself.
+			raw, _ := ToWord(p.scaledOf("IL"), w-1+f.FS, 2*w)
+			f.IL = raw
+			ils = math.Max(float64(raw), math.Ldexp(p.scaledOf("IL"), w-1+f.FS))
+			uu += float64(ils*math.Ldexp(1, f.FU-f.FS)) + half(f.FS-f.FU)
+			eG0, tG0 := p.product("G0·e", &f.G0, emax, 0, f.FU, nil)
+			add(eG0)
+			uu += tG0
+		}
+		var ud float64
+		if f.Form.HasDerivative() {
+			vmax, dv := m, 2*m-1
+			if f.DerivativeOnError {
+				vmax, dv = emax, 2*emax
+			}
+			add(row("derivative input change v − v_prev", accFmt(0), dv, capA, nil))
+			a := float64(f.Ad.Raw) * math.Ldexp(1, -f.Ad.Frac)
+			eBd, tBd := p.product("Bd·Δv", &f.Bd, dv, 0, f.FD, &f.FD)
+			add(eBd)
+			bd := float64(f.Bd.Raw) * math.Ldexp(1, -f.Bd.Shift)
+			ud = math.Inf(1)
+			if math.Abs(a) < 1 {
+				l1 := math.Abs(bd) * (1 + math.Abs(1-a)/(1-math.Abs(a)))
+				ud = float64(l1*vmax) + 1/(1-math.Abs(a))
+			}
+			ud = math.Max(ud, tBd)
+			eAd, _ := p.product("Ad·Ud", &f.Ad, ud, f.FD, f.FD, &f.FD)
+			add(eAd)
+			r := row("derivative state Ud", accFmt(f.FD), ud, capA, &f.FD)
+			r.Note = "ℓ1 norm of Bd(1 − z⁻¹)/(1 − Ad·z⁻¹) times max|v|, plus rounding"
+			add(r)
+			uu += float64(ud*math.Ldexp(1, f.FU-f.FD)) + half(f.FD-f.FU)
+		}
+		if f.Form.HasIntegral() {
+			// The integrator rows need the sum's bound (for du).
+			uuLSB := float64(uu*math.Ldexp(1, -f.FU)) + half(f.FU)
+			eG01, tG01 := p.product("integrator increment G01·E", &f.G01, emax, 0, f.FS, &f.FS)
+			add(eG01)
+			inc := tG01
+			if f.AntiWindup == AWBackcalc {
+				du := m + uuLSB
+				add(row("tracking error du = ua − uu", accFmt(0), du, capA, nil))
+				eKt, tKt := p.product("Kt·du", &f.Kt, du, 0, f.FS, &f.FS)
+				add(eKt)
+				r := row("back-calculation term", accFmt(f.FS), tKt, capA, &f.FS)
+				add(r)
+				inc += tKt
+				f.SatInc = !fits(inc, capA)
+				r = row("integrator increment inc", accFmt(f.FS), inc, capA, nil)
+				if f.SatInc {
+					r.Saturated, r.Note = true, "saturating add; exact under the clamp to ±IL"
+					inc = capA + 1
+				}
+				add(r)
+			}
+			f.SatInt = !fits(ils+inc, capA)
+			r := row("integrator S + inc (before the clamp)", accFmt(f.FS), ils+inc, capA, nil)
+			if f.SatInt {
+				r.Saturated, r.Note = true, "saturating add; exact under the clamp to ±IL"
+			}
+			add(r)
+			r = row("integrator S", accFmt(f.FS), ils, capA, &f.FS)
+			r.Note = "clamped to ±IL"
+			if f.SatInc || f.SatInt {
+				// Saturation is exact under the clamp only if the word
+				// holds twice the limit.
+				r.Bound = 2 * ils
+				r.Note = "clamped to ±IL; 2·IL must fit for the saturating update"
+			}
+			add(r)
+		}
+	}
+	r := row("sum before saturation uu", accFmt(f.FU), uu, capA, &f.FU)
+	if f.Form == synth.FormLead {
+		r.Name = "lead output ul (before saturation)"
+		r.Note = "ℓ1 norm of (B0 + B1·z⁻¹)/(1 + A1·z⁻¹) times max|e|, plus rounding and the reset value"
+	}
+	add(r)
+	cmd := float64(uu*math.Ldexp(1, -f.FU)) + half(f.FU)
+	r = row("command before saturation", qFormat(2*w, w-1), cmd, capD, nil)
+	if !fits(cmd, capD) {
+		r.Saturated, r.Note = true, "clamped to the output limits [Lo, Hi]"
+	}
+	add(r)
+	for i := range es {
+		es[i].HeadroomBits = headroom(es[i].Bound, es[i].Capacity, int(math.Round(math.Log2(es[i].Capacity+1)))+1)
+	}
+	return es
+}
+
+// scaledOf returns the raw-unit value of the named coefficient.
+func (p *fixedPlan) scaledOf(name string) float64 {
+	for i, cs := range p.specs {
+		if cs.name == name {
+			return p.scaled[i]
+		}
+	}
+	return 0
+}
+
+// quantizedCoeffs converts the raw coefficients back to real values.
+func (p *fixedPlan) quantizedCoeffs() Coeffs {
+	kq := p.d.Coeffs
+	for _, cs := range p.specs {
+		*cs.val(&kq) = p.quantizedValue(cs)
+	}
+	return kq
+}
+
+func (p *fixedPlan) quantizedValue(cs coefSpec) float64 {
+	switch cs.kind {
+	case kindLimit:
+		raw := p.f.Lo
+		if cs.name == "Hi" {
+			raw = p.f.Hi
+		}
+		return FromRaw(raw, p.w) * p.fout
+	case kindILimit:
+		return math.Ldexp(float64(p.f.IL), -(p.w-1+p.f.FS)) * p.fout
+	}
+	q := cs.q(&p.f)
+	return math.Ldexp(float64(q.Raw), -q.Frac) / p.scale(cs.kind)
+}
+
+// table returns the coefficient rows.
+func (p *fixedPlan) table() []Coefficient {
+	var rows []Coefficient
+	for i, cs := range p.specs {
+		v := *cs.val(&p.d.Coeffs)
+		c := Coefficient{Name: cs.name, Value: v, Quantized: p.quantizedValue(cs), Scaled: p.scaled[i], Bits: p.w}
+		switch cs.kind {
+		case kindLimit:
+			c.Raw, c.FracBits = p.f.Lo, p.w-1
+			if cs.name == "Hi" {
+				c.Raw = p.f.Hi
+			}
+		case kindILimit:
+			c.Raw, c.FracBits, c.Bits = p.f.IL, p.w-1+p.f.FS, 2*p.w
+		default:
+			q := cs.q(&p.f)
+			c.Raw, c.FracBits = q.Raw, q.Frac
+		}
+		c.Format = qFormat(c.Bits, c.FracBits)
+		c.RelError = relErr(c.Quantized, v)
+		rows = append(rows, c)
+	}
+	return rows
+}
+
+// restBound is the stated bound of the zero-input output movement: the
+// deadband of a first-order recursion x ← round(a·x), |x| ≤ ½/(1 − |a|)
+// quanta (Jackson's deadband effect; Oppenheim & Schafer, zero-input limit
+// cycles, from memory), seen at the output through the state's format,
+// twice (a negative pole may alternate its sign) plus one LSB for the
+// output rounding. Forms without a recursive filter state hold still.
+func (p *fixedPlan) restBound() float64 {
+	f := &p.f
+	var a float64
+	var fr int
+	switch {
+	case f.Form == synth.FormLead:
+		a, fr = float64(f.A1.Raw)*math.Ldexp(1, -f.A1.Frac), f.FU
+	case f.Form.HasDerivative():
+		a, fr = float64(f.Ad.Raw)*math.Ldexp(1, -f.Ad.Frac), f.FD
+	default:
+		return 0
+	}
+	db := 0.5 / (1 - math.Abs(a))
+	return math.Ceil(float64(2*db*math.Ldexp(1, -fr))) + 1
+}
+
+// verifyQuantized runs Verify with re.QuantizedCoeffs and adds the
+// quantized_<metric> checks; w is the data width (0: float32).
+func (re *Realization) verifyQuantized(d *Design, w int) error {
+	kq := re.QuantizedCoeffs
+	v, err := Verify(d.Problem, d.Plant, kq, d.Loop.ComputeDelay)
+	if err != nil {
+		return fmt.Errorf("verification with quantized coefficients: %w", err)
+	}
+	re.Quantized = &v
+	qc := quantizedChecks(d.Problem.Spec, v)
+	base := quantizedChecks(d.Problem.Spec, d.Verif)
+	for i, c := range qc {
+		re.Checks = append(re.Checks, c)
+		if c.OK || !base[i].OK {
+			continue
+		}
+		name, detail := re.responsible(d, c.Name)
+		msg := fmt.Sprintf("%s: with the %s coefficients %s is %s against the limit %s (%s without quantization)",
+			c.Name, re.Type, strings.TrimPrefix(c.Name, "quantized_"), fmtNum(c.Value), fmtNum(c.Limit), fmtNum(base[i].Value))
+		if name != "" {
+			msg += fmt.Sprintf("; responsible coefficient: %s (%s)", name, detail)
+		}
+		if w > 0 && w < 32 {
+			msg += "; way out: numeric.type = \"q31\", or a design less sensitive to that coefficient"
+		} else {
+			msg += "; way out: a wider numeric type, or a design less sensitive to that coefficient"
+		}
+		re.Warnings = append(re.Warnings, msg)
+	}
+	return nil
+}
+
+// quantizedChecks are the spec checks of a verification, named
+// quantized_<metric>.
+func quantizedChecks(s synth.Spec, v Verification) []synth.Check {
+	cs := synth.SpecChecks(s, v.Stable, 0, v.Step.Overshoot, v.Step.Settling, v.Margins.PhaseDeg, v.Margins.GainDB)
+	cs[0] = synth.Check{Name: "stable", Limit: 1, Value: 1 - v.StabilityMargin, Upper: true, OK: v.Stable}
+	for i := range cs {
+		cs[i].Name = "quantized_" + cs[i].Name
+	}
+	return cs
+}
+
+// responsible quantizes one linear coefficient at a time and returns the
+// one that moves the failing check furthest toward (or past) its limit.
+func (re *Realization) responsible(d *Design, check string) (string, string) {
+	best, bestName, detail := math.Inf(-1), "", ""
+	byName := map[string]Coefficient{}
+	for _, c := range re.Coefficients {
+		byName[c.Name] = c
+	}
+	for _, cs := range coefSpecs(&d.Coeffs) {
+		c, ok := byName[cs.name]
+		if !cs.linear || !ok || c.Quantized == c.Value {
+			continue
+		}
+		k := d.Coeffs
+		*cs.val(&k) = c.Quantized
+		v, err := Verify(d.Problem, d.Plant, k, d.Loop.ComputeDelay)
+		if err != nil {
+			continue
+		}
+		for _, ch := range quantizedChecks(d.Problem.Spec, v) {
+			if ch.Name != check {
+				continue
+			}
+			// Violation: how far past the limit, in the failing direction.
+			viol := ch.Value - ch.Limit
+			if !ch.Upper {
+				viol = ch.Limit - ch.Value
+			}
+			if !ch.OK && !(viol > 0) {
+				viol = math.Inf(1) // unstable: Value may be meaningless
+			}
+			if viol > best {
+				best, bestName = viol, cs.name
+				how := "alone it still meets the limit; it moves the metric the most"
+				if !ch.OK {
+					how = "quantizing it alone fails the check"
+				}
+				detail = fmt.Sprintf("%s → %s as %s; %s", fmtNum(c.Value), fmtNum(c.Quantized), c.Format, how)
+			}
+		}
+	}
+	return bestName, detail
+}
+
+// Lengths of the standard excitation (see Accuracy): the chirp has
+// 2^chirpLog2 samples.
+const (
+	chirpLog2      = 10
+	noiseSamples   = 300
+	minRestSamples = 500
+)
+
+// pow2Below returns the largest power of two ≤ x > 0 (x itself otherwise).
+// The excitation's amplitudes are rounded so: a last-bit difference in
+// how a platform computes x cannot change the raw input samples.
+func pow2Below(x float64) float64 {
+	if !(x > 0) || math.IsInf(x, 0) {
+		return x
+	}
+	_, e := math.Frexp(x) // x ∈ [2^(e−1), 2^e)
+	return math.Ldexp(1, e-1)
+}
+
+// rootPow2 returns x^(2^−n) by n square roots, which IEEE 754 rounds
+// exactly on every platform (math.Pow may differ in the last bit).
+func rootPow2(x float64, n int) float64 {
+	for i := 0; i < n; i++ {
+		x = math.Sqrt(x)
+	}
+	return x
+}
+
+// detSin is sin(x) computed identically on every platform: reduction to
+// [−π/2, π/2] and the Taylor polynomial to x^15 (error below 1e-10 there,
+// ample for an excitation), every product converted explicitly so that no
+// compiler fuses it with an add (math.Sin may be fused on some CPUs).
+func detSin(x float64) float64 {
+	n := math.Round(x / (2 * math.Pi))
+	r := x - float64(n*(2*math.Pi))
+	switch {
+	case r > math.Pi/2:
+		r = math.Pi - r
+	case r < -math.Pi/2:
+		r = -math.Pi - r
+	}
+	r2 := float64(r * r)
+	p := -1.0 / 1307674368000 // −1/15!
+	for _, c := range []float64{1.0 / 6227020800, -1.0 / 39916800, 1.0 / 362880, -1.0 / 5040, 1.0 / 120, -1.0 / 6, 1} {
+		p = float64(p*r2) + c
+	}
+	return float64(p * r)
+}
+
+// AccuracyResult is the comparison of the integer controller with the
+// float64 reference model on the standard excitation.
+type AccuracyResult struct {
+	// MaxErrorLSB is the largest |u_fixed − u_float| in output LSB, and
+	// SQNRdB is 10·log10(Σ u_float² / Σ (u_fixed − u_float)²), both over
+	// the whole excitation, the zero-input tail included.
+	MaxErrorLSB, SQNRdB float64
+	// RestLSB is the peak-to-peak of the integer command over the second
+	// half of the zero-input tail.
+	RestLSB float64
+	// Samples is the length of the excitation.
+	Samples int
+}
+
+// Accuracy runs the integer controller re.Fixed and the float64 reference
+// model (Step[float64] on the unquantized coefficients, fed the same
+// quantized inputs converted back to real values) on the standard
+// excitation, in four parts:
+//
+//  1. setpoint steps to +a, 0, −a, 0 with a the largest power of two up to
+//     ½·ReferenceStep (so that the command stays within half its limit),
+//     each 1.5·Ts long
+//     (50 to 2000 samples), the measurement from the sampled plant driven
+//     by the reference model (closed loop), quantized to the input LSB;
+//  2. with zero setpoint, a logarithmic chirp of the measurement from
+//     ωc/10 to 10·ωc (at most half of Nyquist), 1024 samples, of amplitude
+//     0.4·min(|Lo|, Hi)/max|C(e^(jωT))| over the sweep so that the command
+//     stays linear (at most half the input full scale), rounded down to a
+//     power of two;
+//  3. noise at the sensor's LSB: the raw measurement drawn uniformly from
+//     {−1, 0, 1} (a fixed seed), 300 samples;
+//  4. zero input, until the controller's slowest mode has decayed
+//     (20 time constants, 500 to 20000 samples).
+//
+// The outcome is deterministic and the same on every platform: the float
+// arithmetic converts every product explicitly (no fused multiply-add),
+// avoids functions whose last bit varies by CPU, and rounds amplitudes to
+// powers of two. It returns a zero result when re is not a fixed-point
+// realization.
+func Accuracy(d *Design, re *Realization) AccuracyResult {
+	var res AccuracyResult
+	fx := re.Fixed
+	if fx == nil || d == nil {
+		return res
+	}
+	w := fx.W
+	fin, fout := re.InputFullScale, re.OutputFullScale
+	lsbOut := math.Ldexp(1, w-1) / fout // LSB per command unit
+	k := d.Coeffs
+	prm := ParamsOf[float64](k)
+	var st State[float64]
+	var fs FixedState
+	T := 1 / d.Loop.Hz
+	var sumU2, sumE2 float64
+	var last, lastFloat float64 // the latest commands, output LSB
+	step := func(rr, yr int64) {
+		u := fx.Step(&fs, int32(rr), int32(yr))
+		uf := float64(Step(&prm, &st, float64(FromRaw(rr, w)*fin), float64(FromRaw(yr, w)*fin)) * lsbOut)
+		e := float64(u) - uf
+		res.MaxErrorLSB = math.Max(res.MaxErrorLSB, math.Abs(e))
+		sumU2 += float64(uf * uf)
+		sumE2 += float64(e * e)
+		last, lastFloat = float64(u), uf
+		res.Samples++
+	}
+	lim := math.Min(math.Abs(k.Lo), math.Abs(k.Hi))
+	if !(lim > 0) {
+		lim = math.Max(math.Abs(k.Lo), math.Abs(k.Hi))
+	}
+
+	// 1. Closed-loop setpoint steps.
+	pl := d.Plant
+	a := pow2Below(0.5 * re.ReferenceStep)
+	n1 := min(max(int(math.Round(1.5*d.Problem.Spec.SettlingTime/T)), 50), 2000)
+	x, xn := make([]float64, pl.N), make([]float64, pl.N)
+	dl := d.Loop.ComputeDelay + pl.Delay // the plant's input is the command delayed by both
+	q := make([]float64, dl+1)
+	for i := 0; i < 4*n1; i++ {
+		r := []float64{a, 0, -a, 0}[i/n1] // every change is a: the command stays linear
+		var ym float64
+		for j := range x {
+			ym += float64(pl.Cm[j] * x[j])
+		}
+		step(ToRaw(r/fin, w), ToRaw(ym/fin, w))
+		copy(q[1:], q[:dl])
+		q[0] = lastFloat / lsbOut // the reference's command drives the plant
+		for row := 0; row < pl.N; row++ {
+			acc := float64(pl.B[row] * q[dl])
+			for j, av := range pl.A[row*pl.N : (row+1)*pl.N] {
+				acc += float64(av * x[j])
+			}
+			xn[row] = acc
+		}
+		x, xn = xn, x
+	}
+
+	// 2. Chirp of the measurement.
+	wc := d.Verif.Margins.Crossover
+	ny := math.Pi / T
+	if !(wc > 0) || math.IsInf(wc, 0) {
+		wc = ny / 20
+	}
+	w0, w1 := wc/10, math.Min(10*wc, ny/2)
+	if w0 >= w1 {
+		w0 = w1 / 10
+	}
+	cmax := 0.0
+	for i, om, r := 0, w0, rootPow2(w1/w0, 8); i <= 256; i, om = i+1, om*r {
+		cmax = math.Max(cmax, cmplx.Abs(numericFeedback(k, cmplx.Exp(complex(0, om*T)))))
+	}
+	amp := 0.5 * fin
+	if cmax > 0 {
+		amp = math.Min(amp, 0.4*lim/cmax)
+	}
+	amp = pow2Below(amp)
+	// The instantaneous frequency grows by a constant ratio per sample
+	// (a logarithmic sweep), and the phase is its running sum.
+	ratio := rootPow2(w1/w0, chirpLog2)
+	om, ph := w0, 0.0
+	for i := 0; i < 1<<chirpLog2; i++ {
+		step(0, ToRaw(amp*detSin(ph)/fin, w))
+		ph += float64(om * T)
+		om *= ratio
+	}
+
+	// 3. Noise at the sensor's LSB.
+	rng := rand.New(rand.NewPCG(0x6c6f6375, 0x736d697468))
+	for i := 0; i < noiseSamples; i++ {
+		step(0, int64(rng.IntN(3))-1)
+	}
+
+	// 4. Zero input.
+	slow := 0.0
+	switch {
+	case k.Form == synth.FormLead:
+		slow = math.Abs(k.A1)
+	case k.Form.HasDerivative():
+		slow = math.Abs(k.Ad)
+	}
+	n4 := 0 // slow^n4 ≤ e^−20, counted by multiplication
+	for v := 1.0; v > 2.061153622438558e-09 && n4 < 20000; n4++ {
+		v *= slow
+	}
+	n4 = max(n4, minRestSamples)
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for i := 0; i < n4; i++ {
+		step(0, 0)
+		if i >= n4/2 {
+			lo, hi = math.Min(lo, last), math.Max(hi, last)
+		}
+	}
+	res.RestLSB = hi - lo
+	res.SQNRdB = math.Inf(1)
+	if sumE2 > 0 {
+		res.SQNRdB = 10 * math.Log10(sumU2/sumE2)
+	}
+	return res
+}
+
+// numericFeedback is the controller's feedback path C_fb(z) = u/(−y) of
+// the coefficients k, with q = z⁻¹: Kp + G0 + G01·q/(1 − q) +
+// Bd(1 − q)/(1 − Ad·q) for the PID family, (B0 + B1·q)/(1 + A1·q) for lead.
+func numericFeedback(k Coeffs, z complex128) complex128 {
+	q := 1 / z
+	if k.Form == synth.FormLead {
+		return (complex(k.B0, 0) + complex(k.B1, 0)*q) / (1 + complex(k.A1, 0)*q)
+	}
+	v := complex(k.Kp, 0)
+	if k.Form.HasIntegral() {
+		v += complex(k.G0, 0) + complex(k.G01, 0)*q/(1-q)
+	}
+	if k.Form.HasDerivative() {
+		v += complex(k.Bd, 0) * (1 - q) / (1 - complex(k.Ad, 0)*q)
+	}
+	return v
+}
