@@ -72,16 +72,11 @@ func Evaluator(p synth.Problem, pl Plant, d int) synth.Evaluator {
 		k0.KpB, k1.KpB = 0, k.Kp
 		c0, c1 := linearize(k0), linearize(k1)
 		L0, L1 := newClosedLoop(pl, c0, d), newClosedLoop(pl, c1, d)
-		y0, y1, y := make([]float64, n), make([]float64, n), make([]float64, n)
+		y0, y1 := make([]float64, n), make([]float64, n)
 		simulate(pl, c0, d, y0, nil)
 		simulate(pl, c1, d, y1, nil)
 		dc0, dc1 := L0.dcGain(), L1.dcGain()
-		for _, b := range bs {
-			for i := range y {
-				y[i] = y0[i] + b*(y1[i]-y0[i])
-			}
-			e.Steps = append(e.Steps, lti.StepMetrics(y, pl.T, dc0+b*(dc1-dc0), p.Spec.Band))
-		}
+		e.Step, e.NumSteps = synth.LinearSteps(y0, y1, pl.T, dc0, dc1, p.Spec.Band, bs), len(bs)
 		return e, nil
 	}
 }

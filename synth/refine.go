@@ -15,8 +15,33 @@ type Evaluation struct {
 	// candidates whose time response is good enough to matter, as the
 	// frequency sweep costs more than the step.
 	Margins func() lti.Margins
-	// Steps holds one step-response summary per setpoint weight asked for.
-	Steps []lti.StepInfo
+	// Step returns the step-response summary for the i-th setpoint weight
+	// asked for (0 ≤ i < NumSteps); summaries are computed on demand.
+	Step     func(i int) lti.StepInfo
+	NumSteps int
+}
+
+// LinearSteps returns the Step function of an Evaluation for responses
+// linear in the setpoint weight: y(b) = y0 + b·(y1 − y0) with final value
+// dc0 + b·(dc1 − dc0), sampled at step h. Each summary is computed once,
+// when first asked for.
+func LinearSteps(y0, y1 []float64, h, dc0, dc1, band float64, bs []float64) func(int) lti.StepInfo {
+	memo := make([]*lti.StepInfo, len(bs))
+	var y []float64
+	return func(i int) lti.StepInfo {
+		if memo[i] == nil {
+			if y == nil {
+				y = make([]float64, len(y0))
+			}
+			b := bs[i]
+			for k := range y {
+				y[k] = y0[k] + b*(y1[k]-y0[k])
+			}
+			st := lti.StepMetrics(y, h, dc0+b*(dc1-dc0), band)
+			memo[i] = &st
+		}
+		return *memo[i]
+	}
 }
 
 // Evaluator measures a controller for several setpoint weights at once; the
@@ -51,13 +76,7 @@ func ContinuousEvaluator(p Problem) Evaluator {
 			return e, err
 		}
 		dc0, dc1 := evalRatio(n0, cl.char, 0), evalRatio(n1, cl.char, 0)
-		y := make([]float64, n)
-		for _, b := range bs {
-			for k := range y {
-				y[k] = ys[0][k] + b*(ys[1][k]-ys[0][k])
-			}
-			e.Steps = append(e.Steps, lti.StepMetrics(y, h, dc0+b*(dc1-dc0), p.Spec.Band))
-		}
+		e.Step, e.NumSteps = LinearSteps(ys[0], ys[1], h, dc0, dc1, p.Spec.Band, bs), len(bs)
 		return e, nil
 	}
 }
@@ -171,10 +190,8 @@ func (sr *searcher) judge(t Target, nb int, bound float64) (candidate, error) {
 	e := ce.e
 	c := candidate{target: ce.t, ctrl: ce.ctrl, eval: e, violation: math.Inf(1), gain: ce.ctrl.HighFrequencyGain()}
 	c.ctrl.B = sr.bs[0]
-	for i, st := range e.Steps {
-		if i >= nb {
-			break
-		}
+	for i := 0; i < e.NumSteps && i < nb; i++ {
+		st := e.Step(i)
 		v := timeViolation(sr.p.Spec, e.Stable, st)
 		better := v < c.violation || v == c.violation && st.Settling < c.step.Settling
 		if i == 0 || better {
