@@ -1,0 +1,205 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"path/filepath"
+
+	"locusmith/emit"
+)
+
+const emitHelp = `Usage: locusmith emit -o DIR [--lang c|go] [--c-header-only] [--vectors]
+                      [--check] [--allow-unmet] FILE...
+
+Design and verify every axis of each airframe file, then write the rate
+controllers as source code into DIR:
+
+  C (default)        <airframe>_rate.h and <airframe>_rate.c, C99 with
+                     <stdint.h> types; with --c-header-only one header of
+                     static inline functions
+  Go (--lang go)     <airframe>rate.go, package <airframe>rate
+
+Per axis the code has a state type and reset, step and applied functions;
+coefficients and limits are named constants. The output is a pure function
+of the input file and the tool version: the same bytes on every run and
+machine. A file is written only when its content changed (its mtime is kept
+otherwise, so make does not rebuild), through a temporary file and a rename,
+so a failed run never leaves a partial file.
+
+An airframe whose design checks fail (spec unmet, unstable, possible
+overflow) is not written, and the exit status is 1; --allow-unmet writes it
+anyway with a warning in its header, and exits 0.
+
+--vectors also writes a test-vector program (<airframe>_rate_vectors.c, or
+<airframe>rate_vectors_test.go) that runs the generated code on a standard
+excitation and exits non-zero at the first output that differs from
+locusmith's reference model by one bit.
+
+--check writes nothing: it regenerates in memory and compares with DIR,
+listing stale, missing and unexpected files (a file whose first line says
+locusmith generated it, but that this run does not generate: give --check
+every airframe of DIR and the same flags as the build) with a short diff.
+
+Exit status: 0 written or up to date; 1 a design check failed or --check
+found drift; 2 bad input or usage (a file that does not load, an unknown
+--lang, a missing or unwritable -o directory, two files naming the same
+airframe). On status 2 nothing is written.
+
+The code is model-based: bench-test with the propellers off, fly tethered
+first, follow local aviation rules, and have the design reviewed.
+
+Examples:
+  locusmith emit -o build/gen examples/quadrotor.toml
+  locusmith emit -o build/gen --c-header-only --vectors examples/*.toml
+  locusmith emit -o internal/rate --lang go examples/quadrotor.toml
+  locusmith emit -o build/gen --check examples/*.toml`
+
+// runEmit is the emit verb.
+func runEmit(args []string, stdout, stderr io.Writer) int {
+	fs, help := newFlagSet("emit")
+	out := fs.StringP("out", "o", "", "output directory (must exist)")
+	lang := fs.String("lang", "c", "language of the generated code: c or go")
+	headerOnly := fs.Bool("c-header-only", false, "C: one header of static inline functions instead of .h and .c")
+	vectors := fs.Bool("vectors", false, "also write the test-vector program")
+	check := fs.Bool("check", false, "write nothing; compare with DIR and exit 1 on any difference")
+	allowUnmet := fs.Bool("allow-unmet", false, "write airframes whose design checks fail, marked in the header")
+	if done, code := parseFlags(fs, help, args, emitHelp, stdout, stderr); done {
+		return code
+	}
+	usage := func(format string, a ...any) int {
+		fmt.Fprintf(stderr, "locusmith emit: "+format+"\nRun 'locusmith emit --help' for usage.\n", a...)
+		return exitUsage
+	}
+	o := emit.CodeOptions{Lang: emit.Lang(*lang), HeaderOnly: *headerOnly, Vectors: *vectors, AllowUnmet: *allowUnmet}
+	switch o.Lang {
+	case emit.LangC, emit.LangGo:
+	default:
+		return usage("--lang %q: must be c or go", *lang)
+	}
+	if o.HeaderOnly && o.Lang != emit.LangC {
+		return usage("--c-header-only applies to --lang c only")
+	}
+	if *out == "" {
+		return usage("no output directory: -o DIR is required")
+	}
+	if fs.NArg() == 0 {
+		return usage("no airframe file given")
+	}
+	if err := emit.CheckOutputDir(*out, !*check); err != nil {
+		fmt.Fprintf(stderr, "locusmith emit: %v\n", err)
+		return exitUsage
+	}
+	files, code := loadFiles(fs.Args(), stderr)
+	if code != exitOK {
+		fmt.Fprintln(stderr, "locusmith emit: nothing written")
+		return code
+	}
+	seen := map[string]string{}
+	for _, f := range files {
+		if prev, ok := seen[f.Airframe]; ok {
+			fmt.Fprintf(stderr, "locusmith emit: %s and %s both name airframe %q; their files would overwrite each other\nlocusmith emit: nothing written\n", prev, f.Path, f.Airframe)
+			return exitUsage
+		}
+		seen[f.Airframe] = f.Path
+	}
+	if o.Lang == emit.LangGo && len(files) > 1 {
+		fmt.Fprintf(stderr, "locusmith emit: warning: --lang go writes a package per airframe, and Go builds one package per directory: give each of the %d airframes its own -o directory\n", len(files))
+	}
+	designs := make([]*emit.Airframe, len(files))
+	for i, f := range files {
+		designs[i] = emit.DesignAirframe(f)
+	}
+	gen, err := emit.NewCodeGenerator()
+	if err != nil {
+		fmt.Fprintf(stderr, "locusmith emit: %v\n", err)
+		return exitUsage
+	}
+	srcs, warns, errs := gen.GenerateAll(designs, o)
+	for _, w := range warns {
+		fmt.Fprintf(stderr, "locusmith emit: warning: %s\n", w)
+	}
+	var all []emit.Source
+	var refused []string // file names not generated because of exit-1 failures
+	for i, a := range designs {
+		path := a.File.Path
+		if err := errs[i]; err != nil {
+			code = worst(code, emitStatus(err))
+			var ue *emit.UnmetError
+			if errors.As(err, &ue) {
+				for _, r := range ue.Reasons {
+					fmt.Fprintf(stderr, "%s: %s\n", path, r)
+				}
+				fmt.Fprintf(stderr, "%s: airframe %s not written: its design checks fail (--allow-unmet writes it anyway)\n", path, a.File.Airframe)
+			} else {
+				fmt.Fprintf(stderr, "%s: %v\n", path, err)
+			}
+			refused = append(refused, emit.SourceNames(a.File.Airframe, o)...)
+			continue
+		}
+		if unmet := emit.Unmet(a); len(unmet) > 0 {
+			for _, r := range unmet {
+				fmt.Fprintf(stderr, "%s: %s\n", path, r)
+			}
+			fmt.Fprintf(stderr, "%s: warning: airframe %s fails its design checks; written because of --allow-unmet, and marked so in its header\n", path, a.File.Airframe)
+		}
+		all = append(all, srcs[i]...)
+	}
+	if code == exitUsage {
+		fmt.Fprintln(stderr, "locusmith emit: nothing written")
+		return code
+	}
+	if *check {
+		d, err := emit.CheckSources(*out, all, 0)
+		if err != nil {
+			fmt.Fprintf(stderr, "locusmith emit: %v\n", err)
+			return exitUsage
+		}
+		d.Unexpected = without(d.Unexpected, *out, refused)
+		if !d.Clean() {
+			fmt.Fprint(stdout, d.String())
+			fmt.Fprintf(stderr, "locusmith emit: %s is not up to date (%d stale, %d missing, %d unexpected); run the same command without --check\n",
+				*out, len(d.Stale), len(d.Missing), len(d.Unexpected))
+			return worst(code, exitUnmet)
+		}
+		return code
+	}
+	written, err := emit.WriteSources(*out, all)
+	for _, w := range written {
+		fmt.Fprintf(stdout, "wrote %s\n", filepath.Join(*out, w))
+	}
+	if err != nil {
+		fmt.Fprintf(stderr, "locusmith emit: %v\n", err)
+		return exitUsage
+	}
+	return code
+}
+
+// emitStatus is the exit status of a generation error: 1 for a design
+// that fails its checks or an infeasible spec, 2 for everything else.
+func emitStatus(err error) int {
+	var ue *emit.UnmetError
+	if errors.As(err, &ue) {
+		return exitUnmet
+	}
+	var de *emit.DesignFailedError
+	if errors.As(err, &de) && emit.Infeasible(de.Err) {
+		return exitUnmet
+	}
+	return exitUsage
+}
+
+// without drops from paths the files of dir named in names.
+func without(paths []string, dir string, names []string) []string {
+	skip := map[string]bool{}
+	for _, n := range names {
+		skip[filepath.Join(dir, n)] = true
+	}
+	var out []string
+	for _, p := range paths {
+		if !skip[p] {
+			out = append(out, p)
+		}
+	}
+	return out
+}

@@ -1,0 +1,211 @@
+package emit
+
+import (
+	"fmt"
+	"math"
+
+	"locusmith/discrete"
+)
+
+// codeNumeric is the arithmetic of the generated code: the sample type's
+// names and how constants and test vectors are made for it.
+type codeNumeric struct {
+	kind  discrete.NumericType
+	t     string // sample type
+	zero  string // its zero literal
+	wide  string // fixed point: accumulator type
+	bits  int
+	fixed bool
+}
+
+// newCodeNumeric returns the arithmetic of numeric type t in language l.
+func newCodeNumeric(t discrete.NumericType, l Lang) (codeNumeric, error) {
+	n := codeNumeric{kind: t}
+	c := l == LangC
+	switch t {
+	case discrete.Float32:
+		n.bits = 32
+		n.t, n.zero = pick(c, "float", "float32"), pick(c, "0.0f", "0")
+	case discrete.Float64:
+		n.bits = 64
+		n.t, n.zero = pick(c, "double", "float64"), pick(c, "0.0", "0")
+	case discrete.Q15, discrete.Q31:
+		return newCodeFixedNumeric(t, l)
+	default:
+		return n, fmt.Errorf("unknown numeric type %q: must be float32, float64, q15 or q31", t)
+	}
+	return n, nil
+}
+
+func pick(c bool, a, b string) string {
+	if c {
+		return a
+	}
+	return b
+}
+
+// consts fills the named constants of axis ax.
+func (n codeNumeric) consts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
+	switch n.kind {
+	case discrete.Float32:
+		return floatConsts[float32](u, ax, d.Coeffs)
+	case discrete.Float64:
+		return floatConsts[float64](u, ax, d.Coeffs)
+	}
+	return fixedConsts(u, ax, d)
+}
+
+// vectors runs the reference model on the standard excitation.
+func (n codeNumeric) vectors(u *codeUnit, ax *codeAxis, d *discrete.Design) ([]codeVector, error) {
+	switch n.kind {
+	case discrete.Float32:
+		return floatVectors[float32](u, d)
+	case discrete.Float64:
+		return floatVectors[float64](u, d)
+	}
+	return fixedVectors(u, ax, d)
+}
+
+// codeCoeffs returns the coefficients as the generated code and the
+// reference model both use them: with −0 made +0 (a Go constant cannot be
+// −0, see plusZero).
+func codeCoeffs(k discrete.Coeffs) discrete.Coeffs {
+	for _, p := range []*float64{&k.Kp, &k.KpB, &k.G0, &k.G01, &k.Ad, &k.Bd, &k.B0, &k.B1, &k.A1, &k.Lo, &k.Hi, &k.IL, &k.Kt} {
+		*p = plusZero(*p)
+	}
+	return k
+}
+
+// floatLit formats a value of the sample type as a literal of the unit's
+// language.
+func floatLit[T discrete.Float](u *codeUnit, x T) (string, error) {
+	var bits int
+	switch any(x).(type) {
+	case float32:
+		bits = 32
+	default:
+		bits = 64
+	}
+	if u.Lang == LangGo {
+		return goFloat(float64(x), bits)
+	}
+	if bits == 32 {
+		return cFloat32(float32(x))
+	}
+	return cFloat64(float64(x))
+}
+
+// floatBits is the bit pattern of x as a hexadecimal literal.
+func floatBits[T discrete.Float](u *codeUnit, x T) string {
+	switch v := any(x).(type) {
+	case float32:
+		if u.Lang == LangC {
+			return fmt.Sprintf("0x%08xu", math.Float32bits(v))
+		}
+		return fmt.Sprintf("0x%08x", math.Float32bits(v))
+	case float64:
+		if u.Lang == LangC {
+			return fmt.Sprintf("UINT64_C(0x%016x)", math.Float64bits(v))
+		}
+		return fmt.Sprintf("0x%016x", math.Float64bits(v))
+	}
+	return ""
+}
+
+// floatConsts declares the constants of a float controller: Coeffs rounded
+// to T exactly as discrete.ParamsOf rounds them for the reference model.
+func floatConsts[T discrete.Float](u *codeUnit, ax *codeAxis, k discrete.Coeffs) error {
+	p := discrete.ParamsOf[T](codeCoeffs(k))
+	var err error
+	add := func(dst *string, c, g string, v T, doc string) {
+		if err != nil {
+			return
+		}
+		lit, e := floatLit(u, v)
+		if e != nil {
+			err = fmt.Errorf("constant %s: %w", g, e)
+			return
+		}
+		*dst = constName(u, ax, c, g)
+		ax.Consts = append(ax.Consts, codeConst{Name: *dst, Value: lit, Doc: doc, Type: u.T})
+	}
+	if ax.Lead {
+		add(&ax.B0, "B0", "B0", p.B0, "lead: weight of the current error")
+		add(&ax.B1, "B1", "B1", p.B1, "lead: weight of the last error")
+		add(&ax.A1, "A1", "A1", p.A1, "lead: weight of the last unsaturated output")
+	} else {
+		add(&ax.Kp, "KP", "Kp", p.Kp, "P gain on the measurement")
+		add(&ax.KpB, "KPB", "KpB", p.KpB, "P gain on the setpoint (setpoint weight b times Kp)")
+		if ax.HasI {
+			add(&ax.G0, "G0", "G0", p.G0, "integral: weight of the current error")
+			add(&ax.G01, "G01", "G01", p.G01, "integral: state increment per unit error")
+			if ax.AWBackcalc {
+				add(&ax.Kt, "KT", "Kt", p.Kt, "anti-windup back-calculation gain T/Tt")
+			}
+			add(&ax.IL, "INTEGRATOR_LIMIT", "IntegratorLimit", p.IL, "largest |integrator state|, command units")
+		}
+		if ax.HasD {
+			add(&ax.Ad, "AD", "Ad", p.Ad, "derivative filter: pole")
+			add(&ax.Bd, "BD", "Bd", p.Bd, "derivative filter: gain")
+		}
+	}
+	add(&ax.Lo, "OUTPUT_LO", "OutputLo", p.Lo, "lowest command")
+	add(&ax.Hi, "OUTPUT_HI", "OutputHi", p.Hi, "highest command")
+	return err
+}
+
+// floatModel adapts the float reference model to the excitation driver
+// and records the vectors.
+type floatModel[T discrete.Float] struct {
+	u   *codeUnit
+	p   discrete.Params[T]
+	s   discrete.State[T]
+	out []codeVector
+	err error
+}
+
+func (m *floatModel[T]) lit(x T) string {
+	s, err := floatLit(m.u, x)
+	if err != nil && m.err == nil {
+		m.err = err
+	}
+	return s
+}
+
+// q rounds an input to the sample type; −0 becomes +0 so that the Go
+// literal (which cannot be −0) carries the same value.
+func (m *floatModel[T]) q(x float64) T { return T(plusZero(float64(T(x)))) }
+
+func (m *floatModel[T]) reset(out, meas float64, why string) {
+	o, y := m.q(out), m.q(meas)
+	discrete.Reset(&m.p, &m.s, o, y)
+	m.out = append(m.out, codeVector{Op: vecReset, A: m.lit(o), B: m.lit(y), Want: "0", Comment: why})
+}
+
+func (m *floatModel[T]) step(r, y float64) float64 {
+	rr, yy := m.q(r), m.q(y)
+	got := discrete.Step(&m.p, &m.s, rr, yy)
+	m.out = append(m.out, codeVector{Op: vecStep, A: m.lit(rr), B: m.lit(yy), Want: floatBits(m.u, got)})
+	return float64(got)
+}
+
+func (m *floatModel[T]) applied(a float64) {
+	aa := m.q(a)
+	discrete.Applied(&m.s, aa)
+	m.out = append(m.out, codeVector{Op: vecApplied, A: m.lit(aa), B: m.lit(0), Want: "0"})
+}
+
+func (m *floatModel[T]) inputLimit() float64 { return math.Inf(1) }
+
+// floatVectors runs the float reference model (discrete.Step) on the
+// standard excitation.
+func floatVectors[T discrete.Float](u *codeUnit, d *discrete.Design) ([]codeVector, error) {
+	m := &floatModel[T]{u: u, p: discrete.ParamsOf[T](codeCoeffs(d.Coeffs))}
+	if err := excite(d, m); err != nil {
+		return nil, err
+	}
+	if m.err != nil {
+		return nil, m.err
+	}
+	return m.out, nil
+}

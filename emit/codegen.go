@@ -1,0 +1,504 @@
+package emit
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"go/format"
+	"strings"
+	"text/template"
+
+	"locusmith/discrete"
+	"locusmith/synth"
+	"locusmith/templates"
+)
+
+// Lang is the language of generated controller code.
+type Lang string
+
+// The languages.
+const (
+	LangC  Lang = "c"
+	LangGo Lang = "go"
+)
+
+// CodeOptions choose what GenerateCode produces.
+type CodeOptions struct {
+	Lang Lang
+	// HeaderOnly (C) puts everything into <airframe>_rate.h as static
+	// inline functions, instead of a header and a source file.
+	HeaderOnly bool
+	// Vectors adds the test-vector program: <airframe>_rate_vectors.c, or
+	// <airframe>rate_vectors_test.go.
+	Vectors bool
+	// AllowUnmet generates an airframe whose checks fail, and says so in
+	// the header; without it such an airframe gives an *UnmetError.
+	AllowUnmet bool
+}
+
+// Source is one generated file: a base name (no directory) and its
+// content.
+type Source struct {
+	Name string
+	Data []byte
+}
+
+// UnmetError says that an airframe was not generated because a check
+// failed or an axis could not be designed.
+type UnmetError struct {
+	Airframe string
+	File     string
+	Reasons  []string // one line each, from Unmet
+}
+
+func (e *UnmetError) Error() string {
+	return fmt.Sprintf("%s: airframe %s not generated: %s", e.File, e.Airframe, strings.Join(e.Reasons, "; "))
+}
+
+// DesignFailedError says that an axis has no design at all, so there is
+// nothing to generate even with AllowUnmet.
+type DesignFailedError struct {
+	Airframe, Axis string
+	Err            error
+}
+
+func (e *DesignFailedError) Error() string {
+	return fmt.Sprintf("airframe %s: axis %s has no design: %v", e.Airframe, e.Axis, e.Err)
+}
+
+func (e *DesignFailedError) Unwrap() error { return e.Err }
+
+// CodeGenerator renders controller source from design results. It holds
+// the parsed templates and no other state; one generator can render any
+// number of airframes, also concurrently.
+type CodeGenerator struct {
+	tmpl *template.Template
+}
+
+// NewCodeGenerator parses the code templates (templates/code_*.tmpl).
+func NewCodeGenerator() (*CodeGenerator, error) {
+	t, err := template.New("code").Option("missingkey=error").Funcs(codeFixedFuncs()).ParseFS(templates.FS, "code_*.tmpl")
+	if err != nil {
+		return nil, fmt.Errorf("parse code templates: %w", err)
+	}
+	return &CodeGenerator{tmpl: t}, nil
+}
+
+// GenerateCode renders the controller source of one airframe with a new
+// CodeGenerator; see CodeGenerator.Generate.
+func GenerateCode(a *Airframe, o CodeOptions) ([]Source, []string, error) {
+	g, err := NewCodeGenerator()
+	if err != nil {
+		return nil, nil, err
+	}
+	return g.Generate(a, o)
+}
+
+// Generate renders the controller source of one airframe: C
+// <airframe>_rate.h and <airframe>_rate.c (or the header alone with
+// HeaderOnly), or the Go file <airframe>rate.go of package <airframe>rate,
+// and the vector program with Vectors. It returns the files in a fixed
+// order and warnings about names. Nothing is written.
+//
+// It fails with an *UnmetError when a check failed and AllowUnmet is not
+// set, a *DesignFailedError when an axis has no design, a *NameError when a
+// name cannot be used, and an error for an option it does not know.
+func (g *CodeGenerator) Generate(a *Airframe, o CodeOptions) ([]Source, []string, error) {
+	srcs, warns, _, err := g.generate(a, o)
+	return srcs, warns, err
+}
+
+// generate is Generate, also returning the template data.
+func (g *CodeGenerator) generate(a *Airframe, o CodeOptions) ([]Source, []string, *codeUnit, error) {
+	u, err := newCodeUnit(a, o)
+	if err != nil {
+		return nil, nil, nil, err
+	}
+	warns, err := checkNames(u)
+	if err != nil {
+		return nil, nil, nil, err
+	}
+	srcs, err := g.render(u)
+	if err != nil {
+		return nil, nil, nil, fmt.Errorf("airframe %s: %w", u.Airframe, err)
+	}
+	return srcs, warns, u, nil
+}
+
+// GenerateAll renders several airframes of one call. Besides the errors of
+// Generate, it rejects two airframes of the same name (they would write the
+// same files) and C names that two airframes both generate. An airframe
+// that fails does not stop the others: errs[i] is the error of as[i], and
+// srcs[i] its files.
+func (g *CodeGenerator) GenerateAll(as []*Airframe, o CodeOptions) (srcs [][]Source, warns []string, errs []error) {
+	srcs = make([][]Source, len(as))
+	errs = make([]error, len(as))
+	units := make([]*codeUnit, 0, len(as))
+	first := map[string]string{}
+	for i, a := range as {
+		if a == nil || a.File == nil {
+			errs[i] = errors.New("no airframe")
+			continue
+		}
+		name := a.File.Airframe
+		if prev, ok := first[name]; ok {
+			errs[i] = &NameError{Airframe: name, Name: name, Reason: fmt.Sprintf("%s and %s both name this airframe; their files would overwrite each other", displayPath(prev), displayPath(a.File.Path))}
+			continue
+		}
+		first[name] = a.File.Path
+		s, w, u, err := g.generate(a, o)
+		if err != nil {
+			errs[i] = err
+			continue
+		}
+		srcs[i] = s
+		warns = append(warns, w...)
+		units = append(units, u)
+	}
+	if err := checkAcross(units); err != nil {
+		var ne *NameError
+		if errors.As(err, &ne) {
+			for i, a := range as {
+				if errs[i] == nil && a.File.Airframe == ne.Airframe {
+					errs[i], srcs[i] = err, nil
+				}
+			}
+		}
+	}
+	return srcs, warns, errs
+}
+
+// SourceNames returns the names of the files Generate writes for
+// airframe name with options o, in Generate's order.
+func SourceNames(airframe string, o CodeOptions) []string {
+	var ns []string
+	for _, f := range sourceFiles(airframe, o) {
+		ns = append(ns, f.name)
+	}
+	return ns
+}
+
+// sourceFiles lists the files of an airframe and their templates.
+func sourceFiles(airframe string, o CodeOptions) []struct{ name, tmpl string } {
+	type f = struct{ name, tmpl string }
+	var fs []f
+	switch o.Lang {
+	case LangC:
+		fs = append(fs, f{airframe + "_rate.h", "code_c_header"})
+		if !o.HeaderOnly {
+			fs = append(fs, f{airframe + "_rate.c", "code_c_source"})
+		}
+		if o.Vectors {
+			fs = append(fs, f{airframe + "_rate_vectors.c", "code_c_vectors"})
+		}
+	case LangGo:
+		fs = append(fs, f{airframe + "rate.go", "code_go"})
+		if o.Vectors {
+			fs = append(fs, f{airframe + "rate_vectors_test.go", "code_go_vectors"})
+		}
+	}
+	return fs
+}
+
+// render executes the templates of the unit's language.
+func (g *CodeGenerator) render(u *codeUnit) ([]Source, error) {
+	var out []Source
+	o := CodeOptions{Lang: u.Lang, HeaderOnly: u.HeaderOnly, Vectors: u.Vectors}
+	for _, f := range sourceFiles(u.Airframe, o) {
+		var b bytes.Buffer
+		if err := g.tmpl.ExecuteTemplate(&b, f.tmpl, u); err != nil {
+			return nil, fmt.Errorf("render %s: %w", f.name, err)
+		}
+		data := b.Bytes()
+		if u.Lang == LangGo {
+			fd, err := format.Source(data)
+			if err != nil {
+				return nil, fmt.Errorf("format %s: %w", f.name, err)
+			}
+			data = fd
+		}
+		out = append(out, Source{Name: f.name, Data: data})
+	}
+	return out, nil
+}
+
+// codeUnit is the data the templates render: one airframe, every value
+// already formatted for the target language, every piece of user text
+// already escaped.
+type codeUnit struct {
+	Version    string
+	Lang       Lang
+	HeaderOnly bool
+	Vectors    bool
+	Airframe   string // the airframe name, a checked identifier
+	Numeric    discrete.NumericType
+	Fixed      bool
+	// T is the sample type (float, double, int16_t, int32_t; Go float32,
+	// float64, int16, int32), Zero its zero literal.
+	T, Zero string
+	// Wide is the fixed-point accumulator type; StateT the type of the
+	// states (Wide for fixed point, T for float); Bits the sample width.
+	Wide, StateT string
+	Bits         int
+	// Helper names of the fixed-point code (see codefixed.go).
+	Rsh, Mul, MulW, SatAdd, SatShl string
+	// Which of them the axes use (an unused static function is a warning).
+	UsesMul, UsesMulW, UsesSatAdd, UsesSatShl bool
+	// Test vectors: the type of the expected value in C and Go (the bit
+	// pattern of a float, or the fixed-point sample), the printf width of
+	// a bit pattern in hex digits, and the math function giving the bits.
+	WantC, WantGo, HexWidth, GoBits string
+	// C names: the header file, its include guard, the clamp helper, and
+	// "static inline " for the header-only variant.
+	Header, Guard, Clamp, Linkage string
+	// GoPackage is <airframe>rate.
+	GoPackage string
+	// FirstLine is the "Code generated" line; Intro the comment lines after
+	// it (without the comment marker, "" for an empty comment line).
+	FirstLine string
+	Intro     []string
+	Axes      []*codeAxis
+}
+
+// codeAxis is one axis.
+type codeAxis struct {
+	U      *codeUnit // the airframe, for the templates
+	Name   string    // axis name
+	Prefix string    // C: <airframe>_<axis>
+	GoType string    // Go: the axis name with its first letter upper-cased
+	// Structure of the controller (see discrete.Coeffs).
+	Lead, HasI, HasD, DOnError, AWClamp, AWBackcalc bool
+	// HasE, HasUU and HasPending say which state fields the form uses:
+	// the last error, the last unsaturated command, the pending flag.
+	HasE, HasUU, HasPending bool
+	// Consts are the named constants in declaration order; the fields
+	// below hold the names of those the form uses ("" otherwise).
+	Consts                                   []codeConst
+	Kp, KpB, G0, G01, Kt, Ad, Bd, B0, B1, A1 string
+	Lo, Hi, IL                               string
+	Doc                                      []string // comment lines for the type
+	ResetDoc                                 []string // comment lines for the reset function
+	Vectors                                  []codeVector
+	VectorsName                              string
+	Fx                                       *codeFixed // fixed-point details; nil for float
+}
+
+// codeConst is one named constant.
+type codeConst struct {
+	Name, Value, Doc string
+	Type             string // Go: the constant's type
+	Pad              string // C: spaces that align the values
+}
+
+// codeVector is one entry of a test-vector table: Op 0 steps with
+// setpoint A and measurement B and expects Want; Op 1 calls _applied with
+// A; Op 2 calls _reset with output A and measurement B. A and B are
+// literals of the sample type; Want is the expected output's bit pattern
+// (floats) or value (fixed point).
+type codeVector struct {
+	Op      int
+	A, B    string
+	Want    string
+	Comment string
+}
+
+// Vector operations.
+const (
+	vecStep    = 0
+	vecApplied = 1
+	vecReset   = 2
+)
+
+// newCodeUnit builds the template data of airframe a.
+func newCodeUnit(a *Airframe, o CodeOptions) (*codeUnit, error) {
+	if a == nil || a.File == nil {
+		return nil, errors.New("no airframe")
+	}
+	f := a.File
+	u := &codeUnit{
+		Version: Version, Lang: o.Lang, HeaderOnly: o.HeaderOnly, Vectors: o.Vectors,
+		Airframe: f.Airframe, Numeric: f.Numeric.Type,
+	}
+	switch o.Lang {
+	case LangC, LangGo:
+	default:
+		return nil, fmt.Errorf("unknown language %q: must be c or go", o.Lang)
+	}
+	if o.HeaderOnly && o.Lang != LangC {
+		return nil, errors.New("header-only output is a C variant; it does not apply to Go")
+	}
+	if len(a.Axes) == 0 {
+		return nil, fmt.Errorf("%s: airframe %s has no axes", displayPath(f.Path), f.Airframe)
+	}
+	for _, x := range a.Axes {
+		if x.Design == nil {
+			err := x.Err
+			if err == nil {
+				err = errors.New("no design")
+			}
+			return nil, &DesignFailedError{Airframe: f.Airframe, Axis: x.Name, Err: err}
+		}
+	}
+	unmet := Unmet(a)
+	if len(unmet) > 0 && !o.AllowUnmet {
+		return nil, &UnmetError{Airframe: f.Airframe, File: displayPath(f.Path), Reasons: unmet}
+	}
+	u.Header = f.Airframe + "_rate.h"
+	u.Guard = strings.ToUpper(f.Airframe) + "_RATE_H"
+	u.Clamp = f.Airframe + "_clamp"
+	u.Rsh, u.Mul, u.MulW, u.SatAdd, u.SatShl = f.Airframe+"_rsh", f.Airframe+"_mul", f.Airframe+"_mulw", f.Airframe+"_satadd", f.Airframe+"_satshl"
+	if o.Lang == LangGo {
+		u.Clamp, u.Rsh, u.Mul, u.MulW, u.SatAdd, u.SatShl = "clamp", "rsh", "mul", "mulw", "satadd", "satshl"
+	}
+	if o.HeaderOnly {
+		u.Linkage = "static inline "
+	}
+	u.GoPackage = f.Airframe + "rate"
+	num, err := newCodeNumeric(u.Numeric, o.Lang)
+	if err != nil {
+		return nil, err
+	}
+	u.T, u.Zero, u.Wide, u.Bits, u.Fixed = num.t, num.zero, num.wide, num.bits, num.fixed
+	u.StateT = u.T
+	if u.Fixed {
+		u.StateT = u.Wide
+	}
+	switch {
+	case u.Fixed:
+		u.WantC, u.WantGo = num.t, num.t
+	case u.Bits == 32:
+		u.WantC, u.WantGo, u.HexWidth, u.GoBits = "uint32_t", "uint32", "08", "Float32bits"
+	default:
+		u.WantC, u.WantGo, u.HexWidth, u.GoBits = "uint64_t", "uint64", "016", "Float64bits"
+	}
+	for _, x := range a.Axes {
+		ax, err := newCodeAxis(u, num, x)
+		if err != nil {
+			return nil, err
+		}
+		u.Axes = append(u.Axes, ax)
+	}
+	u.FirstLine = fmt.Sprintf("// Code generated by locusmith %s from %s; DO NOT EDIT.", Version, displayPath(f.Path))
+	u.Intro = codeIntro(a, u, unmet)
+	return u, nil
+}
+
+// newCodeAxis builds the template data of one axis.
+func newCodeAxis(u *codeUnit, num codeNumeric, x Axis) (*codeAxis, error) {
+	d := x.Design
+	k := d.Coeffs
+	ax := &codeAxis{
+		U:      u,
+		Name:   x.Name,
+		Prefix: u.Airframe + "_" + x.Name,
+		GoType: strings.ToUpper(x.Name[:1]) + x.Name[1:],
+	}
+	switch k.Form {
+	case synth.FormP, synth.FormPI, synth.FormPD, synth.FormPID, synth.FormLead:
+	default:
+		return nil, fmt.Errorf("axis %s: unknown controller form %q", x.Name, k.Form)
+	}
+	ax.Lead = k.Form == synth.FormLead
+	ax.HasI = k.Form.HasIntegral()
+	ax.HasD = k.Form.HasDerivative()
+	ax.DOnError = ax.HasD && k.DerivativeOnError
+	if ax.HasI {
+		switch k.AntiWindup {
+		case discrete.AWNone:
+		case discrete.AWClamp:
+			ax.AWClamp = true
+		case discrete.AWBackcalc:
+			ax.AWBackcalc = true
+		default:
+			return nil, fmt.Errorf("axis %s: unknown anti-windup %q", x.Name, k.AntiWindup)
+		}
+	}
+	ax.HasE = ax.HasI || ax.Lead
+	ax.HasPending = ax.HasE
+	ax.HasUU = ax.Lead || ax.AWClamp || ax.AWBackcalc
+	ax.Doc = axisDoc(u, x)
+	if u.Lang == LangGo {
+		ax.ResetDoc = resetDoc("Reset", ax)
+	} else {
+		ax.ResetDoc = resetDoc(ax.Prefix+"_reset", ax)
+	}
+	ax.VectorsName = "vectors" + ax.GoType
+	if u.Lang == LangC {
+		ax.VectorsName = ax.Prefix + "_vectors"
+	}
+	if err := num.consts(u, ax, d); err != nil {
+		return nil, fmt.Errorf("axis %s: %w", x.Name, err)
+	}
+	if u.Lang == LangC {
+		w := 0
+		for _, c := range ax.Consts {
+			w = max(w, len(c.Name))
+		}
+		for i := range ax.Consts {
+			ax.Consts[i].Pad = strings.Repeat(" ", w-len(ax.Consts[i].Name))
+		}
+	}
+	if u.Vectors {
+		vs, err := num.vectors(u, ax, d)
+		if err != nil {
+			return nil, fmt.Errorf("axis %s: test vectors: %w", x.Name, err)
+		}
+		ax.Vectors = vs
+	}
+	return ax, nil
+}
+
+// constName returns the language's name of constant role r of axis ax:
+// C <AIRFRAME>_<AXIS>_<ROLE>, Go <Axis><Role>.
+func constName(u *codeUnit, ax *codeAxis, c, g string) string {
+	if u.Lang == LangGo {
+		return ax.GoType + g
+	}
+	return strings.ToUpper(ax.Prefix) + "_" + c
+}
+
+// StepOps is the number of arithmetic operations one step of the
+// controller with coefficients k needs, as the difference equations of
+// discrete.Coeffs write them (the same for every numeric type; fixed point
+// adds the rounding of each product): the yardstick for the instruction
+// counts of the generated code.
+func StepOps(k discrete.Coeffs) int {
+	ax := &codeAxis{Lead: k.Form == synth.FormLead, HasI: k.Form.HasIntegral(), HasD: k.Form.HasDerivative()}
+	ax.DOnError = ax.HasD && k.DerivativeOnError
+	ax.AWClamp = ax.HasI && k.AntiWindup == discrete.AWClamp
+	ax.AWBackcalc = ax.HasI && k.AntiWindup == discrete.AWBackcalc
+	return arithmeticOps(ax)
+}
+
+// arithmeticOps counts the operations of one step: additions,
+// subtractions, multiplications and negations, and the comparisons of the
+// clamps and of conditional integration, one each.
+func arithmeticOps(ax *codeAxis) int {
+	const clampOps = 2 // two comparisons
+	if ax.Lead {
+		// x = B1·e − A1·ul (3), e = r − y (1), ul = B0·e + x (2), clamp.
+		return 3 + 1 + 2 + clampOps
+	}
+	n := 3 // KpB·r − Kp·y
+	if ax.HasI {
+		n += 1 + 3 // e; + (s + G0·e)
+		n++        // G01·e
+		switch {
+		case ax.AWClamp:
+			n += 4 // four comparisons
+		case ax.AWBackcalc:
+			n += 3 // + Kt·(ua − uu)
+		}
+		n += 1 + clampOps // s + inc, clamp
+	}
+	if ax.HasD {
+		if ax.DOnError && !ax.HasI {
+			n++ // e
+		}
+		if !ax.DOnError {
+			n++ // −y
+		}
+		n += 4 + 1 // Ad·ud + Bd·(v − vp); + ud
+	}
+	return n + clampOps
+}

@@ -1,0 +1,493 @@
+package golden
+
+import (
+	"bytes"
+	"fmt"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"strings"
+	"testing"
+
+	"locusmith/discrete"
+	"locusmith/emit"
+)
+
+// goldenSources reads the golden files of one example and variant: the
+// compile tests build exactly what is committed (TestGolden holds them
+// equal to what the generator makes).
+func goldenSources(t *testing.T, p string, v variant) []emit.Source {
+	t.Helper()
+	dir := filepath.Join("testdata", exampleName(p), v.dir())
+	es, err := os.ReadDir(dir)
+	if err != nil {
+		t.Fatalf("%v (go test ./golden -update creates the golden files)", err)
+	}
+	var srcs []emit.Source
+	for _, e := range es {
+		b, err := os.ReadFile(filepath.Join(dir, e.Name()))
+		if err != nil {
+			t.Fatal(err)
+		}
+		srcs = append(srcs, emit.Source{Name: e.Name(), Data: b})
+	}
+	return srcs
+}
+
+// usageTU is a translation unit that includes the header and calls every
+// function, so that a header-only build instantiates all of them.
+func usageTU(t *testing.T, srcs []emit.Source, fn string) emit.Source {
+	t.Helper()
+	h := headerOf(srcs)
+	text := string(sourceNamed(srcs, h).Data)
+	prefixes := regexp.MustCompile(`(?m)^\} ([a-z0-9_]+)_state;$`).FindAllStringSubmatch(text, -1)
+	if len(prefixes) == 0 {
+		t.Fatalf("%s declares no state type", h)
+	}
+	typ := regexp.MustCompile(`(?m)^(?:static inline )?(\w+) [a-z0-9_]+_step\(`).FindStringSubmatch(text)
+	if typ == nil {
+		t.Fatalf("%s declares no step function", h)
+	}
+	var b strings.Builder
+	fmt.Fprintf(&b, "#include \"%s\"\n\n%s %s(%s r, %s y);\n%s %s(%s r, %s y)\n{\n\t%s u = r;\n", h, typ[1], fn, typ[1], typ[1], typ[1], fn, typ[1], typ[1], typ[1])
+	for _, m := range prefixes {
+		p := m[1]
+		fmt.Fprintf(&b, "\t{\n\t\t%s_state s;\n\t\t%s_reset(&s, u, y);\n\t\tu = %s_step(&s, r, y);\n\t\t%s_applied(&s, u);\n\t}\n", p, p, p, p)
+	}
+	b.WriteString("\treturn u;\n}\n")
+	return emit.Source{Name: fn + ".c", Data: []byte(b.String())}
+}
+
+func sourceNamed(srcs []emit.Source, name string) emit.Source {
+	for _, s := range srcs {
+		if s.Name == name {
+			return s
+		}
+	}
+	return emit.Source{}
+}
+
+// TestCompileGoldenC builds every golden C file with the host compilers
+// and the strict flags, at -O0 and -O2. The header-only variant is
+// included from two translation units linked together, which fails if a
+// function had external linkage.
+func TestCompileGoldenC(t *testing.T) {
+	ccs := hostCompilers(t)
+	for _, p := range examplePaths(t) {
+		for _, v := range variants() {
+			if v.lang != emit.LangC {
+				continue
+			}
+			t.Run(exampleName(p)+"/"+v.dir(), func(t *testing.T) {
+				srcs := goldenSources(t, p, v)
+				ctrl, _ := cFiles(srcs)
+				srcs = append(srcs, usageTU(t, srcs, "use_one"), usageTU(t, srcs, "use_two"))
+				dir := writeSources(t, srcs)
+				main := emit.Source{Name: "main.c", Data: []byte("int main(void)\n{\n\treturn 0;\n}\n")}
+				if err := os.WriteFile(filepath.Join(dir, main.Name), main.Data, 0o644); err != nil {
+					t.Fatal(err)
+				}
+				for _, cc := range ccs {
+					for _, opt := range []string{"-O0", "-O2"} {
+						args := append(append([]string{}, strictC...), opt, "-o", "prog")
+						args = append(args, ctrl...)
+						args = append(args, "use_one.c", "use_two.c", "main.c")
+						run(t, dir, cc, args...)
+					}
+				}
+				// C++ code includes the header too (extern "C" for the
+				// prototypes; the header-only functions as C++).
+				for _, cxx := range []string{"g++", "clang++"} {
+					if p, err := exec.LookPath(cxx); err == nil {
+						run(t, dir, p, "-x", "c++", "-std=c++11", "-Wall", "-Wextra", "-Werror", "-c", "-o", "use_one_cxx.o", "use_one.c")
+					}
+				}
+			})
+		}
+	}
+}
+
+// TestCVectors builds the test-vector program of every example × C
+// variant with the host compilers (-O0 and -O2, strict flags, ISO C99 so
+// no floating-point contraction) and runs it: every output must equal the
+// reference model's bit for bit. A corrupted vector must make the program
+// fail, or the check could not fail.
+func TestCVectors(t *testing.T) {
+	ccs := hostCompilers(t)
+	for _, p := range examplePaths(t) {
+		for _, v := range variants() {
+			if v.lang != emit.LangC {
+				continue
+			}
+			t.Run(exampleName(p)+"/"+v.dir(), func(t *testing.T) {
+				v.vectors = true
+				srcs := generate(t, p, v)
+				dir := writeSources(t, srcs)
+				ctrl, vec := cFiles(srcs)
+				if len(vec) != 1 {
+					t.Fatalf("vector programs: %v", vec)
+				}
+				for _, cc := range ccs {
+					for _, opt := range []string{"-O0", "-O2"} {
+						args := append(append([]string{}, strictC...), opt, "-o", "vectors")
+						args = append(args, vec[0])
+						args = append(args, ctrl...)
+						run(t, dir, cc, args...)
+						out := run(t, dir, filepath.Join(dir, "vectors"))
+						if !strings.Contains(out, "vectors match") {
+							t.Errorf("%s %s: vector program printed %q", filepath.Base(cc), opt, out)
+						}
+					}
+				}
+				// One flipped expectation must be caught.
+				bad := corruptVector(t, sourceNamed(srcs, vec[0]).Data)
+				if err := os.WriteFile(filepath.Join(dir, vec[0]), bad, 0o644); err != nil {
+					t.Fatal(err)
+				}
+				args := append(append([]string{}, strictC...), "-O2", "-o", "vectors_bad", vec[0])
+				args = append(args, ctrl...)
+				run(t, dir, ccs[0], args...)
+				if out, err := runErr(dir, filepath.Join(dir, "vectors_bad")); err == nil {
+					t.Errorf("vector program with a corrupted expectation exited 0: %s", out)
+				}
+			})
+		}
+	}
+}
+
+// corruptVector changes the expected value of the 40th step vector of the
+// first table by one unit in its last place (or one LSB).
+func corruptVector(t *testing.T, src []byte) []byte {
+	t.Helper()
+	re := regexp.MustCompile(`(?m)^\t\{ 0, [^,]+, [^,]+, (?:UINT64_C\()?(0x[0-9a-f]+|-?[0-9]+)`)
+	locs := re.FindAllSubmatchIndex(src, 40)
+	if len(locs) < 40 {
+		t.Fatalf("fewer than 40 step vectors")
+	}
+	l := locs[39]
+	val := string(src[l[2]:l[3]])
+	var repl string
+	if strings.HasPrefix(val, "0x") {
+		last := val[len(val)-1]
+		nl := byte('1')
+		if last == '1' {
+			nl = '0'
+		}
+		repl = val[:len(val)-1] + string(nl)
+	} else if val == "0" {
+		repl = "1"
+	} else {
+		repl = "0"
+	}
+	out := append([]byte{}, src[:l[2]]...)
+	out = append(out, repl...)
+	return append(out, src[l[3]:]...)
+}
+
+// forbiddenARM are the run-time helper symbols that must not appear in
+// controller objects: double-precision soft float (__aeabi_d*), single
+// precision soft float on the M4F (__aeabi_f*, which would mean the FPU
+// is not used), 64-bit division (__aeabi_ldivmod, __aeabi_uldivmod), and
+// any other division helper (__aeabi_idiv*, __aeabi_uidiv*: the
+// fixed-point code must not divide). Names from the ARM run-time ABI
+// (RTABI, "the standard compiler helper function library", from memory).
+var forbiddenARM = regexp.MustCompile(`__aeabi_(d[a-z0-9]*|f[a-z0-9]*|ldivmod|uldivmod|idiv[a-z0-9]*|uidiv[a-z0-9]*|l2d|l2f|ul2d|ul2f|i2d|ui2d|i2f|ui2f)$|^(__aeabi_|__)?(div|mod)[sdt]i3$`)
+
+// armObject compiles the controller of srcs (and a usage unit for the
+// header-only variant) for a Cortex-M target and returns the object file
+// paths.
+func armObjects(t *testing.T, cc string, flags []string, srcs []emit.Source) (string, []string) {
+	t.Helper()
+	ctrl, _ := cFiles(srcs)
+	if len(ctrl) == 0 {
+		srcs = append(srcs, usageTU(t, srcs, "use_one"))
+		ctrl = []string{"use_one.c"}
+	}
+	dir := writeSources(t, srcs)
+	var objs []string
+	for _, c := range ctrl {
+		o := strings.TrimSuffix(c, ".c") + ".o"
+		args := append(append(append([]string{}, strictC...), flags...), "-O2", "-c", "-o", o, c)
+		run(t, dir, cc, args...)
+		objs = append(objs, o)
+	}
+	return dir, objs
+}
+
+// TestARMNoHelpers builds the float32 code for the Cortex-M4F and the q15
+// code for the Cortex-M0 and checks with arm-none-eabi-nm -u that the
+// objects call no soft-float, double or division helper.
+func TestARMNoHelpers(t *testing.T) {
+	cc := tool(t, "arm-none-eabi-gcc", "gcc-arm-none-eabi")
+	nm := tool(t, "arm-none-eabi-nm", "binutils-arm-none-eabi")
+	cases := []struct {
+		target string
+		flags  []string
+		vs     []variant
+	}{
+		{"cortex-m4f", m4f, []variant{{name: "float32", lang: emit.LangC}, {name: "header-only", lang: emit.LangC}}},
+		{"cortex-m0", m0, []variant{{name: "q15", lang: emit.LangC}}},
+	}
+	for _, p := range examplePaths(t) {
+		for _, c := range cases {
+			for _, v := range c.vs {
+				if v.name == "header-only" && design(t, p, "").File.Numeric.Type != "float32" {
+					continue // the M4F build is for float32 code
+				}
+				t.Run(exampleName(p)+"/"+c.target+"/"+v.dir(), func(t *testing.T) {
+					dir, objs := armObjects(t, cc, c.flags, goldenSources(t, p, v))
+					for _, o := range objs {
+						out := run(t, dir, nm, "-u", o)
+						for _, sym := range strings.Fields(out) {
+							if sym == "U" {
+								continue
+							}
+							if forbiddenARM.MatchString(sym) {
+								t.Errorf("%s %s needs %s", c.target, o, sym)
+							} else {
+								t.Errorf("%s %s calls %s: generated code makes no library calls", c.target, o, sym)
+							}
+						}
+					}
+				})
+			}
+		}
+	}
+}
+
+// TestForbiddenPatternCatchesHelpers checks the symbol pattern itself on
+// code that does need the helpers, so that TestARMNoHelpers can fail.
+func TestForbiddenPatternCatchesHelpers(t *testing.T) {
+	cc := tool(t, "arm-none-eabi-gcc", "gcc-arm-none-eabi")
+	nm := tool(t, "arm-none-eabi-nm", "binutils-arm-none-eabi")
+	src := emit.Source{Name: "h.c", Data: []byte(`#include <stdint.h>
+double d(double a, double b);
+double d(double a, double b) { return a * b; }
+int64_t q(int64_t a, int64_t b);
+int64_t q(int64_t a, int64_t b) { return a / b; }
+int32_t i(int32_t a, int32_t b);
+int32_t i(int32_t a, int32_t b) { return a / b; }
+float f(float a, float b);
+float f(float a, float b) { return a * b; }
+`)}
+	dir := writeSources(t, []emit.Source{src})
+	run(t, dir, cc, append(append([]string{}, m0...), "-O2", "-c", "-o", "h.o", "h.c")...)
+	out := run(t, dir, nm, "-u", "h.o")
+	n := 0
+	for _, sym := range strings.Fields(out) {
+		if forbiddenARM.MatchString(sym) {
+			n++
+		}
+	}
+	if n < 4 {
+		t.Errorf("pattern found %d helpers in %q, want 4 (double mul, 64-bit div, 32-bit div, float mul)", n, out)
+	}
+}
+
+// armStub runs a Cortex-M program under qemu-arm's Linux user mode: no C
+// library, _start calls main and passes its status to the exit system
+// call (ARM EABI: svc 0, number in r7, 1 = exit); printf and puts write
+// the format string as it is (enough to see which axis failed).
+const armStub = `#include <stdarg.h>
+int main(void);
+void _start(void);
+int printf(const char *fmt, ...);
+int puts(const char *s);
+static long sys(long n, long a, long b, long c)
+{
+	register long r0 __asm__("r0") = a;
+	register long r1 __asm__("r1") = b;
+	register long r2 __asm__("r2") = c;
+	register long r7 __asm__("r7") = n;
+	__asm__ volatile("svc 0" : "+r"(r0) : "r"(r1), "r"(r2), "r"(r7) : "memory");
+	return r0;
+}
+static unsigned long len(const char *s)
+{
+	unsigned long n = 0;
+	while (s[n] != 0) {
+		n++;
+	}
+	return n;
+}
+int printf(const char *fmt, ...)
+{
+	return (int)sys(4, 1, (long)fmt, (long)len(fmt));
+}
+int puts(const char *s)
+{
+	return (int)sys(4, 1, (long)s, (long)len(s));
+}
+void _start(void)
+{
+	sys(1, main(), 0, 0);
+	for (;;) {
+	}
+}
+`
+
+// TestARMVectors runs the vector programs on the ARM instruction set:
+// the float32 code built for the Cortex-M4F (its FPU instructions are
+// those of ARMv7 VFPv4, which qemu-arm executes) and the q15 code built
+// for the Cortex-M0, each under qemu-arm. Bit-exact results there show
+// that the cross compiler's code rounds like the reference model.
+func TestARMVectors(t *testing.T) {
+	cc := tool(t, "arm-none-eabi-gcc", "gcc-arm-none-eabi")
+	qemu := tool(t, "qemu-arm", "qemu-user")
+	cases := []struct {
+		target string
+		flags  []string
+		v      variant
+	}{
+		{"cortex-m4f", m4f, variant{name: "float32", lang: emit.LangC, numeric: "float32"}},
+		{"cortex-m0", m0, variant{name: "q15", lang: emit.LangC, numeric: "q15"}},
+	}
+	for _, p := range examplePaths(t) {
+		for _, c := range cases {
+			t.Run(exampleName(p)+"/"+c.target, func(t *testing.T) {
+				v := c.v
+				v.vectors = true
+				srcs := generate(t, p, v)
+				srcs = append(srcs, emit.Source{Name: "stub.c", Data: []byte(armStub)})
+				dir := writeSources(t, srcs)
+				ctrl, vec := cFiles(srcs)
+				args := append(append([]string{}, c.flags...), "-std=c99", "-O2", "-ffreestanding", "-nostdlib", "-static",
+					"-Wl,-e,_start", "-Wl,--no-warn-rwx-segments", "-o", "vectors.elf", vec[0])
+				args = append(args, ctrl...)
+				out, err := runErr(dir, cc, append(args, "-lgcc")...)
+				if err != nil {
+					t.Fatalf("%s: %v\n%s", cc, err, out)
+				}
+				out, err = runErr(dir, qemu, "-cpu", "max", filepath.Join(dir, "vectors.elf"))
+				if err != nil {
+					t.Fatalf("vector program under qemu-arm: %v\n%s", err, out)
+				}
+				if !strings.Contains(out, "vectors match") {
+					t.Errorf("vector program printed %q", out)
+				}
+			})
+		}
+	}
+}
+
+// stepSize is the static instruction count of one function of an objdump
+// listing: all instructions (literal pool words not counted), the
+// arithmetic ones (data processing and compares, of the core or the FPU),
+// and any fused multiply-add.
+type stepSize struct {
+	all, arith, fused, div int
+}
+
+// armArith matches the mnemonics of arithmetic instructions (Thumb-2 and
+// FPv4, optional condition and .f32/.w suffixes): add, subtract, reverse
+// subtract, multiply (and long multiply), negate, shifts, logical and,
+// compare, and the FPU's vadd/vsub/vmul/vneg/vcmp and the fused
+// multiply-adds, which are listed apart as well.
+var (
+	armArith = regexp.MustCompile(`^(adds?|adcs?|subs?|sbcs?|rsbs?|muls?|mla|mls|smull|umull|smlal|negs?|asrs?|lsls?|lsrs?|ands?|cmp|cmn|v(add|sub|mul|neg|cmpe?|fma|fms|fnma|fnms|nmul|mla|mls))(eq|ne|cs|cc|mi|pl|vs|vc|hi|ls|ge|lt|gt|le)?(\.f32|\.w)?$`)
+	armFused = regexp.MustCompile(`^v(fma|fms|fnma|fnms|mla|mls|nmla|nmls)`)
+	armDiv   = regexp.MustCompile(`^(sdiv|udiv|vdiv|vsqrt)`)
+)
+
+// stepSizes returns the size of each *_step function in an objdump -d
+// listing.
+func stepSizes(listing string) map[string]stepSize {
+	sizes := map[string]stepSize{}
+	cur := ""
+	head := regexp.MustCompile(`^[0-9a-f]+ <([A-Za-z0-9_]+)>:$`)
+	insn := regexp.MustCompile(`^\s+[0-9a-f]+:\t[0-9a-f ]+\t(\S+)`)
+	for _, l := range strings.Split(listing, "\n") {
+		if m := head.FindStringSubmatch(l); m != nil {
+			cur = ""
+			if strings.HasSuffix(m[1], "_step") {
+				cur = m[1]
+			}
+			continue
+		}
+		if cur == "" {
+			continue
+		}
+		if m := insn.FindStringSubmatch(l); m != nil && !strings.HasPrefix(m[1], ".") {
+			sz := sizes[cur]
+			sz.all++
+			if armArith.MatchString(m[1]) {
+				sz.arith++
+			}
+			if armFused.MatchString(m[1]) {
+				sz.fused++
+			}
+			if armDiv.MatchString(m[1]) {
+				sz.div++
+			}
+			sizes[cur] = sz
+		}
+	}
+	return sizes
+}
+
+// TestStepInstructionCounts reports the static instruction count of each
+// generated _step for the Cortex-M4F at -O2 (from arm-none-eabi-objdump
+// -d) beside the arithmetic operations of the controller's difference
+// equations; the figures go into the README. The totals include the loads
+// and stores of the state and of the constants (literal pool) and both
+// paths of every branch; the arithmetic instructions alone are counted
+// apart. It checks that the float code has no fused multiply-add (the
+// compiler must not contract a*b + c, or the results would differ from
+// the reference model), that no step divides, and that the listing parse
+// found the operations.
+// Speed itself is for benchmarks.
+func TestStepInstructionCounts(t *testing.T) {
+	cc := tool(t, "arm-none-eabi-gcc", "gcc-arm-none-eabi")
+	objdump := tool(t, "arm-none-eabi-objdump", "binutils-arm-none-eabi")
+	var table bytes.Buffer
+	fmt.Fprintf(&table, "| example | function | numeric | instructions | of them arithmetic | arithmetic ops of the equations | instructions / ops |\n|---|---|---|---|---|---|---|\n")
+	for _, p := range examplePaths(t) {
+		for _, nt := range []string{"float32", "q15"} {
+			v := variant{name: nt, lang: emit.LangC, numeric: discrete.NumericType(nt)}
+			dir, objs := armObjects(t, cc, m4f, goldenSources(t, p, v))
+			sizes := stepSizes(run(t, dir, objdump, "-d", objs[0]))
+			a := design(t, p, v.numeric)
+			for _, x := range a.Axes {
+				fn := a.File.Airframe + "_" + x.Name + "_step"
+				sz, ok := sizes[fn]
+				if !ok {
+					t.Errorf("%s not found in the listing", fn)
+					continue
+				}
+				ops := emit.StepOps(x.Design.Coeffs)
+				if sz.arith < ops/2 {
+					t.Errorf("%s: %d arithmetic instructions for %d operations: the listing parse is wrong", fn, sz.arith, ops)
+				}
+				if sz.div > 0 {
+					t.Errorf("%s: %d division instructions: the controller never divides", fn, sz.div)
+				}
+				if nt == "float32" && sz.fused > 0 {
+					t.Errorf("%s: %d fused multiply-add instructions: the float code must round every product", fn, sz.fused)
+				}
+				fmt.Fprintf(&table, "| %s | `%s` | %s | %d | %d | %d | %.2f |\n", exampleName(p), fn, nt, sz.all, sz.arith, ops, float64(sz.all)/float64(ops))
+			}
+		}
+	}
+	t.Logf("static instruction counts, Cortex-M4F, arm-none-eabi-gcc -O2:\n%s", table.String())
+	if out := os.Getenv("LOCUSMITH_COUNTS"); out != "" {
+		if err := os.WriteFile(out, table.Bytes(), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
+// TestFusedDetection checks that the listing parse sees a fused
+// multiply-add where GNU C contracts one (-std=gnu99), so that the check
+// above can fail.
+func TestFusedDetection(t *testing.T) {
+	cc := tool(t, "arm-none-eabi-gcc", "gcc-arm-none-eabi")
+	objdump := tool(t, "arm-none-eabi-objdump", "binutils-arm-none-eabi")
+	src := emit.Source{Name: "f.c", Data: []byte("float x_step(float a, float b, float c);\nfloat x_step(float a, float b, float c) { return a * b + c; }\n")}
+	dir := writeSources(t, []emit.Source{src})
+	run(t, dir, cc, append(append([]string{}, m4f...), "-std=gnu99", "-O2", "-c", "-o", "f.o", "f.c")...)
+	sz := stepSizes(run(t, dir, objdump, "-d", "f.o"))["x_step"]
+	if sz.fused != 1 || sz.arith != 1 {
+		t.Errorf("parse of a*b + c under -std=gnu99: %+v, want one fused arithmetic instruction", sz)
+	}
+}
