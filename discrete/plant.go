@@ -39,19 +39,13 @@ type Plant struct {
 
 // NewPlant samples the problem's plant and sensor at period T.
 func NewPlant(p synth.Problem, T float64) (Plant, error) {
-	g, err := p.Plant.Model.TF()
+	// Section-by-section realizations keep the matrix exponential
+	// accurate (see lti.ZPK.CascadeSS).
+	gs, err := p.Plant.Model.CascadeSS()
 	if err != nil {
 		return Plant{}, fmt.Errorf("plant: %w", err)
 	}
-	h, err := p.Sensor.TF()
-	if err != nil {
-		return Plant{}, fmt.Errorf("sensor: %w", err)
-	}
-	gs, err := g.SS()
-	if err != nil {
-		return Plant{}, fmt.Errorf("plant: %w", err)
-	}
-	hs, err := h.SS()
+	hs, err := p.Sensor.CascadeSS()
 	if err != nil {
 		return Plant{}, fmt.Errorf("sensor: %w", err)
 	}

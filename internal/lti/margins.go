@@ -52,7 +52,8 @@ func finiteNZ(z complex128) bool {
 //
 // Every sign change of ln|L| (gain crossover) and every crossing of the
 // unwrapped phase through −180° + k·360° for any integer k (phase crossover)
-// is bracketed and refined by bisection in log ω to 1e-11 relative in ω.
+// is bracketed and refined by bisection in log ω to 1e-11 relative in ω,
+// then by one secant step.
 //
 //   - Gain margin at a phase crossover ω_p: −20·log10|L(jω_p)| dB. Of several,
 //     the one with the smallest absolute value is reported (ties: the lowest
@@ -188,6 +189,15 @@ func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margin
 				a, fa = mid, fm
 			} else {
 				b = mid
+			}
+		}
+		// One secant step on the final bracket takes a smooth f from
+		// 1e-11 to near machine precision, so the crossing no longer
+		// depends on where the bisection stopped (which differs between
+		// CPUs in the last bits of f).
+		if fb := f(b); fb != fa && !math.IsNaN(fb) {
+			if x := a - fa*(b-a)/(fb-fa); x >= a && x <= b {
+				return x
 			}
 		}
 		return 0.5 * (a + b)

@@ -1,0 +1,45 @@
+package lti
+
+import (
+	"math/cmplx"
+	"testing"
+)
+
+// The cascade realization has the model's frequency response (against the
+// zero-pole-gain formula evaluated directly) and its poles.
+func TestCascadeSS(t *testing.T) {
+	cases := []ZPK{
+		{Gain: 2e9, Poles: []complex128{0, -25, complex(-300, 400), complex(-300, -400)}},
+		{Gain: 66667, Poles: []complex128{0, -33.3}},
+		{Gain: 500, Poles: []complex128{-5, -50}, Zeros: []complex128{-20}},
+		{Gain: 3, Poles: []complex128{-1, -2, -3}, Zeros: []complex128{complex(-1, 2), complex(-1, -2)}},
+		{Gain: 7, Poles: []complex128{complex(-2, 5), complex(-2, -5), -4}, Zeros: []complex128{-1, -3, -6}},
+		{Gain: 1, Poles: []complex128{0, 0}},
+		{Gain: -2, Poles: []complex128{-1}, Zeros: []complex128{1}},
+		{Gain: 1},
+	}
+	for i, z := range cases {
+		s, err := z.CascadeSS()
+		if err != nil {
+			t.Fatalf("case %d: %v", i, err)
+		}
+		for _, w := range []complex128{complex(0, 0.1), complex(0, 7), complex(0, 900), complex(-0.5, 3)} {
+			want := z.Eval(w)
+			if got := s.Eval(w); cmplx.Abs(got-want) > 1e-12*cmplx.Abs(want) {
+				t.Errorf("case %d at %v: %v, want %v", i, w, got, want)
+			}
+		}
+		ps, err := s.Poles()
+		if err != nil {
+			t.Fatal(err)
+		}
+		want := append([]complex128(nil), z.Poles...)
+		SortRoots(want)
+		if d := matchRoots(ps, want); d > 1e-9 {
+			t.Errorf("case %d: poles %v, want %v", i, ps, want)
+		}
+	}
+	if _, err := (ZPK{Gain: 1, Poles: []complex128{-1}, Zeros: []complex128{-1, -2}}).CascadeSS(); err == nil {
+		t.Error("improper model accepted")
+	}
+}
