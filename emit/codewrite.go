@@ -66,6 +66,16 @@ func safeName(name string) error {
 // removed again).
 func CheckOutputDir(dir string, write bool) error {
 	st, err := os.Stat(dir)
+	if write && errors.Is(err, fs.ErrNotExist) {
+		// A missing directory is made by WriteSources (MakeOutputDir),
+		// once there is something to write, if its parent exists and is
+		// writable; a missing parent is a mistake in the path.
+		parent := filepath.Dir(filepath.Clean(dir))
+		if pst, perr := os.Stat(parent); perr != nil || !pst.IsDir() {
+			return fmt.Errorf("output directory %s: neither it nor its parent %s exists", dir, parent)
+		}
+		return CheckOutputDir(parent, true)
+	}
 	if err != nil {
 		return fmt.Errorf("output directory: %w", err)
 	}
@@ -95,7 +105,20 @@ func CheckOutputDir(dir string, write bool) error {
 // nothing was renamed: every old file is intact, and no temporary file is
 // left behind.
 func WriteSources(dir string, srcs []Source) ([]string, error) {
+	if len(srcs) > 0 {
+		if err := MakeOutputDir(dir); err != nil {
+			return nil, err
+		}
+	}
 	return writeSources(osFS{}, dir, srcs)
+}
+
+// MakeOutputDir creates dir if it is missing (not its parents).
+func MakeOutputDir(dir string) error {
+	if err := os.Mkdir(dir, 0o755); err != nil && !errors.Is(err, fs.ErrExist) {
+		return fmt.Errorf("output directory: %w", err)
+	}
+	return nil
 }
 
 func writeSources(fsys writeFS, dir string, srcs []Source) (written []string, err error) {

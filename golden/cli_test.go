@@ -219,7 +219,8 @@ func TestCLIEmitBadInput(t *testing.T) {
 		msg  string
 	}{
 		{"no -o", []string{"examples/rover.toml"}, "-o DIR is required"},
-		{"missing -o dir", []string{"-o", "nowhere", "examples/rover.toml"}, "output directory"},
+		{"missing -o parent", []string{"-o", "nowhere/gen", "examples/rover.toml"}, "neither it nor its parent"},
+		{"missing -o dir with --check", []string{"-o", "nowhere", "--check", "examples/rover.toml"}, "output directory"},
 		{"-o is a file", []string{"-o", "afile", "examples/rover.toml"}, "not a directory"},
 		{"unknown --lang", []string{"-o", "gen", "--lang", "rust", "examples/rover.toml"}, `--lang "rust"`},
 		{"header-only Go", []string{"-o", "gen", "--lang", "go", "--c-header-only", "examples/rover.toml"}, "--c-header-only"},
@@ -283,5 +284,28 @@ func TestCLIEmitGo(t *testing.T) {
 	}
 	if got := listDir(t, filepath.Join(dir, "gen")); strings.Join(got, " ") != "sandpiperrate.go sandpiperrate_vectors_test.go" {
 		t.Errorf("wrote %v", got)
+	}
+}
+
+// The README's main command works on a fresh checkout: emit makes a
+// missing output directory (not its parents) and writes into it.
+func TestEmitMakesOutputDir(t *testing.T) {
+	dir := t.TempDir()
+	if err := os.MkdirAll(filepath.Join(dir, "examples"), 0o755); err != nil {
+		t.Fatal(err)
+	}
+	src, err := os.ReadFile(filepath.Join("..", "examples", "rover.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(filepath.Join(dir, "examples", "rover.toml"), src, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out, code := emitCLI(t, dir, "-o", "gen", "examples/rover.toml")
+	if code != 0 {
+		t.Fatalf("exit %d\n%s", code, out)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "gen", "burrow_rate.c")); err != nil {
+		t.Errorf("gen/burrow_rate.c not written: %v\n%s", err, out)
 	}
 }

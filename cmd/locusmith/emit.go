@@ -58,7 +58,7 @@ Examples:
 // runEmit is the emit verb.
 func runEmit(args []string, stdout, stderr io.Writer) int {
 	fs, help := newFlagSet("emit")
-	out := fs.StringP("out", "o", "", "output directory (must exist)")
+	out := fs.StringP("out", "o", "", "output directory (made if missing; its parent must exist)")
 	lang := fs.String("lang", "c", "language of the generated code: c or go")
 	headerOnly := fs.Bool("c-header-only", false, "C: one header of static inline functions instead of .h and .c")
 	vectors := fs.Bool("vectors", false, "also write the test-vector program")
