@@ -29,7 +29,8 @@ so a failed run never leaves a partial file.
 
 An airframe whose design checks fail (spec unmet, unstable, possible
 overflow) is not written, and the exit status is 1; --allow-unmet writes it
-anyway with a warning in its header, and exits 0.
+anyway with a warning in its header, and the exit status is still 1 (the
+checks did fail; a build that must go on can ignore that status).
 
 --vectors also writes a test-vector program (<airframe>_rate_vectors.c, or
 <airframe>rate_vectors_test.go) that runs the generated code on a standard
@@ -142,6 +143,7 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 				fmt.Fprintf(stderr, "%s: %s\n", path, r)
 			}
 			fmt.Fprintf(stderr, "%s: warning: airframe %s fails its design checks; written because of --allow-unmet, and marked so in its header\n", path, a.File.Airframe)
+			code = worst(code, exitUnmet)
 		}
 		all = append(all, srcs[i]...)
 	}
