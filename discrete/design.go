@@ -200,3 +200,31 @@ func reachLimit(p synth.Problem, k Coeffs) float64 {
 	}
 	return k.IL / need
 }
+
+// DropTraces releases the simulated responses of the design, keeping the
+// last sample of each (the end value the reports quote for a response
+// that did not settle). A batch that only needs figures calls it so that
+// memory does not grow with the samples of every axis.
+func (d *Design) DropTraces() {
+	last := func(y []float64) []float64 {
+		if len(y) == 0 {
+			return nil
+		}
+		return []float64{y[len(y)-1]}
+	}
+	v := &d.Verif
+	v.Y, v.U = last(v.Y), last(v.U)
+	s := &v.Saturated
+	s.Y, s.YNone, s.U, s.UNone = last(s.Y), last(s.YNone), last(s.U), last(s.UNone)
+	if d.Cont != nil {
+		d.Cont.Verif.Y = last(d.Cont.Verif.Y)
+		if d.Cont.Textbook != nil {
+			d.Cont.Textbook.Verif.Y = last(d.Cont.Textbook.Verif.Y)
+		}
+	}
+	if d.Num != nil && d.Num.Quantized != nil {
+		q := d.Num.Quantized
+		q.Y, q.U = last(q.Y), last(q.U)
+		q.Saturated.Y, q.Saturated.YNone, q.Saturated.U, q.Saturated.UNone = last(q.Saturated.Y), last(q.Saturated.YNone), last(q.Saturated.U), last(q.Saturated.UNone)
+	}
+}

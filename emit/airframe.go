@@ -5,6 +5,8 @@ package emit
 
 import (
 	"errors"
+	"fmt"
+	"sync"
 
 	"locusmith/airframe"
 	"locusmith/discrete"
@@ -53,4 +55,75 @@ func DesignAirframe(f *airframe.File) *Airframe {
 func Infeasible(err error) bool {
 	var inf *synth.InfeasibleError
 	return errors.As(err, &inf)
+}
+
+// BatchOptions control DesignAll.
+type BatchOptions struct {
+	// Jobs is the number of airframes designed at once (≥ 1).
+	Jobs int
+	// KeepTraces keeps the simulated responses (for plots); without it
+	// each design keeps its figures only, so memory stays flat in the
+	// number of airframes.
+	KeepTraces bool
+	// Progress, if set, is called after each airframe with the number
+	// done and the total, from one goroutine at a time.
+	Progress func(done, total int)
+}
+
+// DesignAll designs the airframes with a bounded pool of workers and
+// returns the results in input order: the same results as designing them
+// one by one, since every design is a pure function of its file. A panic
+// in one design (a bug) becomes that airframe's error and the others go on.
+func DesignAll(files []*airframe.File, o BatchOptions) []*Airframe {
+	jobs := max(o.Jobs, 1)
+	out := make([]*Airframe, len(files))
+	next := make(chan int)
+	done := make(chan int)
+	var wg sync.WaitGroup
+	for w := 0; w < min(jobs, len(files)); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range next {
+				out[i] = designOne(files[i], o.KeepTraces)
+				done <- i
+			}
+		}()
+	}
+	go func() {
+		for i := range files {
+			next <- i
+		}
+		close(next)
+		wg.Wait()
+		close(done)
+	}()
+	n := 0
+	for range done {
+		n++
+		if o.Progress != nil {
+			o.Progress(n, len(files))
+		}
+	}
+	return out
+}
+
+func designOne(f *airframe.File, keep bool) (a *Airframe) {
+	defer func() {
+		if r := recover(); r != nil {
+			a = &Airframe{File: f}
+			for _, p := range f.Axes {
+				a.Axes = append(a.Axes, Axis{Name: p.Axis, Err: fmt.Errorf("internal error (a bug, please report it): %v", r)})
+			}
+		}
+	}()
+	a = DesignAirframe(f)
+	if !keep {
+		for _, x := range a.Axes {
+			if x.Design != nil {
+				x.Design.DropTraces()
+			}
+		}
+	}
+	return a
 }

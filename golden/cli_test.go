@@ -309,3 +309,33 @@ func TestEmitMakesOutputDir(t *testing.T) {
 		t.Errorf("gen/burrow_rate.c not written: %v\n%s", err, out)
 	}
 }
+
+// -j 1 and -j 8 write byte-identical files.
+func TestEmitJobsDeterministic(t *testing.T) {
+	dir := cliWork(t)
+	var trees []map[string]string
+	for _, j := range []string{"1", "8"} {
+		gen := "gen" + j
+		out, code := emitCLI(t, dir, "-o", gen, "-j", j, "--vectors", "examples/quadrotor.toml", "examples/gimbal.toml", "examples/rover.toml")
+		if code != 0 {
+			t.Fatalf("-j %s: exit %d\n%s", j, code, out)
+		}
+		m := map[string]string{}
+		for _, name := range listDir(t, filepath.Join(dir, gen)) {
+			b, err := os.ReadFile(filepath.Join(dir, gen, name))
+			if err != nil {
+				t.Fatal(err)
+			}
+			m[name] = string(b)
+		}
+		trees = append(trees, m)
+	}
+	if len(trees[0]) == 0 || len(trees[0]) != len(trees[1]) {
+		t.Fatalf("file sets differ: %d and %d files", len(trees[0]), len(trees[1]))
+	}
+	for name, b := range trees[0] {
+		if trees[1][name] != b {
+			t.Errorf("%s differs between -j 1 and -j 8", name)
+		}
+	}
+}

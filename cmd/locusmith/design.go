@@ -35,6 +35,7 @@ Examples:
 func runDesign(args []string, stdout, stderr io.Writer) int {
 	fs, help := newFlagSet("design")
 	asJSON := fs.Bool("json", false, "print the JSON report instead of the tables")
+	jobs := jobsFlag(fs)
 	if done, code := parseFlags(fs, help, args, designHelp, stdout, stderr); done {
 		return code
 	}
@@ -42,11 +43,13 @@ func runDesign(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "locusmith design: no airframe file given\nRun 'locusmith design --help' for usage.\n")
 		return exitUsage
 	}
+	if *jobs < 1 {
+		fmt.Fprintf(stderr, "locusmith design: --jobs %d: must be at least 1\n", *jobs)
+		return exitUsage
+	}
 	files, code := loadFiles(fs.Args(), stderr)
-	designs := make([]*emit.Airframe, 0, len(files))
-	for _, f := range files {
-		a := emit.DesignAirframe(f)
-		designs = append(designs, a)
+	designs := designBatch(files, *jobs, false, stderr)
+	for _, a := range designs {
 		for _, x := range a.Axes {
 			code = worst(code, axisStatus(x))
 		}

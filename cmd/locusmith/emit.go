@@ -65,6 +65,7 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 	vectors := fs.Bool("vectors", false, "also write the test-vector program")
 	check := fs.Bool("check", false, "write nothing; compare with DIR and exit 1 on any difference")
 	allowUnmet := fs.Bool("allow-unmet", false, "write airframes whose design checks fail, marked in the header")
+	jobs := jobsFlag(fs)
 	if done, code := parseFlags(fs, help, args, emitHelp, stdout, stderr); done {
 		return code
 	}
@@ -83,6 +84,9 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 	}
 	if *out == "" {
 		return usage("no output directory: -o DIR is required")
+	}
+	if *jobs < 1 {
+		return usage("--jobs %d: must be at least 1", *jobs)
 	}
 	if fs.NArg() == 0 {
 		return usage("no airframe file given")
@@ -107,10 +111,7 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 	if o.Lang == emit.LangGo && len(files) > 1 {
 		fmt.Fprintf(stderr, "locusmith emit: warning: --lang go writes a package per airframe, and Go builds one package per directory: give each of the %d airframes its own -o directory\n", len(files))
 	}
-	designs := make([]*emit.Airframe, len(files))
-	for i, f := range files {
-		designs[i] = emit.DesignAirframe(f)
-	}
+	designs := designBatch(files, *jobs, false, stderr)
 	gen, err := emit.NewCodeGenerator()
 	if err != nil {
 		fmt.Fprintf(stderr, "locusmith emit: %v\n", err)

@@ -21,6 +21,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"runtime"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -229,3 +230,27 @@ func axisStatus(x emit.Axis) int {
 // worst combines exit statuses: usage errors outrank unmet specs, which
 // outrank success.
 func worst(a, b int) int { return max(a, b) }
+
+// jobsFlag adds -j/--jobs to a verb: the number of airframes designed at
+// once, by default the number of CPUs.
+func jobsFlag(fs *pflag.FlagSet) *int {
+	return fs.IntP("jobs", "j", runtime.NumCPU(), "airframes designed at once (default: the number of CPUs)")
+}
+
+// designBatch designs files with jobs workers, in input order, showing a
+// progress line on stderr when it is a terminal and the batch is long
+// (never in pipes or CI).
+func designBatch(files []*airframe.File, jobs int, keepTraces bool, stderr io.Writer) []*emit.Airframe {
+	o := emit.BatchOptions{Jobs: jobs, KeepTraces: keepTraces}
+	if f, ok := stderr.(*os.File); ok && len(files) >= 20 && os.Getenv("CI") == "" {
+		if st, err := f.Stat(); err == nil && st.Mode()&os.ModeCharDevice != 0 {
+			o.Progress = func(done, total int) {
+				fmt.Fprintf(f, "\rlocusmith: designed %d of %d airframes", done, total)
+				if done == total {
+					fmt.Fprint(f, "\r\033[K")
+				}
+			}
+		}
+	}
+	return emit.DesignAll(files, o)
+}

@@ -56,6 +56,7 @@ Examples:
 func runReport(args []string, stdout, stderr io.Writer) int {
 	fs, help := newFlagSet("report")
 	out := fs.StringP("out", "o", "", "output directory (created if missing)")
+	jobs := jobsFlag(fs)
 	if done, code := parseFlags(fs, help, args, reportHelp, stdout, stderr); done {
 		return code
 	}
@@ -65,6 +66,9 @@ func runReport(args []string, stdout, stderr io.Writer) int {
 	}
 	if *out == "" {
 		return usage("-o DIR is required")
+	}
+	if *jobs < 1 {
+		return usage("--jobs %d: must be at least 1", *jobs)
 	}
 	if fs.NArg() == 0 {
 		return usage("no airframe file given")
@@ -83,8 +87,8 @@ func runReport(args []string, stdout, stderr io.Writer) int {
 	}
 	var all [][]review.File
 	var designs []*emit.Airframe
-	for _, f := range files {
-		a := emit.DesignAirframe(f)
+	for _, a := range designBatch(files, *jobs, true, stderr) {
+		f := a.File
 		for _, x := range a.Axes {
 			code = worst(code, axisStatus(x))
 		}

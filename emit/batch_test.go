@@ -1,0 +1,106 @@
+package emit
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"os"
+	"strings"
+	"testing"
+
+	"locusmith/airframe"
+)
+
+// fleet makes n airframes from the examples with varied parameters
+// (demo data): loop rate, settling time and overshoot scaled per variant.
+func fleet(t testing.TB, n int) []*airframe.File {
+	t.Helper()
+	var out []*airframe.File
+	names := []string{"quadrotor", "gimbal", "rover"}
+	for i := 0; len(out) < n; i++ {
+		src, err := os.ReadFile("../examples/" + names[i%3] + ".toml")
+		if err != nil {
+			t.Fatal(err)
+		}
+		s := string(src)
+		// Rename the airframe and slow the spec a little per variant.
+		for _, line := range strings.Split(s, "\n") {
+			if strings.HasPrefix(line, "airframe = ") {
+				s = strings.Replace(s, line, fmt.Sprintf("airframe = \"v%d\"", i), 1)
+			}
+			if strings.HasPrefix(line, "settling_time = ") {
+				var v float64
+				fmt.Sscanf(strings.TrimPrefix(line, "settling_time = "), "%g", &v)
+				s = strings.Replace(s, line, fmt.Sprintf("settling_time = %g", v*(1+0.05*float64(i%7))), 1)
+			}
+		}
+		f, err := airframe.Parse(fmt.Sprintf("fleet/v%d.toml", i), []byte(s))
+		if err != nil {
+			t.Fatal(err)
+		}
+		out = append(out, f)
+	}
+	return out
+}
+
+func reportJSON(t testing.TB, as []*Airframe) []byte {
+	t.Helper()
+	var b bytes.Buffer
+	enc := json.NewEncoder(&b)
+	enc.SetIndent("", "  ")
+	if err := enc.Encode(Report(as)); err != nil {
+		t.Fatal(err)
+	}
+	return b.Bytes()
+}
+
+// A batch gives the same per-file results as designing the files one by
+// one, whatever the number of workers, in input order.
+func TestBatchMatchesOneByOne(t *testing.T) {
+	files := fleet(t, 9)
+	var single []*Airframe
+	for _, f := range files {
+		single = append(single, DesignAirframe(f))
+	}
+	want := reportJSON(t, single)
+	for _, jobs := range []int{1, 3, 8} {
+		got := reportJSON(t, DesignAll(files, BatchOptions{Jobs: jobs, KeepTraces: true}))
+		if !bytes.Equal(got, want) {
+			t.Errorf("jobs %d: report differs from the one-by-one designs", jobs)
+		}
+	}
+	calls := 0
+	DesignAll(files[:3], BatchOptions{Jobs: 2, Progress: func(done, total int) {
+		calls++
+		if total != 3 || done != calls {
+			t.Errorf("progress %d/%d at call %d", done, total, calls)
+		}
+	}})
+	if calls != 3 {
+		t.Errorf("progress called %d times, want 3", calls)
+	}
+}
+
+// Dropping traces keeps every figure of the report.
+func TestDropTracesKeepsFigures(t *testing.T) {
+	files := fleet(t, 3)
+	full := reportJSON(t, DesignAll(files, BatchOptions{Jobs: 2, KeepTraces: true}))
+	lean := reportJSON(t, DesignAll(files, BatchOptions{Jobs: 2}))
+	if !bytes.Equal(full, lean) {
+		t.Error("the report changes when the traces are dropped")
+	}
+}
+
+// BenchmarkFleet designs generated fleets of 3-axis airframes (design,
+// discrete and numeric verification) on all CPUs.
+func BenchmarkFleet(b *testing.B) {
+	for _, n := range []int{1, 10, 100} {
+		files := fleet(b, n)
+		b.Run(fmt.Sprint(n), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				DesignAll(files, BatchOptions{Jobs: 2})
+			}
+		})
+	}
+}
