@@ -5,8 +5,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"math/cmplx"
-	"slices"
 	"strings"
 
 	"locusmith/discrete"
@@ -417,7 +415,7 @@ func tabSeries(c synth.Controller) string {
 	if err != nil {
 		return ""
 	}
-	num, den := tabFactors(z.Zeros), tabFactors(z.Poles)
+	num, den := Factors(z.Zeros, tabG4, ""), Factors(z.Poles, tabG4, "")
 	s := tabG4(z.Gain)
 	if num != "" {
 		s += " " + num
@@ -428,71 +426,9 @@ func tabSeries(c synth.Controller) string {
 	return s
 }
 
-func tabFactors(rs []complex128) string {
-	var out []string
-	for _, r := range tabCanonical(rs) {
-		switch {
-		case imag(r) != 0:
-			out = append(out, fmt.Sprintf("(s² %s %s·s + %s)", tabSign(-2*real(r)), tabG4(math.Abs(2*real(r))), tabG4(real(r)*real(r)+imag(r)*imag(r))))
-		case real(r) == 0:
-			out = append(out, "s")
-		default:
-			out = append(out, fmt.Sprintf("(s %s %s)", tabSign(-real(r)), tabG4(math.Abs(real(r)))))
-		}
-	}
-	return strings.Join(out, "")
-}
-
-func tabSign(x float64) string {
-	if x < 0 {
-		return "−"
-	}
-	return "+"
-}
-
-// tabCanonical returns the roots with each conjugate pair once (upper
-// half), parts smaller than 1e-9 of max(modulus, 1) set to zero (as in the
-// JSON report), sorted by descending real part.
-func tabCanonical(rs []complex128) []complex128 {
-	var out []complex128
-	for _, r := range rs {
-		if cmplx.IsNaN(r) || cmplx.IsInf(r) {
-			continue
-		}
-		a := math.Max(cmplx.Abs(r), 1)
-		re, im := real(r), imag(r)
-		if math.Abs(im) <= 1e-9*a {
-			im = 0
-		}
-		if math.Abs(re) <= 1e-9*a {
-			re = 0
-		}
-		if im < 0 {
-			continue
-		}
-		out = append(out, complex(re, im))
-	}
-	slices.SortStableFunc(out, func(a, b complex128) int {
-		if real(a) != real(b) {
-			if real(a) > real(b) {
-				return -1
-			}
-			return 1
-		}
-		if imag(a) > imag(b) {
-			return -1
-		}
-		if imag(a) < imag(b) {
-			return 1
-		}
-		return 0
-	})
-	return out
-}
-
 func tabPoles(ps []complex128, unit string) string {
 	var out []string
-	for _, r := range tabCanonical(ps) {
+	for _, r := range CanonicalRoots(ps) {
 		if imag(r) != 0 {
 			out = append(out, fmt.Sprintf("%s ± %sj", tabG4(real(r)), tabG4(imag(r))))
 		} else {

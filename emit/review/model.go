@@ -318,7 +318,7 @@ func sensorLines(p synth.Problem) []string {
 // zpkText writes k·Π(s − z)/Π(s − p) with real factors (s + a) and
 // quadratic factors for pairs.
 func zpkText(k float64, zs, ps []complex128) string {
-	num, den := factors(zs), factors(ps)
+	num, den := emit.Factors(zs, g4, "·"), emit.Factors(ps, g4, "·")
 	s := g4(k)
 	if num != "" {
 		s += "·" + num
@@ -333,68 +333,9 @@ func zpkText(k float64, zs, ps []complex128) string {
 	return s
 }
 
-func factors(rs []complex128) string {
-	var out []string
-	for _, r := range canonical(rs) {
-		switch {
-		case imag(r) != 0:
-			out = append(out, fmt.Sprintf("(s² %s %s·s + %s)", signOf(-2*real(r)), g4(math.Abs(2*real(r))), g4(real(r)*real(r)+imag(r)*imag(r))))
-		case real(r) == 0:
-			out = append(out, "s")
-		default:
-			out = append(out, fmt.Sprintf("(s %s %s)", signOf(-real(r)), g4(math.Abs(real(r)))))
-		}
-	}
-	return strings.Join(out, "·")
-}
-
-func signOf(x float64) string {
-	if x < 0 {
-		return "−"
-	}
-	return "+"
-}
-
-// canonical returns each real root and the upper root of each pair,
-// parts below 1e-9 of max(|r|, 1) set to zero, by descending real part.
-func canonical(rs []complex128) []complex128 {
-	var out []complex128
-	for _, r := range rs {
-		if cmplx.IsNaN(r) || cmplx.IsInf(r) {
-			continue
-		}
-		a := math.Max(cmplx.Abs(r), 1)
-		re, im := real(r), imag(r)
-		if math.Abs(im) <= 1e-9*a {
-			im = 0
-		}
-		if math.Abs(re) <= 1e-9*a {
-			re = 0
-		}
-		if im < 0 {
-			continue
-		}
-		out = append(out, complex(re, im))
-	}
-	slices.SortStableFunc(out, func(a, b complex128) int {
-		switch {
-		case real(a) > real(b):
-			return -1
-		case real(a) < real(b):
-			return 1
-		case imag(a) > imag(b):
-			return -1
-		case imag(a) < imag(b):
-			return 1
-		}
-		return 0
-	})
-	return out
-}
-
 func rootsText(rs []complex128) string {
 	var out []string
-	for _, r := range canonical(rs) {
+	for _, r := range emit.CanonicalRoots(rs) {
 		if imag(r) != 0 {
 			out = append(out, fmt.Sprintf("%s ± %sj", g4(real(r)), g4(imag(r))))
 		} else {
@@ -415,7 +356,7 @@ func polesText(ps []complex128, unit string) string {
 // ln(z)/T, which read like the continuous poles.
 func zPolesText(ps []complex128, T float64) string {
 	var out []string
-	for _, z := range canonical(ps) {
+	for _, z := range emit.CanonicalRoots(ps) {
 		var s string
 		if imag(z) != 0 {
 			s = fmt.Sprintf("%s ± %sj", g4(real(z)), g4(imag(z)))
