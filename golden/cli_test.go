@@ -1,10 +1,13 @@
 package golden
 
 import (
+	"fmt"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"regexp"
 	"strings"
+	"syscall"
 	"testing"
 	"time"
 )
@@ -336,6 +339,62 @@ func TestEmitJobsDeterministic(t *testing.T) {
 	for name, b := range trees[0] {
 		if trees[1][name] != b {
 			t.Errorf("%s differs between -j 1 and -j 8", name)
+		}
+	}
+}
+
+// A termination signal in the middle of a batch leaves the files of an
+// earlier run intact, whole and consistent, and no temporary files: the
+// designs run before anything is written, and the writes go through a
+// temporary file and a rename each.
+func TestEmitSignalKeepsOldFiles(t *testing.T) {
+	dir := cliWork(t)
+	bin := buildCLI(t, "")
+	if out, code, err := runCLI(dir, "", bin, "emit", "-o", "gen", "examples/quadrotor.toml"); err != nil || code != 0 {
+		t.Fatalf("first run: exit %d, %v\n%s", code, err, out)
+	}
+	before := map[string]string{}
+	for _, n := range listDir(t, filepath.Join(dir, "gen")) {
+		b, _ := os.ReadFile(filepath.Join(dir, "gen", n))
+		before[n] = string(b)
+	}
+	// A second run on many airframes (copies of one, renamed) that is
+	// killed part way.
+	src, err := os.ReadFile(filepath.Join(dir, "examples", "quadrotor.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var args []string
+	for i := 0; i < 40; i++ {
+		p := filepath.Join("examples", fmt.Sprintf("q%02d.toml", i))
+		s := regexp.MustCompile(`(?m)^airframe = .*$`).ReplaceAllString(string(src), fmt.Sprintf(`airframe = "q%02d"`, i))
+		if err := os.WriteFile(filepath.Join(dir, p), []byte(s), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		args = append(args, p)
+	}
+	args = append(args, "examples/quadrotor.toml")
+	for _, delay := range []time.Duration{50 * time.Millisecond, 300 * time.Millisecond} {
+		cmd := exec.Command(bin, append([]string{"emit", "-j", "1", "-o", "gen"}, args...)...)
+		cmd.Dir = dir
+		if err := cmd.Start(); err != nil {
+			t.Fatal(err)
+		}
+		time.Sleep(delay)
+		_ = cmd.Process.Signal(syscall.SIGTERM)
+		_ = cmd.Wait()
+		for _, n := range listDir(t, filepath.Join(dir, "gen")) {
+			if strings.HasPrefix(n, ".") {
+				t.Errorf("temporary file %s left behind", n)
+				continue
+			}
+			b, err := os.ReadFile(filepath.Join(dir, "gen", n))
+			if err != nil {
+				t.Fatal(err)
+			}
+			if old, ok := before[n]; ok && old != string(b) {
+				t.Errorf("%s changed although its airframe did not", n)
+			}
 		}
 	}
 }

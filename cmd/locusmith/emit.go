@@ -4,7 +4,10 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"os"
+	"os/signal"
 	"path/filepath"
+	"syscall"
 
 	"locusmith/emit"
 )
@@ -167,13 +170,25 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 		}
 		return code
 	}
+	// An interrupt or termination request while the files are renamed
+	// into place waits for the renames to finish, so that an airframe's
+	// header and source are never left from two different runs.
+	sigs := make(chan os.Signal, 1)
+	signal.Notify(sigs, os.Interrupt, syscall.SIGTERM)
 	written, err := emit.WriteSources(*out, all)
+	signal.Stop(sigs)
 	for _, w := range written {
 		fmt.Fprintf(stdout, "wrote %s\n", filepath.Join(*out, w))
 	}
 	if err != nil {
 		fmt.Fprintf(stderr, "locusmith emit: %v\n", err)
 		return exitUsage
+	}
+	select {
+	case sig := <-sigs:
+		fmt.Fprintf(stderr, "locusmith emit: %v received while writing; every file was written completely\n", sig)
+		return exitUsage
+	default:
 	}
 	return code
 }
