@@ -75,37 +75,51 @@ type BatchOptions struct {
 // one by one, since every design is a pure function of its file. A panic
 // in one design (a bug) becomes that airframe's error and the others go on.
 func DesignAll(files []*airframe.File, o BatchOptions) []*Airframe {
-	jobs := max(o.Jobs, 1)
 	out := make([]*Airframe, len(files))
+	DesignEach(files, o, func(i int, a *Airframe) { out[i] = a })
+	return out
+}
+
+// DesignEach is DesignAll delivering each result to fn, in input order, as
+// soon as it and all before it are done, and then forgetting it: at most
+// 2·Jobs designs are held at once, so memory stays flat in the number of
+// airframes. fn runs on the caller's goroutine.
+func DesignEach(files []*airframe.File, o BatchOptions, fn func(i int, a *Airframe)) {
+	jobs := max(o.Jobs, 1)
+	n := len(files)
+	slots := make([]chan *Airframe, n)
+	for i := range slots {
+		slots[i] = make(chan *Airframe, 1)
+	}
+	window := make(chan struct{}, 2*jobs) // started, not yet delivered
 	next := make(chan int)
-	done := make(chan int)
 	var wg sync.WaitGroup
-	for w := 0; w < min(jobs, len(files)); w++ {
+	for w := 0; w < min(jobs, n); w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				out[i] = designOne(files[i], o.KeepTraces)
-				done <- i
+				slots[i] <- designOne(files[i], o.KeepTraces)
 			}
 		}()
 	}
 	go func() {
-		for i := range files {
+		for i := 0; i < n; i++ {
+			window <- struct{}{}
 			next <- i
 		}
 		close(next)
-		wg.Wait()
-		close(done)
 	}()
-	n := 0
-	for range done {
-		n++
+	for i := 0; i < n; i++ {
+		a := <-slots[i]
+		slots[i] = nil
+		<-window
+		fn(i, a)
 		if o.Progress != nil {
-			o.Progress(n, len(files))
+			o.Progress(i+1, n)
 		}
 	}
-	return out
+	wg.Wait()
 }
 
 func designOne(f *airframe.File, keep bool) (a *Airframe) {

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"encoding/json"
 	"fmt"
 	"io"
@@ -48,35 +49,69 @@ func runDesign(args []string, stdout, stderr io.Writer) int {
 		return exitUsage
 	}
 	files, code := loadFiles(fs.Args(), stderr)
-	designs := designBatch(files, *jobs, false, stderr)
-	for _, a := range designs {
+	// Each airframe is printed as soon as it and those before it are
+	// designed, and then dropped: memory stays flat in the batch size.
+	var werr error
+	if *asJSON {
+		// The document of emit.Report, written one airframe at a time
+		// in the same layout as encoding the whole report at once.
+		if len(files) == 0 {
+			werr = writeJSON(stdout, emit.Report(nil), "")
+		} else {
+			_, werr = fmt.Fprintf(stdout, "{\n  \"version\": %q,\n  \"airframes\": [\n", emit.Version)
+		}
+	}
+	designStream(files, *jobs, false, stderr, func(i int, a *emit.Airframe) {
 		for _, x := range a.Axes {
 			code = worst(code, axisStatus(x))
 		}
-	}
-	if *asJSON {
-		enc := json.NewEncoder(stdout)
-		enc.SetIndent("", "  ")
-		enc.SetEscapeHTML(false)
-		if err := enc.Encode(emit.Report(designs)); err != nil {
-			fmt.Fprintf(stderr, "locusmith design: write JSON: %v\n", err)
-			return exitUsage
-		}
-	} else {
-		for _, a := range designs {
-			if err := emit.WriteTable(stdout, a); err != nil {
-				fmt.Fprintf(stderr, "locusmith design: %v\n", err)
-				return exitUsage
+		if werr == nil {
+			if *asJSON {
+				if i > 0 {
+					_, werr = io.WriteString(stdout, ",\n")
+				}
+				if werr == nil {
+					_, werr = io.WriteString(stdout, "    ")
+				}
+				if werr == nil {
+					werr = writeJSON(stdout, emit.Report([]*emit.Airframe{a}).Airframes[0], "    ")
+				}
+			} else {
+				werr = emit.WriteTable(stdout, a)
 			}
 		}
-		if len(designs) > 0 {
-			fmt.Fprintln(stdout, "Results are model-based and do not replace flight testing: bench-test with\npropellers off, fly tethered first, follow local aviation rules and have the\ndesign reviewed by a qualified person before flight.")
-		}
-	}
-	for _, a := range designs {
 		for _, msg := range emit.Unmet(a) {
 			fmt.Fprintf(stderr, "%s: %s\n", a.File.Path, msg)
 		}
+	})
+	if werr == nil && len(files) > 0 {
+		if *asJSON {
+			_, werr = io.WriteString(stdout, "\n  ]\n}\n")
+		} else {
+			_, werr = fmt.Fprintln(stdout, "Results are model-based and do not replace flight testing: bench-test with\npropellers off, fly tethered first, follow local aviation rules and have the\ndesign reviewed by a qualified person before flight.")
+		}
+	}
+	if werr != nil {
+		fmt.Fprintf(stderr, "locusmith design: write: %v\n", werr)
+		return exitUsage
 	}
 	return code
+}
+
+// writeJSON writes v indented by two spaces under prefix, without HTML
+// escaping, with no trailing newline after a prefixed value.
+func writeJSON(w io.Writer, v any, prefix string) error {
+	var b bytes.Buffer
+	enc := json.NewEncoder(&b)
+	enc.SetIndent(prefix, "  ")
+	enc.SetEscapeHTML(false)
+	if err := enc.Encode(v); err != nil {
+		return err
+	}
+	out := b.Bytes()
+	if prefix != "" {
+		out = bytes.TrimSuffix(out, []byte("\n"))
+	}
+	_, err := w.Write(out)
+	return err
 }

@@ -241,6 +241,15 @@ func jobsFlag(fs *pflag.FlagSet) *int {
 // progress line on stderr when it is a terminal and the batch is long
 // (never in pipes or CI).
 func designBatch(files []*airframe.File, jobs int, keepTraces bool, stderr io.Writer) []*emit.Airframe {
+	out := make([]*emit.Airframe, len(files))
+	designStream(files, jobs, keepTraces, stderr, func(i int, a *emit.Airframe) { out[i] = a })
+	return out
+}
+
+// designStream is designBatch delivering each airframe to fn in input
+// order as soon as it is done, so that memory stays flat in the number of
+// airframes.
+func designStream(files []*airframe.File, jobs int, keepTraces bool, stderr io.Writer, fn func(int, *emit.Airframe)) {
 	o := emit.BatchOptions{Jobs: jobs, KeepTraces: keepTraces}
 	if f, ok := stderr.(*os.File); ok && len(files) >= 20 && os.Getenv("CI") == "" {
 		if st, err := f.Stat(); err == nil && st.Mode()&os.ModeCharDevice != 0 {
@@ -252,5 +261,5 @@ func designBatch(files []*airframe.File, jobs int, keepTraces bool, stderr io.Wr
 			}
 		}
 	}
-	return emit.DesignAll(files, o)
+	emit.DesignEach(files, o, fn)
 }
