@@ -132,6 +132,9 @@ func verifyStage(p Problem, t Target, c Controller) (Stage, error) {
 func (d *Design) finish() {
 	d.Checks = SpecChecks(d.Problem.Spec, d.Verif.Stable, maxReal(d.Verif.Poles), d.Verif.Step.Overshoot, d.Verif.Step.Settling, d.Verif.Margins.PhaseDeg, d.Verif.Margins.GainDB)
 	d.Warnings = append(d.Warnings, d.Verif.Warnings...)
+	if e := d.Verif.SteadyStateError; d.Verif.Stable && math.Abs(e) > d.Problem.Spec.Band {
+		d.Warnings = append(d.Warnings, fmt.Sprintf("steady-state error %.3g %% of the setpoint (the %s form has no integral action on this plant); the settling check is against the final value", 100*e, d.Problem.Ctrl.Form))
+	}
 }
 
 // SpecChecks compares the achieved figures with the spec.

@@ -219,7 +219,8 @@ func Place(p Problem, t Target) (Controller, error) {
 // s = ωn·(−ζ + j√(1−ζ²)) is scanned for the angle condition ∠L(s) = −180°;
 // of the crossings, the nearest to the origin whose closed loop is stable is
 // taken: farther crossings belong to branches that come in from infinity
-// (the delay's among them), not to the dominant pair.
+// (the delay's among them), not to the dominant pair. A locus that never
+// leaves the real axis gets a real pole at the settling rate instead.
 func PlaceP(p Problem, zeta float64) (Controller, Target, error) {
 	c := Controller{Form: FormP, B: 1}
 	if p.Ctrl.SetpointWeightSet {
@@ -272,8 +273,20 @@ func PlaceP(p Problem, zeta float64) (Controller, Target, error) {
 			return c, NewTarget(zeta, zeta*h.wn), nil
 		}
 	}
+	// No crossing (a first-order loop, say, whose locus stays on the real
+	// axis): place a real closed-loop pole at −σ of the spec's envelope,
+	// where the angle condition holds when L(−σ) is real and negative.
+	if p.Spec.SettlingTime > 0 && p.Spec.Band > 0 {
+		sigma := SigmaFromSettling(zeta, p.Spec.Band, p.Spec.SettlingTime)
+		if v := p.Loop(complex(-sigma, 0)); real(v) < 0 && !math.IsInf(real(v), 0) {
+			c.Kp = snap(-1 / real(v))
+			if stable, err := closedLoopStable(p, c); err == nil && stable {
+				return c, Target{Zeta: 1, OmegaN: sigma, Sigma: sigma, Pole: complex(-sigma, 0)}, nil
+			}
+		}
+	}
 	t := NewTarget(zeta, zeta*math.Sqrt(lo*hi))
-	return c, t, &InfeasibleError{Form: FormP, Target: t, Reason: fmt.Sprintf("the root locus does not cross the damping line ζ = %.3f at a stable gain", zeta)}
+	return c, t, &InfeasibleError{Form: FormP, Target: t, Reason: fmt.Sprintf("the root locus does not cross the damping line ζ = %.3f at a stable gain, nor the real axis at the settling rate", zeta)}
 }
 
 // frequencySpan returns a frequency range (rad/s) that covers every corner

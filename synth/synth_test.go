@@ -505,3 +505,19 @@ func BenchmarkDesignAxis(b *testing.B) {
 		}
 	}
 }
+
+// A first-order plant under P control has a real closed-loop pole only:
+// the locus never meets the damping line, so P places the real pole at
+// −σ of the spec, K = (σ − a)/k for k/(s + a) (closed loop k·K/(s + a + k·K)).
+func TestPFirstOrderPlacesRealPole(t *testing.T) {
+	p := Problem{Plant: Plant{Model: lti.ZPK{Gain: 500, Poles: []complex128{-10}}}, Sensor: lti.ZPK{Gain: 1},
+		Spec: Spec{SettlingTime: 0.1, Band: 0.02, Overshoot: 0.05}, Ctrl: Control{Form: FormP}}
+	c, tg, err := PlaceP(p, ZetaFromOvershoot(0.05))
+	if err != nil {
+		t.Fatal(err)
+	}
+	sigma := SigmaFromSettling(ZetaFromOvershoot(0.05), 0.02, 0.1)
+	if want := (sigma - 10) / 500; math.Abs(c.Kp-want) > 1e-9*want || real(tg.Pole) != -sigma {
+		t.Errorf("Kp = %.12g at %v, want %.12g at −%.12g", c.Kp, tg.Pole, want, sigma)
+	}
+}
