@@ -70,13 +70,14 @@ func linearize(k Coeffs) linearCtrl {
 }
 
 // closedLoop is the linear sampled loop, state X = [plant; compute-delay
-// registers; controller], input r, outputs true rate and command.
+// registers; controller], input r, output the true rate. It serves the
+// poles and the final value; responses come from simulate, which steps
+// the same equations without the dense matrix.
 type closedLoop struct {
-	N      int
-	A      []float64
-	B      []float64
-	Cy, Cu []float64
-	Du     float64
+	N  int
+	A  []float64
+	B  []float64
+	Cy []float64
 }
 
 // newClosedLoop closes the loop of plant pl, controller c and compute delay
@@ -86,7 +87,7 @@ func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
 	d += pl.Delay
 	np, m := pl.N, c.M
 	n := np + d + m
-	L := closedLoop{N: n, A: make([]float64, n*n), B: make([]float64, n), Cy: make([]float64, n), Cu: make([]float64, n)}
+	L := closedLoop{N: n, A: make([]float64, n*n), B: make([]float64, n), Cy: make([]float64, n)}
 	ic := np + d // first controller state
 	// u = Cc xc + Dr r + Dy·Cm·xp, as a row over X.
 	urow := make([]float64, n)
@@ -96,8 +97,6 @@ func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
 	for j := 0; j < m; j++ {
 		urow[ic+j] = c.Cc[j]
 	}
-	copy(L.Cu, urow)
-	L.Du = c.Dr
 	// Plant: xp' = Ap xp + Bp ua.
 	for i := 0; i < np; i++ {
 		copy(L.A[i*n:i*n+np], pl.A[i*np:(i+1)*np])
@@ -185,34 +184,6 @@ func simulate(pl Plant, c linearCtrl, d int, y, u []float64) {
 			xn[i] = acc
 		}
 		x, xn = xn, x
-	}
-}
-
-// stepInto writes the true-rate response to a unit setpoint step into y
-// and, if u is not nil, the command into u.
-func (L closedLoop) stepInto(y, u []float64) {
-	n := L.N
-	x := make([]float64, 2*n)
-	xc, xn := x[:n], x[n:]
-	for k := range y {
-		var acc, au float64
-		for i := 0; i < n; i++ {
-			acc += L.Cy[i] * xc[i]
-			au += L.Cu[i] * xc[i]
-		}
-		y[k] = acc
-		if u != nil {
-			u[k] = au + L.Du
-		}
-		for i := 0; i < n; i++ {
-			s := L.B[i]
-			row := L.A[i*n : i*n+n]
-			for j, a := range row {
-				s += a * xc[j]
-			}
-			xn[i] = s
-		}
-		xc, xn = xn, xc
 	}
 }
 

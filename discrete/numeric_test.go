@@ -274,14 +274,6 @@ func TestPoleShiftMatchesSensitivity(t *testing.T) {
 	}
 }
 
-func ascending(desc []float64) lti.Poly {
-	p := make(lti.Poly, len(desc))
-	for i, v := range desc {
-		p[len(desc)-1-i] = v
-	}
-	return p.Trim()
-}
-
 func nearest(ps []complex128, p complex128) complex128 {
 	best := complex(math.Inf(1), 0)
 	for _, q := range ps {

@@ -58,14 +58,6 @@ func designText(t *testing.T, name, text string) *emit.Airframe {
 	return a
 }
 
-func toPairs(rs []complex128) [][2]float64 {
-	out := make([][2]float64, len(rs))
-	for i, r := range rs {
-		out[i] = [2]float64{real(r), imag(r)}
-	}
-	return out
-}
-
 // desc returns p's coefficients in descending powers (NumPy's order).
 func desc(p lti.Poly) []float64 {
 	p = p.Trim()
