@@ -134,15 +134,6 @@ type c2dCase struct {
 	Z      [][2]float64 `json:"z"`
 }
 
-func desc(p lti.Poly) []float64 {
-	p = p.Trim()
-	out := make([]float64, len(p))
-	for i := range p {
-		out[i] = p[len(p)-1-i]
-	}
-	return out
-}
-
 var unitPoints = []float64{0.001, 0.01, 0.1, 0.5, 1, 2, 3}
 
 func zPoints() ([][2]float64, []complex128) {
@@ -187,7 +178,7 @@ func TestControllersAgainstSciPy(t *testing.T) {
 				t.Fatalf("%s %s: derivative used %s", name, c.Form, k.DerivativeMethod)
 			}
 			tf := c.TF()
-			in = append(in, c2dCase{Num: desc(tf.Num), Den: desc(tf.Den), T: T, Method: methods[name], Z: pairs})
+			in = append(in, c2dCase{Num: tf.Num.Descending(), Den: tf.Den.Descending(), T: T, Method: methods[name], Z: pairs})
 			var v []complex128
 			for _, z := range zs {
 				v = append(v, ctrlEval(k, z))
@@ -241,7 +232,7 @@ func TestPlantZOHAgainstSciPy(t *testing.T) {
 		g, _ := c.g.TF()
 		h, _ := c.h.TF()
 		gh := g.Series(h)
-		in = append(in, c2dCase{Num: desc(gh.Num), Den: desc(gh.Den), T: T, Method: "zoh", Z: pairs})
+		in = append(in, c2dCase{Num: gh.Num.Descending(), Den: gh.Den.Descending(), T: T, Method: "zoh", Z: pairs})
 		var v []complex128
 		for _, z := range zs {
 			v = append(v, pl.evalMeasured(z))
@@ -315,7 +306,7 @@ func TestTransportDelayAgainstSciPy(t *testing.T) {
 		got := d.Simulate(u)
 		tf, _ := g.TF()
 		var want []float64
-		pyref.Run(t, delayScript, map[string]any{"q": q, "T": T, "u": u, "dfine": int(math.Round(delay / T * float64(q))), "num": desc(tf.Num), "den": desc(tf.Den)}, &want)
+		pyref.Run(t, delayScript, map[string]any{"q": q, "T": T, "u": u, "dfine": int(math.Round(delay / T * float64(q))), "num": tf.Num.Descending(), "den": tf.Den.Descending()}, &want)
 		scale := 0.0
 		for _, v := range want {
 			scale = math.Max(scale, math.Abs(v))
@@ -395,7 +386,7 @@ func TestClosedLoopPolesAgainstNumPy(t *testing.T) {
 		h, _ := p.Sensor.TF()
 		gh := g.Series(h)
 		tf := c.c.TF()
-		in = append(in, map[string]any{"cnum": desc(tf.Num), "cden": desc(tf.Den), "pnum": desc(gh.Num), "pden": desc(gh.Den),
+		in = append(in, map[string]any{"cnum": tf.Num.Descending(), "cden": tf.Den.Descending(), "pnum": gh.Num.Descending(), "pden": gh.Den.Descending(),
 			"T": T, "d": c.d + int(math.Round(c.delay/T))})
 	}
 	var ref [][][2]float64
@@ -405,29 +396,10 @@ func TestClosedLoopPolesAgainstNumPy(t *testing.T) {
 		for _, z := range ref[i] {
 			want = append(want, complex(z[0], z[1]))
 		}
-		if d := rootDistance(ours[i], want); d > 1e-6 {
+		if d := lti.RootDistance(ours[i], want); d > 1e-6 {
 			t.Errorf("case %d: poles %v\nNumPy %v (rel %.3g)", i, ours[i], want, d)
 		}
 	}
-}
-
-func rootDistance(got, want []complex128) float64 {
-	if len(got) != len(want) {
-		return math.Inf(1)
-	}
-	used := make([]bool, len(got))
-	worst := 0.0
-	for _, w := range want {
-		bi, bd := -1, math.Inf(1)
-		for i, g := range got {
-			if !used[i] && cmplx.Abs(g-w) < bd {
-				bi, bd = i, cmplx.Abs(g-w)
-			}
-		}
-		used[bi] = true
-		worst = math.Max(worst, bd/math.Max(1, cmplx.Abs(w)))
-	}
-	return worst
 }
 
 // antiWindupCases are three rate loops of different airframes (demo data):
@@ -787,7 +759,7 @@ func TestCharacteristicMatchesStateModel(t *testing.T) {
 			}
 			return out
 		}
-		if d := rootDistance(nz(roots), nz(ps)); d > 1e-6 {
+		if d := lti.RootDistance(nz(roots), nz(ps)); d > 1e-6 {
 			t.Errorf("%s: characteristic roots %v, state-model poles %v", f, nz(roots), nz(ps))
 		}
 		if schurStable(characteristic(pl, k, 1)) != (stabilityMargin(ps) > 0) {

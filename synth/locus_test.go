@@ -293,7 +293,7 @@ func TestLocusAgainstNumPy(t *testing.T) {
 		idx = append(idx, i)
 	}
 	idx = append(idx, l.Design, len(l.Gains)-1)
-	q := in{Num: desc(l.Num), Den: desc(l.Den)}
+	q := in{Num: l.Num.Descending(), Den: l.Den.Descending()}
 	for _, i := range idx {
 		q.K = append(q.K, l.Gains[i])
 	}

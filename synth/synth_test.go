@@ -353,15 +353,6 @@ func toPairs(rs []complex128) [][2]float64 {
 	return out
 }
 
-func desc(p lti.Poly) []float64 {
-	p = p.Trim()
-	out := make([]float64, len(p))
-	for i := range p {
-		out[i] = p[len(p)-1-i]
-	}
-	return out
-}
-
 // TestAgainstSciPy compares closed-loop poles, step metrics and margins of
 // loops with PI, PD, PID and lead controllers, with and without a sensor
 // pole and a transport delay, against SciPy and NumPy (Debian's
@@ -403,7 +394,7 @@ func TestAgainstSciPy(t *testing.T) {
 		probs = append(probs, p)
 		ctf, ftf := c.c.TF(), c.c.Setpoint()
 		in = append(in, sciLoop{Name: c.name, K: p.Plant.Model.Gain, Poles: toPairs(p.Plant.Model.Poles), Zeros: toPairs(p.Plant.Model.Zeros),
-			Delay: c.delay, SensorW: c.w, CNum: desc(ctf.Num), CDen: desc(ctf.Den), FNum: desc(ftf.Num), Band: 0.02, Tend: 3, Pade: PadeOrder,
+			Delay: c.delay, SensorW: c.w, CNum: ctf.Num.Descending(), CDen: ctf.Den.Descending(), FNum: ftf.Num.Descending(), Band: 0.02, Tend: 3, Pade: PadeOrder,
 			WLo: 1e-3, WHi: 1e5})
 	}
 	var ref []sciResult
@@ -420,7 +411,7 @@ func TestAgainstSciPy(t *testing.T) {
 		for _, q := range r.Poles {
 			want = append(want, complex(q[0], q[1]))
 		}
-		if d := rootDistance(v.Poles, want); d > 1e-7 {
+		if d := lti.RootDistance(v.Poles, want); d > 1e-7 {
 			t.Errorf("%s: poles %v, SciPy %v (rel %.3g)", c.name, v.Poles, want, d)
 		}
 		ts := p.Spec.SettlingTime
@@ -443,27 +434,6 @@ func TestAgainstSciPy(t *testing.T) {
 			t.Errorf("%s: GM %.6g, SciPy found no phase crossover", c.name, v.Margins.GainDB)
 		}
 	}
-}
-
-// rootDistance matches every wanted root with the nearest unused one and
-// returns the largest distance relative to max(1, |want|).
-func rootDistance(got, want []complex128) float64 {
-	if len(got) != len(want) {
-		return math.Inf(1)
-	}
-	used := make([]bool, len(got))
-	worst := 0.0
-	for _, w := range want {
-		bi, bd := -1, math.Inf(1)
-		for i, g := range got {
-			if !used[i] && cmplx.Abs(g-w) < bd {
-				bi, bd = i, cmplx.Abs(g-w)
-			}
-		}
-		used[bi] = true
-		worst = math.Max(worst, bd/math.Max(1, cmplx.Abs(w)))
-	}
-	return worst
 }
 
 // FuzzDesign designs random plants and specs: no panic, and every

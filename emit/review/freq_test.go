@@ -58,16 +58,6 @@ func designText(t *testing.T, name, text string) *emit.Airframe {
 	return a
 }
 
-// desc returns p's coefficients in descending powers (NumPy's order).
-func desc(p lti.Poly) []float64 {
-	p = p.Trim()
-	out := make([]float64, len(p))
-	for i := range p {
-		out[i] = p[len(p)-1-i]
-	}
-	return out
-}
-
 // The sampled loop of the frequency-response plot and the z-plane map
 // against SciPy (Debian's python3-scipy, version in the log):
 // scipy.signal.cont2discrete with method "zoh" samples G·H, "bilinear"
@@ -104,7 +94,7 @@ func TestSampledLoopAgainstSciPy(t *testing.T) {
 		L     [][2]float64
 		Poles [][2]float64
 	}
-	q := in{PNum: desc(gh.Num), PDen: desc(gh.Den), CNum: desc(ctf.Num), CDen: desc(ctf.Den), T: d.Plant.T, Delay: 3, W: ws}
+	q := in{PNum: gh.Num.Descending(), PDen: gh.Den.Descending(), CNum: ctf.Num.Descending(), CDen: ctf.Den.Descending(), T: d.Plant.T, Delay: 3, W: ws}
 	var ref out
 	pyref.Run(t, `
 import json, sys, numpy as np, scipy.signal as sig

@@ -35,7 +35,7 @@ func TestCascadeSS(t *testing.T) {
 		}
 		want := append([]complex128(nil), z.Poles...)
 		SortRoots(want)
-		if d := matchRoots(ps, want); d > 1e-9 {
+		if d := RootDistance(ps, want); d > 1e-9 {
 			t.Errorf("case %d: poles %v, want %v", i, ps, want)
 		}
 	}

@@ -29,24 +29,3 @@ func checkVec(t *testing.T, what string, got, want []float64, rtol, atol float64
 		}
 	}
 }
-
-// matchRoots pairs every want root with the nearest unused got root and
-// returns the largest distance relative to max(1,|want|).
-func matchRoots(got, want []complex128) float64 {
-	if len(got) != len(want) {
-		return math.Inf(1)
-	}
-	used := make([]bool, len(got))
-	worst := 0.0
-	for _, w := range want {
-		bi, bd := -1, math.Inf(1)
-		for i, g := range got {
-			if !used[i] && cmplx.Abs(g-w) < bd {
-				bi, bd = i, cmplx.Abs(g-w)
-			}
-		}
-		used[bi] = true
-		worst = math.Max(worst, bd/math.Max(1, cmplx.Abs(w)))
-	}
-	return worst
-}

@@ -296,3 +296,38 @@ func rootLess(a, b complex128) bool {
 	}
 	return ai > bi
 }
+
+// Descending returns the coefficients of p (trimmed) from the highest
+// power down, the order NumPy and SciPy use.
+func (p Poly) Descending() []float64 {
+	p = p.Trim()
+	out := make([]float64, len(p))
+	for i := range p {
+		out[i] = p[len(p)-1-i]
+	}
+	return out
+}
+
+// RootDistance compares two sets of roots: each root of want is paired
+// with the nearest unused root of got, and the largest distance relative
+// to max(1, |want|) is returned; +Inf when the sets differ in size. Greedy
+// pairing is exact for sets whose members are farther apart than the
+// distances being measured, as in comparisons against a reference.
+func RootDistance(got, want []complex128) float64 {
+	if len(got) != len(want) {
+		return math.Inf(1)
+	}
+	used := make([]bool, len(got))
+	worst := 0.0
+	for _, w := range want {
+		bi, bd := -1, math.Inf(1)
+		for i, g := range got {
+			if !used[i] && cmplx.Abs(g-w) < bd {
+				bi, bd = i, cmplx.Abs(g-w)
+			}
+		}
+		used[bi] = true
+		worst = math.Max(worst, bd/math.Max(1, cmplx.Abs(w)))
+	}
+	return worst
+}

@@ -79,7 +79,7 @@ func TestRootsNumpy(t *testing.T) {
 			t.Errorf("%s: %v", c.name, err)
 			continue
 		}
-		if d := matchRoots(got, c.roots); d > 1e-11 {
+		if d := RootDistance(got, c.roots); d > 1e-11 {
 			t.Errorf("%s: worst relative mismatch %.3g\n got  %v\n want %v", c.name, d, got, c.roots)
 		}
 		// Residual check independent of numpy: |p(r)| small relative to Σ|p_i||r|^i.
@@ -152,7 +152,7 @@ func TestRootsRepeated(t *testing.T) {
 			t.Fatal(err)
 		}
 		tol := 30 * math.Pow(eps, 1/float64(c.m))
-		if d := matchRoots(got, c.roots); d > tol {
+		if d := RootDistance(got, c.roots); d > tol {
 			t.Errorf("%s: mismatch %.3g > tol %.3g: %v", c.name, d, tol, got)
 		}
 	}
