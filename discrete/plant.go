@@ -2,7 +2,6 @@ package discrete
 
 import (
 	"fmt"
-	"math"
 	"math/cmplx"
 	"slices"
 
@@ -49,33 +48,17 @@ func NewPlant(p synth.Problem, T float64) (Plant, error) {
 	if err != nil {
 		return Plant{}, fmt.Errorf("sensor: %w", err)
 	}
-	// Cascade u → G → H: x = [xg; xh].
-	n := gs.N + hs.N
-	a := make([]float64, n*n)
-	b := make([]float64, n)
-	cm := make([]float64, n)
-	cy := make([]float64, n)
-	for i := 0; i < gs.N; i++ {
-		copy(a[i*n:i*n+gs.N], gs.A[i*gs.N:(i+1)*gs.N])
-		b[i] = gs.B[i]
-		cy[i] = gs.C[i]
-		cm[i] = hs.D * gs.C[i]
-	}
-	for i := 0; i < hs.N; i++ {
-		r := gs.N + i
-		for j := 0; j < gs.N; j++ {
-			a[r*n+j] = hs.B[i] * gs.C[j]
-		}
-		copy(a[r*n+gs.N:r*n+n], hs.A[i*hs.N:(i+1)*hs.N])
-		b[r] = hs.B[i] * gs.D
-		cm[r] = hs.C[i]
-	}
-	whole, frac := splitDelay(p.Plant.Delay, T)
-	dm, err := lti.ZOHDelay(lti.SS{N: n, A: a, B: b, C: cm, D: hs.D * gs.D}, T, frac)
+	// Cascade u → G → H, x = [xg; xh]: the sensor's output is the measured
+	// rate, G's output (on the first gs.N states) the true rate.
+	gh := lti.Series(gs, hs)
+	cy := make([]float64, gh.N)
+	copy(cy, gs.C)
+	whole, frac := lti.SplitDelay(p.Plant.Delay, T)
+	dm, err := lti.ZOHDelay(gh, T, frac)
 	if err != nil {
 		return Plant{}, fmt.Errorf("sampling the plant and sensor: %w", err)
 	}
-	dy, err := lti.ZOHDelay(lti.SS{N: n, A: a, B: b, C: cy, D: gs.D}, T, frac)
+	dy, err := lti.ZOHDelay(lti.SS{N: gh.N, A: gh.A, B: gh.B, C: cy, D: gs.D}, T, frac)
 	if err != nil {
 		return Plant{}, fmt.Errorf("sampling the plant: %w", err)
 	}
@@ -141,24 +124,6 @@ func (p Plant) evalMeasured(z complex128) complex128 {
 		return p.num.Eval(z) / p.den.Eval(z)
 	}
 	return p.measured().Eval(z)
-}
-
-// splitDelay splits τ into whole samples and a fraction in [0, T), with a
-// fraction within 1e−12·T of a sample boundary snapped to it, so that a
-// delay of exactly d samples in decimal gives d samples.
-func splitDelay(tau, T float64) (int, float64) {
-	if !(tau > 0) {
-		return 0, 0
-	}
-	d := math.Floor(tau / T)
-	f := tau - d*T
-	if f < 1e-12*T {
-		f = 0
-	} else if T-f < 1e-12*T {
-		d++
-		f = 0
-	}
-	return int(d), math.Max(f, 0)
 }
 
 // Full returns the feedback path with the whole-sample delay as shift

@@ -1,6 +1,7 @@
 package lti
 
 import (
+	"math"
 	"math/cmplx"
 	"testing"
 )
@@ -41,5 +42,20 @@ func TestCascadeSS(t *testing.T) {
 	}
 	if _, err := (ZPK{Gain: 1, Poles: []complex128{-1}, Zeros: []complex128{-1, -2}}).CascadeSS(); err == nil {
 		t.Error("improper model accepted")
+	}
+}
+
+// SplitDelay: a delay of whole samples written in decimal (0.003 s at
+// 1 kHz is 2.9999999999999996 samples in binary) gives whole samples.
+func TestSplitDelay(t *testing.T) {
+	for _, c := range []struct {
+		tau, T float64
+		d      int
+		f      float64
+	}{{0.003, 0.001, 3, 0}, {0.0013, 0.001, 1, 0.0003}, {0, 0.001, 0, 0}, {0.0005, 0.001, 0, 0.0005}, {0.7, 0.1, 7, 0}} {
+		d, f := SplitDelay(c.tau, c.T)
+		if d != c.d || math.Abs(f-c.f) > 1e-15 {
+			t.Errorf("SplitDelay(%g, %g) = %d, %g; want %d, %g", c.tau, c.T, d, f, c.d, c.f)
+		}
 	}
 }

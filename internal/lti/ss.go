@@ -182,18 +182,7 @@ func ZOHDelay(s SS, T, tau float64) (Disc, error) {
 	if tau == 0 {
 		return ZOH(s, T)
 	}
-	q := tau / T
-	d := int(math.Floor(q))
-	f := tau - float64(d)*T
-	if f < 1e-12*T {
-		f = 0
-	} else if T-f < 1e-12*T {
-		d++
-		f = 0
-	}
-	if f < 0 {
-		f = 0
-	}
+	d, f := SplitDelay(tau, T)
 	n := s.N
 	phi, gam0, err := expAug(n, s.A, s.B, T)
 	if err != nil {
@@ -266,4 +255,23 @@ func ZOHDelay(s SS, T, tau float64) (Disc, error) {
 		return Disc{}, err
 	}
 	return out, nil
+}
+
+// SplitDelay splits the delay τ ≥ 0 into d whole samples of period T and a
+// fraction f in [0, T), τ = d·T + f. A fraction within 1e-12·T of a sample
+// boundary is snapped to it, so that a delay of exactly d samples in
+// decimal gives d samples and no spurious fractional state.
+func SplitDelay(tau, T float64) (d int, f float64) {
+	if !(tau > 0) {
+		return 0, 0
+	}
+	q := math.Floor(tau / T)
+	f = tau - q*T
+	if f < 1e-12*T {
+		f = 0
+	} else if T-f < 1e-12*T {
+		q++
+		f = 0
+	}
+	return int(q), math.Max(f, 0)
 }
