@@ -473,35 +473,15 @@ func TestMixerSaturationBoundsWindup(t *testing.T) {
 	run := func(report bool) (ipk float64, y []float64) {
 		prm := ParamsOf[float64](d.Coeffs)
 		var st State[float64]
-		pl := d.Plant
-		x := make([]float64, pl.N)
-		xn := make([]float64, pl.N)
-		ring := make([]float64, 1+pl.Delay)
-		for i := 0; i < 3000; i++ {
-			ym, yt := 0.0, 0.0
-			for j := range x {
-				ym += pl.Cm[j] * x[j]
-				yt += pl.Cy[j] * x[j]
-			}
-			y = append(y, yt)
+		y, _ = d.Plant.Run(1, 3000, func(ym float64) float64 {
 			u := Step(&prm, &st, 150, ym)
-			ua := math.Max(-0.3, math.Min(0.3, u))
+			ua := math.Max(-0.3, math.Min(0.3, u)) // the mixer clips
 			if report {
 				Applied(&st, ua)
 			}
 			ipk = math.Max(ipk, st.S) // windup is in the direction of the error (+)
-			// One sample of compute delay plus the plant's whole samples.
-			ring = append(ring, ua)
-			prev := ring[len(ring)-2-pl.Delay]
-			for r := range x {
-				acc := pl.B[r] * prev
-				for j := range x {
-					acc += pl.A[r*pl.N+j] * x[j]
-				}
-				xn[r] = acc
-			}
-			x, xn = xn, x
-		}
+			return ua
+		})
 		return ipk, y
 	}
 	withReport, yr := run(true)

@@ -182,6 +182,20 @@ func saturated(p synth.Problem, pl Plant, k Coeffs, d int, ulin []float64, dc fl
 func simulateNonlinear(pl Plant, k Coeffs, d int, a float64, n int) (y, u []float64, ipeak float64) {
 	prm := ParamsOf[float64](k)
 	var st State[float64]
+	y, u = pl.Run(d, n, func(ym float64) float64 {
+		cmd := Step(&prm, &st, a, ym)
+		ipeak = math.Max(ipeak, math.Abs(st.S))
+		return cmd
+	})
+	return y, u, ipeak
+}
+
+// Run closes the loop of the sampled plant with any controller: at each of
+// n samples, step gets the measured rate and returns the command, which
+// reaches the plant d (compute delay) plus Delay samples later. It returns
+// the true rate and the command at the samples, the plant starting at
+// rest.
+func (pl Plant) Run(d, n int, step func(measured float64) float64) (y, u []float64) {
 	x := make([]float64, 2*pl.N)
 	xc, xn := x[:pl.N], x[pl.N:]
 	d += pl.Delay
@@ -194,9 +208,8 @@ func simulateNonlinear(pl Plant, k Coeffs, d int, a float64, n int) (y, u []floa
 			yt += pl.Cy[j] * xc[j]
 		}
 		y[i] = yt
-		cmd := Step(&prm, &st, a, ym)
+		cmd := step(ym)
 		u[i] = cmd
-		ipeak = math.Max(ipeak, math.Abs(st.S))
 		copy(q[1:], q[:d])
 		q[0] = cmd
 		ua := q[d]
@@ -210,5 +223,5 @@ func simulateNonlinear(pl Plant, k Coeffs, d int, a float64, n int) (y, u []floa
 		}
 		xc, xn = xn, xc
 	}
-	return y, u, ipeak
+	return y, u
 }

@@ -34,31 +34,14 @@ func fixedStep(d *discrete.Design) (float64, []float64) {
 	if !(a > 0) || !(fin > 0) || !(fout > 0) || math.IsInf(a, 0) {
 		return 0, nil
 	}
-	n := len(d.Verif.Y)
-	dl := d.Loop.ComputeDelay + pl.Delay // whole samples, compute and transport
-	x, xn := make([]float64, pl.N), make([]float64, pl.N)
-	q := make([]float64, dl+1) // q[0] newest command
 	rr := discrete.ToRaw(a/fin, w)
 	var st discrete.FixedState
-	y := make([]float64, n)
-	for i := 0; i < n; i++ {
-		var ym, yt float64
-		for j := range x {
-			ym += pl.Cm[j] * x[j]
-			yt += pl.Cy[j] * x[j]
-		}
-		y[i] = yt / a
+	y, _ := pl.Run(d.Loop.ComputeDelay, len(d.Verif.Y), func(ym float64) float64 {
 		u := fx.Step(&st, int32(rr), int32(discrete.ToRaw(ym/fin, w)))
-		copy(q[1:], q[:dl])
-		q[0] = discrete.FromRaw(int64(u), w) * fout
-		for r := 0; r < pl.N; r++ {
-			acc := pl.B[r] * q[dl]
-			for j, av := range pl.A[r*pl.N : (r+1)*pl.N] {
-				acc += av * x[j]
-			}
-			xn[r] = acc
-		}
-		x, xn = xn, x
+		return discrete.FromRaw(int64(u), w) * fout
+	})
+	for i := range y {
+		y[i] /= a
 	}
 	return a, y
 }
