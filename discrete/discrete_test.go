@@ -718,9 +718,9 @@ func TestCharacteristicMatchesStateModel(t *testing.T) {
 			t.Fatal(err)
 		}
 		for _, z := range []complex128{complexExp(0.2), complex(0.3, 0.1), 2} {
-			n, d := feedbackTF(k)
+			n, _, d := k.TF()
 			if got, want := n.Eval(z)/d.Eval(z), feedback(k, z); cmplx.Abs(got-want) > 1e-12*cmplx.Abs(want) {
-				t.Errorf("%s: feedbackTF %v, feedback %v", f, got, want)
+				t.Errorf("%s: Coeffs.TF %v, feedback %v", f, got, want)
 			}
 		}
 		roots, err := characteristic(pl, k, 1).Roots()

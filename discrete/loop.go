@@ -220,23 +220,49 @@ func feedback(k Coeffs, z complex128) complex128 {
 	return v
 }
 
-// feedbackTF returns C_fb(z) as num/den in powers of z (ascending); see
-// feedback for the terms.
-func feedbackTF(k Coeffs) (num, den lti.Poly) {
-	switch {
-	case k.Form == synth.FormLead:
-		return lti.Poly{k.B1, k.B0}, lti.Poly{k.A1, 1}
-	case k.Form == synth.FormPI:
-		g := k.Kp + k.G0
-		return lti.Poly{-g + k.G01, g}, lti.Poly{-1, 1}
-	case k.Form == synth.FormPD:
-		return lti.Poly{-k.Kp*k.Ad - k.Bd, k.Kp + k.Bd}, lti.Poly{-k.Ad, 1}
-	case k.Form == synth.FormPID:
-		den = lti.Poly{k.Ad, -(1 + k.Ad), 1} // (z − 1)(z − Ad)
-		num = lti.PolyAdd(den.Scale(k.Kp+k.G0), lti.PolyAdd(lti.Poly{-k.Ad, 1}.Scale(k.G01), lti.Poly{1, -2, 1}.Scale(k.Bd)))
-		return num, den
+// TF returns the linear controller as polynomials in z over a common
+// denominator: the feedback path C(z) = Num/Den from the measurement
+// (u = F·r − C·y) and the setpoint path F(z) = SetNum/Den, read off the
+// difference equations of Coeffs:
+//
+//	integral    I(z) = G0 + G01·z⁻¹/(1 − z⁻¹) = (G0·z + G01 − G0)/(z − 1)
+//	derivative  D(z) = Bd·(1 − z⁻¹)/(1 − Ad·z⁻¹) = Bd·(z − 1)/(z − Ad)
+//	C = Kp + I + D,  F = KpB + I (+ D with the derivative on the error)
+//	lead        C = F = (B0 + B1·z⁻¹)/(1 + A1·z⁻¹) = (B0·z + B1)/(z + A1)
+func (k Coeffs) TF() (num, setNum, den lti.Poly) {
+	if k.Form == synth.FormLead {
+		n := lti.Poly{k.B1, k.B0}
+		return n, n, lti.Poly{k.A1, 1}
 	}
-	return lti.Poly{k.Kp}, lti.Poly{1}
+	den = lti.Poly{1}
+	iDen, dDen := lti.Poly{-1, 1}, lti.Poly{-k.Ad, 1}
+	hasI, hasD := k.Form.HasIntegral(), k.Form.HasDerivative()
+	if hasI {
+		den = lti.PolyMul(den, iDen)
+	}
+	if hasD {
+		den = lti.PolyMul(den, dDen)
+	}
+	// Each term over the common denominator: term·den/own denominator.
+	num, setNum = den.Scale(k.Kp), den.Scale(k.KpB)
+	if hasI {
+		t := lti.Poly{k.G01 - k.G0, k.G0}
+		if hasD {
+			t = lti.PolyMul(t, dDen)
+		}
+		num, setNum = lti.PolyAdd(num, t), lti.PolyAdd(setNum, t)
+	}
+	if hasD {
+		t := lti.Poly{-k.Bd, k.Bd}
+		if hasI {
+			t = lti.PolyMul(t, iDen)
+		}
+		num = lti.PolyAdd(num, t)
+		if k.DerivativeOnError {
+			setNum = lti.PolyAdd(setNum, t)
+		}
+	}
+	return num, setNum, den
 }
 
 // characteristic returns Dc·Dp·z^D + Nc·Np, whose roots are the closed-loop
@@ -246,7 +272,7 @@ func characteristic(pl Plant, k Coeffs, d int) lti.Poly {
 	if pl.den == nil {
 		return nil
 	}
-	nc, dc := feedbackTF(k)
+	nc, _, dc := k.TF()
 	zd := make(lti.Poly, d+pl.Delay+1)
 	zd[len(zd)-1] = 1
 	return lti.PolyAdd(lti.PolyMul(lti.PolyMul(dc, pl.den), zd), lti.PolyMul(nc, pl.num))

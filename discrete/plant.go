@@ -75,47 +75,35 @@ func NewPlant(p synth.Problem, T float64) (Plant, error) {
 	return pl, nil
 }
 
-// transferFunction returns Cm(zI − A)⁻¹B as num/den in z by the identity
-// det(zI − A + B·Cm) = det(zI − A)·(1 + Cm(zI − A)⁻¹B): with both
-// characteristic polynomials from eigenvalues, num = det(zI − (A − B·Cm)) −
-// det(zI − A). The result is checked against the resolvent at a few points
-// on the unit circle and dropped (nil) when they disagree by more than
-// 1e-9 relative, in which case sweeps use the resolvent.
+// transferFunction returns Cm(zI − A)⁻¹B as num/den in z (lti.Disc.TF,
+// the determinant lemma), checked against the resolvent at a few points on
+// the unit circle and dropped (nil) when they disagree by more than 1e-9
+// relative, in which case sweeps use the resolvent.
 func (p Plant) transferFunction() (lti.Poly, lti.Poly) {
 	d := p.measured()
-	ev, err := d.Poles()
+	tf, err := d.TF()
 	if err != nil {
 		return nil, nil
 	}
-	den, err := lti.FromRoots(ev)
-	if err != nil {
-		return nil, nil
-	}
-	abc := make([]float64, len(p.A))
-	for i := 0; i < p.N; i++ {
-		for j := 0; j < p.N; j++ {
-			abc[i*p.N+j] = p.A[i*p.N+j] - p.B[i]*p.Cm[j]
-		}
-	}
-	ev2, err := lti.Disc{N: p.N, A: abc, B: p.B, C: p.Cm, T: p.T}.Poles()
-	if err != nil {
-		return nil, nil
-	}
-	c2, err := lti.FromRoots(ev2)
-	if err != nil {
-		return nil, nil
-	}
-	num := lti.PolyAdd(c2, den.Scale(-1))
 	for _, th := range []float64{1e-3, 0.01, 0.1, 0.5, 1, 2, 3} {
 		z := complexExp(th)
 		want := d.Eval(z)
-		got := num.Eval(z) / den.Eval(z)
-		if !(cmplx.Abs(got-want) <= 1e-9*cmplx.Abs(want)) {
+		if got := tf.Eval(z); !(cmplx.Abs(got-want) <= 1e-9*cmplx.Abs(want)) {
 			return nil, nil
 		}
 	}
-	return num, den
+	return tf.Num, tf.Den
 }
+
+// TrueRate returns the true-rate output path (plant without sensor) as an
+// lti.Disc on the same state, without the whole-sample delay.
+func (p Plant) TrueRate() lti.Disc {
+	return lti.Disc{N: p.N, A: p.A, B: p.B, C: p.Cy, T: p.T}
+}
+
+// Measured returns the feedback path (plant and sensor) as an lti.Disc,
+// without the whole-sample delay.
+func (p Plant) Measured() lti.Disc { return p.measured() }
 
 // evalMeasured returns the frequency response at z of the feedback path
 // without its whole-sample delay (the caller applies z^(−Delay)).

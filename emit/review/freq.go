@@ -11,52 +11,14 @@ import (
 )
 
 // zCtrl is the linear (unsaturated) discrete controller as polynomials in
-// z: the feedback path C(z) = Num/Den from the measurement (u = F·r − C·y)
-// and the setpoint path F(z) = SetNum/Den. It is read off the difference
-// equations documented on discrete.Coeffs:
-//
-//	integral    I(z) = G0 + G01·z⁻¹/(1 − z⁻¹) = (G0·z + G01 − G0)/(z − 1)
-//	derivative  D(z) = Bd·(1 − z⁻¹)/(1 − Ad·z⁻¹) = Bd·(z − 1)/(z − Ad)
-//	C = Kp + I + D,  F = b·Kp + I (+ D with the derivative on the error)
-//	lead        C = F = (B0 + B1·z⁻¹)/(1 + A1·z⁻¹) = (B0·z + B1)/(z + A1)
+// z (discrete.Coeffs.TF): the feedback path C(z) = Num/Den and the setpoint
+// path F(z) = SetNum/Den.
 type zCtrl struct {
 	Num, SetNum, Den lti.Poly
 }
 
 func newZCtrl(k discrete.Coeffs) zCtrl {
-	if k.Form == synth.FormLead {
-		n := lti.Poly{k.B1, k.B0}
-		return zCtrl{Num: n, SetNum: n, Den: lti.Poly{k.A1, 1}}
-	}
-	den := lti.Poly{1}
-	iDen, dDen := lti.Poly{-1, 1}, lti.Poly{-k.Ad, 1}
-	hasI, hasD := k.Form.HasIntegral(), k.Form.HasDerivative()
-	if hasI {
-		den = lti.PolyMul(den, iDen)
-	}
-	if hasD {
-		den = lti.PolyMul(den, dDen)
-	}
-	// Each term over the common denominator: term·den/own denominator.
-	num := den.Scale(k.Kp)
-	set := den.Scale(k.KpB)
-	if hasI {
-		t := lti.Poly{k.G01 - k.G0, k.G0}
-		if hasD {
-			t = lti.PolyMul(t, dDen)
-		}
-		num, set = lti.PolyAdd(num, t), lti.PolyAdd(set, t)
-	}
-	if hasD {
-		t := lti.Poly{-k.Bd, k.Bd}
-		if hasI {
-			t = lti.PolyMul(t, iDen)
-		}
-		num = lti.PolyAdd(num, t)
-		if k.DerivativeOnError {
-			set = lti.PolyAdd(set, t)
-		}
-	}
+	num, set, den := k.TF()
 	return zCtrl{Num: num, SetNum: set, Den: den}
 }
 
@@ -77,8 +39,8 @@ func newDiscreteLoop(d *discrete.Design) discreteLoop {
 	pl := d.Plant
 	return discreteLoop{
 		ctrl:  newZCtrl(d.Coeffs),
-		plant: lti.Disc{N: pl.N, A: pl.A, B: pl.B, C: pl.Cm, T: pl.T},
-		trueY: lti.Disc{N: pl.N, A: pl.A, B: pl.B, C: pl.Cy, T: pl.T},
+		plant: pl.Measured(),
+		trueY: pl.TrueRate(),
 		d:     d.Loop.ComputeDelay + pl.Delay,
 		T:     pl.T,
 	}
@@ -95,37 +57,6 @@ func (l discreteLoop) at(w float64) complex128 {
 	return v
 }
 
-// charPoly returns det(zI − A) of an n×n row-major matrix as a monic
-// polynomial, from its eigenvalues.
-func charPoly(n int, a []float64) (lti.Poly, error) {
-	ev, err := lti.Disc{N: n, A: a, B: make([]float64, n), C: make([]float64, n), T: 1}.Poles()
-	if err != nil {
-		return nil, err
-	}
-	return lti.FromRoots(ev)
-}
-
-// numerator returns the numerator of C(zI − A)⁻¹B over det(zI − A):
-// det(zI − A + B·C) − det(zI − A), by the matrix determinant lemma.
-func numerator(s lti.Disc) (lti.Poly, error) {
-	n := s.N
-	abc := make([]float64, n*n)
-	for i := 0; i < n; i++ {
-		for j := 0; j < n; j++ {
-			abc[i*n+j] = s.A[i*n+j] - float64(s.B[i]*s.C[j])
-		}
-	}
-	p1, err := charPoly(n, abc)
-	if err != nil {
-		return nil, err
-	}
-	p0, err := charPoly(n, s.A)
-	if err != nil {
-		return nil, err
-	}
-	return lti.PolyAdd(p1, p0.Scale(-1)), nil
-}
-
 // zMap is the z-plane picture of the sampled loop: closed-loop poles and
 // zeros from setpoint to true rate,
 //
@@ -137,18 +68,15 @@ type zMap struct {
 }
 
 func newZMap(l discreteLoop) (zMap, error) {
-	dp, err := charPoly(l.plant.N, l.plant.A)
+	pm, err := l.plant.TF()
 	if err != nil {
-		return zMap{}, fmt.Errorf("plant poles: %w", err)
+		return zMap{}, fmt.Errorf("plant poles and zeros: %w", err)
 	}
-	npm, err := numerator(l.plant)
-	if err != nil {
-		return zMap{}, fmt.Errorf("plant zeros: %w", err)
-	}
-	npy, err := numerator(l.trueY)
+	py, err := l.trueY.TF()
 	if err != nil {
 		return zMap{}, fmt.Errorf("plant zeros: %w", err)
 	}
+	dp, npm, npy := pm.Den, pm.Num, py.Num
 	zd := make(lti.Poly, l.d+1)
 	zd[l.d] = 1
 	char := lti.PolyAdd(lti.PolyMul(lti.PolyMul(l.ctrl.Den, dp), zd), lti.PolyMul(l.ctrl.Num, npm))

@@ -59,3 +59,32 @@ func TestSplitDelay(t *testing.T) {
 		}
 	}
 }
+
+// Disc.TF agrees with the resolvent C(zI − A)⁻¹B + D (Gaussian elimination
+// at each z) for the ZOH of the cascade models above.
+func TestDiscTF(t *testing.T) {
+	for i, z := range []ZPK{
+		{Gain: 2e9, Poles: []complex128{0, -25, complex(-300, 400), complex(-300, -400)}},
+		{Gain: 500, Poles: []complex128{-5, -50}, Zeros: []complex128{-20}},
+		{Gain: -2, Poles: []complex128{-1}, Zeros: []complex128{1}},
+	} {
+		s, err := z.CascadeSS()
+		if err != nil {
+			t.Fatal(err)
+		}
+		d, err := ZOH(s, 0.001)
+		if err != nil {
+			t.Fatal(err)
+		}
+		tf, err := d.TF()
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, th := range []float64{0.01, 0.5, 3} {
+			w := cmplx.Rect(1, th)
+			if got, want := tf.Eval(w), d.Eval(w); cmplx.Abs(got-want) > 1e-9*cmplx.Abs(want) {
+				t.Errorf("case %d at θ=%g: %v, resolvent %v", i, th, got, want)
+			}
+		}
+	}
+}

@@ -242,3 +242,44 @@ func resolvent(n int, a, b, c []float64, dd float64, z complex128) complex128 {
 	}
 	return acc + complex(dd, 0)
 }
+
+// TF returns C(zI − A)⁻¹B + D as a rational function of z. The
+// denominator det(zI − A) and det(zI − A + B·C) come from eigenvalues, and
+// the numerator follows from the matrix determinant lemma,
+// det(zI − A + B·C) = det(zI − A)·(1 + C(zI − A)⁻¹B):
+// Num = det(zI − (A − B·C)) − det(zI − A) + D·det(zI − A). The difference
+// cancels the leading terms exactly in theory but not always in floating
+// point; callers that need the numerator's roots trim the residue.
+func (d Disc) TF() (TF, error) {
+	if !d.dimsOK() {
+		return TF{}, ErrBadDims
+	}
+	n := d.N
+	ev, err := d.Poles()
+	if err != nil {
+		return TF{}, err
+	}
+	den, err := FromRoots(ev)
+	if err != nil {
+		return TF{}, err
+	}
+	abc := make([]float64, n*n)
+	for i := 0; i < n; i++ {
+		for j := 0; j < n; j++ {
+			abc[i*n+j] = d.A[i*n+j] - float64(d.B[i]*d.C[j])
+		}
+	}
+	ev2, err := Disc{N: n, A: abc, B: d.B, C: d.C, T: d.T}.Poles()
+	if err != nil {
+		return TF{}, err
+	}
+	c2, err := FromRoots(ev2)
+	if err != nil {
+		return TF{}, err
+	}
+	num := PolyAdd(c2, den.Scale(-1))
+	if d.D != 0 {
+		num = PolyAdd(num, den.Scale(d.D))
+	}
+	return TF{Num: num, Den: den}, nil
+}
