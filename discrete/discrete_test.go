@@ -747,3 +747,73 @@ func TestCharacteristicMatchesStateModel(t *testing.T) {
 		}
 	}
 }
+
+// The integrator's reach: at steady state u = r/G(0) (0 for an
+// integrating plant, by the final-value theorem) and u = KpB·r − Kp·r + s,
+// so the integrator holds s = (1/G(0) + Kp − KpB)·r and the largest
+// steady setpoint is IL/|1/G(0) + Kp − KpB|. The reference model, run
+// with a setpoint inside the reach, settles with its integrator there.
+func TestReachLimitMatchesSteadyState(t *testing.T) {
+	for _, plant := range []lti.ZPK{
+		{Gain: 2000 / 0.03, Poles: []complex128{0, complex(-1/0.03, 0)}}, // integrating
+		{Gain: 4000, Poles: []complex128{-2, -60}},                       // G(0) = 33.3
+	} {
+		p := demo(synth.FormPID)
+		p.Plant = synth.Plant{Model: plant}
+		p.Ctrl.SetpointWeight, p.Ctrl.SetpointWeightSet = 0.5, true
+		p.Ctrl.OutputLimit = [2]float64{-100, 100}
+		p.Ctrl.IntegratorLimit = 100
+		d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float64})
+		if err != nil {
+			t.Fatal(err)
+		}
+		k := d.Coeffs
+		g0 := real(plant.Eval(0))
+		inv := 0.0
+		if !math.IsInf(g0, 0) {
+			inv = 1 / g0
+		}
+		if want := k.IL / math.Abs(inv+k.Kp-k.KpB); math.Abs(reachLimit(p, k)-want) > 1e-12*want {
+			t.Errorf("reach %g, want %g", reachLimit(p, k), want)
+		}
+		r := 0.5 * reachLimit(p, k)
+		prm := ParamsOf[float64](k)
+		var st State[float64]
+		d.Plant.Run(1, 20000, func(ym float64) float64 { return Step(&prm, &st, r, ym) })
+		if want := (inv + k.Kp - k.KpB) * r; math.Abs(st.S-want) > 1e-6*math.Abs(want) {
+			t.Errorf("G(0) = %g: integrator settles at %.9g, want %.9g", g0, st.S, want)
+		}
+	}
+}
+
+// The saturated step is the one whose linear command peaks at twice the
+// upper limit (the response is linear in the setpoint), unless it is
+// reduced to the reach or the full scale, which the result says.
+func TestSaturatedStepAmplitude(t *testing.T) {
+	d, err := DesignAxis(demo(synth.FormPID), Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float32})
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := d.Verif.Saturated
+	peak := 0.0
+	for _, u := range d.Verif.U {
+		peak = math.Max(peak, math.Abs(u))
+	}
+	want := 2 * d.Coeffs.Hi / peak
+	if rmax := reachLimit(d.Problem, d.Coeffs); want > 0.9*rmax {
+		want = 0.9 * rmax
+		if !s.LimitedByReach {
+			t.Error("amplitude reduced to the reach without saying so")
+		}
+	}
+	if math.Abs(s.Amplitude-want) > 1e-12*want {
+		t.Errorf("amplitude %g, want %g", s.Amplitude, want)
+	}
+	dd, err := DesignAxis(demo(synth.FormPID), Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float32, InputFullScale: 1, OutputFullScale: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if ss := dd.Verif.Saturated; ss.Amplitude != 1 || !ss.LimitedByFullScale {
+		t.Errorf("with input full scale 1: amplitude %g, limited by full scale %v", ss.Amplitude, ss.LimitedByFullScale)
+	}
+}

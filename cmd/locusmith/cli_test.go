@@ -574,6 +574,10 @@ func TestUsageErrors(t *testing.T) {
 		{[]string{"design", "--json=maybe", "x.toml"}, "invalid argument"},
 		{[]string{"version", "extra"}, "takes no arguments"},
 		{[]string{"help", "fly"}, `unknown verb "fly"`},
+		{[]string{"design", "-j", "0", "x.toml"}, "--jobs 0: must be at least 1"},
+		{[]string{"emit", "-o", ".", "--jobs", "-2", "x.toml"}, "--jobs -2: must be at least 1"},
+		{[]string{"report", "-o", ".", "-j", "0", "x.toml"}, "--jobs 0: must be at least 1"},
+		{[]string{"design", "-j", "many", "x.toml"}, "invalid argument"},
 	}
 	for _, tc := range cases {
 		code, out, errs := runCLI(t, tc.args...)
