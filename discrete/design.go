@@ -41,11 +41,11 @@ func (d *Design) OK() bool {
 // sampled loop: the controller as discretized at the loop rate, the ZOH
 // plant, the compute delay.
 func Evaluator(p synth.Problem, pl Plant, d int) synth.Evaluator {
-	return func(c synth.Controller, bs []float64) (synth.Evaluation, error) {
+	return func(c synth.Controller) (synth.Evaluation, error) {
 		var e synth.Evaluation
 		wc := math.NaN()
 		if Method(p.Ctrl.Discretize) == TustinPrewarp {
-			wc = synth.LoopMargins(p, c).Crossover
+			wc = synth.Crossover(p, c)
 		}
 		k, _, err := Realize(c, p.Ctrl, pl.T, wc)
 		if err != nil {
@@ -67,16 +67,12 @@ func Evaluator(p synth.Problem, pl Plant, d int) synth.Evaluator {
 		}
 		lo, _ := spanOf(p)
 		e.Margins = func() lti.Margins { return loopMargins(pl, k, d, lo) }
-		n := horizon(p.Spec.SettlingTime, pl.T, nil, 4)
 		k0, k1 := k, k
 		k0.KpB, k1.KpB = 0, k.Kp
 		c0, c1 := linearize(k0), linearize(k1)
-		L0, L1 := newClosedLoop(pl, c0, d), newClosedLoop(pl, c1, d)
-		y0, y1 := make([]float64, n), make([]float64, n)
-		simulate(pl, c0, d, y0, nil)
-		simulate(pl, c1, d, y1, nil)
-		dc0, dc1 := L0.dcGain(), L1.dcGain()
-		e.Step, e.NumSteps = synth.LinearSteps(y0, y1, pl.T, dc0, dc1, p.Spec.Band, bs), len(bs)
+		e.N, e.H = horizon(p.Spec.SettlingTime, pl.T, nil, 4), pl.T
+		e.Final0, e.Final1 = newClosedLoop(pl, c0, d).dcGain(), newClosedLoop(pl, c1, d).dcGain()
+		e.Respond = newPairStepper(pl, c0, c0.Dr, c1.Dr, d).run
 		return e, nil
 	}
 }

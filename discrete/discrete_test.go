@@ -817,3 +817,41 @@ func TestSaturatedStepAmplitude(t *testing.T) {
 		t.Errorf("with input full scale 1: amplitude %g, limited by full scale %v", ss.Amplitude, ss.LimitedByFullScale)
 	}
 }
+
+// The paired simulation is the two single ones, sample for sample and bit
+// for bit, however the record is cut into calls.
+func TestPairStepperMatchesStepper(t *testing.T) {
+	for _, form := range synth.Forms {
+		p := demo(form)
+		pl, err := NewPlant(p, 0.001)
+		if err != nil {
+			t.Fatal(err)
+		}
+		c := synth.Controller{Form: form, Kp: 0.04, Ki: 0.4, Kd: 0.0008, Tf: 0.0013, B: 1, K: 2, Zero: -20, Pole: -90}
+		k, _, err := Realize(c, p.Ctrl, pl.T, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for d := range 3 {
+			k0, k1 := k, k
+			k0.KpB, k1.KpB = 0, k.Kp
+			c0, c1 := linearize(k0), linearize(k1)
+			const n = 500
+			w0, w1 := make([]float64, n), make([]float64, n)
+			simulate(pl, c0, d, w0, nil)
+			simulate(pl, c1, d, w1, nil)
+			g0, g1 := make([]float64, n), make([]float64, n)
+			ps := newPairStepper(pl, c0, c0.Dr, c1.Dr, d)
+			for i, cut := 0, 1; i < n; cut = cut*2 + 1 {
+				j := min(i+cut, n)
+				ps.run(g0[i:j], g1[i:j])
+				i = j
+			}
+			for i := range n {
+				if g0[i] != w0[i] || g1[i] != w1[i] {
+					t.Fatalf("%s d=%d: sample %d: pair (%g, %g), single (%g, %g)", form, d, i, g0[i], g1[i], w0[i], w1[i])
+				}
+			}
+		}
+	}
+}

@@ -2,6 +2,7 @@ package discrete
 
 import (
 	"math"
+	"math/cmplx"
 
 	"locusmith/internal/lti"
 	"locusmith/synth"
@@ -142,49 +143,169 @@ func (L closedLoop) poles() ([]complex128, error) {
 // rate into y and, if u is not nil, the command. The delays are a ring
 // buffer, so a long delay costs nothing per sample.
 func simulate(pl Plant, c linearCtrl, d int, y, u []float64) {
+	newStepper(pl, c, d).run(y, u)
+}
+
+// stepper is the state of a unit-step simulation of the linear loop that
+// can be continued: run fills the next samples, so a search can stop a
+// response as soon as it has seen enough.
+type stepper struct {
+	pl      Plant
+	c       linearCtrl
+	x, xn   []float64 // plant state, now and next
+	xc, xcn []float64 // controller state
+	ring    []float64 // commands of the last D samples
+	k       int       // samples run so far
+}
+
+func newStepper(pl Plant, c linearCtrl, d int) *stepper {
 	D := d + pl.Delay
 	np, m := pl.N, c.M
 	buf := make([]float64, 2*np+2*m+D+1)
-	x, xn := buf[:np], buf[np:2*np]
-	xc, xcn := buf[2*np:2*np+m], buf[2*np+m:2*np+2*m]
-	ring := buf[2*np+2*m:]
-	for k := range y {
+	return &stepper{pl: pl, c: c, x: buf[:np], xn: buf[np : 2*np],
+		xc: buf[2*np : 2*np+m], xcn: buf[2*np+m : 2*np+2*m], ring: buf[2*np+2*m:]}
+}
+
+// run writes the true rate of the next len(y) samples into y and, if u is
+// not nil, the command.
+func (s *stepper) run(y, u []float64) {
+	pl, c := &s.pl, &s.c
+	np, m := pl.N, c.M
+	x, xn, xc, xcn, ring := s.x, s.xn, s.xc, s.xcn, s.ring
+	pa, pb, cm, cy := pl.A[:np*np], pl.B[:np], pl.Cm[:np], pl.Cy[:np]
+	ca, cb, cby, cc := c.Ac[:m*m], c.Br[:m], c.By[:m], c.Cc[:m]
+	dr, dy := c.Dr, c.Dy
+	// Slot w takes this sample's command; slot r (the next one) still
+	// holds the command of D samples ago.
+	w := s.k % len(ring)
+	for t := range y {
 		var ym, yt float64
-		for j := 0; j < np; j++ {
-			ym += pl.Cm[j] * x[j]
-			yt += pl.Cy[j] * x[j]
+		for j, v := range x[:np] {
+			ym += cm[j] * v
+			yt += cy[j] * v
 		}
-		y[k] = yt
-		cmd := c.Dr + c.Dy*ym
-		for j := 0; j < m; j++ {
-			cmd += c.Cc[j] * xc[j]
+		y[t] = yt
+		cmd := dr + dy*ym
+		for j, v := range xc[:m] {
+			cmd += cc[j] * v
 		}
 		if u != nil {
-			u[k] = cmd
+			u[t] = cmd
 		}
-		for i := 0; i < m; i++ {
-			acc := c.Br[i] + c.By[i]*ym
-			row := c.Ac[i*m : i*m+m]
-			for j, a := range row {
+		for i := range xcn[:m] {
+			acc := cb[i] + cby[i]*ym
+			for j, a := range ca[i*m : i*m+m] {
 				acc += a * xc[j]
 			}
 			xcn[i] = acc
 		}
 		xc, xcn = xcn, xc
-		// Slot k mod (D+1) takes this command; the next slot still holds
-		// the command of D samples ago.
-		ring[k%(D+1)] = cmd
-		ua := ring[(k+1)%(D+1)]
-		for i := 0; i < np; i++ {
-			acc := pl.B[i] * ua
-			row := pl.A[i*np : i*np+np]
-			for j, a := range row {
+		ring[w] = cmd
+		r := w + 1
+		if r == len(ring) {
+			r = 0
+		}
+		ua := ring[r]
+		w = r
+		for i := range xn[:np] {
+			acc := pb[i] * ua
+			for j, a := range pa[i*np : i*np+np] {
 				acc += a * x[j]
 			}
 			xn[i] = acc
 		}
 		x, xn = xn, x
 	}
+	s.k += len(y)
+	s.x, s.xn, s.xc, s.xcn = x, xn, xc, xcn
+}
+
+// pairStepper runs two unit-step simulations of loops that differ only
+// in the controller's direct setpoint gain (Dr: the setpoint weight's
+// share of Kp) in one pass, which halves the loop overhead that dominates
+// these small state spaces; each lane computes exactly what stepper does.
+type pairStepper struct {
+	pl      Plant
+	c       linearCtrl
+	dr      [2]float64
+	x, xn   [2][]float64
+	xc, xcn [2][]float64
+	ring    [2][]float64
+	k       int
+}
+
+func newPairStepper(pl Plant, c linearCtrl, dr0, dr1 float64, d int) *pairStepper {
+	D := d + pl.Delay
+	np, m := pl.N, c.M
+	s := &pairStepper{pl: pl, c: c, dr: [2]float64{dr0, dr1}}
+	for l := range 2 {
+		buf := make([]float64, 2*np+2*m+D+1)
+		s.x[l], s.xn[l] = buf[:np], buf[np:2*np]
+		s.xc[l], s.xcn[l] = buf[2*np:2*np+m], buf[2*np+m:2*np+2*m]
+		s.ring[l] = buf[2*np+2*m:]
+	}
+	return s
+}
+
+// run writes the true rate of the next len(y0) samples of the two loops
+// into y0 and y1 (len(y1) = len(y0)).
+func (s *pairStepper) run(y0, y1 []float64) {
+	pl, c := &s.pl, &s.c
+	np, m := pl.N, c.M
+	pa, pb, cm, cy := pl.A[:np*np], pl.B[:np], pl.Cm[:np], pl.Cy[:np]
+	ca, cb, cby, cc := c.Ac[:m*m], c.Br[:m], c.By[:m], c.Cc[:m]
+	dr0, dr1, dy := s.dr[0], s.dr[1], c.Dy
+	x0, x1, xn0, xn1 := s.x[0][:np], s.x[1][:np], s.xn[0][:np], s.xn[1][:np]
+	xc0, xc1, xcn0, xcn1 := s.xc[0][:m], s.xc[1][:m], s.xcn[0][:m], s.xcn[1][:m]
+	ring0, ring1 := s.ring[0], s.ring[1][:len(s.ring[0])]
+	w := s.k % len(ring0)
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		var ym0, yt0, ym1, yt1 float64
+		for j, a := range cm {
+			ym0 += a * x0[j]
+			ym1 += a * x1[j]
+		}
+		for j, a := range cy {
+			yt0 += a * x0[j]
+			yt1 += a * x1[j]
+		}
+		y0[t], y1[t] = yt0, yt1
+		cmd0, cmd1 := dr0+dy*ym0, dr1+dy*ym1
+		for j, a := range cc {
+			cmd0 += a * xc0[j]
+			cmd1 += a * xc1[j]
+		}
+		for i := range m {
+			acc0 := cb[i] + cby[i]*ym0
+			acc1 := cb[i] + cby[i]*ym1
+			for j, a := range ca[i*m : i*m+m] {
+				acc0 += a * xc0[j]
+				acc1 += a * xc1[j]
+			}
+			xcn0[i], xcn1[i] = acc0, acc1
+		}
+		xc0, xcn0, xc1, xcn1 = xcn0, xc0, xcn1, xc1
+		ring0[w], ring1[w] = cmd0, cmd1
+		r := w + 1
+		if r == len(ring0) {
+			r = 0
+		}
+		ua0, ua1 := ring0[r], ring1[r]
+		w = r
+		for i := range np {
+			acc0, acc1 := pb[i]*ua0, pb[i]*ua1
+			for j, a := range pa[i*np : i*np+np] {
+				acc0 += a * x0[j]
+				acc1 += a * x1[j]
+			}
+			xn0[i], xn1[i] = acc0, acc1
+		}
+		x0, xn0, x1, xn1 = xn0, x0, xn1, x1
+	}
+	s.k += len(y0)
+	s.x, s.xn = [2][]float64{x0, x1}, [2][]float64{xn0, xn1}
+	s.xc, s.xcn = [2][]float64{xc0, xc1}, [2][]float64{xcn0, xcn1}
 }
 
 // dcGain returns the final value of the true rate after a unit setpoint
@@ -206,18 +327,42 @@ func (L closedLoop) dcGain() float64 {
 // (the terms the form lacks are zero). It equals the linearized model's
 // transfer function (a test checks it) at a fraction of the cost.
 func feedback(k Coeffs, z complex128) complex128 {
-	q := 1 / z
+	n, d := feedbackRatio(k, 1/z)
+	return n / d
+}
+
+// feedbackRatio returns C_fb as a ratio n/d at q = z⁻¹, each side kept as
+// products of the factors (1 − q), (1 − Ad·q), so that a frequency sweep
+// needs one complex division and no cancellation between expanded
+// coefficients near z = 1:
+//
+//	PID family: n = (Kp + G0)·(1 − q)·(1 − Ad·q) + G01·q·(1 − Ad·q) + Bd·(1 − q)²
+//	            d = (1 − q)·(1 − Ad·q)   (each factor only with its term)
+//	lead:       n = B0 + B1·q,  d = 1 + A1·q
+func feedbackRatio(k Coeffs, q complex128) (n, d complex128) {
 	if k.Form == synth.FormLead {
-		return (complex(k.B0, 0) + complex(k.B1, 0)*q) / (1 + complex(k.A1, 0)*q)
+		return complex(k.B0, 0) + complex(k.B1, 0)*q, 1 + complex(k.A1, 0)*q
 	}
-	v := complex(k.Kp, 0)
-	if k.Form.HasIntegral() {
-		v += complex(k.G0, 0) + complex(k.G01, 0)*q/(1-q)
+	hasI, hasD := k.Form.HasIntegral(), k.Form.HasDerivative()
+	fi, fd := complex(1, 0), complex(1, 0) // the integral's and the derivative's denominators
+	if hasI {
+		fi = 1 - q
 	}
-	if k.Form.HasDerivative() {
-		v += complex(k.Bd, 0) * (1 - q) / (1 - complex(k.Ad, 0)*q)
+	if hasD {
+		fd = 1 - complex(k.Ad, 0)*q
 	}
-	return v
+	p := complex(k.Kp, 0)
+	if hasI {
+		p += complex(k.G0, 0)
+	}
+	n = p * fi * fd
+	if hasI {
+		n += complex(k.G01, 0) * q * fd
+	}
+	if hasD {
+		n += complex(k.Bd, 0) * (1 - q) * fi
+	}
+	return n, fi * fd
 }
 
 // TF returns the linear controller as polynomials in z over a common
@@ -313,14 +458,26 @@ func loopMargins(pl Plant, k Coeffs, d int, wlo float64) lti.Margins {
 	T := pl.T
 	ny := math.Pi / T
 	lo := math.Min(wlo, ny/1e4)
+	if k.Form.HasIntegral() && k.Kp > 0 && k.G01 > 0 {
+		// Two decades below the integral zero Ki/Kp (G01 ≈ Ki·T).
+		lo = math.Min(lo, k.G01/T/k.Kp/100)
+	}
 	n := int(math.Ceil(30*math.Log10(ny/lo))) + 1
+	// z⁻¹ = z̄ on the unit circle; the controller and the plant make one
+	// rational function, C·P = (Nc·Np)/(Dc·Dp), with one division, and the
+	// delay z^(−d−Delay) is a phase.
+	delay := float64(d + pl.Delay)
+	if pl.den == nil {
+		return lti.LoopMargins(func(w float64) complex128 {
+			z := complexExp(w * T)
+			cn, cd := feedbackRatio(k, cmplx.Conj(z))
+			return cn / cd * pl.evalMeasured(z) * complexExp(-delay*w*T)
+		}, lo, ny*(1-1e-9), n)
+	}
 	return lti.LoopMargins(func(w float64) complex128 {
 		z := complexExp(w * T)
-		v := feedback(k, z) * pl.evalMeasured(z)
-		for i := 0; i < d+pl.Delay; i++ {
-			v /= z
-		}
-		return v
+		cn, cd := feedbackRatio(k, cmplx.Conj(z))
+		return cn * pl.num.Eval(z) / (cd * pl.den.Eval(z)) * complexExp(-delay*w*T)
 	}, lo, ny*(1-1e-9), n)
 }
 

@@ -65,7 +65,9 @@ func DesignAxis(p Problem, eval Evaluator) (*Design, error) {
 		eval = ContinuousEvaluator(p)
 	}
 	d := &Design{Problem: p}
-	tb, tbErr := placeStage(p, t)
+	// With refinement the textbook stage is reported by its step alone,
+	// so its margin sweep is skipped.
+	tb, tbErr := placeStage(p, t, !p.Ctrl.Refine)
 	if tbErr != nil {
 		var inf *InfeasibleError
 		if !errors.As(tbErr, &inf) {
@@ -91,7 +93,7 @@ func DesignAxis(p Problem, eval Evaluator) (*Design, error) {
 		}
 		return nil, fmt.Errorf("axis %s: refinement: %w", p.Axis, err)
 	}
-	st, err := verifyStage(p, c.target, c.ctrl)
+	st, err := verifyStage(p, c.target, c.ctrl, true)
 	if err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
 	}
@@ -106,7 +108,7 @@ func DesignAxis(p Problem, eval Evaluator) (*Design, error) {
 	return d, nil
 }
 
-func placeStage(p Problem, t Target) (Stage, error) {
+func placeStage(p Problem, t Target, margins bool) (Stage, error) {
 	var c Controller
 	var err error
 	if p.Ctrl.Form == FormP {
@@ -117,11 +119,13 @@ func placeStage(p Problem, t Target) (Stage, error) {
 	if err != nil {
 		return Stage{Target: t}, err
 	}
-	return verifyStage(p, t, c)
+	return verifyStage(p, t, c, margins)
 }
 
-func verifyStage(p Problem, t Target, c Controller) (Stage, error) {
-	v, err := Verify(p, c, t)
+// verifyStage verifies the placed controller; without margins the
+// Verification's Margins are NaN.
+func verifyStage(p Problem, t Target, c Controller, margins bool) (Stage, error) {
+	v, err := verify(p, c, t, margins)
 	if err != nil {
 		return Stage{}, err
 	}

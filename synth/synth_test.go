@@ -491,3 +491,25 @@ func TestPFirstOrderPlacesRealPole(t *testing.T) {
 		t.Errorf("Kp = %.12g at %v, want %.12g at −%.12g", c.Kp, tg.Pole, want, sigma)
 	}
 }
+
+// Crossover (magnitude only) is the crossover LoopMargins reports, for
+// every form, with and without delay, over a range of gains; and |C·L| = 1
+// there (the definition).
+func TestCrossoverMatchesMargins(t *testing.T) {
+	for _, form := range Forms {
+		for _, delay := range []float64{0, 0.002} {
+			p := demoProblem(form, delay)
+			for _, scale := range []float64{0.3, 1, 3} {
+				c := Controller{Form: form, Kp: 0.04 * scale, Ki: 0.4 * scale, Kd: 0.0008 * scale, Tf: 0.0013, B: 1, K: 0.5 * scale, Zero: -20, Pole: -90}
+				got, want := Crossover(p, c), LoopMargins(p, c).Crossover
+				if math.Abs(got-want) > 1e-9*want {
+					t.Errorf("%s delay %g ×%g: Crossover %.12g, LoopMargins %.12g", form, delay, scale, got, want)
+				}
+				s := complex(0, got)
+				if v := cmplx.Abs(c.Eval(s) * p.Loop(s)); math.Abs(v-1) > 1e-9 {
+					t.Errorf("%s delay %g ×%g: |C·L| = %.12g at the crossover", form, delay, scale, v)
+				}
+			}
+		}
+	}
+}

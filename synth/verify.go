@@ -156,6 +156,10 @@ func stepResponses(den lti.Poly, nums []lti.Poly, h float64, n int) ([][]float64
 // Verify computes the full-order closed-loop behaviour of controller c on
 // problem p, designed for target t.
 func Verify(p Problem, c Controller, t Target) (Verification, error) {
+	return verify(p, c, t, true)
+}
+
+func verify(p Problem, c Controller, t Target, margins bool) (Verification, error) {
 	var v Verification
 	cl, err := newClosedLoop(p, c)
 	if err != nil {
@@ -168,7 +172,12 @@ func Verify(p Problem, c Controller, t Target) (Verification, error) {
 	v.Stable = allStable(v.Poles)
 	v.TargetResidual = cmplx.Abs(1 + c.Eval(t.Pole)*p.Loop(t.Pole))
 	v.Zeros = clZeros(p, c)
-	v.Margins = loopMargins(p, c)
+	if margins {
+		v.Margins = loopMargins(p, c)
+	} else {
+		nan := math.NaN()
+		v.Margins = lti.Margins{GainDB: nan, PhaseCrossover: nan, PhaseDeg: nan, Crossover: nan, DelayMargin: nan}
+	}
 	dc := evalRatio(cl.num, cl.char, 0)
 	v.SteadyStateError = 1 - dc
 	v.Dominance, v.Warnings = dominance(v.Poles, v.Zeros, t)
@@ -206,7 +215,18 @@ func clZeros(p Problem, c Controller) []complex128 {
 
 // loopMargins returns the margins of C·G·H with the exact delay.
 func loopMargins(p Problem, c Controller) lti.Margins {
-	lo, hi := frequencySpan(p)
+	lo, hi, n := marginSpan(p, c)
+	return lti.LoopMargins(func(w float64) complex128 {
+		s := complex(0, w)
+		return c.Eval(s) * p.Loop(s)
+	}, lo, hi, n)
+}
+
+// marginSpan is the frequency range and grid of the margin sweep: two
+// decades beyond the loop's and the controller's dynamics either side,
+// 24 points per decade.
+func marginSpan(p Problem, c Controller) (lo, hi float64, n int) {
+	lo, hi = frequencySpan(p)
 	if c.Form.HasIntegral() && c.Kp > 0 {
 		lo = math.Min(lo, c.Ki/c.Kp/100)
 	}
@@ -217,11 +237,7 @@ func loopMargins(p Problem, c Controller) lti.Margins {
 		lo = math.Min(lo, math.Min(-c.Zero, -c.Pole)/100)
 		hi = math.Max(hi, math.Max(-c.Zero, -c.Pole)*100)
 	}
-	n := int(math.Ceil(24*math.Log10(hi/lo))) + 1
-	return lti.LoopMargins(func(w float64) complex128 {
-		s := complex(0, w)
-		return c.Eval(s) * p.Loop(s)
-	}, lo, hi, n)
+	return lo, hi, int(math.Ceil(24*math.Log10(hi/lo))) + 1
 }
 
 // DominanceRatio is the usual threshold for treating a pole pair as
@@ -271,3 +287,23 @@ func dominance(poles, zeros []complex128, t Target) (float64, []string) {
 // LoopMargins returns the gain, phase and delay margins of the continuous
 // loop C·G·H with the exact transport delay.
 func LoopMargins(p Problem, c Controller) lti.Margins { return loopMargins(p, c) }
+
+// Crossover returns the gain crossover of the continuous loop, the
+// frequency LoopMargins reports as Margins.Crossover, from the magnitude
+// alone (the delay leaves it unchanged) when the loop crosses 0 dB once; a
+// loop that crosses several times needs the phase margins to choose, and
+// gets the full LoopMargins. NaN when the loop never crosses.
+func Crossover(p Problem, c Controller) float64 {
+	lo, hi, n := marginSpan(p, c)
+	ws := lti.GainCrossovers(func(w float64) float64 {
+		s := complex(0, w)
+		return cmplx.Abs(c.Eval(s) * p.Plant.Model.Eval(s) * p.Sensor.Eval(s))
+	}, lo, hi, n)
+	switch len(ws) {
+	case 0:
+		return math.NaN()
+	case 1:
+		return ws[0]
+	}
+	return loopMargins(p, c).Crossover
+}

@@ -220,13 +220,16 @@ func resolvent(n int, a, b, c []float64, dd float64, z complex128) complex128 {
 				m[p*w+j], m[col*w+j] = m[col*w+j], m[p*w+j]
 			}
 		}
-		piv := m[col*w+col]
+		// One division per pivot; the rows are eliminated and the
+		// unknowns solved with its reciprocal.
+		inv := 1 / m[col*w+col]
+		m[col*w+col] = inv
 		for r := col + 1; r < n; r++ {
-			f := m[r*w+col] / piv
+			f := m[r*w+col] * inv
 			if f == 0 {
 				continue
 			}
-			for j := col; j < w; j++ {
+			for j := col + 1; j < w; j++ {
 				m[r*w+j] -= f * m[col*w+j]
 			}
 		}
@@ -237,7 +240,7 @@ func resolvent(n int, a, b, c []float64, dd float64, z complex128) complex128 {
 		for j := i + 1; j < n; j++ {
 			s -= m[i*w+j] * v[j]
 		}
-		v[i] = s / m[i*w+i]
+		v[i] = s * m[i*w+i]
 		acc += complex(c[i], 0) * v[i]
 	}
 	return acc + complex(dd, 0)

@@ -167,3 +167,44 @@ func TestMarginsConditional(t *testing.T) {
 		t.Errorf("GM %v, want smallest |.| of %v, %v", m.GainDB, g0, g1)
 	}
 }
+
+// TestGainCrossovers: K/s crosses 0 dB at ω = K, and K/(s(s+1)) where
+// ω⁴ + ω² − K² = 0, ω² = (√(1 + 4K²) − 1)/2 (the closed form of
+// |L(jω)| = 1, a textbook exercise); a lightly damped resonance that
+// pokes above 0 dB gives three crossings, the same three LoopMargins
+// finds. The delay is left out of the magnitude.
+func TestGainCrossovers(t *testing.T) {
+	mag := func(num, den Poly) func(float64) float64 {
+		tf := TF{Num: num, Den: den}
+		return func(w float64) float64 { return cmplx.Abs(tf.Eval(complex(0, w))) }
+	}
+	for _, K := range []float64{0.01, 0.5, 3, 700} {
+		if got := GainCrossovers(mag(Poly{K}, Poly{0, 1}), 1e-4, 1e5, 217); len(got) != 1 || math.Abs(got[0]-K) > 1e-10*K {
+			t.Errorf("K/s, K = %g: crossovers %v, want [%g]", K, got, K)
+		}
+		want := math.Sqrt((math.Sqrt(1+4*K*K) - 1) / 2)
+		if got := GainCrossovers(mag(Poly{K}, Poly{0, 1, 1}), 1e-4, 1e5, 217); len(got) != 1 || math.Abs(got[0]-want) > 1e-10*want {
+			t.Errorf("K/(s(s+1)), K = %g: crossovers %v, want [%.12g]", K, got, want)
+		}
+	}
+	// 100/(s(s² + 0.2·s + 100)): |L| ≈ 1/ω below the resonance crosses at
+	// ≈ 1; at ωn = 10 with ζ = 0.01 it peaks at 1/(10·2ζ) = 5, crossing just
+	// below and just above 10.
+	num, den := Poly{100}, Poly{0, 100, 0.2, 1}
+	got := GainCrossovers(mag(num, den), 1e-2, 1e3, 121)
+	m := LoopMargins(loopOf(num, den, 0.01), 1e-2, 1e3, 121)
+	if len(got) != 3 || len(m.GainCrossovers) != 3 {
+		t.Fatalf("crossovers %v, LoopMargins %v: want three each", got, m.GainCrossovers)
+	}
+	for i := range got {
+		if math.Abs(got[i]-m.GainCrossovers[i]) > 1e-10*got[i] {
+			t.Errorf("crossing %d: %.12g, LoopMargins %.12g", i, got[i], m.GainCrossovers[i])
+		}
+		if v := cmplx.Abs(TF{Num: num, Den: den}.Eval(complex(0, got[i]))); math.Abs(v-1) > 1e-9 {
+			t.Errorf("|L| at crossing %d = %.12g, want 1", i, v)
+		}
+	}
+	if GainCrossovers(nil, 1, 10, 10) != nil || GainCrossovers(mag(Poly{1}, Poly{0, 1}), 0, 10, 10) != nil {
+		t.Error("invalid input: want nil")
+	}
+}

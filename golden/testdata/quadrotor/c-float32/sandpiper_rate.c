@@ -6,24 +6,24 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.0286, Ki = 0.243, Kd = 0.0007412, Tf = 0.001273 s,
-// b = 0.5.
+// Axis pitch: pid, Kp = 0.02599, Ki = 0.183, Kd = 0.0007041,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis roll: pid, Kp = 0.02383, Ki = 0.2025, Kd = 0.0006177,
-// Tf = 0.001273 s, b = 0.5.
+// Axis roll: pid, Kp = 0.02166, Ki = 0.1525, Kd = 0.0005867,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.

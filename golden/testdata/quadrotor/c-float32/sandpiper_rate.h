@@ -6,24 +6,24 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.0286, Ki = 0.243, Kd = 0.0007412, Tf = 0.001273 s,
-// b = 0.5.
+// Axis pitch: pid, Kp = 0.02599, Ki = 0.183, Kd = 0.0007041,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis roll: pid, Kp = 0.02383, Ki = 0.2025, Kd = 0.0006177,
-// Tf = 0.001273 s, b = 0.5.
+// Axis roll: pid, Kp = 0.02166, Ki = 0.1525, Kd = 0.0005867,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -64,14 +64,14 @@ extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               0.028598705f // P gain on the measurement
-#define SANDPIPER_PITCH_KPB              0.014299353f // P gain on the setpoint (setpoint weight b times Kp)
-#define SANDPIPER_PITCH_G0               0.000121488534f // integral: weight of the current error
-#define SANDPIPER_PITCH_G01              0.00024297707f // integral: state increment per unit error
-#define SANDPIPER_PITCH_KT               0.018105727f // anti-windup back-calculation gain T/Tt
+#define SANDPIPER_PITCH_KP               0.02599032f // P gain on the measurement
+#define SANDPIPER_PITCH_KPB              0.015594192f // P gain on the setpoint (setpoint weight b times Kp)
+#define SANDPIPER_PITCH_G0               9.15102e-05f // integral: weight of the current error
+#define SANDPIPER_PITCH_G01              0.0001830204f // integral: state increment per unit error
+#define SANDPIPER_PITCH_KT               0.01612257f // anti-windup back-calculation gain T/Tt
 #define SANDPIPER_PITCH_INTEGRATOR_LIMIT 0.5f // largest |integrator state|, command units
 #define SANDPIPER_PITCH_AD               0.4360604f // derivative filter: pole
-#define SANDPIPER_PITCH_BD               0.4179901f // derivative filter: gain
+#define SANDPIPER_PITCH_BD               0.39706674f // derivative filter: gain
 #define SANDPIPER_PITCH_OUTPUT_LO        (-0.5f) // lowest command
 #define SANDPIPER_PITCH_OUTPUT_HI        0.5f // highest command
 
@@ -101,14 +101,14 @@ float sandpiper_pitch_step(sandpiper_pitch_state *s, float setpoint, float measu
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, float applied);
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               0.023832254f // P gain on the measurement
-#define SANDPIPER_ROLL_KPB              0.011916127f // P gain on the setpoint (setpoint weight b times Kp)
-#define SANDPIPER_ROLL_G0               0.00010124044f // integral: weight of the current error
-#define SANDPIPER_ROLL_G01              0.00020248088f // integral: state increment per unit error
-#define SANDPIPER_ROLL_KT               0.018105727f // anti-windup back-calculation gain T/Tt
+#define SANDPIPER_ROLL_KP               0.0216586f // P gain on the measurement
+#define SANDPIPER_ROLL_KPB              0.01299516f // P gain on the setpoint (setpoint weight b times Kp)
+#define SANDPIPER_ROLL_G0               7.6258504e-05f // integral: weight of the current error
+#define SANDPIPER_ROLL_G01              0.00015251701f // integral: state increment per unit error
+#define SANDPIPER_ROLL_KT               0.01612257f // anti-windup back-calculation gain T/Tt
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT 0.5f // largest |integrator state|, command units
 #define SANDPIPER_ROLL_AD               0.4360604f // derivative filter: pole
-#define SANDPIPER_ROLL_BD               0.34832507f // derivative filter: gain
+#define SANDPIPER_ROLL_BD               0.33088896f // derivative filter: gain
 #define SANDPIPER_ROLL_OUTPUT_LO        (-0.5f) // lowest command
 #define SANDPIPER_ROLL_OUTPUT_HI        0.5f // highest command
 

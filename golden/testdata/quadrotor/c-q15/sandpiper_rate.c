@@ -6,35 +6,35 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q15 fixed
 // point (input full scale 128, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.0286, Ki = 0.243, Kd = 0.0007412, Tf = 0.001273 s,
-// b = 0.5.
+// Axis pitch: pid, Kp = 0.02599, Ki = 0.183, Kd = 0.0007041,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
-//   Checks: all met.
-//   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
-//   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
-//   Ad, Bd Q7.8, Lo Q0.15, Hi Q0.15, IL Q3.28; states:
-//   integrator 13, derivative 8, sum 8 fractional bits below the output LSB;
-//   minimum headroom 0.00691 bits (G0*e (product)); saturating: command
-//   before saturation.
-//
-// Axis roll: pid, Kp = 0.02383, Ki = 0.2025, Kd = 0.0006177,
-// Tf = 0.001273 s, b = 0.5.
-//   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
 //   Ad, Bd Q7.8, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 8, sum 8 fractional bits below the output LSB;
-//   minimum headroom 0.178 bits (integrator increment inc); saturating:
+//   minimum headroom 0.162 bits (integrator increment inc); saturating:
 //   integrator S + inc (before the clamp), command before saturation.
+//
+// Axis roll: pid, Kp = 0.02166, Ki = 0.1525, Kd = 0.0005867,
+// Tf = 0.001273 s, b = 0.6.
+//   discretized tustin; derivative on the measurement; anti-windup backcalc
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
+//   Checks: all met.
+//   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
+//   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
+//   Ad, Bd Q7.8, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
+//   integrator 14, derivative 8, sum 8 fractional bits below the output LSB;
+//   minimum headroom 0.00527 bits (integrator S + inc (before the clamp));
+//   saturating: command before saturation.
 //
 // Axis yaw: pi, Kp = 0.04312, Ki = 0.1845, b = 0.5.
 //   discretized tustin; anti-windup backcalc (Tt = 0.2338 s); integrator
@@ -154,7 +154,7 @@ void sandpiper_pitch_reset(sandpiper_pitch_state *s, int16_t output, int16_t mea
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
 	const int32_t q = (int32_t)output * ((int32_t)1 << 8) - (sandpiper_mul(SANDPIPER_PITCH_KPB, (int32_t)measured, 5) - sandpiper_mul(SANDPIPER_PITCH_KP, (int32_t)measured, 4));
-	s->integ = sandpiper_clamp(sandpiper_satshl(q, 5), -SANDPIPER_PITCH_INTEGRATOR_LIMIT, SANDPIPER_PITCH_INTEGRATOR_LIMIT);
+	s->integ = sandpiper_clamp(sandpiper_satshl(q, 6), -SANDPIPER_PITCH_INTEGRATOR_LIMIT, SANDPIPER_PITCH_INTEGRATOR_LIMIT);
 	s->ud = 0;
 	s->vp = -(int32_t)measured;
 	s->e = 0;
@@ -170,15 +170,15 @@ int16_t sandpiper_pitch_step(sandpiper_pitch_state *s, int16_t setpoint, int16_t
 	if (s->pending) {
 		// The integrator update of the last step, now that the command
 		// actually applied is known.
-		int32_t inc = sandpiper_mul(SANDPIPER_PITCH_G01, s->e, 6);
+		int32_t inc = sandpiper_mul(SANDPIPER_PITCH_G01, s->e, 5);
 		const int32_t du = (int32_t)s->ua - sandpiper_rsh(s->uu, 8); // applied - unsaturated
-		inc = inc + sandpiper_mulw(SANDPIPER_PITCH_KT, du, 7); // back-calculation
-		s->integ = s->integ + inc;
+		inc = inc + sandpiper_mulw(SANDPIPER_PITCH_KT, du, 6); // back-calculation
+		s->integ = sandpiper_satadd(s->integ, inc);
 		s->integ = sandpiper_clamp(s->integ, -SANDPIPER_PITCH_INTEGRATOR_LIMIT, SANDPIPER_PITCH_INTEGRATOR_LIMIT);
 	}
 	const int32_t e = r - y;
 	int32_t uu = sandpiper_mul(SANDPIPER_PITCH_KPB, r, 5) - sandpiper_mul(SANDPIPER_PITCH_KP, y, 4);
-	uu = uu + sandpiper_rsh(s->integ, 5);
+	uu = uu + sandpiper_rsh(s->integ, 6);
 	uu = uu + sandpiper_mul(SANDPIPER_PITCH_G0, e, 12);
 	const int32_t v = -y;
 	s->ud = sandpiper_mulw(SANDPIPER_PITCH_AD, s->ud, 16) + sandpiper_mul(SANDPIPER_PITCH_BD, v - s->vp, 0);
@@ -222,7 +222,7 @@ int16_t sandpiper_roll_step(sandpiper_roll_state *s, int16_t setpoint, int16_t m
 		int32_t inc = sandpiper_mul(SANDPIPER_ROLL_G01, s->e, 5);
 		const int32_t du = (int32_t)s->ua - sandpiper_rsh(s->uu, 8); // applied - unsaturated
 		inc = inc + sandpiper_mulw(SANDPIPER_ROLL_KT, du, 6); // back-calculation
-		s->integ = sandpiper_satadd(s->integ, inc);
+		s->integ = s->integ + inc;
 		s->integ = sandpiper_clamp(s->integ, -SANDPIPER_ROLL_INTEGRATOR_LIMIT, SANDPIPER_ROLL_INTEGRATOR_LIMIT);
 	}
 	const int32_t e = r - y;

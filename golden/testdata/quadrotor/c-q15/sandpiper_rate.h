@@ -6,35 +6,35 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q15 fixed
 // point (input full scale 128, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.0286, Ki = 0.243, Kd = 0.0007412, Tf = 0.001273 s,
-// b = 0.5.
+// Axis pitch: pid, Kp = 0.02599, Ki = 0.183, Kd = 0.0007041,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
-//   Checks: all met.
-//   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
-//   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
-//   Ad, Bd Q7.8, Lo Q0.15, Hi Q0.15, IL Q3.28; states:
-//   integrator 13, derivative 8, sum 8 fractional bits below the output LSB;
-//   minimum headroom 0.00691 bits (G0*e (product)); saturating: command
-//   before saturation.
-//
-// Axis roll: pid, Kp = 0.02383, Ki = 0.2025, Kd = 0.0006177,
-// Tf = 0.001273 s, b = 0.5.
-//   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
 //   Ad, Bd Q7.8, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 8, sum 8 fractional bits below the output LSB;
-//   minimum headroom 0.178 bits (integrator increment inc); saturating:
+//   minimum headroom 0.162 bits (integrator increment inc); saturating:
 //   integrator S + inc (before the clamp), command before saturation.
+//
+// Axis roll: pid, Kp = 0.02166, Ki = 0.1525, Kd = 0.0005867,
+// Tf = 0.001273 s, b = 0.6.
+//   discretized tustin; derivative on the measurement; anti-windup backcalc
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
+//   Checks: all met.
+//   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
+//   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
+//   Ad, Bd Q7.8, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
+//   integrator 14, derivative 8, sum 8 fractional bits below the output LSB;
+//   minimum headroom 0.00527 bits (integrator S + inc (before the clamp));
+//   saturating: command before saturation.
 //
 // Axis yaw: pi, Kp = 0.04312, Ki = 0.1845, b = 0.5.
 //   discretized tustin; anti-windup backcalc (Tt = 0.2338 s); integrator
@@ -74,21 +74,21 @@ extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               ((int16_t)29988) // P gain on the measurement; Q3.12 = 7.321
-#define SANDPIPER_PITCH_KPB              ((int16_t)29988) // P gain on the setpoint; Q2.13 = 3.661
-#define SANDPIPER_PITCH_G0               ((int16_t)32612) // integral: weight of the current error; Q-5.20 = 0.0311
-#define SANDPIPER_PITCH_G01              ((int16_t)32612) // integral: state increment per unit error; Q-4.19 = 0.0622
-#define SANDPIPER_PITCH_KT               ((int16_t)18985) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.01811
+#define SANDPIPER_PITCH_KP               ((int16_t)27253) // P gain on the measurement; Q3.12 = 6.654
+#define SANDPIPER_PITCH_KPB              ((int16_t)32703) // P gain on the setpoint; Q2.13 = 3.992
+#define SANDPIPER_PITCH_G0               ((int16_t)24565) // integral: weight of the current error; Q-5.20 = 0.02343
+#define SANDPIPER_PITCH_G01              ((int16_t)24565) // integral: state increment per unit error; Q-4.19 = 0.04685
+#define SANDPIPER_PITCH_KT               ((int16_t)16906) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.01612
 #define SANDPIPER_PITCH_AD               ((int16_t)28578) // derivative filter: pole; Q-1.16 = 0.4361
-#define SANDPIPER_PITCH_BD               ((int16_t)27393) // derivative filter: gain; Q7.8 = 107
+#define SANDPIPER_PITCH_BD               ((int16_t)26022) // derivative filter: gain; Q7.8 = 101.6
 #define SANDPIPER_PITCH_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define SANDPIPER_PITCH_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
-#define SANDPIPER_PITCH_INTEGRATOR_LIMIT ((int32_t)268435456) // largest |integrator state|, 13 fractional bits below the output LSB
+#define SANDPIPER_PITCH_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB
 
 // State of the sandpiper rate controller of axis pitch (PID with filtered
 // derivative). Call reset before the first step.
 typedef struct {
-	int32_t integ; // integrator, 13 fractional bits below the output LSB
+	int32_t integ; // integrator, 14 fractional bits below the output LSB
 	int32_t ud; // filtered derivative term, 8 fractional bits below the output LSB
 	int32_t vp; // derivative input of the last step, input LSB
 	int32_t e; // error of the last step, input LSB
@@ -111,13 +111,13 @@ int16_t sandpiper_pitch_step(sandpiper_pitch_state *s, int16_t setpoint, int16_t
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, int16_t applied);
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               ((int16_t)24990) // P gain on the measurement; Q3.12 = 6.101
-#define SANDPIPER_ROLL_KPB              ((int16_t)24990) // P gain on the setpoint; Q2.13 = 3.051
-#define SANDPIPER_ROLL_G0               ((int16_t)27177) // integral: weight of the current error; Q-5.20 = 0.02592
-#define SANDPIPER_ROLL_G01              ((int16_t)27177) // integral: state increment per unit error; Q-4.19 = 0.05184
-#define SANDPIPER_ROLL_KT               ((int16_t)18985) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.01811
+#define SANDPIPER_ROLL_KP               ((int16_t)22711) // P gain on the measurement; Q3.12 = 5.545
+#define SANDPIPER_ROLL_KPB              ((int16_t)27253) // P gain on the setpoint; Q2.13 = 3.327
+#define SANDPIPER_ROLL_G0               ((int16_t)20470) // integral: weight of the current error; Q-5.20 = 0.01952
+#define SANDPIPER_ROLL_G01              ((int16_t)20470) // integral: state increment per unit error; Q-4.19 = 0.03904
+#define SANDPIPER_ROLL_KT               ((int16_t)16906) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.01612
 #define SANDPIPER_ROLL_AD               ((int16_t)28578) // derivative filter: pole; Q-1.16 = 0.4361
-#define SANDPIPER_ROLL_BD               ((int16_t)22828) // derivative filter: gain; Q7.8 = 89.17
+#define SANDPIPER_ROLL_BD               ((int16_t)21685) // derivative filter: gain; Q7.8 = 84.71
 #define SANDPIPER_ROLL_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define SANDPIPER_ROLL_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB

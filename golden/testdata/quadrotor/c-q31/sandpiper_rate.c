@@ -6,35 +6,35 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q31 fixed
 // point (input full scale 128, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.0286, Ki = 0.243, Kd = 0.0007412, Tf = 0.001273 s,
-// b = 0.5.
+// Axis pitch: pid, Kp = 0.02599, Ki = 0.183, Kd = 0.0007041,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
-//   Checks: all met.
-//   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
-//   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
-//   Ad, Bd Q7.24, Lo Q0.31, Hi Q0.31, IL Q3.60; states:
-//   integrator 29, derivative 24, sum 24 fractional bits below the output
-//   LSB; minimum headroom 0.00689 bits (G0*e (product)); saturating: command
-//   before saturation.
-//
-// Axis roll: pid, Kp = 0.02383, Ki = 0.2025, Kd = 0.0006177,
-// Tf = 0.001273 s, b = 0.5.
-//   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
 //   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
 //   Ad, Bd Q7.24, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 24, sum 24 fractional bits below the output
-//   LSB; minimum headroom 0.178 bits (integrator increment inc); saturating:
+//   LSB; minimum headroom 0.162 bits (integrator increment inc); saturating:
 //   integrator S + inc (before the clamp), command before saturation.
+//
+// Axis roll: pid, Kp = 0.02166, Ki = 0.1525, Kd = 0.0005867,
+// Tf = 0.001273 s, b = 0.6.
+//   discretized tustin; derivative on the measurement; anti-windup backcalc
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
+//   Checks: all met.
+//   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
+//   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
+//   Ad, Bd Q7.24, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
+//   integrator 30, derivative 24, sum 24 fractional bits below the output
+//   LSB; minimum headroom 0.00528 bits (integrator S + inc (before the
+//   clamp)); saturating: command before saturation.
 //
 // Axis yaw: pi, Kp = 0.04312, Ki = 0.1845, b = 0.5.
 //   discretized tustin; anti-windup backcalc (Tt = 0.2338 s); integrator
@@ -154,7 +154,7 @@ void sandpiper_pitch_reset(sandpiper_pitch_state *s, int32_t output, int32_t mea
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
 	const int64_t q = (int64_t)output * ((int64_t)1 << 24) - (sandpiper_mul(SANDPIPER_PITCH_KPB, (int64_t)measured, 5) - sandpiper_mul(SANDPIPER_PITCH_KP, (int64_t)measured, 4));
-	s->integ = sandpiper_clamp(sandpiper_satshl(q, 5), -SANDPIPER_PITCH_INTEGRATOR_LIMIT, SANDPIPER_PITCH_INTEGRATOR_LIMIT);
+	s->integ = sandpiper_clamp(sandpiper_satshl(q, 6), -SANDPIPER_PITCH_INTEGRATOR_LIMIT, SANDPIPER_PITCH_INTEGRATOR_LIMIT);
 	s->ud = 0;
 	s->vp = -(int64_t)measured;
 	s->e = 0;
@@ -170,15 +170,15 @@ int32_t sandpiper_pitch_step(sandpiper_pitch_state *s, int32_t setpoint, int32_t
 	if (s->pending) {
 		// The integrator update of the last step, now that the command
 		// actually applied is known.
-		int64_t inc = sandpiper_mul(SANDPIPER_PITCH_G01, s->e, 6);
+		int64_t inc = sandpiper_mul(SANDPIPER_PITCH_G01, s->e, 5);
 		const int64_t du = (int64_t)s->ua - sandpiper_rsh(s->uu, 24); // applied - unsaturated
-		inc = inc + sandpiper_mulw(SANDPIPER_PITCH_KT, du, 7); // back-calculation
-		s->integ = s->integ + inc;
+		inc = inc + sandpiper_mulw(SANDPIPER_PITCH_KT, du, 6); // back-calculation
+		s->integ = sandpiper_satadd(s->integ, inc);
 		s->integ = sandpiper_clamp(s->integ, -SANDPIPER_PITCH_INTEGRATOR_LIMIT, SANDPIPER_PITCH_INTEGRATOR_LIMIT);
 	}
 	const int64_t e = r - y;
 	int64_t uu = sandpiper_mul(SANDPIPER_PITCH_KPB, r, 5) - sandpiper_mul(SANDPIPER_PITCH_KP, y, 4);
-	uu = uu + sandpiper_rsh(s->integ, 5);
+	uu = uu + sandpiper_rsh(s->integ, 6);
 	uu = uu + sandpiper_mul(SANDPIPER_PITCH_G0, e, 12);
 	const int64_t v = -y;
 	s->ud = sandpiper_mulw(SANDPIPER_PITCH_AD, s->ud, 32) + sandpiper_mul(SANDPIPER_PITCH_BD, v - s->vp, 0);
@@ -222,7 +222,7 @@ int32_t sandpiper_roll_step(sandpiper_roll_state *s, int32_t setpoint, int32_t m
 		int64_t inc = sandpiper_mul(SANDPIPER_ROLL_G01, s->e, 5);
 		const int64_t du = (int64_t)s->ua - sandpiper_rsh(s->uu, 24); // applied - unsaturated
 		inc = inc + sandpiper_mulw(SANDPIPER_ROLL_KT, du, 6); // back-calculation
-		s->integ = sandpiper_satadd(s->integ, inc);
+		s->integ = s->integ + inc;
 		s->integ = sandpiper_clamp(s->integ, -SANDPIPER_ROLL_INTEGRATOR_LIMIT, SANDPIPER_ROLL_INTEGRATOR_LIMIT);
 	}
 	const int64_t e = r - y;

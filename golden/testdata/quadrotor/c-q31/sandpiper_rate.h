@@ -6,35 +6,35 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q31 fixed
 // point (input full scale 128, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.0286, Ki = 0.243, Kd = 0.0007412, Tf = 0.001273 s,
-// b = 0.5.
+// Axis pitch: pid, Kp = 0.02599, Ki = 0.183, Kd = 0.0007041,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
-//   Checks: all met.
-//   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
-//   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
-//   Ad, Bd Q7.24, Lo Q0.31, Hi Q0.31, IL Q3.60; states:
-//   integrator 29, derivative 24, sum 24 fractional bits below the output
-//   LSB; minimum headroom 0.00689 bits (G0*e (product)); saturating: command
-//   before saturation.
-//
-// Axis roll: pid, Kp = 0.02383, Ki = 0.2025, Kd = 0.0006177,
-// Tf = 0.001273 s, b = 0.5.
-//   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
 //   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
 //   Ad, Bd Q7.24, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 24, sum 24 fractional bits below the output
-//   LSB; minimum headroom 0.178 bits (integrator increment inc); saturating:
+//   LSB; minimum headroom 0.162 bits (integrator increment inc); saturating:
 //   integrator S + inc (before the clamp), command before saturation.
+//
+// Axis roll: pid, Kp = 0.02166, Ki = 0.1525, Kd = 0.0005867,
+// Tf = 0.001273 s, b = 0.6.
+//   discretized tustin; derivative on the measurement; anti-windup backcalc
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
+//   Checks: all met.
+//   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
+//   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
+//   Ad, Bd Q7.24, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
+//   integrator 30, derivative 24, sum 24 fractional bits below the output
+//   LSB; minimum headroom 0.00528 bits (integrator S + inc (before the
+//   clamp)); saturating: command before saturation.
 //
 // Axis yaw: pi, Kp = 0.04312, Ki = 0.1845, b = 0.5.
 //   discretized tustin; anti-windup backcalc (Tt = 0.2338 s); integrator
@@ -74,21 +74,21 @@ extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               ((int32_t)1965288009) // P gain on the measurement; Q3.28 = 7.321
-#define SANDPIPER_PITCH_KPB              ((int32_t)1965288009) // P gain on the setpoint; Q2.29 = 3.661
-#define SANDPIPER_PITCH_G0               ((int32_t)2137248842) // integral: weight of the current error; Q-5.36 = 0.0311
-#define SANDPIPER_PITCH_G01              ((int32_t)2137248842) // integral: state increment per unit error; Q-4.35 = 0.0622
-#define SANDPIPER_PITCH_KT               ((int32_t)1244216034) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.01811
+#define SANDPIPER_PITCH_KP               ((int32_t)1786041166) // P gain on the measurement; Q3.28 = 6.654
+#define SANDPIPER_PITCH_KPB              ((int32_t)2143249399) // P gain on the setpoint; Q2.29 = 3.992
+#define SANDPIPER_PITCH_G0               ((int32_t)1609864480) // integral: weight of the current error; Q-5.36 = 0.02343
+#define SANDPIPER_PITCH_G01              ((int32_t)1609864480) // integral: state increment per unit error; Q-4.35 = 0.04685
+#define SANDPIPER_PITCH_KT               ((int32_t)1107934610) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.01612
 #define SANDPIPER_PITCH_AD               ((int32_t)1872865156) // derivative filter: pole; Q-1.32 = 0.4361
-#define SANDPIPER_PITCH_BD               ((int32_t)1795253700) // derivative filter: gain; Q7.24 = 107
+#define SANDPIPER_PITCH_BD               ((int32_t)1705388725) // derivative filter: gain; Q7.24 = 101.6
 #define SANDPIPER_PITCH_OUTPUT_LO        ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define SANDPIPER_PITCH_OUTPUT_HI        ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
-#define SANDPIPER_PITCH_INTEGRATOR_LIMIT INT64_C(1152921504606846976) // largest |integrator state|, 29 fractional bits below the output LSB
+#define SANDPIPER_PITCH_INTEGRATOR_LIMIT INT64_C(2305843009213693952) // largest |integrator state|, 30 fractional bits below the output LSB
 
 // State of the sandpiper rate controller of axis pitch (PID with filtered
 // derivative). Call reset before the first step.
 typedef struct {
-	int64_t integ; // integrator, 29 fractional bits below the output LSB
+	int64_t integ; // integrator, 30 fractional bits below the output LSB
 	int64_t ud; // filtered derivative term, 24 fractional bits below the output LSB
 	int64_t vp; // derivative input of the last step, input LSB
 	int64_t e; // error of the last step, input LSB
@@ -111,13 +111,13 @@ int32_t sandpiper_pitch_step(sandpiper_pitch_state *s, int32_t setpoint, int32_t
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, int32_t applied);
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               ((int32_t)1637740008) // P gain on the measurement; Q3.28 = 6.101
-#define SANDPIPER_ROLL_KPB              ((int32_t)1637740008) // P gain on the setpoint; Q2.29 = 3.051
-#define SANDPIPER_ROLL_G0               ((int32_t)1781040702) // integral: weight of the current error; Q-5.36 = 0.02592
-#define SANDPIPER_ROLL_G01              ((int32_t)1781040702) // integral: state increment per unit error; Q-4.35 = 0.05184
-#define SANDPIPER_ROLL_KT               ((int32_t)1244216034) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.01811
+#define SANDPIPER_ROLL_KP               ((int32_t)1488367638) // P gain on the measurement; Q3.28 = 5.545
+#define SANDPIPER_ROLL_KPB              ((int32_t)1786041166) // P gain on the setpoint; Q2.29 = 3.327
+#define SANDPIPER_ROLL_G0               ((int32_t)1341553734) // integral: weight of the current error; Q-5.36 = 0.01952
+#define SANDPIPER_ROLL_G01              ((int32_t)1341553734) // integral: state increment per unit error; Q-4.35 = 0.03904
+#define SANDPIPER_ROLL_KT               ((int32_t)1107934610) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.01612
 #define SANDPIPER_ROLL_AD               ((int32_t)1872865156) // derivative filter: pole; Q-1.32 = 0.4361
-#define SANDPIPER_ROLL_BD               ((int32_t)1496044750) // derivative filter: gain; Q7.24 = 89.17
+#define SANDPIPER_ROLL_BD               ((int32_t)1421157271) // derivative filter: gain; Q7.24 = 84.71
 #define SANDPIPER_ROLL_OUTPUT_LO        ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define SANDPIPER_ROLL_OUTPUT_HI        ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT INT64_C(2305843009213693952) // largest |integrator state|, 30 fractional bits below the output LSB

@@ -6,24 +6,24 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.0286, Ki = 0.243, Kd = 0.0007412, Tf = 0.001273 s,
-// b = 0.5.
+// Axis pitch: pid, Kp = 0.02599, Ki = 0.183, Kd = 0.0007041,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis roll: pid, Kp = 0.02383, Ki = 0.2025, Kd = 0.0006177,
-// Tf = 0.001273 s, b = 0.5.
+// Axis roll: pid, Kp = 0.02166, Ki = 0.1525, Kd = 0.0005867,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -62,16 +62,16 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              float32 = 0.028598705    // P gain on the measurement
-	PitchKpB             float32 = 0.014299353    // P gain on the setpoint (setpoint weight b times Kp)
-	PitchG0              float32 = 0.000121488534 // integral: weight of the current error
-	PitchG01             float32 = 0.00024297707  // integral: state increment per unit error
-	PitchKt              float32 = 0.018105727    // anti-windup back-calculation gain T/Tt
-	PitchIntegratorLimit float32 = 0.5            // largest |integrator state|, command units
-	PitchAd              float32 = 0.4360604      // derivative filter: pole
-	PitchBd              float32 = 0.4179901      // derivative filter: gain
-	PitchOutputLo        float32 = -0.5           // lowest command
-	PitchOutputHi        float32 = 0.5            // highest command
+	PitchKp              float32 = 0.02599032   // P gain on the measurement
+	PitchKpB             float32 = 0.015594192  // P gain on the setpoint (setpoint weight b times Kp)
+	PitchG0              float32 = 9.15102e-05  // integral: weight of the current error
+	PitchG01             float32 = 0.0001830204 // integral: state increment per unit error
+	PitchKt              float32 = 0.01612257   // anti-windup back-calculation gain T/Tt
+	PitchIntegratorLimit float32 = 0.5          // largest |integrator state|, command units
+	PitchAd              float32 = 0.4360604    // derivative filter: pole
+	PitchBd              float32 = 0.39706674   // derivative filter: gain
+	PitchOutputLo        float32 = -0.5         // lowest command
+	PitchOutputHi        float32 = 0.5          // highest command
 )
 
 // State of the sandpiper rate controller of axis pitch (PID with filtered
@@ -129,14 +129,14 @@ func (c *Pitch) Applied(applied float32) {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              float32 = 0.023832254   // P gain on the measurement
-	RollKpB             float32 = 0.011916127   // P gain on the setpoint (setpoint weight b times Kp)
-	RollG0              float32 = 0.00010124044 // integral: weight of the current error
-	RollG01             float32 = 0.00020248088 // integral: state increment per unit error
-	RollKt              float32 = 0.018105727   // anti-windup back-calculation gain T/Tt
+	RollKp              float32 = 0.0216586     // P gain on the measurement
+	RollKpB             float32 = 0.01299516    // P gain on the setpoint (setpoint weight b times Kp)
+	RollG0              float32 = 7.6258504e-05 // integral: weight of the current error
+	RollG01             float32 = 0.00015251701 // integral: state increment per unit error
+	RollKt              float32 = 0.01612257    // anti-windup back-calculation gain T/Tt
 	RollIntegratorLimit float32 = 0.5           // largest |integrator state|, command units
 	RollAd              float32 = 0.4360604     // derivative filter: pole
-	RollBd              float32 = 0.34832507    // derivative filter: gain
+	RollBd              float32 = 0.33088896    // derivative filter: gain
 	RollOutputLo        float32 = -0.5          // lowest command
 	RollOutputHi        float32 = 0.5           // highest command
 )

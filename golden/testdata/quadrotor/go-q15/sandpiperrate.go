@@ -6,35 +6,35 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q15 fixed
 // point (input full scale 128, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.0286, Ki = 0.243, Kd = 0.0007412, Tf = 0.001273 s,
-// b = 0.5.
+// Axis pitch: pid, Kp = 0.02599, Ki = 0.183, Kd = 0.0007041,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
-//   Checks: all met.
-//   Numeric: q15 (data int16, accumulators int32, raw = value/full
-//   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
-//   Ad, Bd Q7.8, Lo Q0.15, Hi Q0.15, IL Q3.28; states:
-//   integrator 13, derivative 8, sum 8 fractional bits below the output LSB;
-//   minimum headroom 0.00691 bits (G0*e (product)); saturating: command
-//   before saturation.
-//
-// Axis roll: pid, Kp = 0.02383, Ki = 0.2025, Kd = 0.0006177,
-// Tf = 0.001273 s, b = 0.5.
-//   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
 //   Ad, Bd Q7.8, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 8, sum 8 fractional bits below the output LSB;
-//   minimum headroom 0.178 bits (integrator increment inc); saturating:
+//   minimum headroom 0.162 bits (integrator increment inc); saturating:
 //   integrator S + inc (before the clamp), command before saturation.
+//
+// Axis roll: pid, Kp = 0.02166, Ki = 0.1525, Kd = 0.0005867,
+// Tf = 0.001273 s, b = 0.6.
+//   discretized tustin; derivative on the measurement; anti-windup backcalc
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
+//   Checks: all met.
+//   Numeric: q15 (data int16, accumulators int32, raw = value/full
+//   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
+//   Ad, Bd Q7.8, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
+//   integrator 14, derivative 8, sum 8 fractional bits below the output LSB;
+//   minimum headroom 0.00527 bits (integrator S + inc (before the clamp));
+//   saturating: command before saturation.
 //
 // Axis yaw: pi, Kp = 0.04312, Ki = 0.1845, b = 0.5.
 //   discretized tustin; anti-windup backcalc (Tt = 0.2338 s); integrator
@@ -72,22 +72,22 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int16 = 29988     // P gain on the measurement; Q3.12 = 7.321
-	PitchKpB             int16 = 29988     // P gain on the setpoint; Q2.13 = 3.661
-	PitchG0              int16 = 32612     // integral: weight of the current error; Q-5.20 = 0.0311
-	PitchG01             int16 = 32612     // integral: state increment per unit error; Q-4.19 = 0.0622
-	PitchKt              int16 = 18985     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.01811
+	PitchKp              int16 = 27253     // P gain on the measurement; Q3.12 = 6.654
+	PitchKpB             int16 = 32703     // P gain on the setpoint; Q2.13 = 3.992
+	PitchG0              int16 = 24565     // integral: weight of the current error; Q-5.20 = 0.02343
+	PitchG01             int16 = 24565     // integral: state increment per unit error; Q-4.19 = 0.04685
+	PitchKt              int16 = 16906     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.01612
 	PitchAd              int16 = 28578     // derivative filter: pole; Q-1.16 = 0.4361
-	PitchBd              int16 = 27393     // derivative filter: gain; Q7.8 = 107
+	PitchBd              int16 = 26022     // derivative filter: gain; Q7.8 = 101.6
 	PitchOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	PitchOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
-	PitchIntegratorLimit int32 = 268435456 // largest |integrator state|, 13 fractional bits below the output LSB
+	PitchIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB
 )
 
 // State of the sandpiper rate controller of axis pitch (PID with filtered
 // derivative). Call reset before the first step.
 type Pitch struct {
-	integ   int32 // integrator, 13 fractional bits below the output LSB
+	integ   int32 // integrator, 14 fractional bits below the output LSB
 	ud      int32 // filtered derivative term, 8 fractional bits below the output LSB
 	vp      int32 // derivative input of the last step, input LSB
 	e       int32 // error of the last step, input LSB
@@ -106,7 +106,7 @@ func (c *Pitch) Reset(output, measured int16) {
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
 	q := int32(output)*(1<<8) - (mul(PitchKpB, int32(measured), 5) - mul(PitchKp, int32(measured), 4))
-	c.integ = clamp(satshl(q, 5), -PitchIntegratorLimit, PitchIntegratorLimit)
+	c.integ = clamp(satshl(q, 6), -PitchIntegratorLimit, PitchIntegratorLimit)
 	c.vp = -int32(measured)
 }
 
@@ -117,15 +117,15 @@ func (c *Pitch) Step(setpoint, measured int16) int16 {
 	if c.pending {
 		// The integrator update of the last step, now that the command
 		// actually applied is known.
-		inc := mul(PitchG01, c.e, 6)
+		inc := mul(PitchG01, c.e, 5)
 		du := int32(c.ua) - rsh(c.uu, 8) // applied - unsaturated
-		inc = inc + mulw(PitchKt, du, 7) // back-calculation
-		c.integ = c.integ + inc
+		inc = inc + mulw(PitchKt, du, 6) // back-calculation
+		c.integ = satadd(c.integ, inc)
 		c.integ = clamp(c.integ, -PitchIntegratorLimit, PitchIntegratorLimit)
 	}
 	e := r - y
 	uu := mul(PitchKpB, r, 5) - mul(PitchKp, y, 4)
-	uu = uu + rsh(c.integ, 5)
+	uu = uu + rsh(c.integ, 6)
 	uu = uu + mul(PitchG0, e, 12)
 	v := -y
 	c.ud = mulw(PitchAd, c.ud, 16) + mul(PitchBd, v-c.vp, 0)
@@ -147,13 +147,13 @@ func (c *Pitch) Applied(applied int16) {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              int16 = 24990     // P gain on the measurement; Q3.12 = 6.101
-	RollKpB             int16 = 24990     // P gain on the setpoint; Q2.13 = 3.051
-	RollG0              int16 = 27177     // integral: weight of the current error; Q-5.20 = 0.02592
-	RollG01             int16 = 27177     // integral: state increment per unit error; Q-4.19 = 0.05184
-	RollKt              int16 = 18985     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.01811
+	RollKp              int16 = 22711     // P gain on the measurement; Q3.12 = 5.545
+	RollKpB             int16 = 27253     // P gain on the setpoint; Q2.13 = 3.327
+	RollG0              int16 = 20470     // integral: weight of the current error; Q-5.20 = 0.01952
+	RollG01             int16 = 20470     // integral: state increment per unit error; Q-4.19 = 0.03904
+	RollKt              int16 = 16906     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.01612
 	RollAd              int16 = 28578     // derivative filter: pole; Q-1.16 = 0.4361
-	RollBd              int16 = 22828     // derivative filter: gain; Q7.8 = 89.17
+	RollBd              int16 = 21685     // derivative filter: gain; Q7.8 = 84.71
 	RollOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	RollOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
 	RollIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB
@@ -195,7 +195,7 @@ func (c *Roll) Step(setpoint, measured int16) int16 {
 		inc := mul(RollG01, c.e, 5)
 		du := int32(c.ua) - rsh(c.uu, 8) // applied - unsaturated
 		inc = inc + mulw(RollKt, du, 6)  // back-calculation
-		c.integ = satadd(c.integ, inc)
+		c.integ = c.integ + inc
 		c.integ = clamp(c.integ, -RollIntegratorLimit, RollIntegratorLimit)
 	}
 	e := r - y

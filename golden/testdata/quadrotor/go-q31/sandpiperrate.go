@@ -6,35 +6,35 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q31 fixed
 // point (input full scale 128, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.0286, Ki = 0.243, Kd = 0.0007412, Tf = 0.001273 s,
-// b = 0.5.
+// Axis pitch: pid, Kp = 0.02599, Ki = 0.183, Kd = 0.0007041,
+// Tf = 0.001273 s, b = 0.6.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
-//   Checks: all met.
-//   Numeric: q31 (data int32, accumulators int64, raw = value/full
-//   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
-//   Ad, Bd Q7.24, Lo Q0.31, Hi Q0.31, IL Q3.60; states:
-//   integrator 29, derivative 24, sum 24 fractional bits below the output
-//   LSB; minimum headroom 0.00689 bits (G0*e (product)); saturating: command
-//   before saturation.
-//
-// Axis roll: pid, Kp = 0.02383, Ki = 0.2025, Kd = 0.0006177,
-// Tf = 0.001273 s, b = 0.5.
-//   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.05523 s); integrator limit 0.5; output [-0.5, 0.5].
-//   Target: zeta = 0.875, wn = 17.5 rad/s, s* = -15.3 +/- j8.49 rad/s.
-//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 65.2 deg,
-//   gain margin 14.7 dB.
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
 //   Ad, Bd Q7.24, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 24, sum 24 fractional bits below the output
-//   LSB; minimum headroom 0.178 bits (integrator increment inc); saturating:
+//   LSB; minimum headroom 0.162 bits (integrator increment inc); saturating:
 //   integrator S + inc (before the clamp), command before saturation.
+//
+// Axis roll: pid, Kp = 0.02166, Ki = 0.1525, Kd = 0.0005867,
+// Tf = 0.001273 s, b = 0.6.
+//   discretized tustin; derivative on the measurement; anti-windup backcalc
+//   (Tt = 0.06202 s); integrator limit 0.5; output [-0.5, 0.5].
+//   Target: zeta = 0.95, wn = 15.4 rad/s, s* = -14.6 +/- j4.8 rad/s.
+//   Sampled loop: overshoot 1.95 %, settling 0.149 s, phase margin 67.9 deg,
+//   gain margin 15.2 dB.
+//   Checks: all met.
+//   Numeric: q31 (data int32, accumulators int64, raw = value/full
+//   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
+//   Ad, Bd Q7.24, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
+//   integrator 30, derivative 24, sum 24 fractional bits below the output
+//   LSB; minimum headroom 0.00528 bits (integrator S + inc (before the
+//   clamp)); saturating: command before saturation.
 //
 // Axis yaw: pi, Kp = 0.04312, Ki = 0.1845, b = 0.5.
 //   discretized tustin; anti-windup backcalc (Tt = 0.2338 s); integrator
@@ -72,22 +72,22 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int32 = 1965288009          // P gain on the measurement; Q3.28 = 7.321
-	PitchKpB             int32 = 1965288009          // P gain on the setpoint; Q2.29 = 3.661
-	PitchG0              int32 = 2137248842          // integral: weight of the current error; Q-5.36 = 0.0311
-	PitchG01             int32 = 2137248842          // integral: state increment per unit error; Q-4.35 = 0.0622
-	PitchKt              int32 = 1244216034          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.01811
+	PitchKp              int32 = 1786041166          // P gain on the measurement; Q3.28 = 6.654
+	PitchKpB             int32 = 2143249399          // P gain on the setpoint; Q2.29 = 3.992
+	PitchG0              int32 = 1609864480          // integral: weight of the current error; Q-5.36 = 0.02343
+	PitchG01             int32 = 1609864480          // integral: state increment per unit error; Q-4.35 = 0.04685
+	PitchKt              int32 = 1107934610          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.01612
 	PitchAd              int32 = 1872865156          // derivative filter: pole; Q-1.32 = 0.4361
-	PitchBd              int32 = 1795253700          // derivative filter: gain; Q7.24 = 107
+	PitchBd              int32 = 1705388725          // derivative filter: gain; Q7.24 = 101.6
 	PitchOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	PitchOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
-	PitchIntegratorLimit int64 = 1152921504606846976 // largest |integrator state|, 29 fractional bits below the output LSB
+	PitchIntegratorLimit int64 = 2305843009213693952 // largest |integrator state|, 30 fractional bits below the output LSB
 )
 
 // State of the sandpiper rate controller of axis pitch (PID with filtered
 // derivative). Call reset before the first step.
 type Pitch struct {
-	integ   int64 // integrator, 29 fractional bits below the output LSB
+	integ   int64 // integrator, 30 fractional bits below the output LSB
 	ud      int64 // filtered derivative term, 24 fractional bits below the output LSB
 	vp      int64 // derivative input of the last step, input LSB
 	e       int64 // error of the last step, input LSB
@@ -106,7 +106,7 @@ func (c *Pitch) Reset(output, measured int32) {
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
 	q := int64(output)*(1<<24) - (mul(PitchKpB, int64(measured), 5) - mul(PitchKp, int64(measured), 4))
-	c.integ = clamp(satshl(q, 5), -PitchIntegratorLimit, PitchIntegratorLimit)
+	c.integ = clamp(satshl(q, 6), -PitchIntegratorLimit, PitchIntegratorLimit)
 	c.vp = -int64(measured)
 }
 
@@ -117,15 +117,15 @@ func (c *Pitch) Step(setpoint, measured int32) int32 {
 	if c.pending {
 		// The integrator update of the last step, now that the command
 		// actually applied is known.
-		inc := mul(PitchG01, c.e, 6)
+		inc := mul(PitchG01, c.e, 5)
 		du := int64(c.ua) - rsh(c.uu, 24) // applied - unsaturated
-		inc = inc + mulw(PitchKt, du, 7)  // back-calculation
-		c.integ = c.integ + inc
+		inc = inc + mulw(PitchKt, du, 6)  // back-calculation
+		c.integ = satadd(c.integ, inc)
 		c.integ = clamp(c.integ, -PitchIntegratorLimit, PitchIntegratorLimit)
 	}
 	e := r - y
 	uu := mul(PitchKpB, r, 5) - mul(PitchKp, y, 4)
-	uu = uu + rsh(c.integ, 5)
+	uu = uu + rsh(c.integ, 6)
 	uu = uu + mul(PitchG0, e, 12)
 	v := -y
 	c.ud = mulw(PitchAd, c.ud, 32) + mul(PitchBd, v-c.vp, 0)
@@ -147,13 +147,13 @@ func (c *Pitch) Applied(applied int32) {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              int32 = 1637740008          // P gain on the measurement; Q3.28 = 6.101
-	RollKpB             int32 = 1637740008          // P gain on the setpoint; Q2.29 = 3.051
-	RollG0              int32 = 1781040702          // integral: weight of the current error; Q-5.36 = 0.02592
-	RollG01             int32 = 1781040702          // integral: state increment per unit error; Q-4.35 = 0.05184
-	RollKt              int32 = 1244216034          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.01811
+	RollKp              int32 = 1488367638          // P gain on the measurement; Q3.28 = 5.545
+	RollKpB             int32 = 1786041166          // P gain on the setpoint; Q2.29 = 3.327
+	RollG0              int32 = 1341553734          // integral: weight of the current error; Q-5.36 = 0.01952
+	RollG01             int32 = 1341553734          // integral: state increment per unit error; Q-4.35 = 0.03904
+	RollKt              int32 = 1107934610          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.01612
 	RollAd              int32 = 1872865156          // derivative filter: pole; Q-1.32 = 0.4361
-	RollBd              int32 = 1496044750          // derivative filter: gain; Q7.24 = 89.17
+	RollBd              int32 = 1421157271          // derivative filter: gain; Q7.24 = 84.71
 	RollOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	RollOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
 	RollIntegratorLimit int64 = 2305843009213693952 // largest |integrator state|, 30 fractional bits below the output LSB
@@ -195,7 +195,7 @@ func (c *Roll) Step(setpoint, measured int32) int32 {
 		inc := mul(RollG01, c.e, 5)
 		du := int64(c.ua) - rsh(c.uu, 24) // applied - unsaturated
 		inc = inc + mulw(RollKt, du, 6)   // back-calculation
-		c.integ = satadd(c.integ, inc)
+		c.integ = c.integ + inc
 		c.integ = clamp(c.integ, -RollIntegratorLimit, RollIntegratorLimit)
 	}
 	e := r - y
