@@ -819,13 +819,28 @@ func TestSaturatedStepAmplitude(t *testing.T) {
 }
 
 // The paired simulation is the two single ones, sample for sample and bit
-// for bit, however the record is cut into calls.
+// for bit, however the record is cut into calls: for plants of 3 states
+// (the scalar path) and 5.
 func TestPairStepperMatchesStepper(t *testing.T) {
-	for _, form := range synth.Forms {
+	for i, form := range append(synth.Forms, synth.Forms...) {
 		p := demo(form)
+		switch i / len(synth.Forms) {
+		case 1:
+			p.Sensor = lti.ZPK{Gain: 1}
+			p.Plant.Model.Poles = append(p.Plant.Model.Poles, -50, complex(-300, 400), complex(-300, -400))
+			p.Plant.Model.Gain *= 50 * 250000
+		}
 		pl, err := NewPlant(p, 0.001)
 		if err != nil {
 			t.Fatal(err)
+		}
+		if want := []int{3, 5}[i/len(synth.Forms)]; pl.N != want {
+			t.Fatalf("plant of %d states, want %d", pl.N, want)
+		}
+		if pl.N == 3 {
+			// A dense, stable A, so that every entry of the scalar path
+			// shows (the ZOH of a cascade is lower triangular).
+			pl.A = []float64{0.9, 0.05, -0.03, 0.02, 0.8, 0.04, -0.01, 0.03, 0.7}
 		}
 		c := synth.Controller{Form: form, Kp: 0.04, Ki: 0.4, Kd: 0.0008, Tf: 0.0013, B: 1, K: 2, Zero: -20, Pole: -90}
 		k, _, err := Realize(c, p.Ctrl, pl.T, 0)

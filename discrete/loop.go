@@ -105,7 +105,6 @@ func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
 			for j := 0; j < n; j++ {
 				L.A[i*n+j] += pl.B[i] * urow[j]
 			}
-			L.B[i] += pl.B[i] * c.Dr
 		} else {
 			L.A[i*n+np+d-1] += pl.B[i]
 		}
@@ -114,7 +113,6 @@ func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
 	// Delay registers: q1' = u, qi' = q(i−1).
 	if d > 0 {
 		copy(L.A[np*n:np*n+n], urow)
-		L.B[np] = c.Dr
 		for i := 1; i < d; i++ {
 			L.A[(np+i)*n+np+i-1] = 1
 		}
@@ -128,9 +126,27 @@ func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
 		for j := 0; j < np; j++ {
 			L.A[r*n+j] += c.By[i] * pl.Cm[j]
 		}
-		L.B[r] = c.Br[i]
 	}
+	L.B = setpointInput(pl, c, d, c.Dr)
 	return L
+}
+
+// setpointInput returns the closed loop's input vector for the setpoint,
+// with dr in place of the controller's direct setpoint gain c.Dr (d with
+// the plant's whole-sample delay): the rest of the loop does not depend on
+// it, so loops that differ only in the setpoint weight share A.
+func setpointInput(pl Plant, c linearCtrl, d int, dr float64) []float64 {
+	np, m := pl.N, c.M
+	B := make([]float64, np+d+m)
+	if d == 0 {
+		for i := 0; i < np; i++ {
+			B[i] = pl.B[i] * dr
+		}
+	} else {
+		B[np] = dr
+	}
+	copy(B[np+d:], c.Br[:m])
+	return B
 }
 
 // poles returns the closed-loop poles in z.
@@ -225,40 +241,77 @@ func (s *stepper) run(y, u []float64) {
 // share of Kp) in one pass, which halves the loop overhead that dominates
 // these small state spaces; each lane computes exactly what stepper does.
 type pairStepper struct {
-	pl      Plant
+	pl    Plant
+	x, xn [2][]float64
+	ctrl  pairCtrl
+	k     int
+}
+
+// pairCtrl is the controller and the command delay line of both lanes.
+type pairCtrl struct {
 	c       linearCtrl
 	dr      [2]float64
-	x, xn   [2][]float64
 	xc, xcn [2][]float64
-	ring    [2][]float64
-	k       int
+	ring    [2][]float64 // commands of the last D samples
+	w       int          // ring slot of this sample's command
 }
 
 func newPairStepper(pl Plant, c linearCtrl, dr0, dr1 float64, d int) *pairStepper {
 	D := d + pl.Delay
 	np, m := pl.N, c.M
-	s := &pairStepper{pl: pl, c: c, dr: [2]float64{dr0, dr1}}
+	s := &pairStepper{pl: pl, ctrl: pairCtrl{c: c, dr: [2]float64{dr0, dr1}}}
 	for l := range 2 {
 		buf := make([]float64, 2*np+2*m+D+1)
 		s.x[l], s.xn[l] = buf[:np], buf[np:2*np]
-		s.xc[l], s.xcn[l] = buf[2*np:2*np+m], buf[2*np+m:2*np+2*m]
-		s.ring[l] = buf[2*np+2*m:]
+		s.ctrl.xc[l], s.ctrl.xcn[l] = buf[2*np:2*np+m], buf[2*np+m:2*np+2*m]
+		s.ctrl.ring[l] = buf[2*np+2*m:]
 	}
 	return s
+}
+
+// step takes the measured rates of both lanes, updates the controllers and
+// returns the commands that reach the plants now, those of D samples ago.
+func (p *pairCtrl) step(ym0, ym1 float64) (ua0, ua1 float64) {
+	c := &p.c
+	m := c.M
+	ca, cb, cby, cc := c.Ac[:m*m], c.Br[:m], c.By[:m], c.Cc[:m]
+	xc0, xc1, xcn0, xcn1 := p.xc[0][:m], p.xc[1][:m], p.xcn[0][:m], p.xcn[1][:m]
+	cmd0, cmd1 := p.dr[0]+c.Dy*ym0, p.dr[1]+c.Dy*ym1
+	for j, a := range cc {
+		cmd0 += a * xc0[j]
+		cmd1 += a * xc1[j]
+	}
+	for i := range m {
+		acc0 := cb[i] + cby[i]*ym0
+		acc1 := cb[i] + cby[i]*ym1
+		for j, a := range ca[i*m : i*m+m] {
+			acc0 += a * xc0[j]
+			acc1 += a * xc1[j]
+		}
+		xcn0[i], xcn1[i] = acc0, acc1
+	}
+	p.xc, p.xcn = p.xcn, p.xc
+	ring0, ring1 := p.ring[0], p.ring[1][:len(p.ring[0])]
+	ring0[p.w], ring1[p.w] = cmd0, cmd1
+	// The next slot still holds the command of D samples ago.
+	p.w++
+	if p.w == len(ring0) {
+		p.w = 0
+	}
+	return ring0[p.w], ring1[p.w]
 }
 
 // run writes the true rate of the next len(y0) samples of the two loops
 // into y0 and y1 (len(y1) = len(y0)).
 func (s *pairStepper) run(y0, y1 []float64) {
-	pl, c := &s.pl, &s.c
-	np, m := pl.N, c.M
+	pl := &s.pl
+	np := pl.N
+	if np == 3 {
+		s.run3(y0, y1)
+		return
+	}
 	pa, pb, cm, cy := pl.A[:np*np], pl.B[:np], pl.Cm[:np], pl.Cy[:np]
-	ca, cb, cby, cc := c.Ac[:m*m], c.Br[:m], c.By[:m], c.Cc[:m]
-	dr0, dr1, dy := s.dr[0], s.dr[1], c.Dy
 	x0, x1, xn0, xn1 := s.x[0][:np], s.x[1][:np], s.xn[0][:np], s.xn[1][:np]
-	xc0, xc1, xcn0, xcn1 := s.xc[0][:m], s.xc[1][:m], s.xcn[0][:m], s.xcn[1][:m]
-	ring0, ring1 := s.ring[0], s.ring[1][:len(s.ring[0])]
-	w := s.k % len(ring0)
 	y1 = y1[:len(y0)]
 	for t := range y0 {
 		var ym0, yt0, ym1, yt1 float64
@@ -271,28 +324,7 @@ func (s *pairStepper) run(y0, y1 []float64) {
 			yt1 += a * x1[j]
 		}
 		y0[t], y1[t] = yt0, yt1
-		cmd0, cmd1 := dr0+dy*ym0, dr1+dy*ym1
-		for j, a := range cc {
-			cmd0 += a * xc0[j]
-			cmd1 += a * xc1[j]
-		}
-		for i := range m {
-			acc0 := cb[i] + cby[i]*ym0
-			acc1 := cb[i] + cby[i]*ym1
-			for j, a := range ca[i*m : i*m+m] {
-				acc0 += a * xc0[j]
-				acc1 += a * xc1[j]
-			}
-			xcn0[i], xcn1[i] = acc0, acc1
-		}
-		xc0, xcn0, xc1, xcn1 = xcn0, xc0, xcn1, xc1
-		ring0[w], ring1[w] = cmd0, cmd1
-		r := w + 1
-		if r == len(ring0) {
-			r = 0
-		}
-		ua0, ua1 := ring0[r], ring1[r]
-		w = r
+		ua0, ua1 := s.ctrl.step(ym0, ym1)
 		for i := range np {
 			acc0, acc1 := pb[i]*ua0, pb[i]*ua1
 			for j, a := range pa[i*np : i*np+np] {
@@ -305,7 +337,33 @@ func (s *pairStepper) run(y0, y1 []float64) {
 	}
 	s.k += len(y0)
 	s.x, s.xn = [2][]float64{x0, x1}, [2][]float64{xn0, xn1}
-	s.xc, s.xcn = [2][]float64{xc0, xc1}, [2][]float64{xcn0, xcn1}
+}
+
+// run3 is run for a three-state plant (a rate plant with a motor lag and a
+// gyro lowpass, the common case), its state in scalars: half the time of
+// the loops over a 3×3 matrix, the same operations in the same order.
+func (s *pairStepper) run3(y0, y1 []float64) {
+	pl := &s.pl
+	a := pl.A[:9]
+	a00, a01, a02, a10, a11, a12, a20, a21, a22 := a[0], a[1], a[2], a[3], a[4], a[5], a[6], a[7], a[8]
+	b0, b1, b2 := pl.B[0], pl.B[1], pl.B[2]
+	m0, m1, m2 := pl.Cm[0], pl.Cm[1], pl.Cm[2]
+	c0, c1, c2 := pl.Cy[0], pl.Cy[1], pl.Cy[2]
+	p0, p1, p2 := s.x[0][0], s.x[0][1], s.x[0][2] // lane 0
+	q0, q1, q2 := s.x[1][0], s.x[1][1], s.x[1][2] // lane 1
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := m0*p0 + m1*p1 + m2*p2
+		ym1 := m0*q0 + m1*q1 + m2*q2
+		y0[t] = c0*p0 + c1*p1 + c2*p2
+		y1[t] = c0*q0 + c1*q1 + c2*q2
+		ua0, ua1 := s.ctrl.step(ym0, ym1)
+		p0, p1, p2 = b0*ua0+a00*p0+a01*p1+a02*p2, b1*ua0+a10*p0+a11*p1+a12*p2, b2*ua0+a20*p0+a21*p1+a22*p2
+		q0, q1, q2 = b0*ua1+a00*q0+a01*q1+a02*q2, b1*ua1+a10*q0+a11*q1+a12*q2, b2*ua1+a20*q0+a21*q1+a22*q2
+	}
+	s.k += len(y0)
+	s.x[0][0], s.x[0][1], s.x[0][2] = p0, p1, p2
+	s.x[1][0], s.x[1][1], s.x[1][2] = q0, q1, q2
 }
 
 // dcGain returns the final value of the true rate after a unit setpoint

@@ -77,8 +77,12 @@ func NewPlant(p synth.Problem, T float64) (Plant, error) {
 
 // transferFunction returns Cm(zI − A)⁻¹B as num/den in z (lti.Disc.TF,
 // the determinant lemma), checked against the resolvent at a few points on
-// the unit circle and dropped (nil) when they disagree by more than 1e-9
-// relative, in which case sweeps use the resolvent.
+// the unit circle and dropped (nil) when they disagree by more than 1e-7
+// relative, in which case sweeps use the resolvent. Seven digits of the
+// frequency response are far more than a margin or a crossover needs; the
+// expanded numerator of a plant of high relative degree loses more than
+// nine near Nyquist, where |P| is tiny (1e-8 at |P| = 3e-7 on the demo
+// gimbal's pitch).
 func (p Plant) transferFunction() (lti.Poly, lti.Poly) {
 	d := p.measured()
 	tf, err := d.TF()
@@ -88,7 +92,7 @@ func (p Plant) transferFunction() (lti.Poly, lti.Poly) {
 	for _, th := range []float64{1e-3, 0.01, 0.1, 0.5, 1, 2, 3} {
 		z := complexExp(th)
 		want := d.Eval(z)
-		if got := tf.Eval(z); !(cmplx.Abs(got-want) <= 1e-9*cmplx.Abs(want)) {
+		if got := tf.Eval(z); !(cmplx.Abs(got-want) <= 1e-7*cmplx.Abs(want)) {
 			return nil, nil
 		}
 	}

@@ -4,37 +4,22 @@ import (
 	"bytes"
 	"encoding/json"
 	"fmt"
-	"os"
-	"strings"
 	"testing"
 
 	"locusmith/airframe"
+	fleetgen "locusmith/internal/fleet"
 )
 
-// fleet makes n airframes from the examples with varied parameters
-// (demo data): loop rate, settling time and overshoot scaled per variant.
+// fleet parses n generated demo airframes (internal/fleet).
 func fleet(t testing.TB, n int) []*airframe.File {
 	t.Helper()
+	srcs, err := fleetgen.Make(n)
+	if err != nil {
+		t.Fatal(err)
+	}
 	var out []*airframe.File
-	names := []string{"quadrotor", "gimbal", "rover"}
-	for i := 0; len(out) < n; i++ {
-		src, err := os.ReadFile("../examples/" + names[i%3] + ".toml")
-		if err != nil {
-			t.Fatal(err)
-		}
-		s := string(src)
-		// Rename the airframe and slow the spec a little per variant.
-		for _, line := range strings.Split(s, "\n") {
-			if strings.HasPrefix(line, "airframe = ") {
-				s = strings.Replace(s, line, fmt.Sprintf("airframe = \"v%d\"", i), 1)
-			}
-			if strings.HasPrefix(line, "settling_time = ") {
-				var v float64
-				fmt.Sscanf(strings.TrimPrefix(line, "settling_time = "), "%g", &v)
-				s = strings.Replace(s, line, fmt.Sprintf("settling_time = %g", v*(1+0.05*float64(i%7))), 1)
-			}
-		}
-		f, err := airframe.Parse(fmt.Sprintf("fleet/v%d.toml", i), []byte(s))
+	for _, src := range srcs {
+		f, err := airframe.Parse("fleet/"+src.Name, src.Data)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -230,6 +230,20 @@ type searcher struct {
 	bs    []float64 // all admitted weights, descending
 	cache map[Target]*cached
 	buf   []float64 // scratch for one response
+	free  [][]float64 // records of stopped candidates, for reuse
+}
+
+// record returns an empty response record of capacity n, reusing a freed
+// one when there is one.
+func (sr *searcher) record(n int) []float64 {
+	if k := len(sr.free); k > 0 {
+		r := sr.free[k-1]
+		sr.free = sr.free[:k-1]
+		if cap(r) >= n {
+			return r[:0]
+		}
+	}
+	return make([]float64, 0, n)
 }
 
 type cached struct {
@@ -242,6 +256,9 @@ type cached struct {
 	e       Evaluation
 	evalErr error
 	y0, y1  []float64 // the responses so far, of at most e.N samples
+	// freed: the record of a stopped response was given back; a judgment
+	// that needs it after all simulates the candidate again.
+	freed bool
 	// The responses were last cut short because every weight admitted
 	// (all of them, or b = 1 alone) was beyond the violation bound
 	// stopBound (NaN: never cut short).
@@ -275,9 +292,7 @@ const respondChunk = 32
 func (sr *searcher) respond(c *cached, ws []float64, beta float64) (w weightWindow, stopped bool) {
 	e := &c.e
 	w = newWeightWindow(e, sr.p.Spec, sr.bs[len(sr.bs)-1], sr.bs[0], beta)
-	if c.y0 == nil {
-		c.y0, c.y1 = make([]float64, 0, e.N), make([]float64, 0, e.N)
-	}
+
 	for k := range c.y0 {
 		if !w.ok {
 			break
@@ -287,9 +302,16 @@ func (sr *searcher) respond(c *cached, ws []float64, beta float64) (w weightWind
 	for k := len(c.y0); k < e.N; {
 		if w.ok && !w.admitsAny(ws) {
 			c.stopBound, c.stopAll = beta, len(ws) == len(sr.bs)
+			// The bounds of later judgments are no larger, so this record
+			// is not read again: its memory serves the next candidate.
+			sr.free = append(sr.free, c.y0[:0], c.y1[:0])
+			c.y0, c.y1, c.freed = nil, nil, true
 			return w, true
 		}
 		m := min(k+respondChunk, e.N)
+		if c.y0 == nil {
+			c.y0, c.y1 = sr.record(e.N), sr.record(e.N)
+		}
 		c.y0, c.y1 = c.y0[:m], c.y1[:m]
 		e.Respond(c.y0[k:m], c.y1[k:m])
 		for ; k < m; k++ {
@@ -315,8 +337,8 @@ func (sr *searcher) judge(ce *cached, ws []float64, bound float64, timeOnly bool
 	if timeOnly {
 		bound = 0
 	}
-	if !ce.done {
-		ce.done = true
+	if !ce.done || ce.freed && !(ce.stopBound >= bound && (ce.stopAll || len(ws) == 1)) {
+		ce.done, ce.freed = true, false
 		ce.e, ce.evalErr = sr.eval(ce.ctrl)
 	}
 	if ce.evalErr != nil {

@@ -509,6 +509,13 @@ func TestCrossoverMatchesMargins(t *testing.T) {
 				if v := cmplx.Abs(c.Eval(s) * p.Loop(s)); math.Abs(v-1) > 1e-9 {
 					t.Errorf("%s delay %g ×%g: |C·L| = %.12g at the crossover", form, delay, scale, v)
 				}
+				for _, w := range []float64{0.1, 3, 40, 700, 2e4} {
+					s := complex(0, w)
+					want := cmplx.Abs(c.Eval(s) * p.Loop(s))
+					if got := loopMag2(p, c)(w); math.Abs(got-want*want) > 1e-12*want*want {
+						t.Errorf("%s ×%g: |C·L|² at %g = %.15g, complex evaluation %.15g", form, scale, w, got, want*want)
+					}
+				}
 			}
 		}
 	}

@@ -295,10 +295,7 @@ func LoopMargins(p Problem, c Controller) lti.Margins { return loopMargins(p, c)
 // gets the full LoopMargins. NaN when the loop never crosses.
 func Crossover(p Problem, c Controller) float64 {
 	lo, hi, n := marginSpan(p, c)
-	ws := lti.GainCrossovers(func(w float64) float64 {
-		s := complex(0, w)
-		return cmplx.Abs(c.Eval(s) * p.Plant.Model.Eval(s) * p.Sensor.Eval(s))
-	}, lo, hi, n)
+	ws := lti.GainCrossovers(loopMag2(p, c), lo, hi, n)
 	switch len(ws) {
 	case 0:
 		return math.NaN()
@@ -306,4 +303,45 @@ func Crossover(p Problem, c Controller) float64 {
 		return ws[0]
 	}
 	return loopMargins(p, c).Crossover
+}
+
+// loopMag2 returns ω ↦ |C(jω)·G(jω)·H(jω)|², the squared loop gain (the
+// delay has unit magnitude), in real arithmetic: a pole or zero r gives
+// |jω − r|² = (ω − Im r)² + (Re r)², and the controller's real and
+// imaginary parts have closed forms, Kd·jω/(1 + jωTf) =
+// Kd·(ω²Tf + jω)/(1 + ω²Tf²) and Ki/(jω) = −jKi/ω. About a tenth of the
+// cost of the complex evaluation.
+func loopMag2(p Problem, c Controller) func(w float64) float64 {
+	g2 := p.Plant.Model.Gain * p.Plant.Model.Gain * p.Sensor.Gain * p.Sensor.Gain
+	var zs, ps []complex128
+	zs = append(append(zs, p.Plant.Model.Zeros...), p.Sensor.Zeros...)
+	ps = append(append(ps, p.Plant.Model.Poles...), p.Sensor.Poles...)
+	return func(w float64) float64 {
+		num, den := g2, 1.0
+		for _, r := range zs {
+			d := w - imag(r)
+			num *= d*d + real(r)*real(r)
+		}
+		for _, r := range ps {
+			d := w - imag(r)
+			den *= d*d + real(r)*real(r)
+		}
+		var c2 float64
+		switch c.Form {
+		case FormLead:
+			c2 = c.K * c.K * (w*w + c.Zero*c.Zero) / (w*w + c.Pole*c.Pole)
+		default:
+			re, im := c.Kp, 0.0
+			if c.Form.HasIntegral() {
+				im -= c.Ki / w
+			}
+			if c.Form.HasDerivative() {
+				q := 1 + w*w*c.Tf*c.Tf
+				re += c.Kd * w * w * c.Tf / q
+				im += c.Kd * w / q
+			}
+			c2 = re*re + im*im
+		}
+		return c2 * num / den
+	}
 }

@@ -114,75 +114,15 @@ func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margin
 		}
 	}
 
-	// Refined, unwrapped sample list.
-	pts := make([]marginPoint, 0, n+n/4)
-	grid[first].ph = ph0
-	pts = append(pts, grid[first])
-	const maxStep = math.Pi / 3
-	// Refinement budget: beyond it intervals are accepted unrefined (the
-	// scan is then as good as the grid allows) so a pathological L cannot
-	// make the scan run away.
-	budget := 64*n + 100000
-	var refine func(a, b marginPoint, depth int)
-	slope := 0.0 // dφ/d(ln ω) of the last accepted sub-interval
-	refine = func(a, b marginPoint, depth int) {
-		// a is already unwrapped and appended; append b (unwrapped) after
-		// the midpoint and any further points needed. The midpoint is always
-		// evaluated so that a phase change of ≈2πk between a and b (which
-		// the end points alone cannot reveal) is caught by the halves, and
-		// the interval is also split when the phase slope of the previous
-		// sub-interval predicts more than maxStep over it (a transport delay
-		// turns the phase ever faster in log ω).
-		if !b.ok {
-			pts = append(pts, b)
-			return
-		}
-		if budget <= 0 {
-			b.ph = a.ph + cmplx.Phase(b.L*cmplx.Conj(a.L))
-			pts = append(pts, b)
-			return
-		}
-		mid := 0.5 * (a.lw + b.lw)
-		z := eval(mid)
-		mp := marginPoint{lw: mid, L: z, ok: finiteNZ(z)}
-		if !mp.ok {
-			b.ph = a.ph + cmplx.Phase(b.L*cmplx.Conj(a.L))
-			pts = append(pts, mp, b)
-			return
-		}
-		d1 := cmplx.Phase(z * cmplx.Conj(a.L))
-		d2 := cmplx.Phase(b.L * cmplx.Conj(z))
-		mp.ph = a.ph + d1
-		budget--
-		if depth < 40 && budget > 0 && (math.Abs(d1) > maxStep || math.Abs(d2) > maxStep || math.Abs(slope)*(b.lw-a.lw) > maxStep) {
-			refine(a, mp, depth+1)
-			refine(pts[len(pts)-1], b, depth+1)
-			return
-		}
-		b.ph = mp.ph + d2
-		if b.lw > a.lw {
-			slope = (d1 + d2) / (b.lw - a.lw)
-		}
-		pts = append(pts, mp, b)
-	}
-	last := pts[0]
-	for j := first + 1; j < n; j++ {
-		b := grid[j]
-		if !b.ok {
-			pts = append(pts, b)
-			continue
-		}
-		refine(last, b, 0)
-		last = pts[len(pts)-1]
-	}
-
+	// The refined, unwrapped samples are produced in ascending frequency
+	// and each consecutive pair is examined for crossings as it appears,
+	// so no list of them is kept.
 	wrapDeg := func(x float64) float64 { return x - 360*math.Ceil((x-180)/360) }
-
 	bestGM, bestPM := math.Inf(1), math.Inf(1)
-	for i := 0; i+1 < len(pts); i++ {
-		a, b := pts[i], pts[i+1]
+	var tail marginPoint // the last sample produced
+	pair := func(a, b marginPoint) {
 		if !a.ok || !b.ok {
-			continue
+			return
 		}
 		// Gain crossover.
 		ga, gb := math.Log(cmplx.Abs(a.L)), math.Log(cmplx.Abs(b.L))
@@ -216,6 +156,71 @@ func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margin
 				m.GainDB, m.PhaseCrossover = gm, w
 			}
 		}
+	}
+	emit := func(ps ...marginPoint) {
+		for _, p := range ps {
+			pair(tail, p)
+			tail = p
+		}
+	}
+	grid[first].ph = ph0
+	tail = grid[first]
+	const maxStep = math.Pi / 3
+	// Refinement budget: beyond it intervals are accepted unrefined (the
+	// scan is then as good as the grid allows) so a pathological L cannot
+	// make the scan run away.
+	budget := 64*n + 100000
+	var refine func(a, b marginPoint, depth int)
+	slope := 0.0 // dφ/d(ln ω) of the last accepted sub-interval
+	refine = func(a, b marginPoint, depth int) {
+		// a is already unwrapped and produced; produce b (unwrapped) after
+		// the midpoint and any further points needed. The midpoint is always
+		// evaluated so that a phase change of ≈2πk between a and b (which
+		// the end points alone cannot reveal) is caught by the halves, and
+		// the interval is also split when the phase slope of the previous
+		// sub-interval predicts more than maxStep over it (a transport delay
+		// turns the phase ever faster in log ω).
+		if !b.ok {
+			emit(b)
+			return
+		}
+		if budget <= 0 {
+			b.ph = a.ph + cmplx.Phase(b.L*cmplx.Conj(a.L))
+			emit(b)
+			return
+		}
+		mid := 0.5 * (a.lw + b.lw)
+		z := eval(mid)
+		mp := marginPoint{lw: mid, L: z, ok: finiteNZ(z)}
+		if !mp.ok {
+			b.ph = a.ph + cmplx.Phase(b.L*cmplx.Conj(a.L))
+			emit(mp, b)
+			return
+		}
+		d1 := cmplx.Phase(z * cmplx.Conj(a.L))
+		d2 := cmplx.Phase(b.L * cmplx.Conj(z))
+		mp.ph = a.ph + d1
+		budget--
+		if depth < 40 && budget > 0 && (math.Abs(d1) > maxStep || math.Abs(d2) > maxStep || math.Abs(slope)*(b.lw-a.lw) > maxStep) {
+			refine(a, mp, depth+1)
+			refine(tail, b, depth+1)
+			return
+		}
+		b.ph = mp.ph + d2
+		if b.lw > a.lw {
+			slope = (d1 + d2) / (b.lw - a.lw)
+		}
+		emit(mp, b)
+	}
+	last := tail
+	for j := first + 1; j < n; j++ {
+		b := grid[j]
+		if !b.ok {
+			emit(b)
+			continue
+		}
+		refine(last, b, 0)
+		last = tail
 	}
 	return m
 }
@@ -268,36 +273,40 @@ func crossing(a, b float64, f func(float64) float64) float64 {
 	return x
 }
 
-// GainCrossovers returns the frequencies in [wmin, wmax] where the loop
-// gain mag(ω) = |L(jω)| crosses 1, found as LoopMargins finds its gain
-// crossovers: sign changes of ln mag on the log grid of n points and its
-// midpoints, each refined by the same root finder. The magnitude alone is
-// needed, so a transport delay can be left out, and no phase is unwrapped:
-// a fraction of the cost of LoopMargins where only the crossover is
-// wanted. Invalid ranges give nil.
-func GainCrossovers(mag func(w float64) float64, wmin, wmax float64, n int) []float64 {
-	if mag == nil || !(wmin > 0) || !(wmax > wmin) || math.IsInf(wmax, 0) {
+// GainCrossovers returns the frequencies in [wmin, wmax] where the squared
+// loop gain mag2(ω) = |L(jω)|² crosses 1, found as LoopMargins finds its
+// gain crossovers: sign changes of ln|L| on the log grid of n points and
+// its midpoints, each refined by the same root finder. The magnitude alone
+// is needed, so a transport delay can be left out, and no phase is
+// unwrapped: a fraction of the cost of LoopMargins where only the crossover
+// is wanted. The grid compares mag2 with 1 (logarithms only in the
+// refinement) and steps ω by a constant ratio. Invalid ranges give nil.
+func GainCrossovers(mag2 func(w float64) float64, wmin, wmax float64, n int) []float64 {
+	if mag2 == nil || !(wmin > 0) || !(wmax > wmin) || math.IsInf(wmax, 0) {
 		return nil
 	}
 	n = max(n, 2)
-	f := func(lw float64) float64 { return math.Log(mag(math.Exp(lw))) }
+	f := func(lw float64) float64 { return 0.5 * math.Log(mag2(math.Exp(lw))) }
+	m := 2*n - 1
 	l0, l1 := math.Log(wmin), math.Log(wmax)
+	ratio := math.Exp((l1 - l0) / float64(m-1))
 	var out []float64
-	prevLW, prev := 0.0, math.NaN()
-	for i := 0; i < 2*n-1; i++ {
-		lw := l0 + (l1-l0)*float64(i)/float64(2*n-2)
-		if i == 2*n-2 {
-			lw = l1
+	ok := func(v float64) bool { return v > 0 && !math.IsInf(v, 0) }
+	w, prevW, prev := wmin, 0.0, math.NaN()
+	for i := 0; i < m; i++ {
+		if i == m-1 {
+			w = wmax
 		}
-		v := f(lw)
-		if math.IsNaN(v) || math.IsInf(v, 0) {
+		v := mag2(w)
+		if !ok(v) {
 			prev = math.NaN()
-			continue
+		} else {
+			if ok(prev) && (prev >= 1) != (v >= 1) {
+				out = append(out, math.Exp(crossing(math.Log(prevW), math.Log(w), f)))
+			}
+			prevW, prev = w, v
 		}
-		if !math.IsNaN(prev) && (prev >= 0) != (v >= 0) {
-			out = append(out, math.Exp(crossing(prevLW, lw, f)))
-		}
-		prevLW, prev = lw, v
+		w *= ratio
 	}
 	return out
 }
