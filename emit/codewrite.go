@@ -26,7 +26,11 @@ import (
 //     written, so a full disk or a failed write leaves the old files as
 //     they were;
 //   - writes only base names into the output directory: no name with a
-//     separator, "..", or a leading dot.
+//     separator, "..", or a leading dot;
+//   - checks, after its renames, that every file it left alone as
+//     unchanged is still there, and writes again one that vanished
+//     meanwhile (a clean step of the build, a person tidying up), so that
+//     a run that reports success leaves every output in place.
 
 // writeFS is the file-system access of the writer, replaceable in tests to
 // simulate a failing disk.
@@ -132,6 +136,7 @@ func writeSources(fsys writeFS, dir string, srcs []Source) (written []string, er
 		}
 	}()
 	seen := map[string]bool{}
+	var kept []Source // unchanged, left alone
 	for _, s := range srcs {
 		if err := safeName(s.Name); err != nil {
 			return nil, err
@@ -143,6 +148,7 @@ func writeSources(fsys writeFS, dir string, srcs []Source) (written []string, er
 		dst := filepath.Join(dir, s.Name)
 		old, rerr := os.ReadFile(dst)
 		if rerr == nil && bytes.Equal(old, s.Data) {
+			kept = append(kept, s)
 			continue
 		}
 		if rerr != nil && !errors.Is(rerr, fs.ErrNotExist) {
@@ -170,6 +176,24 @@ func writeSources(fsys writeFS, dir string, srcs []Source) (written []string, er
 		written = append(written, p.name)
 	}
 	todo = nil
+	// An unchanged file removed since it was compared is written again.
+	for _, s := range kept {
+		dst := filepath.Join(dir, s.Name)
+		if _, err := os.Lstat(dst); err == nil || !errors.Is(err, fs.ErrNotExist) {
+			continue
+		}
+		tmp, err := writeTemp(fsys, dir, s)
+		if err == nil {
+			err = fsys.Rename(tmp, dst)
+		}
+		if err != nil {
+			if tmp != "" {
+				_ = fsys.Remove(tmp)
+			}
+			return written, fmt.Errorf("%s vanished while the outputs were written, and writing it again failed: %w", dst, err)
+		}
+		written = append(written, s.Name)
+	}
 	return written, nil
 }
 

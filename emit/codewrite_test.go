@@ -5,6 +5,7 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 	"time"
@@ -227,4 +228,74 @@ func TestCheckSources(t *testing.T) {
 	if d2, _ := CheckSources(dir, []Source{{Name: "notes.txt", Data: []byte("mine\n")}, {Name: "b_rate.h", Data: []byte(files["b_rate.h"])}, {Name: "a_rate.h", Data: []byte(files["a_rate.h"])}}, 0); !d2.Clean() {
 		t.Errorf("matching directory reported drift: %s", d2)
 	}
+}
+
+// vanishFS removes a file of the output directory at its first rename, as
+// a concurrent clean step would between the comparison and the write.
+type vanishFS struct {
+	osFS
+	victim string
+	done   bool
+}
+
+func (v *vanishFS) Rename(o, n string) error {
+	if !v.done {
+		v.done = true
+		if err := os.Remove(v.victim); err != nil {
+			return err
+		}
+	}
+	return os.Rename(o, n)
+}
+
+// A file left alone as unchanged that vanishes before the writer is done
+// is written again and reported as written; the others are as generated.
+// And a temporary file that vanishes before its rename gives a clean error
+// naming the file, the old outputs intact and no temporary file left.
+func TestWriteSourcesFileVanishes(t *testing.T) {
+	dir := t.TempDir()
+	old := []Source{{Name: "x_rate.h", Data: []byte("h\n")}, {Name: "x_rate.c", Data: []byte("old c\n")}}
+	if _, err := WriteSources(dir, old); err != nil {
+		t.Fatal(err)
+	}
+	next := []Source{{Name: "x_rate.h", Data: []byte("h\n")}, {Name: "x_rate.c", Data: []byte("new c\n")}}
+	fsys := &vanishFS{victim: filepath.Join(dir, "x_rate.h")}
+	w, err := writeSources(fsys, dir, next)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !fsys.done {
+		t.Fatal("the file was not removed during the write")
+	}
+	if !slices.Equal(w, []string{"x_rate.c", "x_rate.h"}) {
+		t.Errorf("written %v, want the changed file and the vanished one", w)
+	}
+	got := readDir(t, dir)
+	if len(got) != 2 || got["x_rate.h"] != "h\n" || got["x_rate.c"] != "new c\n" {
+		t.Errorf("directory after the write: %q", got)
+	}
+
+	// The temporary file vanishes: the rename fails.
+	tmpGone := &tempVanishFS{}
+	next[1].Data = []byte("newer c\n")
+	w, err = writeSources(tmpGone, dir, next)
+	if err == nil || !strings.Contains(err.Error(), "x_rate.c") || !errors.Is(err, fs.ErrNotExist) {
+		t.Fatalf("error %v, want one naming x_rate.c and the missing file", err)
+	}
+	if len(w) != 0 {
+		t.Errorf("reported as written: %v", w)
+	}
+	if got := readDir(t, dir); len(got) != 2 || got["x_rate.c"] != "new c\n" || got["x_rate.h"] != "h\n" {
+		t.Errorf("old outputs changed or a temporary file left: %q", got)
+	}
+}
+
+// tempVanishFS removes each temporary file just before renaming it.
+type tempVanishFS struct{ osFS }
+
+func (tempVanishFS) Rename(o, n string) error {
+	if err := os.Remove(o); err != nil {
+		return err
+	}
+	return os.Rename(o, n)
 }

@@ -635,3 +635,20 @@ func TestVersion(t *testing.T) {
 		}
 	}
 }
+
+// Go builds one package per directory and emit writes a package per
+// airframe, so several airframes in one Go run are a usage error: exit 2,
+// nothing written, and the message says what to do instead.
+func TestEmitGoOneAirframePerRun(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "gen")
+	code, _, errs := runCLI(t, append([]string{"emit", "--lang", "go", "-o", dir}, examples(t)...)...)
+	if code != exitUsage || !strings.Contains(errs, "one package per directory") || !strings.Contains(errs, "once per airframe") {
+		t.Errorf("exit %d, stderr %q", code, errs)
+	}
+	if _, err := os.Stat(dir); !os.IsNotExist(err) {
+		t.Errorf("output directory made or written: %v", err)
+	}
+	if code, _, errs := runCLI(t, "emit", "--lang", "go", "-o", dir, examples(t)[0]); code != exitOK {
+		t.Errorf("one airframe: exit %d, stderr %q", code, errs)
+	}
+}

@@ -21,7 +21,8 @@ controllers as source code into DIR:
   C (default)        <airframe>_rate.h and <airframe>_rate.c, C99 with
                      <stdint.h> types; with --c-header-only one header of
                      static inline functions
-  Go (--lang go)     <airframe>rate.go, package <airframe>rate
+  Go (--lang go)     <airframe>rate.go, package <airframe>rate: one airframe
+                     per run, as Go builds one package per directory
 
 Per axis the code has a state type and reset, step and applied functions;
 coefficients and limits are named constants. The output is a pure function
@@ -111,8 +112,11 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 		}
 		seen[f.Airframe] = f.Path
 	}
+	// Go builds one package per directory, and each airframe is a package
+	// of its own: several in one directory could not be built at all.
 	if o.Lang == emit.LangGo && len(files) > 1 {
-		fmt.Fprintf(stderr, "locusmith emit: warning: --lang go writes a package per airframe, and Go builds one package per directory: give each of the %d airframes its own -o directory\n", len(files))
+		fmt.Fprintf(stderr, "locusmith emit: --lang go writes one package per airframe (%s, …), and Go builds one package per directory: run emit once per airframe, each with its own -o directory\nlocusmith emit: nothing written\n", files[0].Airframe+"rate")
+		return exitUsage
 	}
 	designs := designBatch(files, *jobs, false, stderr)
 	gen, err := emit.NewCodeGenerator()
