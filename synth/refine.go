@@ -229,7 +229,7 @@ type searcher struct {
 	eval  Evaluator
 	bs    []float64 // all admitted weights, descending
 	cache map[Target]*cached
-	buf   []float64 // scratch for one response
+	buf   []float64   // scratch for one response
 	free  [][]float64 // records of stopped candidates, for reuse
 }
 
