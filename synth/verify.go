@@ -99,7 +99,25 @@ func stepGrid(ts float64, poles []complex128) (h float64, n int) {
 }
 
 // stepResponses returns the step responses of the closed loop for
-// numerators nums over the common denominator den, sharing one ZOH.
+// numerators nums over the common denominator den, sharing one ZOH
+// (stepSystem).
+func stepResponses(den lti.Poly, nums []lti.Poly, h float64, n int) ([][]float64, error) {
+	d, cs, ds, err := stepSystem(den, nums, h)
+	if err != nil {
+		return nil, err
+	}
+	out := make([][]float64, len(nums))
+	for i := range nums {
+		d.C, d.D = cs[i], ds[i]
+		out[i] = make([]float64, n)
+		d.StepInto(out[i])
+	}
+	return out, nil
+}
+
+// stepSystem returns the ZOH at step h of the closed loop with denominator
+// den, one realization for all the numerators nums, and each numerator's
+// output row and feedthrough.
 //
 // The polynomials of a closed loop span many decades (a 9th-order loop with
 // poles from 10 to 3000 rad/s has coefficients from 1e-17 to 1e8), which
@@ -107,7 +125,7 @@ func stepGrid(ts float64, poles []complex128) (h float64, n int) {
 // with s = ω0·ŝ and ω0 = |d0/dn|^(1/n), the geometric mean of the pole
 // magnitudes, the coefficients become d_i·ω0^i, all of order one, and the
 // step response of T(ω0·ŝ) at t̂ = ω0·t equals that of T(s) at t.
-func stepResponses(den lti.Poly, nums []lti.Poly, h float64, n int) ([][]float64, error) {
+func stepSystem(den lti.Poly, nums []lti.Poly, h float64) (lti.Disc, [][]float64, []float64, error) {
 	den = den.Trim()
 	w0 := 1.0
 	if deg := len(den) - 1; deg > 0 && den[0] != 0 {
@@ -123,34 +141,28 @@ func stepResponses(den lti.Poly, nums []lti.Poly, h float64, n int) ([][]float64
 		return q
 	}
 	den = scale(den)
-	scaled := make([]lti.Poly, len(nums))
-	for i, num := range nums {
-		scaled[i] = scale(num)
-	}
-	nums, h = scaled, h*w0
-	out := make([][]float64, len(nums))
+	h *= w0
 	var base lti.Disc
 	var baseSS lti.SS
+	cs, ds := make([][]float64, len(nums)), make([]float64, len(nums))
 	for i, num := range nums {
-		ss, err := lti.TF{Num: num, Den: den}.SS()
+		ss, err := lti.TF{Num: scale(num), Den: den}.SS()
 		if err != nil {
-			return nil, err
+			return lti.Disc{}, nil, nil, err
 		}
-		var d lti.Disc
-		if i > 0 && slices.Equal(ss.A, baseSS.A) && slices.Equal(ss.B, baseSS.B) {
-			d = base
-			d.C, d.D = ss.C, ss.D
-		} else {
-			d, err = lti.ZOH(ss, h)
-			if err != nil {
-				return nil, err
+		if i == 0 {
+			if base, err = lti.ZOH(ss, h); err != nil {
+				return lti.Disc{}, nil, nil, err
 			}
-			base, baseSS = d, ss
+			baseSS = ss
+		} else if !slices.Equal(ss.A, baseSS.A) || !slices.Equal(ss.B, baseSS.B) {
+			return lti.Disc{}, nil, nil, fmt.Errorf("step responses: numerator %d has another realization", i)
 		}
-		out[i] = make([]float64, n)
-		d.StepInto(out[i])
+		// The ZOH keeps C and D: each numerator's output reads the shared
+		// state.
+		cs[i], ds[i] = ss.C, ss.D
 	}
-	return out, nil
+	return base, cs, ds, nil
 }
 
 // Verify computes the full-order closed-loop behaviour of controller c on

@@ -286,3 +286,47 @@ func (d Disc) TF() (TF, error) {
 	}
 	return TF{Num: num, Den: den}, nil
 }
+
+// StepPair is the unit-step response of two outputs, C0·x + D0 and
+// C1·x + D1, of one state x[k+1] = A x[k] + B, simulated once for both and
+// resumable: Run continues where the last call ended, so a caller can stop
+// a response as soon as it has seen enough of it.
+type StepPair struct {
+	n      int
+	a, b   []float64
+	c0, c1 []float64
+	d0, d1 float64
+	x, xn  []float64
+}
+
+// NewStepPair starts the step of d with the two output rows; d's own C and
+// D are not used. The state starts at rest.
+func (d Disc) NewStepPair(c0, c1 []float64, d0, d1 float64) *StepPair {
+	buf := make([]float64, 2*d.N)
+	return &StepPair{n: d.N, a: d.A[:d.N*d.N], b: d.B[:d.N], c0: c0[:d.N], c1: c1[:d.N], d0: d0, d1: d1, x: buf[:d.N], xn: buf[d.N:]}
+}
+
+// Run writes the next len(y0) samples of both outputs into y0 and y1
+// (len(y1) = len(y0)).
+func (s *StepPair) Run(y0, y1 []float64) {
+	n, a, b, c0, c1 := s.n, s.a, s.b, s.c0, s.c1
+	x, xn := s.x, s.xn
+	y1 = y1[:len(y0)]
+	for k := range y0 {
+		v0, v1 := s.d0, s.d1
+		for i, xi := range x[:n] {
+			v0 += c0[i] * xi
+			v1 += c1[i] * xi
+		}
+		y0[k], y1[k] = v0, v1
+		for i := range n {
+			acc := b[i]
+			for j, aij := range a[i*n : i*n+n] {
+				acc += aij * x[j]
+			}
+			xn[i] = acc
+		}
+		x, xn = xn, x
+	}
+	s.x, s.xn = x, xn
+}

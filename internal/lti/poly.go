@@ -331,3 +331,61 @@ func RootDistance(got, want []complex128) float64 {
 	}
 	return worst
 }
+
+// Hurwitz reports whether every root of p lies in the open left half plane,
+// by the Routh–Hurwitz criterion (Ogata, Modern Control Engineering, the
+// Routh stability criterion; from memory): with p written from the leading
+// coefficient down, every entry of the first column of the Routh array is
+// nonzero and of one sign. A zero entry means roots on or right of the
+// imaginary axis, so the test needs no ε rule: it answers false. O(n²),
+// against O(n³) for the roots.
+//
+// The coefficients of a closed loop span many decades, so s is scaled
+// first by ω0 = |p0/pn|^(1/n), the geometric mean of the root magnitudes
+// (which leaves the half plane of every root unchanged) to bring them all
+// near one.
+func (p Poly) Hurwitz() bool {
+	p = p.Trim()
+	n := len(p) - 1
+	if n < 1 {
+		return n == 0 && p[0] != 0
+	}
+	if !(p[0] != 0) || !p.IsFinite() {
+		return false // a root at 0, or NaN
+	}
+	w0 := math.Pow(math.Abs(p[0]/p[n]), 1/float64(n))
+	// Descending coefficients of p(ω0·ŝ), leading one positive.
+	c := make([]float64, n+1)
+	f := 1.0
+	for i := 0; i <= n; i++ {
+		c[n-i] = p[i] * f
+		f *= w0
+	}
+	if c[0] < 0 {
+		for i := range c {
+			c[i] = -c[i]
+		}
+	}
+	w := n/2 + 1
+	prev, cur := make([]float64, w), make([]float64, w)
+	for j := 0; 2*j <= n; j++ {
+		prev[j] = c[2*j]
+		if 2*j+1 <= n {
+			cur[j] = c[2*j+1]
+		}
+	}
+	if !(prev[0] > 0) {
+		return false
+	}
+	for k := 1; k <= n; k++ {
+		if !(cur[0] > 0) {
+			return false
+		}
+		next := make([]float64, w)
+		for j := 0; j+1 < w; j++ {
+			next[j] = (cur[0]*prev[j+1] - prev[0]*cur[j+1]) / cur[0]
+		}
+		prev, cur = cur, next
+	}
+	return true
+}

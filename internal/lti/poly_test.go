@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"math/cmplx"
+	"math/rand/v2"
 	"testing"
 )
 
@@ -209,5 +210,66 @@ func TestSortRoots(t *testing.T) {
 	SortRoots(n) // must not panic; NaN last
 	if n[0] != 1 || n[1] != -1 {
 		t.Errorf("NaN ordering %v", n)
+	}
+}
+
+// Hurwitz against the roots a polynomial is built from (the definition):
+// random real and complex-pair roots over four decades, stable, with one
+// pair or one real root moved into the right half plane, or a root added
+// at the origin; and the Routh textbook case s³ + s² + 2s + 8 (two roots
+// in the right half plane, a sign change in the first column 1, 1, −6, 8).
+func TestHurwitzAgainstRoots(t *testing.T) {
+	r := rand.New(rand.NewPCG(5, 6))
+	mag := func() float64 { return math.Pow(10, 1+3*r.Float64()) }
+	counts := map[bool]int{}
+	for trial := 0; trial < 2000; trial++ {
+		var roots []complex128
+		for len(roots) < 2+r.IntN(9) {
+			m := mag()
+			if r.IntN(2) == 0 {
+				roots = append(roots, complex(-m, 0))
+			} else {
+				th := (0.05 + 0.9*r.Float64()) * math.Pi / 2
+				roots = append(roots, complex(-m*math.Cos(th), m*math.Sin(th)), complex(-m*math.Cos(th), -m*math.Sin(th)))
+			}
+		}
+		switch trial % 4 {
+		case 1: // a root into the right half plane
+			i := r.IntN(len(roots))
+			if imag(roots[i]) == 0 {
+				roots[i] = complex(-real(roots[i])*0.1, 0)
+			} else {
+				j := i + 1 // its conjugate: pairs are appended + then −
+				if imag(roots[i]) < 0 {
+					j = i - 1
+				}
+				roots[i] = complex(0.2*math.Abs(real(roots[i])), imag(roots[i]))
+				roots[j] = cmplx.Conj(roots[i])
+			}
+		case 2: // a root at the origin
+			roots = append(roots, 0)
+		}
+		p, err := FromRoots(roots)
+		if err != nil {
+			t.Fatal(err)
+		}
+		p = PolyMul(p, Poly{3.7})
+		want := true
+		for _, z := range roots {
+			want = want && real(z) < 0
+		}
+		if got := p.Hurwitz(); got != want {
+			t.Fatalf("trial %d: Hurwitz %v, roots say %v: %v", trial, got, want, roots)
+		}
+		counts[want]++
+	}
+	if counts[true] < 500 || counts[false] < 500 {
+		t.Errorf("cases: %v stable/unstable, want both well represented", counts)
+	}
+	if (Poly{8, 2, 1, 1}).Hurwitz() {
+		t.Error("s³ + s² + 2s + 8 reported stable")
+	}
+	if !(Poly{6, 11, 6, 1}).Hurwitz() || !(Poly{-6, -11, -6, -1}).Hurwitz() {
+		t.Error("(s+1)(s+2)(s+3) (either sign) reported unstable")
 	}
 }

@@ -486,3 +486,36 @@ func BenchmarkDiscEval6(b *testing.B) {
 		_ = d.Eval(z)
 	}
 }
+
+// StepPair is the reference step loop (stepGeneric, which StepInto's
+// kernels are tested against, and those against SciPy) for each of its two
+// outputs, bit for bit, however the record is cut into calls.
+func TestStepPairMatchesStepLoop(t *testing.T) {
+	for _, n := range []int{1, 3, 6} {
+		d := Disc{N: n, A: make([]float64, n*n), B: make([]float64, n), C: make([]float64, n), T: 1}
+		c0, c1 := make([]float64, n), make([]float64, n)
+		for i := range n {
+			for j := range n {
+				d.A[i*n+j] = 0.1 * math.Sin(float64(3*i+j+1))
+			}
+			d.A[i*n+i] += 0.6
+			d.B[i], c0[i], c1[i] = math.Cos(float64(i)), float64(i+1)/3, -math.Sin(float64(i+2))
+		}
+		const m = 200
+		w0, w1 := make([]float64, m), make([]float64, m)
+		stepGeneric(n, d.A, d.B, c0, 0.25, w0)
+		stepGeneric(n, d.A, d.B, c1, -0.5, w1)
+		g0, g1 := make([]float64, m), make([]float64, m)
+		sp := d.NewStepPair(c0, c1, 0.25, -0.5)
+		for i, cut := 0, 1; i < m; cut = 2*cut + 1 {
+			j := min(i+cut, m)
+			sp.Run(g0[i:j], g1[i:j])
+			i = j
+		}
+		for k := range m {
+			if g0[k] != w0[k] || g1[k] != w1[k] {
+				t.Fatalf("n=%d sample %d: (%g, %g), reference (%g, %g)", n, k, g0[k], g1[k], w0[k], w1[k])
+			}
+		}
+	}
+}
