@@ -511,7 +511,9 @@ func schurStable(p lti.Poly) bool {
 
 // loopMargins returns the margins of the sampled loop
 // L(z) = C_fb(z)·P(z)·z^(−d) on the unit circle, z = e^(jωT), from a low
-// frequency up to just below Nyquist π/T.
+// frequency up to just below Nyquist π/T, on a grid of 20 points per
+// decade: lti.LoopMargins adds every midpoint (40 per decade) and splits
+// further wherever the phase turns by more than 60°.
 func loopMargins(pl Plant, k Coeffs, d int, wlo float64) lti.Margins {
 	T := pl.T
 	ny := math.Pi / T
@@ -520,7 +522,7 @@ func loopMargins(pl Plant, k Coeffs, d int, wlo float64) lti.Margins {
 		// Two decades below the integral zero Ki/Kp (G01 ≈ Ki·T).
 		lo = math.Min(lo, k.G01/T/k.Kp/100)
 	}
-	n := int(math.Ceil(30*math.Log10(ny/lo))) + 1
+	n := int(math.Ceil(20*math.Log10(ny/lo))) + 1
 	// z⁻¹ = z̄ on the unit circle; the controller and the plant make one
 	// rational function, C·P = (Nc·Np)/(Dc·Dp), with one division, and the
 	// delay z^(−d−Delay) is a phase.

@@ -791,7 +791,7 @@ func (p *fixedPlan) restBound() float64 {
 // quantized_<metric> checks; w is the data width (0: float32).
 func (re *Realization) verifyQuantized(d *Design, w int) error {
 	kq := re.QuantizedCoeffs
-	v, err := Verify(d.Problem, d.Plant, kq, d.Loop.ComputeDelay)
+	v, err := verify(d.Problem, d.Plant, kq, d.Loop.ComputeDelay, 0)
 	if err != nil {
 		return fmt.Errorf("verification with quantized coefficients: %w", err)
 	}

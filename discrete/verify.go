@@ -97,7 +97,10 @@ func Verify(p synth.Problem, pl Plant, k Coeffs, d int) (Verification, error) {
 }
 
 // verify is Verify with the saturated step kept within maxStep, the largest
-// setpoint the numeric realization represents (input_full_scale).
+// setpoint the numeric realization represents (input_full_scale); a
+// maxStep of 0 leaves the saturated step out (Saturated is zero), for the
+// re-verification with quantized coefficients, which reports the linear
+// figures alone.
 func verify(p synth.Problem, pl Plant, k Coeffs, d int, maxStep float64) (Verification, error) {
 	var v Verification
 	c := linearize(k)
@@ -121,7 +124,9 @@ func verify(p synth.Problem, pl Plant, k Coeffs, d int, maxStep float64) (Verifi
 	dc := L.dcGain()
 	v.SteadyStateError = 1 - dc
 	v.Step = lti.StepMetrics(v.Y, pl.T, dc, p.Spec.Band)
-	v.Saturated = saturated(p, pl, k, d, v.U, dc, n, maxStep)
+	if maxStep > 0 {
+		v.Saturated = saturated(p, pl, k, d, v.U, dc, n, maxStep)
+	}
 	return v, nil
 }
 
