@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"fmt"
+	"slices"
 	"testing"
 
 	"locusmith/airframe"
@@ -63,6 +64,25 @@ func TestBatchMatchesOneByOne(t *testing.T) {
 	}})
 	if calls != 3 {
 		t.Errorf("progress called %d times, want 3", calls)
+	}
+	// Release clears each entry once delivered (each delivered airframe
+	// keeps its own file), and not before; without it the slice is
+	// untouched.
+	given := slices.Clone(files[:4])
+	DesignEach(given, BatchOptions{Jobs: 2, Release: true}, func(i int, a *Airframe) {
+		if given[i] != nil || a.File != files[i] {
+			t.Errorf("airframe %d: entry %v at delivery, file %p (want %p)", i, given[i], a.File, files[i])
+		}
+		for j := i + 1; j < len(given); j++ {
+			if given[j] == nil {
+				t.Errorf("entry %d cleared before its delivery", j)
+			}
+		}
+	})
+	kept := slices.Clone(files[:2])
+	DesignAll(kept, BatchOptions{Jobs: 2})
+	if !slices.Equal(kept, files[:2]) {
+		t.Error("without Release the files slice changed")
 	}
 }
 

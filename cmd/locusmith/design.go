@@ -61,7 +61,7 @@ func runDesign(args []string, stdout, stderr io.Writer) int {
 			_, werr = fmt.Fprintf(stdout, "{\n  \"version\": %q,\n  \"airframes\": [\n", emit.Version)
 		}
 	}
-	designStream(files, *jobs, false, stderr, func(i int, a *emit.Airframe) {
+	designStream(files, *jobs, false, true, stderr, func(i int, a *emit.Airframe) {
 		for _, x := range a.Axes {
 			code = worst(code, axisStatus(x))
 		}
