@@ -870,3 +870,35 @@ func TestPairStepperMatchesStepper(t *testing.T) {
 		}
 	}
 }
+
+// dcGains is the resolvent at z = 1 (lti.Disc.Eval, tested against SciPy)
+// for both inputs, and NaN for a loop whose I − A is singular.
+func TestDCGainsMatchResolvent(t *testing.T) {
+	for _, form := range synth.Forms {
+		p := demo(form)
+		pl, err := NewPlant(p, 0.001)
+		if err != nil {
+			t.Fatal(err)
+		}
+		c := synth.Controller{Form: form, Kp: 0.04, Ki: 0.4, Kd: 0.0008, Tf: 0.0013, B: 1, K: 2, Zero: -20, Pole: -90}
+		k, _, err := Realize(c, p.Ctrl, pl.T, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for d := range 3 {
+			k0, k1 := k, k
+			k0.KpB, k1.KpB = 0, k.Kp
+			c0, c1 := linearize(k0), linearize(k1)
+			L0, L1 := newClosedLoop(pl, c0, d), newClosedLoop(pl, c1, d)
+			g0, g1 := L0.dcGains(setpointInput(pl, c1, d+pl.Delay, c1.Dr))
+			w0, w1 := L0.dcGain(), L1.dcGain()
+			if math.Abs(g0-w0) > 1e-12*math.Abs(w0) || math.Abs(g1-w1) > 1e-12*math.Abs(w1) {
+				t.Errorf("%s d=%d: dcGains (%.15g, %.15g), resolvent (%.15g, %.15g)", form, d, g0, g1, w0, w1)
+			}
+		}
+	}
+	L := closedLoop{N: 2, A: []float64{1, 0, 0, 0.5}, B: []float64{1, 1}, Cy: []float64{1, 1}}
+	if g0, g1 := L.dcGains([]float64{0, 1}); !math.IsNaN(g0) || !math.IsNaN(g1) {
+		t.Errorf("singular I − A: (%g, %g), want NaN", g0, g1)
+	}
+}

@@ -376,6 +376,76 @@ func (L closedLoop) dcGain() float64 {
 	return real(v)
 }
 
+// dcGains returns the final values Cy (I − A)⁻¹ b of the true rate for the
+// loop's own input B and for b1 (a loop that differs only in the setpoint
+// input), by one real Gaussian elimination with both right-hand sides: the
+// operations of the resolvent at z = 1 (lti.Disc.Eval), in real arithmetic
+// and for two inputs at once. NaN where I − A is singular or not finite.
+func (L closedLoop) dcGains(b1 []float64) (float64, float64) {
+	n := L.N
+	nan := math.NaN()
+	const small = 16
+	var buf [small * (small + 2)]float64
+	var vbuf [2 * small]float64
+	w := n + 2
+	var m, v []float64
+	if n <= small {
+		m, v = buf[:n*w], vbuf[:2*n]
+	} else {
+		m, v = make([]float64, n*w), make([]float64, 2*n)
+	}
+	for i := 0; i < n; i++ {
+		for j := 0; j < n; j++ {
+			m[i*w+j] = -L.A[i*n+j]
+		}
+		m[i*w+i]++
+		m[i*w+n], m[i*w+n+1] = L.B[i], b1[i]
+	}
+	for col := 0; col < n; col++ {
+		p, best := col, -1.0
+		for r := col; r < n; r++ {
+			if a := math.Abs(m[r*w+col]); a > best {
+				p, best = r, a
+			}
+		}
+		if !(best > 0) || math.IsInf(best, 0) {
+			return nan, nan
+		}
+		if p != col {
+			for j := col; j < w; j++ {
+				m[p*w+j], m[col*w+j] = m[col*w+j], m[p*w+j]
+			}
+		}
+		inv := 1 / m[col*w+col]
+		m[col*w+col] = inv
+		for r := col + 1; r < n; r++ {
+			f := m[r*w+col] * inv
+			if f == 0 {
+				continue
+			}
+			for j := col + 1; j < w; j++ {
+				m[r*w+j] -= f * m[col*w+j]
+			}
+		}
+	}
+	var dc [2]float64
+	for k := range 2 {
+		x := v[k*n : k*n+n]
+		for i := n - 1; i >= 0; i-- {
+			s := m[i*w+n+k]
+			for j := i + 1; j < n; j++ {
+				s -= m[i*w+j] * x[j]
+			}
+			x[i] = s * m[i*w+i]
+			dc[k] += L.Cy[i] * x[i]
+		}
+		if math.IsNaN(dc[k]) || math.IsInf(dc[k], 0) {
+			dc[k] = nan
+		}
+	}
+	return dc[0], dc[1]
+}
+
 // feedback returns the controller's feedback path C_fb(z) = u/(−y) from
 // the coefficients, with q = z⁻¹:
 //
@@ -487,12 +557,18 @@ func characteristic(pl Plant, k Coeffs, d int) lti.Poly {
 // p*(z) = zⁿp(1/z), p is stable iff |p₀| < |pₙ| and
 // (pₙ·p(z) − p₀·p*(z))/z is stable. O(n²), against O(n³) for eigenvalues.
 func schurStable(p lti.Poly) bool {
-	a := append([]float64(nil), p.Trim()...)
+	p = p.Trim()
+	var abuf, qbuf [32]float64
+	a, qs := abuf[:0], qbuf[:0]
+	if len(p) > len(abuf) {
+		a, qs = make([]float64, 0, len(p)), make([]float64, 0, len(p))
+	}
+	a = append(a, p...)
 	for n := len(a) - 1; n > 0; n-- {
 		if !(math.Abs(a[0]) < math.Abs(a[n])) {
 			return false
 		}
-		q := make([]float64, n)
+		q := qs[:n]
 		scale := 0.0
 		for i := 0; i < n; i++ {
 			q[i] = a[n]*a[i+1] - a[0]*a[n-1-i]
@@ -504,7 +580,7 @@ func schurStable(p lti.Poly) bool {
 		for i := range q {
 			q[i] /= scale
 		}
-		a = q
+		a, qs = q, a[:0]
 	}
 	return len(a) == 1 && a[0] != 0
 }
