@@ -818,56 +818,69 @@ func TestSaturatedStepAmplitude(t *testing.T) {
 	}
 }
 
+// setpointLanes realizes a fixed controller of the form (gains scaled by
+// g) at period T, the demo's options, as the two linear controllers that
+// refinement simulates: setpoint weight 0 and 1.
+func setpointLanes(t *testing.T, form synth.Form, g, T float64) (c0, c1 linearCtrl) {
+	t.Helper()
+	c := synth.Controller{Form: form, Kp: 0.04 * g, Ki: 0.4 * g, Kd: 0.0008 * g, Tf: 0.0013, B: 1, K: 2, Zero: -20, Pole: -90}
+	k, _, err := Realize(c, demo(form).Ctrl, T, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	k0, k1 := k, k
+	k0.KpB, k1.KpB = 0, k.Kp
+	return linearize(k0), linearize(k1)
+}
+
 // The paired simulation is the two single ones, sample for sample and bit
-// for bit, however the record is cut into calls: for plants of 3 states
-// (the scalar path) and 5.
+// for bit, however the record is cut into calls: every unrolled kernel
+// (plants of 1 to 6 states, controllers of 0 to 3) and the loops beyond
+// (7 states), each form, compute delays 0 to 2, and dense plant matrices so
+// that every entry shows.
 func TestPairStepperMatchesStepper(t *testing.T) {
-	for i, form := range append(synth.Forms, synth.Forms...) {
-		p := demo(form)
-		switch i / len(synth.Forms) {
-		case 1:
-			p.Sensor = lti.ZPK{Gain: 1}
-			p.Plant.Model.Poles = append(p.Plant.Model.Poles, -50, complex(-300, 400), complex(-300, -400))
-			p.Plant.Model.Gain *= 50 * 250000
-		}
-		pl, err := NewPlant(p, 0.001)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if want := []int{3, 5}[i/len(synth.Forms)]; pl.N != want {
-			t.Fatalf("plant of %d states, want %d", pl.N, want)
-		}
-		if pl.N == 3 {
-			// A dense, stable A, so that every entry of the scalar path
-			// shows (the ZOH of a cascade is lower triangular).
-			pl.A = []float64{0.9, 0.05, -0.03, 0.02, 0.8, 0.04, -0.01, 0.03, 0.7}
-		}
-		c := synth.Controller{Form: form, Kp: 0.04, Ki: 0.4, Kd: 0.0008, Tf: 0.0013, B: 1, K: 2, Zero: -20, Pole: -90}
-		k, _, err := Realize(c, p.Ctrl, pl.T, 0)
-		if err != nil {
-			t.Fatal(err)
-		}
-		for d := range 3 {
-			k0, k1 := k, k
-			k0.KpB, k1.KpB = 0, k.Kp
-			c0, c1 := linearize(k0), linearize(k1)
-			const n = 500
-			w0, w1 := make([]float64, n), make([]float64, n)
-			simulate(pl, c0, d, w0, nil)
-			simulate(pl, c1, d, w1, nil)
-			g0, g1 := make([]float64, n), make([]float64, n)
-			ps := newPairStepper(pl, c0, c0.Dr, c1.Dr, d)
-			for i, cut := 0, 1; i < n; cut = cut*2 + 1 {
-				j := min(i+cut, n)
-				ps.run(g0[i:j], g1[i:j])
-				i = j
+	kernels := 0
+	for np := 1; np <= 7; np++ {
+		pl := Plant{N: np, A: make([]float64, np*np), B: make([]float64, np), Cm: make([]float64, np), Cy: make([]float64, np), T: 0.001, Delay: np % 3}
+		for i := range np {
+			for j := range np {
+				pl.A[i*np+j] = 0.05 * math.Sin(float64(7*i+3*j+1))
 			}
-			for i := range n {
-				if g0[i] != w0[i] || g1[i] != w1[i] {
-					t.Fatalf("%s d=%d: sample %d: pair (%g, %g), single (%g, %g)", form, d, i, g0[i], g1[i], w0[i], w1[i])
+			pl.A[i*np+i] += 0.85 - 0.02*float64(i)
+			pl.B[i], pl.Cm[i], pl.Cy[i] = 0.1*math.Cos(float64(i)), 1+0.3*float64(i), 1-0.2*float64(i)
+		}
+		for _, form := range synth.Forms {
+			c0, c1 := setpointLanes(t, form, 10, pl.T)
+			for d := range 3 {
+				const n = 300
+				w0, w1 := make([]float64, n), make([]float64, n)
+				simulate(pl, c0, d, w0, nil)
+				simulate(pl, c1, d, w1, nil)
+				g0, g1 := make([]float64, n), make([]float64, n)
+				ps := newPairStepper(pl, c0, c0.Dr, c1.Dr, d)
+				if pairKernel(newPairStepper(pl, c0, c0.Dr, c1.Dr, d), g0[:0], g1[:0]) {
+					kernels++
+				}
+				for i, cut := 0, 1; i < n; cut = cut*2 + 1 {
+					j := min(i+cut, n)
+					ps.run(g0[i:j], g1[i:j])
+					i = j
+				}
+				var moved bool
+				for i := range n {
+					if g0[i] != w0[i] || g1[i] != w1[i] {
+						t.Fatalf("%d states, %s, d=%d: sample %d: pair (%g, %g), single (%g, %g)", np, form, d, i, g0[i], g1[i], w0[i], w1[i])
+					}
+					moved = moved || g1[i] != 0
+				}
+				if !moved {
+					t.Fatalf("%d states, %s, d=%d: the response never left 0", np, form, d)
 				}
 			}
 		}
+	}
+	if want := 6 * len(synth.Forms) * 3; kernels != want {
+		t.Errorf("%d runs through a kernel, want %d", kernels, want)
 	}
 }
 
@@ -880,15 +893,8 @@ func TestDCGainsMatchResolvent(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		c := synth.Controller{Form: form, Kp: 0.04, Ki: 0.4, Kd: 0.0008, Tf: 0.0013, B: 1, K: 2, Zero: -20, Pole: -90}
-		k, _, err := Realize(c, p.Ctrl, pl.T, 0)
-		if err != nil {
-			t.Fatal(err)
-		}
+		c0, c1 := setpointLanes(t, form, 1, pl.T)
 		for d := range 3 {
-			k0, k1 := k, k
-			k0.KpB, k1.KpB = 0, k.Kp
-			c0, c1 := linearize(k0), linearize(k1)
 			L0, L1 := newClosedLoop(pl, c0, d), newClosedLoop(pl, c1, d)
 			g0, g1 := L0.dcGains(setpointInput(pl, c1, d+pl.Delay, c1.Dr))
 			w0, w1 := L0.dcGain(), L1.dcGain()

@@ -240,6 +240,9 @@ func (s *stepper) run(y, u []float64) {
 // in the controller's direct setpoint gain (Dr: the setpoint weight's
 // share of Kp) in one pass, which halves the loop overhead that dominates
 // these small state spaces; each lane computes exactly what stepper does.
+// Plants of up to 6 states with controllers of up to 3 run in unrolled
+// kernels with the state in scalars (pairkernels_gen.go, about twice as
+// fast), larger ones in the loops of run.
 type pairStepper struct {
 	pl    Plant
 	x, xn [2][]float64
@@ -304,12 +307,11 @@ func (p *pairCtrl) step(ym0, ym1 float64) (ua0, ua1 float64) {
 // run writes the true rate of the next len(y0) samples of the two loops
 // into y0 and y1 (len(y1) = len(y0)).
 func (s *pairStepper) run(y0, y1 []float64) {
-	pl := &s.pl
-	np := pl.N
-	if np == 3 {
-		s.run3(y0, y1)
+	if pairKernel(s, y0, y1) {
 		return
 	}
+	pl := &s.pl
+	np := pl.N
 	pa, pb, cm, cy := pl.A[:np*np], pl.B[:np], pl.Cm[:np], pl.Cy[:np]
 	x0, x1, xn0, xn1 := s.x[0][:np], s.x[1][:np], s.xn[0][:np], s.xn[1][:np]
 	y1 = y1[:len(y0)]
@@ -337,33 +339,6 @@ func (s *pairStepper) run(y0, y1 []float64) {
 	}
 	s.k += len(y0)
 	s.x, s.xn = [2][]float64{x0, x1}, [2][]float64{xn0, xn1}
-}
-
-// run3 is run for a three-state plant (a rate plant with a motor lag and a
-// gyro lowpass, the common case), its state in scalars: half the time of
-// the loops over a 3×3 matrix, the same operations in the same order.
-func (s *pairStepper) run3(y0, y1 []float64) {
-	pl := &s.pl
-	a := pl.A[:9]
-	a00, a01, a02, a10, a11, a12, a20, a21, a22 := a[0], a[1], a[2], a[3], a[4], a[5], a[6], a[7], a[8]
-	b0, b1, b2 := pl.B[0], pl.B[1], pl.B[2]
-	m0, m1, m2 := pl.Cm[0], pl.Cm[1], pl.Cm[2]
-	c0, c1, c2 := pl.Cy[0], pl.Cy[1], pl.Cy[2]
-	p0, p1, p2 := s.x[0][0], s.x[0][1], s.x[0][2] // lane 0
-	q0, q1, q2 := s.x[1][0], s.x[1][1], s.x[1][2] // lane 1
-	y1 = y1[:len(y0)]
-	for t := range y0 {
-		ym0 := m0*p0 + m1*p1 + m2*p2
-		ym1 := m0*q0 + m1*q1 + m2*q2
-		y0[t] = c0*p0 + c1*p1 + c2*p2
-		y1[t] = c0*q0 + c1*q1 + c2*q2
-		ua0, ua1 := s.ctrl.step(ym0, ym1)
-		p0, p1, p2 = b0*ua0+a00*p0+a01*p1+a02*p2, b1*ua0+a10*p0+a11*p1+a12*p2, b2*ua0+a20*p0+a21*p1+a22*p2
-		q0, q1, q2 = b0*ua1+a00*q0+a01*q1+a02*q2, b1*ua1+a10*q0+a11*q1+a12*q2, b2*ua1+a20*q0+a21*q1+a22*q2
-	}
-	s.k += len(y0)
-	s.x[0][0], s.x[0][1], s.x[0][2] = p0, p1, p2
-	s.x[1][0], s.x[1][1], s.x[1][2] = q0, q1, q2
 }
 
 // dcGain returns the final value of the true rate after a unit setpoint

@@ -4,6 +4,8 @@
 // numeric realization (float or fixed point).
 package discrete
 
+//go:generate sh -c "python3 testdata/gen_pairkernels.py > pairkernels_gen.go && gofmt -w pairkernels_gen.go"
+
 // Loop is the sampling of the rate loop.
 type Loop struct {
 	Hz float64 // loop rate, samples per second
