@@ -1,8 +1,12 @@
 package discrete
 
 import (
+	"bytes"
+	"go/format"
 	"math"
 	"math/cmplx"
+	"os"
+	"os/exec"
 	"testing"
 
 	"locusmith/internal/lti"
@@ -906,5 +910,28 @@ func TestDCGainsMatchResolvent(t *testing.T) {
 	L := closedLoop{N: 2, A: []float64{1, 0, 0, 0.5}, B: []float64{1, 1}, Cy: []float64{1, 1}}
 	if g0, g1 := L.dcGains([]float64{0, 1}); !math.IsNaN(g0) || !math.IsNaN(g1) {
 		t.Errorf("singular I − A: (%g, %g), want NaN", g0, g1)
+	}
+}
+
+// pairkernels_gen.go is what its generator makes (go generate after a
+// change to testdata/gen_pairkernels.py).
+func TestPairKernelsUpToDate(t *testing.T) {
+	out, err := exec.Command(pyref.Python, "testdata/gen_pairkernels.py").Output()
+	if err != nil {
+		if os.Getenv("CI") == "true" {
+			t.Fatalf("%s: %v", pyref.Python, err)
+		}
+		t.Skipf("%s not available: %v", pyref.Python, err)
+	}
+	want, err := format.Source(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := os.ReadFile("pairkernels_gen.go")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(got, want) {
+		t.Error("pairkernels_gen.go is stale: run go generate ./discrete")
 	}
 }
