@@ -2,6 +2,7 @@ package synth
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"math/cmplx"
 	"strings"
@@ -519,4 +520,48 @@ func TestCrossoverMatchesMargins(t *testing.T) {
 			}
 		}
 	}
+}
+
+// Above fallingAbove the loop gain does not increase (checked on a fine
+// grid over three decades), and the margins that stop there are those of
+// the whole sweep, for every form, with and without delay, over a range of
+// gains — and for a loop with a resonance.
+func TestFallingMarginsMatchFull(t *testing.T) {
+	check := func(name string, p Problem, c Controller) {
+		t.Helper()
+		wf := fallingAbove(p, c)
+		if math.IsInf(wf, 1) {
+			t.Fatalf("%s: no falling bound", name)
+		}
+		prev := math.Inf(1)
+		for i := 0; i <= 3000; i++ {
+			w := wf * math.Pow(10, 3*float64(i)/3000)
+			s := complex(0, w)
+			v := cmplx.Abs(c.Eval(s) * p.Loop(s))
+			if v > prev*(1+1e-12) {
+				t.Fatalf("%s: |L| rises at %g rad/s above the bound %g", name, w, wf)
+			}
+			prev = v
+		}
+		lo, hi, n := marginSpan(p, c)
+		full := lti.LoopMargins(func(w float64) complex128 { s := complex(0, w); return c.Eval(s) * p.Loop(s) }, lo, hi, n)
+		got := loopMargins(p, c)
+		if got.GainDB != full.GainDB || got.PhaseDeg != full.PhaseDeg || got.Crossover != full.Crossover ||
+			got.PhaseCrossover != full.PhaseCrossover || got.DelayMargin != full.DelayMargin {
+			t.Errorf("%s: margins %+v, full sweep %+v", name, got, full)
+		}
+	}
+	for _, form := range Forms {
+		for _, delay := range []float64{0, 0.002} {
+			p := demoProblem(form, delay)
+			for _, scale := range []float64{0.3, 1, 3} {
+				c := Controller{Form: form, Kp: 0.04 * scale, Ki: 0.4 * scale, Kd: 0.0008 * scale, Tf: 0.0013, B: 1, K: 0.5 * scale, Zero: -20, Pole: -90}
+				check(fmt.Sprintf("%s delay %g ×%g", form, delay, scale), p, c)
+			}
+		}
+	}
+	p := demoProblem(FormPID, 0.001)
+	p.Plant.Model.Poles = append(p.Plant.Model.Poles, complex(-5, 300), complex(-5, -300))
+	p.Plant.Model.Gain *= 300 * 300
+	check("resonance", p, Controller{Form: FormPID, Kp: 0.04, Ki: 0.4, Kd: 0.0008, Tf: 0.0013, B: 1})
 }

@@ -228,10 +228,44 @@ func clZeros(p Problem, c Controller) []complex128 {
 // loopMargins returns the margins of C·G·H with the exact delay.
 func loopMargins(p Problem, c Controller) lti.Margins {
 	lo, hi, n := marginSpan(p, c)
-	return lti.LoopMargins(func(w float64) complex128 {
+	return lti.LoopMarginsFalling(func(w float64) complex128 {
 		s := complex(0, w)
 		return c.Eval(s) * p.Loop(s)
-	}, lo, hi, n)
+	}, lo, hi, n, fallingAbove(p, c))
+}
+
+// fallingAbove returns a frequency above which |C·G·H(jω)| does not
+// increase (+Inf when there is none to be had): with the loop's zeros z
+// and poles p, d ln|L|/d ln ω = Σ_z f(z) − Σ_p f(p), where
+// f(r) = ω(ω − Im r)/|jω − r|². For |r| ≤ ω/K each f lies within
+// [(1 − 1/K)/((1 + 1/K)² + 1/K²), (1 + 1/K)/(1 − 1/K)²], so the slope is
+// at most zero once nz times the upper bound is at most np times the
+// lower: the least such K (from 2 up) times the largest |r| is the
+// frequency. The delay has unit magnitude.
+func fallingAbove(p Problem, c Controller) float64 {
+	cz, err := c.Series()
+	if err != nil {
+		return math.Inf(1)
+	}
+	nz := len(p.Plant.Model.Zeros) + len(p.Sensor.Zeros) + len(cz.Zeros)
+	np := len(p.Plant.Model.Poles) + len(p.Sensor.Poles) + len(cz.Poles)
+	rmax := 0.0
+	for _, rs := range [][]complex128{p.Plant.Model.Zeros, p.Plant.Model.Poles, p.Sensor.Zeros, p.Sensor.Poles, cz.Zeros, cz.Poles} {
+		for _, r := range rs {
+			rmax = math.Max(rmax, cmplx.Abs(r))
+		}
+	}
+	if np <= nz || math.IsNaN(rmax) || math.IsInf(rmax, 0) {
+		return math.Inf(1)
+	}
+	for K := 2.0; K <= 1e4; K *= 1.25 {
+		e := 1 / K
+		up, lo := (1+e)/((1-e)*(1-e)), (1-e)/((1+e)*(1+e)+e*e)
+		if float64(nz)*up <= float64(np)*lo {
+			return K * rmax
+		}
+	}
+	return math.Inf(1)
 }
 
 // marginSpan is the frequency range and grid of the margin sweep: two

@@ -70,6 +70,19 @@ func finiteNZ(z complex128) bool {
 // <= 0, wmax <= wmin, non-finite) return NaN for every field. Frequencies
 // where L is 0, NaN or Inf are skipped.
 func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margins {
+	return LoopMarginsFalling(L, wmin, wmax, n, math.Inf(1))
+}
+
+// LoopMarginsFalling is LoopMargins for a loop whose |L(jω)| does not
+// increase above wf (a rational loop well above its poles and zeros, with
+// or without a transport delay; see synth's margin span for the bound).
+// Above wf the sweep ends at the first grid frequency where |L| < 1 and
+// −20·log10|L| exceeds the smallest |gain margin| found so far: no gain
+// crossover lies beyond (|L| stays below 1), and every phase crossover
+// beyond has a larger gain margin, so none of them could be reported. The
+// margins are those of LoopMargins; the crossover lists end there. A
+// delay's ever faster phase makes the top of a sweep its dearest part.
+func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int, wf float64) Margins {
 	nan := math.NaN()
 	if L == nil || !(wmin > 0) || !(wmax > wmin) || math.IsInf(wmax, 0) {
 		return Margins{GainDB: nan, PhaseCrossover: nan, PhaseDeg: nan, Crossover: nan, DelayMargin: nan}
@@ -79,20 +92,25 @@ func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margin
 	}
 	eval := func(lw float64) complex128 { return L(math.Exp(lw)) }
 	l0, l1 := math.Log(wmin), math.Log(wmax)
+	// Grid points are evaluated when the sweep reaches them.
 	grid := make([]marginPoint, n)
-	for i := range grid {
-		lw := l0 + (l1-l0)*float64(i)/float64(n-1)
-		if i == n-1 {
-			lw = l1
+	done := 0
+	at := func(i int) marginPoint {
+		for ; done <= i; done++ {
+			lw := l0 + (l1-l0)*float64(done)/float64(n-1)
+			if done == n-1 {
+				lw = l1
+			}
+			z := eval(lw)
+			grid[done] = marginPoint{lw: lw, L: z, ok: finiteNZ(z)}
 		}
-		z := eval(lw)
-		grid[i] = marginPoint{lw: lw, L: z, ok: finiteNZ(z)}
+		return grid[i]
 	}
 
 	// Initial branch from the low-frequency slope.
 	first := -1
 	for i := range grid {
-		if grid[i].ok {
+		if at(i).ok {
 			first = i
 			break
 		}
@@ -103,7 +121,7 @@ func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margin
 	}
 	ph0 := cmplx.Phase(grid[first].L)
 	for j := first + 1; j < n; j++ {
-		if grid[j].ok {
+		if at(j).ok {
 			slope := (math.Log(cmplx.Abs(grid[j].L)) - math.Log(cmplx.Abs(grid[first].L))) / (grid[j].lw - grid[first].lw)
 			typ := math.Round(-slope)
 			if math.Abs(typ) <= 8 {
@@ -213,8 +231,14 @@ func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margin
 		emit(mp, b)
 	}
 	last := tail
+	lwf := math.Log(wf)
 	for j := first + 1; j < n; j++ {
-		b := grid[j]
+		if last.ok && last.lw >= lwf && !math.IsInf(bestGM, 1) {
+			if a := cmplx.Abs(last.L); a < 1 && -20*math.Log10(a) > math.Abs(bestGM) {
+				break
+			}
+		}
+		b := at(j)
 		if !b.ok {
 			emit(b)
 			continue

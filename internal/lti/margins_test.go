@@ -208,3 +208,44 @@ func TestGainCrossovers(t *testing.T) {
 		t.Error("invalid input: want nil")
 	}
 }
+
+// LoopMarginsFalling gives the margins of the whole sweep when |L| falls
+// above wf, also when the only phase crossover lies far above wf (a lag
+// 1/(s + 1) with a 10 ms delay crosses −180° near 157 rad/s, where
+// GM ≈ 43.9 dB, while wf = 2) and for the conditionally stable loop whose
+// reported margin is the negative one; and it evaluates fewer points.
+func TestLoopMarginsFalling(t *testing.T) {
+	for _, c := range []struct {
+		name     string
+		num, den Poly
+		tau, wf  float64
+	}{
+		{"lag with delay", Poly{1}, Poly{1, 1}, 0.01, 2},
+		{"conditional", PolyMul(Poly{400}, Poly{1, 2, 1}), PolyMul(Poly{0, 0, 0, 1}, PolyMul(Poly{10, 1}, Poly{20, 1})), 0.001, 100},
+		{"K/(s(s+1)(s+2)) with delay", Poly{2}, Poly{0, 2, 3, 1}, 0.05, 10},
+	} {
+		L := loopOf(c.num, c.den, c.tau)
+		calls := 0
+		counted := func(w float64) complex128 { calls++; return L(w) }
+		full := LoopMargins(counted, 1e-3, 1e5, 300)
+		nFull := calls
+		calls = 0
+		got := LoopMarginsFalling(counted, 1e-3, 1e5, 300, c.wf)
+		same := func(a, b float64) bool { return a == b || math.IsNaN(a) && math.IsNaN(b) }
+		if !same(got.GainDB, full.GainDB) || !same(got.PhaseDeg, full.PhaseDeg) || !same(got.Crossover, full.Crossover) ||
+			!same(got.PhaseCrossover, full.PhaseCrossover) || !same(got.DelayMargin, full.DelayMargin) {
+			t.Errorf("%s: GM %v at %v, PM %v at %v, DM %v; full sweep GM %v at %v, PM %v at %v, DM %v", c.name,
+				got.GainDB, got.PhaseCrossover, got.PhaseDeg, got.Crossover, got.DelayMargin,
+				full.GainDB, full.PhaseCrossover, full.PhaseDeg, full.Crossover, full.DelayMargin)
+		}
+		if math.IsInf(full.GainDB, 0) {
+			t.Errorf("%s: no phase crossover: the case does not test the stop", c.name)
+		}
+		if calls >= nFull {
+			t.Errorf("%s: %d evaluations, the full sweep %d: nothing saved", c.name, calls, nFull)
+		}
+	}
+	if m := LoopMarginsFalling(loopOf(Poly{1}, Poly{1, 1}, 0.01), 1e-3, 1e5, 300, 2); math.Abs(m.GainDB-43.9) > 0.1 {
+		t.Errorf("lag with delay: GM %.3f dB, want ≈ 43.9", m.GainDB)
+	}
+}
