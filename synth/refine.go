@@ -287,7 +287,6 @@ const respondChunk = 32
 func (sr *searcher) respond(c *cached, ws []float64, beta float64) (w weightWindow, stopped bool) {
 	e := &c.e
 	w = newWeightWindow(e, sr.p.Spec, sr.bs[len(sr.bs)-1], sr.bs[0], beta)
-
 	for k := range c.y0 {
 		if !w.ok {
 			break
@@ -399,8 +398,8 @@ func (sr *searcher) judge(ce *cached, ws []float64, bound float64, timeOnly bool
 // least the gain of the best design so far is not simulated: it counts as
 // an upper end of the σ scan, since a feasible design beyond it could not
 // win. It returns the best feasible candidate, or the closest one (least
-// violation) and false. The search is bounded: at most 12 scans of 14
-// targets.
+// violation) and false. The search is bounded: two passes of at most 12
+// scans, each of at most 20 targets.
 //
 // Every weight b is admitted and, for a design, the largest one that meets
 // the spec is taken. When the least-gain design needs b < 1, a second pass
