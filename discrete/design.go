@@ -71,8 +71,8 @@ func Evaluator(p synth.Problem, pl Plant, d int) synth.Evaluator {
 		k0.KpB, k1.KpB = 0, k.Kp
 		c0, c1 := linearize(k0), linearize(k1)
 		e.N, e.H = horizon(p.Spec.SettlingTime, pl.T, nil, 4), pl.T
-		e.Final0, e.Final1 = newClosedLoop(pl, c0, d).dcGains(setpointInput(pl, c1, d+pl.Delay, c1.Dr))
-		e.Respond = newPairStepper(pl, c0, c0.Dr, c1.Dr, d).run
+		e.Final0, e.Final1 = newClosedLoop(pl, c0, d).dcGains(setpointInput(pl, c1, d))
+		e.Respond = newPairStepper(pl, c0, c1, d).run
 		return e, nil
 	}
 }

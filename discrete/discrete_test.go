@@ -861,8 +861,8 @@ func TestPairStepperMatchesStepper(t *testing.T) {
 				simulate(pl, c0, d, w0, nil)
 				simulate(pl, c1, d, w1, nil)
 				g0, g1 := make([]float64, n), make([]float64, n)
-				ps := newPairStepper(pl, c0, c0.Dr, c1.Dr, d)
-				if pairKernel(newPairStepper(pl, c0, c0.Dr, c1.Dr, d), g0[:0], g1[:0]) {
+				ps := newPairStepper(pl, c0, c1, d)
+				if pairKernel(newPairStepper(pl, c0, c1, d), g0[:0], g1[:0]) {
 					kernels++
 				}
 				for i, cut := 0, 1; i < n; cut = cut*2 + 1 {
@@ -900,8 +900,14 @@ func TestDCGainsMatchResolvent(t *testing.T) {
 		c0, c1 := setpointLanes(t, form, 1, pl.T)
 		for d := range 3 {
 			L0, L1 := newClosedLoop(pl, c0, d), newClosedLoop(pl, c1, d)
-			g0, g1 := L0.dcGains(setpointInput(pl, c1, d+pl.Delay, c1.Dr))
-			w0, w1 := L0.dcGain(), L1.dcGain()
+			g0, g1 := L0.dcGains(setpointInput(pl, c1, d))
+			resolvent := func(L closedLoop) float64 {
+				return real(lti.Disc{N: L.N, A: L.A, B: L.B, C: L.Cy, T: 1}.Eval(1))
+			}
+			w0, w1 := resolvent(L0), resolvent(L1)
+			if L0.dcGain() != g0 || L1.dcGain() != g1 {
+				t.Errorf("%s d=%d: dcGain (%.15g, %.15g) is not dcGains (%.15g, %.15g)", form, d, L0.dcGain(), L1.dcGain(), g0, g1)
+			}
 			if math.Abs(g0-w0) > 1e-12*math.Abs(w0) || math.Abs(g1-w1) > 1e-12*math.Abs(w1) {
 				t.Errorf("%s d=%d: dcGains (%.15g, %.15g), resolvent (%.15g, %.15g)", form, d, g0, g1, w0, w1)
 			}

@@ -85,6 +85,7 @@ type closedLoop struct {
 // d (the command computed at t_k is applied over [t_(k+d), t_(k+d+1))),
 // with the plant's whole-sample delay added to d.
 func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
+	B := setpointInput(pl, c, d)
 	d += pl.Delay
 	np, m := pl.N, c.M
 	n := np + d + m
@@ -127,23 +128,24 @@ func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
 			L.A[r*n+j] += c.By[i] * pl.Cm[j]
 		}
 	}
-	L.B = setpointInput(pl, c, d, c.Dr)
+	L.B = B
 	return L
 }
 
-// setpointInput returns the closed loop's input vector for the setpoint,
-// with dr in place of the controller's direct setpoint gain c.Dr (d with
-// the plant's whole-sample delay): the rest of the loop does not depend on
-// it, so loops that differ only in the setpoint weight share A.
-func setpointInput(pl Plant, c linearCtrl, d int, dr float64) []float64 {
+// setpointInput returns the input vector of the closed loop of
+// newClosedLoop for the setpoint. The rest of the loop does not depend on
+// the controller's direct setpoint gain c.Dr, so loops that differ only in
+// the setpoint weight share A and differ here.
+func setpointInput(pl Plant, c linearCtrl, d int) []float64 {
+	d += pl.Delay
 	np, m := pl.N, c.M
 	B := make([]float64, np+d+m)
 	if d == 0 {
 		for i := 0; i < np; i++ {
-			B[i] = pl.B[i] * dr
+			B[i] = pl.B[i] * c.Dr
 		}
 	} else {
-		B[np] = dr
+		B[np] = c.Dr
 	}
 	copy(B[np+d:], c.Br[:m])
 	return B
@@ -259,10 +261,12 @@ type pairCtrl struct {
 	w       int          // ring slot of this sample's command
 }
 
-func newPairStepper(pl Plant, c linearCtrl, dr0, dr1 float64, d int) *pairStepper {
+// newPairStepper starts the two loops of controllers c0 and c1, which
+// differ only in Dr (c0's other coefficients serve both).
+func newPairStepper(pl Plant, c0, c1 linearCtrl, d int) *pairStepper {
 	D := d + pl.Delay
-	np, m := pl.N, c.M
-	s := &pairStepper{pl: pl, ctrl: pairCtrl{c: c, dr: [2]float64{dr0, dr1}}}
+	np, m := pl.N, c0.M
+	s := &pairStepper{pl: pl, ctrl: pairCtrl{c: c0, dr: [2]float64{c0.Dr, c1.Dr}}}
 	for l := range 2 {
 		buf := make([]float64, 2*np+2*m+D+1)
 		s.x[l], s.xn[l] = buf[:np], buf[np:2*np]
@@ -344,11 +348,8 @@ func (s *pairStepper) run(y0, y1 []float64) {
 // dcGain returns the final value of the true rate after a unit setpoint
 // step, (Cy (I − A)⁻¹ B), or NaN when I − A is singular.
 func (L closedLoop) dcGain() float64 {
-	v := lti.Disc{N: L.N, A: L.A, B: L.B, C: L.Cy, T: 1}.Eval(1)
-	if math.IsNaN(real(v)) || math.IsInf(real(v), 0) {
-		return math.NaN()
-	}
-	return real(v)
+	dc, _ := L.dcGains(L.B)
+	return dc
 }
 
 // dcGains returns the final values Cy (I − A)⁻¹ b of the true rate for the
