@@ -299,3 +299,35 @@ func (tempVanishFS) Rename(o, n string) error {
 	}
 	return os.Rename(o, n)
 }
+
+// vanishFailFS removes the unchanged file at the first rename and then
+// cannot create files (a full disk): the writer says which file vanished
+// and could not be written again, and leaves no temporary file.
+type vanishFailFS struct {
+	vanishFS
+}
+
+func (v *vanishFailFS) CreateTemp(dir, pattern string) (tempFile, error) {
+	if v.done {
+		return nil, errors.New("no space left on device (simulated)")
+	}
+	return v.vanishFS.CreateTemp(dir, pattern)
+}
+
+func TestWriteSourcesVanishedFileCannotBeRewritten(t *testing.T) {
+	dir := t.TempDir()
+	if _, err := WriteSources(dir, []Source{{Name: "x_rate.h", Data: []byte("h\n")}, {Name: "x_rate.c", Data: []byte("old c\n")}}); err != nil {
+		t.Fatal(err)
+	}
+	fsys := &vanishFailFS{vanishFS{victim: filepath.Join(dir, "x_rate.h")}}
+	w, err := writeSources(fsys, dir, []Source{{Name: "x_rate.h", Data: []byte("h\n")}, {Name: "x_rate.c", Data: []byte("new c\n")}})
+	if err == nil || !strings.Contains(err.Error(), "x_rate.h vanished") || !strings.Contains(err.Error(), "no space left") {
+		t.Fatalf("error %v, want one naming the vanished x_rate.h and the cause", err)
+	}
+	if !slices.Equal(w, []string{"x_rate.c"}) {
+		t.Errorf("written %v, want the changed file only", w)
+	}
+	if got := readDir(t, dir); len(got) != 1 || got["x_rate.c"] != "new c\n" {
+		t.Errorf("directory %q: want the new x_rate.c and no temporary file", got)
+	}
+}

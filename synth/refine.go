@@ -262,6 +262,13 @@ type cached struct {
 	margins   *lti.Margins
 }
 
+// beyond reports whether an earlier cut-short response showed every
+// weight of ws beyond the bound (stopped under a bound at least as large,
+// for all weights or for b = 1 alone).
+func (c *cached) beyond(bound float64, ws []float64) bool {
+	return c.stopBound >= bound && (c.stopAll || len(ws) == 1)
+}
+
 func (sr *searcher) place(t Target) *cached {
 	if c, ok := sr.cache[t]; ok {
 		return c
@@ -331,7 +338,7 @@ func (sr *searcher) judge(ce *cached, ws []float64, bound float64, timeOnly bool
 	if timeOnly {
 		bound = 0
 	}
-	if !ce.done || ce.freed && !(ce.stopBound >= bound && (ce.stopAll || len(ws) == 1)) {
+	if !ce.done || ce.freed && !ce.beyond(bound, ws) {
 		ce.done, ce.freed = true, false
 		ce.e, ce.evalErr = sr.eval(ce.ctrl)
 	}
@@ -341,7 +348,7 @@ func (sr *searcher) judge(ce *cached, ws []float64, bound float64, timeOnly bool
 	e := &ce.e
 	c := candidate{target: ce.t, ctrl: ce.ctrl, violation: math.Inf(1), gain: ce.ctrl.HighFrequencyGain()}
 	c.ctrl.B = ws[0]
-	if !e.Stable || ce.stopBound >= bound && (ce.stopAll || len(ws) == 1) {
+	if !e.Stable || ce.beyond(bound, ws) {
 		return c, nil
 	}
 	w, stopped := sr.respond(ce, ws, bound)

@@ -133,3 +133,47 @@ func TestJudgeTakesLargestFeasibleWeight(t *testing.T) {
 		t.Errorf("%d of 200 trials feasible: the cases do not exercise both outcomes", found)
 	}
 }
+
+// A response cut short under a tight bound gives its record back; judged
+// again under a looser bound, the candidate is simulated afresh and judged
+// as if the first judgment had not happened.
+func TestJudgeResimulatesAFreedRecord(t *testing.T) {
+	p := demoProblem(FormPID, 0)
+	p.Spec.MinPhaseMargin, p.Spec.MinGainMargin = 0, 0
+	const h, n = 0.001, 600
+	// Overshoots about 44 %: beyond the spec for every weight.
+	y := secondOrder(0.25, 30, 0, h, n)
+	evals := 0
+	newSearcher := func() *searcher {
+		sr := &searcher{p: p, bs: setpointWeights(p), cache: map[Target]*cached{}}
+		sr.eval = func(Controller) (Evaluation, error) {
+			evals++
+			e := arrayEvaluation(y, y, h, 1, 1)
+			e.Margins = func() lti.Margins { return lti.Margins{GainDB: 20, PhaseDeg: 60} }
+			return e, nil
+		}
+		return sr
+	}
+	sr := newSearcher()
+	ce := sr.place(NewTarget(0.8, 20))
+	c0, err := sr.judge(ce, sr.bs, 0, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !math.IsInf(c0.violation, 1) || !ce.freed || len(sr.free) != 2 {
+		t.Fatalf("bound 0: violation %g, freed %v, %d free records; want +Inf, a freed record pair", c0.violation, ce.freed, len(sr.free))
+	}
+	got, err := sr.judge(ce, sr.bs, math.Inf(1), false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	fresh := newSearcher()
+	want, err := fresh.judge(fresh.place(NewTarget(0.8, 20)), fresh.bs, math.Inf(1), false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if evals != 3 || got.violation != want.violation || got.ctrl.B != want.ctrl.B || math.IsInf(got.violation, 1) {
+		t.Errorf("after the freed record: %d evaluations (want 3), violation %g b %g; fresh %g b %g",
+			evals, got.violation, got.ctrl.B, want.violation, want.ctrl.B)
+	}
+}

@@ -11,9 +11,6 @@ import (
 	"locusmith/examples"
 )
 
-// Names are the examples a fleet cycles through, in order.
-var names = [...]string{"quadrotor", "gimbal", "rover"}
-
 // Source is one generated airframe file.
 type Source struct {
 	Name string // file name, v<i>.toml
@@ -23,6 +20,7 @@ type Source struct {
 // Make returns n airframes: variant i is example i mod 3 with the
 // airframe named v<i> and every settling_time scaled by 1 + 0.05·(i mod 7).
 func Make(n int) ([]Source, error) {
+	names := [...]string{"quadrotor", "gimbal", "rover"} // in turn
 	out := make([]Source, 0, n)
 	for i := 0; i < n; i++ {
 		src, err := examples.FS.ReadFile(names[i%len(names)] + ".toml")
