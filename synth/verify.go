@@ -187,8 +187,7 @@ func verify(p Problem, c Controller, t Target, margins bool) (Verification, erro
 	if margins {
 		v.Margins = loopMargins(p, c)
 	} else {
-		nan := math.NaN()
-		v.Margins = lti.Margins{GainDB: nan, PhaseCrossover: nan, PhaseDeg: nan, Crossover: nan, DelayMargin: nan}
+		v.Margins = lti.UnknownMargins()
 	}
 	dc := evalRatio(cl.num, cl.char, 0)
 	v.SteadyStateError = 1 - dc

@@ -26,6 +26,13 @@ type marginPoint struct {
 	ok bool // L finite and non-zero
 }
 
+// UnknownMargins is Margins with every figure NaN: margins that were not
+// or could not be computed.
+func UnknownMargins() Margins {
+	nan := math.NaN()
+	return Margins{GainDB: nan, PhaseCrossover: nan, PhaseDeg: nan, Crossover: nan, DelayMargin: nan}
+}
+
 func finiteNZ(z complex128) bool {
 	return z != 0 && !cmplx.IsNaN(z) && !cmplx.IsInf(z)
 }
@@ -52,8 +59,8 @@ func finiteNZ(z complex128) bool {
 //
 // Every sign change of ln|L| (gain crossover) and every crossing of the
 // unwrapped phase through −180° + k·360° for any integer k (phase crossover)
-// is bracketed and refined by bisection in log ω to 1e-11 relative in ω,
-// then by one secant step.
+// is bracketed and refined in log ω by the Illinois variant of false
+// position (crossing) to 1e-11 relative in ω or to the rounding of L.
 //
 //   - Gain margin at a phase crossover ω_p: −20·log10|L(jω_p)| dB. Of several,
 //     the one with the smallest absolute value is reported (ties: the lowest
@@ -85,7 +92,7 @@ func LoopMargins(L func(w float64) complex128, wmin, wmax float64, n int) Margin
 func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int, wf float64) Margins {
 	nan := math.NaN()
 	if L == nil || !(wmin > 0) || !(wmax > wmin) || math.IsInf(wmax, 0) {
-		return Margins{GainDB: nan, PhaseCrossover: nan, PhaseDeg: nan, Crossover: nan, DelayMargin: nan}
+		return UnknownMargins()
 	}
 	if n < 2 {
 		n = 2
