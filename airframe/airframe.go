@@ -4,8 +4,8 @@
 // A file names the airframe, the loop rate and compute delay, the numeric
 // type of the generated code, and one [axes.NAME] table per axis with its
 // plant, sensor, spec and controller choices (DESIGN.md, "Airframe file").
-// Parse decodes the file into the inputs of the designer (synth.Problem per
-// axis) and of the discretization (discrete.Loop, discrete.Numeric), with
+// Parse decodes the file into the inputs of the designer (Axis per
+// axis) and of the discretization (Loop, Numeric), with
 // every default applied; the defaults are all in defaults.go.
 //
 // The format is strict: an unknown key, a value of the wrong type, a
@@ -29,9 +29,6 @@ import (
 	"unicode/utf8"
 
 	"github.com/pelletier/go-toml/v2"
-
-	"locusmith/discrete"
-	"locusmith/synth"
 )
 
 // File is a decoded and validated airframe file.
@@ -40,10 +37,10 @@ type File struct {
 	SHA256      string // hex of the raw bytes
 	Airframe    string // identifier [a-z][a-z0-9_]{0,31}
 	Description string
-	Loop        discrete.Loop
-	Numeric     discrete.Numeric
-	Axes        []synth.Problem // sorted by axis name (deterministic)
-	Raw         map[string]any  // the decoded TOML tree (for a later `compare` verb)
+	Loop        Loop
+	Numeric     Numeric
+	Axes        []Axis         // sorted by axis name (deterministic)
+	Raw         map[string]any // the decoded TOML tree (for a later `compare` verb)
 }
 
 // Load reads the file at path and calls Parse. A file that cannot be read

@@ -12,9 +12,7 @@ import (
 
 	"github.com/google/go-cmp/cmp"
 
-	"locusmith/discrete"
 	"locusmith/internal/lti"
-	"locusmith/synth"
 )
 
 func mustParse(t *testing.T, src string) *File {
@@ -36,22 +34,22 @@ func TestDefaults(t *testing.T) {
 	}
 	// compute_delay 1 (command applied at the next tick), float32 with no
 	// full scales.
-	if want := (discrete.Loop{Hz: 1000, ComputeDelay: 1}); f.Loop != want {
+	if want := (Loop{Hz: 1000, ComputeDelay: 1}); f.Loop != want {
 		t.Errorf("Loop = %+v, want %+v", f.Loop, want)
 	}
-	if want := (discrete.Numeric{Type: discrete.Float32}); f.Numeric != want {
+	if want := (Numeric{Type: Float32}); f.Numeric != want {
 		t.Errorf("Numeric = %+v, want %+v", f.Numeric, want)
 	}
-	want := []synth.Problem{{
-		Axis: "roll",
+	want := []Axis{{
+		Name: "roll",
 		// Hand formula: effectiveness/motor_tau = 2000/0.025 = 80000,
 		// poles 0 and −1/0.025 = −40.
-		Plant:  synth.Plant{Model: lti.ZPK{Gain: 80000, Poles: []complex128{0, -40}}, Delay: 0},
+		Plant:  Plant{Model: lti.ZPK{Gain: 80000, Poles: []complex128{0, -40}}, Delay: 0},
 		Sensor: lti.ZPK{Gain: 1}, // ideal
-		Spec: synth.Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.1,
+		Spec: Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.1,
 			MinPhaseMargin: 0, MinGainMargin: 0},
-		Ctrl: synth.Control{
-			Form:                synth.FormPID,
+		Ctrl: Control{
+			Form:                FormPID,
 			Refine:              true,
 			ThirdPole:           5,
 			LeadZero:            0,   // not a lead
@@ -87,42 +85,42 @@ func relClose(a, b, tol float64) bool {
 func TestFormDefaults(t *testing.T) {
 	cases := []struct {
 		control string
-		want    func(c synth.Control) bool
+		want    func(c Control) bool
 		desc    string
 	}{
 		{`form = "pi"` + "\noutput_limit = [-0.3, 0.5]",
-			func(c synth.Control) bool {
+			func(c Control) bool {
 				return c.IntegratorLimit == 0.5 && c.ThirdPole == 0 && c.DerivativeLowpassHz == 0 && c.OutputLimit == [2]float64{-0.3, 0.5}
 			}, "pi: integrator limit max(0.3, 0.5) = 0.5, no third pole, no derivative filter"},
 		{`form = "pd"`,
-			func(c synth.Control) bool {
+			func(c Control) bool {
 				return c.IntegratorLimit == 0 && c.ThirdPole == 0 && c.DerivativeLowpassHz == 125
 			}, "pd: derivative filter 1000/8, no integrator limit"},
 		{`form = "p"`,
-			func(c synth.Control) bool {
+			func(c Control) bool {
 				return c.IntegratorLimit == 0 && c.ThirdPole == 0 && c.DerivativeLowpassHz == 0 && c.LeadZero == 0
 			}, "p: nothing form-specific"},
 		{`form = "lead"` + "\nlead_zero = -30",
-			func(c synth.Control) bool {
+			func(c Control) bool {
 				return c.LeadZero == -30 && c.IntegratorLimit == 0 && c.ThirdPole == 0 && c.DerivativeLowpassHz == 0
 			}, "lead: lead_zero only"},
 		{"setpoint_weight = 0.5\nderivative_on = \"error\"\nrefine = false\nthird_pole = 8\nintegrator_limit = 0.25\nantiwindup = \"clamp\"\ndiscretize = \"backward\"\nderivative_lowpass_hz = 499.9",
-			func(c synth.Control) bool {
+			func(c Control) bool {
 				return c.SetpointWeight == 0.5 && c.SetpointWeightSet && c.DerivativeOnError && !c.Refine &&
 					c.ThirdPole == 8 && c.IntegratorLimit == 0.25 && c.AntiWindup == "clamp" &&
 					c.Discretize == "backward" && c.DerivativeLowpassHz == 499.9
 			}, "every key given"},
 		{"setpoint_weight = 1.0",
-			func(c synth.Control) bool { return c.SetpointWeight == 1 && c.SetpointWeightSet },
+			func(c Control) bool { return c.SetpointWeight == 1 && c.SetpointWeightSet },
 			"setpoint_weight given as 1 is marked as set"},
 		{"setpoint_weight = 0",
-			func(c synth.Control) bool { return c.SetpointWeight == 0 && c.SetpointWeightSet },
+			func(c Control) bool { return c.SetpointWeight == 0 && c.SetpointWeightSet },
 			"setpoint_weight 0 (integer) is allowed"},
 		{"output_limit = [0, 1]",
-			func(c synth.Control) bool { return c.OutputLimit == [2]float64{0, 1} && c.IntegratorLimit == 1 },
+			func(c Control) bool { return c.OutputLimit == [2]float64{0, 1} && c.IntegratorLimit == 1 },
 			"a limit may be 0: low ≤ 0 ≤ high"},
 		{"antiwindup = \"backcalc\"\ntracking_time = 0.02",
-			func(c synth.Control) bool { return c.TrackingTime == 0.02 },
+			func(c Control) bool { return c.TrackingTime == 0.02 },
 			"tracking_time with backcalc"},
 	}
 	for _, tc := range cases {
@@ -252,7 +250,7 @@ func TestAxesSorted(t *testing.T) {
 	f := mustParse(t, b.String())
 	var got []string
 	for _, p := range f.Axes {
-		got = append(got, p.Axis)
+		got = append(got, p.Name)
 	}
 	if d := cmp.Diff([]string{"aux10", "aux2", "pitch", "roll", "yaw"}, got); d != "" {
 		t.Errorf("axis order (-want +got):\n%s", d)
@@ -289,13 +287,13 @@ func TestFileFields(t *testing.T) {
 func TestNumeric(t *testing.T) {
 	cases := []struct {
 		src  string
-		want discrete.Numeric
+		want Numeric
 	}{
-		{`type = "float64"`, discrete.Numeric{Type: discrete.Float64}},
-		{"type = \"float32\"\ninput_full_scale = 2000\n", discrete.Numeric{Type: discrete.Float32, InputFullScale: 2000}},
-		{"type = \"q15\"\ninput_full_scale = 2000.0\noutput_full_scale = 1", discrete.Numeric{Type: discrete.Q15, InputFullScale: 2000, OutputFullScale: 1}},
-		{"type = \"q31\"\ninput_full_scale = 10.0\noutput_full_scale = 0.5", discrete.Numeric{Type: discrete.Q31, InputFullScale: 10, OutputFullScale: 0.5}},
-		{"", discrete.Numeric{Type: discrete.Float32}},
+		{`type = "float64"`, Numeric{Type: Float64}},
+		{"type = \"float32\"\ninput_full_scale = 2000\n", Numeric{Type: Float32, InputFullScale: 2000}},
+		{"type = \"q15\"\ninput_full_scale = 2000.0\noutput_full_scale = 1", Numeric{Type: Q15, InputFullScale: 2000, OutputFullScale: 1}},
+		{"type = \"q31\"\ninput_full_scale = 10.0\noutput_full_scale = 0.5", Numeric{Type: Q31, InputFullScale: 10, OutputFullScale: 0.5}},
+		{"", Numeric{Type: Float32}},
 	}
 	for _, tc := range cases {
 		f := mustParse(t, withNumeric(tc.src))
@@ -312,12 +310,12 @@ func TestDemoFiles(t *testing.T) {
 		t.Fatalf("valid_quad: %v", err)
 	}
 	if quad.Airframe != "sandpiper" || !strings.HasPrefix(quad.Description, "demo data: ") ||
-		quad.Loop != (discrete.Loop{Hz: 1000, ComputeDelay: 1}) || quad.Numeric.Type != discrete.Float32 {
+		quad.Loop != (Loop{Hz: 1000, ComputeDelay: 1}) || quad.Numeric.Type != Float32 {
 		t.Errorf("valid_quad header: %+v", quad)
 	}
 	var names []string
 	for _, p := range quad.Axes {
-		names = append(names, p.Axis+":"+string(p.Ctrl.Form))
+		names = append(names, p.Name+":"+string(p.Ctrl.Form))
 	}
 	if d := cmp.Diff([]string{"pitch:pid", "roll:pid", "yaw:pi"}, names); d != "" {
 		t.Errorf("valid_quad axes (-want +got):\n%s", d)
@@ -332,8 +330,8 @@ func TestDemoFiles(t *testing.T) {
 	if err != nil {
 		t.Fatalf("valid_gimbal: %v", err)
 	}
-	if gimbal.Numeric != (discrete.Numeric{Type: discrete.Q15, InputFullScale: 10, OutputFullScale: 1}) ||
-		gimbal.Loop.Hz != 2000 || len(gimbal.Axes) != 1 || gimbal.Axes[0].Axis != "pitch" ||
+	if gimbal.Numeric != (Numeric{Type: Q15, InputFullScale: 10, OutputFullScale: 1}) ||
+		gimbal.Loop.Hz != 2000 || len(gimbal.Axes) != 1 || gimbal.Axes[0].Name != "pitch" ||
 		!strings.HasPrefix(gimbal.Description, "demo data: ") {
 		t.Errorf("valid_gimbal: %+v", gimbal)
 	}
@@ -445,50 +443,50 @@ func checkFile(t *testing.T, f *File) {
 	}
 	finite := func(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
 	for i, p := range f.Axes {
-		if i > 0 && f.Axes[i-1].Axis >= p.Axis {
-			t.Fatalf("axes not sorted: %q then %q", f.Axes[i-1].Axis, p.Axis)
+		if i > 0 && f.Axes[i-1].Name >= p.Name {
+			t.Fatalf("axes not sorted: %q then %q", f.Axes[i-1].Name, p.Name)
 		}
-		if checkIdent(p.Axis) != "" {
-			t.Fatalf("bad axis name %q", p.Axis)
+		if checkIdent(p.Name) != "" {
+			t.Fatalf("bad axis name %q", p.Name)
 		}
 		for _, z := range []lti.ZPK{p.Plant.Model, p.Sensor} {
 			if z.Gain == 0 || !finite(z.Gain) || len(z.Zeros) > len(z.Poles) {
-				t.Fatalf("axis %s: bad model %+v", p.Axis, z)
+				t.Fatalf("axis %s: bad model %+v", p.Name, z)
 			}
 			for _, r := range append(append([]complex128{}, z.Poles...), z.Zeros...) {
 				if !finite(real(r)) || !finite(imag(r)) {
-					t.Fatalf("axis %s: root %v", p.Axis, r)
+					t.Fatalf("axis %s: root %v", p.Name, r)
 				}
 			}
 		}
 		for _, r := range p.Sensor.Poles {
 			if real(r) >= 0 {
-				t.Fatalf("axis %s: unstable sensor pole %v", p.Axis, r)
+				t.Fatalf("axis %s: unstable sensor pole %v", p.Name, r)
 			}
 		}
 		c := p.Ctrl
 		s := p.Spec
 		if !(s.SettlingTime > 0 && s.Overshoot > 0 && s.Overshoot < 1 && s.Band > 0 && s.Band <= maxSettlingBand) || !finite(s.SettlingTime) {
-			t.Fatalf("axis %s: bad spec %+v", p.Axis, s)
+			t.Fatalf("axis %s: bad spec %+v", p.Name, s)
 		}
 		if !(p.Plant.Delay >= 0 && p.Plant.Delay <= maxDelay) {
-			t.Fatalf("axis %s: bad delay %v", p.Axis, p.Plant.Delay)
+			t.Fatalf("axis %s: bad delay %v", p.Name, p.Plant.Delay)
 		}
 		lo, hi := c.OutputLimit[0], c.OutputLimit[1]
 		if !(lo < hi && lo <= 0 && hi >= 0) || !finite(lo) || !finite(hi) {
-			t.Fatalf("axis %s: bad limits %v", p.Axis, c.OutputLimit)
+			t.Fatalf("axis %s: bad limits %v", p.Name, c.OutputLimit)
 		}
 		if c.Form.HasDerivative() && !(c.DerivativeLowpassHz > 0 && c.DerivativeLowpassHz < f.Loop.Hz/2) {
-			t.Fatalf("axis %s: bad derivative filter %v", p.Axis, c.DerivativeLowpassHz)
+			t.Fatalf("axis %s: bad derivative filter %v", p.Name, c.DerivativeLowpassHz)
 		}
 		if c.Form.HasIntegral() && !(c.IntegratorLimit > 0) {
-			t.Fatalf("axis %s: bad integrator limit %v", p.Axis, c.IntegratorLimit)
+			t.Fatalf("axis %s: bad integrator limit %v", p.Name, c.IntegratorLimit)
 		}
-		if c.Form == synth.FormLead && !(c.LeadZero < 0) {
-			t.Fatalf("axis %s: bad lead zero %v", p.Axis, c.LeadZero)
+		if c.Form == FormLead && !(c.LeadZero < 0) {
+			t.Fatalf("axis %s: bad lead zero %v", p.Name, c.LeadZero)
 		}
-		if c.Form == synth.FormPID && !(c.ThirdPole > 1) {
-			t.Fatalf("axis %s: bad third pole %v", p.Axis, c.ThirdPole)
+		if c.Form == FormPID && !(c.ThirdPole > 1) {
+			t.Fatalf("axis %s: bad third pole %v", p.Name, c.ThirdPole)
 		}
 	}
 }

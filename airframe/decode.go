@@ -5,9 +5,7 @@ import (
 	"math"
 	"strings"
 
-	"locusmith/discrete"
 	"locusmith/internal/lti"
-	"locusmith/synth"
 )
 
 // The keys of each table, in the order of DESIGN.md; unknown-key messages
@@ -57,7 +55,7 @@ func (c *checker) file(raw map[string]any) *File {
 		ok: func(x float64) bool { return x > 0 && x <= maxLoopHz },
 	}, true, 0)
 	delay, _ := top.integer("compute_delay", 0, maxComputeDelay, "samples", defaultComputeDelay)
-	f.Loop = discrete.Loop{Hz: loopHz, ComputeDelay: int(delay)}
+	f.Loop = Loop{Hz: loopHz, ComputeDelay: int(delay)}
 
 	f.Numeric = c.numeric(top)
 
@@ -88,17 +86,17 @@ func (c *checker) file(raw map[string]any) *File {
 }
 
 // numeric checks [numeric].
-func (c *checker) numeric(top *table) discrete.Numeric {
-	n := discrete.Numeric{Type: defaultNumericType, InputFullScale: defaultFullScale, OutputFullScale: defaultFullScale}
+func (c *checker) numeric(top *table) Numeric {
+	n := Numeric{Type: defaultNumericType, InputFullScale: defaultFullScale, OutputFullScale: defaultFullScale}
 	m := top.subtable("numeric", false, "type, input_full_scale, output_full_scale")
 	if m == nil {
 		return n
 	}
 	t := c.newTable("numeric", m, numericKeys()...)
 	typ, ok := t.enum("type", string(defaultNumericType),
-		string(discrete.Float32), string(discrete.Float64), string(discrete.Q15), string(discrete.Q31))
+		string(Float32), string(Float64), string(Q15), string(Q31))
 	if ok {
-		n.Type = discrete.NumericType(typ)
+		n.Type = NumericType(typ)
 	}
 	// The full scales set the fixed-point formats, so a fixed-point type
 	// cannot do without them; float types may give them (0 when absent).
@@ -118,9 +116,9 @@ func (c *checker) numeric(top *table) discrete.Numeric {
 }
 
 // axis checks [axes.NAME]; loopHz is 0 when loop_hz is invalid.
-func (c *checker) axis(name, key string, m map[string]any, loopHz float64) synth.Problem {
+func (c *checker) axis(name, key string, m map[string]any, loopHz float64) Axis {
 	t := c.newTable(key, m, axisKeys()...)
-	p := synth.Problem{Axis: name, Sensor: idealSensor()}
+	p := Axis{Name: name, Sensor: idealSensor()}
 	if pm := t.subtable("plant", true, "gain/poles/zeros or effectiveness/motor_tau, and delay"); pm != nil {
 		p.Plant = c.plant(c.newTable(t.sub("plant"), pm, plantKeys()...))
 	}
@@ -139,8 +137,8 @@ func (c *checker) axis(name, key string, m map[string]any, loopHz float64) synth
 }
 
 // plant checks [axes.NAME.plant]: either the zpk form or the physical form.
-func (c *checker) plant(t *table) synth.Plant {
-	pl := synth.Plant{Delay: defaultPlantDelay}
+func (c *checker) plant(t *table) Plant {
+	pl := Plant{Delay: defaultPlantDelay}
 	zpk, phys := t.present(zpkKeys()...), t.present(physKeys()...)
 	both := len(zpk) > 0 && len(phys) > 0
 	switch {
@@ -304,8 +302,8 @@ func elementAt(v any, idx int) any {
 }
 
 // spec checks [axes.NAME.spec].
-func (c *checker) spec(t *table) synth.Spec {
-	var s synth.Spec
+func (c *checker) spec(t *table) Spec {
+	var s Spec
 	s.SettlingTime, _ = t.number("settling_time", numRule{desc: "> 0", unit: "s", ok: isPositive}, true, 0)
 	s.Band, _ = t.number("settling_band", numRule{
 		desc: fmt.Sprintf("in (0, %g]", maxSettlingBand), unit: "fraction of the final value; usually 0.02 or 0.05",
@@ -328,8 +326,8 @@ func (c *checker) spec(t *table) synth.Spec {
 // Keys that have no effect on the chosen form are errors rather than
 // silently ignored: a third_pole on a PI or a lead_zero on a PID is almost
 // certainly a form that was meant to be different.
-func (c *checker) control(t *table, loopHz float64) synth.Control {
-	ctl := synth.Control{
+func (c *checker) control(t *table, loopHz float64) Control {
+	ctl := Control{
 		Form:              defaultForm,
 		Refine:            defaultRefine,
 		DerivativeOnError: defaultDerivativeOnError,
@@ -339,13 +337,13 @@ func (c *checker) control(t *table, loopHz float64) synth.Control {
 		TrackingTime:      defaultTrackingTime,
 		Discretize:        defaultDiscretize,
 	}
-	forms := make([]string, len(synth.Forms))
-	for i, f := range synth.Forms {
+	forms := make([]string, len(Forms()))
+	for i, f := range Forms() {
 		forms[i] = string(f)
 	}
 	form, formOK := t.enum("form", string(defaultForm), forms...)
 	if formOK {
-		ctl.Form = synth.Form(form)
+		ctl.Form = Form(form)
 	}
 	// only reports key k when the form is known and k does not apply to it.
 	only := func(k string, applies bool, which string) bool {
@@ -358,18 +356,18 @@ func (c *checker) control(t *table, loopHz float64) synth.Control {
 
 	ctl.Refine, _ = t.boolean("refine", defaultRefine)
 
-	if only("third_pole", ctl.Form == synth.FormPID, `form = "pid"`) {
+	if only("third_pole", ctl.Form == FormPID, `form = "pid"`) {
 		tp, _ := t.number("third_pole", numRule{desc: "> 1", unit: "multiple of the target's real part",
 			ok: func(x float64) bool { return x > 1 }}, false, defaultThirdPole)
-		if ctl.Form == synth.FormPID {
+		if ctl.Form == FormPID {
 			ctl.ThirdPole = tp
 		}
 	}
 
 	leadRule := numRule{desc: "< 0", unit: "rad/s", ok: func(x float64) bool { return x < 0 }}
-	if only("lead_zero", ctl.Form == synth.FormLead, `form = "lead"`) {
-		lz, _ := t.number("lead_zero", leadRule, formOK && ctl.Form == synth.FormLead, 0)
-		if ctl.Form == synth.FormLead {
+	if only("lead_zero", ctl.Form == FormLead, `form = "lead"`) {
+		lz, _ := t.number("lead_zero", leadRule, formOK && ctl.Form == FormLead, 0)
+		if ctl.Form == FormLead {
 			ctl.LeadZero = lz
 		}
 	}
@@ -394,7 +392,7 @@ func (c *checker) control(t *table, loopHz float64) synth.Control {
 		}
 	}
 
-	if only("setpoint_weight", ctl.Form != synth.FormLead, `forms "p", "pi", "pd", "pid"`) && t.has("setpoint_weight") {
+	if only("setpoint_weight", ctl.Form != FormLead, `forms "p", "pi", "pd", "pid"`) && t.has("setpoint_weight") {
 		b, ok := t.number("setpoint_weight", numRule{desc: "in [0, 1]", ok: func(x float64) bool { return x >= 0 && x <= 1 }}, false, defaultSetpointWeight)
 		if ok {
 			ctl.SetpointWeight, ctl.SetpointWeightSet = b, true

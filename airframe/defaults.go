@@ -3,9 +3,7 @@ package airframe
 import (
 	"math"
 
-	"locusmith/discrete"
 	"locusmith/internal/lti"
-	"locusmith/synth"
 )
 
 // Every default and every sanity limit of the airframe file lives in this
@@ -24,7 +22,7 @@ const (
 	// defaultNumericType is numeric.type: single-precision float, the
 	// native type of the FPUs found on most flight controllers (for example
 	// the Cortex-M4F/M7 single-precision unit; common practice).
-	defaultNumericType = discrete.Float32
+	defaultNumericType = Float32
 
 	// defaultSettlingBand is spec.settling_band: the 2 % criterion, the one
 	// behind the textbook estimate Ts ≈ 4/(ζ·ωn) (Nise, Control Systems
@@ -32,7 +30,7 @@ const (
 	defaultSettlingBand = 0.02
 
 	// defaultMinPhaseMargin and defaultMinGainMargin are the margin
-	// requirements when absent: none beyond stability (synth.Spec treats 0
+	// requirements when absent: none beyond stability (Spec treats 0
 	// as "no requirement").
 	defaultMinPhaseMargin = 0.0
 	defaultMinGainMargin  = 0.0
@@ -40,7 +38,7 @@ const (
 	// defaultForm is control.form: a PID, the usual structure of a
 	// multirotor rate loop (common practice); the integral removes the
 	// steady-state error under a constant disturbance torque.
-	defaultForm = synth.FormPID
+	defaultForm = FormPID
 
 	// defaultRefine is control.refine: let the designer refine the textbook
 	// placement against the full-order loop, since the plant, sensor and
@@ -101,7 +99,7 @@ const (
 	defaultPlantDelay = 0.0
 
 	// defaultFullScale is numeric.input_full_scale and output_full_scale
-	// when absent with a float type: 0, "not given" (discrete.Numeric).
+	// when absent with a float type: 0, "not given" (Numeric).
 	// The fixed-point types require both.
 	defaultFullScale = 0.0
 )

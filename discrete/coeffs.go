@@ -5,6 +5,7 @@ import (
 	"math"
 	"strconv"
 
+	"locusmith/airframe"
 	"locusmith/synth"
 )
 
@@ -50,7 +51,7 @@ const (
 //
 //	ul = B0·e + x,  u = clamp(ul, Lo, Hi),  x ← B1·e − A1·ul.
 type Coeffs struct {
-	Form              synth.Form
+	Form              airframe.Form
 	Method            Method
 	T                 float64 // sample period, s
 	PrewarpOmega      float64 // rad/s, for TustinPrewarp
@@ -86,7 +87,7 @@ type Coeffs struct {
 // Kt = T/Tt. With tracking_time = 0, Tt = √(Ti·Td) for PID and Tt = Ti for
 // PI (Åström & Hägglund, Advanced PID Control, rule of thumb for the
 // tracking time, from memory).
-func Realize(c synth.Controller, ctrl synth.Control, T, crossover float64) (Coeffs, []string, error) {
+func Realize(c synth.Controller, ctrl airframe.Control, T, crossover float64) (Coeffs, []string, error) {
 	var warns []string
 	k := Coeffs{
 		Form: c.Form, Method: Method(ctrl.Discretize), T: T,
@@ -117,7 +118,7 @@ func Realize(c synth.Controller, ctrl synth.Control, T, crossover float64) (Coef
 	default:
 		return k, nil, fmt.Errorf("unknown discretization %q", ctrl.Discretize)
 	}
-	if c.Form == synth.FormLead {
+	if c.Form == airframe.FormLead {
 		k.B0, k.B1, k.A1 = leadCoeffs(c, k.Method, T, tp)
 		return k, warns, nil
 	}
@@ -137,7 +138,7 @@ func Realize(c synth.Controller, ctrl synth.Control, T, crossover float64) (Coef
 		case AWBackcalc:
 			tt := ctrl.TrackingTime
 			if tt == 0 {
-				if c.Form == synth.FormPID && c.Kd > 0 {
+				if c.Form == airframe.FormPID && c.Kd > 0 {
 					tt = math.Sqrt(c.Ti() * c.Td())
 				} else {
 					tt = c.Ti()

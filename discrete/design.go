@@ -4,15 +4,16 @@ import (
 	"fmt"
 	"math"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
 	"locusmith/synth"
 )
 
 // Design is the design of one axis at the loop rate.
 type Design struct {
-	Problem synth.Problem
-	Loop    Loop
-	Numeric Numeric
+	Problem airframe.Axis
+	Loop    airframe.Loop
+	Numeric airframe.Numeric
 	// Cont is the continuous design (refined against the sampled loop).
 	Cont   *synth.Design
 	Coeffs Coeffs
@@ -21,7 +22,7 @@ type Design struct {
 	// Checks are the spec checks on the sampled loop, plus sampling.
 	Checks   []synth.Check
 	Warnings []string
-	// Num is the numeric realization in Numeric's type: coefficient
+	// Num is the numeric realization in airframe.Numeric's type: coefficient
 	// table, fixed-point formats and proved ranges, the integer model, and
 	// the verification with quantized coefficients (see RealizeNumeric).
 	Num *Realization
@@ -40,7 +41,7 @@ func (d *Design) OK() bool {
 // Evaluator returns a refinement evaluator that judges candidates by the
 // sampled loop: the controller as discretized at the loop rate, the ZOH
 // plant, the compute delay.
-func Evaluator(p synth.Problem, pl Plant, d int) synth.Evaluator {
+func Evaluator(p airframe.Axis, pl Plant, d int) synth.Evaluator {
 	return func(c synth.Controller) (synth.Evaluation, error) {
 		var e synth.Evaluation
 		wc := math.NaN()
@@ -89,14 +90,14 @@ const (
 // DesignAxis designs one axis for the loop rate: the continuous design,
 // refined so that the sampled loop meets the spec, then discretized and
 // verified at the samples.
-func DesignAxis(p synth.Problem, loop Loop, num Numeric) (*Design, error) {
+func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Design, error) {
 	if !(loop.Hz > 0) || math.IsInf(loop.Hz, 0) {
-		return nil, fmt.Errorf("axis %s: loop rate %g Hz: must be finite and > 0", p.Axis, loop.Hz)
+		return nil, fmt.Errorf("axis %s: loop rate %g Hz: must be finite and > 0", p.Name, loop.Hz)
 	}
 	T := 1 / loop.Hz
 	pl, err := NewPlant(p, T)
 	if err != nil {
-		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
 	cd, err := synth.DesignAxis(p, Evaluator(p, pl, loop.ComputeDelay))
 	if err != nil {
@@ -105,7 +106,7 @@ func DesignAxis(p synth.Problem, loop Loop, num Numeric) (*Design, error) {
 	d := &Design{Problem: p, Loop: loop, Numeric: num, Cont: cd, Plant: pl}
 	k, warns, err := Realize(cd.Ctrl, p.Ctrl, T, cd.Verif.Margins.Crossover)
 	if err != nil {
-		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
 	d.Coeffs = k
 	d.Warnings = append(append(d.Warnings, cd.Warnings...), warns...)
@@ -115,17 +116,17 @@ func DesignAxis(p synth.Problem, loop Loop, num Numeric) (*Design, error) {
 	}
 	d.Verif, err = verify(p, pl, k, loop.ComputeDelay, maxStep)
 	if err != nil {
-		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
 	v := d.Verif
 	d.Checks = synth.SpecChecks(p.Spec, v.Stable, 0, v.Step.Overshoot, v.Step.Settling, v.Margins.PhaseDeg, v.Margins.GainDB)
 	d.Checks[0] = synth.Check{Name: "stable", Limit: 1, Value: 1 - v.StabilityMargin, Upper: true, OK: v.Stable}
 	d.Checks = append(d.Checks, d.samplingCheck())
 	d.integratorReach()
-	// Numeric realization (numeric.go): its checks and warnings join the
+	// airframe.Numeric realization (numeric.go): its checks and warnings join the
 	// design's; bad numeric settings come back as an *InputError.
 	if d.Num, err = RealizeNumeric(d); err != nil {
-		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
 	d.Checks = append(d.Checks, d.Num.Checks...)
 	d.Warnings = append(d.Warnings, d.Num.Warnings...)
@@ -182,7 +183,7 @@ func (d *Design) integratorReach() {
 // s = (1/G(0) + Kp − KpB)·r (with H(0) = 1; 1/G(0) = 0 for a plant that
 // integrates), so |r| ≤ IL/|1/G(0) + Kp − KpB|. +Inf when unbounded or
 // without an integrator.
-func reachLimit(p synth.Problem, k Coeffs) float64 {
+func reachLimit(p airframe.Axis, k Coeffs) float64 {
 	if !k.Form.HasIntegral() {
 		return math.Inf(1)
 	}

@@ -2,13 +2,13 @@ package discrete
 
 import (
 	"bytes"
-	"go/format"
 	"math"
 	"math/cmplx"
 	"os"
-	"os/exec"
 	"testing"
 
+	"locusmith/airframe"
+	"locusmith/discrete/internal/pairgen"
 	"locusmith/internal/lti"
 	"locusmith/internal/pyref"
 	"locusmith/synth"
@@ -16,13 +16,13 @@ import (
 
 // demo is a multirotor-like rate loop (demo data): an integrating plant
 // with a motor lag, a gyro lowpass and a transport delay.
-func demo(form synth.Form) synth.Problem {
+func demo(form airframe.Form) airframe.Axis {
 	tau := 0.03
-	return synth.Problem{Axis: "roll",
-		Plant:  synth.Plant{Model: lti.ZPK{Gain: 2000 / tau, Poles: []complex128{0, complex(-1/tau, 0)}}, Delay: 0.002},
+	return airframe.Axis{Name: "roll",
+		Plant:  airframe.Plant{Model: lti.ZPK{Gain: 2000 / tau, Poles: []complex128{0, complex(-1/tau, 0)}}, Delay: 0.002},
 		Sensor: lti.ZPK{Gain: 2 * math.Pi * 100, Poles: []complex128{complex(-2*math.Pi*100, 0)}},
-		Spec:   synth.Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.08, MinPhaseMargin: 40, MinGainMargin: 6},
-		Ctrl: synth.Control{Form: form, Refine: true, ThirdPole: 5, LeadZero: -20, DerivativeLowpassHz: 125,
+		Spec:   airframe.Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.08, MinPhaseMargin: 40, MinGainMargin: 6},
+		Ctrl: airframe.Control{Form: form, Refine: true, ThirdPole: 5, LeadZero: -20, DerivativeLowpassHz: 125,
 			OutputLimit: [2]float64{-1, 1}, IntegratorLimit: 1, AntiWindup: "backcalc", Discretize: "tustin"},
 	}
 }
@@ -34,15 +34,15 @@ func ctrlEval(k Coeffs, z complex128) complex128 {
 	return -lti.Disc{N: c.M, A: c.Ac, B: c.By, C: c.Cc, D: c.Dy, T: k.T}.Eval(z)
 }
 
-func pidControl(method string) synth.Control {
-	return synth.Control{Form: synth.FormPID, DerivativeLowpassHz: 60, OutputLimit: [2]float64{-1, 1}, IntegratorLimit: 1, AntiWindup: "none", Discretize: method}
+func pidControl(method string) airframe.Control {
+	return airframe.Control{Form: airframe.FormPID, DerivativeLowpassHz: 60, OutputLimit: [2]float64{-1, 1}, IntegratorLimit: 1, AntiWindup: "none", Discretize: method}
 }
 
 // The Tustin integrator is Ki·(T/2)(z+1)/(z−1), backward Ki·T·z/(z−1),
 // forward Ki·T/(z−1) (Franklin, Powell & Workman, Digital Control, the
 // substitution rules; from memory).
 func TestIntegratorClosedForms(t *testing.T) {
-	c := synth.Controller{Form: synth.FormPI, Kp: 0, Ki: 3, B: 1}
+	c := synth.Controller{Form: airframe.FormPI, Kp: 0, Ki: 3, B: 1}
 	T := 0.001
 	z := complexExp(0.3)
 	for _, m := range []struct {
@@ -54,7 +54,7 @@ func TestIntegratorClosedForms(t *testing.T) {
 		{"forward", complex(3*T, 0) / (z - 1)},
 	} {
 		ctrl := pidControl(m.method)
-		ctrl.Form = synth.FormPI
+		ctrl.Form = airframe.FormPI
 		k, _, err := Realize(c, ctrl, T, math.NaN())
 		if err != nil {
 			t.Fatal(err)
@@ -74,9 +74,9 @@ func TestIntegratorClosedForms(t *testing.T) {
 // Workman, from memory).
 func TestPrewarpExactAtCrossover(t *testing.T) {
 	T, w := 0.002, 300.0
-	c := synth.Controller{Form: synth.FormPI, Kp: 0.01, Ki: 0.5, B: 1}
+	c := synth.Controller{Form: airframe.FormPI, Kp: 0.01, Ki: 0.5, B: 1}
 	ctrl := pidControl("tustin_prewarp")
-	ctrl.Form = synth.FormPI
+	ctrl.Form = airframe.FormPI
 	k, _, err := Realize(c, ctrl, T, w)
 	if err != nil {
 		t.Fatal(err)
@@ -97,7 +97,7 @@ func TestDerivativePoleAlwaysInUnitInterval(t *testing.T) {
 		for _, hz := range []float64{1, 50, 400, 4000, 1e6} {
 			ctrl := pidControl(m)
 			ctrl.DerivativeLowpassHz = hz
-			c := synth.Controller{Form: synth.FormPID, Kp: 1, Ki: 1, Kd: 0.01, Tf: ctrl.Tf(), B: 1}
+			c := synth.Controller{Form: airframe.FormPID, Kp: 1, Ki: 1, Kd: 0.01, Tf: ctrl.Tf(), B: 1}
 			k, _, err := Realize(c, ctrl, 0.001, 100)
 			if err != nil {
 				t.Fatal(err)
@@ -161,11 +161,11 @@ func TestControllersAgainstSciPy(t *testing.T) {
 	T := 0.001
 	methods := map[string]string{"tustin": "bilinear", "backward": "backward_diff", "forward": "euler"}
 	ctrls := []synth.Controller{
-		{Form: synth.FormP, Kp: 0.02, B: 1},
-		{Form: synth.FormPI, Kp: 0.02, Ki: 0.3, B: 1},
-		{Form: synth.FormPD, Kp: 0.02, Kd: 0.0004, Tf: 0.004, B: 1},
-		{Form: synth.FormPID, Kp: 0.03, Ki: 0.27, Kd: 0.0008, Tf: 0.004, B: 1},
-		{Form: synth.FormLead, K: 0.01, Zero: -20, Pole: -80},
+		{Form: airframe.FormP, Kp: 0.02, B: 1},
+		{Form: airframe.FormPI, Kp: 0.02, Ki: 0.3, B: 1},
+		{Form: airframe.FormPD, Kp: 0.02, Kd: 0.0004, Tf: 0.004, B: 1},
+		{Form: airframe.FormPID, Kp: 0.03, Ki: 0.27, Kd: 0.0008, Tf: 0.004, B: 1},
+		{Form: airframe.FormLead, K: 0.01, Zero: -20, Pole: -80},
 	}
 	pairs, zs := zPoints()
 	var in []c2dCase
@@ -228,7 +228,7 @@ func TestPlantZOHAgainstSciPy(t *testing.T) {
 	var in []c2dCase
 	var ours [][]complex128
 	for _, c := range plants {
-		p := synth.Problem{Plant: synth.Plant{Model: c.g}, Sensor: c.h}
+		p := airframe.Axis{Plant: airframe.Plant{Model: c.g}, Sensor: c.h}
 		pl, err := NewPlant(p, T)
 		if err != nil {
 			t.Fatal(err)
@@ -260,7 +260,7 @@ func TestPlantZOHAgainstSciPy(t *testing.T) {
 // Workman; Åström & Wittenmark; from memory).
 func TestFirstOrderLagClosedForm(t *testing.T) {
 	tau, T := 0.025, 0.001
-	pl, err := NewPlant(synth.Problem{Plant: synth.Plant{Model: lti.ZPK{Gain: 1 / tau, Poles: []complex128{complex(-1/tau, 0)}}}, Sensor: lti.ZPK{Gain: 1}}, T)
+	pl, err := NewPlant(airframe.Axis{Plant: airframe.Plant{Model: lti.ZPK{Gain: 1 / tau, Poles: []complex128{complex(-1/tau, 0)}}}, Sensor: lti.ZPK{Gain: 1}}, T)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -298,7 +298,7 @@ func TestTransportDelayAgainstSciPy(t *testing.T) {
 	q := 20
 	for _, delay := range []float64{0.0013, 0.00235, 0.0005} {
 		g := lti.ZPK{Gain: 2000 / 0.03, Poles: []complex128{-5, complex(-1/0.03, 0)}}
-		pl, err := NewPlant(synth.Problem{Plant: synth.Plant{Model: g, Delay: delay}, Sensor: lti.ZPK{Gain: 1}}, T)
+		pl, err := NewPlant(airframe.Axis{Plant: airframe.Plant{Model: g, Delay: delay}, Sensor: lti.ZPK{Gain: 1}}, T)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -354,11 +354,11 @@ func TestClosedLoopPolesAgainstNumPy(t *testing.T) {
 		d     int
 	}
 	cases := []tc{
-		{synth.Controller{Form: synth.FormPI, Kp: 0.007, Ki: 0.02, B: 1}, 0, 1},
-		{synth.Controller{Form: synth.FormPID, Kp: 0.031, Ki: 0.27, Kd: 0.0008, Tf: 0.004, B: 0.5}, 0, 1},
-		{synth.Controller{Form: synth.FormPID, Kp: 0.031, Ki: 0.27, Kd: 0.0008, Tf: 0.004, B: 1}, 0.002, 0},
-		{synth.Controller{Form: synth.FormPD, Kp: 0.009, Kd: 0.0001, Tf: 0.004, B: 1}, 0.001, 2},
-		{synth.Controller{Form: synth.FormLead, K: 0.01, Zero: -20, Pole: -25}, 0, 1},
+		{synth.Controller{Form: airframe.FormPI, Kp: 0.007, Ki: 0.02, B: 1}, 0, 1},
+		{synth.Controller{Form: airframe.FormPID, Kp: 0.031, Ki: 0.27, Kd: 0.0008, Tf: 0.004, B: 0.5}, 0, 1},
+		{synth.Controller{Form: airframe.FormPID, Kp: 0.031, Ki: 0.27, Kd: 0.0008, Tf: 0.004, B: 1}, 0.002, 0},
+		{synth.Controller{Form: airframe.FormPD, Kp: 0.009, Kd: 0.0001, Tf: 0.004, B: 1}, 0.001, 2},
+		{synth.Controller{Form: airframe.FormLead, K: 0.01, Zero: -20, Pole: -25}, 0, 1},
 	}
 	var in []map[string]any
 	var ours [][]complex128
@@ -409,16 +409,16 @@ func TestClosedLoopPolesAgainstNumPy(t *testing.T) {
 // antiWindupCases are three rate loops of different airframes (demo data):
 // a quadrotor roll axis (PID), a yaw axis (PI) and a gimbal (PID, no
 // delay).
-func antiWindupCases() []synth.Problem {
-	roll := demo(synth.FormPID)
-	yaw := demo(synth.FormPI)
+func antiWindupCases() []airframe.Axis {
+	roll := demo(airframe.FormPID)
+	yaw := demo(airframe.FormPI)
 	yaw.Plant.Model = lti.ZPK{Gain: 300 / 0.05, Poles: []complex128{0, -20}}
-	yaw.Spec = synth.Spec{SettlingTime: 0.4, Band: 0.02, Overshoot: 0.1, MinPhaseMargin: 40, MinGainMargin: 6}
-	gim := demo(synth.FormPID)
-	gim.Plant = synth.Plant{Model: lti.ZPK{Gain: 4000, Poles: []complex128{-2, -60}}}
-	gim.Spec = synth.Spec{SettlingTime: 0.1, Band: 0.02, Overshoot: 0.05, MinPhaseMargin: 45, MinGainMargin: 6}
+	yaw.Spec = airframe.Spec{SettlingTime: 0.4, Band: 0.02, Overshoot: 0.1, MinPhaseMargin: 40, MinGainMargin: 6}
+	gim := demo(airframe.FormPID)
+	gim.Plant = airframe.Plant{Model: lti.ZPK{Gain: 4000, Poles: []complex128{-2, -60}}}
+	gim.Spec = airframe.Spec{SettlingTime: 0.1, Band: 0.02, Overshoot: 0.05, MinPhaseMargin: 45, MinGainMargin: 6}
 	gim.Ctrl.IntegratorLimit = 0.8
-	return []synth.Problem{roll, yaw, gim}
+	return []airframe.Axis{roll, yaw, gim}
 }
 
 // Anti-windup (Åström & Hägglund, Advanced PID Control: conditional
@@ -430,7 +430,7 @@ func antiWindupCases() []synth.Problem {
 func TestAntiWindupHelps(t *testing.T) {
 	for i, p := range antiWindupCases() {
 		p.Ctrl.SetpointWeight, p.Ctrl.SetpointWeightSet = 1, true
-		d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float32})
+		d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float32})
 		if err != nil {
 			t.Fatalf("case %d: %v", i, err)
 		}
@@ -466,11 +466,11 @@ func TestAntiWindupHelps(t *testing.T) {
 // the direction of the error; without it, the integrator winds up toward
 // its limit and the response overshoots more.
 func TestMixerSaturationBoundsWindup(t *testing.T) {
-	p := demo(synth.FormPID)
+	p := demo(airframe.FormPID)
 	p.Ctrl.OutputLimit = [2]float64{-10, 10}
 	p.Ctrl.IntegratorLimit = 10
 	p.Ctrl.SetpointWeight, p.Ctrl.SetpointWeightSet = 1, true
-	d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float64})
+	d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float64})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -512,8 +512,8 @@ func TestMixerSaturationBoundsWindup(t *testing.T) {
 // Bumpless reset: after Reset(output, measured), a step with the setpoint
 // at the measurement returns output, and the derivative does not kick.
 func TestResetIsBumpless(t *testing.T) {
-	for _, f := range []synth.Form{synth.FormPI, synth.FormPID, synth.FormLead} {
-		d, err := DesignAxis(demo(f), Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float64})
+	for _, f := range []airframe.Form{airframe.FormPI, airframe.FormPID, airframe.FormLead} {
+		d, err := DesignAxis(demo(f), airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float64})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -534,7 +534,7 @@ func TestResetIsBumpless(t *testing.T) {
 // continuous controller realized at ×1, ×10 and ×100 the rate, with no
 // compute delay, approaches the continuous overshoot and settling time.
 func TestConvergesToContinuous(t *testing.T) {
-	p := demo(synth.FormPID)
+	p := demo(airframe.FormPID)
 	p.Ctrl.DerivativeLowpassHz = 40
 	d, err := synth.DesignAxis(p, nil)
 	if err != nil {
@@ -569,9 +569,9 @@ func TestConvergesToContinuous(t *testing.T) {
 
 // A loop rate too low for the design fails the sampling check (exit 1).
 func TestSamplingTooLow(t *testing.T) {
-	p := demo(synth.FormPD)
+	p := demo(airframe.FormPD)
 	p.Ctrl.DerivativeLowpassHz = 20
-	d, err := DesignAxis(p, Loop{Hz: 30, ComputeDelay: 0}, Numeric{Type: Float32})
+	d, err := DesignAxis(p, airframe.Loop{Hz: 30, ComputeDelay: 0}, airframe.Numeric{Type: airframe.Float32})
 	if err != nil {
 		return // an infeasible design is also a refusal
 	}
@@ -588,8 +588,8 @@ func TestSamplingTooLow(t *testing.T) {
 // BenchmarkDiscreteAxis: discretization, discrete verification and the
 // saturated simulation of one PID axis (target ≤ 1 ms).
 func BenchmarkDiscreteAxis(b *testing.B) {
-	p := demo(synth.FormPID)
-	d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float32})
+	p := demo(airframe.FormPID)
+	d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float32})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -612,10 +612,10 @@ func BenchmarkDiscreteAxis(b *testing.B) {
 // BenchmarkDesignAxisAtRate: the whole design of one PID axis, refined
 // against the sampled loop.
 func BenchmarkDesignAxisAtRate(b *testing.B) {
-	p := demo(synth.FormPID)
+	p := demo(airframe.FormPID)
 	b.ReportAllocs()
 	for b.Loop() {
-		if _, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float32}); err != nil {
+		if _, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float32}); err != nil {
 			b.Fatal(err)
 		}
 	}
@@ -633,8 +633,8 @@ func FuzzDesignAtRate(f *testing.F) {
 			ts > 1e-3 && ts < 100 && os > 0.001 && os < 0.99 && loop > 1 && loop < 1e5 && ts*loop < 3000) {
 			t.Skip() // long horizons take seconds per run, too slow to fuzz
 		}
-		p := demo(synth.Forms[int(form)%len(synth.Forms)])
-		p.Plant = synth.Plant{Model: lti.ZPK{Gain: eff / tau, Poles: []complex128{0, complex(-1/tau, 0)}}, Delay: delay}
+		p := demo(airframe.Forms()[int(form)%len(airframe.Forms())])
+		p.Plant = airframe.Plant{Model: lti.ZPK{Gain: eff / tau, Poles: []complex128{0, complex(-1/tau, 0)}}, Delay: delay}
 		if hz > 0 {
 			p.Sensor = lti.ZPK{Gain: 2 * math.Pi * hz, Poles: []complex128{complex(-2*math.Pi*hz, 0)}}
 		} else {
@@ -644,7 +644,7 @@ func FuzzDesignAtRate(f *testing.F) {
 		p.Ctrl.Discretize = []string{"tustin", "tustin_prewarp", "backward", "forward"}[int(opt)%4]
 		p.Ctrl.AntiWindup = []string{"none", "clamp", "backcalc"}[int(opt/4)%3]
 		p.Ctrl.DerivativeLowpassHz = loop / 8
-		d, err := DesignAxis(p, Loop{Hz: loop, ComputeDelay: int(cd) % 5}, Numeric{Type: Float32})
+		d, err := DesignAxis(p, airframe.Loop{Hz: loop, ComputeDelay: int(cd) % 5}, airframe.Numeric{Type: airframe.Float32})
 		if err != nil {
 			return
 		}
@@ -707,7 +707,7 @@ func TestSchurCohnKnownRoots(t *testing.T) {
 // matrix's eigenvalues (away from the origin, where the state model has
 // its unobservable delay and filter-history modes).
 func TestCharacteristicMatchesStateModel(t *testing.T) {
-	for _, f := range synth.Forms {
+	for _, f := range airframe.Forms() {
 		p := demo(f)
 		p.Plant.Delay = 0.0023
 		pl, err := NewPlant(p, 0.001)
@@ -762,12 +762,12 @@ func TestReachLimitMatchesSteadyState(t *testing.T) {
 		{Gain: 2000 / 0.03, Poles: []complex128{0, complex(-1/0.03, 0)}}, // integrating
 		{Gain: 4000, Poles: []complex128{-2, -60}},                       // G(0) = 33.3
 	} {
-		p := demo(synth.FormPID)
-		p.Plant = synth.Plant{Model: plant}
+		p := demo(airframe.FormPID)
+		p.Plant = airframe.Plant{Model: plant}
 		p.Ctrl.SetpointWeight, p.Ctrl.SetpointWeightSet = 0.5, true
 		p.Ctrl.OutputLimit = [2]float64{-100, 100}
 		p.Ctrl.IntegratorLimit = 100
-		d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float64})
+		d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float64})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -794,7 +794,7 @@ func TestReachLimitMatchesSteadyState(t *testing.T) {
 // upper limit (the response is linear in the setpoint), unless it is
 // reduced to the reach or the full scale, which the result says.
 func TestSaturatedStepAmplitude(t *testing.T) {
-	d, err := DesignAxis(demo(synth.FormPID), Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float32})
+	d, err := DesignAxis(demo(airframe.FormPID), airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float32})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -813,7 +813,7 @@ func TestSaturatedStepAmplitude(t *testing.T) {
 	if math.Abs(s.Amplitude-want) > 1e-12*want {
 		t.Errorf("amplitude %g, want %g", s.Amplitude, want)
 	}
-	dd, err := DesignAxis(demo(synth.FormPID), Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float32, InputFullScale: 1, OutputFullScale: 1})
+	dd, err := DesignAxis(demo(airframe.FormPID), airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float32, InputFullScale: 1, OutputFullScale: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -825,7 +825,7 @@ func TestSaturatedStepAmplitude(t *testing.T) {
 // setpointLanes realizes a fixed controller of the form (gains scaled by
 // g) at period T, the demo's options, as the two linear controllers that
 // refinement simulates: setpoint weight 0 and 1.
-func setpointLanes(t *testing.T, form synth.Form, g, T float64) (c0, c1 linearCtrl) {
+func setpointLanes(t *testing.T, form airframe.Form, g, T float64) (c0, c1 linearCtrl) {
 	t.Helper()
 	c := synth.Controller{Form: form, Kp: 0.04 * g, Ki: 0.4 * g, Kd: 0.0008 * g, Tf: 0.0013, B: 1, K: 2, Zero: -20, Pole: -90}
 	k, _, err := Realize(c, demo(form).Ctrl, T, 0)
@@ -853,7 +853,7 @@ func TestPairStepperMatchesStepper(t *testing.T) {
 			pl.A[i*np+i] += 0.85 - 0.02*float64(i)
 			pl.B[i], pl.Cm[i], pl.Cy[i] = 0.1*math.Cos(float64(i)), 1+0.3*float64(i), 1-0.2*float64(i)
 		}
-		for _, form := range synth.Forms {
+		for _, form := range airframe.Forms() {
 			c0, c1 := setpointLanes(t, form, 10, pl.T)
 			for d := range 3 {
 				const n = 300
@@ -883,7 +883,7 @@ func TestPairStepperMatchesStepper(t *testing.T) {
 			}
 		}
 	}
-	if want := 6 * len(synth.Forms) * 3; kernels != want {
+	if want := 6 * len(airframe.Forms()) * 3; kernels != want {
 		t.Errorf("%d runs through a kernel, want %d", kernels, want)
 	}
 }
@@ -891,7 +891,7 @@ func TestPairStepperMatchesStepper(t *testing.T) {
 // dcGains is the resolvent at z = 1 (lti.Disc.Eval, tested against SciPy)
 // for both inputs, and NaN for a loop whose I − A is singular.
 func TestDCGainsMatchResolvent(t *testing.T) {
-	for _, form := range synth.Forms {
+	for _, form := range airframe.Forms() {
 		p := demo(form)
 		pl, err := NewPlant(p, 0.001)
 		if err != nil {
@@ -919,17 +919,10 @@ func TestDCGainsMatchResolvent(t *testing.T) {
 	}
 }
 
-// pairkernels_gen.go is what its generator makes (go generate after a
-// change to testdata/gen_pairkernels.py).
+// pairkernels_gen.go is what its generator makes (regenerate after a
+// change to package pairgen).
 func TestPairKernelsUpToDate(t *testing.T) {
-	out, err := exec.Command(pyref.Python, "testdata/gen_pairkernels.py").Output()
-	if err != nil {
-		if os.Getenv("CI") == "true" {
-			t.Fatalf("%s: %v", pyref.Python, err)
-		}
-		t.Skipf("%s not available: %v", pyref.Python, err)
-	}
-	want, err := format.Source(out)
+	want, err := pairgen.Source()
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -938,6 +931,6 @@ func TestPairKernelsUpToDate(t *testing.T) {
 		t.Fatal(err)
 	}
 	if !bytes.Equal(got, want) {
-		t.Error("pairkernels_gen.go is stale: run go generate ./discrete")
+		t.Errorf("pairkernels_gen.go is stale: run %s", pairgen.Command)
 	}
 }

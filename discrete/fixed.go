@@ -1,6 +1,6 @@
 package discrete
 
-import "locusmith/synth"
+import "locusmith/airframe"
 
 // QCoeff is one coefficient of the integer controller.
 //
@@ -99,9 +99,9 @@ type QCoeff struct {
 // (see RealizeNumeric). The final (D) conversion is exact: Lo and Hi are
 // data words.
 type Fixed struct {
-	Type              NumericType
+	Type              airframe.NumericType
 	W                 int // data bits; accumulators have 2W
-	Form              synth.Form
+	Form              airframe.Form
 	AntiWindup        AntiWindup
 	DerivativeOnError bool
 	// The coefficients the form uses; the others are zero.
@@ -153,7 +153,7 @@ func (f *Fixed) Reset(s *FixedState, output, measured int32) {
 
 func fixedReset[D, A Word](f *Fixed, s *FixedState, output, measured D) {
 	*s = FixedState{}
-	if f.Form == synth.FormLead {
+	if f.Form == airframe.FormLead {
 		s.S = int64(shl(A(output), f.FU))
 		return
 	}
@@ -227,7 +227,7 @@ func fixedStep[D, A Word](f *Fixed, s *FixedState, r, y D) D {
 	S, Ud, Vp, E, Uu, Ua := A(s.S), A(s.Ud), A(s.Vp), A(s.E), A(s.Uu), A(s.Ua)
 	lo, hi := A(f.Lo), A(f.Hi)
 	var uu, e A
-	if f.Form == synth.FormLead {
+	if f.Form == airframe.FormLead {
 		if s.Pending {
 			S = mulQ[D](&f.B1, E) - mulQ[D](&f.A1, Uu)
 		}

@@ -7,19 +7,19 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
-	"locusmith/synth"
 )
 
 // numProblem is an invented rate loop (demo data): an integrating plant
 // with a motor lag, a gyro lowpass and a transport delay.
-func numProblem(form synth.Form) synth.Problem {
+func numProblem(form airframe.Form) airframe.Axis {
 	tau := 0.03
-	return synth.Problem{Axis: "roll",
-		Plant:  synth.Plant{Model: lti.ZPK{Gain: 2000 / tau, Poles: []complex128{0, complex(-1/tau, 0)}}, Delay: 0.002},
+	return airframe.Axis{Name: "roll",
+		Plant:  airframe.Plant{Model: lti.ZPK{Gain: 2000 / tau, Poles: []complex128{0, complex(-1/tau, 0)}}, Delay: 0.002},
 		Sensor: lti.ZPK{Gain: 2 * math.Pi * 100, Poles: []complex128{complex(-2*math.Pi*100, 0)}},
-		Spec:   synth.Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.08, MinPhaseMargin: 40, MinGainMargin: 6},
-		Ctrl: synth.Control{Form: form, Refine: true, ThirdPole: 5, LeadZero: -20, DerivativeLowpassHz: 125,
+		Spec:   airframe.Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.08, MinPhaseMargin: 40, MinGainMargin: 6},
+		Ctrl: airframe.Control{Form: form, Refine: true, ThirdPole: 5, LeadZero: -20, DerivativeLowpassHz: 125,
 			OutputLimit: [2]float64{-1, 1}, IntegratorLimit: 1, AntiWindup: "backcalc", Discretize: "tustin"},
 	}
 }
@@ -37,22 +37,22 @@ func numCases(t testing.TB) []numCase {
 	t.Helper()
 	var cs []numCase
 	type variant struct {
-		form synth.Form
+		form airframe.Form
 		aw   string
 		doe  bool
 		fin  float64
 	}
 	var vs []variant
-	for _, f := range synth.Forms {
+	for _, f := range airframe.Forms() {
 		vs = append(vs, variant{f, "backcalc", false, 100})
 	}
-	vs = append(vs, variant{synth.FormPID, "clamp", false, 100}, variant{synth.FormPI, "none", false, 100},
-		variant{synth.FormPID, "backcalc", true, 20}, variant{synth.FormPD, "none", true, 20})
-	for _, nt := range []NumericType{Q15, Q31} {
+	vs = append(vs, variant{airframe.FormPID, "clamp", false, 100}, variant{airframe.FormPI, "none", false, 100},
+		variant{airframe.FormPID, "backcalc", true, 20}, variant{airframe.FormPD, "none", true, 20})
+	for _, nt := range []airframe.NumericType{airframe.Q15, airframe.Q31} {
 		for _, v := range vs {
 			p := numProblem(v.form)
 			p.Ctrl.AntiWindup, p.Ctrl.DerivativeOnError = v.aw, v.doe
-			d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: nt, InputFullScale: v.fin, OutputFullScale: 1})
+			d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: nt, InputFullScale: v.fin, OutputFullScale: 1})
 			if err != nil {
 				t.Fatalf("%s %s: %v", nt, v.form, err)
 			}
@@ -64,11 +64,11 @@ func numCases(t testing.TB) []numCase {
 	// lead, whose quantized loops fail their spec.
 	eight := []struct {
 		name string
-		form synth.Form
+		form airframe.Form
 		hz   float64
-	}{{"q7/pid/backcalc", synth.FormPID, 1000}, {"q7/pid@4kHz/backcalc", synth.FormPID, 4000}, {"q7/lead", synth.FormLead, 1000}}
+	}{{"q7/pid/backcalc", airframe.FormPID, 1000}, {"q7/pid@4kHz/backcalc", airframe.FormPID, 4000}, {"q7/lead", airframe.FormLead, 1000}}
 	for _, e := range eight {
-		d, err := DesignAxis(numProblem(e.form), Loop{Hz: e.hz, ComputeDelay: 1}, Numeric{Type: Q15, InputFullScale: 100, OutputFullScale: 1})
+		d, err := DesignAxis(numProblem(e.form), airframe.Loop{Hz: e.hz, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Q15, InputFullScale: 100, OutputFullScale: 1})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -173,7 +173,7 @@ func (o *oracle) reset(output, measured int32) {
 	o.S, o.Ud, o.Vp, o.E, o.Uu, o.Ua = bi(0), bi(0), bi(0), bi(0), bi(0), bi(0)
 	o.Pending, o.Fresh = false, false
 	out, m := o.satD(output), o.satD(measured)
-	if f.Form == synth.FormLead {
+	if f.Form == airframe.FormLead {
 		o.S = new(big.Int).Lsh(out, uint(f.FU))
 		return
 	}
@@ -196,7 +196,7 @@ func (o *oracle) step(r32, y32 int32) int64 {
 	f := o.f
 	r, y := o.satD(r32), o.satD(y32)
 	var uu, e *big.Int
-	if f.Form == synth.FormLead {
+	if f.Form == airframe.FormLead {
 		if o.Pending {
 			o.S = new(big.Int).Sub(o.mul("B1·E", f.B1, o.E), o.mul("A1·ul", f.A1, o.Uu))
 			o.rec("lead state x", o.S)
@@ -450,7 +450,7 @@ func TestDerivativeL1BoundReached(t *testing.T) {
 func roundingBound(f *Fixed, n int) float64 {
 	b := 0.5 + 1e-3 + 5*0.5*math.Ldexp(1, -f.FU)
 	switch {
-	case f.Form == synth.FormLead:
+	case f.Form == airframe.FormLead:
 		a := float64(f.A1.Raw) * math.Ldexp(1, -f.A1.Frac)
 		b += 1.5 * math.Ldexp(1, -f.FU) / (1 - math.Abs(a))
 	case f.Form.HasDerivative():
@@ -558,9 +558,9 @@ func TestResetAndAppliedMirrorModel(t *testing.T) {
 // the increment is dropped exactly when the applied command is below the
 // unsaturated one with a positive error (or above with a negative one).
 func TestClampAntiWindupDecision(t *testing.T) {
-	p := numProblem(synth.FormPI)
+	p := numProblem(airframe.FormPI)
 	p.Ctrl.AntiWindup = "clamp"
-	d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Q15, InputFullScale: 100, OutputFullScale: 1})
+	d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Q15, InputFullScale: 100, OutputFullScale: 1})
 	if err != nil {
 		t.Fatal(err)
 	}

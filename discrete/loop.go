@@ -4,9 +4,11 @@ import (
 	"math"
 	"math/cmplx"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
-	"locusmith/synth"
 )
+
+//go:generate go run locusmith/discrete/internal/pairgen/gen
 
 // linearCtrl is the unsaturated controller as a state-space system with two
 // inputs, setpoint r and measurement y:
@@ -27,7 +29,7 @@ type linearCtrl struct {
 // system, for poles and margins; saturation and the integrator clamp are
 // left out, as they do not act on a small step.
 func linearize(k Coeffs) linearCtrl {
-	if k.Form == synth.FormLead {
+	if k.Form == airframe.FormLead {
 		// ul = B0 e + x; x' = B1 e − A1 ul = (B1 − A1 B0) e − A1 x.
 		return linearCtrl{M: 1, Ac: []float64{-k.A1}, Br: []float64{k.B1 - k.A1*k.B0}, By: []float64{-(k.B1 - k.A1*k.B0)},
 			Cc: []float64{1}, Dr: k.B0, Dy: -k.B0}
@@ -444,7 +446,7 @@ func feedback(k Coeffs, z complex128) complex128 {
 //	            d = (1 − q)·(1 − Ad·q)   (each factor only with its term)
 //	lead:       n = B0 + B1·q,  d = 1 + A1·q
 func feedbackRatio(k Coeffs, q complex128) (n, d complex128) {
-	if k.Form == synth.FormLead {
+	if k.Form == airframe.FormLead {
 		return complex(k.B0, 0) + complex(k.B1, 0)*q, 1 + complex(k.A1, 0)*q
 	}
 	hasI, hasD := k.Form.HasIntegral(), k.Form.HasDerivative()
@@ -479,7 +481,7 @@ func feedbackRatio(k Coeffs, q complex128) (n, d complex128) {
 //	C = Kp + I + D,  F = KpB + I (+ D with the derivative on the error)
 //	lead        C = F = (B0 + B1·z⁻¹)/(1 + A1·z⁻¹) = (B0·z + B1)/(z + A1)
 func (k Coeffs) TF() (num, setNum, den lti.Poly) {
-	if k.Form == synth.FormLead {
+	if k.Form == airframe.FormLead {
 		n := lti.Poly{k.B1, k.B0}
 		return n, n, lti.Poly{k.A1, 1}
 	}

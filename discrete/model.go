@@ -1,6 +1,6 @@
 package discrete
 
-import "locusmith/synth"
+import "locusmith/airframe"
 
 // Float is the sample type of a floating-point controller.
 type Float interface{ ~float32 | ~float64 }
@@ -8,7 +8,7 @@ type Float interface{ ~float32 | ~float64 }
 // Params are Coeffs rounded to the sample type T, as the emitted code holds
 // them in named constants.
 type Params[T Float] struct {
-	Form              synth.Form
+	Form              airframe.Form
 	AntiWindup        AntiWindup
 	DerivativeOnError bool
 	Kp, KpB           T
@@ -50,7 +50,7 @@ type State[T Float] struct {
 // kick.
 func Reset[T Float](p *Params[T], s *State[T], output, measured T) {
 	*s = State[T]{}
-	if p.Form == synth.FormLead {
+	if p.Form == airframe.FormLead {
 		// ul = B0·e + x, and e = 0 at engagement.
 		s.S = output
 		return
@@ -87,7 +87,7 @@ func clamp[T Float](x, lo, hi T) T {
 // an explicit conversion rounds and prevents fusion), which keeps the
 // model bit-identical across CPU architectures.
 func Step[T Float](p *Params[T], s *State[T], r, y T) T {
-	if p.Form == synth.FormLead {
+	if p.Form == airframe.FormLead {
 		if s.Pending {
 			s.S = T(p.B1*s.E) - T(p.A1*s.Uu)
 		}

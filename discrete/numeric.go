@@ -8,6 +8,7 @@ import (
 	"strconv"
 	"strings"
 
+	"locusmith/airframe"
 	"locusmith/synth"
 )
 
@@ -67,7 +68,7 @@ type Range struct {
 
 // Realization is the numeric realization of one axis's controller.
 type Realization struct {
-	Type NumericType
+	Type airframe.NumericType
 	// W is the data word's width for fixed point (16, 32); 0 for float.
 	W                               int
 	InputFullScale, OutputFullScale float64
@@ -126,7 +127,7 @@ func coefSpecs(k *Coeffs) []coefSpec {
 		{name: "Lo", kind: kindLimit, val: func(c *Coeffs) *float64 { return &c.Lo }},
 		{name: "Hi", kind: kindLimit, val: func(c *Coeffs) *float64 { return &c.Hi }},
 	}
-	if k.Form == synth.FormLead {
+	if k.Form == airframe.FormLead {
 		return append([]coefSpec{
 			{"B0", kindGain, func(c *Coeffs) *float64 { return &c.B0 }, func(f *Fixed) *QCoeff { return &f.B0 }, true},
 			{"B1", kindGain, func(c *Coeffs) *float64 { return &c.B1 }, func(f *Fixed) *QCoeff { return &f.B1 }, true},
@@ -222,11 +223,11 @@ func RealizeNumeric(d *Design) (*Realization, error) {
 		return nil, fmt.Errorf("numeric realization: no design")
 	}
 	switch d.Numeric.Type {
-	case Float32, Float64:
+	case airframe.Float32, airframe.Float64:
 		return realizeFloat(d)
-	case Q15:
+	case airframe.Q15:
 		return realizeFixed(d, 16, true)
-	case Q31:
+	case airframe.Q31:
 		return realizeFixed(d, 32, true)
 	}
 	return nil, &InputError{Key: "numeric.type", Value: strconv.Quote(string(d.Numeric.Type)),
@@ -241,14 +242,14 @@ func realizeFloat(d *Design) (*Realization, error) {
 	for _, cs := range coefSpecs(&d.Coeffs) {
 		v := *cs.val(&d.Coeffs)
 		q := v
-		if t == Float32 {
+		if t == airframe.Float32 {
 			q = float64(float32(v))
 		}
 		*cs.val(&kq) = q
 		re.Coefficients = append(re.Coefficients, Coefficient{Name: cs.name, Value: v, Quantized: q, RelError: relErr(q, v), Format: string(t)})
 	}
 	re.QuantizedCoeffs = kq
-	if t == Float32 {
+	if t == airframe.Float32 {
 		if err := re.verifyQuantized(d, 0); err != nil {
 			return nil, err
 		}
@@ -324,7 +325,7 @@ func realizeFixed(d *Design, w int, checkResolution bool) (*Realization, error) 
 	k := d.Coeffs
 	if lim := math.Max(math.Abs(k.Lo), math.Abs(k.Hi)); lim > num.OutputFullScale {
 		return nil, &InputError{Key: "numeric.output_full_scale", Value: fmtNum(num.OutputFullScale),
-			Msg: fmt.Sprintf("must be ≥ the largest |output limit| %s of axis %s: the command word cannot hold the limit", fmtNum(lim), d.Problem.Axis)}
+			Msg: fmt.Sprintf("must be ≥ the largest |output limit| %s of axis %s: the command word cannot hold the limit", fmtNum(lim), d.Problem.Name)}
 	}
 	p := &fixedPlan{d: d, w: w, m: math.Ldexp(1, w-1), capA: math.Ldexp(1, 2*w-1) - 1, capD: math.Ldexp(1, w-1) - 1,
 		fin: num.InputFullScale, fout: num.OutputFullScale}
@@ -387,12 +388,12 @@ func (p *fixedPlan) resolution(re *Realization) error {
 	if band*aref/lsbIn < 16 {
 		return &InputError{Key: "numeric.input_full_scale", Value: fmtNum(p.fin), Msg: fmt.Sprintf(
 			"leaves %.1f bits (< 4) of resolution for the smallest step the spec needs on axis %s: the settling band ±%s of the reference step %s (the largest the loop follows without saturating the command) spans %.3g LSB of %s; use a full scale of at most %s, or q31",
-			re.InputResolutionBits, d.Problem.Axis, fmtNum(band*aref), fmtNum(aref), band*aref/lsbIn, fmtNum(lsbIn), fmtNum(band*aref*p.m/16))}
+			re.InputResolutionBits, d.Problem.Name, fmtNum(band*aref), fmtNum(aref), band*aref/lsbIn, fmtNum(lsbIn), fmtNum(band*aref*p.m/16))}
 	}
 	if band*lim/lsbOut < 16 {
 		return &InputError{Key: "numeric.output_full_scale", Value: fmtNum(p.fout), Msg: fmt.Sprintf(
 			"leaves %.1f bits (< 4) of command resolution on axis %s: the band ±%s of the output limit %s spans %.3g LSB of %s; use a full scale of at most %s, or q31",
-			re.OutputResolutionBits, d.Problem.Axis, fmtNum(band*lim), fmtNum(lim), band*lim/lsbOut, fmtNum(lsbOut), fmtNum(band*lim*p.m/16))}
+			re.OutputResolutionBits, d.Problem.Name, fmtNum(band*lim), fmtNum(lim), band*lim/lsbOut, fmtNum(lsbOut), fmtNum(band*lim*p.m/16))}
 	}
 	return nil
 }
@@ -586,7 +587,7 @@ func (p *fixedPlan) bounds() []entry {
 	}
 	add(row("error e = r − y", accFmt(0), emax, capA, nil))
 	var uu, ul float64 // sum bound (FU units)
-	if f.Form == synth.FormLead {
+	if f.Form == airframe.FormLead {
 		b0 := float64(f.B0.Raw) * math.Ldexp(1, -(f.B0.Frac-f.FU))
 		b1 := float64(f.B1.Raw) * math.Ldexp(1, -(f.B1.Frac-f.FU))
 		a1 := float64(f.A1.Raw) * math.Ldexp(1, -f.A1.Frac)
@@ -689,7 +690,7 @@ func (p *fixedPlan) bounds() []entry {
 		}
 	}
 	r := row("sum before saturation uu", accFmt(f.FU), uu, capA, &f.FU)
-	if f.Form == synth.FormLead {
+	if f.Form == airframe.FormLead {
 		r.Name = "lead output ul (before saturation)"
 		r.Note = "ℓ1 norm of (B0 + B1·z⁻¹)/(1 + A1·z⁻¹) times max|e|, plus rounding and the reset value"
 	}
@@ -776,7 +777,7 @@ func (p *fixedPlan) restBound() float64 {
 	var a float64
 	var fr int
 	switch {
-	case f.Form == synth.FormLead:
+	case f.Form == airframe.FormLead:
 		a, fr = float64(f.A1.Raw)*math.Ldexp(1, -f.A1.Frac), f.FU
 	case f.Form.HasDerivative():
 		a, fr = float64(f.Ad.Raw)*math.Ldexp(1, -f.Ad.Frac), f.FD
@@ -821,7 +822,7 @@ func (re *Realization) verifyQuantized(d *Design, w int) error {
 
 // quantizedChecks are the spec checks of a verification, named
 // quantized_<metric>.
-func quantizedChecks(s synth.Spec, v Verification) []synth.Check {
+func quantizedChecks(s airframe.Spec, v Verification) []synth.Check {
 	cs := synth.SpecChecks(s, v.Stable, 0, v.Step.Overshoot, v.Step.Settling, v.Margins.PhaseDeg, v.Margins.GainDB)
 	cs[0] = synth.Check{Name: "stable", Limit: 1, Value: 1 - v.StabilityMargin, Upper: true, OK: v.Stable}
 	for i := range cs {
@@ -1057,7 +1058,7 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 	// 4. Zero input.
 	slow := 0.0
 	switch {
-	case k.Form == synth.FormLead:
+	case k.Form == airframe.FormLead:
 		slow = math.Abs(k.A1)
 	case k.Form.HasDerivative():
 		slow = math.Abs(k.Ad)
@@ -1087,7 +1088,7 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 // Bd(1 − q)/(1 − Ad·q) for the PID family, (B0 + B1·q)/(1 + A1·q) for lead.
 func numericFeedback(k Coeffs, z complex128) complex128 {
 	q := 1 / z
-	if k.Form == synth.FormLead {
+	if k.Form == airframe.FormLead {
 		return (complex(k.B0, 0) + complex(k.B1, 0)*q) / (1 + complex(k.A1, 0)*q)
 	}
 	v := complex(k.Kp, 0)

@@ -40,19 +40,19 @@ func TestExamplesRealize(t *testing.T) {
 		for _, p := range f.Axes {
 			d, err := discrete.DesignAxis(p, f.Loop, f.Numeric)
 			if err != nil {
-				t.Errorf("%s axis %s: %v", path, p.Axis, err)
+				t.Errorf("%s axis %s: %v", path, p.Name, err)
 				continue
 			}
 			checks, failed := numericChecks(d)
 			if len(failed) > 0 {
-				t.Errorf("%s axis %s: numeric checks fail: %v\n%s", path, p.Axis, failed, strings.Join(d.Num.Warnings, "\n"))
+				t.Errorf("%s axis %s: numeric checks fail: %v\n%s", path, p.Name, failed, strings.Join(d.Num.Warnings, "\n"))
 			}
 			if f.Numeric.Type.IsFixed() {
 				fixed++
 				if len(d.Num.Ranges) == 0 || d.Num.Fixed == nil || !strings.Contains(strings.Join(checks, " "), "overflow") {
-					t.Errorf("%s axis %s: no fixed-point realization", path, p.Axis)
+					t.Errorf("%s axis %s: no fixed-point realization", path, p.Name)
 				}
-				t.Logf("%s %s: max error %.3f LSB, SQNR %.1f dB, rest %g LSB", filepath.Base(path), p.Axis, d.Num.MaxErrorLSB, d.Num.SQNRdB, d.Num.RestLSB)
+				t.Logf("%s %s: max error %.3f LSB, SQNR %.1f dB, rest %g LSB", filepath.Base(path), p.Name, d.Num.MaxErrorLSB, d.Num.SQNRdB, d.Num.RestLSB)
 			}
 		}
 	}
@@ -70,7 +70,7 @@ func TestOverRangedAirframe(t *testing.T) {
 		t.Fatal(err)
 	}
 	for _, p := range f.Axes {
-		if p.Axis != "pitch" {
+		if p.Name != "pitch" {
 			continue
 		}
 		d, err := discrete.DesignAxis(p, f.Loop, f.Numeric)

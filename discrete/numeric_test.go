@@ -8,6 +8,7 @@ import (
 	"strings"
 	"testing"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
 	"locusmith/internal/pyref"
 	"locusmith/synth"
@@ -64,8 +65,8 @@ func itoa(i int) string { return big.NewInt(int64(i)).String() }
 // roundings of the design's (relative error ≤ 2^−24, half an ulp), float64
 // ones are exact, and float32 re-verifies the loop with its coefficients.
 func TestFloatRealization(t *testing.T) {
-	for _, nt := range []NumericType{Float32, Float64} {
-		d, err := DesignAxis(numProblem(synth.FormPID), Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: nt})
+	for _, nt := range []airframe.NumericType{airframe.Float32, airframe.Float64} {
+		d, err := DesignAxis(numProblem(airframe.FormPID), airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: nt})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -78,20 +79,20 @@ func TestFloatRealization(t *testing.T) {
 				t.Errorf("%s: %s format %q", nt, c.Name, c.Format)
 			}
 			lim := 0.0
-			if nt == Float32 {
+			if nt == airframe.Float32 {
 				lim = 0x1p-24
 			}
 			if math.Abs(c.RelError) > lim {
 				t.Errorf("%s: %s relative error %g > %g", nt, c.Name, c.RelError, lim)
 			}
-			if nt == Float32 && c.Quantized != float64(float32(c.Value)) {
+			if nt == airframe.Float32 && c.Quantized != float64(float32(c.Value)) {
 				t.Errorf("%s: %s quantized %v", nt, c.Name, c.Quantized)
 			}
 		}
-		if (re.Quantized != nil) != (nt == Float32) {
+		if (re.Quantized != nil) != (nt == airframe.Float32) {
 			t.Errorf("%s: quantized verification present: %v", nt, re.Quantized != nil)
 		}
-		if nt == Float32 {
+		if nt == airframe.Float32 {
 			n := 0
 			for _, c := range re.Checks {
 				if strings.HasPrefix(c.Name, "quantized_") {
@@ -112,7 +113,7 @@ func TestFloatRealization(t *testing.T) {
 // (B0·z + B1)/(z + A1).
 func ctrlPolys(k Coeffs) (nc, dc lti.Poly) {
 	zm1 := lti.Poly{-1, 1}
-	if k.Form == synth.FormLead {
+	if k.Form == airframe.FormLead {
 		return lti.Poly{k.B1, k.B0}, lti.Poly{k.A1, 1}
 	}
 	dc = lti.Poly{1}
@@ -287,7 +288,7 @@ func nearest(ps []complex128, p complex128) complex128 {
 // TestResponsibleCoefficient spoils one coefficient of an otherwise exact
 // realization and expects the quantized check to fail and name it.
 func TestResponsibleCoefficient(t *testing.T) {
-	d, err := DesignAxis(numProblem(synth.FormPID), Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Float64})
+	d, err := DesignAxis(numProblem(airframe.FormPID), airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float64})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -295,7 +296,7 @@ func TestResponsibleCoefficient(t *testing.T) {
 		t.Fatalf("the demo design fails: %+v", d.Checks)
 	}
 	for _, spoil := range []string{"Kp", "Bd", "G01"} {
-		re := &Realization{Type: Q15}
+		re := &Realization{Type: airframe.Q15}
 		kq := d.Coeffs
 		for _, cs := range coefSpecs(&d.Coeffs) {
 			v := *cs.val(&d.Coeffs)
@@ -402,23 +403,23 @@ func eightBitNamesResponsible(t *testing.T, c numCase) {
 // TestNumericInputErrors: the bad numeric settings are *InputError with
 // the key.
 func TestNumericInputErrors(t *testing.T) {
-	base := numProblem(synth.FormPID)
+	base := numProblem(airframe.FormPID)
 	cases := []struct {
 		name string
-		num  Numeric
+		num  airframe.Numeric
 		key  string
 		msg  string
 	}{
-		{"input full scale too coarse", Numeric{Type: Q15, InputFullScale: 5000, OutputFullScale: 1}, "numeric.input_full_scale", "bits (< 4) of resolution"},
-		{"output full scale too coarse", Numeric{Type: Q15, InputFullScale: 100, OutputFullScale: 2000}, "numeric.output_full_scale", "bits (< 4) of command resolution"},
-		{"limit beyond output full scale", Numeric{Type: Q31, InputFullScale: 100, OutputFullScale: 0.5}, "numeric.output_full_scale", "cannot hold the limit"},
-		{"zero full scale", Numeric{Type: Q15, InputFullScale: 0, OutputFullScale: 1}, "numeric.input_full_scale", "finite number > 0"},
-		{"infinite full scale", Numeric{Type: Q31, InputFullScale: 100, OutputFullScale: math.Inf(1)}, "numeric.output_full_scale", "finite number > 0"},
-		{"NaN full scale", Numeric{Type: Q31, InputFullScale: math.NaN(), OutputFullScale: 1}, "numeric.input_full_scale", "finite number > 0"},
-		{"unknown type", Numeric{Type: "q7"}, "numeric.type", "must be one of"},
+		{"input full scale too coarse", airframe.Numeric{Type: airframe.Q15, InputFullScale: 5000, OutputFullScale: 1}, "numeric.input_full_scale", "bits (< 4) of resolution"},
+		{"output full scale too coarse", airframe.Numeric{Type: airframe.Q15, InputFullScale: 100, OutputFullScale: 2000}, "numeric.output_full_scale", "bits (< 4) of command resolution"},
+		{"limit beyond output full scale", airframe.Numeric{Type: airframe.Q31, InputFullScale: 100, OutputFullScale: 0.5}, "numeric.output_full_scale", "cannot hold the limit"},
+		{"zero full scale", airframe.Numeric{Type: airframe.Q15, InputFullScale: 0, OutputFullScale: 1}, "numeric.input_full_scale", "finite number > 0"},
+		{"infinite full scale", airframe.Numeric{Type: airframe.Q31, InputFullScale: 100, OutputFullScale: math.Inf(1)}, "numeric.output_full_scale", "finite number > 0"},
+		{"NaN full scale", airframe.Numeric{Type: airframe.Q31, InputFullScale: math.NaN(), OutputFullScale: 1}, "numeric.input_full_scale", "finite number > 0"},
+		{"unknown type", airframe.Numeric{Type: "q7"}, "numeric.type", "must be one of"},
 	}
 	for _, tc := range cases {
-		_, err := DesignAxis(base, Loop{Hz: 1000, ComputeDelay: 1}, tc.num)
+		_, err := DesignAxis(base, airframe.Loop{Hz: 1000, ComputeDelay: 1}, tc.num)
 		var ie *InputError
 		if !errors.As(err, &ie) {
 			t.Errorf("%s: error %v, want an *InputError", tc.name, err)
@@ -431,7 +432,7 @@ func TestNumericInputErrors(t *testing.T) {
 	// The 5000 rad/s q15 case in numbers: LSB 5000/2^15 ≈ 0.15, against
 	// the settling band of the reference step (common practice: a 4-bit
 	// margin is 16 LSB).
-	d, err := DesignAxis(base, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Q31, InputFullScale: 5000, OutputFullScale: 1})
+	d, err := DesignAxis(base, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Q31, InputFullScale: 5000, OutputFullScale: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -449,9 +450,9 @@ func TestNumericInputErrors(t *testing.T) {
 // accumulator holds at q15 (demo data) fails the overflow check, and the
 // warning names the variable, its bound and capacity and a way out.
 func TestOverflowCheckFails(t *testing.T) {
-	p := numProblem(synth.FormPID)
+	p := numProblem(airframe.FormPID)
 	p.Ctrl.IntegratorLimit = 1e5
-	d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Q15, InputFullScale: 100, OutputFullScale: 1})
+	d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Q15, InputFullScale: 100, OutputFullScale: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -471,7 +472,7 @@ func TestOverflowCheckFails(t *testing.T) {
 		}
 	}
 	// q31 holds it.
-	d, err = DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Q31, InputFullScale: 100, OutputFullScale: 1})
+	d, err = DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Q31, InputFullScale: 100, OutputFullScale: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -503,8 +504,8 @@ func TestRangesConsistent(t *testing.T) {
 // scaling, formats and bounds, the quantized re-verification and the
 // accuracy run against the float64 model (target ≤ 1 ms).
 func BenchmarkFixedAxis(b *testing.B) {
-	p := numProblem(synth.FormPID)
-	d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: Q15, InputFullScale: 100, OutputFullScale: 1})
+	p := numProblem(airframe.FormPID)
+	d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Q15, InputFullScale: 100, OutputFullScale: 1})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -525,15 +526,15 @@ func FuzzRealizeNumeric(f *testing.F) {
 	f.Add(5000.0, 1.0, 0.5, uint8(1), true)
 	f.Add(math.Inf(1), math.NaN(), -1.0, uint8(2), false)
 	f.Fuzz(func(t *testing.T, fin, fout, il float64, form uint8, q31 bool) {
-		p := numProblem(synth.Forms[int(form)%len(synth.Forms)])
+		p := numProblem(airframe.Forms()[int(form)%len(airframe.Forms())])
 		if il > 0 && !math.IsInf(il, 0) {
 			p.Ctrl.IntegratorLimit = il
 		}
-		nt := Q15
+		nt := airframe.Q15
 		if q31 {
-			nt = Q31
+			nt = airframe.Q31
 		}
-		d, err := DesignAxis(p, Loop{Hz: 1000, ComputeDelay: 1}, Numeric{Type: nt, InputFullScale: fin, OutputFullScale: fout})
+		d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: nt, InputFullScale: fin, OutputFullScale: fout})
 		if err != nil {
 			return
 		}

@@ -5,8 +5,8 @@ import (
 	"math/cmplx"
 	"slices"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
-	"locusmith/synth"
 )
 
 // Plant is the sampled plant seen by the controller: one state vector, the
@@ -37,7 +37,7 @@ type Plant struct {
 }
 
 // NewPlant samples the problem's plant and sensor at period T.
-func NewPlant(p synth.Problem, T float64) (Plant, error) {
+func NewPlant(p airframe.Axis, T float64) (Plant, error) {
 	// Section-by-section realizations keep the matrix exponential
 	// accurate (see lti.ZPK.CascadeSS).
 	gs, err := p.Plant.Model.CascadeSS()

@@ -5,8 +5,8 @@ import (
 	"math"
 	"math/cmplx"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
-	"locusmith/synth"
 )
 
 // Verification is the behaviour of the sampled loop.
@@ -92,7 +92,7 @@ func stabilityMargin(ps []complex128) float64 {
 
 // Verify analyses the sampled loop of coefficients k on plant pl with
 // compute delay d against the problem's spec.
-func Verify(p synth.Problem, pl Plant, k Coeffs, d int) (Verification, error) {
+func Verify(p airframe.Axis, pl Plant, k Coeffs, d int) (Verification, error) {
 	return verify(p, pl, k, d, math.Inf(1))
 }
 
@@ -101,7 +101,7 @@ func Verify(p synth.Problem, pl Plant, k Coeffs, d int) (Verification, error) {
 // maxStep of 0 leaves the saturated step out (Saturated is zero), for the
 // re-verification with quantized coefficients, which reports the linear
 // figures alone.
-func verify(p synth.Problem, pl Plant, k Coeffs, d int, maxStep float64) (Verification, error) {
+func verify(p airframe.Axis, pl Plant, k Coeffs, d int, maxStep float64) (Verification, error) {
 	var v Verification
 	c := linearize(k)
 	L := newClosedLoop(pl, c, d)
@@ -134,7 +134,7 @@ func verify(p synth.Problem, pl Plant, k Coeffs, d int, maxStep float64) (Verifi
 // and the sensor's poles and zeros, and 4/Ts), widened by two decades: the
 // margin sweeps start there, where the phase is within about 0.6° of its
 // low-frequency asymptote.
-func spanOf(p synth.Problem) (lo, hi float64) {
+func spanOf(p airframe.Axis) (lo, hi float64) {
 	lo, hi = math.Inf(1), 0.0
 	for _, rs := range [][]complex128{p.Plant.Model.Poles, p.Plant.Model.Zeros, p.Sensor.Poles, p.Sensor.Zeros} {
 		for _, r := range rs {
@@ -151,7 +151,7 @@ func spanOf(p synth.Problem) (lo, hi float64) {
 // saturated simulates a setpoint step that would need twice the output
 // limit in the linear loop, with the nonlinear reference model, with the
 // configured anti-windup and with none.
-func saturated(p synth.Problem, pl Plant, k Coeffs, d int, ulin []float64, dc float64, n int, maxStep float64) Saturated {
+func saturated(p airframe.Axis, pl Plant, k Coeffs, d int, ulin []float64, dc float64, n int, maxStep float64) Saturated {
 	peak := 0.0
 	for _, u := range ulin {
 		peak = math.Max(peak, math.Abs(u))

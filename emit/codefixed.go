@@ -6,6 +6,7 @@ import (
 	"strconv"
 	"strings"
 
+	"locusmith/airframe"
 	"locusmith/discrete"
 )
 
@@ -95,14 +96,14 @@ func codeFixedFuncs() map[string]any {
 }
 
 // newCodeFixedNumeric returns the fixed-point arithmetic of t in l.
-func newCodeFixedNumeric(t discrete.NumericType, l Lang) (codeNumeric, error) {
+func newCodeFixedNumeric(t airframe.NumericType, l Lang) (codeNumeric, error) {
 	n := codeNumeric{kind: t, fixed: true, zero: "0"}
 	c := l == LangC
 	switch t {
-	case discrete.Q15:
+	case airframe.Q15:
 		n.bits = 16
 		n.t, n.wide = pick(c, "int16_t", "int16"), pick(c, "int32_t", "int32")
-	case discrete.Q31:
+	case airframe.Q31:
 		n.bits = 32
 		n.t, n.wide = pick(c, "int32_t", "int32"), pick(c, "int64_t", "int64")
 	default:

@@ -4,13 +4,14 @@ import (
 	"fmt"
 	"math"
 
+	"locusmith/airframe"
 	"locusmith/discrete"
 )
 
 // codeNumeric is the arithmetic of the generated code: the sample type's
 // names and how constants and test vectors are made for it.
 type codeNumeric struct {
-	kind  discrete.NumericType
+	kind  airframe.NumericType
 	t     string // sample type
 	zero  string // its zero literal
 	wide  string // fixed point: accumulator type
@@ -19,17 +20,17 @@ type codeNumeric struct {
 }
 
 // newCodeNumeric returns the arithmetic of numeric type t in language l.
-func newCodeNumeric(t discrete.NumericType, l Lang) (codeNumeric, error) {
+func newCodeNumeric(t airframe.NumericType, l Lang) (codeNumeric, error) {
 	n := codeNumeric{kind: t}
 	c := l == LangC
 	switch t {
-	case discrete.Float32:
+	case airframe.Float32:
 		n.bits = 32
 		n.t, n.zero = pick(c, "float", "float32"), pick(c, "0.0f", "0")
-	case discrete.Float64:
+	case airframe.Float64:
 		n.bits = 64
 		n.t, n.zero = pick(c, "double", "float64"), pick(c, "0.0", "0")
-	case discrete.Q15, discrete.Q31:
+	case airframe.Q15, airframe.Q31:
 		return newCodeFixedNumeric(t, l)
 	default:
 		return n, fmt.Errorf("unknown numeric type %q: must be float32, float64, q15 or q31", t)
@@ -47,9 +48,9 @@ func pick(c bool, a, b string) string {
 // consts fills the named constants of axis ax.
 func (n codeNumeric) consts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
 	switch n.kind {
-	case discrete.Float32:
+	case airframe.Float32:
 		return floatConsts[float32](u, ax, d.Coeffs)
-	case discrete.Float64:
+	case airframe.Float64:
 		return floatConsts[float64](u, ax, d.Coeffs)
 	}
 	return fixedConsts(u, ax, d)
@@ -58,9 +59,9 @@ func (n codeNumeric) consts(u *codeUnit, ax *codeAxis, d *discrete.Design) error
 // vectors runs the reference model on the standard excitation.
 func (n codeNumeric) vectors(u *codeUnit, ax *codeAxis, d *discrete.Design) ([]codeVector, error) {
 	switch n.kind {
-	case discrete.Float32:
+	case airframe.Float32:
 		return floatVectors[float32](u, d)
-	case discrete.Float64:
+	case airframe.Float64:
 		return floatVectors[float64](u, d)
 	}
 	return fixedVectors(u, ax, d)

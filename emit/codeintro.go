@@ -5,8 +5,8 @@ import (
 	"math"
 	"strings"
 
+	"locusmith/airframe"
 	"locusmith/discrete"
-	"locusmith/synth"
 )
 
 // The comment at the top of every generated file, after the "Code
@@ -38,7 +38,7 @@ func codeDigits(x float64, n int) string {
 	return fmt.Sprintf("%.*g", n, x)
 }
 
-func codeIntro(a *Airframe, u *codeUnit, unmet []string) []string {
+func codeIntro(a *discrete.Airframe, u *codeUnit, unmet []string) []string {
 	f := a.File
 	var l []string
 	add := func(s string) { l = append(l, commentLines(s, introWidth)...) }
@@ -56,7 +56,7 @@ func codeIntro(a *Airframe, u *codeUnit, unmet []string) []string {
 	}
 	add("Airframe " + f.Airframe + desc)
 	add(fmt.Sprintf("Rate loop at %s Hz (T = %s s), compute delay %d sample%s; %s.",
-		codeNum(f.Loop.Hz), codeNum(1/f.Loop.Hz), f.Loop.ComputeDelay, tabPlural(f.Loop.ComputeDelay), numericPhrase(f.Numeric)))
+		codeNum(f.Loop.Hz), codeNum(1/f.Loop.Hz), f.Loop.ComputeDelay, plural(f.Loop.ComputeDelay), numericPhrase(f.Numeric)))
 	if len(unmet) > 0 {
 		blank()
 		add("WARNING: GENERATED WITH --allow-unmet. THIS AIRFRAME FAILS ITS DESIGN CHECKS:")
@@ -85,25 +85,25 @@ func codeIntro(a *Airframe, u *codeUnit, unmet []string) []string {
 }
 
 // numericPhrase names the arithmetic of the generated code.
-func numericPhrase(n discrete.Numeric) string {
+func numericPhrase(n airframe.Numeric) string {
 	switch n.Type {
-	case discrete.Float32:
+	case airframe.Float32:
 		return "float32 arithmetic"
-	case discrete.Float64:
+	case airframe.Float64:
 		return "float64 arithmetic"
 	}
 	return fmt.Sprintf("%s fixed point (input full scale %s, output full scale %s)", n.Type, codeNum(n.InputFullScale), codeNum(n.OutputFullScale))
 }
 
 // axisSummary writes the design summary of one axis.
-func axisSummary(add, indent func(string), u *codeUnit, x Axis, ax *codeAxis) {
+func axisSummary(add, indent func(string), u *codeUnit, x discrete.Outcome, ax *codeAxis) {
 	d := x.Design
 	c := d.Cont
 	k := d.Coeffs
 	form := string(k.Form)
 	var gains string
 	switch k.Form {
-	case synth.FormLead:
+	case airframe.FormLead:
 		gains = fmt.Sprintf("K = %s, zero %s rad/s, pole %s rad/s", codeNum(c.Ctrl.K), codeNum(c.Ctrl.Zero), codeNum(c.Ctrl.Pole))
 	default:
 		g := []string{"Kp = " + codeNum(c.Ctrl.Kp)}
@@ -170,10 +170,10 @@ func axisSummary(add, indent func(string), u *codeUnit, x Axis, ax *codeAxis) {
 }
 
 // axisDoc is the comment of an axis's state type.
-func axisDoc(u *codeUnit, x Axis) []string {
-	form := map[synth.Form]string{
-		synth.FormP: "P", synth.FormPI: "PI", synth.FormPD: "PD with filtered derivative",
-		synth.FormPID: "PID with filtered derivative", synth.FormLead: "lead compensator",
+func axisDoc(u *codeUnit, x discrete.Outcome) []string {
+	form := map[airframe.Form]string{
+		airframe.FormP: "P", airframe.FormPI: "PI", airframe.FormPD: "PD with filtered derivative",
+		airframe.FormPID: "PID with filtered derivative", airframe.FormLead: "lead compensator",
 	}[x.Design.Coeffs.Form]
 	return commentLines(fmt.Sprintf("State of the %s rate controller of axis %s (%s). Call reset before the first step.", u.Airframe, x.Name, form), introWidth)
 }
@@ -205,4 +205,12 @@ func resetText(ax *codeAxis) string {
 // function named name.
 func resetDoc(name string, ax *codeAxis) []string {
 	return commentLines(name+" "+resetText(ax), introWidth)
+}
+
+// plural is the "s" of a count other than one.
+func plural(n int) string {
+	if n == 1 {
+		return ""
+	}
+	return "s"
 }

@@ -10,6 +10,7 @@ import (
 	"strings"
 	"testing"
 
+	"locusmith/airframe"
 	"locusmith/discrete"
 	"locusmith/emit"
 )
@@ -113,9 +114,9 @@ func TestClosedLoopC(t *testing.T) {
 	cc := hostCompilers(t)[0]
 	for _, p := range examplePaths(t) {
 		t.Run(exampleName(p), func(t *testing.T) {
-			a := design(t, p, discrete.Float32)
+			a := design(t, p, airframe.Float32)
 			var req []map[string]any
-			var axes []emit.Axis
+			var axes []discrete.Outcome
 			for _, x := range a.Axes {
 				d := x.Design
 				T := 1 / d.Loop.Hz
@@ -148,7 +149,7 @@ func TestClosedLoopC(t *testing.T) {
 				t.Fatalf("SciPy output: %v\n%s", err, out)
 			}
 			t.Logf("plants sampled by SciPy %s cont2discrete(zoh)", res.SciPy)
-			srcs := generate(t, p, variant{name: "float32", lang: emit.LangC, numeric: discrete.Float32})
+			srcs := generate(t, p, variant{name: "float32", lang: emit.LangC, numeric: airframe.Float32})
 			var prog strings.Builder
 			fmt.Fprintf(&prog, "#include <stdio.h>\n#include \"%s\"\n\n", headerOf(srcs))
 			prog.WriteString("int main(void)\n{\n")

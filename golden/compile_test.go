@@ -10,7 +10,7 @@ import (
 	"strings"
 	"testing"
 
-	"locusmith/discrete"
+	"locusmith/airframe"
 	"locusmith/emit"
 )
 
@@ -444,7 +444,7 @@ func TestStepInstructionCounts(t *testing.T) {
 	fmt.Fprintf(&table, "| example | function | numeric | instructions | of them arithmetic | arithmetic ops of the equations | instructions / ops |\n|---|---|---|---|---|---|---|\n")
 	for _, p := range examplePaths(t) {
 		for _, nt := range []string{"float32", "q15"} {
-			v := variant{name: nt, lang: emit.LangC, numeric: discrete.NumericType(nt)}
+			v := variant{name: nt, lang: emit.LangC, numeric: airframe.NumericType(nt)}
 			dir, objs := armObjects(t, cc, m4f, goldenSources(t, p, v))
 			sizes := stepSizes(run(t, dir, objdump, "-d", objs[0]))
 			a := design(t, p, v.numeric)

@@ -13,7 +13,7 @@ import (
 	"sync"
 	"testing"
 
-	"locusmith/discrete"
+	"locusmith/airframe"
 )
 
 // builtCLI builds cmd/locusmith once per test binary for a GOARCH.
@@ -84,7 +84,7 @@ func buildCLI(t testing.TB, goarch string) string {
 // fixedCopy writes a copy of example p into dir/examples with its
 // numeric type set to nt (and full scales added when the file has none)
 // and the airframe renamed <name>_<nt>, and returns its relative path.
-func fixedCopy(t *testing.T, dir, p string, nt discrete.NumericType) string {
+func fixedCopy(t *testing.T, dir, p string, nt airframe.NumericType) string {
 	t.Helper()
 	src, err := os.ReadFile(p)
 	if err != nil {
@@ -189,7 +189,7 @@ func TestCrossArchDeterminism(t *testing.T) {
 			t.Fatal(err)
 		}
 		inputs = append(inputs, rel)
-		for _, nt := range []discrete.NumericType{discrete.Float32, discrete.Q15, discrete.Q31} {
+		for _, nt := range []airframe.NumericType{airframe.Float32, airframe.Q15, airframe.Q31} {
 			if design(t, p, "").File.Numeric.Type != nt {
 				inputs = append(inputs, fixedCopy(t, work, p, nt))
 			}

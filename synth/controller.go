@@ -4,6 +4,7 @@ import (
 	"math"
 	"strconv"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
 )
 
@@ -14,7 +15,7 @@ import (
 // on the error) on the setpoint, so u = F·r − C·y_m. For the lead form,
 // C(s) = F(s) = K(s − Zero)/(s − Pole) acts on the error.
 type Controller struct {
-	Form              Form
+	Form              airframe.Form
 	Kp, Ki, Kd        float64
 	Tf                float64 // derivative filter time constant, s
 	B                 float64 // setpoint weight on P
@@ -25,13 +26,13 @@ type Controller struct {
 // den returns the common denominator of C and F.
 func (c Controller) den() lti.Poly {
 	switch c.Form {
-	case FormPI:
+	case airframe.FormPI:
 		return lti.Poly{0, 1}
-	case FormPD:
+	case airframe.FormPD:
 		return lti.Poly{1, c.Tf}
-	case FormPID:
+	case airframe.FormPID:
 		return lti.Poly{0, 1, c.Tf}
-	case FormLead:
+	case airframe.FormLead:
 		return lti.Poly{-c.Pole, 1}
 	}
 	return lti.Poly{1}
@@ -41,15 +42,15 @@ func (c Controller) den() lti.Poly {
 func (c Controller) TF() lti.TF {
 	var n lti.Poly
 	switch c.Form {
-	case FormP:
+	case airframe.FormP:
 		n = lti.Poly{c.Kp}
-	case FormPI:
+	case airframe.FormPI:
 		n = lti.Poly{c.Ki, c.Kp}
-	case FormPD:
+	case airframe.FormPD:
 		n = lti.Poly{c.Kp, c.Kp*c.Tf + c.Kd}
-	case FormPID:
+	case airframe.FormPID:
 		n = lti.Poly{c.Ki, c.Kp + c.Ki*c.Tf, c.Kp*c.Tf + c.Kd}
-	case FormLead:
+	case airframe.FormLead:
 		n = lti.Poly{-c.K * c.Zero, c.K}
 	}
 	return lti.TF{Num: n, Den: c.den()}
@@ -63,15 +64,15 @@ func (c Controller) Setpoint() lti.TF {
 		kd = c.Kd
 	}
 	switch c.Form {
-	case FormP:
+	case airframe.FormP:
 		n = lti.Poly{c.B * c.Kp}
-	case FormPI:
+	case airframe.FormPI:
 		n = lti.Poly{c.Ki, c.B * c.Kp}
-	case FormPD:
+	case airframe.FormPD:
 		n = lti.Poly{c.B * c.Kp, c.B*c.Kp*c.Tf + kd}
-	case FormPID:
+	case airframe.FormPID:
 		n = lti.Poly{c.Ki, c.B*c.Kp + c.Ki*c.Tf, c.B*c.Kp*c.Tf + kd}
-	case FormLead:
+	case airframe.FormLead:
 		return c.TF()
 	}
 	return lti.TF{Num: n, Den: c.den()}
@@ -80,7 +81,7 @@ func (c Controller) Setpoint() lti.TF {
 // Eval returns C(s).
 func (c Controller) Eval(s complex128) complex128 {
 	switch c.Form {
-	case FormLead:
+	case airframe.FormLead:
 		return complex(c.K, 0) * (s - complex(c.Zero, 0)) / (s - complex(c.Pole, 0))
 	}
 	v := complex(c.Kp, 0)
@@ -113,9 +114,9 @@ func (c Controller) Series() (lti.ZPK, error) {
 // minimizes it, as it sets how much gyro noise reaches the actuators.
 func (c Controller) HighFrequencyGain() float64 {
 	switch c.Form {
-	case FormLead:
+	case airframe.FormLead:
 		return math.Abs(c.K)
-	case FormPD, FormPID:
+	case airframe.FormPD, airframe.FormPID:
 		if c.Tf > 0 {
 			return c.Kp + c.Kd/c.Tf
 		}

@@ -4,6 +4,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
+
+	"locusmith/airframe"
 )
 
 // Stage is one placement and its verification.
@@ -14,18 +16,9 @@ type Stage struct {
 	Verif   Verification
 }
 
-// Check is one pass/fail comparison against the spec.
-type Check struct {
-	Name  string  // e.g. "overshoot"
-	Limit float64 // the spec's bound
-	Value float64 // what the design achieves
-	Upper bool    // true when Value must not exceed Limit, false when it must reach it
-	OK    bool
-}
-
 // Design is the continuous design of one axis.
 type Design struct {
-	Problem Problem
+	Problem airframe.Axis
 	// Stage is the design chosen: the refined one when refinement ran.
 	Stage
 	// Textbook is the unrefined placement at the spec's target, when
@@ -56,10 +49,10 @@ func (d *Design) OK() bool {
 // full-order response meets the spec as judged by eval (nil: the continuous
 // loop). An *InfeasibleError is returned when the form cannot place any
 // stable design.
-func DesignAxis(p Problem, eval Evaluator) (*Design, error) {
+func DesignAxis(p airframe.Axis, eval Evaluator) (*Design, error) {
 	t, err := TargetFromSpec(p.Spec)
 	if err != nil {
-		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
 	if eval == nil {
 		eval = ContinuousEvaluator(p)
@@ -71,11 +64,11 @@ func DesignAxis(p Problem, eval Evaluator) (*Design, error) {
 	if tbErr != nil {
 		var inf *InfeasibleError
 		if !errors.As(tbErr, &inf) {
-			return nil, fmt.Errorf("axis %s: %w", p.Axis, tbErr)
+			return nil, fmt.Errorf("axis %s: %w", p.Name, tbErr)
 		}
 		inf.Reach = reach(p, t.Zeta)
 		if !p.Ctrl.Refine {
-			return nil, fmt.Errorf("axis %s: %w", p.Axis, inf)
+			return nil, fmt.Errorf("axis %s: %w", p.Name, inf)
 		}
 		d.TextbookErr = inf.Error()
 		d.Warnings = append(d.Warnings, "textbook placement: "+inf.Error())
@@ -89,13 +82,13 @@ func DesignAxis(p Problem, eval Evaluator) (*Design, error) {
 	c, met, err := refine(p, eval)
 	if err != nil {
 		if tbErr != nil {
-			return nil, fmt.Errorf("axis %s: %w", p.Axis, tbErr)
+			return nil, fmt.Errorf("axis %s: %w", p.Name, tbErr)
 		}
-		return nil, fmt.Errorf("axis %s: refinement: %w", p.Axis, err)
+		return nil, fmt.Errorf("axis %s: refinement: %w", p.Name, err)
 	}
 	st, err := verifyStage(p, c.target, c.ctrl, true)
 	if err != nil {
-		return nil, fmt.Errorf("axis %s: %w", p.Axis, err)
+		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
 	d.Stage, d.Refined, d.Met = st, true, met
 	if tbErr == nil && (tb.Ctrl != st.Ctrl) {
@@ -108,10 +101,10 @@ func DesignAxis(p Problem, eval Evaluator) (*Design, error) {
 	return d, nil
 }
 
-func placeStage(p Problem, t Target, margins bool) (Stage, error) {
+func placeStage(p airframe.Axis, t Target, margins bool) (Stage, error) {
 	var c Controller
 	var err error
-	if p.Ctrl.Form == FormP {
+	if p.Ctrl.Form == airframe.FormP {
 		c, t, err = PlaceP(p, t.Zeta)
 	} else {
 		c, err = Place(p, t)
@@ -124,12 +117,12 @@ func placeStage(p Problem, t Target, margins bool) (Stage, error) {
 
 // verifyStage verifies the placed controller; without margins the
 // Verification's Margins are NaN.
-func verifyStage(p Problem, t Target, c Controller, margins bool) (Stage, error) {
+func verifyStage(p airframe.Axis, t Target, c Controller, margins bool) (Stage, error) {
 	v, err := verify(p, c, t, margins)
 	if err != nil {
 		return Stage{}, err
 	}
-	return Stage{Target: t, Ctrl: c, Working: p.NewWorking(t.Pole), Verif: v}, nil
+	return Stage{Target: t, Ctrl: c, Working: NewWorking(p, t.Pole), Verif: v}, nil
 }
 
 // finish fills the checks and collects warnings of the chosen stage.
@@ -139,22 +132,6 @@ func (d *Design) finish() {
 	if e := d.Verif.SteadyStateError; d.Verif.Stable && math.Abs(e) > d.Problem.Spec.Band {
 		d.Warnings = append(d.Warnings, fmt.Sprintf("steady-state error %.3g %% of the setpoint (the %s form has no integral action on this plant); the settling check is against the final value", 100*e, d.Problem.Ctrl.Form))
 	}
-}
-
-// SpecChecks compares the achieved figures with the spec.
-func SpecChecks(s Spec, stable bool, maxRe, overshoot, settling, pm, gm float64) []Check {
-	cs := []Check{
-		{Name: "stable", Limit: 0, Value: maxRe, Upper: true, OK: stable},
-		{Name: "overshoot", Limit: s.Overshoot, Value: overshoot, Upper: true, OK: stable && overshoot <= s.Overshoot},
-		{Name: "settling_time", Limit: s.SettlingTime, Value: settling, Upper: true, OK: stable && settling <= s.SettlingTime},
-	}
-	if s.MinPhaseMargin > 0 {
-		cs = append(cs, Check{Name: "phase_margin", Limit: s.MinPhaseMargin, Value: pm, OK: stable && pm >= s.MinPhaseMargin})
-	}
-	if s.MinGainMargin > 0 {
-		cs = append(cs, Check{Name: "gain_margin", Limit: s.MinGainMargin, Value: gm, OK: stable && gm >= s.MinGainMargin})
-	}
-	return cs
 }
 
 func maxReal(ps []complex128) float64 {
@@ -168,8 +145,8 @@ func maxReal(ps []complex128) float64 {
 // reach says what the form can reach at damping ζ: the fastest settling of
 // the second-order target (envelope formula) whose placement gives positive
 // gains and a stable closed loop, found by scanning σ upward.
-func reach(p Problem, zeta float64) string {
-	if p.Ctrl.Form == FormP {
+func reach(p airframe.Axis, zeta float64) string {
+	if p.Ctrl.Form == airframe.FormP {
 		return ""
 	}
 	s0 := SigmaFromSettling(zeta, p.Spec.Band, p.Spec.SettlingTime)

@@ -6,6 +6,7 @@ import (
 	"math"
 	"math/cmplx"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
 )
 
@@ -63,7 +64,7 @@ const (
 // RootLocus returns the root locus of the loop C·G·H of problem p with the
 // controller c scaled by k ∈ [0, kmax] (kmax ≥ 1; 10 shows the design well
 // inside the picture). The delay is replaced by its PadeOrder approximant.
-func RootLocus(p Problem, c Controller, kmax float64) (*Locus, error) {
+func RootLocus(p airframe.Axis, c Controller, kmax float64) (*Locus, error) {
 	cl, err := newClosedLoop(p, c)
 	if err != nil {
 		return nil, err

@@ -5,6 +5,7 @@ import (
 	"math/cmplx"
 	"testing"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
 	"locusmith/internal/pyref"
 )
@@ -38,7 +39,7 @@ func locusMatch(got, want []complex128) float64 {
 // branch per open-loop pole of the rational (Padé) loop: the controller's,
 // the plant's, the sensor's and PadeOrder for the delay.
 func TestLocusPassesThroughDesignPoles(t *testing.T) {
-	for _, f := range Forms {
+	for _, f := range airframe.Forms() {
 		for _, delay := range []float64{0, 0.002} {
 			p := demoProblem(f, delay)
 			d, err := DesignAxis(p, nil)
@@ -156,7 +157,7 @@ func TestLocusBreakawayByFormula(t *testing.T) {
 }
 
 // The root-locus asymptotes (Franklin, Powell & Emami-Naeini, Feedback
-// Control of Dynamic Systems, the rules of root-locus construction, from
+// airframe.Control of Dynamic Systems, the rules of root-locus construction, from
 // memory): as K → ∞, n − m branches go to infinity along rays at angles
 // (2q + 1)·180°/(n − m) from the centroid (Σp − Σz)/(n − m). Checked two
 // ways on delay-free loops: the formula values written out by hand, and
@@ -275,7 +276,7 @@ func TestLocusRouthCrossing(t *testing.T) {
 // the Padé delay. 1e-7 relative: both are eigenvalue solvers on the same
 // well-separated polynomial (the Aberth refinement converges to 1e-12).
 func TestLocusAgainstNumPy(t *testing.T) {
-	p := demoProblem(FormPID, 0.002)
+	p := demoProblem(airframe.FormPID, 0.002)
 	d, err := DesignAxis(p, nil)
 	if err != nil {
 		t.Fatal(err)
@@ -392,7 +393,7 @@ func TestAssignIsMinimum(t *testing.T) {
 }
 
 func BenchmarkRootLocus(b *testing.B) {
-	p := demoProblem(FormPID, 0.002)
+	p := demoProblem(airframe.FormPID, 0.002)
 	d, err := DesignAxis(p, nil)
 	if err != nil {
 		b.Fatal(err)

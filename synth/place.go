@@ -5,16 +5,9 @@ import (
 	"fmt"
 	"math"
 	"math/cmplx"
-)
 
-// Loop returns L(s) = G(s)·H(s)·e^(−sτ), the loop without the controller.
-func (p Problem) Loop(s complex128) complex128 {
-	v := p.Plant.Model.Eval(s) * p.Sensor.Eval(s)
-	if p.Plant.Delay > 0 {
-		v *= cmplx.Exp(-s * complex(p.Plant.Delay, 0))
-	}
-	return v
-}
+	"locusmith/airframe"
+)
 
 // AngleTerm is one pole, zero or delay of the loop seen from the target.
 type AngleTerm struct {
@@ -52,7 +45,7 @@ func wrapDeg(a float64) float64 {
 }
 
 // NewWorking computes the placement working of the loop at target s.
-func (p Problem) NewWorking(s complex128) Working {
+func NewWorking(p airframe.Axis, s complex128) Working {
 	w := Working{Target: s}
 	add := func(kind, of string, at []complex128) {
 		for _, r := range at {
@@ -80,7 +73,7 @@ func (p Problem) NewWorking(s complex128) Working {
 	}
 	w.LoopAngleDeg = sum
 	w.DeficiencyDeg = wrapDeg(-180 - sum)
-	w.LoopMagnitude = cmplx.Abs(p.Loop(s))
+	w.LoopMagnitude = cmplx.Abs(p.OpenLoop(s))
 	w.NeededGain = 1 / w.LoopMagnitude
 	return w
 }
@@ -88,7 +81,7 @@ func (p Problem) NewWorking(s complex128) Working {
 // InfeasibleError says why a form cannot place the target, and what it can
 // reach instead.
 type InfeasibleError struct {
-	Form    Form
+	Form    airframe.Form
 	Target  Target
 	Reason  string
 	Reach   string // what the form can reach, if known
@@ -126,13 +119,13 @@ var errNoTarget = errors.New("the p form places on the damping line, not at a ta
 // form K(s − z)/(s − p) fixes z and solves p from the angle condition and K
 // from the magnitude condition. Negative gains are refused: they would not
 // fly.
-func Place(p Problem, t Target) (Controller, error) {
+func Place(p airframe.Axis, t Target) (Controller, error) {
 	c := Controller{Form: p.Ctrl.Form, Tf: p.Ctrl.Tf(), B: 1, DerivativeOnError: p.Ctrl.DerivativeOnError}
 	if p.Ctrl.SetpointWeightSet {
 		c.B = p.Ctrl.SetpointWeight
 	}
 	s := t.Pole
-	L := p.Loop(s)
+	L := p.OpenLoop(s)
 	if L == 0 || cmplx.IsNaN(L) || cmplx.IsInf(L) {
 		return c, &InfeasibleError{Form: c.Form, Target: t, Reason: "the target is at an open-loop pole or zero"}
 	}
@@ -141,21 +134,21 @@ func Place(p Problem, t Target) (Controller, error) {
 		return c, &InfeasibleError{Form: c.Form, Target: t, Reason: why}
 	}
 	switch c.Form {
-	case FormP:
+	case airframe.FormP:
 		return c, errNoTarget
-	case FormPI:
+	case airframe.FormPI:
 		q := 1 / s
 		c.Ki = imag(need) / imag(q)
 		c.Kp = real(need) - c.Ki*real(q)
-	case FormPD:
+	case airframe.FormPD:
 		phi := s / (complex(c.Tf, 0)*s + 1)
 		c.Kd = imag(need) / imag(phi)
 		c.Kp = real(need) - c.Kd*real(phi)
-	case FormPID:
+	case airframe.FormPID:
 		q := 1 / s
 		phi := s / (complex(c.Tf, 0)*s + 1)
 		s3 := -p.Ctrl.ThirdPole * t.Sigma
-		L3 := real(p.Loop(complex(s3, 0)))
+		L3 := real(p.OpenLoop(complex(s3, 0)))
 		if L3 == 0 || math.IsNaN(L3) || math.IsInf(L3, 0) {
 			return infeasible(fmt.Sprintf("the third pole %.4g is at an open-loop pole or zero; change third_pole", s3))
 		}
@@ -174,7 +167,7 @@ func Place(p Problem, t Target) (Controller, error) {
 			return infeasible("the placement equations are singular")
 		}
 		c.Kp, c.Ki, c.Kd = x[0], x[1], x[2]
-	case FormLead:
+	case airframe.FormLead:
 		z := p.Ctrl.LeadZero
 		// ∠C(s*) = ∠(s*−z) − ∠(s*−p) must equal the deficiency θ.
 		theta := cmplx.Phase(need)
@@ -221,8 +214,8 @@ func Place(p Problem, t Target) (Controller, error) {
 // taken: farther crossings belong to branches that come in from infinity
 // (the delay's among them), not to the dominant pair. A locus that never
 // leaves the real axis gets a real pole at the settling rate instead.
-func PlaceP(p Problem, zeta float64) (Controller, Target, error) {
-	c := Controller{Form: FormP, B: 1}
+func PlaceP(p airframe.Axis, zeta float64) (Controller, Target, error) {
+	c := Controller{Form: airframe.FormP, B: 1}
 	if p.Ctrl.SetpointWeightSet {
 		c.B = p.Ctrl.SetpointWeight
 	}
@@ -233,7 +226,7 @@ func PlaceP(p Problem, zeta float64) (Controller, Target, error) {
 	var hits []hit
 	f := func(wn float64) float64 {
 		// Imaginary part of L normalized: zero on the real axis of the L-plane.
-		v := p.Loop(complex(wn, 0) * dir)
+		v := p.OpenLoop(complex(wn, 0) * dir)
 		return math.Atan2(imag(v), -real(v)) // 0 where ∠L = −180°
 	}
 	prevW := lo
@@ -260,7 +253,7 @@ func PlaceP(p Problem, zeta float64) (Controller, Target, error) {
 				}
 			}
 			wn := math.Sqrt(a * b)
-			v := p.Loop(complex(wn, 0) * dir)
+			v := p.OpenLoop(complex(wn, 0) * dir)
 			if real(v) < 0 {
 				hits = append(hits, hit{wn, 1 / cmplx.Abs(v)})
 			}
@@ -278,7 +271,7 @@ func PlaceP(p Problem, zeta float64) (Controller, Target, error) {
 	// where the angle condition holds when L(−σ) is real and negative.
 	if p.Spec.SettlingTime > 0 && p.Spec.Band > 0 {
 		sigma := SigmaFromSettling(zeta, p.Spec.Band, p.Spec.SettlingTime)
-		if v := p.Loop(complex(-sigma, 0)); real(v) < 0 && !math.IsInf(real(v), 0) {
+		if v := p.OpenLoop(complex(-sigma, 0)); real(v) < 0 && !math.IsInf(real(v), 0) {
 			c.Kp = snap(-1 / real(v))
 			if stable, err := closedLoopStable(p, c); err == nil && stable {
 				return c, Target{Zeta: 1, OmegaN: sigma, Sigma: sigma, Pole: complex(-sigma, 0)}, nil
@@ -286,12 +279,12 @@ func PlaceP(p Problem, zeta float64) (Controller, Target, error) {
 		}
 	}
 	t := NewTarget(zeta, zeta*math.Sqrt(lo*hi))
-	return c, t, &InfeasibleError{Form: FormP, Target: t, Reason: fmt.Sprintf("the root locus does not cross the damping line ζ = %.3f at a stable gain, nor the real axis at the settling rate", zeta)}
+	return c, t, &InfeasibleError{Form: airframe.FormP, Target: t, Reason: fmt.Sprintf("the root locus does not cross the damping line ζ = %.3f at a stable gain, nor the real axis at the settling rate", zeta)}
 }
 
 // frequencySpan returns a frequency range (rad/s) that covers every corner
 // of the loop with two decades to spare on each side.
-func frequencySpan(p Problem) (lo, hi float64) {
+func frequencySpan(p airframe.Axis) (lo, hi float64) {
 	lo, hi = math.Inf(1), 0.0
 	note := func(rs []complex128) {
 		for _, r := range rs {
@@ -359,7 +352,7 @@ func solve3(a [3][3]float64, b [3]float64) ([3]float64, bool) {
 // closedLoopStable reports whether all closed-loop poles of the loop with
 // controller c lie in the open left half plane (delay by its Padé
 // approximant).
-func closedLoopStable(p Problem, c Controller) (bool, error) {
+func closedLoopStable(p airframe.Axis, c Controller) (bool, error) {
 	cl, err := newClosedLoop(p, c)
 	if err != nil {
 		return false, err

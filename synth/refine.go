@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
 )
 
@@ -33,7 +34,7 @@ type Evaluation struct {
 type Evaluator func(c Controller) (Evaluation, error)
 
 // ContinuousEvaluator judges candidates by the full-order continuous loop.
-func ContinuousEvaluator(p Problem) Evaluator {
+func ContinuousEvaluator(p airframe.Axis) Evaluator {
 	return func(c Controller) (Evaluation, error) {
 		var e Evaluation
 		cl, err := newClosedLoop(p, c)
@@ -89,7 +90,7 @@ type weightWindow struct {
 	ok bool
 }
 
-func newWeightWindow(e *Evaluation, s Spec, bmin, bmax, beta float64) weightWindow {
+func newWeightWindow(e *Evaluation, s airframe.Spec, bmin, bmax, beta float64) weightWindow {
 	w := weightWindow{lo: bmin, hi: bmax, f0: e.Final0, df: e.Final1 - e.Final0,
 		osHi: 1 + s.Overshoot*(1+beta), bandHi: 1 + s.Band, bandLo: 1 - s.Band, k0: e.N}
 	fmin, fmax := w.f0+bmin*w.df, w.f0+bmax*w.df
@@ -152,12 +153,12 @@ func (w *weightWindow) admitsAny(ws []float64) bool {
 // Violation scores how far a response misses the spec: the sum of the
 // relative excesses of overshoot and settling time and the relative
 // shortfalls of the margins; 0 when the spec is met, +Inf when unstable.
-func Violation(s Spec, stable bool, m lti.Margins, st lti.StepInfo) float64 {
+func Violation(s airframe.Spec, stable bool, m lti.Margins, st lti.StepInfo) float64 {
 	return timeViolation(s, stable, st) + marginViolation(s, m)
 }
 
 // timeViolation is the time-domain part of Violation.
-func timeViolation(s Spec, stable bool, st lti.StepInfo) float64 {
+func timeViolation(s airframe.Spec, stable bool, st lti.StepInfo) float64 {
 	if !stable || math.IsNaN(st.Overshoot) || math.IsNaN(st.Settling) {
 		return math.Inf(1)
 	}
@@ -169,7 +170,7 @@ func timeViolation(s Spec, stable bool, st lti.StepInfo) float64 {
 }
 
 // marginViolation is the margin part of Violation.
-func marginViolation(s Spec, m lti.Margins) float64 {
+func marginViolation(s airframe.Spec, m lti.Margins) float64 {
 	v := 0.0
 	if s.MinPhaseMargin > 0 {
 		v += math.Max(0, (s.MinPhaseMargin-m.PhaseDeg)/s.MinPhaseMargin)
@@ -194,7 +195,7 @@ type candidate struct {
 
 // setpointWeights returns the weights refinement may choose from, in
 // descending order.
-func setpointWeights(p Problem) []float64 {
+func setpointWeights(p airframe.Axis) []float64 {
 	if p.Ctrl.SetpointWeightSet {
 		return []float64{p.Ctrl.SetpointWeight}
 	}
@@ -220,7 +221,7 @@ const UnitWeightPremium = 1.5
 // placement and evaluation are cached, so that the pass that looks for
 // b = 1 reuses the simulations of the pass over every weight.
 type searcher struct {
-	p     Problem
+	p     airframe.Axis
 	eval  Evaluator
 	bs    []float64 // all admitted weights, descending
 	cache map[Target]*cached
@@ -274,7 +275,7 @@ func (sr *searcher) place(t Target) *cached {
 		return c
 	}
 	c := &cached{t: t, stopBound: math.NaN()}
-	if sr.p.Ctrl.Form == FormP {
+	if sr.p.Ctrl.Form == airframe.FormP {
 		c.ctrl, c.t, c.err = PlaceP(sr.p, t.Zeta)
 	} else {
 		c.ctrl, c.err = Place(sr.p, t)
@@ -412,7 +413,7 @@ func (sr *searcher) judge(ce *cached, ws []float64, bound float64, timeOnly bool
 // the spec is taken. When the least-gain design needs b < 1, a second pass
 // looks for a b = 1 design with at most UnitWeightPremium times its gain,
 // which is preferred.
-func refine(p Problem, eval Evaluator) (candidate, bool, error) {
+func refine(p airframe.Axis, eval Evaluator) (candidate, bool, error) {
 	sr := &searcher{p: p, eval: eval, bs: setpointWeights(p), cache: map[Target]*cached{}}
 	c, ok, err := sr.search(sr.bs, math.Inf(1), nil)
 	if err != nil || !ok || c.ctrl.B == 1 || len(sr.bs) == 1 {
@@ -510,7 +511,7 @@ func (sr *searcher) search(ws []float64, capGain float64, fallback *candidate) (
 	// gains phase margin as it speeds up), the scan goes on from there with
 	// the margins judged at every point.
 	scan := func(z float64) error {
-		if p.Ctrl.Form == FormP {
+		if p.Ctrl.Form == airframe.FormP {
 			_, _, _, err := try(NewTarget(z, 1), false)
 			return err
 		}

@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
 )
 
@@ -40,7 +41,7 @@ func secondOrder(zeta, wn, a, h float64, n int) []float64 {
 // weights.
 func TestWeightWindowNecessary(t *testing.T) {
 	r := rand.New(rand.NewPCG(1, 2))
-	spec := Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.08}
+	spec := airframe.Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.08}
 	const h, n = 0.001, 600
 	admitted, rejected := 0, 0
 	for trial := 0; trial < 300; trial++ {
@@ -92,7 +93,7 @@ func TestWeightWindowNecessary(t *testing.T) {
 // exact summaries of every larger weight miss it), or reports none.
 func TestJudgeTakesLargestFeasibleWeight(t *testing.T) {
 	r := rand.New(rand.NewPCG(3, 4))
-	p := demoProblem(FormPID, 0)
+	p := demoProblem(airframe.FormPID, 0)
 	p.Spec.MinPhaseMargin, p.Spec.MinGainMargin = 0, 0
 	const h, n = 0.001, 600
 	found := 0
@@ -138,7 +139,7 @@ func TestJudgeTakesLargestFeasibleWeight(t *testing.T) {
 // again under a looser bound, the candidate is simulated afresh and judged
 // as if the first judgment had not happened.
 func TestJudgeResimulatesAFreedRecord(t *testing.T) {
-	p := demoProblem(FormPID, 0)
+	p := demoProblem(airframe.FormPID, 0)
 	p.Spec.MinPhaseMargin, p.Spec.MinGainMargin = 0, 0
 	const h, n = 0.001, 600
 	// Overshoots about 44 %: beyond the spec for every weight.

@@ -8,26 +8,27 @@ import (
 	"strings"
 	"testing"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
 	"locusmith/internal/pyref"
 )
 
 // demoProblem is a multirotor-like rate loop (demo data): an integrating
 // plant with a first-order motor lag, a gyro lowpass and optional delay.
-func demoProblem(form Form, delay float64) Problem {
+func demoProblem(form airframe.Form, delay float64) airframe.Axis {
 	tau := 0.03
-	return Problem{Axis: "roll",
-		Plant:  Plant{Model: lti.ZPK{Gain: 2000 / tau, Poles: []complex128{0, complex(-1/tau, 0)}}, Delay: delay},
+	return airframe.Axis{Name: "roll",
+		Plant:  airframe.Plant{Model: lti.ZPK{Gain: 2000 / tau, Poles: []complex128{0, complex(-1/tau, 0)}}, Delay: delay},
 		Sensor: lti.ZPK{Gain: 2 * math.Pi * 100, Poles: []complex128{complex(-2*math.Pi*100, 0)}},
-		Spec:   Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.08, MinPhaseMargin: 40, MinGainMargin: 6},
-		Ctrl: Control{Form: form, Refine: true, ThirdPole: 5, LeadZero: -20, DerivativeLowpassHz: 125,
+		Spec:   airframe.Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.08, MinPhaseMargin: 40, MinGainMargin: 6},
+		Ctrl: airframe.Control{Form: form, Refine: true, ThirdPole: 5, LeadZero: -20, DerivativeLowpassHz: 125,
 			OutputLimit: [2]float64{-1, 1}, IntegratorLimit: 1, AntiWindup: "backcalc", Discretize: "tustin"},
 	}
 }
 
 // Percent overshoot against damping ratio: the standard second-order table
-// (Nise, Control Systems Engineering, the %OS–ζ relation; Ogata, Modern
-// Control Engineering; values from memory, to the three decimals printed
+// (Nise, airframe.Control Systems Engineering, the %OS–ζ relation; Ogata, Modern
+// airframe.Control Engineering; values from memory, to the three decimals printed
 // there).
 func TestZetaFromOvershootTable(t *testing.T) {
 	for _, c := range []struct{ mp, zeta float64 }{
@@ -63,17 +64,17 @@ func TestSettlingRuleOfThumb(t *testing.T) {
 
 // secondOrderProblem makes the closed loop exactly ωn²/(s² + 2ζωn·s + ωn²):
 // plant ωn²/(s(s + 2ζωn)), ideal sensor, P gain 1.
-func secondOrderProblem(zeta, wn float64) (Problem, Controller) {
-	p := Problem{Axis: "x",
-		Plant:  Plant{Model: lti.ZPK{Gain: wn * wn, Poles: []complex128{0, complex(-2*zeta*wn, 0)}}},
+func secondOrderProblem(zeta, wn float64) (airframe.Axis, Controller) {
+	p := airframe.Axis{Name: "x",
+		Plant:  airframe.Plant{Model: lti.ZPK{Gain: wn * wn, Poles: []complex128{0, complex(-2*zeta*wn, 0)}}},
 		Sensor: lti.ZPK{Gain: 1},
-		Spec:   Spec{SettlingTime: 4 / (zeta * wn), Band: 0.02, Overshoot: 0.5},
-		Ctrl:   Control{Form: FormP},
+		Spec:   airframe.Spec{SettlingTime: 4 / (zeta * wn), Band: 0.02, Overshoot: 0.5},
+		Ctrl:   airframe.Control{Form: airframe.FormP},
 	}
-	return p, Controller{Form: FormP, Kp: 1, B: 1}
+	return p, Controller{Form: airframe.FormP, Kp: 1, B: 1}
 }
 
-// Closed-form second-order step (Ogata, Modern Control Engineering):
+// Closed-form second-order step (Ogata, Modern airframe.Control Engineering):
 // peak time π/ωd, overshoot exp(−ζπ/√(1−ζ²)). The simulation is exact at
 // its samples, so the peak value is off only by the curvature over half a
 // step, and the peak time by at most half a step h = Ts/200.
@@ -105,10 +106,10 @@ func TestSecondOrderStepClosedForm(t *testing.T) {
 // 6 at ω = √2 rad/s, so the gain margin is 20·log10(6/K) dB (Franklin,
 // Powell & Emami-Naeini; any of the REFERENCES texts).
 func TestClassicLoopGainMargin(t *testing.T) {
-	p := Problem{Plant: Plant{Model: lti.ZPK{Gain: 1, Poles: []complex128{0, -1, -2}}}, Sensor: lti.ZPK{Gain: 1},
-		Spec: Spec{SettlingTime: 10, Band: 0.02, Overshoot: 0.5}}
+	p := airframe.Axis{Plant: airframe.Plant{Model: lti.ZPK{Gain: 1, Poles: []complex128{0, -1, -2}}}, Sensor: lti.ZPK{Gain: 1},
+		Spec: airframe.Spec{SettlingTime: 10, Band: 0.02, Overshoot: 0.5}}
 	for _, k := range []float64{0.5, 1, 2, 4} {
-		m := LoopMargins(p, Controller{Form: FormP, Kp: k, B: 1})
+		m := LoopMargins(p, Controller{Form: airframe.FormP, Kp: k, B: 1})
 		if want := 20 * math.Log10(6/k); math.Abs(m.GainDB-want) > 1e-8 {
 			t.Errorf("K=%g: GM %.10f dB, Routh–Hurwitz %.10f dB", k, m.GainDB, want)
 		}
@@ -120,7 +121,7 @@ func TestClassicLoopGainMargin(t *testing.T) {
 		}
 	}
 	// At K = 6 the closed loop has poles on the imaginary axis at ±j√2.
-	cl, err := newClosedLoop(p, Controller{Form: FormP, Kp: 6, B: 1})
+	cl, err := newClosedLoop(p, Controller{Form: airframe.FormP, Kp: 6, B: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -142,17 +143,17 @@ func TestClassicLoopGainMargin(t *testing.T) {
 // loop's roots include s* to 1e-6 relative.
 func TestPlacementHasTargetPole(t *testing.T) {
 	for _, delay := range []float64{0, 0.002} {
-		for _, f := range []Form{FormPI, FormPD, FormPID, FormLead} {
+		for _, f := range []airframe.Form{airframe.FormPI, airframe.FormPD, airframe.FormPID, airframe.FormLead} {
 			p := demoProblem(f, delay)
 			// Settling times each form reaches with positive gains.
-			p.Spec.SettlingTime = map[Form]float64{FormPI: 0.3, FormPD: 0.12, FormPID: 0.3, FormLead: 0.3}[f]
+			p.Spec.SettlingTime = map[airframe.Form]float64{airframe.FormPI: 0.3, airframe.FormPD: 0.12, airframe.FormPID: 0.3, airframe.FormLead: 0.3}[f]
 			tg, _ := TargetFromSpec(p.Spec)
 			c, err := Place(p, tg)
 			if err != nil {
 				t.Errorf("delay %g %s: %v", delay, f, err)
 				continue
 			}
-			if r := cmplx.Abs(1 + c.Eval(tg.Pole)*p.Loop(tg.Pole)); r > 1e-9 {
+			if r := cmplx.Abs(1 + c.Eval(tg.Pole)*p.OpenLoop(tg.Pole)); r > 1e-9 {
 				t.Errorf("delay %g %s: |1 + C·L| at s* = %.3g", delay, f, r)
 			}
 			if delay > 0 {
@@ -161,7 +162,7 @@ func TestPlacementHasTargetPole(t *testing.T) {
 			cl, _ := newClosedLoop(p, c)
 			ps, _ := cl.char.Roots()
 			want := []complex128{tg.Pole}
-			if f == FormPID {
+			if f == airframe.FormPID {
 				want = append(want, complex(-p.Ctrl.ThirdPole*tg.Sigma, 0))
 			}
 			for _, w := range want {
@@ -181,7 +182,7 @@ func TestPlacementHasTargetPole(t *testing.T) {
 // exercise, from memory): C·L = (Kp·s + Ki)/s² must equal −1 at s*, so
 // Kp·s* + Ki = −s*², i.e. Kp = 2σ and Ki = σ² + ωd² = ωn².
 func TestPIByHand(t *testing.T) {
-	p := Problem{Plant: Plant{Model: lti.ZPK{Gain: 1, Poles: []complex128{0}}}, Sensor: lti.ZPK{Gain: 1}, Ctrl: Control{Form: FormPI}}
+	p := airframe.Axis{Plant: airframe.Plant{Model: lti.ZPK{Gain: 1, Poles: []complex128{0}}}, Sensor: lti.ZPK{Gain: 1}, Ctrl: airframe.Control{Form: airframe.FormPI}}
 	tg := NewTarget(0.6, 12)
 	c, err := Place(p, tg)
 	if err != nil {
@@ -190,7 +191,7 @@ func TestPIByHand(t *testing.T) {
 	if math.Abs(c.Kp-2*tg.Sigma) > 1e-12 || math.Abs(c.Ki-tg.OmegaN*tg.OmegaN) > 1e-9 {
 		t.Errorf("Kp = %.12g, Ki = %.12g; want %.12g, %.12g", c.Kp, c.Ki, 2*tg.Sigma, tg.OmegaN*tg.OmegaN)
 	}
-	w := p.NewWorking(tg.Pole)
+	w := NewWorking(p, tg.Pole)
 	// The integrator's angle is 180° − atan(ωd/σ); the deficiency is what
 	// brings the sum to −180°.
 	if got, want := w.Terms[0].AngleDeg, 180-deg(math.Atan2(imag(tg.Pole), tg.Sigma)); math.Abs(got-want) > 1e-9 {
@@ -207,7 +208,7 @@ func TestPIByHand(t *testing.T) {
 // A target that the form cannot reach gives an *InfeasibleError that says
 // why and what the form can reach, never negative gains.
 func TestInfeasibleSaysWhy(t *testing.T) {
-	p := demoProblem(FormPI, 0.002)
+	p := demoProblem(airframe.FormPI, 0.002)
 	p.Ctrl.Refine = false
 	p.Spec.SettlingTime = 0.05
 	_, err := DesignAxis(p, nil)
@@ -227,7 +228,7 @@ func TestInfeasibleSaysWhy(t *testing.T) {
 // this loop (its closed-loop zeros); the refined design meets overshoot,
 // settling and margins of the full-order loop.
 func TestRefinementMeetsSpec(t *testing.T) {
-	for _, f := range []Form{FormPD, FormPID, FormLead} {
+	for _, f := range []airframe.Form{airframe.FormPD, airframe.FormPID, airframe.FormLead} {
 		d, err := DesignAxis(demoProblem(f, 0.002), nil)
 		if err != nil {
 			t.Fatalf("%s: %v", f, err)
@@ -238,7 +239,7 @@ func TestRefinementMeetsSpec(t *testing.T) {
 		if d.Ctrl.Kp < 0 || d.Ctrl.Ki < 0 || d.Ctrl.Kd < 0 || d.Ctrl.K < 0 {
 			t.Errorf("%s: negative gain %+v", f, d.Ctrl)
 		}
-		if f == FormPID {
+		if f == airframe.FormPID {
 			if d.Textbook == nil {
 				t.Fatalf("pid: textbook design missing")
 			}
@@ -367,23 +368,23 @@ func toPairs(rs []complex128) [][2]float64 {
 func TestAgainstSciPy(t *testing.T) {
 	type tc struct {
 		name  string
-		form  Form
+		form  airframe.Form
 		delay float64
 		w     float64 // sensor pole, 0 for ideal
 		c     Controller
 	}
 	tf := 1 / (2 * math.Pi * 125)
 	cases := []tc{
-		{"pi ideal sensor", FormPI, 0, 0, Controller{Form: FormPI, Kp: 0.0075, Ki: 0.024, B: 1}},
-		{"pi b=0.7 delay", FormPI, 0.002, 628.3, Controller{Form: FormPI, Kp: 0.0075, Ki: 0.024, B: 0.7}},
-		{"pd sensor", FormPD, 0, 628.3, Controller{Form: FormPD, Kp: 0.0093, Kd: 0.00012, Tf: tf, B: 1}},
-		{"pid sensor delay", FormPID, 0.002, 628.3, Controller{Form: FormPID, Kp: 0.0314, Ki: 0.271, Kd: 0.00079, Tf: tf, B: 0.5}},
-		{"pid ideal, D on error", FormPID, 0, 0, Controller{Form: FormPID, Kp: 0.02, Ki: 0.15, Kd: 0.0004, Tf: tf, B: 1, DerivativeOnError: true}},
-		{"lead delay", FormLead, 0.0015, 628.3, Controller{Form: FormLead, K: 0.0099, Zero: -20, Pole: -25.2}},
-		{"p sensor", FormP, 0, 628.3, Controller{Form: FormP, Kp: 0.006, B: 1}},
+		{"pi ideal sensor", airframe.FormPI, 0, 0, Controller{Form: airframe.FormPI, Kp: 0.0075, Ki: 0.024, B: 1}},
+		{"pi b=0.7 delay", airframe.FormPI, 0.002, 628.3, Controller{Form: airframe.FormPI, Kp: 0.0075, Ki: 0.024, B: 0.7}},
+		{"pd sensor", airframe.FormPD, 0, 628.3, Controller{Form: airframe.FormPD, Kp: 0.0093, Kd: 0.00012, Tf: tf, B: 1}},
+		{"pid sensor delay", airframe.FormPID, 0.002, 628.3, Controller{Form: airframe.FormPID, Kp: 0.0314, Ki: 0.271, Kd: 0.00079, Tf: tf, B: 0.5}},
+		{"pid ideal, D on error", airframe.FormPID, 0, 0, Controller{Form: airframe.FormPID, Kp: 0.02, Ki: 0.15, Kd: 0.0004, Tf: tf, B: 1, DerivativeOnError: true}},
+		{"lead delay", airframe.FormLead, 0.0015, 628.3, Controller{Form: airframe.FormLead, K: 0.0099, Zero: -20, Pole: -25.2}},
+		{"p sensor", airframe.FormP, 0, 628.3, Controller{Form: airframe.FormP, Kp: 0.006, B: 1}},
 	}
 	var in []sciLoop
-	var probs []Problem
+	var probs []airframe.Axis
 	for _, c := range cases {
 		p := demoProblem(c.form, c.delay)
 		if c.w == 0 {
@@ -447,7 +448,7 @@ func FuzzDesign(f *testing.F) {
 		if !(eff > 0 && eff < 1e6 && tau > 1e-4 && tau < 10 && delay >= 0 && delay < 0.5 && hz >= 0 && hz < 1e4 && ts > 1e-3 && ts < 100 && os > 0.001 && os < 0.99) {
 			t.Skip()
 		}
-		p := demoProblem(Forms[int(form)%len(Forms)], delay)
+		p := demoProblem(airframe.Forms()[int(form)%len(airframe.Forms())], delay)
 		p.Plant.Model = lti.ZPK{Gain: eff / tau, Poles: []complex128{0, complex(-1/tau, 0)}}
 		if hz > 0 {
 			p.Sensor = lti.ZPK{Gain: 2 * math.Pi * hz, Poles: []complex128{complex(-2*math.Pi*hz, 0)}}
@@ -468,7 +469,7 @@ func FuzzDesign(f *testing.F) {
 // BenchmarkDesignAxis: continuous design with refinement and full
 // verification of one PID axis (target ≤ 2 ms, ≤ 1 MB).
 func BenchmarkDesignAxis(b *testing.B) {
-	p := demoProblem(FormPID, 0.002)
+	p := demoProblem(airframe.FormPID, 0.002)
 	b.ReportAllocs()
 	for b.Loop() {
 		if _, err := DesignAxis(p, nil); err != nil {
@@ -481,8 +482,8 @@ func BenchmarkDesignAxis(b *testing.B) {
 // the locus never meets the damping line, so P places the real pole at
 // −σ of the spec, K = (σ − a)/k for k/(s + a) (closed loop k·K/(s + a + k·K)).
 func TestPFirstOrderPlacesRealPole(t *testing.T) {
-	p := Problem{Plant: Plant{Model: lti.ZPK{Gain: 500, Poles: []complex128{-10}}}, Sensor: lti.ZPK{Gain: 1},
-		Spec: Spec{SettlingTime: 0.1, Band: 0.02, Overshoot: 0.05}, Ctrl: Control{Form: FormP}}
+	p := airframe.Axis{Plant: airframe.Plant{Model: lti.ZPK{Gain: 500, Poles: []complex128{-10}}}, Sensor: lti.ZPK{Gain: 1},
+		Spec: airframe.Spec{SettlingTime: 0.1, Band: 0.02, Overshoot: 0.05}, Ctrl: airframe.Control{Form: airframe.FormP}}
 	c, tg, err := PlaceP(p, ZetaFromOvershoot(0.05))
 	if err != nil {
 		t.Fatal(err)
@@ -497,7 +498,7 @@ func TestPFirstOrderPlacesRealPole(t *testing.T) {
 // every form, with and without delay, over a range of gains; and |C·L| = 1
 // there (the definition).
 func TestCrossoverMatchesMargins(t *testing.T) {
-	for _, form := range Forms {
+	for _, form := range airframe.Forms() {
 		for _, delay := range []float64{0, 0.002} {
 			p := demoProblem(form, delay)
 			for _, scale := range []float64{0.3, 1, 3} {
@@ -507,12 +508,12 @@ func TestCrossoverMatchesMargins(t *testing.T) {
 					t.Errorf("%s delay %g ×%g: Crossover %.12g, LoopMargins %.12g", form, delay, scale, got, want)
 				}
 				s := complex(0, got)
-				if v := cmplx.Abs(c.Eval(s) * p.Loop(s)); math.Abs(v-1) > 1e-9 {
+				if v := cmplx.Abs(c.Eval(s) * p.OpenLoop(s)); math.Abs(v-1) > 1e-9 {
 					t.Errorf("%s delay %g ×%g: |C·L| = %.12g at the crossover", form, delay, scale, v)
 				}
 				for _, w := range []float64{0.1, 3, 40, 700, 2e4} {
 					s := complex(0, w)
-					want := cmplx.Abs(c.Eval(s) * p.Loop(s))
+					want := cmplx.Abs(c.Eval(s) * p.OpenLoop(s))
 					if got := loopMag2(p, c)(w); math.Abs(got-want*want) > 1e-12*want*want {
 						t.Errorf("%s ×%g: |C·L|² at %g = %.15g, complex evaluation %.15g", form, scale, w, got, want*want)
 					}
@@ -527,7 +528,7 @@ func TestCrossoverMatchesMargins(t *testing.T) {
 // the whole sweep, for every form, with and without delay, over a range of
 // gains — and for a loop with a resonance.
 func TestFallingMarginsMatchFull(t *testing.T) {
-	check := func(name string, p Problem, c Controller) {
+	check := func(name string, p airframe.Axis, c Controller) {
 		t.Helper()
 		wf := fallingAbove(p, c)
 		if math.IsInf(wf, 1) {
@@ -537,21 +538,21 @@ func TestFallingMarginsMatchFull(t *testing.T) {
 		for i := 0; i <= 3000; i++ {
 			w := wf * math.Pow(10, 3*float64(i)/3000)
 			s := complex(0, w)
-			v := cmplx.Abs(c.Eval(s) * p.Loop(s))
+			v := cmplx.Abs(c.Eval(s) * p.OpenLoop(s))
 			if v > prev*(1+1e-12) {
 				t.Fatalf("%s: |L| rises at %g rad/s above the bound %g", name, w, wf)
 			}
 			prev = v
 		}
 		lo, hi, n := marginSpan(p, c)
-		full := lti.LoopMargins(func(w float64) complex128 { s := complex(0, w); return c.Eval(s) * p.Loop(s) }, lo, hi, n)
+		full := lti.LoopMargins(func(w float64) complex128 { s := complex(0, w); return c.Eval(s) * p.OpenLoop(s) }, lo, hi, n)
 		got := loopMargins(p, c)
 		if got.GainDB != full.GainDB || got.PhaseDeg != full.PhaseDeg || got.Crossover != full.Crossover ||
 			got.PhaseCrossover != full.PhaseCrossover || got.DelayMargin != full.DelayMargin {
 			t.Errorf("%s: margins %+v, full sweep %+v", name, got, full)
 		}
 	}
-	for _, form := range Forms {
+	for _, form := range airframe.Forms() {
 		for _, delay := range []float64{0, 0.002} {
 			p := demoProblem(form, delay)
 			for _, scale := range []float64{0.3, 1, 3} {
@@ -560,8 +561,8 @@ func TestFallingMarginsMatchFull(t *testing.T) {
 			}
 		}
 	}
-	p := demoProblem(FormPID, 0.001)
+	p := demoProblem(airframe.FormPID, 0.001)
 	p.Plant.Model.Poles = append(p.Plant.Model.Poles, complex(-5, 300), complex(-5, -300))
 	p.Plant.Model.Gain *= 300 * 300
-	check("resonance", p, Controller{Form: FormPID, Kp: 0.04, Ki: 0.4, Kd: 0.0008, Tf: 0.0013, B: 1})
+	check("resonance", p, Controller{Form: airframe.FormPID, Kp: 0.04, Ki: 0.4, Kd: 0.0008, Tf: 0.0013, B: 1})
 }

@@ -3,6 +3,8 @@ package synth
 import (
 	"fmt"
 	"math"
+
+	"locusmith/airframe"
 )
 
 // Target is a desired dominant closed-loop pole pair s = −σ ± jωd.
@@ -46,7 +48,7 @@ func NewTarget(zeta, sigma float64) Target {
 // TargetFromSpec returns the textbook target of the spec: the second-order
 // pole pair whose step meets the overshoot exactly and whose envelope enters
 // the settling band at the settling time.
-func TargetFromSpec(s Spec) (Target, error) {
+func TargetFromSpec(s airframe.Spec) (Target, error) {
 	if !(s.Overshoot > 0 && s.Overshoot < 1) {
 		return Target{}, fmt.Errorf("overshoot %g: must be in (0, 1)", s.Overshoot)
 	}

@@ -6,6 +6,7 @@ import (
 	"math/cmplx"
 	"slices"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
 )
 
@@ -25,7 +26,7 @@ type closedLoop struct {
 	num        lti.Poly // numerator of T
 }
 
-func newClosedLoop(p Problem, c Controller) (closedLoop, error) {
+func newClosedLoop(p airframe.Axis, c Controller) (closedLoop, error) {
 	g, err := p.Plant.Model.TF()
 	if err != nil {
 		return closedLoop{}, fmt.Errorf("plant: %w", err)
@@ -167,11 +168,11 @@ func stepSystem(den lti.Poly, nums []lti.Poly, h float64) (lti.Disc, [][]float64
 
 // Verify computes the full-order closed-loop behaviour of controller c on
 // problem p, designed for target t.
-func Verify(p Problem, c Controller, t Target) (Verification, error) {
+func Verify(p airframe.Axis, c Controller, t Target) (Verification, error) {
 	return verify(p, c, t, true)
 }
 
-func verify(p Problem, c Controller, t Target, margins bool) (Verification, error) {
+func verify(p airframe.Axis, c Controller, t Target, margins bool) (Verification, error) {
 	var v Verification
 	cl, err := newClosedLoop(p, c)
 	if err != nil {
@@ -182,7 +183,7 @@ func verify(p Problem, c Controller, t Target, margins bool) (Verification, erro
 		return v, fmt.Errorf("closed-loop poles: %w", err)
 	}
 	v.Stable = allStable(v.Poles)
-	v.TargetResidual = cmplx.Abs(1 + c.Eval(t.Pole)*p.Loop(t.Pole))
+	v.TargetResidual = cmplx.Abs(1 + c.Eval(t.Pole)*p.OpenLoop(t.Pole))
 	v.Zeros = clZeros(p, c)
 	if margins {
 		v.Margins = loopMargins(p, c)
@@ -213,7 +214,7 @@ func evalRatio(num, den lti.Poly, x float64) float64 {
 
 // clZeros returns the zeros of setpoint → true rate that the controller's
 // setpoint path, the plant and the sensor's poles put there.
-func clZeros(p Problem, c Controller) []complex128 {
+func clZeros(p airframe.Axis, c Controller) []complex128 {
 	var zs []complex128
 	if f, err := c.Setpoint().Num.Trim().Roots(); err == nil {
 		zs = append(zs, f...)
@@ -225,11 +226,11 @@ func clZeros(p Problem, c Controller) []complex128 {
 }
 
 // loopMargins returns the margins of C·G·H with the exact delay.
-func loopMargins(p Problem, c Controller) lti.Margins {
+func loopMargins(p airframe.Axis, c Controller) lti.Margins {
 	lo, hi, n := marginSpan(p, c)
 	return lti.LoopMarginsFalling(func(w float64) complex128 {
 		s := complex(0, w)
-		return c.Eval(s) * p.Loop(s)
+		return c.Eval(s) * p.OpenLoop(s)
 	}, lo, hi, n, fallingAbove(p, c))
 }
 
@@ -241,7 +242,7 @@ func loopMargins(p Problem, c Controller) lti.Margins {
 // at most zero once nz times the upper bound is at most np times the
 // lower: the least such K (from 2 up) times the largest |r| is the
 // frequency. The delay has unit magnitude.
-func fallingAbove(p Problem, c Controller) float64 {
+func fallingAbove(p airframe.Axis, c Controller) float64 {
 	cz, err := c.Series()
 	if err != nil {
 		return math.Inf(1)
@@ -270,7 +271,7 @@ func fallingAbove(p Problem, c Controller) float64 {
 // marginSpan is the frequency range and grid of the margin sweep: two
 // decades beyond the loop's and the controller's dynamics either side,
 // 24 points per decade.
-func marginSpan(p Problem, c Controller) (lo, hi float64, n int) {
+func marginSpan(p airframe.Axis, c Controller) (lo, hi float64, n int) {
 	lo, hi = frequencySpan(p)
 	if c.Form.HasIntegral() && c.Kp > 0 {
 		lo = math.Min(lo, c.Ki/c.Kp/100)
@@ -278,7 +279,7 @@ func marginSpan(p Problem, c Controller) (lo, hi float64, n int) {
 	if c.Form.HasDerivative() && c.Tf > 0 {
 		hi = math.Max(hi, 100/c.Tf)
 	}
-	if c.Form == FormLead {
+	if c.Form == airframe.FormLead {
 		lo = math.Min(lo, math.Min(-c.Zero, -c.Pole)/100)
 		hi = math.Max(hi, math.Max(-c.Zero, -c.Pole)*100)
 	}
@@ -287,7 +288,7 @@ func marginSpan(p Problem, c Controller) (lo, hi float64, n int) {
 
 // DominanceRatio is the usual threshold for treating a pole pair as
 // dominant: the other poles at least five times farther into the left half
-// plane (Nise, Control Systems Engineering, the rule of thumb for
+// plane (Nise, airframe.Control Systems Engineering, the rule of thumb for
 // second-order approximation, from memory).
 const DominanceRatio = 5
 
@@ -331,14 +332,14 @@ func dominance(poles, zeros []complex128, t Target) (float64, []string) {
 
 // LoopMargins returns the gain, phase and delay margins of the continuous
 // loop C·G·H with the exact transport delay.
-func LoopMargins(p Problem, c Controller) lti.Margins { return loopMargins(p, c) }
+func LoopMargins(p airframe.Axis, c Controller) lti.Margins { return loopMargins(p, c) }
 
 // Crossover returns the gain crossover of the continuous loop, the
 // frequency LoopMargins reports as Margins.Crossover, from the magnitude
 // alone (the delay leaves it unchanged) when the loop crosses 0 dB once; a
 // loop that crosses several times needs the phase margins to choose, and
 // gets the full LoopMargins. NaN when the loop never crosses.
-func Crossover(p Problem, c Controller) float64 {
+func Crossover(p airframe.Axis, c Controller) float64 {
 	lo, hi, n := marginSpan(p, c)
 	ws := lti.GainCrossovers(loopMag2(p, c), lo, hi, n)
 	switch len(ws) {
@@ -356,7 +357,7 @@ func Crossover(p Problem, c Controller) float64 {
 // imaginary parts have closed forms, Kd·jω/(1 + jωTf) =
 // Kd·(ω²Tf + jω)/(1 + ω²Tf²) and Ki/(jω) = −jKi/ω. About a tenth of the
 // cost of the complex evaluation.
-func loopMag2(p Problem, c Controller) func(w float64) float64 {
+func loopMag2(p airframe.Axis, c Controller) func(w float64) float64 {
 	g2 := p.Plant.Model.Gain * p.Plant.Model.Gain * p.Sensor.Gain * p.Sensor.Gain
 	var zs, ps []complex128
 	zs = append(append(zs, p.Plant.Model.Zeros...), p.Sensor.Zeros...)
@@ -373,7 +374,7 @@ func loopMag2(p Problem, c Controller) func(w float64) float64 {
 		}
 		var c2 float64
 		switch c.Form {
-		case FormLead:
+		case airframe.FormLead:
 			c2 = c.K * c.K * (w*w + c.Zero*c.Zero) / (w*w + c.Pole*c.Pole)
 		default:
 			re, im := c.Kp, 0.0

@@ -13,7 +13,7 @@ import (
 	"strings"
 	"testing"
 
-	"locusmith/synth"
+	"locusmith/airframe"
 )
 
 var update = flag.Bool("update", false, "rewrite the golden files under testdata/")
@@ -352,13 +352,13 @@ func TestJSONContract(t *testing.T) {
 					xm := x.(map[string]any)
 					need(t, xm, "axis", "form", "ok", "target", "continuous", "discrete", "checks")
 					need(t, obj(t, xm, "target"), "zeta", "omega_n", "pole")
-					form := synth.Form(xm["form"].(string))
+					form := airframe.Form(xm["form"].(string))
 					c := obj(t, xm, "continuous")
 					need(t, c, "series", "steady_state_error", "closed_loop_poles", "overshoot", "settling_time", "rise_time", "phase_margin_deg", "crossover", "delay_margin")
 					need(t, obj(t, c, "series"), "gain", "zeros", "poles")
 					for _, k := range []string{"kp", "ki", "kd", "derivative_tau", "setpoint_weight"} {
 						_, has := c[k]
-						applies := form != synth.FormLead && (k == "kp" || k == "setpoint_weight" ||
+						applies := form != airframe.FormLead && (k == "kp" || k == "setpoint_weight" ||
 							(k == "ki" && form.HasIntegral()) || (k != "ki" && form.HasDerivative()))
 						if has != applies {
 							t.Errorf("%s form %s: continuous.%s present = %v, want %v", xm["axis"], form, k, has, applies)

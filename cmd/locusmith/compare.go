@@ -12,7 +12,7 @@ import (
 	"strings"
 
 	"locusmith/airframe"
-	"locusmith/emit"
+	"locusmith/discrete"
 	"locusmith/emit/review"
 )
 
@@ -59,14 +59,14 @@ func runCompare(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "locusmith compare: want OLD and NEW, got %d argument%s\nRun 'locusmith compare --help' for usage.\n", flags.NArg(), map[bool]string{true: "", false: "s"}[flags.NArg() == 1])
 		return exitUsage
 	}
-	var designs [2]*emit.Airframe
+	var designs [2]*discrete.Airframe
 	for i, arg := range flags.Args() {
 		f, err := loadVersion(arg)
 		if err != nil {
 			reportLoadError(stderr, arg, err)
 			return exitUsage
 		}
-		designs[i] = emit.DesignAirframe(f)
+		designs[i] = discrete.DesignAirframe(f)
 	}
 	c, err := review.Compare(flags.Arg(0), designs[0], flags.Arg(1), designs[1])
 	if err != nil {

@@ -6,7 +6,9 @@ import (
 	"fmt"
 	"io"
 
-	"locusmith/emit"
+	"locusmith/discrete"
+	"locusmith/emit/review"
+	"locusmith/internal/version"
 )
 
 const designHelp = `Usage: locusmith design [--json] FILE...
@@ -56,12 +58,12 @@ func runDesign(args []string, stdout, stderr io.Writer) int {
 		// The document of emit.Report, written one airframe at a time
 		// in the same layout as encoding the whole report at once.
 		if len(files) == 0 {
-			werr = writeJSON(stdout, emit.Report(nil), "")
+			werr = writeJSON(stdout, review.JSON(nil), "")
 		} else {
-			_, werr = fmt.Fprintf(stdout, "{\n  \"version\": %q,\n  \"airframes\": [\n", emit.Version)
+			_, werr = fmt.Fprintf(stdout, "{\n  \"version\": %q,\n  \"airframes\": [\n", version.Version)
 		}
 	}
-	designStream(files, *jobs, false, true, stderr, func(i int, a *emit.Airframe) {
+	designStream(files, *jobs, false, true, stderr, func(i int, a *discrete.Airframe) {
 		for _, x := range a.Axes {
 			code = worst(code, axisStatus(x))
 		}
@@ -74,13 +76,13 @@ func runDesign(args []string, stdout, stderr io.Writer) int {
 					_, werr = io.WriteString(stdout, "    ")
 				}
 				if werr == nil {
-					werr = writeJSON(stdout, emit.Report([]*emit.Airframe{a}).Airframes[0], "    ")
+					werr = writeJSON(stdout, review.JSON([]*discrete.Airframe{a}).Airframes[0], "    ")
 				}
 			} else {
-				werr = emit.WriteTable(stdout, a)
+				werr = review.WriteTable(stdout, a)
 			}
 		}
-		for _, msg := range emit.Unmet(a) {
+		for _, msg := range a.Unmet() {
 			fmt.Fprintf(stderr, "%s: %s\n", a.File.Path, msg)
 		}
 	})

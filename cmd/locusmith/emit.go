@@ -9,6 +9,7 @@ import (
 	"path/filepath"
 	"syscall"
 
+	"locusmith/discrete"
 	"locusmith/emit"
 )
 
@@ -146,7 +147,7 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 			refused = append(refused, emit.SourceNames(a.File.Airframe, o)...)
 			continue
 		}
-		if unmet := emit.Unmet(a); len(unmet) > 0 {
+		if unmet := a.Unmet(); len(unmet) > 0 {
 			for _, r := range unmet {
 				fmt.Fprintf(stderr, "%s: %s\n", path, r)
 			}
@@ -205,7 +206,7 @@ func emitStatus(err error) int {
 		return exitUnmet
 	}
 	var de *emit.DesignFailedError
-	if errors.As(err, &de) && emit.Infeasible(de.Err) {
+	if errors.As(err, &de) && discrete.Infeasible(de.Err) {
 		return exitUnmet
 	}
 	return exitUsage

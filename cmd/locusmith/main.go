@@ -28,7 +28,7 @@ import (
 	"github.com/spf13/pflag"
 
 	"locusmith/airframe"
-	"locusmith/emit"
+	"locusmith/discrete"
 )
 
 // Exit statuses of every verb.
@@ -227,9 +227,9 @@ func reportLoadError(w io.Writer, path string, err error) {
 // axisStatus is the exit status an axis contributes: 1 for an unmet check
 // or an infeasible spec, 2 for any other failure to design (an input the
 // decoder let through but the designer cannot use).
-func axisStatus(x emit.Axis) int {
+func axisStatus(x discrete.Outcome) int {
 	switch {
-	case x.Err != nil && !emit.Infeasible(x.Err):
+	case x.Err != nil && !discrete.Infeasible(x.Err):
 		return exitUsage
 	case !x.OK():
 		return exitUnmet
@@ -250,9 +250,9 @@ func jobsFlag(fs *pflag.FlagSet) *int {
 // designBatch designs files with jobs workers, in input order, showing a
 // progress line on stderr when it is a terminal and the batch is long
 // (never in pipes or CI).
-func designBatch(files []*airframe.File, jobs int, keepTraces bool, stderr io.Writer) []*emit.Airframe {
-	out := make([]*emit.Airframe, len(files))
-	designStream(files, jobs, keepTraces, false, stderr, func(i int, a *emit.Airframe) { out[i] = a })
+func designBatch(files []*airframe.File, jobs int, keepTraces bool, stderr io.Writer) []*discrete.Airframe {
+	out := make([]*discrete.Airframe, len(files))
+	designStream(files, jobs, keepTraces, false, stderr, func(i int, a *discrete.Airframe) { out[i] = a })
 	return out
 }
 
@@ -260,8 +260,8 @@ func designBatch(files []*airframe.File, jobs int, keepTraces bool, stderr io.Wr
 // order as soon as it is done, so that memory stays flat in the number of
 // airframes; with release it also drops each parsed file from files once
 // delivered (the caller must not use files afterwards).
-func designStream(files []*airframe.File, jobs int, keepTraces, release bool, stderr io.Writer, fn func(int, *emit.Airframe)) {
-	o := emit.BatchOptions{Jobs: jobs, KeepTraces: keepTraces, Release: release}
+func designStream(files []*airframe.File, jobs int, keepTraces, release bool, stderr io.Writer, fn func(int, *discrete.Airframe)) {
+	o := discrete.BatchOptions{Jobs: jobs, KeepTraces: keepTraces, Release: release}
 	if f, ok := stderr.(*os.File); ok && len(files) >= 20 && os.Getenv("CI") == "" {
 		if st, err := f.Stat(); err == nil && st.Mode()&os.ModeCharDevice != 0 {
 			o.Progress = func(done, total int) {
@@ -272,5 +272,5 @@ func designStream(files []*airframe.File, jobs int, keepTraces, release bool, st
 			}
 		}
 	}
-	emit.DesignEach(files, o, fn)
+	discrete.DesignEach(files, o, fn)
 }

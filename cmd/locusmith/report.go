@@ -4,7 +4,7 @@ import (
 	"fmt"
 	"io"
 
-	"locusmith/emit"
+	"locusmith/discrete"
 	"locusmith/emit/review"
 )
 
@@ -86,7 +86,7 @@ func runReport(args []string, stdout, stderr io.Writer) int {
 		seen[f.Airframe] = f.Path
 	}
 	var all [][]review.File
-	var designs []*emit.Airframe
+	var designs []*discrete.Airframe
 	for _, a := range designBatch(files, *jobs, true, stderr) {
 		f := a.File
 		for _, x := range a.Axes {
@@ -108,7 +108,7 @@ func runReport(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stdout, "%s: wrote %s (%d plots) in %s\n", designs[i].File.Path, rf[0].Name, len(rf)-1, *out)
 	}
 	for _, a := range designs {
-		for _, msg := range emit.Unmet(a) {
+		for _, msg := range a.Unmet() {
 			fmt.Fprintf(stderr, "%s: %s\n", a.File.Path, msg)
 		}
 	}

@@ -6,7 +6,7 @@ import (
 	"runtime/debug"
 	"strings"
 
-	"locusmith/emit"
+	"locusmith/internal/version"
 )
 
 const versionHelp = `Usage: locusmith version
@@ -30,7 +30,7 @@ func runVersion(args []string, stdout, stderr io.Writer) int {
 		return exitUsage
 	}
 	var b strings.Builder
-	fmt.Fprintf(&b, "locusmith %s\n", emit.Version)
+	fmt.Fprintf(&b, "locusmith %s\n", version.Version)
 	if bi, ok := debug.ReadBuildInfo(); ok {
 		fmt.Fprintf(&b, "go: %s\n", bi.GoVersion)
 		if bi.Main.Path != "" {

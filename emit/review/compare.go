@@ -11,7 +11,7 @@ import (
 	"strconv"
 	"strings"
 
-	"locusmith/emit"
+	"locusmith/discrete"
 )
 
 // Comparison is what changed between two versions of an airframe file:
@@ -58,7 +58,7 @@ type ResultChange struct {
 const RegressionTolerance = 1e-3
 
 // Compare compares the designs of two versions of an airframe file.
-func Compare(oldName string, oldA *emit.Airframe, newName string, newA *emit.Airframe) (*Comparison, error) {
+func Compare(oldName string, oldA *discrete.Airframe, newName string, newA *discrete.Airframe) (*Comparison, error) {
 	if oldA == nil || newA == nil || oldA.File == nil || newA.File == nil {
 		return nil, fmt.Errorf("compare: missing design")
 	}
@@ -184,8 +184,8 @@ type axisResults struct {
 // into dotted paths, arrays of objects with a "name" are keyed by it
 // (checks, coefficients, ranges), other arrays (poles, limits) are kept
 // whole.
-func flatResults(a *emit.Airframe) (map[string]axisResults, error) {
-	rep := emit.Report([]*emit.Airframe{a})
+func flatResults(a *discrete.Airframe) (map[string]axisResults, error) {
+	rep := JSON([]*discrete.Airframe{a})
 	if len(rep.Airframes) != 1 {
 		return nil, fmt.Errorf("compare: no report for %s", a.File.Path)
 	}
@@ -216,7 +216,7 @@ func flatResults(a *emit.Airframe) (map[string]axisResults, error) {
 // range headroom under the keys of DESIGN.md's JSON report
 // (numeric.coefficients.NAME.quantized, numeric.ranges.NAME.headroom_bits),
 // for as long as the report does not carry them itself.
-func addNumeric(a *emit.Airframe, axis string, vals map[string]string) {
+func addNumeric(a *discrete.Airframe, axis string, vals map[string]string) {
 	for _, x := range a.Axes {
 		if x.Name != axis || x.Design == nil || x.Design.Num == nil {
 			continue
@@ -240,7 +240,7 @@ func num10(x float64) string {
 	if math.IsNaN(x) || math.IsInf(x, 0) {
 		return "null"
 	}
-	v, _ := strconv.ParseFloat(strconv.FormatFloat(x, 'e', emit.SignificantDigits-1, 64), 64)
+	v, _ := strconv.ParseFloat(strconv.FormatFloat(x, 'e', SignificantDigits-1, 64), 64)
 	return strconv.FormatFloat(v, 'g', -1, 64)
 }
 

@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/cmplx"
 
+	"locusmith/airframe"
 	"locusmith/discrete"
 	"locusmith/internal/lti"
 	"locusmith/synth"
@@ -108,10 +109,10 @@ func trimSmall(p lti.Poly) lti.Poly {
 
 // contLoop returns the continuous loop C(jω)·G(jω)·H(jω)·e^(−jωτ) with the
 // exact delay.
-func contLoop(p synth.Problem, c synth.Controller) func(w float64) complex128 {
+func contLoop(p airframe.Axis, c synth.Controller) func(w float64) complex128 {
 	return func(w float64) complex128 {
 		s := complex(0, w)
-		return c.Eval(s) * p.Loop(s)
+		return c.Eval(s) * p.OpenLoop(s)
 	}
 }
 

@@ -8,7 +8,6 @@ import (
 
 	"locusmith/airframe"
 	"locusmith/discrete"
-	"locusmith/emit"
 	"locusmith/internal/lti"
 	"locusmith/internal/pyref"
 )
@@ -43,13 +42,13 @@ derivative_lowpass_hz = 60.0
 output_limit = [-0.5, 0.5]
 `
 
-func designText(t *testing.T, name, text string) *emit.Airframe {
+func designText(t *testing.T, name, text string) *discrete.Airframe {
 	t.Helper()
 	f, err := airframe.Parse(name, []byte(text))
 	if err != nil {
 		t.Fatal(err)
 	}
-	a := emit.DesignAirframe(f)
+	a := discrete.DesignAirframe(f)
 	for _, x := range a.Axes {
 		if x.Err != nil {
 			t.Fatalf("%s: %v", x.Name, x.Err)

@@ -8,16 +8,17 @@ import (
 	"strings"
 	"sync"
 
+	"locusmith/airframe"
 	"locusmith/discrete"
-	"locusmith/emit"
+	"locusmith/internal/version"
 	"locusmith/synth"
 )
 
-// Report is the data of the Markdown template (templates/report.md.tmpl).
+// Page is the data of the Markdown template (templates/report.md.tmpl).
 // Every number is already formatted: the template only lays out, and
 // every piece of free text (the file's description, warnings, errors) is
 // already escaped for Markdown.
-type Report struct {
+type Page struct {
 	Airframe    string
 	Version     string
 	File        string // the input path as given
@@ -29,7 +30,7 @@ type Report struct {
 	Numeric     string
 	OK          bool
 	Summary     []SummaryRow
-	Axes        []AxisReport
+	Axes        []AxisPage
 	Cautions    []string
 }
 
@@ -39,8 +40,8 @@ type SummaryRow struct {
 	Overshoot, Settling, PhaseMargin, GainMargin string
 }
 
-// AxisReport is the section of one axis.
-type AxisReport struct {
+// AxisPage is the section of one axis.
+type AxisPage struct {
 	Name  string
 	Error string // the design failed; nothing else is filled
 	Job   string
@@ -126,11 +127,11 @@ func cautions() []string {
 }
 
 // model builds the report data and renders the plots of an airframe.
-func model(a *emit.Airframe) (*Report, []builtFigure) {
+func model(a *discrete.Airframe) (*Page, []builtFigure) {
 	f := a.File
-	r := &Report{
+	r := &Page{
 		Airframe:    f.Airframe,
-		Version:     emit.Version,
+		Version:     version.Version,
 		File:        mdCode(f.Path),
 		SHA256:      f.SHA256,
 		Description: mdText(f.Description),
@@ -145,7 +146,7 @@ func model(a *emit.Airframe) (*Report, []builtFigure) {
 	// collected in the file's axis order, so the output does not depend
 	// on the scheduling.
 	type result struct {
-		ar   AxisReport
+		ar   AxisPage
 		figs []builtFigure
 	}
 	res := make([]result, len(a.Axes))
@@ -156,7 +157,7 @@ func model(a *emit.Airframe) (*Report, []builtFigure) {
 			defer wg.Done()
 			defer func() {
 				if p := recover(); p != nil {
-					res[i] = result{ar: AxisReport{Name: x.Name, Error: mdText(fmt.Sprintf("the report of this axis failed (a bug; please report it with the input file): %v", p))}}
+					res[i] = result{ar: AxisPage{Name: x.Name, Error: mdText(fmt.Sprintf("the report of this axis failed (a bug; please report it with the input file): %v", p))}}
 				}
 			}()
 			ar, fs := axisModel(f.Airframe, x)
@@ -173,7 +174,7 @@ func model(a *emit.Airframe) (*Report, []builtFigure) {
 	return r, figs
 }
 
-func summaryRow(x emit.Axis, ar AxisReport) SummaryRow {
+func summaryRow(x discrete.Outcome, ar AxisPage) SummaryRow {
 	row := SummaryRow{Axis: x.Name, Form: ar.Form, Status: "met", Overshoot: "–", Settling: "–", PhaseMargin: "–", GainMargin: "–"}
 	if x.Err != nil || x.Design == nil {
 		row.Status = "**not designed**"
@@ -197,8 +198,8 @@ func summaryRow(x emit.Axis, ar AxisReport) SummaryRow {
 	return row
 }
 
-func axisModel(airframe string, x emit.Axis) (AxisReport, []builtFigure) {
-	ar := AxisReport{Name: x.Name}
+func axisModel(airframe string, x discrete.Outcome) (AxisPage, []builtFigure) {
+	ar := AxisPage{Name: x.Name}
 	if x.Err != nil || x.Design == nil || x.Design.Cont == nil {
 		msg := "no design"
 		if x.Err != nil {
@@ -256,21 +257,21 @@ func formText(d *discrete.Design) string {
 	p, c, k := d.Problem, d.Cont.Ctrl, d.Coeffs
 	var parts []string
 	switch c.Form {
-	case synth.FormP:
+	case airframe.FormP:
 		parts = append(parts, "P controller")
-	case synth.FormPI:
+	case airframe.FormPI:
 		parts = append(parts, "PI controller")
-	case synth.FormPD, synth.FormPID:
+	case airframe.FormPD, airframe.FormPID:
 		on := "on the measurement (no derivative kick on a setpoint step)"
 		if c.DerivativeOnError {
 			on = "on the error"
 		}
 		parts = append(parts, fmt.Sprintf("%s controller with the derivative filtered at %s Hz (Tf = %s s), %s",
 			strings.ToUpper(string(c.Form)), g(p.Ctrl.DerivativeLowpassHz, 4), g(c.Tf, 4), on))
-	case synth.FormLead:
+	case airframe.FormLead:
 		parts = append(parts, "lead compensator K(s − z)/(s − p) on the error")
 	}
-	if c.Form != synth.FormLead {
+	if c.Form != airframe.FormLead {
 		parts = append(parts, fmt.Sprintf("setpoint weight b = %s on the P term", g(c.B, 3)))
 	}
 	if c.Form.HasIntegral() {
@@ -293,7 +294,7 @@ func formText(d *discrete.Design) string {
 	return strings.Join(parts, "; ") + "."
 }
 
-func plantLines(p synth.Problem) []string {
+func plantLines(p airframe.Axis) []string {
 	m := p.Plant.Model
 	tf := "G(s) = " + zpkText(m.Gain, m.Zeros, m.Poles)
 	if p.Plant.Delay > 0 {
@@ -307,7 +308,7 @@ func plantLines(p synth.Problem) []string {
 	return lines
 }
 
-func sensorLines(p synth.Problem) []string {
+func sensorLines(p airframe.Axis) []string {
 	s := p.Sensor
 	if len(s.Poles) == 0 && len(s.Zeros) == 0 && s.Gain == 1 {
 		return []string{"ideal: H(s) = 1"}
@@ -318,7 +319,7 @@ func sensorLines(p synth.Problem) []string {
 // zpkText writes k·Π(s − z)/Π(s − p) with real factors (s + a) and
 // quadratic factors for pairs.
 func zpkText(k float64, zs, ps []complex128) string {
-	num, den := emit.Factors(zs, g4, "·"), emit.Factors(ps, g4, "·")
+	num, den := Factors(zs, g4, "·"), Factors(ps, g4, "·")
 	s := g4(k)
 	if num != "" {
 		s += "·" + num
@@ -335,7 +336,7 @@ func zpkText(k float64, zs, ps []complex128) string {
 
 func rootsText(rs []complex128) string {
 	var out []string
-	for _, r := range emit.CanonicalRoots(rs) {
+	for _, r := range CanonicalRoots(rs) {
 		if imag(r) != 0 {
 			out = append(out, fmt.Sprintf("%s ± %sj", g4(real(r)), g4(imag(r))))
 		} else {
@@ -356,7 +357,7 @@ func polesText(ps []complex128, unit string) string {
 // ln(z)/T, which read like the continuous poles.
 func zPolesText(ps []complex128, T float64) string {
 	var out []string
-	for _, z := range emit.CanonicalRoots(ps) {
+	for _, z := range CanonicalRoots(ps) {
 		var s string
 		if imag(z) != 0 {
 			s = fmt.Sprintf("%s ± %sj", g4(real(z)), g4(imag(z)))
@@ -463,12 +464,12 @@ func workingOf(d *discrete.Design) Working {
 		out.Residual += " (with the exact delay)"
 	}
 	switch c.Ctrl.Form {
-	case synth.FormPID:
+	case airframe.FormPID:
 		s3 := -p.Ctrl.ThirdPole * c.Target.Sigma
 		out.Extra = append(out.Extra, fmt.Sprintf("third real closed-loop pole at third_pole·(−σ) = %s·(−%s) = %s: 1 + C(s3)·L(s3) = 0 is the third equation", g(p.Ctrl.ThirdPole, 3), g4(c.Target.Sigma), g4(s3)))
-	case synth.FormLead:
+	case airframe.FormLead:
 		out.Extra = append(out.Extra, fmt.Sprintf("the zero is fixed at %s; the pole %s is where a real pole subtends the remaining angle, and K = %s follows from the magnitude condition", g4(c.Ctrl.Zero), g4(c.Ctrl.Pole), g4(c.Ctrl.K)))
-	case synth.FormP:
+	case airframe.FormP:
 		out.Extra = append(out.Extra, "P has one gain: the target is where the locus crosses the damping line ζ, and Kp is the magnitude condition there")
 	}
 	return out
@@ -477,7 +478,7 @@ func workingOf(d *discrete.Design) Working {
 func gainRows(c *synth.Design) []Row {
 	k := c.Ctrl
 	var rows []Row
-	if k.Form == synth.FormLead {
+	if k.Form == airframe.FormLead {
 		rows = append(rows, Row{"K", g(k.K, 6), ""}, Row{"zero", g(k.Zero, 6), "rad/s"}, Row{"pole", g(k.Pole, 6), "rad/s"})
 	} else {
 		rows = append(rows, Row{"Kp", g(k.Kp, 6), "command per rad/s"})
@@ -501,7 +502,7 @@ func gainRows(c *synth.Design) []Row {
 		if t.Form.HasDerivative() {
 			s += ", Kd = " + g4(t.Kd)
 		}
-		if t.Form == synth.FormLead {
+		if t.Form == airframe.FormLead {
 			s = fmt.Sprintf("K = %s, pole %s", g4(t.K), g4(t.Pole))
 		}
 		note := "unrefined placement at the spec's target"
@@ -518,7 +519,7 @@ func gainRows(c *synth.Design) []Row {
 func coeffRows(k discrete.Coeffs) []Row {
 	var rows []Row
 	add := func(name string, v float64, note string) { rows = append(rows, Row{name, g(v, 7), note}) }
-	if k.Form == synth.FormLead {
+	if k.Form == airframe.FormLead {
 		add("B0", k.B0, "ul = B0·e + x")
 		add("B1", k.B1, "x ← B1·e − A1·ul")
 		add("A1", k.A1, "")

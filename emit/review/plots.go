@@ -12,6 +12,7 @@ import (
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 
+	"locusmith/airframe"
 	"locusmith/discrete"
 	"locusmith/internal/lti"
 	"locusmith/synth"
@@ -287,7 +288,7 @@ func thinPath(pts plotter.XYs, w window) plotter.XYs {
 // padeSet recognizes the approximant's poles and zeros among the loop's.
 type padeSet struct{ poles, zeros []complex128 }
 
-func padeRoots(p synth.Problem, l *synth.Locus) padeSet {
+func padeRoots(p airframe.Axis, l *synth.Locus) padeSet {
 	var s padeSet
 	if l.PadeOrder == 0 {
 		return s
@@ -482,7 +483,7 @@ var (
 // drawSpec draws the spec on a step plot: the overshoot limit, and the
 // settling band from the spec's settling time on (shaded: where the
 // response must stay).
-func drawSpec(p *plot.Plot, s synth.Spec, final, tEnd float64) {
+func drawSpec(p *plot.Plot, s airframe.Spec, final, tEnd float64) {
 	ms := 1000.0
 	ts := s.SettlingTime * ms
 	te := tEnd * ms
@@ -499,7 +500,7 @@ func drawSpec(p *plot.Plot, s synth.Spec, final, tEnd float64) {
 	addLine(p, plotter.XYs{{X: 0, Y: ov}, {X: te * 2, Y: ov}}, styleOvershoot)
 }
 
-func addSpecLegend(f *figure, s synth.Spec) {
+func addSpecLegend(f *figure, s airframe.Spec) {
 	f.add(fmt.Sprintf("overshoot limit %s %%", g(100*s.Overshoot, 3)), thumbLine(styleOvershoot))
 	f.add(fmt.Sprintf("settling band ±%s %% after %s ms", g(100*s.Band, 3), g(1000*s.SettlingTime, 4)), thumbFill{colSpecFill, styleBand}, thumbLine(styleTs))
 }

@@ -20,7 +20,7 @@ import (
 	"strings"
 	"text/template"
 
-	"locusmith/emit"
+	"locusmith/discrete"
 	"locusmith/synth"
 	"locusmith/templates"
 )
@@ -36,7 +36,7 @@ type File struct {
 // failed gets its error in the report and no plots. A plot that cannot be
 // drawn (a degenerate design) is left out with a note in the report,
 // rather than failing the whole report.
-func Build(a *emit.Airframe) ([]File, error) {
+func Build(a *discrete.Airframe) ([]File, error) {
 	if a == nil || a.File == nil {
 		return nil, errors.New("review: no airframe")
 	}
@@ -153,7 +153,7 @@ func writeAtomic(path string, data []byte) error {
 
 // newPlotAxis gathers what the plots of a designed axis need. The parts
 // that can fail (the locus, the z-plane map) are left nil with the reason.
-func newPlotAxis(x emit.Axis) (*plotAxis, []string) {
+func newPlotAxis(x discrete.Outcome) (*plotAxis, []string) {
 	d := x.Design
 	var notes []string
 	a := &plotAxis{name: x.Name, d: d}
@@ -178,7 +178,7 @@ func newPlotAxis(x emit.Axis) (*plotAxis, []string) {
 }
 
 // renderMarkdown renders the report template.
-func renderMarkdown(r *Report) ([]byte, error) {
+func renderMarkdown(r *Page) ([]byte, error) {
 	t, err := template.New("report.md.tmpl").ParseFS(templates.FS, "report.md.tmpl")
 	if err != nil {
 		return nil, fmt.Errorf("report template: %w", err)

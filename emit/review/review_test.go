@@ -17,18 +17,17 @@ import (
 
 	"locusmith/airframe"
 	"locusmith/discrete"
-	"locusmith/emit"
 )
 
 var update = flag.Bool("update", false, "rewrite the golden files under testdata/golden")
 
-func design(t testing.TB, path string) *emit.Airframe {
+func design(t testing.TB, path string) *discrete.Airframe {
 	t.Helper()
 	f, err := airframe.Load(path)
 	if err != nil {
 		t.Fatal(err)
 	}
-	return emit.DesignAirframe(f)
+	return discrete.DesignAirframe(f)
 }
 
 // airframes are every airframe the structural checks run on: the demo
@@ -252,7 +251,7 @@ func kindOf(airframe, name string) string {
 	return kind
 }
 
-func axisOf(a *emit.Airframe, airframe, name string) *emit.Axis {
+func axisOf(a *discrete.Airframe, airframe, name string) *discrete.Outcome {
 	rest := strings.TrimPrefix(name, airframe+"-")
 	for i, x := range a.Axes {
 		if strings.HasPrefix(rest, x.Name+"-") {
@@ -372,7 +371,7 @@ func BenchmarkBuild(b *testing.B) {
 		b.Fatal(err)
 	}
 	for b.Loop() {
-		if _, err := Build(emit.DesignAirframe(f)); err != nil {
+		if _, err := Build(discrete.DesignAirframe(f)); err != nil {
 			b.Fatal(err)
 		}
 	}
@@ -398,7 +397,7 @@ func TestBuildWithFailedAxis(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	a := emit.DesignAirframe(f)
+	a := discrete.DesignAirframe(f)
 	if a.Axes[0].Err == nil {
 		t.Fatal("the axis designed; the test needs one that cannot")
 	}

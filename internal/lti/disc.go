@@ -7,6 +7,8 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
+//go:generate go run locusmith/internal/lti/internal/kernelgen/gen
+
 // Disc is a discrete SISO state-space model with sample period T:
 //
 //	x[k+1] = A x[k] + B u[k],  y[k] = C x[k] + D u[k],

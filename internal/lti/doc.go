@@ -1,5 +1,3 @@
-//go:generate sh -c "python3 testdata/gen_kernels.py > kernels_gen.go && gofmt -w kernels_gen.go"
-
 // Package lti is the shared linear-time-invariant math of locusmith: real
 // polynomials and their roots, SISO transfer functions in polynomial (TF) and
 // zero-pole-gain (ZPK) form, continuous state space (SS), exact zero-order-hold

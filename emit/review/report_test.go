@@ -1,4 +1,4 @@
-package emit
+package review
 
 import (
 	"bytes"
@@ -11,6 +11,9 @@ import (
 	"testing"
 
 	"locusmith/airframe"
+	"locusmith/discrete"
+	"locusmith/internal/fleet"
+	"locusmith/internal/version"
 )
 
 // TestRoundSigMatchesBig: roundSig is rounding to SignificantDigits
@@ -93,13 +96,13 @@ func TestJSONNumbersOmitNonFinite(t *testing.T) {
 }
 
 // design parses an inline airframe and designs it.
-func design(t *testing.T, src string) *Airframe {
+func designInline(t *testing.T, src string) *discrete.Airframe {
 	t.Helper()
 	f, err := airframe.Parse("inline.toml", []byte(src))
 	if err != nil {
 		t.Fatalf("parse: %v", err)
 	}
-	return DesignAirframe(f)
+	return discrete.DesignAirframe(f)
 }
 
 const twoAxes = `airframe = "testcraft"
@@ -142,9 +145,9 @@ form = "pi"
 // TestReportFields: each form reports the fields that apply to it and no
 // others; a margin that does not exist is omitted, not invented.
 func TestReportFields(t *testing.T) {
-	a := design(t, twoAxes)
-	r := Report([]*Airframe{a})
-	if r.Version != Version || len(r.Airframes) != 1 {
+	a := designInline(t, twoAxes)
+	r := JSON([]*discrete.Airframe{a})
+	if r.Version != version.Version || len(r.Airframes) != 1 {
 		t.Fatalf("report header: %+v", r)
 	}
 	ar := r.Airframes[0]
@@ -221,7 +224,7 @@ func TestReportJSONText(t *testing.T) {
 		var b bytes.Buffer
 		e := json.NewEncoder(&b)
 		e.SetIndent("", "  ")
-		if err := e.Encode(Report([]*Airframe{design(t, twoAxes)})); err != nil {
+		if err := e.Encode(JSON([]*discrete.Airframe{designInline(t, twoAxes)})); err != nil {
 			t.Fatal(err)
 		}
 		return b.Bytes()
@@ -282,11 +285,11 @@ refine = false
 `
 
 func TestReportInfeasibleAxis(t *testing.T) {
-	a := design(t, infeasibleYaw)
-	if len(a.Axes) != 1 || !Infeasible(a.Axes[0].Err) {
+	a := designInline(t, infeasibleYaw)
+	if len(a.Axes) != 1 || !discrete.Infeasible(a.Axes[0].Err) {
 		t.Fatalf("want one infeasible axis, got %+v", a.Axes)
 	}
-	r := Report([]*Airframe{a})
+	r := JSON([]*discrete.Airframe{a})
 	x := r.Airframes[0].Axes[0]
 	if x.OK || !strings.Contains(x.Error, "pi cannot place the target pole") || x.Continuous != nil || x.Discrete != nil || x.Form != "pi" {
 		t.Fatalf("infeasible axis: %+v", x)
@@ -294,7 +297,7 @@ func TestReportInfeasibleAxis(t *testing.T) {
 	if r.Airframes[0].OK {
 		t.Error("airframe ok with a failed axis")
 	}
-	if u := Unmet(a); len(u) != 1 || !strings.HasPrefix(u[0], "axis yaw: ") {
+	if u := a.Unmet(); len(u) != 1 || !strings.HasPrefix(u[0], "axis yaw: ") {
 		t.Errorf("Unmet = %q, want one line naming axis yaw", u)
 	}
 	var b bytes.Buffer
@@ -307,12 +310,12 @@ func TestReportInfeasibleAxis(t *testing.T) {
 }
 
 func TestWriteTable(t *testing.T) {
-	a := design(t, twoAxes)
+	a := designInline(t, twoAxes)
 	var b1, b2 bytes.Buffer
 	if err := WriteTable(&b1, a); err != nil {
 		t.Fatal(err)
 	}
-	if err := WriteTable(&b2, design(t, twoAxes)); err != nil {
+	if err := WriteTable(&b2, designInline(t, twoAxes)); err != nil {
 		t.Fatal(err)
 	}
 	if b1.String() != b2.String() {
@@ -333,5 +336,33 @@ func TestWriteTable(t *testing.T) {
 		if strings.TrimRight(line, " ") != line {
 			t.Errorf("trailing blanks: %q", line)
 		}
+	}
+}
+
+// Dropping traces keeps every figure of the JSON report.
+func TestDropTracesKeepsFigures(t *testing.T) {
+	srcs, err := fleet.Make(3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var files []*airframe.File
+	for _, src := range srcs {
+		f, err := airframe.Parse("fleet/"+src.Name, src.Data)
+		if err != nil {
+			t.Fatal(err)
+		}
+		files = append(files, f)
+	}
+	encode := func(as []*discrete.Airframe) []byte {
+		b, err := json.Marshal(JSON(as))
+		if err != nil {
+			t.Fatal(err)
+		}
+		return b
+	}
+	full := encode(discrete.DesignAll(files, discrete.BatchOptions{Jobs: 2, KeepTraces: true}))
+	lean := encode(discrete.DesignAll(files, discrete.BatchOptions{Jobs: 2}))
+	if !bytes.Equal(full, lean) {
+		t.Error("the report changes when the traces are dropped")
 	}
 }

@@ -1,4 +1,4 @@
-package emit
+package review
 
 import (
 	"cmp"
@@ -11,13 +11,9 @@ import (
 	"locusmith/airframe"
 	"locusmith/discrete"
 	"locusmith/internal/lti"
+	"locusmith/internal/version"
 	"locusmith/synth"
 )
-
-// Version is the tool version. It is the one place the version is written:
-// the CLI prints it, the JSON report carries it and generated code names it
-// in its first line, so a change of version changes all three together.
-const Version = "0.1.0"
 
 // SignificantDigits is the precision of every number in the JSON report.
 //
@@ -241,10 +237,10 @@ type CheckReport struct {
 	OK    bool     `json:"ok"`
 }
 
-// Report builds the JSON report of the designed airframes, in the order
+// JSON builds the JSON report of the designed airframes, in the order
 // given.
-func Report(as []*Airframe) *JSONReport {
-	r := &JSONReport{Version: Version, Airframes: make([]AirframeReport, 0, len(as))}
+func JSON(as []*discrete.Airframe) *JSONReport {
+	r := &JSONReport{Version: version.Version, Airframes: make([]AirframeReport, 0, len(as))}
 	for _, a := range as {
 		if a == nil || a.File == nil {
 			continue
@@ -254,7 +250,7 @@ func Report(as []*Airframe) *JSONReport {
 	return r
 }
 
-func jsonAirframe(a *Airframe) AirframeReport {
+func jsonAirframe(a *discrete.Airframe) AirframeReport {
 	f := a.File
 	ar := AirframeReport{
 		Airframe:     f.Airframe,
@@ -272,16 +268,16 @@ func jsonAirframe(a *Airframe) AirframeReport {
 }
 
 // axisProblem finds the problem of axis name in the file.
-func axisProblem(f *airframe.File, name string) (synth.Problem, bool) {
+func axisProblem(f *airframe.File, name string) (airframe.Axis, bool) {
 	for _, p := range f.Axes {
-		if p.Axis == name {
+		if p.Name == name {
 			return p, true
 		}
 	}
-	return synth.Problem{}, false
+	return airframe.Axis{}, false
 }
 
-func jsonAxis(a *Airframe, x Axis) AxisReport {
+func jsonAxis(a *discrete.Airframe, x discrete.Outcome) AxisReport {
 	r := AxisReport{Axis: x.Name, OK: x.OK()}
 	if p, ok := axisProblem(a.File, x.Name); ok {
 		r.Form = string(p.Ctrl.Form)
@@ -289,7 +285,7 @@ func jsonAxis(a *Airframe, x Axis) AxisReport {
 	d := x.Design
 	switch {
 	case x.Err != nil:
-		r.Error = axisErr(x)
+		r.Error = x.ErrorText()
 		return r
 	case d == nil || d.Cont == nil:
 		r.Error = "no design"
@@ -334,7 +330,7 @@ func jsonTextbook(s *synth.Stage) *TextbookReport {
 // jsonGains returns the parallel gains that apply to the form: none for lead,
 // whose only form is the series one.
 func jsonGains(c synth.Controller) (kp, ki, kd *float64) {
-	if c.Form == synth.FormLead {
+	if c.Form == airframe.FormLead {
 		return nil, nil, nil
 	}
 	kp = jsonNum(c.Kp)
@@ -366,7 +362,7 @@ func jsonContinuous(c *synth.Design) *ContinuousReport {
 	if c.Ctrl.Form.HasDerivative() {
 		cr.DerivativeTau = jsonNum(c.Ctrl.Tf)
 	}
-	if c.Ctrl.Form != synth.FormLead {
+	if c.Ctrl.Form != airframe.FormLead {
 		cr.SetpointWeight = jsonNum(c.Ctrl.B)
 	}
 	if v.Stable {

@@ -1,4 +1,4 @@
-package emit
+package review
 
 import (
 	"bufio"
@@ -7,6 +7,7 @@ import (
 	"math"
 	"strings"
 
+	"locusmith/airframe"
 	"locusmith/discrete"
 	"locusmith/synth"
 )
@@ -20,7 +21,7 @@ import (
 // compare with a hand calculation, few enough that the last bits of a
 // floating-point result never show. The text depends only on the design,
 // so it is the same on every run.
-func WriteTable(w io.Writer, a *Airframe) error {
+func WriteTable(w io.Writer, a *discrete.Airframe) error {
 	bw := bufio.NewWriter(w)
 	t := &tableWriter{w: bw}
 	t.airframe(a)
@@ -28,78 +29,6 @@ func WriteTable(w io.Writer, a *Airframe) error {
 		return fmt.Errorf("write table: %w", err)
 	}
 	return nil
-}
-
-// Unmet lists, one line each, why the airframe is not ok: the axes that
-// could not be designed and the checks that failed. It is empty when
-// every axis passed.
-func Unmet(a *Airframe) []string {
-	var out []string
-	for _, x := range a.Axes {
-		switch {
-		case x.Err != nil:
-			out = append(out, fmt.Sprintf("axis %s: %s", x.Name, axisErr(x)))
-		case x.Design == nil:
-			out = append(out, fmt.Sprintf("axis %s: no design", x.Name))
-		default:
-			for _, c := range x.Design.Checks {
-				if !c.OK {
-					out = append(out, fmt.Sprintf("axis %s: %s", x.Name, tabCheck(c)))
-				}
-			}
-		}
-	}
-	return out
-}
-
-// axisErr is the axis's error without the "axis NAME: " prefix that the
-// designer puts on it, for lines that name the axis already.
-func axisErr(x Axis) string {
-	return strings.TrimPrefix(x.Err.Error(), "axis "+x.Name+": ")
-}
-
-// tabCheck says what a failed check found: "overshoot 12.3 % > 10 %".
-func tabCheck(c synth.Check) string {
-	rel := "<"
-	switch {
-	case c.Name == "stable" || c.Name == "sampling":
-		rel = "≥"
-	case c.Upper:
-		rel = ">"
-	}
-	what := map[string]string{
-		"stable":        "sampled loop unstable: max |z|",
-		"sampling":      "fastest dynamics / Nyquist",
-		"overshoot":     "overshoot",
-		"settling_time": "settling time",
-		"phase_margin":  "phase margin",
-		"gain_margin":   "gain margin",
-	}[c.Name]
-	if what == "" {
-		what = c.Name
-	}
-	return fmt.Sprintf("%s %s %s %s (sampled loop)", what, tabCheckValue(c.Name, c.Value), rel, tabCheckValue(c.Name, c.Limit))
-}
-
-// tabCheckValue formats a check's value or limit in its unit; the
-// quantized_ checks (the spec checks with quantized coefficients) share
-// the units of the spec checks.
-func tabCheckValue(name string, v float64) string {
-	switch strings.TrimPrefix(name, "quantized_") {
-	case "overflow":
-		return tabG4(v) + " bits"
-	case "limit_cycle":
-		return tabG4(v) + " LSB"
-	case "overshoot":
-		return tabPct(v)
-	case "settling_time":
-		return tabSec(v)
-	case "phase_margin":
-		return tabDeg(v)
-	case "gain_margin":
-		return tabDB(v)
-	}
-	return tabG4(v)
 }
 
 type tableWriter struct {
@@ -110,14 +39,14 @@ func (t *tableWriter) line(format string, args ...any) {
 	fmt.Fprintf(t.w, format+"\n", args...)
 }
 
-func (t *tableWriter) airframe(a *Airframe) {
+func (t *tableWriter) airframe(a *discrete.Airframe) {
 	f := a.File
 	t.line("airframe %s  (%s)", f.Airframe, f.Path)
 	if f.Description != "" {
 		t.line("  %s", tabOneLine(f.Description))
 	}
 	t.line("  loop %s Hz (T = %s), compute delay %d sample%s, numeric %s",
-		tabG4(f.Loop.Hz), tabSec(1/f.Loop.Hz), f.Loop.ComputeDelay, tabPlural(f.Loop.ComputeDelay), f.Numeric.Type)
+		synth.G4(f.Loop.Hz), tabSec(1/f.Loop.Hz), f.Loop.ComputeDelay, tabPlural(f.Loop.ComputeDelay), f.Numeric.Type)
 	failed := 0
 	for _, x := range a.Axes {
 		if !x.OK() {
@@ -136,7 +65,7 @@ func (t *tableWriter) airframe(a *Airframe) {
 	t.line("")
 }
 
-func (t *tableWriter) axis(a *Airframe, x Axis) {
+func (t *tableWriter) axis(a *discrete.Airframe, x discrete.Outcome) {
 	form := ""
 	if p, ok := axisProblem(a.File, x.Name); ok {
 		form = string(p.Ctrl.Form)
@@ -147,7 +76,7 @@ func (t *tableWriter) axis(a *Airframe, x Axis) {
 	}
 	t.line("axis %s  form %s  %s", x.Name, form, status)
 	if x.Err != nil {
-		t.line("  cannot design: %s", tabOneLine(axisErr(x)))
+		t.line("  cannot design: %s", tabOneLine(x.ErrorText()))
 		return
 	}
 	d := x.Design
@@ -263,15 +192,15 @@ func (t *tableWriter) metrics(d *discrete.Design) {
 	metric("gain margin", "gain_margin", tabDB(cv.Margins.GainDB), marg(&dv, gm, tabDB), marg(qv, gm, tabDB))
 	metric("crossover", "", tabRadps(cv.Margins.Crossover), marg(&dv, wc, tabRadps), marg(qv, wc, tabRadps))
 	metric("delay margin", "", tabSec(cv.Margins.DelayMargin), marg(&dv, dm, tabSec), marg(qv, dm, tabSec))
-	zText := func(x float64) string { return "|z| " + tabG4(x) }
-	metric("stability (max)", "stable", "Re "+tabG4(tabMaxRe(cv.Poles)), marg(&dv, maxZ, zText), marg(qv, maxZ, zText))
-	metric("sampling", "sampling", "", "ω/Nyquist "+tabG4(tabSampling(checks)), "")
+	zText := func(x float64) string { return "|z| " + synth.G4(x) }
+	metric("stability (max)", "stable", "Re "+synth.G4(tabMaxRe(cv.Poles)), marg(&dv, maxZ, zText), marg(qv, maxZ, zText))
+	metric("sampling", "sampling", "", "ω/Nyquist "+synth.G4(tabSampling(checks)), "")
 	// The checks left are those of the numeric realization (overflow,
 	// limit cycle): their values go in the quantized column when there is
 	// one.
 	for i, c := range checks {
 		if !used[i] {
-			disc, quant := tabCheckValue(c.Name, c.Value), ""
+			disc, quant := synth.CheckValue(c.Name, c.Value), ""
 			if qv != nil {
 				disc, quant = "", disc
 			}
@@ -300,17 +229,17 @@ func (t *tableWriter) numeric(d *discrete.Design) {
 			t.line("  numeric    %s", n.Type)
 			return
 		}
-		t.line("  numeric    %s: coefficients rounded to nearest, largest relative error %s (%s)", n.Type, tabG4(worst), name)
+		t.line("  numeric    %s: coefficients rounded to nearest, largest relative error %s (%s)", n.Type, synth.G4(worst), name)
 		return
 	}
 	t.line("  numeric    %s (%d-bit words): input full scale %s, output full scale %s; input %s bits, output %s bits below the settling band",
-		n.Type, n.W, tabG4(n.InputFullScale), tabG4(n.OutputFullScale), tabG4(n.InputResolutionBits), tabG4(n.OutputResolutionBits))
+		n.Type, n.W, synth.G4(n.InputFullScale), synth.G4(n.OutputFullScale), synth.G4(n.InputResolutionBits), synth.G4(n.OutputResolutionBits))
 	t.line("             against the float64 model: max error %s LSB, SQNR %s dB, at rest %s LSB (bound %s)",
-		tabG4(n.MaxErrorLSB), tabG4(n.SQNRdB), tabG4(n.RestLSB), tabG4(n.RestBoundLSB))
+		synth.G4(n.MaxErrorLSB), synth.G4(n.SQNRdB), synth.G4(n.RestLSB), synth.G4(n.RestBoundLSB))
 	const crow = "  %-20s %-15s %-15s %-9s %s"
 	t.line(crow, "coefficient", "value", "quantized", "format", "rel error")
 	for _, c := range n.Coefficients {
-		t.line(crow, c.Name, tabG4(c.Value), tabG4(c.Quantized), c.Format, tabG4(c.RelError))
+		t.line(crow, c.Name, synth.G4(c.Value), synth.G4(c.Quantized), c.Format, synth.G4(c.RelError))
 	}
 	if len(n.Ranges) == 0 {
 		return
@@ -319,11 +248,11 @@ func (t *tableWriter) numeric(d *discrete.Design) {
 	const rrow = "  %-46s %-9s %-11s %-11s %s"
 	t.line(rrow, "range", "format", "bound", "capacity", "headroom")
 	for _, g := range n.Ranges {
-		head := tabG4(g.HeadroomBits) + " bits"
+		head := synth.G4(g.HeadroomBits) + " bits"
 		if g.Saturated {
 			head += ", saturates"
 		}
-		t.line("%s", strings.TrimRight(fmt.Sprintf(rrow, tabOneLine(g.Name), g.Format, tabG4(g.Bound), tabG4(g.Capacity), head), " "))
+		t.line("%s", strings.TrimRight(fmt.Sprintf(rrow, tabOneLine(g.Name), g.Format, synth.G4(g.Bound), synth.G4(g.Capacity), head), " "))
 	}
 }
 
@@ -362,11 +291,11 @@ func (t *tableWriter) saturated(d *discrete.Design) {
 		why = "90 % of what the integrator limit can hold at steady state; output_limit"
 	}
 	t.line("  saturated step: setpoint %s, %s [%s, %s]",
-		tabG4(s.Amplitude), why, tabG4(k.Lo), tabG4(k.Hi))
+		synth.G4(s.Amplitude), why, synth.G4(k.Lo), synth.G4(k.Hi))
 	rec := func(settled bool, v float64, y []float64) string {
 		if !settled {
 			if len(y) > 0 {
-				return "no, ends at " + tabG4(y[len(y)-1])
+				return "no, ends at " + synth.G4(y[len(y)-1])
 			}
 			return "not settled"
 		}
@@ -385,26 +314,26 @@ func (t *tableWriter) saturated(d *discrete.Design) {
 	t.line(row, "", aw, "no anti-windup")
 	t.line(row, "overshoot", tabPct(s.Overshoot), tabPct(s.OvershootNone))
 	t.line(row, "recovery time", rec(s.Settled, s.Recovery, s.Y), rec(s.SettledNone, s.RecoveryNone, s.YNone))
-	t.line(row, "integrator peak", tabG4(s.IntegratorPeak), "limit "+tabG4(k.IL))
+	t.line(row, "integrator peak", synth.G4(s.IntegratorPeak), "limit "+synth.G4(k.IL))
 }
 
 func tabTarget(tg synth.Target) string {
 	p := tg.Pole
-	return fmt.Sprintf("ζ = %s  ωn = %s  s* = %s ± %sj rad/s", tabG4(tg.Zeta), tabRadps(tg.OmegaN), tabG4(real(p)), tabG4(math.Abs(imag(p))))
+	return fmt.Sprintf("ζ = %s  ωn = %s  s* = %s ± %sj rad/s", synth.G4(tg.Zeta), tabRadps(tg.OmegaN), synth.G4(real(p)), synth.G4(math.Abs(imag(p))))
 }
 
 func tabGains(c synth.Controller) string {
-	if c.Form == synth.FormLead {
-		return fmt.Sprintf("lead K = %s  zero %s  pole %s rad/s", tabG4(c.K), tabG4(c.Zero), tabG4(c.Pole))
+	if c.Form == airframe.FormLead {
+		return fmt.Sprintf("lead K = %s  zero %s  pole %s rad/s", synth.G4(c.K), synth.G4(c.Zero), synth.G4(c.Pole))
 	}
-	parts := []string{"kp = " + tabG4(c.Kp)}
+	parts := []string{"kp = " + synth.G4(c.Kp)}
 	if c.Form.HasIntegral() {
-		parts = append(parts, "ki = "+tabG4(c.Ki))
+		parts = append(parts, "ki = "+synth.G4(c.Ki))
 	}
 	if c.Form.HasDerivative() {
-		parts = append(parts, "kd = "+tabG4(c.Kd), "Tf = "+tabSec(c.Tf))
+		parts = append(parts, "kd = "+synth.G4(c.Kd), "Tf = "+tabSec(c.Tf))
 	}
-	parts = append(parts, "b = "+tabG4(c.B))
+	parts = append(parts, "b = "+synth.G4(c.B))
 	return strings.Join(parts, "  ")
 }
 
@@ -415,8 +344,8 @@ func tabSeries(c synth.Controller) string {
 	if err != nil {
 		return ""
 	}
-	num, den := Factors(z.Zeros, tabG4, ""), Factors(z.Poles, tabG4, "")
-	s := tabG4(z.Gain)
+	num, den := Factors(z.Zeros, synth.G4, ""), Factors(z.Poles, synth.G4, "")
+	s := synth.G4(z.Gain)
 	if num != "" {
 		s += " " + num
 	}
@@ -430,9 +359,9 @@ func tabPoles(ps []complex128, unit string) string {
 	var out []string
 	for _, r := range CanonicalRoots(ps) {
 		if imag(r) != 0 {
-			out = append(out, fmt.Sprintf("%s ± %sj", tabG4(real(r)), tabG4(imag(r))))
+			out = append(out, fmt.Sprintf("%s ± %sj", synth.G4(real(r)), synth.G4(imag(r))))
 		} else {
-			out = append(out, tabG4(real(r)))
+			out = append(out, synth.G4(real(r)))
 		}
 	}
 	if len(out) == 0 {
@@ -447,7 +376,7 @@ func tabPoles(ps []complex128, unit string) string {
 
 func tabDiscrete(d *discrete.Design) string {
 	k := d.Coeffs
-	s := fmt.Sprintf("%s at %s Hz", k.Method, tabG4(d.Loop.Hz))
+	s := fmt.Sprintf("%s at %s Hz", k.Method, synth.G4(d.Loop.Hz))
 	if k.PrewarpOmega > 0 {
 		s += fmt.Sprintf(" (prewarped at %s)", tabRadps(k.PrewarpOmega))
 	}
@@ -455,7 +384,7 @@ func tabDiscrete(d *discrete.Design) string {
 		s += fmt.Sprintf(", derivative %s", k.DerivativeMethod)
 	}
 	if d.Problem.Ctrl.Form.HasIntegral() {
-		s += fmt.Sprintf(", anti-windup %s, integrator limit %s", k.AntiWindup, tabG4(k.IL))
+		s += fmt.Sprintf(", anti-windup %s, integrator limit %s", k.AntiWindup, synth.G4(k.IL))
 	}
 	return s
 }
@@ -470,13 +399,13 @@ func tabStep(stable bool, overshoot, settling float64) string {
 func tabSpec(c synth.Check) string {
 	switch strings.TrimPrefix(c.Name, "quantized_") {
 	case "stable", "sampling":
-		return "< " + tabG4(c.Limit)
+		return "< " + synth.G4(c.Limit)
 	}
 	rel := "≥ "
 	if c.Upper {
 		rel = "≤ "
 	}
-	return rel + tabCheckValue(c.Name, c.Limit)
+	return rel + synth.CheckValue(c.Name, c.Limit)
 }
 
 func tabPass(ok bool) string {
@@ -497,20 +426,6 @@ func tabMaxRe(ps []complex128) float64 {
 // Unit formatting; a value that is not finite prints as "none" (no
 // crossover) or "n/a".
 
-func tabG4(x float64) string {
-	switch {
-	case math.IsNaN(x):
-		return "n/a"
-	case math.IsInf(x, 1):
-		return "inf"
-	case math.IsInf(x, -1):
-		return "-inf"
-	case x == 0:
-		return "0" // also −0
-	}
-	return fmt.Sprintf("%.4g", x)
-}
-
 func tabFiniteOr(x float64, f func(float64) string) string {
 	if math.IsNaN(x) || math.IsInf(x, 0) {
 		return "none"
@@ -519,25 +434,25 @@ func tabFiniteOr(x float64, f func(float64) string) string {
 }
 
 func tabSec(x float64) string {
-	return tabFiniteOr(x, func(v float64) string { return tabG4(v) + " s" })
+	return tabFiniteOr(x, func(v float64) string { return synth.G4(v) + " s" })
 }
 func tabPct(x float64) string {
 	return tabFiniteOr(x, func(v float64) string {
 		if math.Abs(v) < 1e-9 {
 			v = 0
 		}
-		return tabG4(100*v) + " %"
+		return synth.G4(100*v) + " %"
 	})
 }
-func tabPctShort(x float64) string { return tabG4(100*x) + " %" }
+func tabPctShort(x float64) string { return synth.G4(100*x) + " %" }
 func tabDeg(x float64) string {
-	return tabFiniteOr(x, func(v float64) string { return tabG4(v) + "°" })
+	return tabFiniteOr(x, func(v float64) string { return synth.G4(v) + "°" })
 }
 func tabDB(x float64) string {
-	return tabFiniteOr(x, func(v float64) string { return tabG4(v) + " dB" })
+	return tabFiniteOr(x, func(v float64) string { return synth.G4(v) + " dB" })
 }
 func tabRadps(x float64) string {
-	return tabFiniteOr(x, func(v float64) string { return tabG4(v) + " rad/s" })
+	return tabFiniteOr(x, func(v float64) string { return synth.G4(v) + " rad/s" })
 }
 
 func tabPlural(n int) string {

@@ -1,32 +1,30 @@
-// Package emit turns design results into what users and firmware builds
-// consume: the JSON report and text table of `design`, and generated C99
-// and Go controller source rendered from the templates.
-package emit
+package discrete
 
 import (
 	"errors"
 	"fmt"
+	"strings"
 	"sync"
 
 	"locusmith/airframe"
-	"locusmith/discrete"
 	"locusmith/synth"
 )
 
-// Axis is the outcome of one axis: a design, or the error that stopped it.
-type Axis struct {
+// Outcome is the outcome of one axis: a design, or the error that stopped it.
+type Outcome struct {
 	Name   string
-	Design *discrete.Design // nil when Err is set
-	Err    error            // design could not be completed (e.g. infeasible)
+	Design *Design // nil when Err is set
+	Err    error   // design could not be completed (e.g. infeasible)
 }
 
 // OK reports whether the axis designed and passed every check.
-func (a Axis) OK() bool { return a.Err == nil && a.Design != nil && a.Design.OK() }
+func (a Outcome) OK() bool { return a.Err == nil && a.Design != nil && a.Design.OK() }
 
-// Airframe is the outcome of one airframe file.
+// Airframe is the design of one airframe file: every axis designed at
+// the file's loop rate and numeric type.
 type Airframe struct {
 	File *airframe.File
-	Axes []Axis // in the file's axis order (sorted by name)
+	Axes []Outcome // in the file's axis order (sorted by name)
 }
 
 // OK reports whether every axis passed.
@@ -42,12 +40,40 @@ func (a *Airframe) OK() bool {
 // DesignAirframe designs every axis of f at its loop rate and numeric type.
 // An axis that cannot be designed records its error and the others go on.
 func DesignAirframe(f *airframe.File) *Airframe {
-	out := &Airframe{File: f, Axes: make([]Axis, len(f.Axes))}
+	out := &Airframe{File: f, Axes: make([]Outcome, len(f.Axes))}
 	for i, p := range f.Axes {
-		d, err := discrete.DesignAxis(p, f.Loop, f.Numeric)
-		out.Axes[i] = Axis{Name: p.Axis, Design: d, Err: err}
+		d, err := DesignAxis(p, f.Loop, f.Numeric)
+		out.Axes[i] = Outcome{Name: p.Name, Design: d, Err: err}
 	}
 	return out
+}
+
+// Unmet lists, one line each, why the airframe is not ok: the axes that
+// could not be designed and the checks that failed. It is empty when
+// every axis passed.
+func (a *Airframe) Unmet() []string {
+	var out []string
+	for _, x := range a.Axes {
+		switch {
+		case x.Err != nil:
+			out = append(out, fmt.Sprintf("axis %s: %s", x.Name, x.ErrorText()))
+		case x.Design == nil:
+			out = append(out, fmt.Sprintf("axis %s: no design", x.Name))
+		default:
+			for _, c := range x.Design.Checks {
+				if !c.OK {
+					out = append(out, fmt.Sprintf("axis %s: %s", x.Name, c.String()))
+				}
+			}
+		}
+	}
+	return out
+}
+
+// ErrorText is the axis's error without the "axis NAME: " prefix that the
+// designer puts on it, for lines that name the axis already.
+func (x Outcome) ErrorText() string {
+	return strings.TrimPrefix(x.Err.Error(), "axis "+x.Name+": ")
 }
 
 // Infeasible reports whether err says the spec cannot be met by the form
@@ -135,7 +161,7 @@ func designOne(f *airframe.File, keep bool) (a *Airframe) {
 		if r := recover(); r != nil {
 			a = &Airframe{File: f}
 			for _, p := range f.Axes {
-				a.Axes = append(a.Axes, Axis{Name: p.Axis, Err: fmt.Errorf("internal error (a bug, please report it): %v", r)})
+				a.Axes = append(a.Axes, Outcome{Name: p.Name, Err: fmt.Errorf("internal error (a bug, please report it): %v", r)})
 			}
 		}
 	}()

@@ -1,0 +1,146 @@
+package airframe
+
+import (
+	"math"
+	"math/cmplx"
+
+	"locusmith/internal/lti"
+)
+
+// The types below are the decoded file: the problem every stage of the
+// pipeline works on. They live here, below the stages, so that the design
+// stages (synth, discrete) and the renderers (emit, review) all read one
+// definition of an axis, and so that the decoder needs none of them.
+
+// Form names a controller structure.
+type Form string
+
+// The controller forms.
+const (
+	FormP    Form = "p"
+	FormPI   Form = "pi"
+	FormPD   Form = "pd"
+	FormPID  Form = "pid"
+	FormLead Form = "lead"
+)
+
+// Forms returns every form in a fixed order, for messages and tests.
+func Forms() []Form { return []Form{FormP, FormPI, FormPD, FormPID, FormLead} }
+
+// HasIntegral reports whether the form has an integral term.
+func (f Form) HasIntegral() bool { return f == FormPI || f == FormPID }
+
+// HasDerivative reports whether the form has a filtered derivative term.
+func (f Form) HasDerivative() bool { return f == FormPD || f == FormPID }
+
+// Plant is the actuator command → true body rate model.
+type Plant struct {
+	// Model is the rational part, command → rate, in zero-pole-gain form.
+	Model lti.ZPK
+	// Delay is the transport delay in seconds (≥ 0).
+	Delay float64
+}
+
+// Spec is the time-domain and robustness spec of one axis.
+type Spec struct {
+	SettlingTime float64 // s, to within ±Band of the final value
+	Band         float64 // settling band as a fraction, 0.02 or 0.05
+	Overshoot    float64 // largest overshoot as a fraction of the final value
+	// MinPhaseMargin (deg) and MinGainMargin (dB) are required margins;
+	// zero means no requirement beyond stability.
+	MinPhaseMargin float64
+	MinGainMargin  float64
+}
+
+// Control holds the controller choices of one axis, with every default
+// applied by the decoder.
+type Control struct {
+	Form   Form
+	Refine bool
+	// ThirdPole places the PID's third real closed-loop pole at
+	// ThirdPole·(−σ) of the target.
+	ThirdPole float64
+	// LeadZero is the lead compensator's zero, rad/s (negative).
+	LeadZero float64
+	// DerivativeLowpassHz sets the derivative filter, Tf = 1/(2π·f).
+	DerivativeLowpassHz float64
+	// DerivativeOnError puts the derivative on the error instead of the
+	// measurement (the default, which avoids a derivative kick).
+	DerivativeOnError bool
+	// SetpointWeight is b, the weight of the setpoint in the P term.
+	// When SetpointWeightSet is false, the design may choose it.
+	SetpointWeight    float64
+	SetpointWeightSet bool
+	// OutputLimit is the command range [low, high].
+	OutputLimit [2]float64
+	// IntegratorLimit bounds |integral term| in command units.
+	IntegratorLimit float64
+	// AntiWindup is "none", "clamp" or "backcalc".
+	AntiWindup string
+	// TrackingTime is the back-calculation tracking time in s; 0 picks the
+	// rule of thumb.
+	TrackingTime float64
+	// Discretize is "tustin", "tustin_prewarp", "backward" or "forward".
+	Discretize string
+}
+
+// Tf returns the derivative filter time constant in seconds,
+// Tf = 1/(2π·derivative_lowpass_hz), or 0 without a derivative filter.
+func (c Control) Tf() float64 {
+	if c.DerivativeLowpassHz <= 0 {
+		return 0
+	}
+	return 1 / (2 * math.Pi * c.DerivativeLowpassHz)
+}
+
+// Axis is one [axes.NAME] table: everything needed to design and verify
+// one rate loop.
+type Axis struct {
+	Name   string
+	Plant  Plant
+	Sensor lti.ZPK // true rate → measured rate; Gain 1 and no roots when ideal
+	Spec   Spec
+	Ctrl   Control
+}
+
+// OpenLoop returns G(s)·H(s)·e^(−sτ), the loop without the controller:
+// plant, sensor and transport delay.
+func (a Axis) OpenLoop(s complex128) complex128 {
+	v := a.Plant.Model.Eval(s) * a.Sensor.Eval(s)
+	if a.Plant.Delay > 0 {
+		v *= cmplx.Exp(-s * complex(a.Plant.Delay, 0))
+	}
+	return v
+}
+
+// Loop is the sampling of the rate loop.
+type Loop struct {
+	Hz float64 // loop rate, samples per second
+	// ComputeDelay is d: the command computed from the sample at t_k is
+	// applied over [t_(k+d), t_(k+d+1)).
+	ComputeDelay int
+}
+
+// NumericType names the arithmetic of the generated controller.
+type NumericType string
+
+// The numeric types.
+const (
+	Float32 NumericType = "float32"
+	Float64 NumericType = "float64"
+	Q15     NumericType = "q15"
+	Q31     NumericType = "q31"
+)
+
+// IsFixed reports whether the type is a fixed-point type.
+func (t NumericType) IsFixed() bool { return t == Q15 || t == Q31 }
+
+// Numeric is the numeric realization of the controller.
+type Numeric struct {
+	Type NumericType
+	// InputFullScale is the largest |setpoint| or |measured rate|, in rate
+	// units; OutputFullScale the largest |command|. Both matter for the
+	// fixed-point types; for float types they are 0 when not given.
+	InputFullScale  float64
+	OutputFullScale float64
+}

@@ -1,0 +1,112 @@
+package synth
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"locusmith/airframe"
+)
+
+// Check is one pass/fail comparison against the spec.
+type Check struct {
+	Name  string  // e.g. "overshoot"
+	Limit float64 // the spec's bound
+	Value float64 // what the design achieves
+	Upper bool    // true when Value must not exceed Limit, false when it must reach it
+	OK    bool
+}
+
+// SpecChecks compares the achieved figures with the spec.
+func SpecChecks(s airframe.Spec, stable bool, maxRe, overshoot, settling, pm, gm float64) []Check {
+	cs := []Check{
+		{Name: "stable", Limit: 0, Value: maxRe, Upper: true, OK: stable},
+		{Name: "overshoot", Limit: s.Overshoot, Value: overshoot, Upper: true, OK: stable && overshoot <= s.Overshoot},
+		{Name: "settling_time", Limit: s.SettlingTime, Value: settling, Upper: true, OK: stable && settling <= s.SettlingTime},
+	}
+	if s.MinPhaseMargin > 0 {
+		cs = append(cs, Check{Name: "phase_margin", Limit: s.MinPhaseMargin, Value: pm, OK: stable && pm >= s.MinPhaseMargin})
+	}
+	if s.MinGainMargin > 0 {
+		cs = append(cs, Check{Name: "gain_margin", Limit: s.MinGainMargin, Value: gm, OK: stable && gm >= s.MinGainMargin})
+	}
+	return cs
+}
+
+// String states a check in one line with its units, as the table and
+// the generated code's header list a failed one:
+// "overshoot 12.5 % > 10 % (sampled loop)".
+func (c Check) String() string {
+	rel := "<"
+	switch {
+	case c.Name == "stable" || c.Name == "sampling":
+		rel = "≥"
+	case c.Upper:
+		rel = ">"
+	}
+	what := map[string]string{
+		"stable":        "sampled loop unstable: max |z|",
+		"sampling":      "fastest dynamics / Nyquist",
+		"overshoot":     "overshoot",
+		"settling_time": "settling time",
+		"phase_margin":  "phase margin",
+		"gain_margin":   "gain margin",
+	}[c.Name]
+	if what == "" {
+		what = c.Name
+	}
+	return fmt.Sprintf("%s %s %s %s (sampled loop)", what, CheckValue(c.Name, c.Value), rel, CheckValue(c.Name, c.Limit))
+}
+
+// CheckValue formats a value or limit of the check named name in its
+// unit, with four significant digits (enough to compare with a hand
+// calculation, few enough that the last bits of a floating-point result
+// never show). The quantized_ checks (the spec checks with quantized
+// coefficients) share the units of the spec checks.
+func CheckValue(name string, v float64) string {
+	switch strings.TrimPrefix(name, "quantized_") {
+	case "overflow":
+		return G4(v) + " bits"
+	case "limit_cycle":
+		return G4(v) + " LSB"
+	case "overshoot":
+		return finiteOr(v, func(v float64) string {
+			if math.Abs(v) < 1e-9 {
+				v = 0
+			}
+			return G4(100*v) + " %"
+		})
+	case "settling_time":
+		return finiteOr(v, func(v float64) string { return G4(v) + " s" })
+	case "phase_margin":
+		return finiteOr(v, func(v float64) string { return G4(v) + "°" })
+	case "gain_margin":
+		return finiteOr(v, func(v float64) string { return G4(v) + " dB" })
+	}
+	return G4(v)
+}
+
+// G4 formats x with four significant digits (%.4g); "n/a" for NaN, "inf"
+// and "-inf" for the infinities, and "0" for both zeros.
+func G4(x float64) string {
+	switch {
+	case math.IsNaN(x):
+		return "n/a"
+	case math.IsInf(x, 1):
+		return "inf"
+	case math.IsInf(x, -1):
+		return "-inf"
+	case x == 0:
+		return "0" // also −0
+	}
+	return fmt.Sprintf("%.4g", x)
+}
+
+// finiteOr formats a finite x with f and anything else as "none" (no
+// crossover, no settling).
+func finiteOr(x float64, f func(float64) string) string {
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return "none"
+	}
+	return f(x)
+}
