@@ -22,8 +22,6 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"errors"
-	"fmt"
-	"os"
 	"slices"
 	"strings"
 	"unicode/utf8"
@@ -41,16 +39,6 @@ type File struct {
 	Numeric     Numeric
 	Axes        []Axis         // sorted by axis name (deterministic)
 	Raw         map[string]any // the decoded TOML tree (for a later `compare` verb)
-}
-
-// Load reads the file at path and calls Parse. A file that cannot be read
-// gives the wrapped os error; invalid content gives an *Errors.
-func Load(path string) (*File, error) {
-	data, err := os.ReadFile(path)
-	if err != nil {
-		return nil, fmt.Errorf("read airframe file: %w", err)
-	}
-	return Parse(path, data)
 }
 
 // Parse decodes and validates data read from path (path only for
@@ -77,8 +65,8 @@ func Parse(path string, data []byte) (*File, error) {
 // decodeTOML checks that data is text and decodes it; it returns nil after
 // recording the problem when it is not.
 func (c *checker) decodeTOML(data []byte) map[string]any {
-	if len(data) > maxFileBytes {
-		c.fail("", nil, "file is %d bytes; an airframe file is at most %d", len(data), maxFileBytes)
+	if len(data) > MaxFileBytes {
+		c.fail("", nil, "file is larger than %d bytes; an airframe file is at most that", MaxFileBytes)
 		return nil
 	}
 	// A UTF-8 byte order mark, which some editors write, is not part of

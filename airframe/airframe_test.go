@@ -2,7 +2,6 @@ package airframe
 
 import (
 	"errors"
-	"io/fs"
 	"math"
 	"math/cmplx"
 	"os"
@@ -305,7 +304,7 @@ func TestNumeric(t *testing.T) {
 
 // TestDemoFiles parses the demo files that become examples/.
 func TestDemoFiles(t *testing.T) {
-	quad, err := Load(filepath.Join("testdata", "valid_quad.toml"))
+	quad, err := loadFile(filepath.Join("testdata", "valid_quad.toml"))
 	if err != nil {
 		t.Fatalf("valid_quad: %v", err)
 	}
@@ -326,7 +325,7 @@ func TestDemoFiles(t *testing.T) {
 		t.Errorf("roll plant %+v", roll)
 	}
 
-	gimbal, err := Load(filepath.Join("testdata", "valid_gimbal.toml"))
+	gimbal, err := loadFile(filepath.Join("testdata", "valid_gimbal.toml"))
 	if err != nil {
 		t.Fatalf("valid_gimbal: %v", err)
 	}
@@ -341,19 +340,8 @@ func TestDemoFiles(t *testing.T) {
 	}
 }
 
-func TestLoadMissing(t *testing.T) {
-	_, err := Load(filepath.Join(t.TempDir(), "absent.toml"))
-	if !errors.Is(err, fs.ErrNotExist) {
-		t.Errorf("got %v, want a wrapped fs.ErrNotExist", err)
-	}
-	var errs *Errors
-	if errors.As(err, &errs) {
-		t.Errorf("a read error is not a content error")
-	}
-}
-
 func TestTooLarge(t *testing.T) {
-	big := minimal + "# " + strings.Repeat("x", maxFileBytes) + "\n"
+	big := minimal + "# " + strings.Repeat("x", MaxFileBytes) + "\n"
 	_, err := Parse("x.toml", []byte(big))
 	if err == nil || !strings.Contains(err.Error(), "x.toml: file is") {
 		t.Errorf("got %v", err)
@@ -381,12 +369,12 @@ func TestReservedWords(t *testing.T) {
 		"append", "cap", "clear", "close", "complex", "copy", "delete", "imag", "len",
 		"make", "max", "min", "new", "panic", "print", "println", "real", "recover",
 	} {
-		if reservedWord(w) == "" || checkIdent(w) == "" {
+		if Reserved(w) == "" || CheckName(w) == "" {
 			t.Errorf("%q not rejected", w)
 		}
 	}
 	for _, w := range []string{"roll", "pitch", "yaw", "a", "x1", "gimbal_cam", strings.Repeat("z", 32), "integer", "format"} {
-		if msg := checkIdent(w); msg != "" {
+		if msg := CheckName(w); msg != "" {
 			t.Errorf("%q rejected: %s", w, msg)
 		}
 	}
@@ -432,7 +420,7 @@ func FuzzParse(f *testing.F) {
 // checkFile checks the invariants of a valid File.
 func checkFile(t *testing.T, f *File) {
 	t.Helper()
-	if checkIdent(f.Airframe) != "" || len(f.Axes) == 0 || len(f.SHA256) != 64 || f.Raw == nil {
+	if CheckName(f.Airframe) != "" || len(f.Axes) == 0 || len(f.SHA256) != 64 || f.Raw == nil {
 		t.Fatalf("bad header %q %d %q", f.Airframe, len(f.Axes), f.SHA256)
 	}
 	if !(f.Loop.Hz > 0 && f.Loop.Hz <= maxLoopHz) || f.Loop.ComputeDelay < 0 || f.Loop.ComputeDelay > maxComputeDelay {
@@ -446,7 +434,7 @@ func checkFile(t *testing.T, f *File) {
 		if i > 0 && f.Axes[i-1].Name >= p.Name {
 			t.Fatalf("axes not sorted: %q then %q", f.Axes[i-1].Name, p.Name)
 		}
-		if checkIdent(p.Name) != "" {
+		if CheckName(p.Name) != "" {
 			t.Fatalf("bad axis name %q", p.Name)
 		}
 		for _, z := range []lti.ZPK{p.Plant.Model, p.Sensor} {
@@ -489,4 +477,13 @@ func checkFile(t *testing.T, f *File) {
 			t.Fatalf("axis %s: bad third pole %v", p.Name, c.ThirdPole)
 		}
 	}
+}
+
+// loadFile reads and parses the airframe file at path.
+func loadFile(path string) (*File, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	return Parse(path, data)
 }

@@ -72,7 +72,7 @@ func (c *checker) file(raw map[string]any) *File {
 	}
 	for _, name := range sortedKeys(axes) { // sorted: File.Axes is in name order
 		key := joinKey("axes", name)
-		if msg := checkIdent(name); msg != "" {
+		if msg := CheckName(name); msg != "" {
 			c.fail(key, nil, "axis name %s", msg)
 		}
 		m, ok := axes[name].(map[string]any)

@@ -135,12 +135,14 @@ func defaultIntegratorLimit(outputLimit [2]float64) float64 {
 	return math.Max(math.Abs(outputLimit[0]), math.Abs(outputLimit[1]))
 }
 
+// MaxFileBytes bounds the input: a hand-written airframe file is a few
+// kilobytes; anything near a megabyte is the wrong file. A reader needs
+// to read at most MaxFileBytes+1 bytes to know that a file is too long.
+const MaxFileBytes = 1 << 20
+
 // Sanity limits. Values beyond these are almost certainly typing errors (a
 // missing decimal point, milliseconds written as seconds).
 const (
-	// maxFileBytes bounds the input: a hand-written airframe file is a few
-	// kilobytes; anything near a megabyte is the wrong file.
-	maxFileBytes = 1 << 20
 
 	// maxLoopHz is the largest loop_hz: 1 MHz is far above any rate loop
 	// (flight controllers run 0.25-8 kHz).

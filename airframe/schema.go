@@ -229,11 +229,11 @@ func (t *table) boolean(k string, def bool) (bool, bool) {
 
 // ident reads identifier key k (required).
 func (t *table) ident(k, what string) (string, bool) {
-	s, ok := t.str(k, true, "", what+", "+identPattern)
+	s, ok := t.str(k, true, "", what+", "+IdentPattern)
 	if !ok {
 		return "", false
 	}
-	if msg := checkIdent(s); msg != "" {
+	if msg := CheckName(s); msg != "" {
 		t.c.fail(t.sub(k), s, "%s", msg)
 		return "", false
 	}

@@ -2,7 +2,7 @@ package discrete
 
 import (
 	"bytes"
-		"fmt"
+	"fmt"
 	"slices"
 	"testing"
 

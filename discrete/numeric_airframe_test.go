@@ -32,7 +32,7 @@ func TestExamplesRealize(t *testing.T) {
 	}
 	fixed := 0
 	for _, path := range files {
-		f, err := airframe.Load(path)
+		f, err := loadAirframe(path)
 		if err != nil {
 			t.Errorf("%s: %v", path, err)
 			continue
@@ -65,7 +65,7 @@ func TestExamplesRealize(t *testing.T) {
 // its output full scale (testdata, demo data) fails the overflow check
 // with the variable, bound, capacity and a way out.
 func TestOverRangedAirframe(t *testing.T) {
-	f, err := airframe.Load("testdata/overranged_q15.toml")
+	f, err := loadAirframe("testdata/overranged_q15.toml")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -116,4 +116,13 @@ func TestCoarseFullScaleAirframe(t *testing.T) {
 	if !errors.As(err, &ie) || ie.Key != "numeric.input_full_scale" || ie.Value != "500" {
 		t.Fatalf("error %v, want an input error on numeric.input_full_scale", err)
 	}
+}
+
+// loadAirframe reads and parses the airframe file at path.
+func loadAirframe(path string) (*airframe.File, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	return airframe.Parse(path, data)
 }

@@ -109,7 +109,7 @@ func design(t testing.TB, p string, nt airframe.NumericType) *discrete.Airframe 
 	if a, ok := designs.m[key]; ok {
 		return a
 	}
-	f, err := airframe.Load(p)
+	f, err := loadAirframe(p)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -208,7 +208,7 @@ func TestGeneratedHeader(t *testing.T) {
 				if first != want {
 					t.Errorf("%s: first line %q, want %q", s.Name, first, want)
 				}
-				f, err := airframe.Load(p)
+				f, err := loadAirframe(p)
 				if err != nil {
 					t.Fatal(err)
 				}

@@ -10,6 +10,7 @@ import (
 	"testing"
 	"time"
 
+	"locusmith/airframe"
 	"locusmith/emit"
 )
 
@@ -110,4 +111,13 @@ func headerOf(srcs []emit.Source) string {
 		}
 	}
 	return ""
+}
+
+// loadAirframe reads and parses the airframe file at path.
+func loadAirframe(path string) (*airframe.File, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, err
+	}
+	return airframe.Parse(path, data)
 }

@@ -96,11 +96,11 @@ func runCompare(args []string, stdout, stderr io.Writer) int {
 // exists and the argument has the form REV:PATH, from git.
 func loadVersion(arg string) (*airframe.File, error) {
 	if _, err := os.Stat(arg); err == nil || !errors.Is(err, fs.ErrNotExist) {
-		return airframe.Load(arg)
+		return loadFile(arg)
 	}
 	rev, path, ok := strings.Cut(arg, ":")
 	if !ok || rev == "" || path == "" {
-		return airframe.Load(arg) // the not-found error
+		return loadFile(arg) // the not-found error
 	}
 	data, err := gitShow(rev, path)
 	if err != nil {

@@ -11,6 +11,7 @@ import (
 	"strconv"
 	"strings"
 
+	"locusmith/emit"
 	"locusmith/internal/ident"
 )
 
@@ -129,7 +130,7 @@ func runIdentify(args []string, stdout, stderr io.Writer) int {
 			return exitUnmet
 		}
 		out := filepath.Join(*outDir, *axis+"_identify.svg")
-		if err := identifyWriteFile(out, buf.Bytes()); err != nil {
+		if err := writeFiles(*outDir, []emit.Source{{Name: filepath.Base(out), Data: buf.Bytes()}}); err != nil {
 			fmt.Fprintf(stderr, "locusmith identify: %v\n", err)
 			return exitUsage
 		}
@@ -160,35 +161,4 @@ func parseIdentifySaturation(s string) (ident.Saturation, error) {
 		return ident.Saturation{}, fmt.Errorf("LO must be below HI")
 	}
 	return ident.Saturation{Mode: ident.SatLimits, Lo: l, Hi: h}, nil
-}
-
-// identifyWriteFile writes data to path through a temporary file in the same
-// directory and a rename, so that a failure never leaves a half-written
-// file. The directory is created if needed.
-func identifyWriteFile(path string, data []byte) error {
-	dir := filepath.Dir(path)
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return fmt.Errorf("creating %s: %w", dir, err)
-	}
-	tmp, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp*")
-	if err != nil {
-		return fmt.Errorf("writing %s: %w", path, err)
-	}
-	name := tmp.Name()
-	_, werr := tmp.Write(data)
-	cerr := tmp.Close()
-	if werr == nil {
-		werr = cerr
-	}
-	if werr == nil {
-		werr = os.Chmod(name, 0o644)
-	}
-	if werr == nil {
-		werr = os.Rename(name, path)
-	}
-	if werr != nil {
-		os.Remove(name)
-		return fmt.Errorf("writing %s: %w", path, werr)
-	}
-	return nil
 }

@@ -29,6 +29,7 @@ import (
 
 	"locusmith/airframe"
 	"locusmith/discrete"
+	"locusmith/emit"
 )
 
 // Exit statuses of every verb.
@@ -201,7 +202,7 @@ func loadFiles(paths []string, stderr io.Writer) ([]*airframe.File, int) {
 	var files []*airframe.File
 	code := exitOK
 	for _, p := range paths {
-		f, err := airframe.Load(p)
+		f, err := loadFile(p)
 		if err != nil {
 			reportLoadError(stderr, p, err)
 			code = exitUsage
@@ -273,4 +274,18 @@ func designStream(files []*airframe.File, jobs int, keepTraces, release bool, st
 		}
 	}
 	discrete.DesignEach(files, o, fn)
+}
+
+// writeFiles writes files into dir, creating dir and its parents if
+// missing, through the one atomic writer (emit.WriteSources): the verbs
+// that write besides emit (report, identify's plots) take a directory
+// that may not exist yet.
+func writeFiles(dir string, files []emit.Source) error {
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return fmt.Errorf("create output directory: %w", err)
+	}
+	if _, err := emit.WriteSources(dir, files); err != nil {
+		return err
+	}
+	return nil
 }

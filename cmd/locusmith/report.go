@@ -5,6 +5,7 @@ import (
 	"io"
 
 	"locusmith/discrete"
+	"locusmith/emit"
 	"locusmith/emit/review"
 )
 
@@ -101,7 +102,11 @@ func runReport(args []string, stdout, stderr io.Writer) int {
 		designs = append(designs, a)
 	}
 	for i, rf := range all {
-		if err := review.Write(*out, rf); err != nil {
+		srcs := make([]emit.Source, len(rf))
+		for j, f := range rf {
+			srcs[j] = emit.Source(f)
+		}
+		if err := writeFiles(*out, srcs); err != nil {
 			fmt.Fprintf(stderr, "locusmith report: %v\n", err)
 			return exitUsage
 		}

@@ -15,9 +15,6 @@ import (
 	"bytes"
 	"errors"
 	"fmt"
-	"os"
-	"path/filepath"
-	"strings"
 	"text/template"
 
 	"locusmith/discrete"
@@ -106,49 +103,6 @@ func axisFigures(airframe string, a *plotAxis) ([]builtFigure, []Plot) {
 		plots = append(plots, pl)
 	}
 	return out, plots
-}
-
-// Write writes files into dir (created if missing). Each file is written
-// to a temporary file in dir and renamed over its name, so a reader never
-// sees a partial file; on an error the temporary files are removed and
-// the files already renamed stay complete.
-func Write(dir string, files []File) error {
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return fmt.Errorf("create output directory: %w", err)
-	}
-	for _, f := range files {
-		if f.Name == "" || f.Name != filepath.Base(f.Name) || strings.HasPrefix(f.Name, ".") {
-			return fmt.Errorf("write %q: not a plain file name", f.Name)
-		}
-		if err := writeAtomic(filepath.Join(dir, f.Name), f.Data); err != nil {
-			return err
-		}
-	}
-	return nil
-}
-
-func writeAtomic(path string, data []byte) error {
-	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp*")
-	if err != nil {
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	name := tmp.Name()
-	_, werr := tmp.Write(data)
-	cerr := tmp.Close()
-	if werr == nil {
-		werr = cerr
-	}
-	if werr == nil {
-		werr = os.Chmod(name, 0o644)
-	}
-	if werr == nil {
-		werr = os.Rename(name, path)
-	}
-	if werr != nil {
-		os.Remove(name)
-		return fmt.Errorf("write %s: %w", path, werr)
-	}
-	return nil
 }
 
 // newPlotAxis gathers what the plots of a designed axis need. The parts

@@ -13,7 +13,9 @@ import (
 	"strings"
 )
 
-// Writing generated files.
+// Writing files: this is the one writer of the tool. Generated code, the
+// review's pages and plots, and identify's plots all go through
+// WriteSources.
 //
 // A firmware build runs emit on every build, so the writer
 //
@@ -24,7 +26,9 @@ import (
 //     rename within a directory is atomic on POSIX file systems), and the
 //     renames happen only after every temporary file of the call was
 //     written, so a full disk or a failed write leaves the old files as
-//     they were;
+//     they were; after the renames the directory itself is synced where
+//     the operating system allows it, so that the new names survive a
+//     power cut;
 //   - writes only base names into the output directory: no name with a
 //     separator, "..", or a leading dot;
 //   - checks, after its renames, that every file it left alone as
@@ -176,6 +180,9 @@ func writeSources(fsys writeFS, dir string, srcs []Source) (written []string, er
 		written = append(written, p.name)
 	}
 	todo = nil
+	if len(written) > 0 {
+		syncDir(dir)
+	}
 	// An unchanged file removed since it was compared is written again.
 	for _, s := range kept {
 		dst := filepath.Join(dir, s.Name)
@@ -195,6 +202,19 @@ func writeSources(fsys writeFS, dir string, srcs []Source) (written []string, er
 		written = append(written, s.Name)
 	}
 	return written, nil
+}
+
+// syncDir flushes the directory entry changes of dir (the renames) to
+// disk. Some systems cannot sync a directory (Windows, some network file
+// systems); the files themselves were synced before the renames, so a
+// failure here is not an error of the write.
+func syncDir(dir string) {
+	d, err := os.Open(dir)
+	if err != nil {
+		return
+	}
+	_ = d.Sync()
+	_ = d.Close()
 }
 
 // writeTemp writes s to a new temporary file in dir and returns its name
