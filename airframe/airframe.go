@@ -3,7 +3,7 @@
 //
 // A file names the airframe, the loop rate and compute delay, the numeric
 // type of the generated code, and one [axes.NAME] table per axis with its
-// plant, sensor, spec and controller choices (DESIGN.md, "Airframe file").
+// plant, sensor, spec and controller choices (README, "The airframe file").
 // Parse decodes the file into the inputs of the designer (Axis per
 // axis) and of the discretization (Loop, Numeric), with
 // every default applied; the defaults are all in defaults.go.
@@ -38,7 +38,7 @@ type File struct {
 	Loop        Loop
 	Numeric     Numeric
 	Axes        []Axis         // sorted by axis name (deterministic)
-	Raw         map[string]any // the decoded TOML tree (for a later `compare` verb)
+	Raw         map[string]any // the decoded TOML tree (for `compare`)
 }
 
 // Parse decodes and validates data read from path (path only for

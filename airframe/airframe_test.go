@@ -24,8 +24,8 @@ func mustParse(t *testing.T, src string) *File {
 }
 
 // TestDefaults checks every default on the minimal file against the values
-// the contract states (DESIGN.md "Airframe file" and the brief of this
-// package; the reason for each is beside it in defaults.go).
+// the README states ("The airframe file"; the reason for each is beside it
+// in defaults.go).
 func TestDefaults(t *testing.T) {
 	f := mustParse(t, minimal)
 	if f.Airframe != "testbird" || f.Description != "" || f.Path != "x.toml" {

@@ -8,7 +8,7 @@ import (
 	"locusmith/internal/lti"
 )
 
-// The keys of each table, in the order of DESIGN.md; unknown-key messages
+// The keys of each table, in the order of the README's tables; unknown-key messages
 // list them in this order. (Functions rather than package variables, so
 // that no caller can change a schema.)
 func topKeys() []string {

@@ -382,7 +382,7 @@ func TestMalformedOrder(t *testing.T) {
 // TestMessageFormat pins the exact text of the message kinds.
 func TestMessageFormat(t *testing.T) {
 	cases := []struct{ src, want string }{
-		// The example of DESIGN.md, "Airframe file".
+		// The example of the README, "The airframe file".
 		{edit(t, "overshoot = 0.1", "overshoot = 1.4"), "examples/x.toml: axes.roll.spec.overshoot = 1.4: must be in (0, 1)"},
 		{edit(t, "settling_time = 0.15\n", ""), "examples/x.toml: axes.roll.spec.settling_time: required: a number > 0 (s)"},
 		{"a = = 1\n", "examples/x.toml: line 1, column 5: TOML syntax error: unexpected character U+003D '=' at start of value"},

@@ -14,7 +14,7 @@ import (
 )
 
 // The emit verb as a whole process: exit codes, what it writes and what
-// it refuses (DESIGN.md, "Command line"; issue 5, "Bad input").
+// it refuses (README, "Exit status" and "Verbs").
 
 // cliWork copies the examples into a new directory with an output
 // directory "gen" and returns it.

@@ -197,7 +197,7 @@ func firstDiff(a, b string) string {
 }
 
 // TestGeneratedHeader checks the contract of the first lines of every
-// generated file (DESIGN.md, "Generated code").
+// generated file (README, "What is generated").
 func TestGeneratedHeader(t *testing.T) {
 	for _, p := range examplePaths(t) {
 		for _, v := range variants() {

@@ -325,7 +325,7 @@ func TestExamplesDesign(t *testing.T) {
 	}
 }
 
-// TestJSONContract checks the keys DESIGN.md's JSON report promises, and
+// TestJSONContract checks the keys the README's JSON report promises, and
 // relations between the reported numbers that hold by definition.
 func TestJSONContract(t *testing.T) {
 	for _, p := range examples(t) {
@@ -417,7 +417,7 @@ func checkNumeric(t *testing.T, x map[string]any) {
 			t.Errorf("%s: %d-bit word, narrower than the %d-bit data word", cm["name"], w, bits)
 		}
 		// Qm.n: m integer and n fractional bits, the sign not counted, so
-		// m + n = bits − 1 (common practice; DESIGN.md).
+		// m + n = bits − 1 (common practice; README, "[numeric]").
 		var m, nb int
 		if _, err := fmt.Sscanf(cm["format"].(string), "Q%d.%d", &m, &nb); err != nil || m+nb != w-1 || float64(nb) != cm["frac_bits"].(float64) {
 			t.Errorf("%s: format %v with frac_bits %v is not Qm.n with m + n = %d", cm["name"], cm["format"], cm["frac_bits"], w-1)
@@ -448,7 +448,7 @@ func checkRelations(t *testing.T, x map[string]any) {
 	tg := obj(t, x, "target")
 	zeta, wn := tg["zeta"].(float64), tg["omega_n"].(float64)
 	pole := tg["pole"].([]any)
-	// s* = −ζωn + jωn√(1−ζ²) (DESIGN.md, target pole; Ogata, second-order
+	// s* = −ζωn + jωn√(1−ζ²) (README, target pole; Ogata, second-order
 	// system, from memory). Tolerance: both sides are rounded to 10
 	// significant digits, so 1e-8 relative is generous.
 	near(t, "target.pole[0]", pole[0].(float64), -zeta*wn, 1e-8)
@@ -459,7 +459,7 @@ func checkRelations(t *testing.T, x map[string]any) {
 		re, im := p.([]any)[0].(float64), p.([]any)[1].(float64)
 		maxAbs = math.Max(maxAbs, math.Hypot(re, im))
 	}
-	// Stability margin is defined as 1 − max|z| (issue 3); the poles are
+	// Stability margin is defined as 1 − max|z| (README, "The JSON report"); the poles are
 	// rounded to 10 digits, so agreement to 1e-8 is expected.
 	near(t, "discrete.stability_margin", d["stability_margin"].(float64), 1-maxAbs, 1e-8)
 	for _, sec := range []map[string]any{obj(t, x, "continuous"), d} {

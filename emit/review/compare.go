@@ -213,7 +213,7 @@ func flatResults(a *discrete.Airframe) (map[string]axisResults, error) {
 }
 
 // addNumeric adds the numeric realization's quantized coefficients and
-// range headroom under the keys of DESIGN.md's JSON report
+// range headroom under the keys of the JSON report (README)
 // (numeric.coefficients.NAME.quantized, numeric.ranges.NAME.headroom_bits),
 // for as long as the report does not carry them itself.
 func addNumeric(a *discrete.Airframe, axis string, vals map[string]string) {

@@ -21,7 +21,7 @@ import (
 // the integrator near its limit, and the picture would show those limits
 // rather than the arithmetic.
 //
-// The raw conversions follow DESIGN.md's fixed-point convention,
+// The raw conversions follow the fixed-point convention of the README ("[numeric]"),
 // raw = value/full_scale·2^(w−1) saturated to the word.
 func fixedStep(d *discrete.Design) (float64, []float64) {
 	if d == nil || d.Num == nil || d.Num.Fixed == nil {

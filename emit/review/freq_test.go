@@ -220,7 +220,7 @@ func closeTo(a, b, rel float64) bool {
 }
 
 // The fixed-point step of the plot runs the bit-exact integer controller;
-// with the raw conversions of DESIGN.md it must follow the float64
+// with the raw conversions of the README ("[numeric]") it must follow the float64
 // reference model in the same loop to within the quantization: checked
 // on the demo airframes with a fixed-point type, against the discrete
 // step record scaled by the same amplitude (the loop is linear below the

@@ -26,7 +26,7 @@ import (
 // value falls within a few units of the 17th digit of a rounding boundary.
 const SignificantDigits = 10
 
-// JSONReport is the report of `locusmith design --json` (DESIGN.md, "JSON
+// JSONReport is the report of `locusmith design --json` (README, "The JSON
 // report"). It holds no maps, so encoding/json writes it in field order:
 // the output is a pure function of the designs. Every float is rounded to
 // SignificantDigits; a value that is not finite (no crossover, unstable
@@ -61,12 +61,11 @@ type AxisReport struct {
 	Continuous *ContinuousReport `json:"continuous,omitempty"`
 	Discrete   *DiscreteReport   `json:"discrete,omitempty"`
 	// Numeric is the numeric realization: coefficients as the generated
-	// code holds them, fixed-point formats and proved ranges. It holds a
-	// *NumericReport (typed any so that a later stage may put its own
-	// section there); absent when the design has no realization.
-	Numeric  any           `json:"numeric,omitempty"`
-	Checks   []CheckReport `json:"checks,omitempty"`
-	Warnings []string      `json:"warnings,omitempty"`
+	// code holds them, fixed-point formats and proved ranges; absent when
+	// the design has no realization.
+	Numeric  *NumericReport `json:"numeric,omitempty"`
+	Checks   []CheckReport  `json:"checks,omitempty"`
+	Warnings []string       `json:"warnings,omitempty"`
 }
 
 // TargetReport is a target pole pair s = −ζωn ± jωn√(1−ζ²).
@@ -199,7 +198,7 @@ type CoefficientReport struct {
 	// Bits bits (the data word or a wider accumulator): Raw·2^−FracBits
 	// is exactly the coefficient in raw units (a gain times
 	// input_full_scale/output_full_scale, a limit over output_full_scale;
-	// DESIGN.md, fixed point), and Quantized is that in design units.
+	// README, "[numeric]"), and Quantized is that in design units.
 	Raw      *int64   `json:"raw,omitempty"`
 	Bits     int      `json:"bits,omitempty"`
 	Format   string   `json:"format"`

@@ -165,7 +165,7 @@ func TestReportFields(t *testing.T) {
 	if pid.Kp == nil || pid.Ki == nil || pid.Kd == nil || pid.DerivativeTau == nil || pid.SetpointWeight == nil {
 		t.Errorf("pid: a parallel gain is missing: %+v", pid)
 	}
-	// Tf = 1/(2π·f) with the default f = loop_hz/8 = 125 Hz (DESIGN.md).
+	// Tf = 1/(2π·f) with the default f = loop_hz/8 = 125 Hz (README, "[axes.NAME.control]").
 	if got, want := *pid.DerivativeTau, 1/(2*math.Pi*125); math.Abs(got-want) > 1e-9*want {
 		t.Errorf("pid derivative_tau = %v, want %v", got, want)
 	}
@@ -197,7 +197,7 @@ func TestReportFields(t *testing.T) {
 	// The default numeric type is float32: a coefficient table without
 	// fixed-point fields, and the loop with quantized coefficients.
 	for name, x := range byName {
-		n, ok := x.Numeric.(*NumericReport)
+		n, ok := x.Numeric, x.Numeric != nil
 		if !ok || n.Type != "float32" || len(n.Coefficients) == 0 || n.Quantized == nil || n.Ranges != nil || n.WordBits != 0 {
 			t.Errorf("axis %s: numeric section %+v, want float32 coefficients and the quantized loop", name, x.Numeric)
 			continue
