@@ -3,7 +3,8 @@
 //
 // A file names the airframe, the loop rate and compute delay, the numeric
 // type of the generated code, and one [axes.NAME] table per axis with its
-// plant, sensor, spec and controller choices (README, "The airframe file").
+// plant, sensor, spec, controller choices and the plant's envelope (README,
+// "The airframe file").
 // Parse decodes the file into the inputs of the designer (Axis per
 // axis) and of the discretization (Loop, Numeric), with
 // every default applied; the defaults are all in defaults.go.

@@ -46,7 +46,14 @@ func TestDefaults(t *testing.T) {
 		Plant:  Plant{Model: lti.ZPK{Gain: 80000, Poles: []complex128{0, -40}}, Delay: 0},
 		Sensor: lti.ZPK{Gain: 1}, // ideal
 		Spec: Spec{SettlingTime: 0.15, Band: 0.02, Overshoot: 0.1,
-			MinPhaseMargin: 0, MinGainMargin: 0},
+			MinPhaseMargin: 0, MinGainMargin: 0,
+			MaxSensitivity:      1.7,  // between Åström-Hägglund's 1.4 and 2.0
+			MaxSteadyError:      0.02, // the settling band
+			HoldRate:            0,    // no input_full_scale: not asked
+			DisturbanceStep:     0.1,  // 0.1·max(|−1|, |1|)
+			DisturbanceRecovery: 0,    // not checked
+			MaxNoiseGain:        0,    // the design's default
+		},
 		Ctrl: Control{
 			Form:                FormPID,
 			Refine:              true,
@@ -62,6 +69,9 @@ func TestDefaults(t *testing.T) {
 			TrackingTime:        0,
 			Discretize:          "tustin",
 		},
+		// ±10 % gain (battery sag, payload; common practice), nominal
+		// lag and delay.
+		Envelope: Envelope{GainScale: [2]float64{0.9, 1.1}, LagScale: [2]float64{1, 1}, DelayAdd: [2]float64{0, 0}},
 	}}
 	// Tolerance: 2000/0.025 and 1/0.025 are one correctly rounded division
 	// each, so they may differ from the exact 80000 and 40 by half an ulp;
@@ -389,6 +399,8 @@ func FuzzParse(f *testing.F) {
 	f.Add([]byte(minimal))
 	f.Add([]byte(withControl("form = \"lead\"\nlead_zero = -30")))
 	f.Add([]byte(withSensor("gain = 1.0\npoles = [[-1, 2]]")))
+	f.Add([]byte(withEnvelope("gain_scale = [0.8, 1.25]\nlag_scale = [0.7, 1.5]\ndelay_add = [0, 0.003]")))
+	f.Add([]byte(withNumeric("input_full_scale = 10.0") + "\n[axes.roll.control]\noutput_limit = [-0.4, 0.6]\n"))
 	for _, name := range []string{"valid_quad.toml", "valid_gimbal.toml"} {
 		data, err := os.ReadFile(filepath.Join("testdata", name))
 		if err != nil {
@@ -475,6 +487,30 @@ func checkFile(t *testing.T, f *File) {
 		}
 		if c.Form == FormPID && !(c.ThirdPole > 1) {
 			t.Fatalf("axis %s: bad third pole %v", p.Name, c.ThirdPole)
+		}
+		if !(s.MaxSensitivity > 1 && s.MaxSensitivity <= maxSensitivityBound) ||
+			!(s.MaxSteadyError > 0 && s.MaxSteadyError < 1) ||
+			!(s.HoldRate >= 0) || !finite(s.HoldRate) ||
+			(f.Numeric.InputFullScale > 0 && s.HoldRate > f.Numeric.InputFullScale) ||
+			!(s.DisturbanceStep > 0 && s.DisturbanceStep <= maxCommand(c.OutputLimit)) ||
+			!(s.DisturbanceRecovery >= 0) || !finite(s.DisturbanceRecovery) ||
+			!(s.MaxNoiseGain >= 0) || !finite(s.MaxNoiseGain) {
+			t.Fatalf("axis %s: bad spec %+v", p.Name, s)
+		}
+		e := p.Envelope
+		for _, r := range [][2]float64{e.GainScale, e.LagScale} {
+			if !(r[0] > 0 && r[0] <= 1 && r[1] >= 1 && r[1] <= maxEnvelopeScale) {
+				t.Fatalf("axis %s: bad envelope %+v", p.Name, e)
+			}
+		}
+		if !(e.DelayAdd[0] <= 0 && e.DelayAdd[1] >= 0) {
+			t.Fatalf("axis %s: bad envelope %+v", p.Name, e)
+		}
+		// Every corner is a plant the file allows: delay within [0, maxDelay].
+		for _, k := range e.Corners() {
+			if d := p.At(k).Plant.Delay; !(d >= 0 && d <= maxDelay) {
+				t.Fatalf("axis %s: corner %+v has delay %v", p.Name, k, d)
+			}
 		}
 	}
 }

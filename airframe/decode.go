@@ -15,16 +15,21 @@ func topKeys() []string {
 	return []string{"airframe", "description", "loop_hz", "compute_delay", "numeric", "axes"}
 }
 func numericKeys() []string { return []string{"type", "input_full_scale", "output_full_scale"} }
-func axisKeys() []string    { return []string{"plant", "sensor", "spec", "control"} }
-func zpkKeys() []string     { return []string{"gain", "poles", "zeros"} }
-func physKeys() []string    { return []string{"effectiveness", "motor_tau"} }
+func axisKeys() []string {
+	return []string{"plant", "sensor", "spec", "control", "envelope"}
+}
+func zpkKeys() []string  { return []string{"gain", "poles", "zeros"} }
+func physKeys() []string { return []string{"effectiveness", "motor_tau"} }
 func plantKeys() []string {
 	return []string{"gain", "poles", "zeros", "effectiveness", "motor_tau", "delay"}
 }
 func sensorKeys() []string { return []string{"lowpass_hz", "gain", "poles", "zeros"} }
 func specKeys() []string {
-	return []string{"settling_time", "settling_band", "overshoot", "min_phase_margin", "min_gain_margin"}
+	return []string{"settling_time", "settling_band", "overshoot", "min_phase_margin", "min_gain_margin",
+		"max_sensitivity", "max_steady_error", "hold_rate", "disturbance_step", "disturbance_recovery",
+		"max_noise_gain"}
 }
+func envelopeKeys() []string { return []string{"gain_scale", "lag_scale", "delay_add"} }
 func controlKeys() []string {
 	return []string{"form", "refine", "third_pole", "lead_zero", "derivative_lowpass_hz",
 		"derivative_on", "setpoint_weight", "output_limit", "integrator_limit", "antiwindup",
@@ -80,7 +85,7 @@ func (c *checker) file(raw map[string]any) *File {
 			c.fail(key, axes[name], "must be a table [axes.NAME] with plant and spec, not %s", kind(axes[name]))
 			continue
 		}
-		f.Axes = append(f.Axes, c.axis(name, key, m, loopHz))
+		f.Axes = append(f.Axes, c.axis(name, key, m, loopHz, f.Numeric))
 	}
 	return f
 }
@@ -115,29 +120,43 @@ func (c *checker) numeric(top *table) Numeric {
 	return n
 }
 
-// axis checks [axes.NAME]; loopHz is 0 when loop_hz is invalid.
-func (c *checker) axis(name, key string, m map[string]any, loopHz float64) Axis {
+// axis checks [axes.NAME]; loopHz is 0 when loop_hz is invalid, and num
+// is the decoded [numeric] (a full scale is 0 when absent or invalid).
+//
+// The control table is read before the spec, whose disturbance step is
+// bounded by the output limit; the plant before the envelope, whose added
+// delay is bounded by the plant's. A bound whose key is itself invalid is
+// not applied, so that one mistake is reported once.
+func (c *checker) axis(name, key string, m map[string]any, loopHz float64, num Numeric) Axis {
 	t := c.newTable(key, m, axisKeys()...)
-	p := Axis{Name: name, Sensor: idealSensor()}
+	p := Axis{Name: name, Sensor: idealSensor(), Envelope: defaultEnvelope()}
+	delayOK := false
 	if pm := t.subtable("plant", true, "gain/poles/zeros or effectiveness/motor_tau, and delay"); pm != nil {
-		p.Plant = c.plant(c.newTable(t.sub("plant"), pm, plantKeys()...))
+		p.Plant, delayOK = c.plant(c.newTable(t.sub("plant"), pm, plantKeys()...))
 	}
 	if sm := t.subtable("sensor", false, "lowpass_hz, or gain/poles/zeros"); sm != nil {
 		p.Sensor = c.sensor(c.newTable(t.sub("sensor"), sm, sensorKeys()...))
-	}
-	if sm := t.subtable("spec", true, "settling_time, overshoot, ..."); sm != nil {
-		p.Spec = c.spec(c.newTable(t.sub("spec"), sm, specKeys()...))
 	}
 	cm := t.subtable("control", false, "form, limits, ...")
 	if cm == nil {
 		cm = map[string]any{} // absent (or not a table, reported): all defaults
 	}
-	p.Ctrl = c.control(c.newTable(t.sub("control"), cm, controlKeys()...), loopHz)
+	var limOK bool
+	p.Ctrl, limOK = c.control(c.newTable(t.sub("control"), cm, controlKeys()...), loopHz)
+	if sm := t.subtable("spec", true, "settling_time, overshoot, ..."); sm != nil {
+		lim := specLimits{outputLimit: p.Ctrl.OutputLimit, outputLimitOK: limOK, inputFullScale: num.InputFullScale}
+		p.Spec = c.spec(c.newTable(t.sub("spec"), sm, specKeys()...), lim)
+	}
+	if em := t.subtable("envelope", false, "gain_scale, lag_scale, delay_add"); em != nil {
+		p.Envelope = c.envelope(c.newTable(t.sub("envelope"), em, envelopeKeys()...), p.Plant.Delay, delayOK)
+	}
 	return p
 }
 
 // plant checks [axes.NAME.plant]: either the zpk form or the physical form.
-func (c *checker) plant(t *table) Plant {
+// The bool reports whether the delay is valid (given or defaulted), for the
+// envelope's bound on the added delay.
+func (c *checker) plant(t *table) (Plant, bool) {
 	pl := Plant{Delay: defaultPlantDelay}
 	zpk, phys := t.present(zpkKeys()...), t.present(physKeys()...)
 	both := len(zpk) > 0 && len(phys) > 0
@@ -161,8 +180,9 @@ func (c *checker) plant(t *table) Plant {
 			pl.Model = physicalModel(eff, tau)
 		}
 	}
-	pl.Delay, _ = t.number("delay", delayRule(), false, defaultPlantDelay)
-	return pl
+	var delayOK bool
+	pl.Delay, delayOK = t.number("delay", delayRule(), false, defaultPlantDelay)
+	return pl, delayOK
 }
 
 // physicalModel is the plant of the physical form: the command sets the
@@ -301,8 +321,19 @@ func elementAt(v any, idx int) any {
 	return arr[idx]
 }
 
+// specLimits holds what the spec is checked against outside its table.
+type specLimits struct {
+	// outputLimit bounds disturbance_step and sets its default; only when
+	// outputLimitOK.
+	outputLimit   [2]float64
+	outputLimitOK bool
+	// inputFullScale (0: not given or invalid) bounds hold_rate and is
+	// its default.
+	inputFullScale float64
+}
+
 // spec checks [axes.NAME.spec].
-func (c *checker) spec(t *table) Spec {
+func (c *checker) spec(t *table, lim specLimits) Spec {
 	var s Spec
 	s.SettlingTime, _ = t.number("settling_time", numRule{desc: "> 0", unit: "s", ok: isPositive}, true, 0)
 	s.Band, _ = t.number("settling_band", numRule{
@@ -317,16 +348,104 @@ func (c *checker) spec(t *table) Spec {
 		ok: func(x float64) bool { return x >= 0 && x < maxPhaseMargin },
 	}, false, defaultMinPhaseMargin)
 	s.MinGainMargin, _ = t.number("min_gain_margin", numRule{desc: "≥ 0", unit: "dB", ok: isNonNegative}, false, defaultMinGainMargin)
+
+	s.MaxSensitivity, _ = t.number("max_sensitivity", numRule{
+		desc: fmt.Sprintf("in (1, %g]", maxSensitivityBound), unit: "Ms = max |1/(1 + L)|; usually 1.2 to 2",
+		ok: func(x float64) bool { return x > 1 && x <= maxSensitivityBound },
+	}, false, defaultMaxSensitivity)
+	s.MaxSteadyError, _ = t.number("max_steady_error", numRule{
+		desc: "in (0, 1)", unit: "fraction of the setpoint",
+		ok: func(x float64) bool { return x > 0 && x < 1 },
+	}, false, defaultMaxSteadyError(s.Band))
+
+	hold, holdOK := t.number("hold_rate", numRule{desc: "> 0", unit: "rad/s", ok: isPositive}, false, defaultHoldRate(lim.inputFullScale))
+	if holdOK && lim.inputFullScale > 0 && hold > lim.inputFullScale {
+		c.fail(t.sub("hold_rate"), t.m["hold_rate"],
+			"must be ≤ numeric.input_full_scale = %g (rad/s): the setpoint cannot exceed what the numeric type represents",
+			lim.inputFullScale)
+	}
+	s.HoldRate = hold
+
+	stepRule := numRule{desc: "> 0", unit: "command units at the plant input", ok: isPositive}
+	if lim.outputLimitOK {
+		most := maxCommand(lim.outputLimit)
+		stepRule = numRule{
+			desc: fmt.Sprintf("> 0 and ≤ %g, the larger |control.output_limit|", most),
+			unit: "command units at the plant input; a larger load the actuator cannot cancel",
+			ok:   func(x float64) bool { return x > 0 && x <= most },
+		}
+	}
+	s.DisturbanceStep, _ = t.number("disturbance_step", stepRule, false, defaultDisturbanceStep(lim.outputLimit))
+	s.DisturbanceRecovery, _ = t.number("disturbance_recovery", numRule{
+		desc: "> 0", unit: "s; omit the key for no check", ok: isPositive,
+	}, false, defaultDisturbanceRecovery)
+	s.MaxNoiseGain, _ = t.number("max_noise_gain", numRule{
+		desc: "> 0", unit: "command units per rad/s; omit the key for the design's default", ok: isPositive,
+	}, false, defaultMaxNoiseGain)
 	return s
 }
 
+// envelope checks [axes.NAME.envelope]; each absent key keeps its
+// default. delay is the plant's transport delay, which bounds delay_add
+// when delayOK.
+func (c *checker) envelope(t *table, delay float64, delayOK bool) Envelope {
+	e := defaultEnvelope()
+	scale := func(what string) intervalRule {
+		return intervalRule{
+			desc: fmt.Sprintf("0 < low ≤ 1 ≤ high ≤ %g", maxEnvelopeScale),
+			unit: "factors on " + what,
+			ok: func(lo, hi float64) bool {
+				return lo > 0 && lo <= 1 && hi >= 1 && hi <= maxEnvelopeScale
+			},
+		}
+	}
+	if t.has("gain_scale") {
+		if v, ok := c.interval(t.sub("gain_scale"), t.m["gain_scale"], scale("the plant's gain")); ok {
+			e.GainScale = v
+		}
+	}
+	if t.has("lag_scale") {
+		if v, ok := c.interval(t.sub("lag_scale"), t.m["lag_scale"], scale("the time constant of every non-zero plant pole")); ok {
+			e.LagScale = v
+		}
+	}
+	if t.has("delay_add") {
+		if v, ok := c.interval(t.sub("delay_add"), t.m["delay_add"], delayAddRule(delay, delayOK)); ok {
+			e.DelayAdd = v
+		}
+	}
+	return e
+}
+
+// delayAddRule is the rule of envelope.delay_add: the added delay may
+// shorten the plant's delay to no less than zero and lengthen it to no
+// more than maxDelay. Without a valid plant delay, only |added| ≤
+// maxDelay is checked.
+func delayAddRule(delay float64, delayOK bool) intervalRule {
+	if !delayOK {
+		return intervalRule{
+			desc: fmt.Sprintf("-%g ≤ low ≤ 0 ≤ high ≤ %g", maxDelay, maxDelay), unit: "s, added to plant.delay",
+			ok: func(lo, hi float64) bool { return lo >= -maxDelay && lo <= 0 && hi >= 0 && hi <= maxDelay },
+		}
+	}
+	return intervalRule{
+		desc: fmt.Sprintf("low ≤ 0 ≤ high, plant.delay + low ≥ 0 and plant.delay + high ≤ %g", maxDelay),
+		unit: fmt.Sprintf("s; plant.delay is %g", delay),
+		ok: func(lo, hi float64) bool {
+			return lo <= 0 && hi >= 0 && delay+lo >= 0 && delay+hi <= maxDelay
+		},
+	}
+}
+
 // control checks [axes.NAME.control]; loopHz is 0 when loop_hz is
-// invalid, which skips the checks against it.
+// invalid, which skips the checks against it. The bool reports whether
+// the output limit is valid (given or defaulted), for the checks of the
+// spec against it.
 //
 // Keys that have no effect on the chosen form are errors rather than
 // silently ignored: a third_pole on a PI or a lead_zero on a PID is almost
 // certainly a form that was meant to be different.
-func (c *checker) control(t *table, loopHz float64) Control {
+func (c *checker) control(t *table, loopHz float64) (Control, bool) {
 	ctl := Control{
 		Form:              defaultForm,
 		Refine:            defaultRefine,
@@ -428,7 +547,7 @@ func (c *checker) control(t *table, loopHz float64) Control {
 	if d, ok := t.enum("discretize", defaultDiscretize, "tustin", "tustin_prewarp", "backward", "forward"); ok {
 		ctl.Discretize = d
 	}
-	return ctl
+	return ctl, limOK
 }
 
 // outputLimit checks output_limit = [low, high].

@@ -102,6 +102,49 @@ const (
 	// when absent with a float type: 0, "not given" (Numeric).
 	// The fixed-point types require both.
 	defaultFullScale = 0.0
+
+	// defaultMaxSensitivity is spec.max_sensitivity, the bound on
+	// Ms = max |1/(1 + L(jω))|. The trade's usual range is 1.2-2.0, with
+	// 1.4 a conservative and 2.0 an aggressive choice (Åström, Hägglund,
+	// Advanced PID Control, ISA 2006, robustness measured by Ms; from
+	// memory); 1.7 sits between. It guarantees GM ≥ Ms/(Ms − 1) = 2.43
+	// (7.7 dB) and PM ≥ 2·asin(1/(2·Ms)) = 34.2° (Skogestad, Postlethwaite,
+	// Multivariable Feedback Control; from memory), so it also keeps a
+	// loop with no margin requirement away from the edge of stability.
+	defaultMaxSensitivity = 1.7
+
+	// defaultDisturbanceFraction gives spec.disturbance_step =
+	// 0.1 · max(|low|, |high|) of control.output_limit: a load a tenth of
+	// the actuator's authority, which the loop can cancel with most of the
+	// command range left, so the check sees the linear recovery rather
+	// than saturation. The figure is this tool's choice, not a standard.
+	defaultDisturbanceFraction = 0.1
+
+	// defaultDisturbanceRecovery is spec.disturbance_recovery when absent:
+	// 0, not checked (the response is still reported).
+	defaultDisturbanceRecovery = 0.0
+
+	// defaultMaxNoiseGain is spec.max_noise_gain when absent: 0, which asks
+	// the design for its default bound (Spec).
+	defaultMaxNoiseGain = 0.0
+
+	// defaultGainScaleLow and defaultGainScaleHigh are envelope.gain_scale:
+	// ±10 % on the plant's gain, since battery sag and payload move a
+	// multirotor's control effectiveness by 10 % or more (common practice).
+	defaultGainScaleLow  = 0.9
+	defaultGainScaleHigh = 1.1
+
+	// defaultLagScaleLow and defaultLagScaleHigh are envelope.lag_scale:
+	// the nominal lag only. There is no figure for how much a motor's time
+	// constant varies that holds across vehicles, so the lag moves only
+	// when the file says by how much.
+	defaultLagScaleLow  = 1.0
+	defaultLagScaleHigh = 1.0
+
+	// defaultDelayAddLow and defaultDelayAddHigh are envelope.delay_add:
+	// the plant's delay as stated, for the same reason as the lag.
+	defaultDelayAddLow  = 0.0
+	defaultDelayAddHigh = 0.0
 )
 
 // derivativeOnName is the control.derivative_on spelling of
@@ -132,7 +175,45 @@ func defaultDerivativeLowpassHz(loopHz float64) float64 {
 // integral: max(|low|, |high|), so that the integral term alone can drive
 // the command to either limit but not wind up beyond it (common practice).
 func defaultIntegratorLimit(outputLimit [2]float64) float64 {
+	return maxCommand(outputLimit)
+}
+
+// defaultMaxSteadyError is spec.max_steady_error: the settling band. A
+// step whose final value is off by more than the band never settles into
+// it, so settling_time already implies this bound; the default states it
+// as a check of its own (and a looser band loosens it with it).
+func defaultMaxSteadyError(band float64) float64 { return band }
+
+// defaultHoldRate is spec.hold_rate: numeric.input_full_scale when it is
+// given, the largest setpoint the generated code can represent and so the
+// largest one the loop can be asked to hold; else 0, "not asked" (Spec).
+func defaultHoldRate(inputFullScale float64) float64 {
+	if inputFullScale > 0 {
+		return inputFullScale
+	}
+	return 0
+}
+
+// defaultDisturbanceStep is spec.disturbance_step for the axis's
+// control.output_limit; see defaultDisturbanceFraction.
+func defaultDisturbanceStep(outputLimit [2]float64) float64 {
+	return defaultDisturbanceFraction * maxCommand(outputLimit)
+}
+
+// maxCommand is the larger magnitude of the command range,
+// max(|low|, |high|).
+func maxCommand(outputLimit [2]float64) float64 {
 	return math.Max(math.Abs(outputLimit[0]), math.Abs(outputLimit[1]))
+}
+
+// defaultEnvelope is [axes.NAME.envelope] when absent; each of its keys
+// defaults separately to its part of this value.
+func defaultEnvelope() Envelope {
+	return Envelope{
+		GainScale: [2]float64{defaultGainScaleLow, defaultGainScaleHigh},
+		LagScale:  [2]float64{defaultLagScaleLow, defaultLagScaleHigh},
+		DelayAdd:  [2]float64{defaultDelayAddLow, defaultDelayAddHigh},
+	}
 }
 
 // MaxFileBytes bounds the input: a hand-written airframe file is a few
@@ -158,6 +239,21 @@ const (
 	// maxSettlingBand bounds spec.settling_band: 20 % is already a loose
 	// band; 2 % and 5 % are the usual ones.
 	maxSettlingBand = 0.2
+
+	// maxSensitivityBound is the largest spec.max_sensitivity: Ms = 4
+	// guarantees only GM ≥ 4/3 (2.5 dB) and PM ≥ 2·asin(1/8) = 14.4°
+	// (the bounds of defaultMaxSensitivity), which is no robustness
+	// requirement any more. The lower bound is 1, exclusive: where the
+	// loop gain has rolled off, |S| = |1/(1 + L)| → 1, so no loop has
+	// Ms < 1, and Bode's sensitivity integral puts |S| above 1 somewhere
+	// in a loop that does anything (Skogestad, Postlethwaite; from memory).
+	maxSensitivityBound = 4.0
+
+	// maxEnvelopeScale bounds the high end of envelope.gain_scale and
+	// lag_scale: a factor of ten on the effectiveness or the motor lag is
+	// a different vehicle, not a tolerance, and 110 for 1.1 is a
+	// percentage typed as a factor.
+	maxEnvelopeScale = 10.0
 
 	// maxPhaseMargin is the exclusive upper bound of min_phase_margin in
 	// degrees: a loop with a phase margin of 90° or more is not a

@@ -24,8 +24,9 @@ type malformedCase struct {
 	name string
 	src  string
 	// want are substrings of the error text: the key path, the value as
-	// written (where there is one) and what is allowed. Every line must
-	// also start with the file path; that is checked for all cases.
+	// written (where there is one) and what is allowed; a "\n" at the end
+	// matches the end of a message. Every line must also start with the
+	// file path; that is checked for all cases.
 	want []string
 	// count, when > 0, is the exact number of problems expected.
 	count int
@@ -44,6 +45,14 @@ func edit(tb testing.TB, old, new string) string {
 func withControl(lines string) string { return minimal + "\n[axes.roll.control]\n" + lines + "\n" }
 func withSensor(lines string) string  { return minimal + "\n[axes.roll.sensor]\n" + lines + "\n" }
 func withNumeric(lines string) string { return minimal + "\n[numeric]\n" + lines + "\n" }
+func withEnvelope(lines string) string {
+	return minimal + "\n[axes.roll.envelope]\n" + lines + "\n"
+}
+
+// withSpec adds lines to the spec table of minimal.
+func withSpec(tb testing.TB, lines string) string {
+	return edit(tb, "overshoot = 0.1\n", "overshoot = 0.1\n"+lines+"\n")
+}
 
 // zpkPlant replaces the physical plant of minimal by the given zpk lines.
 func zpkPlant(tb testing.TB, lines string) string {
@@ -57,9 +66,11 @@ func malformedCases(tb testing.TB) []malformedCase {
 		{name: "unknown top key", src: "colour = \"red\"\n" + minimal,
 			want: []string{`colour = "red": unknown key; allowed at the top level: airframe, description, loop_hz, compute_delay, numeric, axes`}, count: 1},
 		{name: "unknown spec key", src: edit(tb, "overshoot = 0.1", "overshoot = 0.1\novershot = 0.2"),
-			want: []string{`axes.roll.spec.overshot = 0.2: unknown key; allowed in [axes.roll.spec]: settling_time, settling_band, overshoot, min_phase_margin, min_gain_margin`}, count: 1},
+			want: []string{`axes.roll.spec.overshot = 0.2: unknown key; allowed in [axes.roll.spec]: settling_time, settling_band, overshoot, min_phase_margin, min_gain_margin, max_sensitivity, max_steady_error, hold_rate, disturbance_step, disturbance_recovery, max_noise_gain` + "\n"}, count: 1},
 		{name: "unknown table", src: minimal + "\n[axes.roll.gyro]\nlowpass_hz = 90.0\n",
-			want: []string{`axes.roll.gyro: unknown key; allowed in [axes.roll]: plant, sensor, spec, control`}, count: 1},
+			want: []string{`axes.roll.gyro: unknown key; allowed in [axes.roll]: plant, sensor, spec, control, envelope` + "\n"}, count: 1},
+		{name: "unknown envelope key", src: withEnvelope("gain = [0.9, 1.1]"),
+			want: []string{`axes.roll.envelope.gain = [0.9, 1.1]: unknown key; allowed in [axes.roll.envelope]: gain_scale, lag_scale, delay_add` + "\n"}, count: 1},
 		{name: "unknown control key", src: withControl("kp = 0.1"),
 			want: []string{`axes.roll.control.kp = 0.1: unknown key; allowed in [axes.roll.control]: form, refine`}, count: 1},
 
@@ -275,6 +286,103 @@ func malformedCases(tb testing.TB) []malformedCase {
 		{name: "full scale negative", src: withNumeric("type = \"q31\"\ninput_full_scale = -1.0\noutput_full_scale = 1.0"),
 			want: []string{`numeric.input_full_scale = -1.0: must be > 0`}, count: 1},
 
+		// Spec: the robustness, steady-state and disturbance keys.
+		{name: "max_sensitivity one", src: withSpec(tb, "max_sensitivity = 1.0"),
+			want: []string{`axes.roll.spec.max_sensitivity = 1.0: must be in (1, 4] (Ms = max |1/(1 + L)|; usually 1.2 to 2)`}, count: 1},
+		{name: "max_sensitivity above 4", src: withSpec(tb, "max_sensitivity = 4.5"),
+			want: []string{`axes.roll.spec.max_sensitivity = 4.5: must be in (1, 4]`}, count: 1},
+		{name: "max_sensitivity string", src: withSpec(tb, `max_sensitivity = "1.7"`),
+			want: []string{`axes.roll.spec.max_sensitivity = "1.7": must be a number in (1, 4] (Ms = max |1/(1 + L)|; usually 1.2 to 2), not a string`}, count: 1},
+		{name: "max_sensitivity nan", src: withSpec(tb, "max_sensitivity = nan"),
+			want: []string{`axes.roll.spec.max_sensitivity = nan: must be a finite number in (1, 4]`}, count: 1},
+		{name: "max_steady_error zero", src: withSpec(tb, "max_steady_error = 0"),
+			want: []string{`axes.roll.spec.max_steady_error = 0: must be in (0, 1) (fraction of the setpoint)`}, count: 1},
+		{name: "max_steady_error one", src: withSpec(tb, "max_steady_error = 1.0"),
+			want: []string{`axes.roll.spec.max_steady_error = 1.0: must be in (0, 1) (fraction of the setpoint)`}, count: 1},
+		{name: "hold_rate zero", src: withSpec(tb, "hold_rate = 0.0"),
+			want: []string{`axes.roll.spec.hold_rate = 0.0: must be > 0 (rad/s)`}, count: 1},
+		{name: "hold_rate negative", src: withSpec(tb, "hold_rate = -3"),
+			want: []string{`axes.roll.spec.hold_rate = -3: must be > 0 (rad/s)`}, count: 1},
+		{name: "hold_rate inf", src: withSpec(tb, "hold_rate = inf"),
+			want: []string{`axes.roll.spec.hold_rate = inf: must be a finite number > 0 (rad/s)`}, count: 1},
+		{name: "hold_rate above full scale", src: withSpec(tb, "hold_rate = 12.0") + "\n[numeric]\ninput_full_scale = 10.0\n",
+			want: []string{`axes.roll.spec.hold_rate = 12.0: must be ≤ numeric.input_full_scale = 10 (rad/s): the setpoint cannot exceed what the numeric type represents`}, count: 1},
+		{name: "hold_rate above q15 full scale", src: withSpec(tb, "hold_rate = 10.5") + "\n[numeric]\ntype = \"q15\"\ninput_full_scale = 10\noutput_full_scale = 1\n",
+			want: []string{`axes.roll.spec.hold_rate = 10.5: must be ≤ numeric.input_full_scale = 10 (rad/s)`}, count: 1},
+		// An invalid full scale is reported once, not again at hold_rate.
+		{name: "hold_rate with bad full scale", src: withSpec(tb, "hold_rate = 12.0") + "\n[numeric]\ninput_full_scale = -10.0\n",
+			want: []string{`numeric.input_full_scale = -10.0: must be > 0`}, count: 1},
+		{name: "disturbance_step zero", src: withSpec(tb, "disturbance_step = 0"),
+			want: []string{`axes.roll.spec.disturbance_step = 0: must be > 0 and ≤ 1, the larger |control.output_limit| (command units at the plant input; a larger load the actuator cannot cancel)`}, count: 1},
+		{name: "disturbance_step above limit", src: withSpec(tb, "disturbance_step = 1.5"),
+			want: []string{`axes.roll.spec.disturbance_step = 1.5: must be > 0 and ≤ 1, the larger |control.output_limit|`}, count: 1},
+		{name: "disturbance_step above given limit", src: withSpec(tb, "disturbance_step = 0.35") + "\n[axes.roll.control]\noutput_limit = [-0.3, 0.25]\n",
+			want: []string{`axes.roll.spec.disturbance_step = 0.35: must be > 0 and ≤ 0.3, the larger |control.output_limit|`}, count: 1},
+		{name: "disturbance_step string", src: withSpec(tb, `disturbance_step = "10%"`),
+			want: []string{`axes.roll.spec.disturbance_step = "10%": must be a number > 0 and ≤ 1, the larger |control.output_limit|`, `not a string`}, count: 1},
+		// An invalid output limit is reported once, not again at the step.
+		{name: "disturbance_step with bad limit", src: withSpec(tb, "disturbance_step = 5.0") + "\n[axes.roll.control]\noutput_limit = [1.0, -1.0]\n",
+			want: []string{`axes.roll.control.output_limit = [1.0, -1.0]: must be [low, high]`}, count: 1},
+		{name: "disturbance_recovery zero", src: withSpec(tb, "disturbance_recovery = 0"),
+			want: []string{`axes.roll.spec.disturbance_recovery = 0: must be > 0 (s; omit the key for no check)`}, count: 1},
+		{name: "disturbance_recovery negative", src: withSpec(tb, "disturbance_recovery = -0.1"),
+			want: []string{`axes.roll.spec.disturbance_recovery = -0.1: must be > 0 (s; omit the key for no check)`}, count: 1},
+		{name: "max_noise_gain zero", src: withSpec(tb, "max_noise_gain = 0.0"),
+			want: []string{`axes.roll.spec.max_noise_gain = 0.0: must be > 0 (command units per rad/s; omit the key for the design's default)`}, count: 1},
+		{name: "max_noise_gain boolean", src: withSpec(tb, "max_noise_gain = true"),
+			want: []string{`axes.roll.spec.max_noise_gain = true: must be a number > 0 (command units per rad/s; omit the key for the design's default), not a boolean`}, count: 1},
+
+		// Envelope.
+		{name: "envelope not a table", src: minimal + "\n[axes.roll]\nenvelope = 3\n",
+			want: []string{`axes.roll.envelope = 3: must be a table (gain_scale, lag_scale, delay_add), not an integer`}, count: 1},
+		{name: "gain_scale inverted", src: withEnvelope("gain_scale = [1.1, 0.9]"),
+			want: []string{`axes.roll.envelope.gain_scale = [1.1, 0.9]: low > high: must be [low, high] with 0 < low ≤ 1 ≤ high ≤ 10 (factors on the plant's gain)`}, count: 1},
+		{name: "gain_scale low zero", src: withEnvelope("gain_scale = [0, 1.1]"),
+			want: []string{`axes.roll.envelope.gain_scale = [0, 1.1]: must be [low, high] with 0 < low ≤ 1 ≤ high ≤ 10 (factors on the plant's gain)`}, count: 1},
+		{name: "gain_scale high above 10", src: withEnvelope("gain_scale = [0.9, 110]"),
+			want: []string{`axes.roll.envelope.gain_scale = [0.9, 110]: must be [low, high] with 0 < low ≤ 1 ≤ high ≤ 10`}, count: 1},
+		{name: "gain_scale above nominal", src: withEnvelope("gain_scale = [1.05, 1.2]"),
+			want: []string{`axes.roll.envelope.gain_scale = [1.05, 1.2]: must be [low, high] with 0 < low ≤ 1 ≤ high ≤ 10`}, count: 1},
+		{name: "gain_scale below nominal", src: withEnvelope("gain_scale = [0.8, 0.95]"),
+			want: []string{`axes.roll.envelope.gain_scale = [0.8, 0.95]: must be [low, high] with 0 < low ≤ 1 ≤ high ≤ 10`}, count: 1},
+		{name: "gain_scale number", src: withEnvelope("gain_scale = 1.1"),
+			want: []string{`axes.roll.envelope.gain_scale = 1.1: must be an array [low, high] with 0 < low ≤ 1 ≤ high ≤ 10 (factors on the plant's gain), not a float`}, count: 1},
+		{name: "gain_scale one element", src: withEnvelope("gain_scale = [0.9]"),
+			want: []string{`axes.roll.envelope.gain_scale = [0.9]: must be an array of 2 numbers [low, high] with 0 < low ≤ 1 ≤ high ≤ 10 (factors on the plant's gain), not 1 element`}, count: 1},
+		{name: "gain_scale string element", src: withEnvelope(`gain_scale = [0.9, "1.1"]`),
+			want: []string{`axes.roll.envelope.gain_scale = [0.9, "1.1"]: must be two numbers [low, high] with 0 < low ≤ 1 ≤ high ≤ 10`}, count: 1},
+		{name: "gain_scale nan", src: withEnvelope("gain_scale = [nan, 1.1]"),
+			want: []string{`axes.roll.envelope.gain_scale = [nan, 1.1]: must be two finite numbers [low, high] with 0 < low ≤ 1 ≤ high ≤ 10`}, count: 1},
+		{name: "lag_scale inf", src: withEnvelope("lag_scale = [1, inf]"),
+			want: []string{`axes.roll.envelope.lag_scale = [1, inf]: must be two finite numbers [low, high] with 0 < low ≤ 1 ≤ high ≤ 10 (factors on the time constant of every non-zero plant pole)`}, count: 1},
+		{name: "lag_scale negative", src: withEnvelope("lag_scale = [-0.5, 1.5]"),
+			want: []string{`axes.roll.envelope.lag_scale = [-0.5, 1.5]: must be [low, high] with 0 < low ≤ 1 ≤ high ≤ 10 (factors on the time constant of every non-zero plant pole)`}, count: 1},
+		{name: "lag_scale high above 10", src: withEnvelope("lag_scale = [0.5, 20.0]"),
+			want: []string{`axes.roll.envelope.lag_scale = [0.5, 20.0]: must be [low, high] with 0 < low ≤ 1 ≤ high ≤ 10`}, count: 1},
+		{name: "lag_scale inverted", src: withEnvelope("lag_scale = [1.5, 0.5]"),
+			want: []string{`axes.roll.envelope.lag_scale = [1.5, 0.5]: low > high: must be [low, high] with 0 < low ≤ 1 ≤ high ≤ 10`}, count: 1},
+		{name: "delay_add low positive", src: withEnvelope("delay_add = [0.001, 0.002]"),
+			want: []string{`axes.roll.envelope.delay_add = [0.001, 0.002]: must be [low, high] with low ≤ 0 ≤ high, plant.delay + low ≥ 0 and plant.delay + high ≤ 0.5 (s; plant.delay is 0)`}, count: 1},
+		{name: "delay_add below zero delay", src: withEnvelope("delay_add = [-0.001, 0.0]"),
+			want: []string{`axes.roll.envelope.delay_add = [-0.001, 0.0]: must be [low, high] with low ≤ 0 ≤ high, plant.delay + low ≥ 0 and plant.delay + high ≤ 0.5 (s; plant.delay is 0)`}, count: 1},
+		{name: "delay_add below plant delay", src: edit(tb, "motor_tau = 0.025", "motor_tau = 0.025\ndelay = 0.002") + "\n[axes.roll.envelope]\ndelay_add = [-0.003, 0.001]\n",
+			want: []string{`axes.roll.envelope.delay_add = [-0.003, 0.001]: must be [low, high] with low ≤ 0 ≤ high, plant.delay + low ≥ 0 and plant.delay + high ≤ 0.5 (s; plant.delay is 0.002)`}, count: 1},
+		{name: "delay_add beyond max delay", src: edit(tb, "motor_tau = 0.025", "motor_tau = 0.025\ndelay = 0.002") + "\n[axes.roll.envelope]\ndelay_add = [0, 0.499]\n",
+			want: []string{`axes.roll.envelope.delay_add = [0, 0.499]: must be [low, high] with low ≤ 0 ≤ high, plant.delay + low ≥ 0 and plant.delay + high ≤ 0.5 (s; plant.delay is 0.002)`}, count: 1},
+		{name: "delay_add high negative", src: withEnvelope("delay_add = [-0.002, -0.001]"),
+			want: []string{`axes.roll.envelope.delay_add = [-0.002, -0.001]: must be [low, high] with low ≤ 0 ≤ high`}, count: 1},
+		{name: "delay_add inverted", src: withEnvelope("delay_add = [0.001, -0.001]"),
+			want: []string{`axes.roll.envelope.delay_add = [0.001, -0.001]: low > high: must be [low, high] with low ≤ 0 ≤ high`}, count: 1},
+		{name: "delay_add string", src: withEnvelope(`delay_add = "2 ms"`),
+			want: []string{`axes.roll.envelope.delay_add = "2 ms": must be an array [low, high] with low ≤ 0 ≤ high`, `not a string`}, count: 1},
+		// An invalid plant delay is reported once; the added delay is then
+		// only held to ±0.5 s.
+		{name: "delay_add with bad plant delay", src: edit(tb, "motor_tau = 0.025", "motor_tau = 0.025\ndelay = -1.0") + "\n[axes.roll.envelope]\ndelay_add = [-0.001, 0.001]\n",
+			want: []string{`axes.roll.plant.delay = -1.0: must be in [0, 0.5] (s)`}, count: 1},
+		{name: "delay_add huge with bad plant delay", src: edit(tb, "motor_tau = 0.025", "motor_tau = 0.025\ndelay = -1.0") + "\n[axes.roll.envelope]\ndelay_add = [0, 0.6]\n",
+			want: []string{`axes.roll.plant.delay = -1.0: must be in [0, 0.5] (s)`,
+				`axes.roll.envelope.delay_add = [0, 0.6]: must be [low, high] with -0.5 ≤ low ≤ 0 ≤ high ≤ 0.5 (s, added to plant.delay)`}, count: 2},
+
 		// Whole-file problems.
 		{name: "empty axes", src: "airframe = \"testbird\"\nloop_hz = 1000\n[axes]\n",
 			want: []string{`x.toml: axes: at least one axis required`}, count: 1},
@@ -332,8 +440,10 @@ func TestMalformed(t *testing.T) {
 				t.Fatalf("error %T is not *Errors: %v", err, err)
 			}
 			msg := err.Error()
+			// Every line ends in "\n" here, so that a want ending in "\n"
+			// pins the end of its message (a complete list of keys).
 			for _, w := range tc.want {
-				if !strings.Contains(msg, w) {
+				if !strings.Contains(msg+"\n", w) {
 					t.Errorf("error does not mention %q; got:\n%s", w, msg)
 				}
 			}

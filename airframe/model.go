@@ -3,6 +3,7 @@ package airframe
 import (
 	"math"
 	"math/cmplx"
+	"slices"
 
 	"locusmith/internal/lti"
 )
@@ -41,7 +42,9 @@ type Plant struct {
 	Delay float64
 }
 
-// Spec is the time-domain and robustness spec of one axis.
+// Spec is the time-domain and robustness spec of one axis. Every figure
+// is checked on the sampled loop, at the nominal plant and over the
+// envelope.
 type Spec struct {
 	SettlingTime float64 // s, to within ±Band of the final value
 	Band         float64 // settling band as a fraction, 0.02 or 0.05
@@ -50,6 +53,80 @@ type Spec struct {
 	// zero means no requirement beyond stability.
 	MinPhaseMargin float64
 	MinGainMargin  float64
+	// MaxSensitivity is the bound on Ms = max |1/(1 + L)|.
+	MaxSensitivity float64
+	// MaxSteadyError bounds |1 − final value| of a unit setpoint step, a
+	// fraction of the setpoint.
+	MaxSteadyError float64
+	// HoldRate is the largest steady setpoint (rad/s) the loop must hold
+	// with the integrator within the integrator limit; 0: none asked.
+	HoldRate float64
+	// DisturbanceStep is the load disturbance of the disturbance check, in
+	// command units at the plant input (where the command enters).
+	DisturbanceStep float64
+	// DisturbanceRecovery is the time (s) after a DisturbanceStep by which
+	// the rate deviation must stay within 2 % of its peak; 0: not checked
+	// (the response is still reported).
+	DisturbanceRecovery float64
+	// MaxNoiseGain bounds the controller's largest gain from measured rate
+	// to command between the crossover and Nyquist (command units per
+	// rad/s); 0 asks the design for its default (see the search).
+	MaxNoiseGain float64
+}
+
+// Envelope is the plant's range: every check holds at the nominal plant
+// and at every corner of the box the three intervals span.
+type Envelope struct {
+	// GainScale multiplies the plant's gain (effectiveness, or the zpk
+	// gain): [low, high] with low ≤ 1 ≤ high.
+	GainScale [2]float64
+	// LagScale multiplies the time constant of every non-zero plant pole
+	// (motor_tau in the physical form), keeping the low-frequency gain:
+	// [low, high] with low ≤ 1 ≤ high.
+	LagScale [2]float64
+	// DelayAdd is added to the plant's transport delay, s: [low, high]
+	// with low ≤ 0 ≤ high.
+	DelayAdd [2]float64
+}
+
+// Corner is one plant of the envelope: the scales and the added delay.
+type Corner struct {
+	GainScale, LagScale, DelayAdd float64
+}
+
+// Nominal is the corner of the nominal plant.
+func Nominal() Corner { return Corner{GainScale: 1, LagScale: 1} }
+
+// Normalized returns e with a zero scale interval read as [1, 1]: the
+// zero Envelope is the nominal plant only.
+func (e Envelope) Normalized() Envelope {
+	if e.GainScale == [2]float64{} {
+		e.GainScale = [2]float64{1, 1}
+	}
+	if e.LagScale == [2]float64{} {
+		e.LagScale = [2]float64{1, 1}
+	}
+	return e
+}
+
+// Corners returns the nominal plant, then every distinct corner of the
+// envelope box, in a fixed order (gain, then lag, then delay, low before
+// high). An envelope of [1, 1], [1, 1], [0, 0] (or the zero Envelope) has
+// the nominal plant only.
+func (e Envelope) Corners() []Corner {
+	e = e.Normalized()
+	cs := []Corner{Nominal()}
+	for _, g := range e.GainScale {
+		for _, l := range e.LagScale {
+			for _, d := range e.DelayAdd {
+				c := Corner{GainScale: g, LagScale: l, DelayAdd: d}
+				if !slices.Contains(cs, c) {
+					cs = append(cs, c)
+				}
+			}
+		}
+	}
+	return cs
 }
 
 // Control holds the controller choices of one axis, with every default
@@ -96,11 +173,38 @@ func (c Control) Tf() float64 {
 // Axis is one [axes.NAME] table: everything needed to design and verify
 // one rate loop.
 type Axis struct {
-	Name   string
-	Plant  Plant
-	Sensor lti.ZPK // true rate → measured rate; Gain 1 and no roots when ideal
-	Spec   Spec
-	Ctrl   Control
+	Name     string
+	Plant    Plant
+	Sensor   lti.ZPK // true rate → measured rate; Gain 1 and no roots when ideal
+	Spec     Spec
+	Ctrl     Control
+	Envelope Envelope
+}
+
+// At returns the axis with its plant moved to corner c of the envelope:
+// the gain multiplied by c.GainScale; every non-zero pole p moved to
+// p/c.LagScale (its time constant multiplied by c.LagScale) with the gain
+// divided by c.LagScale for each such pole, so that the gain below the
+// poles is kept (for the physical form effectiveness/(s·(τs + 1)) this is
+// τ → c.LagScale·τ, effectiveness unchanged); c.DelayAdd added to the
+// delay. Zeros and the sensor are not moved.
+func (a Axis) At(c Corner) Axis {
+	if c == Nominal() {
+		return a
+	}
+	m := a.Plant.Model
+	poles := make([]complex128, len(m.Poles))
+	gain := m.Gain * c.GainScale
+	for i, p := range m.Poles {
+		poles[i] = p
+		if p != 0 && c.LagScale != 1 {
+			poles[i] = p / complex(c.LagScale, 0)
+			gain /= c.LagScale
+		}
+	}
+	a.Plant.Model = lti.ZPK{Gain: gain, Zeros: m.Zeros, Poles: poles}
+	a.Plant.Delay += c.DelayAdd
+	return a
 }
 
 // OpenLoop returns G(s)·H(s)·e^(−sτ), the loop without the controller:

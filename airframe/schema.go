@@ -119,6 +119,52 @@ func (c *checker) checkNumber(key string, raw any, v float64, r numRule) bool {
 	return true
 }
 
+// intervalRule describes the allowed values of an interval key
+// [low, high].
+type intervalRule struct {
+	desc string // the allowed intervals, e.g. "0 < low ≤ 1 ≤ high ≤ 10"
+	unit string // e.g. "s"; "" for pure numbers
+	ok   func(lo, hi float64) bool
+}
+
+// allowed renders the rule for messages: "[low, high] with … (s)".
+func (r intervalRule) allowed() string {
+	s := "[low, high] with " + r.desc
+	if r.unit != "" {
+		s += " (" + r.unit + ")"
+	}
+	return s
+}
+
+// interval checks the interval v = [low, high] at key: two finite numbers,
+// low ≤ high, satisfying the rule.
+func (c *checker) interval(key string, v any, r intervalRule) ([2]float64, bool) {
+	arr, ok := v.([]any)
+	if !ok {
+		c.fail(key, valueOrNil(v), "must be an array %s, not %s", r.allowed(), kind(v))
+		return [2]float64{}, false
+	}
+	if len(arr) != 2 {
+		c.fail(key, v, "must be an array of 2 numbers %s, not %s", r.allowed(), count(len(arr), "element"))
+		return [2]float64{}, false
+	}
+	lo, okL := asNumber(arr[0])
+	hi, okH := asNumber(arr[1])
+	switch {
+	case !okL || !okH:
+		c.fail(key, v, "must be two numbers %s", r.allowed())
+	case math.IsNaN(lo) || math.IsInf(lo, 0) || math.IsNaN(hi) || math.IsInf(hi, 0):
+		c.fail(key, v, "must be two finite numbers %s", r.allowed())
+	case lo > hi:
+		c.fail(key, v, "low > high: must be %s", r.allowed())
+	case r.ok != nil && !r.ok(lo, hi):
+		c.fail(key, v, "must be %s", r.allowed())
+	default:
+		return [2]float64{lo, hi}, true
+	}
+	return [2]float64{}, false
+}
+
 // asNumber converts a TOML integer or float to float64. TOML keeps the two
 // apart, but a design value of 1000 means 1000.0, so both are accepted.
 func asNumber(v any) (float64, bool) {

@@ -5,7 +5,6 @@ import (
 	"math"
 
 	"locusmith/airframe"
-	"locusmith/internal/lti"
 	"locusmith/synth"
 )
 
@@ -22,6 +21,16 @@ type Design struct {
 	// Checks are the spec checks on the sampled loop, plus sampling.
 	Checks   []synth.Check
 	Warnings []string
+	// Envelope holds the figures at every plant of the final
+	// verification: the nominal plant first, then the envelope's corners,
+	// then the finer look in between.
+	Envelope []CornerFigures
+	// NoiseGain is the controller's largest gain from the measured rate
+	// to the command between the lowest crossover and Nyquist.
+	NoiseGain float64
+	loops     *Loops
+	// realizeWarnings are the discretization's notes.
+	realizeWarnings []string
 	// Num is the numeric realization in airframe.Numeric's type: coefficient
 	// table, fixed-point formats and proved ranges, the integer model, and
 	// the verification with quantized coefficients (see RealizeNumeric).
@@ -38,46 +47,6 @@ func (d *Design) OK() bool {
 	return true
 }
 
-// Evaluator returns a refinement evaluator that judges candidates by the
-// sampled loop: the controller as discretized at the loop rate, the ZOH
-// plant, the compute delay.
-func Evaluator(p airframe.Axis, pl Plant, d int) synth.Evaluator {
-	return func(c synth.Controller) (synth.Evaluation, error) {
-		var e synth.Evaluation
-		wc := math.NaN()
-		if Method(p.Ctrl.Discretize) == TustinPrewarp {
-			wc = synth.Crossover(p, c)
-		}
-		k, _, err := Realize(c, p.Ctrl, pl.T, wc)
-		if err != nil {
-			return e, err
-		}
-		// Stability by the Schur–Cohn test on the characteristic
-		// polynomial; eigenvalues only where it cannot be formed.
-		if ch := characteristic(pl, k, d); ch != nil {
-			e.Stable = schurStable(ch)
-		} else {
-			ps, err := newClosedLoop(pl, linearize(k), d).poles()
-			if err != nil {
-				return e, err
-			}
-			e.Stable = stabilityMargin(ps) > 0
-		}
-		if !e.Stable {
-			return e, nil
-		}
-		lo, _ := spanOf(p)
-		e.Margins = func() lti.Margins { return loopMargins(pl, k, d, lo) }
-		k0, k1 := k, k
-		k0.KpB, k1.KpB = 0, k.Kp
-		c0, c1 := linearize(k0), linearize(k1)
-		e.N, e.H = horizon(p.Spec.SettlingTime, pl.T, nil, 4), pl.T
-		e.Final0, e.Final1 = newClosedLoop(pl, c0, d).dcGains(setpointInput(pl, c1, d))
-		e.Respond = newPairStepper(pl, c0, c1, d).run
-		return e, nil
-	}
-}
-
 // Sampling rules of thumb (Åström & Wittenmark, Computer-Controlled
 // Systems, choice of sampling period, from memory): ωc·T between about
 // 0.15 and 0.5, and 4 to 10 samples per closed-loop rise time. locusmith
@@ -87,43 +56,46 @@ const (
 	MinSamplesPerRise  = 4
 )
 
-// DesignAxis designs one axis for the loop rate: the continuous design,
-// refined so that the sampled loop meets the spec, then discretized and
-// verified at the samples.
+// DesignAxis designs one axis for the loop rate: the continuous placement,
+// the search of the gains on the sampled loop over the envelope, the
+// discretization, and the verification of every check at the nominal
+// plant, at every corner of the envelope and at a finer look in between.
 func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Design, error) {
 	if !(loop.Hz > 0) || math.IsInf(loop.Hz, 0) {
 		return nil, fmt.Errorf("axis %s: loop rate %g Hz: must be finite and > 0", p.Name, loop.Hz)
 	}
-	T := 1 / loop.Hz
-	pl, err := NewPlant(p, T)
+	L, err := NewLoops(p, loop)
 	if err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
-	cd, err := synth.DesignAxis(p, Evaluator(p, pl, loop.ComputeDelay))
+	cd, err := synth.DesignAxis(p, L)
 	if err != nil {
 		return nil, err
 	}
-	d := &Design{Problem: p, Loop: loop, Numeric: num, Cont: cd, Plant: pl}
-	k, warns, err := Realize(cd.Ctrl, p.Ctrl, T, cd.Verif.Margins.Crossover)
-	if err != nil {
+	d := &Design{Problem: p, Loop: loop, Numeric: num, Cont: cd, Plant: L.Plant(0), loops: L}
+	if err := d.realize(); err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
-	d.Coeffs = k
-	d.Warnings = append(append(d.Warnings, cd.Warnings...), warns...)
-	maxStep := math.Inf(1)
-	if num.InputFullScale > 0 {
-		maxStep = num.InputFullScale
+	// The search judged the frequency checks on a grid and the prewarp
+	// at the textbook target; a design that the exact verification finds
+	// short by a hair gives up a little of its load-rejection gain.
+	if cd.Met && cd.Refined {
+		for i := 0; i < 8 && !d.envelopeOK(); i++ {
+			cd.Ctrl = shrink(cd.Ctrl, 0.98)
+			if cd.Stage, err = synth.Restage(p, cd.Stage, cd.Ctrl); err != nil {
+				return nil, fmt.Errorf("axis %s: %w", p.Name, err)
+			}
+			if err := d.realize(); err != nil {
+				return nil, fmt.Errorf("axis %s: %w", p.Name, err)
+			}
+		}
 	}
-	d.Verif, err = verify(p, pl, k, loop.ComputeDelay, maxStep)
-	if err != nil {
-		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
-	}
-	v := d.Verif
-	d.Checks = synth.SpecChecks(p.Spec, v.Stable, 0, v.Step.Overshoot, v.Step.Settling, v.Margins.PhaseDeg, v.Margins.GainDB)
-	d.Checks[0] = synth.Check{Name: "stable", Limit: 1, Value: 1 - v.StabilityMargin, Upper: true, OK: v.Stable}
+	d.Warnings = append(d.Warnings, cd.Warnings...)
+	d.Warnings = append(d.Warnings, d.realizeWarnings...)
+	d.Checks = d.checks()
 	d.Checks = append(d.Checks, d.samplingCheck())
 	d.integratorReach()
-	// airframe.Numeric realization (numeric.go): its checks and warnings join the
+	// Numeric realization (numeric.go): its checks and warnings join the
 	// design's; bad numeric settings come back as an *InputError.
 	if d.Num, err = RealizeNumeric(d); err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
@@ -131,6 +103,64 @@ func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Des
 	d.Checks = append(d.Checks, d.Num.Checks...)
 	d.Warnings = append(d.Warnings, d.Num.Warnings...)
 	return d, nil
+}
+
+// shrink lowers the gain of c that its load rejection grows with (Ki, Kp
+// or K) by the factor f.
+func shrink(c synth.Controller, f float64) synth.Controller {
+	switch {
+	case c.Form.HasIntegral():
+		c.Ki *= f
+	case c.Form == airframe.FormLead:
+		c.K *= f
+	default:
+		c.Kp *= f
+	}
+	return c
+}
+
+// realize discretizes the continuous design and verifies it at every
+// plant of the final verification.
+func (d *Design) realize() error {
+	p, cd := d.Problem, d.Cont
+	T := 1 / d.Loop.Hz
+	k, warns, err := Realize(cd.Ctrl, p.Ctrl, T, cd.Verif.Margins.Crossover)
+	if err != nil {
+		return err
+	}
+	d.Coeffs, d.realizeWarnings = k, warns
+	maxStep := math.Inf(1)
+	if d.Numeric.InputFullScale > 0 {
+		maxStep = d.Numeric.InputFullScale
+	}
+	if d.Verif, err = verify(p, d.Plant, k, d.Loop.ComputeDelay, maxStep); err != nil {
+		return err
+	}
+	d.Envelope = d.Envelope[:0]
+	for _, c := range fineCorners(p.Envelope) {
+		pl := d.Plant
+		if c != airframe.Nominal() {
+			if pl, err = NewPlant(p.At(c), T); err != nil {
+				return err
+			}
+		}
+		f, err := cornerFigures(p, c, pl, k, d.Loop.ComputeDelay, d.loops.Grid())
+		if err != nil {
+			return err
+		}
+		d.Envelope = append(d.Envelope, f)
+	}
+	lo := math.Inf(1)
+	for _, f := range d.Envelope {
+		if len(f.Margins.GainCrossovers) > 0 {
+			lo = math.Min(lo, f.Margins.GainCrossovers[0])
+		}
+	}
+	if math.IsInf(lo, 1) {
+		lo = 0
+	}
+	d.NoiseGain = NoiseGain(k, d.loops.Grid(), lo)
+	return nil
 }
 
 // samplingCheck fails when the target, the crossover or the derivative
@@ -218,6 +248,10 @@ func (d *Design) DropTraces() {
 		if d.Cont.Textbook != nil {
 			d.Cont.Textbook.Verif.Y = last(d.Cont.Textbook.Verif.Y)
 		}
+	}
+	for i := range d.Envelope {
+		f := &d.Envelope[i]
+		f.Y, f.YD = last(f.Y), last(f.YD)
 	}
 	if d.Num != nil && d.Num.Quantized != nil {
 		q := d.Num.Quantized

@@ -274,16 +274,18 @@ const delayScript = `
 import json, sys
 import numpy as np
 from scipy import signal
-c = json.load(sys.stdin)
-q = c['q']
-T = c['T']
-u = np.array(c['u'])
-fine = np.repeat(u, q)
-d = c['dfine']
-ud = np.concatenate([np.zeros(d), fine[:len(fine)-d]])
-t = np.arange(len(fine)) * T / q
-_, y, _ = signal.lsim((c['num'], c['den']), ud, t)
-json.dump(list(y[::q]), sys.stdout)
+out = []
+for c in json.load(sys.stdin):
+    q = c['q']
+    T = c['T']
+    u = np.array(c['u'])
+    fine = np.repeat(u, q)
+    d = c['dfine']
+    ud = np.concatenate([np.zeros(d), fine[:len(fine)-d]])
+    t = np.arange(len(fine)) * T / q
+    _, y, _ = signal.lsim((c['num'], c['den']), ud, t)
+    out.append(list(y[::q]))
+json.dump(out, sys.stdout)
 `
 
 // Transport delay of a whole and a fractional sample: the sampled plant
@@ -292,25 +294,38 @@ json.dump(list(y[::q]), sys.stdout)
 // delay is a whole number of fine steps, so that lsim's linear
 // interpolation of the input is exact except on the fine steps holding a
 // switch (it interpolates across them; the 2e-3 relative tolerance covers
-// that, 1/20 of a sample at each switch).
+// that, 1/20 of a sample at each switch). The three delays go to SciPy in
+// one run.
 func TestTransportDelayAgainstSciPy(t *testing.T) {
 	T := 0.001
 	q := 20
-	for _, delay := range []float64{0.0013, 0.00235, 0.0005} {
-		g := lti.ZPK{Gain: 2000 / 0.03, Poles: []complex128{-5, complex(-1/0.03, 0)}}
+	delays := []float64{0.0013, 0.00235, 0.0005}
+	g := lti.ZPK{Gain: 2000 / 0.03, Poles: []complex128{-5, complex(-1/0.03, 0)}}
+	tf, _ := g.TF()
+	u := make([]float64, 60)
+	for i := range u {
+		u[i] = math.Sin(float64(i)*0.37) + 0.5*float64(i%7)
+	}
+	var in []map[string]any
+	for _, delay := range delays {
+		in = append(in, map[string]any{"q": q, "T": T, "u": u, "dfine": int(math.Round(delay / T * float64(q))), "num": tf.Num.Descending(), "den": tf.Den.Descending()})
+	}
+	var ref [][]float64
+	pyref.Run(t, delayScript, in, &ref)
+	if len(ref) != len(delays) {
+		t.Fatalf("SciPy returned %d responses for %d delays", len(ref), len(delays))
+	}
+	for i, delay := range delays {
 		pl, err := NewPlant(airframe.Axis{Plant: airframe.Plant{Model: g, Delay: delay}, Sensor: lti.ZPK{Gain: 1}}, T)
 		if err != nil {
 			t.Fatal(err)
 		}
-		u := make([]float64, 60)
-		for i := range u {
-			u[i] = math.Sin(float64(i)*0.37) + 0.5*float64(i%7)
-		}
 		d := pl.Full()
 		got := d.Simulate(u)
-		tf, _ := g.TF()
-		var want []float64
-		pyref.Run(t, delayScript, map[string]any{"q": q, "T": T, "u": u, "dfine": int(math.Round(delay / T * float64(q))), "num": tf.Num.Descending(), "den": tf.Den.Descending()}, &want)
+		want := ref[i]
+		if len(want) != len(got) {
+			t.Fatalf("delay %g: SciPy returned %d samples, the plant %d", delay, len(want), len(got))
+		}
 		scale := 0.0
 		for _, v := range want {
 			scale = math.Max(scale, math.Abs(v))

@@ -331,3 +331,108 @@ func TestWriteSourcesVanishedFileCannotBeRewritten(t *testing.T) {
 		t.Errorf("directory %q: want the new x_rate.c and no temporary file", got)
 	}
 }
+
+// dirVanishFS removes the whole output directory at its n-th call of
+// CreateTemp (counting from 1) or, when n is 0, at the first rename: a
+// clean step of the build removing the directory while the writer is in
+// the middle of its temporary files, or between them and the renames.
+type dirVanishFS struct {
+	osFS
+	dir     string
+	n, seen int
+	done    bool
+}
+
+func (v *dirVanishFS) vanish() error {
+	v.done = true
+	return os.RemoveAll(v.dir)
+}
+
+func (v *dirVanishFS) CreateTemp(dir, pattern string) (tempFile, error) {
+	if v.seen++; v.seen == v.n && !v.done {
+		if err := v.vanish(); err != nil {
+			return nil, err
+		}
+	}
+	return v.osFS.CreateTemp(dir, pattern)
+}
+
+func (v *dirVanishFS) Rename(o, n string) error {
+	if v.n == 0 && !v.done {
+		if err := v.vanish(); err != nil {
+			return err
+		}
+	}
+	return v.osFS.Rename(o, n)
+}
+
+// The output directory vanishing while the writer works gives a clean
+// error (the missing directory named, nothing reported as written) or a
+// clean result (every file written whole and reported), never a panic, a
+// partial file or a file reported as written that is not there; no
+// temporary file is left. A run after it writes every file whole.
+func TestWriteSourcesDirVanishes(t *testing.T) {
+	srcs := []Source{{Name: "x_rate.h", Data: []byte("new h\n")}, {Name: "x_rate.c", Data: []byte("new c\n")}, {Name: "x_rate_vectors.c", Data: []byte("new v\n")}}
+	want := map[string]string{}
+	for _, s := range srcs {
+		want[s.Name] = string(s.Data)
+	}
+	// check holds the directory to what the writer reported.
+	check := func(t *testing.T, dir string, w []string, err error) {
+		t.Helper()
+		got := map[string]string{}
+		if _, serr := os.Stat(dir); serr == nil {
+			got = readDir(t, dir)
+		}
+		for n, c := range got {
+			if strings.HasPrefix(n, ".") {
+				t.Errorf("temporary file %s left behind", n)
+			} else if c != want[n] {
+				t.Errorf("%s holds %q, want %q or no file", n, c, want[n])
+			}
+		}
+		for _, n := range w {
+			if _, ok := got[n]; !ok {
+				t.Errorf("%s reported as written, and not there", n)
+			}
+		}
+		if err == nil && len(w) != len(srcs) {
+			t.Errorf("no error, and written %v: want every file", w)
+		}
+	}
+	for _, tc := range []struct {
+		name string
+		n    int
+	}{
+		{"before the first temporary file", 1},
+		{"between temporary files", 2},
+		{"after the last temporary file", 3},
+		{"before the renames", 0},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			dir := filepath.Join(t.TempDir(), "gen")
+			if _, err := WriteSources(dir, []Source{{Name: "x_rate.h", Data: []byte("old h\n")}}); err != nil {
+				t.Fatal(err)
+			}
+			fsys := &dirVanishFS{dir: dir, n: tc.n}
+			w, err := writeSources(fsys, dir, srcs)
+			if !fsys.done {
+				t.Fatal("the directory was not removed during the write")
+			}
+			if err != nil {
+				if !errors.Is(err, fs.ErrNotExist) {
+					t.Errorf("error %v, want one saying the directory is gone", err)
+				}
+				if len(w) != 0 {
+					t.Errorf("error, and reported as written: %v", w)
+				}
+			}
+			check(t, dir, w, err)
+			w, err = WriteSources(dir, srcs)
+			if err != nil {
+				t.Fatalf("the run after: %v", err)
+			}
+			check(t, dir, w, err)
+		})
+	}
+}

@@ -2,7 +2,9 @@ package golden
 
 import (
 	"bytes"
+	"errors"
 	"fmt"
+	"io/fs"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -65,6 +67,7 @@ func listDir(t *testing.T, dir string) []string {
 }
 
 func TestCLIEmitWritesOnceAndKeepsMtimes(t *testing.T) {
+	t.Parallel()
 	dir := cliWork(t)
 	out, code := emitCLI(t, dir, "-o", "gen", "--vectors", "examples/quadrotor.toml", "examples/rover.toml")
 	if code != 0 {
@@ -103,6 +106,7 @@ func TestCLIEmitWritesOnceAndKeepsMtimes(t *testing.T) {
 }
 
 func TestCLIEmitCheckDrift(t *testing.T) {
+	t.Parallel()
 	dir := cliWork(t)
 	gen := filepath.Join(dir, "gen")
 	if out, code := emitCLI(t, dir, "-o", "gen", "examples/quadrotor.toml", "examples/rover.toml"); code != 0 {
@@ -169,6 +173,7 @@ func unmetAirframe(t *testing.T, dir string) string {
 }
 
 func TestCLIEmitUnmet(t *testing.T) {
+	t.Parallel()
 	dir := cliWork(t)
 	p := unmetAirframe(t, dir)
 	out, code := emitCLI(t, dir, "-o", "gen", p, "examples/rover.toml")
@@ -199,6 +204,7 @@ func TestCLIEmitUnmet(t *testing.T) {
 }
 
 func TestCLIEmitBadInput(t *testing.T) {
+	t.Parallel()
 	dir := cliWork(t)
 	if err := os.WriteFile(filepath.Join(dir, "examples", "broken.toml"), []byte("airframe = \"broken\"\nloop_hz = \"fast\"\n"), 0o644); err != nil {
 		t.Fatal(err)
@@ -271,6 +277,7 @@ func TestCLIEmitBadInput(t *testing.T) {
 }
 
 func TestCLIEmitHelp(t *testing.T) {
+	t.Parallel()
 	dir := cliWork(t)
 	for _, h := range []string{"-h", "--help"} {
 		out, code := emitCLI(t, dir, h)
@@ -281,6 +288,7 @@ func TestCLIEmitHelp(t *testing.T) {
 }
 
 func TestCLIEmitGo(t *testing.T) {
+	t.Parallel()
 	dir := cliWork(t)
 	out, code := emitCLI(t, dir, "-o", "gen", "--lang", "go", "--vectors", "examples/quadrotor.toml")
 	if code != 0 {
@@ -294,6 +302,7 @@ func TestCLIEmitGo(t *testing.T) {
 // The README's main command works on a fresh checkout: emit makes a
 // missing output directory (not its parents) and writes into it.
 func TestEmitMakesOutputDir(t *testing.T) {
+	t.Parallel()
 	dir := t.TempDir()
 	if err := os.MkdirAll(filepath.Join(dir, "examples"), 0o755); err != nil {
 		t.Fatal(err)
@@ -316,6 +325,7 @@ func TestEmitMakesOutputDir(t *testing.T) {
 
 // -j 1 and -j 8 write byte-identical files.
 func TestEmitJobsDeterministic(t *testing.T) {
+	t.Parallel()
 	dir := cliWork(t)
 	var trees []map[string]string
 	for _, j := range []string{"1", "8"} {
@@ -349,6 +359,7 @@ func TestEmitJobsDeterministic(t *testing.T) {
 // designs run before anything is written, and the writes go through a
 // temporary file and a rename each.
 func TestEmitSignalKeepsOldFiles(t *testing.T) {
+	t.Parallel()
 	dir := cliWork(t)
 	bin := buildCLI(t, "")
 	if out, code, err := runCLI(dir, "", bin, "emit", "-o", "gen", "examples/quadrotor.toml"); err != nil || code != 0 {
@@ -400,50 +411,105 @@ func TestEmitSignalKeepsOldFiles(t *testing.T) {
 	}
 }
 
-// The output directory vanishing while the designs run (a clean step of
-// the build, say) is not an error: emit makes it again before writing, and
-// writes whole files.
+// The output directory vanishing while emit runs (a clean step of the
+// build beside it, say), after emit checked it and before it writes, is
+// not an error: emit makes it again, writes whole files, the same bytes as
+// an undisturbed run, and leaves no temporary file.
+//
+// The vanishing happens at a fixed point, not after a guessed delay: the
+// first input file is a named pipe, so emit, having checked the output
+// directory, blocks reading it. The test removes the directory while emit
+// waits (it writes nothing then) and only then feeds it the airframe.
 func TestEmitOutputDirVanishes(t *testing.T) {
+	t.Parallel()
 	dir := cliWork(t)
 	bin := buildCLI(t, "")
 	src, err := os.ReadFile(filepath.Join(dir, "examples", "quadrotor.toml"))
 	if err != nil {
 		t.Fatal(err)
 	}
-	var args []string
-	for i := 0; i < 20; i++ {
-		p := filepath.Join("examples", fmt.Sprintf("w%02d.toml", i))
-		s := regexp.MustCompile(`(?m)^airframe = .*$`).ReplaceAllString(string(src), fmt.Sprintf(`airframe = "w%02d"`, i))
-		if err := os.WriteFile(filepath.Join(dir, p), []byte(s), 0o644); err != nil {
-			t.Fatal(err)
-		}
-		args = append(args, p)
-	}
-	cmd := exec.Command(bin, append([]string{"emit", "-j", "1", "-o", "gen"}, args...)...)
+	src = regexp.MustCompile(`(?m)^airframe = .*$`).ReplaceAll(src, []byte(`airframe = "w00"`))
+	pipe := filepath.Join(dir, "examples", "w00.toml")
+	mkfifo(t, pipe)
+	args := []string{"emit", "-j", "1", "--vectors", "examples/w00.toml", "examples/rover.toml"}
+	cmd := exec.Command(bin, append(args, "-o", "gen")...)
 	cmd.Dir = dir
 	var out bytes.Buffer
 	cmd.Stdout, cmd.Stderr = &out, &out
 	if err := cmd.Start(); err != nil {
 		t.Fatal(err)
 	}
-	time.Sleep(100 * time.Millisecond)
-	if err := os.RemoveAll(filepath.Join(dir, "gen")); err != nil {
+	done := make(chan error, 1)
+	go func() { done <- cmd.Wait() }()
+	// Opening the pipe for writing returns once emit has opened it for
+	// reading: emit is then past its check of the output directory.
+	type opened struct {
+		f   *os.File
+		err error
+	}
+	open := make(chan opened, 1)
+	go func() {
+		f, err := os.OpenFile(pipe, os.O_WRONLY, 0)
+		open <- opened{f, err}
+	}()
+	var w *os.File
+	select {
+	case o := <-open:
+		if o.err != nil {
+			t.Fatal(o.err)
+		}
+		w = o.f
+	case err := <-done:
+		// Release the opener: a reader lets its open return.
+		if r, rerr := os.Open(pipe); rerr == nil {
+			if o := <-open; o.f != nil {
+				o.f.Close()
+			}
+			r.Close()
+		}
+		t.Fatalf("emit ended without reading its input: %v\n%s", err, out.String())
+	}
+	gen := filepath.Join(dir, "gen")
+	if err := os.RemoveAll(gen); err != nil {
 		t.Fatal(err)
 	}
-	if err := cmd.Wait(); err != nil {
+	if _, err := os.Stat(gen); !errors.Is(err, fs.ErrNotExist) {
+		t.Fatalf("output directory still there after its removal: %v", err)
+	}
+	if _, err := w.Write(src); err != nil {
+		t.Fatal(err)
+	}
+	if err := w.Close(); err != nil {
+		t.Fatal(err)
+	}
+	if err := <-done; err != nil {
 		t.Fatalf("emit after its directory vanished: %v\n%s", err, out.String())
 	}
-	names := listDir(t, filepath.Join(dir, "gen"))
-	if len(names) != 40 {
-		t.Fatalf("wrote %d files, want 40: %v", len(names), names)
+	if strings.Contains(out.String(), "goroutine ") || strings.Contains(out.String(), "panic:") {
+		t.Fatalf("emit panicked:\n%s", out.String())
 	}
-	for _, n := range names {
-		b, err := os.ReadFile(filepath.Join(dir, "gen", n))
-		if err != nil {
-			t.Fatal(err)
-		}
-		if !bytes.HasPrefix(b, []byte("// Code generated by locusmith")) || !bytes.HasSuffix(b, []byte("\n")) {
-			t.Errorf("%s is not a whole generated file", n)
+	got := snapshot(t, gen)
+	want := []string{"burrow_rate.c", "burrow_rate.h", "burrow_rate_vectors.c", "w00_rate.c", "w00_rate.h", "w00_rate_vectors.c"}
+	if names := listDir(t, gen); strings.Join(names, " ") != strings.Join(want, " ") {
+		t.Fatalf("wrote %v, want %v (and no temporary file)", names, want)
+	}
+	if n := strings.Count(out.String(), "wrote "); n != len(want) {
+		t.Errorf("reported %d files written, want %d:\n%s", n, len(want), out.String())
+	}
+	// The same inputs, undisturbed, from a regular file.
+	if err := os.Remove(pipe); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(pipe, src, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if text, code, err := runCLI(dir, "", bin, append(args, "-o", "ref")...); err != nil || code != 0 {
+		t.Fatalf("undisturbed run: exit %d, %v\n%s", code, err, text)
+	}
+	ref := snapshot(t, filepath.Join(dir, "ref"))
+	for _, n := range want {
+		if !bytes.Equal(got[n], ref[n]) {
+			t.Errorf("%s differs from an undisturbed run's:\n%s", n, firstDiff(string(ref[n]), string(got[n])))
 		}
 	}
 }

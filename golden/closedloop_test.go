@@ -8,6 +8,7 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
+	"sync"
 	"testing"
 
 	"locusmith/airframe"
@@ -15,12 +16,23 @@ import (
 	"locusmith/emit"
 )
 
+// sciPy is the outcome of the one probe for SciPy of a test run: each
+// start of the interpreter that imports it costs a quarter of a second.
+var sciPy struct {
+	once sync.Once
+	out  []byte
+	err  error
+}
+
 // scipyPython returns Debian's python3 when it has SciPy, or skips.
 func scipyPython(t *testing.T) string {
 	t.Helper()
 	const py = "/usr/bin/python3"
-	if out, err := exec.Command(py, "-c", "import scipy, numpy; print(scipy.__version__)").CombinedOutput(); err != nil {
-		t.Skipf("%s with SciPy not available (%v: %s); install python3-scipy (.ci/run does)", py, err, strings.TrimSpace(string(out)))
+	sciPy.once.Do(func() {
+		sciPy.out, sciPy.err = exec.Command(py, "-c", "import scipy, numpy; print(scipy.__version__)").CombinedOutput()
+	})
+	if sciPy.err != nil {
+		t.Skipf("%s with SciPy not available (%v: %s); install python3-scipy (.ci/run does)", py, sciPy.err, strings.TrimSpace(string(sciPy.out)))
 	}
 	return py
 }
@@ -110,52 +122,71 @@ func cDoubles(xs []float64) string {
 // the controller (relative 6e-8 per operation) and the plant's float64
 // rounding, far below 1e-3 of overshoot.
 func TestClosedLoopC(t *testing.T) {
+	t.Parallel()
 	py := scipyPython(t)
 	cc := hostCompilers(t)[0]
+	// The plants of every example go to SciPy in one run.
+	type example struct {
+		p    string
+		a    *discrete.Airframe
+		axes []discrete.Outcome
+		zoh  []zohAxis
+	}
+	var exs []*example
+	var req []map[string]any
 	for _, p := range examplePaths(t) {
-		t.Run(exampleName(p), func(t *testing.T) {
-			a := design(t, p, airframe.Float32)
-			var req []map[string]any
-			var axes []discrete.Outcome
-			for _, x := range a.Axes {
-				d := x.Design
-				T := 1 / d.Loop.Hz
-				if nd := d.Problem.Plant.Delay / T; math.Abs(nd-math.Round(nd)) > 1e-9 {
-					t.Logf("axis %s: transport delay %g s is not a whole number of samples; skipped", x.Name, d.Problem.Plant.Delay)
-					continue
-				}
-				g, h := d.Problem.Plant.Model, d.Problem.Sensor
-				req = append(req, map[string]any{"g": toZPK(g.Zeros, g.Poles, g.Gain), "h": toZPK(h.Zeros, h.Poles, h.Gain), "T": T})
-				axes = append(axes, x)
+		e := &example{p: p, a: design(t, p, airframe.Float32)}
+		for _, x := range e.a.Axes {
+			d := x.Design
+			T := 1 / d.Loop.Hz
+			if nd := d.Problem.Plant.Delay / T; math.Abs(nd-math.Round(nd)) > 1e-9 {
+				t.Logf("%s axis %s: transport delay %g s is not a whole number of samples; skipped", exampleName(p), x.Name, d.Problem.Plant.Delay)
+				continue
 			}
+			g, h := d.Problem.Plant.Model, d.Problem.Sensor
+			req = append(req, map[string]any{"g": toZPK(g.Zeros, g.Poles, g.Gain), "h": toZPK(h.Zeros, h.Poles, h.Gain), "T": T})
+			e.axes = append(e.axes, x)
+		}
+		exs = append(exs, e)
+	}
+	in, err := json.Marshal(req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cmd := exec.Command(py, "-c", zohScript)
+	cmd.Stdin = strings.NewReader(string(in))
+	out, err := cmd.Output()
+	if err != nil {
+		t.Fatalf("SciPy script: %v", err)
+	}
+	var res struct {
+		SciPy string    `json:"scipy"`
+		Axes  []zohAxis `json:"axes"`
+	}
+	if err := json.Unmarshal(out, &res); err != nil {
+		t.Fatalf("SciPy output: %v\n%s", err, out)
+	}
+	if len(res.Axes) != len(req) {
+		t.Fatalf("SciPy sampled %d plants of %d", len(res.Axes), len(req))
+	}
+	t.Logf("plants sampled by SciPy %s cont2discrete(zoh)", res.SciPy)
+	for _, e := range exs {
+		e.zoh, res.Axes = res.Axes[:len(e.axes)], res.Axes[len(e.axes):]
+	}
+	for _, e := range exs {
+		p, a, axes := e.p, e.a, e.axes
+		t.Run(exampleName(p), func(t *testing.T) {
+			t.Parallel()
 			if len(axes) == 0 {
 				t.Skip("no axis with a whole-sample delay")
 			}
-			in, err := json.Marshal(req)
-			if err != nil {
-				t.Fatal(err)
-			}
-			cmd := exec.Command(py, "-c", zohScript)
-			cmd.Stdin = strings.NewReader(string(in))
-			out, err := cmd.Output()
-			if err != nil {
-				t.Fatalf("SciPy script: %v", err)
-			}
-			var res struct {
-				SciPy string    `json:"scipy"`
-				Axes  []zohAxis `json:"axes"`
-			}
-			if err := json.Unmarshal(out, &res); err != nil {
-				t.Fatalf("SciPy output: %v\n%s", err, out)
-			}
-			t.Logf("plants sampled by SciPy %s cont2discrete(zoh)", res.SciPy)
 			srcs := generate(t, p, variant{name: "float32", lang: emit.LangC, numeric: airframe.Float32})
 			var prog strings.Builder
 			fmt.Fprintf(&prog, "#include <stdio.h>\n#include \"%s\"\n\n", headerOf(srcs))
 			prog.WriteString("int main(void)\n{\n")
 			for i, x := range axes {
 				d := x.Design
-				z := res.Axes[i]
+				z := e.zoh[i]
 				if z.Dy != 0 || z.Dm != 0 {
 					t.Fatalf("axis %s: plant with feedthrough", x.Name)
 				}

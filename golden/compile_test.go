@@ -7,6 +7,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"regexp"
+	"sort"
 	"strings"
 	"testing"
 
@@ -68,11 +69,56 @@ func sourceNamed(srcs []emit.Source, name string) emit.Source {
 	return emit.Source{}
 }
 
+// cProgram returns the sources of the program the compile tests build
+// for one example and C variant, and the names of its C files in order:
+// srcs (the generated header, controller and vector program), and two
+// translation units that include the header and call every function.
+// TestCompileGoldenC builds it from the golden files and TestCVectors from
+// the generator's: the two are the same bytes while TestGolden passes, and
+// buildC then builds each program once for both.
+func cProgram(t *testing.T, srcs []emit.Source) ([]emit.Source, []string) {
+	t.Helper()
+	prog := append(append([]emit.Source{}, srcs...), usageTU(t, srcs, "use_one"), usageTU(t, srcs, "use_two"))
+	var files []string
+	for _, s := range prog {
+		if strings.HasSuffix(s.Name, ".c") {
+			files = append(files, s.Name)
+		}
+	}
+	sort.Strings(files)
+	return prog, files
+}
+
+// cLevel is a host compiler and an optimization level.
+type cLevel struct{ cc, opt string }
+
+// cLevels are the builds of every generated C program: each host compiler
+// at -O0 and -O2 (some warnings need the optimizer's analysis, and the two
+// compilers warn differently). With -short only the first compiler at
+// -O2: the other levels are a sweep over compilers that the full suite
+// runs.
+func cLevels(ccs []string) []cLevel {
+	var ls []cLevel
+	for _, cc := range ccs {
+		for _, opt := range []string{"-O0", "-O2"} {
+			if testing.Short() && (cc != ccs[0] || opt != "-O2") {
+				continue
+			}
+			ls = append(ls, cLevel{cc, opt})
+		}
+	}
+	return ls
+}
+
 // TestCompileGoldenC builds every golden C file with the host compilers
-// and the strict flags, at -O0 and -O2. The header-only variant is
-// included from two translation units linked together, which fails if a
-// function had external linkage.
+// and the strict flags, at -O0 and -O2, linked into the vector program
+// with two more translation units that include the header (cProgram). The
+// header-only variant is thus included from three translation units
+// linked together, which fails if a function had external linkage. A
+// variant whose golden files have no vector program gets the generated
+// one, whose main the link needs.
 func TestCompileGoldenC(t *testing.T) {
+	t.Parallel()
 	ccs := hostCompilers(t)
 	for _, p := range examplePaths(t) {
 		for _, v := range variants() {
@@ -80,24 +126,27 @@ func TestCompileGoldenC(t *testing.T) {
 				continue
 			}
 			t.Run(exampleName(p)+"/"+v.dir(), func(t *testing.T) {
+				t.Parallel()
 				srcs := goldenSources(t, p, v)
-				ctrl, _ := cFiles(srcs)
-				srcs = append(srcs, usageTU(t, srcs, "use_one"), usageTU(t, srcs, "use_two"))
-				dir := writeSources(t, srcs)
-				main := emit.Source{Name: "main.c", Data: []byte("int main(void)\n{\n\treturn 0;\n}\n")}
-				if err := os.WriteFile(filepath.Join(dir, main.Name), main.Data, 0o644); err != nil {
-					t.Fatal(err)
-				}
-				for _, cc := range ccs {
-					for _, opt := range []string{"-O0", "-O2"} {
-						args := append(append([]string{}, strictC...), opt, "-o", "prog")
-						args = append(args, ctrl...)
-						args = append(args, "use_one.c", "use_two.c", "main.c")
-						run(t, dir, cc, args...)
+				if _, vec := cFiles(srcs); len(vec) == 0 {
+					v.vectors = true
+					gen := generate(t, p, v)
+					_, vec := cFiles(gen)
+					if len(vec) != 1 {
+						t.Fatalf("vector programs: %v", vec)
 					}
+					srcs = append(srcs, sourceNamed(gen, vec[0]))
+				}
+				prog, files := cProgram(t, srcs)
+				for _, l := range cLevels(ccs) {
+					buildC(t, l.cc, append(append([]string{}, strictC...), l.opt), prog, files)
 				}
 				// C++ code includes the header too (extern "C" for the
 				// prototypes; the header-only functions as C++).
+				if testing.Short() {
+					return // a sweep over languages; the full suite runs it
+				}
+				dir := writeSources(t, prog)
 				for _, cxx := range []string{"g++", "clang++"} {
 					if p, err := exec.LookPath(cxx); err == nil {
 						run(t, dir, p, "-x", "c++", "-std=c++11", "-Wall", "-Wextra", "-Werror", "-c", "-o", "use_one_cxx.o", "use_one.c")
@@ -112,8 +161,11 @@ func TestCompileGoldenC(t *testing.T) {
 // variant with the host compilers (-O0 and -O2, strict flags, ISO C99 so
 // no floating-point contraction) and runs it: every output must equal the
 // reference model's bit for bit. A corrupted vector must make the program
-// fail, or the check could not fail.
+// fail, or the check could not fail; with -short that is shown on the
+// file's own arithmetic of each example (float and fixed-point vectors
+// both), not repeated for every variant.
 func TestCVectors(t *testing.T) {
+	t.Parallel()
 	ccs := hostCompilers(t)
 	for _, p := range examplePaths(t) {
 		for _, v := range variants() {
@@ -121,34 +173,33 @@ func TestCVectors(t *testing.T) {
 				continue
 			}
 			t.Run(exampleName(p)+"/"+v.dir(), func(t *testing.T) {
+				t.Parallel()
 				v.vectors = true
 				srcs := generate(t, p, v)
-				dir := writeSources(t, srcs)
-				ctrl, vec := cFiles(srcs)
+				_, vec := cFiles(srcs)
 				if len(vec) != 1 {
 					t.Fatalf("vector programs: %v", vec)
 				}
-				for _, cc := range ccs {
-					for _, opt := range []string{"-O0", "-O2"} {
-						args := append(append([]string{}, strictC...), opt, "-o", "vectors")
-						args = append(args, vec[0])
-						args = append(args, ctrl...)
-						run(t, dir, cc, args...)
-						out := run(t, dir, filepath.Join(dir, "vectors"))
-						if !strings.Contains(out, "vectors match") {
-							t.Errorf("%s %s: vector program printed %q", filepath.Base(cc), opt, out)
-						}
+				prog, files := cProgram(t, srcs)
+				for _, l := range cLevels(ccs) {
+					dir := buildC(t, l.cc, append(append([]string{}, strictC...), l.opt), prog, files)
+					out := run(t, dir, filepath.Join(dir, "prog"))
+					if !strings.Contains(out, "vectors match") {
+						t.Errorf("%s %s: vector program printed %q", filepath.Base(l.cc), l.opt, out)
 					}
 				}
 				// One flipped expectation must be caught.
-				bad := corruptVector(t, sourceNamed(srcs, vec[0]).Data)
-				if err := os.WriteFile(filepath.Join(dir, vec[0]), bad, 0o644); err != nil {
-					t.Fatal(err)
+				if testing.Short() && v.name != "file" {
+					return
 				}
-				args := append(append([]string{}, strictC...), "-O2", "-o", "vectors_bad", vec[0])
-				args = append(args, ctrl...)
-				run(t, dir, ccs[0], args...)
-				if out, err := runErr(dir, filepath.Join(dir, "vectors_bad")); err == nil {
+				bad := append([]emit.Source{}, prog...)
+				for i, s := range bad {
+					if s.Name == vec[0] {
+						bad[i].Data = corruptVector(t, s.Data)
+					}
+				}
+				dir := buildC(t, ccs[0], append(append([]string{}, strictC...), "-O2"), bad, files)
+				if out, err := runErr(dir, filepath.Join(dir, "prog")); err == nil {
 					t.Errorf("vector program with a corrupted expectation exited 0: %s", out)
 				}
 			})
@@ -219,6 +270,10 @@ func armObjects(t *testing.T, cc string, flags []string, srcs []emit.Source) (st
 // code for the Cortex-M0 and checks with arm-none-eabi-nm -u that the
 // objects call no soft-float, double or division helper.
 func TestARMNoHelpers(t *testing.T) {
+	if testing.Short() {
+		t.Skip("cross-architecture build and run; skipped with -short")
+	}
+	t.Parallel()
 	cc := tool(t, "arm-none-eabi-gcc", "gcc-arm-none-eabi")
 	nm := tool(t, "arm-none-eabi-nm", "binutils-arm-none-eabi")
 	cases := []struct {
@@ -236,6 +291,7 @@ func TestARMNoHelpers(t *testing.T) {
 					continue // the M4F build is for float32 code
 				}
 				t.Run(exampleName(p)+"/"+c.target+"/"+v.dir(), func(t *testing.T) {
+					t.Parallel()
 					dir, objs := armObjects(t, cc, c.flags, goldenSources(t, p, v))
 					for _, o := range objs {
 						out := run(t, dir, nm, "-u", o)
@@ -259,6 +315,7 @@ func TestARMNoHelpers(t *testing.T) {
 // TestForbiddenPatternCatchesHelpers checks the symbol pattern itself on
 // code that does need the helpers, so that TestARMNoHelpers can fail.
 func TestForbiddenPatternCatchesHelpers(t *testing.T) {
+	t.Parallel()
 	cc := tool(t, "arm-none-eabi-gcc", "gcc-arm-none-eabi")
 	nm := tool(t, "arm-none-eabi-nm", "binutils-arm-none-eabi")
 	src := emit.Source{Name: "h.c", Data: []byte(`#include <stdint.h>
@@ -333,6 +390,10 @@ void _start(void)
 // for the Cortex-M0, each under qemu-arm. Bit-exact results there show
 // that the cross compiler's code rounds like the reference model.
 func TestARMVectors(t *testing.T) {
+	if testing.Short() {
+		t.Skip("cross-architecture build and run; skipped with -short")
+	}
+	t.Parallel()
 	cc := tool(t, "arm-none-eabi-gcc", "gcc-arm-none-eabi")
 	qemu := tool(t, "qemu-arm", "qemu-user")
 	cases := []struct {
@@ -346,6 +407,7 @@ func TestARMVectors(t *testing.T) {
 	for _, p := range examplePaths(t) {
 		for _, c := range cases {
 			t.Run(exampleName(p)+"/"+c.target, func(t *testing.T) {
+				t.Parallel()
 				v := c.v
 				v.vectors = true
 				srcs := generate(t, p, v)
@@ -438,6 +500,10 @@ func stepSizes(listing string) map[string]stepSize {
 // found the operations.
 // Speed itself is for benchmarks.
 func TestStepInstructionCounts(t *testing.T) {
+	if testing.Short() {
+		t.Skip("cross-architecture build and run; skipped with -short")
+	}
+	t.Parallel()
 	cc := tool(t, "arm-none-eabi-gcc", "gcc-arm-none-eabi")
 	objdump := tool(t, "arm-none-eabi-objdump", "binutils-arm-none-eabi")
 	var table bytes.Buffer
@@ -481,6 +547,7 @@ func TestStepInstructionCounts(t *testing.T) {
 // multiply-add where GNU C contracts one (-std=gnu99), so that the check
 // above can fail.
 func TestFusedDetection(t *testing.T) {
+	t.Parallel()
 	cc := tool(t, "arm-none-eabi-gcc", "gcc-arm-none-eabi")
 	objdump := tool(t, "arm-none-eabi-objdump", "binutils-arm-none-eabi")
 	src := emit.Source{Name: "f.c", Data: []byte("float x_step(float a, float b, float c);\nfloat x_step(float a, float b, float c) { return a * b + c; }\n")}

@@ -10,76 +10,10 @@ import (
 	"runtime"
 	"sort"
 	"strings"
-	"sync"
 	"testing"
 
 	"locusmith/airframe"
 )
-
-// builtCLI builds cmd/locusmith once per test binary for a GOARCH.
-type builtCLI struct {
-	once sync.Once
-	path string
-	err  error
-	out  string
-}
-
-var clis = struct {
-	mu sync.Mutex
-	m  map[string]*builtCLI
-}{m: map[string]*builtCLI{}}
-
-// TestMain removes the binaries built by buildCLI after the tests.
-func TestMain(m *testing.M) {
-	code := m.Run()
-	clis.mu.Lock()
-	for _, b := range clis.m {
-		if b.path != "" {
-			os.RemoveAll(filepath.Dir(b.path))
-		}
-	}
-	clis.mu.Unlock()
-	os.Exit(code)
-}
-
-// buildCLI returns the path of the locusmith binary for goarch ("" for
-// the host), built with CGO_ENABLED=0 into a directory that lives as long
-// as the test binary.
-func buildCLI(t testing.TB, goarch string) string {
-	t.Helper()
-	clis.mu.Lock()
-	b, ok := clis.m[goarch]
-	if !ok {
-		b = &builtCLI{}
-		clis.m[goarch] = b
-	}
-	clis.mu.Unlock()
-	gocmd := goTool(t)
-	b.once.Do(func() {
-		dir, err := os.MkdirTemp("", "locusmith-cli-")
-		if err != nil {
-			b.err = err
-			return
-		}
-		name := "locusmith"
-		if goarch != "" {
-			name += "-" + goarch
-		}
-		b.path = filepath.Join(dir, name)
-		cmd := exec.Command(gocmd, "build", "-o", b.path, "./cmd/locusmith")
-		cmd.Dir = ".."
-		cmd.Env = append(os.Environ(), "CGO_ENABLED=0", "GOTOOLCHAIN=local")
-		if goarch != "" {
-			cmd.Env = append(cmd.Env, "GOARCH="+goarch)
-		}
-		out, err := cmd.CombinedOutput()
-		b.err, b.out = err, string(out)
-	})
-	if b.err != nil {
-		t.Fatalf("build locusmith for %q: %v\n%s", goarch, b.err, b.out)
-	}
-	return b.path
-}
 
 // fixedCopy writes a copy of example p into dir/examples with its
 // numeric type set to nt (and full scales added when the file has none)
@@ -158,6 +92,7 @@ func snapshot(t *testing.T, dir string) map[string][]byte {
 // output through such a difference would show here). It also requires
 // two host runs to agree. Skips when qemu-aarch64 is missing.
 func TestCrossArchDeterminism(t *testing.T) {
+	t.Parallel()
 	if testing.Short() {
 		t.Skip("builds the CLI twice; skipped with -short")
 	}

@@ -59,55 +59,57 @@ output_limit = [-0.5, 0.5]
 
 // TestFormsMatrix generates the forms airframe in every arithmetic and
 // language and runs its vector programs: C with the host compilers, Go
-// with go test. Every structure must match the reference model bit for
-// bit.
+// with go test (the four arithmetics as packages of one module). Every
+// structure must match the reference model bit for bit. With -short the C
+// is built by the first host compiler only (the second is a sweep over
+// compilers, which the full suite runs).
 func TestFormsMatrix(t *testing.T) {
+	t.Parallel()
 	ccs := hostCompilers(t)
+	if testing.Short() {
+		ccs = ccs[:1]
+	}
 	gocmd := goTool(t)
+	gos := map[string][]emit.Source{}
 	for _, nt := range []string{"float32", "float64", "q15", "q31"} {
-		t.Run(nt, func(t *testing.T) {
-			f, err := airframe.Parse("forms.toml", []byte(formsAirframe(nt)))
+		f, err := airframe.Parse("forms.toml", []byte(formsAirframe(nt)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		a := discrete.DesignAirframe(f)
+		for _, x := range a.Axes {
+			if x.Err != nil {
+				t.Fatalf("%s: axis %s: %v", nt, x.Name, x.Err)
+			}
+		}
+		srcs, _, err := emit.GenerateCode(a, emit.CodeOptions{Lang: emit.LangGo, Vectors: true, AllowUnmet: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		gos[nt] = srcs
+		for _, ho := range []bool{false, true} {
+			srcs, _, err := emit.GenerateCode(a, emit.CodeOptions{Lang: emit.LangC, HeaderOnly: ho, Vectors: true, AllowUnmet: true})
 			if err != nil {
 				t.Fatal(err)
 			}
-			a := discrete.DesignAirframe(f)
-			for _, x := range a.Axes {
-				if x.Err != nil {
-					t.Fatalf("axis %s: %v", x.Name, x.Err)
-				}
+			ctrl, vec := cFiles(srcs)
+			files := append(vec, ctrl...)
+			for _, cc := range ccs {
+				t.Run(fmt.Sprintf("%s/header-only=%v/%s", nt, ho, filepath.Base(cc)), func(t *testing.T) {
+					t.Parallel()
+					dir := buildC(t, cc, append(append([]string{}, strictC...), "-O2"), srcs, files)
+					out := run(t, dir, filepath.Join(dir, "prog"))
+					if strings.Count(out, "vectors match") != len(a.Axes) {
+						t.Errorf("%s header-only=%v: %s", filepath.Base(cc), ho, out)
+					}
+				})
 			}
-			for _, lang := range []emit.Lang{emit.LangC, emit.LangGo} {
-				for _, ho := range []bool{false, true} {
-					if ho && lang == emit.LangGo {
-						continue
-					}
-					srcs, _, err := emit.GenerateCode(a, emit.CodeOptions{Lang: lang, HeaderOnly: ho, Vectors: true, AllowUnmet: true})
-					if err != nil {
-						t.Fatal(err)
-					}
-					if lang == emit.LangGo {
-						srcs = append(srcs, emit.Source{Name: "go.mod", Data: []byte("module generated.example/forms\n\ngo 1.21\n")})
-						dir := writeSources(t, srcs)
-						out, err := runGo(dir, gocmd, "test", "-count=1", "./...")
-						if err != nil {
-							t.Fatalf("go test: %v\n%s", err, out)
-						}
-						continue
-					}
-					dir := writeSources(t, srcs)
-					ctrl, vec := cFiles(srcs)
-					for _, cc := range ccs {
-						args := append(append([]string{}, strictC...), "-O2", "-o", "vectors", vec[0])
-						run(t, dir, cc, append(args, ctrl...)...)
-						out := run(t, dir, filepath.Join(dir, "vectors"))
-						if strings.Count(out, "vectors match") != len(a.Axes) {
-							t.Errorf("%s header-only=%v: %s", filepath.Base(cc), ho, out)
-						}
-					}
-				}
-			}
-		})
+		}
 	}
+	t.Run("go", func(t *testing.T) {
+		t.Parallel()
+		goModule(t, gocmd, "generated.example/forms", gos, false)
+	})
 }
 
 func runGo(dir, gocmd string, args ...string) (string, error) {
@@ -122,6 +124,7 @@ func runGo(dir, gocmd string, args ...string) (string, error) {
 // end the comment and run code in both languages, and builds the result:
 // an injected line would stop the build (#error, a stray token).
 func TestCommentInjection(t *testing.T) {
+	t.Parallel()
 	ccs := hostCompilers(t)
 	src := formsAirframe("float32")
 	evil := `description = "demo data: */ #error injected /* \\\n#error injected\r#error injected ??/\n trailing backslash \\"`

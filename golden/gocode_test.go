@@ -6,7 +6,9 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"regexp"
 	"runtime"
+	"sort"
 	"strings"
 	"testing"
 
@@ -25,45 +27,82 @@ func goTool(t testing.TB) string {
 	return p
 }
 
-// TestGoCode builds the generated Go of every example × variant in a
-// module of its own, vets it and runs its vector test (bit for bit against
-// the reference model) and its allocation test (Step allocates nothing).
-// The controller file itself must import nothing: no fmt, no reflect, no
-// math (float and integer arithmetic only).
-func TestGoCode(t *testing.T) {
-	gocmd := goTool(t)
-	for _, p := range examplePaths(t) {
-		for _, v := range variants() {
-			if v.lang != emit.LangGo {
-				continue
+// goModule writes pkgs (sources by directory) as the packages of one
+// module and runs go vet (with vet) and go test on all of them: one go
+// command for every package, which builds them in parallel, rather than a
+// module and two go commands each. Every package must have tests, and each
+// must pass; a failure names the package, whose path ends in its
+// directory.
+func goModule(t *testing.T, gocmd, module string, pkgs map[string][]emit.Source, vet bool) {
+	t.Helper()
+	root := t.TempDir()
+	if err := os.WriteFile(filepath.Join(root, "go.mod"), []byte("module "+module+"\n\ngo 1.21\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var dirs []string
+	for d, srcs := range pkgs {
+		dirs = append(dirs, d)
+		if err := os.MkdirAll(filepath.Join(root, d), 0o755); err != nil {
+			t.Fatal(err)
+		}
+		for _, s := range srcs {
+			if err := os.WriteFile(filepath.Join(root, d, s.Name), s.Data, 0o644); err != nil {
+				t.Fatal(err)
 			}
-			t.Run(exampleName(p)+"/"+v.dir(), func(t *testing.T) {
-				v.vectors = true
-				srcs := generate(t, p, v)
-				for _, s := range srcs {
-					if strings.HasSuffix(s.Name, "_test.go") {
-						continue
-					}
-					f, err := parser.ParseFile(token.NewFileSet(), s.Name, s.Data, parser.ImportsOnly)
-					if err != nil {
-						t.Fatalf("%s: %v", s.Name, err)
-					}
-					if len(f.Imports) != 0 {
-						t.Errorf("%s imports %d packages, want none", s.Name, len(f.Imports))
-					}
-				}
-				srcs = append(srcs, emit.Source{Name: "go.mod", Data: []byte("module generated.example/rate\n\ngo 1.21\n")})
-				dir := writeSources(t, srcs)
-				env := append(os.Environ(), "GOWORK=off", "GOTOOLCHAIN=local", "GOFLAGS=-mod=mod", "CGO_ENABLED=0")
-				for _, args := range [][]string{{"vet", "./..."}, {"test", "-count=1", "./..."}} {
-					cmd := exec.Command(gocmd, args...)
-					cmd.Dir, cmd.Env = dir, env
-					out, err := cmd.CombinedOutput()
-					if err != nil {
-						t.Fatalf("go %s: %v\n%s", strings.Join(args, " "), err, out)
-					}
-				}
-			})
 		}
 	}
+	sort.Strings(dirs)
+	if vet {
+		if out, err := runGo(root, gocmd, "vet", "./..."); err != nil {
+			t.Fatalf("go vet: %v\n%s", err, out)
+		}
+	}
+	out, err := runGo(root, gocmd, "test", "-count=1", "./...")
+	if err != nil {
+		t.Fatalf("go test: %v\n%s", err, out)
+	}
+	for _, d := range dirs {
+		if !regexp.MustCompile(`(?m)^ok\s+` + regexp.QuoteMeta(module+"/"+d) + `\s`).MatchString(out) {
+			t.Errorf("go test did not pass the tests of %s:\n%s", d, out)
+		}
+	}
+}
+
+// TestGoCode builds the generated Go of every example × variant, vets it
+// and runs its vector test (bit for bit against the reference model) and
+// its allocation test (Step allocates nothing), each variant a package of
+// one module (goModule). The controller file itself must import nothing:
+// no fmt, no reflect, no math (float and integer arithmetic only).
+//
+// With -short only each example's own arithmetic is built: the others are
+// a sweep over arithmetics, which TestFormsMatrix runs with every
+// controller structure in -short too.
+func TestGoCode(t *testing.T) {
+	t.Parallel()
+	gocmd := goTool(t)
+	pkgs := map[string][]emit.Source{}
+	for _, p := range examplePaths(t) {
+		for _, v := range variants() {
+			if v.lang != emit.LangGo || testing.Short() && v.name != "file" {
+				continue
+			}
+			name := exampleName(p) + "/" + v.dir()
+			v.vectors = true
+			srcs := generate(t, p, v)
+			for _, s := range srcs {
+				if strings.HasSuffix(s.Name, "_test.go") {
+					continue
+				}
+				f, err := parser.ParseFile(token.NewFileSet(), s.Name, s.Data, parser.ImportsOnly)
+				if err != nil {
+					t.Fatalf("%s %s: %v", name, s.Name, err)
+				}
+				if len(f.Imports) != 0 {
+					t.Errorf("%s %s imports %d packages, want none", name, s.Name, len(f.Imports))
+				}
+			}
+			pkgs[name] = srcs
+		}
+	}
+	goModule(t, gocmd, "generated.example/rate", pkgs, true)
 }

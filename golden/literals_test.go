@@ -19,6 +19,7 @@ import (
 // arithmetic, Annex F): the printed literals round-trip through the
 // compiler too, not only through Go.
 func TestCCompilerReadsConstants(t *testing.T) {
+	t.Parallel()
 	ccs := hostCompilers(t)
 	def := regexp.MustCompile(`(?m)^#define ([A-Z0-9_]+) +(\(?-?[0-9][0-9.e+-]*f?\)?) //`)
 	checked := 0

@@ -15,6 +15,9 @@ type Check struct {
 	Value float64 // what the design achieves
 	Upper bool    // true when Value must not exceed Limit, false when it must reach it
 	OK    bool
+	// Worst is the plant of the envelope where Value is worst (the
+	// nominal plant for a check of the controller alone).
+	Worst airframe.Corner
 }
 
 // SpecChecks compares the achieved figures with the spec.

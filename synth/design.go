@@ -4,6 +4,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"math/cmplx"
+	"strings"
 
 	"locusmith/airframe"
 )
@@ -29,7 +31,9 @@ type Design struct {
 	Refined     bool
 	// Met is false when no design of the form met the spec; the closest
 	// one found is then reported.
-	Met      bool
+	Met bool
+	// Search is the search's outcome, when refinement ran.
+	Search   Result
 	Checks   []Check
 	Warnings []string
 }
@@ -44,18 +48,17 @@ func (d *Design) OK() bool {
 	return true
 }
 
-// DesignAxis designs and verifies one axis: textbook placement at the spec's
-// target, then (with refinement) the search for the least-gain design whose
-// full-order response meets the spec as judged by eval (nil: the continuous
-// loop). An *InfeasibleError is returned when the form cannot place any
-// stable design.
-func DesignAxis(p airframe.Axis, eval Evaluator) (*Design, error) {
+// DesignAxis designs and verifies one axis: the textbook placement at the
+// spec's target (the root-locus working), then, with refinement, the
+// search of the gains for the best load rejection that passes every check
+// on the loops L over the envelope (nil: the continuous loop; package
+// discrete supplies the sampled one). An *InfeasibleError is returned when
+// the form cannot place the textbook target without refinement, or when
+// no controller of the form keeps even the frequency checks.
+func DesignAxis(p airframe.Axis, L Loops) (*Design, error) {
 	t, err := TargetFromSpec(p.Spec)
 	if err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
-	}
-	if eval == nil {
-		eval = ContinuousEvaluator(p)
 	}
 	d := &Design{Problem: p}
 	// With refinement the textbook stage is reported by its step alone,
@@ -79,26 +82,44 @@ func DesignAxis(p airframe.Axis, eval Evaluator) (*Design, error) {
 		d.finish()
 		return d, nil
 	}
-	c, met, err := refine(p, eval)
-	if err != nil {
-		if tbErr != nil {
-			return nil, fmt.Errorf("axis %s: %w", p.Name, tbErr)
-		}
-		return nil, fmt.Errorf("axis %s: refinement: %w", p.Name, err)
+	if L == nil {
+		L = ContinuousLoops(p)
 	}
-	st, err := verifyStage(p, c.target, c.ctrl, true)
+	g0, w0 := searchScale(p, t)
+	res, err := Search(p, L, g0, w0)
+	if err != nil {
+		return nil, fmt.Errorf("axis %s: search: %w", p.Name, err)
+	}
+	d.Search = res
+	if !res.Met && res.Ctrl.K == 0 && res.Ctrl.Kp == 0 && res.Ctrl.Ki == 0 && res.Ctrl.Kd == 0 {
+		return nil, fmt.Errorf("axis %s: %w", p.Name, &InfeasibleError{Form: p.Ctrl.Form, Target: t,
+			Reason: "no controller of the form keeps " + strings.Join(res.Fails, ", ") + " over the envelope"})
+	}
+	st, err := verifyStage(p, t, res.Ctrl, true)
 	if err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
-	d.Stage, d.Refined, d.Met = st, true, met
+	d.Stage, d.Refined, d.Met = st, true, res.Met
 	if tbErr == nil && (tb.Ctrl != st.Ctrl) {
 		d.Textbook = &tb
 	}
-	if !met {
-		d.Warnings = append(d.Warnings, fmt.Sprintf("no %s design found meets the spec; the closest one is reported", p.Ctrl.Form))
+	if !res.Met {
+		msg := fmt.Sprintf("no %s design passes every check over the envelope; the closest one is reported (it misses %s)", p.Ctrl.Form, strings.Join(res.Fails, ", "))
+		if !math.IsNaN(res.Reach) {
+			msg += fmt.Sprintf("; with every other check met, %s reaches settling %.4g s", p.Ctrl.Form, res.Reach)
+		}
+		d.Warnings = append(d.Warnings, msg)
 	}
 	d.finish()
 	return d, nil
+}
+
+// searchScale returns the scale of the search: the textbook target's ωn
+// and the controller gain that puts the loop's crossover there,
+// 1/|G·H(jωn)| (with the delay, which does not change the magnitude).
+func searchScale(p airframe.Axis, t Target) (g0, w0 float64) {
+	w0 = t.OmegaN
+	return 1 / cmplx.Abs(p.OpenLoop(complex(0, w0))), w0
 }
 
 func placeStage(p airframe.Axis, t Target, margins bool) (Stage, error) {
@@ -113,6 +134,12 @@ func placeStage(p airframe.Axis, t Target, margins bool) (Stage, error) {
 		return Stage{Target: t}, err
 	}
 	return verifyStage(p, t, c, margins)
+}
+
+// Restage verifies the stage st again with the controller c (a design
+// adjusted after the search), keeping its target.
+func Restage(p airframe.Axis, st Stage, c Controller) (Stage, error) {
+	return verifyStage(p, st.Target, c, true)
 }
 
 // verifyStage verifies the placed controller; without margins the

@@ -282,13 +282,44 @@ type sciResult struct {
 
 // sciScript computes, independently of the project, the closed-loop poles
 // (numpy.roots of Dc·Dg·Dh + Nc·Ng·Nh, delay by scipy.interpolate.pade),
-// the step response (scipy.signal.lsim on a grid of 400 001 points) and
-// its metrics, and the margins of C·G·H with the exact e^(−jωτ)
-// (scipy.optimize.brentq on a dense log grid).
+// the step response (scipy.signal.lsim's exact sampled recursion on a grid
+// of 400 001 points, see step) and its metrics, and the margins of C·G·H
+// with the exact e^(−jωτ) (scipy.optimize.brentq on a dense log grid).
+//
+// step gives what lsim((num, den), ones, t) gives, about 15 times faster:
+// lsim steps its recursion x[k+1] = Ad·x[k] + Bd in a Python loop, 8 s for
+// the seven loops. Under a constant input the state m steps after x is
+// Ad^m·x (lsim's free response from x) plus the response from rest over m
+// steps, so lsim runs over one block of m steps (from rest, and free from
+// each unit state) and the blocks are chained by that superposition; the
+// result is held to lsim itself over the first points, to 1e-12 of the
+// peak (the two sum the same terms in another order).
 const sciScript = `
 import json, sys, math
 import numpy as np
 from scipy import signal, optimize, interpolate
+
+def step(num, den, t, m=1000, check=3000):
+    A, B, C, D = signal.tf2ss(num, den)
+    n, N = A.shape[0], len(t)
+    tb = t[:m + 1]
+    _, _, S = signal.lsim((A, B, C, D), np.ones(m + 1), tb)
+    P = np.empty((m + 1, n, n))
+    for i in range(n):
+        _, _, P[:, :, i] = signal.lsim((A, B, C, D), np.zeros(m + 1), tb, X0=np.eye(n)[i])
+    x = np.empty((N, n))
+    xq = np.zeros(n)
+    for q in range(0, N - 1, m):
+        k = min(m + 1, N - q)
+        x[q:q + k] = P[:k] @ xq + S[:k]
+        xq = x[q + k - 1]
+    y = x @ C[0] + D[0, 0]
+    _, y0, _ = signal.lsim((A, B, C, D), np.ones(check), t[:check])
+    err = np.max(np.abs(y[:check] - y0))
+    if not err <= 1e-12 * np.max(np.abs(y0)):
+        raise SystemExit("step by superposition differs from lsim by %g" % err)
+    return y
+
 out = []
 for L in json.load(sys.stdin):
     z = [complex(a, b) for a, b in L['zeros']]
@@ -309,7 +340,7 @@ for L in json.load(sys.stdin):
     roots = np.roots(char)
     final = np.polyval(num, 0) / np.polyval(char, 0)
     t = np.linspace(0, L['tend'], 400001)
-    _, y, _ = signal.lsim((num, char), np.ones_like(t), t)
+    y = step(num, char, t)
     over = max(0.0, (y.max() - final) / final)
     out_idx = np.nonzero(np.abs(y - final) > L['band'] * abs(final))[0]
     if len(out_idx) == 0:

@@ -26,11 +26,19 @@ import (
 
 const python = "/usr/bin/python3"
 
+// sciPy is the outcome of the one probe for SciPy of a test run: each
+// start of the interpreter that imports it costs a quarter of a second.
+var sciPy struct {
+	once sync.Once
+	err  error
+}
+
 // needSciPy skips the test when Debian's SciPy is not installed.
 func needSciPy(t testing.TB) {
 	t.Helper()
-	if err := exec.Command(python, "-c", "import scipy.signal").Run(); err != nil {
-		t.Skipf("SciPy reference checks skipped: %s cannot import scipy.signal (%v); install Debian's python3-scipy (CI does)", python, err)
+	sciPy.once.Do(func() { sciPy.err = exec.Command(python, "-c", "import scipy.signal").Run() })
+	if sciPy.err != nil {
+		t.Skipf("SciPy reference checks skipped: %s cannot import scipy.signal (%v); install Debian's python3-scipy (CI does)", python, sciPy.err)
 	}
 }
 
@@ -210,14 +218,20 @@ func TestSimulationMatchesSciPy(t *testing.T) {
 	}
 }
 
-// identifyModel synthesizes m's log (SciPy response + bias + Go noise at
-// 20 dB) and identifies it.
-func identifyModel(t *testing.T, m model, seed uint64) (*Result, []float64, float64) {
-	n := int(m.secs * m.hz)
-	u := m.command(rand.New(rand.NewPCG(seed, 1)), n)
+// knownCase is the SciPy request for m's log: the command drawn with
+// seed, and the step response over stepSamples.
+func knownCase(m model, seed uint64) simCase {
+	u := m.command(rand.New(rand.NewPCG(seed, 1)), int(m.secs*m.hz))
 	c := m.simCase(m.uniformRun(u))
 	c.StepDt, c.StepN = 1/m.hz, stepSamples(m)
-	res := scipySimulate(t, []simCase{c})[0]
+	return c
+}
+
+// identifyModel synthesizes m's log from SciPy's response res to
+// knownCase(m, seed) (+ bias + Go noise at 20 dB) and identifies it.
+func identifyModel(t *testing.T, m model, seed uint64, res simResult) (*Result, []float64, float64) {
+	n := int(m.secs * m.hz)
+	u := m.command(rand.New(rand.NewPCG(seed, 1)), n)
 	y, sigma := noisy(rand.New(rand.NewPCG(seed, 2)), res.Runs[0].Y, m.bias, 20)
 	tm := make([]float64, n)
 	for i := range tm {
@@ -247,13 +261,21 @@ func stepSamples(m model) int {
 // response within 2 % of the true one over the horizon (the true one from
 // scipy.signal.lsim), and the rate offset within a fraction of the noise
 // of the known gyro bias (each log starts at rest, so the offset is the
-// bias).
+// bias). The five logs are simulated in one SciPy run.
 func TestRecoverKnownModels(t *testing.T) {
 	t.Parallel()
+	var cases []simCase
+	for i, m := range fiveModels() {
+		cases = append(cases, knownCase(m, uint64(10+i)))
+	}
+	res := scipySimulate(t, cases)
+	if len(res) != len(cases) {
+		t.Fatalf("SciPy simulated %d cases of %d", len(res), len(cases))
+	}
 	for i, m := range fiveModels() {
 		t.Run(m.name, func(t *testing.T) {
 			t.Parallel()
-			r, trueStep, sigma := identifyModel(t, m, uint64(10+i))
+			r, trueStep, sigma := identifyModel(t, m, uint64(10+i), res[i])
 			truth := []float64{m.eff, m.tau, m.delay, m.lph}
 			for j, p := range r.Params() {
 				if rel := p.Value/truth[j] - 1; math.Abs(rel) > 0.05 {
@@ -342,7 +364,14 @@ func summary(r *Result) string {
 // count of misses is Binomial(100, 0.05), mean 5: P(more than 10) ≈ 1.1 %;
 // an interval a third too narrow (true level ~85 %) fails with probability
 // ~0.9, so the check has power.
+//
+// It is the slowest check here (200 identifications), a statistical sweep
+// whose bound is made for exactly 100 draws: -short skips it rather than
+// draw fewer.
 func TestConfidenceCoverage(t *testing.T) {
+	if testing.Short() {
+		t.Skip("200 identifications for a coverage statistic; skipped with -short")
+	}
 	t.Parallel()
 	ms := []model{fiveModels()[0], fiveModels()[4]}
 	const reps = 100

@@ -1,0 +1,161 @@
+package golden
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"fmt"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"sort"
+	"strings"
+	"sync"
+	"testing"
+
+	"locusmith/emit"
+)
+
+// Most of this package's time goes to compilers: the C compilers on the
+// generated code and the go command building the CLI. What one test builds
+// another often needs too, so builds are shared for the life of the test
+// binary: the CLI once per GOARCH (buildCLI), and a C program once per
+// compiler, flags and sources (buildC). TestMain removes them at the end.
+
+// TestMain removes the programs built by buildCLI and buildC after the
+// tests.
+func TestMain(m *testing.M) {
+	code := m.Run()
+	clis.mu.Lock()
+	for _, b := range clis.m {
+		if b.path != "" {
+			os.RemoveAll(filepath.Dir(b.path))
+		}
+	}
+	clis.mu.Unlock()
+	cbuilds.mu.Lock()
+	if cbuilds.dir != "" {
+		os.RemoveAll(cbuilds.dir)
+	}
+	cbuilds.mu.Unlock()
+	os.Exit(code)
+}
+
+// builtCLI builds cmd/locusmith once per test binary for a GOARCH.
+type builtCLI struct {
+	once sync.Once
+	path string
+	err  error
+	out  string
+}
+
+var clis = struct {
+	mu sync.Mutex
+	m  map[string]*builtCLI
+}{m: map[string]*builtCLI{}}
+
+// buildCLI returns the path of the locusmith binary for goarch ("" for
+// the host), built with CGO_ENABLED=0 into a directory that lives as long
+// as the test binary.
+func buildCLI(t testing.TB, goarch string) string {
+	t.Helper()
+	clis.mu.Lock()
+	b, ok := clis.m[goarch]
+	if !ok {
+		b = &builtCLI{}
+		clis.m[goarch] = b
+	}
+	clis.mu.Unlock()
+	gocmd := goTool(t)
+	b.once.Do(func() {
+		dir, err := os.MkdirTemp("", "locusmith-cli-")
+		if err != nil {
+			b.err = err
+			return
+		}
+		name := "locusmith"
+		if goarch != "" {
+			name += "-" + goarch
+		}
+		b.path = filepath.Join(dir, name)
+		cmd := exec.Command(gocmd, "build", "-o", b.path, "./cmd/locusmith")
+		cmd.Dir = ".."
+		cmd.Env = append(os.Environ(), "CGO_ENABLED=0", "GOTOOLCHAIN=local")
+		if goarch != "" {
+			cmd.Env = append(cmd.Env, "GOARCH="+goarch)
+		}
+		out, err := cmd.CombinedOutput()
+		b.err, b.out = err, string(out)
+	})
+	if b.err != nil {
+		t.Fatalf("build locusmith for %q: %v\n%s", goarch, b.err, b.out)
+	}
+	return b.path
+}
+
+// cbuild is one C program, built once.
+type cbuild struct {
+	once sync.Once
+	dir  string // holds the sources and the program "prog"
+	out  string // the compiler's output
+	err  error
+}
+
+var cbuilds = struct {
+	mu  sync.Mutex
+	dir string // made on first use
+	m   map[string]*cbuild
+}{m: map[string]*cbuild{}}
+
+// buildC writes srcs into a directory of their own, compiles and links the
+// files named in files with cc and flags (flags first, then "-o prog",
+// then the files) and returns the program's directory. The same compiler,
+// flags, files and sources (names and bytes) give the same program, built
+// once per test binary, so tests that need the same program share it; a
+// failed build fails every test that asks for it, with the compiler's
+// output. The directory is shared: do not write into it.
+func buildC(t testing.TB, cc string, flags []string, srcs []emit.Source, files []string) string {
+	t.Helper()
+	h := sha256.New()
+	fmt.Fprintf(h, "%q\n%q\n%q\n", cc, flags, files)
+	sorted := append([]emit.Source(nil), srcs...)
+	sort.Slice(sorted, func(i, j int) bool { return sorted[i].Name < sorted[j].Name })
+	for _, s := range sorted {
+		fmt.Fprintf(h, "%q %d\n", s.Name, len(s.Data))
+		h.Write(s.Data)
+	}
+	key := hex.EncodeToString(h.Sum(nil))
+	cbuilds.mu.Lock()
+	if cbuilds.dir == "" {
+		d, err := os.MkdirTemp("", "locusmith-cbuild-")
+		if err != nil {
+			cbuilds.mu.Unlock()
+			t.Fatal(err)
+		}
+		cbuilds.dir = d
+	}
+	b, ok := cbuilds.m[key]
+	if !ok {
+		b = &cbuild{dir: filepath.Join(cbuilds.dir, key[:16])}
+		cbuilds.m[key] = b
+	}
+	cbuilds.mu.Unlock()
+	b.once.Do(func() {
+		if b.err = os.Mkdir(b.dir, 0o755); b.err != nil {
+			return
+		}
+		for _, s := range srcs {
+			if b.err = os.WriteFile(filepath.Join(b.dir, s.Name), s.Data, 0o644); b.err != nil {
+				return
+			}
+		}
+		args := append(append(append([]string{}, flags...), "-o", "prog"), files...)
+		b.out, b.err = runErr(b.dir, cc, args...)
+		if b.err != nil {
+			b.out = fmt.Sprintf("%s %s: %v\n%s", filepath.Base(cc), strings.Join(args, " "), b.err, b.out)
+		}
+	})
+	if b.err != nil {
+		t.Fatalf("build in %s: %v\n%s", b.dir, b.err, b.out)
+	}
+	return b.dir
+}

@@ -1,0 +1,1214 @@
+package synth
+
+import (
+	"fmt"
+	"math"
+	"math/cmplx"
+	"slices"
+	"strings"
+
+	"locusmith/airframe"
+	"locusmith/internal/lti"
+)
+
+// The design search.
+//
+// The design is the controller of the requested form that passes every
+// check over the envelope with one setpoint weight b and has the best
+// load-disturbance rejection: the largest integral gain Ki for pi and pid,
+// the largest Kp for p and pd, the largest low-frequency gain C(0) for a
+// lead. This is the criterion of Åström, Panagopoulos and Hägglund's
+// design of PI and PID controllers (maximize Ki, whose inverse is the
+// integrated error after a load step, IE = 1/Ki, under a bound on the
+// sensitivity peak Ms; Automatica 34(5), 1998, and IEE Proc. Control
+// Theory Appl. 149(1), 2002; from memory), with the constraints that a
+// rate loop adds: the step spec, the margins, the noise gain, the holdable
+// rate, the disturbance recovery, all at every plant of the envelope.
+// Among designs within NearBest of the best, the one with the least noise
+// gain is taken.
+//
+// How the search cannot miss a small feasible set: the controller is
+// linear in its gains, C = A + x·B, where x is the gain that the objective
+// grows with (Ki, Kp, or K) and A, B depend on the others, the shape θ
+// (Kp and Kd for a pid, Kp for a pi, Kd for a pd, the pole for a lead).
+// For a fixed shape, the Ms bound |1 + (A + x·B)·P| ≥ 1/Ms at each
+// frequency of the grid and each plant is a quadratic inequality in x,
+// solved in closed form; the largest x reachable from x = 0 without
+// crossing the bound is exact on the grid, and since the Nyquist curve
+// cannot reach −1 without entering the Ms circle, every x below it keeps
+// the stability of x = 0. The margins and the noise gain then lower x by
+// bisection, and the time checks by steps. So one evaluation answers, for
+// a whole line of controllers, how far it can go; the search needs a grid
+// over the shape only (two dimensions at most): a coarse structured grid
+// over several decades around the plant's own gain scale, then a pattern
+// search (halving steps down to NearStep) from the best point.
+
+// NearBest is the band of the tie-break: among designs whose load-rejection
+// gain is within 2 % of the best one, the least noise gain is taken.
+const NearBest = 0.02
+
+// KneeNoise documents the default noise bound. When the file gives no
+// max_noise_gain, a form with an integral (pi, pid) may use the noise
+// gain N of the design that maximizes Ki/N² over every other check: the
+// knee of the trade-off between the integrated load error IE = 1/Ki and
+// the noise power in the command (∝ N²), two of the four criteria of
+// Garpinger, Hägglund and Åström ("Criteria and trade-offs in PID
+// design", 2012; from memory). Below the knee a little more noise buys
+// much more load rejection; beyond it, less. The default never makes a
+// feasible spec infeasible. Forms without an integral (p, pd, lead)
+// have no default bound: their load-rejection gain is itself the
+// high-frequency gain's main part, and the Ms bound limits it.
+const KneeNoise = "Ki/N²"
+
+// NoiseRatio is the default noise bound of the forms without an integral
+// (p, pd, lead), relative to their load-rejection gain J (Kp, or C(0)):
+// the noise gain at most ten times J. For a lead it is the classic limit
+// of the lead ratio p/z ≤ 10, beyond which the compensator buys little
+// phase for much noise (Franklin, Powell & Emami-Naeini, lead design;
+// from memory); for a pd it keeps Kd/Tf ≤ 9·Kp, the derivative gain
+// limit of 10 that is usual practice (Åström & Hägglund, Advanced PID
+// Control, N of 8 to 20; from memory). A p has N = J and is not bounded.
+// A knee like KneeNoise's does not exist for these forms: J and N grow
+// together.
+const NoiseRatio = 10
+
+// unboundedMs is the sensitivity bound of the search when the spec gives
+// none: |1 + L| ≥ 1/20, a distance from −1 that only stops the line of x
+// before the closed loop turns unstable there.
+const unboundedMs = 20
+
+// nearStep is the last step of the pattern search, in decades of the shape
+// parameters (0.7 %): finer steps move the load-rejection gain by less
+// than a percent.
+const nearStep = 0.003
+
+// weights returns the setpoint weights b the search may choose from, in
+// descending order: the file's, b = 1 for forms without an integral (b
+// then changes the final value), or 1 down to 0 by 0.05.
+func weights(p airframe.Axis) []float64 {
+	if p.Ctrl.SetpointWeightSet {
+		return []float64{p.Ctrl.SetpointWeight}
+	}
+	if !p.Ctrl.Form.HasIntegral() {
+		return []float64{1}
+	}
+	bs := make([]float64, 21)
+	for i := range bs {
+		bs[i] = 1 - float64(i)/20
+	}
+	return bs
+}
+
+// family is a form's parameterization: the shape θ (searched on a grid in
+// log space around ref) and the gain x the objective grows with.
+type family struct {
+	ref    []float64 // reference value of each shape parameter
+	lo, hi []float64 // the grid spans ref·10^lo … ref·10^hi
+	steps  []int     // grid points per parameter
+	xRef   float64   // scale of x (caps an unbounded x)
+	ctrl   func(th []float64, x float64) Controller
+	gain   func(th []float64, x float64) float64 // the load-rejection gain
+}
+
+// newFamily sets up the search of form f around the gain scale g0 of the
+// loop at the frequency w0: |C| ≈ g0 puts the crossover near w0.
+func newFamily(p airframe.Axis, g0, w0 float64) family {
+	base := Controller{Form: p.Ctrl.Form, Tf: p.Ctrl.Tf(), B: 1, DerivativeOnError: p.Ctrl.DerivativeOnError}
+	one := func(th []float64, x float64) float64 { return x }
+	switch p.Ctrl.Form {
+	case airframe.FormP:
+		return family{xRef: g0, gain: one, ctrl: func(_ []float64, x float64) Controller {
+			c := base
+			c.Kp = x
+			return c
+		}}
+	case airframe.FormPI:
+		return family{ref: []float64{g0}, lo: []float64{-2.5}, hi: []float64{1.5}, steps: []int{25}, xRef: g0 * w0, gain: one,
+			ctrl: func(th []float64, x float64) Controller {
+				c := base
+				c.Kp, c.Ki = th[0], x
+				return c
+			}}
+	case airframe.FormPD:
+		return family{ref: []float64{g0 / w0}, lo: []float64{-2.5}, hi: []float64{1.5}, steps: []int{25}, xRef: g0, gain: one,
+			ctrl: func(th []float64, x float64) Controller {
+				c := base
+				c.Kd, c.Kp = th[0], x
+				return c
+			}}
+	case airframe.FormLead:
+		z := p.Ctrl.LeadZero
+		// θ is the pole's distance ratio r = p/z > 1 (pole left of the
+		// zero); the grid spans r from 1.02 to 200.
+		return family{ref: []float64{1}, lo: []float64{math.Log10(1.02)}, hi: []float64{math.Log10(200)}, steps: []int{25},
+			xRef: g0,
+			gain: func(th []float64, x float64) float64 { return x / th[0] },
+			ctrl: func(th []float64, x float64) Controller {
+				c := base
+				c.K, c.Zero, c.Pole = x, z, z*th[0]
+				return c
+			}}
+	}
+	// pid: θ = (n, ρ), the controller's high-frequency gain n = Kp + Kd/Tf
+	// (what the noise gain tends to) and the derivative's share of it,
+	// ρ = (Kd/Tf)/Kp: Kp = n/(1 + ρ), Kd = Tf·n·ρ/(1 + ρ). In these
+	// coordinates a noise bound is a bound on n alone, so the search moves
+	// along it instead of across a diagonal ridge of (Kp, Kd).
+	tf := p.Ctrl.Tf()
+	return family{ref: []float64{g0, 1}, lo: []float64{-2, -2}, hi: []float64{2, 2}, steps: []int{17, 13}, xRef: g0 * w0, gain: one,
+		ctrl: func(th []float64, x float64) Controller {
+			c := base
+			c.Kp = th[0] / (1 + th[1])
+			c.Kd = tf * th[0] * th[1] / (1 + th[1])
+			c.Ki = x
+			return c
+		}}
+}
+
+// point is one shape after the frequency screen: the largest x that the
+// frequency checks allow (xf, 0 when none), the noise gain there, and the
+// violation of the frequency checks at a small x when none.
+type point struct {
+	u     []float64 // log10 of θ/ref
+	th    []float64
+	xf    float64
+	noise float64 // at xf
+	// noise0 is the noise gain as x → 0, a floor of the noise gain on the
+	// shape.
+	noise0 float64
+	fviol  float64 // when xf = 0: how far the frequency checks miss
+	why    string  // when xf = 0: the check that stops it
+}
+
+// cand is a full judgment: a controller and whether it passes everything.
+type cand struct {
+	pt    *point
+	x     float64
+	ctrl  Controller // with B
+	gain  float64
+	noise float64
+	ok    bool
+	viol  float64  // total relative violation (0 when ok)
+	fails []string // the checks that fail
+	// settle is the best settling time over the envelope with the
+	// overshoot met (for "what is reachable"); NaN when unknown.
+	settle float64
+}
+
+// searcher holds the data of one search.
+type searcher struct {
+	p           airframe.Axis
+	L           Loops
+	fam         family
+	grid        []float64
+	open        [][]complex128
+	ncorn       int
+	bs          []float64
+	noiseB      float64 // noise bound in force (+Inf: none)
+	a, b        []complex128
+	lbuf        []complex128
+	cache       map[string]*point
+	closest     cand
+	haveClosest bool
+	bestOK      cand // the passing candidate of the largest gain
+	haveOK      bool
+	// shut names the frequency checks that shut shapes out entirely.
+	shut []string
+	// ratioB bounds the noise gain relative to the load-rejection gain
+	// (NoiseRatio, for the forms without an integral; 0: none).
+	ratioB     float64
+	th         []float64 // the shape of the last basis
+	reach      float64   // least settling time seen with every other check met
+	y0, y1, yb []float64
+}
+
+func newSearcher(p airframe.Axis, L Loops, g0, w0 float64) *searcher {
+	sr := &searcher{p: p, L: L, fam: newFamily(p, g0, w0), grid: L.Grid(), bs: weights(p),
+		cache: map[string]*point{}, noiseB: math.Inf(1), reach: math.Inf(1)}
+	sr.ncorn = len(L.Corners())
+	for i := 0; i < sr.ncorn; i++ {
+		sr.open = append(sr.open, L.Open(i))
+	}
+	n := len(sr.grid)
+	sr.a, sr.b, sr.lbuf = make([]complex128, n), make([]complex128, n), make([]complex128, n)
+	if s := p.Spec.MaxNoiseGain; s > 0 {
+		sr.noiseB = s
+	} else if !p.Ctrl.Form.HasIntegral() {
+		sr.ratioB = NoiseRatio
+	}
+	return sr
+}
+
+func (sr *searcher) theta(u []float64) []float64 {
+	th := make([]float64, len(u))
+	for i := range u {
+		th[i] = sr.fam.ref[i] * math.Pow(10, u[i])
+	}
+	return th
+}
+
+func key(u []float64) string {
+	var b strings.Builder
+	for _, v := range u {
+		fmt.Fprintf(&b, "%.6f,", v)
+	}
+	return b.String()
+}
+
+// basis writes A = C(θ, 0) and B = C(θ, 1) − C(θ, 0) on the grid.
+func (sr *searcher) basis(th []float64) {
+	sr.th = th
+	sr.L.Ctrl(sr.fam.ctrl(th, 0), sr.a)
+	sr.L.Ctrl(sr.fam.ctrl(th, 1), sr.b)
+	for k := range sr.b {
+		sr.b[k] -= sr.a[k]
+	}
+}
+
+// msBound returns the largest x ≥ 0 such that every x' in [0, x) keeps
+// |1 + (A + x'·B)·P| ≥ 1/Ms at every grid frequency and plant (+Inf when
+// nothing bounds it), and false when x = 0 itself violates the bound.
+//
+// At one frequency, with a = 1 + A·P and c = B·P, the condition
+// |a + x·c|² ≥ r² reads α·x² + 2β·x + γ ≥ 0 with α = |c|², β = Re(ā·c),
+// γ = |a|² − r²: it fails between the roots when β² > α·γ.
+func (sr *searcher) msBound() (float64, bool) {
+	ms := sr.p.Spec.MaxSensitivity
+	if !(ms > 0) {
+		// No Ms bound asked: the line of x still stops short of −1, where
+		// the loop turns unstable.
+		ms = unboundedMs
+	}
+	r2 := 1 / (ms * ms)
+	xmax := math.Inf(1)
+	for i := range sr.open {
+		P := sr.open[i]
+		for k := range P {
+			a := 1 + sr.a[k]*P[k]
+			c := sr.b[k] * P[k]
+			al := real(c)*real(c) + imag(c)*imag(c)
+			be := real(a)*real(c) + imag(a)*imag(c)
+			ga := real(a)*real(a) + imag(a)*imag(a) - r2
+			if !(al > 1e-300) {
+				// x has no effect here: fine or forbidden for every x.
+				if ga < 0 {
+					return 0, false
+				}
+				continue
+			}
+			disc := be*be - al*ga
+			if disc <= 0 {
+				continue
+			}
+			sq := math.Sqrt(disc)
+			// Roots (−β ∓ √disc)/α, computed without cancellation.
+			q := -(be + math.Copysign(sq, be))
+			x1, x2 := q/al, ga/q
+			if x1 > x2 {
+				x1, x2 = x2, x1
+			}
+			if x2 <= 0 {
+				continue
+			}
+			if x1 <= 0 {
+				return 0, false
+			}
+			xmax = math.Min(xmax, x1)
+		}
+	}
+	return xmax, true
+}
+
+// freqFigures computes, for C = A + x·B on the grid, the worst phase and
+// gain margins over the plants (interpolated between grid points) and the
+// noise gain: the largest |C| from the lowest gain crossover up.
+func (sr *searcher) freqFigures(x float64) (pm, gm, noise float64) {
+	pm, gm = math.Inf(1), math.Inf(1)
+	kc := len(sr.grid)
+	c := sr.lbuf
+	for k := range c {
+		c[k] = sr.a[k] + complex(x, 0)*sr.b[k]
+	}
+	for i := range sr.open {
+		m, g, kci := gridMargins(sr.grid, c, sr.open[i])
+		pm, gm = math.Min(pm, m), math.Min(gm, g)
+		kc = min(kc, kci)
+	}
+	if kc >= len(sr.grid) {
+		kc = 0
+	}
+	n2 := 0.0
+	for k := kc; k < len(c); k++ {
+		n2 = math.Max(n2, real(c[k])*real(c[k])+imag(c[k])*imag(c[k]))
+	}
+	return pm, gm, math.Sqrt(n2)
+}
+
+// gridMargins returns the phase and gain margins of L = C·P on the grid
+// (of each kind the crossing nearest the critical point, as
+// lti.LoopMargins reports them, with L interpolated linearly between grid
+// points), and the grid index of the first gain crossover (len(w) when
+// none). A gain crossover is a sign change of |L|² − 1; a phase crossover
+// (∠L = −180° + k·360°) a sign change of Im L where Re L < 0. Angles and
+// logarithms are taken at the crossings only.
+func gridMargins(w []float64, c, P []complex128) (pm, gm float64, kc int) {
+	pm, gm = math.Inf(1), math.Inf(1)
+	kc = len(w)
+	var prev complex128
+	var prevM float64
+	for k := range w {
+		L := c[k] * P[k]
+		m := real(L)*real(L) + imag(L)*imag(L) - 1
+		if k > 0 {
+			if (prevM >= 0) != (m >= 0) {
+				t := prevM / (prevM - m)
+				Lc := prev + complex(t, 0)*(L-prev)
+				v := 180 + cmplx.Phase(Lc)*180/math.Pi
+				if v > 180 {
+					v -= 360
+				}
+				if math.Abs(v) < math.Abs(pm) {
+					pm = v
+				}
+				if kc == len(w) {
+					kc = k - 1
+				}
+			}
+			if (imag(prev) >= 0) != (imag(L) >= 0) {
+				t := imag(prev) / (imag(prev) - imag(L))
+				re := real(prev) + t*(real(L)-real(prev))
+				if re < 0 {
+					g := -20 * math.Log10(-re)
+					if math.Abs(g) < math.Abs(gm) {
+						gm = g
+					}
+				}
+			}
+		}
+		prev, prevM = L, m
+	}
+	return pm, gm, kc
+}
+
+// freqOK reports whether the margins and the noise gain pass at x, and
+// the relative violation when not.
+func (sr *searcher) freqOK(x float64) (bool, float64, string) {
+	s := sr.p.Spec
+	pm, gm, noise := sr.freqFigures(x)
+	v, why := 0.0, ""
+	if s.MinPhaseMargin > 0 && !(pm >= s.MinPhaseMargin) {
+		v += relShort(pm, s.MinPhaseMargin)
+		why = "phase_margin"
+	}
+	if s.MinGainMargin > 0 && !(gm >= s.MinGainMargin) {
+		v += relShort(gm, s.MinGainMargin)
+		why = "gain_margin"
+	}
+	if noise > sr.noiseB {
+		v += noise/sr.noiseB - 1
+		why = "noise_gain"
+	}
+	if sr.ratioB > 0 {
+		if lim := sr.ratioB * sr.fam.gain(sr.th, x); noise > lim {
+			v += noise/lim - 1
+			why = "noise_gain"
+		}
+	}
+	return v == 0, v, why
+}
+
+// relShort is the relative shortfall of v below the limit (1 when v is
+// not a number).
+func relShort(v, limit float64) float64 {
+	if math.IsNaN(v) {
+		return 1
+	}
+	return math.Max(0, (limit-v)/limit)
+}
+
+// screen judges the shape u by the frequency checks alone: the largest x
+// they allow, found in closed form for Ms and by bisection for the
+// margins and the noise gain.
+func (sr *searcher) screen(u []float64) *point {
+	k := key(u) + fmt.Sprint(sr.noiseB)
+	if pt, ok := sr.cache[k]; ok {
+		return pt
+	}
+	pt := &point{u: slices.Clone(u), th: sr.theta(u)}
+	sr.cache[k] = pt
+	sr.basis(pt.th)
+	xms, ok := sr.msBound()
+	if !ok {
+		pt.why, pt.fviol = "max_sensitivity", 1
+		return pt
+	}
+	cap := 1e4 * sr.fam.xRef
+	x := math.Min(xms, cap)
+	if okf, _, _ := sr.freqOK(x); !okf {
+		// The margins and the noise gain are assumed to improve as x falls
+		// (less integral or proportional action): bisect on [small, x].
+		small := math.Min(x*1e-4, sr.fam.xRef*1e-4)
+		okS, vS, whyS := sr.freqOK(small)
+		if !okS {
+			pt.why, pt.fviol = whyS, vS
+			return pt
+		}
+		lo, hi := small, x
+		for i := 0; i < 40 && hi/lo > 1.002; i++ {
+			m := math.Sqrt(lo * hi)
+			if okm, _, _ := sr.freqOK(m); okm {
+				lo = m
+			} else {
+				hi = m
+			}
+		}
+		x = lo
+	}
+	pt.xf = x
+	_, _, pt.noise = sr.freqFigures(x)
+	_, _, pt.noise0 = sr.freqFigures(x * 1e-6)
+	return pt
+}
+
+// shrinkSteps are the fractions of the frequency checks' largest gain that
+// judge tries, in turn, when the time checks fail there: the time checks
+// are not monotone in the gain (a settling time jumps when a ripple leaves
+// the band), so the line is sampled down to 3 % of it.
+func shrinkSteps() []float64 {
+	return []float64{1, 0.85, 0.7, 0.55, 0.42, 0.32, 0.24, 0.17, 0.12, 0.08, 0.05, 0.03}
+}
+
+// judge makes the full judgment of shape pt at gain x: stability at every
+// plant by the exact test, then the time checks. With shrink, a gain that
+// fails the time checks is lowered along shrinkSteps until it passes; the
+// first that passes is returned (the largest passing gain of the steps).
+func (sr *searcher) judge(pt *point, x float64, shrink bool) (cand, error) {
+	c := cand{pt: pt, x: x, settle: math.NaN()}
+	if !(pt.xf > 0) {
+		c.viol, c.fails = 1+pt.fviol, []string{pt.why}
+		return c, nil
+	}
+	sr.basis(pt.th)
+	steps := []float64{1}
+	if shrink {
+		steps = shrinkSteps()
+	}
+	x0 := x
+	for _, f := range steps {
+		x = x0 * f
+		c = cand{pt: pt, x: x, settle: math.NaN()}
+		c.ctrl = sr.fam.ctrl(pt.th, x)
+		c.gain = sr.fam.gain(pt.th, x)
+		_, _, c.noise = sr.freqFigures(x)
+		stable := true
+		for i := 0; i < sr.ncorn && stable; i++ {
+			ok, err := sr.L.Stable(c.ctrl, i)
+			if err != nil {
+				return c, err
+			}
+			stable = ok
+		}
+		if !stable {
+			c.ok, c.viol, c.fails = false, 10, []string{"stable"}
+		} else {
+			b, v, fails, settle, err := sr.timeChecks(c.ctrl)
+			if err != nil {
+				return c, err
+			}
+			c.ctrl.B, c.viol, c.fails, c.settle = b, v, fails, settle
+			c.ok = len(fails) == 0
+		}
+		sr.note(c)
+		if c.ok || sr.haveOK && c.gain <= sr.bestOK.gain {
+			return c, nil
+		}
+	}
+	return c, nil
+}
+
+// note keeps the closest candidate, the best passing one and the reach.
+func (sr *searcher) note(c cand) {
+	if c.ok && c.noise <= sr.noiseB && (!sr.haveOK || c.gain > sr.bestOK.gain) {
+		sr.bestOK, sr.haveOK = c, true
+	}
+	if !sr.haveClosest || c.viol < sr.closest.viol {
+		sr.closest, sr.haveClosest = c, true
+	}
+	if onlySettling(c.fails) && c.settle < sr.reach {
+		sr.reach = c.settle
+	}
+}
+
+func onlySettling(fails []string) bool {
+	return len(fails) == 1 && fails[0] == "settling_time"
+}
+
+// holdWeight returns the least setpoint weight with which the integrator
+// holds the spec's hold_rate at every plant: at steady state it carries
+// (1/G(0) + (1 − b)·Kp)·r (H(0) = 1; 1/G(0) = 0 for a plant that
+// integrates), so b ≥ 1 − (IL/r − 1/G(0))/Kp; > 1 when no weight can.
+func (sr *searcher) holdWeight(c Controller) float64 {
+	r := sr.p.Spec.HoldRate
+	il := sr.p.Ctrl.IntegratorLimit
+	if !c.Form.HasIntegral() || !(r > 0) || !(il > 0) {
+		return math.Inf(-1)
+	}
+	need := math.Inf(-1)
+	for _, cn := range sr.L.Corners() {
+		inv := 0.0
+		if g0 := real(sr.p.At(cn).Plant.Model.Eval(0)); !math.IsInf(g0, 0) && !math.IsNaN(g0) && g0 != 0 {
+			inv = 1 / g0
+		}
+		// |inv + (1 − b)·Kp| ≤ IL/r with inv ≥ 0 for a plant of positive
+		// gain: (1 − b)·Kp ≤ IL/r − inv.
+		room := il/r - math.Abs(inv)
+		if room < 0 {
+			return 2
+		}
+		if c.Kp > 0 {
+			need = math.Max(need, 1-room/c.Kp)
+		}
+	}
+	return need
+}
+
+// weightWindow is a necessary condition on the setpoint weight b for a
+// response within a violation bound β of the time spec: the interval
+// [lo, hi] (within the admitted [bmin, bmax]) of weights whose response,
+// at every sample seen so far, is at most (1 + os')·F with os' = os·(1+β),
+// and inside the settling band at every sample after Ts' = Ts·(1+β).
+//
+// A response with timeViolation ≤ β has overshoot ≤ os' and settling time
+// ≤ Ts'; its last sample outside the band is then at or before Ts' (the
+// interpolated exit is after that sample), so every weight with violation
+// ≤ β is in the window, and only those need a step summary. Each sample
+// gives linear inequalities in b: with d = y1 − y0 and F(b) = F0 + b·dF > 0,
+// the peak bound y ≤ (1 + os')·F reads b·(d − (1 + os')·dF) ≤ (1 + os')·F0
+// − y0, and the band |y − F| ≤ band·F reads b·(d − (1 + band)·dF) ≤
+// (1 + band)·F0 − y0 and −b·(d − (1 − band)·dF) ≤ y0 − (1 − band)·F0. Their
+// intersection is an interval, kept in one pass.
+type weightWindow struct {
+	lo, hi               float64
+	k0                   int // first sample held to the band
+	f0, df               float64
+	osHi, bandHi, bandLo float64
+	// ok is false where the test does not apply: a final value not
+	// positive over the admitted weights or a non-finite sample.
+	ok bool
+}
+
+func newWeightWindow(e *Evaluation, s airframe.Spec, bmin, bmax, beta float64) weightWindow {
+	w := weightWindow{lo: bmin, hi: bmax, f0: e.Final0, df: e.Final1 - e.Final0,
+		osHi: 1 + s.Overshoot*(1+beta), bandHi: 1 + s.Band, bandLo: 1 - s.Band, k0: e.N}
+	fmin, fmax := w.f0+bmin*w.df, w.f0+bmax*w.df
+	w.ok = fmin > 0 && fmax > 0 && !math.IsInf(fmin, 0) && !math.IsInf(fmax, 0)
+	if t := s.SettlingTime * (1 + beta) / e.H; t < float64(e.N) {
+		w.k0 = int(math.Floor(t)) + 1
+	}
+	return w
+}
+
+// add narrows the window by sample k of the responses for b = 0 and 1.
+func (w *weightWindow) add(k int, y0, y1 float64) {
+	d := y1 - y0
+	if math.IsNaN(y0) || math.IsNaN(d) || math.IsInf(y0, 0) || math.IsInf(d, 0) {
+		w.ok = false
+		return
+	}
+	w.bound(d-w.osHi*w.df, w.osHi*w.f0-y0)
+	if k >= w.k0 {
+		w.bound(d-w.bandHi*w.df, w.bandHi*w.f0-y0)
+		w.bound(-(d - w.bandLo*w.df), y0-w.bandLo*w.f0)
+	}
+}
+
+// bound applies a·b ≤ c, dividing only when the bound tightens.
+func (w *weightWindow) bound(a, c float64) {
+	switch {
+	case a > 0:
+		if c < w.hi*a {
+			w.hi = c / a
+		}
+	case a < 0:
+		if c < w.lo*a {
+			w.lo = c / a
+		}
+	case c < 0:
+		w.lo, w.hi = 1, 0
+	}
+}
+
+// windowSlack widens the window against rounding in the inequalities: it
+// only filters, and every weight it admits is summarized exactly.
+const windowSlack = 1e-9
+
+// admits reports whether b is in the window.
+func (w *weightWindow) admits(b float64) bool {
+	return b >= w.lo-windowSlack && b <= w.hi+windowSlack
+}
+
+// admitsAny reports whether one of the weights ws is in the window.
+func (w *weightWindow) admitsAny(ws []float64) bool {
+	for _, b := range ws {
+		if w.admits(b) {
+			return true
+		}
+	}
+	return false
+}
+
+// fastTimeChecks is timeChecks once a passing design is known, when a
+// failing candidate's violation no longer matters: only the weights
+// still passing at every plant so far are followed, each plant's
+// responses stop as soon as the weight window admits none of them, and a
+// weight is summarized only when the window admits it.
+func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool, err error) {
+	s := sr.p.Spec
+	var alive []int
+	for j, w := range sr.bs {
+		if w >= bh-1e-12 {
+			alive = append(alive, j)
+		}
+	}
+	for i := 0; i < sr.ncorn && len(alive) > 0; i++ {
+		e, err := sr.L.Step(c, i)
+		if err != nil {
+			return 0, false, err
+		}
+		if cap(sr.y0) < e.N {
+			sr.y0, sr.y1, sr.yb = make([]float64, e.N), make([]float64, e.N), make([]float64, e.N)
+		}
+		y0, y1 := sr.y0[:e.N], sr.y1[:e.N]
+		bmin, bmax := sr.bs[alive[len(alive)-1]], sr.bs[alive[0]]
+		w := newWeightWindow(&e, s, bmin, bmax, 0)
+		admits := func() bool {
+			for _, j := range alive {
+				if w.admits(sr.bs[j]) {
+					return true
+				}
+			}
+			return false
+		}
+		stopped := false
+		for k := 0; k < e.N; {
+			if w.ok && !admits() {
+				stopped = true
+				break
+			}
+			m := min(k+respondChunk, e.N)
+			e.Respond(y0[k:m], y1[k:m])
+			for ; k < m; k++ {
+				if w.ok {
+					w.add(k, y0[k], y1[k])
+				}
+			}
+		}
+		if stopped {
+			return 0, false, nil
+		}
+		yb := sr.yb[:e.N]
+		next := alive[:0]
+		for _, j := range alive {
+			bj := sr.bs[j]
+			if w.ok && !w.admits(bj) {
+				continue
+			}
+			f := e.Final0 + bj*(e.Final1-e.Final0)
+			if !(f > 0) || math.IsInf(f, 0) {
+				continue
+			}
+			for k := range yb {
+				yb[k] = y0[k] + bj*(y1[k]-y0[k])
+			}
+			if timeViolation(s, true, lti.Settle(yb, e.H, f, s.Band)) == 0 {
+				next = append(next, j)
+			}
+		}
+		alive = next
+		if !c.Form.HasIntegral() && s.MaxSteadyError > 0 && math.Abs(1-e.Final1) > s.MaxSteadyError {
+			return 0, false, nil
+		}
+	}
+	if len(alive) == 0 {
+		return 0, false, nil
+	}
+	return sr.bs[alive[0]], true, nil
+}
+
+// respondChunk is how many samples fastTimeChecks simulates between looks
+// at the weight window.
+const respondChunk = 32
+
+// timeChecks runs the setpoint step at every plant and returns the largest
+// weight b that meets the overshoot and settling time everywhere (and the
+// hold rate), or the failures with their violation; then the steady error
+// and the disturbance recovery.
+func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, settle float64, err error) {
+	s := sr.p.Spec
+	bh := sr.holdWeight(c)
+	settle = math.NaN()
+	if bh > 1 {
+		return 1, 1, []string{"hold_rate"}, settle, nil
+	}
+	if s.DisturbanceRecovery == 0 {
+		b, ok, err := sr.fastTimeChecks(c, bh)
+		if err != nil || ok {
+			return b, 0, nil, settle, err
+		}
+		if sr.haveOK {
+			// A failure is not scored: a passing design is known.
+			return 1, math.Inf(1), []string{"settling_time"}, settle, nil
+		}
+	}
+	// For each admitted weight: the worst violation over the plants, and
+	// the worst settling time when the overshoot is met.
+	nb := len(sr.bs)
+	worst := make([]float64, nb)
+	slow := make([]float64, nb)
+	osOK := make([]bool, nb)
+	for j := range osOK {
+		osOK[j] = true
+	}
+	steady := 0.0
+	for i := 0; i < sr.ncorn; i++ {
+		e, err := sr.L.Step(c, i)
+		if err != nil {
+			return 0, 0, nil, settle, err
+		}
+		if cap(sr.y0) < e.N {
+			sr.y0, sr.y1, sr.yb = make([]float64, e.N), make([]float64, e.N), make([]float64, e.N)
+		}
+		y0, y1, yb := sr.y0[:e.N], sr.y1[:e.N], sr.yb[:e.N]
+		e.Respond(y0, y1)
+		for j, w := range sr.bs {
+			f := e.Final0 + w*(e.Final1-e.Final0)
+			if !(f > 0) || math.IsInf(f, 0) {
+				worst[j] = math.Inf(1)
+				continue
+			}
+			for k := range yb {
+				yb[k] = y0[k] + w*(y1[k]-y0[k])
+			}
+			st := lti.Settle(yb, e.H, f, s.Band)
+			v := timeViolation(s, true, st)
+			worst[j] = math.Max(worst[j], v)
+			if !(st.Overshoot <= s.Overshoot) {
+				osOK[j] = false
+			}
+			slow[j] = math.Max(slow[j], st.Settling)
+		}
+		if !c.Form.HasIntegral() {
+			steady = math.Max(steady, math.Abs(1-e.Final1))
+		}
+	}
+	best := -1
+	bestV, bestJ := math.Inf(1), -1
+	for j, w := range sr.bs {
+		if w < bh-1e-12 {
+			continue
+		}
+		if worst[j] == 0 && best < 0 {
+			best = j
+		}
+		if worst[j] < bestV {
+			bestV, bestJ = worst[j], j
+		}
+		if osOK[j] && (math.IsNaN(settle) || slow[j] < settle) {
+			settle = slow[j]
+		}
+	}
+	if best >= 0 {
+		b = sr.bs[best]
+	} else {
+		if bestJ < 0 {
+			return 1, 1, []string{"hold_rate"}, settle, nil
+		}
+		b, viol = sr.bs[bestJ], bestV
+		j := bestJ
+		if !osOK[j] {
+			fails = append(fails, "overshoot")
+		}
+		if slow[j] > s.SettlingTime || math.IsInf(worst[j], 1) {
+			fails = append(fails, "settling_time")
+		}
+		if len(fails) == 0 {
+			fails = append(fails, "settling_time")
+		}
+	}
+	if !c.Form.HasIntegral() && s.MaxSteadyError > 0 && steady > s.MaxSteadyError {
+		viol += steady/s.MaxSteadyError - 1
+		fails = append(fails, "steady_error")
+	}
+	if s.DisturbanceRecovery > 0 && len(fails) == 0 {
+		for i := 0; i < sr.ncorn; i++ {
+			r, err := sr.L.Disturb(c, i, 4*math.Max(s.DisturbanceRecovery, s.SettlingTime))
+			if err != nil {
+				return b, viol, fails, settle, err
+			}
+			d := Disturbance(r, 1)
+			if !(d.Recovery <= s.DisturbanceRecovery) {
+				v := 1.0
+				if !math.IsInf(d.Recovery, 1) {
+					v = d.Recovery/s.DisturbanceRecovery - 1
+				}
+				viol += v
+				fails = append(fails, "disturbance_recovery")
+				break
+			}
+		}
+	}
+	return b, viol, fails, settle, nil
+}
+
+// timeViolation scores how far a step misses the time spec: the sum of
+// the relative excesses of overshoot and settling time (plus one when the
+// response does not settle within its record); 0 when met, +Inf when the
+// loop is unstable.
+func timeViolation(s airframe.Spec, stable bool, st lti.StepInfo) float64 {
+	if !stable || math.IsNaN(st.Overshoot) || math.IsNaN(st.Settling) {
+		return math.Inf(1)
+	}
+	v := math.Max(0, st.Overshoot/s.Overshoot-1) + math.Max(0, st.Settling/s.SettlingTime-1)
+	if !st.Settled {
+		v += 1
+	}
+	return v
+}
+
+// gridPoints returns the shapes of the coarse grid.
+func (sr *searcher) gridPoints() [][]float64 {
+	f := sr.fam
+	pts := [][]float64{{}}
+	for d := range f.ref {
+		var next [][]float64
+		for _, p := range pts {
+			for i := 0; i < f.steps[d]; i++ {
+				u := f.lo[d] + (f.hi[d]-f.lo[d])*float64(i)/float64(f.steps[d]-1)
+				next = append(next, append(slices.Clone(p), u))
+			}
+		}
+		pts = next
+	}
+	return pts
+}
+
+// gridStep is the coarse grid's spacing in decades, per parameter.
+func (sr *searcher) gridStep() []float64 {
+	f := sr.fam
+	st := make([]float64, len(f.ref))
+	for d := range st {
+		st[d] = (f.hi[d] - f.lo[d]) / float64(f.steps[d]-1)
+	}
+	return st
+}
+
+// Result is the outcome of the search.
+type Result struct {
+	Ctrl Controller // the design, with its setpoint weight
+	Met  bool       // false: no design passed; Ctrl is the closest one
+	// NoiseBound is the noise-gain bound in force: the file's, or the
+	// default (KneeNoise); +Inf when none applied.
+	NoiseBound float64
+	// Fails names the checks the closest design misses, when not Met.
+	Fails []string
+	// Reach is the least settling time over the envelope seen with every
+	// other check met (NaN when none).
+	Reach float64
+	// Evaluations counts the full judgments, for benchmarks.
+	Evaluations int
+}
+
+// Search finds the design of p's form on the loops L (see the top of this
+// file). g0 and w0 set the scale of the search: a controller gain of g0
+// puts the crossover near w0.
+func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
+	if !(g0 > 0) || math.IsInf(g0, 0) || !(w0 > 0) || math.IsInf(w0, 0) {
+		return Result{}, fmt.Errorf("search scale: gain %g at %g rad/s is not usable", g0, w0)
+	}
+	sr := newSearcher(p, L, g0, w0)
+	res := Result{NoiseBound: math.Inf(1), Reach: math.NaN()}
+	evals := 0
+	judge := func(pt *point, x float64, shrink bool) (cand, error) {
+		evals++
+		return sr.judge(pt, x, shrink)
+	}
+	grid := sr.gridPoints()
+	step := sr.gridStep()
+
+	var seed *cand
+	switch {
+	case p.Spec.MaxNoiseGain > 0:
+		res.NoiseBound = p.Spec.MaxNoiseGain
+	case p.Ctrl.Form.HasIntegral():
+		// The default bound: the noise gain of the knee of the trade-off.
+		knee, ok, err := sr.maximize(grid, step, judge, sr.perNoisePower(), nil)
+		if err != nil {
+			return res, err
+		}
+		if ok {
+			res.NoiseBound = knee.noise * (1 + 1e-9)
+			sr.noiseB = res.NoiseBound
+			// The designs passed so far were judged without the bound;
+			// the knee is within it.
+			sr.bestOK, sr.haveOK = knee, true
+			seed = &knee
+		}
+	}
+	best, ok, err := sr.maximize(grid, step, judge, sr.loadGain(), seed)
+	if err != nil {
+		return res, err
+	}
+	res.Evaluations = evals
+	if !ok {
+		if !sr.haveClosest {
+			res.Fails = sr.shut
+			return res, nil
+		}
+		res.Ctrl = sr.closest.ctrl
+		res.Fails = sr.closest.fails
+		if !math.IsInf(sr.reach, 1) {
+			res.Reach = sr.reach
+		}
+		return res, nil
+	}
+	best, err = sr.quietest(best, step, judge)
+	if err != nil {
+		return res, err
+	}
+	res.Evaluations = evals
+	res.Ctrl, res.Met = best.ctrl, true
+	if sr.ratioB > 0 {
+		res.NoiseBound = sr.ratioB * best.gain
+	}
+	return res, nil
+}
+
+type judgeFunc func(pt *point, x float64, shrink bool) (cand, error)
+
+// objective scores a passing design: the search keeps the largest score.
+// upper bounds the score of any design on the shape pt (at most its
+// frequency-checks gain xf, at least its noise gain at x → 0).
+type objective struct {
+	score func(c cand) float64
+	upper func(pt *point) float64
+}
+
+// loadGain is the design objective: the load-rejection gain.
+func (sr *searcher) loadGain() objective {
+	return objective{
+		score: func(c cand) float64 { return c.gain },
+		upper: func(pt *point) float64 { return sr.fam.gain(pt.th, pt.xf) },
+	}
+}
+
+// perNoisePower scores the load-rejection gain per unit of noise power,
+// J/N²: the default noise bound of a form with an integral is the noise
+// gain of the design that maximizes it (see KneeNoise).
+func (sr *searcher) perNoisePower() objective {
+	return objective{
+		score: func(c cand) float64 { return c.gain / (c.noise * c.noise) },
+		upper: func(pt *point) float64 { return sr.fam.gain(pt.th, pt.xf) / (pt.noise0 * pt.noise0) },
+	}
+}
+
+// maximize finds the passing design of the largest score: the grid's
+// shapes in order of their upper bound, judged until no remaining shape
+// could beat the best, then (when none passes) a search down the
+// violation from the closest shape, then a pattern search up from the
+// best.
+func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, obj objective, seed *cand) (cand, bool, error) {
+	var pts []*point
+	for _, u := range grid {
+		pt := sr.screen(u)
+		if pt.xf > 0 {
+			pts = append(pts, pt)
+		} else if !slices.Contains(sr.shut, pt.why) {
+			sr.shut = append(sr.shut, pt.why)
+		}
+	}
+	slices.SortStableFunc(pts, func(a, b *point) int { return cmpFloat(obj.upper(b), obj.upper(a)) })
+	var best cand
+	have := false
+	if seed != nil {
+		best, have = *seed, true
+	}
+	for _, pt := range pts {
+		if have && obj.upper(pt) <= obj.score(best) {
+			break
+		}
+		c, err := judge(pt, pt.xf, true)
+		if err != nil {
+			return best, false, err
+		}
+		if c.ok && (!have || obj.score(c) > obj.score(best)) {
+			best, have = c, true
+		}
+	}
+	if !have {
+		// No shape of the grid passes: the feasible set, if any, is small.
+		// Search down the violation from the closest shape, and again from
+		// where that search ends when it stalls (a few rounds).
+		for round := 0; round < 3 && !sr.haveOK; round++ {
+			if !sr.haveClosest || sr.closest.pt == nil {
+				return best, false, nil
+			}
+			cl := sr.closest
+			start := cl.viol
+			err := sr.pattern(cl.pt.u, step, func(u []float64) (bool, error) {
+				if sr.haveOK {
+					return false, nil
+				}
+				pt := sr.screen(u)
+				c, err := judge(pt, pt.xf, true)
+				if err != nil || !(c.viol < cl.viol) {
+					return false, err
+				}
+				cl = c
+				return true, nil
+			})
+			if err != nil {
+				return best, false, err
+			}
+			if !(sr.closest.viol < start) {
+				break
+			}
+		}
+		if !sr.haveOK {
+			return best, false, nil
+		}
+		best, have = sr.bestOK, true
+	}
+	err := sr.pattern(best.pt.u, step, func(u []float64) (bool, error) {
+		pt := sr.screen(u)
+		if !(pt.xf > 0) || obj.upper(pt) <= obj.score(best)*(1+1e-6) {
+			return false, nil
+		}
+		c, err := judge(pt, pt.xf, true)
+		if err != nil || !c.ok || obj.score(c) <= obj.score(best)*(1+1e-6) {
+			return false, err
+		}
+		best = c
+		return true, nil
+	})
+	return best, true, err
+}
+
+// quietest applies the tie-break: among designs whose gain is at least
+// (1 − NearBest) of the best, the least noise gain, by a pattern search
+// over the shape with the gain held at that floor.
+func (sr *searcher) quietest(best cand, step []float64, judge judgeFunc) (cand, error) {
+	floor := (1 - NearBest) * best.gain
+	at := func(pt *point) (float64, bool) {
+		// The x that gives the floor's gain on this shape.
+		g1 := sr.fam.gain(pt.th, 1)
+		if !(g1 > 0) {
+			return 0, false
+		}
+		x := floor / g1
+		return x, x <= pt.xf
+	}
+	// The best shape itself at the floor's gain.
+	if x, ok := at(best.pt); ok {
+		c, err := judge(best.pt, x, false)
+		if err != nil {
+			return best, err
+		}
+		if c.ok && c.noise <= best.noise {
+			best = c
+		}
+	}
+	err := sr.pattern(best.pt.u, step, func(u []float64) (bool, error) {
+		pt := sr.screen(u)
+		x, ok := at(pt)
+		if !ok {
+			return false, nil
+		}
+		// The noise gain barely depends on x; a shape that is not
+		// quieter at its largest x is not worth a judgment.
+		sr.basis(pt.th)
+		if _, _, n := sr.freqFigures(x); n >= best.noise*(1-1e-6) {
+			return false, nil
+		}
+		c, err := judge(pt, x, false)
+		if err != nil || !c.ok || c.noise >= best.noise*(1-1e-6) {
+			return false, err
+		}
+		best = c
+		return true, nil
+	})
+	return best, err
+}
+
+// pattern runs a compass search from u: it tries each parameter a step up
+// and down (the steps start at half the grid's spacing), moves on the
+// first improvement (try reports one), and halves the steps when none
+// improves, down to nearStep decades.
+func (sr *searcher) pattern(u []float64, grid []float64, try func(u []float64) (bool, error)) error {
+	if len(u) == 0 {
+		return nil
+	}
+	cur := slices.Clone(u)
+	h := make([]float64, len(u))
+	for d := range h {
+		h[d] = grid[d] / 2
+	}
+	for iter := 0; iter < 400; iter++ {
+		moved := false
+		for _, dir := range directions(len(cur)) {
+			v := slices.Clone(cur)
+			for d := range v {
+				v[d] += dir[d] * h[d]
+			}
+			ok, err := try(v)
+			if err != nil {
+				return err
+			}
+			if ok {
+				cur, moved = v, true
+				break
+			}
+		}
+		if moved {
+			continue
+		}
+		small := true
+		for d := range h {
+			h[d] /= 2
+			if h[d] >= nearStep {
+				small = false
+			}
+		}
+		if small {
+			return nil
+		}
+	}
+	return nil
+}
+
+// directions are the moves of the pattern search: each parameter up and
+// down, and in two dimensions the four diagonals, which follow a ridge
+// that runs across the axes.
+func directions(n int) [][]float64 {
+	var ds [][]float64
+	for d := 0; d < n; d++ {
+		for _, sgn := range []float64{1, -1} {
+			v := make([]float64, n)
+			v[d] = sgn
+			ds = append(ds, v)
+		}
+	}
+	if n == 2 {
+		ds = append(ds, []float64{1, 1}, []float64{1, -1}, []float64{-1, 1}, []float64{-1, -1})
+	}
+	return ds
+}
+
+func cmpFloat(a, b float64) int {
+	switch {
+	case a < b:
+		return -1
+	case a > b:
+		return 1
+	}
+	return 0
+}
