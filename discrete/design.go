@@ -81,7 +81,7 @@ func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Des
 	// short by a hair gives up a little of its load-rejection gain.
 	if cd.Met && cd.Refined {
 		for i := 0; i < 8 && !d.envelopeOK(); i++ {
-			cd.Ctrl = shrink(cd.Ctrl, 0.98)
+			cd.Ctrl = shrink(cd.Ctrl, 0.98).Snap()
 			if cd.Stage, err = synth.Restage(p, cd.Stage, cd.Ctrl); err != nil {
 				return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 			}
@@ -258,4 +258,29 @@ func (d *Design) DropTraces() {
 		q.Y, q.U = last(q.Y), last(q.U)
 		q.Saturated.Y, q.Saturated.YNone, q.Saturated.U, q.Saturated.UNone = last(q.Saturated.Y), last(q.Saturated.YNone), last(q.Saturated.U), last(q.Saturated.UNone)
 	}
+}
+
+// Assess verifies the controller c (with its setpoint weight) on the
+// sampled loop of p over the envelope, as the design's final
+// verification does, and returns the checks against the spec, each with
+// the plant where it is worst; nb is the noise-gain bound (+Inf: none).
+// It is the judge of a design found some other way: a reference search,
+// a hand tuning.
+func Assess(p airframe.Axis, loop airframe.Loop, c synth.Controller, nb float64) ([]synth.Check, error) {
+	if !(loop.Hz > 0) || math.IsInf(loop.Hz, 0) {
+		return nil, fmt.Errorf("loop rate %g Hz: must be finite and > 0", loop.Hz)
+	}
+	L, err := NewLoops(p, loop)
+	if err != nil {
+		return nil, err
+	}
+	cd := &synth.Design{Problem: p, Refined: true, Met: true}
+	cd.Ctrl = c
+	cd.Verif.Margins.Crossover = synth.Crossover(p, c)
+	cd.Search.NoiseBound = nb
+	d := &Design{Problem: p, Loop: loop, Numeric: airframe.Numeric{Type: airframe.Float64}, Cont: cd, Plant: L.Plant(0), loops: L}
+	if err := d.realize(); err != nil {
+		return nil, err
+	}
+	return d.checks(), nil
 }

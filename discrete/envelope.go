@@ -234,7 +234,12 @@ func cornerFigures(p airframe.Axis, c airframe.Corner, pl Plant, k Coeffs, d int
 func worstOf(fs []CornerFigures, upper bool, val func(f CornerFigures) float64) (float64, airframe.Corner) {
 	w, at := math.NaN(), airframe.Nominal()
 	for i, f := range fs {
-		v := val(f)
+		// Compared at ten digits, so that the worst plant of two equal
+		// figures is the same on every CPU (the first of them).
+		v := snap10(val(f))
+		if math.Abs(v) < 1e-12 {
+			v = 0 // rounding residue (a steady error of 1e−16)
+		}
 		if i == 0 || math.IsNaN(v) && !math.IsNaN(w) || !math.IsNaN(v) && !math.IsNaN(w) && (upper && v > w || !upper && v < w) {
 			w, at = v, f.Corner
 		}
@@ -254,6 +259,9 @@ func (d *Design) checks() []synth.Check {
 	var cs []synth.Check
 	add := func(name string, limit float64, upper bool, val func(f CornerFigures) float64) {
 		v, at := worstOf(env, upper, val)
+		// Ten digits: the verdict must not turn on the last bits of a
+		// figure, which differ between CPUs (fused multiply-adds).
+		v = snap10(v)
 		ok := allStable && !math.IsNaN(v) && (upper && v <= limit || !upper && v >= limit)
 		cs = append(cs, synth.Check{Name: name, Limit: limit, Value: v, Upper: upper, OK: ok, Worst: at})
 	}
@@ -287,8 +295,9 @@ func (d *Design) checks() []synth.Check {
 		add("disturbance_recovery", s.DisturbanceRecovery, true, func(f CornerFigures) float64 { return f.Disturbance.Recovery })
 	}
 	if nb := d.noiseBound(); !math.IsInf(nb, 1) {
-		cs = append(cs, synth.Check{Name: "noise_gain", Limit: nb, Value: d.NoiseGain, Upper: true,
-			OK: d.NoiseGain <= nb*(1+noiseSlack), Worst: airframe.Nominal()})
+		ng := snap10(d.NoiseGain)
+		cs = append(cs, synth.Check{Name: "noise_gain", Limit: nb, Value: ng, Upper: true,
+			OK: ng <= nb*(1+noiseSlack), Worst: airframe.Nominal()})
 	}
 	return cs
 }

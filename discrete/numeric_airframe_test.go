@@ -92,8 +92,8 @@ func TestOverRangedAirframe(t *testing.T) {
 	t.Fatal("no pitch axis")
 }
 
-// TestCoarseFullScaleAirframe: the gimbal with a 500 rad/s input full
-// scale (LSB 0.015 rad/s) cannot resolve the settling band of its
+// TestCoarseFullScaleAirframe: the gimbal with a 2000 rad/s input full
+// scale (LSB 0.061 rad/s) cannot resolve the settling band of its
 // reference step: an input error naming numeric.input_full_scale.
 func TestCoarseFullScaleAirframe(t *testing.T) {
 	data, err := os.ReadFile("testdata/overranged_q15.toml")
@@ -101,7 +101,7 @@ func TestCoarseFullScaleAirframe(t *testing.T) {
 		t.Fatal(err)
 	}
 	src := string(data)
-	for _, r := range [][2]string{{"input_full_scale = 10.0", "input_full_scale = 500.0"}, {"integrator_limit = 2.0e5", "integrator_limit = 1.0"}} {
+	for _, r := range [][2]string{{"input_full_scale = 10.0", "input_full_scale = 2000.0"}, {"integrator_limit = 2.0e5", "integrator_limit = 1.0"}} {
 		if !strings.Contains(src, r[0]) {
 			t.Fatalf("testdata lacks %q", r[0])
 		}
@@ -113,7 +113,7 @@ func TestCoarseFullScaleAirframe(t *testing.T) {
 	}
 	_, err = discrete.DesignAxis(f.Axes[0], f.Loop, f.Numeric)
 	var ie *discrete.InputError
-	if !errors.As(err, &ie) || ie.Key != "numeric.input_full_scale" || ie.Value != "500" {
+	if !errors.As(err, &ie) || ie.Key != "numeric.input_full_scale" || ie.Value != "2000" {
 		t.Fatalf("error %v, want an input error on numeric.input_full_scale", err)
 	}
 }

@@ -410,7 +410,7 @@ func TestNumericInputErrors(t *testing.T) {
 		key  string
 		msg  string
 	}{
-		{"input full scale too coarse", airframe.Numeric{Type: airframe.Q15, InputFullScale: 5000, OutputFullScale: 1}, "numeric.input_full_scale", "bits (< 4) of resolution"},
+		{"input full scale too coarse", airframe.Numeric{Type: airframe.Q15, InputFullScale: 20000, OutputFullScale: 1}, "numeric.input_full_scale", "bits (< 4) of resolution"},
 		{"output full scale too coarse", airframe.Numeric{Type: airframe.Q15, InputFullScale: 100, OutputFullScale: 2000}, "numeric.output_full_scale", "bits (< 4) of command resolution"},
 		{"limit beyond output full scale", airframe.Numeric{Type: airframe.Q31, InputFullScale: 100, OutputFullScale: 0.5}, "numeric.output_full_scale", "cannot hold the limit"},
 		{"zero full scale", airframe.Numeric{Type: airframe.Q15, InputFullScale: 0, OutputFullScale: 1}, "numeric.input_full_scale", "finite number > 0"},
@@ -429,20 +429,20 @@ func TestNumericInputErrors(t *testing.T) {
 			t.Errorf("%s: %v", tc.name, err)
 		}
 	}
-	// The 5000 rad/s q15 case in numbers: LSB 5000/2^15 ≈ 0.15, against
+	// The 20000 rad/s q15 case in numbers: LSB 20000/2^15 ≈ 0.61, against
 	// the settling band of the reference step (common practice: a 4-bit
 	// margin is 16 LSB).
-	d, err := DesignAxis(base, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Q31, InputFullScale: 5000, OutputFullScale: 1})
+	d, err := DesignAxis(base, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Q31, InputFullScale: 20000, OutputFullScale: 1})
 	if err != nil {
 		t.Fatal(err)
 	}
 	re := d.Num
-	want := math.Log2(base.Spec.Band * re.ReferenceStep / (5000 / math.Ldexp(1, 31)))
+	want := math.Log2(base.Spec.Band * re.ReferenceStep / (20000 / math.Ldexp(1, 31)))
 	if math.Abs(re.InputResolutionBits-want) > 1e-12 || want-16 >= 4 {
 		t.Errorf("q31 resolution %g bits, want %g (and below 4 bits at q15)", re.InputResolutionBits, want)
 	}
-	if lin := d.Verif.Saturated.LinearPeakCommand; math.Abs(re.ReferenceStep-math.Min(1/lin, 5000)) > 1e-12*re.ReferenceStep {
-		t.Errorf("reference step %g, want min(|limit|/peak, full scale) = %g", re.ReferenceStep, math.Min(1/lin, 5000))
+	if lin := d.Verif.Saturated.LinearPeakCommand; math.Abs(re.ReferenceStep-math.Min(1/lin, 20000)) > 1e-12*re.ReferenceStep {
+		t.Errorf("reference step %g, want min(|limit|/peak, full scale) = %g", re.ReferenceStep, math.Min(1/lin, 20000))
 	}
 }
 

@@ -37,8 +37,9 @@ func SpecChecks(s airframe.Spec, stable bool, maxRe, overshoot, settling, pm, gm
 }
 
 // String states a check in one line with its units, as the table and
-// the generated code's header list a failed one:
-// "overshoot 12.5 % > 10 % (sampled loop)".
+// the generated code's header list a failed one, naming the plant of the
+// envelope where the value is worst when that is not the nominal plant:
+// "overshoot 12.5 % > 10 % (sampled loop, gain ×1.1)".
 func (c Check) String() string {
 	rel := "<"
 	switch {
@@ -48,17 +49,49 @@ func (c Check) String() string {
 		rel = ">"
 	}
 	what := map[string]string{
-		"stable":        "sampled loop unstable: max |z|",
-		"sampling":      "fastest dynamics / Nyquist",
-		"overshoot":     "overshoot",
-		"settling_time": "settling time",
-		"phase_margin":  "phase margin",
-		"gain_margin":   "gain margin",
+		"stable":               "sampled loop unstable: max |z|",
+		"sampling":             "fastest dynamics / Nyquist",
+		"overshoot":            "overshoot",
+		"settling_time":        "settling time",
+		"phase_margin":         "phase margin",
+		"gain_margin":          "gain margin",
+		"max_sensitivity":      "sensitivity peak Ms",
+		"steady_error":         "steady-state error",
+		"hold_rate":            "holdable rate",
+		"disturbance_recovery": "load-disturbance recovery",
+		"noise_gain":           "noise gain (command per rad/s)",
 	}[c.Name]
 	if what == "" {
 		what = c.Name
 	}
-	return fmt.Sprintf("%s %s %s %s (sampled loop)", what, CheckValue(c.Name, c.Value), rel, CheckValue(c.Name, c.Limit))
+	where := "sampled loop"
+	if c.Worst != (airframe.Corner{}) && c.Worst != airframe.Nominal() {
+		where += ", " + CornerText(c.Worst)
+	}
+	return fmt.Sprintf("%s %s %s %s (%s)", what, CheckValue(c.Name, c.Value), rel, CheckValue(c.Name, c.Limit), where)
+}
+
+// CornerText names a plant of the envelope by what moves it from the
+// nominal plant, "gain ×0.9, delay +0.001 s", or "nominal plant".
+func CornerText(c airframe.Corner) string {
+	var parts []string
+	if c.GainScale != 1 && c.GainScale != 0 {
+		parts = append(parts, "gain ×"+G4(c.GainScale))
+	}
+	if c.LagScale != 1 && c.LagScale != 0 {
+		parts = append(parts, "lag ×"+G4(c.LagScale))
+	}
+	if c.DelayAdd != 0 {
+		sign := "+"
+		if c.DelayAdd < 0 {
+			sign = "-" // as G4 writes a negative number
+		}
+		parts = append(parts, "delay "+sign+G4(math.Abs(c.DelayAdd))+" s")
+	}
+	if len(parts) == 0 {
+		return "nominal plant"
+	}
+	return strings.Join(parts, ", ")
 }
 
 // CheckValue formats a value or limit of the check named name in its
@@ -85,7 +118,21 @@ func CheckValue(name string, v float64) string {
 		return finiteOr(v, func(v float64) string { return G4(v) + "°" })
 	case "gain_margin":
 		return finiteOr(v, func(v float64) string { return G4(v) + " dB" })
+	case "steady_error":
+		// A fraction of the setpoint, like the overshoot.
+		return finiteOr(v, func(v float64) string {
+			if math.Abs(v) < 1e-9 {
+				v = 0
+			}
+			return G4(100*v) + " %"
+		})
+	case "hold_rate":
+		return finiteOr(v, func(v float64) string { return G4(v) + " rad/s" })
+	case "disturbance_recovery":
+		return finiteOr(v, func(v float64) string { return G4(v) + " s" })
 	}
+	// max_sensitivity (Ms, dimensionless), noise_gain (command per
+	// rad/s, a unit too long for a table cell) and sampling: plain.
 	return G4(v)
 }
 

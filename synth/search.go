@@ -62,15 +62,14 @@ const KneeNoise = "Ki/N²"
 
 // NoiseRatio is the default noise bound of the forms without an integral
 // (p, pd, lead), relative to their load-rejection gain J (Kp, or C(0)):
-// the noise gain at most ten times J. For a lead it is the classic limit
-// of the lead ratio p/z ≤ 10, beyond which the compensator buys little
-// phase for much noise (Franklin, Powell & Emami-Naeini, lead design;
-// from memory); for a pd it keeps Kd/Tf ≤ 9·Kp, the derivative gain
-// limit of 10 that is usual practice (Åström & Hägglund, Advanced PID
-// Control, N of 8 to 20; from memory). A p has N = J and is not bounded.
-// A knee like KneeNoise's does not exist for these forms: J and N grow
-// together.
-const NoiseRatio = 10
+// the noise gain at most twenty times J. For a pd it keeps the derivative
+// gain limit N = Td/Tf within the usual range of 8 to 20 (Åström &
+// Hägglund, Advanced PID Control, the derivative filter; from memory),
+// Kd/Tf ≤ 19·Kp; for a lead it bounds the lead ratio p/z by the same
+// twenty, beyond which a lead buys little phase for much noise (common
+// practice). A p has N = J and is not bounded. A knee like KneeNoise's
+// does not exist for these forms: J and N grow together.
+const NoiseRatio = 20
 
 // unboundedMs is the sensitivity bound of the search when the spec gives
 // none: |1 + L| ≥ 1/20, a distance from −1 that only stops the line of x
@@ -130,10 +129,15 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 				return c
 			}}
 	case airframe.FormPD:
-		return family{ref: []float64{g0 / w0}, lo: []float64{-2.5}, hi: []float64{1.5}, steps: []int{25}, xRef: g0, gain: one,
+		// θ = ρ, the derivative's share of the high-frequency gain,
+		// Kd = ρ·Tf·Kp: the controller Kp·(1 + ρ·Tf·s/(Tf·s + 1)) is
+		// linear in x = Kp, and its noise gain relative to Kp depends on
+		// ρ alone.
+		tf := p.Ctrl.Tf()
+		return family{ref: []float64{1}, lo: []float64{-2}, hi: []float64{2}, steps: []int{25}, xRef: g0, gain: one,
 			ctrl: func(th []float64, x float64) Controller {
 				c := base
-				c.Kd, c.Kp = th[0], x
+				c.Kp, c.Kd = x, th[0]*tf*x
 				return c
 			}}
 	case airframe.FormLead:
@@ -316,7 +320,7 @@ func (sr *searcher) msBound() (float64, bool) {
 			xmax = math.Min(xmax, x1)
 		}
 	}
-	return xmax, true
+	return snap(xmax), true
 }
 
 // freqFigures computes, for C = A + x·B on the grid, the worst phase and
@@ -395,6 +399,7 @@ func gridMargins(w []float64, c, P []complex128) (pm, gm float64, kc int) {
 func (sr *searcher) freqOK(x float64) (bool, float64, string) {
 	s := sr.p.Spec
 	pm, gm, noise := sr.freqFigures(x)
+	pm, gm, noise = snap(pm), snap(gm), snap(noise)
 	v, why := 0.0, ""
 	if s.MinPhaseMargin > 0 && !(pm >= s.MinPhaseMargin) {
 		v += relShort(pm, s.MinPhaseMargin)
@@ -464,7 +469,10 @@ func (sr *searcher) screen(u []float64) *point {
 		}
 		x = lo
 	}
-	pt.xf = x
+	// Ten digits: the last bits of x depend on the CPU (fused
+	// multiply-adds), and the search must take the same path everywhere.
+	pt.xf = snap(x)
+	x = pt.xf
 	_, _, pt.noise = sr.freqFigures(x)
 	_, _, pt.noise0 = sr.freqFigures(x * 1e-6)
 	return pt
@@ -868,6 +876,8 @@ func timeViolation(s airframe.Spec, stable bool, st lti.StepInfo) float64 {
 	if !stable || math.IsNaN(st.Overshoot) || math.IsNaN(st.Settling) {
 		return math.Inf(1)
 	}
+	// Ten digits, as the search's other figures (see screen).
+	st.Overshoot, st.Settling = snap(st.Overshoot), snap(st.Settling)
 	v := math.Max(0, st.Overshoot/s.Overshoot-1) + math.Max(0, st.Settling/s.SettlingTime-1)
 	if !st.Settled {
 		v += 1
@@ -935,28 +945,31 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 	grid := sr.gridPoints()
 	step := sr.gridStep()
 
-	var seed *cand
+	var best cand
+	ok := false
 	switch {
 	case p.Spec.MaxNoiseGain > 0:
 		res.NoiseBound = p.Spec.MaxNoiseGain
 	case p.Ctrl.Form.HasIntegral():
-		// The default bound: the noise gain of the knee of the trade-off.
-		knee, ok, err := sr.maximize(grid, step, judge, sr.perNoisePower(), nil)
+		// The default bound is the noise gain of the knee of the
+		// trade-off, and the knee's design is also the design of the
+		// largest Ki under that bound: a design of more Ki and no more
+		// noise would have a larger Ki/N². So the knee is the design.
+		knee, found, err := sr.maximize(grid, step, judge, sr.perNoisePower(), nil)
 		if err != nil {
 			return res, err
 		}
-		if ok {
+		if found {
 			res.NoiseBound = knee.noise * (1 + 1e-9)
 			sr.noiseB = res.NoiseBound
-			// The designs passed so far were judged without the bound;
-			// the knee is within it.
-			sr.bestOK, sr.haveOK = knee, true
-			seed = &knee
+			best, ok = knee, true
 		}
 	}
-	best, ok, err := sr.maximize(grid, step, judge, sr.loadGain(), seed)
-	if err != nil {
-		return res, err
+	if !ok {
+		var err error
+		if best, ok, err = sr.maximize(grid, step, judge, sr.loadGain(), nil); err != nil {
+			return res, err
+		}
 	}
 	res.Evaluations = evals
 	if !ok {
@@ -971,12 +984,12 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		}
 		return res, nil
 	}
-	best, err = sr.quietest(best, step, judge)
+	best, err := sr.quietest(best, step, judge)
 	if err != nil {
 		return res, err
 	}
 	res.Evaluations = evals
-	res.Ctrl, res.Met = best.ctrl, true
+	res.Ctrl, res.Met = best.ctrl.Snap(), true
 	if sr.ratioB > 0 {
 		res.NoiseBound = sr.ratioB * best.gain
 	}
@@ -1155,6 +1168,9 @@ func (sr *searcher) pattern(u []float64, grid []float64, try func(u []float64) (
 	for iter := 0; iter < 400; iter++ {
 		moved := false
 		for _, dir := range directions(len(cur)) {
+			if moved {
+				break
+			}
 			v := slices.Clone(cur)
 			for d := range v {
 				v[d] += dir[d] * h[d]
@@ -1165,7 +1181,6 @@ func (sr *searcher) pattern(u []float64, grid []float64, try func(u []float64) (
 			}
 			if ok {
 				cur, moved = v, true
-				break
 			}
 		}
 		if moved {

@@ -11,7 +11,9 @@ import (
 	"strconv"
 	"strings"
 
+	"locusmith/airframe"
 	"locusmith/discrete"
+	"locusmith/synth"
 )
 
 // Comparison is what changed between two versions of an airframe file:
@@ -39,8 +41,10 @@ type InputChange struct {
 // ResultChange is one figure of the design that differs, as the JSON
 // report of `design --json` writes it (ten significant digits). Key is
 // the report's path below the axis, e.g. "discrete.phase_margin_deg";
-// "checks.overshoot.ok" for a check, "warnings" for a warning that
-// appeared or went. Regression says the change is for the worse by more
+// "checks.overshoot.ok" for a check, "envelope.corners.(gain ×0.9).
+// overshoot" for a figure at a plant of the envelope,
+// "envelope.worst.overshoot" for its worst over the envelope's plants,
+// "warnings" for a warning that appeared or went. Regression says the change is for the worse by more
 // than RegressionTolerance, and Why says how.
 type ResultChange struct {
 	Axis       string  `json:"axis"`
@@ -182,8 +186,11 @@ type axisResults struct {
 
 // flatResults flattens the JSON report of every axis of a: objects nest
 // into dotted paths, arrays of objects with a "name" are keyed by it
-// (checks, coefficients, ranges), other arrays (poles, limits) are kept
-// whole.
+// (checks, coefficients, ranges) and the envelope's plants by the plant
+// ("envelope.corners.(gain ×0.9).overshoot"), other arrays (poles,
+// limits) are kept whole. The nominal plant of the envelope is left out:
+// its figures are the discrete section's. The worst of each figure over
+// the envelope's plants is added as "envelope.worst.FIGURE".
 func flatResults(a *discrete.Airframe) (map[string]axisResults, error) {
 	rep := JSON([]*discrete.Airframe{a})
 	if len(rep.Airframes) != 1 {
@@ -207,6 +214,7 @@ func flatResults(a *discrete.Airframe) (map[string]axisResults, error) {
 		if _, ok := tree["numeric"]; !ok {
 			addNumeric(a, ax.Axis, vals)
 		}
+		addWorst(ax.Envelope, vals)
 		out[ax.Axis] = axisResults{vals: vals, warnings: warnings}
 	}
 	return out, nil
@@ -235,6 +243,38 @@ func addNumeric(a *discrete.Airframe, axis string, vals map[string]string) {
 	}
 }
 
+// addWorst adds the worst of each figure over the envelope's plants: the
+// largest overshoot, settling time and Ms, the least margins. These are
+// what compare judges the envelope by, once per figure, rather than
+// plant by plant (a change of the design moves every plant alike).
+func addWorst(e *EnvelopeReport, vals map[string]string) {
+	if e == nil {
+		return
+	}
+	type figure struct {
+		name  string
+		upper bool // larger is worse
+		get   func(c CornerReport) *float64
+	}
+	for _, f := range []figure{
+		{"overshoot", true, func(c CornerReport) *float64 { return c.Overshoot }},
+		{"settling_time", true, func(c CornerReport) *float64 { return c.SettlingTime }},
+		{"phase_margin_deg", false, func(c CornerReport) *float64 { return c.PhaseMarginDeg }},
+		{"gain_margin_db", false, func(c CornerReport) *float64 { return c.GainMarginDB }},
+		{"max_sensitivity", true, func(c CornerReport) *float64 { return c.MaxSensitivity }},
+	} {
+		var w *float64
+		for _, c := range e.Corners {
+			if v := f.get(c); v != nil && (w == nil || f.upper && *v > *w || !f.upper && *v < *w) {
+				w = v
+			}
+		}
+		if w != nil {
+			vals["envelope.worst."+f.name] = num10(*w)
+		}
+	}
+}
+
 // num10 writes x with the report's ten significant digits.
 func num10(x float64) string {
 	if math.IsNaN(x) || math.IsInf(x, 0) {
@@ -257,14 +297,15 @@ func flattenJSON(prefix string, v any, out map[string]string) {
 			flattenJSON(join(k), e, out)
 		}
 	case []any:
+		keys := make([]string, len(x))
 		named := len(x) > 0
-		for _, e := range x {
+		for i, e := range x {
 			m, ok := e.(map[string]any)
 			if !ok {
 				named = false
 				break
 			}
-			if _, ok := m["name"].(string); !ok {
+			if keys[i], ok = elementKey(m); !ok {
 				named = false
 				break
 			}
@@ -274,12 +315,13 @@ func flattenJSON(prefix string, v any, out map[string]string) {
 			out[prefix] = string(b)
 			return
 		}
-		for _, e := range x {
-			m := e.(map[string]any)
-			name := m["name"].(string)
-			for k, f := range m {
-				if k != "name" {
-					flattenJSON(join(name+"."+k), f, out)
+		for i, e := range x {
+			if keys[i] == nominalKey {
+				continue
+			}
+			for k, f := range e.(map[string]any) {
+				if !elementField(k) {
+					flattenJSON(join(keys[i]+"."+k), f, out)
 				}
 			}
 		}
@@ -287,6 +329,35 @@ func flattenJSON(prefix string, v any, out map[string]string) {
 		b, _ := json.Marshal(x)
 		out[prefix] = string(b)
 	}
+}
+
+// nominalKey is the key of the envelope's nominal plant.
+const nominalKey = "(nominal plant)"
+
+// elementKey returns what names an element of a report array: its "name"
+// (a check, a coefficient, a range), or the plant of an envelope corner,
+// "(gain ×0.9, delay +0.001 s)".
+func elementKey(m map[string]any) (string, bool) {
+	if n, ok := m["name"].(string); ok {
+		return n, true
+	}
+	g, ok1 := m["gain_scale"].(float64)
+	l, ok2 := m["lag_scale"].(float64)
+	d, ok3 := m["delay_add"].(float64)
+	if !ok1 || !ok2 || !ok3 {
+		return "", false
+	}
+	return "(" + synth.CornerText(airframe.Corner{GainScale: g, LagScale: l, DelayAdd: d}) + ")", true
+}
+
+// elementField reports whether k is a field that names its element
+// rather than a figure of it.
+func elementField(k string) bool {
+	switch k {
+	case "name", "gain_scale", "lag_scale", "delay_add":
+		return true
+	}
+	return false
 }
 
 func diffResults(o, n map[string]axisResults) []ResultChange {
@@ -336,6 +407,13 @@ func diffResults(o, n map[string]axisResults) []ResultChange {
 				ch.New = str(nv)
 			}
 			ch.Regression, ch.Why = regression(k, ch.Old, ch.New)
+			if plant, ok := cornerPrefix(k); ok {
+				// A plant the envelope no longer holds has no figures to
+				// be worse: the envelope changed (an input).
+				if _, kept := an.vals[plant+".stable"]; !kept {
+					ch.Regression, ch.Why = false, "plant no longer in the envelope"
+				}
+			}
 			out = append(out, ch)
 		}
 		for _, w := range ao.warnings {
@@ -353,6 +431,16 @@ func diffResults(o, n map[string]axisResults) []ResultChange {
 }
 
 func str(s string) *string { return &s }
+
+// cornerPrefix returns the key of the envelope plant that key is a figure
+// of, "envelope.corners.(gain ×0.9)".
+func cornerPrefix(key string) (string, bool) {
+	if !strings.HasPrefix(key, "envelope.corners.(") {
+		return "", false
+	}
+	i := strings.LastIndexByte(key, '.')
+	return key[:i], true
+}
 
 // regression classifies a changed figure by its key:
 //
@@ -390,12 +478,25 @@ func regression(key string, oldV, newV *string) (bool, string) {
 		// placement is not the design.
 		return false, ""
 	}
+	switch {
+	case strings.HasPrefix(key, "envelope.corners."):
+		// Listed plant by plant, judged by the worst over the plants.
+		return false, ""
+	case strings.HasPrefix(key, "envelope.") && !strings.HasPrefix(key, "envelope.worst."):
+		// The envelope's intervals are inputs.
+		return false, ""
+	}
+	if leaf == "hold_rate" && newV == nil {
+		// Absent: unbounded, or no integrator to hold with.
+		return false, ""
+	}
 	higherBetter := map[string]string{
 		"phase_margin_deg": "phase margin down",
 		"gain_margin_db":   "gain margin down",
 		"delay_margin":     "delay margin down",
 		"stability_margin": "stability margin (1 − max|z|) down",
 		"headroom_bits":    "headroom down",
+		"hold_rate":        "holdable rate down",
 	}
 	lowerBetter := map[string]string{
 		"overshoot":                   "overshoot up",
@@ -403,14 +504,30 @@ func regression(key string, oldV, newV *string) (bool, string) {
 		"recovery_time":               "recovery after saturation slower",
 		"overshoot_no_antiwindup":     "",
 		"recovery_time_no_antiwindup": "",
+		"max_sensitivity":             "sensitivity peak Ms up",
+		"max_complementary":           "complementary sensitivity peak Mt up",
+		"noise_gain":                  "noise gain up",
+		"peak":                        "load-disturbance peak up",
+		"iae":                         "load-disturbance IAE up",
 	}
-	if why, ok := higherBetter[leaf]; ok {
-		return worse(oldV, newV, +1, why)
+	if strings.Contains(key, "disturbance.") {
+		// The load step is an input; its recovery is not the saturated
+		// step's.
+		lowerBetter["step"], lowerBetter["recovery_time"] = "", "load-disturbance recovery slower"
 	}
-	if why, ok := lowerBetter[leaf]; ok && why != "" {
-		return worse(oldV, newV, -1, why)
+	why, dir := "", 0.0
+	if w, ok := higherBetter[leaf]; ok {
+		why, dir = w, +1
+	} else if w, ok := lowerBetter[leaf]; ok && w != "" {
+		why, dir = w, -1
 	}
-	return false, ""
+	if why == "" {
+		return false, ""
+	}
+	if strings.HasPrefix(key, "envelope.worst.") {
+		why += " (worst over the envelope)"
+	}
+	return worse(oldV, newV, dir, why)
 }
 
 // worse reports whether the number moved against dir (+1: higher is

@@ -102,13 +102,26 @@ func TestCompareFlagsMarginDrop(t *testing.T) {
 	}
 }
 
-// A spec the design can no longer meet makes a check newly fail.
+// A spec the design can no longer meet makes a check newly fail: which
+// one is the search's choice (it reports the closest design), so every
+// check that was ok and is not must be flagged under its own name, and
+// there must be one.
 func TestCompareFlagsNewlyFailingCheck(t *testing.T) {
 	strict := strings.Replace(compareDemo, "min_phase_margin = 40.0", "min_phase_margin = 89.0", 1)
 	c := compareTexts(t, compareDemo, strict)
-	r := findResult(c, "roll", "checks.phase_margin.ok")
-	if r == nil || !r.Regression || !strings.Contains(r.Why, "phase_margin newly fails") {
-		t.Fatalf("check not flagged: %+v\n%+v", r, c.Results)
+	failed := 0
+	for _, r := range c.Results {
+		name, ok := strings.CutSuffix(strings.TrimPrefix(r.Key, "checks."), ".ok")
+		if !strings.HasPrefix(r.Key, "checks.") || !ok || *r.Old != "true" {
+			continue
+		}
+		failed++
+		if !r.Regression || !strings.Contains(r.Why, "check "+name+" newly fails") {
+			t.Errorf("check %s: %+v, want a regression naming it", name, r)
+		}
+	}
+	if failed == 0 {
+		t.Fatalf("no check newly fails: %+v", c.Results)
 	}
 	if ok := findResult(c, "roll", "ok"); ok == nil || !ok.Regression {
 		t.Errorf("the axis's ok flag is not flagged: %+v", ok)
@@ -167,6 +180,23 @@ func TestRegressionRules(t *testing.T) {
 		{"continuous.kp", s("0.02"), s("0.03"), false},
 		{"textbook.overshoot", s("0.1"), s("0.3"), false},
 		{"discrete.saturated.settled", s("true"), s("false"), true},
+		{"discrete.max_sensitivity", s("1.5"), s("1.6"), true},
+		{"discrete.max_sensitivity", s("1.6"), s("1.5"), false},
+		{"discrete.max_complementary", s("1.2"), s("1.3"), true},
+		{"discrete.noise_gain", s("0.5"), s("0.6"), true},
+		{"discrete.hold_rate", s("13"), s("12"), true},
+		{"discrete.hold_rate", s("13"), nil, false}, // unbounded now
+		{"discrete.disturbance.peak", s("0.9"), s("1"), true},
+		{"discrete.disturbance.iae", s("0.06"), s("0.05"), false},
+		{"discrete.disturbance.recovery_time", s("0.18"), s("0.2"), true},
+		{"discrete.disturbance.recovery_time", s("0.18"), nil, true}, // never recovers now
+		{"discrete.disturbance.step", s("0.05"), s("0.1"), false},    // an input
+		{"envelope.gain_scale", s("[0.9,1.1]"), s("[0.8,1.2]"), false},
+		{"envelope.corners.(gain ×0.9).phase_margin_deg", s("41"), s("39"), false}, // judged by the worst
+		{"envelope.worst.phase_margin_deg", s("41"), s("39"), true},
+		{"envelope.worst.overshoot", s("0.09"), s("0.08"), false},
+		{"envelope.worst.max_sensitivity", s("1.5"), s("1.6"), true},
+		{"checks.overshoot.worst.gain_scale", s("0.9"), s("1.1"), false},
 	} {
 		if got, why := regression(c.key, c.old, c.new); got != c.want {
 			t.Errorf("%s %v → %v: regression %v (%s), want %v", c.key, deref(c.old), deref(c.new), got, why, c.want)
@@ -179,4 +209,64 @@ func deref(s *string) string {
 		return "(absent)"
 	}
 	return *s
+}
+
+// The reasons name what moved: the load step's recovery is not the
+// saturated step's, and the envelope's worst is not the nominal plant's.
+func TestRegressionReasons(t *testing.T) {
+	s := func(v string) *string { return &v }
+	if _, why := regression("discrete.disturbance.recovery_time", s("0.18"), s("0.2")); why != "load-disturbance recovery slower" {
+		t.Errorf("disturbance recovery: %q", why)
+	}
+	if _, why := regression("discrete.saturated.recovery_time", s("0.18"), s("0.2")); why != "recovery after saturation slower" {
+		t.Errorf("saturated recovery: %q", why)
+	}
+	if _, why := regression("envelope.worst.max_sensitivity", s("1.5"), s("1.6")); why != "sensitivity peak Ms up (worst over the envelope)" {
+		t.Errorf("worst over the envelope: %q", why)
+	}
+}
+
+// The envelope's plants are compared plant by plant, keyed by the plant,
+// the nominal one left to the discrete section, and by the worst of each
+// figure over the plants; a check's worst plant is listed under the
+// check.
+func TestCompareEnvelopeKeys(t *testing.T) {
+	r, err := flatResults(designText(t, "demo.toml", compareDemo))
+	if err != nil {
+		t.Fatal(err)
+	}
+	vals := r["roll"].vals
+	for _, k := range []string{"envelope.corners.(gain ×0.9).overshoot", "envelope.corners.(gain ×1.1).max_sensitivity",
+		"envelope.worst.overshoot", "envelope.worst.phase_margin_deg", "envelope.worst.max_sensitivity",
+		"envelope.corners.(gain ×0.95).stable", "envelope.gain_scale", "checks.overshoot.worst.gain_scale",
+		"discrete.max_sensitivity", "discrete.disturbance.peak"} {
+		if _, ok := vals[k]; !ok {
+			t.Errorf("key %q missing", k)
+		}
+	}
+	// The worst Ms is the largest over the plants (the check's own
+	// value, which is the worst by definition).
+	a := designText(t, "demo.toml", compareDemo)
+	for _, c := range a.Axes[0].Design.Checks {
+		if c.Name == "max_sensitivity" && vals["envelope.worst.max_sensitivity"] != num10(c.Value) {
+			t.Errorf("envelope.worst.max_sensitivity = %s, the check says %s", vals["envelope.worst.max_sensitivity"], num10(c.Value))
+		}
+	}
+	for k := range vals {
+		if k == "envelope.corners" || strings.Contains(k, "nominal") || strings.HasSuffix(k, ".gain_scale") && strings.HasPrefix(k, "envelope.corners.") {
+			t.Errorf("unexpected key %q", k)
+		}
+	}
+	// A change of the envelope changes the corners: the new plants are
+	// listed as added, with no regression for what did not exist before.
+	wider := strings.Replace(compareDemo, "[axes.roll.control]", "[axes.roll.envelope]\ngain_scale = [0.8, 1.2]\n\n[axes.roll.control]", 1)
+	c := compareTexts(t, compareDemo, wider)
+	if ch := findResult(c, "roll", "envelope.corners.(gain ×0.8).overshoot"); ch == nil || ch.Old != nil || ch.Regression {
+		t.Errorf("new plant: %+v", ch)
+	}
+	// The reverse: the plant at gain ×0.8 goes, which is no regression.
+	back := compareTexts(t, wider, compareDemo)
+	if ch := findResult(back, "roll", "envelope.corners.(gain ×0.8).phase_margin_deg"); ch == nil || ch.New != nil || ch.Regression {
+		t.Errorf("plant removed: %+v", ch)
+	}
 }

@@ -38,6 +38,7 @@ type Page struct {
 type SummaryRow struct {
 	Axis, Form, Status                           string
 	Overshoot, Settling, PhaseMargin, GainMargin string
+	Ms                                           string // the nominal loop's sensitivity peak
 }
 
 // AxisPage is the section of one axis.
@@ -57,7 +58,8 @@ type AxisPage struct {
 	Gains      []Row
 	Coeffs     []Row
 	Metrics    []MetricRow
-	Checks     []Row
+	Checks     []CheckRow
+	Envelope   *EnvelopePage
 	CPoles     string
 	DPoles     string
 	Fixed      *FixedPoint
@@ -77,13 +79,37 @@ type MetricRow struct {
 	Name, Spec, Continuous, Discrete, Fixed, Status string
 }
 
+// CheckRow is one check: its worst value over the envelope's plants, the
+// limit, the result and the plant where the value is worst.
+type CheckRow struct {
+	Name, Value, Limit, Status, Worst string
+}
+
+// EnvelopePage is the sampled loop at every plant of the final
+// verification.
+type EnvelopePage struct {
+	Intervals string // "gain ×[0.9, 1.1], lag ×[1, 1], delay +[0, 0] s"
+	Count     int
+	Plants    []EnvelopeRow
+}
+
+// EnvelopeRow is one plant of the envelope and the loop's figures there.
+type EnvelopeRow struct {
+	Kind                                         string // nominal, corner, between
+	Gain, Lag, Delay                             string
+	Stable                                       string
+	Overshoot, Settling, PhaseMargin, GainMargin string
+	Ms, Mt, Peak, Recovery                       string
+}
+
 // Working is the root-locus placement, for checking by hand.
 type Working struct {
 	Target   string
 	Terms    []Term
 	Sum      string // the loop angle and how it adds up
 	Deficit  string
-	Supplied string // what the designed controller supplies: ∠C(s*)
+	Whose    string // whose angle and magnitude are shown: "the designed controller", "the textbook placement"
+	Supplied string // what that controller supplies: ∠C(s*)
 	Mag      string // |L(s*)|
 	Needed   string // 1/|L(s*)|
 	Got      string // |C(s*)|
@@ -175,7 +201,7 @@ func model(a *discrete.Airframe) (*Page, []builtFigure) {
 }
 
 func summaryRow(x discrete.Outcome, ar AxisPage) SummaryRow {
-	row := SummaryRow{Axis: x.Name, Form: ar.Form, Status: "met", Overshoot: "–", Settling: "–", PhaseMargin: "–", GainMargin: "–"}
+	row := SummaryRow{Axis: x.Name, Form: ar.Form, Status: "met", Overshoot: "–", Settling: "–", PhaseMargin: "–", GainMargin: "–", Ms: "–"}
 	if x.Err != nil || x.Design == nil {
 		row.Status = "**not designed**"
 		return row
@@ -195,6 +221,9 @@ func summaryRow(x discrete.Outcome, ar AxisPage) SummaryRow {
 		row.Overshoot, row.Settling = pct(v.Step.Overshoot), sec(v.Step.Settling)
 	}
 	row.PhaseMargin, row.GainMargin = degs(v.Margins.PhaseDeg), dbs(v.Margins.GainDB)
+	if len(d.Envelope) > 0 && d.Envelope[0].Stable {
+		row.Ms = g4(d.Envelope[0].Ms)
+	}
 	return row
 }
 
@@ -222,6 +251,7 @@ func axisModel(airframe string, x discrete.Outcome) (AxisPage, []builtFigure) {
 	ar.Gains = gainRows(c)
 	ar.Coeffs = coeffRows(d.Coeffs)
 	ar.Metrics, ar.Checks = metricRows(d)
+	ar.Envelope = envelopePage(d)
 	ar.CPoles = polesText(c.Verif.Poles, "")
 	ar.DPoles = zPolesText(d.Verif.Poles, d.Plant.T)
 	ar.Fixed = fixedOf(d)
@@ -391,6 +421,30 @@ func specRows(d *discrete.Design) ([]Row, []string) {
 	if s.MinGainMargin > 0 {
 		rows = append(rows, Row{"gain margin", "≥ " + dbs(s.MinGainMargin), ""})
 	}
+	if s.MaxSensitivity > 0 {
+		rows = append(rows, Row{"sensitivity peak Ms", "≤ " + g4(s.MaxSensitivity),
+			fmt.Sprintf("max \\|1/(1 + L)\\|: gain margin ≥ %s, phase margin ≥ %s", g(s.MaxSensitivity/(s.MaxSensitivity-1), 3), degs(2*math.Asin(1/(2*s.MaxSensitivity))*180/math.Pi))})
+	}
+	if s.MaxSteadyError > 0 {
+		rows = append(rows, Row{"steady-state error", "≤ " + pct(s.MaxSteadyError), "of a unit setpoint step"})
+	}
+	if s.HoldRate > 0 {
+		rows = append(rows, Row{"hold rate", "≥ " + rads(s.HoldRate), "steady setpoint held with the integrator within its limit"})
+	}
+	if s.DisturbanceStep > 0 {
+		rows = append(rows, Row{"load step", g4(s.DisturbanceStep), "command units, at the plant input (the disturbance figures' size)"})
+	}
+	if s.DisturbanceRecovery > 0 {
+		rows = append(rows, Row{"load-step recovery", "≤ " + sec(s.DisturbanceRecovery), fmt.Sprintf("within ±%s %% of the deviation's peak from then on", g(100*synth.RecoveryBand, 3))})
+	}
+	if nb := noiseBound(d); isFinite(nb) {
+		note := "the design's default"
+		if s.MaxNoiseGain > 0 {
+			note = "from the file"
+		}
+		rows = append(rows, Row{"noise gain", "≤ " + g4(nb), "command per rad/s, \\|C\\| between the crossover and Nyquist; " + note})
+	}
+	rows = append(rows, Row{"plant envelope", envelopeText(d.Problem.Envelope), "every check holds at every plant of the box"})
 	var lines []string
 	if t, err := synth.TargetFromSpec(s); err == nil {
 		lnMp := math.Log(s.Overshoot)
@@ -402,12 +456,11 @@ func specRows(d *discrete.Design) ([]Row, []string) {
 	}
 	c := d.Cont
 	if c.Refined {
-		what := "the least-gain design whose sampled response meets the spec"
+		what := "the design is the controller of the form with the best load-disturbance rejection that passes every check at every plant of the envelope; the target sets the scale of its search, and the placement there is the textbook design"
 		if !c.Met {
-			what = "no design of the form meets the spec; this is the closest found"
+			what = "no controller of the form passes every check over the envelope; the closest one found is reported"
 		}
-		lines = append(lines, fmt.Sprintf("refined target (%s): ζ = %s, ωn = %s rad/s, s\\* = %s",
-			what, g4(c.Target.Zeta), g4(c.Target.OmegaN), fmtC(c.Target.Pole, 4)))
+		lines = append(lines, "search: "+what)
 	}
 	if c.TextbookErr != "" {
 		lines = append(lines, "textbook placement: "+mdText(c.TextbookErr))
@@ -454,21 +507,31 @@ func workingOf(d *discrete.Design) Working {
 	}
 	out.Sum = sum + " = " + g(w.LoopAngleDeg, 5) + "°"
 	out.Deficit = fmt.Sprintf("−180° − ∠L(s\\*) = %s°, wrapped to (−180°, 180°]: %s°", g(-180-w.LoopAngleDeg, 5), g(w.DeficiencyDeg, 5))
-	cs := c.Ctrl.Eval(w.Target)
+	// The working is the placement's: with refinement that is the
+	// textbook controller, not the design, which the search chose.
+	ctrl, residual := c.Ctrl, c.Verif.TargetResidual
+	out.Whose = "the designed controller"
+	if tb := c.Textbook; tb != nil {
+		ctrl, residual = tb.Ctrl, tb.Verif.TargetResidual
+		out.Whose = "the textbook placement (the design's gains, from the search, are below)"
+	} else if c.Refined && c.TextbookErr != "" {
+		out.Whose = "the designed controller (the form cannot place this target; the design is the search's)"
+	}
+	cs := ctrl.Eval(w.Target)
 	out.Supplied = g(cmplx.Phase(cs)*180/math.Pi, 5) + "°"
 	out.Mag = g(w.LoopMagnitude, 5)
 	out.Needed = g(w.NeededGain, 5)
 	out.Got = g(cmplx.Abs(cs), 5)
-	out.Residual = g(c.Verif.TargetResidual, 3)
+	out.Residual = g(residual, 3)
 	if p.Plant.Delay > 0 {
 		out.Residual += " (with the exact delay)"
 	}
-	switch c.Ctrl.Form {
+	switch ctrl.Form {
 	case airframe.FormPID:
 		s3 := -p.Ctrl.ThirdPole * c.Target.Sigma
 		out.Extra = append(out.Extra, fmt.Sprintf("third real closed-loop pole at third_pole·(−σ) = %s·(−%s) = %s: 1 + C(s3)·L(s3) = 0 is the third equation", g(p.Ctrl.ThirdPole, 3), g4(c.Target.Sigma), g4(s3)))
 	case airframe.FormLead:
-		out.Extra = append(out.Extra, fmt.Sprintf("the zero is fixed at %s; the pole %s is where a real pole subtends the remaining angle, and K = %s follows from the magnitude condition", g4(c.Ctrl.Zero), g4(c.Ctrl.Pole), g4(c.Ctrl.K)))
+		out.Extra = append(out.Extra, fmt.Sprintf("the zero is fixed at %s; the pole %s is where a real pole subtends the remaining angle, and K = %s follows from the magnitude condition", g4(ctrl.Zero), g4(ctrl.Pole), g4(ctrl.K)))
 	case airframe.FormP:
 		out.Extra = append(out.Extra, "P has one gain: the target is where the locus crosses the damping line ζ, and Kp is the magnitude condition there")
 	}
@@ -544,18 +607,18 @@ func coeffRows(k discrete.Coeffs) []Row {
 	return rows
 }
 
-func metricRows(d *discrete.Design) ([]MetricRow, []Row) {
+func metricRows(d *discrete.Design) ([]MetricRow, []CheckRow) {
 	s := d.Problem.Spec
 	cv, dv := d.Cont.Verif, d.Verif
 	status := map[string]string{}
-	var checks []Row
+	var checks []CheckRow
 	for _, c := range d.Checks {
 		st := "ok"
 		if !c.OK {
 			st = "**FAIL**"
 		}
 		status[c.Name] = st
-		checks = append(checks, Row{strings.ReplaceAll(c.Name, "_", " "), st, ""})
+		checks = append(checks, checkRow(c, st))
 	}
 	step := func(ok bool, v float64, f func(float64) string) string {
 		if !ok {
@@ -589,7 +652,7 @@ func metricRows(d *discrete.Design) ([]MetricRow, []Row) {
 		{"overshoot", "≤ " + pct(s.Overshoot), step(cv.Stable, cv.Step.Overshoot, pct), step(dv.Stable, dv.Step.Overshoot, pct), qs(step(qv.Stable, qv.Step.Overshoot, pct)), both(status["overshoot"], status["quantized_overshoot"])},
 		{fmt.Sprintf("settling time (±%s %%)", g(100*s.Band, 3)), "≤ " + sec(s.SettlingTime), step(cv.Stable, cv.Step.Settling, sec), step(dv.Stable, dv.Step.Settling, sec), qs(step(qv.Stable, qv.Step.Settling, sec)), both(status["settling_time"], status["quantized_settling_time"])},
 		{"rise time (10–90 %)", "–", step(cv.Stable, cv.Step.Rise, sec), step(dv.Stable, dv.Step.Rise, sec), qs(step(qv.Stable, qv.Step.Rise, sec)), ""},
-		{"steady-state error", "–", step(cv.Stable, cv.SteadyStateError, pct), step(dv.Stable, dv.SteadyStateError, pct), qs(step(qv.Stable, qv.SteadyStateError, pct)), ""},
+		{"steady-state error", specOf(d, "steady_error"), step(cv.Stable, cv.SteadyStateError, pct), step(dv.Stable, dv.SteadyStateError, pct), qs(step(qv.Stable, qv.SteadyStateError, pct)), status["steady_error"]},
 	}
 	pmSpec, gmSpec := "–", "–"
 	if s.MinPhaseMargin > 0 {
@@ -605,6 +668,7 @@ func metricRows(d *discrete.Design) ([]MetricRow, []Row) {
 		MetricRow{"delay margin", "–", sec(cv.Margins.DelayMargin), sec(dv.Margins.DelayMargin), qs(sec(qv.Margins.DelayMargin)), ""},
 		MetricRow{"stability", "poles inside", "max Re s = " + g4(maxRe(cv.Poles)), "max \\|z\\| = " + g(1-dv.StabilityMargin, 6), qs("max \\|z\\| = " + g(1-qv.StabilityMargin, 6)), both(status["stable"], status["quantized_stable"])},
 	)
+	rows = append(rows, robustRows(d, status)...)
 	if sat := dv.Saturated; sat.Amplitude > 0 {
 		ov := fmt.Sprintf("%s (no anti-windup: %s)", pct(sat.Overshoot), pct(sat.OvershootNone))
 		rec := fmt.Sprintf("%s (no anti-windup: %s)", recovery(sat.Recovery, sat.Settled), recovery(sat.RecoveryNone, sat.SettledNone))
@@ -616,6 +680,172 @@ func metricRows(d *discrete.Design) ([]MetricRow, []Row) {
 			MetricRow{name + ": recovery", "–", "–", rec, "–", ""})
 	}
 	return rows, checks
+}
+
+// robustRows are the sampled loop's figures of the final verification at
+// the nominal plant (the sensitivity peaks, the load step, the holdable
+// rate) and the controller's noise gain; their checks judge the worst
+// plant of the envelope (the checks table).
+func robustRows(d *discrete.Design, status map[string]string) []MetricRow {
+	if len(d.Envelope) == 0 {
+		return nil
+	}
+	n := d.Envelope[0]
+	st := func(x float64, f func(float64) string) string {
+		if !n.Stable {
+			return "unstable"
+		}
+		return f(x)
+	}
+	ds := n.Disturbance
+	rows := []MetricRow{
+		{"sensitivity peak Ms", specOf(d, "max_sensitivity"), "–", st(n.Ms, g4), "–", status["max_sensitivity"]},
+		{"complementary sensitivity peak Mt", "–", "–", st(n.Mt, g4), "–", ""},
+		{"noise gain (command per rad/s)", specOf(d, "noise_gain"), "–", g4(d.NoiseGain), "–", status["noise_gain"]},
+	}
+	if d.Problem.Ctrl.Form.HasIntegral() {
+		hold := rads(n.HoldRate)
+		if math.IsInf(n.HoldRate, 1) {
+			hold = "unbounded"
+		}
+		rows = append(rows, MetricRow{"hold rate", specOf(d, "hold_rate"), "–", hold, "–", status["hold_rate"]})
+	}
+	load := fmt.Sprintf("load step of %s", g4(ds.Step))
+	rec := st(ds.Recovery, sec)
+	if n.Stable && !isFinite(ds.Recovery) {
+		rec = fmt.Sprintf("none (ends at %s rad/s)", g4(ds.Final))
+	}
+	return append(rows,
+		MetricRow{load + ": peak", "–", "–", st(ds.Peak, rads), "–", ""},
+		MetricRow{load + ": IAE", "–", "–", st(ds.IAE, func(v float64) string { return g4(v) + " rad" }), "–", ""},
+		MetricRow{load + ": recovery (±2 % of the peak)", specOf(d, "disturbance_recovery"), "–", rec, "–", status["disturbance_recovery"]},
+	)
+}
+
+// specOf is the limit of the check named name, "≤ 1.7", or "–" when the
+// design has no such check.
+func specOf(d *discrete.Design, name string) string {
+	for _, c := range d.Checks {
+		if c.Name == name {
+			rel := "≥ "
+			if c.Upper {
+				rel = "≤ "
+			}
+			return rel + checkText(c.Name, c.Limit)
+		}
+	}
+	return "–"
+}
+
+// checkText formats a value of the check named name in the page's units.
+func checkText(name string, v float64) string {
+	switch strings.TrimPrefix(name, "quantized_") {
+	case "overshoot", "steady_error":
+		return pct(v)
+	case "settling_time", "disturbance_recovery":
+		return sec(v)
+	case "phase_margin":
+		return degs(v)
+	case "gain_margin":
+		return dbs(v)
+	case "hold_rate":
+		return rads(v)
+	case "stable":
+		return "max \\|z\\| = " + g(v, 6)
+	case "overflow":
+		return fin(v, g4) + " bits"
+	case "limit_cycle":
+		return fin(v, g4) + " LSB"
+	}
+	return fin(v, g4)
+}
+
+// checkRow is a check as the page lists it: the worst value, the limit,
+// the result, and the plant where the value is worst (the nominal plant,
+// or none, for a check of the nominal loop or the controller alone).
+func checkRow(c synth.Check, status string) CheckRow {
+	r := CheckRow{Name: strings.ReplaceAll(c.Name, "_", " "), Value: checkText(c.Name, c.Value), Status: status, Worst: "–"}
+	base, quantized := strings.CutPrefix(c.Name, "quantized_")
+	switch {
+	case base == "stable":
+		r.Limit = "max \\|z\\| < 1"
+	case base == "sampling":
+		r.Limit = "< " + g4(c.Limit)
+	case c.Upper:
+		r.Limit = "≤ " + checkText(c.Name, c.Limit)
+	default:
+		r.Limit = "≥ " + checkText(c.Name, c.Limit)
+	}
+	if quantized {
+		r.Worst = "nominal plant"
+	}
+	if c.Worst != (airframe.Corner{}) && c.Name != "noise_gain" {
+		r.Worst = mdCorner(c.Worst)
+		if r.Value == "0 %" {
+			r.Worst = "every plant" // a nil worst: nil everywhere
+		}
+	}
+	return r
+}
+
+// mdCorner names a plant of the envelope with the page's true minus sign.
+func mdCorner(c airframe.Corner) string {
+	return strings.ReplaceAll(synth.CornerText(c), "-", "−")
+}
+
+// noiseBound is the noise-gain bound in force (the noise_gain check's
+// limit), or +Inf without one.
+func noiseBound(d *discrete.Design) float64 {
+	for _, c := range d.Checks {
+		if c.Name == "noise_gain" {
+			return c.Limit
+		}
+	}
+	return math.Inf(1)
+}
+
+// envelopePage is the table of the plants of the final verification; nil
+// when there is the nominal plant only.
+func envelopePage(d *discrete.Design) *EnvelopePage {
+	if len(d.Envelope) < 2 {
+		return nil
+	}
+	box := d.Problem.Envelope.Corners()
+	e := &EnvelopePage{Intervals: envelopeText(d.Problem.Envelope), Count: len(d.Envelope)}
+	for _, f := range d.Envelope {
+		c := f.Corner
+		r := EnvelopeRow{Kind: "between", Gain: "×" + g4(c.GainScale), Lag: "×" + g4(c.LagScale), Delay: signedSec(c.DelayAdd),
+			Stable: "yes", Overshoot: "–", Settling: "–", Ms: "–", Mt: "–", Peak: "–", Recovery: "–",
+			PhaseMargin: degs(f.Margins.PhaseDeg), GainMargin: dbs(f.Margins.GainDB)}
+		switch {
+		case c == airframe.Nominal():
+			r.Kind = "nominal"
+		case slices.Contains(box, c):
+			r.Kind = "corner"
+		}
+		if f.Stable {
+			r.Overshoot, r.Settling, r.Ms, r.Mt = pct(f.Step.Overshoot), sec(f.Step.Settling), g4(f.Ms), g4(f.Mt)
+			r.Peak, r.Recovery = rads(f.Disturbance.Peak), sec(f.Disturbance.Recovery)
+			if !isFinite(f.Disturbance.Recovery) {
+				r.Recovery = "none"
+			}
+		} else {
+			r.Stable = "**no**"
+		}
+		e.Plants = append(e.Plants, r)
+	}
+	return e
+}
+
+// signedSec writes an added delay with its sign, "+0.001 s".
+func signedSec(x float64) string {
+	switch {
+	case x > 0:
+		return "+" + sec(x)
+	case x < 0:
+		return "−" + sec(-x)
+	}
+	return "0 s"
 }
 
 // signedSum writes angles as "a + b − c" in degrees.

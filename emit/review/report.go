@@ -60,6 +60,9 @@ type AxisReport struct {
 	Textbook   *TextbookReport   `json:"textbook,omitempty"`
 	Continuous *ContinuousReport `json:"continuous,omitempty"`
 	Discrete   *DiscreteReport   `json:"discrete,omitempty"`
+	// Envelope is the plant's range and the sampled loop's figures at
+	// every plant of the final verification, the nominal plant first.
+	Envelope *EnvelopeReport `json:"envelope,omitempty"`
 	// Numeric is the numeric realization: coefficients as the generated
 	// code holds them, fixed-point formats and proved ranges; absent when
 	// the design has no realization.
@@ -126,16 +129,80 @@ type DiscreteReport struct {
 	ClosedLoopPoles  [][]float64 `json:"closed_loop_poles"`
 	// StabilityMargin is 1 − max|z|, the distance of the slowest pole to
 	// the unit circle (negative when unstable).
-	StabilityMargin  *float64         `json:"stability_margin,omitempty"`
-	SteadyStateError *float64         `json:"steady_state_error,omitempty"`
-	Overshoot        *float64         `json:"overshoot,omitempty"`
-	SettlingTime     *float64         `json:"settling_time,omitempty"`
-	RiseTime         *float64         `json:"rise_time,omitempty"`
-	GainMarginDB     *float64         `json:"gain_margin_db,omitempty"`
-	PhaseMarginDeg   *float64         `json:"phase_margin_deg,omitempty"`
-	Crossover        *float64         `json:"crossover,omitempty"`
-	DelayMargin      *float64         `json:"delay_margin,omitempty"`
-	Saturated        *SaturatedReport `json:"saturated,omitempty"`
+	StabilityMargin  *float64 `json:"stability_margin,omitempty"`
+	SteadyStateError *float64 `json:"steady_state_error,omitempty"`
+	Overshoot        *float64 `json:"overshoot,omitempty"`
+	SettlingTime     *float64 `json:"settling_time,omitempty"`
+	RiseTime         *float64 `json:"rise_time,omitempty"`
+	GainMarginDB     *float64 `json:"gain_margin_db,omitempty"`
+	PhaseMarginDeg   *float64 `json:"phase_margin_deg,omitempty"`
+	Crossover        *float64 `json:"crossover,omitempty"`
+	DelayMargin      *float64 `json:"delay_margin,omitempty"`
+	// MaxSensitivity and MaxComplementary are the peaks of |S| = |1/(1 + L)|
+	// and |T| = |L/(1 + L)| on the unit circle at the nominal plant:
+	// 1/Ms is the least distance of the Nyquist curve to −1.
+	MaxSensitivity   *float64 `json:"max_sensitivity,omitempty"`
+	MaxComplementary *float64 `json:"max_complementary,omitempty"`
+	// NoiseGain is the controller's largest gain |C| from measured rate
+	// to command between the lowest crossover and Nyquist (command units
+	// per rad/s): what carries gyro noise into the actuators.
+	NoiseGain *float64 `json:"noise_gain,omitempty"`
+	// HoldRate is the largest steady setpoint (rad/s) the integrator can
+	// hold within integrator_limit at the nominal plant; absent when
+	// unbounded (no integrator).
+	HoldRate *float64 `json:"hold_rate,omitempty"`
+	// Disturbance is the response to the spec's load step at the plant
+	// input, at the nominal plant; absent for an unstable loop.
+	Disturbance *DisturbanceReport `json:"disturbance,omitempty"`
+	Saturated   *SaturatedReport   `json:"saturated,omitempty"`
+}
+
+// DisturbanceReport is the true-rate response to a load step at the plant
+// input (where the command enters): Step in command units, Peak the
+// largest |rate deviation| (rad/s), IAE its integral ∫|y|dt (rad), and
+// RecoveryTime the time (s) from which the deviation stays within 2 % of
+// its peak, absent when it never does within the record (a steady
+// deviation).
+type DisturbanceReport struct {
+	Step         *float64 `json:"step,omitempty"`
+	Peak         *float64 `json:"peak,omitempty"`
+	IAE          *float64 `json:"iae,omitempty"`
+	RecoveryTime *float64 `json:"recovery_time,omitempty"`
+}
+
+// EnvelopeReport is the plant's range (the file's [axes.NAME.envelope],
+// defaults applied) and the sampled loop at every plant the final
+// verification looked at: the nominal plant, the corners of the box, and
+// points in between.
+type EnvelopeReport struct {
+	GainScale []float64      `json:"gain_scale"`
+	LagScale  []float64      `json:"lag_scale"`
+	DelayAdd  []float64      `json:"delay_add"`
+	Corners   []CornerReport `json:"corners"`
+}
+
+// CornerReport is the sampled loop at one plant of the envelope: the
+// plant's gain and lag scales and added delay (s), and the loop's
+// figures there. The step figures are absent for an unstable loop, a
+// margin that does not exist is absent.
+type CornerReport struct {
+	GainScale      *float64 `json:"gain_scale,omitempty"`
+	LagScale       *float64 `json:"lag_scale,omitempty"`
+	DelayAdd       *float64 `json:"delay_add,omitempty"`
+	Stable         bool     `json:"stable"`
+	Overshoot      *float64 `json:"overshoot,omitempty"`
+	SettlingTime   *float64 `json:"settling_time,omitempty"`
+	PhaseMarginDeg *float64 `json:"phase_margin_deg,omitempty"`
+	GainMarginDB   *float64 `json:"gain_margin_db,omitempty"`
+	MaxSensitivity *float64 `json:"max_sensitivity,omitempty"`
+}
+
+// WorstReport names the plant of the envelope where a check's value is
+// worst.
+type WorstReport struct {
+	GainScale *float64 `json:"gain_scale,omitempty"`
+	LagScale  *float64 `json:"lag_scale,omitempty"`
+	DelayAdd  *float64 `json:"delay_add,omitempty"`
 }
 
 // SaturatedReport is the large setpoint step with the nonlinear controller.
@@ -234,6 +301,9 @@ type CheckReport struct {
 	Limit *float64 `json:"limit,omitempty"`
 	Value *float64 `json:"value,omitempty"`
 	OK    bool     `json:"ok"`
+	// Worst is the plant where Value is worst: the nominal plant for a
+	// check of the nominal loop or of the controller alone.
+	Worst *WorstReport `json:"worst,omitempty"`
 }
 
 // JSON builds the JSON report of the designed airframes, in the order
@@ -298,11 +368,12 @@ func jsonAxis(a *discrete.Airframe, x discrete.Outcome) AxisReport {
 	}
 	r.Continuous = jsonContinuous(c)
 	r.Discrete = jsonDiscrete(d)
+	r.Envelope = jsonEnvelope(d)
 	if d.Num != nil {
 		r.Numeric = jsonNumeric(d.Num)
 	}
 	for _, ck := range d.Checks {
-		r.Checks = append(r.Checks, CheckReport{Name: ck.Name, Limit: jsonNum(ck.Limit), Value: jsonNum(ck.Value), OK: ck.OK})
+		r.Checks = append(r.Checks, jsonCheck(ck))
 	}
 	r.Warnings = dedupWarnings(d.Warnings)
 	return r
@@ -403,7 +474,63 @@ func jsonDiscrete(d *discrete.Design) *DiscreteReport {
 		dr.Saturated = jsonSaturated(d)
 	}
 	dr.GainMarginDB, dr.PhaseMarginDeg, dr.Crossover, dr.DelayMargin = jsonMargins(v.Margins)
+	dr.NoiseGain = jsonNum(d.NoiseGain)
+	if len(d.Envelope) > 0 {
+		n := d.Envelope[0]
+		dr.HoldRate = jsonNum(n.HoldRate)
+		if n.Stable {
+			dr.MaxSensitivity, dr.MaxComplementary = jsonNum(n.Ms), jsonNum(n.Mt)
+			dr.Disturbance = jsonDisturbance(n.Disturbance)
+		}
+	}
 	return dr
+}
+
+func jsonDisturbance(f synth.DisturbanceFigures) *DisturbanceReport {
+	return &DisturbanceReport{Step: jsonNum(f.Step), Peak: jsonNum(f.Peak), IAE: jsonNum(f.IAE), RecoveryTime: jsonNum(f.Recovery)}
+}
+
+// jsonEnvelope reports the envelope's intervals and every plant of the
+// final verification, in the design's order (the nominal plant first);
+// nil for a design without that verification.
+func jsonEnvelope(d *discrete.Design) *EnvelopeReport {
+	if len(d.Envelope) == 0 {
+		return nil
+	}
+	e := d.Problem.Envelope.Normalized()
+	pair := func(iv [2]float64) []float64 { return []float64{roundSig(iv[0]), roundSig(iv[1])} }
+	er := &EnvelopeReport{GainScale: pair(e.GainScale), LagScale: pair(e.LagScale), DelayAdd: pair(e.DelayAdd),
+		Corners: make([]CornerReport, 0, len(d.Envelope))}
+	for _, f := range d.Envelope {
+		c := CornerReport{GainScale: jsonNum(f.Corner.GainScale), LagScale: jsonNum(f.Corner.LagScale),
+			DelayAdd: jsonNum(f.Corner.DelayAdd), Stable: f.Stable}
+		if f.Stable {
+			c.Overshoot = jsonFrac(f.Step.Overshoot)
+			c.SettlingTime = jsonNum(f.Step.Settling)
+			c.MaxSensitivity = jsonNum(f.Ms)
+		}
+		c.GainMarginDB, c.PhaseMarginDeg, _, _ = jsonMargins(f.Margins)
+		er.Corners = append(er.Corners, c)
+	}
+	return er
+}
+
+// jsonCheck reports a check with the plant where it is worst; a check
+// that names no plant (sampling, the numeric realization's) is one of the
+// nominal loop or of the controller alone. A steady-state error is a
+// fraction of the setpoint, rounded as one (floating-point residue reads
+// as 0).
+func jsonCheck(c synth.Check) CheckReport {
+	r := CheckReport{Name: c.Name, Limit: jsonNum(c.Limit), Value: jsonNum(c.Value), OK: c.OK}
+	if strings.TrimPrefix(c.Name, "quantized_") == "steady_error" {
+		r.Value = jsonFrac(c.Value)
+	}
+	w := c.Worst
+	if w == (airframe.Corner{}) {
+		w = airframe.Nominal()
+	}
+	r.Worst = &WorstReport{GainScale: jsonNum(w.GainScale), LagScale: jsonNum(w.LagScale), DelayAdd: jsonNum(w.DelayAdd)}
+	return r
 }
 
 func jsonSaturated(d *discrete.Design) *SaturatedReport {

@@ -6,14 +6,18 @@ import (
 	"math"
 	"math/big"
 	"math/rand/v2"
+	"regexp"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
+	"unicode/utf8"
 
 	"locusmith/airframe"
 	"locusmith/discrete"
 	"locusmith/internal/fleet"
 	"locusmith/internal/version"
+	"locusmith/synth"
 )
 
 // TestRoundSigMatchesBig: roundSig is rounding to SignificantDigits
@@ -322,9 +326,43 @@ func TestWriteTable(t *testing.T) {
 		t.Fatal("table not deterministic")
 	}
 	s := b1.String()
-	for _, want := range []string{"airframe testcraft", "axis a_pid  form pid", "axis b_lead  form lead", "series     C(s) = ", "metric", "continuous", "discrete", "closed-loop poles, z:"} {
+	for _, want := range []string{"airframe testcraft", "axis a_pid  form pid", "axis b_lead  form lead", "series     C(s) = ", "metric", "continuous", "discrete", "closed-loop poles, z:",
+		"sensitivity peak Ms", "compl. sens. peak Mt", "noise gain", "load step: peak", "load step: IAE", "load step: recovery",
+		"envelope   gain ×[0.9, 1.1], lag ×[1, 1], delay +[0, 0] s: 5 plants verified", "worst over envelope"} {
 		if !strings.Contains(s, want) {
 			t.Errorf("table lacks %q:\n%s", want, s)
+		}
+	}
+	// The pid has an integrator: its holdable rate has a row; the lead
+	// has none.
+	axes := strings.Split(s, "\naxis ")
+	if !strings.Contains(axes[1], "  hold rate ") || strings.Contains(axes[2], "  hold rate ") {
+		t.Errorf("hold rate row: want it for a_pid only:\n%s", s)
+	}
+	// The envelope block (from its intervals to the next section) stays
+	// within 100 columns.
+	inBlock := false
+	for _, line := range strings.Split(s, "\n") {
+		switch {
+		case strings.HasPrefix(line, "  envelope   "):
+			inBlock = true
+		case strings.HasPrefix(line, "  saturated step") || strings.HasPrefix(line, "  numeric ") || strings.HasPrefix(line, "axis "):
+			inBlock = false
+		}
+		if inBlock && utf8.RuneCountInString(line) > 100 {
+			t.Errorf("envelope block wider than 100 columns: %q", line)
+		}
+	}
+	// Each check of the envelope names the plant where it is worst.
+	for _, x := range a.Axes {
+		for _, c := range x.Design.Checks {
+			if c.Name != "overshoot" {
+				continue
+			}
+			want := regexp.MustCompile(`\n  overshoot +[0-9.]+ % +≤ [0-9.]+ % +(pass|FAIL) +` + regexp.QuoteMeta(synth.CornerText(c.Worst)) + `\n`)
+			if !want.MatchString(s) {
+				t.Errorf("axis %s: no worst-plant row for overshoot at %s:\n%s", x.Name, synth.CornerText(c.Worst), s)
+			}
 		}
 	}
 	for _, bad := range []string{"NaN", "%!", "+Inf"} {
@@ -364,5 +402,151 @@ func TestDropTracesKeepsFigures(t *testing.T) {
 	lean := encode(discrete.DesignAll(files, discrete.BatchOptions{Jobs: 2}))
 	if !bytes.Equal(full, lean) {
 		t.Error("the report changes when the traces are dropped")
+	}
+}
+
+// TestReportRobustFields: the sampled loop's sensitivity peaks, noise
+// gain, holdable rate and load step are the nominal plant's; the envelope
+// lists every plant of the final verification, the nominal one first; and
+// every check names its worst plant.
+func TestReportRobustFields(t *testing.T) {
+	a := designInline(t, twoAxes)
+	r := JSON([]*discrete.Airframe{a})
+	for i, x := range r.Airframes[0].Axes {
+		d := a.Axes[i].Design
+		n := d.Envelope[0]
+		dr := x.Discrete
+		if dr.MaxSensitivity == nil || *dr.MaxSensitivity != roundSig(n.Ms) || dr.MaxComplementary == nil || *dr.MaxComplementary != roundSig(n.Mt) {
+			t.Errorf("%s: max_sensitivity/max_complementary %v/%v, want the nominal plant's %v/%v", x.Axis, dr.MaxSensitivity, dr.MaxComplementary, n.Ms, n.Mt)
+		}
+		if dr.NoiseGain == nil || *dr.NoiseGain != roundSig(d.NoiseGain) {
+			t.Errorf("%s: noise_gain %v, want %v", x.Axis, dr.NoiseGain, d.NoiseGain)
+		}
+		if ds := dr.Disturbance; ds == nil || *ds.Step != roundSig(d.Problem.Spec.DisturbanceStep) || *ds.Peak != roundSig(n.Disturbance.Peak) || *ds.IAE != roundSig(n.Disturbance.IAE) {
+			t.Errorf("%s: disturbance %+v, want the nominal plant's %+v", x.Axis, dr.Disturbance, n.Disturbance)
+		}
+		// The holdable rate with an integrator and a plant that
+		// integrates (1/G(0) = 0): the integrator carries (Kp − b·Kp)·r at
+		// steady state, so |r| ≤ IL/|Kp − KpB| (README, setpoint_weight);
+		// unbounded, and omitted, at b = 1 and without an integrator.
+		k := d.Coeffs
+		switch {
+		case !k.Form.HasIntegral() || k.Kp == k.KpB:
+			if dr.HoldRate != nil {
+				t.Errorf("%s: hold_rate %v, want omitted (unbounded)", x.Axis, *dr.HoldRate)
+			}
+		case x.Axis == "a_pid":
+			if want := k.IL / math.Abs(k.Kp-k.KpB); dr.HoldRate == nil || math.Abs(*dr.HoldRate-want) > 1e-9*want {
+				t.Errorf("%s: hold_rate %v, want IL/|Kp − KpB| = %v", x.Axis, dr.HoldRate, want)
+			}
+		}
+		e := x.Envelope
+		if e == nil || len(e.Corners) != len(d.Envelope) {
+			t.Fatalf("%s: envelope %+v, want %d plants", x.Axis, e, len(d.Envelope))
+		}
+		// The default envelope: gain ×[0.9, 1.1], nothing else (README,
+		// "[axes.NAME.envelope]").
+		if !slices.Equal(e.GainScale, []float64{0.9, 1.1}) || !slices.Equal(e.LagScale, []float64{1, 1}) || !slices.Equal(e.DelayAdd, []float64{0, 0}) {
+			t.Errorf("%s: intervals %v %v %v, want the defaults", x.Axis, e.GainScale, e.LagScale, e.DelayAdd)
+		}
+		if c := e.Corners[0]; *c.GainScale != 1 || *c.LagScale != 1 || *c.DelayAdd != 0 || !c.Stable || *c.MaxSensitivity != *dr.MaxSensitivity {
+			t.Errorf("%s: corners[0] %+v is not the nominal plant", x.Axis, c)
+		}
+		for j, ck := range x.Checks {
+			w, want := ck.Worst, d.Checks[j].Worst
+			if want == (airframe.Corner{}) {
+				want = airframe.Nominal()
+			}
+			if w == nil || *w.GainScale != want.GainScale || *w.LagScale != want.LagScale || *w.DelayAdd != want.DelayAdd {
+				t.Errorf("%s: check %s worst %+v, want %+v", x.Axis, ck.Name, w, want)
+			}
+		}
+	}
+}
+
+// TestReportRobustOmitsNonFinite: an unbounded holdable rate, a load step
+// that is never recovered, a non-finite IAE and an unstable plant of the
+// envelope leave their fields out rather than print NaN or Inf; a check
+// that names no plant reports the nominal one.
+func TestReportRobustOmitsNonFinite(t *testing.T) {
+	a := designInline(t, twoAxes)
+	d := a.Axes[0].Design
+	n := &d.Envelope[0]
+	n.HoldRate = math.Inf(1)
+	n.Disturbance.Recovery = math.Inf(1)
+	n.Disturbance.IAE = math.NaN()
+	u := &d.Envelope[1]
+	u.Stable = false
+	u.Step.Overshoot, u.Step.Settling, u.Ms = math.Inf(1), math.Inf(1), math.NaN()
+	u.Margins.GainDB = math.Inf(1)
+	d.Checks = append(d.Checks, synth.Check{Name: "extra", Limit: 1, Value: math.NaN()},
+		synth.Check{Name: "moved", Limit: 1, Value: 0.5, OK: true, Worst: airframe.Corner{GainScale: 0.9, LagScale: 2, DelayAdd: 0.001}})
+	x := JSON([]*discrete.Airframe{a}).Airframes[0].Axes[0]
+	dr := x.Discrete
+	if dr.HoldRate != nil || dr.Disturbance == nil || dr.Disturbance.RecoveryTime != nil || dr.Disturbance.IAE != nil || dr.Disturbance.Peak == nil {
+		t.Errorf("non-finite figures not omitted: hold_rate %v, disturbance %+v", dr.HoldRate, dr.Disturbance)
+	}
+	c := x.Envelope.Corners[1]
+	if c.Stable || c.Overshoot != nil || c.SettlingTime != nil || c.MaxSensitivity != nil || c.GainMarginDB != nil || c.GainScale == nil {
+		t.Errorf("unstable plant: %+v, want no step figures, no Ms, no gain margin, the plant kept", c)
+	}
+	last := x.Checks[len(x.Checks)-2:]
+	if w := last[0].Worst; last[0].Value != nil || *w.GainScale != 1 || *w.LagScale != 1 || *w.DelayAdd != 0 {
+		t.Errorf("check without a plant: %+v (worst %+v), want no value and the nominal plant", last[0], w)
+	}
+	if w := last[1].Worst; *w.GainScale != 0.9 || *w.LagScale != 2 || *w.DelayAdd != 0.001 {
+		t.Errorf("worst plant %+v, want gain 0.9, lag 2, delay 0.001", w)
+	}
+	b, err := json.Marshal(x)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if s := string(b); strings.Contains(s, "NaN") || strings.Contains(s, "Inf") {
+		t.Errorf("NaN or Inf in the report: %s", s)
+	}
+	// The nominal loop unstable: no sensitivity peaks, no load step.
+	n.Stable = false
+	if dr := JSON([]*discrete.Airframe{a}).Airframes[0].Axes[0].Discrete; dr.MaxSensitivity != nil || dr.MaxComplementary != nil || dr.Disturbance != nil || dr.NoiseGain == nil {
+		t.Errorf("unstable nominal loop: %+v, want no Ms, Mt or disturbance, the noise gain kept", dr)
+	}
+}
+
+// The words the table, the page and the error messages name a plant and
+// a check's value with.
+func TestCornerAndCheckText(t *testing.T) {
+	for c, want := range map[airframe.Corner]string{
+		airframe.Nominal():                               "nominal plant",
+		{GainScale: 0.9, LagScale: 1}:                    "gain ×0.9",
+		{GainScale: 1, LagScale: 2, DelayAdd: -0.001}:    "lag ×2, delay -0.001 s",
+		{GainScale: 1.1, LagScale: 0.8, DelayAdd: 0.002}: "gain ×1.1, lag ×0.8, delay +0.002 s",
+	} {
+		if got := synth.CornerText(c); got != want {
+			t.Errorf("CornerText(%+v) = %q, want %q", c, got, want)
+		}
+	}
+	for _, c := range []struct {
+		name string
+		v    float64
+		want string
+	}{
+		{"steady_error", 0.015, "1.5 %"},
+		{"steady_error", 3e-16, "0 %"},
+		{"hold_rate", 12, "12 rad/s"},
+		{"hold_rate", math.Inf(1), "none"},
+		{"disturbance_recovery", 0.25, "0.25 s"},
+		{"max_sensitivity", 1.7, "1.7"},
+		{"noise_gain", 0.6513, "0.6513"},
+	} {
+		if got := synth.CheckValue(c.name, c.v); got != c.want {
+			t.Errorf("CheckValue(%s, %v) = %q, want %q", c.name, c.v, got, c.want)
+		}
+	}
+	ck := synth.Check{Name: "settling_time", Limit: 0.15, Value: 0.1553, Upper: true, Worst: airframe.Corner{GainScale: 0.8, LagScale: 1.5}}
+	if got, want := ck.String(), "settling time 0.1553 s > 0.15 s (sampled loop, gain ×0.8, lag ×1.5)"; got != want {
+		t.Errorf("Check.String() = %q, want %q", got, want)
+	}
+	ck.Worst = airframe.Nominal()
+	if got, want := ck.String(), "settling time 0.1553 s > 0.15 s (sampled loop)"; got != want {
+		t.Errorf("Check.String() at the nominal plant = %q, want %q", got, want)
 	}
 }

@@ -1,6 +1,8 @@
 // Package review produces what a reviewer signs a controller change off
 // on: the design report of an airframe (Markdown with SVG plots: root
-// locus, step responses, loop frequency response, z-plane map) and the
+// locus, step responses at the nominal plant and over the plant envelope,
+// the load-disturbance step, loop frequency response, sensitivity
+// functions, z-plane map) and the
 // comparison of two versions of an airframe file (changed inputs, changed
 // results, regressions flagged).
 //
@@ -66,8 +68,11 @@ func axisFigures(airframe string, a *plotAxis) ([]builtFigure, []Plot) {
 		{"locus", "Root locus near the target", func(a *plotAxis) (*figure, error) { return locusFigure(a, false) }},
 		{"locus-wide", "Root locus, all open-loop poles and zeros", func(a *plotAxis) (*figure, error) { return locusFigure(a, true) }},
 		{"step", "Unit-step responses against the spec", stepFigure},
+		{"envelope", "Unit-step responses at every plant of the envelope against the spec", envelopeStepFigure},
 		{"saturated", "Large setpoint step against the output limits, with and without anti-windup", saturatedFigure},
+		{"disturbance", "Load-disturbance step at every plant of the envelope, with the recovery", disturbanceFigure},
 		{"bode", "Loop frequency response with margins", bodeFigure},
+		{"sensitivity", "Sensitivity functions |S|, |T| and |C·S| of the nominal sampled loop against their bounds", sensitivityFigure},
 		{"zplane", "z-plane map of the sampled closed loop", zFigure},
 	}
 	var out []builtFigure

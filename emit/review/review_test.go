@@ -172,12 +172,16 @@ func parseSVG(data []byte) (svgDoc, error) {
 // the figure itself, one text element per entry, so an entry present
 // means its series was added with it.
 var expectedSeries = map[string][]string{
-	"locus":      {`^root locus, k = 0 … 10 × design gain$`, `^open-loop pole$`, `^open-loop zero$`, `^closed-loop poles at k = 1 \(design\)$`, `^target s\* = `, `^spec region: ζ ≥ [0-9.]+, σ ≥ [0-9.]+ 1/s$`},
-	"locus-wide": {`^root locus, k = 0`, `^open-loop pole$`, `^closed-loop poles at k = 1`, `^target s\* = `, `^spec region: `},
-	"step":       {`^continuous \(full order\)$`, `^discrete at [0-9.]+ Hz, every (sample|.* sample) marked$`, `^overshoot limit [0-9.]+ %$`, `^settling band ±[0-9.]+ % after [0-9.]+ ms$`},
-	"saturated":  {`^(with anti-windup \(|(p|pd|lead) \(no integrator to wind up\))`, `^output limits \[`, `^overshoot limit `, `^settling band `},
-	"bode":       {`^continuous, exact delay: PM `, `^discrete at [0-9.]+ Hz with compute delay: PM `, `^bars: phase margin at the crossover, gain margin at the phase crossover$`, `^Nyquist frequency π/T = `},
-	"zplane":     {`^closed-loop pole$`, `^closed-loop zero \(setpoint → rate\)$`, `^target e\^\(s\*T\) = `, `^unit circle$`, `^spec region mapped by z = e\^\(sT\)$`},
+	"locus":       {`^root locus, k = 0 … 10 × design gain$`, `^open-loop pole$`, `^open-loop zero$`, `^closed-loop poles at k = 1 \(design\)$`, `^target s\* = `, `^spec region: ζ ≥ [0-9.]+, σ ≥ [0-9.]+ 1/s$`},
+	"locus-wide":  {`^root locus, k = 0`, `^open-loop pole$`, `^closed-loop poles at k = 1`, `^target s\* = `, `^spec region: `},
+	"step":        {`^continuous \(full order\)$`, `^discrete at [0-9.]+ Hz, every (sample|.* sample) marked$`, `^overshoot limit [0-9.]+ %$`, `^settling band ±[0-9.]+ % after [0-9.]+ ms$`},
+	"saturated":   {`^(with anti-windup \(|(p|pd|lead) \(no integrator to wind up\))`, `^output limits \[`, `^overshoot limit `, `^settling band `},
+	"bode":        {`^continuous, exact delay: PM `, `^discrete at [0-9.]+ Hz with compute delay: PM `, `^bars: phase margin at the crossover, gain margin at the phase crossover$`, `^Nyquist frequency π/T = `},
+	"envelope":    {`^range over the [0-9]+ plants verified$`, `^nominal plant$`, `^overshoot limit [0-9.]+ %$`, `^settling band ±[0-9.]+ % after [0-9.]+ ms$`},
+	"disturbance": {`^nominal plant$`, `^recovery band ±2 % of the nominal peak [0-9.e−]+ rad/s$`},
+	"sensitivity": {`^\|S\| = \|1/\(1 \+ L\)\|, peak Ms = [0-9.]+ at `, `^\|T\| = \|L/\(1 \+ L\)\|, peak Mt = [0-9.]+ at `, `^bound Ms ≤ [0-9.]+ \(`,
+		`^\|C·S\|, measurement noise → command$`, `^\|C\|, the controller alone: noise gain `, `^Nyquist frequency π/T = `},
+	"zplane": {`^closed-loop pole$`, `^closed-loop zero \(setpoint → rate\)$`, `^target e\^\(s\*T\) = `, `^unit circle$`, `^spec region mapped by z = e\^\(sT\)$`},
 }
 
 // TestSVGStructure builds the report of every demo airframe and checks
@@ -392,11 +396,21 @@ func TestBuildWithFailedAxis(t *testing.T) {
 }
 
 // Degenerate designs (an unstable loop: no step record, margins
-// undefined, no saturating step) still give a report, never a panic.
+// undefined, no saturating step, unstable plants of the envelope, no
+// sensitivity figures) still give a report, never a panic.
 func TestBuildDegenerate(t *testing.T) {
 	a := design(t, "testdata/review_demo.toml")
 	for _, x := range a.Axes {
 		d := x.Design
+		if d == nil {
+			continue // an axis that did not design: reported as such
+		}
+		for i := range d.Envelope {
+			f := &d.Envelope[i]
+			f.Stable, f.Y, f.YD = false, nil, nil
+			f.Ms, f.Mt, f.Margins.PhaseDeg = math.NaN(), math.NaN(), math.NaN()
+			f.Disturbance.Peak, f.Disturbance.Recovery = math.Inf(1), math.Inf(1)
+		}
 		d.Verif.Y, d.Verif.U, d.Cont.Verif.Y = nil, nil, nil
 		d.Verif.Stable, d.Cont.Verif.Stable = false, false
 		d.Verif.Margins.PhaseDeg, d.Verif.Margins.Crossover = math.NaN(), math.NaN()
@@ -413,7 +427,88 @@ func TestBuildDegenerate(t *testing.T) {
 			t.Errorf("%s: %v", f.Name, err)
 		}
 	}
+	md := string(files[0].Data)
+	for _, bad := range []string{"NaN", "Inf", "%!"} {
+		if strings.Contains(md, bad) {
+			t.Errorf("the report contains %q", bad)
+		}
+	}
 }
+
+// The review of a design whose traces were dropped (a batch without
+// KeepTraces) says why the envelope's plots are missing rather than
+// drawing empty ones.
+func TestBuildWithoutTraces(t *testing.T) {
+	a := design(t, "../../examples/quadrotor.toml")
+	for _, x := range a.Axes {
+		x.Design.DropTraces()
+	}
+	files, err := Build(a)
+	if err != nil {
+		t.Fatal(err)
+	}
+	md := string(files[0].Data)
+	for _, f := range files[1:] {
+		if k := kindOf(a.File.Airframe, f.Name); k == "envelope" || k == "disturbance" {
+			t.Errorf("%s drawn without traces", f.Name)
+		}
+	}
+	if !strings.Contains(md, "not drawn (no plant of the envelope has a stable recorded response)") {
+		t.Errorf("the report does not say why the envelope plot is missing")
+	}
+}
+
+// The review page holds the robustness evidence: the spec's new bounds,
+// the nominal figures, the checks with their worst plants, and a row per
+// plant of the envelope.
+func TestMarkdownEnvelope(t *testing.T) {
+	a := design(t, "../../examples/quadrotor.toml")
+	files, err := Build(a)
+	if err != nil {
+		t.Fatal(err)
+	}
+	md := string(files[0].Data)
+	for _, want := range []string{
+		"| sensitivity peak Ms | ≤ 1.7 | max \\|1/(1 + L)\\|: gain margin ≥ 2.43, phase margin ≥ 34.21° |",
+		"| plant envelope | gain ×[0.9, 1.1], lag ×[1, 1], delay +[0, 0] s |",
+		"| check | worst value | limit | result | worst at |",
+		"### Plant envelope",
+		"| complementary sensitivity peak Mt | – | – | ",
+	} {
+		if !strings.Contains(md, want) {
+			t.Errorf("the report lacks %q", want)
+		}
+	}
+	// Ms ≤ 1.7 guarantees GM ≥ 1.7/0.7 = 2.43 and PM ≥ 2·asin(1/3.4) =
+	// 34.2° (README, max_sensitivity; Åström & Murray, Feedback Systems,
+	// from memory): the row above checks the page's arithmetic.
+	for _, x := range a.Axes {
+		d := x.Design
+		sec := md[strings.Index(md, "## Axis "+x.Name):]
+		if i := strings.Index(sec[1:], "\n## "); i > 0 {
+			sec = sec[:i]
+		}
+		rows := regexp.MustCompile(`(?m)^\| (nominal|corner|between) \| ×`).FindAllString(sec, -1)
+		if len(rows) != len(d.Envelope) || !strings.HasPrefix(rows[0], "| nominal") {
+			t.Errorf("axis %s: %d plant rows (first %q), want %d, the nominal first", x.Name, len(rows), rows, len(d.Envelope))
+		}
+		for _, c := range d.Checks {
+			if c.Name != "settling_time" {
+				continue
+			}
+			st := "ok"
+			if !c.OK {
+				st = "**FAIL**"
+			}
+			row := "| settling time | " + sec4(c.Value) + " | ≤ " + sec4(c.Limit) + " | " + st + " | " + mdCorner(c.Worst) + " |"
+			if !strings.Contains(sec, row) {
+				t.Errorf("axis %s: no check row %q", x.Name, row)
+			}
+		}
+	}
+}
+
+func sec4(x float64) string { return g(x, 4) + " s" }
 
 // loadAirframe reads and parses the airframe file at path.
 func loadAirframe(path string) (*airframe.File, error) {

@@ -15,7 +15,9 @@ import (
 // WriteTable writes the human-readable summary of one airframe: per axis
 // the target, the gains in parallel and series form, the continuous and the
 // sampled figures side by side against the spec with pass/FAIL, the
-// saturated step, the closed-loop poles and the warnings.
+// plant envelope (the figures at every plant verified, and where each
+// check is worst), the saturated step, the closed-loop poles and the
+// warnings.
 //
 // Numbers are printed with four significant digits (%.4g): enough to
 // compare with a hand calculation, few enough that the last bits of a
@@ -99,6 +101,7 @@ func (t *tableWriter) axis(a *discrete.Airframe, x discrete.Outcome) {
 	t.line("  discrete   %s", tabDiscrete(d))
 	t.line("")
 	t.metrics(d)
+	t.envelope(d)
 	t.saturated(d)
 	t.numeric(d)
 	t.line("")
@@ -147,6 +150,11 @@ func (t *tableWriter) metrics(d *discrete.Design) {
 		spec, res := "", ""
 		if c, ok := find(name); ok {
 			spec, res = tabSpec(c), tabPass(c.OK)
+			if !c.OK && c.Worst != (airframe.Corner{}) && c.Worst != airframe.Nominal() {
+				// The value shown is the nominal plant's; the check
+				// failed at another plant of the envelope (below).
+				res = "FAIL (envelope)"
+			}
 			if q, ok := find("quantized_" + name); ok && !q.OK && c.OK {
 				res = "FAIL (quantized)"
 			}
@@ -187,7 +195,7 @@ func (t *tableWriter) metrics(d *discrete.Design) {
 	metric("overshoot", "overshoot", contStep(cv.Stable, cv.Step.Overshoot, tabPct), stepVal(&dv, over, tabPct), stepVal(qv, over, tabPct))
 	metric(fmt.Sprintf("settling (%s band)", tabPctShort(band)), "settling_time", contStep(cv.Stable, cv.Step.Settling, tabSec), stepVal(&dv, settle, tabSec), stepVal(qv, settle, tabSec))
 	metric("rise time 10-90 %", "", contStep(cv.Stable, cv.Step.Rise, tabSec), stepVal(&dv, rise, tabSec), stepVal(qv, rise, tabSec))
-	metric("steady-state error", "", contStep(cv.Stable, cv.SteadyStateError, tabPct), stepVal(&dv, sse, tabPct), stepVal(qv, sse, tabPct))
+	metric("steady-state error", "steady_error", contStep(cv.Stable, cv.SteadyStateError, tabPct), stepVal(&dv, sse, tabPct), stepVal(qv, sse, tabPct))
 	metric("phase margin", "phase_margin", tabDeg(cv.Margins.PhaseDeg), marg(&dv, pm, tabDeg), marg(qv, pm, tabDeg))
 	metric("gain margin", "gain_margin", tabDB(cv.Margins.GainDB), marg(&dv, gm, tabDB), marg(qv, gm, tabDB))
 	metric("crossover", "", tabRadps(cv.Margins.Crossover), marg(&dv, wc, tabRadps), marg(qv, wc, tabRadps))
@@ -195,6 +203,27 @@ func (t *tableWriter) metrics(d *discrete.Design) {
 	zText := func(x float64) string { return "|z| " + synth.G4(x) }
 	metric("stability (max)", "stable", "Re "+synth.G4(tabMaxRe(cv.Poles)), marg(&dv, maxZ, zText), marg(qv, maxZ, zText))
 	metric("sampling", "sampling", "", "ω/Nyquist "+synth.G4(tabSampling(checks)), "")
+	// The figures of the final verification at the nominal plant, and the
+	// controller's noise gain: the sampled loop only.
+	if len(d.Envelope) > 0 {
+		n := d.Envelope[0]
+		nom := func(x float64, f func(float64) string) string {
+			if !n.Stable {
+				return "unstable"
+			}
+			return f(x)
+		}
+		metric("sensitivity peak Ms", "max_sensitivity", "", nom(n.Ms, synth.G4), "")
+		metric("compl. sens. peak Mt", "", "", nom(n.Mt, synth.G4), "")
+		metric("noise gain", "noise_gain", "", synth.G4(d.NoiseGain), "")
+		if d.Problem.Ctrl.Form.HasIntegral() {
+			metric("hold rate", "hold_rate", "", tabUnbounded(n.HoldRate, tabRadps), "")
+		}
+		ds := n.Disturbance
+		metric("load step: peak", "", "", nom(ds.Peak, tabRadps), "")
+		metric("load step: IAE", "", "", nom(ds.IAE, func(v float64) string { return synth.G4(v) + " rad" }), "")
+		metric("load step: recovery", "disturbance_recovery", "", nom(ds.Recovery, tabSec), "")
+	}
 	// The checks left are those of the numeric realization (overflow,
 	// limit cycle): their values go in the quantized column when there is
 	// one.
@@ -206,6 +235,59 @@ func (t *tableWriter) metrics(d *discrete.Design) {
 			}
 			row(tabCheckLabel(c.Name), "", disc, quant, tabSpec(c), tabPass(c.OK))
 		}
+	}
+}
+
+// envelope writes the plant envelope: its intervals, the figures of the
+// sampled loop at every plant of the final verification, and for each
+// check of the envelope its worst value and the plant where it is. The
+// metrics table above is the nominal plant; the checks judge the worst.
+// Nothing for an envelope of the nominal plant alone.
+func (t *tableWriter) envelope(d *discrete.Design) {
+	n := len(d.Envelope)
+	if n == 0 {
+		return
+	}
+	t.line("")
+	t.line("  discrete: the nominal plant; load step %s (command units) at the plant input",
+		synth.G4(d.Envelope[0].Disturbance.Step))
+	if n == 1 {
+		return
+	}
+	e := d.Problem.Envelope.Normalized()
+	t.line("  envelope   gain ×[%s, %s], lag ×[%s, %s], delay +[%s, %s] s: %d plants verified",
+		synth.G4(e.GainScale[0]), synth.G4(e.GainScale[1]), synth.G4(e.LagScale[0]), synth.G4(e.LagScale[1]),
+		synth.G4(e.DelayAdd[0]), synth.G4(e.DelayAdd[1]), n)
+	const prow = "  %-7s %-7s %-10s %-7s %-10s %-10s %-8s %-9s %s"
+	t.line(prow, "gain", "lag", "delay", "stable", "overshoot", "settling", "PM", "GM", "Ms")
+	for _, f := range d.Envelope {
+		c := f.Corner
+		st, ov, ts, ms := "yes", tabPct(f.Step.Overshoot), tabSec(f.Step.Settling), synth.G4(f.Ms)
+		if !f.Stable {
+			st, ov, ts, ms = "NO", "–", "–", "–"
+		}
+		row := fmt.Sprintf(prow, "×"+synth.G4(c.GainScale), "×"+synth.G4(c.LagScale), tabSignedSec(c.DelayAdd), st, ov, ts,
+			tabDeg(f.Margins.PhaseDeg), tabDB(f.Margins.GainDB), ms)
+		t.line("%s", strings.TrimRight(row, " "))
+	}
+	t.line("")
+	const wrow = "  %-20s %-12s %-12s %-6s %s"
+	t.line(wrow, "worst over envelope", "value", "spec", "check", "at")
+	for _, c := range d.Checks {
+		if c.Worst == (airframe.Corner{}) || c.Name == "noise_gain" {
+			continue // a check of the nominal loop or the controller alone
+		}
+		v, at := synth.CheckValue(c.Name, c.Value), synth.CornerText(c.Worst)
+		switch v {
+		case "0", "0 %":
+			// The worst is nil, so is every plant's (a steady-state
+			// error with an integrator): no plant stands out.
+			at = "every plant"
+		}
+		if c.Name == "stable" {
+			v = "|z| " + v
+		}
+		t.line(wrow, tabCheckLabel(c.Name), v, tabSpec(c), tabPass(c.OK), at)
 	}
 }
 
@@ -256,13 +338,19 @@ func (t *tableWriter) numeric(d *discrete.Design) {
 	}
 }
 
-// tabCheckLabel names a check that has no row of its own.
+// tabCheckLabel names a check in the table's words.
 func tabCheckLabel(name string) string {
 	switch name {
 	case "overflow":
 		return "overflow headroom"
 	case "limit_cycle":
 		return "limit cycle at rest"
+	case "max_sensitivity":
+		return "sensitivity peak Ms"
+	case "steady_error":
+		return "steady-state error"
+	case "disturbance_recovery":
+		return "load-step recovery"
 	}
 	return strings.ReplaceAll(name, "_", " ")
 }
@@ -444,6 +532,27 @@ func tabPct(x float64) string {
 		return synth.G4(100*v) + " %"
 	})
 }
+
+// tabUnbounded is f(x), or "unbounded" for +Inf (a rate the integrator
+// can hold whatever its size).
+func tabUnbounded(x float64, f func(float64) string) string {
+	if math.IsInf(x, 1) {
+		return "unbounded"
+	}
+	return f(x)
+}
+
+// tabSignedSec writes an added delay with its sign, "+0.001 s".
+func tabSignedSec(x float64) string {
+	switch {
+	case x > 0:
+		return "+" + tabSec(x)
+	case x < 0:
+		return "-" + tabSec(-x)
+	}
+	return "0 s"
+}
+
 func tabPctShort(x float64) string { return synth.G4(100*x) + " %" }
 func tabDeg(x float64) string {
 	return tabFiniteOr(x, func(v float64) string { return synth.G4(v) + "°" })

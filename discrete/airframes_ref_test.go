@@ -1,0 +1,427 @@
+package discrete_test
+
+// The airframes of the brute-force reference (reference_test.go). Every
+// one is demo data: an invented vehicle or mechanism whose numbers are
+// plausible for its kind and describe no real product. Each file has one
+// axis and goes through airframe.Parse, so that every default applies
+// exactly as it does for a user's file.
+//
+// What they cover: integrating plants with motor lag (multirotor roll and
+// yaw, slow and fast motors), non-integrating first- and second-order
+// plants (fixed-wing roll and pitch), lightly damped resonances (compliant
+// joints: a pole pair of damping 0.07 and 0.1 within a decade above the
+// crossover), long transport delays (15 to 50 samples), gimbal-like
+// plants, every form (p, pi, pd, pid, lead), the default envelope and
+// gain, lag and delay intervals, loop rates from 250 Hz to 8 kHz,
+// hold_rate (given, and by default from a Q15 input_full_scale), one
+// disturbance_recovery and one explicit max_noise_gain.
+
+// refAirframe is one airframe of the reference: its name (the file name of
+// its stored reference) and its TOML text.
+type refAirframe struct {
+	name string
+	toml string
+}
+
+// refAirframes returns the reference's airframes in a fixed order.
+func refAirframes() []refAirframe {
+	return []refAirframe{
+		{"quad_slow_roll", `
+airframe = "quad_slow_roll"
+description = "demo data: invented heavy-lift quadrotor with slow, large propellers; roll; not a real vehicle"
+loop_hz = 1000.0
+
+[axes.roll.plant]
+effectiveness = 1800.0
+motor_tau = 0.045
+delay = 0.003
+
+[axes.roll.sensor]
+lowpass_hz = 80.0
+
+[axes.roll.spec]
+settling_time = 0.2
+overshoot = 0.1
+min_phase_margin = 40.0
+min_gain_margin = 6.0
+hold_rate = 20.0
+
+[axes.roll.control]
+form = "pid"
+output_limit = [-0.5, 0.5]
+`},
+		{"quad_fast_yaw", `
+airframe = "quad_fast_yaw"
+description = "demo data: invented 5-inch quadrotor with fast motors; yaw by reaction torque; not a real vehicle"
+loop_hz = 4000.0
+
+[axes.yaw.plant]
+effectiveness = 400.0
+motor_tau = 0.012
+delay = 0.0005
+
+[axes.yaw.sensor]
+lowpass_hz = 250.0
+
+[axes.yaw.spec]
+settling_time = 0.15
+overshoot = 0.08
+min_phase_margin = 45.0
+min_gain_margin = 6.0
+
+[axes.yaw.control]
+form = "pi"
+output_limit = [-0.3, 0.3]
+
+[axes.yaw.envelope]
+lag_scale = [0.8, 1.25]
+`},
+		{"racer_roll", `
+airframe = "racer_roll"
+description = "demo data: invented racing quadrotor at an 8 kHz loop; roll; not a real vehicle"
+loop_hz = 8000.0
+
+[axes.roll.plant]
+effectiveness = 9000.0
+motor_tau = 0.015
+delay = 0.00025
+
+[axes.roll.sensor]
+lowpass_hz = 500.0
+
+[axes.roll.spec]
+settling_time = 0.04
+overshoot = 0.1
+min_phase_margin = 40.0
+min_gain_margin = 6.0
+
+[axes.roll.control]
+form = "pid"
+output_limit = [-1.0, 1.0]
+
+[axes.roll.envelope]
+gain_scale = [0.8, 1.2]
+delay_add = [0.0, 0.0005]
+`},
+		{"fw_roll_first", `
+airframe = "fw_roll_first"
+description = "demo data: invented small fixed-wing UAV; roll rate as a first-order roll-damping mode; not a real vehicle"
+loop_hz = 250.0
+
+[axes.roll.plant]
+gain = 40.0
+poles = [-4.0]
+delay = 0.008
+
+[axes.roll.sensor]
+lowpass_hz = 30.0
+
+[axes.roll.spec]
+settling_time = 0.5
+overshoot = 0.05
+min_phase_margin = 50.0
+min_gain_margin = 8.0
+
+[axes.roll.control]
+form = "pi"
+
+[axes.roll.envelope]
+gain_scale = [0.7, 1.4]
+lag_scale = [0.8, 1.25]
+`},
+		{"fw_roll_servo", `
+airframe = "fw_roll_servo"
+description = "demo data: invented fixed-wing UAV; roll mode and aileron servo as two real poles; not a real vehicle"
+loop_hz = 500.0
+
+[axes.roll.plant]
+gain = 1000.0
+poles = [-4.0, -25.0]
+delay = 0.004
+
+[axes.roll.sensor]
+lowpass_hz = 40.0
+
+[axes.roll.spec]
+settling_time = 0.35
+overshoot = 0.08
+min_phase_margin = 45.0
+min_gain_margin = 6.0
+
+[axes.roll.control]
+form = "pid"
+`},
+		{"fw_pitch_p", `
+airframe = "fw_pitch_p"
+description = "demo data: invented fixed-wing UAV; pitch rate (short period and elevator servo) under proportional control; not a real vehicle"
+loop_hz = 500.0
+
+[axes.pitch.plant]
+gain = 800.0
+poles = [-2.5, -20.0]
+delay = 0.004
+
+[axes.pitch.sensor]
+lowpass_hz = 40.0
+
+[axes.pitch.spec]
+settling_time = 0.4
+settling_band = 0.05
+overshoot = 0.25
+max_steady_error = 0.15
+min_phase_margin = 40.0
+min_gain_margin = 6.0
+
+[axes.pitch.control]
+form = "p"
+`},
+		{"joint_compliant", `
+airframe = "joint_compliant"
+description = "demo data: invented robot joint with a compliant harmonic drive (pole pair at 150 rad/s, damping 0.07); not a real product"
+loop_hz = 1000.0
+
+[axes.joint.plant]
+gain = 1.125e7
+poles = [0.0, -30.0, [-10.5, 149.63]]
+
+[axes.joint.sensor]
+lowpass_hz = 150.0
+
+[axes.joint.spec]
+settling_time = 0.3
+overshoot = 0.1
+min_phase_margin = 40.0
+min_gain_margin = 8.0
+
+[axes.joint.control]
+form = "pid"
+discretize = "tustin_prewarp"
+
+[axes.joint.envelope]
+gain_scale = [0.8, 1.25]
+lag_scale = [0.9, 1.1]
+`},
+		{"joint_lead", `
+airframe = "joint_lead"
+description = "demo data: invented light robot arm joint with a belt compliance (pole pair at 250 rad/s, damping 0.1) under a lead; not a real product"
+loop_hz = 2000.0
+
+[axes.joint.plant]
+gain = 1.875e7
+poles = [0.0, -50.0, [-25.0, 248.75]]
+
+[axes.joint.sensor]
+lowpass_hz = 200.0
+
+[axes.joint.spec]
+settling_time = 0.25
+overshoot = 0.1
+min_phase_margin = 45.0
+
+[axes.joint.control]
+form = "lead"
+lead_zero = -40.0
+`},
+		{"crawler_delay", `
+airframe = "crawler_delay"
+description = "demo data: invented tracked crawler; yaw rate through a slow hydraulic drive with a long dead time (15 to 20 samples); not a real vehicle"
+loop_hz = 500.0
+
+[axes.yaw.plant]
+gain = 6.0
+poles = [-1.5]
+delay = 0.03
+
+[axes.yaw.sensor]
+lowpass_hz = 20.0
+
+[axes.yaw.spec]
+settling_time = 0.8
+overshoot = 0.05
+min_phase_margin = 45.0
+min_gain_margin = 6.0
+
+[axes.yaw.control]
+form = "pi"
+
+[axes.yaw.envelope]
+delay_add = [-0.004, 0.01]
+`},
+		{"telebot_delay", `
+airframe = "telebot_delay"
+description = "demo data: invented teleoperated pan unit behind a slow bus (40 to 50 samples of dead time); not a real product"
+loop_hz = 2000.0
+
+[axes.pan.plant]
+effectiveness = 50.0
+motor_tau = 0.05
+delay = 0.02
+
+[axes.pan.sensor]
+lowpass_hz = 30.0
+
+[axes.pan.spec]
+settling_time = 0.8
+overshoot = 0.1
+min_phase_margin = 45.0
+min_gain_margin = 6.0
+
+[axes.pan.control]
+form = "pid"
+derivative_lowpass_hz = 20.0
+
+[axes.pan.envelope]
+delay_add = [0.0, 0.005]
+`},
+		{"gimbal_q15_pitch", `
+airframe = "gimbal_q15_pitch"
+description = "demo data: invented Q15 camera gimbal, pitch (inertia with friction); hold_rate from input_full_scale; not a real product"
+loop_hz = 2000.0
+
+[numeric]
+type = "q15"
+input_full_scale = 4.0
+output_full_scale = 1.0
+
+[axes.pitch.plant]
+gain = 6000.0
+poles = [0.0, -20.0]
+delay = 0.0005
+
+[axes.pitch.sensor]
+lowpass_hz = 200.0
+
+[axes.pitch.spec]
+settling_time = 0.06
+overshoot = 0.05
+min_phase_margin = 45.0
+min_gain_margin = 6.0
+
+[axes.pitch.control]
+form = "pid"
+derivative_lowpass_hz = 250.0
+integrator_limit = 0.2
+`},
+		{"gimbal_pd_yaw", `
+airframe = "gimbal_pd_yaw"
+description = "demo data: invented handheld gimbal, yaw under PD; not a real product"
+loop_hz = 1000.0
+
+[axes.yaw.plant]
+effectiveness = 2500.0
+motor_tau = 0.008
+
+[axes.yaw.sensor]
+lowpass_hz = 150.0
+
+[axes.yaw.spec]
+settling_time = 0.1
+settling_band = 0.05
+overshoot = 0.05
+min_phase_margin = 45.0
+
+[axes.yaw.control]
+form = "pd"
+derivative_lowpass_hz = 100.0
+`},
+		{"mast_p", `
+airframe = "mast_p"
+description = "demo data: invented antenna mast pan drive under proportional control; not a real product"
+loop_hz = 500.0
+
+[axes.pan.plant]
+effectiveness = 200.0
+motor_tau = 0.02
+
+[axes.pan.sensor]
+lowpass_hz = 50.0
+
+[axes.pan.spec]
+settling_time = 0.3
+overshoot = 0.05
+min_phase_margin = 50.0
+min_gain_margin = 8.0
+
+[axes.pan.control]
+form = "p"
+`},
+		{"quad_dist_roll", `
+airframe = "quad_dist_roll"
+description = "demo data: invented inspection quadrotor that must reject gusts quickly (disturbance_recovery); roll; not a real vehicle"
+loop_hz = 2000.0
+
+[axes.roll.plant]
+effectiveness = 3000.0
+motor_tau = 0.025
+delay = 0.001
+
+[axes.roll.sensor]
+lowpass_hz = 120.0
+
+[axes.roll.spec]
+settling_time = 0.12
+overshoot = 0.1
+min_phase_margin = 40.0
+min_gain_margin = 6.0
+disturbance_recovery = 0.25
+
+[axes.roll.control]
+form = "pid"
+output_limit = [-0.5, 0.5]
+
+[axes.roll.envelope]
+lag_scale = [0.8, 1.3]
+`},
+		{"hexa_noise_pitch", `
+airframe = "hexa_noise_pitch"
+description = "demo data: invented camera hexacopter with an explicit noise-gain bound; pitch; not a real vehicle"
+loop_hz = 1000.0
+
+[axes.pitch.plant]
+effectiveness = 1500.0
+motor_tau = 0.035
+delay = 0.002
+
+[axes.pitch.sensor]
+lowpass_hz = 90.0
+
+[axes.pitch.spec]
+settling_time = 0.2
+overshoot = 0.1
+min_phase_margin = 40.0
+min_gain_margin = 6.0
+max_noise_gain = 0.25
+
+[axes.pitch.control]
+form = "pid"
+output_limit = [-0.5, 0.5]
+`},
+		{"rover_lead_pan", `
+airframe = "rover_lead_pan"
+description = "demo data: invented rover camera mast at a 250 Hz loop under a lead; not a real vehicle"
+loop_hz = 250.0
+
+[axes.pan.plant]
+effectiveness = 80.0
+motor_tau = 0.03
+delay = 0.004
+
+[axes.pan.sensor]
+lowpass_hz = 30.0
+
+[axes.pan.spec]
+settling_time = 0.35
+overshoot = 0.08
+min_phase_margin = 45.0
+min_gain_margin = 6.0
+
+[axes.pan.control]
+form = "lead"
+lead_zero = -30.0
+
+[axes.pan.envelope]
+gain_scale = [0.8, 1.25]
+delay_add = [-0.002, 0.004]
+`},
+	}
+}
