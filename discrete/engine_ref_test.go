@@ -89,6 +89,31 @@ type refFamily struct {
 	ctrl func(v []float64) synth.Controller
 }
 
+// coords returns the log10 parameter values of c, the inverse of ctrl;
+// false when one is not positive.
+func (f refFamily) coords(c synth.Controller) ([]float64, bool) {
+	var v []float64
+	switch c.Form {
+	case airframe.FormP:
+		v = []float64{c.Kp}
+	case airframe.FormPI:
+		v = []float64{c.Kp, c.Ki}
+	case airframe.FormPD:
+		v = []float64{c.Kp, c.Kd}
+	case airframe.FormPID:
+		v = []float64{c.Kp, c.Ki, c.Kd}
+	case airframe.FormLead:
+		v = []float64{c.Pole / c.Zero, c.K}
+	}
+	for i := range v {
+		if !(v[i] > 0) || math.IsInf(v[i], 0) {
+			return nil, false
+		}
+		v[i] = math.Log10(v[i])
+	}
+	return v, len(v) == len(f.params)
+}
+
 // Coarse grid sizes: 0.01 decade for the one parameter of a p, 0.067
 // decade for the two of pi, pd and lead, 0.167 decade for the three of a
 // pid (the local refinement then goes down to about 0.001 decade).
@@ -399,11 +424,19 @@ type refRun struct {
 	coarseBest *refPoint
 	atEdge     []string // parameters whose coarse best lies on the grid's edge
 	finalStep  []float64
-	grids      int // local grids of the climb
+	grids      int // local grids of the climb from the coarse grid
+	// gridBest is the best of the coarse grid and its climb, found with
+	// gridCalls assessments, before the climb from the tool's design
+	// (toolGrids local grids).
+	gridBest  *refPoint
+	gridCalls int
+	toolGrids int
 }
 
-// run searches the coarse grid, then refines.
-func (e *refEngine) run() refRun {
+// run searches the coarse grid and climbs from its best points; then,
+// when tool is not nil, climbs again from that controller (the tool's own
+// design): a second, local search whose result is reported apart.
+func (e *refEngine) run(tool *synth.Controller) refRun {
 	var r refRun
 	var pts []*refPoint
 	for _, u := range e.grid() {
@@ -411,12 +444,12 @@ func (e *refEngine) run() refRun {
 	}
 	r.coarse = len(pts)
 	e.sweep(pts, refSeedBand)
-	h := e.steps()
+	h0 := e.steps()
 	if e.best != nil {
 		r.coarseBest = e.best
 		for d, pr := range e.fam.params {
 			lo, hi := math.Log10(pr.Lo), math.Log10(pr.Hi)
-			if math.Abs(e.best.u[d]-lo) < h[d]/2 || math.Abs(e.best.u[d]-hi) < h[d]/2 {
+			if math.Abs(e.best.u[d]-lo) < h0[d]/2 || math.Abs(e.best.u[d]-hi) < h0[d]/2 {
 				r.atEdge = append(r.atEdge, pr.Name)
 			}
 		}
@@ -428,30 +461,49 @@ func (e *refEngine) run() refRun {
 			}
 			return cmp.Compare(a.seq, b.seq)
 		})
-		seeds = seeds[:min(refSeeds, len(seeds))]
-		k := refDivision(len(h))
-		stop := h[0] * refShrink
-		for r.grids < refMaxGrids && h[0] >= stop*(1-1e-9) {
-			centers := []*refPoint{e.best}
-			if r.grids == 0 {
-				centers = seeds
-			}
-			var loc []*refPoint
-			for _, c := range centers {
-				for _, u := range local(c.u, h, k) {
-					loc = append(loc, e.point(u))
-				}
-			}
-			before := e.best
-			e.sweep(loc, 1)
-			r.grids++
-			if e.best == before {
-				for d := range h {
-					h[d] /= float64(k)
-				}
+		r.finalStep = e.climb(seeds[:min(refSeeds, len(seeds))], h0, &r.grids)
+	}
+	r.gridBest, r.gridCalls = e.best, e.calls
+	if tool != nil {
+		if u, ok := e.fam.coords(*tool); ok {
+			pt := e.point(u)
+			e.sweep([]*refPoint{pt}, 1)
+			if e.best != nil {
+				r.finalStep = e.climb([]*refPoint{pt}, h0, &r.toolGrids)
 			}
 		}
 	}
-	r.best, r.calls, r.errs, r.finalStep = e.best, e.calls, e.errs, h
+	r.best, r.calls, r.errs = e.best, e.calls, e.errs
 	return r
+}
+
+// climb lays local grids, the first around the seeds, then around the best
+// point, at the spacing h while they find a better point and at 1/k of it
+// when not, until the spacing falls to refShrink of h; it counts the grids
+// in n and returns the last spacing.
+func (e *refEngine) climb(seeds []*refPoint, h0 []float64, n *int) []float64 {
+	h := slices.Clone(h0)
+	k := refDivision(len(h))
+	stop := h[0] * refShrink
+	for grids := 0; grids < refMaxGrids && h[0] >= stop*(1-1e-9); grids++ {
+		centers := []*refPoint{e.best}
+		if grids == 0 {
+			centers = seeds
+		}
+		var loc []*refPoint
+		for _, c := range centers {
+			for _, u := range local(c.u, h, k) {
+				loc = append(loc, e.point(u))
+			}
+		}
+		before := e.best
+		e.sweep(loc, 1)
+		*n++
+		if e.best == before {
+			for d := range h {
+				h[d] /= float64(k)
+			}
+		}
+	}
+	return h
 }

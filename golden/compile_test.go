@@ -116,7 +116,11 @@ func cLevels(ccs []string) []cLevel {
 // header-only variant is thus included from three translation units
 // linked together, which fails if a function had external linkage. A
 // variant whose golden files have no vector program gets the generated
-// one, whose main the link needs.
+// one, whose main the link needs. The header must compile as C++ too.
+//
+// With -short each file is built by the first host compiler at -O2 only,
+// and not as C++: the rest is a sweep over compilers, levels and
+// languages, which the full suite runs.
 func TestCompileGoldenC(t *testing.T) {
 	t.Parallel()
 	ccs := hostCompilers(t)
@@ -141,11 +145,11 @@ func TestCompileGoldenC(t *testing.T) {
 				for _, l := range cLevels(ccs) {
 					buildC(t, l.cc, append(append([]string{}, strictC...), l.opt), prog, files)
 				}
+				if testing.Short() {
+					return
+				}
 				// C++ code includes the header too (extern "C" for the
 				// prototypes; the header-only functions as C++).
-				if testing.Short() {
-					return // a sweep over languages; the full suite runs it
-				}
 				dir := writeSources(t, prog)
 				for _, cxx := range []string{"g++", "clang++"} {
 					if p, err := exec.LookPath(cxx); err == nil {

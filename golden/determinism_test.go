@@ -136,43 +136,55 @@ func TestCrossArchDeterminism(t *testing.T) {
 		{"--lang", "c", "--c-header-only"},
 		{"--lang", "go", "--vectors"},
 	}
+	// The flag sets run side by side; the runs of one set (mostly under
+	// the emulator) one after the other.
 	for i, fl := range flagSets {
-		outs := map[string]map[string][]byte{}
-		for _, who := range []struct{ name, emu, bin string }{{"host", "", host}, {"host-again", "", host}, {"arm64", emu, arm}} {
-			o := filepath.Join(work, fmt.Sprintf("out-%d-%s", i, who.name))
-			if err := os.Mkdir(o, 0o755); err != nil {
-				t.Fatal(err)
-			}
-			// Go takes one airframe per run (a package each).
-			batches := [][]string{inputs}
-			if fl[1] == "go" {
-				batches = nil
-				for _, in := range inputs {
-					batches = append(batches, []string{in})
-				}
-			}
-			for _, b := range batches {
-				args := append(append([]string{"emit", "-o", o, "--allow-unmet"}, fl...), b...)
-				out, code, err := runCLI(work, who.emu, who.bin, args...)
-				if err != nil || code != 0 {
-					t.Fatalf("%s %s: exit %d, %v\n%s", who.name, strings.Join(fl, " "), code, err, out)
-				}
-			}
-			outs[who.name] = snapshot(t, o)
+		t.Run(fl[1]+strings.TrimPrefix(fl[2], "-"), func(t *testing.T) {
+			t.Parallel()
+			crossArchRuns(t, work, inputs, fl, i, host, emu, arm)
+		})
+	}
+}
+
+// crossArchRuns runs emit with the flags fl on inputs twice on the host
+// and once on arm64 under emu, each into its own directory out-i-WHO of
+// work, and requires the same files, byte for byte.
+func crossArchRuns(t *testing.T, work string, inputs, fl []string, i int, host, emu, arm string) {
+	outs := map[string]map[string][]byte{}
+	for _, who := range []struct{ name, emu, bin string }{{"host", "", host}, {"host-again", "", host}, {"arm64", emu, arm}} {
+		o := filepath.Join(work, fmt.Sprintf("out-%d-%s", i, who.name))
+		if err := os.Mkdir(o, 0o755); err != nil {
+			t.Fatal(err)
 		}
-		ref := outs["host"]
-		if len(ref) == 0 {
-			t.Fatalf("%s: no files written", strings.Join(fl, " "))
-		}
-		for _, other := range []string{"host-again", "arm64"} {
-			got := outs[other]
-			if len(got) != len(ref) {
-				t.Errorf("%s %s: %d files, host %d", other, strings.Join(fl, " "), len(got), len(ref))
+		// Go takes one airframe per run (a package each).
+		batches := [][]string{inputs}
+		if fl[1] == "go" {
+			batches = nil
+			for _, in := range inputs {
+				batches = append(batches, []string{in})
 			}
-			for name, want := range ref {
-				if !bytes.Equal(got[name], want) {
-					t.Errorf("%s %s: %s differs from the host's output:\n%s", other, strings.Join(fl, " "), name, firstDiff(string(want), string(got[name])))
-				}
+		}
+		for _, b := range batches {
+			args := append(append([]string{"emit", "-o", o, "--allow-unmet"}, fl...), b...)
+			out, code, err := runCLI(work, who.emu, who.bin, args...)
+			if err != nil || code != 0 {
+				t.Fatalf("%s %s: exit %d, %v\n%s", who.name, strings.Join(fl, " "), code, err, out)
+			}
+		}
+		outs[who.name] = snapshot(t, o)
+	}
+	ref := outs["host"]
+	if len(ref) == 0 {
+		t.Fatalf("%s: no files written", strings.Join(fl, " "))
+	}
+	for _, other := range []string{"host-again", "arm64"} {
+		got := outs[other]
+		if len(got) != len(ref) {
+			t.Errorf("%s %s: %d files, host %d", other, strings.Join(fl, " "), len(got), len(ref))
+		}
+		for name, want := range ref {
+			if !bytes.Equal(got[name], want) {
+				t.Errorf("%s %s: %s differs from the host's output:\n%s", other, strings.Join(fl, " "), name, firstDiff(string(want), string(got[name])))
 			}
 		}
 	}

@@ -43,6 +43,14 @@ import (
 // over several decades around the plant's own gain scale, then a pattern
 // search (halving steps down to NearStep) from the best point.
 
+// NoiseFactor sets the default noise bound of the forms without an
+// integral (p, pd, lead): at most NoiseFactor times the least noise gain
+// with which the form meets every other check. Their load-rejection gain
+// and their noise gain grow together, so there is no knee to stop at (see
+// KneeNoise); the bound trades a quarter more gyro noise in the command
+// for load rejection, and never makes a feasible spec infeasible.
+const NoiseFactor = 1.25
+
 // NearBest is the band of the tie-break: among designs whose load-rejection
 // gain is within 2 % of the best one, the least noise gain is taken.
 const NearBest = 0.02
@@ -56,19 +64,17 @@ const NearBest = 0.02
 // design", 2012; from memory). Below the knee a little more noise buys
 // much more load rejection; beyond it, less. The default never makes a
 // feasible spec infeasible. Forms without an integral (p, pd, lead)
-// have no default bound: their load-rejection gain is itself the
-// high-frequency gain's main part, and the Ms bound limits it.
+// have NoiseFactor instead.
 const KneeNoise = "Ki/N²"
 
-// NoiseRatio is the default noise bound of the forms without an integral
-// (p, pd, lead), relative to their load-rejection gain J (Kp, or C(0)):
-// the noise gain at most twenty times J. For a pd it keeps the derivative
-// gain limit N = Td/Tf within the usual range of 8 to 20 (Åström &
-// Hägglund, Advanced PID Control, the derivative filter; from memory),
-// Kd/Tf ≤ 19·Kp; for a lead it bounds the lead ratio p/z by the same
-// twenty, beyond which a lead buys little phase for much noise (common
-// practice). A p has N = J and is not bounded. A knee like KneeNoise's
-// does not exist for these forms: J and N grow together.
+// NoiseRatio bounds the noise gain of the forms without an integral (p,
+// pd, lead) relative to their load-rejection gain J (Kp, or C(0)) while
+// the search looks for their least noise gain: at most twenty times J.
+// For a pd it keeps the derivative gain limit N = Td/Tf within the usual
+// range of 8 to 20 (Åström & Hägglund, Advanced PID Control, the
+// derivative filter; from memory), Kd/Tf ≤ 19·Kp; for a lead it bounds
+// the lead ratio p/z by the same twenty, beyond which a lead buys little
+// phase for much noise (common practice).
 const NoiseRatio = 20
 
 // unboundedMs is the sensitivity bound of the search when the spec gives
@@ -105,8 +111,11 @@ type family struct {
 	lo, hi []float64 // the grid spans ref·10^lo … ref·10^hi
 	steps  []int     // grid points per parameter
 	xRef   float64   // scale of x (caps an unbounded x)
-	ctrl   func(th []float64, x float64) Controller
-	gain   func(th []float64, x float64) float64 // the load-rejection gain
+	// floor, when set, bounds each shape parameter below (in the log
+	// units of lo and hi): a lead's pole must stay left of its zero.
+	floor []float64
+	ctrl  func(th []float64, x float64) Controller
+	gain  func(th []float64, x float64) float64 // the load-rejection gain
 }
 
 // newFamily sets up the search of form f around the gain scale g0 of the
@@ -122,7 +131,7 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 			return c
 		}}
 	case airframe.FormPI:
-		return family{ref: []float64{g0}, lo: []float64{-2.5}, hi: []float64{1.5}, steps: []int{25}, xRef: g0 * w0, gain: one,
+		return family{ref: []float64{g0}, lo: []float64{-2.5}, hi: []float64{1.5}, steps: []int{13}, xRef: g0 * w0, gain: one,
 			ctrl: func(th []float64, x float64) Controller {
 				c := base
 				c.Kp, c.Ki = th[0], x
@@ -134,7 +143,7 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 		// linear in x = Kp, and its noise gain relative to Kp depends on
 		// ρ alone.
 		tf := p.Ctrl.Tf()
-		return family{ref: []float64{1}, lo: []float64{-2}, hi: []float64{2}, steps: []int{25}, xRef: g0, gain: one,
+		return family{ref: []float64{1}, lo: []float64{-2}, hi: []float64{2}, steps: []int{13}, xRef: g0, gain: one,
 			ctrl: func(th []float64, x float64) Controller {
 				c := base
 				c.Kp, c.Kd = x, th[0]*tf*x
@@ -144,8 +153,8 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 		z := p.Ctrl.LeadZero
 		// θ is the pole's distance ratio r = p/z > 1 (pole left of the
 		// zero); the grid spans r from 1.02 to 200.
-		return family{ref: []float64{1}, lo: []float64{math.Log10(1.02)}, hi: []float64{math.Log10(200)}, steps: []int{25},
-			xRef: g0,
+		return family{ref: []float64{1}, lo: []float64{math.Log10(1.02)}, hi: []float64{math.Log10(200)}, steps: []int{13},
+			xRef: g0, floor: []float64{math.Log10(1.02)},
 			gain: func(th []float64, x float64) float64 { return x / th[0] },
 			ctrl: func(th []float64, x float64) Controller {
 				c := base
@@ -159,7 +168,7 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 	// coordinates a noise bound is a bound on n alone, so the search moves
 	// along it instead of across a diagonal ridge of (Kp, Kd).
 	tf := p.Ctrl.Tf()
-	return family{ref: []float64{g0, 1}, lo: []float64{-2, -2}, hi: []float64{2, 2}, steps: []int{17, 13}, xRef: g0 * w0, gain: one,
+	return family{ref: []float64{g0, 1}, lo: []float64{-2, -2}, hi: []float64{2, 2}, steps: []int{9, 7}, xRef: g0 * w0, gain: one,
 		ctrl: func(th []float64, x float64) Controller {
 			c := base
 			c.Kp = th[0] / (1 + th[1])
@@ -220,7 +229,11 @@ type searcher struct {
 	shut []string
 	// ratioB bounds the noise gain relative to the load-rejection gain
 	// (NoiseRatio, for the forms without an integral; 0: none).
-	ratioB     float64
+	ratioB float64
+	// fine scores failures on every weight, when the search looks for a
+	// small feasible set.
+	fine       bool
+	lastFail   int       // the plant of the last failed time check
 	th         []float64 // the shape of the last basis
 	reach      float64   // least settling time seen with every other check met
 	y0, y1, yb []float64
@@ -459,7 +472,7 @@ func (sr *searcher) screen(u []float64) *point {
 			return pt
 		}
 		lo, hi := small, x
-		for i := 0; i < 40 && hi/lo > 1.002; i++ {
+		for i := 0; i < 40 && hi/lo > 1.005; i++ {
 			m := math.Sqrt(lo * hi)
 			if okm, _, _ := sr.freqOK(m); okm {
 				lo = m
@@ -490,7 +503,7 @@ func shrinkSteps() []float64 {
 // plant by the exact test, then the time checks. With shrink, a gain that
 // fails the time checks is lowered along shrinkSteps until it passes; the
 // first that passes is returned (the largest passing gain of the steps).
-func (sr *searcher) judge(pt *point, x float64, shrink bool) (cand, error) {
+func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float64) bool) (cand, error) {
 	c := cand{pt: pt, x: x, settle: math.NaN()}
 	if !(pt.xf > 0) {
 		c.viol, c.fails = 1+pt.fviol, []string{pt.why}
@@ -498,7 +511,15 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool) (cand, error) {
 	}
 	sr.basis(pt.th)
 	steps := []float64{1}
-	if shrink {
+	switch {
+	case shrink && sr.fine:
+		// Looking for a small feasible set: the line of x finely, down to
+		// 1 % (64 steps of ×0.93).
+		steps = steps[:0]
+		for f := 1.0; f > 0.01; f *= 0.93 {
+			steps = append(steps, f)
+		}
+	case shrink:
 		steps = shrinkSteps()
 	}
 	x0 := x
@@ -527,7 +548,7 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool) (cand, error) {
 			c.ok = len(fails) == 0
 		}
 		sr.note(c)
-		if c.ok || sr.haveOK && c.gain <= sr.bestOK.gain {
+		if c.ok || worth != nil && !worth(x*0.85) {
 			return c, nil
 		}
 	}
@@ -678,7 +699,10 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 			alive = append(alive, j)
 		}
 	}
-	for i := 0; i < sr.ncorn && len(alive) > 0; i++ {
+	for n := 0; n < sr.ncorn && len(alive) > 0; n++ {
+		// The plant that failed last goes first: a failure is most often
+		// at the same corner, and ends the judgment early.
+		i := (n + sr.lastFail) % sr.ncorn
 		e, err := sr.L.Step(c, i)
 		if err != nil {
 			return 0, false, err
@@ -712,6 +736,7 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 			}
 		}
 		if stopped {
+			sr.lastFail = i
 			return 0, false, nil
 		}
 		yb := sr.yb[:e.N]
@@ -733,7 +758,11 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 			}
 		}
 		alive = next
+		if len(alive) == 0 {
+			sr.lastFail = i
+		}
 		if !c.Form.HasIntegral() && s.MaxSteadyError > 0 && math.Abs(1-e.Final1) > s.MaxSteadyError {
+			sr.lastFail = i
 			return 0, false, nil
 		}
 	}
@@ -769,8 +798,18 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 		}
 	}
 	// For each admitted weight: the worst violation over the plants, and
-	// the worst settling time when the overshoot is met.
-	nb := len(sr.bs)
+	// the worst settling time when the overshoot is met. Only the
+	// failures of candidates before the first passing one are scored
+	// here (they guide the search toward the feasible set), on every
+	// fourth weight: a guide needs no finer weights.
+	bs := sr.bs
+	if len(bs) > 5 && !sr.fine {
+		bs = nil
+		for j := 0; j < len(sr.bs); j += 4 {
+			bs = append(bs, sr.bs[j])
+		}
+	}
+	nb := len(bs)
 	worst := make([]float64, nb)
 	slow := make([]float64, nb)
 	osOK := make([]bool, nb)
@@ -788,7 +827,7 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 		}
 		y0, y1, yb := sr.y0[:e.N], sr.y1[:e.N], sr.yb[:e.N]
 		e.Respond(y0, y1)
-		for j, w := range sr.bs {
+		for j, w := range bs {
 			f := e.Final0 + w*(e.Final1-e.Final0)
 			if !(f > 0) || math.IsInf(f, 0) {
 				worst[j] = math.Inf(1)
@@ -811,7 +850,7 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 	}
 	best := -1
 	bestV, bestJ := math.Inf(1), -1
-	for j, w := range sr.bs {
+	for j, w := range bs {
 		if w < bh-1e-12 {
 			continue
 		}
@@ -826,12 +865,12 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 		}
 	}
 	if best >= 0 {
-		b = sr.bs[best]
+		b = bs[best]
 	} else {
 		if bestJ < 0 {
 			return 1, 1, []string{"hold_rate"}, settle, nil
 		}
-		b, viol = sr.bs[bestJ], bestV
+		b, viol = bs[bestJ], bestV
 		j := bestJ
 		if !osOK[j] {
 			fails = append(fails, "overshoot")
@@ -938,9 +977,9 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 	sr := newSearcher(p, L, g0, w0)
 	res := Result{NoiseBound: math.Inf(1), Reach: math.NaN()}
 	evals := 0
-	judge := func(pt *point, x float64, shrink bool) (cand, error) {
+	judge := func(pt *point, x float64, shrink bool, worth func(x float64) bool) (cand, error) {
 		evals++
-		return sr.judge(pt, x, shrink)
+		return sr.judge(pt, x, shrink, worth)
 	}
 	grid := sr.gridPoints()
 	step := sr.gridStep()
@@ -963,6 +1002,18 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 			res.NoiseBound = knee.noise * (1 + 1e-9)
 			sr.noiseB = res.NoiseBound
 			best, ok = knee, true
+		}
+	default:
+		// Forms without an integral: at most NoiseFactor times the least
+		// noise gain that meets every other check.
+		least, found, err := sr.leastNoise(grid, step, judge)
+		if err != nil {
+			return res, err
+		}
+		if found {
+			res.NoiseBound = NoiseFactor * least.noise
+			sr.noiseB, sr.ratioB = res.NoiseBound, 0
+			sr.bestOK, sr.haveOK = least, true
 		}
 	}
 	if !ok {
@@ -996,7 +1047,62 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 	return res, nil
 }
 
-type judgeFunc func(pt *point, x float64, shrink bool) (cand, error)
+// judgeFunc judges shape pt at gain x (see searcher.judge); worth says
+// whether a design of the shape at a lower gain could still beat the best
+// (nil: always).
+type judgeFunc func(pt *point, x float64, shrink bool, worth func(x float64) bool) (cand, error)
+
+// leastNoise finds the least noise gain with which a form without an
+// integral meets every other check. Its noise gain grows with x (Kp, or
+// K), so on each shape the line of x is scanned upward from 1 % of the
+// frequency checks' largest x, by factors of 1.15, to the first x that
+// passes; then a pattern search over the shapes goes down from the best.
+func (sr *searcher) leastNoise(grid [][]float64, step []float64, judge judgeFunc) (cand, bool, error) {
+	var best cand
+	have := false
+	// up judges shape pt from below; it stops once the noise gain
+	// reaches the best one's.
+	up := func(pt *point) (cand, bool, error) {
+		if !(pt.xf > 0) {
+			return cand{}, false, nil
+		}
+		for x := pt.xf * 0.01; x <= pt.xf*(1+1e-9); x *= 1.15 {
+			sr.basis(pt.th)
+			if _, _, n := sr.freqFigures(x); have && n >= best.noise {
+				return cand{}, false, nil
+			}
+			c, err := judge(pt, x, false, nil)
+			if err != nil {
+				return c, false, err
+			}
+			if c.ok {
+				return c, true, nil
+			}
+		}
+		return cand{}, false, nil
+	}
+	for _, u := range grid {
+		c, ok, err := up(sr.screen(u))
+		if err != nil {
+			return best, false, err
+		}
+		if ok && (!have || c.noise < best.noise) {
+			best, have = c, true
+		}
+	}
+	if !have {
+		return best, false, nil
+	}
+	err := sr.pattern(best.pt.u, step, func(u []float64) (bool, error) {
+		c, ok, err := up(sr.screen(u))
+		if err != nil || !ok || c.noise >= best.noise*(1-1e-6) {
+			return false, err
+		}
+		best = c
+		return true, nil
+	})
+	return best, true, err
+}
 
 // objective scores a passing design: the search keeps the largest score.
 // upper bounds the score of any design on the shape pt (at most its
@@ -1004,6 +1110,8 @@ type judgeFunc func(pt *point, x float64, shrink bool) (cand, error)
 type objective struct {
 	score func(c cand) float64
 	upper func(pt *point) float64
+	// at bounds the score of a design of shape pt at gain x or below.
+	at func(pt *point, x float64) float64
 }
 
 // loadGain is the design objective: the load-rejection gain.
@@ -1011,6 +1119,7 @@ func (sr *searcher) loadGain() objective {
 	return objective{
 		score: func(c cand) float64 { return c.gain },
 		upper: func(pt *point) float64 { return sr.fam.gain(pt.th, pt.xf) },
+		at:    func(pt *point, x float64) float64 { return sr.fam.gain(pt.th, x) },
 	}
 }
 
@@ -1018,9 +1127,13 @@ func (sr *searcher) loadGain() objective {
 // J/N²: the default noise bound of a form with an integral is the noise
 // gain of the design that maximizes it (see KneeNoise).
 func (sr *searcher) perNoisePower() objective {
+	// The noise gain barely changes with x on a shape (the integral's
+	// share of |C| above the crossover is small), so J(x)/N(xf)² bounds
+	// the score closely.
 	return objective{
 		score: func(c cand) float64 { return c.gain / (c.noise * c.noise) },
-		upper: func(pt *point) float64 { return sr.fam.gain(pt.th, pt.xf) / (pt.noise0 * pt.noise0) },
+		upper: func(pt *point) float64 { return sr.fam.gain(pt.th, pt.xf) / (pt.noise * pt.noise) },
+		at:    func(pt *point, x float64) float64 { return sr.fam.gain(pt.th, x) / (pt.noise * pt.noise) },
 	}
 }
 
@@ -1049,7 +1162,8 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		if have && obj.upper(pt) <= obj.score(best) {
 			break
 		}
-		c, err := judge(pt, pt.xf, true)
+		worth := func(x float64) bool { return !have || obj.at(pt, x) > obj.score(best) }
+		c, err := judge(pt, pt.xf, true, worth)
 		if err != nil {
 			return best, false, err
 		}
@@ -1061,6 +1175,8 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		// No shape of the grid passes: the feasible set, if any, is small.
 		// Search down the violation from the closest shape, and again from
 		// where that search ends when it stalls (a few rounds).
+		sr.fine = true
+		defer func() { sr.fine = false }()
 		for round := 0; round < 3 && !sr.haveOK; round++ {
 			if !sr.haveClosest || sr.closest.pt == nil {
 				return best, false, nil
@@ -1072,7 +1188,7 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 					return false, nil
 				}
 				pt := sr.screen(u)
-				c, err := judge(pt, pt.xf, true)
+				c, err := judge(pt, pt.xf, true, nil)
 				if err != nil || !(c.viol < cl.viol) {
 					return false, err
 				}
@@ -1096,7 +1212,8 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		if !(pt.xf > 0) || obj.upper(pt) <= obj.score(best)*(1+1e-6) {
 			return false, nil
 		}
-		c, err := judge(pt, pt.xf, true)
+		worth := func(x float64) bool { return obj.at(pt, x) > obj.score(best)*(1+1e-6) }
+		c, err := judge(pt, pt.xf, true, worth)
 		if err != nil || !c.ok || obj.score(c) <= obj.score(best)*(1+1e-6) {
 			return false, err
 		}
@@ -1122,7 +1239,7 @@ func (sr *searcher) quietest(best cand, step []float64, judge judgeFunc) (cand, 
 	}
 	// The best shape itself at the floor's gain.
 	if x, ok := at(best.pt); ok {
-		c, err := judge(best.pt, x, false)
+		c, err := judge(best.pt, x, false, nil)
 		if err != nil {
 			return best, err
 		}
@@ -1142,7 +1259,7 @@ func (sr *searcher) quietest(best cand, step []float64, judge judgeFunc) (cand, 
 		if _, _, n := sr.freqFigures(x); n >= best.noise*(1-1e-6) {
 			return false, nil
 		}
-		c, err := judge(pt, x, false)
+		c, err := judge(pt, x, false, nil)
 		if err != nil || !c.ok || c.noise >= best.noise*(1-1e-6) {
 			return false, err
 		}
@@ -1161,6 +1278,14 @@ func (sr *searcher) pattern(u []float64, grid []float64, try func(u []float64) (
 		return nil
 	}
 	cur := slices.Clone(u)
+	inside := func(v []float64) bool {
+		for d := range sr.fam.floor {
+			if v[d] < sr.fam.floor[d] {
+				return false
+			}
+		}
+		return true
+	}
 	h := make([]float64, len(u))
 	for d := range h {
 		h[d] = grid[d] / 2
@@ -1174,6 +1299,9 @@ func (sr *searcher) pattern(u []float64, grid []float64, try func(u []float64) (
 			v := slices.Clone(cur)
 			for d := range v {
 				v[d] += dir[d] * h[d]
+			}
+			if !inside(v) {
+				continue
 			}
 			ok, err := try(v)
 			if err != nil {
