@@ -941,6 +941,42 @@ func (sr *searcher) gridPoints() [][]float64 {
 	return pts
 }
 
+// denseGrid returns the shapes of a grid k times as dense as the coarse
+// one in each parameter (for a two-parameter shape, twice as dense: the
+// cost grows with the square), without the coarse grid's own points.
+func (sr *searcher) denseGrid(k int) [][]float64 {
+	f := sr.fam
+	if len(f.ref) == 2 {
+		k = 2
+	}
+	pts := [][]float64{{}}
+	for d := range f.ref {
+		n := (f.steps[d]-1)*k + 1
+		var next [][]float64
+		for _, p := range pts {
+			for i := 0; i < n; i++ {
+				u := f.lo[d] + (f.hi[d]-f.lo[d])*float64(i)/float64(n-1)
+				next = append(next, append(slices.Clone(p), u))
+			}
+		}
+		pts = next
+	}
+	var out [][]float64
+	for _, u := range pts {
+		coarse := true
+		for d := range u {
+			i := (u[d] - f.lo[d]) / (f.hi[d] - f.lo[d]) * float64(f.steps[d]-1)
+			if math.Abs(i-math.Round(i)) > 1e-9 {
+				coarse = false
+			}
+		}
+		if !coarse {
+			out = append(out, u)
+		}
+	}
+	return out
+}
+
 // gridStep is the coarse grid's spacing in decades, per parameter.
 func (sr *searcher) gridStep() []float64 {
 	f := sr.fam
@@ -1200,6 +1236,22 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 			}
 			if !(sr.closest.viol < start) {
 				break
+			}
+		}
+		if !sr.haveOK {
+			// Then a grid of three times the density, each shape judged on
+			// the fine line of x.
+			for _, u := range sr.denseGrid(3) {
+				pt := sr.screen(u)
+				if !(pt.xf > 0) {
+					continue
+				}
+				if _, err := judge(pt, pt.xf, true, nil); err != nil {
+					return best, false, err
+				}
+				if sr.haveOK {
+					break
+				}
 			}
 		}
 		if !sr.haveOK {
