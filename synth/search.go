@@ -1194,12 +1194,36 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 	if seed != nil {
 		best, have = *seed, true
 	}
-	for _, pt := range pts {
+	// Two passes: each shape at its largest x first (one time check
+	// each), which usually finds a passing design and so a bound to prune
+	// with; then the shapes that could still beat it, down their line of
+	// x.
+	failed := make([]bool, len(pts))
+	for i, pt := range pts {
 		if have && obj.upper(pt) <= obj.score(best) {
 			break
 		}
+		c, err := judge(pt, pt.xf, false, nil)
+		if err != nil {
+			return best, false, err
+		}
+		failed[i] = !c.ok
+		if c.ok && (!have || obj.score(c) > obj.score(best)) {
+			best, have = c, true
+		}
+	}
+	for i, pt := range pts {
+		if have && obj.upper(pt) <= obj.score(best) {
+			break
+		}
+		if !failed[i] {
+			continue
+		}
 		worth := func(x float64) bool { return !have || obj.at(pt, x) > obj.score(best) }
-		c, err := judge(pt, pt.xf, true, worth)
+		if !worth(pt.xf * shrinkSteps()[1]) {
+			continue
+		}
+		c, err := judge(pt, pt.xf*shrinkSteps()[1], true, worth)
 		if err != nil {
 			return best, false, err
 		}
