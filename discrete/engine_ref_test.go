@@ -23,20 +23,30 @@ import (
 // may choose (1, 0.95, …, 0 for pi and pid; 1 otherwise), and judges each
 // with discrete.Assess, the tool's own final verification: the stored
 // result is the largest load-rejection gain among the controllers that
-// pass every check, and whether any does. It shares no code with the
+// pass every check (with a little room to each limit, refRoom), and
+// whether any does. It shares no code with the
 // search (synth/search.go): no closed-form Ms line search, no
 // parameterization of the shape, no pattern search, no cut-short
 // simulations. It only uses the search's public definitions of what is
 // optimized (the load-rejection gain, the setpoint weights) and the same
 // noise-gain bound (see refEngine.noiseBound).
 //
-// It is a lower bound on the true optimum (a grid), refined locally
-// around its best points with finer grids, down to about 0.2 % of a
-// gain.
+// It is a lower bound on the true optimum (a grid). From the best points
+// of the coarse grid it climbs over local grids, each around the best
+// point so far, ever finer (to 1/256 of the coarse spacing): the grid's
+// result, independent of the search. Passing sets can be thin (a noise
+// bound that is the noise of the tool's own design leaves a sliver of
+// shapes; a settling time jumps when a ripple leaves the band), so a
+// coarse grid can miss one the search found; a second climb therefore
+// starts from the tool's own design and can only show a better controller
+// near it. Both results are stored, apart.
 //
 // The only pruning is exact:
 //   - controllers whose gain cannot beat the best passing one found so far
 //     are not judged (the result is the maximum, not a ranking);
+//   - a controller whose gain at Nyquist already exceeds the noise bound
+//     fails noise_gain, whose value is the largest gain from the crossover
+//     up to Nyquist (refEngine.noiseFloor);
 //   - a controller that fails a check that does not depend on b (stable,
 //     phase_margin, gain_margin, max_sensitivity, noise_gain,
 //     disturbance_recovery: all of them figures of the feedback path C
@@ -103,7 +113,7 @@ func (f refFamily) coords(c synth.Controller) ([]float64, bool) {
 	case airframe.FormPID:
 		v = []float64{c.Kp, c.Ki, c.Kd}
 	case airframe.FormLead:
-		v = []float64{c.Pole / c.Zero, c.K}
+		v = []float64{c.Pole/c.Zero - 1, c.K}
 	}
 	for i := range v {
 		if !(v[i] > 0) || math.IsInf(v[i], 0) {
@@ -114,13 +124,21 @@ func (f refFamily) coords(c synth.Controller) ([]float64, bool) {
 	return v, len(v) == len(f.params)
 }
 
-// Coarse grid sizes: 0.01 decade for the one parameter of a p, 0.067
-// decade for the two of pi, pd and lead, 0.167 decade for the three of a
-// pid (the local refinement then goes down to about 0.001 decade).
+// Coarse grid sizes (points over 4 decades). The gain that the objective
+// grows with (Ki of a pi or pid) is sampled more coarsely than the shape
+// (Kp, Kd), since the climb moves along it easily once on a passing
+// point, while the passing set can be a thin band across the shape (the
+// noise bound caps about Kp + Kd/Tf): 0.01 decade for a p, 0.04 decade
+// for the Kp of a pi and 0.1 for its Ki, 0.067 for pd, 0.1 for
+// the Kp and Kd of a pid and 0.2 for its Ki; 0.1 for the pole of a lead
+// (6 decades) and 0.075 for its K.
 const (
-	refPoints1 = 401
-	refPoints2 = 61
-	refPoints3 = 25
+	refPointsP     = 401
+	refPointsPIKp  = 101
+	refPointsPIKi  = 41
+	refPoints2     = 61
+	refPointsPIDKp = 41
+	refPointsPIDKi = 21
 )
 
 // newRefFamily lays out the grids of p's form around its gain scale.
@@ -135,24 +153,25 @@ func newRefFamily(p airframe.Axis) (refFamily, error) {
 	}
 	switch p.Ctrl.Form {
 	case airframe.FormP:
-		return refFamily{params: []refParam{dec("kp", g0, -2, 2, refPoints1)},
+		return refFamily{params: []refParam{dec("kp", g0, -2, 2, refPointsP)},
 			ctrl: func(v []float64) synth.Controller { c := base; c.Kp = v[0]; return c }}, nil
 	case airframe.FormPI:
-		return refFamily{params: []refParam{dec("kp", g0, -2, 2, refPoints2), dec("ki", g0*w0, -3, 1, refPoints2)},
+		return refFamily{params: []refParam{dec("kp", g0, -2, 2, refPointsPIKp), dec("ki", g0*w0, -3, 1, refPointsPIKi)},
 			ctrl: func(v []float64) synth.Controller { c := base; c.Kp, c.Ki = v[0], v[1]; return c }}, nil
 	case airframe.FormPD:
 		return refFamily{params: []refParam{dec("kp", g0, -2, 2, refPoints2), dec("kd", g0/w0, -3, 1, refPoints2)},
 			ctrl: func(v []float64) synth.Controller { c := base; c.Kp, c.Kd = v[0], v[1]; return c }}, nil
 	case airframe.FormPID:
-		return refFamily{params: []refParam{dec("kp", g0, -2, 2, refPoints3), dec("ki", g0*w0, -3, 1, refPoints3), dec("kd", g0/w0, -3, 1, refPoints3)},
+		return refFamily{params: []refParam{dec("kp", g0, -2, 2, refPointsPIDKp), dec("ki", g0*w0, -3, 1, refPointsPIDKi), dec("kd", g0/w0, -3, 1, refPointsPIDKp)},
 			ctrl: func(v []float64) synth.Controller { c := base; c.Kp, c.Ki, c.Kd = v[0], v[1], v[2]; return c }}, nil
 	case airframe.FormLead:
-		// The pole p = z·r, r > 1 (left of the zero), r from 1.01 to 1000;
-		// K over 4.5 decades (a lead's gain at crossover is K·|jω − z|/|jω − p|,
-		// below K).
+		// The pole p = z·(1 + q) lies left of the zero z < 0 by q·|z|, q
+		// from 0.001 (a lead that is nearly a P) to 1000; K over 4.5
+		// decades (a lead's gain at crossover is K·|jω − z|/|jω − p|, below
+		// K).
 		z := p.Ctrl.LeadZero
-		return refFamily{params: []refParam{{Name: "pole_ratio", Lo: 1.01, Hi: 1000, Points: refPoints2}, dec("k", g0, -2, 2.5, refPoints2)},
-			ctrl: func(v []float64) synth.Controller { c := base; c.Zero, c.Pole, c.K = z, z*v[0], v[1]; return c }}, nil
+		return refFamily{params: []refParam{{Name: "pole_distance_over_zero", Lo: 1e-3, Hi: 1e3, Points: refPoints2}, dec("k", g0, -2, 2.5, refPoints2)},
+			ctrl: func(v []float64) synth.Controller { c := base; c.Zero, c.Pole, c.K = z, z*(1+v[0]), v[1]; return c }}, nil
 	}
 	return refFamily{}, fmt.Errorf("form %q: no reference family", p.Ctrl.Form)
 }
@@ -184,16 +203,15 @@ type refEngine struct {
 	loop airframe.Loop
 	fam  refFamily
 	bs   []float64
-	// nb is the noise-gain bound of the forms with an integral and of any
-	// form whose file gives max_noise_gain; ratio (when nb is 0) bounds
-	// the noise gain of a form without an integral to ratio times its
-	// load-rejection gain, the search's own rule.
+	// nb is the noise-gain bound (0: none); ratio, when nb is 0, bounds
+	// the noise gain to ratio times the candidate's load-rejection gain.
 	nb, ratio float64
 	sem       chan struct{}
 
 	mu      sync.Mutex
 	calls   int
 	errs    int
+	pruned  int // candidates over the noise bound at Nyquist, not judged
 	best    *refPoint
 	passing []*refPoint // every passing point judged, in judging order
 	// judged holds the points already judged (or skipped for a gain no
@@ -220,13 +238,11 @@ type refPoint struct {
 }
 
 // noiseBound is the bound Assess judges c against: the same as the
-// search's. For pi and pid the bound the tool reported (the file's, or
-// its default knee); for p, pd and lead the file's, or else
-// synth.NoiseRatio times the controller's own load-rejection gain, the
-// rule the search applies to each candidate (it reports that rule's value
-// at its design). Judged against the tool's reported value instead, a
-// candidate that beats the tool would face a tighter bound than the
-// search's own.
+// search's. The file's max_noise_gain, or else the default the tool
+// reported for its design (the knee of pi and pid, a multiple of the
+// least noise gain for p, pd and lead); when the tool reported none (it
+// found no design), the search's own rule for p, pd and lead, at most
+// synth.NoiseRatio times the candidate's load-rejection gain.
 func (e *refEngine) noiseBound(c synth.Controller) float64 {
 	if e.nb > 0 {
 		return e.nb
@@ -237,8 +253,32 @@ func (e *refEngine) noiseBound(c synth.Controller) float64 {
 	return math.Inf(1)
 }
 
-// assess runs one discrete.Assess and reports whether c passes, and
-// whether hold_rate failed and whether a b-independent check failed.
+// refRoom is the room the reference keeps to every limit: a candidate
+// passes only when each check passes with its value at least 0.5 % of the
+// limit inside it (stable excepted, a yes or no). The reference's best
+// lies on the boundary of the passing set, where a change in the last
+// digits of a figure (a peak refined a little differently) would flip
+// the stored point; with the room it still passes the exact judge after
+// such a change, and fails it only when a check changes meaning. The
+// room costs the reference about as much of its gain, against the 5 % of
+// the comparison (refNearTool).
+const refRoom = 0.005
+
+// hasRoom reports whether the passing check c keeps refRoom to its limit.
+func hasRoom(c synth.Check) bool {
+	if c.Name == "stable" {
+		return true
+	}
+	d := refRoom * math.Abs(c.Limit)
+	if c.Upper {
+		return c.Value <= c.Limit-d
+	}
+	return c.Value >= c.Limit+d
+}
+
+// assess runs one discrete.Assess and reports whether c passes (with
+// refRoom), and whether hold_rate failed and whether a b-independent
+// check failed.
 func (e *refEngine) assess(c synth.Controller) (ok, holdFail, indepFail bool) {
 	e.sem <- struct{}{}
 	cs, err := discrete.Assess(e.p, e.loop, c, e.noiseBound(c))
@@ -254,7 +294,7 @@ func (e *refEngine) assess(c synth.Controller) (ok, holdFail, indepFail bool) {
 	}
 	ok = true
 	for _, ck := range cs {
-		if ck.OK {
+		if ck.OK && hasRoom(ck) {
 			continue
 		}
 		ok = false
@@ -268,9 +308,49 @@ func (e *refEngine) assess(c synth.Controller) (ok, holdFail, indepFail bool) {
 	return ok, holdFail, indepFail
 }
 
+// noiseFloor returns a lower bound on the noise gain of c (the largest
+// gain |C(e^(jωT))| of the discretized controller from the crossover up
+// to Nyquist, which includes its value at Nyquist, z = −1), and false
+// when it gives none. For Tustin, with or without prewarping, s → ∞ at
+// z = −1: the integral term vanishes there, a P or PI has |C(−1)| = Kp,
+// a lead K (its zero and pole no longer matter); the filtered derivative
+// gives Kd/Tf, or 2·Kd/(2·Tf + T) where its pole would be negative and
+// discrete.Realize uses the backward difference instead (for Tustin
+// when 2·Tf < T; with prewarping, where that depends on the crossover,
+// the smaller of the two is taken, a bound either way).
+func (e *refEngine) noiseFloor(c synth.Controller) (float64, bool) {
+	T := 1 / e.loop.Hz
+	method := e.p.Ctrl.Discretize
+	if method != "tustin" && method != "tustin_prewarp" {
+		return 0, false
+	}
+	switch c.Form {
+	case airframe.FormP, airframe.FormPI:
+		return c.Kp, true
+	case airframe.FormLead:
+		return c.K, true
+	}
+	d := 2 * c.Kd / (2*c.Tf + T)
+	if method == "tustin" && 2*c.Tf >= T {
+		d = c.Kd / c.Tf
+	}
+	return c.Kp + d, true
+}
+
+// refNoiseMargin: a candidate whose noise floor exceeds the bound by more
+// than 1 % is not judged (the final verification admits 0.1 % over the
+// bound, for the refinement of the peak between grid points).
+const refNoiseMargin = 1.01
+
 // judge finds the first setpoint weight (from 1 down) with which the
 // controller at u passes every check.
 func (e *refEngine) judge(pt *refPoint) {
+	if f, ok := e.noiseFloor(pt.c); ok && f > refNoiseMargin*e.noiseBound(pt.c) {
+		e.mu.Lock()
+		e.pruned++
+		e.mu.Unlock()
+		return
+	}
 	for _, b := range e.bs {
 		c := pt.c
 		c.B = b
@@ -396,7 +476,7 @@ func local(u, h []float64, k int) [][]float64 {
 // two parameters (9 or 81 points a grid), 2 for three (125 points). Only
 // points of a larger gain than the best are judged, and none twice.
 const (
-	refSeeds = 3
+	refSeeds = 5
 	// refSeedBand: the coarse sweep also judges the points within 3 % of
 	// the best one's gain, as candidate seeds.
 	refSeedBand = 0.97
@@ -431,11 +511,13 @@ type refRun struct {
 	gridBest  *refPoint
 	gridCalls int
 	toolGrids int
+	pruned    int
 }
 
 // run searches the coarse grid and climbs from its best points; then,
 // when tool is not nil, climbs again from that controller (the tool's own
-// design): a second, local search whose result is reported apart.
+// design, passing or not): a second, local search whose result is
+// reported apart.
 func (e *refEngine) run(tool *synth.Controller) refRun {
 	var r refRun
 	var pts []*refPoint
@@ -466,28 +548,25 @@ func (e *refEngine) run(tool *synth.Controller) refRun {
 	r.gridBest, r.gridCalls = e.best, e.calls
 	if tool != nil {
 		if u, ok := e.fam.coords(*tool); ok {
-			pt := e.point(u)
-			e.sweep([]*refPoint{pt}, 1)
-			if e.best != nil {
-				r.finalStep = e.climb([]*refPoint{pt}, h0, &r.toolGrids)
-			}
+			r.finalStep = e.climb([]*refPoint{e.point(u)}, h0, &r.toolGrids)
 		}
 	}
-	r.best, r.calls, r.errs = e.best, e.calls, e.errs
+	r.best, r.calls, r.errs, r.pruned = e.best, e.calls, e.errs, e.pruned
 	return r
 }
 
 // climb lays local grids, the first around the seeds, then around the best
-// point, at the spacing h while they find a better point and at 1/k of it
-// when not, until the spacing falls to refShrink of h; it counts the grids
-// in n and returns the last spacing.
+// point (around the seeds again while none passes), at the spacing h
+// while they find a better point and at 1/k of it when not, until the
+// spacing falls to refShrink of h; it counts the grids in n and returns
+// the last spacing.
 func (e *refEngine) climb(seeds []*refPoint, h0 []float64, n *int) []float64 {
 	h := slices.Clone(h0)
 	k := refDivision(len(h))
 	stop := h[0] * refShrink
 	for grids := 0; grids < refMaxGrids && h[0] >= stop*(1-1e-9); grids++ {
 		centers := []*refPoint{e.best}
-		if grids == 0 {
+		if grids == 0 || e.best == nil {
 			centers = seeds
 		}
 		var loc []*refPoint

@@ -19,6 +19,7 @@ type Loops struct {
 	d       int // compute delay, samples
 	T       float64
 	corners []airframe.Corner
+	primary int // the nominal plant and the box's corners lead corners
 	plants  []Plant
 	grid    []float64
 	z       []complex128 // e^(jωT) on the grid
@@ -40,7 +41,7 @@ const maxSchurDegree = 64
 // loop rate, and evaluates each on the grid of the frequency checks.
 func NewLoops(p airframe.Axis, loop airframe.Loop) (*Loops, error) {
 	T := 1 / loop.Hz
-	l := &Loops{p: p, d: loop.ComputeDelay, T: T, corners: p.Envelope.Corners()}
+	l := &Loops{p: p, d: loop.ComputeDelay, T: T, corners: fineCorners(p.Envelope), primary: len(p.Envelope.Corners())}
 	if t, err := synth.TargetFromSpec(p.Spec); err == nil {
 		l.prewarp = t.OmegaN
 	}
@@ -66,7 +67,7 @@ func NewLoops(p airframe.Axis, loop airframe.Loop) (*Loops, error) {
 	for k, w := range l.grid {
 		l.z[k] = complexExp(w * T)
 	}
-	for _, pl := range l.plants {
+	for _, pl := range l.plants[:l.primary] {
 		o := make([]complex128, len(l.grid))
 		D := float64(l.d + pl.Delay)
 		for k, w := range l.grid {
@@ -82,8 +83,13 @@ func cornerText(c airframe.Corner) string {
 	return fmt.Sprintf("gain ×%g, lag ×%g, delay %+g s", c.GainScale, c.LagScale, c.DelayAdd)
 }
 
-// Corners lists the envelope's plants, the nominal first.
+// Corners lists the plants of the final verification: the nominal plant,
+// the envelope's corners, then the finer look in between (fineCorners).
 func (l *Loops) Corners() []airframe.Corner { return l.corners }
+
+// Primary is the number of leading plants that are the nominal plant and
+// the box's corners.
+func (l *Loops) Primary() int { return l.primary }
 
 // Grid returns the frequencies of the frequency checks, rad/s, up to just
 // below Nyquist.
@@ -99,7 +105,25 @@ func (l *Loops) Plant(i int) Plant { return l.plants[i] }
 // realize discretizes c as the search sees it: the linear controller, so
 // without anti-windup (whose tracking time needs Ki > 0, and which does
 // not act on the linear loop).
+//
+// A tustin_prewarp controller is prewarped at its own continuous
+// crossover, as the design will be (DesignAxis), so that the time checks
+// judge the controller the firmware runs; only the frequency checks' basis
+// (Ctrl, which must be linear in the gains) uses the fixed frequency.
 func (l *Loops) realize(c synth.Controller) (Coeffs, error) {
+	ctl := l.p.Ctrl
+	ctl.AntiWindup, ctl.TrackingTime = string(AWNone), 0
+	w := l.prewarp
+	if Method(ctl.Discretize) == TustinPrewarp {
+		w = synth.Crossover(l.p, c)
+	}
+	k, _, err := Realize(c, ctl, l.T, w)
+	return k, err
+}
+
+// realizeLinear discretizes c at the fixed prewarp frequency: linear in
+// the gains, for the frequency checks' basis.
+func (l *Loops) realizeLinear(c synth.Controller) (Coeffs, error) {
 	ctl := l.p.Ctrl
 	ctl.AntiWindup, ctl.TrackingTime = string(AWNone), 0
 	k, _, err := Realize(c, ctl, l.T, l.prewarp)
@@ -108,7 +132,7 @@ func (l *Loops) realize(c synth.Controller) (Coeffs, error) {
 
 // Ctrl writes the controller's feedback path on the grid.
 func (l *Loops) Ctrl(c synth.Controller, out []complex128) {
-	k, err := l.realize(c)
+	k, err := l.realizeLinear(c)
 	if err != nil {
 		for i := range out {
 			out[i] = cmplx.NaN()

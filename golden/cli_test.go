@@ -187,7 +187,9 @@ func TestCLIEmitUnmet(t *testing.T) {
 	if strings.Join(got, " ") != "burrow_rate.c burrow_rate.h" {
 		t.Errorf("wrote %v: want only the airframe that meets its checks", got)
 	}
-	if !strings.Contains(out, "gain margin") {
+	// A 30 dB gain margin leaves only slow loops: the closest design
+	// misses the settling time (or the margin itself), and says so.
+	if !strings.Contains(out, "gain margin") && !strings.Contains(out, "settling time") {
 		t.Errorf("output does not say which check failed:\n%s", out)
 	}
 	out, code = emitCLI(t, dir, "-o", "gen", "--allow-unmet", p)

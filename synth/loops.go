@@ -16,8 +16,15 @@ import (
 // by an exact test, and the time checks (setpoint step, load disturbance)
 // by simulation.
 type Loops interface {
-	// Corners lists the envelope's plants; index 0 is the nominal one.
+	// Corners lists the plants every check must hold at; index 0 is the
+	// nominal one, then the corners of the envelope box, then any finer
+	// look in between that the final verification takes.
 	Corners() []airframe.Corner
+	// Primary is the number of leading Corners (the nominal plant and the
+	// box's corners) that the frequency screen bounds Ms on; the time
+	// checks and the stability test take every plant, so that a design
+	// the search accepts is one the final verification passes.
+	Primary() int
 	// Grid returns the frequencies (rad/s, ascending) of the frequency
 	// checks: fine enough to resolve every plant's resonances and the
 	// delay's phase.

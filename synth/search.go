@@ -89,7 +89,7 @@ const nearStep = 0.003
 
 // weights returns the setpoint weights b the search may choose from, in
 // descending order: the file's, b = 1 for forms without an integral (b
-// then changes the final value), or 1 down to 0 by 0.05.
+// then changes the final value), or 1 down to 0 by 0.025.
 func weights(p airframe.Axis) []float64 {
 	if p.Ctrl.SetpointWeightSet {
 		return []float64{p.Ctrl.SetpointWeight}
@@ -97,9 +97,9 @@ func weights(p airframe.Axis) []float64 {
 	if !p.Ctrl.Form.HasIntegral() {
 		return []float64{1}
 	}
-	bs := make([]float64, 21)
+	bs := make([]float64, 41)
 	for i := range bs {
-		bs[i] = 1 - float64(i)/20
+		bs[i] = 1 - float64(i)/40
 	}
 	return bs
 }
@@ -131,7 +131,7 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 			return c
 		}}
 	case airframe.FormPI:
-		return family{ref: []float64{g0}, lo: []float64{-2.5}, hi: []float64{1.5}, steps: []int{13}, xRef: g0 * w0, gain: one,
+		return family{ref: []float64{g0}, lo: []float64{-2.5}, hi: []float64{1.5}, steps: []int{17}, xRef: g0 * w0, gain: one,
 			ctrl: func(th []float64, x float64) Controller {
 				c := base
 				c.Kp, c.Ki = th[0], x
@@ -143,7 +143,7 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 		// linear in x = Kp, and its noise gain relative to Kp depends on
 		// ρ alone.
 		tf := p.Ctrl.Tf()
-		return family{ref: []float64{1}, lo: []float64{-2}, hi: []float64{2}, steps: []int{13}, xRef: g0, gain: one,
+		return family{ref: []float64{1}, lo: []float64{-2}, hi: []float64{2}, steps: []int{17}, xRef: g0, gain: one,
 			ctrl: func(th []float64, x float64) Controller {
 				c := base
 				c.Kp, c.Kd = x, th[0]*tf*x
@@ -153,7 +153,7 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 		z := p.Ctrl.LeadZero
 		// θ is the pole's distance ratio r = p/z > 1 (pole left of the
 		// zero); the grid spans r from 1.02 to 200.
-		return family{ref: []float64{1}, lo: []float64{math.Log10(1.02)}, hi: []float64{math.Log10(200)}, steps: []int{13},
+		return family{ref: []float64{1}, lo: []float64{math.Log10(1.02)}, hi: []float64{math.Log10(200)}, steps: []int{17},
 			xRef: g0, floor: []float64{math.Log10(1.02)},
 			gain: func(th []float64, x float64) float64 { return x / th[0] },
 			ctrl: func(th []float64, x float64) Controller {
@@ -168,7 +168,7 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 	// coordinates a noise bound is a bound on n alone, so the search moves
 	// along it instead of across a diagonal ridge of (Kp, Kd).
 	tf := p.Ctrl.Tf()
-	return family{ref: []float64{g0, 1}, lo: []float64{-2, -2}, hi: []float64{2, 2}, steps: []int{9, 7}, xRef: g0 * w0, gain: one,
+	return family{ref: []float64{g0, 1}, lo: []float64{-2, -2}, hi: []float64{2, 2}, steps: []int{13, 9}, xRef: g0 * w0, gain: one,
 		ctrl: func(th []float64, x float64) Controller {
 			c := base
 			c.Kp = th[0] / (1 + th[1])
@@ -234,6 +234,7 @@ type searcher struct {
 	// small feasible set.
 	fine       bool
 	lastFail   int       // the plant of the last failed time check
+	passing    []cand    // every passing candidate, in the order judged
 	th         []float64 // the shape of the last basis
 	reach      float64   // least settling time seen with every other check met
 	y0, y1, yb []float64
@@ -243,7 +244,7 @@ func newSearcher(p airframe.Axis, L Loops, g0, w0 float64) *searcher {
 	sr := &searcher{p: p, L: L, fam: newFamily(p, g0, w0), grid: L.Grid(), bs: weights(p),
 		cache: map[string]*point{}, noiseB: math.Inf(1), reach: math.Inf(1)}
 	sr.ncorn = len(L.Corners())
-	for i := 0; i < sr.ncorn; i++ {
+	for i := 0; i < L.Primary(); i++ {
 		sr.open = append(sr.open, L.Open(i))
 	}
 	n := len(sr.grid)
@@ -496,7 +497,7 @@ func (sr *searcher) screen(u []float64) *point {
 // are not monotone in the gain (a settling time jumps when a ripple leaves
 // the band), so the line is sampled down to 3 % of it.
 func shrinkSteps() []float64 {
-	return []float64{1, 0.85, 0.7, 0.55, 0.42, 0.32, 0.24, 0.17, 0.12, 0.08, 0.05, 0.03}
+	return []float64{1, 0.93, 0.86, 0.79, 0.72, 0.64, 0.55, 0.45, 0.35, 0.25, 0.17, 0.1, 0.05, 0.025}
 }
 
 // judge makes the full judgment of shape pt at gain x: stability at every
@@ -504,10 +505,8 @@ func shrinkSteps() []float64 {
 // fails the time checks is lowered along shrinkSteps until it passes; the
 // first that passes is returned (the largest passing gain of the steps).
 func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float64) bool) (cand, error) {
-	c := cand{pt: pt, x: x, settle: math.NaN()}
 	if !(pt.xf > 0) {
-		c.viol, c.fails = 1+pt.fviol, []string{pt.why}
-		return c, nil
+		return cand{pt: pt, x: x, settle: math.NaN(), viol: 1 + pt.fviol, fails: []string{pt.why}}, nil
 	}
 	sr.basis(pt.th)
 	steps := []float64{1}
@@ -522,41 +521,70 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 	case shrink:
 		steps = shrinkSteps()
 	}
-	x0 := x
-	for _, f := range steps {
-		x = x0 * f
-		c = cand{pt: pt, x: x, settle: math.NaN()}
-		c.ctrl = sr.fam.ctrl(pt.th, x)
-		c.gain = sr.fam.gain(pt.th, x)
-		_, _, c.noise = sr.freqFigures(x)
-		stable := true
-		for i := 0; i < sr.ncorn && stable; i++ {
-			ok, err := sr.L.Stable(c.ctrl, i)
-			if err != nil {
-				return c, err
-			}
-			stable = ok
+	var c cand
+	for i, f := range steps {
+		var err error
+		if c, err = sr.judgeAt(pt, x*f); err != nil {
+			return c, err
 		}
-		if !stable {
-			c.ok, c.viol, c.fails = false, 10, []string{"stable"}
-		} else {
-			b, v, fails, settle, err := sr.timeChecks(c.ctrl)
-			if err != nil {
-				return c, err
+		if c.ok {
+			if i == 0 {
+				return c, nil
 			}
-			c.ctrl.B, c.viol, c.fails, c.settle = b, v, fails, settle
-			c.ok = len(fails) == 0
+			// Between the last failing gain and this one a larger passing
+			// gain may lie: three probes, from the top.
+			lo, hi := x*f, x*steps[i-1]
+			for _, t := range []float64{0.75, 0.5, 0.25} {
+				cp, err := sr.judgeAt(pt, lo*math.Pow(hi/lo, t))
+				if err != nil {
+					return c, err
+				}
+				if cp.ok {
+					return cp, nil
+				}
+			}
+			return c, nil
 		}
-		sr.note(c)
-		if c.ok || worth != nil && !worth(x*0.85) {
+		if worth != nil && i+1 < len(steps) && !worth(x*steps[i+1]) {
 			return c, nil
 		}
 	}
 	return c, nil
 }
 
+// judgeAt judges shape pt at gain x (its basis set): stability at every
+// plant by the exact test, then the time checks.
+func (sr *searcher) judgeAt(pt *point, x float64) (cand, error) {
+	c := cand{pt: pt, x: x, settle: math.NaN()}
+	c.ctrl = sr.fam.ctrl(pt.th, x)
+	c.gain = sr.fam.gain(pt.th, x)
+	_, _, c.noise = sr.freqFigures(x)
+	for i := 0; i < sr.ncorn; i++ {
+		ok, err := sr.L.Stable(c.ctrl, i)
+		if err != nil {
+			return c, err
+		}
+		if !ok {
+			c.viol, c.fails = 10, []string{"stable"}
+			sr.note(c)
+			return c, nil
+		}
+	}
+	b, v, fails, settle, err := sr.timeChecks(c.ctrl)
+	if err != nil {
+		return c, err
+	}
+	c.ctrl.B, c.viol, c.fails, c.settle = b, v, fails, settle
+	c.ok = len(fails) == 0
+	sr.note(c)
+	return c, nil
+}
+
 // note keeps the closest candidate, the best passing one and the reach.
 func (sr *searcher) note(c cand) {
+	if c.ok {
+		sr.passing = append(sr.passing, c)
+	}
 	if c.ok && c.noise <= sr.noiseB && (!sr.haveOK || c.gain > sr.bestOK.gain) {
 		sr.bestOK, sr.haveOK = c, true
 	}
@@ -805,7 +833,7 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 	bs := sr.bs
 	if len(bs) > 5 && !sr.fine {
 		bs = nil
-		for j := 0; j < len(sr.bs); j += 4 {
+		for j := 0; j < len(sr.bs); j += 8 {
 			bs = append(bs, sr.bs[j])
 		}
 	}
@@ -1022,39 +1050,46 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 
 	var best cand
 	ok := false
+	// The first design: for a form with an integral, the knee of the
+	// trade-off between load rejection and noise (the largest Ki/N²);
+	// for the others, the least noise gain. Without max_noise_gain in the
+	// file it sets the default bound; with it, it seeds the search under
+	// that bound (it passes there too), which makes a small feasible set
+	// no harder to find than under the default.
+	explicit := p.Spec.MaxNoiseGain > 0
+	var first cand
+	found := false
+	var err error
+	if p.Ctrl.Form.HasIntegral() {
+		first, found, err = sr.maximize(grid, step, judge, sr.perNoisePower(), nil)
+	} else {
+		first, found, err = sr.leastNoise(grid, step, judge)
+	}
+	if err != nil {
+		return res, err
+	}
 	switch {
-	case p.Spec.MaxNoiseGain > 0:
+	case explicit:
 		res.NoiseBound = p.Spec.MaxNoiseGain
-	case p.Ctrl.Form.HasIntegral():
-		// The default bound is the noise gain of the knee of the
-		// trade-off, and the knee's design is also the design of the
-		// largest Ki under that bound: a design of more Ki and no more
-		// noise would have a larger Ki/N². So the knee is the design.
-		knee, found, err := sr.maximize(grid, step, judge, sr.perNoisePower(), nil)
-		if err != nil {
-			return res, err
-		}
-		if found {
-			res.NoiseBound = knee.noise * (1 + 1e-9)
-			sr.noiseB = res.NoiseBound
-			best, ok = knee, true
-		}
-	default:
-		// Forms without an integral: at most NoiseFactor times the least
-		// noise gain that meets every other check.
-		least, found, err := sr.leastNoise(grid, step, judge)
-		if err != nil {
-			return res, err
-		}
-		if found {
-			res.NoiseBound = NoiseFactor * least.noise
-			sr.noiseB, sr.ratioB = res.NoiseBound, 0
-			sr.bestOK, sr.haveOK = least, true
-		}
+		sr.ratioB = 0
+	case found && p.Ctrl.Form.HasIntegral():
+		// The knee's design is also the design of the largest Ki under
+		// its own noise gain: a design of more Ki and no more noise would
+		// have a larger Ki/N². So the knee is the design.
+		res.NoiseBound = first.noise * (1 + 1e-9)
+		sr.noiseB = res.NoiseBound
+		best, ok = first, true
+	case found:
+		res.NoiseBound = NoiseFactor * first.noise
+		sr.noiseB, sr.ratioB = res.NoiseBound, 0
 	}
 	if !ok {
-		var err error
-		if best, ok, err = sr.maximize(grid, step, judge, sr.loadGain(), nil); err != nil {
+		var seed *cand
+		if found {
+			sr.bestOK, sr.haveOK = first, true
+			seed = &first
+		}
+		if best, ok, err = sr.maximize(grid, step, judge, sr.loadGain(), seed); err != nil {
 			return res, err
 		}
 	}
@@ -1071,7 +1106,10 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		}
 		return res, nil
 	}
-	best, err := sr.quietest(best, step, judge)
+	if best, err = sr.polish(best, step, judge); err != nil {
+		return res, err
+	}
+	best, err = sr.quietest(best, step, judge)
 	if err != nil {
 		return res, err
 	}
@@ -1283,20 +1321,178 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		}
 		best, have = sr.bestOK, true
 	}
-	err := sr.pattern(best.pt.u, step, func(u []float64) (bool, error) {
+	move := func(u []float64) (bool, error) {
 		pt := sr.screen(u)
 		if !(pt.xf > 0) || obj.upper(pt) <= obj.score(best)*(1+1e-6) {
 			return false, nil
 		}
-		worth := func(x float64) bool { return obj.at(pt, x) > obj.score(best)*(1+1e-6) }
-		c, err := judge(pt, pt.xf, true, worth)
-		if err != nil || !c.ok || obj.score(c) <= obj.score(best)*(1+1e-6) {
+		// Climb from the gain that just beats the best: the neighbour of
+		// a ridge passes there or not at all, where a descent from the top
+		// of its line would step over the narrow band above the best.
+		target := obj.score(best) * (1 + 1e-4)
+		x0 := target / obj.at(pt, 1)
+		if !(x0 > 0) || x0 > pt.xf {
+			return false, nil
+		}
+		c, err := sr.climb(pt, x0, judge)
+		if err != nil {
 			return false, err
+		}
+		if !c.ok {
+			// Or higher up its line, past a failing band.
+			worth := func(x float64) bool { return obj.at(pt, x) > obj.score(best)*(1+1e-6) }
+			if c, err = judge(pt, pt.xf, true, worth); err != nil {
+				return false, err
+			}
+		}
+		if !c.ok || obj.score(c) <= obj.score(best)*(1+1e-6) {
+			return false, nil
 		}
 		best = c
 		return true, nil
-	})
-	return best, true, err
+	}
+	// From the best grid shape, and from the next two best distinct ones:
+	// the passing set can have several local optima.
+	seeds := []cand{best}
+	for _, c := range sr.passing {
+		if len(seeds) == 3 {
+			break
+		}
+		dup := false
+		for _, q := range seeds {
+			if key(q.pt.u) == key(c.pt.u) {
+				dup = true
+			}
+		}
+		if !dup && obj.score(c) > 0.8*obj.score(best) {
+			seeds = append(seeds, c)
+		}
+	}
+	for _, sd := range seeds {
+		if err := sr.pattern(sd.pt.u, step, move); err != nil {
+			return best, true, err
+		}
+	}
+	return best, true, nil
+}
+
+// climb judges shape pt at x0 and, when it passes, climbs its line of x by
+// factors of 1.08 up to the frequency checks' largest x, then narrows the
+// step past the last passing x by three bisections. It returns the largest
+// passing design found (a failing one when x0 fails).
+func (sr *searcher) climb(pt *point, x0 float64, judge judgeFunc) (cand, error) {
+	best, err := judge(pt, x0, false, nil)
+	if err != nil || !best.ok {
+		return best, err
+	}
+	x := x0
+	fail := math.NaN()
+	for x < pt.xf {
+		next := math.Min(x*1.08, pt.xf)
+		c, err := judge(pt, next, false, nil)
+		if err != nil {
+			return best, err
+		}
+		if !c.ok {
+			fail = next
+			break
+		}
+		best, x = c, next
+	}
+	for i := 0; i < 3 && !math.IsNaN(fail); i++ {
+		m := math.Sqrt(x * fail)
+		c, err := judge(pt, m, false, nil)
+		if err != nil {
+			return best, err
+		}
+		if c.ok {
+			best, x = c, m
+		} else {
+			fail = m
+		}
+	}
+	return best, nil
+}
+
+// polish climbs from the best design over local grids in the shape and
+// the gain together, as a dense reference search would: the passing set
+// of the time checks is jagged (a settling time jumps where a ripple
+// leaves the band), and a better design can sit beside the best one at a
+// gain its line search stepped over. Each local grid has three points per
+// parameter (the centre and a step either side, in log units); it is laid
+// again around each better design found, and at half the step when none,
+// down to nearStep. Only points whose gain beats the best are judged.
+func (sr *searcher) polish(best cand, step []float64, judge judgeFunc) (cand, error) {
+	n := len(best.pt.u)
+	h := make([]float64, n+1)
+	for d := 0; d < n; d++ {
+		h[d] = step[d] / 4
+	}
+	h[n] = 0.02 // the gain, in decades (4.7 %)
+	for grids := 0; grids < 60; grids++ {
+		moved := false
+		for _, dir := range cube(n + 1) {
+			u := slices.Clone(best.pt.u)
+			for d := 0; d < n; d++ {
+				u[d] += dir[d] * h[d]
+			}
+			x := best.x * math.Pow(10, dir[n]*h[n])
+			if len(sr.fam.floor) > 0 && u[0] < sr.fam.floor[0] {
+				continue
+			}
+			pt := sr.screen(u)
+			if !(pt.xf > 0) || x > pt.xf || sr.fam.gain(pt.th, x) <= best.gain*(1+1e-6) {
+				continue
+			}
+			sr.basis(pt.th)
+			c, err := judge(pt, x, false, nil)
+			if err != nil {
+				return best, err
+			}
+			if c.ok && c.gain > best.gain*(1+1e-6) {
+				best, moved = c, true
+			}
+		}
+		if moved {
+			continue
+		}
+		small := true
+		for d := range h {
+			h[d] /= 2
+			if h[d] >= nearStep {
+				small = false
+			}
+		}
+		if small {
+			break
+		}
+	}
+	return best, nil
+}
+
+// cube returns the points of {−1, 0, 1}ⁿ but the origin.
+func cube(n int) [][]float64 {
+	pts := [][]float64{{}}
+	for d := 0; d < n; d++ {
+		var next [][]float64
+		for _, p := range pts {
+			for _, v := range []float64{-1, 0, 1} {
+				next = append(next, append(slices.Clone(p), v))
+			}
+		}
+		pts = next
+	}
+	var out [][]float64
+	for _, p := range pts {
+		zero := true
+		for _, v := range p {
+			zero = zero && v == 0
+		}
+		if !zero {
+			out = append(out, p)
+		}
+	}
+	return out
 }
 
 // quietest applies the tie-break: among designs whose gain is at least

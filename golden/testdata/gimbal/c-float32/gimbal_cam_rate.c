@@ -6,24 +6,24 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.6138, Ki = 8.636, Kd = 0.01183, Tf = 0.0006366 s,
-// b = 0.55.
-//   discretized tustin_prewarp (prewarped at 100.9 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03701 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
+// b = 0.525.
+//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
 //   output [-1, 1].
-//   Target: zeta = 0.95, wn = 32.3 rad/s, s* = -30.7 +/- j10.1 rad/s.
-//   Sampled loop: overshoot 1.42 %, settling 0.0796 s, phase margin
-//   45.9 deg, gain margin 8.85 dB.
+//   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
+//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
+//   gain margin 11.5 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.009239, Ki = 0.08803, b = 0.55.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
-//   Target: zeta = 0.925, wn = 21.3 rad/s, s* = -19.7 +/- j8.08 rad/s.
-//   Sampled loop: overshoot 1.87 %, settling 0.119 s, phase margin 53.1 deg,
-//   gain margin 26.9 dB.
+//   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
+//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.

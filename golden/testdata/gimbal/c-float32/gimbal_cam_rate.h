@@ -6,24 +6,24 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.6138, Ki = 8.636, Kd = 0.01183, Tf = 0.0006366 s,
-// b = 0.55.
-//   discretized tustin_prewarp (prewarped at 100.9 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03701 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
+// b = 0.525.
+//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
 //   output [-1, 1].
-//   Target: zeta = 0.95, wn = 32.3 rad/s, s* = -30.7 +/- j10.1 rad/s.
-//   Sampled loop: overshoot 1.42 %, settling 0.0796 s, phase margin
-//   45.9 deg, gain margin 8.85 dB.
+//   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
+//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
+//   gain margin 11.5 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.009239, Ki = 0.08803, b = 0.55.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
-//   Target: zeta = 0.925, wn = 21.3 rad/s, s* = -19.7 +/- j8.08 rad/s.
-//   Sampled loop: overshoot 1.87 %, settling 0.119 s, phase margin 53.1 deg,
-//   gain margin 26.9 dB.
+//   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
+//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -54,14 +54,14 @@ extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define GIMBAL_CAM_PITCH_KP               0.61377126f // P gain on the measurement
-#define GIMBAL_CAM_PITCH_KPB              0.3375742f // P gain on the setpoint (setpoint weight b times Kp)
-#define GIMBAL_CAM_PITCH_G0               0.0021594018f // integral: weight of the current error
-#define GIMBAL_CAM_PITCH_G01              0.0043188035f // integral: state increment per unit error
-#define GIMBAL_CAM_PITCH_KT               0.013509743f // anti-windup back-calculation gain T/Tt
+#define GIMBAL_CAM_PITCH_KP               0.51722765f // P gain on the measurement
+#define GIMBAL_CAM_PITCH_KPB              0.27154452f // P gain on the setpoint (setpoint weight b times Kp)
+#define GIMBAL_CAM_PITCH_G0               0.0018467103f // integral: weight of the current error
+#define GIMBAL_CAM_PITCH_G01              0.0036934207f // integral: state increment per unit error
+#define GIMBAL_CAM_PITCH_KT               0.014834285f // anti-windup back-calculation gain T/Tt
 #define GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT 1.0f // largest |integrator state|, command units
-#define GIMBAL_CAM_PITCH_AD               0.4359745f // derivative filter: pole
-#define GIMBAL_CAM_PITCH_BD               13.34086f // derivative filter: gain
+#define GIMBAL_CAM_PITCH_AD               0.43601033f // derivative filter: pole
+#define GIMBAL_CAM_PITCH_BD               9.463664f // derivative filter: gain
 #define GIMBAL_CAM_PITCH_OUTPUT_LO        (-1.0f) // lowest command
 #define GIMBAL_CAM_PITCH_OUTPUT_HI        1.0f // highest command
 
@@ -91,10 +91,10 @@ float gimbal_cam_pitch_step(gimbal_cam_pitch_state *s, float setpoint, float mea
 void gimbal_cam_pitch_applied(gimbal_cam_pitch_state *s, float applied);
 
 // Axis yaw: coefficients and limits.
-#define GIMBAL_CAM_YAW_KP               0.009238534f // P gain on the measurement
-#define GIMBAL_CAM_YAW_KPB              0.0050811935f // P gain on the setpoint (setpoint weight b times Kp)
-#define GIMBAL_CAM_YAW_G0               2.2007871e-05f // integral: weight of the current error
-#define GIMBAL_CAM_YAW_G01              4.4015742e-05f // integral: state increment per unit error
+#define GIMBAL_CAM_YAW_KP               0.010680312f // P gain on the measurement
+#define GIMBAL_CAM_YAW_KPB              0.0069422033f // P gain on the setpoint (setpoint weight b times Kp)
+#define GIMBAL_CAM_YAW_G0               2.265201e-05f // integral: weight of the current error
+#define GIMBAL_CAM_YAW_G01              4.530402e-05f // integral: state increment per unit error
 #define GIMBAL_CAM_YAW_INTEGRATOR_LIMIT 1.0f // largest |integrator state|, command units
 #define GIMBAL_CAM_YAW_OUTPUT_LO        (-1.0f) // lowest command
 #define GIMBAL_CAM_YAW_OUTPUT_HI        1.0f // highest command

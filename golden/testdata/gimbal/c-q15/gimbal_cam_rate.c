@@ -6,33 +6,33 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; q15 fixed
 // point (input full scale 3, output full scale 1).
 //
-// Axis pitch: pid, Kp = 0.6138, Ki = 8.636, Kd = 0.01183, Tf = 0.0006366 s,
-// b = 0.55.
-//   discretized tustin_prewarp (prewarped at 100.9 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03701 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
+// b = 0.525.
+//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
 //   output [-1, 1].
-//   Target: zeta = 0.95, wn = 32.3 rad/s, s* = -30.7 +/- j10.1 rad/s.
-//   Sampled loop: overshoot 1.42 %, settling 0.0796 s, phase margin
-//   45.9 deg, gain margin 8.85 dB.
+//   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
+//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
+//   gain margin 11.5 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
-//   scale*2^15); formats KpB Q1.14, Kp Q1.14, G0, G01, Kt
-//   Ad, Bd Q6.9, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
-//   integrator 14, derivative 9, sum 9 fractional bits below the output LSB;
-//   minimum headroom 0.198 bits (Ad*Ud (product)); saturating: command
+//   scale*2^15); formats KpB Q0.15, Kp Q1.14, G0, G01, Kt
+//   Ad, Bd Q5.10, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
+//   integrator 14, derivative 10, sum 10 fractional bits below the output
+//   LSB; minimum headroom 0.0749 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis yaw: pi, Kp = 0.009239, Ki = 0.08803, b = 0.55.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
-//   Target: zeta = 0.925, wn = 21.3 rad/s, s* = -19.7 +/- j8.08 rad/s.
-//   Sampled loop: overshoot 1.87 %, settling 0.119 s, phase margin 53.1 deg,
-//   gain margin 26.9 dB.
+//   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
+//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
-//   scale*2^15); formats KpB, Kp, G0, G01, Lo
+//   scale*2^15); formats KpB, Kp, G0, G01, Lo
 //   Q0.15, Hi Q0.15, IL Q2.29; states: integrator 14, derivative 16, sum 14
-//   fractional bits below the output LSB; minimum headroom 0.887 bits (G0*e
+//   fractional bits below the output LSB; minimum headroom 0.845 bits (G0*e
 //   (product)); saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
@@ -126,8 +126,8 @@ void gimbal_cam_pitch_reset(gimbal_cam_pitch_state *s, int16_t output, int16_t m
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	const int32_t q = (int32_t)output * ((int32_t)1 << 9) - (gimbal_cam_mul(GIMBAL_CAM_PITCH_KPB, (int32_t)measured, 5) - gimbal_cam_mul(GIMBAL_CAM_PITCH_KP, (int32_t)measured, 5));
-	s->integ = gimbal_cam_clamp(gimbal_cam_satshl(q, 5), -GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT, GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT);
+	const int32_t q = (int32_t)output * ((int32_t)1 << 10) - (gimbal_cam_mul(GIMBAL_CAM_PITCH_KPB, (int32_t)measured, 5) - gimbal_cam_mul(GIMBAL_CAM_PITCH_KP, (int32_t)measured, 4));
+	s->integ = gimbal_cam_clamp(gimbal_cam_satshl(q, 4), -GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT, GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT);
 	s->ud = 0;
 	s->vp = -(int32_t)measured;
 	s->e = 0;
@@ -144,20 +144,20 @@ int16_t gimbal_cam_pitch_step(gimbal_cam_pitch_state *s, int16_t setpoint, int16
 		// The integrator update of the last step, now that the command
 		// actually applied is known.
 		int32_t inc = gimbal_cam_mul(GIMBAL_CAM_PITCH_G01, s->e, 7);
-		const int32_t du = (int32_t)s->ua - gimbal_cam_rsh(s->uu, 9); // applied - unsaturated
+		const int32_t du = (int32_t)s->ua - gimbal_cam_rsh(s->uu, 10); // applied - unsaturated
 		inc = inc + gimbal_cam_mulw(GIMBAL_CAM_PITCH_KT, du, 7); // back-calculation
 		s->integ = s->integ + inc;
 		s->integ = gimbal_cam_clamp(s->integ, -GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT, GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT);
 	}
 	const int32_t e = r - y;
-	int32_t uu = gimbal_cam_mul(GIMBAL_CAM_PITCH_KPB, r, 5) - gimbal_cam_mul(GIMBAL_CAM_PITCH_KP, y, 5);
-	uu = uu + gimbal_cam_rsh(s->integ, 5);
-	uu = uu + gimbal_cam_mul(GIMBAL_CAM_PITCH_G0, e, 13);
+	int32_t uu = gimbal_cam_mul(GIMBAL_CAM_PITCH_KPB, r, 5) - gimbal_cam_mul(GIMBAL_CAM_PITCH_KP, y, 4);
+	uu = uu + gimbal_cam_rsh(s->integ, 4);
+	uu = uu + gimbal_cam_mul(GIMBAL_CAM_PITCH_G0, e, 12);
 	const int32_t v = -y;
 	s->ud = gimbal_cam_mulw(GIMBAL_CAM_PITCH_AD, s->ud, 16) + gimbal_cam_mul(GIMBAL_CAM_PITCH_BD, v - s->vp, 0);
 	s->vp = v;
 	uu = uu + s->ud;
-	const int16_t u = (int16_t)gimbal_cam_clamp(gimbal_cam_rsh(uu, 9), GIMBAL_CAM_PITCH_OUTPUT_LO, GIMBAL_CAM_PITCH_OUTPUT_HI);
+	const int16_t u = (int16_t)gimbal_cam_clamp(gimbal_cam_rsh(uu, 10), GIMBAL_CAM_PITCH_OUTPUT_LO, GIMBAL_CAM_PITCH_OUTPUT_HI);
 	s->e = e;
 	s->uu = uu;
 	s->ua = u;
@@ -175,7 +175,7 @@ void gimbal_cam_yaw_reset(gimbal_cam_yaw_state *s, int16_t output, int16_t measu
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	const int32_t q = (int32_t)output * ((int32_t)1 << 14) - (gimbal_cam_mul(GIMBAL_CAM_YAW_KPB, (int32_t)measured, 7) - gimbal_cam_mul(GIMBAL_CAM_YAW_KP, (int32_t)measured, 6));
+	const int32_t q = (int32_t)output * ((int32_t)1 << 14) - (gimbal_cam_mul(GIMBAL_CAM_YAW_KPB, (int32_t)measured, 6) - gimbal_cam_mul(GIMBAL_CAM_YAW_KP, (int32_t)measured, 5));
 	s->integ = gimbal_cam_clamp(q, -GIMBAL_CAM_YAW_INTEGRATOR_LIMIT, GIMBAL_CAM_YAW_INTEGRATOR_LIMIT);
 	(void)measured;
 	s->e = 0;
@@ -200,7 +200,7 @@ int16_t gimbal_cam_yaw_step(gimbal_cam_yaw_state *s, int16_t setpoint, int16_t m
 		s->integ = gimbal_cam_clamp(s->integ, -GIMBAL_CAM_YAW_INTEGRATOR_LIMIT, GIMBAL_CAM_YAW_INTEGRATOR_LIMIT);
 	}
 	const int32_t e = r - y;
-	int32_t uu = gimbal_cam_mul(GIMBAL_CAM_YAW_KPB, r, 7) - gimbal_cam_mul(GIMBAL_CAM_YAW_KP, y, 6);
+	int32_t uu = gimbal_cam_mul(GIMBAL_CAM_YAW_KPB, r, 6) - gimbal_cam_mul(GIMBAL_CAM_YAW_KP, y, 5);
 	uu = uu + s->integ;
 	uu = uu + gimbal_cam_mul(GIMBAL_CAM_YAW_G0, e, 14);
 	const int16_t u = (int16_t)gimbal_cam_clamp(gimbal_cam_rsh(uu, 14), GIMBAL_CAM_YAW_OUTPUT_LO, GIMBAL_CAM_YAW_OUTPUT_HI);

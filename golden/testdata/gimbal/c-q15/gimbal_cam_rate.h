@@ -6,33 +6,33 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; q15 fixed
 // point (input full scale 3, output full scale 1).
 //
-// Axis pitch: pid, Kp = 0.6138, Ki = 8.636, Kd = 0.01183, Tf = 0.0006366 s,
-// b = 0.55.
-//   discretized tustin_prewarp (prewarped at 100.9 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03701 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
+// b = 0.525.
+//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
 //   output [-1, 1].
-//   Target: zeta = 0.95, wn = 32.3 rad/s, s* = -30.7 +/- j10.1 rad/s.
-//   Sampled loop: overshoot 1.42 %, settling 0.0796 s, phase margin
-//   45.9 deg, gain margin 8.85 dB.
+//   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
+//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
+//   gain margin 11.5 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
-//   scale*2^15); formats KpB Q1.14, Kp Q1.14, G0, G01, Kt
-//   Ad, Bd Q6.9, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
-//   integrator 14, derivative 9, sum 9 fractional bits below the output LSB;
-//   minimum headroom 0.198 bits (Ad*Ud (product)); saturating: command
+//   scale*2^15); formats KpB Q0.15, Kp Q1.14, G0, G01, Kt
+//   Ad, Bd Q5.10, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
+//   integrator 14, derivative 10, sum 10 fractional bits below the output
+//   LSB; minimum headroom 0.0749 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis yaw: pi, Kp = 0.009239, Ki = 0.08803, b = 0.55.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
-//   Target: zeta = 0.925, wn = 21.3 rad/s, s* = -19.7 +/- j8.08 rad/s.
-//   Sampled loop: overshoot 1.87 %, settling 0.119 s, phase margin 53.1 deg,
-//   gain margin 26.9 dB.
+//   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
+//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
-//   scale*2^15); formats KpB, Kp, G0, G01, Lo
+//   scale*2^15); formats KpB, Kp, G0, G01, Lo
 //   Q0.15, Hi Q0.15, IL Q2.29; states: integrator 14, derivative 16, sum 14
-//   fractional bits below the output LSB; minimum headroom 0.887 bits (G0*e
+//   fractional bits below the output LSB; minimum headroom 0.845 bits (G0*e
 //   (product)); saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
@@ -59,13 +59,13 @@ extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define GIMBAL_CAM_PITCH_KP               ((int16_t)30168) // P gain on the measurement; Q1.14 = 1.841
-#define GIMBAL_CAM_PITCH_KPB              ((int16_t)16592) // P gain on the setpoint; Q1.14 = 1.013
-#define GIMBAL_CAM_PITCH_G0               ((int16_t)27172) // integral: weight of the current error; Q-7.22 = 0.006478
-#define GIMBAL_CAM_PITCH_G01              ((int16_t)27172) // integral: state increment per unit error; Q-6.21 = 0.01296
-#define GIMBAL_CAM_PITCH_KT               ((int16_t)28332) // anti-windup back-calculation gain T/Tt; Q-6.21 = 0.01351
-#define GIMBAL_CAM_PITCH_AD               ((int16_t)28572) // derivative filter: pole; Q-1.16 = 0.436
-#define GIMBAL_CAM_PITCH_BD               ((int16_t)20492) // derivative filter: gain; Q6.9 = 40.02
+#define GIMBAL_CAM_PITCH_KP               ((int16_t)25423) // P gain on the measurement; Q1.14 = 1.552
+#define GIMBAL_CAM_PITCH_KPB              ((int16_t)26694) // P gain on the setpoint; Q0.15 = 0.8146
+#define GIMBAL_CAM_PITCH_G0               ((int16_t)23237) // integral: weight of the current error; Q-7.22 = 0.00554
+#define GIMBAL_CAM_PITCH_G01              ((int16_t)23237) // integral: state increment per unit error; Q-6.21 = 0.01108
+#define GIMBAL_CAM_PITCH_KT               ((int16_t)31110) // anti-windup back-calculation gain T/Tt; Q-6.21 = 0.01483
+#define GIMBAL_CAM_PITCH_AD               ((int16_t)28574) // derivative filter: pole; Q-1.16 = 0.436
+#define GIMBAL_CAM_PITCH_BD               ((int16_t)29072) // derivative filter: gain; Q5.10 = 28.39
 #define GIMBAL_CAM_PITCH_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define GIMBAL_CAM_PITCH_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB
@@ -74,10 +74,10 @@ extern "C" {
 // derivative). Call reset before the first step.
 typedef struct {
 	int32_t integ; // integrator, 14 fractional bits below the output LSB
-	int32_t ud; // filtered derivative term, 9 fractional bits below the output LSB
+	int32_t ud; // filtered derivative term, 10 fractional bits below the output LSB
 	int32_t vp; // derivative input of the last step, input LSB
 	int32_t e; // error of the last step, input LSB
-	int32_t uu; // command before saturation, last step, 9 fractional bits below the output LSB
+	int32_t uu; // command before saturation, last step, 10 fractional bits below the output LSB
 	int16_t ua; // command applied, last step
 	bool pending; // the last step's state update is due
 } gimbal_cam_pitch_state;
@@ -96,10 +96,10 @@ int16_t gimbal_cam_pitch_step(gimbal_cam_pitch_state *s, int16_t setpoint, int16
 void gimbal_cam_pitch_applied(gimbal_cam_pitch_state *s, int16_t applied);
 
 // Axis yaw: coefficients and limits.
-#define GIMBAL_CAM_YAW_KP               ((int16_t)29062) // P gain on the measurement; Q-5.20 = 0.02772
-#define GIMBAL_CAM_YAW_KPB              ((int16_t)31968) // P gain on the setpoint; Q-6.21 = 0.01524
-#define GIMBAL_CAM_YAW_G0               ((int16_t)17723) // integral: weight of the current error; Q-13.28 = 6.602e-05
-#define GIMBAL_CAM_YAW_G01              ((int16_t)17723) // integral: state increment per unit error; Q-12.27 = 0.000132
+#define GIMBAL_CAM_YAW_KP               ((int16_t)16799) // P gain on the measurement; Q-4.19 = 0.03204
+#define GIMBAL_CAM_YAW_KPB              ((int16_t)21838) // P gain on the setpoint; Q-5.20 = 0.02083
+#define GIMBAL_CAM_YAW_G0               ((int16_t)18242) // integral: weight of the current error; Q-13.28 = 6.796e-05
+#define GIMBAL_CAM_YAW_G01              ((int16_t)18242) // integral: state increment per unit error; Q-12.27 = 0.0001359
 #define GIMBAL_CAM_YAW_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define GIMBAL_CAM_YAW_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define GIMBAL_CAM_YAW_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB

@@ -6,33 +6,33 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; q31 fixed
 // point (input full scale 3, output full scale 1).
 //
-// Axis pitch: pid, Kp = 0.6138, Ki = 8.636, Kd = 0.01183, Tf = 0.0006366 s,
-// b = 0.55.
-//   discretized tustin_prewarp (prewarped at 100.9 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03701 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
+// b = 0.525.
+//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
 //   output [-1, 1].
-//   Target: zeta = 0.95, wn = 32.3 rad/s, s* = -30.7 +/- j10.1 rad/s.
-//   Sampled loop: overshoot 1.42 %, settling 0.0796 s, phase margin
-//   45.9 deg, gain margin 8.85 dB.
+//   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
+//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
+//   gain margin 11.5 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
-//   scale*2^31); formats KpB Q1.30, Kp Q1.30, G0, G01, Kt
-//   Ad, Bd Q6.25, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
-//   integrator 30, derivative 25, sum 25 fractional bits below the output
-//   LSB; minimum headroom 0.198 bits (Ad*Ud (product)); saturating: command
-//   before saturation.
+//   scale*2^31); formats KpB Q0.31, Kp Q1.30, G0, G01, Kt
+//   Ad, Bd Q5.26, Lo Q0.31, Hi Q0.31, IL Q1.62; states:
+//   integrator 31, derivative 26, sum 26 fractional bits below the output
+//   LSB; minimum headroom 0.0518 bits (integrator S + inc (before the
+//   clamp)); saturating: command before saturation.
 //
-// Axis yaw: pi, Kp = 0.009239, Ki = 0.08803, b = 0.55.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
-//   Target: zeta = 0.925, wn = 21.3 rad/s, s* = -19.7 +/- j8.08 rad/s.
-//   Sampled loop: overshoot 1.87 %, settling 0.119 s, phase margin 53.1 deg,
-//   gain margin 26.9 dB.
+//   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
+//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
-//   scale*2^31); formats KpB, Kp, G0, G01, Lo
+//   scale*2^31); formats KpB, Kp, G0, G01, Lo
 //   Q0.31, Hi Q0.31, IL Q1.62; states: integrator 31, derivative 32, sum 31
-//   fractional bits below the output LSB; minimum headroom 0.887 bits (G0*e
+//   fractional bits below the output LSB; minimum headroom 0.845 bits (G0*e
 //   (product)); saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
@@ -126,7 +126,7 @@ void gimbal_cam_pitch_reset(gimbal_cam_pitch_state *s, int32_t output, int32_t m
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	const int64_t q = (int64_t)output * ((int64_t)1 << 25) - (gimbal_cam_mul(GIMBAL_CAM_PITCH_KPB, (int64_t)measured, 5) - gimbal_cam_mul(GIMBAL_CAM_PITCH_KP, (int64_t)measured, 5));
+	const int64_t q = (int64_t)output * ((int64_t)1 << 26) - (gimbal_cam_mul(GIMBAL_CAM_PITCH_KPB, (int64_t)measured, 5) - gimbal_cam_mul(GIMBAL_CAM_PITCH_KP, (int64_t)measured, 4));
 	s->integ = gimbal_cam_clamp(gimbal_cam_satshl(q, 5), -GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT, GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT);
 	s->ud = 0;
 	s->vp = -(int64_t)measured;
@@ -143,21 +143,21 @@ int32_t gimbal_cam_pitch_step(gimbal_cam_pitch_state *s, int32_t setpoint, int32
 	if (s->pending) {
 		// The integrator update of the last step, now that the command
 		// actually applied is known.
-		int64_t inc = gimbal_cam_mul(GIMBAL_CAM_PITCH_G01, s->e, 7);
-		const int64_t du = (int64_t)s->ua - gimbal_cam_rsh(s->uu, 25); // applied - unsaturated
-		inc = inc + gimbal_cam_mulw(GIMBAL_CAM_PITCH_KT, du, 7); // back-calculation
+		int64_t inc = gimbal_cam_mul(GIMBAL_CAM_PITCH_G01, s->e, 6);
+		const int64_t du = (int64_t)s->ua - gimbal_cam_rsh(s->uu, 26); // applied - unsaturated
+		inc = inc + gimbal_cam_mulw(GIMBAL_CAM_PITCH_KT, du, 6); // back-calculation
 		s->integ = s->integ + inc;
 		s->integ = gimbal_cam_clamp(s->integ, -GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT, GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT);
 	}
 	const int64_t e = r - y;
-	int64_t uu = gimbal_cam_mul(GIMBAL_CAM_PITCH_KPB, r, 5) - gimbal_cam_mul(GIMBAL_CAM_PITCH_KP, y, 5);
+	int64_t uu = gimbal_cam_mul(GIMBAL_CAM_PITCH_KPB, r, 5) - gimbal_cam_mul(GIMBAL_CAM_PITCH_KP, y, 4);
 	uu = uu + gimbal_cam_rsh(s->integ, 5);
-	uu = uu + gimbal_cam_mul(GIMBAL_CAM_PITCH_G0, e, 13);
+	uu = uu + gimbal_cam_mul(GIMBAL_CAM_PITCH_G0, e, 12);
 	const int64_t v = -y;
 	s->ud = gimbal_cam_mulw(GIMBAL_CAM_PITCH_AD, s->ud, 32) + gimbal_cam_mul(GIMBAL_CAM_PITCH_BD, v - s->vp, 0);
 	s->vp = v;
 	uu = uu + s->ud;
-	const int32_t u = (int32_t)gimbal_cam_clamp(gimbal_cam_rsh(uu, 25), GIMBAL_CAM_PITCH_OUTPUT_LO, GIMBAL_CAM_PITCH_OUTPUT_HI);
+	const int32_t u = (int32_t)gimbal_cam_clamp(gimbal_cam_rsh(uu, 26), GIMBAL_CAM_PITCH_OUTPUT_LO, GIMBAL_CAM_PITCH_OUTPUT_HI);
 	s->e = e;
 	s->uu = uu;
 	s->ua = u;
@@ -175,7 +175,7 @@ void gimbal_cam_yaw_reset(gimbal_cam_yaw_state *s, int32_t output, int32_t measu
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	const int64_t q = (int64_t)output * ((int64_t)1 << 31) - (gimbal_cam_mul(GIMBAL_CAM_YAW_KPB, (int64_t)measured, 6) - gimbal_cam_mul(GIMBAL_CAM_YAW_KP, (int64_t)measured, 5));
+	const int64_t q = (int64_t)output * ((int64_t)1 << 31) - (gimbal_cam_mul(GIMBAL_CAM_YAW_KPB, (int64_t)measured, 5) - gimbal_cam_mul(GIMBAL_CAM_YAW_KP, (int64_t)measured, 4));
 	s->integ = gimbal_cam_clamp(q, -GIMBAL_CAM_YAW_INTEGRATOR_LIMIT, GIMBAL_CAM_YAW_INTEGRATOR_LIMIT);
 	(void)measured;
 	s->e = 0;
@@ -200,7 +200,7 @@ int32_t gimbal_cam_yaw_step(gimbal_cam_yaw_state *s, int32_t setpoint, int32_t m
 		s->integ = gimbal_cam_clamp(s->integ, -GIMBAL_CAM_YAW_INTEGRATOR_LIMIT, GIMBAL_CAM_YAW_INTEGRATOR_LIMIT);
 	}
 	const int64_t e = r - y;
-	int64_t uu = gimbal_cam_mul(GIMBAL_CAM_YAW_KPB, r, 6) - gimbal_cam_mul(GIMBAL_CAM_YAW_KP, y, 5);
+	int64_t uu = gimbal_cam_mul(GIMBAL_CAM_YAW_KPB, r, 5) - gimbal_cam_mul(GIMBAL_CAM_YAW_KP, y, 4);
 	uu = uu + s->integ;
 	uu = uu + gimbal_cam_mul(GIMBAL_CAM_YAW_G0, e, 13);
 	const int32_t u = (int32_t)gimbal_cam_clamp(gimbal_cam_rsh(uu, 31), GIMBAL_CAM_YAW_OUTPUT_LO, GIMBAL_CAM_YAW_OUTPUT_HI);

@@ -6,33 +6,33 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; q31 fixed
 // point (input full scale 3, output full scale 1).
 //
-// Axis pitch: pid, Kp = 0.6138, Ki = 8.636, Kd = 0.01183, Tf = 0.0006366 s,
-// b = 0.55.
-//   discretized tustin_prewarp (prewarped at 100.9 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03701 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
+// b = 0.525.
+//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
 //   output [-1, 1].
-//   Target: zeta = 0.95, wn = 32.3 rad/s, s* = -30.7 +/- j10.1 rad/s.
-//   Sampled loop: overshoot 1.42 %, settling 0.0796 s, phase margin
-//   45.9 deg, gain margin 8.85 dB.
+//   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
+//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
+//   gain margin 11.5 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
-//   scale*2^31); formats KpB Q1.30, Kp Q1.30, G0, G01, Kt
-//   Ad, Bd Q6.25, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
-//   integrator 30, derivative 25, sum 25 fractional bits below the output
-//   LSB; minimum headroom 0.198 bits (Ad*Ud (product)); saturating: command
-//   before saturation.
+//   scale*2^31); formats KpB Q0.31, Kp Q1.30, G0, G01, Kt
+//   Ad, Bd Q5.26, Lo Q0.31, Hi Q0.31, IL Q1.62; states:
+//   integrator 31, derivative 26, sum 26 fractional bits below the output
+//   LSB; minimum headroom 0.0518 bits (integrator S + inc (before the
+//   clamp)); saturating: command before saturation.
 //
-// Axis yaw: pi, Kp = 0.009239, Ki = 0.08803, b = 0.55.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
-//   Target: zeta = 0.925, wn = 21.3 rad/s, s* = -19.7 +/- j8.08 rad/s.
-//   Sampled loop: overshoot 1.87 %, settling 0.119 s, phase margin 53.1 deg,
-//   gain margin 26.9 dB.
+//   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
+//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
-//   scale*2^31); formats KpB, Kp, G0, G01, Lo
+//   scale*2^31); formats KpB, Kp, G0, G01, Lo
 //   Q0.31, Hi Q0.31, IL Q1.62; states: integrator 31, derivative 32, sum 31
-//   fractional bits below the output LSB; minimum headroom 0.887 bits (G0*e
+//   fractional bits below the output LSB; minimum headroom 0.845 bits (G0*e
 //   (product)); saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
@@ -59,25 +59,25 @@ extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define GIMBAL_CAM_PITCH_KP               ((int32_t)1977095665) // P gain on the measurement; Q1.30 = 1.841
-#define GIMBAL_CAM_PITCH_KPB              ((int32_t)1087402616) // P gain on the setpoint; Q1.30 = 1.013
-#define GIMBAL_CAM_PITCH_G0               ((int32_t)1780715606) // integral: weight of the current error; Q-7.38 = 0.006478
-#define GIMBAL_CAM_PITCH_G01              ((int32_t)1780715606) // integral: state increment per unit error; Q-6.37 = 0.01296
-#define GIMBAL_CAM_PITCH_KT               ((int32_t)1856764905) // anti-windup back-calculation gain T/Tt; Q-6.37 = 0.01351
-#define GIMBAL_CAM_PITCH_AD               ((int32_t)1872496304) // derivative filter: pole; Q-1.32 = 0.436
-#define GIMBAL_CAM_PITCH_BD               ((int32_t)1342934939) // derivative filter: gain; Q6.25 = 40.02
+#define GIMBAL_CAM_PITCH_KP               ((int32_t)1666106883) // P gain on the measurement; Q1.30 = 1.552
+#define GIMBAL_CAM_PITCH_KPB              ((int32_t)1749412227) // P gain on the setpoint; Q0.31 = 0.8146
+#define GIMBAL_CAM_PITCH_G0               ((int32_t)1522859599) // integral: weight of the current error; Q-7.38 = 0.00554
+#define GIMBAL_CAM_PITCH_G01              ((int32_t)1522859599) // integral: state increment per unit error; Q-6.37 = 0.01108
+#define GIMBAL_CAM_PITCH_KT               ((int32_t)2038808590) // anti-windup back-calculation gain T/Tt; Q-6.37 = 0.01483
+#define GIMBAL_CAM_PITCH_AD               ((int32_t)1872650155) // derivative filter: pole; Q-1.32 = 0.436
+#define GIMBAL_CAM_PITCH_BD               ((int32_t)1905287190) // derivative filter: gain; Q5.26 = 28.39
 #define GIMBAL_CAM_PITCH_OUTPUT_LO        ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define GIMBAL_CAM_PITCH_OUTPUT_HI        ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
-#define GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT INT64_C(2305843009213693952) // largest |integrator state|, 30 fractional bits below the output LSB
+#define GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT INT64_C(4611686018427387904) // largest |integrator state|, 31 fractional bits below the output LSB
 
 // State of the gimbal_cam rate controller of axis pitch (PID with filtered
 // derivative). Call reset before the first step.
 typedef struct {
-	int64_t integ; // integrator, 30 fractional bits below the output LSB
-	int64_t ud; // filtered derivative term, 25 fractional bits below the output LSB
+	int64_t integ; // integrator, 31 fractional bits below the output LSB
+	int64_t ud; // filtered derivative term, 26 fractional bits below the output LSB
 	int64_t vp; // derivative input of the last step, input LSB
 	int64_t e; // error of the last step, input LSB
-	int64_t uu; // command before saturation, last step, 25 fractional bits below the output LSB
+	int64_t uu; // command before saturation, last step, 26 fractional bits below the output LSB
 	int32_t ua; // command applied, last step
 	bool pending; // the last step's state update is due
 } gimbal_cam_pitch_state;
@@ -96,10 +96,10 @@ int32_t gimbal_cam_pitch_step(gimbal_cam_pitch_state *s, int32_t setpoint, int32
 void gimbal_cam_pitch_applied(gimbal_cam_pitch_state *s, int32_t applied);
 
 // Axis yaw: coefficients and limits.
-#define GIMBAL_CAM_YAW_KP               ((int32_t)1904601687) // P gain on the measurement; Q-5.36 = 0.02772
-#define GIMBAL_CAM_YAW_KPB              ((int32_t)2095061856) // P gain on the setpoint; Q-6.37 = 0.01524
-#define GIMBAL_CAM_YAW_G0               ((int32_t)1161499703) // integral: weight of the current error; Q-13.44 = 6.602e-05
-#define GIMBAL_CAM_YAW_G01              ((int32_t)1161499703) // integral: state increment per unit error; Q-12.43 = 0.000132
+#define GIMBAL_CAM_YAW_KP               ((int32_t)1100918239) // P gain on the measurement; Q-4.35 = 0.03204
+#define GIMBAL_CAM_YAW_KPB              ((int32_t)1431193710) // P gain on the setpoint; Q-5.36 = 0.02083
+#define GIMBAL_CAM_YAW_G0               ((int32_t)1195495124) // integral: weight of the current error; Q-13.44 = 6.796e-05
+#define GIMBAL_CAM_YAW_G01              ((int32_t)1195495124) // integral: state increment per unit error; Q-12.43 = 0.0001359
 #define GIMBAL_CAM_YAW_OUTPUT_LO        ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define GIMBAL_CAM_YAW_OUTPUT_HI        ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
 #define GIMBAL_CAM_YAW_INTEGRATOR_LIMIT INT64_C(4611686018427387904) // largest |integrator state|, 31 fractional bits below the output LSB

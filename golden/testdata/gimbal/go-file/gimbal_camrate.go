@@ -6,33 +6,33 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; q15 fixed
 // point (input full scale 3, output full scale 1).
 //
-// Axis pitch: pid, Kp = 0.6138, Ki = 8.636, Kd = 0.01183, Tf = 0.0006366 s,
-// b = 0.55.
-//   discretized tustin_prewarp (prewarped at 100.9 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03701 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
+// b = 0.525.
+//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
 //   output [-1, 1].
-//   Target: zeta = 0.95, wn = 32.3 rad/s, s* = -30.7 +/- j10.1 rad/s.
-//   Sampled loop: overshoot 1.42 %, settling 0.0796 s, phase margin
-//   45.9 deg, gain margin 8.85 dB.
+//   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
+//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
+//   gain margin 11.5 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
-//   scale*2^15); formats KpB Q1.14, Kp Q1.14, G0, G01, Kt
-//   Ad, Bd Q6.9, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
-//   integrator 14, derivative 9, sum 9 fractional bits below the output LSB;
-//   minimum headroom 0.198 bits (Ad*Ud (product)); saturating: command
+//   scale*2^15); formats KpB Q0.15, Kp Q1.14, G0, G01, Kt
+//   Ad, Bd Q5.10, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
+//   integrator 14, derivative 10, sum 10 fractional bits below the output
+//   LSB; minimum headroom 0.0749 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis yaw: pi, Kp = 0.009239, Ki = 0.08803, b = 0.55.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
-//   Target: zeta = 0.925, wn = 21.3 rad/s, s* = -19.7 +/- j8.08 rad/s.
-//   Sampled loop: overshoot 1.87 %, settling 0.119 s, phase margin 53.1 deg,
-//   gain margin 26.9 dB.
+//   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
+//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
-//   scale*2^15); formats KpB, Kp, G0, G01, Lo
+//   scale*2^15); formats KpB, Kp, G0, G01, Lo
 //   Q0.15, Hi Q0.15, IL Q2.29; states: integrator 14, derivative 16, sum 14
-//   fractional bits below the output LSB; minimum headroom 0.887 bits (G0*e
+//   fractional bits below the output LSB; minimum headroom 0.845 bits (G0*e
 //   (product)); saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
@@ -57,13 +57,13 @@ package gimbal_camrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int16 = 30168     // P gain on the measurement; Q1.14 = 1.841
-	PitchKpB             int16 = 16592     // P gain on the setpoint; Q1.14 = 1.013
-	PitchG0              int16 = 27172     // integral: weight of the current error; Q-7.22 = 0.006478
-	PitchG01             int16 = 27172     // integral: state increment per unit error; Q-6.21 = 0.01296
-	PitchKt              int16 = 28332     // anti-windup back-calculation gain T/Tt; Q-6.21 = 0.01351
-	PitchAd              int16 = 28572     // derivative filter: pole; Q-1.16 = 0.436
-	PitchBd              int16 = 20492     // derivative filter: gain; Q6.9 = 40.02
+	PitchKp              int16 = 25423     // P gain on the measurement; Q1.14 = 1.552
+	PitchKpB             int16 = 26694     // P gain on the setpoint; Q0.15 = 0.8146
+	PitchG0              int16 = 23237     // integral: weight of the current error; Q-7.22 = 0.00554
+	PitchG01             int16 = 23237     // integral: state increment per unit error; Q-6.21 = 0.01108
+	PitchKt              int16 = 31110     // anti-windup back-calculation gain T/Tt; Q-6.21 = 0.01483
+	PitchAd              int16 = 28574     // derivative filter: pole; Q-1.16 = 0.436
+	PitchBd              int16 = 29072     // derivative filter: gain; Q5.10 = 28.39
 	PitchOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	PitchOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
 	PitchIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB
@@ -73,10 +73,10 @@ const (
 // derivative). Call reset before the first step.
 type Pitch struct {
 	integ   int32 // integrator, 14 fractional bits below the output LSB
-	ud      int32 // filtered derivative term, 9 fractional bits below the output LSB
+	ud      int32 // filtered derivative term, 10 fractional bits below the output LSB
 	vp      int32 // derivative input of the last step, input LSB
 	e       int32 // error of the last step, input LSB
-	uu      int32 // command before saturation, last step, 9 fractional bits below the output LSB
+	uu      int32 // command before saturation, last step, 10 fractional bits below the output LSB
 	ua      int16 // command applied, last step
 	pending bool  // the last step's state update is due
 }
@@ -90,8 +90,8 @@ func (c *Pitch) Reset(output, measured int16) {
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	q := int32(output)*(1<<9) - (mul(PitchKpB, int32(measured), 5) - mul(PitchKp, int32(measured), 5))
-	c.integ = clamp(satshl(q, 5), -PitchIntegratorLimit, PitchIntegratorLimit)
+	q := int32(output)*(1<<10) - (mul(PitchKpB, int32(measured), 5) - mul(PitchKp, int32(measured), 4))
+	c.integ = clamp(satshl(q, 4), -PitchIntegratorLimit, PitchIntegratorLimit)
 	c.vp = -int32(measured)
 }
 
@@ -103,20 +103,20 @@ func (c *Pitch) Step(setpoint, measured int16) int16 {
 		// The integrator update of the last step, now that the command
 		// actually applied is known.
 		inc := mul(PitchG01, c.e, 7)
-		du := int32(c.ua) - rsh(c.uu, 9) // applied - unsaturated
-		inc = inc + mulw(PitchKt, du, 7) // back-calculation
+		du := int32(c.ua) - rsh(c.uu, 10) // applied - unsaturated
+		inc = inc + mulw(PitchKt, du, 7)  // back-calculation
 		c.integ = c.integ + inc
 		c.integ = clamp(c.integ, -PitchIntegratorLimit, PitchIntegratorLimit)
 	}
 	e := r - y
-	uu := mul(PitchKpB, r, 5) - mul(PitchKp, y, 5)
-	uu = uu + rsh(c.integ, 5)
-	uu = uu + mul(PitchG0, e, 13)
+	uu := mul(PitchKpB, r, 5) - mul(PitchKp, y, 4)
+	uu = uu + rsh(c.integ, 4)
+	uu = uu + mul(PitchG0, e, 12)
 	v := -y
 	c.ud = mulw(PitchAd, c.ud, 16) + mul(PitchBd, v-c.vp, 0)
 	c.vp = v
 	uu = uu + c.ud
-	u := int16(clamp(rsh(uu, 9), int32(PitchOutputLo), int32(PitchOutputHi)))
+	u := int16(clamp(rsh(uu, 10), int32(PitchOutputLo), int32(PitchOutputHi)))
 	c.e = e
 	c.uu = uu
 	c.ua = u
@@ -132,10 +132,10 @@ func (c *Pitch) Applied(applied int16) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp              int16 = 29062     // P gain on the measurement; Q-5.20 = 0.02772
-	YawKpB             int16 = 31968     // P gain on the setpoint; Q-6.21 = 0.01524
-	YawG0              int16 = 17723     // integral: weight of the current error; Q-13.28 = 6.602e-05
-	YawG01             int16 = 17723     // integral: state increment per unit error; Q-12.27 = 0.000132
+	YawKp              int16 = 16799     // P gain on the measurement; Q-4.19 = 0.03204
+	YawKpB             int16 = 21838     // P gain on the setpoint; Q-5.20 = 0.02083
+	YawG0              int16 = 18242     // integral: weight of the current error; Q-13.28 = 6.796e-05
+	YawG01             int16 = 18242     // integral: state increment per unit error; Q-12.27 = 0.0001359
 	YawOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	YawOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
 	YawIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB
@@ -159,7 +159,7 @@ func (c *Yaw) Reset(output, measured int16) {
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	q := int32(output)*(1<<14) - (mul(YawKpB, int32(measured), 7) - mul(YawKp, int32(measured), 6))
+	q := int32(output)*(1<<14) - (mul(YawKpB, int32(measured), 6) - mul(YawKp, int32(measured), 5))
 	c.integ = clamp(q, -YawIntegratorLimit, YawIntegratorLimit)
 }
 
@@ -179,7 +179,7 @@ func (c *Yaw) Step(setpoint, measured int16) int16 {
 		c.integ = clamp(c.integ, -YawIntegratorLimit, YawIntegratorLimit)
 	}
 	e := r - y
-	uu := mul(YawKpB, r, 7) - mul(YawKp, y, 6)
+	uu := mul(YawKpB, r, 6) - mul(YawKp, y, 5)
 	uu = uu + c.integ
 	uu = uu + mul(YawG0, e, 14)
 	u := int16(clamp(rsh(uu, 14), int32(YawOutputLo), int32(YawOutputHi)))

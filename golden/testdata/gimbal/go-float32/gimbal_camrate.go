@@ -6,24 +6,24 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.6138, Ki = 8.636, Kd = 0.01183, Tf = 0.0006366 s,
-// b = 0.55.
-//   discretized tustin_prewarp (prewarped at 100.9 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03701 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
+// b = 0.525.
+//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
 //   output [-1, 1].
-//   Target: zeta = 0.95, wn = 32.3 rad/s, s* = -30.7 +/- j10.1 rad/s.
-//   Sampled loop: overshoot 1.42 %, settling 0.0796 s, phase margin
-//   45.9 deg, gain margin 8.85 dB.
+//   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
+//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
+//   gain margin 11.5 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.009239, Ki = 0.08803, b = 0.55.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
-//   Target: zeta = 0.925, wn = 21.3 rad/s, s* = -19.7 +/- j8.08 rad/s.
-//   Sampled loop: overshoot 1.87 %, settling 0.119 s, phase margin 53.1 deg,
-//   gain margin 26.9 dB.
+//   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
+//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -52,14 +52,14 @@ package gimbal_camrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              float32 = 0.61377126   // P gain on the measurement
-	PitchKpB             float32 = 0.3375742    // P gain on the setpoint (setpoint weight b times Kp)
-	PitchG0              float32 = 0.0021594018 // integral: weight of the current error
-	PitchG01             float32 = 0.0043188035 // integral: state increment per unit error
-	PitchKt              float32 = 0.013509743  // anti-windup back-calculation gain T/Tt
+	PitchKp              float32 = 0.51722765   // P gain on the measurement
+	PitchKpB             float32 = 0.27154452   // P gain on the setpoint (setpoint weight b times Kp)
+	PitchG0              float32 = 0.0018467103 // integral: weight of the current error
+	PitchG01             float32 = 0.0036934207 // integral: state increment per unit error
+	PitchKt              float32 = 0.014834285  // anti-windup back-calculation gain T/Tt
 	PitchIntegratorLimit float32 = 1.0          // largest |integrator state|, command units
-	PitchAd              float32 = 0.4359745    // derivative filter: pole
-	PitchBd              float32 = 13.34086     // derivative filter: gain
+	PitchAd              float32 = 0.43601033   // derivative filter: pole
+	PitchBd              float32 = 9.463664     // derivative filter: gain
 	PitchOutputLo        float32 = -1.0         // lowest command
 	PitchOutputHi        float32 = 1.0          // highest command
 )
@@ -119,13 +119,13 @@ func (c *Pitch) Applied(applied float32) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp              float32 = 0.009238534   // P gain on the measurement
-	YawKpB             float32 = 0.0050811935  // P gain on the setpoint (setpoint weight b times Kp)
-	YawG0              float32 = 2.2007871e-05 // integral: weight of the current error
-	YawG01             float32 = 4.4015742e-05 // integral: state increment per unit error
-	YawIntegratorLimit float32 = 1.0           // largest |integrator state|, command units
-	YawOutputLo        float32 = -1.0          // lowest command
-	YawOutputHi        float32 = 1.0           // highest command
+	YawKp              float32 = 0.010680312  // P gain on the measurement
+	YawKpB             float32 = 0.0069422033 // P gain on the setpoint (setpoint weight b times Kp)
+	YawG0              float32 = 2.265201e-05 // integral: weight of the current error
+	YawG01             float32 = 4.530402e-05 // integral: state increment per unit error
+	YawIntegratorLimit float32 = 1.0          // largest |integrator state|, command units
+	YawOutputLo        float32 = -1.0         // lowest command
+	YawOutputHi        float32 = 1.0          // highest command
 )
 
 // State of the gimbal_cam rate controller of axis yaw (PI). Call reset

@@ -6,33 +6,33 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; q31 fixed
 // point (input full scale 3, output full scale 1).
 //
-// Axis pitch: pid, Kp = 0.6138, Ki = 8.636, Kd = 0.01183, Tf = 0.0006366 s,
-// b = 0.55.
-//   discretized tustin_prewarp (prewarped at 100.9 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03701 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
+// b = 0.525.
+//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
 //   output [-1, 1].
-//   Target: zeta = 0.95, wn = 32.3 rad/s, s* = -30.7 +/- j10.1 rad/s.
-//   Sampled loop: overshoot 1.42 %, settling 0.0796 s, phase margin
-//   45.9 deg, gain margin 8.85 dB.
+//   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
+//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
+//   gain margin 11.5 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
-//   scale*2^31); formats KpB Q1.30, Kp Q1.30, G0, G01, Kt
-//   Ad, Bd Q6.25, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
-//   integrator 30, derivative 25, sum 25 fractional bits below the output
-//   LSB; minimum headroom 0.198 bits (Ad*Ud (product)); saturating: command
-//   before saturation.
+//   scale*2^31); formats KpB Q0.31, Kp Q1.30, G0, G01, Kt
+//   Ad, Bd Q5.26, Lo Q0.31, Hi Q0.31, IL Q1.62; states:
+//   integrator 31, derivative 26, sum 26 fractional bits below the output
+//   LSB; minimum headroom 0.0518 bits (integrator S + inc (before the
+//   clamp)); saturating: command before saturation.
 //
-// Axis yaw: pi, Kp = 0.009239, Ki = 0.08803, b = 0.55.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
-//   Target: zeta = 0.925, wn = 21.3 rad/s, s* = -19.7 +/- j8.08 rad/s.
-//   Sampled loop: overshoot 1.87 %, settling 0.119 s, phase margin 53.1 deg,
-//   gain margin 26.9 dB.
+//   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
+//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
-//   scale*2^31); formats KpB, Kp, G0, G01, Lo
+//   scale*2^31); formats KpB, Kp, G0, G01, Lo
 //   Q0.31, Hi Q0.31, IL Q1.62; states: integrator 31, derivative 32, sum 31
-//   fractional bits below the output LSB; minimum headroom 0.887 bits (G0*e
+//   fractional bits below the output LSB; minimum headroom 0.845 bits (G0*e
 //   (product)); saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
@@ -57,26 +57,26 @@ package gimbal_camrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int32 = 1977095665          // P gain on the measurement; Q1.30 = 1.841
-	PitchKpB             int32 = 1087402616          // P gain on the setpoint; Q1.30 = 1.013
-	PitchG0              int32 = 1780715606          // integral: weight of the current error; Q-7.38 = 0.006478
-	PitchG01             int32 = 1780715606          // integral: state increment per unit error; Q-6.37 = 0.01296
-	PitchKt              int32 = 1856764905          // anti-windup back-calculation gain T/Tt; Q-6.37 = 0.01351
-	PitchAd              int32 = 1872496304          // derivative filter: pole; Q-1.32 = 0.436
-	PitchBd              int32 = 1342934939          // derivative filter: gain; Q6.25 = 40.02
+	PitchKp              int32 = 1666106883          // P gain on the measurement; Q1.30 = 1.552
+	PitchKpB             int32 = 1749412227          // P gain on the setpoint; Q0.31 = 0.8146
+	PitchG0              int32 = 1522859599          // integral: weight of the current error; Q-7.38 = 0.00554
+	PitchG01             int32 = 1522859599          // integral: state increment per unit error; Q-6.37 = 0.01108
+	PitchKt              int32 = 2038808590          // anti-windup back-calculation gain T/Tt; Q-6.37 = 0.01483
+	PitchAd              int32 = 1872650155          // derivative filter: pole; Q-1.32 = 0.436
+	PitchBd              int32 = 1905287190          // derivative filter: gain; Q5.26 = 28.39
 	PitchOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	PitchOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
-	PitchIntegratorLimit int64 = 2305843009213693952 // largest |integrator state|, 30 fractional bits below the output LSB
+	PitchIntegratorLimit int64 = 4611686018427387904 // largest |integrator state|, 31 fractional bits below the output LSB
 )
 
 // State of the gimbal_cam rate controller of axis pitch (PID with filtered
 // derivative). Call reset before the first step.
 type Pitch struct {
-	integ   int64 // integrator, 30 fractional bits below the output LSB
-	ud      int64 // filtered derivative term, 25 fractional bits below the output LSB
+	integ   int64 // integrator, 31 fractional bits below the output LSB
+	ud      int64 // filtered derivative term, 26 fractional bits below the output LSB
 	vp      int64 // derivative input of the last step, input LSB
 	e       int64 // error of the last step, input LSB
-	uu      int64 // command before saturation, last step, 25 fractional bits below the output LSB
+	uu      int64 // command before saturation, last step, 26 fractional bits below the output LSB
 	ua      int32 // command applied, last step
 	pending bool  // the last step's state update is due
 }
@@ -90,7 +90,7 @@ func (c *Pitch) Reset(output, measured int32) {
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	q := int64(output)*(1<<25) - (mul(PitchKpB, int64(measured), 5) - mul(PitchKp, int64(measured), 5))
+	q := int64(output)*(1<<26) - (mul(PitchKpB, int64(measured), 5) - mul(PitchKp, int64(measured), 4))
 	c.integ = clamp(satshl(q, 5), -PitchIntegratorLimit, PitchIntegratorLimit)
 	c.vp = -int64(measured)
 }
@@ -102,21 +102,21 @@ func (c *Pitch) Step(setpoint, measured int32) int32 {
 	if c.pending {
 		// The integrator update of the last step, now that the command
 		// actually applied is known.
-		inc := mul(PitchG01, c.e, 7)
-		du := int64(c.ua) - rsh(c.uu, 25) // applied - unsaturated
-		inc = inc + mulw(PitchKt, du, 7)  // back-calculation
+		inc := mul(PitchG01, c.e, 6)
+		du := int64(c.ua) - rsh(c.uu, 26) // applied - unsaturated
+		inc = inc + mulw(PitchKt, du, 6)  // back-calculation
 		c.integ = c.integ + inc
 		c.integ = clamp(c.integ, -PitchIntegratorLimit, PitchIntegratorLimit)
 	}
 	e := r - y
-	uu := mul(PitchKpB, r, 5) - mul(PitchKp, y, 5)
+	uu := mul(PitchKpB, r, 5) - mul(PitchKp, y, 4)
 	uu = uu + rsh(c.integ, 5)
-	uu = uu + mul(PitchG0, e, 13)
+	uu = uu + mul(PitchG0, e, 12)
 	v := -y
 	c.ud = mulw(PitchAd, c.ud, 32) + mul(PitchBd, v-c.vp, 0)
 	c.vp = v
 	uu = uu + c.ud
-	u := int32(clamp(rsh(uu, 25), int64(PitchOutputLo), int64(PitchOutputHi)))
+	u := int32(clamp(rsh(uu, 26), int64(PitchOutputLo), int64(PitchOutputHi)))
 	c.e = e
 	c.uu = uu
 	c.ua = u
@@ -132,10 +132,10 @@ func (c *Pitch) Applied(applied int32) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp              int32 = 1904601687          // P gain on the measurement; Q-5.36 = 0.02772
-	YawKpB             int32 = 2095061856          // P gain on the setpoint; Q-6.37 = 0.01524
-	YawG0              int32 = 1161499703          // integral: weight of the current error; Q-13.44 = 6.602e-05
-	YawG01             int32 = 1161499703          // integral: state increment per unit error; Q-12.43 = 0.000132
+	YawKp              int32 = 1100918239          // P gain on the measurement; Q-4.35 = 0.03204
+	YawKpB             int32 = 1431193710          // P gain on the setpoint; Q-5.36 = 0.02083
+	YawG0              int32 = 1195495124          // integral: weight of the current error; Q-13.44 = 6.796e-05
+	YawG01             int32 = 1195495124          // integral: state increment per unit error; Q-12.43 = 0.0001359
 	YawOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	YawOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
 	YawIntegratorLimit int64 = 4611686018427387904 // largest |integrator state|, 31 fractional bits below the output LSB
@@ -159,7 +159,7 @@ func (c *Yaw) Reset(output, measured int32) {
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	q := int64(output)*(1<<31) - (mul(YawKpB, int64(measured), 6) - mul(YawKp, int64(measured), 5))
+	q := int64(output)*(1<<31) - (mul(YawKpB, int64(measured), 5) - mul(YawKp, int64(measured), 4))
 	c.integ = clamp(q, -YawIntegratorLimit, YawIntegratorLimit)
 }
 
@@ -179,7 +179,7 @@ func (c *Yaw) Step(setpoint, measured int32) int32 {
 		c.integ = clamp(c.integ, -YawIntegratorLimit, YawIntegratorLimit)
 	}
 	e := r - y
-	uu := mul(YawKpB, r, 6) - mul(YawKp, y, 5)
+	uu := mul(YawKpB, r, 5) - mul(YawKp, y, 4)
 	uu = uu + c.integ
 	uu = uu + mul(YawG0, e, 13)
 	u := int32(clamp(rsh(uu, 31), int64(YawOutputLo), int64(YawOutputHi)))

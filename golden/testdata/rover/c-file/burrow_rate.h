@@ -6,20 +6,20 @@
 // Rate loop at 500 Hz (T = 0.002 s), compute delay 1 sample; float64
 // arithmetic.
 //
-// Axis pan: lead, K = 0.03595, zero -40 rad/s, pole -23.72 rad/s.
+// Axis pan: lead, K = 0.1136, zero -40 rad/s, pole -40.8 rad/s.
 //   discretized tustin; output [-1, 1].
-//   Target: zeta = 0.825, wn = 15 rad/s, s* = -12.4 +/- j8.47 rad/s.
-//   Sampled loop: overshoot 1.52 %, settling 0.247 s, phase margin 69 deg,
-//   gain margin 25.5 dB.
+//   Target: zeta = 0.627, wn = 26.6 rad/s, s* = -16.6 +/- j20.7 rad/s.
+//   Sampled loop: overshoot 2.46 %, settling 0.196 s, phase margin 66.4 deg,
+//   gain margin 19.7 dB.
 //   Checks: all met.
 //   Numeric: float64, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pd, Kp = 0.7031, Kd = 0.01009, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 1.126, Kd = 0.03399, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
-//   Target: zeta = 0.725, wn = 12 rad/s, s* = -8.72 +/- j8.29 rad/s.
-//   Sampled loop: overshoot 4.32 %, settling 0.25 s, phase margin 64.8 deg,
-//   gain margin 24.9 dB.
+//   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
+//   Sampled loop: overshoot 4.24 %, settling 0.189 s, phase margin 63.5 deg,
+//   gain margin 20.3 dB.
 //   Checks: all met.
 //   Numeric: float64, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -50,9 +50,9 @@ extern "C" {
 #endif
 
 // Axis pan: coefficients and limits.
-#define BURROW_PAN_B0        0.03651773458143199 // lead: weight of the current error
-#define BURROW_PAN_B1        (-0.03370867807516799) // lead: weight of the last error
-#define BURROW_PAN_A1        (-0.9536643757502486) // lead: weight of the last unsaturated output
+#define BURROW_PAN_B0        0.11350182310530361 // lead: weight of the current error
+#define BURROW_PAN_B1        (-0.10477091363566488) // lead: weight of the last error
+#define BURROW_PAN_A1        (-0.9215987701767872) // lead: weight of the last unsaturated output
 #define BURROW_PAN_OUTPUT_LO (-1.0) // lowest command
 #define BURROW_PAN_OUTPUT_HI 1.0 // highest command
 
@@ -78,10 +78,10 @@ double burrow_pan_step(burrow_pan_state *s, double setpoint, double measured);
 void burrow_pan_applied(burrow_pan_state *s, double applied);
 
 // Axis yaw: coefficients and limits.
-#define BURROW_YAW_KP        0.7030633292 // P gain on the measurement
-#define BURROW_YAW_KPB       0.7030633292 // P gain on the setpoint (setpoint weight b times Kp)
+#define BURROW_YAW_KP        1.126370074 // P gain on the measurement
+#define BURROW_YAW_KPB       1.126370074 // P gain on the setpoint (setpoint weight b times Kp)
 #define BURROW_YAW_AD        0.7284895036846828 // derivative filter: pole
-#define BURROW_YAW_BD        1.3692280886159933 // derivative filter: gain
+#define BURROW_YAW_BD        4.614228572667621 // derivative filter: gain
 #define BURROW_YAW_OUTPUT_LO (-1.0) // lowest command
 #define BURROW_YAW_OUTPUT_HI 1.0 // highest command
 

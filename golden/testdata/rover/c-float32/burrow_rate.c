@@ -6,20 +6,20 @@
 // Rate loop at 500 Hz (T = 0.002 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pan: lead, K = 0.03595, zero -40 rad/s, pole -23.72 rad/s.
+// Axis pan: lead, K = 0.1136, zero -40 rad/s, pole -40.8 rad/s.
 //   discretized tustin; output [-1, 1].
-//   Target: zeta = 0.825, wn = 15 rad/s, s* = -12.4 +/- j8.47 rad/s.
-//   Sampled loop: overshoot 1.52 %, settling 0.247 s, phase margin 69 deg,
-//   gain margin 25.5 dB.
+//   Target: zeta = 0.627, wn = 26.6 rad/s, s* = -16.6 +/- j20.7 rad/s.
+//   Sampled loop: overshoot 2.46 %, settling 0.196 s, phase margin 66.4 deg,
+//   gain margin 19.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pd, Kp = 0.7031, Kd = 0.01009, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 1.126, Kd = 0.03399, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
-//   Target: zeta = 0.725, wn = 12 rad/s, s* = -8.72 +/- j8.29 rad/s.
-//   Sampled loop: overshoot 4.32 %, settling 0.25 s, phase margin 64.8 deg,
-//   gain margin 24.9 dB.
+//   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
+//   Sampled loop: overshoot 4.24 %, settling 0.189 s, phase margin 63.5 deg,
+//   gain margin 20.3 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.

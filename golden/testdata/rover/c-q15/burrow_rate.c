@@ -4,29 +4,29 @@
 // Airframe burrow: demo data: invented skid-steer inspection rover with a
 // camera mast, not a real vehicle
 // Rate loop at 500 Hz (T = 0.002 s), compute delay 1 sample; q15 fixed point
-// (input full scale 128, output full scale 1).
+// (input full scale 64, output full scale 1).
 //
-// Axis pan: lead, K = 0.03595, zero -40 rad/s, pole -23.72 rad/s.
+// Axis pan: lead, K = 0.1136, zero -40 rad/s, pole -40.8 rad/s.
 //   discretized tustin; output [-1, 1].
-//   Target: zeta = 0.825, wn = 15 rad/s, s* = -12.4 +/- j8.47 rad/s.
-//   Sampled loop: overshoot 1.52 %, settling 0.247 s, phase margin 69 deg,
-//   gain margin 25.5 dB.
+//   Target: zeta = 0.627, wn = 26.6 rad/s, s* = -16.6 +/- j20.7 rad/s.
+//   Sampled loop: overshoot 2.46 %, settling 0.196 s, phase margin 66.4 deg,
+//   gain margin 19.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats B0 Q3.12, B1 Q3.12, A1 Q0.15, Lo Q0.15, Hi Q0.15;
 //   states: integrator 16, derivative 16, sum 11 fractional bits below the
-//   output LSB; minimum headroom 0.0685 bits (A1*ul (product)); saturating:
+//   output LSB; minimum headroom 0.0774 bits (lead state x); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 0.7031, Kd = 0.01009, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 1.126, Kd = 0.03399, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
-//   Target: zeta = 0.725, wn = 12 rad/s, s* = -8.72 +/- j8.29 rad/s.
-//   Sampled loop: overshoot 4.32 %, settling 0.25 s, phase margin 64.8 deg,
-//   gain margin 24.9 dB.
+//   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
+//   Sampled loop: overshoot 4.24 %, settling 0.189 s, phase margin 63.5 deg,
+//   gain margin 20.3 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
-//   scale*2^15); formats KpB Q7.8, Kp Q7.8, Ad Q0.15, Bd Q8.7, Lo Q0.15, Hi
-//   Q0.15; states: integrator 16, derivative 7, sum 6 fractional bits below
+//   scale*2^15); formats KpB Q7.8, Kp Q7.8, Ad Q0.15, Bd Q9.6, Lo Q0.15, Hi
+//   Q0.15; states: integrator 16, derivative 6, sum 6 fractional bits below
 //   the output LSB; minimum headroom 0.457 bits (Ad*Ud (product));
 //   saturating: command before saturation.
 //
@@ -149,7 +149,7 @@ int16_t burrow_yaw_step(burrow_yaw_state *s, int16_t setpoint, int16_t measured)
 	const int32_t v = -y;
 	s->ud = burrow_mulw(BURROW_YAW_AD, s->ud, 15) + burrow_mul(BURROW_YAW_BD, v - s->vp, 0);
 	s->vp = v;
-	uu = uu + burrow_rsh(s->ud, 1);
+	uu = uu + s->ud;
 	const int16_t u = (int16_t)burrow_clamp(burrow_rsh(uu, 6), BURROW_YAW_OUTPUT_LO, BURROW_YAW_OUTPUT_HI);
 	s->ua = u;
 	return u;

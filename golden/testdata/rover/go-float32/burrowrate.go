@@ -6,20 +6,20 @@
 // Rate loop at 500 Hz (T = 0.002 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pan: lead, K = 0.03595, zero -40 rad/s, pole -23.72 rad/s.
+// Axis pan: lead, K = 0.1136, zero -40 rad/s, pole -40.8 rad/s.
 //   discretized tustin; output [-1, 1].
-//   Target: zeta = 0.825, wn = 15 rad/s, s* = -12.4 +/- j8.47 rad/s.
-//   Sampled loop: overshoot 1.52 %, settling 0.247 s, phase margin 69 deg,
-//   gain margin 25.5 dB.
+//   Target: zeta = 0.627, wn = 26.6 rad/s, s* = -16.6 +/- j20.7 rad/s.
+//   Sampled loop: overshoot 2.46 %, settling 0.196 s, phase margin 66.4 deg,
+//   gain margin 19.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pd, Kp = 0.7031, Kd = 0.01009, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 1.126, Kd = 0.03399, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
-//   Target: zeta = 0.725, wn = 12 rad/s, s* = -8.72 +/- j8.29 rad/s.
-//   Sampled loop: overshoot 4.32 %, settling 0.25 s, phase margin 64.8 deg,
-//   gain margin 24.9 dB.
+//   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
+//   Sampled loop: overshoot 4.24 %, settling 0.189 s, phase margin 63.5 deg,
+//   gain margin 20.3 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -48,11 +48,11 @@ package burrowrate
 
 // Coefficients and limits of axis pan.
 const (
-	PanB0       float32 = 0.036517736  // lead: weight of the current error
-	PanB1       float32 = -0.033708677 // lead: weight of the last error
-	PanA1       float32 = -0.95366436  // lead: weight of the last unsaturated output
-	PanOutputLo float32 = -1.0         // lowest command
-	PanOutputHi float32 = 1.0          // highest command
+	PanB0       float32 = 0.113501824 // lead: weight of the current error
+	PanB1       float32 = -0.10477091 // lead: weight of the last error
+	PanA1       float32 = -0.9215988  // lead: weight of the last unsaturated output
+	PanOutputLo float32 = -1.0        // lowest command
+	PanOutputHi float32 = 1.0         // highest command
 )
 
 // State of the burrow rate controller of axis pan (lead compensator). Call
@@ -95,10 +95,10 @@ func (c *Pan) Applied(applied float32) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       float32 = 0.7030633 // P gain on the measurement
-	YawKpB      float32 = 0.7030633 // P gain on the setpoint (setpoint weight b times Kp)
+	YawKp       float32 = 1.1263701 // P gain on the measurement
+	YawKpB      float32 = 1.1263701 // P gain on the setpoint (setpoint weight b times Kp)
 	YawAd       float32 = 0.7284895 // derivative filter: pole
-	YawBd       float32 = 1.3692281 // derivative filter: gain
+	YawBd       float32 = 4.6142287 // derivative filter: gain
 	YawOutputLo float32 = -1.0      // lowest command
 	YawOutputHi float32 = 1.0       // highest command
 )

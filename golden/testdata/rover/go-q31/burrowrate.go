@@ -4,29 +4,29 @@
 // Airframe burrow: demo data: invented skid-steer inspection rover with a
 // camera mast, not a real vehicle
 // Rate loop at 500 Hz (T = 0.002 s), compute delay 1 sample; q31 fixed point
-// (input full scale 128, output full scale 1).
+// (input full scale 64, output full scale 1).
 //
-// Axis pan: lead, K = 0.03595, zero -40 rad/s, pole -23.72 rad/s.
+// Axis pan: lead, K = 0.1136, zero -40 rad/s, pole -40.8 rad/s.
 //   discretized tustin; output [-1, 1].
-//   Target: zeta = 0.825, wn = 15 rad/s, s* = -12.4 +/- j8.47 rad/s.
-//   Sampled loop: overshoot 1.52 %, settling 0.247 s, phase margin 69 deg,
-//   gain margin 25.5 dB.
+//   Target: zeta = 0.627, wn = 26.6 rad/s, s* = -16.6 +/- j20.7 rad/s.
+//   Sampled loop: overshoot 2.46 %, settling 0.196 s, phase margin 66.4 deg,
+//   gain margin 19.7 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats B0 Q3.28, B1 Q3.28, A1 Q0.31, Lo Q0.31, Hi Q0.31;
 //   states: integrator 32, derivative 32, sum 27 fractional bits below the
-//   output LSB; minimum headroom 0.0684 bits (A1*ul (product)); saturating:
+//   output LSB; minimum headroom 0.0773 bits (lead state x); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 0.7031, Kd = 0.01009, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 1.126, Kd = 0.03399, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
-//   Target: zeta = 0.725, wn = 12 rad/s, s* = -8.72 +/- j8.29 rad/s.
-//   Sampled loop: overshoot 4.32 %, settling 0.25 s, phase margin 64.8 deg,
-//   gain margin 24.9 dB.
+//   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
+//   Sampled loop: overshoot 4.24 %, settling 0.189 s, phase margin 63.5 deg,
+//   gain margin 20.3 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
-//   scale*2^31); formats KpB Q7.24, Kp Q7.24, Ad Q0.31, Bd Q8.23, Lo Q0.31,
-//   Hi Q0.31; states: integrator 32, derivative 23, sum 22 fractional bits
+//   scale*2^31); formats KpB Q7.24, Kp Q7.24, Ad Q0.31, Bd Q9.22, Lo Q0.31,
+//   Hi Q0.31; states: integrator 32, derivative 22, sum 22 fractional bits
 //   below the output LSB; minimum headroom 0.457 bits (Ad*Ud (product));
 //   saturating: command before saturation.
 //
@@ -52,9 +52,9 @@ package burrowrate
 
 // Coefficients and limits of axis pan.
 const (
-	PanB0       int32 = 1254739806  // lead: weight of the current error; Q3.28 = 4.674
-	PanB1       int32 = -1158221359 // lead: weight of the last error; Q3.28 = -4.315
-	PanA1       int32 = -2047978653 // lead: weight of the last unsaturated output; Q0.31 = -0.9537
+	PanB0       int32 = 1949946473  // lead: weight of the current error; Q3.28 = 7.264
+	PanB1       int32 = -1799950591 // lead: weight of the last error; Q3.28 = -6.705
+	PanA1       int32 = -1979118289 // lead: weight of the last unsaturated output; Q0.31 = -0.9216
 	PanOutputLo int32 = -2147483648 // lowest command, raw; Q0.31 = -1
 	PanOutputHi int32 = 2147483647  // highest command, raw; Q0.31 = 1
 )
@@ -101,10 +101,10 @@ func (c *Pan) Applied(applied int32) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       int32 = 1509817003  // P gain on the measurement; Q7.24 = 89.99
-	YawKpB      int32 = 1509817003  // P gain on the setpoint; Q7.24 = 89.99
+	YawKp       int32 = 1209430658  // P gain on the measurement; Q7.24 = 72.09
+	YawKpB      int32 = 1209430658  // P gain on the setpoint; Q7.24 = 72.09
 	YawAd       int32 = 1564419297  // derivative filter: pole; Q0.31 = 0.7285
-	YawBd       int32 = 1470197465  // derivative filter: gain; Q8.23 = 175.3
+	YawBd       int32 = 1238622551  // derivative filter: gain; Q9.22 = 295.3
 	YawOutputLo int32 = -2147483648 // lowest command, raw; Q0.31 = -1
 	YawOutputHi int32 = 2147483647  // highest command, raw; Q0.31 = 1
 )
@@ -112,7 +112,7 @@ const (
 // State of the burrow rate controller of axis yaw (PD with filtered
 // derivative). Call reset before the first step.
 type Yaw struct {
-	ud int64 // filtered derivative term, 23 fractional bits below the output LSB
+	ud int64 // filtered derivative term, 22 fractional bits below the output LSB
 	vp int64 // derivative input of the last step, input LSB
 	ua int32 // command applied, last step
 }
@@ -132,7 +132,7 @@ func (c *Yaw) Step(setpoint, measured int32) int32 {
 	v := -y
 	c.ud = mulw(YawAd, c.ud, 31) + mul(YawBd, v-c.vp, 0)
 	c.vp = v
-	uu = uu + rsh(c.ud, 1)
+	uu = uu + c.ud
 	u := int32(clamp(rsh(uu, 22), int64(YawOutputLo), int64(YawOutputHi)))
 	c.ua = u
 	return u
