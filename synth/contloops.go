@@ -104,7 +104,7 @@ func ContinuousLoops(p airframe.Axis) Loops {
 }
 
 func (l *contLoops) Corners() []airframe.Corner { return l.corners }
-func (l *contLoops) Primary() int                { return len(l.corners) }
+func (l *contLoops) Primary() int               { return len(l.corners) }
 func (l *contLoops) Grid() []float64            { return l.grid }
 func (l *contLoops) Open(i int) []complex128    { return l.open[i] }
 
