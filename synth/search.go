@@ -77,6 +77,12 @@ const KneeNoise = "Ki/N²"
 // phase for much noise (common practice).
 const NoiseRatio = 20
 
+// fineBudget bounds the judgments of the search for a small feasible set
+// (the descent and the denser grid), which runs when the coarse grid finds
+// no passing design: about a second on the slowest axes, and an infeasible
+// spec is then reported with the closest design found.
+const fineBudget = 1500
+
 // unboundedMs is the sensitivity bound of the search when the spec gives
 // none: |1 + L| ≥ 1/20, a distance from −1 that only stops the line of x
 // before the closed loop turns unstable there.
@@ -235,6 +241,7 @@ type searcher struct {
 	fine       bool
 	lastFail   int       // the plant of the last failed time check
 	passing    []cand    // every passing candidate, in the order judged
+	fineLeft   int       // judgments left to the search for a small feasible set
 	th         []float64 // the shape of the last basis
 	reach      float64   // least settling time seen with every other check met
 	y0, y1, yb []float64
@@ -555,6 +562,9 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 // judgeAt judges shape pt at gain x (its basis set): stability at every
 // plant by the exact test, then the time checks.
 func (sr *searcher) judgeAt(pt *point, x float64) (cand, error) {
+	if sr.fine {
+		sr.fineLeft--
+	}
 	c := cand{pt: pt, x: x, settle: math.NaN()}
 	c.ctrl = sr.fam.ctrl(pt.th, x)
 	c.gain = sr.fam.gain(pt.th, x)
@@ -1083,7 +1093,9 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		res.NoiseBound = NoiseFactor * first.noise
 		sr.noiseB, sr.ratioB = res.NoiseBound, 0
 	}
-	if !ok {
+	// Without a design and without a bound of the file, a second search
+	// would look under the same constraints again: nothing to find.
+	if !ok && (found || explicit) {
 		var seed *cand
 		if found {
 			sr.bestOK, sr.haveOK = first, true
@@ -1275,14 +1287,15 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		// where that search ends when it stalls (a few rounds).
 		sr.fine = true
 		defer func() { sr.fine = false }()
-		for round := 0; round < 3 && !sr.haveOK; round++ {
+		sr.fineLeft = fineBudget
+		for round := 0; round < 3 && !sr.haveOK && sr.fineLeft > 0; round++ {
 			if !sr.haveClosest || sr.closest.pt == nil {
 				return best, false, nil
 			}
 			cl := sr.closest
 			start := cl.viol
 			err := sr.pattern(cl.pt.u, step, func(u []float64) (bool, error) {
-				if sr.haveOK {
+				if sr.haveOK || sr.fineLeft <= 0 {
 					return false, nil
 				}
 				pt := sr.screen(u)
@@ -1304,6 +1317,9 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 			// Then a grid of three times the density, each shape judged on
 			// the fine line of x.
 			for _, u := range sr.denseGrid(3) {
+				if sr.fineLeft <= 0 {
+					break
+				}
 				pt := sr.screen(u)
 				if !(pt.xf > 0) {
 					continue

@@ -1,4 +1,4 @@
-package synth_test
+package discrete_test
 
 import (
 	"fmt"
