@@ -443,6 +443,19 @@ func TestEmitOutputDirVanishes(t *testing.T) {
 	}
 	done := make(chan error, 1)
 	go func() { done <- cmd.Wait() }()
+	// A failure before emit ends leaves no process behind, blocked on the
+	// pipe or writing into the directory being removed.
+	var w *os.File
+	waited := false
+	t.Cleanup(func() {
+		if w != nil {
+			w.Close()
+		}
+		if !waited {
+			_ = cmd.Process.Kill()
+			<-done
+		}
+	})
 	// Opening the pipe for writing returns once emit has opened it for
 	// reading: emit is then past its check of the output directory.
 	type opened struct {
@@ -454,7 +467,6 @@ func TestEmitOutputDirVanishes(t *testing.T) {
 		f, err := os.OpenFile(pipe, os.O_WRONLY, 0)
 		open <- opened{f, err}
 	}()
-	var w *os.File
 	select {
 	case o := <-open:
 		if o.err != nil {
@@ -462,6 +474,7 @@ func TestEmitOutputDirVanishes(t *testing.T) {
 		}
 		w = o.f
 	case err := <-done:
+		waited = true
 		// Release the opener: a reader lets its open return.
 		if r, rerr := os.Open(pipe); rerr == nil {
 			if o := <-open; o.f != nil {
@@ -481,10 +494,14 @@ func TestEmitOutputDirVanishes(t *testing.T) {
 	if _, err := w.Write(src); err != nil {
 		t.Fatal(err)
 	}
-	if err := w.Close(); err != nil {
+	err = w.Close()
+	w = nil
+	if err != nil {
 		t.Fatal(err)
 	}
-	if err := <-done; err != nil {
+	err = <-done
+	waited = true
+	if err != nil {
 		t.Fatalf("emit after its directory vanished: %v\n%s", err, out.String())
 	}
 	if strings.Contains(out.String(), "goroutine ") || strings.Contains(out.String(), "panic:") {

@@ -517,12 +517,15 @@ func jsonEnvelope(d *discrete.Design) *EnvelopeReport {
 
 // jsonCheck reports a check with the plant where it is worst; a check
 // that names no plant (sampling, the numeric realization's) is one of the
-// nominal loop or of the controller alone. A steady-state error is a
-// fraction of the setpoint, rounded as one (floating-point residue reads
-// as 0).
+// nominal loop or of the controller alone. An overshoot and a
+// steady-state error are fractions of the setpoint, rounded as such, to
+// 10 digits of the unit step (floating-point residue reads as 0, and a
+// tiny overshoot, the difference of two nearly equal numbers, shows no
+// CPU-dependent last bits).
 func jsonCheck(c synth.Check) CheckReport {
 	r := CheckReport{Name: c.Name, Limit: jsonNum(c.Limit), Value: jsonNum(c.Value), OK: c.OK}
-	if strings.TrimPrefix(c.Name, "quantized_") == "steady_error" {
+	switch strings.TrimPrefix(c.Name, "quantized_") {
+	case "steady_error", "overshoot":
 		r.Value = jsonFrac(c.Value)
 	}
 	w := c.Worst
