@@ -195,7 +195,6 @@ min_gain_margin = 8.0
 
 [axes.joint.control]
 form = "pid"
-discretize = "tustin_prewarp"
 
 [axes.joint.envelope]
 gain_scale = [0.8, 1.25]

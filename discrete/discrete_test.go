@@ -658,10 +658,25 @@ func BenchmarkDiscreteAxis(b *testing.B) {
 // BenchmarkDesignAxisAtRate: the whole design of one PID axis, refined
 // against the sampled loop.
 func BenchmarkDesignAxisAtRate(b *testing.B) {
-	p := demo(airframe.FormPID)
+	// The demo quadrotor's roll (PID) with the file's defaults: the
+	// default envelope (gain ±10 %), Ms ≤ 1.7, the default noise bound.
+	data, err := os.ReadFile("../examples/quadrotor.toml")
+	if err != nil {
+		b.Fatal(err)
+	}
+	f, err := airframe.Parse("quadrotor.toml", data)
+	if err != nil {
+		b.Fatal(err)
+	}
+	var p airframe.Axis
+	for _, a := range f.Axes {
+		if a.Name == "roll" {
+			p = a
+		}
+	}
 	b.ReportAllocs()
 	for b.Loop() {
-		if _, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float32}); err != nil {
+		if _, err := DesignAxis(p, f.Loop, f.Numeric); err != nil {
 			b.Fatal(err)
 		}
 	}

@@ -41,7 +41,7 @@ const refDir = "testdata/reference"
 // synth.NearBest (2 %) of the gain for less noise, and gives up 2 % a step
 // when its final verification finds a design short by a hair
 // (discrete.DesignAxis); the rest is the search's own resolution. The
-// reference keeps 0.5 % room to every limit (refRoom), which only lowers
+// reference keeps 0.2 % room to every limit (refRoom), which only lowers
 // it.
 const refNearTool = 0.95
 
@@ -61,6 +61,9 @@ type refFile struct {
 	// rule for p, pd and lead while it has no design (synth.NoiseRatio).
 	NoiseBound *float64 `json:"noise_bound"`
 	NoiseRatio float64  `json:"noise_ratio,omitempty"`
+	// Room is the relative room to every limit that a candidate had to
+	// keep to pass (refRoom).
+	Room float64 `json:"room"`
 	// Feasible reports whether any candidate passed every check; BestGain
 	// is the largest load-rejection gain among them and Best that
 	// controller (exact float64 values).
@@ -243,7 +246,7 @@ func regenerate(af refAirframe, sem chan struct{}) (*refFile, error) {
 		return nil, err
 	}
 	e := &refEngine{p: p, loop: rc.file.Loop, fam: fam, bs: refWeights(p), sem: sem, judged: map[string]bool{}}
-	rf := &refFile{Airframe: rc.file.Airframe, Axis: p.Name, Form: string(p.Ctrl.Form), TOMLSHA256: rc.file.SHA256, ToolGain: toolGain}
+	rf := &refFile{Airframe: rc.file.Airframe, Axis: p.Name, Form: string(p.Ctrl.Form), TOMLSHA256: rc.file.SHA256, ToolGain: toolGain, Room: refRoom}
 	switch nb := d.Cont.Search.NoiseBound; {
 	case p.Spec.MaxNoiseGain > 0:
 		e.nb = p.Spec.MaxNoiseGain
