@@ -614,8 +614,15 @@ func jsonNumeric(n *discrete.Realization) *NumericReport {
 	if fixed {
 		nr.InputResolutionBits = jsonNum(n.InputResolutionBits)
 		nr.OutputResolutionBits = jsonNum(n.OutputResolutionBits)
-		nr.MaxErrorLSB = jsonNum(n.MaxErrorLSB)
-		nr.SQNRdB = jsonNum(n.SQNRdB)
+		// Few digits: the error against the float64 model is a few LSB of
+		// a word of up to 31 bits, about 1e−9 of the full scale, where the
+		// float64 model's own last bits (the ZOH plant's matrix
+		// exponential differs in its last bits between CPU architectures,
+		// and the loop's integrator accumulates them) move the third
+		// digit; two digits of the error and three of the SQNR are all
+		// the figures mean.
+		nr.MaxErrorLSB = jsonDigits(n.MaxErrorLSB, 2)
+		nr.SQNRdB = jsonDigits(n.SQNRdB, 3)
 		nr.RestLSB = jsonNum(n.RestLSB)
 		nr.RestBoundLSB = jsonNum(n.RestBoundLSB)
 	}
@@ -678,6 +685,18 @@ func roundSigOf(x, scale float64) float64 {
 }
 
 // jsonNum returns x rounded, or nil when x is NaN or ±Inf.
+// jsonDigits is jsonNum rounded to n significant digits.
+func jsonDigits(x float64, n int) *float64 {
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return nil
+	}
+	v, err := strconv.ParseFloat(strconv.FormatFloat(x, 'g', n, 64), 64)
+	if err != nil {
+		return nil
+	}
+	return &v
+}
+
 func jsonNum(x float64) *float64 {
 	if math.IsNaN(x) || math.IsInf(x, 0) {
 		return nil
