@@ -20,7 +20,7 @@ import (
 // For one airframe it enumerates controllers of the file's form on dense
 // log-spaced grids of the gains (three to four decades around the loop's
 // gain scale in every parameter), and every setpoint weight b the search
-// may choose (1, 0.95, …, 0 for pi and pid; 1 otherwise), and judges each
+// may choose (1, 0.975, …, 0 for pi and pid; 1 otherwise), and judges each
 // with discrete.Assess, the tool's own final verification: the stored
 // result is the largest load-rejection gain among the controllers that
 // pass every check (with a little room to each limit, refRoom), and
@@ -97,6 +97,19 @@ type refFamily struct {
 	params []refParam
 	// ctrl returns the controller at the parameter values v (b = 1).
 	ctrl func(v []float64) synth.Controller
+	// floor, when set, is the least log10 value of each parameter that
+	// the climb may go to (−Inf: none).
+	floor []float64
+}
+
+// admits reports whether the log10 values u keep the family's floor.
+func (f refFamily) admits(u []float64) bool {
+	for d := range f.floor {
+		if u[d] < f.floor[d]-1e-9 {
+			return false
+		}
+	}
+	return true
 }
 
 // coords returns the log10 parameter values of c, the inverse of ctrl;
@@ -168,10 +181,12 @@ func newRefFamily(p airframe.Axis) (refFamily, error) {
 		// The pole p = z·(1 + q) lies left of the zero z < 0 by q·|z|, q
 		// from 0.001 (a lead that is nearly a P) to 1000; K over 4.5
 		// decades (a lead's gain at crossover is K·|jω − z|/|jω − p|, below
-		// K).
+		// K). The climb keeps q ≥ 0.001: a pole closer to the zero cancels
+		// it, and the controller is a P in all but name.
 		z := p.Ctrl.LeadZero
 		return refFamily{params: []refParam{{Name: "pole_distance_over_zero", Lo: 1e-3, Hi: 1e3, Points: refPoints2}, dec("k", g0, -2, 2.5, refPoints2)},
-			ctrl: func(v []float64) synth.Controller { c := base; c.Zero, c.Pole, c.K = z, z*(1+v[0]), v[1]; return c }}, nil
+			floor: []float64{-3, math.Inf(-1)},
+			ctrl:  func(v []float64) synth.Controller { c := base; c.Zero, c.Pole, c.K = z, z*(1+v[0]), v[1]; return c }}, nil
 	}
 	return refFamily{}, fmt.Errorf("form %q: no reference family", p.Ctrl.Form)
 }
@@ -182,7 +197,9 @@ var refIndependent = []string{"stable", "phase_margin", "gain_margin", "max_sens
 
 // refWeights returns the setpoint weights to try, from 1 down: the
 // file's when it fixes one, 1 for the forms without an integral (there b
-// changes the final value), else 1, 0.95, …, 0.
+// changes the final value), else 1, 0.975, …, 0, the weights the search
+// chooses from (a passing set can be as thin in b: a design of
+// joint_compliant passes with b = 0.975 and fails with 1 and 0.95).
 func refWeights(p airframe.Axis) []float64 {
 	if p.Ctrl.SetpointWeightSet {
 		return []float64{p.Ctrl.SetpointWeight}
@@ -190,9 +207,9 @@ func refWeights(p airframe.Axis) []float64 {
 	if !p.Ctrl.Form.HasIntegral() {
 		return []float64{1}
 	}
-	bs := make([]float64, 21)
+	bs := make([]float64, 41)
 	for i := range bs {
-		bs[i] = float64(20-i) / 20
+		bs[i] = float64(40-i) / 40
 	}
 	return bs
 }
@@ -574,7 +591,9 @@ func (e *refEngine) climb(seeds []*refPoint, h0 []float64, n *int) []float64 {
 		var loc []*refPoint
 		for _, c := range centers {
 			for _, u := range local(c.u, h, k) {
-				loc = append(loc, e.point(u))
+				if e.fam.admits(u) {
+					loc = append(loc, e.point(u))
+				}
 			}
 		}
 		before := e.best
