@@ -50,7 +50,11 @@ func fingerprint(as []*Airframe) []byte {
 // A batch gives the same per-file results as designing the files one by
 // one, whatever the number of workers, in input order.
 func TestBatchMatchesOneByOne(t *testing.T) {
-	files := fleet(t, 9)
+	n := 9
+	if testing.Short() {
+		n = 4 // still more airframes than the workers of the smaller pools
+	}
+	files := fleet(t, n)
 	var single []*Airframe
 	for _, f := range files {
 		single = append(single, DesignAirframe(f))

@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/big"
 	"math/rand/v2"
+	"sync"
 	"testing"
 
 	"locusmith/airframe"
@@ -32,9 +33,25 @@ type numCase struct {
 }
 
 // numCases designs every form, anti-windup and derivative placement at
-// q15 and q31, and the 8-bit analogue of a PID.
+// q15 and q31, and the 8-bit analogue of a PID. The designs are made once
+// per test binary and shared by the tests that read them (none changes
+// them): each design is a pure function of its inputs.
 func numCases(t testing.TB) []numCase {
 	t.Helper()
+	numCasesOnce.Do(func() { numCasesMemo, numCasesErr = makeNumCases() })
+	if numCasesErr != nil {
+		t.Fatal(numCasesErr)
+	}
+	return numCasesMemo
+}
+
+var (
+	numCasesOnce sync.Once
+	numCasesMemo []numCase
+	numCasesErr  error
+)
+
+func makeNumCases() ([]numCase, error) {
 	var cs []numCase
 	type variant struct {
 		form airframe.Form
@@ -54,7 +71,7 @@ func numCases(t testing.TB) []numCase {
 			p.Ctrl.AntiWindup, p.Ctrl.DerivativeOnError = v.aw, v.doe
 			d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: nt, InputFullScale: v.fin, OutputFullScale: 1})
 			if err != nil {
-				t.Fatalf("%s %s: %v", nt, v.form, err)
+				return nil, fmt.Errorf("%s %s: %w", nt, v.form, err)
 			}
 			cs = append(cs, numCase{fmt.Sprintf("%s/%s/%s/doe=%v", nt, v.form, v.aw, v.doe), d, d.Num})
 		}
@@ -70,15 +87,15 @@ func numCases(t testing.TB) []numCase {
 	for _, e := range eight {
 		d, err := DesignAxis(numProblem(e.form), airframe.Loop{Hz: e.hz, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Q15, InputFullScale: 100, OutputFullScale: 1})
 		if err != nil {
-			t.Fatal(err)
+			return nil, err
 		}
 		re, err := realizeFixed(d, 8, false)
 		if err != nil {
-			t.Fatal(err)
+			return nil, err
 		}
 		cs = append(cs, numCase{e.name, d, re})
 	}
-	return cs
+	return cs, nil
 }
 
 // oracle is an independent implementation of the operation sequence of
