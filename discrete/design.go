@@ -3,6 +3,7 @@ package discrete
 import (
 	"fmt"
 	"math"
+	"math/cmplx"
 
 	"locusmith/airframe"
 	"locusmith/synth"
@@ -73,6 +74,11 @@ func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Des
 		return nil, err
 	}
 	d := &Design{Problem: p, Loop: loop, Numeric: num, Cont: cd, Plant: L.Plant(0), loops: L}
+	if cd.Refined && !cd.Met {
+		if msg := richerReach(p, loop); msg != "" {
+			cd.Warnings = append(cd.Warnings, msg)
+		}
+	}
 	if err := d.realize(); err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
@@ -106,6 +112,42 @@ func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Des
 	d.Checks = append(d.Checks, d.Num.Checks...)
 	d.Warnings = append(d.Warnings, d.Num.Warnings...)
 	return d, nil
+}
+
+// richerReach says what a pid would reach where the form of p meets no
+// check set: the fastest settling over the envelope with every other check
+// met, or that a pid meets the spec (with the derivative filter at the
+// default loop_hz/8). Empty for a pid, or when the pid's search fails.
+func richerReach(p airframe.Axis, loop airframe.Loop) string {
+	if p.Ctrl.Form == airframe.FormPID {
+		return ""
+	}
+	q := p
+	q.Ctrl.Form = airframe.FormPID
+	q.Ctrl.DerivativeLowpassHz = loop.Hz / 8
+	q.Ctrl.ThirdPole = 5
+	if q.Ctrl.IntegratorLimit == 0 {
+		q.Ctrl.IntegratorLimit = math.Max(math.Abs(q.Ctrl.OutputLimit[0]), math.Abs(q.Ctrl.OutputLimit[1]))
+	}
+	L, err := NewLoops(q, loop)
+	if err != nil {
+		return ""
+	}
+	t, err := synth.TargetFromSpec(q.Spec)
+	if err != nil {
+		return ""
+	}
+	g0 := 1 / cmplx.Abs(q.OpenLoop(complex(0, t.OmegaN)))
+	res, err := synth.Search(q, L, g0, t.OmegaN)
+	switch {
+	case err != nil:
+		return ""
+	case res.Met:
+		return "a pid (derivative filter at loop_hz/8) meets every check over the envelope"
+	case !math.IsNaN(res.Reach):
+		return fmt.Sprintf("with every other check met, a pid reaches settling %.4g s", res.Reach)
+	}
+	return ""
 }
 
 // shrink lowers the gain of c that its load rejection grows with (Ki, Kp
