@@ -16,21 +16,30 @@ import (
 	"locusmith/emit/review"
 )
 
-const compareHelp = `Usage: locusmith compare [--json] [--fail-on-regression] OLD NEW
+const compareHelp = `Usage: locusmith compare [--json] [--fail-on-regression] [--tolerance F] [--floor F] OLD NEW
 
-Design both versions of an airframe file and show what the change does:
+Design both versions of an airframe file and judge the change against the
+spec. The output opens with one line per axis (met before, met now, the
+number of regressions), then the inputs that changed (every key of the file
+whose value differs; "(absent)" where a key is missing and its default
+applies), then the results: regressions, improvements and other changes.
 
-  inputs    every key of the file whose value differs (key path, old,
-            new; "(absent)" where a key is missing and its default applies)
-  results   every figure of the design that differs, axis by axis: gains,
-            closed-loop poles, step metrics, margins, the saturated step,
-            fixed-point coefficients and headroom, checks, warnings
+A regression is judged against the limits, not against any change:
 
-A change for the worse is flagged as a REGRESSION: a margin (phase, gain,
-delay, stability) or a fixed-point headroom that went down, an overshoot,
-settling or recovery time that went up, a check that newly fails, an axis
-that no longer designs or meets its spec. Changes within 0.1 % are listed
-but not flagged.
+  - a check that newly fails, an axis that no longer designs or meets its
+    spec, an axis removed;
+  - a check whose slack (the distance of its value to its limit, as a
+    fraction of the limit: margins, Ms, overshoot, settling, hold rate,
+    disturbance recovery, noise gain, fixed-point headroom) shrinks by more
+    than the tolerance (default 0.05, that is 5 % of the limit);
+  - a check that comes to within the floor of its limit (default 0.05);
+  - the load step's integrated error (the design's objective, which has no
+    limit), or a noise gain held to the design's own bound, up by more
+    than the tolerance of its old value.
+
+An improvement is the reverse; every other figure that moved (gains, poles,
+crossover, the plants of the envelope one by one) is listed as another
+change, never as a regression.
 
 OLD and NEW are file paths or git revisions and paths, REV:PATH, read with
 'git show REV:PATH' in the current directory (as git takes it: the path
@@ -38,26 +47,37 @@ from the top of the repository, or ./PATH relative to the current
 directory). A path that exists as a file is always read as a file.
 
 Exit status: 0 compared (regressions or not); 1 with --fail-on-regression
-when a regression is flagged; 2 bad input or usage (a file that does not
-load, a revision git cannot show).
+when there is a regression; 2 bad input or usage (a file that does not
+load, a revision git cannot show, a tolerance outside (0, 1]).
 
 Examples:
   locusmith compare old/quadrotor.toml examples/quadrotor.toml
   locusmith compare HEAD~1:examples/quadrotor.toml examples/quadrotor.toml
   locusmith compare --fail-on-regression main:./quadrotor.toml ./quadrotor.toml
-  locusmith compare --json HEAD:examples/gimbal.toml examples/gimbal.toml`
+  locusmith compare --tolerance 0.1 --json HEAD:examples/gimbal.toml examples/gimbal.toml`
 
 // runCompare is the compare verb.
 func runCompare(args []string, stdout, stderr io.Writer) int {
 	flags, help := newFlagSet("compare")
 	asJSON := flags.Bool("json", false, "print the comparison as JSON")
-	failOn := flags.Bool("fail-on-regression", false, "exit 1 when a regression is flagged")
+	failOn := flags.Bool("fail-on-regression", false, "exit 1 when there is a regression")
+	tol := flags.Float64("tolerance", review.DefaultTolerance, "how far a check's slack may shrink, as a fraction of its limit, before it is a regression")
+	floor := flags.Float64("floor", review.DefaultFloor, "a check within this fraction of its limit is a regression")
 	if done, code := parseFlags(flags, help, args, compareHelp, stdout, stderr); done {
 		return code
 	}
 	if flags.NArg() != 2 {
 		fmt.Fprintf(stderr, "locusmith compare: want OLD and NEW, got %d argument%s\nRun 'locusmith compare --help' for usage.\n", flags.NArg(), map[bool]string{true: "", false: "s"}[flags.NArg() == 1])
 		return exitUsage
+	}
+	for _, f := range []struct {
+		name string
+		v    float64
+	}{{"tolerance", *tol}, {"floor", *floor}} {
+		if !(f.v > 0 && f.v <= 1) {
+			fmt.Fprintf(stderr, "locusmith compare: --%s %v: want a fraction of the limit in (0, 1], such as %v\n", f.name, f.v, review.DefaultTolerance)
+			return exitUsage
+		}
 	}
 	var designs [2]*discrete.Airframe
 	for i, arg := range flags.Args() {
@@ -68,7 +88,7 @@ func runCompare(args []string, stdout, stderr io.Writer) int {
 		}
 		designs[i] = discrete.DesignAirframe(f)
 	}
-	c, err := review.Compare(flags.Arg(0), designs[0], flags.Arg(1), designs[1])
+	c, err := review.Compare(flags.Arg(0), designs[0], flags.Arg(1), designs[1], *tol, *floor)
 	if err != nil {
 		fmt.Fprintf(stderr, "locusmith compare: %v\n", err)
 		return exitUsage

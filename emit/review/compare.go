@@ -16,57 +16,114 @@ import (
 	"locusmith/synth"
 )
 
-// Comparison is what changed between two versions of an airframe file:
-// the inputs (the decoded TOML, key by key) and the results (the design
-// report's figures, axis by axis), with the changes for the worse flagged
-// as regressions.
+// Comparison is what changed between two versions of an airframe file,
+// judged against the spec: first the verdict of each axis (did it meet
+// every check before, does it now, and how many regressions), then the
+// inputs (the decoded TOML, key by key), then the results, each change
+// classed as a regression, an improvement or neither.
+//
+// A regression is a check that newly fails, or the distance of a check's
+// value to its limit (its slack, as a fraction of the limit) shrinking by
+// more than Tolerance, or falling below Floor; an improvement is the
+// reverse. Two figures are judged against their old value instead, by the
+// same Tolerance: the load step's integrated error (the design's
+// objective, which has no limit) and a noise gain held to the design's own
+// bound rather than the file's. The other figures (gains, poles,
+// crossovers, the plants of the envelope one by one) are listed as other
+// changes: a retune moves them all, and they are not what the design is
+// held to.
+//
+// The JSON form is a contract (README, "compare --json"): numbers are
+// JSON numbers, and the fields below are its schema.
 type Comparison struct {
-	Old         string         `json:"old"` // the files as named on the command line
-	New         string         `json:"new"`
-	Airframe    [2]string      `json:"airframe"` // old and new airframe names
-	Inputs      []InputChange  `json:"inputs"`
-	Results     []ResultChange `json:"results"`
-	Regressions int            `json:"regressions"`
+	Old      string    `json:"old"` // the files as named on the command line
+	New      string    `json:"new"`
+	Airframe [2]string `json:"airframe"` // old and new airframe names
+	// Tolerance and Floor are the thresholds the regressions were judged
+	// by, as fractions of a check's limit.
+	Tolerance float64        `json:"tolerance"`
+	Floor     float64        `json:"floor"`
+	Verdict   []AxisVerdict  `json:"verdict"`
+	Inputs    []InputChange  `json:"inputs"`
+	Results   []ResultChange `json:"results"`
+	// Regressions and Improvements count the axes' together.
+	Regressions  int `json:"regressions"`
+	Improvements int `json:"improvements"`
+}
+
+// AxisVerdict is one axis: whether it met every check before and now (nil
+// where the axis does not exist on that side), and its regressions.
+type AxisVerdict struct {
+	Axis         string `json:"axis"`
+	MetBefore    *bool  `json:"met_before"`
+	MetNow       *bool  `json:"met_now"`
+	Regressions  int    `json:"regressions"`
+	Improvements int    `json:"improvements"`
 }
 
 // InputChange is one key of the airframe file whose value differs. Old
-// or New is nil when the key is absent on that side (the default then
-// applies).
+// or New is absent (null) when the key is absent on that side (the default
+// then applies); values are the TOML values (numbers, strings, booleans,
+// arrays).
 type InputChange struct {
-	Key string  `json:"key"`
-	Old *string `json:"old"`
-	New *string `json:"new"`
+	Key string `json:"key"`
+	Old any    `json:"old"`
+	New any    `json:"new"`
 }
 
-// ResultChange is one figure of the design that differs, as the JSON
-// report of `design --json` writes it (ten significant digits). Key is
-// the report's path below the axis, e.g. "discrete.phase_margin_deg";
-// "checks.overshoot.ok" for a check, "envelope.corners.(gain ×0.9).
-// overshoot" for a figure at a plant of the envelope,
-// "envelope.worst.overshoot" for its worst over the envelope's plants,
-// "warnings" for a warning that appeared or went. Regression says the change is for the worse by more
-// than RegressionTolerance, and Why says how.
+// The classes of a result change.
+const (
+	Regression  = "regression"
+	Improvement = "improvement"
+	Neutral     = "other"
+)
+
+// ResultChange is one figure of the design that differs, keyed by the path
+// of `design --json` below the axis ("discrete.crossover"); a check is
+// "checks.NAME" with its value, limit and slack. Old or New is null where
+// the figure is absent on that side.
 type ResultChange struct {
-	Axis       string  `json:"axis"`
-	Key        string  `json:"key"`
-	Old        *string `json:"old"`
-	New        *string `json:"new"`
-	Regression bool    `json:"regression"`
-	Why        string  `json:"why,omitempty"`
+	Axis string `json:"axis"`
+	Key  string `json:"key"`
+	Old  any    `json:"old"`
+	New  any    `json:"new"`
+	// Limit is a check's limit (the new one); OldSlack and NewSlack its
+	// distance from the value, as a fraction of the limit (negative: the
+	// check fails).
+	Limit    *float64 `json:"limit,omitempty"`
+	OldSlack *float64 `json:"old_slack,omitempty"`
+	NewSlack *float64 `json:"new_slack,omitempty"`
+	Class    string   `json:"class"`
+	Why      string   `json:"why,omitempty"`
 }
 
-// RegressionTolerance is the relative change below which a figure that
-// moved the wrong way is listed but not flagged: 0.1 % of its size is far
-// below anything a reviewer acts on (a settling time is resolved to 0.5 %
-// of the spec) and far above the floating-point noise between machines.
-const RegressionTolerance = 1e-3
+// DefaultTolerance is the default of --tolerance: a check's slack may
+// shrink by up to 5 % of its limit before compare calls it a regression
+// (an overshoot from 1.95 % to 1.99 % against a 10 % limit is 0.4 % of the
+// limit: a retune's noise, not a regression).
+const DefaultTolerance = 0.05
 
-// Compare compares the designs of two versions of an airframe file.
-func Compare(oldName string, oldA *discrete.Airframe, newName string, newA *discrete.Airframe) (*Comparison, error) {
+// DefaultFloor is the default of the floor: a check that comes within 5 %
+// of its limit, from farther, is a regression whatever the tolerance; so
+// is one that already was within the floor and comes closer by more than
+// a hundredth of the limit.
+const DefaultFloor = 0.05
+
+// Compare compares the designs of two versions of an airframe file, with
+// the regression thresholds tol and floor (fractions of a limit; ≤ 0:
+// the defaults).
+func Compare(oldName string, oldA *discrete.Airframe, newName string, newA *discrete.Airframe, tol, floor float64) (*Comparison, error) {
 	if oldA == nil || newA == nil || oldA.File == nil || newA.File == nil {
 		return nil, fmt.Errorf("compare: missing design")
 	}
-	c := &Comparison{Old: oldName, New: newName, Airframe: [2]string{oldA.File.Airframe, newA.File.Airframe}}
+	if !(tol > 0) {
+		tol = DefaultTolerance
+	}
+	if !(floor > 0) {
+		floor = DefaultFloor
+	}
+	c := &Comparison{Old: oldName, New: newName, Airframe: [2]string{oldA.File.Airframe, newA.File.Airframe},
+		Tolerance: tol, Floor: floor, Verdict: []AxisVerdict{}, Inputs: []InputChange{}, Results: []ResultChange{}}
 	c.Inputs = diffInputs(flattenTOML("", oldA.File.Raw), flattenTOML("", newA.File.Raw))
 	ro, err := flatResults(oldA)
 	if err != nil {
@@ -76,20 +133,19 @@ func Compare(oldName string, oldA *discrete.Airframe, newName string, newA *disc
 	if err != nil {
 		return nil, err
 	}
-	c.Results = diffResults(ro, rn)
-	for _, r := range c.Results {
-		if r.Regression {
-			c.Regressions++
-		}
+	c.Verdict, c.Results = judge(ro, rn, tol, floor)
+	for _, v := range c.Verdict {
+		c.Regressions += v.Regressions
+		c.Improvements += v.Improvements
 	}
 	return c, nil
 }
 
-// flattenTOML writes a decoded TOML tree as key path → value text.
-// Tables nest into dotted paths; arrays are written whole, in TOML syntax,
-// since their elements (a pole list) only mean something together.
-func flattenTOML(prefix string, m map[string]any) map[string]string {
-	out := map[string]string{}
+// flattenTOML writes a decoded TOML tree as key path → value. Tables nest
+// into dotted paths; arrays are kept whole, since their elements (a pole
+// list) only mean something together.
+func flattenTOML(prefix string, m map[string]any) map[string]any {
+	out := map[string]any{}
 	for k, v := range m {
 		key := k
 		if prefix != "" {
@@ -101,9 +157,493 @@ func flattenTOML(prefix string, m map[string]any) map[string]string {
 			}
 			continue
 		}
-		out[key] = tomlText(v)
+		out[key] = v
 	}
 	return out
+}
+
+// same reports whether two decoded values are equal, by their JSON text.
+func same(a, b any) bool {
+	ja, _ := json.Marshal(a)
+	jb, _ := json.Marshal(b)
+	return string(ja) == string(jb)
+}
+
+func diffInputs(o, n map[string]any) []InputChange {
+	out := []InputChange{}
+	for _, k := range unionKeys(o, n) {
+		ov, oin := o[k]
+		nv, nin := n[k]
+		if oin && nin && same(ov, nv) {
+			continue
+		}
+		out = append(out, InputChange{Key: k, Old: ov, New: nv})
+	}
+	return out
+}
+
+func unionKeys[V any](ms ...map[string]V) []string {
+	set := map[string]bool{}
+	for _, m := range ms {
+		for k := range m {
+			set[k] = true
+		}
+	}
+	keys := make([]string, 0, len(set))
+	for k := range set {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	return keys
+}
+
+// axisResults is one axis's report: its figures flattened (path → value,
+// the checks apart), its checks by name, and its warnings.
+type axisResults struct {
+	ok bool
+	// userNoise: the noise-gain limit is the file's max_noise_gain, not
+	// the bound the search derived for this design.
+	userNoise bool
+	vals      map[string]any
+	checks    map[string]CheckReport
+	warnings  []string
+}
+
+// flatResults flattens the JSON report of every axis of a: objects nest
+// into dotted paths, arrays of objects with a "name" are keyed by it
+// (coefficients, ranges) and the envelope's plants by the plant
+// ("envelope.corners.(gain ×0.9).overshoot"), other arrays (poles, limits)
+// are kept whole. The nominal plant of the envelope is left out: its
+// figures are the discrete section's. The checks are kept apart.
+func flatResults(a *discrete.Airframe) (map[string]axisResults, error) {
+	rep := JSON([]*discrete.Airframe{a})
+	if len(rep.Airframes) != 1 {
+		return nil, fmt.Errorf("compare: no report for %s", a.File.Path)
+	}
+	userNoise := map[string]bool{}
+	for _, x := range a.Axes {
+		if x.Design != nil {
+			userNoise[x.Name] = x.Design.Problem.Spec.MaxNoiseGain > 0
+		}
+	}
+	out := map[string]axisResults{}
+	for _, ax := range rep.Airframes[0].Axes {
+		r := axisResults{ok: ax.OK, userNoise: userNoise[ax.Axis], checks: map[string]CheckReport{}, warnings: ax.Warnings}
+		for _, c := range ax.Checks {
+			r.checks[c.Name] = c
+		}
+		ax.Warnings, ax.Checks = nil, nil
+		data, err := json.Marshal(ax)
+		if err != nil {
+			return nil, fmt.Errorf("compare: %w", err)
+		}
+		var tree map[string]any
+		if err := json.Unmarshal(data, &tree); err != nil {
+			return nil, fmt.Errorf("compare: %w", err)
+		}
+		delete(tree, "axis")
+		delete(tree, "ok")
+		r.vals = map[string]any{}
+		flattenJSON("", tree, r.vals)
+		out[ax.Axis] = r
+	}
+	return out, nil
+}
+
+func flattenJSON(prefix string, v any, out map[string]any) {
+	join := func(k string) string {
+		if prefix == "" {
+			return k
+		}
+		return prefix + "." + k
+	}
+	switch x := v.(type) {
+	case map[string]any:
+		for k, e := range x {
+			flattenJSON(join(k), e, out)
+		}
+	case []any:
+		keys := make([]string, len(x))
+		named := len(x) > 0
+		for i, e := range x {
+			m, ok := e.(map[string]any)
+			if !ok {
+				named = false
+				break
+			}
+			if keys[i], ok = elementKey(m); !ok {
+				named = false
+				break
+			}
+		}
+		if !named {
+			out[prefix] = x
+			return
+		}
+		for i, e := range x {
+			if keys[i] == nominalKey {
+				continue
+			}
+			for k, f := range e.(map[string]any) {
+				if !elementField(k) {
+					flattenJSON(join(keys[i]+"."+k), f, out)
+				}
+			}
+		}
+	default:
+		out[prefix] = x
+	}
+}
+
+// nominalKey is the key of the envelope's nominal plant.
+const nominalKey = "(nominal plant)"
+
+// elementKey returns what names an element of a report array: its "name"
+// (a coefficient, a range), or the plant of an envelope corner,
+// "(gain ×0.9, delay +0.001 s)".
+func elementKey(m map[string]any) (string, bool) {
+	if n, ok := m["name"].(string); ok {
+		return n, true
+	}
+	g, ok1 := m["gain_scale"].(float64)
+	l, ok2 := m["lag_scale"].(float64)
+	d, ok3 := m["delay_add"].(float64)
+	if !ok1 || !ok2 || !ok3 {
+		return "", false
+	}
+	return "(" + synth.CornerText(airframe.Corner{GainScale: g, LagScale: l, DelayAdd: d}) + ")", true
+}
+
+// elementField reports whether k is a field that names its element
+// rather than a figure of it.
+func elementField(k string) bool {
+	switch k {
+	case "name", "gain_scale", "lag_scale", "delay_add":
+		return true
+	}
+	return false
+}
+
+// upperCheck reports whether the check named name holds its value at or
+// below its limit (overshoot, settling, Ms, …) rather than at or above
+// (the margins, the hold rate, the headroom).
+func upperCheck(name string) bool {
+	switch strings.TrimPrefix(name, "quantized_") {
+	case "phase_margin", "gain_margin", "hold_rate", "overflow":
+		return false
+	}
+	return true
+}
+
+// slack is the distance of a check's value to its limit as a fraction of
+// the limit (of 1 for a limit of 0: the headroom's bits), positive when
+// the check passes by that much.
+func slack(name string, value, limit float64) float64 {
+	scale := math.Abs(limit)
+	if scale == 0 {
+		scale = 1
+	}
+	if upperCheck(name) {
+		return (limit - value) / scale
+	}
+	return (value - limit) / scale
+}
+
+// judge compares the axes' results: the verdicts, and every change
+// classed.
+func judge(o, n map[string]axisResults, tol, floor float64) ([]AxisVerdict, []ResultChange) {
+	verdicts := []AxisVerdict{}
+	out := []ResultChange{}
+	for _, ax := range unionKeys(o, n) {
+		ao, oin := o[ax]
+		an, nin := n[ax]
+		v := AxisVerdict{Axis: ax}
+		if oin {
+			v.MetBefore = &ao.ok
+		}
+		if nin {
+			v.MetNow = &an.ok
+		}
+		add := func(ch ResultChange) {
+			ch.Axis = ax
+			switch ch.Class {
+			case Regression:
+				v.Regressions++
+			case Improvement:
+				v.Improvements++
+			}
+			out = append(out, ch)
+		}
+		switch {
+		case !nin:
+			add(ResultChange{Key: "axis", Old: "designed", Class: Regression, Why: "axis removed"})
+		case !oin:
+			ch := ResultChange{Key: "axis", New: "designed", Class: Neutral, Why: "axis added"}
+			if !an.ok {
+				ch.Class, ch.Why = Regression, "axis added, and it does not meet its spec"
+			}
+			add(ch)
+		default:
+			if e, ok := an.vals["error"]; ok {
+				if _, was := ao.vals["error"]; !was {
+					add(ResultChange{Key: "error", New: e, Class: Regression, Why: "the axis no longer designs"})
+				}
+			}
+			for _, name := range unionKeys(ao.checks, an.checks) {
+				derived := name == "noise_gain" && !(ao.userNoise && an.userNoise)
+				if ch, changed := judgeCheck(name, ao.checks, an.checks, derived, tol, floor); changed {
+					add(ch)
+				}
+			}
+			for _, k := range unionKeys(ao.vals, an.vals) {
+				ov, ok1 := ao.vals[k]
+				nv, ok2 := an.vals[k]
+				if k == "error" || ok1 && ok2 && same(ov, nv) {
+					continue
+				}
+				ch := ResultChange{Key: k, Old: ov, New: nv, Class: Neutral}
+				if k == objectiveKey {
+					judgeObjective(&ch, tol)
+				}
+				add(ch)
+			}
+			for _, w := range ao.warnings {
+				if !slices.Contains(an.warnings, w) {
+					add(ResultChange{Key: "warning", Old: w, Class: Neutral, Why: "warning gone"})
+				}
+			}
+			for _, w := range an.warnings {
+				if !slices.Contains(ao.warnings, w) {
+					add(ResultChange{Key: "warning", New: w, Class: Neutral, Why: "new warning"})
+				}
+			}
+		}
+		verdicts = append(verdicts, v)
+	}
+	return verdicts, out
+}
+
+// objectiveKey is the figure the design maximizes, load rejection: the
+// integrated error after a load step at the plant input on the nominal
+// plant. It has no limit in the file, so it is judged against its old
+// value.
+const objectiveKey = "discrete.disturbance.iae"
+
+// judgeObjective classes a change of the load-step IAE: up by more than
+// tol of its old value is a regression (the loop rejects a gust or a CG
+// offset worse), down by more is an improvement.
+func judgeObjective(ch *ResultChange, tol float64) {
+	o, ok1 := ch.Old.(float64)
+	n, ok2 := ch.New.(float64)
+	if !ok1 || !ok2 || !(o > 0) {
+		return
+	}
+	switch r := (n - o) / o; {
+	case r > tol:
+		ch.Class, ch.Why = Regression, fmt.Sprintf("load rejection worse: the load step's integrated error up by %s", pctText(r))
+	case r < -tol:
+		ch.Class, ch.Why = Improvement, fmt.Sprintf("load rejection better: the load step's integrated error down by %s", pctText(-r))
+	}
+}
+
+// judgeCheck classes the change of one check (see Comparison).
+// A derived check's limit is not the file's but the design's own (the
+// noise bound the search chose, where the design sits by construction):
+// its value is judged against its old value instead.
+func judgeCheck(name string, o, n map[string]CheckReport, derived bool, tol, floor float64) (ResultChange, bool) {
+	co, oin := o[name]
+	cn, nin := n[name]
+	ch := ResultChange{Key: "checks." + name, Class: Neutral}
+	if oin && co.Value != nil {
+		ch.Old = *co.Value
+	}
+	if nin && cn.Value != nil {
+		ch.New = *cn.Value
+	}
+	if nin {
+		ch.Limit = cn.Limit
+	}
+	switch {
+	case !oin:
+		ch.Why = "check added"
+		if !cn.OK {
+			ch.Class, ch.Why = Regression, "check added, and it fails"
+		}
+		return ch, true
+	case !nin:
+		ch.Why = "check no longer applies"
+		return ch, true
+	case co.OK && !cn.OK:
+		ch.Class, ch.Why = Regression, "check newly fails"
+	case !co.OK && cn.OK:
+		ch.Class, ch.Why = Improvement, "check newly passes"
+	}
+	if co.Value == nil || cn.Value == nil || co.Limit == nil || cn.Limit == nil {
+		if ch.Class == Neutral && same(ch.Old, ch.New) {
+			return ch, false
+		}
+		return ch, true
+	}
+	switch {
+	case name == "stable" || name == "sampling" || strings.HasPrefix(name, "quantized_"):
+		// Pass or fail only. The value of "stable" is a pole radius, which
+		// sits near 1 for every loop with an integrator; a quantized
+		// check repeats, on the nominal plant, a check judged above over
+		// the envelope, and counting its slack again would count one
+		// change twice.
+	case derived:
+		if ch.Class == Neutral && *co.Value > 0 {
+			switch r := (*cn.Value - *co.Value) / *co.Value; {
+			case r > tol:
+				ch.Class, ch.Why = Regression, fmt.Sprintf("up by %s (the bound is the design's own, not the file's)", pctText(r))
+			case r < -tol:
+				ch.Class, ch.Why = Improvement, fmt.Sprintf("down by %s", pctText(-r))
+			}
+		}
+	case name == "overflow":
+		// The headroom, in bits: a bit lost halves the margin to overflow
+		// whatever the tolerance.
+		so, sn := *co.Value-*co.Limit, *cn.Value-*cn.Limit
+		if ch.Class == Neutral {
+			switch {
+			case so-sn >= 1:
+				ch.Class, ch.Why = Regression, fmt.Sprintf("headroom down by %s bits", synth.G4(so-sn))
+			case sn < 1 && so >= 1:
+				ch.Class, ch.Why = Regression, "headroom below one bit"
+			case sn-so >= 1:
+				ch.Class, ch.Why = Improvement, fmt.Sprintf("headroom up by %s bits", synth.G4(sn-so))
+			}
+		}
+	default:
+		so, sn := slack(name, *co.Value, *co.Limit), slack(name, *cn.Value, *cn.Limit)
+		ch.OldSlack, ch.NewSlack = &so, &sn
+		if ch.Class == Neutral {
+			switch {
+			case so-sn > tol:
+				ch.Class, ch.Why = Regression, fmt.Sprintf("closer to its limit by %s of it", pctText(so-sn))
+			case sn < floor && (so >= floor || so-sn > 0.01):
+				ch.Class, ch.Why = Regression, fmt.Sprintf("within %s of its limit", pctText(floor))
+			case sn-so > tol:
+				ch.Class, ch.Why = Improvement, fmt.Sprintf("farther from its limit by %s of it", pctText(sn-so))
+			}
+		}
+	}
+	if ch.Class == Neutral && *co.Value == *cn.Value && *co.Limit == *cn.Limit {
+		return ch, false
+	}
+	return ch, true
+}
+
+// pctText writes a fraction as a percentage, three significant digits
+// (whole percent from 1000 %: no exponent in a reviewer's text).
+func pctText(f float64) string {
+	if math.Abs(f) >= 10 {
+		return strconv.FormatFloat(100*f, 'f', 0, 64) + " %"
+	}
+	return strconv.FormatFloat(100*f, 'g', 3, 64) + " %"
+}
+
+// WriteText writes the comparison for a reader: the verdict of each axis
+// first, then the changed inputs, then the regressions, the improvements
+// and the other changes, with units and four significant digits; an
+// array (the poles) is counted, not printed whole, and the plants of the
+// envelope are summed up (the JSON form has them all).
+func (c *Comparison) WriteText(w io.Writer) error {
+	bw := bufio.NewWriter(w)
+	p := func(format string, a ...any) { fmt.Fprintf(bw, format+"\n", a...) }
+	name := c.Airframe[1]
+	if c.Airframe[0] != c.Airframe[1] {
+		name = c.Airframe[0] + " → " + c.Airframe[1]
+	}
+	p("compare %s → %s (airframe %s)", c.Old, c.New, name)
+	p("  a regression: a check newly failing; a check's distance to its limit shrinking by more than %s of the limit, or to within %s of it;", pctText(c.Tolerance), pctText(c.Floor))
+	p("  the load step's integrated error, or a noise gain held to the design's own bound, up by more than %s", pctText(c.Tolerance))
+	p("")
+	met := func(b *bool) string {
+		switch {
+		case b == nil:
+			return "absent"
+		case *b:
+			return "met"
+		}
+		return "FAIL"
+	}
+	width := 0
+	for _, v := range c.Verdict {
+		width = max(width, len(v.Axis))
+	}
+	for _, v := range c.Verdict {
+		p("  %-*s  %-6s → %-6s  %s, %s", width, v.Axis, met(v.MetBefore), met(v.MetNow), countText(v.Regressions, "regression"), countText(v.Improvements, "improvement"))
+	}
+	p("")
+	if len(c.Inputs) == 0 {
+		p("inputs: unchanged")
+	} else {
+		p("inputs changed (%d):", len(c.Inputs))
+		kw := 0
+		for _, ch := range c.Inputs {
+			kw = max(kw, len(ch.Key))
+		}
+		for _, ch := range c.Inputs {
+			p("  %-*s  %s → %s", kw, ch.Key, inputText(ch.Old), inputText(ch.New))
+		}
+	}
+	if len(c.Results) == 0 {
+		p("")
+		p("results: unchanged")
+	}
+	for _, class := range []string{Regression, Improvement, Neutral} {
+		var rows [][3]string
+		plants := 0
+		for _, ch := range c.Results {
+			if ch.Class != class {
+				continue
+			}
+			if strings.HasPrefix(ch.Key, "envelope.corners.") {
+				plants++
+				continue
+			}
+			rows = append(rows, [3]string{ch.Axis, ch.Key, changeText(ch)})
+		}
+		if len(rows) == 0 && plants == 0 {
+			continue
+		}
+		title := map[string]string{Regression: "regressions", Improvement: "improvements", Neutral: "other changes"}[class]
+		p("")
+		p("%s (%d):", title, len(rows)+plants)
+		kw := 0
+		for _, r := range rows {
+			kw = max(kw, len(r[0])+1+len(r[1]))
+		}
+		for _, r := range rows {
+			p("  %-*s  %s", kw, r[0]+" "+r[1], r[2])
+		}
+		if plants > 0 {
+			p("  %d figures of the envelope's plants (see --json)", plants)
+		}
+	}
+	p("")
+	p("%s", countText(c.Regressions, "regression"))
+	return bw.Flush()
+}
+
+// countText writes "no regressions", "1 regression", "3 regressions".
+func countText(n int, noun string) string {
+	switch n {
+	case 0:
+		return "no " + noun + "s"
+	case 1:
+		return "1 " + noun
+	}
+	return strconv.Itoa(n) + " " + noun + "s"
+}
+
+// inputText writes a TOML value of an input change.
+func inputText(v any) string {
+	if v == nil {
+		return "(absent)"
+	}
+	return tomlText(v)
 }
 
 // tomlText writes a TOML value compactly: numbers in their shortest
@@ -141,485 +681,75 @@ func tomlText(v any) string {
 	return fmt.Sprint(v)
 }
 
-func diffInputs(o, n map[string]string) []InputChange {
-	keys := unionKeys(o, n)
-	var out []InputChange
-	for _, k := range keys {
-		ov, oin := o[k]
-		nv, nin := n[k]
-		if oin && nin && ov == nv {
-			continue
-		}
-		ch := InputChange{Key: k}
-		if oin {
-			ch.Old = &ov
-		}
-		if nin {
-			ch.New = &nv
-		}
-		out = append(out, ch)
+// changeText writes one result change: old → new in the figure's unit,
+// the limit and slacks of a check, and why.
+func changeText(ch ResultChange) string {
+	unit := func(v any) string { return valueText(ch.Key, v) }
+	s := unit(ch.Old) + " → " + unit(ch.New)
+	if _, isArr := ch.New.([]any); isArr {
+		s = fmt.Sprintf("(%s)", arrayText(ch.Old, ch.New))
+	} else if _, isArr := ch.Old.([]any); isArr {
+		s = fmt.Sprintf("(%s)", arrayText(ch.Old, ch.New))
 	}
-	return out
+	if ch.Limit != nil {
+		s += "  (limit " + unit(*ch.Limit)
+		if ch.OldSlack != nil && ch.NewSlack != nil {
+			s += "; margin to it " + pctText(*ch.OldSlack) + " → " + pctText(*ch.NewSlack)
+		}
+		s += ")"
+	}
+	if ch.Why != "" {
+		s += ": " + ch.Why
+	}
+	return s
 }
 
-func unionKeys(ms ...map[string]string) []string {
-	set := map[string]bool{}
-	for _, m := range ms {
-		for k := range m {
-			set[k] = true
+// arrayText says how an array changed: "4 values → 5 values".
+func arrayText(o, n any) string {
+	count := func(v any) string {
+		a, ok := v.([]any)
+		if !ok {
+			return "absent"
 		}
+		return countText(len(a), "value")
 	}
-	keys := make([]string, 0, len(set))
-	for k := range set {
-		keys = append(keys, k)
+	co, cn := count(o), count(n)
+	if co == cn {
+		return cn + ", changed"
 	}
-	sort.Strings(keys)
-	return keys
+	return co + " → " + cn
 }
 
-// axisResults is one axis's flattened report: figure path → JSON value
-// text, and its warnings.
-type axisResults struct {
-	vals     map[string]string
-	warnings []string
-}
-
-// flatResults flattens the JSON report of every axis of a: objects nest
-// into dotted paths, arrays of objects with a "name" are keyed by it
-// (checks, coefficients, ranges) and the envelope's plants by the plant
-// ("envelope.corners.(gain ×0.9).overshoot"), other arrays (poles,
-// limits) are kept whole. The nominal plant of the envelope is left out:
-// its figures are the discrete section's. The worst of each figure over
-// the envelope's plants is added as "envelope.worst.FIGURE".
-func flatResults(a *discrete.Airframe) (map[string]axisResults, error) {
-	rep := JSON([]*discrete.Airframe{a})
-	if len(rep.Airframes) != 1 {
-		return nil, fmt.Errorf("compare: no report for %s", a.File.Path)
-	}
-	out := map[string]axisResults{}
-	for _, ax := range rep.Airframes[0].Axes {
-		warnings := ax.Warnings
-		ax.Warnings = nil
-		data, err := json.Marshal(ax)
-		if err != nil {
-			return nil, fmt.Errorf("compare: %w", err)
-		}
-		var tree map[string]any
-		if err := json.Unmarshal(data, &tree); err != nil {
-			return nil, fmt.Errorf("compare: %w", err)
-		}
-		delete(tree, "axis")
-		vals := map[string]string{}
-		flattenJSON("", tree, vals)
-		if _, ok := tree["numeric"]; !ok {
-			addNumeric(a, ax.Axis, vals)
-		}
-		addWorst(ax.Envelope, vals)
-		out[ax.Axis] = axisResults{vals: vals, warnings: warnings}
-	}
-	return out, nil
-}
-
-// addNumeric adds the numeric realization's quantized coefficients and
-// range headroom under the keys of the JSON report (README)
-// (numeric.coefficients.NAME.quantized, numeric.ranges.NAME.headroom_bits),
-// for as long as the report does not carry them itself.
-func addNumeric(a *discrete.Airframe, axis string, vals map[string]string) {
-	for _, x := range a.Axes {
-		if x.Name != axis || x.Design == nil || x.Design.Num == nil {
-			continue
-		}
-		re := x.Design.Num
-		vals["numeric.type"] = strconv.Quote(string(re.Type))
-		for _, c := range re.Coefficients {
-			vals["numeric.coefficients."+c.Name+".quantized"] = num10(c.Quantized)
-			if c.Format != "" {
-				vals["numeric.coefficients."+c.Name+".format"] = strconv.Quote(c.Format)
-			}
-		}
-		for _, r := range re.Ranges {
-			vals["numeric.ranges."+r.Name+".headroom_bits"] = num10(r.HeadroomBits)
-		}
-	}
-}
-
-// addWorst adds the worst of each figure over the envelope's plants: the
-// largest overshoot, settling time and Ms, the least margins. These are
-// what compare judges the envelope by, once per figure, rather than
-// plant by plant (a change of the design moves every plant alike).
-func addWorst(e *EnvelopeReport, vals map[string]string) {
-	if e == nil {
-		return
-	}
-	type figure struct {
-		name  string
-		upper bool // larger is worse
-		get   func(c CornerReport) *float64
-	}
-	for _, f := range []figure{
-		{"overshoot", true, func(c CornerReport) *float64 { return c.Overshoot }},
-		{"settling_time", true, func(c CornerReport) *float64 { return c.SettlingTime }},
-		{"phase_margin_deg", false, func(c CornerReport) *float64 { return c.PhaseMarginDeg }},
-		{"gain_margin_db", false, func(c CornerReport) *float64 { return c.GainMarginDB }},
-		{"max_sensitivity", true, func(c CornerReport) *float64 { return c.MaxSensitivity }},
-	} {
-		var w *float64
-		for _, c := range e.Corners {
-			if v := f.get(c); v != nil && (w == nil || f.upper && *v > *w || !f.upper && *v < *w) {
-				w = v
-			}
-		}
-		if w != nil {
-			vals["envelope.worst."+f.name] = num10(*w)
-		}
-	}
-}
-
-// num10 writes x with the report's ten significant digits.
-func num10(x float64) string {
-	if math.IsNaN(x) || math.IsInf(x, 0) {
-		return "null"
-	}
-	v, _ := strconv.ParseFloat(strconv.FormatFloat(x, 'e', SignificantDigits-1, 64), 64)
-	return strconv.FormatFloat(v, 'g', -1, 64)
-}
-
-func flattenJSON(prefix string, v any, out map[string]string) {
-	join := func(k string) string {
-		if prefix == "" {
-			return k
-		}
-		return prefix + "." + k
-	}
-	switch x := v.(type) {
-	case map[string]any:
-		for k, e := range x {
-			flattenJSON(join(k), e, out)
-		}
-	case []any:
-		keys := make([]string, len(x))
-		named := len(x) > 0
-		for i, e := range x {
-			m, ok := e.(map[string]any)
-			if !ok {
-				named = false
-				break
-			}
-			if keys[i], ok = elementKey(m); !ok {
-				named = false
-				break
-			}
-		}
-		if !named {
-			b, _ := json.Marshal(x)
-			out[prefix] = string(b)
-			return
-		}
-		for i, e := range x {
-			if keys[i] == nominalKey {
-				continue
-			}
-			for k, f := range e.(map[string]any) {
-				if !elementField(k) {
-					flattenJSON(join(keys[i]+"."+k), f, out)
-				}
-			}
-		}
-	default:
-		b, _ := json.Marshal(x)
-		out[prefix] = string(b)
-	}
-}
-
-// nominalKey is the key of the envelope's nominal plant.
-const nominalKey = "(nominal plant)"
-
-// elementKey returns what names an element of a report array: its "name"
-// (a check, a coefficient, a range), or the plant of an envelope corner,
-// "(gain ×0.9, delay +0.001 s)".
-func elementKey(m map[string]any) (string, bool) {
-	if n, ok := m["name"].(string); ok {
-		return n, true
-	}
-	g, ok1 := m["gain_scale"].(float64)
-	l, ok2 := m["lag_scale"].(float64)
-	d, ok3 := m["delay_add"].(float64)
-	if !ok1 || !ok2 || !ok3 {
-		return "", false
-	}
-	return "(" + synth.CornerText(airframe.Corner{GainScale: g, LagScale: l, DelayAdd: d}) + ")", true
-}
-
-// elementField reports whether k is a field that names its element
-// rather than a figure of it.
-func elementField(k string) bool {
-	switch k {
-	case "name", "gain_scale", "lag_scale", "delay_add":
-		return true
-	}
-	return false
-}
-
-func diffResults(o, n map[string]axisResults) []ResultChange {
-	axes := map[string]bool{}
-	for k := range o {
-		axes[k] = true
-	}
-	for k := range n {
-		axes[k] = true
-	}
-	names := make([]string, 0, len(axes))
-	for k := range axes {
-		names = append(names, k)
-	}
-	sort.Strings(names)
-	var out []ResultChange
-	for _, ax := range names {
-		ao, oin := o[ax]
-		an, nin := n[ax]
-		switch {
-		case !nin:
-			out = append(out, ResultChange{Axis: ax, Key: "axis", Old: str("designed"), Regression: true, Why: "axis removed"})
-			continue
-		case !oin:
-			out = append(out, ResultChange{Axis: ax, Key: "axis", New: str("designed"), Why: "axis added"})
-			if an.vals["ok"] == "false" {
-				out[len(out)-1].Regression, out[len(out)-1].Why = true, "axis added, and it does not meet its spec"
-			}
-			continue
-		}
-		for _, k := range unionKeys(ao.vals, an.vals) {
-			if strings.HasPrefix(k, "checks.") && (strings.HasSuffix(k, ".value") || strings.HasSuffix(k, ".limit")) {
-				// A check's value is a metric listed under its own key,
-				// its limit an input; its ok flag is what it adds.
-				continue
-			}
-			ov, ok1 := ao.vals[k]
-			nv, ok2 := an.vals[k]
-			if ok1 && ok2 && ov == nv {
-				continue
-			}
-			ch := ResultChange{Axis: ax, Key: k}
-			if ok1 {
-				ch.Old = str(ov)
-			}
-			if ok2 {
-				ch.New = str(nv)
-			}
-			ch.Regression, ch.Why = regression(k, ch.Old, ch.New)
-			if plant, ok := cornerPrefix(k); ok {
-				// A plant the envelope no longer holds has no figures to
-				// be worse: the envelope changed (an input).
-				if _, kept := an.vals[plant+".stable"]; !kept {
-					ch.Regression, ch.Why = false, "plant no longer in the envelope"
-				}
-			}
-			out = append(out, ch)
-		}
-		for _, w := range ao.warnings {
-			if !slices.Contains(an.warnings, w) {
-				out = append(out, ResultChange{Axis: ax, Key: "warnings", Old: str(w), Why: "warning gone"})
-			}
-		}
-		for _, w := range an.warnings {
-			if !slices.Contains(ao.warnings, w) {
-				out = append(out, ResultChange{Axis: ax, Key: "warnings", New: str(w), Why: "new warning"})
-			}
-		}
-	}
-	return out
-}
-
-func str(s string) *string { return &s }
-
-// cornerPrefix returns the key of the envelope plant that key is a figure
-// of, "envelope.corners.(gain ×0.9)".
-func cornerPrefix(key string) (string, bool) {
-	if !strings.HasPrefix(key, "envelope.corners.(") {
-		return "", false
-	}
-	i := strings.LastIndexByte(key, '.')
-	return key[:i], true
-}
-
-// regression classifies a changed figure by its key:
-//
-//   - margins (phase, gain, delay, the discrete stability margin) and
-//     fixed-point headroom must not go down;
-//   - overshoot, settling and recovery times must not go up;
-//   - a check, the axis or the saturated step's settling that was ok and
-//     is not, or an axis that now fails to design, is a regression.
-//
-// A figure that disappears where it existed (a margin that is now
-// undefined because the loop went unstable) counts as worse, as does one
-// that became infinite in the bad direction.
-func regression(key string, oldV, newV *string) (bool, string) {
-	leaf := key[strings.LastIndexByte(key, '.')+1:]
-	switch {
-	case key == "error":
-		if newV != nil && oldV == nil {
-			return true, "the axis no longer designs"
-		}
-		return false, ""
-	case leaf == "ok" || leaf == "settled" || leaf == "settled_no_antiwindup":
-		if oldV != nil && *oldV == "true" && (newV == nil || *newV == "false") {
-			if key == "ok" {
-				return true, "the axis no longer meets its spec"
-			}
-			if strings.HasPrefix(key, "checks.") {
-				return true, "check " + strings.TrimSuffix(strings.TrimPrefix(key, "checks."), ".ok") + " newly fails"
-			}
-			return true, "the saturated step no longer settles"
-		}
-		return false, ""
-	}
-	if strings.HasPrefix(key, "checks.") || strings.HasPrefix(key, "textbook.") {
-		// A check's value is judged by its ok flag; the textbook
-		// placement is not the design.
-		return false, ""
-	}
-	switch {
-	case strings.HasPrefix(key, "envelope.corners."):
-		// Listed plant by plant, judged by the worst over the plants.
-		return false, ""
-	case strings.HasPrefix(key, "envelope.") && !strings.HasPrefix(key, "envelope.worst."):
-		// The envelope's intervals are inputs.
-		return false, ""
-	}
-	if leaf == "hold_rate" && newV == nil {
-		// Absent: unbounded, or no integrator to hold with.
-		return false, ""
-	}
-	higherBetter := map[string]string{
-		"phase_margin_deg": "phase margin down",
-		"gain_margin_db":   "gain margin down",
-		"delay_margin":     "delay margin down",
-		"stability_margin": "stability margin (1 − max|z|) down",
-		"headroom_bits":    "headroom down",
-		"hold_rate":        "holdable rate down",
-	}
-	lowerBetter := map[string]string{
-		"overshoot":                   "overshoot up",
-		"settling_time":               "settling time up",
-		"recovery_time":               "recovery after saturation slower",
-		"overshoot_no_antiwindup":     "",
-		"recovery_time_no_antiwindup": "",
-		"max_sensitivity":             "sensitivity peak Ms up",
-		"max_complementary":           "complementary sensitivity peak Mt up",
-		"noise_gain":                  "noise gain up",
-		"peak":                        "load-disturbance peak up",
-		"iae":                         "load-disturbance IAE up",
-	}
-	if strings.Contains(key, "disturbance.") {
-		// The load step is an input; its recovery is not the saturated
-		// step's.
-		lowerBetter["step"], lowerBetter["recovery_time"] = "", "load-disturbance recovery slower"
-	}
-	why, dir := "", 0.0
-	if w, ok := higherBetter[leaf]; ok {
-		why, dir = w, +1
-	} else if w, ok := lowerBetter[leaf]; ok && w != "" {
-		why, dir = w, -1
-	}
-	if why == "" {
-		return false, ""
-	}
-	if strings.HasPrefix(key, "envelope.worst.") {
-		why += " (worst over the envelope)"
-	}
-	return worse(oldV, newV, dir, why)
-}
-
-// worse reports whether the number moved against dir (+1: higher is
-// better) by more than RegressionTolerance.
-func worse(oldV, newV *string, dir float64, why string) (bool, string) {
-	if oldV == nil {
-		return false, ""
-	}
-	o, err := strconv.ParseFloat(*oldV, 64)
-	if err != nil {
-		return false, ""
-	}
-	if newV == nil {
-		return true, why + " (no longer defined)"
-	}
-	n, err := strconv.ParseFloat(*newV, 64)
-	if err != nil {
-		return false, ""
-	}
-	d := (n - o) * dir
-	if d < 0 && -d > RegressionTolerance*math.Max(math.Abs(o), math.Abs(n)) {
-		return true, why
-	}
-	return false, ""
-}
-
-// WriteText writes the comparison for a reader: the changed inputs, the
-// changed results with regressions marked, and the count.
-func (c *Comparison) WriteText(w io.Writer) error {
-	bw := bufio.NewWriter(w)
-	p := func(format string, a ...any) { fmt.Fprintf(bw, format+"\n", a...) }
-	p("compare %s → %s", c.Old, c.New)
-	if c.Airframe[0] != c.Airframe[1] {
-		p("  airframe %s → %s", c.Airframe[0], c.Airframe[1])
-	} else {
-		p("  airframe %s", c.Airframe[0])
-	}
-	val := func(s *string) string {
-		if s == nil {
+// valueText writes a figure of the key's kind with its unit and four
+// significant digits (a check's in the check's unit).
+func valueText(key string, v any) string {
+	x, ok := v.(float64)
+	if !ok {
+		if v == nil {
 			return "(absent)"
 		}
-		return *s
+		return tomlText(v)
 	}
-	p("")
-	if len(c.Inputs) == 0 {
-		p("inputs: unchanged")
-	} else {
-		p("inputs changed (%d):", len(c.Inputs))
-		width := 0
-		for _, ch := range c.Inputs {
-			width = max(width, len(ch.Key))
-		}
-		for _, ch := range c.Inputs {
-			p("  %-*s  %s → %s", width, ch.Key, val(ch.Old), val(ch.New))
-		}
+	if name, isCheck := strings.CutPrefix(key, "checks."); isCheck {
+		return synth.CheckValue(name, x)
 	}
-	p("")
-	if len(c.Results) == 0 {
-		p("results: unchanged")
-	} else {
-		p("results changed (%d):", len(c.Results))
-		width := 0
-		for _, ch := range c.Results {
-			width = max(width, len(ch.Axis)+1+len(ch.Key))
-		}
-		for _, ch := range c.Results {
-			if ch.Key == "warnings" {
-				if ch.New != nil {
-					p("  %-*s  + %s", width, ch.Axis+" warning", *ch.New)
-				} else {
-					p("  %-*s  − %s", width, ch.Axis+" warning", val(ch.Old))
-				}
-				continue
-			}
-			mark := ""
-			switch {
-			case ch.Regression:
-				mark = "   REGRESSION: " + ch.Why
-			case ch.Why != "":
-				mark = "   (" + ch.Why + ")"
-			}
-			p("  %-*s  %s → %s%s", width, ch.Axis+" "+ch.Key, val(ch.Old), val(ch.New), mark)
-		}
+	leaf := key[strings.LastIndexByte(key, '.')+1:]
+	g := synth.G4(x)
+	switch {
+	case strings.HasSuffix(leaf, "_deg"):
+		return g + "°"
+	case strings.HasSuffix(leaf, "_db"):
+		return g + " dB"
+	case strings.Contains(leaf, "time") || leaf == "delay_margin" || leaf == "derivative_tau" || leaf == "tracking_time":
+		return g + " s"
+	case leaf == "crossover" || leaf == "omega_n" || leaf == "prewarp_omega":
+		return g + " rad/s"
+	case leaf == "overshoot" || strings.HasSuffix(leaf, "_error") || leaf == "overshoot_no_antiwindup":
+		return synth.G4(100*x) + " %"
+	case leaf == "hold_rate":
+		return g + " rad/s"
+	case leaf == "headroom_bits" || leaf == "input_resolution_bits" || leaf == "output_resolution_bits":
+		return g + " bits"
 	}
-	p("")
-	switch c.Regressions {
-	case 0:
-		p("no regressions")
-	case 1:
-		p("1 regression")
-	default:
-		p("%d regressions", c.Regressions)
-	}
-	return bw.Flush()
+	return g
 }

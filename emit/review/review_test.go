@@ -372,7 +372,7 @@ func BenchmarkBuildOnly(b *testing.B) {
 // An axis that cannot be designed gets its error in the report and no
 // plots; the other axes are reported as usual.
 func TestBuildWithFailedAxis(t *testing.T) {
-	text := strings.Replace(compareDemo, `form = "pid"`, "form = \"pi\"\nrefine = false", 1)
+	text := strings.Replace(compareBase(t), `form = "pid"`, "form = \"pi\"\nrefine = false", 1)
 	text = strings.Replace(text, "settling_time = 0.15", "settling_time = 0.05", 1)
 	f, err := airframe.Parse("failing.toml", []byte(text))
 	if err != nil {
