@@ -52,11 +52,11 @@ func fixedOf(d *discrete.Design) *FixedPoint {
 	re := d.Num
 	if re == nil {
 		if d.Numeric.Type.IsFixed() {
-			return &FixedPoint{Type: string(d.Numeric.Type), Note: "no numeric realization was computed"}
+			return &FixedPoint{Type: string(d.Numeric.Type), Fixed: true, Note: "No numeric realization was computed"}
 		}
 		return nil
 	}
-	fp := &FixedPoint{Type: string(re.Type)}
+	fp := &FixedPoint{Type: string(re.Type), Fixed: re.Fixed != nil}
 	for _, c := range re.Coefficients {
 		fc := FixedCoeff{Name: c.Name, Value: g(c.Value, 7), Quantized: g(c.Quantized, 7), Format: c.Format, RelError: g(c.RelError, 3)}
 		if c.Bits > 0 {
@@ -76,13 +76,13 @@ func fixedOf(d *discrete.Design) *FixedPoint {
 	if re.Fixed != nil {
 		fp.Note = mdText(fixedNote(re))
 	} else {
-		fp.Note = "coefficients rounded to " + string(re.Type) + "; no scaling or range analysis is needed"
+		fp.Note = "The coefficients are rounded to " + string(re.Type) + "; a floating-point controller needs no scaling and no range analysis"
 	}
 	return fp
 }
 
 func fixedNote(re *discrete.Realization) string {
-	s := "input full scale " + g(re.InputFullScale, 6) + " (rate units), output full scale " + g(re.OutputFullScale, 6) +
+	s := "Input full scale " + g(re.InputFullScale, 6) + " (rate units), output full scale " + g(re.OutputFullScale, 6) +
 		"; reference step " + g(re.ReferenceStep, 4) +
 		", input resolution " + g(re.InputResolutionBits, 3) + " bits and output resolution " + g(re.OutputResolutionBits, 3) + " bits over the settling band"
 	if isFinite(re.MaxErrorLSB) && (re.MaxErrorLSB > 0 || re.SQNRdB > 0) {

@@ -30,15 +30,23 @@ type Page struct {
 	Numeric     string
 	OK          bool
 	Summary     []SummaryRow
-	Axes        []AxisPage
-	Cautions    []string
+	// SummaryChecks are the checks of every axis, each at its worst plant
+	// of the envelope.
+	SummaryChecks []SummaryCheck
+	Axes          []AxisPage
+	Cautions      []string
 }
 
-// SummaryRow is one axis in the summary table.
+// SummaryRow is one axis in the summary table: its form, its result and
+// its gains.
 type SummaryRow struct {
-	Axis, Form, Status                           string
-	Overshoot, Settling, PhaseMargin, GainMargin string
-	Ms                                           string // the nominal loop's sensitivity peak
+	Axis, Form, Status, Gains string
+}
+
+// SummaryCheck is one check of one axis in the summary.
+type SummaryCheck struct {
+	Axis string
+	CheckRow
 }
 
 // AxisPage is the section of one axis.
@@ -59,6 +67,10 @@ type AxisPage struct {
 	Coeffs     []Row
 	Metrics    []MetricRow
 	Checks     []CheckRow
+	// Phase is where the loop's phase goes at the crossover: the filters,
+	// the sampling and the delays, and what is left as margin.
+	Phase      []Row
+	PhaseTotal string
 	Envelope   *EnvelopePage
 	CPoles     string
 	DPoles     string
@@ -124,7 +136,10 @@ type Term struct {
 
 // FixedPoint is the fixed-point table of an axis.
 type FixedPoint struct {
-	Type   string
+	Type string
+	// Fixed: an integer realization (the section is "Fixed point");
+	// otherwise the coefficients in floating point.
+	Fixed  bool
 	Coeffs []FixedCoeff
 	Ranges []FixedRange
 	Note   string
@@ -196,13 +211,16 @@ func model(a *discrete.Airframe) (*Page, []builtFigure) {
 		figs = append(figs, res[i].figs...)
 		r.Axes = append(r.Axes, res[i].ar)
 		r.Summary = append(r.Summary, summaryRow(x, res[i].ar))
+		for _, c := range res[i].ar.Checks {
+			r.SummaryChecks = append(r.SummaryChecks, SummaryCheck{Axis: x.Name, CheckRow: c})
+		}
 	}
 	return r, figs
 }
 
 func summaryRow(x discrete.Outcome, ar AxisPage) SummaryRow {
-	row := SummaryRow{Axis: x.Name, Form: ar.Form, Status: "met", Overshoot: "–", Settling: "–", PhaseMargin: "–", GainMargin: "–", Ms: "–"}
-	if x.Err != nil || x.Design == nil {
+	row := SummaryRow{Axis: x.Name, Form: ar.Form, Status: "met", Gains: "–"}
+	if x.Err != nil || x.Design == nil || x.Design.Cont == nil {
 		row.Status = "**not designed**"
 		return row
 	}
@@ -216,15 +234,24 @@ func summaryRow(x discrete.Outcome, ar AxisPage) SummaryRow {
 	if len(failed) > 0 {
 		row.Status = "**FAIL**: " + strings.Join(failed, ", ")
 	}
-	v := d.Verif
-	if v.Stable {
-		row.Overshoot, row.Settling = pct(v.Step.Overshoot), sec(v.Step.Settling)
-	}
-	row.PhaseMargin, row.GainMargin = degs(v.Margins.PhaseDeg), dbs(v.Margins.GainDB)
-	if len(d.Envelope) > 0 && d.Envelope[0].Stable {
-		row.Ms = g4(d.Envelope[0].Ms)
-	}
+	row.Gains = gainsText(d.Cont.Ctrl)
 	return row
+}
+
+// gainsText writes a controller's gains on one line: "Kp = 0.02654,
+// Ki = 0.3468, Kd = 0.0003764, b = 0.1".
+func gainsText(k synth.Controller) string {
+	if k.Form == airframe.FormLead {
+		return fmt.Sprintf("K = %s, zero %s rad/s, pole %s rad/s", g4(k.K), g4(k.Zero), g4(k.Pole))
+	}
+	s := "Kp = " + g4(k.Kp)
+	if k.Form.HasIntegral() {
+		s += ", Ki = " + g4(k.Ki)
+	}
+	if k.Form.HasDerivative() {
+		s += ", Kd = " + g4(k.Kd) + ", Tf = " + sec(k.Tf)
+	}
+	return s + ", b = " + g(k.B, 4)
 }
 
 func axisModel(airframe string, x discrete.Outcome) (AxisPage, []builtFigure) {
@@ -251,6 +278,7 @@ func axisModel(airframe string, x discrete.Outcome) (AxisPage, []builtFigure) {
 	ar.Gains = gainRows(c)
 	ar.Coeffs = coeffRows(d.Coeffs)
 	ar.Metrics, ar.Checks = metricRows(d)
+	ar.Phase, ar.PhaseTotal = phaseBudget(d)
 	ar.Envelope = envelopePage(d)
 	ar.CPoles = polesText(c.Verif.Poles, "")
 	ar.DPoles = zPolesText(d.Verif.Poles, d.Plant.T)
@@ -720,6 +748,43 @@ func robustRows(d *discrete.Design, status map[string]string) []MetricRow {
 		MetricRow{load + ": IAE", "–", "–", st(ds.IAE, func(v float64) string { return g4(v) + " rad" }), "–", ""},
 		MetricRow{load + ": recovery (±2 % of the peak)", specOf(d, "disturbance_recovery"), "–", rec, "–", status["disturbance_recovery"]},
 	)
+}
+
+// phaseBudget is where the phase of the loop goes at the crossover ωc of
+// the nominal sampled loop, term by term, against the margin left: the
+// gyro's filter ∠H(jωc), the derivative filter's lag −atan(ωc·Tf) (what
+// filtering costs against the ideal derivative), the zero-order hold's
+// half-sample delay −ωc·T/2, the compute delay −ωc·d·T and the transport
+// delay −ωc·τ (Franklin, Powell & Workman, Digital Control of Dynamic
+// Systems, the hold as a delay of T/2, from memory). It returns nothing
+// when the loop has no crossover.
+func phaseBudget(d *discrete.Design) ([]Row, string) {
+	wc := d.Verif.Margins.Crossover
+	if !(wc > 0) || math.IsInf(wc, 0) {
+		return nil, ""
+	}
+	p, T := d.Problem, d.Plant.T
+	deg := 180 / math.Pi
+	var rows []Row
+	total := 0.0
+	add := func(name string, rad float64, note string) {
+		rows = append(rows, Row{name, degs(rad * deg), note})
+		total += rad
+	}
+	if len(p.Sensor.Poles) > 0 || len(p.Sensor.Zeros) > 0 {
+		add("gyro filter ∠H(jωc)", cmplx.Phase(p.Sensor.Eval(complex(0, wc))), "the sensor model")
+	}
+	if k := d.Cont.Ctrl; k.Form.HasDerivative() && k.Tf > 0 {
+		add("derivative filter", -math.Atan(wc*k.Tf), fmt.Sprintf("−atan(ωc·Tf), filter at %s Hz", g4(1/(2*math.Pi*k.Tf))))
+	}
+	add("zero-order hold", -wc*T/2, "−ωc·T/2, half a sample")
+	if n := d.Loop.ComputeDelay; n > 0 {
+		add("compute delay", -wc*float64(n)*T, fmt.Sprintf("−ωc·%d·T", n))
+	}
+	if tau := p.Plant.Delay; tau > 0 {
+		add("transport delay", -wc*tau, "−ωc·τ")
+	}
+	return rows, fmt.Sprintf("%s at the crossover %s (%s Hz); the phase margin left is %s", degs(total*deg), rads(wc), g4(wc/(2*math.Pi)), degs(d.Verif.Margins.PhaseDeg))
 }
 
 // specOf is the limit of the check named name, "≤ 1.7", or "–" when the
