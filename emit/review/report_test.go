@@ -550,3 +550,40 @@ func TestCornerAndCheckText(t *testing.T) {
 		t.Errorf("Check.String() at the nominal plant = %q, want %q", got, want)
 	}
 }
+
+// The phase budget at the crossover against the handbook forms of each
+// term: a first-order lowpass at fc lags atan(ω/(2π·fc)), the derivative
+// filter atan(ω·Tf), the zero-order hold ω·T/2 and a delay τ lags ω·τ
+// (Franklin, Powell & Workman, Digital Control of Dynamic Systems, from
+// memory), each in degrees.
+func TestPhaseBudget(t *testing.T) {
+	a := design(t, "../../examples/quadrotor.toml")
+	d := a.Axes[0].Design
+	const sensorHz = 100 // the example's first axis, lowpass_hz
+	rows, total := phaseBudget(d)
+	wc, T := d.Verif.Margins.Crossover, d.Plant.T
+	deg := 180 / math.Pi
+	want := map[string]float64{
+		"gyro filter ∠H(jωc)": -math.Atan(wc/(2*math.Pi*sensorHz)) * deg,
+		"derivative filter":   -math.Atan(wc*d.Cont.Ctrl.Tf) * deg,
+		"zero-order hold":     -wc * T / 2 * deg,
+		"compute delay":       -wc * T * float64(a.File.Loop.ComputeDelay) * deg,
+		"transport delay":     -wc * a.File.Axes[0].Plant.Delay * deg,
+	}
+	if len(rows) != len(want) {
+		t.Fatalf("%d rows, want %d: %+v", len(rows), len(want), rows)
+	}
+	for _, r := range rows {
+		w, ok := want[r.Name]
+		if !ok {
+			t.Errorf("unexpected row %q", r.Name)
+			continue
+		}
+		if r.Value != degs(w) {
+			t.Errorf("%s: %s, want %s", r.Name, r.Value, degs(w))
+		}
+	}
+	if !strings.Contains(total, "phase margin left is "+degs(d.Verif.Margins.PhaseDeg)) {
+		t.Errorf("total: %q", total)
+	}
+}
