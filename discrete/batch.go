@@ -3,6 +3,9 @@ package discrete
 import (
 	"errors"
 	"fmt"
+	"reflect"
+	"runtime"
+	"slices"
 	"strings"
 	"sync"
 
@@ -39,13 +42,74 @@ func (a *Airframe) OK() bool {
 
 // DesignAirframe designs every axis of f at its loop rate and numeric type.
 // An axis that cannot be designed records its error and the others go on.
+// The axes are designed at once, one per core: each design is a pure
+// function of its axis, so the result does not depend on the order.
 func DesignAirframe(f *airframe.File) *Airframe {
 	out := &Airframe{File: f, Axes: make([]Outcome, len(f.Axes))}
+	jobs := make([]func(), len(f.Axes))
 	for i, p := range f.Axes {
-		d, err := DesignAxis(p, f.Loop, f.Numeric)
-		out.Axes[i] = Outcome{Name: p.Name, Design: d, Err: err}
+		jobs[i] = func() { out.Axes[i] = designAxis(p, f.Loop, f.Numeric) }
 	}
+	runAll(jobs)
 	return out
+}
+
+// DesignPair designs two versions of an airframe file, as compare needs
+// them. An axis whose problem is the same in both (the same axis, loop
+// rate, compute delay and numeric type) is designed once and shared by
+// the two results, which must then be read only.
+func DesignPair(old, new *airframe.File) (*Airframe, *Airframe) {
+	a := &Airframe{File: old, Axes: make([]Outcome, len(old.Axes))}
+	b := &Airframe{File: new, Axes: make([]Outcome, len(new.Axes))}
+	var jobs []func()
+	shared := map[int]int{} // new axis index → old axis index
+	for i, p := range old.Axes {
+		jobs = append(jobs, func() { a.Axes[i] = designAxis(p, old.Loop, old.Numeric) })
+	}
+	for j, p := range new.Axes {
+		if i := slices.IndexFunc(old.Axes, func(q airframe.Axis) bool { return q.Name == p.Name }); i >= 0 &&
+			old.Loop == new.Loop && reflect.DeepEqual(old.Numeric, new.Numeric) && reflect.DeepEqual(old.Axes[i], p) {
+			shared[j] = i
+			continue
+		}
+		jobs = append(jobs, func() { b.Axes[j] = designAxis(p, new.Loop, new.Numeric) })
+	}
+	runAll(jobs)
+	for j, i := range shared {
+		b.Axes[j] = a.Axes[i]
+	}
+	return a, b
+}
+
+// designAxis designs one axis; a panic (a bug) becomes its error.
+func designAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (x Outcome) {
+	defer func() {
+		if r := recover(); r != nil {
+			x = Outcome{Name: p.Name, Err: fmt.Errorf("axis %s: internal error (a bug, please report it): %v", p.Name, r)}
+		}
+	}()
+	d, err := DesignAxis(p, loop, num)
+	return Outcome{Name: p.Name, Design: d, Err: err}
+}
+
+// runAll runs the jobs, at most one per core at a time, and returns when
+// all are done.
+func runAll(jobs []func()) {
+	if len(jobs) == 1 {
+		jobs[0]()
+		return
+	}
+	sem := make(chan struct{}, runtime.GOMAXPROCS(0))
+	var wg sync.WaitGroup
+	for _, job := range jobs {
+		wg.Add(1)
+		sem <- struct{}{}
+		go func() {
+			defer func() { <-sem; wg.Done() }()
+			job()
+		}()
+	}
+	wg.Wait()
 }
 
 // Unmet lists, one line each, why the airframe is not ok: the axes that

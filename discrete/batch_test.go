@@ -97,6 +97,38 @@ func TestBatchMatchesOneByOne(t *testing.T) {
 	}
 }
 
+// DesignPair gives each version the designs DesignAirframe gives it, and
+// designs an axis the two share once: the same *Design in both.
+func TestDesignPair(t *testing.T) {
+	files := fleet(t, 2)
+	old := files[0]
+	// The new version: the old with one axis's settling limit changed.
+	src := *old
+	src.Axes = slices.Clone(old.Axes)
+	src.Axes[0].Spec.SettlingTime *= 1.2
+	a, b := DesignPair(old, &src)
+	if got, want := fingerprint([]*Airframe{a, b}), fingerprint([]*Airframe{DesignAirframe(old), DesignAirframe(&src)}); !bytes.Equal(got, want) {
+		t.Errorf("the pair differs from the designs one by one:\n%s\nwant\n%s", got, want)
+	}
+	if a.Axes[0].Design == b.Axes[0].Design {
+		t.Error("the changed axis shares its design")
+	}
+	for i := 1; i < len(a.Axes); i++ {
+		if a.Axes[i].Design == nil || a.Axes[i].Design != b.Axes[i].Design {
+			t.Errorf("axis %s: unchanged, designed twice", a.Axes[i].Name)
+		}
+	}
+	// Another loop rate changes every axis's problem.
+	other := src
+	other.Loop.Hz *= 2
+	_, c := DesignPair(old, &other)
+	for i := range c.Axes {
+		if c.Axes[i].Design != nil && c.Axes[i].Design == a.Axes[i].Design {
+			t.Errorf("axis %s: shared across loop rates", c.Axes[i].Name)
+		}
+	}
+}
+
 // BenchmarkFleet designs generated fleets of 3-axis airframes (design,
 // discrete and numeric verification) on all CPUs.
 func BenchmarkFleet(b *testing.B) {

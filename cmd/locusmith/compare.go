@@ -79,15 +79,17 @@ func runCompare(args []string, stdout, stderr io.Writer) int {
 			return exitUsage
 		}
 	}
-	var designs [2]*discrete.Airframe
+	var files [2]*airframe.File
 	for i, arg := range flags.Args() {
 		f, err := loadVersion(arg)
 		if err != nil {
 			reportLoadError(stderr, arg, err)
 			return exitUsage
 		}
-		designs[i] = discrete.DesignAirframe(f)
+		files[i] = f
 	}
+	var designs [2]*discrete.Airframe
+	designs[0], designs[1] = discrete.DesignPair(files[0], files[1])
 	c, err := review.Compare(flags.Arg(0), designs[0], flags.Arg(1), designs[1], *tol, *floor)
 	if err != nil {
 		fmt.Fprintf(stderr, "locusmith compare: %v\n", err)
