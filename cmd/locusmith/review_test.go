@@ -195,3 +195,36 @@ func BenchmarkReportProcess(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkCompareProcess is the compare verb as a whole process on the
+// demo quadrotor against a retune of one axis (its settling limit
+// changed): both versions designed, judged and printed. The issue's
+// target is 100 ms.
+func BenchmarkCompareProcess(b *testing.B) {
+	bin := filepath.Join(b.TempDir(), "locusmith")
+	if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
+		b.Fatalf("go build: %v\n%s", err, out)
+	}
+	src, err := os.ReadFile("../../examples/quadrotor.toml")
+	if err != nil {
+		b.Fatal(err)
+	}
+	dir := b.TempDir()
+	oldPath, newPath := filepath.Join(dir, "old.toml"), filepath.Join(dir, "new.toml")
+	retuned := strings.Replace(string(src), "settling_time = 0.30", "settling_time = 0.32", 1)
+	if retuned == string(src) {
+		b.Fatal("the retune did not apply")
+	}
+	if err := os.WriteFile(oldPath, src, 0o644); err != nil {
+		b.Fatal(err)
+	}
+	if err := os.WriteFile(newPath, []byte(retuned), 0o644); err != nil {
+		b.Fatal(err)
+	}
+	b.ResetTimer()
+	for b.Loop() {
+		if msg, err := exec.Command(bin, "compare", oldPath, newPath).CombinedOutput(); err != nil {
+			b.Fatalf("compare: %v\n%s", err, msg)
+		}
+	}
+}
