@@ -23,6 +23,7 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"errors"
+	"fmt"
 	"slices"
 	"strings"
 	"unicode/utf8"
@@ -54,6 +55,10 @@ func Parse(path string, data []byte) (*File, error) {
 	}
 	if len(c.errs) > 0 {
 		slices.SortStableFunc(c.errs, func(a, b *FieldError) int { return compareKeys(a.Key, b.Key) })
+		if c.dropped > 0 {
+			c.errs = append(c.errs, &FieldError{Path: path, Msg: fmt.Sprintf(
+				"and %d more problems, not listed: only the first %d problems of a file are reported", c.dropped, MaxErrors)})
+		}
 		return nil, &Errors{Path: path, List: c.errs}
 	}
 	sum := sha256.Sum256(data)
@@ -75,6 +80,13 @@ func (c *checker) decodeTOML(data []byte) map[string]any {
 	text := bytes.TrimPrefix(data, []byte("\uFEFF"))
 	if len(bytes.TrimSpace(text)) == 0 {
 		c.fail("", nil, "empty file: airframe, loop_hz and at least one [axes.NAME] table are required")
+		return nil
+	}
+	// The TOML decoder checks every key against the keys of its table
+	// one by one, which takes minutes for a megabyte of keys; a file
+	// with more keys than any valid one can have is refused before it.
+	if n := countKeys(text); n > MaxKeys {
+		c.fail("", nil, "%d keys and table headers, more than the %d an airframe file may have (at most %d axes of at most %d keys each)", n, MaxKeys, MaxAxes, maxKeysPerAxis)
 		return nil
 	}
 	if i := bytes.IndexByte(text, 0); i >= 0 {
@@ -126,4 +138,86 @@ func firstInvalidUTF8(data []byte) int {
 		i += size
 	}
 	return len(data)
+}
+
+// countKeys returns an upper bound on the number of keys and table
+// headers of the TOML text: every '=' outside strings and comments (a key
+// of a table or of an inline table) and every table header (a '[' that
+// begins a line outside a value). It walks the text once.
+func countKeys(text []byte) int {
+	n, depth := 0, 0 // depth: open arrays and inline tables of a value
+	lineStart := true
+	for i := 0; i < len(text); i++ {
+		ch := text[i]
+		switch {
+		case ch == '\n':
+			lineStart = true
+			continue
+		case ch == ' ' || ch == '\t' || ch == '\r':
+			continue
+		case ch == '#':
+			for i < len(text) && text[i] != '\n' {
+				i++
+			}
+			i-- // the newline ends the comment and starts a line
+			continue
+		case ch == '"' || ch == '\'':
+			i = skipString(text, i)
+		case ch == '[' && lineStart && depth == 0:
+			n++ // a table header: skip to the end of its line
+			for i+1 < len(text) && text[i+1] != '\n' {
+				i++
+				if text[i] == '"' || text[i] == '\'' {
+					i = skipString(text, i)
+				} else if text[i] == '#' {
+					i--
+					break
+				}
+			}
+		case ch == '[' || ch == '{':
+			depth++
+		case ch == ']' || ch == '}':
+			if depth > 0 {
+				depth--
+			}
+		case ch == '=':
+			n++
+		}
+		lineStart = false
+	}
+	return n
+}
+
+// skipString returns the index of the last byte of the TOML string that
+// starts at text[i] (a quote): basic "…" with backslash escapes, literal
+// '…', and their multi-line forms with three quotes. An unterminated
+// string runs to the end of the text (the decoder reports it).
+func skipString(text []byte, i int) int {
+	q := text[i]
+	if i+2 < len(text) && text[i+1] == q && text[i+2] == q {
+		// Multi-line: up to the next three quotes (a fourth and fifth
+		// quote may end the content).
+		for j := i + 3; j < len(text); j++ {
+			if q == '"' && text[j] == '\\' {
+				j++
+				continue
+			}
+			if j+2 < len(text) && text[j] == q && text[j+1] == q && text[j+2] == q {
+				for j+3 < len(text) && text[j+3] == q {
+					j++
+				}
+				return j + 2
+			}
+		}
+		return len(text) - 1
+	}
+	for j := i + 1; j < len(text); j++ {
+		switch {
+		case q == '"' && text[j] == '\\':
+			j++
+		case text[j] == q, text[j] == '\n':
+			return j
+		}
+	}
+	return len(text) - 1
 }

@@ -53,26 +53,37 @@ func (c *checker) file(raw map[string]any) *File {
 	top := c.newTable("", raw, topKeys()...)
 	f := &File{}
 	f.Airframe, _ = top.ident("airframe", "the airframe name")
-	f.Description, _ = top.str("description", false, "", "free text")
+	if d, ok := top.str("description", false, "", "free text"); ok {
+		if msg := textProblem(d); msg != "" {
+			c.fail("description", d, "%s", msg)
+		}
+		f.Description = d
+	}
 
 	loopHz, loopOK := top.number("loop_hz", numRule{
 		desc: fmt.Sprintf("> 0 and ≤ %.0f", maxLoopHz), unit: "Hz",
 		ok: func(x float64) bool { return x > 0 && x <= maxLoopHz },
 	}, true, 0)
-	delay, _ := top.integer("compute_delay", 0, maxComputeDelay, "samples", defaultComputeDelay)
+	delay, delayOK := top.integer("compute_delay", 0, maxComputeDelay, "samples", defaultComputeDelay)
 	f.Loop = Loop{Hz: loopHz, ComputeDelay: int(delay)}
 
-	f.Numeric = c.numeric(top)
+	var numOK bool
+	f.Numeric, numOK = c.numeric(top)
 
 	if !loopOK {
 		loopHz = 0 // checks against the loop rate are skipped
 	}
+	lp := loopInfo{hz: loopHz, hzOK: loopOK, computeDelay: int(delay), cdOK: delayOK, numeric: f.Numeric, numOK: numOK}
 	axes := top.subtable("axes", true, "one [axes.NAME] table per axis")
 	if axes == nil {
 		return f
 	}
 	if len(axes) == 0 {
 		c.fail("axes", nil, "at least one axis required: an [axes.NAME] table with plant and spec")
+		return f
+	}
+	if len(axes) > MaxAxes {
+		c.fail("axes", nil, "%d axes: at most %d per file (they are designed and held together); split the file", len(axes), MaxAxes)
 		return f
 	}
 	for _, name := range sortedKeys(axes) { // sorted: File.Axes is in name order
@@ -85,17 +96,21 @@ func (c *checker) file(raw map[string]any) *File {
 			c.fail(key, axes[name], "must be a table [axes.NAME] with plant and spec, not %s", kind(axes[name]))
 			continue
 		}
-		f.Axes = append(f.Axes, c.axis(name, key, m, loopHz, f.Numeric))
+		f.Axes = append(f.Axes, c.axis(name, key, m, lp))
 	}
 	return f
 }
 
-// numeric checks [numeric].
-func (c *checker) numeric(top *table) Numeric {
+// numeric checks [numeric]; the bool reports whether the type is valid
+// (given or defaulted).
+func (c *checker) numeric(top *table) (Numeric, bool) {
 	n := Numeric{Type: defaultNumericType, InputFullScale: defaultFullScale, OutputFullScale: defaultFullScale}
+	if _, given := top.m["numeric"]; !given {
+		return n, true
+	}
 	m := top.subtable("numeric", false, "type, input_full_scale, output_full_scale")
 	if m == nil {
-		return n
+		return n, false
 	}
 	t := c.newTable("numeric", m, numericKeys()...)
 	typ, ok := t.enum("type", string(defaultNumericType),
@@ -117,46 +132,58 @@ func (c *checker) numeric(top *table) Numeric {
 	out := numRule{desc: "> 0", unit: "command units, the largest |command|", ok: isPositive}
 	n.InputFullScale, _ = t.number("input_full_scale", in, false, defaultFullScale)
 	n.OutputFullScale, _ = t.number("output_full_scale", out, false, defaultFullScale)
-	return n
+	return n, ok
 }
 
-// axis checks [axes.NAME]; loopHz is 0 when loop_hz is invalid, and num
-// is the decoded [numeric] (a full scale is 0 when absent or invalid).
+// axis checks [axes.NAME] against the top level lp (lp.hz is 0 when
+// loop_hz is invalid; a full scale of lp.numeric is 0 when absent or
+// invalid).
 //
 // The control table is read before the spec, whose disturbance step is
 // bounded by the output limit; the plant before the envelope, whose added
 // delay is bounded by the plant's. A bound whose key is itself invalid is
 // not applied, so that one mistake is reported once.
-func (c *checker) axis(name, key string, m map[string]any, loopHz float64, num Numeric) Axis {
+func (c *checker) axis(name, key string, m map[string]any, lp loopInfo) Axis {
 	t := c.newTable(key, m, axisKeys()...)
 	p := Axis{Name: name, Sensor: idealSensor(), Envelope: defaultEnvelope()}
-	delayOK := false
+	ok := axisOK{sensor: true, delayAdd: true}
 	if pm := t.subtable("plant", true, "gain/poles/zeros or effectiveness/motor_tau, and delay"); pm != nil {
-		p.Plant, delayOK = c.plant(c.newTable(t.sub("plant"), pm, plantKeys()...))
+		p.Plant, ok.model, ok.delay = c.plant(c.newTable(t.sub("plant"), pm, plantKeys()...))
 	}
-	if sm := t.subtable("sensor", false, "lowpass_hz, or gain/poles/zeros"); sm != nil {
-		p.Sensor = c.sensor(c.newTable(t.sub("sensor"), sm, sensorKeys()...))
+	if _, given := t.m["sensor"]; given {
+		ok.sensor = false
+		if sm := t.subtable("sensor", false, "lowpass_hz, or gain/poles/zeros"); sm != nil {
+			p.Sensor, ok.sensor = c.sensor(c.newTable(t.sub("sensor"), sm, sensorKeys()...))
+		}
 	}
 	cm := t.subtable("control", false, "form, limits, ...")
 	if cm == nil {
 		cm = map[string]any{} // absent (or not a table, reported): all defaults
 	}
-	var limOK bool
-	p.Ctrl, limOK = c.control(c.newTable(t.sub("control"), cm, controlKeys()...), loopHz)
+	p.Ctrl, ok.limit, ok.ilim = c.control(c.newTable(t.sub("control"), cm, controlKeys()...), lp.hz)
+	specOK := false
 	if sm := t.subtable("spec", true, "settling_time, overshoot, ..."); sm != nil {
-		lim := specLimits{outputLimit: p.Ctrl.OutputLimit, outputLimitOK: limOK, inputFullScale: num.InputFullScale}
-		p.Spec = c.spec(c.newTable(t.sub("spec"), sm, specKeys()...), lim)
+		lim := specLimits{outputLimit: p.Ctrl.OutputLimit, outputLimitOK: ok.limit, inputFullScale: lp.numeric.InputFullScale}
+		p.Spec, ok.settling, ok.recovery, ok.steady = c.spec(c.newTable(t.sub("spec"), sm, specKeys()...), lim)
+		specOK = true
 	}
-	if em := t.subtable("envelope", false, "gain_scale, lag_scale, delay_add"); em != nil {
-		p.Envelope = c.envelope(c.newTable(t.sub("envelope"), em, envelopeKeys()...), p.Plant.Delay, delayOK)
+	if _, given := t.m["envelope"]; given {
+		ok.delayAdd = false
+		if em := t.subtable("envelope", false, "gain_scale, lag_scale, delay_add"); em != nil {
+			p.Envelope, ok.delayAdd = c.envelope(c.newTable(t.sub("envelope"), em, envelopeKeys()...), p.Plant.Delay, ok.delay)
+		}
 	}
+	if !specOK {
+		ok.settling, ok.recovery, ok.steady = false, false, false
+	}
+	c.axisLimits(key, p, ok, t, lp)
 	return p
 }
 
 // plant checks [axes.NAME.plant]: either the zpk form or the physical form.
-// The bool reports whether the delay is valid (given or defaulted), for the
-// envelope's bound on the added delay.
-func (c *checker) plant(t *table) (Plant, bool) {
+// The bools report whether the model is valid, and whether the delay is
+// valid (given or defaulted), for the envelope's bound on the added delay.
+func (c *checker) plant(t *table) (Plant, bool, bool) {
 	pl := Plant{Delay: defaultPlantDelay}
 	zpk, phys := t.present(zpkKeys()...), t.present(physKeys()...)
 	both := len(zpk) > 0 && len(phys) > 0
@@ -170,19 +197,33 @@ func (c *checker) plant(t *table) (Plant, bool) {
 	// With both forms given, still check each value, but do not ask for
 	// the missing keys of either form.
 	required := !both
+	modelOK := false
 	if len(zpk) > 0 {
-		pl.Model, _ = c.zpk(t, required, true)
+		pl.Model, modelOK = c.zpk(t, required, true, MaxPlantPoles)
 	}
 	if len(phys) > 0 {
 		eff, okE := t.number("effectiveness", numRule{desc: "> 0", unit: "rad/s² per unit command", ok: isPositive}, required, 0)
 		tau, okT := t.number("motor_tau", numRule{desc: "> 0", unit: "s", ok: isPositive}, required, 0)
-		if okE && okT && !both {
+		if okT && t.has("motor_tau") {
+			// The motor's pole is −1/motor_tau.
+			if msg := rootProblem(complex(-1/tau, 0)); msg != "" {
+				c.fail(t.sub("motor_tau"), t.m["motor_tau"], "the motor's pole −1/motor_tau: %s", msg)
+				okT = false
+			}
+		}
+		modelOK = okE && okT && t.has("effectiveness") && t.has("motor_tau")
+		if modelOK && !both {
 			pl.Model = physicalModel(eff, tau)
 		}
 	}
+	modelOK = modelOK && !both
 	var delayOK bool
 	pl.Delay, delayOK = t.number("delay", delayRule(), false, defaultPlantDelay)
-	return pl, delayOK
+	if delayOK && pl.Delay > 0 && pl.Delay < minDelay {
+		c.fail(t.sub("delay"), t.m["delay"], "a delay below %g s is no delay at any loop rate (loop_hz ≤ %g): write 0", minDelay, maxLoopHz)
+		delayOK = false
+	}
+	return pl, modelOK, delayOK
 }
 
 // physicalModel is the plant of the physical form: the command sets the
@@ -202,8 +243,8 @@ func physicalModel(effectiveness, motorTau float64) lti.ZPK {
 }
 
 // zpk checks gain, poles and zeros of t. polesRequired is false for a
-// sensor, which may be a pure gain.
-func (c *checker) zpk(t *table, required, polesRequired bool) (lti.ZPK, bool) {
+// sensor, which may be a pure gain; maxPoles bounds the order.
+func (c *checker) zpk(t *table, required, polesRequired bool, maxPoles int) (lti.ZPK, bool) {
 	var z lti.ZPK
 	gain, okG := t.number("gain", numRule{desc: "≠ 0", ok: isNonZero}, required, 0)
 	z.Gain = gain
@@ -220,6 +261,27 @@ func (c *checker) zpk(t *table, required, polesRequired bool) (lti.ZPK, bool) {
 		z.Zeros, okZ = t.roots("zeros")
 	} else {
 		z.Zeros = defaultZeros()
+	}
+	for _, k := range []string{"poles", "zeros"} {
+		roots, good := z.Poles, &okP
+		if k == "zeros" {
+			roots, good = z.Zeros, &okZ
+		}
+		if !*good {
+			continue
+		}
+		for i, r := range roots {
+			if msg := rootProblem(r); msg != "" {
+				idx := rootIndex(t.m[k], i)
+				c.fail(fmt.Sprintf("%s[%d]", t.sub(k), idx), elementAt(t.m[k], idx), "%s", msg)
+				*good = false
+				break
+			}
+		}
+	}
+	if okP && len(z.Poles) > maxPoles {
+		c.fail(t.sub("poles"), valueOrNil(t.m["poles"]), "%s (a pair counts as 2): at most %d; a rate loop's model needs a few, and the design's cost grows with the order", count(len(z.Poles), "pole"), maxPoles)
+		okP = false
 	}
 	if okP && okZ && len(z.Zeros) > len(z.Poles) {
 		c.fail(t.sub("zeros"), valueOrNil(t.m["zeros"]),
@@ -239,30 +301,36 @@ func count(n int, noun string) string {
 }
 
 // sensor checks [axes.NAME.sensor]: a first-order lowpass or a zpk model.
-func (c *checker) sensor(t *table) lti.ZPK {
+// The bool reports whether it is valid.
+func (c *checker) sensor(t *table) (lti.ZPK, bool) {
 	zpk := t.present(zpkKeys()...)
 	switch {
 	case len(t.m) == 0:
 		c.fail(t.key, nil, "empty table: give lowpass_hz or gain/poles/zeros, or omit [sensor] for an ideal sensor")
-		return idealSensor()
+		return idealSensor(), false
 	case t.has("lowpass_hz") && len(zpk) > 0:
 		c.fail(t.key, nil, "both lowpass_hz and the zpk form (%s) are given: use one", strings.Join(zpk, ", "))
 		t.number("lowpass_hz", numRule{desc: "> 0", unit: "Hz", ok: isPositive}, false, 0)
-		c.zpk(t, false, false)
-		return idealSensor()
+		c.zpk(t, false, false, MaxSensorPoles)
+		return idealSensor(), false
 	case t.has("lowpass_hz"):
 		f, ok := t.number("lowpass_hz", numRule{desc: "> 0", unit: "Hz", ok: isPositive}, true, 0)
 		if !ok {
-			return idealSensor()
+			return idealSensor(), false
 		}
-		return lowpassModel(f)
+		m := lowpassModel(f)
+		if msg := rootProblem(m.Poles[0]); msg != "" {
+			c.fail(t.sub("lowpass_hz"), t.m["lowpass_hz"], "the lowpass pole −2π·lowpass_hz: %s", msg)
+			return idealSensor(), false
+		}
+		return m, true
 	case len(zpk) == 0:
 		// Only unknown keys, already reported.
-		return idealSensor()
+		return idealSensor(), false
 	}
-	z, ok := c.zpk(t, true, false)
+	z, ok := c.zpk(t, true, false, MaxSensorPoles)
 	if !ok {
-		return idealSensor()
+		return idealSensor(), false
 	}
 	// A sensor is outside the loop: an unstable or marginal pole makes the
 	// measurement drift without bound whatever the controller does.
@@ -281,9 +349,9 @@ func (c *checker) sensor(t *table) lti.ZPK {
 		}
 	}
 	if !stable {
-		return idealSensor()
+		return idealSensor(), false
 	}
-	return z
+	return z, true
 }
 
 // lowpassModel is the first-order sensor lowpass with corner f (Hz) and
@@ -332,10 +400,11 @@ type specLimits struct {
 	inputFullScale float64
 }
 
-// spec checks [axes.NAME.spec].
-func (c *checker) spec(t *table, lim specLimits) Spec {
-	var s Spec
-	s.SettlingTime, _ = t.number("settling_time", numRule{desc: "> 0", unit: "s", ok: isPositive}, true, 0)
+// spec checks [axes.NAME.spec]. The bools report whether settling_time,
+// disturbance_recovery and max_steady_error are valid (given or
+// defaulted), for the checks across keys.
+func (c *checker) spec(t *table, lim specLimits) (s Spec, settlingOK, recoveryOK, steadyOK bool) {
+	s.SettlingTime, settlingOK = t.number("settling_time", numRule{desc: "> 0", unit: "s", ok: isPositive}, true, 0)
 	s.Band, _ = t.number("settling_band", numRule{
 		desc: fmt.Sprintf("in (0, %g]", maxSettlingBand), unit: "fraction of the final value; usually 0.02 or 0.05",
 		ok: func(x float64) bool { return x > 0 && x <= maxSettlingBand },
@@ -353,7 +422,7 @@ func (c *checker) spec(t *table, lim specLimits) Spec {
 		desc: fmt.Sprintf("in (1, %g]", maxSensitivityBound), unit: "Ms = max |1/(1 + L)|; usually 1.2 to 2",
 		ok: func(x float64) bool { return x > 1 && x <= maxSensitivityBound },
 	}, false, defaultMaxSensitivity)
-	s.MaxSteadyError, _ = t.number("max_steady_error", numRule{
+	s.MaxSteadyError, steadyOK = t.number("max_steady_error", numRule{
 		desc: "in (0, 1)", unit: "fraction of the setpoint",
 		ok: func(x float64) bool { return x > 0 && x < 1 },
 	}, false, defaultMaxSteadyError(s.Band))
@@ -376,26 +445,27 @@ func (c *checker) spec(t *table, lim specLimits) Spec {
 		}
 	}
 	s.DisturbanceStep, _ = t.number("disturbance_step", stepRule, false, defaultDisturbanceStep(lim.outputLimit))
-	s.DisturbanceRecovery, _ = t.number("disturbance_recovery", numRule{
+	s.DisturbanceRecovery, recoveryOK = t.number("disturbance_recovery", numRule{
 		desc: "> 0", unit: "s; omit the key for no check", ok: isPositive,
 	}, false, defaultDisturbanceRecovery)
 	s.MaxNoiseGain, _ = t.number("max_noise_gain", numRule{
 		desc: "> 0", unit: "command units per rad/s; omit the key for the design's default", ok: isPositive,
 	}, false, defaultMaxNoiseGain)
-	return s
+	return s, settlingOK, recoveryOK, steadyOK
 }
 
 // envelope checks [axes.NAME.envelope]; each absent key keeps its
 // default. delay is the plant's transport delay, which bounds delay_add
-// when delayOK.
-func (c *checker) envelope(t *table, delay float64, delayOK bool) Envelope {
+// when delayOK. The bool reports whether delay_add is valid (given or
+// defaulted).
+func (c *checker) envelope(t *table, delay float64, delayOK bool) (Envelope, bool) {
 	e := defaultEnvelope()
 	scale := func(what string) intervalRule {
 		return intervalRule{
-			desc: fmt.Sprintf("0 < low ≤ 1 ≤ high ≤ %g", maxEnvelopeScale),
+			desc: fmt.Sprintf("%g ≤ low ≤ 1 ≤ high ≤ %g", 1/maxEnvelopeScale, maxEnvelopeScale),
 			unit: "factors on " + what,
 			ok: func(lo, hi float64) bool {
-				return lo > 0 && lo <= 1 && hi >= 1 && hi <= maxEnvelopeScale
+				return lo >= 1/maxEnvelopeScale && lo <= 1 && hi >= 1 && hi <= maxEnvelopeScale
 			},
 		}
 	}
@@ -409,12 +479,14 @@ func (c *checker) envelope(t *table, delay float64, delayOK bool) Envelope {
 			e.LagScale = v
 		}
 	}
+	addOK := true
 	if t.has("delay_add") {
-		if v, ok := c.interval(t.sub("delay_add"), t.m["delay_add"], delayAddRule(delay, delayOK)); ok {
+		var v [2]float64
+		if v, addOK = c.interval(t.sub("delay_add"), t.m["delay_add"], delayAddRule(delay, delayOK)); addOK {
 			e.DelayAdd = v
 		}
 	}
-	return e
+	return e, addOK
 }
 
 // delayAddRule is the rule of envelope.delay_add: the added delay may
@@ -438,14 +510,14 @@ func delayAddRule(delay float64, delayOK bool) intervalRule {
 }
 
 // control checks [axes.NAME.control]; loopHz is 0 when loop_hz is
-// invalid, which skips the checks against it. The bool reports whether
+// invalid, which skips the checks against it. The bools report whether
 // the output limit is valid (given or defaulted), for the checks of the
-// spec against it.
+// spec against it, and whether the integrator limit is.
 //
 // Keys that have no effect on the chosen form are errors rather than
 // silently ignored: a third_pole on a PI or a lead_zero on a PID is almost
 // certainly a form that was meant to be different.
-func (c *checker) control(t *table, loopHz float64) (Control, bool) {
+func (c *checker) control(t *table, loopHz float64) (Control, bool, bool) {
 	ctl := Control{
 		Form:              defaultForm,
 		Refine:            defaultRefine,
@@ -485,7 +557,12 @@ func (c *checker) control(t *table, loopHz float64) (Control, bool) {
 
 	leadRule := numRule{desc: "< 0", unit: "rad/s", ok: func(x float64) bool { return x < 0 }}
 	if only("lead_zero", ctl.Form == FormLead, `form = "lead"`) {
-		lz, _ := t.number("lead_zero", leadRule, formOK && ctl.Form == FormLead, 0)
+		lz, ok := t.number("lead_zero", leadRule, formOK && ctl.Form == FormLead, 0)
+		if ok && t.has("lead_zero") {
+			if msg := rootProblem(complex(lz, 0)); msg != "" {
+				c.fail(t.sub("lead_zero"), t.m["lead_zero"], "%s", msg)
+			}
+		}
 		if ctl.Form == FormLead {
 			ctl.LeadZero = lz
 		}
@@ -499,7 +576,12 @@ func (c *checker) control(t *table, loopHz float64) (Control, bool) {
 			rule = numRule{desc: fmt.Sprintf("> 0 and below Nyquist (loop_hz/2 = %g)", nyq), unit: "Hz",
 				ok: func(x float64) bool { return x > 0 && x < nyq }}
 		}
-		fd, _ := t.number("derivative_lowpass_hz", rule, false, defaultDerivativeLowpassHz(loopHz))
+		fd, ok := t.number("derivative_lowpass_hz", rule, false, defaultDerivativeLowpassHz(loopHz))
+		if ok && t.has("derivative_lowpass_hz") {
+			if msg := rootProblem(complex(-2*math.Pi*fd, 0)); msg != "" {
+				c.fail(t.sub("derivative_lowpass_hz"), t.m["derivative_lowpass_hz"], "the filter's pole −2π·derivative_lowpass_hz: %s", msg)
+			}
+		}
 		if hasD {
 			ctl.DerivativeLowpassHz = fd
 		}
@@ -524,11 +606,16 @@ func (c *checker) control(t *table, loopHz float64) (Control, bool) {
 	}
 
 	hasI := ctl.Form.HasIntegral()
+	ilimOK := false
 	if only("integrator_limit", hasI, `forms with an integral ("pi", "pid")`) {
-		il, _ := t.number("integrator_limit", numRule{desc: "> 0", unit: "command units", ok: isPositive}, false, 0)
+		il, ok := t.number("integrator_limit", numRule{desc: "> 0", unit: "command units", ok: isPositive}, false, 0)
 		if hasI {
-			if !t.has("integrator_limit") && limOK {
-				il = defaultIntegratorLimit(ctl.OutputLimit)
+			ilimOK = ok
+			if !t.has("integrator_limit") {
+				ilimOK = limOK
+				if limOK {
+					il = defaultIntegratorLimit(ctl.OutputLimit)
+				}
 			}
 			ctl.IntegratorLimit = il
 		}
@@ -547,7 +634,7 @@ func (c *checker) control(t *table, loopHz float64) (Control, bool) {
 	if d, ok := t.enum("discretize", defaultDiscretize, "tustin", "tustin_prewarp", "backward", "forward"); ok {
 		ctl.Discretize = d
 	}
-	return ctl, limOK
+	return ctl, limOK, ilimOK
 }
 
 // outputLimit checks output_limit = [low, high].

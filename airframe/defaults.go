@@ -221,6 +221,62 @@ func defaultEnvelope() Envelope {
 // to read at most MaxFileBytes+1 bytes to know that a file is too long.
 const MaxFileBytes = 1 << 20
 
+// Bounds on the work one file can ask for. Each is far above what any
+// vehicle needs and keeps the cost of a file, in time and memory, bounded
+// whatever it says (README, "Limits").
+const (
+	// MaxAxes is the most [axes.NAME] tables of a file: a multirotor has
+	// three rate loops, a gimbal two or three, a manipulator a joint
+	// each; 64 leaves room for any of them. The design's time and
+	// memory grow with the axes of a file, which are designed and held
+	// together.
+	MaxAxes = 64
+
+	// maxKeysPerAxis is the number of keys the schema allows in one
+	// [axes.NAME] table and its tables (plant 6, sensor 4, spec 11,
+	// control 12, envelope 3, and the 5 tables themselves), rounded up.
+	maxKeysPerAxis = 48
+
+	// MaxKeys bounds the keys and table headers of a file, counted
+	// before the TOML decoder runs: the decoder compares each key with
+	// every key of its table, so a megabyte of keys (137 000 of them)
+	// takes it half a minute; a valid file has at most MaxAxes axes of
+	// maxKeysPerAxis keys and a few top-level ones.
+	MaxKeys = MaxAxes*maxKeysPerAxis + 64
+
+	// MaxErrors is the most problems listed per file; the rest are
+	// counted. An author fixes the first few and runs again.
+	MaxErrors = 100
+
+	// MaxDelaySamples bounds the delay of the sampled loop in samples,
+	// compute_delay + (plant.delay + the high end of envelope.delay_add)
+	// · loop_hz: the closed loop carries one state per sample of delay,
+	// and its final verification (eigenvalues of the closed-loop matrix)
+	// costs the cube of the states. At the limit the slowest valid axis
+	// designs in about 2 s on the project's two-core machine (README,
+	// "Limits", with the measurement). A rate loop's delay is a few
+	// samples: 2-5 ms at 1-8 kHz is 2-40.
+	MaxDelaySamples = 256
+
+	// MaxHorizonSamples bounds the step responses the design simulates,
+	// 8 · settling_time · loop_hz samples (and 8 · disturbance_recovery ·
+	// loop_hz for the load step): the search simulates every candidate
+	// controller at every plant of the envelope over that horizon, so its
+	// cost grows with it. At the limit the slowest valid axis designs in
+	// about 2 s (README, "Limits"). A rate loop settles in tens to
+	// hundreds of milliseconds: 0.15 s at 1 kHz is 1200 samples, 0.3 s at
+	// 8 kHz 19 200.
+	MaxHorizonSamples = 20000
+
+	// MaxPlantPoles and MaxSensorPoles bound the order of the models (a
+	// complex pair counts as 2): a rate loop's plant is a motor lag and an
+	// integrator, with a structural mode or two; a gyro model a lowpass
+	// or two. The cost of every closed-loop evaluation grows with the
+	// order.
+	MaxPlantPoles  = 12
+	MaxSensorPoles = 6
+)
+
 // Sanity limits. Values beyond these are almost certainly typing errors (a
 // missing decimal point, milliseconds written as seconds).
 const (
@@ -250,10 +306,16 @@ const (
 	maxSensitivityBound = 4.0
 
 	// maxEnvelopeScale bounds the high end of envelope.gain_scale and
-	// lag_scale: a factor of ten on the effectiveness or the motor lag is
-	// a different vehicle, not a tolerance, and 110 for 1.1 is a
-	// percentage typed as a factor.
+	// lag_scale, and its inverse the low end: a factor of ten on the
+	// effectiveness or the motor lag, up or down, is a different vehicle,
+	// not a tolerance, and 110 for 1.1 is a percentage typed as a factor.
 	maxEnvelopeScale = 10.0
+
+	// minDelay is the shortest nonzero transport delay, s: a thousandth
+	// of the shortest sample period (loop_hz ≤ maxLoopHz), below which a
+	// delay is rounding, and the arithmetic of its fraction of a sample
+	// underflows.
+	minDelay = 1e-9
 
 	// maxPhaseMargin is the exclusive upper bound of min_phase_margin in
 	// degrees: a loop with a phase margin of 90° or more is not a

@@ -2,6 +2,7 @@ package airframe
 
 import (
 	"math/cmplx"
+	"strings"
 	"testing"
 
 	"github.com/google/go-cmp/cmp"
@@ -28,8 +29,9 @@ func TestEnvelopeDecode(t *testing.T) {
 			Envelope{GainScale: [2]float64{1, 1}, LagScale: [2]float64{1, 1}}},
 		{"the edges of the scales", withEnvelope("gain_scale = [0.1, 10]\nlag_scale = [1, 10.0]"),
 			Envelope{GainScale: [2]float64{0.1, 10}, LagScale: [2]float64{1, 10}}},
+		// At 500 Hz, so that 0.5 s is 250 samples, within MaxDelaySamples.
 		{"delay_add up to zero and to 0.5 s in all",
-			delayed + "\n[axes.roll.envelope]\ndelay_add = [-0.002, 0.498]\n",
+			strings.Replace(delayed, "loop_hz = 1000", "loop_hz = 500", 1) + "\n[axes.roll.envelope]\ndelay_add = [-0.002, 0.498]\n",
 			Envelope{GainScale: def.GainScale, LagScale: def.LagScale, DelayAdd: [2]float64{-0.002, 0.498}}},
 		{"delay_add on a plant without delay", withEnvelope("delay_add = [0, 0.005]"),
 			Envelope{GainScale: def.GainScale, LagScale: def.LagScale, DelayAdd: [2]float64{0, 0.005}}},

@@ -65,12 +65,13 @@ func (e *Errors) Unwrap() []error {
 }
 
 // displayPath names the input in messages; an empty path would make the
-// message start with a bare colon.
+// message start with a bare colon, and a path with control or
+// bidirectional characters is quoted (SafeText).
 func displayPath(p string) string {
 	if p == "" {
 		return "(input)"
 	}
-	return p
+	return SafeText(p)
 }
 
 // compareKeys orders dotted key paths segment by segment, comparing runs

@@ -16,10 +16,20 @@ import (
 type checker struct {
 	path string
 	errs []*FieldError
+	// dropped counts the problems found beyond MaxErrors, which are
+	// counted but not kept (Parse reports how many).
+	dropped int
 }
 
 // fail records a problem at key with the offending value v (nil: none).
+// Beyond MaxErrors problems it only counts them: a file with thousands of
+// mistakes is the wrong file, and listing them all costs time and memory
+// for nothing.
 func (c *checker) fail(key string, v any, format string, args ...any) {
+	if len(c.errs) >= MaxErrors {
+		c.dropped++
+		return
+	}
 	fe := &FieldError{Path: c.path, Key: key, Msg: fmt.Sprintf(format, args...)}
 	if v != nil {
 		fe.Value = formatValue(v)

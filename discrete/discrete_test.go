@@ -527,7 +527,7 @@ func TestMixerSaturationBoundsWindup(t *testing.T) {
 			u := Step(&prm, &st, 300, ym)
 			ua := math.Max(-0.3, math.Min(0.3, u)) // the mixer clips
 			if report {
-				Applied(&st, ua)
+				Applied(&prm, &st, ua)
 			}
 			ipk = math.Max(ipk, st.S) // windup is in the direction of the error (+)
 			return ua

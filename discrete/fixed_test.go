@@ -559,7 +559,7 @@ func TestResetAndAppliedMirrorModel(t *testing.T) {
 			}
 			// Each model is told its own command as the mixer clips it.
 			f.Applied(&s, int32(Clamp(int64(u), int64(-clip*lsb), int64(clip*lsb))))
-			Applied(&st, math.Max(-clip, math.Min(uf, clip)))
+			Applied(&prm, &st, math.Max(-clip, math.Min(uf, clip)))
 		}
 		// Reset rounds the two proportional products into FU: 2^−FU more.
 		if bnd := roundingBound(f, 100) + math.Ldexp(1, -f.FU); worst > bnd {

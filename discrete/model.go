@@ -28,18 +28,35 @@ func ParamsOf[T Float](k Coeffs) Params[T] {
 	}
 }
 
-// State is the controller's memory between samples. The integrator update
-// of a sample waits for the command actually applied (Applied), and is
-// done at the start of the next Step.
+// State is the controller's memory between samples. Step updates every
+// state at once (eagerly), the integrator from the command it returns;
+// Applied corrects the integrator when a mixer changed that command.
+//
+// Which fields a form uses (the emitted code declares only these): S for
+// pi, pid and lead (the lead's filter state x); Ud and Vp for pd and pid;
+// Inc for conditional integration (AWClamp); Fresh for a derivative on
+// the error; Ua and Faults for every form.
 type State[T Float] struct {
-	S       T    // integrator (lead: the filter state x)
-	Ud      T    // derivative filter output
-	Vp      T    // previous derivative input
-	E       T    // error of the last step
-	Uu      T    // command before saturation, last step
-	Ua      T    // command applied, last step
-	Pending bool // the last step's integrator update is due
-	Fresh   bool // after Reset with the derivative on the error: prime Vp at the next step
+	S      T      // integrator (lead: the filter state x)
+	Ud     T      // derivative filter output
+	Vp     T      // derivative input of the last step
+	Inc    T      // AWClamp: the integrator increment of the last step, 0 when none was taken
+	Ua     T      // the last command: returned by Step, or given to Applied or Reset
+	Faults uint32 // non-finite inputs since Reset, saturating at the largest uint32
+	Fresh  bool   // after Reset with the derivative on the error: prime Vp at the next step
+}
+
+// finite reports whether x is neither NaN nor infinite: x − x is +0 for
+// every finite x and NaN otherwise (IEEE 754: ∞ − ∞ and NaN − NaN are
+// NaN). The emitted code tests its inputs with the same expression, which
+// needs nothing from <math.h>.
+func finite[T Float](x T) bool { return x-x == 0 }
+
+// fault counts one non-finite input, saturating.
+func (s *State[T]) fault() {
+	if s.Faults != ^uint32(0) {
+		s.Faults++
+	}
 }
 
 // Reset makes the transfer bumpless: the next command equals output when
@@ -47,9 +64,17 @@ type State[T Float] struct {
 // current rate). The integrator takes output minus the proportional part
 // at that point, (KpB − Kp)·measured, clamped to the integrator limit; the
 // derivative history takes the measurement, so there is no derivative
-// kick.
+// kick. The command held on a non-finite input is output until the first
+// step. Faults starts at 0; when output or measured is not finite, both
+// are taken as 0 and Faults starts at 1, so that no non-finite value
+// enters the state.
 func Reset[T Float](p *Params[T], s *State[T], output, measured T) {
 	*s = State[T]{}
+	if !(output-output == measured-measured) {
+		output, measured = 0, 0
+		s.Faults = 1
+	}
+	s.Ua = output
 	if p.Form == airframe.FormLead {
 		// ul = B0·e + x, and e = 0 at engagement.
 		s.S = output
@@ -66,8 +91,29 @@ func Reset[T Float](p *Params[T], s *State[T], output, measured T) {
 }
 
 // Applied records the command actually applied downstream (a mixer may
-// clip several axes at once); anti-windup then works from it.
-func Applied[T Float](s *State[T], applied T) {
+// clip several axes at once). With back-calculation the integrator, which
+// Step updated from the command it returned (Ua), is corrected by
+// Kt·(applied − Ua), within its limit; with conditional integration the
+// increment of the last step is withdrawn when the applied command is
+// below the returned one while the integrator rose (or above while it
+// fell). Without anti-windup only the held command changes. A non-finite
+// applied command changes nothing but Faults.
+func Applied[T Float](p *Params[T], s *State[T], applied T) {
+	if !finite(applied) {
+		s.fault()
+		return
+	}
+	if p.Form.HasIntegral() {
+		switch p.AntiWindup {
+		case AWBackcalc:
+			s.S = clamp(s.S+T(p.Kt*(applied-s.Ua)), -p.IL, p.IL)
+		case AWClamp:
+			if applied < s.Ua && s.Inc > 0 || applied > s.Ua && s.Inc < 0 {
+				s.S = clamp(s.S-s.Inc, -p.IL, p.IL)
+				s.Inc = 0
+			}
+		}
+	}
 	s.Ua = applied
 }
 
@@ -86,28 +132,27 @@ func clamp[T Float](x, lo, hi T) T {
 // explicitly so that no compiler fuses it with the following add (Go spec:
 // an explicit conversion rounds and prevents fusion), which keeps the
 // model bit-identical across CPU architectures.
+//
+// A setpoint or measurement that is not finite (NaN, ±Inf) leaves the
+// state untouched: Step counts it in Faults and returns the last command
+// (Ua) again. One bad sample therefore costs one held command, and the
+// samples after it give the commands they would have given without it.
+//
+// Without Applied, the commands are those of the same equations with the
+// integrator update deferred to the next step (the order before the
+// eager update): the same operations on the same values.
 func Step[T Float](p *Params[T], s *State[T], r, y T) T {
+	if !(r-r == y-y) {
+		s.fault()
+		return s.Ua
+	}
 	if p.Form == airframe.FormLead {
-		if s.Pending {
-			s.S = T(p.B1*s.E) - T(p.A1*s.Uu)
-		}
 		e := r - y
 		ul := T(p.B0*e) + s.S
 		u := clamp(ul, p.Lo, p.Hi)
-		s.E, s.Uu, s.Ua, s.Pending = e, ul, u, true
+		s.S = T(p.B1*e) - T(p.A1*ul)
+		s.Ua = u
 		return u
-	}
-	if s.Pending && p.Form.HasIntegral() {
-		inc := T(p.G01 * s.E)
-		switch p.AntiWindup {
-		case AWClamp:
-			if s.Ua < s.Uu && s.E > 0 || s.Ua > s.Uu && s.E < 0 {
-				inc = 0
-			}
-		case AWBackcalc:
-			inc += T(p.Kt * (s.Ua - s.Uu))
-		}
-		s.S = clamp(s.S+inc, -p.IL, p.IL)
 	}
 	e := r - y
 	uu := T(p.KpB*r) - T(p.Kp*y)
@@ -127,6 +172,19 @@ func Step[T Float](p *Params[T], s *State[T], r, y T) T {
 		uu += s.Ud
 	}
 	u := clamp(uu, p.Lo, p.Hi)
-	s.E, s.Uu, s.Ua, s.Pending = e, uu, u, true
+	if p.Form.HasIntegral() {
+		inc := T(p.G01 * e)
+		switch p.AntiWindup {
+		case AWClamp:
+			if u < uu && e > 0 || u > uu && e < 0 {
+				inc = 0 // saturated in the error's direction
+			}
+			s.Inc = inc
+		case AWBackcalc:
+			inc += T(p.Kt * (u - uu))
+		}
+		s.S = clamp(s.S+inc, -p.IL, p.IL)
+	}
+	s.Ua = u
 	return u
 }

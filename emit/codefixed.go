@@ -303,6 +303,11 @@ func (m *fixedModel) applied(a float64) {
 
 func (m *fixedModel) inputLimit() float64 { return m.fin }
 
+// nonFinite is false: raw integers cannot be NaN or infinite.
+func (m *fixedModel) nonFinite() bool { return false }
+
+func (m *fixedModel) faults(string) {}
+
 // fixedVectors runs the bit-exact integer model on the standard
 // excitation.
 func fixedVectors(u *codeUnit, ax *codeAxis, d *discrete.Design) ([]codeVector, error) {

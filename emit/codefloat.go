@@ -3,6 +3,7 @@ package emit
 import (
 	"fmt"
 	"math"
+	"strconv"
 
 	"locusmith/airframe"
 	"locusmith/discrete"
@@ -166,6 +167,9 @@ type floatModel[T discrete.Float] struct {
 }
 
 func (m *floatModel[T]) lit(x T) string {
+	if !(x-x == 0) {
+		return nonFiniteLit(m.u, float64(x))
+	}
 	s, err := floatLit(m.u, x)
 	if err != nil && m.err == nil {
 		m.err = err
@@ -174,8 +178,39 @@ func (m *floatModel[T]) lit(x T) string {
 }
 
 // q rounds an input to the sample type; −0 becomes +0 so that the Go
-// literal (which cannot be −0) carries the same value.
+// literal (which cannot be −0) carries the same value. NaN and the
+// infinities stay what they are.
 func (m *floatModel[T]) q(x float64) T { return T(plusZero(float64(T(x)))) }
+
+// nonFiniteLit is the literal of NaN or an infinity in the unit's
+// language and sample type: C's NAN and INFINITY (<math.h>, C99 7.12),
+// of type float, cast for double; Go's math.NaN and math.Inf, converted
+// for float32. A NaN input's sign and payload do not matter: the
+// controller only tests it and holds its command.
+func nonFiniteLit(u *codeUnit, x float64) string {
+	var name string
+	switch {
+	case math.IsNaN(x):
+		name = map[Lang]string{LangC: "NAN", LangGo: "math.NaN()"}[u.Lang]
+	case x > 0:
+		name = map[Lang]string{LangC: "INFINITY", LangGo: "math.Inf(1)"}[u.Lang]
+	default:
+		name = map[Lang]string{LangC: "INFINITY", LangGo: "math.Inf(-1)"}[u.Lang]
+	}
+	if u.Lang == LangC {
+		if u.Bits == 64 {
+			name = "(double)" + name
+		}
+		if x < 0 {
+			name = "(-" + name + ")"
+		}
+		return name
+	}
+	if u.Bits == 32 {
+		return "float32(" + name + ")"
+	}
+	return name
+}
 
 func (m *floatModel[T]) reset(out, meas float64, why string) {
 	o, y := m.q(out), m.q(meas)
@@ -192,11 +227,20 @@ func (m *floatModel[T]) step(r, y float64) float64 {
 
 func (m *floatModel[T]) applied(a float64) {
 	aa := m.q(a)
-	discrete.Applied(&m.s, aa)
+	discrete.Applied(&m.p, &m.s, aa)
 	m.out = append(m.out, codeVector{Op: vecApplied, A: m.lit(aa), B: m.lit(0), Want: "0"})
 }
 
 func (m *floatModel[T]) inputLimit() float64 { return math.Inf(1) }
+
+// nonFinite is true: float inputs can be NaN or infinite, and the
+// excitation includes such inputs.
+func (m *floatModel[T]) nonFinite() bool { return true }
+
+// faults records a check of the model's fault count.
+func (m *floatModel[T]) faults(why string) {
+	m.out = append(m.out, codeVector{Op: vecFaults, A: m.lit(0), B: m.lit(0), Want: strconv.FormatUint(uint64(m.s.Faults), 10), Comment: why})
+}
 
 // floatVectors runs the float reference model (discrete.Step) on the
 // standard excitation.

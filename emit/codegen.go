@@ -190,7 +190,7 @@ func sourceFiles(airframe string, o CodeOptions) []struct{ name, tmpl string } {
 			fs = append(fs, f{airframe + "_rate.c", "code_c_source"})
 		}
 		if o.Vectors {
-			fs = append(fs, f{airframe + "_rate_vectors.c", "code_c_vectors"})
+			fs = append(fs, f{airframe + "_rate_vectors.c", "code_c_vectors"}, f{airframe + "_rate_vectors_qemu.c", "code_c_vectors_qemu"})
 		}
 	case LangGo:
 		fs = append(fs, f{airframe + "rate.go", "code_go"})
@@ -219,6 +219,9 @@ func (g *CodeGenerator) render(u *codeUnit) ([]Source, error) {
 			data = fd
 		}
 		out = append(out, Source{Name: f.name, Data: data})
+	}
+	if u.Lang == LangC {
+		setStamps(u, out)
 	}
 	return out, nil
 }
@@ -252,13 +255,27 @@ type codeUnit struct {
 	// C names: the header file, its include guard, the clamp helper, and
 	// "static inline " for the header-only variant.
 	Header, Guard, Clamp, Linkage string
-	// GoPackage is <airframe>rate.
-	GoPackage string
+	// StampMacro is the C macro of the content stamp (see stamp.go) and
+	// Stamp its value, shared by the header and the source file.
+	StampMacro, Stamp string
+	// NoContract is the macro that opens every float function of the
+	// header-only variant (it turns floating-point contraction off where a
+	// pragma can do so in a function body).
+	NoContract string
+	// QemuSys and QemuHeap are the static names of the qemu-arm start-up
+	// stub of the vector program.
+	QemuSys, QemuHeap string
+	// GoPackage is <airframe>rate with the underscores of the airframe
+	// name dropped (Go package names carry none); MainFile the file that
+	// holds the design summary (the C header or the Go file).
+	GoPackage, MainFile string
 	// FirstLine is the "Code generated" line; Intro the comment lines after
-	// it (without the comment marker, "" for an empty comment line).
-	FirstLine string
-	Intro     []string
-	Axes      []*codeAxis
+	// it (without the comment marker, "" for an empty comment line) in the
+	// file that carries the design summary, IntroShort those of the other
+	// files, which point to it.
+	FirstLine         string
+	Intro, IntroShort []string
+	Axes              []*codeAxis
 }
 
 // codeAxis is one axis.
@@ -269,9 +286,13 @@ type codeAxis struct {
 	GoType string    // Go: the axis name with its first letter upper-cased
 	// Structure of the controller (see discrete.Coeffs).
 	Lead, HasI, HasD, DOnError, AWClamp, AWBackcalc bool
-	// HasE, HasUU and HasPending say which state fields the form uses:
-	// the last error, the last unsaturated command, the pending flag.
-	HasE, HasUU, HasPending bool
+	// HasE, HasUU and HasPending say which state fields the fixed-point
+	// form uses (the last error, the last unsaturated command, the flag of
+	// the deferred update); the float code updates its state eagerly and
+	// has none of them. HasInc (float, conditional integration) is the
+	// increment of the last step, which the applied function may withdraw;
+	// HasFaults (float) the counter of non-finite inputs.
+	HasE, HasUU, HasPending, HasInc, HasFaults bool
 	// Consts are the named constants in declaration order; the fields
 	// below hold the names of those the form uses ("" otherwise).
 	Consts                                   []codeConst
@@ -279,6 +300,7 @@ type codeAxis struct {
 	Lo, Hi, IL                               string
 	Doc                                      []string // comment lines for the type
 	ResetDoc                                 []string // comment lines for the reset function
+	AppliedDoc                               []string // comment lines for the applied function
 	Vectors                                  []codeVector
 	VectorsName                              string
 	Fx                                       *codeFixed // fixed-point details; nil for float
@@ -293,9 +315,10 @@ type codeConst struct {
 
 // codeVector is one entry of a test-vector table: Op 0 steps with
 // setpoint A and measurement B and expects Want; Op 1 calls _applied with
-// A; Op 2 calls _reset with output A and measurement B. A and B are
-// literals of the sample type; Want is the expected output's bit pattern
-// (floats) or value (fixed point).
+// A; Op 2 calls _reset with output A and measurement B; Op 3 (float)
+// checks that the fault count is Want. A and B are literals of the sample
+// type; Want is the expected output's bit pattern (floats) or value
+// (fixed point), or the fault count.
 type codeVector struct {
 	Op      int
 	A, B    string
@@ -308,6 +331,7 @@ const (
 	vecStep    = 0
 	vecApplied = 1
 	vecReset   = 2
+	vecFaults  = 3
 )
 
 // newCodeUnit builds the template data of airframe a.
@@ -354,7 +378,15 @@ func newCodeUnit(a *discrete.Airframe, o CodeOptions) (*codeUnit, error) {
 	if o.HeaderOnly {
 		u.Linkage = "static inline "
 	}
-	u.GoPackage = f.Airframe + "rate"
+	u.StampMacro = strings.ToUpper(f.Airframe) + "_RATE_STAMP"
+	u.Stamp = stampZero
+	u.NoContract = strings.ToUpper(f.Airframe) + "_RATE_NO_CONTRACT"
+	u.QemuSys, u.QemuHeap = f.Airframe+"_qemu_syscall", f.Airframe+"_qemu_heap"
+	u.GoPackage = strings.ReplaceAll(f.Airframe, "_", "") + "rate"
+	u.MainFile = u.Header
+	if o.Lang == LangGo {
+		u.MainFile = f.Airframe + "rate.go"
+	}
 	num, err := newCodeNumeric(u.Numeric, o.Lang)
 	if err != nil {
 		return nil, err
@@ -381,6 +413,7 @@ func newCodeUnit(a *discrete.Airframe, o CodeOptions) (*codeUnit, error) {
 	}
 	u.FirstLine = fmt.Sprintf("// Code generated by locusmith %s from %s; DO NOT EDIT.", version.Version, displayPath(f.Path))
 	u.Intro = codeIntro(a, u, unmet)
+	u.IntroShort = codeIntroShort(a, u, unmet)
 	return u, nil
 }
 
@@ -414,15 +447,17 @@ func newCodeAxis(u *codeUnit, num codeNumeric, x discrete.Outcome) (*codeAxis, e
 			return nil, fmt.Errorf("axis %s: unknown anti-windup %q", x.Name, k.AntiWindup)
 		}
 	}
-	ax.HasE = ax.HasI || ax.Lead
-	ax.HasPending = ax.HasE
-	ax.HasUU = ax.Lead || ax.AWClamp || ax.AWBackcalc
-	ax.Doc = axisDoc(u, x)
-	if u.Lang == LangGo {
-		ax.ResetDoc = resetDoc("Reset", ax)
+	if u.Fixed {
+		ax.HasE = ax.HasI || ax.Lead
+		ax.HasPending = ax.HasE
+		ax.HasUU = ax.Lead || ax.AWClamp || ax.AWBackcalc
 	} else {
-		ax.ResetDoc = resetDoc(ax.Prefix+"_reset", ax)
+		ax.HasInc = ax.AWClamp
+		ax.HasFaults = true
 	}
+	ax.Doc = axisDoc(u, x, ax)
+	ax.ResetDoc = resetDoc(u, ax)
+	ax.AppliedDoc = appliedDoc(u, ax)
 	ax.VectorsName = "vectors" + ax.GoType
 	if u.Lang == LangC {
 		ax.VectorsName = ax.Prefix + "_vectors"

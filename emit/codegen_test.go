@@ -92,7 +92,7 @@ func TestGenerateAPIAndHeader(t *testing.T) {
 		"void demo_roll_applied(demo_roll_state *s, float applied);",
 		"#define DEMO_ROLL_KP ", "#define DEMO_ROLL_OUTPUT_HI ", "#define DEMO_X_1_INTEGRATOR_LIMIT ",
 		"#include <stdint.h>", "#ifndef DEMO_RATE_H", `extern "C"`,
-		"Input SHA-256: " + a.File.SHA256, "CAUTION",
+		"Input SHA-256: " + a.File.CanonicalSHA256(), "CAUTION",
 	} {
 		if !strings.Contains(h, want) {
 			t.Errorf("header lacks %q", want)
@@ -250,6 +250,22 @@ func TestCheckNames(t *testing.T) {
 		if (err != nil) != c.bad {
 			t.Errorf("checkNames(%s %v) = %v, want error %v", c.u.Airframe, c.u.Axes[0].Name, err, c.bad)
 		}
+	}
+	// 63 characters is the longest name C99 keeps apart (5.2.4.1): with
+	// a 20-letter airframe, the constant <AIRFRAME>_<AXIS>_INTEGRATOR_LIMIT
+	// of a 25-letter axis is 63 long, of a 26-letter one 64.
+	long := func(n int) *codeUnit {
+		u := mk("q"+strings.Repeat("a", 19), "r"+strings.Repeat("b", n-1))
+		u.Axes[0].Consts = []codeConst{{Name: strings.ToUpper(u.Axes[0].Prefix) + "_INTEGRATOR_LIMIT"}}
+		return u
+	}
+	if _, err := checkNames(long(25)); err != nil {
+		t.Errorf("a 63-character name refused: %v", err)
+	}
+	_, err := checkNames(long(26))
+	var ne *NameError
+	if !errors.As(err, &ne) || !strings.Contains(err.Error(), "64 characters") || !strings.Contains(err.Error(), "63") {
+		t.Errorf("a 64-character name: %v, want a NameError naming the lengths", err)
 	}
 	w, err := checkNames(mk("tornado", "roll"))
 	if err != nil || len(w) != 1 || !strings.Contains(w[0], "7.26") {

@@ -49,7 +49,7 @@ func codeIntro(a *discrete.Airframe, u *codeUnit, unmet []string) []string {
 	}
 	blank := func() { l = append(l, "") }
 	blank()
-	l = append(l, "Input SHA-256: "+commentText(f.SHA256))
+	l = append(l, inputLines(f)...)
 	desc := ""
 	if strings.TrimSpace(f.Description) != "" {
 		desc = ": " + f.Description
@@ -70,18 +70,67 @@ func codeIntro(a *discrete.Airframe, u *codeUnit, unmet []string) []string {
 		axisSummary(add, indent, u, x, u.Axes[i])
 	}
 	blank()
-	add("Per axis: _reset(s, output, measured) before the first step and on every engagement (bumpless: the next command starts from output, the derivative from measured); _step(s, setpoint, measured) once per loop period; _applied(s, command) after the mixer when it changed the command (anti-windup then works from the applied value).")
-	switch {
-	case u.Fixed:
-		add("Integer arithmetic only, bit-exact with locusmith's reference model on every conforming compiler; the test vectors (--vectors) check it.")
-	case u.Lang == LangC:
-		add("Bit-exact with locusmith's reference model when compiled without floating-point contraction (ISO C mode such as -std=c99, or -ffp-contract=off) and with FLT_EVAL_METHOD == 0; the test vectors (--vectors) check it.")
-	default:
-		add("Bit-exact with locusmith's reference model on every architecture: each product is converted explicitly, which rules out fused multiply-add (The Go Programming Language Specification, \"Floating-point operators\"); the test vectors (--vectors) check it.")
+	for _, p := range apiText(u) {
+		add(p)
 	}
 	blank()
 	add("CAUTION: these controllers are computed from a model; model-based results do not replace flight testing. Bench-test with the propellers off, make the first flight tethered, follow local aviation rules, and have the design reviewed by a qualified person before flight.")
 	return l
+}
+
+// inputLines writes the input's hash: of its values, not of its bytes,
+// so that a comment, the layout or the order of keys can change without
+// changing a byte of the generated files (airframe.File.CanonicalSHA256).
+func inputLines(f *airframe.File) []string {
+	l := []string{"Input SHA-256: " + commentText(f.CanonicalSHA256())}
+	return append(l, commentLines("(of the input's values in locusmith's canonical form, so comments, layout and the order of keys do not change it)", introWidth)...)
+}
+
+// codeIntroShort is the comment of the files that do not carry the design
+// summary (the C source, the vector programs, the qemu-arm stub): the
+// input hash, the airframe, and where the summary, the API and the
+// cautions are. An airframe generated with --allow-unmet says so in every
+// file.
+func codeIntroShort(a *discrete.Airframe, u *codeUnit, unmet []string) []string {
+	f := a.File
+	var l []string
+	add := func(s string) { l = append(l, commentLines(s, introWidth)...) }
+	l = append(l, "")
+	l = append(l, inputLines(f)...)
+	add("Airframe " + f.Airframe + ": the design summary, the API and the cautions are in " + u.MainFile + ".")
+	if len(unmet) > 0 {
+		add("WARNING: GENERATED WITH --allow-unmet. THIS AIRFRAME FAILS ITS DESIGN CHECKS (see " + u.MainFile + "). Do not fly this code.")
+	}
+	return l
+}
+
+// apiText is the paragraphs of the header that say how the functions (C)
+// or methods (Go) are called, what a non-finite input does, and what the
+// arithmetic guarantees.
+func apiText(u *codeUnit) []string {
+	var p []string
+	if u.Lang == LangGo {
+		p = append(p, "Per axis: Reset(output, measured) before the first Step and on every engagement (bumpless: the next command starts from output, the derivative from measured); Step(setpoint, measured) once per loop period; Applied(command) after the mixer when it changed the command (the axes with anti-windup correct their integrator from it; see each Applied).")
+	} else {
+		p = append(p, "Per axis: _reset(s, output, measured) before the first step and on every engagement (bumpless: the next command starts from output, the derivative from measured); _step(s, setpoint, measured) once per loop period; _applied(s, command) after the mixer when it changed the command (the axes with anti-windup correct their integrator from it; see each _applied).")
+	}
+	switch {
+	case u.Fixed:
+		p = append(p, "Inputs are raw integers of the data word: they cannot be NaN or infinite, and the arithmetic saturates instead of overflowing, so no input can put the state out of range; there is no fault counter.")
+	case u.Lang == LangGo:
+		p = append(p, "Non-finite inputs: a setpoint or measurement that is NaN or infinite leaves the state untouched; Step returns the last command again (that of the last finite step, or the one given to Applied or Reset) and counts the fault. Applied ignores a non-finite command and counts it; Reset takes a non-finite output or measured as 0 and counts one fault. Faults() returns the count since the last Reset (it stops at the largest uint32): read it to detect a failing sensor or estimator.")
+	default:
+		p = append(p, "Non-finite inputs: a setpoint or measurement that is NaN or infinite leaves the state untouched; _step returns the last command again (that of the last finite step, or the one given to _applied or _reset) and adds one to s->faults, which stops at UINT32_MAX. _applied ignores a non-finite command and counts it; _reset clears s->faults, and takes a non-finite output or measured as 0 and counts one fault. Read s->faults to detect a failing sensor or estimator.")
+	}
+	switch {
+	case u.Fixed:
+		p = append(p, "Integer arithmetic only, bit-exact with locusmith's reference model on every conforming compiler; the test vectors (--vectors) check it.")
+	case u.Lang == LangC:
+		p = append(p, "Bit-exact with locusmith's reference model: the generated code turns floating-point contraction off for its own functions (a pragma for GCC, Clang and ISO C compilers), so a*b + c is never fused into one rounding whatever the -std= or -ffp-contract flags, except Clang's explicit -ffp-contract=fast, which overrides every pragma; it stops the build with #error under -ffast-math or -ffinite-math-only and where FLT_EVAL_METHOD is not 0. The test vectors (--vectors) check it on the target.")
+	default:
+		p = append(p, "Bit-exact with locusmith's reference model on every architecture: each product is converted explicitly, which rules out fused multiply-add (The Go Programming Language Specification, \"Floating-point operators\"); the test vectors (--vectors) check it.")
+	}
+	return p
 }
 
 // numericPhrase names the arithmetic of the generated code.
@@ -170,41 +219,91 @@ func axisSummary(add, indent func(string), u *codeUnit, x discrete.Outcome, ax *
 }
 
 // axisDoc is the comment of an axis's state type.
-func axisDoc(u *codeUnit, x discrete.Outcome) []string {
+func axisDoc(u *codeUnit, x discrete.Outcome, ax *codeAxis) []string {
 	form := map[airframe.Form]string{
 		airframe.FormP: "P", airframe.FormPI: "PI", airframe.FormPD: "PD with filtered derivative",
 		airframe.FormPID: "PID with filtered derivative", airframe.FormLead: "lead compensator",
 	}[x.Design.Coeffs.Form]
-	return commentLines(fmt.Sprintf("State of the %s rate controller of axis %s (%s). Call reset before the first step.", u.Airframe, x.Name, form), introWidth)
+	if u.Lang == LangGo {
+		return commentLines(fmt.Sprintf("%s is the state of the %s rate controller of axis %s (%s). Call Reset before the first Step.", ax.GoType, u.Airframe, x.Name, form), introWidth)
+	}
+	return commentLines(fmt.Sprintf("State of the %s rate controller of axis %s (%s). Call %s_reset before the first step.", u.Airframe, x.Name, form, ax.Prefix), introWidth)
 }
 
 // resetText says what an axis's reset does, for its doc comment.
-func resetText(ax *codeAxis) string {
-	var parts []string
+func resetText(u *codeUnit, ax *codeAxis) string {
+	// unused names the arguments the fixed-point reset of the form does
+	// not read (the float reset reads both: output is the command held
+	// on a non-finite input, and both are checked for being finite).
+	var first, unused string
 	switch {
 	case ax.Lead:
-		return "sets the lead filter state to output, so that the next command is output at zero error (bumpless transfer); measured is not used."
+		first, unused = "sets the lead filter state to output, so that the next command is output at zero error (bumpless transfer)", "measured is not used"
 	case ax.HasI:
-		parts = append(parts, "makes the transfer bumpless: the next command is output when the setpoint equals measured (the integrator takes output minus the proportional part, within its limit)")
+		first = "makes the transfer bumpless: the next command is output when the setpoint equals measured (the integrator takes output minus the proportional part, within its limit)"
+	case ax.HasD:
+		first, unused = "clears the state (the form has no integrator)", "output is not used"
+		if ax.DOnError {
+			unused = "output and measured are not used"
+		}
 	default:
-		parts = append(parts, "clears the state; output is not used (the form has no integrator)")
+		first, unused = "clears the state (a P controller has no memory)", "output and measured are not used"
 	}
+	parts := []string{first}
 	if ax.HasD {
 		if ax.DOnError {
 			parts = append(parts, "the derivative starts from the first step's error, so there is no derivative kick")
 		} else {
 			parts = append(parts, "the derivative starts from measured, so there is no derivative kick")
 		}
-	} else if !ax.HasI {
-		parts[0] = "clears the state; output and measured are not used (a P controller has no memory)"
+	}
+	switch {
+	case ax.HasFaults:
+		parts = append(parts, "output is also the command held on a non-finite input until the first step; the fault count starts at 0, or at 1 when output or measured is not finite, both being then taken as 0")
+	case unused != "":
+		parts = append(parts, unused)
 	}
 	return strings.Join(parts, "; ") + "."
 }
 
-// resetDoc is the doc comment of the reset function of ax, for the
-// function named name.
-func resetDoc(name string, ax *codeAxis) []string {
-	return commentLines(name+" "+resetText(ax), introWidth)
+// resetDoc is the doc comment of the reset function of ax.
+func resetDoc(u *codeUnit, ax *codeAxis) []string {
+	name := ax.Prefix + "_reset"
+	if u.Lang == LangGo {
+		name = "Reset"
+	}
+	return commentLines(name+" "+resetText(u, ax), introWidth)
+}
+
+// appliedDoc is the doc comment of the applied function of ax: what the
+// applied command does for this axis's anti-windup, or that it has none.
+func appliedDoc(u *codeUnit, ax *codeAxis) []string {
+	name, step := ax.Prefix+"_applied", ax.Prefix+"_step"
+	if u.Lang == LangGo {
+		name, step = "Applied", "Step"
+	}
+	var t string
+	switch {
+	case !u.Fixed && ax.AWBackcalc:
+		t = fmt.Sprintf("%s records the command actually applied, after a mixer changed it, and corrects the integrator for it: %s updated the integrator by back-calculation from the command it returned, and the correction adds the same gain times (applied - returned), within the integrator limit. Call it after %s, only when the mixer changed the command.", name, step, step)
+	case !u.Fixed && ax.AWClamp:
+		t = fmt.Sprintf("%s records the command actually applied, after a mixer changed it: when it is below the command %s returned while the integrator rose (or above it while the integrator fell), the actuator is saturated in the error's direction and the last integrator increment is withdrawn (conditional integration). Call it after %s, only when the mixer changed the command.", name, step, step)
+	case u.Fixed && (ax.AWBackcalc || ax.AWClamp):
+		t = fmt.Sprintf("%s records the command actually applied, after a mixer changed it; the anti-windup (%s) of the integrator update at the next %s works from it.", name, map[bool]string{true: "back-calculation", false: "conditional integration"}[ax.AWBackcalc], step)
+	default:
+		why := "this form has no integrator"
+		if ax.HasI {
+			why = "its integrator has no anti-windup (antiwindup = none)"
+		} else if ax.Lead {
+			why = "a lead compensator has no integrator"
+		}
+		if u.Fixed {
+			t = fmt.Sprintf("%s records the command actually applied; it does not change the commands of this axis: %s.", name, why)
+		} else {
+			t = fmt.Sprintf("%s records the command actually applied; for this axis it only sets the command held on a non-finite input: %s.", name, why)
+		}
+	}
+	return commentLines(t, introWidth)
 }
 
 // plural is the "s" of a count other than one.

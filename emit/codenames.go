@@ -31,6 +31,13 @@ func (e *NameError) Error() string {
 	return fmt.Sprintf("airframe %s: name %q: %s", e.Airframe, e.Name, e.Reason)
 }
 
+// maxIdent is the longest generated identifier: C99 5.2.4.1 guarantees
+// 63 significant initial characters in an internal identifier or a macro
+// name; a longer name could coincide with another in a compiler that
+// keeps only those. (External names have a lower guaranteed limit, 31,
+// which every compiler in use exceeds; 63 is the common practical bound.)
+const maxIdent = 63
+
 // codeReservedPrefix says whether C reserves the external name w for the
 // library's future directions (C99 7.26): names beginning with "is" or
 // "to" and a lower-case letter (<ctype.h>, <wctype.h>), or with "str",
@@ -61,6 +68,9 @@ func checkNames(u *codeUnit) (warnings []string, err error) {
 	}
 	seen := map[string]bool{}
 	for _, id := range u.idents() {
+		if len(id) > maxIdent {
+			return nil, bad(id, fmt.Sprintf("generated identifier is %d characters long; C99 guarantees only %d significant characters in an identifier (5.2.4.1), so a compiler may take it for another: shorten the airframe or axis name", len(id), maxIdent))
+		}
 		if why := airframe.Reserved(id); why != "" {
 			return nil, bad(id, "generated identifier is "+why)
 		}
@@ -110,12 +120,23 @@ func (u *codeUnit) idents() []string {
 		}
 		return ids
 	}
-	ids = append(ids, u.Guard, u.Clamp)
+	ids = append(ids, u.Guard, u.Clamp, u.StampMacro)
 	if u.Fixed {
 		ids = append(ids, u.Rsh, u.Mul, u.MulW, u.SatAdd, u.SatShl, u.Airframe+"_arithmetic_shift_check")
+	} else if u.HeaderOnly {
+		ids = append(ids, u.NoContract)
+	}
+	if u.Vectors {
+		ids = append(ids, u.Airframe+"_vector", u.QemuSys, u.QemuHeap, u.QemuHeap+"_unused")
+		if !u.Fixed {
+			ids = append(ids, u.Airframe+"_bits")
+		}
 	}
 	for _, x := range u.Axes {
 		ids = append(ids, x.Prefix+"_state", x.Prefix+"_reset", x.Prefix+"_step", x.Prefix+"_applied")
+		if u.Vectors {
+			ids = append(ids, x.VectorsName, x.VectorsName+"_run")
+		}
 		for _, c := range x.Consts {
 			ids = append(ids, c.Name)
 		}

@@ -18,6 +18,11 @@ type vecModel interface {
 	// inputLimit is the largest |setpoint| or |measurement| the type
 	// carries (the input full scale of fixed point; +Inf for float).
 	inputLimit() float64
+	// nonFinite says whether the type has NaN and infinities (float),
+	// which the excitation then feeds in; faults records a check of the
+	// model's fault count (float only).
+	nonFinite() bool
+	faults(why string)
 }
 
 // The standard excitation, in segments of n samples (n = the spec's
@@ -31,9 +36,15 @@ type vecModel interface {
 //     sixth of the loop rate;
 //  5. a saturating step with a simulated motor mixer that clips the
 //     command to 60 % of the limits and reports it through _applied;
+//     for float types, halfway through it, non-finite inputs: NaN and
+//     infinite setpoints and measurements (each must hold the command
+//     and leave the state alone), a NaN applied command, and a check of
+//     the fault count;
 //  6. a bumpless reset from the last applied command and measurement, the
 //     setpoint held at that measurement for n/2 samples (the usual
-//     engagement: hold the current rate), then a step to zero.
+//     engagement: hold the current rate), then a step to zero;
+//  7. for float types, a reset with a NaN output (taken as 0, one fault),
+//     a few samples at rest, and a check of the fault count.
 //
 // The measurement is not a plant model (the vectors test arithmetic, not
 // the design): it follows the setpoint through a first-order lag of time
@@ -125,7 +136,15 @@ func excite(d *discrete.Design, m vecModel) error {
 		sample(float64(small * s))
 	}
 	lo, hi := 0.6*k.Lo, 0.6*k.Hi
+	nan, inf := math.NaN(), math.Inf(1)
 	for i := 0; i < n; i++ {
+		if i == n/2 && m.nonFinite() {
+			for _, b := range [][2]float64{{nan, y}, {big, nan}, {inf, y}, {big, -inf}, {nan, nan}, {-inf, inf}} {
+				m.step(b[0], b[1])
+			}
+			m.applied(nan)
+			m.faults("non-finite inputs: held, counted")
+		}
 		v := sample(big)
 		if a := math.Max(lo, math.Min(hi, v)); a != v {
 			m.applied(a)
@@ -139,6 +158,13 @@ func excite(d *discrete.Design, m vecModel) error {
 	}
 	for i := 0; i < n; i++ {
 		sample(0)
+	}
+	if m.nonFinite() {
+		m.reset(nan, y, "non-finite reset: taken as 0")
+		for i := 0; i < 3; i++ {
+			sample(0)
+		}
+		m.faults("one fault since the reset")
 	}
 	return nil
 }

@@ -11,6 +11,7 @@ import (
 	"path/filepath"
 	"sort"
 	"strings"
+	"sync"
 )
 
 // Writing files: this is the one writer of the tool. Generated code, the
@@ -69,20 +70,23 @@ func safeName(name string) error {
 	return nil
 }
 
-// CheckOutputDir checks that dir exists and is a directory, and, when
-// write is set, that a file can be created in it (the probe file is
-// removed again).
+// CheckOutputDir checks that dir exists and is a directory, or, when
+// write is set, that it or its parent does (WriteSources makes a missing
+// directory once there is something to write). It does not ask for
+// write permission: a run that finds every file up to date writes
+// nothing, and so succeeds on a read-only directory; a run that must
+// write into one fails when it does, with nothing written.
 func CheckOutputDir(dir string, write bool) error {
 	st, err := os.Stat(dir)
 	if write && errors.Is(err, fs.ErrNotExist) {
 		// A missing directory is made by WriteSources (MakeOutputDir),
-		// once there is something to write, if its parent exists and is
-		// writable; a missing parent is a mistake in the path.
+		// once there is something to write, if its parent exists; a
+		// missing parent is a mistake in the path.
 		parent := filepath.Dir(filepath.Clean(dir))
 		if pst, perr := os.Stat(parent); perr != nil || !pst.IsDir() {
 			return fmt.Errorf("output directory %s: neither it nor its parent %s exists", dir, parent)
 		}
-		return CheckOutputDir(parent, true)
+		return nil
 	}
 	if err != nil {
 		return fmt.Errorf("output directory: %w", err)
@@ -90,35 +94,21 @@ func CheckOutputDir(dir string, write bool) error {
 	if !st.IsDir() {
 		return fmt.Errorf("output directory %s: not a directory", dir)
 	}
-	if !write {
-		return nil
-	}
-	f, err := os.CreateTemp(dir, ".locusmith-probe-*")
-	if err != nil {
-		return fmt.Errorf("output directory %s: not writable: %w", dir, err)
-	}
-	name := f.Name()
-	cerr := f.Close()
-	if rerr := os.Remove(name); rerr != nil {
-		return fmt.Errorf("output directory %s: removing probe file: %w", dir, rerr)
-	}
-	if cerr != nil {
-		return fmt.Errorf("output directory %s: %w", dir, cerr)
-	}
 	return nil
 }
 
 // WriteSources writes srcs into dir, each only when its content differs
 // from the file already there. It returns the names it wrote. On error
 // nothing was renamed: every old file is intact, and no temporary file is
-// left behind.
+// left behind. Temporary files that an interrupted run left for these
+// names are removed first (Staged).
 func WriteSources(dir string, srcs []Source) ([]string, error) {
-	if len(srcs) > 0 {
-		if err := MakeOutputDir(dir); err != nil {
-			return nil, err
-		}
+	st := NewStaged(dir)
+	if err := st.Add(srcs); err != nil {
+		st.Abort()
+		return nil, err
 	}
-	return writeSources(osFS{}, dir, srcs)
+	return st.Commit()
 }
 
 // MakeOutputDir creates dir if it is missing (not its parents).
@@ -129,45 +119,205 @@ func MakeOutputDir(dir string) error {
 	return nil
 }
 
-func writeSources(fsys writeFS, dir string, srcs []Source) (written []string, err error) {
-	type pending struct{ tmp, dst, name string }
-	var todo []pending
+// writeSources is WriteSources on the file system fsys, which tests
+// replace to simulate failures.
+func writeSources(fsys writeFS, dir string, srcs []Source) ([]string, error) {
+	st := NewStaged(dir)
+	st.fsys = fsys
+	if err := st.Add(srcs); err != nil {
+		st.Abort()
+		return nil, err
+	}
+	return st.Commit()
+}
+
+// Staged is a write of many files in two phases, so that a verb can hand
+// its outputs over as it makes them (one airframe at a time, holding
+// only that one in memory) and still leave the directory as before when
+// it fails part way: Add compares each file with the one in the
+// directory and writes a changed one to a temporary file beside it;
+// Commit renames every temporary file into place, syncs the directory,
+// and writes again an unchanged file that vanished meanwhile; Abort
+// removes the temporary files.
+//
+// From its first Add to its end a Staged holds an exclusive lock on the
+// directory (flock, where the system has it), which a concurrent run
+// waits for; so a temporary file of the writer's pattern, .NAME.tmp-N,
+// that is there when the lock is taken was left by a run that was killed
+// (SIGKILL, a power cut), and Add removes those of the names it is given,
+// written or found unchanged, and the probe files of earlier versions
+// (Removed lists them).
+//
+// The methods may be called from two goroutines (a signal handler
+// aborting while the verb adds): each holds the Staged's mutex.
+type Staged struct {
+	dir  string
+	fsys writeFS
+
+	mu        sync.Mutex
+	todo      []pending
+	kept      []keptFile
+	keptBytes int
+	seen      map[string]bool
+	stale     map[string][]string // base name → stale temporaries, read at the lock
+	unlock    func()
+	locked    bool
+	closed    bool
+	// Removed lists the stale temporary files Add removed.
+	Removed []string
+}
+
+type pending struct{ tmp, dst, name string }
+
+// keptFile is an unchanged file left alone: its name, and its content
+// while the kept files fit keepBudget (to write it again should it
+// vanish before Commit is done).
+type keptFile struct {
+	name string
+	data []byte
+}
+
+// keepBudget bounds the content of unchanged files a Staged holds in
+// memory. Beyond it an unchanged file that vanishes during the write is
+// reported rather than written again.
+const keepBudget = 32 << 20
+
+// NewStaged returns a Staged write into dir. dir is made (not its
+// parents) by the first Add that has something to write.
+func NewStaged(dir string) *Staged {
+	return &Staged{dir: dir, fsys: osFS{}, seen: map[string]bool{}}
+}
+
+// lock takes the directory lock, once the directory exists, and reads
+// the stale temporaries; the probe files of earlier versions go at once.
+func (s *Staged) lock() {
+	if s.locked {
+		return
+	}
+	if st, err := os.Stat(s.dir); err != nil || !st.IsDir() {
+		return // made by the first file to write, and locked then
+	}
+	s.locked = true
+	s.unlock = lockDir(s.dir, true)
+	s.stale = staleTemps(s.dir)
+	s.removeStale("")
+}
+
+// removeStale removes the stale temporaries of base name n.
+func (s *Staged) removeStale(n string) {
+	for _, t := range s.stale[n] {
+		if err := os.Remove(filepath.Join(s.dir, t)); err == nil {
+			s.Removed = append(s.Removed, t)
+		}
+	}
+	delete(s.stale, n)
+}
+
+// Add compares srcs with the directory and writes each changed file to a
+// temporary file in it. On error the Staged must be aborted.
+func (s *Staged) Add(srcs []Source) error {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	if s.closed {
+		return errors.New("write already finished or aborted")
+	}
+	for _, src := range srcs {
+		if err := safeName(src.Name); err != nil {
+			return err
+		}
+		if s.seen[src.Name] {
+			return fmt.Errorf("two generated files are named %s", src.Name)
+		}
+		s.seen[src.Name] = true
+	}
+	s.lock()
+	for _, src := range srcs {
+		dst := filepath.Join(s.dir, src.Name)
+		old, exists, err := readOutput(s.dir, src.Name, len(src.Data)+1)
+		if err != nil {
+			return err
+		}
+		s.removeStale(src.Name)
+		if exists && bytes.Equal(old, src.Data) {
+			k := keptFile{name: src.Name}
+			if s.keptBytes+len(src.Data) <= keepBudget {
+				k.data = src.Data
+				s.keptBytes += len(src.Data)
+			}
+			s.kept = append(s.kept, k)
+			continue
+		}
+		if !s.locked {
+			if err := MakeOutputDir(s.dir); err != nil {
+				return err
+			}
+			s.lock()
+		}
+		tmp, err := writeTemp(s.fsys, s.dir, src)
+		if tmp != "" {
+			s.todo = append(s.todo, pending{tmp: tmp, dst: dst, name: src.Name})
+		}
+		if err != nil {
+			if tmp == "" { // the temporary file could not be made
+				if _, serr := os.Stat(s.dir); errors.Is(serr, fs.ErrNotExist) {
+					return fmt.Errorf("output directory %s vanished: %w", s.dir, err)
+				}
+				return fmt.Errorf("output directory %s: not writable: %w", s.dir, err)
+			}
+			return err
+		}
+	}
+	return nil
+}
+
+// Abort removes the temporary files written so far; the directory keeps
+// its old files. It reports whether it did so: false when the write was
+// committed (or aborted) already, and Abort then does nothing. A Commit
+// in progress finishes first.
+func (s *Staged) Abort() bool {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	if s.closed {
+		return false
+	}
+	s.closed = true
+	for _, p := range s.todo {
+		_ = s.fsys.Remove(p.tmp)
+	}
+	s.todo = nil
+	s.release()
+	return true
+}
+
+func (s *Staged) release() {
+	if s.unlock != nil {
+		s.unlock()
+		s.unlock = nil
+	}
+}
+
+// Commit renames the temporary files into place and returns the names
+// written. When a rename fails, the files renamed before it are complete
+// new versions, the rest keep their old content, no temporary file is
+// left, and the error says which is which.
+func (s *Staged) Commit() (written []string, err error) {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	if s.closed {
+		return nil, errors.New("write already finished or aborted")
+	}
+	s.closed = true
+	defer s.release()
+	todo := s.todo
 	defer func() {
 		if err != nil {
 			for _, p := range todo {
-				_ = fsys.Remove(p.tmp)
+				_ = s.fsys.Remove(p.tmp)
 			}
 		}
 	}()
-	seen := map[string]bool{}
-	var kept []Source // unchanged, left alone
-	for _, s := range srcs {
-		if err := safeName(s.Name); err != nil {
-			return nil, err
-		}
-		if seen[s.Name] {
-			return nil, fmt.Errorf("two generated files are named %s", s.Name)
-		}
-		seen[s.Name] = true
-		dst := filepath.Join(dir, s.Name)
-		old, rerr := os.ReadFile(dst)
-		if rerr == nil && bytes.Equal(old, s.Data) {
-			kept = append(kept, s)
-			continue
-		}
-		if rerr != nil && !errors.Is(rerr, fs.ErrNotExist) {
-			return nil, fmt.Errorf("read %s: %w", dst, rerr)
-		}
-		tmp, err := writeTemp(fsys, dir, s)
-		if tmp != "" {
-			todo = append(todo, pending{tmp: tmp, dst: dst, name: s.Name})
-		}
-		if err != nil {
-			return nil, err
-		}
-	}
 	for i, p := range todo {
-		if err := fsys.Rename(p.tmp, p.dst); err != nil {
+		if err := s.fsys.Rename(p.tmp, p.dst); err != nil {
 			// The files renamed so far are complete new versions; the rest
 			// keep their old content. Say which is which.
 			done := make([]string, 0, i)
@@ -180,26 +330,30 @@ func writeSources(fsys writeFS, dir string, srcs []Source) (written []string, er
 		written = append(written, p.name)
 	}
 	todo = nil
+	s.todo = nil
 	if len(written) > 0 {
-		syncDir(dir)
+		syncDir(s.dir)
 	}
 	// An unchanged file removed since it was compared is written again.
-	for _, s := range kept {
-		dst := filepath.Join(dir, s.Name)
+	for _, k := range s.kept {
+		dst := filepath.Join(s.dir, k.name)
 		if _, err := os.Lstat(dst); err == nil || !errors.Is(err, fs.ErrNotExist) {
 			continue
 		}
-		tmp, err := writeTemp(fsys, dir, s)
+		if k.data == nil {
+			return written, fmt.Errorf("%s vanished while the outputs were written; run again to write it", dst)
+		}
+		tmp, err := writeTemp(s.fsys, s.dir, Source{Name: k.name, Data: k.data})
 		if err == nil {
-			err = fsys.Rename(tmp, dst)
+			err = s.fsys.Rename(tmp, dst)
 		}
 		if err != nil {
 			if tmp != "" {
-				_ = fsys.Remove(tmp)
+				_ = s.fsys.Remove(tmp)
 			}
 			return written, fmt.Errorf("%s vanished while the outputs were written, and writing it again failed: %w", dst, err)
 		}
-		written = append(written, s.Name)
+		written = append(written, k.name)
 	}
 	return written, nil
 }
@@ -242,11 +396,149 @@ func writeTemp(fsys writeFS, dir string, s Source) (string, error) {
 	return name, nil
 }
 
+// NotRegularError is a path of the output directory, named like a file
+// locusmith writes, that is not a regular file: a symbolic link (whose
+// target the writer would read, show in a diff or replace), a named pipe
+// (which would block), a device, a directory. The writer refuses to touch
+// it.
+type NotRegularError struct {
+	Path string
+	What string // "a symbolic link", ...
+}
+
+func (e *NotRegularError) Error() string {
+	return fmt.Sprintf("%s is %s, not a regular file: locusmith reads and replaces only regular files in its output directory; remove it", e.Path, e.What)
+}
+
+// readOutput reads the output file dir/name when it is there, at most
+// limit bytes (a longer file is different anyway). It refuses anything but
+// a regular file (NotRegularError), checked without following a link
+// (Lstat, and no-follow at the open) and on the opened file again, and it
+// never blocks on a named pipe.
+func readOutput(dir, name string, limit int) (data []byte, exists bool, err error) {
+	p := filepath.Join(dir, name)
+	st, err := os.Lstat(p)
+	if errors.Is(err, fs.ErrNotExist) {
+		return nil, false, nil
+	}
+	if err != nil {
+		return nil, false, fmt.Errorf("read %s: %w", p, err)
+	}
+	if what := fileKind(st.Mode()); what != "" {
+		return nil, true, &NotRegularError{Path: p, What: what}
+	}
+	f, err := openNoFollow(p)
+	if err != nil {
+		if errors.Is(err, fs.ErrNotExist) {
+			return nil, false, nil
+		}
+		return nil, true, fmt.Errorf("read %s: %w", p, err)
+	}
+	defer f.Close()
+	fst, err := f.Stat()
+	if err != nil {
+		return nil, true, fmt.Errorf("read %s: %w", p, err)
+	}
+	if what := fileKind(fst.Mode()); what != "" || !os.SameFile(st, fst) {
+		if what == "" {
+			what = "a file that changed while it was opened"
+		}
+		return nil, true, &NotRegularError{Path: p, What: what}
+	}
+	data, err = io.ReadAll(io.LimitReader(f, int64(limit)))
+	if err != nil {
+		return nil, true, fmt.Errorf("read %s: %w", p, err)
+	}
+	return data, true, nil
+}
+
+// fileKind names what a non-regular file is, or "" for a regular file.
+func fileKind(m fs.FileMode) string {
+	switch {
+	case m.IsRegular():
+		return ""
+	case m&fs.ModeSymlink != 0:
+		return "a symbolic link"
+	case m.IsDir():
+		return "a directory"
+	case m&fs.ModeNamedPipe != 0:
+		return "a named pipe"
+	case m&fs.ModeSocket != 0:
+		return "a socket"
+	case m&fs.ModeDevice != 0:
+		return "a device"
+	}
+	return "a special file"
+}
+
+// Stale temporary files: the writer's own pattern, "." + name + ".tmp-"
+// and the random digits of os.CreateTemp, and the probe files of earlier
+// versions' directory check, ".locusmith-probe-" and digits.
+const (
+	tempInfix   = ".tmp-"
+	probePrefix = ".locusmith-probe-"
+)
+
+// staleTemps lists the regular files of dir that have the writer's
+// temporary pattern, by the base name they were to become (probe files
+// under ""). Called with the directory lock held, they are left by runs
+// that were killed.
+func staleTemps(dir string) map[string][]string {
+	out := map[string][]string{}
+	es, err := os.ReadDir(dir)
+	if err != nil {
+		return out
+	}
+	for _, e := range es {
+		if !e.Type().IsRegular() {
+			continue
+		}
+		if base, ok := tempBase(e.Name()); ok {
+			out[base] = append(out[base], e.Name())
+		}
+	}
+	return out
+}
+
+// tempBase returns the name a temporary file of the writer was to
+// become ("" for a probe file), and whether n is one.
+func tempBase(n string) (string, bool) {
+	if rest, ok := strings.CutPrefix(n, probePrefix); ok {
+		return "", allDigits(rest)
+	}
+	if !strings.HasPrefix(n, ".") {
+		return "", false
+	}
+	i := strings.LastIndex(n, tempInfix)
+	if i <= 1 || !allDigits(n[i+len(tempInfix):]) {
+		return "", false
+	}
+	base := n[1:i]
+	return base, safeName(base) == nil
+}
+
+func allDigits(s string) bool {
+	if s == "" {
+		return false
+	}
+	for i := 0; i < len(s); i++ {
+		if s[i] < '0' || s[i] > '9' {
+			return false
+		}
+	}
+	return true
+}
+
 // Drift is the difference between generated files and a directory.
 type Drift struct {
 	Stale      []FileDiff // present with other content
 	Missing    []string   // not present
 	Unexpected []string   // present, generated by locusmith, not generated now
+	// Temporary lists temporary files of the writer for these names (or
+	// its old probe files) that a killed run left: the directory is not
+	// as a completed run leaves it; the next run without --check removes
+	// them.
+	Temporary []string
 }
 
 // FileDiff is a stale file and a short unified diff from the file in the
@@ -258,7 +550,7 @@ type FileDiff struct {
 
 // Clean reports whether the directory matches.
 func (d Drift) Clean() bool {
-	return len(d.Stale) == 0 && len(d.Missing) == 0 && len(d.Unexpected) == 0
+	return len(d.Stale) == 0 && len(d.Missing) == 0 && len(d.Unexpected) == 0 && len(d.Temporary) == 0
 }
 
 // String lists the drift, one file per line, with the diffs.
@@ -269,6 +561,9 @@ func (d Drift) String() string {
 	}
 	for _, u := range d.Unexpected {
 		fmt.Fprintf(&b, "unexpected: %s (generated by locusmith, but not by this run)\n", u)
+	}
+	for _, t := range d.Temporary {
+		fmt.Fprintf(&b, "temporary: %s (left by an interrupted run; the next run without --check removes it)\n", t)
 	}
 	for _, s := range d.Stale {
 		fmt.Fprintf(&b, "stale: %s\n%s", s.Name, s.Diff)
@@ -288,6 +583,10 @@ func CheckSources(dir string, srcs []Source, maxDiffLines int) (Drift, error) {
 	if maxDiffLines <= 0 {
 		maxDiffLines = 40
 	}
+	// A run writing into dir holds the lock while it has temporary files
+	// there: wait for it, so that what is left is the state of the
+	// directory (and a temporary file a killed run's).
+	defer lockDir(dir, false)()
 	want := map[string]bool{}
 	for _, s := range srcs {
 		if err := safeName(s.Name); err != nil {
@@ -295,14 +594,25 @@ func CheckSources(dir string, srcs []Source, maxDiffLines int) (Drift, error) {
 		}
 		want[s.Name] = true
 		p := filepath.Join(dir, s.Name)
-		old, err := os.ReadFile(p)
+		old, exists, err := readOutput(dir, s.Name, len(s.Data)+diffReadLimit)
 		switch {
-		case errors.Is(err, fs.ErrNotExist):
-			d.Missing = append(d.Missing, p)
 		case err != nil:
-			return d, fmt.Errorf("read %s: %w", p, err)
+			return d, err
+		case !exists:
+			d.Missing = append(d.Missing, p)
 		case !bytes.Equal(old, s.Data):
-			d.Stale = append(d.Stale, FileDiff{Name: p, Diff: unifiedDiff("a/"+s.Name, "b/"+s.Name, string(old), string(s.Data), 3, maxDiffLines)})
+			diff := unifiedDiff("a/"+s.Name, "b/"+s.Name, string(old), string(s.Data), 3, maxDiffLines)
+			if len(old) == len(s.Data)+diffReadLimit {
+				diff += fmt.Sprintf("... (%s is longer than %d bytes; the diff shows its first %d)\n", p, len(old), len(old))
+			}
+			d.Stale = append(d.Stale, FileDiff{Name: p, Diff: diff})
+		}
+	}
+	for base, ts := range staleTemps(dir) {
+		if base == "" || want[base] {
+			for _, t := range ts {
+				d.Temporary = append(d.Temporary, filepath.Join(dir, t))
+			}
 		}
 	}
 	entries, err := os.ReadDir(dir)
@@ -324,19 +634,32 @@ func CheckSources(dir string, srcs []Source, maxDiffLines int) (Drift, error) {
 	}
 	sort.Strings(d.Missing)
 	sort.Strings(d.Unexpected)
+	sort.Strings(d.Temporary)
 	sort.Slice(d.Stale, func(i, j int) bool { return d.Stale[i].Name < d.Stale[j].Name })
 	return d, nil
 }
 
+// diffReadLimit bounds how much more of a stale file than the generated
+// content --check reads for its diff.
+const diffReadLimit = 1 << 20
+
 // looksGenerated reports whether the first line of the file at p is
-// locusmith's "Code generated" line.
+// locusmith's "Code generated" line. Only a regular file is read (not
+// through a link, never blocking on a pipe); anything else is not one of
+// locusmith's.
 func looksGenerated(p string) (bool, error) {
-	f, err := os.Open(p)
+	f, err := openNoFollow(p)
 	if err != nil {
+		if errors.Is(err, fs.ErrNotExist) || isLinkRefused(err) {
+			return false, nil
+		}
 		return false, fmt.Errorf("open %s: %w", p, err)
 	}
 	defer f.Close()
-	line, err := bufio.NewReaderSize(f, 512).ReadString('\n')
+	if st, err := f.Stat(); err != nil || !st.Mode().IsRegular() {
+		return false, nil
+	}
+	line, err := bufio.NewReaderSize(io.LimitReader(f, 512), 512).ReadString('\n')
 	if err != nil && !errors.Is(err, io.EOF) {
 		return false, fmt.Errorf("read %s: %w", p, err)
 	}

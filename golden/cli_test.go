@@ -73,7 +73,7 @@ func TestCLIEmitWritesOnceAndKeepsMtimes(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("exit %d:\n%s", code, out)
 	}
-	want := []string{"burrow_rate.c", "burrow_rate.h", "burrow_rate_vectors.c", "sandpiper_rate.c", "sandpiper_rate.h", "sandpiper_rate_vectors.c"}
+	want := []string{"burrow_rate.c", "burrow_rate.h", "burrow_rate_vectors.c", "burrow_rate_vectors_qemu.c", "sandpiper_rate.c", "sandpiper_rate.h", "sandpiper_rate_vectors.c", "sandpiper_rate_vectors_qemu.c"}
 	if got := listDir(t, filepath.Join(dir, "gen")); strings.Join(got, " ") != strings.Join(want, " ") {
 		t.Fatalf("wrote %v, want %v", got, want)
 	}
@@ -222,6 +222,18 @@ func TestCLIEmitBadInput(t *testing.T) {
 	if err := os.WriteFile(filepath.Join(dir, "examples", "rover_copy.toml"), keyword, 0o644); err != nil {
 		t.Fatal(err)
 	}
+	// Names the file accepts (at most 32 characters each) that make a
+	// generated name longer than C99's 63 significant characters:
+	// <AIRFRAME>_<AXIS>_INTEGRATOR_LIMIT of 31 + 1 + 23 + 17 = 72.
+	quad, err := os.ReadFile(filepath.Join(dir, "examples", "quadrotor.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	long := regexp.MustCompile(`(?m)^airframe = .*$`).ReplaceAllString(string(quad), `airframe = "a_long_airframe_name_for_a_test"`)
+	long = strings.ReplaceAll(long, "[axes.roll.", "[axes.roll_axis_long_name_abc.")
+	if err := os.WriteFile(filepath.Join(dir, "examples", "long.toml"), []byte(long), 0o644); err != nil {
+		t.Fatal(err)
+	}
 	if err := os.WriteFile(filepath.Join(dir, "afile"), nil, 0o644); err != nil {
 		t.Fatal(err)
 	}
@@ -242,6 +254,7 @@ func TestCLIEmitBadInput(t *testing.T) {
 		{"missing file", []string{"-o", "gen", "examples/rover.toml", "examples/absent.toml"}, "absent.toml"},
 		{"keyword name", []string{"-o", "gen", "examples/keyword.toml"}, "switch"},
 		{"same airframe twice", []string{"-o", "gen", "examples/rover.toml", "examples/rover_copy.toml"}, "both name airframe"},
+		{"generated name too long", []string{"-o", "gen", "examples/rover.toml", "examples/long.toml"}, "A_LONG_AIRFRAME_NAME_FOR_A_TEST_ROLL_AXIS_LONG_NAME_ABC_INTEGRATOR_LIMIT\": generated identifier is 72 characters long"},
 	}
 	if os.Geteuid() == 0 {
 		// root writes into read-only directories; /proc/self is not
@@ -418,10 +431,12 @@ func TestEmitSignalKeepsOldFiles(t *testing.T) {
 // not an error: emit makes it again, writes whole files, the same bytes as
 // an undisturbed run, and leaves no temporary file.
 //
-// The vanishing happens at a fixed point, not after a guessed delay: the
-// first input file is a named pipe, so emit, having checked the output
-// directory, blocks reading it. The test removes the directory while emit
-// waits (it writes nothing then) and only then feeds it the airframe.
+// The vanishing happens at a fixed point, not after a guessed delay: emit
+// runs with LOCUSMITH_TEST_SYNC naming a named pipe, which it reads to its
+// end after its check of the output directory and before it reads its
+// inputs (a hook of the CLI for such tests). The test holds the pipe open,
+// removes the directory while emit waits (it writes nothing then), and
+// only then closes the pipe.
 func TestEmitOutputDirVanishes(t *testing.T) {
 	t.Parallel()
 	dir := cliWork(t)
@@ -431,11 +446,16 @@ func TestEmitOutputDirVanishes(t *testing.T) {
 		t.Fatal(err)
 	}
 	src = regexp.MustCompile(`(?m)^airframe = .*$`).ReplaceAll(src, []byte(`airframe = "w00"`))
-	pipe := filepath.Join(dir, "examples", "w00.toml")
+	input := filepath.Join(dir, "examples", "w00.toml")
+	if err := os.WriteFile(input, src, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	pipe := filepath.Join(t.TempDir(), "sync")
 	mkfifo(t, pipe)
 	args := []string{"emit", "-j", "1", "--vectors", "examples/w00.toml", "examples/rover.toml"}
 	cmd := exec.Command(bin, append(args, "-o", "gen")...)
 	cmd.Dir = dir
+	cmd.Env = append(os.Environ(), "LOCUSMITH_TEST_SYNC="+pipe)
 	var out bytes.Buffer
 	cmd.Stdout, cmd.Stderr = &out, &out
 	if err := cmd.Start(); err != nil {
@@ -482,7 +502,7 @@ func TestEmitOutputDirVanishes(t *testing.T) {
 			}
 			r.Close()
 		}
-		t.Fatalf("emit ended without reading its input: %v\n%s", err, out.String())
+		t.Fatalf("emit ended without waiting at its test hook: %v\n%s", err, out.String())
 	}
 	gen := filepath.Join(dir, "gen")
 	if err := os.RemoveAll(gen); err != nil {
@@ -490,9 +510,6 @@ func TestEmitOutputDirVanishes(t *testing.T) {
 	}
 	if _, err := os.Stat(gen); !errors.Is(err, fs.ErrNotExist) {
 		t.Fatalf("output directory still there after its removal: %v", err)
-	}
-	if _, err := w.Write(src); err != nil {
-		t.Fatal(err)
 	}
 	err = w.Close()
 	w = nil
@@ -508,20 +525,14 @@ func TestEmitOutputDirVanishes(t *testing.T) {
 		t.Fatalf("emit panicked:\n%s", out.String())
 	}
 	got := snapshot(t, gen)
-	want := []string{"burrow_rate.c", "burrow_rate.h", "burrow_rate_vectors.c", "w00_rate.c", "w00_rate.h", "w00_rate_vectors.c"}
+	want := []string{"burrow_rate.c", "burrow_rate.h", "burrow_rate_vectors.c", "burrow_rate_vectors_qemu.c", "w00_rate.c", "w00_rate.h", "w00_rate_vectors.c", "w00_rate_vectors_qemu.c"}
 	if names := listDir(t, gen); strings.Join(names, " ") != strings.Join(want, " ") {
 		t.Fatalf("wrote %v, want %v (and no temporary file)", names, want)
 	}
 	if n := strings.Count(out.String(), "wrote "); n != len(want) {
 		t.Errorf("reported %d files written, want %d:\n%s", n, len(want), out.String())
 	}
-	// The same inputs, undisturbed, from a regular file.
-	if err := os.Remove(pipe); err != nil {
-		t.Fatal(err)
-	}
-	if err := os.WriteFile(pipe, src, 0o644); err != nil {
-		t.Fatal(err)
-	}
+	// The same inputs, undisturbed.
 	if text, code, err := runCLI(dir, "", bin, append(args, "-o", "ref")...); err != nil || code != 0 {
 		t.Fatalf("undisturbed run: exit %d, %v\n%s", code, err, text)
 	}

@@ -1,7 +1,6 @@
 package golden
 
 import (
-	"bytes"
 	"fmt"
 	"os"
 	"os/exec"
@@ -11,7 +10,6 @@ import (
 	"strings"
 	"testing"
 
-	"locusmith/airframe"
 	"locusmith/emit"
 )
 
@@ -346,53 +344,14 @@ float f(float a, float b) { return a * b; }
 	}
 }
 
-// armStub runs a Cortex-M program under qemu-arm's Linux user mode: no C
-// library, _start calls main and passes its status to the exit system
-// call (ARM EABI: svc 0, number in r7, 1 = exit); printf and puts write
-// the format string as it is (enough to see which axis failed).
-const armStub = `#include <stdarg.h>
-int main(void);
-void _start(void);
-int printf(const char *fmt, ...);
-int puts(const char *s);
-static long sys(long n, long a, long b, long c)
-{
-	register long r0 __asm__("r0") = a;
-	register long r1 __asm__("r1") = b;
-	register long r2 __asm__("r2") = c;
-	register long r7 __asm__("r7") = n;
-	__asm__ volatile("svc 0" : "+r"(r0) : "r"(r1), "r"(r2), "r"(r7) : "memory");
-	return r0;
-}
-static unsigned long len(const char *s)
-{
-	unsigned long n = 0;
-	while (s[n] != 0) {
-		n++;
-	}
-	return n;
-}
-int printf(const char *fmt, ...)
-{
-	return (int)sys(4, 1, (long)fmt, (long)len(fmt));
-}
-int puts(const char *s)
-{
-	return (int)sys(4, 1, (long)s, (long)len(s));
-}
-void _start(void)
-{
-	sys(1, main(), 0, 0);
-	for (;;) {
-	}
-}
-`
-
 // TestARMVectors runs the vector programs on the ARM instruction set:
 // the float32 code built for the Cortex-M4F (its FPU instructions are
 // those of ARMv7 VFPv4, which qemu-arm executes) and the q15 code built
-// for the Cortex-M0, each under qemu-arm. Bit-exact results there show
-// that the cross compiler's code rounds like the reference model.
+// for the Cortex-M0, each under qemu-arm with the start-up stub that
+// --vectors emits beside the program and newlib (nosys.specs). Bit-exact
+// results there show that the cross compiler's code rounds like the
+// reference model; a corrupted expectation must make the program exit 1
+// under qemu-arm (the stub passes the status on).
 func TestARMVectors(t *testing.T) {
 	if testing.Short() {
 		t.Skip("cross-architecture build and run; skipped with -short")
@@ -415,134 +374,37 @@ func TestARMVectors(t *testing.T) {
 				v := c.v
 				v.vectors = true
 				srcs := generate(t, p, v)
-				srcs = append(srcs, emit.Source{Name: "stub.c", Data: []byte(armStub)})
-				dir := writeSources(t, srcs)
 				ctrl, vec := cFiles(srcs)
-				args := append(append([]string{}, c.flags...), "-std=c99", "-O2", "-ffreestanding", "-nostdlib", "-static",
-					"-Wl,-e,_start", "-Wl,--no-warn-rwx-segments", "-o", "vectors.elf", vec[0])
-				args = append(args, ctrl...)
-				out, err := runErr(dir, cc, append(args, "-lgcc")...)
-				if err != nil {
-					t.Fatalf("%s: %v\n%s", cc, err, out)
+				stub := qemuStub(srcs)
+				if stub == "" {
+					t.Fatal("--vectors emitted no qemu-arm stub")
 				}
-				out, err = runErr(dir, qemu, "-cpu", "max", filepath.Join(dir, "vectors.elf"))
+				build := func(srcs []emit.Source) string {
+					dir := writeSources(t, srcs)
+					args := append(append(append([]string{}, strictC...), c.flags...), "-O2", "--specs=nosys.specs", "-nostartfiles",
+						"-Wl,--no-warn-rwx-segments", "-o", "vectors.elf", vec[0], stub)
+					run(t, dir, cc, append(args, ctrl...)...)
+					return dir
+				}
+				dir := build(srcs)
+				out, err := runErr(dir, qemu, filepath.Join(dir, "vectors.elf"))
 				if err != nil {
 					t.Fatalf("vector program under qemu-arm: %v\n%s", err, out)
 				}
-				if !strings.Contains(out, "vectors match") {
+				if strings.Count(out, "vectors match") != len(design(t, p, v.numeric).Axes) {
 					t.Errorf("vector program printed %q", out)
 				}
+				bad := append([]emit.Source{}, srcs...)
+				for i, s := range bad {
+					if s.Name == vec[0] {
+						bad[i].Data = corruptVector(t, s.Data)
+					}
+				}
+				dir = build(bad)
+				if out, err := runErr(dir, qemu, filepath.Join(dir, "vectors.elf")); err == nil {
+					t.Errorf("vector program with a corrupted expectation exited 0 under qemu-arm: %s", out)
+				}
 			})
-		}
-	}
-}
-
-// stepSize is the static instruction count of one function of an objdump
-// listing: all instructions (literal pool words not counted), the
-// arithmetic ones (data processing and compares, of the core or the FPU),
-// and any fused multiply-add.
-type stepSize struct {
-	all, arith, fused, div int
-}
-
-// armArith matches the mnemonics of arithmetic instructions (Thumb-2 and
-// FPv4, optional condition and .f32/.w suffixes): add, subtract, reverse
-// subtract, multiply (and long multiply), negate, shifts, logical and,
-// compare, and the FPU's vadd/vsub/vmul/vneg/vcmp and the fused
-// multiply-adds, which are listed apart as well.
-var (
-	armArith = regexp.MustCompile(`^(adds?|adcs?|subs?|sbcs?|rsbs?|muls?|mla|mls|smull|umull|smlal|negs?|asrs?|lsls?|lsrs?|ands?|cmp|cmn|v(add|sub|mul|neg|cmpe?|fma|fms|fnma|fnms|nmul|mla|mls))(eq|ne|cs|cc|mi|pl|vs|vc|hi|ls|ge|lt|gt|le)?(\.f32|\.w)?$`)
-	armFused = regexp.MustCompile(`^v(fma|fms|fnma|fnms|mla|mls|nmla|nmls)`)
-	armDiv   = regexp.MustCompile(`^(sdiv|udiv|vdiv|vsqrt)`)
-)
-
-// stepSizes returns the size of each *_step function in an objdump -d
-// listing.
-func stepSizes(listing string) map[string]stepSize {
-	sizes := map[string]stepSize{}
-	cur := ""
-	head := regexp.MustCompile(`^[0-9a-f]+ <([A-Za-z0-9_]+)>:$`)
-	insn := regexp.MustCompile(`^\s+[0-9a-f]+:\t[0-9a-f ]+\t(\S+)`)
-	for _, l := range strings.Split(listing, "\n") {
-		if m := head.FindStringSubmatch(l); m != nil {
-			cur = ""
-			if strings.HasSuffix(m[1], "_step") {
-				cur = m[1]
-			}
-			continue
-		}
-		if cur == "" {
-			continue
-		}
-		if m := insn.FindStringSubmatch(l); m != nil && !strings.HasPrefix(m[1], ".") {
-			sz := sizes[cur]
-			sz.all++
-			if armArith.MatchString(m[1]) {
-				sz.arith++
-			}
-			if armFused.MatchString(m[1]) {
-				sz.fused++
-			}
-			if armDiv.MatchString(m[1]) {
-				sz.div++
-			}
-			sizes[cur] = sz
-		}
-	}
-	return sizes
-}
-
-// TestStepInstructionCounts reports the static instruction count of each
-// generated _step for the Cortex-M4F at -O2 (from arm-none-eabi-objdump
-// -d) beside the arithmetic operations of the controller's difference
-// equations; the figures go into the README. The totals include the loads
-// and stores of the state and of the constants (literal pool) and both
-// paths of every branch; the arithmetic instructions alone are counted
-// apart. It checks that the float code has no fused multiply-add (the
-// compiler must not contract a*b + c, or the results would differ from
-// the reference model), that no step divides, and that the listing parse
-// found the operations.
-// Speed itself is for benchmarks.
-func TestStepInstructionCounts(t *testing.T) {
-	if testing.Short() {
-		t.Skip("cross-architecture build and run; skipped with -short")
-	}
-	t.Parallel()
-	cc := tool(t, "arm-none-eabi-gcc", "gcc-arm-none-eabi")
-	objdump := tool(t, "arm-none-eabi-objdump", "binutils-arm-none-eabi")
-	var table bytes.Buffer
-	fmt.Fprintf(&table, "| example | function | numeric | instructions | of them arithmetic | arithmetic ops of the equations | instructions / ops |\n|---|---|---|---|---|---|---|\n")
-	for _, p := range examplePaths(t) {
-		for _, nt := range []string{"float32", "q15"} {
-			v := variant{name: nt, lang: emit.LangC, numeric: airframe.NumericType(nt)}
-			dir, objs := armObjects(t, cc, m4f, goldenSources(t, p, v))
-			sizes := stepSizes(run(t, dir, objdump, "-d", objs[0]))
-			a := design(t, p, v.numeric)
-			for _, x := range a.Axes {
-				fn := a.File.Airframe + "_" + x.Name + "_step"
-				sz, ok := sizes[fn]
-				if !ok {
-					t.Errorf("%s not found in the listing", fn)
-					continue
-				}
-				ops := emit.StepOps(x.Design.Coeffs)
-				if sz.arith < ops/2 {
-					t.Errorf("%s: %d arithmetic instructions for %d operations: the listing parse is wrong", fn, sz.arith, ops)
-				}
-				if sz.div > 0 {
-					t.Errorf("%s: %d division instructions: the controller never divides", fn, sz.div)
-				}
-				if nt == "float32" && sz.fused > 0 {
-					t.Errorf("%s: %d fused multiply-add instructions: the float code must round every product", fn, sz.fused)
-				}
-				fmt.Fprintf(&table, "| %s | `%s` | %s | %d | %d | %d | %.2f |\n", exampleName(p), fn, nt, sz.all, sz.arith, ops, float64(sz.all)/float64(ops))
-			}
-		}
-	}
-	t.Logf("static instruction counts, Cortex-M4F, arm-none-eabi-gcc -O2:\n%s", table.String())
-	if out := os.Getenv("LOCUSMITH_COUNTS"); out != "" {
-		if err := os.WriteFile(out, table.Bytes(), 0o644); err != nil {
-			t.Fatal(err)
 		}
 	}
 }

@@ -197,10 +197,22 @@ func firstDiff(a, b string) string {
 }
 
 // TestGeneratedHeader checks the contract of the first lines of every
-// generated file (README, "What is generated").
+// generated file (README, "What is generated"): the generated-code line,
+// the canonical input hash, and the design summary with the cautions in
+// one file per airframe (the C header, the Go file), which the other
+// files name instead of repeating it.
 func TestGeneratedHeader(t *testing.T) {
+	summary := []string{"propellers off", "tethered", "qualified", "Sampled loop: overshoot", "phase margin", "Target: zeta"}
 	for _, p := range examplePaths(t) {
+		f, err := loadAirframe(p)
+		if err != nil {
+			t.Fatal(err)
+		}
 		for _, v := range variants() {
+			main := f.Airframe + "_rate.h"
+			if v.lang == emit.LangGo {
+				main = f.Airframe + "rate.go"
+			}
 			for _, s := range generate(t, p, v) {
 				text := string(s.Data)
 				first, _, _ := strings.Cut(text, "\n")
@@ -208,14 +220,16 @@ func TestGeneratedHeader(t *testing.T) {
 				if first != want {
 					t.Errorf("%s: first line %q, want %q", s.Name, first, want)
 				}
-				f, err := loadAirframe(p)
-				if err != nil {
-					t.Fatal(err)
+				if !strings.Contains(text, "\n// Input SHA-256: "+f.CanonicalSHA256()+"\n") {
+					t.Errorf("%s %s: no line with the canonical input hash %s", v.dir(), s.Name, f.CanonicalSHA256())
 				}
-				for _, must := range []string{"Input SHA-256: " + f.SHA256, "propellers off", "tethered", "model", "qualified", "Sampled loop: overshoot", "phase margin", "Target: zeta"} {
-					if !strings.Contains(text, must) {
-						t.Errorf("%s %s: header lacks %q", v.dir(), s.Name, must)
+				for _, must := range summary {
+					if has := strings.Contains(text, must); has != (s.Name == main) {
+						t.Errorf("%s %s: contains %q: %v; the summary is in %s only", v.dir(), s.Name, must, has, main)
 					}
+				}
+				if s.Name != main && !strings.Contains(strings.ReplaceAll(text, "\n// ", " "), "are in "+main+".") {
+					t.Errorf("%s %s: does not name %s, which holds the summary", v.dir(), s.Name, main)
 				}
 				for i := 0; i < len(text); i++ {
 					if c := text[i]; (c < 0x20 && c != '\n' && c != '\t') || c >= 0x7f {

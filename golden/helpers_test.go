@@ -90,17 +90,30 @@ func writeSources(t testing.TB, srcs []emit.Source) string {
 }
 
 // cFiles returns the .c files of srcs, the controller and the vector
-// program apart.
+// program apart; the qemu-arm start-up stub of the vector program
+// (qemuStub) is in neither.
 func cFiles(srcs []emit.Source) (ctrl, vectors []string) {
 	for _, s := range srcs {
 		switch {
 		case strings.HasSuffix(s.Name, "_vectors.c"):
 			vectors = append(vectors, s.Name)
+		case strings.HasSuffix(s.Name, "_vectors_qemu.c"):
 		case strings.HasSuffix(s.Name, ".c"):
 			ctrl = append(ctrl, s.Name)
 		}
 	}
 	return ctrl, vectors
+}
+
+// qemuStub returns the name of the qemu-arm start-up stub among srcs, or
+// "".
+func qemuStub(srcs []emit.Source) string {
+	for _, s := range srcs {
+		if strings.HasSuffix(s.Name, "_vectors_qemu.c") {
+			return s.Name
+		}
+	}
+	return ""
 }
 
 // headerOf returns the name of the generated header.

@@ -83,7 +83,7 @@ func runDesign(args []string, stdout, stderr io.Writer) int {
 			}
 		}
 		for _, msg := range a.Unmet() {
-			fmt.Fprintf(stderr, "%s: %s\n", a.File.Path, msg)
+			fmt.Fprintf(stderr, "%s: %s\n", shown(a.File.Path), msg)
 		}
 	})
 	if werr == nil && len(files) > 0 {

@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -41,8 +42,14 @@ Examples:
   locusmith identify --sensor --holdout 0.3 -o plots bench_roll.csv
   locusmith identify --saturation=-0.5,0.5 flight.csv
 
+The log is read to at most 1048576 (2^20) samples, and the rest ignored
+(said on stderr); its median sample interval must lie between 1 µs and
+1 s. LOG.csv must be a regular file; give - to read standard input (a
+pipe).
+
 Exit status: 0 the model was fitted (warnings, if any, are in the output
-and on stderr); 1 the fit failed; 2 bad input or usage.`
+and on stderr); 1 the fit failed; 2 bad input or usage, or an internal
+error.`
 
 // identifyAxisPattern is the airframe file's rule for axis names.
 var identifyAxisPattern = regexp.MustCompile(`^[a-z][a-z0-9_]{0,31}$`)
@@ -94,9 +101,14 @@ func runIdentify(args []string, stdout, stderr io.Writer) int {
 	if path == "-" {
 		src, name = os.Stdin, "stdin"
 	} else {
-		f, err := os.Open(path)
+		// Only a regular file: a named pipe would block, a device never
+		// end (a pipe can come in on stdin, as "-").
+		f, err := openRegular(path)
 		if err != nil {
-			fmt.Fprintf(stderr, "locusmith identify: %v\n", err)
+			fmt.Fprintf(stderr, "locusmith identify: %s: %s\n", shown(path), shown(err.Error()))
+			if errors.Is(err, errNotRegular) {
+				fmt.Fprintln(stderr, "locusmith identify: to read a pipe, give - and send it on standard input")
+			}
 			return exitUsage
 		}
 		defer f.Close()
@@ -105,36 +117,38 @@ func runIdentify(args []string, stdout, stderr io.Writer) int {
 	cols := ident.Columns{Time: *timeCol, Command: *cmdCol, Rate: *rateCol, TimeScale: scale}
 	log, err := ident.ReadCSV(src, name, cols)
 	if err != nil {
-		fmt.Fprintf(stderr, "locusmith identify: %v\n", err)
+		fmt.Fprintf(stderr, "locusmith identify: %s\n", shown(err.Error()))
 		return exitUsage
 	}
 	res, err := ident.Identify(log, ident.Options{Sensor: *sensor, Holdout: *holdout, Saturation: satOpt, MaxDelay: *maxDelay})
 	if err != nil {
-		fmt.Fprintf(stderr, "locusmith identify: %v\n", err)
-		if ident.IsInputError(err) {
+		fmt.Fprintf(stderr, "locusmith identify: %s\n", shown(err.Error()))
+		// Bad input and a bug are status 2 (README, "Exit status"); a
+		// fit that fails on good input is 1.
+		if ident.IsInputError(err) || errors.Is(err, ident.ErrInternal) {
 			return exitUsage
 		}
 		return exitUnmet
 	}
 	for _, n := range res.Notes {
-		fmt.Fprintf(stderr, "locusmith identify: %s: %s\n", name, n)
+		fmt.Fprintf(stderr, "locusmith identify: %s: %s\n", shown(name), n)
 	}
 	for _, w := range res.Warnings {
-		fmt.Fprintf(stderr, "locusmith identify: %s: warning: %s\n", name, w)
+		fmt.Fprintf(stderr, "locusmith identify: %s: warning: %s\n", shown(name), w)
 	}
 	if *outDir != "" {
 		var buf bytes.Buffer
-		title := fmt.Sprintf("%s: axis %s, measured and fitted rate", filepath.Base(name), *axis)
+		title := fmt.Sprintf("%s: axis %s, measured and fitted rate", shown(filepath.Base(name)), *axis)
 		if err := res.WriteSVG(&buf, title); err != nil {
-			fmt.Fprintf(stderr, "locusmith identify: %v\n", err)
-			return exitUnmet
-		}
-		out := filepath.Join(*outDir, *axis+"_identify.svg")
-		if err := writeFiles(*outDir, []emit.Source{{Name: filepath.Base(out), Data: buf.Bytes()}}); err != nil {
 			fmt.Fprintf(stderr, "locusmith identify: %v\n", err)
 			return exitUsage
 		}
-		fmt.Fprintf(stderr, "locusmith identify: wrote %s\n", out)
+		out := filepath.Join(*outDir, *axis+"_identify.svg")
+		if err := writeFiles(*outDir, []emit.Source{{Name: filepath.Base(out), Data: buf.Bytes()}}); err != nil {
+			fmt.Fprintf(stderr, "locusmith identify: %s\n", shown(err.Error()))
+			return exitUsage
+		}
+		fmt.Fprintf(stderr, "locusmith identify: wrote %s\n", shown(out))
 	}
 	io.WriteString(stdout, res.TOML(*axis, filepath.Base(name)))
 	return exitOK

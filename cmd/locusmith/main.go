@@ -21,9 +21,11 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"os/signal"
 	"runtime"
 	"runtime/debug"
 	"strings"
+	"syscall"
 
 	"github.com/spf13/pflag"
 
@@ -222,7 +224,43 @@ func reportLoadError(w io.Writer, path string, err error) {
 		fmt.Fprintln(w, errs.Error())
 		return
 	}
-	fmt.Fprintf(w, "%s: %v\n", path, err)
+	fmt.Fprintf(w, "%s: %s\n", shown(path), shown(err.Error()))
+}
+
+// shown is a file name (or a message quoting one) as it may reach the
+// terminal: quoted with escapes when it holds a control or bidirectional
+// character, so that a file named with a terminal escape sequence cannot
+// drive the terminal (airframe.SafeText).
+func shown(s string) string { return airframe.SafeText(s) }
+
+// guardWrite ends the process cleanly when SIGINT, SIGTERM or SIGHUP
+// arrives while st holds temporary files of a verb's output (verb names
+// it in messages): before the commit it removes them, so the output
+// directory is as before; during the commit it lets the renames finish,
+// so that no airframe's files are left from two runs. Either way the
+// exit status is 2 and stderr says which. A SIGKILL cannot be caught:
+// its temporary files are removed by the next run (emit.Staged). stop
+// ends the guard.
+func guardWrite(st *emit.Staged, verb string, stderr io.Writer) (stop func()) {
+	sigs := make(chan os.Signal, 1)
+	signal.Notify(sigs, os.Interrupt, syscall.SIGTERM, syscall.SIGHUP)
+	done := make(chan struct{})
+	go func() {
+		select {
+		case sig := <-sigs:
+			if st.Abort() {
+				fmt.Fprintf(stderr, "locusmith %s: %v received; temporary files removed, nothing written\n", verb, sig)
+			} else {
+				fmt.Fprintf(stderr, "locusmith %s: %v received while writing; every file was written completely\n", verb, sig)
+			}
+			os.Exit(exitUsage)
+		case <-done:
+		}
+	}()
+	return func() {
+		signal.Stop(sigs)
+		close(done)
+	}
 }
 
 // axisStatus is the exit status an axis contributes: 1 for an unmet check
@@ -277,9 +315,8 @@ func designStream(files []*airframe.File, jobs int, keepTraces, release bool, st
 }
 
 // writeFiles writes files into dir, creating dir and its parents if
-// missing, through the one atomic writer (emit.WriteSources): the verbs
-// that write besides emit (report, identify's plots) take a directory
-// that may not exist yet.
+// missing, through the one atomic writer (emit.WriteSources): identify's
+// plot takes a directory that may not exist yet.
 func writeFiles(dir string, files []emit.Source) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return fmt.Errorf("create output directory: %w", err)

@@ -3,6 +3,8 @@ package main
 import (
 	"fmt"
 	"io"
+	"os"
+	"path/filepath"
 
 	"locusmith/discrete"
 	"locusmith/emit"
@@ -45,6 +47,10 @@ the captions say so.
 The output is a pure function of the input and the tool version. Each file
 is written through a temporary file and a rename, so a failed run never
 leaves a partial file; when a file cannot be loaded, nothing is written.
+Each airframe is written to its temporary files as soon as it is designed
+and then dropped, so memory stays that of a few airframes for any batch;
+the renames come when all are done. Only regular files of DIR are read
+or replaced (a symbolic link named like a report file is an error).
 
 Exit status: 0 every axis meets its spec; 1 a design check failed (the
 report is written and says which, stderr lists them); 2 bad input or usage.
@@ -82,39 +88,75 @@ func runReport(args []string, stdout, stderr io.Writer) int {
 	seen := map[string]string{}
 	for _, f := range files {
 		if prev, ok := seen[f.Airframe]; ok {
-			return usage("%s and %s both name airframe %q: their reports would overwrite each other; nothing written", prev, f.Path, f.Airframe)
+			return usage("%s and %s both name airframe %q: their reports would overwrite each other; nothing written", shown(prev), shown(f.Path), f.Airframe)
 		}
 		seen[f.Airframe] = f.Path
 	}
-	var all [][]review.File
-	var designs []*discrete.Airframe
-	for _, a := range designBatch(files, *jobs, true, stderr) {
+	// Each airframe is designed, rendered and written to temporary files
+	// in the output directory as soon as it and those before it are
+	// designed, and then dropped, so that memory stays that of a few
+	// airframes whatever the batch; the files are renamed into place when
+	// every airframe is done, so that a failure leaves the directory as
+	// it was (emit.Staged).
+	st := emit.NewStaged(*out)
+	stop := guardWrite(st, "report", stderr)
+	defer stop()
+	type done struct {
+		path, page string
+		plots      int
+		unmet      []string
+	}
+	var dones []done
+	var fail error
+	made := false
+	designStream(files, *jobs, true, true, stderr, func(i int, a *discrete.Airframe) {
+		if fail != nil {
+			return
+		}
 		f := a.File
 		for _, x := range a.Axes {
 			code = worst(code, axisStatus(x))
 		}
 		rf, err := review.Build(a)
 		if err != nil {
-			fmt.Fprintf(stderr, "locusmith report: %s: %v; nothing written\n", f.Path, err)
-			return exitUsage
+			fail = fmt.Errorf("%s: %v", shown(f.Path), err)
+			return
 		}
-		all = append(all, rf)
-		designs = append(designs, a)
-	}
-	for i, rf := range all {
 		srcs := make([]emit.Source, len(rf))
 		for j, f := range rf {
 			srcs[j] = emit.Source(f)
 		}
-		if err := writeFiles(*out, srcs); err != nil {
-			fmt.Fprintf(stderr, "locusmith report: %v\n", err)
-			return exitUsage
+		if !made {
+			if err := os.MkdirAll(*out, 0o755); err != nil {
+				fail = fmt.Errorf("create output directory: %w", err)
+				return
+			}
+			made = true
 		}
-		fmt.Fprintf(stdout, "%s: wrote %s (%d plots) in %s\n", designs[i].File.Path, rf[0].Name, len(rf)-1, *out)
+		if err := st.Add(srcs); err != nil {
+			fail = err
+			return
+		}
+		dones = append(dones, done{path: f.Path, page: rf[0].Name, plots: len(rf) - 1, unmet: a.Unmet()})
+	})
+	if fail != nil {
+		st.Abort()
+		fmt.Fprintf(stderr, "locusmith report: %s; nothing written\n", shown(fail.Error()))
+		return exitUsage
 	}
-	for _, a := range designs {
-		for _, msg := range a.Unmet() {
-			fmt.Fprintf(stderr, "%s: %s\n", a.File.Path, msg)
+	if _, err := st.Commit(); err != nil {
+		fmt.Fprintf(stderr, "locusmith report: %s\n", shown(err.Error()))
+		return exitUsage
+	}
+	for _, t := range st.Removed {
+		fmt.Fprintf(stderr, "locusmith report: removed %s, a temporary file an interrupted run left\n", shown(filepath.Join(*out, t)))
+	}
+	for _, d := range dones {
+		fmt.Fprintf(stdout, "%s: wrote %s (%d plots) in %s\n", shown(d.path), d.page, d.plots, shown(*out))
+	}
+	for _, d := range dones {
+		for _, msg := range d.unmet {
+			fmt.Fprintf(stderr, "%s: %s\n", shown(d.path), msg)
 		}
 	}
 	return code

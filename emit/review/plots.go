@@ -1,9 +1,11 @@
 package review
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"math/cmplx"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -193,12 +195,8 @@ func locusFigure(a *plotAxis, wide bool) (*figure, error) {
 			}
 		}
 	}
-	for _, br := range l.Branches {
-		pts := make(plotter.XYs, 0, len(br))
-		for _, z := range br {
-			pts = append(pts, plotter.XY{X: real(z), Y: imag(z)})
-		}
-		addLine(p, thinPath(pts, w), styleBranch)
+	for _, piece := range locusPieces(l.Branches, w) {
+		addLine(p, thinPath(piece, w), styleBranch)
 	}
 	// Open-loop poles and zeros: the approximant's in grey.
 	pade := padeRoots(a.d.Problem, l)
@@ -265,6 +263,92 @@ const (
 )
 
 func xy(z complex128) plotter.XY { return plotter.XY{X: real(z), Y: imag(z)} }
+
+// locusGrid is the resolution the locus is drawn at, as a fraction of the
+// window: 1/4096 of a 6.5-inch figure is a tenth of a point.
+const locusGrid = 4096
+
+// locusPieces returns the root-locus branches as the pieces a reader
+// sees, in an order that depends on nothing but their points, so that the
+// SVG is the same on every CPU (issue 14, item 10).
+//
+// Where two branches meet on the real axis (a break-in or breakaway
+// point), the roots move like √(k − k₀), and which branch continues
+// along which way depends on the last bits of the roots, which differ
+// between CPUs (eigenvalues, fused multiply-adds): the same picture, but
+// drawn as other polylines. So each point is rounded to 1/locusGrid of
+// the window (a difference in the last digits of a root then does not
+// reach the drawing), each branch is cut where it leaves or joins the
+// real axis as drawn (a root within half a grid step of it is on it), a
+// complex piece is ended on the axis at its own real part (the meeting
+// point, to within a step of the tracking), and the pieces are sorted by
+// their points.
+func locusPieces(branches [][]complex128, w window) []plotter.XYs {
+	gx, gy := (w.x1-w.x0)/locusGrid, (w.y1-w.y0)/locusGrid
+	var pieces []plotter.XYs
+	for _, br := range branches {
+		var cur plotter.XYs
+		prevOn := false
+		for i, z := range br {
+			if !isFinite(real(z)) || !isFinite(imag(z)) {
+				continue
+			}
+			pt := plotter.XY{X: snapTo(real(z), gx), Y: snapTo(imag(z), gy)}
+			onAxis := pt.Y == 0
+			if i > 0 && len(cur) > 0 && prevOn != onAxis {
+				if !onAxis {
+					// Leaving the axis: the complex piece starts on it.
+					pieces = appendPiece(pieces, cur)
+					cur = plotter.XYs{{X: pt.X, Y: 0}}
+				} else {
+					// Joining it: the complex piece ends on it.
+					cur = append(cur, plotter.XY{X: cur[len(cur)-1].X, Y: 0})
+					pieces = appendPiece(pieces, cur)
+					cur = nil
+				}
+			}
+			cur = append(cur, pt)
+			prevOn = onAxis
+		}
+		pieces = appendPiece(pieces, cur)
+	}
+	slices.SortFunc(pieces, comparePieces)
+	return pieces
+}
+
+// appendPiece adds a piece of two points or more.
+func appendPiece(pieces []plotter.XYs, p plotter.XYs) []plotter.XYs {
+	if len(p) < 2 {
+		return pieces
+	}
+	return append(pieces, p)
+}
+
+// comparePieces orders polylines by their points, x before y, then by
+// length.
+func comparePieces(a, b plotter.XYs) int {
+	for i := 0; i < len(a) && i < len(b); i++ {
+		if c := cmp.Compare(a[i].X, b[i].X); c != 0 {
+			return c
+		}
+		if c := cmp.Compare(a[i].Y, b[i].Y); c != 0 {
+			return c
+		}
+	}
+	return cmp.Compare(len(a), len(b))
+}
+
+// snapTo rounds x to a multiple of the grid step g (x itself when g is
+// not a positive finite number). A difference between two CPUs in the
+// last bits of x then changes the result only when x lies within that
+// difference of a half step, and the product is one IEEE operation,
+// the same everywhere.
+func snapTo(x, g float64) float64 {
+	if !(g > 0) || math.IsInf(g, 0) {
+		return x
+	}
+	return float64(math.Round(x/g) * g)
+}
 
 // thinPath drops points that are closer than 1/1500 of the window to the
 // last point kept (and the runs far outside it), which keeps the SVG small

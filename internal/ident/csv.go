@@ -11,6 +11,21 @@ import (
 	"strings"
 )
 
+// MaxSamples is the most data rows read from a log: 2^20, 17 minutes at
+// 1 kHz, far more than the few thousand samples the four parameters need;
+// a longer log is read to there and the rest ignored (the result says
+// so), so that memory and time stay bounded (about 280 bytes and 2 µs per
+// sample) whatever the file's size.
+const MaxSamples = 1 << 20
+
+// Bounds of the median sample interval of a log, s: the loop rates of the
+// airframe file (loop_hz ≤ 1e6) and a log at least one sample a second;
+// outside them the delay search would hold millions of candidates.
+const (
+	minInterval = 1e-6
+	maxInterval = 1.0
+)
+
 // MinSamples is the fewest data rows a log may have. Below a few hundred
 // samples there is not enough data for the noise to average out of four
 // physical parameters plus the per-segment initial state, whatever the
@@ -41,6 +56,9 @@ type Log struct {
 	// Line is the 1-based source line of each sample (nil for a Log built
 	// in code).
 	Line []int
+	// Truncated is set when the file had more than MaxSamples data rows:
+	// the log holds the first MaxSamples.
+	Truncated bool
 }
 
 // InputError is bad input: the file, the line (0 when not tied to one) and
@@ -138,6 +156,10 @@ func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
 	l := &Log{File: name}
 	var parsed [3]float64
 	for {
+		if len(l.Time) == MaxSamples {
+			l.Truncated = true
+			break
+		}
 		rec, err := cr.Read()
 		if errors.Is(err, io.EOF) {
 			break

@@ -1,6 +1,7 @@
 package ident
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"slices"
@@ -130,7 +131,7 @@ func Identify(l *Log, opt Options) (res *Result, err error) {
 	defer func() {
 		// A panic below is a bug; it must not take the caller down.
 		if r := recover(); r != nil {
-			res, err = nil, fmt.Errorf("identify: internal error: %v", r)
+			res, err = nil, fmt.Errorf("identify: %w: %v", ErrInternal, r)
 		}
 	}()
 	if opt.MaxDelay == 0 {
@@ -203,6 +204,9 @@ func Identify(l *Log, opt Options) (res *Result, err error) {
 		return nil, fmt.Errorf("identify: the fit did not converge to a finite cost")
 	}
 	res = &Result{T: p.T, Resampled: p.resampled, Excluded: p.excluded, Segments: len(f.segs)}
+	if l.Truncated {
+		res.Notes = append(res.Notes, fmt.Sprintf("the log has more than %d samples: the first %d (to line %d) are used, the rest ignored", MaxSamples, MaxSamples, lastLine(l)))
+	}
 	res.Notes = append(res.Notes, p.notes...)
 	if dropped := len(fitSegs) - len(f.segs); dropped > 0 {
 		res.Notes = append(res.Notes, fmt.Sprintf("%d stretch(es) shorter than %d samples between exclusions were not fitted", dropped, burn+minSegment))
@@ -583,4 +587,17 @@ func (r *Result) warnings(opt Options) {
 
 func fmtSig(v float64, digits int) string {
 	return fmt.Sprint(strconvG(v, digits))
+}
+
+// ErrInternal marks an error of Identify that is a bug (a recovered
+// panic), neither bad input nor a fit that failed.
+var ErrInternal = errors.New("internal error (a bug; please report it with the log)")
+
+// lastLine is the source line of the last sample of l (its index + 1
+// when l was built in code).
+func lastLine(l *Log) int {
+	if n := len(l.Line); n > 0 {
+		return l.Line[n-1]
+	}
+	return len(l.Time) + 1
 }

@@ -120,8 +120,8 @@ func prepare(l *Log, sat Saturation, holdout float64) (*data, error) {
 	if len(sorted)%2 == 0 {
 		T = 0.5 * (sorted[len(sorted)/2-1] + sorted[len(sorted)/2])
 	}
-	if !(T > 0) || math.IsInf(T, 0) {
-		return nil, &InputError{File: name, Msg: fmt.Sprintf("median sample interval %g s is not usable", T)}
+	if !(T >= minInterval && T <= maxInterval) {
+		return nil, &InputError{File: name, Msg: fmt.Sprintf("median sample interval %g s: must be in [%g, %g] s (a log of 1 Hz to 1 MHz); check the time column and --time-unit", T, minInterval, maxInterval)}
 	}
 	// Runs between gaps, and the largest jitter inside them.
 	var runs [][2]int

@@ -5,6 +5,7 @@ import (
 	"math"
 	"strconv"
 	"strings"
+	"unicode"
 )
 
 // strconvG formats v with the given significant digits, shortest form.
@@ -54,7 +55,7 @@ func valueDigits(p Param) int {
 func (r *Result) TOML(axis, source string) string {
 	var b strings.Builder
 	c := func(format string, a ...any) { fmt.Fprintf(&b, "# "+format+"\n", a...) }
-	c("Identified by locusmith identify from %s: output-error fit of", source)
+	c("Identified by locusmith identify from %s: output-error fit of", commentSafe(source))
 	if r.LowpassHz != nil {
 		c("  effectiveness/(s·(motor_tau·s + 1))·e^(−s·delay) and a gyro lowpass,")
 	} else {
@@ -97,4 +98,28 @@ func (r *Result) resampledNote() string {
 		return ", resampled from irregular timestamps"
 	}
 	return ""
+}
+
+// commentSafe returns s as it may stand in a TOML comment and on a
+// terminal: itself when it is printable text, else quoted with Go escapes.
+// TOML allows no control character but tab in a comment, and a newline
+// would end the comment and make the rest of s a line of TOML (a file
+// named "x\n[axes.roll.plant]\ngain = 1" would inject keys); bidirectional
+// controls would make the comment read other than it is.
+func commentSafe(s string) string {
+	for _, r := range s {
+		if r == utf8RuneError || !unicode.IsPrint(r) && r != ' ' || bidiControl(r) {
+			return strconv.Quote(s)
+		}
+	}
+	return s
+}
+
+// utf8RuneError is what ranging over invalid UTF-8 yields.
+const utf8RuneError = '\uFFFD'
+
+// bidiControl reports whether r is a Unicode control of bidirectional
+// text (the "Trojan Source" characters).
+func bidiControl(r rune) bool {
+	return r == 0x061C || r == 0x200E || r == 0x200F || 0x202A <= r && r <= 0x202E || 0x2066 <= r && r <= 0x2069
 }

@@ -1,0 +1,250 @@
+package emit
+
+import (
+	"bytes"
+	"crypto/sha256"
+	"encoding/hex"
+	"errors"
+	"regexp"
+	"strings"
+	"testing"
+
+	"locusmith/airframe"
+	"locusmith/discrete"
+)
+
+// TestStampIsTheContentHash recomputes the stamp of a generated pair by
+// hand, from the definition in the header's comment (SHA-256 of the two
+// files with their stamp values set aside; crypto/sha256 stands for the
+// outside check), and checks that the source and the vector program
+// carry the header's value.
+func TestStampIsTheContentHash(t *testing.T) {
+	a := codeTestAirframe(t, "x.toml", "stmp", "roll", "yaw")
+	for _, o := range []CodeOptions{{Lang: LangC, Vectors: true}, {Lang: LangC, HeaderOnly: true, Vectors: true}} {
+		srcs, _, err := GenerateCode(a, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		def := regexp.MustCompile(`(?m)^#define STMP_RATE_STAMP (0x[0-9a-f]{16})$`)
+		m := def.FindSubmatch(srcs[0].Data)
+		if m == nil {
+			t.Fatalf("%s: no stamp #define", srcs[0].Name)
+		}
+		v := string(m[1])
+		blank := func(b []byte) []byte { return bytes.ReplaceAll(b, []byte(v), []byte("<stamp>")) }
+		h := sha256.New()
+		h.Write(blank(srcs[0].Data))
+		h.Write([]byte{0})
+		if !o.HeaderOnly {
+			h.Write(blank(srcs[1].Data))
+		}
+		if want := "0x" + hex.EncodeToString(h.Sum(nil))[:16]; v != want {
+			t.Errorf("%+v: stamp %s, the hash of the content %s", o, v, want)
+		}
+		for _, s := range srcs[1:] {
+			if strings.HasSuffix(s.Name, "_qemu.c") {
+				continue
+			}
+			if !bytes.Contains(s.Data, []byte("#if !defined(STMP_RATE_STAMP) || STMP_RATE_STAMP != "+v+"\n#error ")) {
+				t.Errorf("%s does not check the stamp %s", s.Name, v)
+			}
+		}
+		if errs := CheckStamps(srcs); len(errs) != 0 {
+			t.Errorf("%+v: CheckStamps of one run: %v", o, errs)
+		}
+	}
+}
+
+// TestCheckStamps: files of two runs, a file edited by hand, a header
+// without its source, a stale source beside a header-only header, and a
+// source without its header are each reported on the file at fault.
+func TestCheckStamps(t *testing.T) {
+	gen := func(desc string, o CodeOptions) []Source {
+		a := codeTestAirframe(t, "x.toml", "chk", "roll")
+		f := *a.File
+		f.Description = desc
+		b := &discrete.Airframe{File: &f, Axes: a.Axes}
+		srcs, _, err := GenerateCode(b, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return srcs
+	}
+	pair := CodeOptions{Lang: LangC, Vectors: true}
+	one, two := gen("first", pair), gen("second", pair)
+	named := func(srcs []Source, name string) Source {
+		for _, s := range srcs {
+			if s.Name == name {
+				return s
+			}
+		}
+		t.Fatalf("no %s", name)
+		return Source{}
+	}
+	files := func(ss ...Source) []Source { return ss }
+	reported := func(errs []error) string {
+		var ns []string
+		for _, e := range errs {
+			var se *StampError
+			if !errors.As(e, &se) {
+				t.Fatalf("%v is not a *StampError", e)
+			}
+			ns = append(ns, se.File)
+		}
+		return strings.Join(ns, " ")
+	}
+	edited := named(one, "chk_rate.c")
+	edited.Data = bytes.Replace(edited.Data, []byte("return u;"), []byte("return -u;"), 1)
+	headerOnly := gen("third", CodeOptions{Lang: LangC, HeaderOnly: true})
+	for _, c := range []struct {
+		name  string
+		files []Source
+		want  string
+	}{
+		{"one run", one, ""},
+		{"header of another run", files(named(two, "chk_rate.h"), named(one, "chk_rate.c"), named(one, "chk_rate_vectors.c")), "chk_rate.c chk_rate_vectors.c"}, // the header is consistent: the two runs' sources differ in their stamp only
+		{"vector program of another run", files(named(one, "chk_rate.h"), named(one, "chk_rate.c"), named(two, "chk_rate_vectors.c")), "chk_rate_vectors.c"},
+		{"source edited by hand", files(named(one, "chk_rate.h"), edited), "chk_rate.h"},
+		{"header without its source", files(named(one, "chk_rate.h")), "chk_rate.h"},
+		{"source without its header", files(named(one, "chk_rate.c")), "chk_rate.c"},
+		{"stale source beside a header-only header", files(headerOnly[0], named(one, "chk_rate.c")), "chk_rate.c"},
+		{"other files are not read", files(Source{Name: "notes.txt", Data: []byte("x")}, Source{Name: "main.c", Data: []byte("int main(void) { return 0; }\n")}), ""},
+	} {
+		if got := reported(CheckStamps(c.files)); got != c.want {
+			t.Errorf("%s: reported %q, want %q", c.name, got, c.want)
+		}
+	}
+}
+
+// canonicalBase is a small airframe file (demo data) with comments; its
+// edits below keep or change its values.
+const canonicalBase = `# demo data: a test airframe
+airframe = "canon"
+description = "demo data: canonical hash test"
+loop_hz = 1000.0
+compute_delay = 1
+
+[numeric]
+type = "float32"
+
+[axes.roll.plant]
+effectiveness = 2000.0
+motor_tau = 0.03
+
+[axes.roll.sensor]
+lowpass_hz = 100.0
+
+[axes.roll.spec]
+settling_time = 0.25
+overshoot = 0.10
+
+[axes.roll.control]
+form = "pi"
+output_limit = [-0.5, 0.5]
+`
+
+// TestCanonicalInputHash: the generated files carry the hash of the
+// input's values, so an edit of comments, whitespace, quoting, table
+// layout or key order, or an integer written for a number, leaves every
+// generated byte as it was, and an edit of a value changes the hash (and
+// the files). Before, the header carried the hash of the file's bytes and
+// a comment rewrote every file.
+func TestCanonicalInputHash(t *testing.T) {
+	gen := func(text string) ([]Source, *airframe.File) {
+		f, err := airframe.Parse("canon.toml", []byte(text))
+		if err != nil {
+			t.Fatalf("%v\n%s", err, text)
+		}
+		a := discrete.DesignAirframe(f)
+		var all []Source
+		for _, o := range []CodeOptions{{Lang: LangC, Vectors: true}, {Lang: LangGo, Vectors: true}} {
+			srcs, _, err := GenerateCode(a, o)
+			if err != nil {
+				t.Fatal(err)
+			}
+			all = append(all, srcs...)
+		}
+		return all, f
+	}
+	base, bf := gen(canonicalBase)
+	same := map[string]string{
+		"comments and blank lines": strings.ReplaceAll(canonicalBase, "\n[", "\n# a comment\n\n["),
+		"whitespace and quoting":   strings.Replace(strings.Replace(canonicalBase, "form = \"pi\"", "form   =   'pi'", 1), "motor_tau = 0.03", "motor_tau=0.03   # s", 1),
+		"key order":                strings.Replace(strings.Replace(canonicalBase, "loop_hz = 1000.0\ncompute_delay = 1\n", "compute_delay = 1\nloop_hz = 1000.0\n", 1), "[axes.roll.plant]\neffectiveness = 2000.0\nmotor_tau = 0.03\n", "[axes.roll.plant]\nmotor_tau = 0.03\neffectiveness = 2000.0\n", 1),
+		"table layout":             strings.Replace(canonicalBase, "[axes.roll.sensor]\nlowpass_hz = 100.0\n", "", 1) + "\n[axes.roll]\nsensor = { lowpass_hz = 100.0 }\n",
+		"integer for a number":     strings.Replace(canonicalBase, "loop_hz = 1000.0", "loop_hz = 1000", 1),
+	}
+	for name, text := range same {
+		if text == canonicalBase {
+			t.Fatalf("%s: the edit did not apply", name)
+		}
+		srcs, f := gen(text)
+		if f.SHA256 == bf.SHA256 {
+			t.Fatalf("%s: the file's bytes did not change", name)
+		}
+		if f.CanonicalSHA256() != bf.CanonicalSHA256() {
+			t.Errorf("%s: canonical hash changed:\n%s\n%s", name, bf.Canonical(), f.Canonical())
+		}
+		for i := range base {
+			if !bytes.Equal(srcs[i].Data, base[i].Data) {
+				t.Errorf("%s: %s changed", name, srcs[i].Name)
+			}
+		}
+	}
+	for name, text := range map[string]string{
+		"a setting":                strings.Replace(canonicalBase, "overshoot = 0.10", "overshoot = 0.11", 1),
+		"free text":                strings.Replace(canonicalBase, "canonical hash test", "canonical hash test, edited", 1),
+		"a key set to its default": strings.Replace(canonicalBase, "form = \"pi\"", "form = \"pi\"\nantiwindup = \"backcalc\"", 1),
+	} {
+		srcs, f := gen(text)
+		if f.CanonicalSHA256() == bf.CanonicalSHA256() {
+			t.Errorf("%s: canonical hash unchanged", name)
+		}
+		for i := range base {
+			if bytes.Equal(srcs[i].Data, base[i].Data) {
+				t.Errorf("%s: %s unchanged", name, srcs[i].Name)
+			}
+		}
+	}
+	// The canonical text itself, by hand (locusmith's notation: sorted
+	// quoted keys, numbers as n:<shortest decimal>).
+	f, err := airframe.Parse("t.toml", []byte("airframe = \"t\"\nloop_hz = 1000\n[numeric]\ntype = \"float32\"\n[axes.r.plant]\neffectiveness = 1.5\nmotor_tau = 0.5\n[axes.r.spec]\nsettling_time = 0.2\novershoot = 0.1\n[axes.r.control]\noutput_limit = [-1, 1]\nform = \"pi\"\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := `{"airframe":"t","axes":{"r":{"control":{"form":"pi","output_limit":[n:-1,n:1]},"plant":{"effectiveness":n:1.5,"motor_tau":n:0.5},"spec":{"overshoot":n:0.1,"settling_time":n:0.2}}},"loop_hz":n:1000,"numeric":{"type":"float32"}}`
+	if got := string(f.Canonical()); got != want {
+		t.Errorf("canonical text\n%s\nwant\n%s", got, want)
+	}
+	sum := sha256.Sum256([]byte(want))
+	if f.CanonicalSHA256() != hex.EncodeToString(sum[:]) {
+		t.Errorf("CanonicalSHA256 is not the SHA-256 of Canonical")
+	}
+}
+
+// TestGoPackageName: Go package names carry no underscore (Effective Go,
+// "Package names"), so airframe gimbal_cam gives package gimbalcamrate;
+// the file keeps the airframe's name.
+func TestGoPackageName(t *testing.T) {
+	a := codeTestAirframe(t, "x.toml", "gimbal_cam", "roll")
+	srcs, _, err := GenerateCode(a, CodeOptions{Lang: LangGo, Vectors: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, s := range srcs {
+		if !bytes.Contains(s.Data, []byte("\npackage gimbalcamrate\n")) {
+			t.Errorf("%s: not package gimbalcamrate", s.Name)
+		}
+	}
+	if srcs[0].Name != "gimbal_camrate.go" {
+		t.Errorf("file %s", srcs[0].Name)
+	}
+	// Every doc comment of an exported identifier starts with its name
+	// (Go Code Review Comments, "Doc Comments").
+	doc := regexp.MustCompile(`(?m)((?:^// .*\n)+)^(?:func \(c \*\w+\) |type |func )([A-Z]\w*)`)
+	for _, m := range doc.FindAllStringSubmatch(string(srcs[0].Data), -1) {
+		if !strings.HasPrefix(m[1], "// "+m[2]+" ") {
+			t.Errorf("doc comment of %s does not start with its name: %q", m[2], m[1])
+		}
+	}
+}
