@@ -103,6 +103,9 @@ func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Des
 	d.Warnings = append(d.Warnings, d.realizeWarnings...)
 	d.Checks = d.checks()
 	d.Checks = append(d.Checks, d.samplingCheck())
+	if c, ok := d.saturatedCheck(); ok {
+		d.Checks = append(d.Checks, c)
+	}
 	d.integratorReach()
 	// Numeric realization (numeric.go): its checks and warnings join the
 	// design's; bad numeric settings come back as an *InputError.

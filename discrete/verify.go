@@ -48,6 +48,10 @@ type Saturated struct {
 	// LimitedByFullScale is set when the step was reduced to the input
 	// full scale of the numeric realization.
 	LimitedByFullScale bool
+	// Reached says the command with anti-windup touched an output limit:
+	// false when the reductions above left a step the linear loop follows
+	// within the limits, so there is no windup to show.
+	Reached            bool
 	Y, YNone, U, UNone []float64
 }
 
@@ -173,6 +177,7 @@ func saturated(p airframe.Axis, pl Plant, k Coeffs, d int, ulin []float64, dc fl
 		s.Amplitude, s.LimitedByFullScale = maxStep, true
 	}
 	s.Y, s.U, s.IntegratorPeak = simulateNonlinear(pl, k, d, s.Amplitude, n)
+	s.Reached = reached(s.U, k.Lo, k.Hi)
 	none := k
 	none.AntiWindup = AWNone
 	s.YNone, s.UNone, _ = simulateNonlinear(pl, none, d, s.Amplitude, n)

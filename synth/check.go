@@ -60,6 +60,7 @@ func (c Check) String() string {
 		"hold_rate":            "holdable rate",
 		"disturbance_recovery": "load-disturbance recovery",
 		"noise_gain":           "noise gain (command per rad/s)",
+		"saturated_recovery":   "recovery from the saturating step",
 	}[c.Name]
 	if what == "" {
 		what = c.Name
@@ -129,6 +130,11 @@ func CheckValue(name string, v float64) string {
 	case "hold_rate":
 		return finiteOr(v, func(v float64) string { return G4(v) + " rad/s" })
 	case "disturbance_recovery":
+		return finiteOr(v, func(v float64) string { return G4(v) + " s" })
+	case "saturated_recovery":
+		if math.IsInf(v, 1) {
+			return "never" // wound up, stuck at a limit, or cycling
+		}
 		return finiteOr(v, func(v float64) string { return G4(v) + " s" })
 	}
 	// max_sensitivity (Ms, dimensionless), noise_gain (command per

@@ -5,13 +5,14 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"strings"
 
 	"locusmith/discrete"
 	"locusmith/emit"
 	"locusmith/emit/review"
 )
 
-const reportHelp = `Usage: locusmith report -o DIR FILE...
+const reportHelp = `Usage: locusmith report [--html] -o DIR FILE...
 
 Design and verify every axis of each airframe file and write a design
 review into DIR (created if missing): per airframe <airframe>.md, and beside
@@ -21,20 +22,39 @@ it the SVG plots it links, per axis:
                                     with the designed controller form as
                                     its gain scales from 0 to 10 times the
                                     design, open-loop poles and zeros, the
-                                    target, the closed-loop poles at the
-                                    design and the spec region shaded
+                                    textbook target, the designed
+                                    closed-loop poles, and the second-order
+                                    guide shaded (a textbook guide, not a
+                                    pass/fail bound)
   <airframe>-<axis>-locus-wide.svg  the same with every pole and zero and
                                     the asymptotes
   <airframe>-<axis>-step.svg        unit-step responses, continuous,
                                     discrete (sample markers) and fixed
                                     point, against the overshoot limit and
                                     the settling band
+  <airframe>-<axis>-envelope.svg    the unit step at every plant of the
+                                    envelope, as a band
   <airframe>-<axis>-saturated.svg   a step that saturates the command,
-                                    with and without anti-windup
+                                    with and without anti-windup; when no
+                                    step the loop can hold reaches the
+                                    output limits, the largest one tried,
+                                    saying so, and no comparison
+  <airframe>-<axis>-disturbance.svg the load step at every plant of the
+                                    envelope, with the recovery
   <airframe>-<axis>-bode.svg        loop frequency response, continuous
                                     and discrete, crossover and margins
+                                    (PM and GM written on the plot), ω in
+                                    rad/s with a Hz axis on top
+  <airframe>-<axis>-sensitivity.svg |S|, |T| and |C·S| against the Ms and
+                                    noise-gain bounds
   <airframe>-<axis>-zplane.svg      closed-loop poles and zeros of the
                                     sampled loop with the unit circle
+
+With --html, each airframe also gets <airframe>.html beside the
+Markdown: the same page as one self-contained file (every plot inlined as
+SVG, the style sheet in the page, no script, nothing fetched), the one
+file a reviewer opens and signs. It is written with the Markdown and the
+plots, through the same temporary files and renames.
 
 The Markdown says what each axis does, gives the plant, sensor and spec,
 the root-locus working (the angle table and the magnitude condition, so
@@ -57,12 +77,14 @@ report is written and says which, stderr lists them); 2 bad input or usage.
 
 Examples:
   locusmith report -o review examples/quadrotor.toml
-  locusmith report -o build/review examples/*.toml`
+  locusmith report -o build/review examples/*.toml
+  locusmith report --html -o review examples/quadrotor.toml   # also review/sandpiper.html`
 
 // runReport is the report verb.
 func runReport(args []string, stdout, stderr io.Writer) int {
 	fs, help := newFlagSet("report")
 	out := fs.StringP("out", "o", "", "output directory (created if missing)")
+	html := fs.Bool("html", false, "also write <airframe>.html, one self-contained page per airframe")
 	jobs := jobsFlag(fs)
 	if done, code := parseFlags(fs, help, args, reportHelp, stdout, stderr); done {
 		return code
@@ -122,9 +144,19 @@ func runReport(args []string, stdout, stderr io.Writer) int {
 			fail = fmt.Errorf("%s: %v", shown(f.Path), err)
 			return
 		}
-		srcs := make([]emit.Source, len(rf))
+		srcs := make([]emit.Source, len(rf), len(rf)+1)
 		for j, f := range rf {
 			srcs[j] = emit.Source(f)
+		}
+		if *html {
+			// The page is made from the files just rendered, so it is the
+			// Markdown and plots of this run, byte for byte.
+			page, err := review.HTML(rf)
+			if err != nil {
+				fail = fmt.Errorf("%s: %w", shown(f.Path), err)
+				return
+			}
+			srcs = append(srcs, emit.Source(page))
 		}
 		if !made {
 			if err := os.MkdirAll(*out, 0o755); err != nil {
@@ -137,7 +169,11 @@ func runReport(args []string, stdout, stderr io.Writer) int {
 			fail = err
 			return
 		}
-		dones = append(dones, done{path: f.Path, page: rf[0].Name, plots: len(rf) - 1, unmet: a.Unmet()})
+		page := rf[0].Name
+		if *html {
+			page += " and " + strings.TrimSuffix(page, ".md") + ".html"
+		}
+		dones = append(dones, done{path: f.Path, page: page, plots: len(rf) - 1, unmet: a.Unmet()})
 	})
 	if fail != nil {
 		st.Abort()

@@ -3,6 +3,7 @@ package review
 import (
 	"bytes"
 	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"slices"
@@ -232,6 +233,10 @@ func TestRegressionRules(t *testing.T) {
 		// The pole radius of "stable" is pass or fail only.
 		{"stable, radius moves", "stable", ck("stable", 0.98, 1, true), ck("stable", 0.998, 1, true), false, 0.05, 0.05, Neutral},
 		{"stable, now unstable", "stable", ck("stable", 0.98, 1, true), ck("stable", 1.01, 1, false), false, 0.05, 0.05, Regression},
+		// The saturated step's recovery is pass or fail only: its limit
+		// is the record's length, not a spec.
+		{"saturated step slower, recovered", "saturated_recovery", ck("saturated_recovery", 0.2, 4.9, true), ck("saturated_recovery", 0.9, 4.9, true), false, 0.05, 0.05, Neutral},
+		{"saturated step no longer recovers", "saturated_recovery", ck("saturated_recovery", 0.2, 4.9, true), ck("saturated_recovery", math.Inf(1), 4.9, false), false, 0.05, 0.05, Regression},
 		{"quantized check, slack only", "quantized_overshoot", ck("quantized_overshoot", 0.0002, 0.10, true), ck("quantized_overshoot", 0.015, 0.10, true), false, 0.05, 0.05, Neutral},
 		{"quantized check, newly fails", "quantized_overshoot", ck("quantized_overshoot", 0.05, 0.10, true), ck("quantized_overshoot", 0.11, 0.10, false), false, 0.05, 0.05, Regression},
 		// The headroom in bits: a bit lost, half a bit, below one.

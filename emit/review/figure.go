@@ -73,22 +73,37 @@ func restyle(sty *text.Style, size float64) {
 // niceTicks labels a linear axis at 1, 2, 2.5 or 5 times a power of ten,
 // five to eight labels, with minor marks between; the labels have as many
 // decimals as the step needs and a true minus sign.
-type niceTicks struct{}
+//
+// A fixed step (non-zero) replaces the choice: the equal-scale panels
+// label both axes at one step, so that the grid cells are square.
+type niceTicks struct{ step float64 }
 
-func (niceTicks) Ticks(lo, hi float64) []plot.Tick {
-	if !(hi > lo) || !isFinite(lo) || !isFinite(hi) {
-		return nil
-	}
+// niceStep is the step of niceTicks for the range lo…hi and the number of
+// minor intervals per step.
+func niceStep(lo, hi float64) (step float64, minor int) {
 	raw := (hi - lo) / 6
 	mag := math.Pow(10, math.Floor(math.Log10(raw)))
-	step, minor := 10*mag, 5
+	step, minor = 10*mag, 5
 	for _, m := range []struct {
 		f float64
 		n int
 	}{{1, 5}, {2, 4}, {2.5, 5}, {5, 5}} {
 		if m.f*mag >= raw*0.95 {
-			step, minor = m.f*mag, m.n
-			break
+			return m.f * mag, m.n
+		}
+	}
+	return step, minor
+}
+
+func (nt niceTicks) Ticks(lo, hi float64) []plot.Tick {
+	if !(hi > lo) || !isFinite(lo) || !isFinite(hi) {
+		return nil
+	}
+	step, minor := niceStep(lo, hi)
+	if nt.step > 0 && (hi-lo)/nt.step <= 20 {
+		step = nt.step
+		if _, m := niceStep(0, 6*step); m > 0 {
+			minor = m
 		}
 	}
 	// As many decimals as the step needs to be written exactly.
@@ -160,10 +175,30 @@ func lineStyle(c color.Color, w float64, dashes []vg.Length) draw.LineStyle {
 	return draw.LineStyle{Color: c, Width: vg.Points(w), Dashes: dashes}
 }
 
-// entry is one legend entry: the label and what its thumbnail shows.
+// entry is one legend entry: the label, what its thumbnail shows and,
+// when it names a drawn series, where that series is (seen), so that an
+// entry whose series falls wholly outside the final axis ranges is left
+// out: the legend names only what the reader can find in the panels.
 type entry struct {
 	label  string
 	thumbs []plot.Thumbnailer
+	seen   []seen
+}
+
+// seen is a drawn series a legend entry names: a polyline (line) or
+// markers at pts, in panel's data coordinates.
+type seen struct {
+	panel int
+	pts   plotter.XYs
+	line  bool
+}
+
+// panelLayout is where a panel ended up: its final axis ranges and the
+// size of its data area in points (tests check the s- and z-planes'
+// equal scale with it).
+type panelLayout struct {
+	w            window
+	dataW, dataH float64
 }
 
 // figure is a grid of aligned panels with one legend below them all.
@@ -173,15 +208,121 @@ type figure struct {
 	panelH     vg.Length    // height of one panel row
 	legend     []entry
 	note       string // a caption line under the legend (e.g. the Padé note)
+	// caption, when set, replaces the report's usual caption of the
+	// plot kind (a saturating step that cannot saturate is not one).
+	caption string
 	// equal marks the panels (by index) whose axes must have one scale,
 	// so that angles read true (the s- and z-planes); the value says
 	// whether the x range may only grow to the left.
 	equal map[int]bool
+	// hz marks the panels (by index, log axes in rad/s) that get a
+	// second frequency axis in Hz along their top edge: the airframe file
+	// gives its rates in Hz, the plant's poles in rad/s.
+	hz map[int]bool
+	// layout is filled by svg: each panel's final ranges and data area,
+	// and where the legend went (in the SVG's user units, y up).
+	layout    []panelLayout
+	legendBox vg.Rectangle
 }
 
-// add appends a legend entry.
+// add appends a legend entry for something always shown (a shaded
+// bound, a note on the markers).
 func (f *figure) add(label string, thumbs ...plot.Thumbnailer) {
 	f.legend = append(f.legend, entry{label: label, thumbs: thumbs})
+}
+
+// addSeen appends a legend entry for drawn series: it stays in the
+// legend only if one of them shows within its panel's final ranges.
+// Without any series there is nothing drawn to name, and no entry.
+func (f *figure) addSeen(ss []seen, label string, thumbs ...plot.Thumbnailer) {
+	if len(ss) == 0 {
+		return
+	}
+	f.legend = append(f.legend, entry{label: label, thumbs: thumbs, seen: ss})
+}
+
+// lineIn and pointsIn are the series of an addSeen entry.
+func lineIn(panel int, pts plotter.XYs) seen   { return seen{panel: panel, pts: pts, line: true} }
+func pointsIn(panel int, pts plotter.XYs) seen { return seen{panel: panel, pts: pts} }
+
+// shown reports whether the series is within the panel's ranges: a
+// marker inside them, or a segment of the polyline that crosses them
+// (on the panel's scales, so a log axis is judged as drawn).
+func (s seen) shown(p *plot.Plot) bool {
+	norm := func(q plotter.XY) (float64, float64, bool) {
+		if !isFinite(q.X) || !isFinite(q.Y) {
+			return 0, 0, false
+		}
+		if _, ok := p.X.Scale.(plot.LogScale); ok && !(q.X > 0) {
+			return 0, 0, false
+		}
+		if _, ok := p.Y.Scale.(plot.LogScale); ok && !(q.Y > 0) {
+			return 0, 0, false
+		}
+		return p.X.Norm(q.X), p.Y.Norm(q.Y), true
+	}
+	const eps = 1e-9
+	in := func(x, y float64) bool { return x >= -eps && x <= 1+eps && y >= -eps && y <= 1+eps }
+	for i, q := range s.pts {
+		x, y, ok := norm(q)
+		if !ok {
+			continue
+		}
+		if in(x, y) {
+			return true
+		}
+		if !s.line || i == 0 {
+			continue
+		}
+		if x0, y0, ok := norm(s.pts[i-1]); ok && segmentMeetsUnit(x0, y0, x, y) {
+			return true
+		}
+	}
+	return false
+}
+
+// segmentMeetsUnit reports whether the segment from (x0, y0) to (x1, y1)
+// meets the unit square (Liang–Barsky clipping, textbook, from memory).
+func segmentMeetsUnit(x0, y0, x1, y1 float64) bool {
+	t0, t1 := 0.0, 1.0
+	dx, dy := x1-x0, y1-y0
+	for _, e := range [4][2]float64{{-dx, x0}, {dx, 1 - x0}, {-dy, y0}, {dy, 1 - y0}} {
+		p, q := e[0], e[1]
+		if p == 0 {
+			if q < 0 {
+				return false
+			}
+			continue
+		}
+		r := q / p
+		if p < 0 {
+			t0 = math.Max(t0, r)
+		} else {
+			t1 = math.Min(t1, r)
+		}
+		if t0 > t1 {
+			return false
+		}
+	}
+	return true
+}
+
+// visibleLegend returns the entries of all whose series are in sight.
+func (f *figure) visibleLegend(all []entry) []entry {
+	var out []entry
+	for _, e := range all {
+		keep := len(e.seen) == 0
+		for _, s := range e.seen {
+			if s.panel >= 0 && s.panel < len(f.panels) && s.shown(f.panels[s.panel]) {
+				keep = true
+				break
+			}
+		}
+		if keep {
+			out = append(out, e)
+		}
+	}
+	return out
 }
 
 // legendLayout flows the entries into as many columns as fit the width.
@@ -243,10 +384,10 @@ func (f *figure) svg() (out []byte, err error) {
 	}
 	pad := vg.Points(8)
 	inner := figWidth - 2*pad
-	_, _, rowH, nrows := f.legendLayout(inner)
-	legendH := vg.Length(nrows) * rowH
-	if legendH > 0 {
-		legendH += vg.Points(6)
+	for i := range f.hz {
+		// Room between the title (or the panel above) and the data area
+		// for the Hz axis.
+		f.panels[i].Title.Padding += hzAxisRoom
 	}
 	noteSty := textStyle(sizeNote, colGrey)
 	noteLines := wrapText(f.note, noteSty, inner-vg.Points(8))
@@ -255,46 +396,96 @@ func (f *figure) svg() (out []byte, err error) {
 	if noteH > 0 {
 		noteH += vg.Points(2)
 	}
-	height := vg.Length(f.rows)*f.panelH + legendH + noteH + 2*pad
-	c := vgsvg.New(figWidth, height)
-	dc := draw.New(c)
-	dc.SetColor(colPaper)
-	dc.Fill(dc.Rectangle.Path())
-	area := draw.Crop(dc, pad, -pad, pad+legendH+noteH, -pad)
 	grid := make([][]*plot.Plot, f.rows)
 	for r := range grid {
 		grid[r] = f.panels[r*f.cols : (r+1)*f.cols]
 	}
-	canvases := func() [][]draw.Canvas {
-		if f.rows == 1 && f.cols == 1 {
-			// One panel: nothing to align (plot.Align lays every panel
-			// out twice).
-			return [][]draw.Canvas{{area}}
+	// The legend names what is in sight, which the equal-scale fit
+	// below can widen (it only widens): lay out, fit, and lay out again
+	// with the entries that came into sight, until none does.
+	all := f.legend
+	f.legend = f.visibleLegend(all)
+	var (
+		c       *vgsvg.Canvas
+		dc      draw.Canvas
+		canv    [][]draw.Canvas
+		legendH vg.Length
+	)
+	for round := 0; ; round++ {
+		_, _, rowH, nrows := f.legendLayout(inner)
+		legendH = vg.Length(nrows) * rowH
+		if legendH > 0 {
+			legendH += vg.Points(6)
 		}
-		tiles := draw.Tiles{Rows: f.rows, Cols: f.cols, PadX: vg.Points(14), PadY: vg.Points(8)}
-		return plot.Align(grid, tiles, area)
-	}
-	canv := canvases()
-	if len(f.equal) > 0 {
-		// Fit the ranges to the data areas as laid out, then lay out
-		// again (the tick labels may have changed width).
-		for i, left := range f.equal {
-			p := f.panels[i]
-			dc := p.DataCanvas(canv[i/f.cols][i%f.cols])
-			w := window{p.X.Min, p.X.Max, p.Y.Min, p.Y.Max}
-			w = fitAspect(w, float64(dc.Max.X-dc.Min.X), float64(dc.Max.Y-dc.Min.Y), left)
-			w.apply(p)
+		height := vg.Length(f.rows)*f.panelH + legendH + noteH + 2*pad
+		c = vgsvg.New(figWidth, height)
+		dc = draw.New(c)
+		area := draw.Crop(dc, pad, -pad, pad+legendH+noteH, -pad)
+		canvases := func() [][]draw.Canvas {
+			if f.rows == 1 && f.cols == 1 {
+				// One panel: nothing to align (plot.Align lays every
+				// panel out twice).
+				return [][]draw.Canvas{{area}}
+			}
+			tiles := draw.Tiles{Rows: f.rows, Cols: f.cols, PadX: vg.Points(14), PadY: vg.Points(8)}
+			return plot.Align(grid, tiles, area)
 		}
 		canv = canvases()
+		// Fit the ranges of the equal-scale panels to their data areas
+		// as laid out, then lay out again: the new tick labels may be
+		// wider or narrower and change the data area, so repeat until
+		// the fit holds (it settles in a pass or two).
+		for pass := 0; pass < 6 && len(f.equal) > 0; pass++ {
+			moved := false
+			for i, left := range f.equal {
+				p := f.panels[i]
+				pc := p.DataCanvas(canv[i/f.cols][i%f.cols])
+				w := window{p.X.Min, p.X.Max, p.Y.Min, p.Y.Max}
+				nw := fitAspect(w, float64(pc.Max.X-pc.Min.X), float64(pc.Max.Y-pc.Min.Y), left)
+				if nw != w {
+					moved = true
+					nw.apply(p)
+				}
+				// One tick step on both axes: the larger of the two
+				// the ranges would choose.
+				sx, _ := niceStep(nw.x0, nw.x1)
+				sy, _ := niceStep(nw.y0, nw.y1)
+				t := niceTicks{step: math.Max(sx, sy)}
+				if p.X.Tick.Marker != plot.Ticker(t) || p.Y.Tick.Marker != plot.Ticker(t) {
+					moved = true
+					p.X.Tick.Marker, p.Y.Tick.Marker = t, t
+				}
+			}
+			if !moved {
+				break
+			}
+			canv = canvases()
+		}
+		vis := f.visibleLegend(all)
+		if len(vis) == len(f.legend) || round == 2 {
+			break
+		}
+		f.legend = vis
 	}
+	dc.SetColor(colPaper)
+	dc.Fill(dc.Rectangle.Path())
+	f.layout = make([]panelLayout, len(f.panels))
 	for r := range grid {
 		for k, p := range grid[r] {
 			p.Draw(canv[r][k])
+			i := r*f.cols + k
+			dc := p.DataCanvas(canv[r][k])
+			f.layout[i] = panelLayout{w: window{p.X.Min, p.X.Max, p.Y.Min, p.Y.Max},
+				dataW: float64(dc.Max.X - dc.Min.X), dataH: float64(dc.Max.Y - dc.Min.Y)}
+			if f.hz[i] {
+				drawHzAxis(p, dc)
+			}
 		}
 	}
 	if legendH > 0 {
 		lc := draw.Crop(dc, pad+vg.Points(4), -pad, pad+noteH, 0)
 		lc.Max.Y = lc.Min.Y + legendH
+		f.legendBox = lc.Rectangle
 		f.drawLegend(lc)
 	}
 	for i, line := range noteLines {
@@ -306,6 +497,50 @@ func (f *figure) svg() (out []byte, err error) {
 		return nil, fmt.Errorf("plot: %w", err)
 	}
 	return fixFonts(b.Bytes()), nil
+}
+
+// hzAxisRoom is the height the Hz axis takes above a panel's data area.
+const hzAxisRoom = vg.Length(20)
+
+// drawHzAxis draws a second frequency axis along the top of the data area
+// dc of p, whose x axis is ω in rad/s on a log scale: ticks at f = ω/(2π)
+// in Hz, the decades labelled, the unit at the right end.
+func drawHzAxis(p *plot.Plot, dc draw.Canvas) {
+	lo, hi := p.X.Min/(2*math.Pi), p.X.Max/(2*math.Pi)
+	if !(lo > 0) || !(hi > lo) {
+		return
+	}
+	axis := lineStyle(colGrey, 0.8, dashSolid)
+	top := dc.Max.Y
+	dc.StrokeLine2(axis, dc.Min.X, top, dc.Max.X, top)
+	sty := textStyle(sizeTick, colBlack)
+	sty.XAlign, sty.YAlign = draw.XCenter, draw.YBottom
+	// float64() keeps the product from fusing with the sum (the same
+	// bytes on every architecture).
+	xOf := func(f float64) vg.Length {
+		return dc.Min.X + vg.Length(float64(p.X.Norm(2*math.Pi*f)*float64(dc.Max.X-dc.Min.X)))
+	}
+	last := dc.Min.X
+	for _, t := range (logTicks{}).Ticks(lo, hi) {
+		x := xOf(t.Value)
+		n := vg.Points(2.5)
+		if t.Label != "" {
+			n = vg.Points(5)
+		}
+		dc.StrokeLine2(axis, x, top, x, top+n)
+		if t.Label != "" {
+			dc.FillText(sty, vg.Point{X: x, Y: top + vg.Points(6)}, t.Label)
+			last = x
+		}
+	}
+	unit := textStyle(sizeTick, colBlack)
+	unit.XAlign, unit.YAlign = draw.XRight, draw.YBottom
+	if x := dc.Max.X; x-last > vg.Points(40) {
+		dc.FillText(unit, vg.Point{X: x, Y: top + vg.Points(6)}, "f (Hz)")
+	} else {
+		unit.XAlign = draw.XLeft
+		dc.FillText(unit, vg.Point{X: x + vg.Points(4), Y: top + vg.Points(6)}, "Hz")
+	}
 }
 
 // wrapText breaks s into lines no wider than width, at spaces.
@@ -420,8 +655,13 @@ func (t thumbFill) Thumbnail(c *draw.Canvas) {
 	c.StrokeLines(t.edge, []vg.Point{r.Min, {X: r.Max.X, Y: r.Min.Y}, r.Max, {X: r.Min.X, Y: r.Max.Y}, r.Min})
 }
 
-// label places text at a data point.
+// label places text at a data point, its left end at the offset (points).
 func addLabel(p *plot.Plot, x, y float64, s string, c color.Color, xoff, yoff float64) {
+	addLabelAlign(p, x, y, s, c, xoff, yoff, draw.XLeft)
+}
+
+// addLabelAlign is addLabel with the text's horizontal alignment.
+func addLabelAlign(p *plot.Plot, x, y float64, s string, c color.Color, xoff, yoff float64, align text.XAlignment) {
 	if !isFinite(x) || !isFinite(y) {
 		return
 	}
@@ -430,6 +670,7 @@ func addLabel(p *plot.Plot, x, y float64, s string, c color.Color, xoff, yoff fl
 		return
 	}
 	sty := textStyle(sizeNote, c)
+	sty.XAlign = align
 	l.TextStyle = []text.Style{sty}
 	l.Offset = vg.Point{X: vg.Points(xoff), Y: vg.Points(yoff)}
 	p.Add(l)

@@ -284,13 +284,13 @@ func axisModel(airframe string, x discrete.Outcome) (AxisPage, []builtFigure) {
 	ar.DPoles = zPolesText(d.Verif.Poles, d.Plant.T)
 	ar.Fixed = fixedOf(d)
 	for _, w := range dedup(d.Warnings) {
-		ar.Warnings = append(ar.Warnings, mdText(w))
+		ar.Warnings = append(ar.Warnings, mdText(sentence(w)))
 	}
 	pa, notes := newPlotAxis(x)
 	figs, plots := axisFigures(airframe, pa)
 	ar.Plots = plots
 	for _, n := range notes {
-		ar.Notes = append(ar.Notes, mdText(n))
+		ar.Notes = append(ar.Notes, mdText(sentence(n)))
 	}
 	return ar, figs
 }
@@ -352,6 +352,22 @@ func formText(d *discrete.Design) string {
 	return strings.Join(parts, "; ") + "."
 }
 
+// sentence starts s with a capital, the page's style for a sentence or a
+// "label: text" line (the stages write their warnings in lower case for
+// the terminal). Only a first word of two or more lower-case ASCII
+// letters (before any hyphen) is changed: a symbol such as z, ωc or Kp
+// keeps its case.
+func sentence(s string) string {
+	n := 0
+	for n < len(s) && s[n] >= 'a' && s[n] <= 'z' {
+		n++
+	}
+	if n < 2 || n < len(s) && s[n] != ' ' && s[n] != '-' && s[n] != ':' && s[n] != ',' {
+		return s
+	}
+	return strings.ToUpper(s[:1]) + s[1:]
+}
+
 func plantLines(p airframe.Axis) []string {
 	m := p.Plant.Model
 	tf := "G(s) = " + zpkText(m.Gain, m.Zeros, m.Poles)
@@ -359,9 +375,9 @@ func plantLines(p airframe.Axis) []string {
 		tf += fmt.Sprintf(" · e^(−%s·s)", g(p.Plant.Delay, 4))
 	}
 	lines := []string{mdCode(tf)}
-	lines = append(lines, "poles: "+rootsText(m.Poles)+"; zeros: "+rootsText(m.Zeros))
+	lines = append(lines, "Poles: "+rootsText(m.Poles)+"; zeros: "+rootsText(m.Zeros))
 	if p.Plant.Delay > 0 {
-		lines = append(lines, fmt.Sprintf("transport delay %s s (exact in the margins and the placement; Padé (%d,%d) in the closed-loop poles and the root locus)", g(p.Plant.Delay, 4), synth.PadeOrder, synth.PadeOrder))
+		lines = append(lines, fmt.Sprintf("Transport delay %s s (exact in the margins and the placement; Padé (%d,%d) in the closed-loop poles and the root locus)", g(p.Plant.Delay, 4), synth.PadeOrder, synth.PadeOrder))
 	}
 	return lines
 }
@@ -369,9 +385,9 @@ func plantLines(p airframe.Axis) []string {
 func sensorLines(p airframe.Axis) []string {
 	s := p.Sensor
 	if len(s.Poles) == 0 && len(s.Zeros) == 0 && s.Gain == 1 {
-		return []string{"ideal: H(s) = 1"}
+		return []string{"Ideal: H(s) = 1"}
 	}
-	return []string{mdCode("H(s) = " + zpkText(s.Gain, s.Zeros, s.Poles)), "poles: " + rootsText(s.Poles) + "; zeros: " + rootsText(s.Zeros)}
+	return []string{mdCode("H(s) = " + zpkText(s.Gain, s.Zeros, s.Poles)), "Poles: " + rootsText(s.Poles) + "; zeros: " + rootsText(s.Zeros)}
 }
 
 // zpkText writes k·Π(s − z)/Π(s − p) with real factors (s + a) and
@@ -488,10 +504,10 @@ func specRows(d *discrete.Design) ([]Row, []string) {
 		if !c.Met {
 			what = "no controller of the form passes every check over the envelope; the closest one found is reported"
 		}
-		lines = append(lines, "search: "+what)
+		lines = append(lines, "Search: "+what)
 	}
 	if c.TextbookErr != "" {
-		lines = append(lines, "textbook placement: "+mdText(c.TextbookErr))
+		lines = append(lines, "Textbook placement: "+mdText(c.TextbookErr))
 	}
 	return rows, lines
 }
@@ -557,9 +573,9 @@ func workingOf(d *discrete.Design) Working {
 	switch ctrl.Form {
 	case airframe.FormPID:
 		s3 := -p.Ctrl.ThirdPole * c.Target.Sigma
-		out.Extra = append(out.Extra, fmt.Sprintf("third real closed-loop pole at third_pole·(−σ) = %s·(−%s) = %s: 1 + C(s3)·L(s3) = 0 is the third equation", g(p.Ctrl.ThirdPole, 3), g4(c.Target.Sigma), g4(s3)))
+		out.Extra = append(out.Extra, fmt.Sprintf("Third real closed-loop pole at third_pole·(−σ) = %s·(−%s) = %s: 1 + C(s3)·L(s3) = 0 is the third equation", g(p.Ctrl.ThirdPole, 3), g4(c.Target.Sigma), g4(s3)))
 	case airframe.FormLead:
-		out.Extra = append(out.Extra, fmt.Sprintf("the zero is fixed at %s; the pole %s is where a real pole subtends the remaining angle, and K = %s follows from the magnitude condition", g4(ctrl.Zero), g4(ctrl.Pole), g4(ctrl.K)))
+		out.Extra = append(out.Extra, fmt.Sprintf("The zero is fixed at %s; the pole %s is where a real pole subtends the remaining angle, and K = %s follows from the magnitude condition", g4(ctrl.Zero), g4(ctrl.Pole), g4(ctrl.K)))
 	case airframe.FormP:
 		out.Extra = append(out.Extra, "P has one gain: the target is where the locus crosses the damping line ζ, and Kp is the magnitude condition there")
 	}
@@ -704,8 +720,16 @@ func metricRows(d *discrete.Design) ([]MetricRow, []CheckRow) {
 			ov, rec = pct(sat.Overshoot), recovery(sat.Recovery, sat.Settled)
 		}
 		name := fmt.Sprintf("saturating step of %s", g(sat.Amplitude, 4))
+		if !sat.Reached {
+			// Said plainly: no step the loop can hold saturates the
+			// command, so there is no windup to judge.
+			rows = append(rows, MetricRow{"saturating step", "–", "–",
+				fmt.Sprintf("limits not reached: the largest step tried, %s, commands a peak of %s within [%s, %s]",
+					g(sat.Amplitude, 4), g(sat.Amplitude*sat.LinearPeakCommand, 3), g(d.Coeffs.Lo, 4), g(d.Coeffs.Hi, 4)), "–", ""})
+			return rows, checks
+		}
 		rows = append(rows, MetricRow{name + ": overshoot", "–", "–", ov, "–", ""},
-			MetricRow{name + ": recovery", "–", "–", rec, "–", ""})
+			MetricRow{name + ": recovery", "recovers", "–", rec, "–", status["saturated_recovery"]})
 	}
 	return rows, checks
 }
@@ -807,7 +831,7 @@ func checkText(name string, v float64) string {
 	switch strings.TrimPrefix(name, "quantized_") {
 	case "overshoot", "steady_error":
 		return pct(v)
-	case "settling_time", "disturbance_recovery":
+	case "settling_time", "disturbance_recovery", "saturated_recovery":
 		return sec(v)
 	case "phase_margin":
 		return degs(v)

@@ -3,6 +3,7 @@ package review
 import (
 	"cmp"
 	"fmt"
+	"image/color"
 	"math"
 	"math/cmplx"
 	"slices"
@@ -40,6 +41,20 @@ func (diamondGlyph) DrawGlyph(c *draw.Canvas, sty draw.GlyphStyle, pt vg.Point) 
 	c.Stroke(p)
 }
 
+// designGlyph is a filled square with a dark rim, the marker of the
+// designed closed-loop poles: it must stand out from the open-loop poles
+// and zeros and from the shaded guide behind it.
+type designGlyph struct{}
+
+func (designGlyph) DrawGlyph(c *draw.Canvas, sty draw.GlyphStyle, pt vg.Point) {
+	r := sty.Radius
+	sq := vg.Rectangle{Min: vg.Point{X: pt.X - r, Y: pt.Y - r}, Max: vg.Point{X: pt.X + r, Y: pt.Y + r}}
+	c.SetColor(sty.Color)
+	c.Fill(sq.Path())
+	c.SetLineStyle(draw.LineStyle{Color: colBlack, Width: vg.Points(0.9)})
+	c.Stroke(sq.Path())
+}
+
 // thickCross and thickRing are the × and ○ of the pole-zero convention,
 // drawn bolder than gonum's, so they read at review size.
 type thickCross struct{}
@@ -74,7 +89,7 @@ var (
 	glyphZero      = glyph(thickRing{}, colBlack, 4)
 	glyphPadePole  = glyph(thickCross{}, colGrey, 4)
 	glyphPadeZero  = glyph(thickRing{}, colGrey, 3.5)
-	glyphDesign    = glyph(draw.BoxGlyph{}, colVermilion, 2.8)
+	glyphDesign    = glyph(designGlyph{}, colVermilion, 3.6)
 	glyphTarget    = glyph(diamondGlyph{}, colGreen, 5)
 	styleBranch    = lineStyle(colBlue, 1.5, dashSolid)
 	styleAsymptote = lineStyle(colGrey, 0.9, dashShort)
@@ -147,7 +162,9 @@ func locusFigure(a *plotAxis, wide bool) (*figure, error) {
 	if wide {
 		title = fmt.Sprintf("%s: root locus, all open-loop poles and zeros", a.name)
 	}
-	p := newPlot(title, "Re s (1/s)", "Im s (rad/s)")
+	// One unit on both axes: a pole at s = −σ + jω decays at σ and
+	// turns at ω, both in rad/s, and the plot keeps them at one scale.
+	p := newPlot(title, "Re s (rad/s)", "Im s (rad/s)")
 
 	// The window.
 	var w window
@@ -174,8 +191,9 @@ func locusFigure(a *plotAxis, wide bool) (*figure, error) {
 		w = window{-1.5 * r, 0.3 * r, -1.05 * r, 1.05 * r}
 	}
 
-	// The spec region, behind everything.
-	region, err := plotter.NewPolygon(specRegion(a.specT, w.x0-10*(w.x1-w.x0)))
+	// The second-order guide, behind everything.
+	guide := specRegion(a.specT, w.x0-10*(w.x1-w.x0))
+	region, err := plotter.NewPolygon(guide)
 	if err == nil {
 		region.Color = colSpecFill
 		region.LineStyle = styleSpecEdge
@@ -186,17 +204,23 @@ func locusFigure(a *plotAxis, wide bool) (*figure, error) {
 	addLine(p, plotter.XYs{{X: w.x0, Y: 0}, {X: w.x1, Y: 0}}, axisSty)
 	addLine(p, plotter.XYs{{X: 0, Y: w.y0}, {X: 0, Y: w.y1}}, axisSty)
 
+	var asym []seen
 	if wide {
 		if cen, angs, ok := l.Asymptotes(); ok {
 			far := 4 * (w.x1 - w.x0)
 			for _, ang := range angs {
 				th := ang * math.Pi / 180
-				addLine(p, plotter.XYs{{X: cen, Y: 0}, {X: cen + far*math.Cos(th), Y: far * math.Sin(th)}}, styleAsymptote)
+				pts := plotter.XYs{{X: cen, Y: 0}, {X: cen + far*math.Cos(th), Y: far * math.Sin(th)}}
+				addLine(p, pts, styleAsymptote)
+				asym = append(asym, lineIn(0, pts))
 			}
 		}
 	}
+	var branches []seen
 	for _, piece := range locusPieces(l.Branches, w) {
-		addLine(p, thinPath(piece, w), styleBranch)
+		pts := thinPath(piece, w)
+		addLine(p, pts, styleBranch)
+		branches = append(branches, lineIn(0, pts))
 	}
 	// Open-loop poles and zeros: the approximant's in grey.
 	pade := padeRoots(a.d.Problem, l)
@@ -215,44 +239,47 @@ func locusFigure(a *plotAxis, wide bool) (*figure, error) {
 			zs = append(zs, xy(z))
 		}
 	}
-	addPoints(p, pps, glyphPadePole)
-	addPoints(p, pzs, glyphPadeZero)
-	addPoints(p, ps, glyphPole)
-	addPoints(p, zs, glyphZero)
 	var dp plotter.XYs
 	for _, z := range design {
 		dp = append(dp, xy(z))
 	}
 	// The target first: the placement puts closed-loop poles on it, and
-	// the filled squares then show inside the hollow diamonds.
-	addPoints(p, plotter.XYs{xy(tg.Pole), xy(cmplx.Conj(tg.Pole))}, glyphTarget)
+	// the filled squares then show inside the hollow diamonds. The
+	// open-loop poles and zeros last: where a closed-loop pole sits on
+	// one (a fast pole the loop hardly moves), the × or ○ shows on the
+	// square.
+	tgPts := plotter.XYs{xy(tg.Pole), xy(cmplx.Conj(tg.Pole))}
+	addPoints(p, tgPts, glyphTarget)
 	addPoints(p, dp, glyphDesign)
+	addPoints(p, pps, glyphPadePole)
+	addPoints(p, pzs, glyphPadeZero)
+	addPoints(p, ps, glyphPole)
+	addPoints(p, zs, glyphZero)
 	if !wide {
 		addLabel(p, real(tg.Pole), imag(tg.Pole), "s*", colGreen, 9, 5)
 	}
 	w.apply(p)
 
 	f := &figure{rows: 1, cols: 1, panels: []*plot.Plot{p}, panelH: locusPanelH, equal: map[int]bool{0: true}}
-	f.add(fmt.Sprintf("root locus, k = 0 … %g × design gain", l.KMax), thumbLine(styleBranch))
-	f.add("open-loop pole", thumbGlyph(glyphPole))
-	f.add("open-loop zero", thumbGlyph(glyphZero))
+	f.addSeen(branches, fmt.Sprintf("root locus, k = 0 … %g × design gain", l.KMax), thumbLine(styleBranch))
+	f.addSeen([]seen{pointsIn(0, dp)}, "designed closed-loop poles (k = 1)", thumbGlyph(glyphDesign))
+	f.addSeen([]seen{pointsIn(0, ps)}, "open-loop pole", thumbGlyph(glyphPole))
+	f.addSeen([]seen{pointsIn(0, zs)}, "open-loop zero", thumbGlyph(glyphZero))
+	f.addSeen([]seen{pointsIn(0, pps)}, "pole of the delay's Padé approximant", thumbGlyph(glyphPadePole))
+	f.addSeen([]seen{pointsIn(0, pzs)}, "zero of the delay's Padé approximant", thumbGlyph(glyphPadeZero))
+	f.addSeen([]seen{pointsIn(0, tgPts)}, fmt.Sprintf("textbook target s* = %s", fmtC(tg.Pole, 4)), thumbGlyph(glyphTarget))
+	f.addSeen([]seen{lineIn(0, append(guide, guide[0]))}, fmt.Sprintf("second-order guide: ζ ≥ %.3g, σ ≥ %.4g rad/s", a.specT.Zeta, a.specT.Sigma), thumbFill{colSpecFill, styleSpecEdge})
+	f.addSeen(asym, "asymptotes", thumbLine(styleAsymptote))
+	f.note = guideNote + " The gain k scales the whole controller (zeros and poles fixed)."
 	if l.PadeOrder > 0 {
-		f.add("pole of the delay's Padé approximant", thumbGlyph(glyphPadePole))
-		f.add("zero of the delay's Padé approximant", thumbGlyph(glyphPadeZero))
-	}
-	f.add("closed-loop poles at k = 1 (design)", thumbGlyph(glyphDesign))
-	f.add(fmt.Sprintf("target s* = %s", fmtC(tg.Pole, 4)), thumbGlyph(glyphTarget))
-	f.add(fmt.Sprintf("spec region: ζ ≥ %.3g, σ ≥ %.4g 1/s", a.specT.Zeta, a.specT.Sigma), thumbFill{colSpecFill, styleSpecEdge})
-	if wide {
-		f.add("asymptotes", thumbLine(styleAsymptote))
-	}
-	if l.PadeOrder > 0 {
-		f.note = fmt.Sprintf("Delay e^(−%gs) by its (%d,%d) Padé approximant; k scales the whole controller (zeros and poles fixed).", a.d.Problem.Plant.Delay, l.PadeOrder, l.PadeOrder)
-	} else {
-		f.note = "k scales the whole controller (zeros and poles fixed)."
+		f.note += fmt.Sprintf(" The delay e^(−%gs) enters by its (%d,%d) Padé approximant.", a.d.Problem.Plant.Delay, l.PadeOrder, l.PadeOrder)
 	}
 	return f, nil
 }
+
+// guideNote says what the shaded region of the pole-zero plots is, so
+// that a design with poles outside it is not read as failing.
+const guideNote = "The shaded second-order guide is where a lone pole pair would meet the overshoot and settling limits (the textbook region), not a pass/fail bound: the design is judged by its checks on the sampled loop over the plant envelope, so its poles may sit outside the guide."
 
 const (
 	locusPanelH = 4.6 * vg.Inch
@@ -437,8 +464,9 @@ func stepFigure(a *plotAxis) (*figure, error) {
 	cv, dv := d.Cont.Verif, d.Verif
 	spec := d.Problem.Spec
 	T := d.Plant.T
-	p := newPlot(fmt.Sprintf("%s: response to a unit rate-setpoint step", a.name), "time (ms)", "rate / setpoint (–)")
 	tEnd := stepHorizon(spec.SettlingTime, []float64{cv.Step.Settling, dv.Step.Settling}, math.Min(float64(len(cv.Y)-1)*cv.H, float64(len(dv.Y)-1)*T))
+	tu := timeUnit(tEnd)
+	p := newPlot(fmt.Sprintf("%s: response to a unit rate-setpoint step", a.name), tu.label(), "rate / setpoint (–)")
 	final := dv.Step.Final
 	if !isFinite(final) || final == 0 {
 		final = 1
@@ -452,38 +480,61 @@ func stepFigure(a *plotAxis) (*figure, error) {
 		}
 	}
 	ymax = math.Max(ymax, final*(1+spec.Overshoot)) * 1.08
-	drawSpec(p, spec, final, tEnd)
+	f := &figure{rows: 1, cols: 1, panels: []*plot.Plot{p}, panelH: stepPanelH}
+	sl := drawSpec(p, spec, final, tEnd, tu)
 
-	ms := 1000.0
-	contPts := sampled(cv.Y, cv.H*ms, tEnd*ms)
+	contPts := sampled(cv.Y, cv.H*tu.scale, tEnd*tu.scale)
 	contSty := lineStyle(colBlue, 1.8, dashSolid)
 	addLine(p, contPts, contSty)
-	discPts := sampled(dv.Y, T*ms, tEnd*ms)
+	discPts := sampled(dv.Y, T*tu.scale, tEnd*tu.scale)
 	discSty := lineStyle(colVermilion, 1.2, dashLong)
 	every := markEvery(len(discPts), 90)
 	discGlyph := glyph(draw.CircleGlyph{}, colVermilion, 1.9)
 	addLine(p, discPts, discSty)
 	addPoints(p, every.pick(discPts), discGlyph)
-	f := &figure{rows: 1, cols: 1, panels: []*plot.Plot{p}, panelH: stepPanelH}
-	f.add("continuous (full order)", thumbLine(contSty))
-	f.add(every.label(fmt.Sprintf("discrete at %g Hz", d.Loop.Hz)), thumbLine(discSty), thumbGlyph(discGlyph))
+	f.addSeen([]seen{lineIn(0, contPts)}, "continuous (full order)", thumbLine(contSty))
+	f.addSeen([]seen{lineIn(0, discPts)}, every.label(fmt.Sprintf("discrete at %g Hz", d.Loop.Hz)), thumbLine(discSty), thumbGlyph(discGlyph))
 	if len(a.fixedY) > 0 {
-		fixPts := sampled(a.fixedY, T*ms, tEnd*ms)
+		fixPts := sampled(a.fixedY, T*tu.scale, tEnd*tu.scale)
 		fixSty := lineStyle(colGreen, 1.1, dashFine)
 		fixGlyph := glyph(draw.TriangleGlyph{}, colGreen, 2.3)
 		fe := markEvery(len(fixPts), 45)
 		addLine(p, fixPts, fixSty)
 		addPoints(p, fe.pick(fixPts), fixGlyph)
-		f.add(fe.label(fmt.Sprintf("%s integer controller, step of %s", d.Numeric.Type, g(a.fixedA, 3))), thumbLine(fixSty), thumbGlyph(fixGlyph))
+		f.addSeen([]seen{lineIn(0, fixPts)}, fe.label(fmt.Sprintf("%s integer controller, step of %s", d.Numeric.Type, g(a.fixedA, 3))), thumbLine(fixSty), thumbGlyph(fixGlyph))
 	}
-	addSpecLegend(f, spec)
-	p.X.Min, p.X.Max = 0, tEnd*ms
+	addSpecLegend(f, spec, tu, sl)
+	p.X.Min, p.X.Max = 0, tEnd*tu.scale
 	p.Y.Min, p.Y.Max = 0, ymax
 	if lo := minOf(cv.Y, dv.Y); lo < 0 {
 		p.Y.Min = lo * 1.1
 	}
 	return f, nil
 }
+
+// tunit is the unit of a time axis: the factor from seconds and its name.
+type tunit struct {
+	scale float64
+	name  string
+}
+
+// timeUnit picks the unit of a time axis from its span (s), so that the
+// labels are small numbers: µs below 2 ms, ms below 2 s, s from there on
+// (common practice: a 6 s record reads 0–6 s, not 0–6000 ms).
+func timeUnit(span float64) tunit {
+	switch {
+	case span < 2e-3:
+		return tunit{1e6, "µs"}
+	case span < 2:
+		return tunit{1e3, "ms"}
+	}
+	return tunit{1, "s"}
+}
+
+func (u tunit) label() string { return "time (" + u.name + ")" }
+
+// text writes a time t (s) in the unit, four significant digits.
+func (u tunit) text(t float64) string { return g(float64(t*u.scale), 4) + " " + u.name }
 
 // stepHorizon is the time span of a step plot: twice the spec's settling
 // time, or 1.3 times the slowest settling shown, within the record.
@@ -559,39 +610,56 @@ func (m markStride) label(s string) string {
 }
 
 var (
+	// The overshoot limit and the output limits are both limits, drawn
+	// in the limit colour; the overshoot limit dash-dotted, the output
+	// limits double-dashed and heavier, so the two never read as one.
 	styleOvershoot = lineStyle(colLimit, 1.1, dashDot)
+	styleOutLimit  = lineStyle(colBlack, 1.4, []vg.Length{vg.Points(9), vg.Points(2.5), vg.Points(2.5), vg.Points(2.5), vg.Points(2.5), vg.Points(2.5)})
 	styleBand      = lineStyle(colSpecEdge, 0.9, dashShort)
 	styleTs        = lineStyle(colSpecEdge, 1.1, dashLong)
 )
 
-// drawSpec draws the spec on a step plot: the overshoot limit, and the
-// settling band from the spec's settling time on (shaded: where the
-// response must stay).
-func drawSpec(p *plot.Plot, s airframe.Spec, final, tEnd float64) {
-	ms := 1000.0
-	ts := s.SettlingTime * ms
-	te := tEnd * ms
+// specLines are the spec's lines drawn on a step panel, for the legend.
+type specLines struct {
+	panel     int
+	band, ts  plotter.XYs
+	overshoot plotter.XYs
+}
+
+// drawSpec draws the spec on a step plot in time unit u: the overshoot
+// limit, and the settling band from the spec's settling time on (shaded:
+// where the response must stay).
+func drawSpec(p *plot.Plot, s airframe.Spec, final, tEnd float64, u tunit) specLines {
+	ts := s.SettlingTime * u.scale
+	te := tEnd * u.scale
 	hi, lo := final*(1+s.Band), final*(1-s.Band)
 	if box, err := plotter.NewPolygon(plotter.XYs{{X: ts, Y: lo}, {X: te * 2, Y: lo}, {X: te * 2, Y: hi}, {X: ts, Y: hi}}); err == nil {
 		box.Color = colSpecFill
 		box.LineStyle.Width = 0
 		p.Add(box)
 	}
-	addLine(p, plotter.XYs{{X: 0, Y: hi}, {X: te * 2, Y: hi}}, styleBand)
+	var sl specLines
+	sl.band = plotter.XYs{{X: 0, Y: hi}, {X: te * 2, Y: hi}}
+	addLine(p, sl.band, styleBand)
 	addLine(p, plotter.XYs{{X: 0, Y: lo}, {X: te * 2, Y: lo}}, styleBand)
-	addLine(p, plotter.XYs{{X: ts, Y: -10}, {X: ts, Y: 10 * (1 + final)}}, styleTs)
+	sl.ts = plotter.XYs{{X: ts, Y: -10}, {X: ts, Y: 10 * (1 + final)}}
+	addLine(p, sl.ts, styleTs)
 	ov := final * (1 + s.Overshoot)
-	addLine(p, plotter.XYs{{X: 0, Y: ov}, {X: te * 2, Y: ov}}, styleOvershoot)
+	sl.overshoot = plotter.XYs{{X: 0, Y: ov}, {X: te * 2, Y: ov}}
+	addLine(p, sl.overshoot, styleOvershoot)
+	return sl
 }
 
-func addSpecLegend(f *figure, s airframe.Spec) {
-	f.add(fmt.Sprintf("overshoot limit %s %%", g(100*s.Overshoot, 3)), thumbLine(styleOvershoot))
-	f.add(fmt.Sprintf("settling band ±%s %% after %s ms", g(100*s.Band, 3), g(1000*s.SettlingTime, 4)), thumbFill{colSpecFill, styleBand}, thumbLine(styleTs))
+func addSpecLegend(f *figure, s airframe.Spec, u tunit, sl specLines) {
+	f.addSeen([]seen{lineIn(sl.panel, sl.overshoot)}, fmt.Sprintf("overshoot limit %s %%", g(100*s.Overshoot, 3)), thumbLine(styleOvershoot))
+	f.addSeen([]seen{lineIn(sl.panel, sl.band), lineIn(sl.panel, sl.ts)}, fmt.Sprintf("settling band ±%s %% after %s", g(100*s.Band, 3), u.text(s.SettlingTime)), thumbFill{colSpecFill, styleBand}, thumbLine(styleTs))
 }
 
 // saturatedFigure draws the large step that saturates the command, with
 // the configured anti-windup and without, normalized by the step
-// amplitude, and the commands against the output limits.
+// amplitude, and the commands against the output limits. When no step the
+// loop can hold reaches the limits (discrete.Saturated.Reached), it draws
+// the one response and says so: there is no windup, so no comparison.
 func saturatedFigure(a *plotAxis) (*figure, error) {
 	d := a.d
 	s := d.Verif.Saturated
@@ -600,13 +668,24 @@ func saturatedFigure(a *plotAxis) (*figure, error) {
 	}
 	spec := d.Problem.Spec
 	T := d.Plant.T
-	ms := 1000.0
+	integral := d.Problem.Ctrl.Form.HasIntegral()
+	compare := integral && s.Reached && len(s.YNone) > 0
 	tEnd := stepHorizon(spec.SettlingTime, []float64{s.Recovery, s.RecoveryNone}, float64(len(s.Y)-1)*T)
+	if compare && !s.SettledNone || !s.Settled {
+		// A response that does not recover is shown to the end of the
+		// record, where the failure is plain.
+		tEnd = float64(len(s.Y)-1) * T
+	}
+	tu := timeUnit(tEnd)
 	aw := "anti-windup " + string(s.AntiWindup)
-	if !d.Problem.Ctrl.Form.HasIntegral() {
+	if !integral {
 		aw = "no integrator"
 	}
-	top := newPlot(fmt.Sprintf("%s: saturating step (setpoint %s), %s", a.name, g(s.Amplitude, 4), aw), "", "rate / setpoint (–)")
+	title := fmt.Sprintf("%s: saturating step (setpoint %s), %s", a.name, g(s.Amplitude, 4), aw)
+	if !s.Reached {
+		title = fmt.Sprintf("%s: largest step tried (setpoint %s) stays within the output limits", a.name, g(s.Amplitude, 4))
+	}
+	top := newPlot(title, "", "rate / setpoint (–)")
 	final := s.Amplitude * d.Verif.Step.Final
 	if !isFinite(final) || final == 0 {
 		final = s.Amplitude
@@ -618,25 +697,35 @@ func saturatedFigure(a *plotAxis) (*figure, error) {
 		}
 		return out
 	}
-	drawSpec(top, spec, final/s.Amplitude, tEnd)
+	f := &figure{rows: 2, cols: 1, panels: nil, panelH: satPanelH}
+	sl := drawSpec(top, spec, final/s.Amplitude, tEnd, tu)
 	awSty := lineStyle(colPurple, 1.8, dashSolid)
-	noneSty := lineStyle(colOrange, 1.6, dashDot)
-	hasNone := d.Problem.Ctrl.Form.HasIntegral() && len(s.YNone) > 0
-	if hasNone {
-		addLine(top, sampled(norm(s.YNone), T*ms, tEnd*ms), noneSty)
+	noneSty := lineStyle(colOrange, 1.6, dashShort)
+	var yNone, uNone plotter.XYs
+	if compare {
+		yNone = sampled(norm(s.YNone), T*tu.scale, tEnd*tu.scale)
+		addLine(top, yNone, noneSty)
 	}
-	addLine(top, sampled(norm(s.Y), T*ms, tEnd*ms), awSty)
-	bottom := newPlot("", "time (ms)", "command u (–)")
-	lim := lineStyle(colLimit, 1.1, dashDot)
+	yAW := sampled(norm(s.Y), T*tu.scale, tEnd*tu.scale)
+	addLine(top, yAW, awSty)
+	bottom := newPlot("", tu.label(), "command u (–)")
 	k := d.Coeffs
-	addLine(bottom, plotter.XYs{{X: 0, Y: k.Hi}, {X: tEnd * ms * 2, Y: k.Hi}}, lim)
-	addLine(bottom, plotter.XYs{{X: 0, Y: k.Lo}, {X: tEnd * ms * 2, Y: k.Lo}}, lim)
-	if hasNone {
-		addLine(bottom, sampled(s.UNone, T*ms, tEnd*ms), noneSty)
+	hiLine := plotter.XYs{{X: 0, Y: k.Hi}, {X: tEnd * tu.scale * 2, Y: k.Hi}}
+	loLine := plotter.XYs{{X: 0, Y: k.Lo}, {X: tEnd * tu.scale * 2, Y: k.Lo}}
+	addLine(bottom, hiLine, styleOutLimit)
+	addLine(bottom, loLine, styleOutLimit)
+	if compare {
+		uNone = sampled(s.UNone, T*tu.scale, tEnd*tu.scale)
+		addLine(bottom, uNone, noneSty)
 	}
-	addLine(bottom, sampled(s.U, T*ms, tEnd*ms), awSty)
+	uAW := sampled(s.U, T*tu.scale, tEnd*tu.scale)
+	addLine(bottom, uAW, awSty)
 	ymax := 1 + spec.Overshoot
-	for _, y := range [][]float64{s.Y, s.YNone} {
+	ys := [][]float64{s.Y}
+	if compare {
+		ys = append(ys, s.YNone)
+	}
+	for _, y := range ys {
 		for _, v := range y {
 			if isFinite(v) {
 				ymax = math.Max(ymax, v/s.Amplitude)
@@ -644,31 +733,67 @@ func saturatedFigure(a *plotAxis) (*figure, error) {
 		}
 	}
 	for _, pl := range []*plot.Plot{top, bottom} {
-		pl.X.Min, pl.X.Max = 0, tEnd*ms
+		pl.X.Min, pl.X.Max = 0, tEnd*tu.scale
 	}
-	top.Y.Min, top.Y.Max = math.Min(0, minOf(norm(s.Y), norm(s.YNone))*1.1), ymax*1.08
+	lo := minOf(norm(s.Y))
+	if compare {
+		lo = math.Min(lo, minOf(norm(s.YNone)))
+	}
+	top.Y.Min, top.Y.Max = math.Min(0, lo*1.1), ymax*1.08
 	span := k.Hi - k.Lo
 	bottom.Y.Min, bottom.Y.Max = k.Lo-0.12*span, k.Hi+0.12*span
-	f := &figure{rows: 2, cols: 1, panels: []*plot.Plot{top, bottom}, panelH: satPanelH}
-	if hasNone {
-		f.add(fmt.Sprintf("with anti-windup (%s)", s.AntiWindup), thumbLine(awSty))
-	} else {
-		f.add(fmt.Sprintf("%s (no integrator to wind up)", d.Problem.Ctrl.Form), thumbLine(awSty))
-	}
-	if hasNone {
-		f.add("without anti-windup", thumbLine(noneSty))
-	}
-	f.add(fmt.Sprintf("output limits [%s, %s]", g(k.Lo, 4), g(k.Hi, 4)), thumbLine(lim))
-	addSpecLegend(f, spec)
-	f.note = fmt.Sprintf("Discrete nonlinear controller at %g Hz. For this setpoint step of %s the linear loop would command a peak of %s against the limits [%s, %s].",
-		d.Loop.Hz, g(s.Amplitude, 4), g(s.Amplitude*s.LinearPeakCommand, 3), g(k.Lo, 4), g(k.Hi, 4))
+	f.panels = []*plot.Plot{top, bottom}
 	switch {
-	case s.LimitedByFullScale:
-		f.note += " The step is held to the input full scale."
-	case s.LimitedByReach:
-		f.note += " The step is held to what the integrator limit can hold."
+	case compare:
+		f.addSeen([]seen{lineIn(0, yAW), lineIn(1, uAW)}, fmt.Sprintf("with anti-windup (%s)", s.AntiWindup), thumbLine(awSty))
+		f.addSeen([]seen{lineIn(0, yNone), lineIn(1, uNone)}, "without anti-windup", thumbLine(noneSty))
+	case integral:
+		f.addSeen([]seen{lineIn(0, yAW), lineIn(1, uAW)}, fmt.Sprintf("%s, anti-windup %s (not engaged)", d.Problem.Ctrl.Form, s.AntiWindup), thumbLine(awSty))
+	default:
+		f.addSeen([]seen{lineIn(0, yAW), lineIn(1, uAW)}, fmt.Sprintf("%s (no integrator to wind up)", d.Problem.Ctrl.Form), thumbLine(awSty))
+	}
+	f.addSeen([]seen{lineIn(1, hiLine), lineIn(1, loLine)}, fmt.Sprintf("output limits [%s, %s]", g(k.Lo, 4), g(k.Hi, 4)), thumbLine(styleOutLimit))
+	addSpecLegend(f, spec, tu, sl)
+	f.note = saturatedNote(d)
+	if !s.Reached {
+		f.caption = "Largest setpoint step tried (the output limits are not reached)"
 	}
 	return f, nil
+}
+
+// saturatedNote says what the saturating step shows: the step and why
+// that size, whether it reached the limits, and whether it recovered.
+func saturatedNote(d *discrete.Design) string {
+	s, k := d.Verif.Saturated, d.Coeffs
+	peak := s.Amplitude * s.LinearPeakCommand
+	lim := fmt.Sprintf("[%s, %s]", g(k.Lo, 4), g(k.Hi, 4))
+	var held string
+	switch {
+	case s.LimitedByFullScale:
+		held = "the input full scale"
+	case s.LimitedByReach:
+		held = "90 % of the rate the integrator limit can hold"
+	default:
+		held = "the step the linear loop would follow only with twice the output limit"
+	}
+	if !s.Reached {
+		return fmt.Sprintf("The output limits cannot be reached: the largest setpoint step tried, %s (%s), commands a peak of %s against the limits %s. There is no windup to show, so no anti-windup comparison is drawn. Discrete nonlinear controller at %g Hz.",
+			g(s.Amplitude, 4), held, g(peak, 3), lim, d.Loop.Hz)
+	}
+	note := fmt.Sprintf("Discrete nonlinear controller at %g Hz. For this setpoint step of %s the linear loop would command a peak of %s against the limits %s.",
+		d.Loop.Hz, g(s.Amplitude, 4), g(peak, 3), lim)
+	switch {
+	case s.LimitedByFullScale:
+		note += " The step is held to the input full scale."
+	case s.LimitedByReach:
+		note += " The step is held to what the integrator limit can hold."
+	}
+	if !s.Settled {
+		note += " The response with anti-windup does not recover within the record: the saturated-step check fails."
+	} else if d.Problem.Ctrl.Form.HasIntegral() && !s.SettledNone {
+		note += " Without anti-windup the response does not recover within the record."
+	}
+	return note
 }
 
 // --- frequency response ---------------------------------------------------
@@ -708,6 +833,7 @@ func bodeFigure(a *plotAxis) (*figure, error) {
 	cph, dph := unwrapDeg(cv, start), unwrapDeg(dvs, start)
 
 	mag := newPlot(fmt.Sprintf("%s: loop frequency response L(jω) = C·G·H", a.name), "", "magnitude (dB)")
+	mag.Title.Padding = vg.Points(6)
 	phs := newPlot("", "frequency ω (rad/s)", "phase (deg)")
 	for _, pl := range []*plot.Plot{mag, phs} {
 		pl.X.Scale = plot.LogScale{}
@@ -743,27 +869,32 @@ func bodeFigure(a *plotAxis) (*figure, error) {
 		}
 	}
 	mag.Y.Min, mag.Y.Max = math.Max(ymin, -80)-5, math.Min(ymax, 80)+5
+	magLo, magHi := mag.Y.Min, mag.Y.Max
+	defer func() { mag.Y.Min, mag.Y.Max = magLo, magHi }()
 
-	// The −180° lines the phase crosses.
-	pmin, pmax := math.Inf(1), math.Inf(-1)
-	for _, v := range append(append([]float64(nil), cph...), dph...) {
-		if isFinite(v) {
-			pmin, pmax = math.Min(pmin, v), math.Max(pmax, v)
-		}
+	// The phase range: what matters is the crossover, where the phase
+	// margin is read, and the −180° line it is read against; a quarter
+	// turn beyond either, in steps of 45°, and never more than a turn and
+	// a half (a delay's phase runs on without bound; the curve leaves the
+	// panel there).
+	crit := -180.0
+	if ph, ok := crossPhase(cm, cl, cph, ws); ok {
+		crit = -180 + 360*math.Round((ph+180)/360)
 	}
-	pmin = math.Max(pmin, pmax-720)
-	crit := lineStyle(colGrey, 0.9, dashSolid)
-	for q := math.Ceil((pmin - 180) / 360); -180+360*q <= pmax; q++ {
-		addLine(phs, plotter.XYs{{X: lo, Y: -180 + 360*q}, {X: hi, Y: -180 + 360*q}}, crit)
+	plo, phi := phaseRange(crit, []float64{phaseAt(cm, cl, cph, ws), phaseAt(dm, a.dloop.at, dph, dws)})
+	critSty := lineStyle(colGrey, 0.9, dashSolid)
+	for q := math.Ceil((plo + 180) / 360); -180+360*q <= phi; q++ {
+		addLine(phs, plotter.XYs{{X: lo, Y: -180 + 360*q}, {X: hi, Y: -180 + 360*q}}, critSty)
 	}
-	addLine(phs, finiteXYs(ws, cph), contSty)
-	addLine(phs, finiteXYs(dws, dph), discSty)
-	phs.Y.Min, phs.Y.Max = math.Floor(pmin/45)*45-10, math.Ceil(pmax/45)*45+10
+	cphPts, dphPts := finiteXYs(ws, cph), finiteXYs(dws, dph)
+	addLine(phs, cphPts, contSty)
+	addLine(phs, dphPts, discSty)
+	phs.Y.Min, phs.Y.Max = plo, phi
 	phs.Y.Tick.Marker = stepTicks(45)
 
 	// Margins: the crossover, the phase margin at it and the gain margin
-	// at the phase crossover, as arrows from the curve to the critical
-	// line.
+	// at the phase crossover, as bars from the curve to the critical
+	// line, each with its value written beside it.
 	// The bars are thick, solid for the continuous loop and finely dashed
 	// for the discrete one, so that the two tell apart in greyscale.
 	pmSty := func(c draw.LineStyle) draw.LineStyle {
@@ -773,7 +904,17 @@ func bodeFigure(a *plotAxis) (*figure, error) {
 		}
 		return c
 	}
-	for _, m := range []struct {
+	xSty := func(c color.Color) draw.LineStyle { return lineStyle(c, 1, dashShort) }
+	var xSeen, pmSeen, gmSeen []seen
+	var xThumbs, barThumbs []plot.Thumbnailer
+	gmShown := false
+	type gmLabel struct {
+		w float64
+		s string
+		c color.Color
+	}
+	var gmAt []gmLabel
+	for i, m := range []struct {
 		mg  marginsView
 		sty draw.LineStyle
 	}{
@@ -782,22 +923,102 @@ func bodeFigure(a *plotAxis) (*figure, error) {
 	} {
 		mk := m.mg
 		if w := mk.m.Crossover; isFinite(w) && w > lo && w < hi {
-			addLine(mag, plotter.XYs{{X: w, Y: mag.Y.Min}, {X: w, Y: mag.Y.Max}}, lineStyle(m.sty.Color, 0.8, dashFine))
+			xl := plotter.XYs{{X: w, Y: mag.Y.Min}, {X: w, Y: mag.Y.Max}}
+			addLine(mag, xl, xSty(m.sty.Color))
+			xSeen = append(xSeen, lineIn(0, xl))
+			xThumbs = append(xThumbs, thumbLine(xSty(m.sty.Color)))
 			ph := unwrapAt(mk.L(w), mk.ph, mk.ws, w)
 			critLine := -180 + 360*math.Round((ph+180)/360)
-			addLine(phs, plotter.XYs{{X: w, Y: critLine}, {X: w, Y: ph}}, pmSty(m.sty))
+			bar := plotter.XYs{{X: w, Y: critLine}, {X: w, Y: ph}}
+			addLine(phs, bar, pmSty(m.sty))
+			pmSeen = append(pmSeen, lineIn(1, bar))
+			// Below the critical line, right of the bar, where the curve
+			// is not (it is above the line up to the crossover).
+			addLabel(phs, w, critLine, "PM "+degs(mk.m.PhaseDeg), m.sty.Color, 6, -14-13*float64(i))
 		}
 		if w := mk.m.PhaseCrossover; isFinite(w) && w > lo && w < hi && isFinite(mk.m.GainDB) {
 			gdb := 20 * math.Log10(cmplx.Abs(mk.L(w)))
-			addLine(mag, plotter.XYs{{X: w, Y: gdb}, {X: w, Y: 0}}, pmSty(m.sty))
+			bar := plotter.XYs{{X: w, Y: gdb}, {X: w, Y: 0}}
+			addLine(mag, bar, pmSty(m.sty))
+			gmSeen = append(gmSeen, lineIn(0, bar))
+			gmShown = true
+			gmAt = append(gmAt, gmLabel{w, "GM " + dbs(mk.m.GainDB), m.sty.Color})
+		}
+		barThumbs = append(barThumbs, thumbLine(pmSty(m.sty)))
+	}
+	// The gain margins right of the rightmost bar, one over the other
+	// above the 0 dB line: past the phase crossover the curves are below
+	// −GM, so the labels stand clear of them.
+	xr := 0.0
+	for _, l := range gmAt {
+		xr = math.Max(xr, l.w)
+	}
+	for i, l := range gmAt {
+		addLabel(mag, xr, 0, l.s, l.c, 6, 4+13*float64(len(gmAt)-1-i))
+	}
+	f := &figure{rows: 2, cols: 1, panels: []*plot.Plot{mag, phs}, panelH: bodePanelH, hz: map[int]bool{0: true}}
+	f.addSeen([]seen{lineIn(0, finiteXYs(ws, cdb)), lineIn(1, cphPts)}, "continuous, exact delay: "+marginText(cm), thumbLine(contSty))
+	f.addSeen([]seen{lineIn(0, finiteXYs(dws, ddb)), lineIn(1, dphPts)}, fmt.Sprintf("discrete at %g Hz with compute delay: %s", d.Loop.Hz, marginText(dm)), thumbLine(discSty))
+	if len(xSeen) > 0 {
+		f.addSeen(xSeen, "gain crossover ωc (|L| = 0 dB), continuous and discrete", xThumbs...)
+	}
+	bars := "bars: phase margin at the crossover"
+	if gmShown {
+		bars += ", gain margin at the phase crossover"
+	}
+	f.addSeen(append(pmSeen, gmSeen...), bars, barThumbs...)
+	// The labels and bars must not widen the ranges set above.
+	phs.Y.Min, phs.Y.Max = plo, phi
+	for _, pl := range []*plot.Plot{mag, phs} {
+		pl.X.Min, pl.X.Max = lo, hi
+	}
+	nyPts := plotter.XYs{{X: ny, Y: -1e4}, {X: ny, Y: 1e4}}
+	f.addSeen([]seen{lineIn(0, nyPts)}, fmt.Sprintf("Nyquist frequency π/T = %s", radsHz(ny)), thumbLine(nySty))
+	return f, nil
+}
+
+// phaseAt is the unwrapped phase of a loop at its crossover; NaN without
+// one.
+func phaseAt(m lti.Margins, L func(float64) complex128, ph, ws []float64) float64 {
+	if w := m.Crossover; isFinite(w) && w > 0 {
+		return unwrapAt(L(w), ph, ws, w)
+	}
+	return math.NaN()
+}
+
+// crossPhase is phaseAt with whether there is a crossover.
+func crossPhase(m lti.Margins, L func(float64) complex128, ph, ws []float64) (float64, bool) {
+	v := phaseAt(m, L, ph, ws)
+	return v, isFinite(v)
+}
+
+// phaseRange is the phase axis of a Bode plot: from a quarter turn below
+// the lowest of the critical line crit and the phases at the crossovers
+// to a quarter turn above the highest, on multiples of 45°, at most a
+// full turn and a half (so the 45° ticks stay legible); without a
+// crossover, crit ± 180°.
+func phaseRange(crit float64, at []float64) (lo, hi float64) {
+	lo, hi = crit, crit
+	for _, v := range at {
+		if isFinite(v) {
+			lo, hi = math.Min(lo, v), math.Max(hi, v)
 		}
 	}
-	f := &figure{rows: 2, cols: 1, panels: []*plot.Plot{mag, phs}, panelH: bodePanelH}
-	f.add("continuous, exact delay: "+marginText(cm), thumbLine(contSty))
-	f.add(fmt.Sprintf("discrete at %g Hz with compute delay: %s", d.Loop.Hz, marginText(dm)), thumbLine(discSty))
-	f.add("bars: phase margin at the crossover, gain margin at the phase crossover", thumbLine(pmSty(contSty)), thumbLine(pmSty(discSty)))
-	f.add(fmt.Sprintf("Nyquist frequency π/T = %s rad/s", g(ny, 4)), thumbLine(nySty))
-	return f, nil
+	lo, hi = math.Floor((lo-90)/45)*45, math.Ceil((hi+90)/45)*45
+	if hi-lo > 540 {
+		// Keep the critical line and the side the crossover is on.
+		lo, hi = math.Max(lo, crit-270), math.Min(hi, crit+270)
+	}
+	return lo, hi
+}
+
+// radsHz writes an angular frequency in rad/s and in Hz, "42.2 rad/s
+// (6.716 Hz)": the airframe file gives its rates in Hz.
+func radsHz(w float64) string {
+	if !isFinite(w) {
+		return rads(w)
+	}
+	return rads(w) + " (" + g(float64(w/(2*math.Pi)), 4) + " Hz)"
 }
 
 // marginText is "PM 45.2° at 52.1 rad/s, GM 8.3 dB".
@@ -881,18 +1102,19 @@ func decadeLabel(e float64) string {
 	return "1e" + strconv.Itoa(int(e))
 }
 
-// stepTicks labels multiples of step (degrees of phase), thinned to at
-// most eight labels.
+// stepTicks labels every multiple of step (degrees of phase) between lo
+// and hi; the caller keeps the range to a dozen steps or so.
 type stepTicks float64
 
 func (s stepTicks) Ticks(lo, hi float64) []plot.Tick {
 	step := float64(s)
-	for (hi-lo)/step > 8 {
-		step *= 2
+	if !(step > 0) || !(hi > lo) || (hi-lo)/step > 100 {
+		return nil
 	}
 	var ts []plot.Tick
-	for v := math.Ceil(lo/step) * step; v <= hi; v += step {
-		ts = append(ts, plot.Tick{Value: v, Label: g(v, 4)})
+	for q := math.Ceil(lo / step); q*step <= hi; q++ {
+		v := q * step
+		ts = append(ts, plot.Tick{Value: v, Label: tickLabel(v, 0)})
 	}
 	return ts
 }
@@ -972,8 +1194,10 @@ func zFigure(a *plotAxis) (*figure, error) {
 	for _, z := range a.zmap.Zeros {
 		zs = append(zs, xy(z))
 	}
+	guide := zRegion(a.specT, T)
+	ztPts := plotter.XYs{xy(zt), xy(cmplx.Conj(zt))}
 	for i, p := range []*plot.Plot{full, zoom} {
-		if poly, err := plotter.NewPolygon(zRegion(a.specT, T)); err == nil {
+		if poly, err := plotter.NewPolygon(guide); err == nil {
 			poly.Color = colSpecFill
 			poly.LineStyle = styleSpecEdge
 			p.Add(poly)
@@ -986,20 +1210,23 @@ func zFigure(a *plotAxis) (*figure, error) {
 			addLine(p, fine, circSty)
 		}
 		addPoints(p, zs, glyphZero)
-		addPoints(p, ps, glyphPole)
-		addPoints(p, plotter.XYs{xy(zt), xy(cmplx.Conj(zt))}, glyphTarget)
+		addPoints(p, ztPts, glyphTarget)
+		addPoints(p, ps, glyphDesign)
 	}
 	window{-1.15, 1.15, -1.15, 1.15}.apply(full)
 	window{1 - 1.6*r, 1 + 0.4*r, -r, r}.apply(zoom)
 	f := &figure{rows: 1, cols: 2, panels: []*plot.Plot{full, zoom}, panelH: zPanelH, equal: map[int]bool{0: false, 1: true}}
-	f.add("closed-loop pole", thumbGlyph(glyphPole))
-	f.add("closed-loop zero (setpoint → rate)", thumbGlyph(glyphZero))
-	f.add(fmt.Sprintf("target e^(s*T) = %s", fmtC(zt, 4)), thumbGlyph(glyphTarget))
-	f.add("unit circle", thumbLine(circSty))
-	f.add("spec region mapped by z = e^(sT)", thumbFill{colSpecFill, styleSpecEdge})
-	f.note = fmt.Sprintf("T = %s s.", g(T, 4))
+	both := func(pts plotter.XYs, line bool) []seen {
+		return []seen{{panel: 0, pts: pts, line: line}, {panel: 1, pts: pts, line: line}}
+	}
+	f.addSeen(both(ps, false), "designed closed-loop pole", thumbGlyph(glyphDesign))
+	f.addSeen(both(zs, false), "closed-loop zero (setpoint → rate)", thumbGlyph(glyphZero))
+	f.addSeen(both(ztPts, false), fmt.Sprintf("textbook target e^(s*T) = %s", fmtC(zt, 4)), thumbGlyph(glyphTarget))
+	f.addSeen(both(circle, true), "unit circle", thumbLine(circSty))
+	f.addSeen(both(append(guide, guide[0]), true), "second-order guide mapped by z = e^(sT)", thumbFill{colSpecFill, styleSpecEdge})
+	f.note = guideNote + fmt.Sprintf(" T = %s s.", g(T, 4))
 	if n := d.Loop.ComputeDelay + d.Plant.Delay; n > 0 {
-		f.note = fmt.Sprintf("T = %s s; the delay of %s (compute, and whole samples of transport) adds as many closed-loop poles, which start at z = 0 in the open loop.", g(T, 4), plural(n, "sample"))
+		f.note += fmt.Sprintf(" The delay of %s (compute, and whole samples of transport) adds as many closed-loop poles, which start at z = 0 in the open loop.", plural(n, "sample"))
 	}
 	return f, nil
 }

@@ -60,21 +60,7 @@ type builtFigure struct {
 // axisFigures renders the plots of one axis. It returns the files and,
 // per plot kind, the file name or the reason it is missing.
 func axisFigures(airframe string, a *plotAxis) ([]builtFigure, []Plot) {
-	type maker struct {
-		kind, caption string
-		make          func(*plotAxis) (*figure, error)
-	}
-	makers := []maker{
-		{"locus", "Root locus near the target", func(a *plotAxis) (*figure, error) { return locusFigure(a, false) }},
-		{"locus-wide", "Root locus, all open-loop poles and zeros", func(a *plotAxis) (*figure, error) { return locusFigure(a, true) }},
-		{"step", "Unit-step responses against the spec", stepFigure},
-		{"envelope", "Unit-step responses at every plant of the envelope against the spec", envelopeStepFigure},
-		{"saturated", "Large setpoint step against the output limits, with and without anti-windup", saturatedFigure},
-		{"disturbance", "Load-disturbance step at every plant of the envelope, with the recovery", disturbanceFigure},
-		{"bode", "Loop frequency response with margins", bodeFigure},
-		{"sensitivity", "Sensitivity functions |S|, |T| and |C·S| of the nominal sampled loop against their bounds", sensitivityFigure},
-		{"zplane", "z-plane map of the sampled closed loop", zFigure},
-	}
+	makers := plotMakers()
 	var out []builtFigure
 	var plots []Plot
 	for _, mk := range makers {
@@ -105,9 +91,34 @@ func axisFigures(airframe string, a *plotAxis) ([]builtFigure, []Plot) {
 		}
 		out = append(out, builtFigure{name: name, data: data})
 		pl.Note = f.note
+		if f.caption != "" {
+			pl.Caption = f.caption
+		}
 		plots = append(plots, pl)
 	}
 	return out, plots
+}
+
+// plotMaker draws one kind of plot of an axis: nil when it does not
+// apply, an error when it cannot be drawn.
+type plotMaker struct {
+	kind, caption string
+	make          func(*plotAxis) (*figure, error)
+}
+
+// plotMakers are the plots of an axis in the report's order.
+func plotMakers() []plotMaker {
+	return []plotMaker{
+		{"locus", "Root locus near the target", func(a *plotAxis) (*figure, error) { return locusFigure(a, false) }},
+		{"locus-wide", "Root locus, all open-loop poles and zeros", func(a *plotAxis) (*figure, error) { return locusFigure(a, true) }},
+		{"step", "Unit-step responses against the spec", stepFigure},
+		{"envelope", "Unit-step responses at every plant of the envelope against the spec", envelopeStepFigure},
+		{"saturated", "Large setpoint step against the output limits, with and without anti-windup", saturatedFigure},
+		{"disturbance", "Load-disturbance step at every plant of the envelope, with the recovery", disturbanceFigure},
+		{"bode", "Loop frequency response with margins", bodeFigure},
+		{"sensitivity", "Sensitivity functions |S|, |T| and |C·S| of the nominal sampled loop against their bounds", sensitivityFigure},
+		{"zplane", "z-plane map of the sampled closed loop", zFigure},
+	}
 }
 
 // newPlotAxis gathers what the plots of a designed axis need. The parts

@@ -172,16 +172,16 @@ func parseSVG(data []byte) (svgDoc, error) {
 // the figure itself, one text element per entry, so an entry present
 // means its series was added with it.
 var expectedSeries = map[string][]string{
-	"locus":       {`^root locus, k = 0 … 10 × design gain$`, `^open-loop pole$`, `^open-loop zero$`, `^closed-loop poles at k = 1 \(design\)$`, `^target s\* = `, `^spec region: ζ ≥ [0-9.]+, σ ≥ [0-9.]+ 1/s$`},
-	"locus-wide":  {`^root locus, k = 0`, `^open-loop pole$`, `^closed-loop poles at k = 1`, `^target s\* = `, `^spec region: `},
-	"step":        {`^continuous \(full order\)$`, `^discrete at [0-9.]+ Hz, every (sample|.* sample) marked$`, `^overshoot limit [0-9.]+ %$`, `^settling band ±[0-9.]+ % after [0-9.]+ ms$`},
-	"saturated":   {`^(with anti-windup \(|(p|pd|lead) \(no integrator to wind up\))`, `^output limits \[`, `^overshoot limit `, `^settling band `},
-	"bode":        {`^continuous, exact delay: PM `, `^discrete at [0-9.]+ Hz with compute delay: PM `, `^bars: phase margin at the crossover, gain margin at the phase crossover$`, `^Nyquist frequency π/T = `},
-	"envelope":    {`^range over the [0-9]+ plants verified$`, `^nominal plant$`, `^overshoot limit [0-9.]+ %$`, `^settling band ±[0-9.]+ % after [0-9.]+ ms$`},
+	"locus":       {`^root locus, k = 0 … 10 × design gain$`, `^open-loop pole$`, `^designed closed-loop poles \(k = 1\)$`, `^textbook target s\* = `, `^second-order guide: ζ ≥ [0-9.]+, σ ≥ [0-9.]+ rad/s$`},
+	"locus-wide":  {`^root locus, k = 0`, `^open-loop pole$`, `^designed closed-loop poles \(k = 1\)`, `^textbook target s\* = `, `^second-order guide: `},
+	"step":        {`^continuous \(full order\)$`, `^discrete at [0-9.]+ Hz, every (sample|.* sample) marked$`, `^overshoot limit [0-9.]+ %$`, `^settling band ±[0-9.]+ % after [0-9.]+ (µs|ms|s)$`},
+	"saturated":   {`^(with anti-windup \(|(p|pd|lead) \(no integrator to wind up\)|(pi|pid), anti-windup [a-z]+ \(not engaged\))`, `^output limits \[`, `^overshoot limit `, `^settling band `},
+	"bode":        {`^continuous, exact delay: PM `, `^discrete at [0-9.]+ Hz with compute delay: PM `, `^gain crossover ωc `, `^bars: phase margin at the crossover`, `^Nyquist frequency π/T = [0-9.]+ rad/s \([0-9.]+ Hz\)$`},
+	"envelope":    {`^range over the [0-9]+ plants verified$`, `^nominal plant$`, `^overshoot limit [0-9.]+ %$`, `^settling band ±[0-9.]+ % after [0-9.]+ (µs|ms|s)$`},
 	"disturbance": {`^nominal plant$`, `^recovery band ±2 % of the nominal peak [0-9.e−]+ rad/s$`},
 	"sensitivity": {`^\|S\| = \|1/\(1 \+ L\)\|, peak Ms = [0-9.]+ at `, `^\|T\| = \|L/\(1 \+ L\)\|, peak Mt = [0-9.]+ at `, `^bound Ms ≤ [0-9.]+ \(`,
 		`^\|C·S\|, measurement noise → command$`, `^\|C\|, the controller alone: noise gain `, `^Nyquist frequency π/T = `},
-	"zplane": {`^closed-loop pole$`, `^closed-loop zero \(setpoint → rate\)$`, `^target e\^\(s\*T\) = `, `^unit circle$`, `^spec region mapped by z = e\^\(sT\)$`},
+	"zplane": {`^designed closed-loop pole$`, `^closed-loop zero \(setpoint → rate\)$`, `^textbook target e\^\(s\*T\) = `, `^unit circle$`, `^second-order guide mapped by z = e\^\(sT\)$`},
 }
 
 // TestSVGStructure builds the report of every demo airframe and checks

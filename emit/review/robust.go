@@ -66,9 +66,9 @@ func envTraces(d *discrete.Design, get func(discrete.CornerFigures) []float64, k
 }
 
 // rangeBand returns the polygon of the range over the traces, min to
-// max at each sample k·h up to end, in ms; nil with fewer than two
-// traces.
-func rangeBand(ts []envTrace, h, end float64) plotter.XYs {
+// max at each sample k·h up to end, in time unit u; nil with fewer than
+// two traces.
+func rangeBand(ts []envTrace, h, end float64, u tunit) plotter.XYs {
 	if len(ts) < 2 {
 		return nil
 	}
@@ -91,8 +91,8 @@ func rangeBand(ts []envTrace, h, end float64) plotter.XYs {
 		if a > b {
 			continue
 		}
-		lo = append(lo, plotter.XY{X: 1000 * t, Y: a})
-		hi = append(hi, plotter.XY{X: 1000 * t, Y: b})
+		lo = append(lo, plotter.XY{X: u.scale * t, Y: a})
+		hi = append(hi, plotter.XY{X: u.scale * t, Y: b})
 	}
 	if len(hi) < 2 {
 		return nil
@@ -105,28 +105,30 @@ func rangeBand(ts []envTrace, h, end float64) plotter.XYs {
 // corners of the envelope's box as thin lines, the nominal plant (the
 // first trace when ts[0] is nominal) bold on top. It adds their legend
 // entries to f.
-func drawEnvelope(p *plot.Plot, f *figure, ts []envTrace, h, end float64) {
-	if band := rangeBand(ts, h, end); band != nil {
+func drawEnvelope(p *plot.Plot, f *figure, ts []envTrace, h, end float64, u tunit) {
+	if band := rangeBand(ts, h, end, u); band != nil {
 		if poly, err := plotter.NewPolygon(band); err == nil {
 			poly.Color = colRange
 			poly.LineStyle.Width = 0
 			p.Add(poly)
-			f.add(fmt.Sprintf("range over the %d plants verified", len(ts)), thumbFill{colRange, lineStyle(colRange, 0, dashSolid)})
+			f.addSeen([]seen{pointsIn(0, band)}, fmt.Sprintf("range over the %d plants verified", len(ts)), thumbFill{colRange, lineStyle(colRange, 0, dashSolid)})
 		}
 	}
-	corners := 0
+	var corners []seen
 	for _, t := range ts {
 		if t.box && t.c != airframe.Nominal() {
-			addLine(p, sampled(t.y, h*1000, end*1000), styleCorner)
-			corners++
+			pts := sampled(t.y, h*u.scale, end*u.scale)
+			addLine(p, pts, styleCorner)
+			corners = append(corners, lineIn(0, pts))
 		}
 	}
-	if corners > 0 {
-		f.add(fmt.Sprintf("corners of the envelope (%d plants)", corners), thumbLine(styleCorner))
+	if len(corners) > 0 {
+		f.addSeen(corners, fmt.Sprintf("corners of the envelope (%d plants)", len(corners)), thumbLine(styleCorner))
 	}
 	if len(ts) > 0 && ts[0].c == airframe.Nominal() {
-		addLine(p, sampled(ts[0].y, h*1000, end*1000), styleNominal)
-		f.add("nominal plant", thumbLine(styleNominal))
+		pts := sampled(ts[0].y, h*u.scale, end*u.scale)
+		addLine(p, pts, styleNominal)
+		f.addSeen([]seen{lineIn(0, pts)}, "nominal plant", thumbLine(styleNominal))
 	}
 }
 
@@ -186,11 +188,12 @@ func envelopeStepFigure(a *plotAxis) (*figure, error) {
 	if !isFinite(final) || final == 0 {
 		final = 1
 	}
-	p := newPlot(fmt.Sprintf("%s: unit setpoint step over the plant envelope", a.name), "time (ms)", "rate / setpoint (–)")
-	drawSpec(p, spec, final, tEnd)
+	tu := timeUnit(tEnd)
+	p := newPlot(fmt.Sprintf("%s: unit setpoint step over the plant envelope", a.name), tu.label(), "rate / setpoint (–)")
+	sl := drawSpec(p, spec, final, tEnd, tu)
 	f := &figure{rows: 1, cols: 1, panels: []*plot.Plot{p}, panelH: stepPanelH}
-	drawEnvelope(p, f, ts, T, tEnd)
-	addSpecLegend(f, spec)
+	drawEnvelope(p, f, ts, T, tEnd, tu)
+	addSpecLegend(f, spec, tu, sl)
 	ymax, ymin := final*(1+spec.Overshoot), 0.0
 	for _, t := range ts {
 		for k, v := range t.y {
@@ -202,7 +205,7 @@ func envelopeStepFigure(a *plotAxis) (*figure, error) {
 			}
 		}
 	}
-	p.X.Min, p.X.Max = 0, tEnd*1000
+	p.X.Min, p.X.Max = 0, tEnd*tu.scale
 	p.Y.Min, p.Y.Max = ymin*1.1, ymax*1.08
 	f.note = fmt.Sprintf("Sampled loop at %g Hz with the design's controller at every plant of the final verification (%s).",
 		d.Loop.Hz, envelopeText(d.Problem.Envelope))
@@ -261,9 +264,10 @@ func disturbanceFigure(a *plotAxis) (*figure, error) {
 	}
 	end = math.Min(end, record)
 
-	p := newPlot(fmt.Sprintf("%s: load step of %s at the plant input", a.name, g(step, 4)), "time (ms)", "rate deviation (rad/s)")
+	tu := timeUnit(end)
+	p := newPlot(fmt.Sprintf("%s: load step of %s at the plant input", a.name, g(step, 4)), tu.label(), "rate deviation (rad/s)")
 	f := &figure{rows: 1, cols: 1, panels: []*plot.Plot{p}, panelH: stepPanelH}
-	ms := 1000.0
+	ms := tu.scale
 	te := end * ms
 	zero := lineStyle(colGrey, 0.9, dashSolid)
 	addLine(p, plotter.XYs{{X: 0, Y: 0}, {X: 2 * te, Y: 0}}, zero)
@@ -278,7 +282,7 @@ func disturbanceFigure(a *plotAxis) (*figure, error) {
 		addLine(p, plotter.XYs{{X: 0, Y: band}, {X: 2 * te, Y: band}}, styleBand)
 		addLine(p, plotter.XYs{{X: 0, Y: -band}, {X: 2 * te, Y: -band}}, styleBand)
 	}
-	drawEnvelope(p, f, ts, T, end)
+	drawEnvelope(p, f, ts, T, end, tu)
 	ymin, ymax := -2*band, 2*band
 	for _, t := range ts {
 		for k, v := range t.y {
@@ -302,13 +306,15 @@ func disturbanceFigure(a *plotAxis) (*figure, error) {
 		f.add(fmt.Sprintf("recovery band ±%s %% of the nominal peak %s rad/s", g(100*synth.RecoveryBand, 3), g(nom.Disturbance.Peak, 4)), thumbFill{colSpecFill, styleBand})
 	}
 	if r := nom.Disturbance.Recovery; nom.Stable && isFinite(r) {
-		addLine(p, plotter.XYs{{X: r * ms, Y: y0 - far}, {X: r * ms, Y: y1 + far}}, styleRecover)
-		f.add(fmt.Sprintf("nominal recovery %s ms", g(r*ms, 4)), thumbLine(styleRecover))
+		pts := plotter.XYs{{X: r * ms, Y: y0 - far}, {X: r * ms, Y: y1 + far}}
+		addLine(p, pts, styleRecover)
+		f.addSeen([]seen{lineIn(0, pts)}, "nominal recovery "+tu.text(r), thumbLine(styleRecover))
 	}
 	if dr := spec.DisturbanceRecovery; dr > 0 {
-		lim := lineStyle(colLimit, 1.1, dashDot)
-		addLine(p, plotter.XYs{{X: dr * ms, Y: y0 - far}, {X: dr * ms, Y: y1 + far}}, lim)
-		f.add(fmt.Sprintf("spec: recovered by %s ms", g(dr*ms, 4)), thumbLine(lim))
+		lim := lineStyle(colLimit, 1.1, dashLong)
+		pts := plotter.XYs{{X: dr * ms, Y: y0 - far}, {X: dr * ms, Y: y1 + far}}
+		addLine(p, pts, lim)
+		f.addSeen([]seen{lineIn(0, pts)}, "spec: recovered by "+tu.text(dr), thumbLine(lim))
 	}
 	// The ranges last: adding a line widens them to its data.
 	p.X.Min, p.X.Max = 0, te
@@ -404,7 +410,7 @@ func sensitivityFigure(a *plotAxis) (*figure, error) {
 		addLine(pl, plotter.XYs{{X: ny, Y: -1e4}, {X: ny, Y: 1e4}}, nySty)
 	}
 	addLine(top, plotter.XYs{{X: lo, Y: 0}, {X: xmax, Y: 0}}, zero)
-	f := &figure{rows: 2, cols: 1, panels: []*plot.Plot{top, bottom}, panelH: bodePanelH}
+	f := &figure{rows: 2, cols: 1, panels: []*plot.Plot{top, bottom}, panelH: bodePanelH, hz: map[int]bool{0: true}}
 	// The top panel from 60 dB below 0 (a deep |S| at low frequency says
 	// only that the integrator works) to above the peaks and the bound.
 	tMin, tMax := -60.0, math.Max(db(ms), db(mt))+4
@@ -416,17 +422,17 @@ func sensitivityFigure(a *plotAxis) (*figure, error) {
 	addLine(top, finiteXYs(ws, sDB), sSty)
 	peak := glyph(thickRing{}, colBlack, 3.5)
 	addPoints(top, plotter.XYs{{X: wms, Y: db(ms)}, {X: wmt, Y: db(mt)}}, peak)
-	f.add(fmt.Sprintf("|S| = |1/(1 + L)|, peak Ms = %s at %s", g(ms, 4), rads(wms)), thumbLine(sSty))
-	f.add(fmt.Sprintf("|T| = |L/(1 + L)|, peak Mt = %s at %s", g(mt, 4), rads(wmt)), thumbLine(tSty))
+	f.addSeen([]seen{lineIn(0, finiteXYs(ws, sDB))}, fmt.Sprintf("|S| = |1/(1 + L)|, peak Ms = %s at %s", g(ms, 4), radsHz(wms)), thumbLine(sSty))
+	f.addSeen([]seen{lineIn(0, finiteXYs(ws, tDB))}, fmt.Sprintf("|T| = |L/(1 + L)|, peak Mt = %s at %s", g(mt, 4), radsHz(wmt)), thumbLine(tSty))
 	if b := d.Problem.Spec.MaxSensitivity; b > 0 {
-		f.add(fmt.Sprintf("bound Ms ≤ %s (%s dB)", g(b, 4), g(db(b), 3)), thumbLine(boundSty))
+		f.addSeen([]seen{lineIn(0, plotter.XYs{{X: lo, Y: db(b)}, {X: xmax, Y: db(b)}})}, fmt.Sprintf("bound Ms ≤ %s (%s dB)", g(b, 4), g(db(b), 3)), thumbLine(boundSty))
 	}
-	f.add("peaks", thumbGlyph(peak))
+	f.addSeen([]seen{pointsIn(0, plotter.XYs{{X: wms, Y: db(ms)}, {X: wmt, Y: db(mt)}})}, "peaks", thumbGlyph(peak))
 
 	addLine(bottom, finiteXYs(ws, cDB), cSty)
 	addLine(bottom, finiteXYs(ws, csDB), csSty)
-	f.add("|C·S|, measurement noise → command", thumbLine(csSty))
-	f.add(fmt.Sprintf("|C|, the controller alone: noise gain %s above the crossover", g(d.NoiseGain, 4)), thumbLine(cSty))
+	f.addSeen([]seen{lineIn(1, finiteXYs(ws, csDB))}, "|C·S|, measurement noise → command", thumbLine(csSty))
+	f.addSeen([]seen{lineIn(1, finiteXYs(ws, cDB))}, fmt.Sprintf("|C|, the controller alone: noise gain %s above the crossover", g(d.NoiseGain, 4)), thumbLine(cSty))
 	ymin, ymax := math.Inf(1), math.Inf(-1)
 	for _, v := range append(slices.Clone(csDB), cDB...) {
 		if isFinite(v) {
@@ -435,8 +441,9 @@ func sensitivityFigure(a *plotAxis) (*figure, error) {
 	}
 	for _, c := range d.Checks {
 		if c.Name == "noise_gain" && c.Limit > 0 && isFinite(c.Limit) {
-			addLine(bottom, plotter.XYs{{X: lo, Y: db(c.Limit)}, {X: xmax, Y: db(c.Limit)}}, boundSty)
-			f.add(fmt.Sprintf("noise-gain bound %s", g(c.Limit, 4)), thumbLine(boundSty))
+			pts := plotter.XYs{{X: lo, Y: db(c.Limit)}, {X: xmax, Y: db(c.Limit)}}
+			addLine(bottom, pts, boundSty)
+			f.addSeen([]seen{lineIn(1, pts)}, fmt.Sprintf("noise-gain bound %s", g(c.Limit, 4)), thumbLine(boundSty))
 			ymax = math.Max(ymax, db(c.Limit))
 		}
 	}
@@ -452,7 +459,7 @@ func sensitivityFigure(a *plotAxis) (*figure, error) {
 	}
 	top.Y.Min, top.Y.Max = tMin, tMax
 	bottom.Y.Min, bottom.Y.Max = ymin-5, ymax+5
-	f.add(fmt.Sprintf("Nyquist frequency π/T = %s rad/s", g(ny, 4)), thumbLine(nySty))
+	f.add(fmt.Sprintf("Nyquist frequency π/T = %s", radsHz(ny)), thumbLine(nySty))
 	f.note = "1/Ms is the least distance of the loop's Nyquist curve to −1: the bound guarantees a gain margin of at least Ms/(Ms − 1) and a phase margin of at least 2·asin(1/(2·Ms))."
 	return f, nil
 }

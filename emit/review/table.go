@@ -351,6 +351,8 @@ func tabCheckLabel(name string) string {
 		return "steady-state error"
 	case "disturbance_recovery":
 		return "load-step recovery"
+	case "saturated_recovery":
+		return "saturated-step recovery"
 	}
 	return strings.ReplaceAll(name, "_", " ")
 }
