@@ -252,9 +252,9 @@ const (
 	// compute_delay + (plant.delay + the high end of envelope.delay_add)
 	// · loop_hz: the closed loop carries one state per sample of delay,
 	// and its final verification (eigenvalues of the closed-loop matrix)
-	// costs the cube of the states. At the limit the slowest valid axis
-	// designs in about 2 s on the project's two-core machine (README,
-	// "Limits", with the measurement). A rate loop's delay is a few
+	// costs the cube of the states. At both limits an axis designs in
+	// about 3 s of CPU time on the project's two-core machine (README,
+	// "Limits", with the measurements). A rate loop's delay is a few
 	// samples: 2-5 ms at 1-8 kHz is 2-40.
 	MaxDelaySamples = 256
 
@@ -262,8 +262,8 @@ const (
 	// 8 · settling_time · loop_hz samples (and 8 · disturbance_recovery ·
 	// loop_hz for the load step): the search simulates every candidate
 	// controller at every plant of the envelope over that horizon, so its
-	// cost grows with it. At the limit the slowest valid axis designs in
-	// about 2 s (README, "Limits"). A rate loop settles in tens to
+	// cost grows with it. At both limits an axis designs in about 3 s
+	// (README, "Limits"). A rate loop settles in tens to
 	// hundreds of milliseconds: 0.15 s at 1 kHz is 1200 samples, 0.3 s at
 	// 8 kHz 19 200.
 	MaxHorizonSamples = 20000

@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/cmplx"
 	"strconv"
+	"strings"
 	"unicode"
 	"unicode/utf8"
 
@@ -150,8 +151,14 @@ func (c *checker) axisLimits(key string, a Axis, ok axisOK, t *table, lp loopInf
 	}
 
 	// The controller gains the plant calls for.
+	gainOK := true
 	if ok.model && ok.sensor && ok.settling {
-		c.gainScale(a, t, key, sub)
+		gainOK = c.gainScale(a, t, key, sub)
+	}
+
+	// What the sampling of the plant and sensor computes accurately.
+	if ok.model && ok.sensor && lp.hzOK && gainOK {
+		c.sampling(a, t, lp.hz, sub, raw)
 	}
 
 	// The sensor's DC gain: the loop regulates the measured rate.
@@ -202,8 +209,9 @@ func float32Problem(v float64) string {
 // gainScale checks that the controller the plant calls for has gains the
 // design's arithmetic and the generated code hold: 1/|G·H| at the spec's
 // bandwidth, taken at the largest loop gain of ω/2, ω and 2ω (a zero of
-// the plant at one frequency does not hide the scale).
-func (c *checker) gainScale(a Axis, t *table, key string, sub func(string, string) string) {
+// the plant at one frequency does not hide the scale). It reports
+// whether the scale is within bounds.
+func (c *checker) gainScale(a Axis, t *table, key string, sub func(string, string) string) bool {
 	w := 4 / a.Spec.SettlingTime
 	best := math.Inf(-1)
 	for _, f := range []float64{0.5, 1, 2} {
@@ -220,7 +228,152 @@ func (c *checker) gainScale(a Axis, t *table, key string, sub func(string, strin
 		}
 		c.fail(k, v, "the loop's gain |G·H| near the spec's bandwidth (ω = 4/settling_time = %s rad/s) is about 1e%s, so the controller would need gains near 1e%s command units per rad/s; the design's arithmetic and the generated code hold gain scales in [%g, %g]: check the units (%s) and the command range",
 			fmtLimit(w), fmtExp(best), fmtExp(scale), minGainScale, maxGainScale, unit)
+		return false
 	}
+	return true
+}
+
+// maxSampledNorm bounds ‖[A B]·T‖₁, the 1-norm of the matrix whose
+// exponential samples the plant and sensor at the loop rate (the design
+// realizes them section by section, lti.ZPK.CascadeSS and lti.Series,
+// and samples them with gonum's scaling-and-squaring mat.Exp, through
+// lti.ZOHDelay). The relative error of that exponential grows with the
+// norm: measured on the realization of a rate plant with a lowpass gyro
+// against the exact 1 of its integrator's entry, 4e-16 at a norm of 16,
+// 3.6e-12 at 1e5, 2.9e-11 at 1e6, 3.7e-9 at 1e8, 3e-8 at 1e9, 2.4e-4 at
+// 1e13; from about 1e12 on, the result may be NaN, and the design then
+// failed with "lti: non-finite value" naming no key. At 1e8 the sampled
+// loop keeps eight digits; the demo airframes stay below 200 (the
+// quadrotor's roll: (1/0.03 + 1.1·2400/0.03)·0.001 = 88).
+const maxSampledNorm = 1e8
+
+// sampledNorm returns ‖[A B]·T‖₁ of the plant and sensor of a at corner
+// cr of its envelope, the plant's gain multiplied by k, as the design
+// realizes them; +Inf when they cannot be realized.
+func sampledNorm(a Axis, cr Corner, T, k float64) float64 {
+	m := a.At(cr).Plant.Model
+	m.Gain *= k
+	gs, err := m.CascadeSS()
+	if err != nil {
+		return math.Inf(1)
+	}
+	hs, err := a.Sensor.CascadeSS()
+	if err != nil {
+		return math.Inf(1)
+	}
+	gh := lti.Series(gs, hs)
+	norm := 0.0
+	for j := 0; j <= gh.N; j++ {
+		col := 0.0
+		for i := 0; i < gh.N; i++ {
+			if j < gh.N {
+				col += math.Abs(gh.A[i*gh.N+j])
+			} else {
+				col += math.Abs(gh.B[i])
+			}
+		}
+		norm = math.Max(norm, col*T)
+	}
+	if math.IsNaN(norm) {
+		return math.Inf(1)
+	}
+	return norm
+}
+
+// sampling checks that the plant and sensor, at every corner of the
+// envelope, sample accurately at loop_hz (maxSampledNorm). The norm
+// grows with the plant's gain, which the sensor's state carries (its
+// input is the plant's output), and with the roots' magnitudes times the
+// sample period. When the gain is what breaks the bound, the message
+// names the gain key with the largest gain the loop rate allows; when
+// the roots alone do, the fastest root.
+func (c *checker) sampling(a Axis, t *table, hz float64, sub func(string, string) string, raw func(string, string) any) {
+	T := 1 / hz
+	corners := a.Envelope.Corners()
+	worst := func(k float64) float64 {
+		n := 0.0
+		for _, cr := range corners {
+			n = math.Max(n, sampledNorm(a, cr, T, k))
+		}
+		return n
+	}
+	norm := worst(1)
+	if norm <= maxSampledNorm {
+		return
+	}
+	pm, _ := t.m["plant"].(map[string]any)
+	_, phys := pm["effectiveness"]
+	// The largest factor on the gain that keeps the bound: the norm does
+	// not fall as the gain grows, so bisect on its logarithm.
+	lo, hi := -40.0, 0.0
+	if worst(math.Pow(10, lo)) > maxSampledNorm {
+		c.fastRoot(a, hz, norm, sub, raw)
+		return
+	}
+	for range 60 {
+		mid := (lo + hi) / 2
+		if worst(math.Pow(10, mid)) <= maxSampledNorm {
+			lo = mid
+		} else {
+			hi = mid
+		}
+	}
+	k := math.Pow(10, lo)
+	key, what, most := sub("plant", "gain"), "the plant's gain", fmtLimit(math.Abs(a.Plant.Model.Gain)*k)
+	if phys {
+		key, what = sub("plant", "effectiveness"), "effectiveness"
+		most = fmtLimit(a.Plant.Model.Gain*k*(-1/real(a.Plant.Model.Poles[1]))) + " rad/s² per unit command"
+	}
+	c.fail(key, raw("plant", keyBase(key)), "the plant and sensor sampled at loop_hz %g reach a matrix norm ‖[A B]·T‖₁ of %s, above the %g within which the design samples them accurately (the sensor's state carries the plant's output, so the norm grows with the gain; from about 1e12 the sampling fails): at this loop rate and sensor %s may be at most %s (with the envelope's gain_scale and lag_scale applied); check the units of the rate and the command",
+		hz, fmtLimit(norm), float64(maxSampledNorm), what, most)
+}
+
+// fastRoot reports the root of the plant or sensor that alone breaks
+// maxSampledNorm at loop rate hz: its magnitude times the sample period.
+func (c *checker) fastRoot(a Axis, hz, norm float64, sub func(string, string) string, raw func(string, string) any) {
+	type root struct {
+		key string
+		val any
+		mag float64
+	}
+	var best root
+	consider := func(table, k string, rs []complex128, scale float64) {
+		m := raw(table, k)
+		for i, r := range rs {
+			if mag := cmplx.Abs(r) * scale; mag > best.mag {
+				key, val := sub(table, k), m
+				if arr, ok := m.([]any); ok {
+					idx := rootIndex(arr, i)
+					key, val = fmt.Sprintf("%s[%d]", key, idx), elementAt(arr, idx)
+				}
+				best = root{key, val, mag}
+			}
+		}
+	}
+	// A plant pole is fastest at the low end of lag_scale.
+	lag := math.Min(1, a.Envelope.Normalized().LagScale[0])
+	if raw("plant", "motor_tau") != nil {
+		consider("plant", "motor_tau", a.Plant.Model.Poles, 1/lag)
+	} else {
+		consider("plant", "poles", a.Plant.Model.Poles, 1/lag)
+		consider("plant", "zeros", a.Plant.Model.Zeros, 1)
+	}
+	if raw("sensor", "lowpass_hz") != nil {
+		consider("sensor", "lowpass_hz", a.Sensor.Poles, 1)
+	} else {
+		consider("sensor", "poles", a.Sensor.Poles, 1)
+		consider("sensor", "zeros", a.Sensor.Zeros, 1)
+	}
+	c.fail(best.key, best.val, "a root of magnitude %s rad/s sampled at loop_hz %g: the matrix the design samples the plant and sensor with reaches a norm ‖[A B]·T‖₁ of %s, above the %g within which it samples them accurately; a root may be at most %g times loop_hz (about %s rad/s here): leave out dynamics that far beyond the loop rate, or raise loop_hz",
+		fmtLimit(best.mag), hz, fmtLimit(norm), float64(maxSampledNorm), float64(maxSampledNorm), fmtLimit(maxSampledNorm*hz))
+}
+
+// keyBase is the last element of a dotted key.
+func keyBase(key string) string {
+	if i := strings.LastIndexByte(key, '.'); i >= 0 {
+		return key[i+1:]
+	}
+	return key
 }
 
 // log10Mag returns log10 |z(s)| of the zero-pole-gain model, summed in

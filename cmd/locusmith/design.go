@@ -79,7 +79,7 @@ func runDesign(args []string, stdout, stderr io.Writer) int {
 					werr = writeJSON(stdout, review.JSON([]*discrete.Airframe{a}).Airframes[0], "    ")
 				}
 			} else {
-				werr = review.WriteTable(stdout, a)
+				werr = review.WriteTable(stdout, shownPath(a))
 			}
 		}
 		for _, msg := range a.Unmet() {
@@ -116,4 +116,20 @@ func writeJSON(w io.Writer, v any, prefix string) error {
 	}
 	_, err := w.Write(out)
 	return err
+}
+
+// shownPath returns a with its file name as it may reach the terminal
+// (shown): the table heads each airframe with the name, and a file named
+// with a terminal escape sequence or a bidirectional control would
+// otherwise drive the terminal or reorder the line. a itself is not
+// changed; the JSON report keeps the name as given, escaped by JSON.
+func shownPath(a *discrete.Airframe) *discrete.Airframe {
+	if s := shown(a.File.Path); s != a.File.Path {
+		f := *a.File
+		f.Path = s
+		c := *a
+		c.File = &f
+		return &c
+	}
+	return a
 }

@@ -199,6 +199,7 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "locusmith emit: %s\nlocusmith emit: nothing written\n", shown(err.Error()))
 		return exitUsage
 	}
+	testSync(os.Getenv("LOCUSMITH_TEST_SYNC_COMMIT"))
 	written, err := st.Commit()
 	for _, t := range st.Removed {
 		fmt.Fprintf(stderr, "locusmith emit: removed %s, a temporary file an interrupted run left\n", shown(filepath.Join(*out, t)))
@@ -243,11 +244,15 @@ func without(paths []string, dir string, names []string) []string {
 }
 
 // testSync is a hook for tests of the whole process, off unless the
-// environment sets LOCUSMITH_TEST_SYNC: emit then reads the named pipe it
-// names to its end, past its check of the output directory and before it
-// reads its inputs, so that a test holding the pipe stops emit at that
-// point (the inputs themselves must be regular files). An error opening
-// it is ignored: the hook only orders, it never changes a result.
+// environment sets LOCUSMITH_TEST_SYNC or LOCUSMITH_TEST_SYNC_COMMIT:
+// emit then reads the named pipe it names to its end, so that a test
+// holding the pipe stops emit at that point. LOCUSMITH_TEST_SYNC stops
+// it past its check of the output directory and before it reads its
+// inputs (the inputs themselves must be regular files);
+// LOCUSMITH_TEST_SYNC_COMMIT once every changed file is written to its
+// temporary file and before the renames, the window a signal must not
+// leave temporary files from. An error opening it is ignored: the hook
+// only orders, it never changes a result.
 func testSync(pipe string) {
 	if pipe == "" {
 		return

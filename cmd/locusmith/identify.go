@@ -43,9 +43,11 @@ Examples:
   locusmith identify --saturation=-0.5,0.5 flight.csv
 
 The log is read to at most 1048576 (2^20) samples, and the rest ignored
-(said on stderr); its median sample interval must lie between 1 µs and
-1 s. LOG.csv must be a regular file; give - to read standard input (a
-pipe).
+(said on stderr); a line may be at most 65536 bytes; its median sample
+interval must lie between 1 µs and 1 s. LOG.csv must be a regular file;
+give - to read standard input (a pipe). The file's name goes into a
+comment of the output quoted, with escapes, when it holds a line break
+or another control character.
 
 Exit status: 0 the model was fitted (warnings, if any, are in the output
 and on stderr); 1 the fit failed; 2 bad input or usage, or an internal
@@ -123,12 +125,7 @@ func runIdentify(args []string, stdout, stderr io.Writer) int {
 	res, err := ident.Identify(log, ident.Options{Sensor: *sensor, Holdout: *holdout, Saturation: satOpt, MaxDelay: *maxDelay})
 	if err != nil {
 		fmt.Fprintf(stderr, "locusmith identify: %s\n", shown(err.Error()))
-		// Bad input and a bug are status 2 (README, "Exit status"); a
-		// fit that fails on good input is 1.
-		if ident.IsInputError(err) || errors.Is(err, ident.ErrInternal) {
-			return exitUsage
-		}
-		return exitUnmet
+		return identifyStatus(err)
 	}
 	for _, n := range res.Notes {
 		fmt.Fprintf(stderr, "locusmith identify: %s: %s\n", shown(name), n)
@@ -175,4 +172,16 @@ func parseIdentifySaturation(s string) (ident.Saturation, error) {
 		return ident.Saturation{}, fmt.Errorf("LO must be below HI")
 	}
 	return ident.Saturation{Mode: ident.SatLimits, Lo: l, Hi: h}, nil
+}
+
+// identifyStatus is the exit status of an error of ident.Identify: bad
+// input and an internal error (a recovered panic: a bug, which the
+// status of a failed fit would pass off as a property of the log) are 2,
+// as for every verb (README, "Exit status"); a fit that fails on good
+// input is 1.
+func identifyStatus(err error) int {
+	if ident.IsInputError(err) || errors.Is(err, ident.ErrInternal) {
+		return exitUsage
+	}
+	return exitUnmet
 }

@@ -20,6 +20,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"os/signal"
 	"runtime"
@@ -51,8 +52,22 @@ func main() {
 	if os.Getenv("GOGC") == "" {
 		debug.SetGCPercent(400)
 	}
+	// That target also lets a large live heap grow fivefold: emit, which
+	// holds every design until it writes (its check of the C names
+	// across airframes needs them all), peaked at 454 MB for 1000
+	// airframes. A soft limit makes the collector work harder only above
+	// it, so that the peak follows the live heap there instead. An
+	// explicit GOMEMLIMIT still wins.
+	if os.Getenv("GOMEMLIMIT") == "" {
+		debug.SetMemoryLimit(softMemoryLimit)
+	}
 	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
 }
+
+// softMemoryLimit is the heap size above which the collector runs more
+// often than the GOGC target asks (runtime/debug.SetMemoryLimit); below
+// it, the target alone decides.
+const softMemoryLimit = 256 << 20
 
 // verb is one subcommand.
 type verb struct {
@@ -210,9 +225,31 @@ func loadFiles(paths []string, stderr io.Writer) ([]*airframe.File, int) {
 			code = exitUsage
 			continue
 		}
+		noteSensorGain(stderr, f)
 		files = append(files, f)
 	}
 	return files, code
+}
+
+// noteSensorGain says, for each axis of f whose sensor's DC gain H(0) is
+// not 1, what the loop then regulates: it holds the measured rate at the
+// setpoint, so the true rate settles at setpoint/H(0). The file is
+// valid (a gain beyond spec.max_steady_error is refused by the decoder,
+// naming sensor.gain); the note says where the steady-state error the
+// design reports comes from, which the controller cannot remove.
+func noteSensorGain(w io.Writer, f *airframe.File) {
+	for _, a := range f.Axes {
+		dc := real(a.Sensor.Eval(0))
+		if !(dc > 0) || math.Abs(dc-1) <= 1e-9 {
+			continue
+		}
+		side := "below"
+		if dc < 1 {
+			side = "above"
+		}
+		fmt.Fprintf(w, "%s: axes.%s.sensor.gain: note: the sensor's DC gain H(0) is %.4g, not 1: the loop holds the measured rate at the setpoint, so the true rate settles at setpoint/%.4g, %.3g %% %s it, whatever the controller (spec.max_steady_error %.3g %% allows it)\n",
+			shown(f.Path), a.Name, dc, dc, 100*math.Abs(1/dc-1), side, 100*a.Spec.MaxSteadyError)
+	}
 }
 
 // reportLoadError writes why path could not be loaded. An *airframe.Errors

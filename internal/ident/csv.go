@@ -18,6 +18,13 @@ import (
 // sample) whatever the file's size.
 const MaxSamples = 1 << 20
 
+// MaxLineBytes is the longest line of a log, in bytes. A logged row is a
+// few dozen bytes per column; 64 KiB holds thousands of columns. Without
+// a bound the CSV reader holds a whole line, however long: a file of one
+// 150 MB line took 1.4 GB before its first field was refused (issue 14,
+// item 12: memory O(samples kept), not O(file)).
+const MaxLineBytes = 1 << 16
+
 // Bounds of the median sample interval of a log, s: the loop rates of the
 // airframe file (loop_hz ≤ 1e6) and a log at least one sample a second;
 // outside them the delay search would hold millions of candidates.
@@ -104,7 +111,7 @@ func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
 	fail := func(line int, format string, a ...any) error {
 		return &InputError{File: name, Line: line, Msg: fmt.Sprintf(format, a...)}
 	}
-	br := bufio.NewReader(r)
+	br := bufio.NewReader(&lineLimit{r: r, line: 1})
 	// A UTF-8 byte-order mark before the header is common in files saved
 	// by spreadsheets; it is not part of the first column's name.
 	if b, err := br.Peek(3); err == nil && string(b) == "\xef\xbb\xbf" {
@@ -214,6 +221,10 @@ func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
 // csvError converts an encoding/csv error into an *InputError with its
 // line.
 func csvError(name string, err error) error {
+	var le *lineTooLong
+	if errors.As(err, &le) {
+		return &InputError{File: name, Line: le.line, Msg: fmt.Sprintf("line longer than %d bytes: a log has one sample per line, a few dozen bytes per column (is this a CSV log?)", MaxLineBytes)}
+	}
 	var pe *csv.ParseError
 	if errors.As(err, &pe) {
 		return &InputError{File: name, Line: pe.Line, Msg: "malformed CSV: " + pe.Err.Error()}
@@ -258,4 +269,46 @@ func minMax(v []float64) (lo, hi float64) {
 		hi = math.Max(hi, x)
 	}
 	return lo, hi
+}
+
+// lineLimit passes r through and fails, with a *lineTooLong, at the first
+// line longer than MaxLineBytes, so that the CSV reader above it never
+// holds more than that of one line.
+type lineLimit struct {
+	r    io.Reader
+	line int // 1-based number of the line being read
+	n    int // bytes of it so far
+	err  error
+}
+
+// lineTooLong is the error of a line longer than MaxLineBytes.
+type lineTooLong struct{ line int }
+
+func (e *lineTooLong) Error() string {
+	return fmt.Sprintf("line %d is longer than %d bytes", e.line, MaxLineBytes)
+}
+
+func (l *lineLimit) Read(p []byte) (int, error) {
+	if l.err != nil {
+		return 0, l.err
+	}
+	n, err := l.r.Read(p)
+	for i, b := range p[:n] {
+		if b == '\n' {
+			l.line++
+			l.n = 0
+			continue
+		}
+		l.n++
+		if l.n > MaxLineBytes {
+			// The bytes before the long line go on; the error comes when
+			// the reader asks for more.
+			l.err = &lineTooLong{line: l.line}
+			if i == 0 {
+				return 0, l.err
+			}
+			return i, nil
+		}
+	}
+	return n, err
 }
