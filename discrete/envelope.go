@@ -270,13 +270,29 @@ func (d *Design) checks() []synth.Check {
 	for _, f := range env {
 		allStable = allStable && f.Stable
 	}
+	// The figures of a plant where the loop is unstable mean nothing (a
+	// phase margin read off the Bode plot of an unstable loop can look
+	// fine): the other checks take the stable plants, and the stable
+	// check carries the verdict. With no stable plant they have no value.
+	judged := env
+	if !allStable {
+		judged = nil
+		for _, f := range env {
+			if f.Stable {
+				judged = append(judged, f)
+			}
+		}
+	}
 	var cs []synth.Check
 	add := func(name string, limit float64, upper bool, val func(f CornerFigures) float64) {
-		v, at := worstOf(env, upper, val)
+		v, at := math.NaN(), airframe.Nominal()
+		if len(judged) > 0 {
+			v, at = worstOf(judged, upper, val)
+		}
 		// Ten digits: the verdict must not turn on the last bits of a
 		// figure, which differ between CPUs (fused multiply-adds).
 		v = snap10(v)
-		ok := allStable && !math.IsNaN(v) && (upper && v <= limit || !upper && v >= limit)
+		ok := !math.IsNaN(v) && (upper && v <= limit || !upper && v >= limit)
 		cs = append(cs, synth.Check{Name: name, Limit: limit, Value: v, Upper: upper, OK: ok, Worst: at})
 	}
 	sv, sat := worstOf(env, false, func(f CornerFigures) float64 { return f.StabilityMargin })

@@ -128,45 +128,57 @@ func (g *CodeGenerator) generate(a *discrete.Airframe, o CodeOptions) ([]Source,
 
 // GenerateAll renders several airframes of one call. Besides the errors of
 // Generate, it rejects two airframes of the same name (they would write the
-// same files) and C names that two airframes both generate. An airframe
-// that fails does not stop the others: errs[i] is the error of as[i], and
-// srcs[i] its files.
+// same files) and C names that two airframes both generate (the later
+// airframe gets the error). An airframe that fails does not stop the
+// others: errs[i] is the error of as[i], and srcs[i] its files.
 func (g *CodeGenerator) GenerateAll(as []*discrete.Airframe, o CodeOptions) (srcs [][]Source, warns []string, errs []error) {
 	srcs = make([][]Source, len(as))
 	errs = make([]error, len(as))
-	units := make([]*codeUnit, 0, len(as))
-	first := map[string]string{}
+	b := g.NewBatch(o)
 	for i, a := range as {
-		if a == nil || a.File == nil {
-			errs[i] = errors.New("no airframe")
-			continue
-		}
-		name := a.File.Airframe
-		if prev, ok := first[name]; ok {
-			errs[i] = &NameError{Airframe: name, Name: name, Reason: fmt.Sprintf("%s and %s both name this airframe; their files would overwrite each other", displayPath(prev), displayPath(a.File.Path))}
-			continue
-		}
-		first[name] = a.File.Path
-		s, w, u, err := g.generate(a, o)
-		if err != nil {
-			errs[i] = err
-			continue
-		}
-		srcs[i] = s
+		var w []string
+		srcs[i], w, errs[i] = b.Add(a)
 		warns = append(warns, w...)
-		units = append(units, u)
-	}
-	if err := checkAcross(units); err != nil {
-		var ne *NameError
-		if errors.As(err, &ne) {
-			for i, a := range as {
-				if errs[i] == nil && a.File.Airframe == ne.Airframe {
-					errs[i], srcs[i] = err, nil
-				}
-			}
-		}
 	}
 	return srcs, warns, errs
+}
+
+// Batch renders the airframes of one call one at a time, in the order
+// they come, keeping of each only its name and the C names it declares:
+// enough to reject an airframe name or a C name that an earlier airframe
+// of the call already took, and little enough that a caller streaming the
+// designs holds one airframe at a time, whatever their number.
+type Batch struct {
+	g     *CodeGenerator
+	o     CodeOptions
+	first map[string]string // airframe name → file path
+	owner map[string]string // C identifier → airframe
+}
+
+// NewBatch starts a batch with options o.
+func (g *CodeGenerator) NewBatch(o CodeOptions) *Batch {
+	return &Batch{g: g, o: o, first: map[string]string{}, owner: map[string]string{}}
+}
+
+// Add renders airframe a (see Generate) and checks its names against the
+// airframes added before it.
+func (b *Batch) Add(a *discrete.Airframe) ([]Source, []string, error) {
+	if a == nil || a.File == nil {
+		return nil, nil, errors.New("no airframe")
+	}
+	name := a.File.Airframe
+	if prev, ok := b.first[name]; ok {
+		return nil, nil, &NameError{Airframe: name, Name: name, Reason: fmt.Sprintf("%s and %s both name this airframe; their files would overwrite each other", displayPath(prev), displayPath(a.File.Path))}
+	}
+	b.first[name] = a.File.Path
+	srcs, warns, u, err := b.g.generate(a, b.o)
+	if err != nil {
+		return nil, nil, err
+	}
+	if err := claimNames(b.owner, u); err != nil {
+		return nil, warns, err
+	}
+	return srcs, warns, nil
 }
 
 // SourceNames returns the names of the files Generate writes for

@@ -87,19 +87,22 @@ func checkNames(u *codeUnit) (warnings []string, err error) {
 	return warnings, nil
 }
 
-// checkAcross reports a C name that two airframes of one call generate.
-func checkAcross(us []*codeUnit) error {
-	owner := map[string]string{}
-	for _, u := range us {
-		if u.Lang != LangC {
-			continue
+// claimNames records the C identifiers of unit u in owner (identifier →
+// airframe), failing when another airframe of the call already declared
+// one of them: a firmware linking both would not build. Go units declare
+// package-scoped names, which cannot clash across packages.
+func claimNames(owner map[string]string, u *codeUnit) error {
+	if u.Lang != LangC {
+		return nil
+	}
+	ids := u.idents()
+	for _, id := range ids {
+		if o, ok := owner[id]; ok && o != u.Airframe {
+			return &NameError{Airframe: u.Airframe, Name: id, Reason: fmt.Sprintf("airframe %s generates the same C name; a firmware linking both would not build", o)}
 		}
-		for _, id := range u.idents() {
-			if o, ok := owner[id]; ok && o != u.Airframe {
-				return &NameError{Airframe: u.Airframe, Name: id, Reason: fmt.Sprintf("airframe %s generates the same C name; a firmware linking both would not build", o)}
-			}
-			owner[id] = u.Airframe
-		}
+	}
+	for _, id := range ids {
+		owner[id] = u.Airframe
 	}
 	return nil
 }

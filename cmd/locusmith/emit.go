@@ -126,21 +126,37 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "locusmith emit: --lang go writes one package per airframe (%s, …), and Go builds one package per directory: run emit once per airframe, each with its own -o directory\nlocusmith emit: nothing written\n", files[0].Airframe+"rate")
 		return exitUsage
 	}
-	designs := designBatch(files, *jobs, false, stderr)
 	gen, err := emit.NewCodeGenerator()
 	if err != nil {
 		fmt.Fprintf(stderr, "locusmith emit: %v\n", err)
 		return exitUsage
 	}
-	srcs, warns, errs := gen.GenerateAll(designs, o)
-	for _, w := range warns {
-		fmt.Fprintf(stderr, "locusmith emit: warning: %s\n", w)
+	// Each airframe is rendered as soon as it is designed and then
+	// dropped: the batch keeps only its names (for the C names two
+	// airframes must not share), its files go to their temporary files at
+	// once (or, with --check, are kept for the comparison: a few kB each),
+	// so that memory stays that of a few airframes for any batch.
+	// Everything is renamed into place at the end; a SIGINT, SIGTERM or
+	// SIGHUP before the renames removes the temporary files, one during
+	// them waits for them to finish, so that an airframe's header and
+	// source are never left from two different runs (guardWrite).
+	batch := gen.NewBatch(o)
+	var st *emit.Staged
+	if !*check {
+		st = emit.NewStaged(*out)
+		stop := guardWrite(st, "emit", stderr)
+		defer stop()
 	}
 	var all []emit.Source
 	var refused []string // file names not generated because of exit-1 failures
-	for i, a := range designs {
+	var stageErr error
+	designStream(files, *jobs, false, true, stderr, func(_ int, a *discrete.Airframe) {
+		srcs, warns, err := batch.Add(a)
+		for _, w := range warns {
+			fmt.Fprintf(stderr, "locusmith emit: warning: %s\n", w)
+		}
 		path := shown(a.File.Path)
-		if err := errs[i]; err != nil {
+		if err != nil {
 			code = worst(code, emitStatus(err))
 			var ue *emit.UnmetError
 			if errors.As(err, &ue) {
@@ -152,7 +168,7 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 				fmt.Fprintf(stderr, "%s: %v\n", path, err)
 			}
 			refused = append(refused, emit.SourceNames(a.File.Airframe, o)...)
-			continue
+			return
 		}
 		if unmet := a.Unmet(); len(unmet) > 0 {
 			for _, r := range unmet {
@@ -161,9 +177,17 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 			fmt.Fprintf(stderr, "%s: warning: airframe %s fails its design checks; written because of --allow-unmet, and marked so in its header\n", path, a.File.Airframe)
 			code = worst(code, exitUnmet)
 		}
-		all = append(all, srcs[i]...)
-	}
+		switch {
+		case *check:
+			all = append(all, srcs...)
+		case code != exitUsage && stageErr == nil:
+			stageErr = st.Add(srcs)
+		}
+	})
 	if code == exitUsage {
+		if st != nil {
+			st.Abort()
+		}
 		fmt.Fprintln(stderr, "locusmith emit: nothing written")
 		return code
 	}
@@ -175,9 +199,9 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 		}
 		d.Unexpected = without(d.Unexpected, *out, refused)
 		// The consistency of each airframe's header and source (the
-		// content stamp both carry, issue 14 item 9) is emit's to verify:
-		// its check of the files of DIR belongs here, beside the drift,
-		// its findings counted with it.
+		// content stamp both carry) is emit's to verify: its check of the
+		// files of DIR belongs here, beside the drift, its findings
+		// counted with it.
 		if !d.Clean() {
 			fmt.Fprint(stdout, d.String())
 			fmt.Fprintf(stderr, "locusmith emit: %s is not up to date (%d stale, %d missing, %d unexpected, %d temporary); run the same command without --check\n",
@@ -186,17 +210,9 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 		}
 		return code
 	}
-	// Everything is written through temporary files and renamed into
-	// place at the end; a SIGINT, SIGTERM or SIGHUP before the renames
-	// removes the temporary files, one during them waits for them to
-	// finish, so that an airframe's header and source are never left
-	// from two different runs (guardWrite).
-	st := emit.NewStaged(*out)
-	stop := guardWrite(st, "emit", stderr)
-	defer stop()
-	if err := st.Add(all); err != nil {
+	if stageErr != nil {
 		st.Abort()
-		fmt.Fprintf(stderr, "locusmith emit: %s\nlocusmith emit: nothing written\n", shown(err.Error()))
+		fmt.Fprintf(stderr, "locusmith emit: %s\nlocusmith emit: nothing written\n", shown(stageErr.Error()))
 		return exitUsage
 	}
 	testSync(os.Getenv("LOCUSMITH_TEST_SYNC_COMMIT"))

@@ -323,19 +323,12 @@ func jobsFlag(fs *pflag.FlagSet) *int {
 	return fs.IntP("jobs", "j", runtime.NumCPU(), "airframes designed at once (default: the number of CPUs)")
 }
 
-// designBatch designs files with jobs workers, in input order, showing a
-// progress line on stderr when it is a terminal and the batch is long
-// (never in pipes or CI).
-func designBatch(files []*airframe.File, jobs int, keepTraces bool, stderr io.Writer) []*discrete.Airframe {
-	out := make([]*discrete.Airframe, len(files))
-	designStream(files, jobs, keepTraces, false, stderr, func(i int, a *discrete.Airframe) { out[i] = a })
-	return out
-}
-
-// designStream is designBatch delivering each airframe to fn in input
-// order as soon as it is done, so that memory stays flat in the number of
-// airframes; with release it also drops each parsed file from files once
-// delivered (the caller must not use files afterwards).
+// designStream designs files with jobs workers and delivers each airframe
+// to fn in input order as soon as it is done, so that memory stays flat in
+// the number of airframes, showing a progress line on stderr when it is a
+// terminal and the batch is long (never in pipes or CI); with release it
+// also drops each parsed file from files once delivered (the caller must
+// not use files afterwards).
 func designStream(files []*airframe.File, jobs int, keepTraces, release bool, stderr io.Writer, fn func(int, *discrete.Airframe)) {
 	o := discrete.BatchOptions{Jobs: jobs, KeepTraces: keepTraces, Release: release}
 	if f, ok := stderr.(*os.File); ok && len(files) >= 20 && os.Getenv("CI") == "" {

@@ -556,7 +556,10 @@ func (c *Comparison) WriteText(w io.Writer) error {
 	if c.Airframe[0] != c.Airframe[1] {
 		name = c.Airframe[0] + " → " + c.Airframe[1]
 	}
-	p("compare %s → %s (airframe %s)", c.Old, c.New, name)
+	// The names come from the command line: quoted when they hold a
+	// control or bidirectional character, so that they cannot drive the
+	// terminal.
+	p("compare %s → %s (airframe %s)", airframe.SafeText(c.Old), airframe.SafeText(c.New), name)
 	p("  a regression: a check newly failing; a check's distance to its limit shrinking by more than %s of the limit, or to within %s of it;", pctText(c.Tolerance), pctText(c.Floor))
 	p("  the load step's integrated error, or a noise gain held to the design's own bound, up by more than %s", pctText(c.Tolerance))
 	p("")

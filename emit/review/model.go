@@ -173,7 +173,7 @@ func model(a *discrete.Airframe) (*Page, []builtFigure) {
 	r := &Page{
 		Airframe:    f.Airframe,
 		Version:     version.Version,
-		File:        mdCode(f.Path),
+		File:        mdCode(airframe.SafeText(f.Path)),
 		SHA256:      f.SHA256,
 		Description: mdText(f.Description),
 		LoopHz:      g(f.Loop.Hz, 6),
