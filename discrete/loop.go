@@ -31,8 +31,9 @@ type linearCtrl struct {
 func linearize(k Coeffs) linearCtrl {
 	if k.Form == airframe.FormLead {
 		// ul = B0 e + x; x' = B1 e − A1 ul = (B1 − A1 B0) e − A1 x.
-		return linearCtrl{M: 1, Ac: []float64{-k.A1}, Br: []float64{k.B1 - k.A1*k.B0}, By: []float64{-(k.B1 - k.A1*k.B0)},
-			Cc: []float64{1}, Dr: k.B0, Dy: -k.B0}
+		buf := make([]float64, 4) // one allocation for the four vectors
+		buf[0], buf[1], buf[2], buf[3] = -k.A1, k.B1-k.A1*k.B0, -(k.B1 - k.A1*k.B0), 1
+		return linearCtrl{M: 1, Ac: buf[0:1:1], Br: buf[1:2:2], By: buf[2:3:3], Cc: buf[3:4:4], Dr: k.B0, Dy: -k.B0}
 	}
 	hasI, hasD := k.Form.HasIntegral(), k.Form.HasDerivative()
 	m := 0
@@ -45,7 +46,9 @@ func linearize(k Coeffs) linearCtrl {
 		id, iv = m, m+1
 		m += 2
 	}
-	c := linearCtrl{M: m, Ac: make([]float64, m*m), Br: make([]float64, m), By: make([]float64, m), Cc: make([]float64, m)}
+	buf := make([]float64, m*m+3*m) // one allocation for the four
+	c := linearCtrl{M: m, Ac: buf[: m*m : m*m], Br: buf[m*m : m*m+m : m*m+m], By: buf[m*m+m : m*m+2*m : m*m+2*m],
+		Cc: buf[m*m+2*m : m*m+3*m : m*m+3*m]}
 	c.Dr, c.Dy = k.KpB, -k.Kp
 	if hasI {
 		c.Ac[is*m+is] = 1
@@ -72,6 +75,27 @@ func linearize(k Coeffs) linearCtrl {
 	return c
 }
 
+// directSetpoint is linearize(k).Dr, the controller's direct gain from
+// the setpoint, by the same operations; the only field of linearize(k)
+// that depends on k.KpB.
+func directSetpoint(k Coeffs) float64 {
+	if k.Form == airframe.FormLead {
+		return k.B0
+	}
+	dr := k.KpB
+	if k.Form.HasIntegral() {
+		dr += k.G0
+	}
+	if k.Form.HasDerivative() {
+		ar := 0.0
+		if k.DerivativeOnError {
+			ar = 1
+		}
+		dr += k.Bd * ar
+	}
+	return dr
+}
+
 // closedLoop is the linear sampled loop, state X = [plant; compute-delay
 // registers; controller], input r, output the true rate. It serves the
 // poles and the final value; responses come from simulate, which steps
@@ -91,10 +115,11 @@ func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
 	d += pl.Delay
 	np, m := pl.N, c.M
 	n := np + d + m
-	L := closedLoop{N: n, A: make([]float64, n*n), B: make([]float64, n), Cy: make([]float64, n)}
+	buf := make([]float64, n*n+2*n) // one allocation for A, Cy and urow
+	L := closedLoop{N: n, A: buf[: n*n : n*n], Cy: buf[n*n : n*n+n : n*n+n]}
 	ic := np + d // first controller state
 	// u = Cc xc + Dr r + Dy·Cm·xp, as a row over X.
-	urow := make([]float64, n)
+	urow := buf[n*n+n : n*n+2*n : n*n+2*n]
 	for j := 0; j < np; j++ {
 		urow[j] = c.Dy * pl.Cm[j]
 	}
@@ -269,8 +294,10 @@ func newPairStepper(pl Plant, c0, c1 linearCtrl, d int) *pairStepper {
 	D := d + pl.Delay
 	np, m := pl.N, c0.M
 	s := &pairStepper{pl: pl, ctrl: pairCtrl{c: c0, dr: [2]float64{c0.Dr, c1.Dr}}}
+	w := 2*np + 2*m + D + 1
+	all := make([]float64, 2*w) // one allocation for both lanes
 	for l := range 2 {
-		buf := make([]float64, 2*np+2*m+D+1)
+		buf := all[l*w : l*w+w : l*w+w]
 		s.x[l], s.xn[l] = buf[:np], buf[np:2*np]
 		s.ctrl.xc[l], s.ctrl.xcn[l] = buf[2*np:2*np+m], buf[2*np+m:2*np+2*m]
 		s.ctrl.ring[l] = buf[2*np+2*m:]

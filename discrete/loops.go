@@ -28,6 +28,16 @@ type Loops struct {
 	// discretized during the search (the textbook target's ωn); the
 	// chosen design is realized at its own crossover and verified again.
 	prewarp float64
+	// last is the last controller realize discretized, and its result:
+	// the search asks for the same controller at every plant in turn
+	// (and a tustin_prewarp one costs a crossover search). It makes a
+	// Loops unsafe for concurrent use, which the search never needs.
+	last struct {
+		have bool
+		c    synth.Controller
+		k    Coeffs
+		err  error
+	}
 }
 
 // maxSchurDegree is the largest characteristic polynomial judged by the
@@ -111,6 +121,24 @@ func (l *Loops) Plant(i int) Plant { return l.plants[i] }
 // judge the controller the firmware runs; only the frequency checks' basis
 // (Ctrl, which must be linear in the gains) uses the fixed frequency.
 func (l *Loops) realize(c synth.Controller) (Coeffs, error) {
+	if l.last.have && sameController(c, l.last.c) {
+		return l.last.k, l.last.err
+	}
+	k, err := l.realizeNew(c)
+	l.last.have, l.last.c, l.last.k, l.last.err = true, c, k, err
+	return k, err
+}
+
+// sameController reports whether a and b are the same controller, their
+// numbers equal bit for bit.
+func sameController(a, b synth.Controller) bool {
+	same := func(x, y float64) bool { return math.Float64bits(x) == math.Float64bits(y) }
+	return a.Form == b.Form && a.DerivativeOnError == b.DerivativeOnError && same(a.Kp, b.Kp) && same(a.Ki, b.Ki) &&
+		same(a.Kd, b.Kd) && same(a.Tf, b.Tf) && same(a.B, b.B) && same(a.K, b.K) && same(a.Zero, b.Zero) && same(a.Pole, b.Pole)
+}
+
+// realizeNew is realize without its memory of the last controller.
+func (l *Loops) realizeNew(c synth.Controller) (Coeffs, error) {
 	ctl := l.p.Ctrl
 	ctl.AntiWindup, ctl.TrackingTime = string(AWNone), 0
 	w := l.prewarp
@@ -254,7 +282,10 @@ func (l *Loops) Step(c synth.Controller, i int) (synth.Evaluation, error) {
 	pl := l.plants[i]
 	k0, k1 := k, k
 	k0.KpB, k1.KpB = 0, k.Kp
-	c0, c1 := linearize(k0), linearize(k1)
+	// The two controllers differ in the direct setpoint gain alone.
+	c0 := linearize(k0)
+	c1 := c0
+	c1.Dr = directSetpoint(k1)
 	e.N, e.H = horizon(l.p.Spec.SettlingTime, pl.T, nil, 4), pl.T
 	e.Final0, e.Final1 = newClosedLoop(pl, c0, l.d).dcGains(setpointInput(pl, c1, l.d))
 	e.Respond = newPairStepper(pl, c0, c1, l.d).run

@@ -244,13 +244,82 @@ type searcher struct {
 	ratioB float64
 	// fine scores failures on every weight, when the search looks for a
 	// small feasible set.
-	fine       bool
-	lastFail   int       // the plant of the last failed time check
-	passing    []cand    // every passing candidate, in the order judged
-	fineLeft   int       // judgments left to the search for a small feasible set
-	th         []float64 // the shape of the last basis
-	reach      float64   // least settling time seen with every other check met
-	y0, y1, yb []float64
+	fine     bool
+	lastFail int       // the plant of the last failed time check
+	freqFail int       // the plant of the last failed margin (freqPass)
+	passing  []cand    // every passing candidate, in the order judged
+	fineLeft int       // judgments left to the search for a small feasible set
+	th       []float64 // the shape of the last basis
+	// alive is the scratch of fastTimeChecks.
+	alive []int
+	// score is the scratch of a scored failure (timeChecks).
+	score scoreBuf
+	// rooms are IL/r − |1/G(0)| at every plant (holdWeight).
+	rooms []float64
+	// haveBasis says that a and b hold the basis of th.
+	haveBasis bool
+	reach     float64 // least settling time seen with every other check met
+	// runs keep the step responses that fastTimeChecks computed for the
+	// controller being judged: the nominal plant's and the last other
+	// plant's, which are the plants a failure is scored on (timeChecks),
+	// so that the scoring continues them instead of simulating them again.
+	runs [2]stepRun
+	// judged counts the controllers given to timeChecks; a run belongs to
+	// the controller of its count.
+	judged int
+}
+
+// scoreBuf holds the per-weight figures of a scored failure, reused from
+// one judgment to the next.
+type scoreBuf struct {
+	bs, worst, slow, ws, fs []float64
+	osOK                    []bool
+	idx                     []int
+	sts                     []lti.StepInfo
+}
+
+// grow makes room for n weights.
+func (b *scoreBuf) grow(n int) {
+	if cap(b.worst) < n {
+		b.worst, b.slow, b.ws, b.fs = make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
+		b.osOK, b.idx, b.sts = make([]bool, n), make([]int, n), make([]lti.StepInfo, n)
+	}
+}
+
+// stepRun is a setpoint step at one plant as far as it was simulated: the
+// responses y0 and y1 (b = 0 and 1) hold the first k of e.N samples, and
+// e.Respond continues from there.
+type stepRun struct {
+	e      Evaluation
+	y0, y1 []float64
+	k      int
+	plant  int
+	judged int // the searcher's judged count when the run started
+}
+
+// run returns the slot for plant i of the current controller, started
+// from e with buffers of e.N samples.
+func (sr *searcher) run(i int, e Evaluation) *stepRun {
+	r := &sr.runs[0]
+	if i != 0 {
+		r = &sr.runs[1]
+	}
+	if cap(r.y0) < e.N {
+		r.y0, r.y1 = make([]float64, e.N), make([]float64, e.N)
+	}
+	r.e, r.y0, r.y1, r.k, r.plant, r.judged = e, r.y0[:e.N], r.y1[:e.N], 0, i, sr.judged
+	return r
+}
+
+// ran returns the run of plant i kept from the current controller's
+// verdict, nil when there is none.
+func (sr *searcher) ran(i int) *stepRun {
+	for j := range sr.runs {
+		if r := &sr.runs[j]; r.judged == sr.judged && r.plant == i && r.y0 != nil {
+			return r
+		}
+	}
+	return nil
 }
 
 func newSearcher(p airframe.Axis, L Loops, g0, w0 float64) *searcher {
@@ -287,13 +356,33 @@ func key(u []float64) string {
 }
 
 // basis writes A = C(θ, 0) and B = C(θ, 1) − C(θ, 0) on the grid.
+//
+// The search sets the basis of a shape again and again (each judgment
+// of it): a basis already set for the same shape, bit for bit, is kept.
 func (sr *searcher) basis(th []float64) {
-	sr.th = th
+	if sr.haveBasis && sameBits(th, sr.th) {
+		return
+	}
+	sr.th, sr.haveBasis = th, true
 	sr.L.Ctrl(sr.fam.ctrl(th, 0), sr.a)
 	sr.L.Ctrl(sr.fam.ctrl(th, 1), sr.b)
 	for k := range sr.b {
 		sr.b[k] -= sr.a[k]
 	}
+}
+
+// sameBits reports whether u and v hold the same float64 values bit for
+// bit.
+func sameBits(u, v []float64) bool {
+	if len(u) != len(v) {
+		return false
+	}
+	for i := range u {
+		if math.Float64bits(u[i]) != math.Float64bits(v[i]) {
+			return false
+		}
+	}
+	return true
 }
 
 // msBound returns the largest x ≥ 0 such that every x' in [0, x) keeps
@@ -353,26 +442,94 @@ func (sr *searcher) msBound() (float64, bool) {
 // freqFigures computes, for C = A + x·B on the grid, the worst phase and
 // gain margins over the plants (interpolated between grid points) and the
 // noise gain: the largest |C| from the lowest gain crossover up.
-func (sr *searcher) freqFigures(x float64) (pm, gm, noise float64) {
+//
+// With stop, it returns early (stopped) once a margin of the plants
+// judged so far fails its bound: the verdict of freqOK is then decided,
+// since the worst margin over every plant can only be lower (and snap
+// keeps the order). A minimum does not depend on the order of the plants,
+// so the plant that failed last goes first.
+func (sr *searcher) freqFigures(x float64, stop bool) (pm, gm, noise float64, stopped bool) {
+	s := sr.p.Spec
 	pm, gm = math.Inf(1), math.Inf(1)
 	kc := len(sr.grid)
 	c := sr.lbuf
 	for k := range c {
 		c[k] = sr.a[k] + complex(x, 0)*sr.b[k]
 	}
-	for i := range sr.open {
+	n := len(sr.open)
+	for j := range n {
+		i := j
+		if stop {
+			i = (j + sr.freqFail) % n
+		}
 		m, g, kci := gridMargins(sr.grid, c, sr.open[i])
 		pm, gm = math.Min(pm, m), math.Min(gm, g)
 		kc = min(kc, kci)
+		if stop && (failsBelow(pm, s.MinPhaseMargin) || failsBelow(gm, s.MinGainMargin)) {
+			sr.freqFail = i
+			return pm, gm, 0, true
+		}
 	}
+	return pm, gm, sr.noiseFrom(kc), false
+}
+
+// failsBelow reports whether freqOK fails the bound lim (when set) on v.
+func failsBelow(v, lim float64) bool {
+	return lim > 0 && !(v >= lim) && !(snap(v) >= lim)
+}
+
+// noiseFrom returns the noise gain of C = sr.lbuf from the grid index kc
+// of the lowest gain crossover up (len(grid): none, the whole grid).
+func (sr *searcher) noiseFrom(kc int) float64 {
+	c := sr.lbuf
 	if kc >= len(sr.grid) {
 		kc = 0
 	}
-	n2 := 0.0
+	// The largest |C|², as math.Max would fold it from 0: +Inf if any is,
+	// else NaN if any is (NaN fails every comparison), else the largest
+	// (the squares are never −0).
+	n2, nan := 0.0, false
 	for k := kc; k < len(c); k++ {
-		n2 = math.Max(n2, real(c[k])*real(c[k])+imag(c[k])*imag(c[k]))
+		if v := real(c[k])*real(c[k]) + imag(c[k])*imag(c[k]); v > n2 {
+			n2 = v
+		} else if v != v {
+			nan = true
+		}
 	}
-	return pm, gm, math.Sqrt(n2)
+	if nan && !math.IsInf(n2, 1) {
+		n2 = math.NaN()
+	}
+	return math.Sqrt(n2)
+}
+
+// noiseAt is the noise gain of freqFigures alone: the lowest gain
+// crossover over the plants is found without the margins, each plant's
+// scan stopping at the lowest crossover found so far.
+func (sr *searcher) noiseAt(x float64) float64 {
+	c := sr.lbuf
+	for k := range c {
+		c[k] = sr.a[k] + complex(x, 0)*sr.b[k]
+	}
+	kc := len(sr.grid)
+	for i := range sr.open {
+		kc = firstCrossover(c[:min(kc+1, len(c))], sr.open[i], kc)
+	}
+	return sr.noiseFrom(kc)
+}
+
+// firstCrossover returns the grid index of the first gain crossover of
+// L = C·P (as gridMargins finds it), or none when there is none in c.
+func firstCrossover(c, P []complex128, none int) int {
+	var prevM float64
+	for k := range c {
+		L := c[k] * P[k]
+		m := real(L)*real(L) + imag(L)*imag(L) - 1
+		if k > 0 && (prevM >= 0) != (m >= 0) {
+			return k - 1
+		}
+		prevM = m
+	}
+	return none
 }
 
 // gridMargins returns the phase and gain margins of L = C·P on the grid
@@ -424,8 +581,24 @@ func gridMargins(w []float64, c, P []complex128) (pm, gm float64, kc int) {
 // freqOK reports whether the margins and the noise gain pass at x, and
 // the relative violation when not.
 func (sr *searcher) freqOK(x float64) (bool, float64, string) {
+	pm, gm, noise, _ := sr.freqFigures(x, false)
+	return sr.freqVerdict(x, pm, gm, noise)
+}
+
+// freqPass is the verdict of freqOK alone, which may stop at the first
+// plant that fails a margin (freqFigures).
+func (sr *searcher) freqPass(x float64) bool {
+	pm, gm, noise, stopped := sr.freqFigures(x, true)
+	if stopped {
+		return false
+	}
+	ok, _, _ := sr.freqVerdict(x, pm, gm, noise)
+	return ok
+}
+
+// freqVerdict judges the frequency figures at x (see freqOK).
+func (sr *searcher) freqVerdict(x, pm, gm, noise float64) (bool, float64, string) {
 	s := sr.p.Spec
-	pm, gm, noise := sr.freqFigures(x)
 	pm, gm, noise = snap(pm), snap(gm), snap(noise)
 	v, why := 0.0, ""
 	if s.MinPhaseMargin > 0 && !(pm >= s.MinPhaseMargin) {
@@ -476,7 +649,7 @@ func (sr *searcher) screen(u []float64) *point {
 	}
 	cap := 1e4 * sr.fam.xRef
 	x := math.Min(xms, cap)
-	if okf, _, _ := sr.freqOK(x); !okf {
+	if !sr.freqPass(x) {
 		// The margins and the noise gain are assumed to improve as x falls
 		// (less integral or proportional action): bisect on [small, x].
 		small := math.Min(x*1e-4, sr.fam.xRef*1e-4)
@@ -488,7 +661,7 @@ func (sr *searcher) screen(u []float64) *point {
 		lo, hi := small, x
 		for i := 0; i < 40 && hi/lo > 1.005; i++ {
 			m := math.Sqrt(lo * hi)
-			if okm, _, _ := sr.freqOK(m); okm {
+			if sr.freqPass(m) {
 				lo = m
 			} else {
 				hi = m
@@ -500,8 +673,8 @@ func (sr *searcher) screen(u []float64) *point {
 	// multiply-adds), and the search must take the same path everywhere.
 	pt.xf = snap(x)
 	x = pt.xf
-	_, _, pt.noise = sr.freqFigures(x)
-	_, _, pt.noise0 = sr.freqFigures(x * 1e-6)
+	pt.noise = sr.noiseAt(x)
+	pt.noise0 = sr.noiseAt(x * 1e-6)
 	return pt
 }
 
@@ -575,7 +748,7 @@ func (sr *searcher) judgeAt(pt *point, x float64) (cand, error) {
 	c := cand{pt: pt, x: x, settle: math.NaN()}
 	c.ctrl = sr.fam.ctrl(pt.th, x)
 	c.gain = sr.fam.gain(pt.th, x)
-	_, _, c.noise = sr.freqFigures(x)
+	c.noise = sr.noiseAt(x)
 	// The time checks first: most candidates fail them, and an unstable
 	// loop cannot pass them (its response leaves the band), so the exact
 	// stability test is needed only for a candidate that passes, where it
@@ -632,15 +805,20 @@ func (sr *searcher) holdWeight(c Controller) float64 {
 	if !c.Form.HasIntegral() || !(r > 0) || !(il > 0) {
 		return math.Inf(-1)
 	}
-	need := math.Inf(-1)
-	for _, cn := range sr.L.Corners() {
-		inv := 0.0
-		if g0 := real(sr.p.At(cn).Plant.Model.Eval(0)); !math.IsInf(g0, 0) && !math.IsNaN(g0) && g0 != 0 {
-			inv = 1 / g0
+	if sr.rooms == nil {
+		// The room of each plant does not depend on the controller.
+		for _, cn := range sr.L.Corners() {
+			inv := 0.0
+			if g0 := real(sr.p.At(cn).Plant.Model.Eval(0)); !math.IsInf(g0, 0) && !math.IsNaN(g0) && g0 != 0 {
+				inv = 1 / g0
+			}
+			// |inv + (1 − b)·Kp| ≤ IL/r with inv ≥ 0 for a plant of
+			// positive gain: (1 − b)·Kp ≤ IL/r − inv.
+			sr.rooms = append(sr.rooms, il/r-math.Abs(inv))
 		}
-		// |inv + (1 − b)·Kp| ≤ IL/r with inv ≥ 0 for a plant of positive
-		// gain: (1 − b)·Kp ≤ IL/r − inv.
-		room := il/r - math.Abs(inv)
+	}
+	need := math.Inf(-1)
+	for _, room := range sr.rooms {
 		if room < 0 {
 			return 2
 		}
@@ -743,12 +921,13 @@ func (w *weightWindow) admitsAny(ws []float64) bool {
 // weight is summarized only when the window admits it.
 func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool, err error) {
 	s := sr.p.Spec
-	var alive []int
+	alive := sr.alive[:0]
 	for j, w := range sr.bs {
 		if w >= bh-1e-12 {
 			alive = append(alive, j)
 		}
 	}
+	sr.alive = alive
 	for n := 0; n < sr.ncorn && len(alive) > 0; n++ {
 		// The plant that failed last goes first: a failure is most often
 		// at the same corner, and ends the judgment early.
@@ -757,10 +936,8 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 		if err != nil {
 			return 0, false, err
 		}
-		if cap(sr.y0) < e.N {
-			sr.y0, sr.y1, sr.yb = make([]float64, e.N), make([]float64, e.N), make([]float64, e.N)
-		}
-		y0, y1 := sr.y0[:e.N], sr.y1[:e.N]
+		r := sr.run(i, e)
+		y0, y1 := r.y0, r.y1
 		bmin, bmax := sr.bs[alive[len(alive)-1]], sr.bs[alive[0]]
 		w := newWeightWindow(&e, s, bmin, bmax, 0)
 		admits := func() bool {
@@ -784,13 +961,17 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 					w.add(k, y0[k], y1[k])
 				}
 			}
+			r.k = k
 		}
 		if stopped {
 			sr.lastFail = i
 			return 0, false, nil
 		}
-		yb := sr.yb[:e.N]
-		next := alive[:0]
+		// The admitted weights of a positive final value, summarized
+		// together.
+		sc := &sr.score
+		sc.grow(len(alive))
+		held, ws, fs := alive[:0], sc.ws[:0], sc.fs[:0]
 		for _, j := range alive {
 			bj := sr.bs[j]
 			if w.ok && !w.admits(bj) {
@@ -800,10 +981,13 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 			if !(f > 0) || math.IsInf(f, 0) {
 				continue
 			}
-			for k := range yb {
-				yb[k] = y0[k] + bj*(y1[k]-y0[k])
-			}
-			if timeViolation(s, true, lti.Settle(yb, e.H, f, s.Band)) == 0 {
+			held, ws, fs = append(held, j), append(ws, bj), append(fs, f)
+		}
+		sts := sc.sts[:len(held)]
+		weightedSettles(y0, y1, ws, fs, e.H, s.Band, sts)
+		next := held[:0]
+		for m, j := range held {
+			if timeMet(s, sts[m]) {
 				next = append(next, j)
 			}
 		}
@@ -839,6 +1023,7 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 	}
 	// The verdict: every plant, every admitted weight (fastTimeChecks),
 	// then the disturbance recovery at every plant.
+	sr.judged++
 	b, ok, err := sr.fastTimeChecks(c, bh)
 	if err != nil {
 		return b, 0, nil, settle, err
@@ -877,17 +1062,18 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 		if sr.fine {
 			k = 4
 		}
-		bs = nil
+		bs = sr.score.bs[:0]
 		for j := 0; j < len(sr.bs); j += k {
 			bs = append(bs, sr.bs[j])
 		}
+		sr.score.bs = bs
 	}
 	nb := len(bs)
-	worst := make([]float64, nb)
-	slow := make([]float64, nb)
-	osOK := make([]bool, nb)
-	for j := range osOK {
-		osOK[j] = true
+	sc := &sr.score
+	sc.grow(nb)
+	worst, slow, osOK := sc.worst[:nb], sc.slow[:nb], sc.osOK[:nb]
+	for j := range nb {
+		worst[j], slow[j], osOK[j] = 0, 0, true
 	}
 	steady := 0.0
 	plants := []int{sr.lastFail}
@@ -895,25 +1081,35 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 		plants = append(plants, 0)
 	}
 	for _, i := range plants {
-		e, err := sr.L.Step(c, i)
-		if err != nil {
-			return 0, 0, nil, settle, err
+		// The verdict's run of this plant, continued to the end of its
+		// record (the same samples as a new one), or a new run.
+		r := sr.ran(i)
+		if r == nil {
+			e, err := sr.L.Step(c, i)
+			if err != nil {
+				return 0, 0, nil, settle, err
+			}
+			r = sr.run(i, e)
 		}
-		if cap(sr.y0) < e.N {
-			sr.y0, sr.y1, sr.yb = make([]float64, e.N), make([]float64, e.N), make([]float64, e.N)
+		e, y0, y1 := r.e, r.y0, r.y1
+		if r.k < e.N {
+			e.Respond(y0[r.k:], y1[r.k:])
+			r.k = e.N
 		}
-		y0, y1, yb := sr.y0[:e.N], sr.y1[:e.N], sr.yb[:e.N]
-		e.Respond(y0, y1)
+		// The weights of a positive final value are summarized together.
+		ws, fs, idx := sc.ws[:0], sc.fs[:0], sc.idx[:0]
 		for j, w := range bs {
 			f := e.Final0 + w*(e.Final1-e.Final0)
 			if !(f > 0) || math.IsInf(f, 0) {
 				worst[j] = math.Inf(1)
 				continue
 			}
-			for k := range yb {
-				yb[k] = y0[k] + w*(y1[k]-y0[k])
-			}
-			st := lti.Settle(yb, e.H, f, s.Band)
+			ws, fs, idx = append(ws, w), append(fs, f), append(idx, j)
+		}
+		sts := sc.sts[:len(ws)]
+		weightedSettles(y0, y1, ws, fs, e.H, s.Band, sts)
+		for m, st := range sts {
+			j := idx[m]
 			worst[j] = math.Max(worst[j], timeViolation(s, true, st))
 			if !(st.Overshoot <= s.Overshoot) {
 				osOK[j] = false
@@ -970,6 +1166,33 @@ func timeViolation(s airframe.Spec, stable bool, st lti.StepInfo) float64 {
 		v += 1
 	}
 	return v
+}
+
+// timeMet reports whether timeViolation(s, true, st) is 0 (both are
+// non-negative terms), without the cost of snap where the figure is far
+// enough from its bound that snapping cannot move it across (withinSnapped).
+func timeMet(s airframe.Spec, st lti.StepInfo) bool {
+	if math.IsNaN(st.Overshoot) || math.IsNaN(st.Settling) || !st.Settled {
+		return false
+	}
+	return withinSnapped(st.Overshoot, s.Overshoot) && withinSnapped(st.Settling, s.SettlingTime)
+}
+
+// withinSnapped reports whether math.Max(0, snap(v)/lim − 1) is 0. snap
+// rounds to ten significant digits, a relative change of at most 5e-10,
+// so a v below lim·(1 − 1e-8) passes and one above lim·(1 + 1e-8) fails
+// without it; in between, and for values outside the usual range, the
+// expression of timeViolation decides.
+func withinSnapped(v, lim float64) bool {
+	if v >= 0 && lim > 0 && !math.IsInf(v, 0) && !math.IsInf(lim, 0) {
+		if v <= lim*(1-1e-8) {
+			return true
+		}
+		if v >= lim*(1+1e-8) {
+			return false
+		}
+	}
+	return math.Max(0, snap(v)/lim-1) == 0
 }
 
 // gridPoints returns the shapes of the coarse grid.
@@ -1164,7 +1387,7 @@ func (sr *searcher) leastNoise(grid [][]float64, step []float64, judge judgeFunc
 		}
 		for x := pt.xf * 0.01; x <= pt.xf*(1+1e-9); x *= 1.15 {
 			sr.basis(pt.th)
-			if _, _, n := sr.freqFigures(x); have && n >= best.noise {
+			if n := sr.noiseAt(x); have && n >= best.noise {
 				return cand{}, false, nil
 			}
 			c, err := judge(pt, x, false, nil)
@@ -1556,7 +1779,7 @@ func (sr *searcher) quietest(best cand, step []float64, judge judgeFunc) (cand, 
 		// The noise gain barely depends on x; a shape that is not
 		// quieter at its largest x is not worth a judgment.
 		sr.basis(pt.th)
-		if _, _, n := sr.freqFigures(x); n >= best.noise*(1-1e-6) {
+		if n := sr.noiseAt(x); n >= best.noise*(1-1e-6) {
 			return false, nil
 		}
 		c, err := judge(pt, x, false, nil)

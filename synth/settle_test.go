@@ -1,0 +1,118 @@
+package synth
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"locusmith/airframe"
+	"locusmith/internal/lti"
+)
+
+// TestWeightedSettle checks weightedSettle bit for bit against lti.Settle
+// of the response written out (the search's former way), on damped
+// oscillations of both signs and on records with NaN, ±Inf, a last sample
+// outside the band, no sample outside, one sample and none.
+func TestWeightedSettle(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 2))
+	same := func(a, b float64) bool {
+		return math.Float64bits(a) == math.Float64bits(b) || (math.IsNaN(a) && math.IsNaN(b))
+	}
+	check := func(name string, y0, y1 []float64, b, h, final, band float64) {
+		t.Helper()
+		yb := make([]float64, len(y0))
+		for k := range yb {
+			yb[k] = y0[k] + b*(y1[k]-y0[k])
+		}
+		want := lti.Settle(yb, h, final, band)
+		got := weightedSettle(y0, y1, b, h, final, band)
+		if !same(got.Final, want.Final) || !same(got.Peak, want.Peak) || !same(got.PeakTime, want.PeakTime) ||
+			!same(got.Overshoot, want.Overshoot) || !same(got.Settling, want.Settling) || !same(got.Rise, want.Rise) ||
+			got.Settled != want.Settled {
+			t.Errorf("%s (b = %g, final = %g): got %+v, want %+v", name, b, final, got, want)
+		}
+	}
+	weights := []float64{0, 1, 0.375, 0.025, 0.975, 0.6, 0.5, 0.25, 0.125, 0.8, 0.9}
+	for trial := 0; trial < 400; trial++ {
+		n := 1 + rng.IntN(600)
+		zeta, wn, h := 0.05+0.9*rng.Float64(), 5+100*rng.Float64(), 0.001
+		sign := 1.0
+		if trial%5 == 0 {
+			sign = -1
+		}
+		y0, y1 := make([]float64, n), make([]float64, n)
+		for k := range y0 {
+			tk := float64(k) * h
+			wd := wn * math.Sqrt(1-zeta*zeta)
+			env := math.Exp(-zeta * wn * tk)
+			y0[k] = sign * (1 - env*math.Cos(wd*tk))
+			y1[k] = sign * (1 - env*(math.Cos(wd*tk)-2*math.Sin(wd*tk)))
+		}
+		switch trial % 8 {
+		case 1:
+			y0[rng.IntN(n)] = math.NaN()
+		case 2:
+			y1[rng.IntN(n)] = math.Inf(1)
+		case 3:
+			y0[n-1] += 0.5 // last sample outside
+		case 4:
+			for k := range y0 { // inside from the start
+				y0[k], y1[k] = sign, sign*(1+1e-4)
+			}
+		case 5:
+			y0[rng.IntN(n)] = math.Inf(-1)
+		}
+		final := sign * (1 + 0.01*(rng.Float64()-0.5))
+		for _, b := range weights {
+			check("oscillation", y0, y1, b, h, final, 0.02)
+		}
+		// All weights at once, against one at a time (checked above).
+		finals := make([]float64, len(weights))
+		for j, b := range weights {
+			finals[j] = final * (1 + 0.1*b)
+		}
+		got := make([]lti.StepInfo, len(weights))
+		weightedSettles(y0, y1, weights, finals, h, 0.02, got)
+		for j, b := range weights {
+			want := weightedSettle(y0, y1, b, h, finals[j], 0.02)
+			if !same(got[j].Peak, want.Peak) || !same(got[j].PeakTime, want.PeakTime) || !same(got[j].Overshoot, want.Overshoot) ||
+				!same(got[j].Settling, want.Settling) || got[j].Settled != want.Settled || !same(got[j].Final, want.Final) {
+				t.Errorf("weightedSettles b = %g: got %+v, want %+v", b, got[j], want)
+			}
+		}
+		check("final zero", y0, y1, 0.5, h, 0, 0.02)
+		check("final NaN", y0, y1, 0.5, h, math.NaN(), 0.02)
+		check("wide band", y0, y1, 0.5, h, final, 0.3)
+	}
+	check("empty", nil, nil, 0.5, 0.001, 1, 0.02)
+}
+
+// TestTimeMet checks timeMet against timeViolation(…) == 0 on figures at,
+// near and far from their bounds, and on NaN, Inf and zero.
+func TestTimeMet(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	specs := []airframe.Spec{{Overshoot: 0.1, SettlingTime: 0.15}, {Overshoot: 0.05, SettlingTime: 0.08},
+		{Overshoot: 0.1234567890123, SettlingTime: 1.0000000000007}}
+	near := func(lim float64) float64 {
+		switch rng.IntN(6) {
+		case 0:
+			return lim * (1 + 1e-8*(2*rng.Float64()-1))
+		case 1:
+			return lim * (1 + 1e-10*(2*rng.Float64()-1))
+		case 2:
+			return math.Nextafter(lim, math.Inf(2*rng.IntN(2)-1))
+		case 3:
+			return lim * 2 * rng.Float64()
+		case 4:
+			return []float64{0, math.Inf(1), math.NaN(), lim}[rng.IntN(4)]
+		}
+		return lim * (1 + 3e-8*(2*rng.Float64()-1))
+	}
+	for i := 0; i < 200000; i++ {
+		s := specs[i%len(specs)]
+		st := lti.StepInfo{Overshoot: near(s.Overshoot), Settling: near(s.SettlingTime), Settled: rng.IntN(8) > 0}
+		if got, want := timeMet(s, st), timeViolation(s, true, st) == 0; got != want {
+			t.Fatalf("%+v under %+v: timeMet %v, timeViolation says %v", st, s, got, want)
+		}
+	}
+}
