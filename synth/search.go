@@ -1,6 +1,7 @@
 package synth
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"math/cmplx"
@@ -258,7 +259,14 @@ type searcher struct {
 	rooms []float64
 	// haveBasis says that a and b hold the basis of th.
 	haveBasis bool
-	reach     float64 // least settling time seen with every other check met
+	// reachers are the candidates of the least settling times seen with
+	// every other check met (at most reachKeep), whose settling is
+	// verified at every plant for the figure reported (reachAll).
+	reachers []cand
+	// nearest holds, per shape of the grid (key of u), its candidate of
+	// least violation, for the starts of the search for a small
+	// feasible set.
+	nearest map[string]cand
 	// runs keep the step responses that fastTimeChecks computed for the
 	// controller being judged: the nominal plant's and the last other
 	// plant's, which are the plants a failure is scored on (timeChecks),
@@ -324,7 +332,7 @@ func (sr *searcher) ran(i int) *stepRun {
 
 func newSearcher(p airframe.Axis, L Loops, g0, w0 float64) *searcher {
 	sr := &searcher{p: p, L: L, fam: newFamily(p, g0, w0), grid: L.Grid(), bs: weights(p),
-		cache: map[string]*point{}, noiseB: math.Inf(1), reach: math.Inf(1)}
+		cache: map[string]*point{}, nearest: map[string]cand{}, noiseB: math.Inf(1)}
 	sr.ncorn = len(L.Corners())
 	for i := 0; i < L.Primary(); i++ {
 		sr.open = append(sr.open, L.Open(i))
@@ -786,9 +794,102 @@ func (sr *searcher) note(c cand) {
 	if !sr.haveClosest || c.viol < sr.closest.viol {
 		sr.closest, sr.haveClosest = c, true
 	}
-	if onlySettling(c.fails) && c.settle < sr.reach {
-		sr.reach = c.settle
+	if c.pt != nil {
+		if k := key(c.pt.u); !sr.fine {
+			if o, ok := sr.nearest[k]; !ok || c.viol < o.viol {
+				sr.nearest[k] = c
+			}
+		}
 	}
+	if onlySettling(c.fails) && !math.IsNaN(c.settle) {
+		i, _ := slices.BinarySearchFunc(sr.reachers, c.settle, func(a cand, t float64) int { return cmp.Compare(a.settle, t) })
+		if i < reachKeep {
+			sr.reachers = slices.Insert(sr.reachers, i, c)
+			if len(sr.reachers) > reachKeep {
+				sr.reachers = sr.reachers[:reachKeep]
+			}
+		}
+	}
+}
+
+// reachKeep is how many of the fastest-settling candidates are verified
+// at every plant for the settling time an infeasible verdict reports.
+const reachKeep = 4
+
+// reachAll returns the settling time the form reaches with every other
+// check met, verified at every plant, and the design that reaches it: the
+// least, over the candidates kept in reachers, of settleAll (+Inf when
+// none meets the overshoot at every plant). During the search a failing
+// candidate's settling is taken from two plants only (the one that failed
+// and the nominal), a guide that can be far too optimistic for the
+// verdict.
+func (sr *searcher) reachAll() (Controller, float64, error) {
+	var at Controller
+	best := math.Inf(1)
+	for _, c := range sr.reachers {
+		b, t, err := sr.settleAll(c.ctrl)
+		if err != nil {
+			return at, 0, err
+		}
+		if t < best {
+			at, best = c.ctrl, t
+			at.B = b
+		}
+	}
+	return at, best, nil
+}
+
+// settleAll returns the settling time controller c reaches with one
+// admitted setpoint weight for all plants: over the weights that hold the
+// hold rate and meet the overshoot limit (and, without an integral, the
+// steady error) at every plant and settle within the record, the least of
+// the slowest settling time over every plant, and that weight; +Inf when
+// no weight does.
+func (sr *searcher) settleAll(c Controller) (float64, float64, error) {
+	s := sr.p.Spec
+	bh := sr.holdWeight(c)
+	slow := make([]float64, len(sr.bs))
+	ok := make([]bool, len(sr.bs))
+	for j, w := range sr.bs {
+		ok[j] = w >= bh-1e-12
+	}
+	for i := 0; i < sr.ncorn; i++ {
+		e, err := sr.L.Step(c, i)
+		if err != nil {
+			return 0, 0, err
+		}
+		if !c.Form.HasIntegral() && s.MaxSteadyError > 0 && math.Abs(1-e.Final1) > s.MaxSteadyError {
+			return c.B, math.Inf(1), nil
+		}
+		y0, y1, yb := make([]float64, e.N), make([]float64, e.N), make([]float64, e.N)
+		e.Respond(y0, y1)
+		for j, w := range sr.bs {
+			if !ok[j] {
+				continue
+			}
+			f := e.Final0 + w*(e.Final1-e.Final0)
+			if !(f > 0) || math.IsInf(f, 0) {
+				ok[j] = false
+				continue
+			}
+			for k := range yb {
+				yb[k] = y0[k] + w*(y1[k]-y0[k])
+			}
+			st := lti.Settle(yb, e.H, f, s.Band)
+			if !(st.Overshoot <= s.Overshoot) || !st.Settled {
+				ok[j] = false
+				continue
+			}
+			slow[j] = math.Max(slow[j], st.Settling)
+		}
+	}
+	b, best := c.B, math.Inf(1)
+	for j, w := range sr.bs {
+		if ok[j] && slow[j] < best {
+			b, best = w, slow[j]
+		}
+	}
+	return b, best, nil
 }
 
 func onlySettling(fails []string) bool {
@@ -1268,7 +1369,9 @@ type Result struct {
 	// Fails names the checks the closest design misses, when not Met.
 	Fails []string
 	// Reach is the least settling time over the envelope seen with every
-	// other check met (NaN when none).
+	// other check met, verified at every plant with one setpoint weight
+	// (NaN when none); when the closest design misses only the settling
+	// time, it is the design of this figure.
 	Reach float64
 	// Evaluations counts the full judgments, for benchmarks.
 	Evaluations int
@@ -1346,8 +1449,23 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		}
 		res.Ctrl = sr.closest.ctrl
 		res.Fails = sr.closest.fails
-		if !math.IsInf(sr.reach, 1) {
-			res.Reach = sr.reach
+		at, reach, err := sr.reachAll()
+		if err != nil {
+			return res, err
+		}
+		if !math.IsInf(reach, 1) {
+			res.Reach = reach
+			// When the closest design misses only the settling time too,
+			// the faster of the two, judged at every plant, is reported.
+			if onlySettling(res.Fails) {
+				_, t, err := sr.settleAll(res.Ctrl)
+				if err != nil {
+					return res, err
+				}
+				if reach < t {
+					res.Ctrl = at
+				}
+			}
 		}
 		return res, nil
 	}
@@ -1523,29 +1641,23 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		sr.fine = true
 		defer func() { sr.fine = false }()
 		sr.fineLeft = fineBudget
-		for round := 0; round < 3 && !sr.haveOK && sr.fineLeft > 0; round++ {
-			if !sr.haveClosest || sr.closest.pt == nil {
-				return best, false, nil
+		// From the closest shape of the grid, and then from the next
+		// closest ones that are not its neighbours: the violation can
+		// lead into a basin of near misses far from a small feasible set
+		// that a worse shape of the grid lies next to.
+		// Each descent has an equal share of the budget, and the denser
+		// grid below what they leave.
+		starts := sr.descentStarts(pts, maxDescents)
+		for _, st := range starts {
+			if sr.haveOK {
+				break
 			}
-			cl := sr.closest
-			start := cl.viol
-			err := sr.pattern(cl.pt.u, step, func(u []float64) (bool, error) {
-				if sr.haveOK || sr.fineLeft <= 0 {
-					return false, nil
-				}
-				pt := sr.screen(u)
-				c, err := judge(pt, pt.xf, true, nil)
-				if err != nil || !(c.viol < cl.viol) {
-					return false, err
-				}
-				cl = c
-				return true, nil
-			})
+			left := sr.fineLeft
+			sr.fineLeft = fineBudget / (len(starts) + 1)
+			err := sr.descend(st, step, judge)
+			sr.fineLeft = left - (fineBudget/(len(starts)+1) - sr.fineLeft)
 			if err != nil {
 				return best, false, err
-			}
-			if !(sr.closest.viol < start) {
-				break
 			}
 		}
 		if !sr.haveOK {
@@ -1625,6 +1737,75 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		}
 	}
 	return best, true, nil
+}
+
+// maxDescents is how many shapes of the grid the search for a small
+// feasible set descends the violation from.
+const maxDescents = 3
+
+// descentStarts returns up to n judged shapes of pts, in order of their
+// least violation seen, each more than one grid step (in some coordinate)
+// from those before it.
+func (sr *searcher) descentStarts(pts []*point, n int) []cand {
+	var cs []cand
+	for _, pt := range pts {
+		if c, ok := sr.nearest[key(pt.u)]; ok {
+			cs = append(cs, c)
+		}
+	}
+	slices.SortStableFunc(cs, func(a, b cand) int { return cmpFloat(a.viol, b.viol) })
+	step := sr.gridStep()
+	var out []cand
+	for _, c := range cs {
+		if len(out) == n {
+			break
+		}
+		far := true
+		for _, o := range out {
+			near := true
+			for d := range c.pt.u {
+				if math.Abs(c.pt.u[d]-o.pt.u[d]) > step[d]*(1+1e-9) {
+					near = false
+				}
+			}
+			if near {
+				far = false
+				break
+			}
+		}
+		if far && !math.IsInf(c.viol, 1) {
+			out = append(out, c)
+		}
+	}
+	return out
+}
+
+// descend searches down the violation from cl, and again from where that
+// search ends when it stalls (a few rounds), until a design passes or the
+// budget of the search for a small feasible set is spent.
+func (sr *searcher) descend(cl cand, step []float64, judge judgeFunc) error {
+	for round := 0; round < 3 && !sr.haveOK && sr.fineLeft > 0; round++ {
+		start := cl.viol
+		err := sr.pattern(cl.pt.u, step, func(u []float64) (bool, error) {
+			if sr.haveOK || sr.fineLeft <= 0 {
+				return false, nil
+			}
+			pt := sr.screen(u)
+			c, err := judge(pt, pt.xf, true, nil)
+			if err != nil || !(c.viol < cl.viol) {
+				return false, err
+			}
+			cl = c
+			return true, nil
+		})
+		if err != nil {
+			return err
+		}
+		if !(cl.viol < start) {
+			break
+		}
+	}
+	return nil
 }
 
 // climb judges shape pt at x0 and, when it passes, climbs its line of x by
