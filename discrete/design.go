@@ -65,6 +65,10 @@ func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Des
 	if !(loop.Hz > 0) || math.IsInf(loop.Hz, 0) {
 		return nil, fmt.Errorf("axis %s: loop rate %g Hz: must be finite and > 0", p.Name, loop.Hz)
 	}
+	if len(p.Filters) > 0 {
+		return nil, &InputError{Key: "axes." + p.Name + ".filter", Value: fmt.Sprintf("(%d filters)", len(p.Filters)),
+			Msg: "the filter chain is read but not yet part of the loop's checks; remove it for now"}
+	}
 	L, err := NewLoops(p, loop)
 	if err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
