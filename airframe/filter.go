@@ -90,7 +90,8 @@ func (f Filter) States() int {
 }
 
 // Describe is a short text of the filter for headers and reports:
-// "notch 118 Hz, width 30 Hz", "lowpass 180 Hz, order 2, damping 0.7071".
+// "notch 118 Hz, -3 dB width 30 Hz", "lowpass 180 Hz, order 2, damping
+// 0.7071" (the damping to four digits).
 func (f Filter) Describe() string {
 	switch f.Kind {
 	case FilterNotch:
@@ -103,7 +104,7 @@ func (f Filter) Describe() string {
 		if f.Order == 1 {
 			return fmt.Sprintf("lowpass %g Hz, order 1", f.Hz)
 		}
-		return fmt.Sprintf("lowpass %g Hz, order 2, damping %g", f.Hz, f.Damping)
+		return fmt.Sprintf("lowpass %g Hz, order 2, damping %.4g", f.Hz, f.Damping)
 	}
 	return string(f.Kind)
 }

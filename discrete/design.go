@@ -65,15 +65,14 @@ func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Des
 	if !(loop.Hz > 0) || math.IsInf(loop.Hz, 0) {
 		return nil, fmt.Errorf("axis %s: loop rate %g Hz: must be finite and > 0", p.Name, loop.Hz)
 	}
-	if len(p.Filters) > 0 {
-		return nil, &InputError{Key: "axes." + p.Name + ".filter", Value: fmt.Sprintf("(%d filters)", len(p.Filters)),
-			Msg: "the filter chain is read but not yet part of the loop's checks; remove it for now"}
-	}
 	L, err := NewLoops(p, loop)
 	if err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
-	cd, err := synth.DesignAxis(p, L)
+	// The continuous design sees the filters' continuous counterparts in
+	// series with the sensor; the sampled loop (L) runs the sections.
+	cp := p.Continuous()
+	cd, err := synth.DesignAxis(cp, L)
 	if err != nil {
 		return nil, err
 	}
@@ -95,7 +94,7 @@ func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Des
 	if cd.Met && cd.Refined {
 		for i := 0; i < 8 && !d.frequencyOK(); i++ {
 			cd.Ctrl = shrink(cd.Ctrl, 0.98).Snap()
-			if cd.Stage, err = synth.Restage(p, cd.Stage, cd.Ctrl); err != nil {
+			if cd.Stage, err = synth.Restage(cp, cd.Stage, cd.Ctrl); err != nil {
 				return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 			}
 			if err := d.realize(); err != nil {
@@ -142,7 +141,7 @@ func richerReach(p airframe.Axis, loop airframe.Loop) string {
 		return ""
 	}
 	g0 := 1 / cmplx.Abs(q.OpenLoop(complex(0, t.OmegaN)))
-	res, err := synth.Search(q, L, g0, t.OmegaN)
+	res, err := synth.Search(q.Continuous(), L, g0, t.OmegaN)
 	switch {
 	case err != nil:
 		return ""
@@ -208,7 +207,7 @@ func (d *Design) realize() error {
 	if math.IsInf(lo, 1) {
 		lo = 0
 	}
-	d.NoiseGain = NoiseGain(k, d.loops.Grid(), lo)
+	d.NoiseGain = NoiseGain(k, d.Plant.Sections, d.loops.Grid(), lo)
 	return nil
 }
 
@@ -323,9 +322,9 @@ func Assess(p airframe.Axis, loop airframe.Loop, c synth.Controller, nb float64)
 	if err != nil {
 		return nil, err
 	}
-	cd := &synth.Design{Problem: p, Refined: true, Met: true}
+	cd := &synth.Design{Problem: p.Continuous(), Refined: true, Met: true}
 	cd.Ctrl = c
-	cd.Verif.Margins.Crossover = synth.Crossover(p, c)
+	cd.Verif.Margins.Crossover = synth.Crossover(p.Continuous(), c)
 	cd.Search.NoiseBound = nb
 	d := &Design{Problem: p, Loop: loop, Numeric: airframe.Numeric{Type: airframe.Float64}, Cont: cd, Plant: L.Plant(0), loops: L}
 	if err := d.realize(); err != nil {

@@ -356,6 +356,9 @@ func newCodeUnit(a *discrete.Airframe, o CodeOptions) (*codeUnit, error) {
 		return nil, fmt.Errorf("%s: airframe %s has no axes", displayPath(f.Path), f.Airframe)
 	}
 	for _, x := range a.Axes {
+		if x.Design != nil && len(x.Design.Problem.Filters) > 0 {
+			return nil, fmt.Errorf("axes.%s.filter: the generated code does not run the filter chain yet; design and report take it, emit does not", x.Name)
+		}
 		if x.Design == nil {
 			err := x.Err
 			if err == nil {
