@@ -473,7 +473,7 @@ func TestStepCost(t *testing.T) {
 				continue
 			}
 			k := x.Design.Coeffs
-			ops := emit.StepOps(k)
+			ops := emit.StepOps(k, x.Design.Plant.Sections...)
 			if sz.arith < ops/2 {
 				t.Errorf("%s %s: %d arithmetic instructions for %d operations: the listing parse is wrong", nt, fn, sz.arith, ops)
 			}
