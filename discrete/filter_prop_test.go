@@ -1,7 +1,9 @@
 package discrete
 
 import (
+	"fmt"
 	"math"
+	"os"
 	"testing"
 
 	"locusmith/airframe"
@@ -126,4 +128,42 @@ func TestNotchBuysGain(t *testing.T) {
 		}
 	}
 	t.Logf("SciPy: settling without the notch %.4g s at worst; with it PM %.1f°, Ms %.3f", worst, ref[len(gains)+1].PM, ref[len(gains)+1].Ms)
+}
+
+// BenchmarkDesignAxisFilters is BenchmarkDesignAxisAtRate's axis (the demo
+// quadrotor's roll) designed without and with two feedback filters (a
+// notch well above the crossover and a gyro lowpass): the cost the chain
+// adds to the design (issue 15: at most 1.3 times).
+func BenchmarkDesignAxisFilters(b *testing.B) {
+	data, err := os.ReadFile("../examples/quadrotor.toml")
+	if err != nil {
+		b.Fatal(err)
+	}
+	f, err := airframe.Parse("quadrotor.toml", data)
+	if err != nil {
+		b.Fatal(err)
+	}
+	var p airframe.Axis
+	for _, a := range f.Axes {
+		if a.Name == "roll" {
+			p = a
+		}
+	}
+	for _, n := range []int{0, 2} {
+		q := p
+		if n > 0 {
+			q.Filters = []airframe.Filter{
+				{Kind: airframe.FilterNotch, At: "feedback", Hz: 150, WidthHz: 40},
+				{Kind: airframe.FilterLowpass, At: "feedback", Hz: 250, Order: 2, Damping: 1 / math.Sqrt2},
+			}
+		}
+		b.Run(fmt.Sprintf("filters=%d", n), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				if _, err := DesignAxis(q, f.Loop, f.Numeric); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
+	}
 }
