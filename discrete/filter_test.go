@@ -4,6 +4,8 @@ import (
 	"encoding/json"
 	"math"
 	"math/cmplx"
+	"slices"
+	"strings"
 	"testing"
 
 	"locusmith/airframe"
@@ -418,5 +420,40 @@ func TestFilterModelMatchesLoop(t *testing.T) {
 		if got := Step(&prm, &st, 3.5, 3.5); math.Abs(got-0.2) > 1e-12 {
 			t.Fatalf("step %d after a bumpless reset: %g, want 0.2", i, got)
 		}
+	}
+}
+
+// TestFilterRealization checks the float32 realization's view of the
+// chain: each section's coefficients in the coefficient table, rounded to
+// float32 (the relative error of a round to nearest is at most 2^−24, IEEE
+// 754), and the plant rebuilt with given sections (WithSections) equal to
+// NewPlant's when they are the same sections.
+func TestFilterRealization(t *testing.T) {
+	p := filterAxis()
+	p.Filters = append(p.Filters, airframe.Filter{Kind: airframe.FilterLowpass, At: "feedback", Hz: 300, Order: 1})
+	p.Ctrl.Refine, p.Ctrl.ThirdPole = true, 5
+	d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float32})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var names []string
+	for _, c := range d.Num.Coefficients {
+		if strings.HasPrefix(c.Name, "F") {
+			names = append(names, c.Name)
+			if float64(float32(c.Value)) != c.Quantized || math.Abs(c.RelError) > 0x1p-24 {
+				t.Errorf("%s: %g → %g (relative %g)", c.Name, c.Value, c.Quantized, c.RelError)
+			}
+		}
+	}
+	want := "F1_B0 F1_B1 F1_B2 F1_A1 F1_A2 F2_B0 F2_B1 F2_B2 F2_A1 F2_A2 F3_B0 F3_B1 F3_A1"
+	if got := strings.Join(names, " "); got != want {
+		t.Errorf("filter coefficients %s, want %s", got, want)
+	}
+	if d.Num.quantizedPlant == nil || len(d.Num.quantizedPlant.Sections) != 3 || d.Num.quantizedPlant.Sections[1].A1 != float64(float32(d.Plant.Sections[1].A1)) {
+		t.Errorf("the quantized verification does not run the rounded sections")
+	}
+	q := d.Plant.WithSections(d.Plant.Sections)
+	if q.N != d.Plant.N || !slices.Equal(q.A, d.Plant.A) || !slices.Equal(q.B, d.Plant.B) || !slices.Equal(q.Cm, d.Plant.Cm) || !slices.Equal(q.Cy, d.Plant.Cy) {
+		t.Errorf("WithSections of the plant's own sections differs from the plant")
 	}
 }

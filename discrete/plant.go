@@ -165,6 +165,20 @@ func (p Plant) Unfiltered() Plant {
 		unf: p.unf, unum: p.unum, uden: p.uden, num: p.unum, den: p.uden}
 }
 
+// WithSections returns the plant with its filter chain replaced by the
+// sections qs (the chain's coefficients as the generated code rounds
+// them, for the re-verification of a realization).
+func (p Plant) WithSections(qs []lti.Biquad) Plant {
+	r := p.Unfiltered()
+	r.Sections = nil
+	for _, q := range qs {
+		r = r.withSection(q)
+		r.Sections = append(r.Sections, q)
+	}
+	r.num, r.den = r.transferFunction()
+	return r
+}
+
 // SectionPhaseDeg returns the phase of the section q at w rad/s when it
 // runs at hz samples per second, in degrees: ∠q(e^(jωT)).
 func SectionPhaseDeg(q lti.Biquad, w, hz float64) float64 {
