@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"os"
+	"slices"
+	"strings"
 	"testing"
 
 	"locusmith/airframe"
@@ -94,6 +96,16 @@ func TestNotchBuysGain(t *testing.T) {
 	}
 	if !(ki1 > 2*ki0) {
 		t.Errorf("Ki %g with the notch, %g without: want more than twice", ki1, ki0)
+	}
+	// Without the notch the design suggests it, with the figures of the
+	// design that has it (the mode: 40 Hz, ζ = 0.05; width 0.4·40 Hz);
+	// with it, nothing is suggested.
+	want := fmt.Sprintf(`kind = "notch", hz = 40, width_hz = 16 the design meets every check (without it, it does not), Ki %.4g against %.4g now`, ki1, ki0)
+	if !slices.ContainsFunc(d0.Warnings, func(w string) bool { return strings.Contains(w, want) }) {
+		t.Errorf("no suggestion %q among %q", want, d0.Warnings)
+	}
+	if slices.ContainsFunc(d1.Warnings, func(w string) bool { return strings.Contains(w, "no notch covers it") }) {
+		t.Errorf("a notch suggested on top of the notch: %q", d1.Warnings)
 	}
 	// SciPy: the design without the notch misses the settling time at
 	// some plant of the envelope; the one with it meets the step spec at
