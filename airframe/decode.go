@@ -180,7 +180,15 @@ func (c *checker) axis(name, key string, m map[string]any, lp loopInfo) Axis {
 		ok.settling, ok.recovery, ok.steady = false, false, false
 	}
 	if _, given := t.m["filter"]; given {
-		p.Filters = c.filters(t, lp)
+		// A notch with hz = "auto" is placed on the modes of the plant
+		// and sensor (only when both decoded: otherwise the problem is
+		// theirs).
+		var modes []Mode
+		modesOK := ok.model && ok.sensor && lp.hzOK
+		if modesOK {
+			modes = p.LightModes(0.9 * lp.hz / 2)
+		}
+		p.Filters = c.filters(t, lp, autoPlacer{modes: modes, ok: modesOK, env: p.Envelope, nyq: lp.hz / 2})
 	}
 	c.axisLimits(key, p, ok, t, lp)
 	return p
@@ -669,7 +677,7 @@ func (c *checker) outputLimit(key string, v any) ([2]float64, bool) {
 // its kind. lp.hz (0 when loop_hz is invalid) bounds the frequencies by
 // Nyquist. Invalid filters are left out of the result, which is then
 // meaningful only when no problem was recorded.
-func (c *checker) filters(t *table, lp loopInfo) []Filter {
+func (c *checker) filters(t *table, lp loopInfo, auto autoPlacer) []Filter {
 	key := t.sub("filter")
 	v := t.m["filter"]
 	var arr []any
@@ -700,16 +708,36 @@ func (c *checker) filters(t *table, lp loopInfo) []Filter {
 			c.fail(k, valueOrNil(e), "must be a table (kind, at, hz, ...), not %s", kind(e))
 			continue
 		}
-		if f, ok := c.filter(c.newTable(k, m, filterKeys()...), lp.hz); ok {
+		if f, ok := c.filter(c.newTable(k, m, filterKeys()...), lp.hz, &auto); ok {
 			out = append(out, f)
 		}
 	}
 	return out
 }
 
+// autoPlacer places the notches with hz = "auto" of one axis, in file
+// order, each on the next of the lightly damped modes (most lightly damped
+// first; ok is false when the plant or sensor did not decode).
+type autoPlacer struct {
+	modes []Mode
+	next  int
+	ok    bool
+	env   Envelope
+	nyq   float64
+}
+
+// place returns the next mode, or false.
+func (a *autoPlacer) place() (Mode, bool) {
+	if !a.ok || a.next >= len(a.modes) {
+		return Mode{}, false
+	}
+	a.next++
+	return a.modes[a.next-1], true
+}
+
 // filter checks one filter table; loopHz is 0 when loop_hz is invalid.
 // The bool reports whether the filter is valid.
-func (c *checker) filter(t *table, loopHz float64) (Filter, bool) {
+func (c *checker) filter(t *table, loopHz float64, auto *autoPlacer) (Filter, bool) {
 	f := Filter{At: defaultFilterAt}
 	good := true
 	if !t.has("kind") {
@@ -738,9 +766,28 @@ func (c *checker) filter(t *table, loopHz float64) (Filter, bool) {
 			ok: func(x float64) bool { return x > 0 && x < nyq }}
 	}
 	hzOK := false
+	autoWidth := 0.0
 	if s, isStr := t.m["hz"].(string); isStr && s == "auto" {
-		c.fail(t.sub("hz"), s, "automatic placement is not implemented yet: give the cutoff or centre in Hz, a number %s", hzRule.allowed())
-		good = false
+		switch {
+		case f.Kind == FilterLowpass:
+			c.fail(t.sub("hz"), s, `"auto" places a notch only: give the lowpass's cutoff in Hz, a number %s`, hzRule.allowed())
+			good = false
+		case f.Kind == "" || !auto.ok:
+			good = false // the kind, the plant or the sensor is reported
+		default:
+			m, ok := auto.place()
+			if !ok {
+				what := "no lightly damped mode"
+				if auto.next > 0 {
+					what = fmt.Sprintf("no lightly damped mode left (%d taken by the notches before)", auto.next)
+				}
+				c.fail(t.sub("hz"), s, "%s of the plant or sensor (a pole pair with damping below %g) below 0.9 × Nyquist (%g Hz) to centre the notch on: give the centre in Hz", what, LightDamping, 0.9*auto.nyq)
+				good = false
+				break
+			}
+			f.Hz, f.AutoHz, hzOK = round3(m.Hz), true, true
+			autoWidth = NotchWidth(m, auto.env, auto.nyq)
+		}
 	} else {
 		f.Hz, hzOK = t.number("hz", hzRule, true, 0)
 		good = good && hzOK
@@ -771,7 +818,7 @@ func (c *checker) filter(t *table, loopHz float64) (Filter, bool) {
 			rule.desc = fmt.Sprintf("> 0 and below hz = %g", f.Hz)
 			rule.ok = func(x float64) bool { return x > 0 && x < f.Hz }
 		}
-		w, ok := t.number("width_hz", rule, notch, 0)
+		w, ok := t.number("width_hz", rule, notch && !f.AutoHz, autoWidth)
 		good = good && ok
 		if ok && notch {
 			f.WidthHz = w

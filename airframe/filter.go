@@ -1,8 +1,12 @@
 package airframe
 
 import (
+	"cmp"
 	"fmt"
 	"math"
+	"math/cmplx"
+	"slices"
+	"strconv"
 
 	"locusmith/internal/lti"
 )
@@ -41,7 +45,93 @@ type Filter struct {
 	// Damping is the second-order lowpass's damping ζ (1/√2: Butterworth);
 	// 0 otherwise.
 	Damping float64
+	// AutoHz says that the file asked for hz = "auto": Hz (and WidthHz,
+	// unless the file gave it) were placed on a lightly damped mode (see
+	// Axis.LightModes and NotchWidth).
+	AutoHz bool
 }
+
+// LightDamping is the damping below which a pole pair of the plant or the
+// sensor is a lightly damped mode worth a notch: below ζ = 0.2 a mode
+// shows as a resonance peak of 8 dB and more (1/(2ζ√(1−ζ²))), which a
+// notch takes out at a small phase cost below its centre, where a lowpass
+// low enough to take it out costs far more (common practice).
+const LightDamping = 0.2
+
+// Mode is a lightly damped pole pair: its natural frequency and damping,
+// and whether it is the plant's (which the envelope's lag_scale moves)
+// or the sensor's.
+type Mode struct {
+	Hz, Damping float64
+	Plant       bool
+}
+
+// LightModes returns the pole pairs of the plant and the sensor with
+// damping below LightDamping and natural frequency below maxHz, the most
+// lightly damped first (the plant's before the sensor's at equal damping,
+// then by frequency).
+func (a Axis) LightModes(maxHz float64) []Mode {
+	var ms []Mode
+	for _, src := range []struct {
+		poles []complex128
+		plant bool
+	}{{a.Plant.Model.Poles, true}, {a.Sensor.Poles, false}} {
+		for _, r := range src.poles {
+			w := cmplx.Abs(r)
+			if imag(r) <= 0 || w == 0 {
+				continue
+			}
+			z := -real(r) / w
+			if f := w / (2 * math.Pi); z >= 0 && z < LightDamping && f < maxHz {
+				ms = append(ms, Mode{Hz: f, Damping: z, Plant: src.plant})
+			}
+		}
+	}
+	slices.SortStableFunc(ms, func(x, y Mode) int {
+		switch {
+		case x.Damping != y.Damping:
+			return cmp.Compare(x.Damping, y.Damping)
+		case x.Plant != y.Plant:
+			if x.Plant {
+				return -1
+			}
+			return 1
+		}
+		return cmp.Compare(x.Hz, y.Hz)
+	})
+	return ms
+}
+
+// NotchWidth is the −3 dB width of a notch placed on mode m: 0.4·f (±20 %
+// around the centre, wide enough for a model's error in the mode's
+// frequency; common practice), or, for a plant mode that the envelope's
+// lag_scale moves (every non-zero plant pole p to p/scale), 1.5 times the
+// band it moves over when that is wider; kept below 0.9·f and so that the
+// band stays below 0.9 × Nyquist. The result is rounded to three digits,
+// as a file would give it.
+func NotchWidth(m Mode, e Envelope, nyq float64) float64 {
+	f := m.Hz
+	w := 0.4 * f
+	if m.Plant {
+		e = e.Normalized()
+		w = math.Max(w, 1.5*(f/e.LagScale[0]-f/e.LagScale[1]))
+	}
+	w = math.Min(w, math.Min(0.9*f, 1.8*(0.9*nyq-f)))
+	return round3(w)
+}
+
+// round3 rounds x to three significant digits (through its decimal form,
+// which strconv computes exactly, the same on every machine).
+func round3(x float64) float64 {
+	v, err := strconv.ParseFloat(strconv.FormatFloat(x, 'g', 3, 64), 64)
+	if err != nil {
+		return x
+	}
+	return v
+}
+
+// Round3 is round3 for the design's suggestions.
+func Round3(x float64) float64 { return round3(x) }
 
 // Section returns the discrete section as the generated code runs it at
 // the sample rate fs: Tustin prewarped at the cutoff or the centre
@@ -96,6 +186,9 @@ func (f Filter) Describe() string {
 	switch f.Kind {
 	case FilterNotch:
 		s := fmt.Sprintf("notch %g Hz, -3 dB width %g Hz", f.Hz, f.WidthHz)
+		if f.AutoHz {
+			s = fmt.Sprintf("notch %g Hz (auto), -3 dB width %g Hz", f.Hz, f.WidthHz)
+		}
 		if f.DepthDB > 0 {
 			s += fmt.Sprintf(", depth %g dB", f.DepthDB)
 		}

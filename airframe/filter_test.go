@@ -83,6 +83,40 @@ func TestFilterContinuous(t *testing.T) {
 	}
 }
 
+// TestFilterAuto checks hz = "auto": each auto notch on the next lightly
+// damped mode (most lightly damped first), the width 0.4·f or 1.5 times
+// the band lag_scale moves the mode over, three digits; a given width is
+// kept. The modes: ζ = 0.048 at 250.3 rad/s (39.84 Hz) and ζ = 0.1 at
+// 100 rad/s, by hand: ζ = −re/|p|, f = |p|/2π.
+func TestFilterAuto(t *testing.T) {
+	src := strings.Replace(withFilters("kind = \"notch\"\nhz = \"auto\"", "kind = \"notch\"\nhz = \"auto\"\nwidth_hz = 3.0"),
+		"effectiveness = 2000.0\nmotor_tau = 0.025\n", "gain = 5e13\npoles = [0.0, -40.0, [-12.0, 250.0], [-10.0, 99.498743710662]]\n", 1)
+	src += "\n[axes.roll.envelope]\nlag_scale = [0.8, 1.0]\n"
+	f, err := Parse("x.toml", []byte(src))
+	if err != nil {
+		t.Fatal(err)
+	}
+	fs := f.Axes[0].Filters
+	f1 := math.Hypot(12, 250) / (2 * math.Pi) // 39.83 Hz
+	// lag_scale 0.8 moves the mode to f/0.8: band f/0.8 − f = 0.25·f,
+	// times 1.5 = 0.375·f < 0.4·f, so 0.4·f.
+	if len(fs) != 2 || !fs[0].AutoHz || fs[0].Hz != Round3(f1) || fs[0].WidthHz != Round3(0.4*f1) {
+		t.Fatalf("first auto notch %+v, want %g Hz, width %g", fs, Round3(f1), Round3(0.4*f1))
+	}
+	if f2 := 100 / (2 * math.Pi); fs[1].Hz != Round3(f2) || fs[1].WidthHz != 3 {
+		t.Errorf("second auto notch %+v, want %g Hz, width 3", fs[1], Round3(f2))
+	}
+	// A wider lag_scale widens the notch: [0.5, 1] moves the mode over
+	// f..2f, 1.5·f, capped at 0.9·f.
+	g, err := Parse("x.toml", []byte(strings.Replace(src, "lag_scale = [0.8, 1.0]", "lag_scale = [0.5, 1.0]", 1)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if w := g.Axes[0].Filters[0].WidthHz; w != Round3(0.9*f1) {
+		t.Errorf("width %g with lag_scale [0.5, 1], want %g", w, Round3(0.9*f1))
+	}
+}
+
 func TestFilterMalformed(t *testing.T) {
 	cases := []struct {
 		name, src, want string
@@ -94,7 +128,9 @@ func TestFilterMalformed(t *testing.T) {
 		{"hz negative", withFilters("kind = \"lowpass\"\nhz = -5.0"), `axes.roll.filter[0].hz = -5.0: must be > 0 and below Nyquist`},
 		{"hz nan", withFilters("kind = \"lowpass\"\nhz = nan"), `axes.roll.filter[0].hz = nan: must be a finite number > 0`},
 		{"hz tiny", withFilters("kind = \"lowpass\"\nhz = 1e-12"), `axes.roll.filter[0].hz = 1e-12: the filter's frequency 2π·hz: magnitude`},
-		{"hz auto", withFilters("kind = \"notch\"\nhz = \"auto\"\nwidth_hz = 10.0"), `axes.roll.filter[0].hz = "auto": automatic placement is not implemented yet: give the cutoff or centre in Hz`},
+		{"hz auto without a mode", withFilters("kind = \"notch\"\nhz = \"auto\"\nwidth_hz = 10.0"), `axes.roll.filter[0].hz = "auto": no lightly damped mode of the plant or sensor (a pole pair with damping below 0.2) below 0.9 × Nyquist (450 Hz) to centre the notch on: give the centre in Hz`},
+		{"hz auto on a lowpass", withFilters("kind = \"lowpass\"\nhz = \"auto\""), `axes.roll.filter[0].hz = "auto": "auto" places a notch only: give the lowpass's cutoff in Hz, a number > 0 and below Nyquist (loop_hz/2 = 500) (Hz)`},
+		{"hz auto twice", strings.Replace(withFilters("kind = \"notch\"\nhz = \"auto\"", "kind = \"notch\"\nhz = \"auto\""), "effectiveness = 2000.0\nmotor_tau = 0.025\n", "gain = 5e9\npoles = [0.0, -40.0, [-12.0, 250.0]]\n", 1), `axes.roll.filter[1].hz = "auto": no lightly damped mode left (1 taken by the notches before)`},
 		{"hz string", withFilters("kind = \"notch\"\nhz = \"fast\"\nwidth_hz = 10.0"), `axes.roll.filter[0].hz = "fast": must be a number > 0 and below Nyquist (loop_hz/2 = 500) (Hz), not a string`},
 		{"width missing", withFilters("kind = \"notch\"\nhz = 100.0"), `axes.roll.filter[0].width_hz: required: a number > 0 and below hz = 100`},
 		{"width zero", withFilters("kind = \"notch\"\nhz = 100.0\nwidth_hz = 0.0"), `axes.roll.filter[0].width_hz = 0.0: must be > 0 and below hz = 100`},

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"math"
 	"math/cmplx"
-	"strconv"
 
 	"locusmith/airframe"
 	"locusmith/synth"
@@ -135,60 +134,39 @@ func designAxisOnly(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (
 	return d, nil
 }
 
-// SuggestDamping is the damping below which a pole pair of the plant is
-// a lightly damped mode worth a notch: below ζ = 0.2 a mode shows as a
-// resonance peak of 8 dB and more (1/(2ζ√(1−ζ²))), which a notch takes out
-// at a small phase cost below its centre, where a lowpass low enough to
-// take it out costs far more (common practice).
-const SuggestDamping = 0.2
-
-// suggestNotch looks for a lightly damped mode of the plant (a pole pair
-// with damping below SuggestDamping) within a decade above the nominal
-// sampled loop's crossover (or the spec's target ωn, when higher: a mode
-// that holds the loop back keeps the crossover low), below Nyquist, that
-// no notch of the chain
-// covers (centre within half its width). For the most lightly damped one
-// it designs the axis again with a notch there: centre at the mode's
-// natural frequency f, width 0.4·f or, when the envelope's lag_scale moves
-// the mode further, 1.5 times the band it moves over (kept below f and
-// below Nyquist), both rounded to three digits as a file would give them.
-// It returns the suggestion with what the notch buys, or "" when there is
-// no such mode, the chain is full, the numeric type has no filters, or the
-// notch buys nothing (neither a met spec nor a larger load-rejection gain).
+// suggestNotch looks for a lightly damped mode of the plant or sensor (a
+// pole pair with damping below airframe.LightDamping, below 0.9 ×
+// Nyquist) within a decade above the nominal sampled loop's crossover (or
+// the spec's target ωn, when higher: a mode that holds the loop back keeps
+// the crossover low) that no notch of the chain covers (centre within half
+// its width). For the most lightly damped one it designs the axis again
+// with a notch there, placed as hz = "auto" would place it (centre at the
+// mode, airframe.NotchWidth; three digits). It returns the suggestion with
+// what the notch buys, or "" when there is no such mode, the chain is
+// full, the numeric type has no filters, or the notch buys nothing
+// (neither a met spec nor a load-rejection gain larger by 5 %).
 func suggestNotch(d *Design) string {
 	p, loop := d.Problem, d.Loop
 	wc := d.Verif.Margins.Crossover
 	if d.Numeric.Type.IsFixed() || len(p.Filters) >= airframe.MaxFilters || !(wc > 0) || math.IsInf(wc, 0) {
 		return ""
 	}
-	// A mode that holds the loop back keeps its crossover low: the decade
-	// starts at the speed the spec asks for when that is higher.
 	if wn := d.Cont.Target.OmegaN; wn > wc && !math.IsInf(wn, 0) {
 		wc = wn
 	}
 	nyq := loop.Hz / 2
-	best, bz := 0.0, math.Inf(1)
-	for _, r := range p.Plant.Model.Poles {
-		w := cmplx.Abs(r)
-		if imag(r) <= 0 || !(w >= wc && w <= 10*wc) {
-			continue
-		}
-		z := -real(r) / w
-		f := w / (2 * math.Pi)
-		if z >= SuggestDamping || z < 0 || f >= 0.9*nyq || coveredByNotch(p.Filters, f) {
-			continue
-		}
-		if z < bz {
-			best, bz = f, z
+	var m airframe.Mode
+	found := false
+	for _, x := range p.LightModes(0.9 * nyq) {
+		if w := 2 * math.Pi * x.Hz; w >= wc && w <= 10*wc && !coveredByNotch(p.Filters, x.Hz) {
+			m, found = x, true
+			break
 		}
 	}
-	if best == 0 {
+	if !found {
 		return ""
 	}
-	e := p.Envelope.Normalized()
-	width := math.Max(0.4*best, 1.5*(best/e.LagScale[0]-best/e.LagScale[1]))
-	width = math.Min(width, math.Min(0.9*best, 1.8*(nyq-best)))
-	hz, wd := round3(best), round3(width)
+	hz, wd := airframe.Round3(m.Hz), airframe.NotchWidth(m, p.Envelope, nyq)
 	q := p
 	q.Filters = append(append([]airframe.Filter(nil), p.Filters...), airframe.Filter{Kind: airframe.FilterNotch, At: airframe.FilterAtFeedback, Hz: hz, WidthHz: wd})
 	if _, err := q.Filters[len(q.Filters)-1].Section(loop.Hz); err != nil {
@@ -200,8 +178,8 @@ func suggestNotch(d *Design) string {
 	}
 	name, g1 := loadGain(d.Cont.Ctrl)
 	_, g2 := loadGain(d2.Cont.Ctrl)
-	head := fmt.Sprintf("the plant's mode at %.3g Hz (damping %.2g) lies within a decade above the crossover or the target (%.3g Hz) and no notch covers it: with [[axes.%s.filter]] kind = \"notch\", hz = %g, width_hz = %g",
-		best, bz, wc/(2*math.Pi), p.Name, hz, wd)
+	head := fmt.Sprintf("the %s's mode at %.3g Hz (damping %.2g) lies within a decade above the crossover or the target (%.3g Hz) and no notch covers it: with [[axes.%s.filter]] kind = \"notch\", hz = %g, width_hz = %g (what hz = \"auto\" gives)",
+		map[bool]string{true: "plant", false: "sensor"}[m.Plant], m.Hz, m.Damping, wc/(2*math.Pi), p.Name, hz, wd)
 	switch {
 	case d2.OK() && !d.OK():
 		return fmt.Sprintf("%s the design meets every check (without it, it does not), %s %.4g against %.4g now", head, name, g2, g1)
@@ -232,16 +210,6 @@ func loadGain(c synth.Controller) (string, float64) {
 		return "K", c.K
 	}
 	return "Kp", c.Kp
-}
-
-// round3 rounds x to three significant digits (through its decimal form,
-// which strconv computes exactly, the same on every machine).
-func round3(x float64) float64 {
-	v, err := strconv.ParseFloat(strconv.FormatFloat(x, 'g', 3, 64), 64)
-	if err != nil {
-		return x
-	}
-	return v
 }
 
 // richerReach says what a pid would reach where the form of p meets no

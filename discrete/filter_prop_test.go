@@ -100,7 +100,7 @@ func TestNotchBuysGain(t *testing.T) {
 	// Without the notch the design suggests it, with the figures of the
 	// design that has it (the mode: 40 Hz, ζ = 0.05; width 0.4·40 Hz);
 	// with it, nothing is suggested.
-	want := fmt.Sprintf(`kind = "notch", hz = 40, width_hz = 16 the design meets every check (without it, it does not), Ki %.4g against %.4g now`, ki1, ki0)
+	want := fmt.Sprintf(`kind = "notch", hz = 40, width_hz = 16 (what hz = "auto" gives) the design meets every check (without it, it does not), Ki %.4g against %.4g now`, ki1, ki0)
 	if !slices.ContainsFunc(d0.Warnings, func(w string) bool { return strings.Contains(w, want) }) {
 		t.Errorf("no suggestion %q among %q", want, d0.Warnings)
 	}

@@ -43,7 +43,7 @@ func TestFilterGolden(t *testing.T) {
 		t.Run(v.dir(), func(t *testing.T) {
 			srcs := generate(t, compliantPath, v)
 			main := string(sourceNamed(srcs, mainFileOf(srcs, v)).Data)
-			for _, want := range []string{"f1s1", "f1s2", "f2s1", "f2s2", "notch 40 Hz, -3 dB width 16 Hz", "lowpass 200 Hz, order 2", "at the crossover"} {
+			for _, want := range []string{"f1s1", "f1s2", "f2s1", "f2s2", "notch 40 Hz (auto), -3 dB width 16 Hz", "lowpass 200 Hz, order 2", "at the crossover"} {
 				if !strings.Contains(main, want) {
 					t.Errorf("%s: %q missing", v.dir(), want)
 				}
