@@ -244,6 +244,14 @@ func TestFilterLoopAgainstSciPy(t *testing.T) {
 		if tf := pl.evalMeasured(z); cmplx.Abs(tf-got) > 1e-7*cmplx.Abs(pl.evalUnfiltered(z)) {
 			t.Errorf("measured path at θ=%g: transfer function %v, state space %v", th, tf, got)
 		}
+		// The polynomials of the stability tests (the path before the
+		// chain times the sections' factors) exist and agree too.
+		if pl.den == nil {
+			t.Fatalf("no transfer function of the path with the chain")
+		}
+		if tf := pl.num.Eval(z) / pl.den.Eval(z); cmplx.Abs(tf-got) > 1e-7*cmplx.Abs(pl.evalUnfiltered(z)) {
+			t.Errorf("measured path at θ=%g: polynomials %v, state space %v", th, tf, got)
+		}
 	}
 	// The step: 1e-9 of the unit step (two realizations of the same loop,
 	// rounding only).

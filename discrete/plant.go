@@ -100,8 +100,41 @@ func NewPlant(p airframe.Axis, T float64) (Plant, error) {
 		pl = pl.withSection(q)
 		pl.Sections = append(pl.Sections, q)
 	}
-	pl.num, pl.den = pl.transferFunction()
+	pl.num, pl.den = pl.chainTF()
 	return pl, nil
+}
+
+// chainTF returns the feedback path with the filter chain as num/den in
+// z: the path before the chain times each section's polynomials, (B0·z² +
+// B1·z + B2)/(z² + A1·z + A2) or (B0·z + B1)/(z + A1). The expanded
+// transfer function of the whole state space loses the accuracy check of
+// transferFunction where a notch puts zeros on the unit circle; the
+// product of the factors keeps it. nil when the path before the chain has
+// none, or when the product disagrees with the resolvent as in
+// transferFunction.
+func (p Plant) chainTF() (lti.Poly, lti.Poly) {
+	if p.uden == nil {
+		return nil, nil
+	}
+	num, den := p.unum, p.uden
+	for _, q := range p.Sections {
+		n, d := lti.Poly{q.B2, q.B1, q.B0}, lti.Poly{q.A2, q.A1, 1}
+		if q.B2 == 0 && q.A2 == 0 {
+			n, d = lti.Poly{q.B1, q.B0}, lti.Poly{q.A1, 1}
+		}
+		num, den = lti.PolyMul(num, n), lti.PolyMul(den, d)
+	}
+	m := p.measured()
+	for _, th := range []float64{1e-3, 0.01, 0.1, 0.5, 1, 2, 3} {
+		z := complexExp(th)
+		want := m.Eval(z)
+		// Relative to the path before the chain: at a notch's centre
+		// the whole path is ~0.
+		if got := num.Eval(z) / den.Eval(z); !(cmplx.Abs(got-want) <= 1e-7*cmplx.Abs(p.evalUnfiltered(z))) {
+			return nil, nil
+		}
+	}
+	return num, den
 }
 
 // SectionSS returns the state-space form of the section q as the
@@ -175,7 +208,7 @@ func (p Plant) WithSections(qs []lti.Biquad) Plant {
 		r = r.withSection(q)
 		r.Sections = append(r.Sections, q)
 	}
-	r.num, r.den = r.transferFunction()
+	r.num, r.den = r.chainTF()
 	return r
 }
 
@@ -240,6 +273,11 @@ func (p Plant) Measured() lti.Disc { return p.measured() }
 // evalMeasured returns the frequency response at z of the feedback path
 // without its whole-sample delay (the caller applies z^(−Delay)).
 func (p Plant) evalMeasured(z complex128) complex128 {
+	if len(p.Sections) > 0 {
+		// The path before the chain times the sections: exact where the
+		// expanded polynomials would lose digits.
+		return p.evalUnfiltered(z) * p.Filter(z)
+	}
 	if p.den != nil {
 		return p.num.Eval(z) / p.den.Eval(z)
 	}
