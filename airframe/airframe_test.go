@@ -402,6 +402,7 @@ func FuzzParse(f *testing.F) {
 	f.Add([]byte(withSensor("gain = 1.0\npoles = [[-1, 2]]")))
 	f.Add([]byte(withEnvelope("gain_scale = [0.8, 1.25]\nlag_scale = [0.7, 1.5]\ndelay_add = [0, 0.003]")))
 	f.Add([]byte(withNumeric("input_full_scale = 10.0") + "\n[axes.roll.control]\noutput_limit = [-0.4, 0.6]\n"))
+	f.Add([]byte(withFilters("kind = \"notch\"\nhz = 118.0\nwidth_hz = 30.0\ndepth_db = 20.0", "kind = \"lowpass\"\nhz = 180.0\norder = 2\ndamping = 0.6")))
 	for _, name := range []string{"valid_quad.toml", "valid_gimbal.toml"} {
 		data, err := os.ReadFile(filepath.Join("testdata", name))
 		if err != nil {

@@ -16,7 +16,10 @@ func topKeys() []string {
 }
 func numericKeys() []string { return []string{"type", "input_full_scale", "output_full_scale"} }
 func axisKeys() []string {
-	return []string{"plant", "sensor", "spec", "control", "envelope"}
+	return []string{"plant", "sensor", "spec", "control", "envelope", "filter"}
+}
+func filterKeys() []string {
+	return []string{"kind", "at", "hz", "width_hz", "depth_db", "order", "damping"}
 }
 func zpkKeys() []string  { return []string{"gain", "poles", "zeros"} }
 func physKeys() []string { return []string{"effectiveness", "motor_tau"} }
@@ -175,6 +178,17 @@ func (c *checker) axis(name, key string, m map[string]any, lp loopInfo) Axis {
 	}
 	if !specOK {
 		ok.settling, ok.recovery, ok.steady = false, false, false
+	}
+	if _, given := t.m["filter"]; given {
+		// A notch with hz = "auto" is placed on the modes of the plant
+		// and sensor (only when both decoded: otherwise the problem is
+		// theirs).
+		var modes []Mode
+		modesOK := ok.model && ok.sensor && lp.hzOK
+		if modesOK {
+			modes = p.LightModes(0.9 * lp.hz / 2)
+		}
+		p.Filters = c.filters(t, lp, autoPlacer{modes: modes, ok: modesOK, env: p.Envelope, nyq: lp.hz / 2})
 	}
 	c.axisLimits(key, p, ok, t, lp)
 	return p
@@ -656,4 +670,189 @@ func (c *checker) outputLimit(key string, v any) ([2]float64, bool) {
 		return [2]float64{}, false
 	}
 	return [2]float64{lo, hi}, true
+}
+
+// filters checks the [[axes.NAME.filter]] list of the axis table t: an
+// array of tables, at most MaxFilters, each with a kind and the keys of
+// its kind. lp.hz (0 when loop_hz is invalid) bounds the frequencies by
+// Nyquist. Invalid filters are left out of the result, which is then
+// meaningful only when no problem was recorded.
+func (c *checker) filters(t *table, lp loopInfo, auto autoPlacer) []Filter {
+	key := t.sub("filter")
+	v := t.m["filter"]
+	var arr []any
+	switch x := v.(type) {
+	case []any:
+		arr = x
+	case []map[string]any:
+		for _, m := range x {
+			arr = append(arr, m)
+		}
+	default:
+		c.fail(key, valueOrNil(v), "must be an array of tables [[%s]] (kind, at, hz, ...), not %s", key, kind(v))
+		return nil
+	}
+	if len(arr) > MaxFilters {
+		c.fail(key, nil, "%s: at most %d per axis (each adds states to every check of the loop and a section to the generated step)", count(len(arr), "filter"), MaxFilters)
+		return nil
+	}
+	if lp.numOK && lp.numeric.Type.IsFixed() && len(arr) > 0 {
+		c.fail(key, nil, "filters are implemented for numeric.type = \"float32\" and \"float64\" only (numeric.type is %q): the fixed-point code has no proved bounds for them yet; use a float type, or model the filter in [%s] and leave it to the firmware", lp.numeric.Type, t.sub("sensor"))
+		return nil
+	}
+	var out []Filter
+	for i, e := range arr {
+		k := fmt.Sprintf("%s[%d]", key, i)
+		m, ok := e.(map[string]any)
+		if !ok {
+			c.fail(k, valueOrNil(e), "must be a table (kind, at, hz, ...), not %s", kind(e))
+			continue
+		}
+		if f, ok := c.filter(c.newTable(k, m, filterKeys()...), lp.hz, &auto); ok {
+			out = append(out, f)
+		}
+	}
+	return out
+}
+
+// autoPlacer places the notches with hz = "auto" of one axis, in file
+// order, each on the next of the lightly damped modes (most lightly damped
+// first; ok is false when the plant or sensor did not decode).
+type autoPlacer struct {
+	modes []Mode
+	next  int
+	ok    bool
+	env   Envelope
+	nyq   float64
+}
+
+// place returns the next mode, or false.
+func (a *autoPlacer) place() (Mode, bool) {
+	if !a.ok || a.next >= len(a.modes) {
+		return Mode{}, false
+	}
+	a.next++
+	return a.modes[a.next-1], true
+}
+
+// filter checks one filter table; loopHz is 0 when loop_hz is invalid.
+// The bool reports whether the filter is valid.
+func (c *checker) filter(t *table, loopHz float64, auto *autoPlacer) (Filter, bool) {
+	f := Filter{At: defaultFilterAt}
+	good := true
+	if !t.has("kind") {
+		c.fail(t.sub("kind"), nil, `required: "lowpass" or "notch"`)
+		good = false
+	} else if k, ok := t.enum("kind", "", string(FilterLowpass), string(FilterNotch)); ok {
+		f.Kind = FilterKind(k)
+	} else {
+		good = false
+	}
+	if t.has("at") {
+		at, ok := t.enum("at", defaultFilterAt, FilterAtFeedback, "derivative")
+		switch {
+		case !ok:
+			good = false
+		case at == "derivative":
+			c.fail(t.sub("at"), at, `a filter on the derivative path alone is not implemented yet: the derivative's first-order lowpass is control.derivative_lowpass_hz; "feedback" (the measured rate, before the controller) is allowed`)
+			good = false
+		}
+	}
+
+	nyq := loopHz / 2
+	hzRule := numRule{desc: "> 0", unit: "Hz", ok: isPositive}
+	if loopHz > 0 {
+		hzRule = numRule{desc: fmt.Sprintf("> 0 and below Nyquist (loop_hz/2 = %g)", nyq), unit: "Hz",
+			ok: func(x float64) bool { return x > 0 && x < nyq }}
+	}
+	hzOK := false
+	autoWidth := 0.0
+	if s, isStr := t.m["hz"].(string); isStr && s == "auto" {
+		switch {
+		case f.Kind == FilterLowpass:
+			c.fail(t.sub("hz"), s, `"auto" places a notch only: give the lowpass's cutoff in Hz, a number %s`, hzRule.allowed())
+			good = false
+		case f.Kind == "" || !auto.ok:
+			good = false // the kind, the plant or the sensor is reported
+		default:
+			m, ok := auto.place()
+			if !ok {
+				what := "no lightly damped mode"
+				if auto.next > 0 {
+					what = fmt.Sprintf("no lightly damped mode left (%d taken by the notches before)", auto.next)
+				}
+				c.fail(t.sub("hz"), s, "%s of the plant or sensor (a pole pair with damping below %g) below 0.9 × Nyquist (%g Hz) to centre the notch on: give the centre in Hz", what, LightDamping, 0.9*auto.nyq)
+				good = false
+				break
+			}
+			f.Hz, f.AutoHz, hzOK = round3(m.Hz), true, true
+			autoWidth = NotchWidth(m, auto.env, auto.nyq)
+		}
+	} else {
+		f.Hz, hzOK = t.number("hz", hzRule, true, 0)
+		good = good && hzOK
+	}
+	if hzOK {
+		// The section's poles sit near ±2π·hz; keep them within the
+		// roots the design's arithmetic holds.
+		if msg := rootProblem(complex(-2*math.Pi*f.Hz, 0)); msg != "" {
+			c.fail(t.sub("hz"), t.m["hz"], "the filter's frequency 2π·hz: %s", msg)
+			good, hzOK = false, false
+		}
+	}
+
+	// only reports key k when the kind is known and k does not apply to it.
+	only := func(key string, applies bool, which string) bool {
+		if f.Kind != "" && !applies && t.has(key) {
+			c.fail(t.sub(key), valueOrNil(t.m[key]), "only for %s (kind is %q)", which, f.Kind)
+			good = false
+			return false
+		}
+		return true
+	}
+	notch := f.Kind == FilterNotch
+	lowpass := f.Kind == FilterLowpass
+	if only("width_hz", notch, `kind = "notch"`) {
+		rule := numRule{desc: "> 0 and below hz", unit: "Hz, the −3 dB width of the discrete notch at loop_hz", ok: isPositive}
+		if hzOK {
+			rule.desc = fmt.Sprintf("> 0 and below hz = %g", f.Hz)
+			rule.ok = func(x float64) bool { return x > 0 && x < f.Hz }
+		}
+		w, ok := t.number("width_hz", rule, notch && !f.AutoHz, autoWidth)
+		good = good && ok
+		if ok && notch {
+			f.WidthHz = w
+			if hzOK && loopHz > 0 && f.Hz+w/2 >= nyq {
+				c.fail(t.sub("width_hz"), t.m["width_hz"], "the band hz ± width_hz/2 = [%g, %g] Hz must lie below Nyquist (loop_hz/2 = %g Hz): narrow the notch or lower its centre", f.Hz-w/2, f.Hz+w/2, nyq)
+				good = false
+			}
+		}
+	}
+	if only("depth_db", notch, `kind = "notch"`) && notch {
+		d, ok := t.number("depth_db", numRule{desc: fmt.Sprintf("in (0, %g]", maxNotchDepth), unit: "dB, the attenuation at the centre; omit the key for a full notch",
+			ok: func(x float64) bool { return x > 0 && x <= maxNotchDepth }}, false, 0)
+		good = good && ok
+		f.DepthDB = d
+	}
+	orderOK := true
+	if only("order", lowpass, `kind = "lowpass"`) && lowpass {
+		o, ok := t.integer("order", 1, 2, "the lowpass's order", defaultFilterOrder)
+		good, orderOK = good && ok, ok
+		f.Order = int(o)
+	}
+	if orderOK && only("damping", lowpass && f.Order == 2, `kind = "lowpass" with order = 2`) && lowpass && f.Order == 2 {
+		d, ok := t.number("damping", numRule{desc: fmt.Sprintf("in [%g, %g]", minFilterDamping, maxFilterDamping), unit: "ζ; 0.7071 is the Butterworth section",
+			ok: func(x float64) bool { return x >= minFilterDamping && x <= maxFilterDamping }}, false, defaultFilterDamping)
+		good = good && ok
+		f.Damping = d
+	}
+	if good && loopHz > 0 {
+		// The rules above make every section realizable; a section that
+		// is not is a gap in them, reported rather than passed on.
+		if _, err := f.Section(loopHz); err != nil {
+			c.fail(t.key, nil, "cannot be realized at loop_hz %g: %v", loopHz, err)
+			good = false
+		}
+	}
+	return f, good
 }

@@ -234,8 +234,9 @@ const (
 
 	// maxKeysPerAxis is the number of keys the schema allows in one
 	// [axes.NAME] table and its tables (plant 6, sensor 4, spec 11,
-	// control 12, envelope 3, and the 5 tables themselves), rounded up.
-	maxKeysPerAxis = 48
+	// control 12, envelope 3, and the 5 tables themselves: 41; MaxFilters
+	// filter tables of 7 keys and a header each: 32), rounded up.
+	maxKeysPerAxis = 80
 
 	// MaxKeys bounds the keys and table headers of a file, counted
 	// before the TOML decoder runs: the decoder compares each key with
@@ -275,6 +276,11 @@ const (
 	// order.
 	MaxPlantPoles  = 12
 	MaxSensorPoles = 6
+
+	// MaxFilters bounds the [[axes.NAME.filter]] list of an axis: a rate
+	// loop's chain is a lowpass and a notch or two (common practice);
+	// four sections add at most 8 states to every closed-loop evaluation.
+	MaxFilters = 4
 )
 
 // Sanity limits. Values beyond these are almost certainly typing errors (a
@@ -329,4 +335,33 @@ const (
 	// Whether a combined name such as <airframe>_<axis>_state fits is the
 	// emitter's check, since only it knows the suffixes.
 	maxIdentLen = 32
+
+	// minFilterDamping and maxFilterDamping bound a second-order
+	// lowpass's damping: below 0.1 the section is a resonator with a
+	// peak of 14 dB and more, not a filter; above 2 it is two real poles
+	// a decade apart, better written as two first-order sections.
+	minFilterDamping = 0.1
+	maxFilterDamping = 2.0
+
+	// maxNotchDepth bounds a partial notch's depth_db: 120 dB is a
+	// millionth, below float32's resolution of the measured rate; a
+	// deeper notch is the full notch (omit depth_db).
+	maxNotchDepth = 120.0
+)
+
+// Defaults of the keys of a [[axes.NAME.filter]] table.
+const (
+	// defaultFilterAt is filter.at: on the measured rate, the feedback
+	// path (the usual place of a gyro filter chain; common practice).
+	defaultFilterAt = FilterAtFeedback
+
+	// defaultFilterOrder is a lowpass's order: 2, the usual gyro lowpass
+	// (common practice), which rolls off at 40 dB per decade for
+	// about twice the phase of a first-order section at its cutoff.
+	defaultFilterOrder = 2
+
+	// defaultFilterDamping is a second-order lowpass's damping: 1/√2,
+	// the Butterworth section, maximally flat, −3 dB at its cutoff
+	// (Oppenheim & Schafer; from memory).
+	defaultFilterDamping = 0.7071067811865476
 )

@@ -68,7 +68,7 @@ func malformedCases(tb testing.TB) []malformedCase {
 		{name: "unknown spec key", src: edit(tb, "overshoot = 0.1", "overshoot = 0.1\novershot = 0.2"),
 			want: []string{`axes.roll.spec.overshot = 0.2: unknown key; allowed in [axes.roll.spec]: settling_time, settling_band, overshoot, min_phase_margin, min_gain_margin, max_sensitivity, max_steady_error, hold_rate, disturbance_step, disturbance_recovery, max_noise_gain` + "\n"}, count: 1},
 		{name: "unknown table", src: minimal + "\n[axes.roll.gyro]\nlowpass_hz = 90.0\n",
-			want: []string{`axes.roll.gyro: unknown key; allowed in [axes.roll]: plant, sensor, spec, control, envelope` + "\n"}, count: 1},
+			want: []string{`axes.roll.gyro: unknown key; allowed in [axes.roll]: plant, sensor, spec, control, envelope, filter` + "\n"}, count: 1},
 		{name: "unknown envelope key", src: withEnvelope("gain = [0.9, 1.1]"),
 			want: []string{`axes.roll.envelope.gain = [0.9, 1.1]: unknown key; allowed in [axes.roll.envelope]: gain_scale, lag_scale, delay_add` + "\n"}, count: 1},
 		{name: "unknown control key", src: withControl("kp = 0.1"),

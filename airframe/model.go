@@ -179,6 +179,9 @@ type Axis struct {
 	Spec     Spec
 	Ctrl     Control
 	Envelope Envelope
+	// Filters is the feedback filter chain, in the order the measured
+	// rate runs through it ([[axes.NAME.filter]]); nil without one.
+	Filters []Filter
 }
 
 // At returns the axis with its plant moved to corner c of the envelope:

@@ -61,7 +61,24 @@ const (
 // the search of the gains on the sampled loop over the envelope, the
 // discretization, and the verification of every check at the nominal
 // plant, at every corner of the envelope and at a finer look in between.
+//
+// When the plant has a lightly damped mode within a decade above the
+// crossover that no notch of the chain covers, the design is repeated
+// with a notch on it, and a warning suggests the notch with what it buys
+// (suggestNotch).
 func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Design, error) {
+	d, err := designAxisOnly(p, loop, num)
+	if err != nil {
+		return nil, err
+	}
+	if msg := suggestNotch(d); msg != "" {
+		d.Warnings = append(d.Warnings, msg)
+	}
+	return d, nil
+}
+
+// designAxisOnly is DesignAxis without the notch suggestion.
+func designAxisOnly(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Design, error) {
 	if !(loop.Hz > 0) || math.IsInf(loop.Hz, 0) {
 		return nil, fmt.Errorf("axis %s: loop rate %g Hz: must be finite and > 0", p.Name, loop.Hz)
 	}
@@ -69,7 +86,10 @@ func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Des
 	if err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
-	cd, err := synth.DesignAxis(p, L)
+	// The continuous design sees the filters' continuous counterparts in
+	// series with the sensor; the sampled loop (L) runs the sections.
+	cp := p.Continuous()
+	cd, err := synth.DesignAxis(cp, L)
 	if err != nil {
 		return nil, err
 	}
@@ -91,7 +111,7 @@ func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Des
 	if cd.Met && cd.Refined {
 		for i := 0; i < 8 && !d.frequencyOK(); i++ {
 			cd.Ctrl = shrink(cd.Ctrl, 0.98).Snap()
-			if cd.Stage, err = synth.Restage(p, cd.Stage, cd.Ctrl); err != nil {
+			if cd.Stage, err = synth.Restage(cp, cd.Stage, cd.Ctrl); err != nil {
 				return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 			}
 			if err := d.realize(); err != nil {
@@ -115,6 +135,84 @@ func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Des
 	d.Checks = append(d.Checks, d.Num.Checks...)
 	d.Warnings = append(d.Warnings, d.Num.Warnings...)
 	return d, nil
+}
+
+// suggestNotch looks for a lightly damped mode of the plant or sensor (a
+// pole pair with damping below airframe.LightDamping, below 0.9 ×
+// Nyquist) within a decade above the nominal sampled loop's crossover (or
+// the spec's target ωn, when higher: a mode that holds the loop back keeps
+// the crossover low) that no notch of the chain covers (centre within half
+// its width). For the most lightly damped one it designs the axis again
+// with a notch there, placed as hz = "auto" would place it (centre at the
+// mode, airframe.NotchWidth; three digits). It returns the suggestion with
+// what the notch buys, or "" when there is no such mode, the chain is
+// full, the numeric type has no filters, or the notch buys nothing
+// (neither a met spec nor a load-rejection gain larger by 5 %).
+func suggestNotch(d *Design) string {
+	p, loop := d.Problem, d.Loop
+	wc := d.Verif.Margins.Crossover
+	if d.Numeric.Type.IsFixed() || len(p.Filters) >= airframe.MaxFilters || !(wc > 0) || math.IsInf(wc, 0) {
+		return ""
+	}
+	if wn := d.Cont.Target.OmegaN; wn > wc && !math.IsInf(wn, 0) {
+		wc = wn
+	}
+	nyq := loop.Hz / 2
+	var m airframe.Mode
+	found := false
+	for _, x := range p.LightModes(0.9 * nyq) {
+		if w := 2 * math.Pi * x.Hz; w >= wc && w <= 10*wc && !coveredByNotch(p.Filters, x.Hz) {
+			m, found = x, true
+			break
+		}
+	}
+	if !found {
+		return ""
+	}
+	hz, wd := airframe.Round3(m.Hz), airframe.NotchWidth(m, p.Envelope, nyq)
+	q := p
+	q.Filters = append(append([]airframe.Filter(nil), p.Filters...), airframe.Filter{Kind: airframe.FilterNotch, At: airframe.FilterAtFeedback, Hz: hz, WidthHz: wd})
+	if _, err := q.Filters[len(q.Filters)-1].Section(loop.Hz); err != nil {
+		return ""
+	}
+	d2, err := designAxisOnly(q, loop, d.Numeric)
+	if err != nil {
+		return ""
+	}
+	name, g1 := loadGain(d.Cont.Ctrl)
+	_, g2 := loadGain(d2.Cont.Ctrl)
+	head := fmt.Sprintf("the %s's mode at %.3g Hz (damping %.2g) lies within a decade above the crossover or the target (%.3g Hz) and no notch covers it: with [[axes.%s.filter]] kind = \"notch\", hz = %g, width_hz = %g (what hz = \"auto\" gives)",
+		map[bool]string{true: "plant", false: "sensor"}[m.Plant], m.Hz, m.Damping, wc/(2*math.Pi), p.Name, hz, wd)
+	switch {
+	case d2.OK() && !d.OK():
+		return fmt.Sprintf("%s the design meets every check (without it, it does not), %s %.4g against %.4g now", head, name, g2, g1)
+	case d2.OK() && g2 > 1.05*g1:
+		return fmt.Sprintf("%s the design meets every check with %s %.4g against %.4g now (×%.3g)", head, name, g2, g1, g2/g1)
+	}
+	return ""
+}
+
+// coveredByNotch reports whether a notch of fs has f within half its
+// width of its centre.
+func coveredByNotch(fs []airframe.Filter, f float64) bool {
+	for _, x := range fs {
+		if x.Kind == airframe.FilterNotch && math.Abs(f-x.Hz) <= x.WidthHz/2 {
+			return true
+		}
+	}
+	return false
+}
+
+// loadGain is the gain the design's objective grows with: Ki (pi, pid),
+// K (lead), Kp (p, pd).
+func loadGain(c synth.Controller) (string, float64) {
+	switch {
+	case c.Form.HasIntegral():
+		return "Ki", c.Ki
+	case c.Form == airframe.FormLead:
+		return "K", c.K
+	}
+	return "Kp", c.Kp
 }
 
 // richerReach says what a pid would reach where the form of p meets no
@@ -141,7 +239,7 @@ func richerReach(p airframe.Axis, loop airframe.Loop) string {
 		return ""
 	}
 	g0 := 1 / cmplx.Abs(q.OpenLoop(complex(0, t.OmegaN)))
-	res, err := synth.Search(q, L, g0, t.OmegaN)
+	res, err := synth.Search(q.Continuous(), L, g0, t.OmegaN)
 	switch {
 	case err != nil:
 		return ""
@@ -207,7 +305,7 @@ func (d *Design) realize() error {
 	if math.IsInf(lo, 1) {
 		lo = 0
 	}
-	d.NoiseGain = NoiseGain(k, d.loops.Grid(), lo)
+	d.NoiseGain = NoiseGain(k, d.Plant.Sections, d.loops.Grid(), lo)
 	return nil
 }
 
@@ -322,9 +420,9 @@ func Assess(p airframe.Axis, loop airframe.Loop, c synth.Controller, nb float64)
 	if err != nil {
 		return nil, err
 	}
-	cd := &synth.Design{Problem: p, Refined: true, Met: true}
+	cd := &synth.Design{Problem: p.Continuous(), Refined: true, Met: true}
 	cd.Ctrl = c
-	cd.Verif.Margins.Crossover = synth.Crossover(p, c)
+	cd.Verif.Margins.Crossover = synth.Crossover(p.Continuous(), c)
 	cd.Search.NoiseBound = nb
 	d := &Design{Problem: p, Loop: loop, Numeric: airframe.Numeric{Type: airframe.Float64}, Cont: cd, Plant: L.Plant(0), loops: L}
 	if err := d.realize(); err != nil {

@@ -900,12 +900,12 @@ func setpointLanes(t *testing.T, form airframe.Form, g, T float64) (c0, c1 linea
 
 // The paired simulation is the two single ones, sample for sample and bit
 // for bit, however the record is cut into calls: every unrolled kernel
-// (plants of 1 to 6 states, controllers of 0 to 3) and the loops beyond
-// (7 states), each form, compute delays 0 to 2, and dense plant matrices so
+// (plants of 1 to 8 states, controllers of 0 to 3) and the loops beyond
+// (9 states), each form, compute delays 0 to 2, and dense plant matrices so
 // that every entry shows.
 func TestPairStepperMatchesStepper(t *testing.T) {
 	kernels := 0
-	for np := 1; np <= 7; np++ {
+	for np := 1; np <= 9; np++ {
 		pl := Plant{N: np, A: make([]float64, np*np), B: make([]float64, np), Cm: make([]float64, np), Cy: make([]float64, np), T: 0.001, Delay: np % 3}
 		for i := range np {
 			for j := range np {
@@ -944,7 +944,7 @@ func TestPairStepperMatchesStepper(t *testing.T) {
 			}
 		}
 	}
-	if want := 6 * len(airframe.Forms()) * 3; kernels != want {
+	if want := 8 * len(airframe.Forms()) * 3; kernels != want {
 		t.Errorf("%d runs through a kernel, want %d", kernels, want)
 	}
 }

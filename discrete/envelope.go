@@ -176,8 +176,10 @@ func sensitivityPeaks(pl Plant, k Coeffs, d int, grid []float64) (ms, mt float64
 
 // NoiseGain is the controller's largest gain from the measured rate to
 // the command between the frequency lo (the loop's lowest crossover) and
-// Nyquist, |C(e^(jωT))|, found on the grid and refined.
-func NoiseGain(k Coeffs, grid []float64, lo float64) float64 {
+// Nyquist, |C(e^(jωT))·F(e^(jωT))| with F the filter chain sections (1
+// without one: the sensor's output reaches the controller through the
+// chain), found on the grid and refined.
+func NoiseGain(k Coeffs, sections []lti.Biquad, grid []float64, lo float64) float64 {
 	// The band starts at the crossover itself: a PI's gain falls with
 	// frequency, so its largest value there lies between grid points.
 	var g []float64
@@ -192,7 +194,14 @@ func NoiseGain(k Coeffs, grid []float64, lo float64) float64 {
 	if len(g) == 0 {
 		g = grid
 	}
-	v, _ := peakOn(g, func(w float64) float64 { return cmplx.Abs(feedback(k, complexExp(w*k.T))) })
+	v, _ := peakOn(g, func(w float64) float64 {
+		z := complexExp(w * k.T)
+		c := feedback(k, z)
+		for _, q := range sections {
+			c *= q.Eval(z)
+		}
+		return cmplx.Abs(c)
+	})
 	return v
 }
 

@@ -269,7 +269,7 @@ func (s *stepper) run(y, u []float64) {
 // in the controller's direct setpoint gain (Dr: the setpoint weight's
 // share of Kp) in one pass, which halves the loop overhead that dominates
 // these small state spaces; each lane computes exactly what stepper does.
-// Plants of up to 6 states with controllers of up to 3 run in unrolled
+// Plants of up to 8 states with controllers of up to 3 run in unrolled
 // kernels with the state in scalars (pairkernels_gen.go, about twice as
 // fast), larger ones in the loops of run.
 type pairStepper struct {

@@ -16,7 +16,8 @@ import (
 // compute delay.
 type Loops struct {
 	p       airframe.Axis
-	d       int // compute delay, samples
+	pc      airframe.Axis // p as the continuous design sees it (airframe.Axis.Continuous)
+	d       int           // compute delay, samples
 	T       float64
 	corners []airframe.Corner
 	primary int // the nominal plant and the box's corners lead corners
@@ -24,6 +25,11 @@ type Loops struct {
 	grid    []float64
 	z       []complex128 // e^(jωT) on the grid
 	open    [][]complex128
+	// filt is the filter chain's response on the grid (nil without
+	// one): the frequency checks take it as part of the controller's
+	// feedback path, so that Open is the plant before it and the noise
+	// gain |C·F| runs from the sensor's output to the command.
+	filt []complex128
 	// prewarp is the frequency at which a tustin_prewarp controller is
 	// discretized during the search (the textbook target's ωn); the
 	// chosen design is realized at its own crossover and verified again.
@@ -51,7 +57,7 @@ const maxSchurDegree = 64
 // loop rate, and evaluates each on the grid of the frequency checks.
 func NewLoops(p airframe.Axis, loop airframe.Loop) (*Loops, error) {
 	T := 1 / loop.Hz
-	l := &Loops{p: p, d: loop.ComputeDelay, T: T, corners: fineCorners(p.Envelope), primary: len(p.Envelope.Corners())}
+	l := &Loops{p: p, pc: p.Continuous(), d: loop.ComputeDelay, T: T, corners: fineCorners(p.Envelope), primary: len(p.Envelope.Corners())}
 	if t, err := synth.TargetFromSpec(p.Spec); err == nil {
 		l.prewarp = t.OmegaN
 	}
@@ -69,6 +75,12 @@ func NewLoops(p airframe.Axis, loop airframe.Loop) (*Loops, error) {
 		flo, _ := spanOf(a)
 		lo = math.Min(lo, flo)
 		roots = append(append(append(roots, a.Plant.Model.Poles...), a.Plant.Model.Zeros...), a.Sensor.Poles...)
+		if c == airframe.Nominal() && len(a.Filters) > 0 {
+			// The grid resolves the filters' notches and peaks too.
+			if h, err := a.FeedbackZPK(); err == nil {
+				roots = append(append(roots, h.Poles...), h.Zeros...)
+			}
+		}
 		maxDelay = max(maxDelay, pl.Delay)
 	}
 	// The delay z^(−D) turns the phase like a transport delay of D·T.
@@ -81,9 +93,15 @@ func NewLoops(p airframe.Axis, loop airframe.Loop) (*Loops, error) {
 		o := make([]complex128, len(l.grid))
 		D := float64(l.d + pl.Delay)
 		for k, w := range l.grid {
-			o[k] = pl.evalMeasured(l.z[k]) * complexExp(-D*w*T)
+			o[k] = pl.evalUnfiltered(l.z[k]) * complexExp(-D*w*T)
 		}
 		l.open = append(l.open, o)
+	}
+	if pl := l.plants[0]; len(pl.Sections) > 0 {
+		l.filt = make([]complex128, len(l.grid))
+		for k, z := range l.z {
+			l.filt[k] = pl.Filter(z)
+		}
 	}
 	return l, nil
 }
@@ -105,8 +123,8 @@ func (l *Loops) Primary() int { return l.primary }
 // below Nyquist.
 func (l *Loops) Grid() []float64 { return l.grid }
 
-// Open returns the sampled loop without the controller at corner i,
-// Pm(e^(jωT))·e^(−jωT·(d + Delay)), on the grid.
+// Open returns the sampled loop without the controller and its filter
+// chain at corner i, Pm(e^(jωT))·e^(−jωT·(d + Delay)), on the grid.
 func (l *Loops) Open(i int) []complex128 { return l.open[i] }
 
 // Plant returns the sampled plant of corner i.
@@ -143,7 +161,7 @@ func (l *Loops) realizeNew(c synth.Controller) (Coeffs, error) {
 	ctl.AntiWindup, ctl.TrackingTime = string(AWNone), 0
 	w := l.prewarp
 	if Method(ctl.Discretize) == TustinPrewarp {
-		w = synth.Crossover(l.p, c)
+		w = synth.Crossover(l.pc, c)
 	}
 	k, _, err := Realize(c, ctl, l.T, w)
 	return k, err
@@ -158,7 +176,9 @@ func (l *Loops) realizeLinear(c synth.Controller) (Coeffs, error) {
 	return k, err
 }
 
-// Ctrl writes the controller's feedback path on the grid.
+// Ctrl writes the controller's feedback path on the grid, after the
+// filter chain: C·F, from the sensor's output to the command (F is fixed,
+// so C·F stays linear in the gains).
 func (l *Loops) Ctrl(c synth.Controller, out []complex128) {
 	k, err := l.realizeLinear(c)
 	if err != nil {
@@ -170,6 +190,9 @@ func (l *Loops) Ctrl(c synth.Controller, out []complex128) {
 	for i, z := range l.z {
 		n, d := feedbackRatio(k, cmplx.Conj(z))
 		out[i] = n / d
+		if l.filt != nil {
+			out[i] *= l.filt[i]
+		}
 	}
 }
 

@@ -1,6 +1,9 @@
 package discrete
 
-import "locusmith/airframe"
+import (
+	"locusmith/airframe"
+	"locusmith/internal/lti"
+)
 
 // Float is the sample type of a floating-point controller.
 type Float interface{ ~float32 | ~float64 }
@@ -16,6 +19,27 @@ type Params[T Float] struct {
 	Ad, Bd            T
 	B0, B1, A1        T
 	Lo, Hi, IL        T
+	// Sections is the feedback filter chain, run on the measured rate
+	// before the controller; nil without one.
+	Sections []Section[T]
+}
+
+// Section is one filter section of the feedback chain rounded to T, run in
+// transposed direct form II (see Step): Second says whether it has the
+// second state (B2 and A2); a first-order section has B2 = A2 = 0.
+type Section[T Float] struct {
+	B0, B1, B2, A1, A2 T
+	Second             bool
+}
+
+// SectionsOf rounds the filter sections to T.
+func SectionsOf[T Float](qs []lti.Biquad) []Section[T] {
+	var out []Section[T]
+	for _, q := range qs {
+		out = append(out, Section[T]{B0: T(q.B0), B1: T(q.B1), B2: T(q.B2), A1: T(q.A1), A2: T(q.A2),
+			Second: q.B2 != 0 || q.A2 != 0})
+	}
+	return out
 }
 
 // ParamsOf rounds the coefficients to T.
@@ -44,6 +68,8 @@ type State[T Float] struct {
 	Ua     T      // the last command: returned by Step, or given to Applied or Reset
 	Faults uint32 // non-finite inputs since Reset, saturating at the largest uint32
 	Fresh  bool   // after Reset with the derivative on the error: prime Vp at the next step
+	// F holds the states (s1, s2) of each filter section of the chain.
+	F [airframe.MaxFilters][2]T
 }
 
 // finite reports whether x is neither NaN nor infinite: x − x is +0 for
@@ -75,6 +101,16 @@ func Reset[T Float](p *Params[T], s *State[T], output, measured T) {
 		s.Faults = 1
 	}
 	s.Ua = output
+	// Each filter section at rest with its input at measured: its output
+	// is measured too (every section has unit DC gain), so the controller
+	// sees no step at engagement; s1 = m − B0·m and s2 = B2·m − A2·m are
+	// the states of transposed direct form II at that rest.
+	for i, q := range p.Sections {
+		s.F[i][0] = measured - T(q.B0*measured)
+		if q.Second {
+			s.F[i][1] = T(q.B2*measured) - T(q.A2*measured)
+		}
+	}
 	if p.Form == airframe.FormLead {
 		// ul = B0·e + x, and e = 0 at engagement.
 		s.S = output
@@ -145,6 +181,21 @@ func Step[T Float](p *Params[T], s *State[T], r, y T) T {
 	if !(r-r == y-y) {
 		s.fault()
 		return s.Ua
+	}
+	// The feedback filter chain, each section in transposed direct form
+	// II (Oppenheim & Schafer; from memory): out = B0·w + s1, then
+	// s1 = B1·w − A1·out + s2 and s2 = B2·w − A2·out. The controller sees
+	// the chain's output as the measured rate.
+	for i, q := range p.Sections {
+		f := &s.F[i]
+		w := y
+		y = T(q.B0*w) + f[0]
+		if q.Second {
+			f[0] = T(q.B1*w) - T(q.A1*y) + f[1]
+			f[1] = T(q.B2*w) - T(q.A2*y)
+		} else {
+			f[0] = T(q.B1*w) - T(q.A1*y)
+		}
 	}
 	if p.Form == airframe.FormLead {
 		e := r - y

@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"locusmith/airframe"
+	"locusmith/internal/lti"
 	"locusmith/synth"
 )
 
@@ -83,6 +84,9 @@ type Realization struct {
 	// reference's own).
 	QuantizedCoeffs Coeffs
 	Quantized       *Verification
+	// quantizedPlant is the sampled plant with the filter chain's
+	// sections rounded as the code holds them (nil: the design's plant).
+	quantizedPlant *Plant
 	// Fixed point only: ReferenceStep is the setpoint step against whose
 	// settling band the input resolution is judged (see RealizeNumeric),
 	// InputResolutionBits log2(band·ReferenceStep/LSB_in) and
@@ -249,6 +253,36 @@ func realizeFloat(d *Design) (*Realization, error) {
 		re.Coefficients = append(re.Coefficients, Coefficient{Name: cs.name, Value: v, Quantized: q, RelError: relErr(q, v), Format: string(t)})
 	}
 	re.QuantizedCoeffs = kq
+	// The filter chain's coefficients, as the code holds them; with
+	// float32 the loop is verified again with them rounded too (a narrow
+	// notch far below Nyquist has poles close to the unit circle, where
+	// the rounding of A1 and A2 moves them most).
+	var qs []lti.Biquad
+	for i, q := range d.Plant.Sections {
+		var r lti.Biquad
+		for _, c := range []struct {
+			name     string
+			v        float64
+			dst      *float64
+			optional bool
+		}{{"B0", q.B0, &r.B0, false}, {"B1", q.B1, &r.B1, false}, {"B2", q.B2, &r.B2, true}, {"A1", q.A1, &r.A1, false}, {"A2", q.A2, &r.A2, true}} {
+			v := c.v
+			qv := v
+			if t == airframe.Float32 {
+				qv = float64(float32(v))
+			}
+			*c.dst = qv
+			if c.optional && q.B2 == 0 && q.A2 == 0 {
+				continue // a first-order section has no B2, A2
+			}
+			re.Coefficients = append(re.Coefficients, Coefficient{Name: fmt.Sprintf("F%d_%s", i+1, c.name), Value: v, Quantized: qv, RelError: relErr(qv, v), Format: string(t)})
+		}
+		qs = append(qs, r)
+	}
+	if len(qs) > 0 && t == airframe.Float32 {
+		pl := d.Plant.WithSections(qs)
+		re.quantizedPlant = &pl
+	}
 	if t == airframe.Float32 {
 		if err := re.verifyQuantized(d, 0); err != nil {
 			return nil, err
@@ -792,7 +826,11 @@ func (p *fixedPlan) restBound() float64 {
 // quantized_<metric> checks; w is the data width (0: float32).
 func (re *Realization) verifyQuantized(d *Design, w int) error {
 	kq := re.QuantizedCoeffs
-	v, err := verify(d.Problem, d.Plant, kq, d.Loop.ComputeDelay, 0)
+	pl := d.Plant
+	if re.quantizedPlant != nil {
+		pl = *re.quantizedPlant
+	}
+	v, err := verify(d.Problem, pl, kq, d.Loop.ComputeDelay, 0)
 	if err != nil {
 		return fmt.Errorf("verification with quantized coefficients: %w", err)
 	}

@@ -2,6 +2,7 @@ package discrete
 
 import (
 	"fmt"
+	"math"
 	"math/cmplx"
 	"slices"
 
@@ -31,9 +32,18 @@ type Plant struct {
 	Cm, Cy []float64 // measured and true rate: y = C x[k]
 	Delay  int       // whole samples of transport delay
 	T      float64
+	// Sections are the feedback filter chain (airframe.Axis.Filters)
+	// discretized at 1/T, in the order the measured rate runs through
+	// them; their states are the last states of x (see withSection).
+	Sections []lti.Biquad
 	// num/den is the feedback path as a transfer function in z, for fast
 	// frequency sweeps; nil when it could not be formed accurately.
 	num, den lti.Poly
+	// unf is the feedback path before the filter chain (plant, sensor
+	// and the fraction of a sample), with its transfer function unum/uden
+	// (nil as num/den); without filters it is the feedback path itself.
+	unf        lti.Disc
+	unum, uden lti.Poly
 }
 
 // NewPlant samples the problem's plant and sensor at period T.
@@ -72,7 +82,158 @@ func NewPlant(p airframe.Axis, T float64) (Plant, error) {
 		pl = pl.withHeldInput(dm.D, dy.D)
 	}
 	pl.num, pl.den = pl.transferFunction()
+	pl.unf, pl.unum, pl.uden = pl.measured(), pl.num, pl.den
+	if len(p.Filters) == 0 {
+		return pl, nil
+	}
+	// The filter chain runs on the sampled sensor output, in the
+	// controller: its sections are appended to the sampled plant, not
+	// sampled themselves.
+	if len(p.Filters) > airframe.MaxFilters {
+		return Plant{}, fmt.Errorf("%d filters: at most %d", len(p.Filters), airframe.MaxFilters)
+	}
+	for i, f := range p.Filters {
+		q, err := f.Section(1 / T)
+		if err != nil {
+			return Plant{}, fmt.Errorf("filter[%d]: %w", i, err)
+		}
+		pl = pl.withSection(q)
+		pl.Sections = append(pl.Sections, q)
+	}
+	pl.num, pl.den = pl.chainTF()
 	return pl, nil
+}
+
+// chainTF returns the feedback path with the filter chain as num/den in
+// z: the path before the chain times each section's polynomials, (B0·z² +
+// B1·z + B2)/(z² + A1·z + A2) or (B0·z + B1)/(z + A1). The expanded
+// transfer function of the whole state space loses the accuracy check of
+// transferFunction where a notch puts zeros on the unit circle; the
+// product of the factors keeps it. nil when the path before the chain has
+// none, or when the product disagrees with the resolvent as in
+// transferFunction.
+func (p Plant) chainTF() (lti.Poly, lti.Poly) {
+	if p.uden == nil {
+		return nil, nil
+	}
+	num, den := p.unum, p.uden
+	for _, q := range p.Sections {
+		n, d := lti.Poly{q.B2, q.B1, q.B0}, lti.Poly{q.A2, q.A1, 1}
+		if q.B2 == 0 && q.A2 == 0 {
+			n, d = lti.Poly{q.B1, q.B0}, lti.Poly{q.A1, 1}
+		}
+		num, den = lti.PolyMul(num, n), lti.PolyMul(den, d)
+	}
+	m := p.measured()
+	for _, th := range []float64{1e-3, 0.01, 0.1, 0.5, 1, 2, 3} {
+		z := complexExp(th)
+		want := m.Eval(z)
+		// Relative to the path before the chain: at a notch's centre
+		// the whole path is ~0.
+		if got := num.Eval(z) / den.Eval(z); !(cmplx.Abs(got-want) <= 1e-7*cmplx.Abs(p.evalUnfiltered(z))) {
+			return nil, nil
+		}
+	}
+	return num, den
+}
+
+// SectionSS returns the state-space form of the section q as the
+// generated code runs it, transposed direct form II:
+//
+//	y = B0·u + s1,  s1' = B1·u − A1·y + s2,  s2' = B2·u − A2·y,
+//
+// so with the state (s1, s2): A = [[−A1, 1], [−A2, 0]], B = [B1 − A1·B0;
+// B2 − A2·B0], C = [1, 0], D = B0; a first-order section (B2 = A2 = 0)
+// has the state s1 alone (Oppenheim & Schafer, Discrete-Time Signal
+// Processing, transposed direct form II; from memory).
+func SectionSS(q lti.Biquad) (a, b, c []float64, d float64) {
+	b1 := q.B1 - float64(q.A1*q.B0)
+	if q.B2 == 0 && q.A2 == 0 {
+		return []float64{-q.A1}, []float64{b1}, []float64{1}, q.B0
+	}
+	b2 := q.B2 - float64(q.A2*q.B0)
+	return []float64{-q.A1, 1, -q.A2, 0}, []float64{b1, b2}, []float64{1, 0}, q.B0
+}
+
+// withSection appends the section q to the measured output: with the
+// section's state xf driven by the measured rate ym = Cm·x (the sampled
+// path has no feedthrough),
+//
+//	[x; xf]' = [[A, 0], [Bf·Cm, Af]]·[x; xf] + [B; 0]·u,
+//	ym' = [Df·Cm, Cf]·[x; xf],  yt = [Cy, 0]·[x; xf],
+//
+// the true rate unfiltered.
+func (p Plant) withSection(q lti.Biquad) Plant {
+	af, bf, cf, df := SectionSS(q)
+	nf := len(cf)
+	n := p.N + nf
+	r := Plant{N: n, A: make([]float64, n*n), B: make([]float64, n), Cm: make([]float64, n), Cy: make([]float64, n),
+		Delay: p.Delay, T: p.T, Sections: p.Sections, unf: p.unf, unum: p.unum, uden: p.uden}
+	for i := 0; i < p.N; i++ {
+		copy(r.A[i*n:i*n+p.N], p.A[i*p.N:(i+1)*p.N])
+		r.B[i] = p.B[i]
+		r.Cm[i] = float64(df * p.Cm[i])
+		r.Cy[i] = p.Cy[i]
+	}
+	for i := 0; i < nf; i++ {
+		row := (p.N + i) * n
+		for j := 0; j < p.N; j++ {
+			r.A[row+j] = float64(bf[i] * p.Cm[j])
+		}
+		copy(r.A[row+p.N:row+n], af[i*nf:(i+1)*nf])
+		r.Cm[p.N+i] = cf[i]
+	}
+	return r
+}
+
+// Unfiltered returns the plant before its filter chain: the same state
+// without the sections' states (the last ones), the measured rate the
+// sensor gives; the plant itself without a chain.
+func (p Plant) Unfiltered() Plant {
+	if len(p.Sections) == 0 {
+		return p
+	}
+	n := p.unf.N
+	return Plant{N: n, A: p.unf.A, B: p.unf.B, Cm: p.unf.C, Cy: p.Cy[:n], Delay: p.Delay, T: p.T,
+		unf: p.unf, unum: p.unum, uden: p.uden, num: p.unum, den: p.uden}
+}
+
+// WithSections returns the plant with its filter chain replaced by the
+// sections qs (the chain's coefficients as the generated code rounds
+// them, for the re-verification of a realization).
+func (p Plant) WithSections(qs []lti.Biquad) Plant {
+	r := p.Unfiltered()
+	r.Sections = nil
+	for _, q := range qs {
+		r = r.withSection(q)
+		r.Sections = append(r.Sections, q)
+	}
+	r.num, r.den = r.chainTF()
+	return r
+}
+
+// SectionPhaseDeg returns the phase of the section q at w rad/s when it
+// runs at hz samples per second, in degrees: ∠q(e^(jωT)).
+func SectionPhaseDeg(q lti.Biquad, w, hz float64) float64 {
+	return cmplx.Phase(q.At(w/(2*math.Pi), hz)) * 180 / math.Pi
+}
+
+// Filter returns the response of the filter chain at z (1 without one).
+func (p Plant) Filter(z complex128) complex128 {
+	v := complex(1, 0)
+	for _, q := range p.Sections {
+		v *= q.Eval(z)
+	}
+	return v
+}
+
+// evalUnfiltered returns the frequency response at z of the feedback path
+// before the filter chain, without the whole-sample delay.
+func (p Plant) evalUnfiltered(z complex128) complex128 {
+	if p.uden != nil {
+		return p.unum.Eval(z) / p.uden.Eval(z)
+	}
+	return p.unf.Eval(z)
 }
 
 // transferFunction returns Cm(zI − A)⁻¹B as num/den in z (lti.Disc.TF,
@@ -112,6 +273,11 @@ func (p Plant) Measured() lti.Disc { return p.measured() }
 // evalMeasured returns the frequency response at z of the feedback path
 // without its whole-sample delay (the caller applies z^(−Delay)).
 func (p Plant) evalMeasured(z complex128) complex128 {
+	if len(p.Sections) > 0 {
+		// The path before the chain times the sections: exact where the
+		// expanded polynomials would lose digits.
+		return p.evalUnfiltered(z) * p.Filter(z)
+	}
 	if p.den != nil {
 		return p.num.Eval(z) / p.den.Eval(z)
 	}

@@ -191,11 +191,13 @@ func saturated(p airframe.Axis, pl Plant, k Coeffs, d int, ulin []float64, dc fl
 
 // simulateNonlinear runs the reference model (float64) against the sampled
 // plant for a setpoint step of amplitude a, and returns the true rate, the
-// command and the largest |integrator state|.
+// command and the largest |integrator state|. The model runs the plant's
+// filter chain itself, on the measured rate before the chain.
 func simulateNonlinear(pl Plant, k Coeffs, d int, a float64, n int) (y, u []float64, ipeak float64) {
 	prm := ParamsOf[float64](k)
+	prm.Sections = SectionsOf[float64](pl.Sections)
 	var st State[float64]
-	y, u = pl.Run(d, n, func(ym float64) float64 {
+	y, u = pl.Unfiltered().Run(d, n, func(ym float64) float64 {
 		cmd := Step(&prm, &st, a, ym)
 		ipeak = math.Max(ipeak, math.Abs(st.S))
 		return cmd

@@ -7,6 +7,7 @@ import (
 
 	"locusmith/airframe"
 	"locusmith/discrete"
+	"locusmith/internal/lti"
 )
 
 // codeNumeric is the arithmetic of the generated code: the sample type's
@@ -50,9 +51,9 @@ func pick(c bool, a, b string) string {
 func (n codeNumeric) consts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
 	switch n.kind {
 	case airframe.Float32:
-		return floatConsts[float32](u, ax, d.Coeffs)
+		return floatConsts[float32](u, ax, d)
 	case airframe.Float64:
-		return floatConsts[float64](u, ax, d.Coeffs)
+		return floatConsts[float64](u, ax, d)
 	}
 	return fixedConsts(u, ax, d)
 }
@@ -66,6 +67,24 @@ func (n codeNumeric) vectors(u *codeUnit, ax *codeAxis, d *discrete.Design) ([]c
 		return floatVectors[float64](u, d)
 	}
 	return fixedVectors(u, ax, d)
+}
+
+// codeParams returns the parameters of the float reference model of d
+// exactly as the generated code holds them: the controller's
+// coefficients and the filter sections rounded to T, each −0 made +0.
+func codeParams[T discrete.Float](d *discrete.Design) discrete.Params[T] {
+	p := discrete.ParamsOf[T](codeCoeffs(d.Coeffs))
+	p.Sections = discrete.SectionsOf[T](codeSections(d.Plant.Sections))
+	return p
+}
+
+// codeSections returns the filter sections with −0 made +0.
+func codeSections(qs []lti.Biquad) []lti.Biquad {
+	out := make([]lti.Biquad, len(qs))
+	for i, q := range qs {
+		out[i] = lti.Biquad{B0: plusZero(q.B0), B1: plusZero(q.B1), B2: plusZero(q.B2), A1: plusZero(q.A1), A2: plusZero(q.A2)}
+	}
+	return out
 }
 
 // codeCoeffs returns the coefficients as the generated code and the
@@ -116,8 +135,8 @@ func floatBits[T discrete.Float](u *codeUnit, x T) string {
 
 // floatConsts declares the constants of a float controller: Coeffs rounded
 // to T exactly as discrete.ParamsOf rounds them for the reference model.
-func floatConsts[T discrete.Float](u *codeUnit, ax *codeAxis, k discrete.Coeffs) error {
-	p := discrete.ParamsOf[T](codeCoeffs(k))
+func floatConsts[T discrete.Float](u *codeUnit, ax *codeAxis, d *discrete.Design) error {
+	p := codeParams[T](d)
 	var err error
 	add := func(dst *string, c, g string, v T, doc string) {
 		if err != nil {
@@ -153,6 +172,24 @@ func floatConsts[T discrete.Float](u *codeUnit, ax *codeAxis, k discrete.Coeffs)
 	}
 	add(&ax.Lo, "OUTPUT_LO", "OutputLo", p.Lo, "lowest command")
 	add(&ax.Hi, "OUTPUT_HI", "OutputHi", p.Hi, "highest command")
+	for i, q := range p.Sections {
+		f := codeFilter{N: i + 1, Second: q.Second, S1: fmt.Sprintf("f%ds1", i+1), S2: fmt.Sprintf("f%ds2", i+1)}
+		if i < len(d.Problem.Filters) {
+			f.Doc = commentText(d.Problem.Filters[i].Describe())
+		}
+		c, g := fmt.Sprintf("F%d_", i+1), fmt.Sprintf("F%d", i+1)
+		what := fmt.Sprintf("filter %d", i+1)
+		add(&f.B0, c+"B0", g+"B0", q.B0, what+": weight of the input")
+		add(&f.B1, c+"B1", g+"B1", q.B1, what+": weight of the last input")
+		if q.Second {
+			add(&f.B2, c+"B2", g+"B2", q.B2, what+": weight of the input two steps back")
+		}
+		add(&f.A1, c+"A1", g+"A1", q.A1, what+": feedback of the last output")
+		if q.Second {
+			add(&f.A2, c+"A2", g+"A2", q.A2, what+": feedback of the output two steps back")
+		}
+		ax.Filters = append(ax.Filters, f)
+	}
 	return err
 }
 
@@ -245,7 +282,7 @@ func (m *floatModel[T]) faults(why string) {
 // floatVectors runs the float reference model (discrete.Step) on the
 // standard excitation.
 func floatVectors[T discrete.Float](u *codeUnit, d *discrete.Design) ([]codeVector, error) {
-	m := &floatModel[T]{u: u, p: discrete.ParamsOf[T](codeCoeffs(d.Coeffs))}
+	m := &floatModel[T]{u: u, p: codeParams[T](d)}
 	if err := excite(d, m); err != nil {
 		return nil, err
 	}

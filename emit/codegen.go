@@ -10,6 +10,7 @@ import (
 
 	"locusmith/airframe"
 	"locusmith/discrete"
+	"locusmith/internal/lti"
 	"locusmith/internal/version"
 	"locusmith/templates"
 )
@@ -316,6 +317,19 @@ type codeAxis struct {
 	Vectors                                  []codeVector
 	VectorsName                              string
 	Fx                                       *codeFixed // fixed-point details; nil for float
+	// Filters is the feedback filter chain, in the order it runs.
+	Filters []codeFilter
+}
+
+// codeFilter is one section of the feedback filter chain: the names of
+// its constants and states, whether it has the second state, and its
+// description for the comment.
+type codeFilter struct {
+	N                  int // 1-based position in the chain
+	B0, B1, B2, A1, A2 string
+	S1, S2             string // state field names
+	Second             bool
+	Doc                string
 }
 
 // codeConst is one named constant.
@@ -459,6 +473,10 @@ func newCodeAxis(u *codeUnit, num codeNumeric, x discrete.Outcome) (*codeAxis, e
 			return nil, fmt.Errorf("axis %s: unknown anti-windup %q", x.Name, k.AntiWindup)
 		}
 	}
+	if u.Fixed && len(d.Plant.Sections) > 0 {
+		// The decoder refuses filters with a fixed-point type.
+		return nil, fmt.Errorf("axis %s: the fixed-point code has no filter chain", x.Name)
+	}
 	if u.Fixed {
 		ax.HasE = ax.HasI || ax.Lead
 		ax.HasPending = ax.HasE
@@ -510,8 +528,15 @@ func constName(u *codeUnit, ax *codeAxis, c, g string) string {
 // discrete.Coeffs write them (the same for every numeric type; fixed point
 // adds the rounding of each product): the yardstick for the instruction
 // counts of the generated code.
-func StepOps(k discrete.Coeffs) int {
+//
+// The sections of the feedback filter chain the step runs first add theirs
+// (5 for a first-order section, 9 for a second-order one; see
+// arithmeticOps).
+func StepOps(k discrete.Coeffs, sections ...lti.Biquad) int {
 	ax := &codeAxis{Lead: k.Form == airframe.FormLead, HasI: k.Form.HasIntegral(), HasD: k.Form.HasDerivative()}
+	for _, q := range sections {
+		ax.Filters = append(ax.Filters, codeFilter{Second: q.B2 != 0 || q.A2 != 0})
+	}
 	ax.DOnError = ax.HasD && k.DerivativeOnError
 	ax.AWClamp = ax.HasI && k.AntiWindup == discrete.AWClamp
 	ax.AWBackcalc = ax.HasI && k.AntiWindup == discrete.AWBackcalc
@@ -527,7 +552,16 @@ func arithmeticOps(ax *codeAxis) int {
 		// x = B1·e − A1·ul (3), e = r − y (1), ul = B0·e + x (2), clamp.
 		return 3 + 1 + 2 + clampOps
 	}
-	n := 3 // KpB·r − Kp·y
+	n := 0
+	for _, f := range ax.Filters {
+		// out = B0·w + s1 (2), s1 = B1·w − A1·out (+ s2) (3, 4), and for
+		// a second-order section s2 = B2·w − A2·out (3).
+		n += 5
+		if f.Second {
+			n += 4
+		}
+	}
+	n += 3 // KpB·r − Kp·y
 	if ax.HasI {
 		n += 1 + 3 // e; + (s + G0·e)
 		n++        // G01·e

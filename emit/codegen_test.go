@@ -11,6 +11,7 @@ import (
 
 	"locusmith/airframe"
 	"locusmith/discrete"
+	"locusmith/internal/lti"
 	"locusmith/internal/version"
 )
 
@@ -283,5 +284,12 @@ func TestStepOpsCounts(t *testing.T) {
 	// G01·e (1), + Kt·(ua − uu) (3), s + inc (1), clamp (2), output clamp (2).
 	if got := StepOps(k); got != 16 {
 		t.Errorf("StepOps(PI backcalc) = %d, want 16", got)
+	}
+	// With a second- and a first-order section in front: 16 + 9 + 5, the
+	// operations of transposed direct form II counted by hand
+	// (y = B0·w + s1: 2; s1 = B1·w − A1·y + s2: 4; s2 = B2·w − A2·y: 3;
+	// first order: 2 + 3).
+	if got := StepOps(k, lti.Biquad{B0: 0.2, B1: 0.4, B2: 0.2, A1: -0.5, A2: 0.2}, lti.Biquad{B0: 0.5, B1: 0.5}); got != 30 {
+		t.Errorf("StepOps(PI backcalc, 2 sections) = %d, want 30", got)
 	}
 }

@@ -191,6 +191,18 @@ func axisSummary(add, indent func(string), u *codeUnit, x discrete.Outcome, ax *
 	}
 	how = append(how, fmt.Sprintf("output [%s, %s]", codeNum(k.Lo), codeNum(k.Hi)))
 	indent(strings.Join(how, "; ") + ".")
+	if fs := d.Problem.Filters; len(fs) > 0 {
+		wc := d.Verif.Margins.Crossover
+		var parts []string
+		for i, f := range fs {
+			t := fmt.Sprintf("%d. %s", i+1, f.Describe())
+			if i < len(d.Plant.Sections) && wc > 0 && !math.IsInf(wc, 0) {
+				t += fmt.Sprintf(" (phase %s deg at the crossover)", codeMetric(discrete.SectionPhaseDeg(d.Plant.Sections[i], wc, d.Loop.Hz)))
+			}
+			parts = append(parts, t)
+		}
+		indent("Feedback filter chain on the measured rate, before the controller: " + strings.Join(parts, "; ") + ".")
+	}
 	t := c.Target
 	indent(fmt.Sprintf("Target: zeta = %s, wn = %s rad/s, s* = %s +/- j%s rad/s.", codeMetric(t.Zeta), codeMetric(t.OmegaN), codeMetric(real(t.Pole)), codeMetric(math.Abs(imag(t.Pole)))))
 	v := d.Verif
@@ -250,6 +262,9 @@ func resetText(u *codeUnit, ax *codeAxis) string {
 		first, unused = "clears the state (a P controller has no memory)", "output and measured are not used"
 	}
 	parts := []string{first}
+	if len(ax.Filters) > 0 {
+		parts = append(parts, "the feedback filters start at rest at measured, so the controller sees no step")
+	}
 	if ax.HasD {
 		if ax.DOnError {
 			parts = append(parts, "the derivative starts from the first step's error, so there is no derivative kick")

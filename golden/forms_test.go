@@ -17,7 +17,10 @@ import (
 // formsAirframe is an airframe (demo data: an invented quadrotor-like
 // plant) with one axis per controller structure the generator handles:
 // every form, every anti-windup, the derivative on the measurement and on
-// the error, every discretization. The examples cover only some of them.
+// the error, every discretization, and for the float types a PID behind
+// a feedback filter chain of every kind of section (a full and a partial
+// notch, a second- and a first-order lowpass). The examples cover only
+// some of them.
 func formsAirframe(numeric string) string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "airframe = \"forms\"\ndescription = \"demo data: one axis per controller structure\"\nloop_hz = 1000.0\ncompute_delay = 1\n\n[numeric]\ntype = %q\n", numeric)
@@ -35,6 +38,10 @@ func formsAirframe(numeric string) string {
 		{"pid_err", `form = "pid"` + "\nderivative_on = \"error\"\nantiwindup = \"clamp\"\ndiscretize = \"tustin_prewarp\""},
 		{"pid_back", `form = "pid"` + "\nantiwindup = \"backcalc\"\nsetpoint_weight = 0.7"},
 		{"lead_x", `form = "lead"` + "\nlead_zero = -20.0"},
+	}
+	float := numeric == "float32" || numeric == "float64"
+	if float {
+		axes = append(axes, struct{ name, control string }{"pid_filt", `form = "pid"` + "\nantiwindup = \"backcalc\""})
 	}
 	for _, a := range axes {
 		fmt.Fprintf(&b, `
@@ -54,6 +61,29 @@ overshoot = 0.10
 %[2]s
 output_limit = [-0.5, 0.5]
 `, a.name, a.control)
+	}
+	if float {
+		b.WriteString(`
+[[axes.pid_filt.filter]]
+kind = "notch"
+hz = 120.0
+width_hz = 40.0
+
+[[axes.pid_filt.filter]]
+kind = "lowpass"
+hz = 200.0
+
+[[axes.pid_filt.filter]]
+kind = "notch"
+hz = 300.0
+width_hz = 60.0
+depth_db = 20.0
+
+[[axes.pid_filt.filter]]
+kind = "lowpass"
+hz = 400.0
+order = 1
+`)
 	}
 	return b.String()
 }

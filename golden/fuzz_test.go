@@ -95,6 +95,7 @@ func FuzzEmittedStep(f *testing.F) {
 	params := make([]discrete.Params[float32], len(a.Axes))
 	for i, x := range a.Axes {
 		params[i] = discrete.ParamsOf[float32](x.Design.Coeffs)
+		params[i].Sections = discrete.SectionsOf[float32](x.Design.Plant.Sections)
 	}
 	vals := []float32{0, float32(math.Copysign(0, -1)), 1, -1, 0.25, -3.5, 40, -40, 700, 1e-30, -2e30,
 		float32(math.NaN()), float32(math.Inf(1)), float32(math.Inf(-1))}

@@ -178,8 +178,17 @@ func badInputCatalogue(t *testing.T) []badInput {
 		{"delay_add to a rounding", withTable("axes.roll.envelope", "delay_add = [-0.001999999999, 0]"), "axes.roll.envelope.delay_add", "a delay below 1e-09 s is no delay at any loop rate"},
 		{"envelope not a table", strings.Replace(valid, "[axes.roll.control]", "[axes.roll]\nenvelope = 3\n[axes.roll.control]", 1), "axes.roll.envelope", "must be a table (gain_scale, lag_scale, delay_add), not an integer"},
 
+		// [[axes.NAME.filter]].
+		{"filter hz above Nyquist", withTable("[axes.roll.filter]", "kind = \"lowpass\"\nhz = 600.0"), "axes.roll.filter[0].hz", "must be > 0 and below Nyquist (loop_hz/2 = 500) (Hz)"},
+		{"filter notch without width", withTable("[axes.roll.filter]", "kind = \"notch\"\nhz = 120.0"), "axes.roll.filter[0].width_hz", "required: a number > 0 and below hz = 120"},
+		{"filter notch band", withTable("[axes.roll.filter]", "kind = \"notch\"\nhz = 450.0\nwidth_hz = 150.0"), "axes.roll.filter[0].width_hz", "the band hz ± width_hz/2 = [375, 525] Hz must lie below Nyquist"},
+		{"filter order 4", withTable("[axes.roll.filter]", "kind = \"lowpass\"\nhz = 100.0\norder = 4"), "axes.roll.filter[0].order", "must be an integer in 1..2"},
+		{"filter hz auto", withTable("[axes.roll.filter]", "kind = \"notch\"\nhz = \"auto\"\nwidth_hz = 20.0"), "axes.roll.filter[0].hz", "no lightly damped mode of the plant or sensor (a pole pair with damping below 0.2)"},
+		{"filter on the derivative", withTable("[axes.roll.filter]", "kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0"), "axes.roll.filter[0].at", "control.derivative_lowpass_hz"},
+		{"filter fixed point", strings.Replace(withTable("[axes.roll.filter]", "kind = \"lowpass\"\nhz = 100.0"), "type = \"float32\"", "type = \"q15\"\ninput_full_scale = 20.0\noutput_full_scale = 1.0", 1), "axes.roll.filter", "filters are implemented for numeric.type = \"float32\" and \"float64\" only"},
+
 		// The whole file.
-		{"too many keys", manyKeys(5000), "", "keys and table headers, more than the 3136 an airframe file may have"},
+		{"too many keys", manyKeys(6000), "", "keys and table headers, more than the 5184 an airframe file may have"},
 		{"too many problems", manyKeys(150), "", "and 50 more problems, not listed: only the first 100 problems of a file are reported"},
 		{"syntax error", "airframe = \"x\nloop_hz = ", "", "TOML syntax error"},
 		{"empty file", "", "", "empty file: airframe, loop_hz and at least one [axes.NAME] table are required"},

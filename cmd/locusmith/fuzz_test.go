@@ -18,6 +18,7 @@ import (
 func FuzzDesign(f *testing.F) {
 	f.Add([]byte(valid))
 	f.Add([]byte(infeasible))
+	f.Add([]byte(valid + "\n[[axes.roll.filter]]\nkind = \"notch\"\nhz = 118.0\nwidth_hz = 30.0\n\n[[axes.roll.filter]]\nkind = \"lowpass\"\nhz = 180.0\norder = 1\n"))
 	f.Add([]byte(""))
 	f.Add([]byte("airframe = \"x\"\nloop_hz = 10.0\n[axes.a.plant]\ngain = 1e300\npoles = [1e300, [0.0, 1e-300]]\n[axes.a.spec]\nsettling_time = 1e-300\novershoot = 0.999999\n"))
 	if paths, err := filepath.Glob("../../examples/*.toml"); err == nil {

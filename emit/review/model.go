@@ -798,6 +798,12 @@ func phaseBudget(d *discrete.Design) ([]Row, string) {
 	if len(p.Sensor.Poles) > 0 || len(p.Sensor.Zeros) > 0 {
 		add("gyro filter ∠H(jωc)", cmplx.Phase(p.Sensor.Eval(complex(0, wc))), "the sensor model")
 	}
+	for i, f := range p.Filters {
+		if i < len(d.Plant.Sections) {
+			add(fmt.Sprintf("feedback filter %d", i+1), discrete.SectionPhaseDeg(d.Plant.Sections[i], wc, d.Loop.Hz)/deg,
+				f.Describe()+", ∠F(e^(jωc·T)) as it runs")
+		}
+	}
 	if k := d.Cont.Ctrl; k.Form.HasDerivative() && k.Tf > 0 {
 		add("derivative filter", -math.Atan(wc*k.Tf), fmt.Sprintf("−atan(ωc·Tf), filter at %s Hz", g4(1/(2*math.Pi*k.Tf))))
 	}

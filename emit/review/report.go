@@ -60,6 +60,9 @@ type AxisReport struct {
 	Textbook   *TextbookReport   `json:"textbook,omitempty"`
 	Continuous *ContinuousReport `json:"continuous,omitempty"`
 	Discrete   *DiscreteReport   `json:"discrete,omitempty"`
+	// Filters is the feedback filter chain in the order it runs: absent
+	// without one.
+	Filters []FilterReport `json:"filters,omitempty"`
 	// Envelope is the plant's range and the sampled loop's figures at
 	// every plant of the final verification, the nominal plant first.
 	Envelope *EnvelopeReport `json:"envelope,omitempty"`
@@ -69,6 +72,25 @@ type AxisReport struct {
 	Numeric  *NumericReport `json:"numeric,omitempty"`
 	Checks   []CheckReport  `json:"checks,omitempty"`
 	Warnings []string       `json:"warnings,omitempty"`
+}
+
+// FilterReport is one section of the feedback filter chain: the file's
+// settings (a key that does not apply to the kind is omitted; DepthDB is
+// omitted for a full notch), the discrete coefficients as designed at the
+// loop rate, B = [b0, b1, b2] and A = [1, a1, a2] (b2 = a2 = 0 for a
+// first-order section), and its phase at the nominal sampled loop's
+// crossover (omitted without a crossover).
+type FilterReport struct {
+	Kind                string    `json:"kind"`
+	At                  string    `json:"at"`
+	Hz                  *float64  `json:"hz"`
+	WidthHz             *float64  `json:"width_hz,omitempty"`
+	DepthDB             *float64  `json:"depth_db,omitempty"`
+	Order               int       `json:"order,omitempty"`
+	Damping             *float64  `json:"damping,omitempty"`
+	B                   []float64 `json:"b"`
+	A                   []float64 `json:"a"`
+	PhaseAtCrossoverDeg *float64  `json:"phase_at_crossover_deg,omitempty"`
 }
 
 // TargetReport is a target pole pair s = −ζωn ± jωn√(1−ζ²).
@@ -368,6 +390,7 @@ func jsonAxis(a *discrete.Airframe, x discrete.Outcome) AxisReport {
 	}
 	r.Continuous = jsonContinuous(c)
 	r.Discrete = jsonDiscrete(d)
+	r.Filters = jsonFilters(d)
 	r.Envelope = jsonEnvelope(d)
 	if d.Num != nil {
 		r.Numeric = jsonNumeric(d.Num)
@@ -484,6 +507,34 @@ func jsonDiscrete(d *discrete.Design) *DiscreteReport {
 		}
 	}
 	return dr
+}
+
+// jsonFilters reports the filter chain of d (nil without one).
+func jsonFilters(d *discrete.Design) []FilterReport {
+	var out []FilterReport
+	wc := d.Verif.Margins.Crossover
+	for i, f := range d.Problem.Filters {
+		r := FilterReport{Kind: string(f.Kind), At: f.At, Hz: jsonNum(f.Hz), Order: f.Order}
+		if f.Kind == airframe.FilterNotch {
+			r.WidthHz = jsonNum(f.WidthHz)
+			if f.DepthDB > 0 {
+				r.DepthDB = jsonNum(f.DepthDB)
+			}
+		}
+		if f.Order == 2 {
+			r.Damping = jsonNum(f.Damping)
+		}
+		if i < len(d.Plant.Sections) {
+			q := d.Plant.Sections[i]
+			r.B = []float64{roundSig(q.B0), roundSig(q.B1), roundSig(q.B2)}
+			r.A = []float64{1, roundSig(q.A1), roundSig(q.A2)}
+			if wc > 0 && !math.IsInf(wc, 0) {
+				r.PhaseAtCrossoverDeg = jsonNum(discrete.SectionPhaseDeg(q, wc, d.Loop.Hz))
+			}
+		}
+		out = append(out, r)
+	}
+	return out
 }
 
 func jsonDisturbance(f synth.DisturbanceFigures) *DisturbanceReport {

@@ -99,6 +99,17 @@ func (t *tableWriter) axis(a *discrete.Airframe, x discrete.Outcome) {
 		t.line("  series     C(s) = %s", s)
 	}
 	t.line("  discrete   %s", tabDiscrete(d))
+	for i, f := range d.Problem.Filters {
+		ph := ""
+		if wc := d.Verif.Margins.Crossover; i < len(d.Plant.Sections) && wc > 0 && !math.IsInf(wc, 0) {
+			ph = fmt.Sprintf(": phase %s at the crossover", tabDeg(discrete.SectionPhaseDeg(d.Plant.Sections[i], wc, d.Loop.Hz)))
+		}
+		lead := "           "
+		if i == 0 {
+			lead = "  filters  "
+		}
+		t.line("%s%d. %s%s", lead, i+1, f.Describe(), ph)
+	}
 	t.line("")
 	t.metrics(d)
 	t.envelope(d)

@@ -1,7 +1,7 @@
 // Package pairgen generates pairkernels_gen.go of package discrete: the
 // paired unit-step simulation of pairStepper.run (two lanes of the sampled
 // rate loop that differ only in the controller's direct setpoint gain)
-// unrolled for plants of 1 to 6 states and controllers of 0 to 3.
+// unrolled for plants of 1 to 8 states and controllers of 0 to 3.
 //
 // The kernels exist for speed. The design search simulates a step
 // response for every candidate, and for these small state spaces the
@@ -38,7 +38,7 @@ const File = "discrete/pairkernels_gen.go"
 
 // The largest sizes with a kernel: plant states and controller states.
 const (
-	maxP = 6
+	maxP = 8
 	maxM = 3
 )
 

@@ -1,0 +1,167 @@
+package airframe
+
+import (
+	"errors"
+	"math"
+	"strings"
+	"testing"
+)
+
+// withFilters appends [[axes.roll.filter]] tables to minimal (loop_hz
+// 1000, Nyquist 500 Hz).
+func withFilters(tables ...string) string {
+	s := minimal
+	for _, t := range tables {
+		s += "\n[[axes.roll.filter]]\n" + t + "\n"
+	}
+	return s
+}
+
+func TestFilterParse(t *testing.T) {
+	src := withFilters(
+		"kind = \"notch\"\nhz = 118.0\nwidth_hz = 30",
+		"kind = \"lowpass\"\nat = \"feedback\"\nhz = 180.0",
+		"kind = \"lowpass\"\nhz = 250\norder = 1",
+		"kind = \"notch\"\nhz = 60.0\nwidth_hz = 10.0\ndepth_db = 20.0",
+	)
+	f, err := Parse("x.toml", []byte(src))
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := f.Axes[0].Filters
+	want := []Filter{
+		{Kind: FilterNotch, At: "feedback", Hz: 118, WidthHz: 30},
+		// The default damping is 1/√2, the Butterworth section (Oppenheim
+		// & Schafer; from memory).
+		{Kind: FilterLowpass, At: "feedback", Hz: 180, Order: 2, Damping: 1 / math.Sqrt2},
+		{Kind: FilterLowpass, At: "feedback", Hz: 250, Order: 1},
+		{Kind: FilterNotch, At: "feedback", Hz: 60, WidthHz: 10, DepthDB: 20},
+	}
+	if len(got) != len(want) {
+		t.Fatalf("%d filters, want %d: %+v", len(got), len(want), got)
+	}
+	for i := range want {
+		if got[i] != want[i] {
+			t.Errorf("filter %d = %+v, want %+v", i, got[i], want[i])
+		}
+	}
+	// An axis without a list has none.
+	f0, err := Parse("x.toml", []byte(minimal))
+	if err != nil || f0.Axes[0].Filters != nil {
+		t.Fatalf("no list: %v, %+v", err, f0.Axes[0].Filters)
+	}
+	// The list is part of the canonical input: a changed filter value
+	// changes the hash the generated code carries.
+	g, err := Parse("x.toml", []byte(strings.Replace(src, "hz = 118.0", "hz = 119.0", 1)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if f.CanonicalSHA256() == g.CanonicalSHA256() || f.CanonicalSHA256() == f0.CanonicalSHA256() {
+		t.Error("the canonical hash does not see the filter list")
+	}
+}
+
+// TestFilterContinuous checks the continuous counterparts moved into the
+// sensor: the poles and zeros of each section, gains multiplied.
+func TestFilterContinuous(t *testing.T) {
+	f, err := Parse("x.toml", []byte(withFilters("kind = \"notch\"\nhz = 100\nwidth_hz = 20", "kind = \"lowpass\"\nhz = 200\norder = 1")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := f.Axes[0].Continuous()
+	if a.Filters != nil || len(a.Sensor.Poles) != 3 || len(a.Sensor.Zeros) != 2 {
+		t.Fatalf("continuous sensor %+v, filters %+v", a.Sensor, a.Filters)
+	}
+	// At DC the notch passes 1 and the lowpass 1 (unit DC gains by
+	// construction of both; the handbook forms of NotchZPK/LowpassZPK).
+	if g := real(a.Sensor.Eval(0)); math.Abs(g-1) > 1e-12 {
+		t.Errorf("H(0) = %g, want 1", g)
+	}
+	// At the notch's centre the full notch passes nothing.
+	if g := a.Sensor.Eval(complex(0, 2*math.Pi*100)); math.Hypot(real(g), imag(g)) > 1e-9 {
+		t.Errorf("|H(j·2π·100)| = %g, want 0", g)
+	}
+}
+
+// TestFilterAuto checks hz = "auto": each auto notch on the next lightly
+// damped mode (most lightly damped first), the width 0.4·f or 1.5 times
+// the band lag_scale moves the mode over, three digits; a given width is
+// kept. The modes: ζ = 0.048 at 250.3 rad/s (39.84 Hz) and ζ = 0.1 at
+// 100 rad/s, by hand: ζ = −re/|p|, f = |p|/2π.
+func TestFilterAuto(t *testing.T) {
+	src := strings.Replace(withFilters("kind = \"notch\"\nhz = \"auto\"", "kind = \"notch\"\nhz = \"auto\"\nwidth_hz = 3.0"),
+		"effectiveness = 2000.0\nmotor_tau = 0.025\n", "gain = 5e13\npoles = [0.0, -40.0, [-12.0, 250.0], [-10.0, 99.498743710662]]\n", 1)
+	src += "\n[axes.roll.envelope]\nlag_scale = [0.8, 1.0]\n"
+	f, err := Parse("x.toml", []byte(src))
+	if err != nil {
+		t.Fatal(err)
+	}
+	fs := f.Axes[0].Filters
+	f1 := math.Hypot(12, 250) / (2 * math.Pi) // 39.83 Hz
+	// lag_scale 0.8 moves the mode to f/0.8: band f/0.8 − f = 0.25·f,
+	// times 1.5 = 0.375·f < 0.4·f, so 0.4·f.
+	if len(fs) != 2 || !fs[0].AutoHz || fs[0].Hz != Round3(f1) || fs[0].WidthHz != Round3(0.4*f1) {
+		t.Fatalf("first auto notch %+v, want %g Hz, width %g", fs, Round3(f1), Round3(0.4*f1))
+	}
+	if f2 := 100 / (2 * math.Pi); fs[1].Hz != Round3(f2) || fs[1].WidthHz != 3 {
+		t.Errorf("second auto notch %+v, want %g Hz, width 3", fs[1], Round3(f2))
+	}
+	// A wider lag_scale widens the notch: [0.5, 1] moves the mode over
+	// f..2f, 1.5·f, capped at 0.9·f.
+	g, err := Parse("x.toml", []byte(strings.Replace(src, "lag_scale = [0.8, 1.0]", "lag_scale = [0.5, 1.0]", 1)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if w := g.Axes[0].Filters[0].WidthHz; w != Round3(0.9*f1) {
+		t.Errorf("width %g with lag_scale [0.5, 1], want %g", w, Round3(0.9*f1))
+	}
+}
+
+func TestFilterMalformed(t *testing.T) {
+	cases := []struct {
+		name, src, want string
+	}{
+		{"kind missing", withFilters("hz = 100.0"), `axes.roll.filter[0].kind: required: "lowpass" or "notch"`},
+		{"kind unknown", withFilters("kind = \"bandpass\"\nhz = 100.0"), `axes.roll.filter[0].kind = "bandpass": must be one of "lowpass", "notch"`},
+		{"hz missing", withFilters("kind = \"lowpass\""), `axes.roll.filter[0].hz: required: a number > 0 and below Nyquist (loop_hz/2 = 500) (Hz)`},
+		{"hz at Nyquist", withFilters("kind = \"lowpass\"\nhz = 500.0"), `axes.roll.filter[0].hz = 500.0: must be > 0 and below Nyquist (loop_hz/2 = 500) (Hz)`},
+		{"hz negative", withFilters("kind = \"lowpass\"\nhz = -5.0"), `axes.roll.filter[0].hz = -5.0: must be > 0 and below Nyquist`},
+		{"hz nan", withFilters("kind = \"lowpass\"\nhz = nan"), `axes.roll.filter[0].hz = nan: must be a finite number > 0`},
+		{"hz tiny", withFilters("kind = \"lowpass\"\nhz = 1e-12"), `axes.roll.filter[0].hz = 1e-12: the filter's frequency 2π·hz: magnitude`},
+		{"hz auto without a mode", withFilters("kind = \"notch\"\nhz = \"auto\"\nwidth_hz = 10.0"), `axes.roll.filter[0].hz = "auto": no lightly damped mode of the plant or sensor (a pole pair with damping below 0.2) below 0.9 × Nyquist (450 Hz) to centre the notch on: give the centre in Hz`},
+		{"hz auto on a lowpass", withFilters("kind = \"lowpass\"\nhz = \"auto\""), `axes.roll.filter[0].hz = "auto": "auto" places a notch only: give the lowpass's cutoff in Hz, a number > 0 and below Nyquist (loop_hz/2 = 500) (Hz)`},
+		{"hz auto twice", strings.Replace(withFilters("kind = \"notch\"\nhz = \"auto\"", "kind = \"notch\"\nhz = \"auto\""), "effectiveness = 2000.0\nmotor_tau = 0.025\n", "gain = 5e9\npoles = [0.0, -40.0, [-12.0, 250.0]]\n", 1), `axes.roll.filter[1].hz = "auto": no lightly damped mode left (1 taken by the notches before)`},
+		{"hz string", withFilters("kind = \"notch\"\nhz = \"fast\"\nwidth_hz = 10.0"), `axes.roll.filter[0].hz = "fast": must be a number > 0 and below Nyquist (loop_hz/2 = 500) (Hz), not a string`},
+		{"width missing", withFilters("kind = \"notch\"\nhz = 100.0"), `axes.roll.filter[0].width_hz: required: a number > 0 and below hz = 100`},
+		{"width zero", withFilters("kind = \"notch\"\nhz = 100.0\nwidth_hz = 0.0"), `axes.roll.filter[0].width_hz = 0.0: must be > 0 and below hz = 100`},
+		{"width above centre", withFilters("kind = \"notch\"\nhz = 100.0\nwidth_hz = 120.0"), `axes.roll.filter[0].width_hz = 120.0: must be > 0 and below hz = 100`},
+		{"band beyond Nyquist", withFilters("kind = \"notch\"\nhz = 450.0\nwidth_hz = 120.0"), `axes.roll.filter[0].width_hz = 120.0: the band hz ± width_hz/2 = [390, 510] Hz must lie below Nyquist (loop_hz/2 = 500 Hz)`},
+		{"width on a lowpass", withFilters("kind = \"lowpass\"\nhz = 100.0\nwidth_hz = 10.0"), `axes.roll.filter[0].width_hz = 10.0: only for kind = "notch" (kind is "lowpass")`},
+		{"depth zero", withFilters("kind = \"notch\"\nhz = 100.0\nwidth_hz = 10.0\ndepth_db = 0.0"), `axes.roll.filter[0].depth_db = 0.0: must be in (0, 120] (dB, the attenuation at the centre; omit the key for a full notch)`},
+		{"depth on a lowpass", withFilters("kind = \"lowpass\"\nhz = 100.0\ndepth_db = 10.0"), `axes.roll.filter[0].depth_db = 10.0: only for kind = "notch"`},
+		{"order 3", withFilters("kind = \"lowpass\"\nhz = 100.0\norder = 3"), `axes.roll.filter[0].order = 3: must be an integer in 1..2 (the lowpass's order)`},
+		{"order on a notch", withFilters("kind = \"notch\"\nhz = 100.0\nwidth_hz = 10.0\norder = 2"), `axes.roll.filter[0].order = 2: only for kind = "lowpass" (kind is "notch")`},
+		{"damping order 1", withFilters("kind = \"lowpass\"\nhz = 100.0\norder = 1\ndamping = 0.5"), `axes.roll.filter[0].damping = 0.5: only for kind = "lowpass" with order = 2`},
+		{"damping small", withFilters("kind = \"lowpass\"\nhz = 100.0\ndamping = 0.01"), `axes.roll.filter[0].damping = 0.01: must be in [0.1, 2] (ζ; 0.7071 is the Butterworth section)`},
+		{"at derivative", withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0"), `axes.roll.filter[0].at = "derivative": a filter on the derivative path alone is not implemented yet: the derivative's first-order lowpass is control.derivative_lowpass_hz`},
+		{"at elsewhere", withFilters("kind = \"lowpass\"\nat = \"output\"\nhz = 100.0"), `axes.roll.filter[0].at = "output": must be one of "feedback", "derivative"`},
+		{"unknown key", withFilters("kind = \"lowpass\"\nhz = 100.0\nq = 2.0"), `axes.roll.filter[0].q = 2.0: unknown key; allowed in [axes.roll.filter[0]]: kind, at, hz, width_hz, depth_db, order, damping`},
+		{"second filter", withFilters("kind = \"lowpass\"\nhz = 100.0", "kind = \"notch\"\nhz = 80.0"), `axes.roll.filter[1].width_hz: required`},
+		{"too many", withFilters("kind = \"lowpass\"\nhz = 100.0", "kind = \"lowpass\"\nhz = 100.0", "kind = \"lowpass\"\nhz = 100.0", "kind = \"lowpass\"\nhz = 100.0", "kind = \"lowpass\"\nhz = 100.0"), `axes.roll.filter: 5 filters: at most 4 per axis`},
+		{"not an array", minimal + "\n[axes.roll.filter]\nkind = \"lowpass\"\nhz = 100.0\n", `axes.roll.filter: must be an array of tables [[axes.roll.filter]] (kind, at, hz, ...), not a table`},
+		{"array of numbers", strings.Replace(minimal, "[axes.roll.spec]", "[axes.roll]\nfilter = [1, 2]\n\n[axes.roll.spec]", 1), `axes.roll.filter[0] = 1: must be a table (kind, at, hz, ...), not an integer`},
+		{"fixed point", withFilters("kind = \"lowpass\"\nhz = 100.0") + "\n[numeric]\ntype = \"q15\"\ninput_full_scale = 10.0\noutput_full_scale = 1.0\n", `axes.roll.filter: filters are implemented for numeric.type = "float32" and "float64" only (numeric.type is "q15")`},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			_, err := Parse("x.toml", []byte(tc.src))
+			var errs *Errors
+			if !errors.As(err, &errs) {
+				t.Fatalf("error %v is not *Errors", err)
+			}
+			if !strings.Contains(err.Error(), "x.toml: "+tc.want) {
+				t.Errorf("error does not say %q; got:\n%s", tc.want, err)
+			}
+		})
+	}
+}
