@@ -157,9 +157,30 @@ func flattenTOML(prefix string, m map[string]any) map[string]any {
 			}
 			continue
 		}
+		// An array of tables (the filter chain) is compared key by key,
+		// each table under its index as the file's messages name it
+		// (axes.roll.filter[0].hz), not as one opaque array.
+		if arr, ok := v.([]any); ok && len(arr) > 0 && allTables(arr) {
+			for i, e := range arr {
+				for kk, vv := range flattenTOML(fmt.Sprintf("%s[%d]", key, i), e.(map[string]any)) {
+					out[kk] = vv
+				}
+			}
+			continue
+		}
 		out[key] = v
 	}
 	return out
+}
+
+// allTables reports whether every element of arr is a table.
+func allTables(arr []any) bool {
+	for _, e := range arr {
+		if _, ok := e.(map[string]any); !ok {
+			return false
+		}
+	}
+	return true
 }
 
 // same reports whether two decoded values are equal, by their JSON text.
