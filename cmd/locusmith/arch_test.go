@@ -163,10 +163,14 @@ func designJSONCrossArch(t *testing.T, host, arm crossBin) {
 // LOCUSMITH_CROSSARCH_FLEET sets N (7 covers every slowing of every
 // example from the second variant on): under the emulator it costs
 // about 2 s per airframe, beyond the budget of a default test run. With
-// N = 7 it fails at the time of writing: the continuous delay_margin of
-// v2's pan axis prints 0.08928880795 on amd64 and 0.08928880796 on arm64
-// (internal/lti's margins take math.Exp and math.Log, assembly on amd64
-// only, at the crossover).
+// N = 7 it passes since internal/lti's margins search the crossovers with
+// exp and log of their own (portable.go): with math.Exp and math.Log,
+// assembly on amd64 only, the continuous delay_margin of v2's pan axis
+// printed 0.08928880795 on amd64 and 0.08928880796 on arm64. With N = 60
+// one figure of 59 airframes still differs in its tenth digit (a phase
+// margin, 42.23598342 against …343): Go fuses the multiply-adds of a
+// complex product on arm64, and the loop's frequency response is made of
+// them.
 func fleetCrossArch(t *testing.T, dir string, host, arm crossBin) {
 	n, _ := strconv.Atoi(os.Getenv("LOCUSMITH_CROSSARCH_FLEET"))
 	if n < 2 {

@@ -97,8 +97,8 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 	if n < 2 {
 		n = 2
 	}
-	eval := func(lw float64) complex128 { return L(math.Exp(lw)) }
-	l0, l1 := math.Log(wmin), math.Log(wmax)
+	eval := func(lw float64) complex128 { return L(exp(lw)) }
+	l0, l1 := log(wmin), log(wmax)
 	// Grid points are evaluated when the sweep reaches them.
 	grid := make([]marginPoint, n)
 	done := 0
@@ -129,7 +129,7 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 	ph0 := cmplx.Phase(grid[first].L)
 	for j := first + 1; j < n; j++ {
 		if at(j).ok {
-			slope := (math.Log(cmplx.Abs(grid[j].L)) - math.Log(cmplx.Abs(grid[first].L))) / (grid[j].lw - grid[first].lw)
+			slope := (log(cmplx.Abs(grid[j].L)) - log(cmplx.Abs(grid[first].L))) / (grid[j].lw - grid[first].lw)
 			typ := math.Round(-slope)
 			if math.Abs(typ) <= 8 {
 				target := -typ * math.Pi / 2
@@ -150,10 +150,10 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 			return
 		}
 		// Gain crossover.
-		ga, gb := math.Log(cmplx.Abs(a.L)), math.Log(cmplx.Abs(b.L))
+		ga, gb := log(cmplx.Abs(a.L)), log(cmplx.Abs(b.L))
 		if (ga >= 0) != (gb >= 0) {
-			lw := crossing(a.lw, b.lw, func(x float64) float64 { return math.Log(cmplx.Abs(eval(x))) })
-			w := math.Exp(lw)
+			lw := crossing(a.lw, b.lw, func(x float64) float64 { return log(cmplx.Abs(eval(x))) })
+			w := exp(lw)
 			z := eval(lw)
 			ph := a.ph + cmplx.Phase(z*cmplx.Conj(a.L))
 			pm := wrapDeg(180 + ph*180/math.Pi)
@@ -173,8 +173,8 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 			lw := crossing(a.lw, b.lw, func(x float64) float64 {
 				return aph + cmplx.Phase(eval(x)*cmplx.Conj(aL)) - lvl
 			})
-			w := math.Exp(lw)
-			gm := -20 * math.Log10(cmplx.Abs(eval(lw)))
+			w := exp(lw)
+			gm := -20 * log10(cmplx.Abs(eval(lw)))
 			m.PhaseCrossovers = append(m.PhaseCrossovers, w)
 			if math.Abs(gm) < math.Abs(bestGM) {
 				bestGM = gm
@@ -238,10 +238,10 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 		emit(mp, b)
 	}
 	last := tail
-	lwf := math.Log(wf)
+	lwf := log(wf)
 	for j := first + 1; j < n; j++ {
 		if last.ok && last.lw >= lwf && !math.IsInf(bestGM, 1) {
-			if a := cmplx.Abs(last.L); a < 1 && -20*math.Log10(a) > math.Abs(bestGM) {
+			if a := cmplx.Abs(last.L); a < 1 && -20*log10(a) > math.Abs(bestGM) {
 				break
 			}
 		}
@@ -317,10 +317,10 @@ func GainCrossovers(mag2 func(w float64) float64, wmin, wmax float64, n int) []f
 		return nil
 	}
 	n = max(n, 2)
-	f := func(lw float64) float64 { return 0.5 * math.Log(mag2(math.Exp(lw))) }
+	f := func(lw float64) float64 { return 0.5 * log(mag2(exp(lw))) }
 	m := 2*n - 1
-	l0, l1 := math.Log(wmin), math.Log(wmax)
-	ratio := math.Exp((l1 - l0) / float64(m-1))
+	l0, l1 := log(wmin), log(wmax)
+	ratio := exp((l1 - l0) / float64(m-1))
 	var out []float64
 	ok := func(v float64) bool { return v > 0 && !math.IsInf(v, 0) }
 	w, prevW, prev := wmin, 0.0, math.NaN()
@@ -333,7 +333,7 @@ func GainCrossovers(mag2 func(w float64) float64, wmin, wmax float64, n int) []f
 			prev = math.NaN()
 		} else {
 			if ok(prev) && (prev >= 1) != (v >= 1) {
-				out = append(out, math.Exp(crossing(math.Log(prevW), math.Log(w), f)))
+				out = append(out, exp(crossing(log(prevW), log(w), f)))
 			}
 			prevW, prev = w, v
 		}
