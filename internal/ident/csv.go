@@ -43,9 +43,21 @@ const MinSamples = 200
 // Columns names the CSV columns to read and the unit of the time column.
 type Columns struct {
 	Time, Command, Rate string
+	// Excitation names the column of an excitation injected into a closed
+	// loop (added to the controller's output or to the setpoint); empty:
+	// none is read. It is what the closed-loop frequency-response estimate
+	// refers to (Spectra.Response): without it a closed-loop estimate is
+	// biased.
+	Excitation string
 	// TimeScale converts the time column to seconds (1 for s, 1e-3 for ms,
 	// 1e-6 for µs). Zero means 1.
 	TimeScale float64
+	// RateScale multiplies the rate column as it is read (π/180 for a log
+	// in °/s: the airframe file's rates are in rad/s). Zero means 1.
+	RateScale float64
+	// Delimiter separates the fields (zero: ','). It may not be '#', '"',
+	// a line break or the Unicode replacement character.
+	Delimiter rune
 }
 
 // DefaultColumns are the column names used when none are given.
@@ -63,6 +75,17 @@ type Log struct {
 	// Line is the 1-based source line of each sample (nil for a Log built
 	// in code).
 	Line []int
+	// Excitation is the injected excitation, one entry per sample (nil
+	// unless Columns.Excitation names a column).
+	Excitation []float64
+	// Breaks are the indices of the samples that start a new segment
+	// because one or more rows before them held a NaN (a sensor dropout,
+	// a logger's missing value): the data on either side are fitted with
+	// their own initial states and never interpolated across, as after a
+	// gap in the timestamps. Ascending; nil when no row was dropped.
+	Breaks []int
+	// Dropped counts the rows skipped for a NaN.
+	Dropped int
 	// Truncated is set when the file had more than MaxSamples data rows:
 	// the log holds the first MaxSamples.
 	Truncated bool
@@ -98,8 +121,11 @@ func IsInputError(err error) bool {
 // non-comment row is the header; cols chooses the columns by name (exact
 // match after trimming blanks; other columns are ignored). Rows starting
 // with '#' and blank lines are skipped. Every selected field must be a
-// finite number, time must increase strictly, there must be at least
-// MinSamples rows and the command must not be constant. Errors are
+// finite number or NaN, time must increase strictly, there must be at
+// least MinSamples rows and the command must not be constant. A row with
+// a NaN in a selected column is skipped and the log split there
+// (Log.Breaks): loggers write NaN for a sample they lost, and rejecting
+// the whole file for it threw away good data on either side. Errors are
 // *InputError with the line number.
 func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
 	if cols.TimeScale == 0 {
@@ -107,6 +133,18 @@ func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
 	}
 	if !(cols.TimeScale > 0) || math.IsInf(cols.TimeScale, 0) {
 		return nil, &InputError{File: name, Msg: fmt.Sprintf("time scale %g: must be a positive finite number", cols.TimeScale)}
+	}
+	if cols.RateScale == 0 {
+		cols.RateScale = 1
+	}
+	if !(cols.RateScale > 0) || math.IsInf(cols.RateScale, 0) {
+		return nil, &InputError{File: name, Msg: fmt.Sprintf("rate scale %g: must be a positive finite number", cols.RateScale)}
+	}
+	if cols.Delimiter == 0 {
+		cols.Delimiter = ','
+	}
+	if !ValidDelimiter(cols.Delimiter) {
+		return nil, &InputError{File: name, Msg: fmt.Sprintf("delimiter %q: must be one character other than '#', '\"', a line break or a space", cols.Delimiter)}
 	}
 	fail := func(line int, format string, a ...any) error {
 		return &InputError{File: name, Line: line, Msg: fmt.Sprintf(format, a...)}
@@ -119,6 +157,7 @@ func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
 	}
 	cr := csv.NewReader(br)
 	cr.Comment = '#'
+	cr.Comma = cols.Delimiter
 	cr.FieldsPerRecord = -1 // checked here, with a clearer message
 	cr.ReuseRecord = true
 	cr.TrimLeadingSpace = true
@@ -142,8 +181,12 @@ func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
 	if numeric {
 		return nil, fail(hline, "no header row: the first row holds numbers; the first row must name the columns (%s, %s, %s)", cols.Time, cols.Command, cols.Rate)
 	}
-	var idx [3]int
-	for j, want := range [3]string{cols.Time, cols.Command, cols.Rate} {
+	want := []string{cols.Time, cols.Command, cols.Rate}
+	if cols.Excitation != "" {
+		want = append(want, cols.Excitation)
+	}
+	idx := make([]int, len(want))
+	for j, want := range want {
 		idx[j] = -1
 		for i, h := range names {
 			if h != want {
@@ -155,13 +198,20 @@ func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
 			idx[j] = i
 		}
 		if idx[j] < 0 {
+			if j == 3 {
+				return nil, fail(hline, "no excitation column %q in the header (it has %s); name it with --excitation, or leave --excitation out for an open-loop log", want, quoteList(names))
+			}
+			if len(names) == 1 && cols.Delimiter == ',' && strings.ContainsAny(names[0], ";\t|") {
+				return nil, fail(hline, "no column %q in the header: it has one column, %s; is the delimiter another character (--delimiter)?", want, quoteList(names))
+			}
 			return nil, fail(hline, "no column %q in the header (it has %s); choose the columns with --time, --command and --rate", want, quoteList(names))
 		}
 	}
 	nf := len(header)
 
 	l := &Log{File: name}
-	var parsed [3]float64
+	parsed := make([]float64, len(idx))
+	broken := false // a NaN row since the last sample kept
 	for {
 		if len(l.Time) == MaxSamples {
 			l.Truncated = true
@@ -178,13 +228,23 @@ func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
 		if len(rec) != nf {
 			return nil, fail(line, "%d fields, but the header has %d", len(rec), nf)
 		}
+		missing := false
 		for j, i := range idx {
 			s := strings.TrimSpace(rec[i])
 			v, err := strconv.ParseFloat(s, 64)
-			if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-				return nil, fail(line, "column %q: %q is not a finite number", names[i], clip(s))
+			if err == nil && math.IsNaN(v) {
+				missing = true
+				continue
+			}
+			if err != nil || math.IsInf(v, 0) {
+				return nil, fail(line, "column %q: %q is not a finite number (NaN marks a lost sample and splits the log)", names[i], clip(s))
 			}
 			parsed[j] = v
+		}
+		if missing {
+			l.Dropped++
+			broken = true
+			continue
 		}
 		t := parsed[0] * cols.TimeScale
 		if math.IsInf(t, 0) {
@@ -199,9 +259,16 @@ func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
 				return nil, fail(line, "column %q: the step from the previous time is out of range", names[idx[0]])
 			}
 		}
+		if broken && len(l.Time) > 0 {
+			l.Breaks = append(l.Breaks, len(l.Time))
+		}
+		broken = false
 		l.Time = append(l.Time, t)
 		l.Command = append(l.Command, parsed[1])
-		l.Rate = append(l.Rate, parsed[2])
+		l.Rate = append(l.Rate, parsed[2]*cols.RateScale)
+		if len(idx) > 3 {
+			l.Excitation = append(l.Excitation, parsed[3])
+		}
 		l.Line = append(l.Line, line)
 	}
 	if len(l.Time) < MinSamples {
@@ -212,10 +279,33 @@ func ReadCSV(r io.Reader, name string, cols Columns) (*Log, error) {
 		return nil, fail(last, "only %d samples; at least %d are needed to identify the plant", len(l.Time), MinSamples)
 	}
 	if lo, hi := minMax(l.Command); lo == hi {
-		return nil, fail(l.Line[0], "column %q is constant (%s on every row to line %d): nothing to identify; the log must excite the axis",
-			names[idx[1]], fmtG(lo), l.Line[len(l.Line)-1])
+		return nil, fail(l.Line[0], "column %q is constant (%s on every row to line %d): nothing to identify; %s",
+			names[idx[1]], fmtG(lo), l.Line[len(l.Line)-1], ExcitationAdvice)
+	}
+	if c := changes(l.Command); c < MinChanges {
+		return nil, fail(l.Line[0], "column %q changes value only %d time(s) over %d rows (to line %d), fewer than the %d the fit needs: too little excitation; %s",
+			names[idx[1]], c, len(l.Command), l.Line[len(l.Line)-1], MinChanges, ExcitationAdvice)
+	}
+	if cols.Excitation != "" {
+		if lo, hi := minMax(l.Excitation); lo == hi {
+			return nil, fail(l.Line[0], "excitation column %q is constant (%s on every row to line %d): it excites nothing; inject a broadband signal (a chirp, a multisine or random steps) there, or leave --excitation out",
+				names[idx[3]], fmtG(lo), l.Line[len(l.Line)-1])
+		}
 	}
 	return l, nil
+}
+
+// ExcitationAdvice says what excitation identification needs: content at
+// and above the motor's corner frequency, with a zero mean (doc.go,
+// Identifiability).
+const ExcitationAdvice = "the log must excite the axis: command doublets of a few samples to a few hundred ms, random steps or a frequency sweep (chirp) from about 1 Hz to a third of the sample rate, zero-mean, large enough that the rate moves well above the gyro noise"
+
+// ValidDelimiter reports whether r can separate the fields of a log: not
+// the comment mark '#', the quote, a line break, a space (fields are
+// trimmed of blanks) or the replacement character, as encoding/csv
+// requires.
+func ValidDelimiter(r rune) bool {
+	return r != '#' && r != '"' && r != '\r' && r != '\n' && r != ' ' && r != utf8RuneError && r > 0 && r != 0xFEFF
 }
 
 // csvError converts an encoding/csv error into an *InputError with its
@@ -311,4 +401,21 @@ func (l *lineLimit) Read(p []byte) (int, error) {
 		}
 	}
 	return n, err
+}
+
+// MinChanges is the fewest changes of value the command must make: one
+// doublet (up, down, back) is three, and a log with fewer holds at most a
+// step and its return, whose response cannot separate the motor lag from
+// the delay. Four is the least that holds more than one doublet's edges.
+const MinChanges = 4
+
+// changes counts the samples whose value differs from the previous one.
+func changes(v []float64) int {
+	n := 0
+	for i := 1; i < len(v); i++ {
+		if v[i] != v[i-1] {
+			n++
+		}
+	}
+	return n
 }

@@ -1,8 +1,10 @@
 package ident
 
 import (
+	"errors"
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"strconv"
 	"strings"
 	"testing"
@@ -41,6 +43,103 @@ func TestReadCSV(t *testing.T) {
 	}
 }
 
+// TestReadCSVNaNSplits: a row with NaN in a selected column is skipped
+// and the log split there (issue 17, item 5), whichever column holds it;
+// a NaN in an unselected column is nothing; the other rows are read as
+// they are (hand-made rows: the expected values are the rows themselves).
+func TestReadCSVNaNSplits(t *testing.T) {
+	in := rowsCSV("time,command,rate,other", 300, func(i int) string {
+		switch i {
+		case 30:
+			return "0.03,NaN,1,0"
+		case 31:
+			return "0.031,1,nan,0"
+		case 200:
+			return "NaN,1,1,0"
+		case 250:
+			return goodRow(i) + ",NaN"
+		}
+		return goodRow(i) + ",0"
+	})
+	l, err := ReadCSV(strings.NewReader(in), "x.csv", DefaultColumns())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(l.Time) != 297 || l.Dropped != 3 {
+		t.Fatalf("%d samples, %d dropped; want 297, 3", len(l.Time), l.Dropped)
+	}
+	// Rows 0..29 are samples 0..29; rows 32..199 samples 30..197; rows
+	// 201.. samples 198..
+	if want := []int{30, 198}; len(l.Breaks) != 2 || l.Breaks[0] != want[0] || l.Breaks[1] != want[1] {
+		t.Errorf("breaks %v, want %v", l.Breaks, want)
+	}
+	if l.Time[30] != 0.032 || l.Line[30] != 34 || l.Time[198] != 0.201 {
+		t.Errorf("sample 30 at %g (line %d), sample 198 at %g; want 0.032 (line 34), 0.201", l.Time[30], l.Line[30], l.Time[198])
+	}
+}
+
+// TestNaNRowSplitsFit: a NaN row in the middle of a simulated log gives a
+// fit with one segment more than without it (the parts are never
+// interpolated across), a note saying so, and the simulated truth within
+// 5 %, like the log without the row (the truth is the model's own
+// simulation).
+func TestNaNRowSplitsFit(t *testing.T) {
+	const T = 0.001
+	rng := rand.New(rand.NewPCG(3, 9))
+	u := excitation(rng, 20000, T, 0.3)
+	y := simulateTruth(u, T, 2400, 0.03, 0.002, 0)
+	l := synthLog(rng, u, y, T, 0.5, 30)
+	var b strings.Builder
+	b.WriteString("time,command,rate\n")
+	for i := range l.Time {
+		if i == 5000 {
+			b.WriteString("0.5,NaN,NaN\n")
+			continue
+		}
+		fmt.Fprintf(&b, "%s,%s,%s\n", fmtG(l.Time[i]), fmtG(l.Command[i]), fmtG(l.Rate[i]))
+	}
+	read, err := ReadCSV(strings.NewReader(b.String()), "nan.csv", DefaultColumns())
+	if err != nil {
+		t.Fatal(err)
+	}
+	with, err := Identify(read, DefaultOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	without, err := Identify(l, DefaultOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if with.Segments != without.Segments+1 {
+		t.Errorf("%d segments with the NaN row, %d without; want one more", with.Segments, without.Segments)
+	}
+	if !strings.Contains(strings.Join(with.Notes, "\n"), "1 row(s) with NaN skipped") {
+		t.Errorf("no note of the NaN row: %q", with.Notes)
+	}
+	if math.Abs(with.Effectiveness.Value/2400-1) > 0.05 || math.Abs(with.MotorTau.Value/0.03-1) > 0.05 {
+		t.Errorf("effectiveness %g, motor_tau %g; simulated 2400, 0.03", with.Effectiveness.Value, with.MotorTau.Value)
+	}
+}
+
+// TestReadCSVDelimiterRateScale: a semicolon-separated log is read with
+// Delimiter ';', and RateScale multiplies the rate (π/180: °/s to rad/s,
+// from memory); the excitation column is read when named.
+func TestReadCSVDelimiterRateScale(t *testing.T) {
+	in := rowsCSV("time;command;rate;x", 250, func(i int) string {
+		return fmt.Sprintf("%de-3;%g;%g;%d", i, math.Sin(float64(i)/10), 180.0, i%3)
+	})
+	l, err := ReadCSV(strings.NewReader(in), "x.csv", Columns{Time: "time", Command: "command", Rate: "rate", Excitation: "x", Delimiter: ';', RateScale: math.Pi / 180})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if math.Abs(l.Rate[7]-math.Pi) > 1e-15 || l.Excitation[7] != 1 {
+		t.Errorf("rate %g, excitation %g; want π, 1", l.Rate[7], l.Excitation[7])
+	}
+	if _, err := ReadCSV(strings.NewReader(in), "x.csv", DefaultColumns()); err == nil || !strings.Contains(err.Error(), "--delimiter") {
+		t.Errorf("a ';' log read with ',' : %v; want a hint at --delimiter", err)
+	}
+}
+
 // TestReadCSVErrors checks each kind of bad input: an *InputError whose
 // message names the file and the line and says what is wrong.
 func TestReadCSVErrors(t *testing.T) {
@@ -65,12 +164,20 @@ func TestReadCSVErrors(t *testing.T) {
 			}
 			return goodRow(i)
 		}), `x.csv:22: column "rate": "" is not a finite number`},
-		{"NaN", rowsCSV(hdr, 300, func(i int) string {
+		{"Inf", rowsCSV(hdr, 300, func(i int) string {
 			if i == 30 {
-				return "0.03,NaN,1"
+				return "0.03,Inf,1"
 			}
 			return goodRow(i)
-		}), `x.csv:32: column "command": "NaN" is not a finite number`},
+		}), `x.csv:32: column "command": "Inf" is not a finite number`},
+		{"few changes", rowsCSV(hdr, 300, func(i int) string {
+			v := 0.0
+			if i >= 100 && i < 120 {
+				v = 0.3
+			}
+			return fmt.Sprintf("%de-3,%g,0", i, v)
+		}), `x.csv:2: column "command" changes value only 2 time(s) over 300 rows (to line 301), fewer than the 4 the fit needs: too little excitation; the log must excite the axis`},
+		{"no excitation column", rowsCSV(hdr, 300, goodRow), `no excitation column "x" in the header`},
 		{"short row", rowsCSV(hdr, 300, func(i int) string {
 			if i == 40 {
 				return "0.04,1"
@@ -101,7 +208,11 @@ func TestReadCSVErrors(t *testing.T) {
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			l, err := ReadCSV(strings.NewReader(c.in), "x.csv", DefaultColumns())
+			cols := DefaultColumns()
+			if c.name == "no excitation column" {
+				cols.Excitation = "x"
+			}
+			l, err := ReadCSV(strings.NewReader(c.in), "x.csv", cols)
 			if err == nil {
 				t.Fatalf("accepted (%d samples)", len(l.Time))
 			}
@@ -161,6 +272,12 @@ func FuzzReadCSV(f *testing.F) {
 	f.Add([]byte(rowsCSV("time,command,rate", 250, func(i int) string {
 		return strconv.Itoa(i*i) + ",1e-300," + strconv.Itoa(i)
 	})))
+	f.Add([]byte(rowsCSV("time,command,rate", 250, func(i int) string {
+		if i%50 == 7 {
+			return "NaN,1,2"
+		}
+		return goodRow(i)
+	})))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		l, err := ReadCSV(strings.NewReader(string(data)), "fuzz.csv", DefaultColumns())
 		if err != nil {
@@ -172,6 +289,11 @@ func FuzzReadCSV(f *testing.F) {
 		n := len(l.Time)
 		if n < MinSamples || len(l.Command) != n || len(l.Rate) != n || len(l.Line) != n {
 			t.Fatalf("accepted a log of inconsistent length %d", n)
+		}
+		for i, b := range l.Breaks {
+			if b <= 0 || b >= n || i > 0 && b <= l.Breaks[i-1] {
+				t.Fatalf("breaks %v out of order or range for %d samples", l.Breaks, n)
+			}
 		}
 		for i := range l.Time {
 			for _, v := range []float64{l.Time[i], l.Command[i], l.Rate[i]} {
@@ -215,5 +337,13 @@ func FuzzIdentify(f *testing.F) {
 			return
 		}
 		_ = r.TOML("roll", "fuzz")
+		// The modes on whatever was fitted: an error is fine, a bug not.
+		if mr, err := r.FitModes(2); err != nil {
+			if errors.Is(err, ErrInternal) {
+				t.Fatal(err)
+			}
+		} else {
+			_ = mr.TOML("roll", r, r.CrossoverEstimate(), "estimated")
+		}
 	})
 }

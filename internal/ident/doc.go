@@ -45,7 +45,8 @@
 // the command is averaged over each new interval (which keeps its
 // integral, and so the integrating plant's response, right), the rate is
 // interpolated linearly. Intervals longer than five median intervals are
-// gaps: each part is fitted with its own initial state. A row lost from an
+// gaps: each part is fitted with its own initial state, and so is each
+// part between rows that hold NaN (ReadCSV skips them). A row lost from an
 // otherwise regular log is interpolated over, and the command it carried
 // is unknown: with an integrating plant its error persists to the end of
 // the segment, so logs that lose many rows fit worse. Samples where the
@@ -64,6 +65,14 @@
 // doublets of a few samples and frequency sweeps, with a zero-mean command
 // so that the rate does not wander (a wandering rate's slow power hides the
 // fast content at a given noise level).
+//
+// Frequency response and modes. Result.FitModes estimates the frequency
+// response of the fitted and the held-out samples separately (Welch,
+// freq.go; H1 for an open-loop log, the indirect Pry/Pru with an
+// injected excitation), each stretch between breaks on its own, and fits
+// lightly damped modes on top of the identified model (modes.go); the
+// held-out estimate confirms or drops each. ModeReport.TOML prints them,
+// the plant with them in zpk form and the notches they call for.
 //
 // Determinism. The result is a pure function of the log and the options:
 // no randomness, a fixed order of summation, and explicit float64

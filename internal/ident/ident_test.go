@@ -123,7 +123,7 @@ func TestResample(t *testing.T) {
 		y[i] = 3 + 1000*tm[i]
 	}
 	p := &data{}
-	resample(p, tm, u, y, 0.001)
+	resample(p, tm, u, y, u, 0.001)
 	wantU := []float64{1, 1.9, 3, 3.9, 5}
 	if len(p.t) != 5 {
 		t.Fatalf("%d grid points, want 5", len(p.t))
@@ -131,6 +131,11 @@ func TestResample(t *testing.T) {
 	for k := range p.t {
 		if math.Abs(p.t[k]-float64(k)*0.001) > 1e-15 || math.Abs(p.u[k]-wantU[k]) > 1e-12 || math.Abs(p.y[k]-(3+float64(k))) > 1e-12 {
 			t.Errorf("k=%d: t %g u %g y %g; want %g %g %g", k, p.t[k], p.u[k], p.y[k], float64(k)*0.001, wantU[k], 3+float64(k))
+		}
+		// The excitation, given here as the command itself, is averaged
+		// the same way (the hand-worked wantU).
+		if math.Abs(p.r[k]-wantU[k]) > 1e-12 {
+			t.Errorf("k=%d: excitation %g, want %g", k, p.r[k], wantU[k])
 		}
 	}
 }

@@ -109,6 +109,10 @@ type Result struct {
 	// 1 fitted, 2 held out.
 	Time, Measured, Fitted []float64
 	Used                   []int8
+	// Command and Excitation are the prepared command and injected
+	// excitation (nil without one), on Time: the frequency-response
+	// estimate (Result.Estimate) is made from them.
+	Command, Excitation []float64
 
 	// Evaluations counts cost evaluations (for benchmarks).
 	Evaluations int
@@ -225,6 +229,7 @@ func Identify(l *Log, opt Options) (res *Result, err error) {
 	// Fitted output for the plot.
 	n := len(p.t)
 	res.Time, res.Measured, res.Used = p.t, p.y, make([]int8, n)
+	res.Command, res.Excitation = p.u, p.r
 	res.Fitted = make([]float64, n)
 	for i := range res.Fitted {
 		res.Fitted[i] = math.NaN()

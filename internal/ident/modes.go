@@ -494,8 +494,62 @@ func (ms modeShape) start(d ratioData, th []float64, zeros bool) []float64 {
 // the modes kept, in order of frequency, and a note for each candidate
 // the data could not support.
 func FitModes(fit Estimate, held *Estimate, opt ModeOptions) ([]Mode, []string, error) {
+	mf, err := FitModesDetail(fit, held, opt)
+	if err != nil {
+		return nil, nil, err
+	}
+	return mf.Modes, mf.Notes, nil
+}
+
+// ModeFit is the result of FitModesDetail: the modes and notes of
+// FitModes, and the nuisance terms of the fit, the delay correction δ
+// (s) and the gain factor c: the fitted plant is c·Plant·ΠFᵢ with the
+// delay Delay + δ. They say how much of the low-order model's delay and
+// gain the modes took over (a mode's phase below its frequency looks like
+// delay to a low-order fit).
+type ModeFit struct {
+	Modes               []Mode
+	Notes               []string
+	DelayCorr, GainCorr float64
+}
+
+// FitModesDetail is FitModes with the nuisance terms of the fit.
+func FitModesDetail(fit Estimate, held *Estimate, opt ModeOptions) (*ModeFit, error) {
+	modes, notes, ms, th, d, err := fitModes(fit, held, opt)
+	if err != nil {
+		return nil, err
+	}
+	mf := &ModeFit{Modes: modes, Notes: notes, GainCorr: 1}
+	if th != nil {
+		mf.DelayCorr = th[0]
+		if g := ms.response(d, th, nil); g != nil {
+			var num, den float64
+			for k := range d.w {
+				a := complex(d.s[k], 0) * g[k]
+				b := complex(d.s[k], 0) * d.r[k]
+				num += real(cmplx.Conj(a) * b)
+				den += real(cmplx.Conj(a) * a)
+			}
+			if den > 0 {
+				mf.GainCorr = num / den
+			}
+		}
+	}
+	return mf, nil
+}
+
+// fitModes is FitModes; it also returns the final shape, θ and the data
+// (θ nil when no fit was made).
+func fitModes(fit Estimate, held *Estimate, opt ModeOptions) ([]Mode, []string, modeShape, []float64, ratioData, error) {
+	var ms modeShape
+	var th []float64
+	var d ratioData
+	done := func(m modeShape, t []float64, jac *mat.Dense, d ratioData, dh ratioData, chi float64, notes []string) ([]Mode, []string, modeShape, []float64, ratioData, error) {
+		modes, notes, err := finish(m, t, jac, d, dh, chi, notes)
+		return modes, notes, m, t, d, err
+	}
 	if len(opt.Plant.Poles) == 0 || !(opt.T > 0) {
-		return nil, nil, fmt.Errorf("modes: no low-order model or sample period")
+		return nil, nil, ms, nil, d, fmt.Errorf("modes: no low-order model or sample period")
 	}
 	if opt.MaxModes == 0 {
 		opt.MaxModes = 2
@@ -503,9 +557,9 @@ func FitModes(fit Estimate, held *Estimate, opt ModeOptions) ([]Mode, []string, 
 	if opt.MinCoherence == 0 {
 		opt.MinCoherence = 0.5
 	}
-	d := newRatio(fit, opt)
+	d = newRatio(fit, opt)
 	if len(d.w) < 20 {
-		return nil, []string{fmt.Sprintf("no mode fitted: %d frequencies with coherence ≥ %g, at least 20 needed (excite a wider band, or log longer)", len(d.w), opt.MinCoherence)}, nil
+		return nil, []string{fmt.Sprintf("no mode fitted: %d frequencies with coherence ≥ %g, at least 20 needed (excite a wider band, or log longer)", len(d.w), opt.MinCoherence)}, ms, nil, d, nil
 	}
 	var dh ratioData
 	if held != nil {
@@ -513,7 +567,7 @@ func FitModes(fit Estimate, held *Estimate, opt ModeOptions) ([]Mode, []string, 
 	}
 	var notes []string
 	kx, kw := hannKernel()
-	ms := modeShape{opt: &opt, kx: kx, kw: kw}
+	ms = modeShape{opt: &opt, kx: kx, kw: kw}
 	th, chi, jac := ms.levenberg(d, []float64{0})
 	for len(ms.zeros) < opt.MaxModes {
 		// The pole pair alone, and with a zero pair, each from the best
@@ -536,17 +590,17 @@ func FitModes(fit Estimate, held *Estimate, opt ModeOptions) ([]Mode, []string, 
 		switch {
 		case chi-c1 <= modeChi2:
 			notes = append(notes, fmt.Sprintf("no further mode: the best pole pair (%.4g Hz, damping %.3g) lowers χ² by %.3g, less than %.3g, the 99.9 %% point for two more parameters", hz, z, chi-c1, modeChi2))
-			return finish(ms, th, jac, d, dh, chi, notes)
+			return done(ms, th, jac, d, dh, chi, notes)
 		case z >= MaxModeDamping:
 			notes = append(notes, fmt.Sprintf("no further lightly damped mode: the best pole pair (%.4g Hz) has damping %.3g ≥ %g", hz, z, MaxModeDamping))
-			return finish(ms, th, jac, d, dh, chi, notes)
+			return done(ms, th, jac, d, dh, chi, notes)
 		case math.Exp(t1[i]) <= d.w[0]*1.05 || math.Exp(t1[i]) >= d.w[len(d.w)-1]/1.05:
 			notes = append(notes, fmt.Sprintf("no further mode: the best pole pair (%.4g Hz) lies at the edge of the coherent band %.4g–%.4g Hz, where the data cannot place it", hz, d.w[0]/(2*math.Pi), d.w[len(d.w)-1]/(2*math.Pi)))
-			return finish(ms, th, jac, d, dh, chi, notes)
+			return done(ms, th, jac, d, dh, chi, notes)
 		}
 		ms, th, chi, jac = next, t1, c1, j1
 	}
-	return finish(ms, th, jac, d, dh, chi, notes)
+	return done(ms, th, jac, d, dh, chi, notes)
 }
 
 // finish computes the intervals (from jac, the Jacobian of the weighted

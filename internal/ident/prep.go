@@ -63,6 +63,8 @@ type segment struct {
 type data struct {
 	T       float64
 	t, u, y []float64
+	// r is the excitation (nil without one), prepared as the command.
+	r []float64
 	// used: 0 excluded (saturated, or a segment too short), 1 fit,
 	// 2 held out.
 	used  []int8
@@ -90,11 +92,23 @@ func prepare(l *Log, sat Saturation, holdout float64) (*data, error) {
 		}
 		return 0
 	}
+	if l.Excitation != nil && len(l.Excitation) != n {
+		return nil, &InputError{File: name, Msg: fmt.Sprintf("the excitation has %d samples, the log %d", len(l.Excitation), n)}
+	}
+	for i, b := range l.Breaks {
+		if b <= 0 || b >= n || i > 0 && b <= l.Breaks[i-1] {
+			return nil, &InputError{File: name, Msg: fmt.Sprintf("break %d at sample %d: breaks must increase strictly within (0, %d)", i, b, n)}
+		}
+	}
 	if n < MinSamples {
 		return nil, &InputError{File: name, Line: line(n - 1), Msg: fmt.Sprintf("only %d samples; at least %d are needed to identify the plant", n, MinSamples)}
 	}
 	for i := 0; i < n; i++ {
-		for _, v := range [3]float64{l.Time[i], l.Command[i], l.Rate[i]} {
+		x := 0.0
+		if l.Excitation != nil {
+			x = l.Excitation[i]
+		}
+		for _, v := range [4]float64{l.Time[i], l.Command[i], l.Rate[i], x} {
 			if math.IsNaN(v) || math.IsInf(v, 0) {
 				return nil, &InputError{File: name, Line: line(i), Msg: fmt.Sprintf("sample %d is not finite", i)}
 			}
@@ -127,8 +141,14 @@ func prepare(l *Log, sat Saturation, holdout float64) (*data, error) {
 	var runs [][2]int
 	start, jitter := 0, 0.0
 	gapLo, gapHi := math.Inf(1), 0.0
+	brk := make([]bool, n) // brk[i]: sample i starts a part after a NaN row
+	for _, b := range l.Breaks {
+		if b > 0 && b < n {
+			brk[b] = true
+		}
+	}
 	for i, d := range dt {
-		if d > gapFactor*T {
+		if d > gapFactor*T || brk[i+1] {
 			runs = append(runs, [2]int{start, i + 1})
 			start = i + 1
 			continue
@@ -140,11 +160,18 @@ func prepare(l *Log, sat Saturation, holdout float64) (*data, error) {
 	}
 	runs = append(runs, [2]int{start, n})
 
-	p := &data{T: T, gaps: len(runs) - 1}
+	p := &data{T: T, gaps: len(runs) - 1 - len(l.Breaks)}
+	// starts are the prepared indices where a run begins.
+	var starts []int
 	if jitter > jitterTol {
 		p.resampled = true
 		for _, r := range runs {
-			resample(p, l.Time[r[0]:r[1]], l.Command[r[0]:r[1]], l.Rate[r[0]:r[1]], T)
+			starts = append(starts, len(p.t))
+			var x []float64
+			if l.Excitation != nil {
+				x = l.Excitation[r[0]:r[1]]
+			}
+			resample(p, l.Time[r[0]:r[1]], l.Command[r[0]:r[1]], l.Rate[r[0]:r[1]], x, T)
 		}
 		p.notes = append(p.notes, fmt.Sprintf("timestamps are irregular (intervals %s to %s s): resampled to the median interval %s s (command averaged over each interval, rate interpolated linearly)",
 			fmtSig(gapLo, 4), fmtSig(gapHi, 4), fmtSig(T, 6)))
@@ -152,6 +179,10 @@ func prepare(l *Log, sat Saturation, holdout float64) (*data, error) {
 		p.t = slices.Clone(l.Time)
 		p.u = slices.Clone(l.Command)
 		p.y = slices.Clone(l.Rate)
+		p.r = slices.Clone(l.Excitation)
+		for _, r := range runs {
+			starts = append(starts, r[0])
+		}
 	}
 	// Run boundaries in the prepared arrays: a new run starts wherever the
 	// time step is a gap.
@@ -160,13 +191,16 @@ func prepare(l *Log, sat Saturation, holdout float64) (*data, error) {
 	if N > 0 {
 		bound[0] = true
 	}
-	for i := 1; i < N; i++ {
-		if p.t[i]-p.t[i-1] > gapFactor*T {
+	for _, i := range starts {
+		if i < N {
 			bound[i] = true
 		}
 	}
 	if p.gaps > 0 {
 		p.notes = append(p.notes, fmt.Sprintf("%d gap(s) longer than %g sample intervals: each part is fitted with its own initial state", p.gaps, gapFactor))
+	}
+	if l.Dropped > 0 {
+		p.notes = append(p.notes, fmt.Sprintf("%d row(s) with NaN skipped: the log is split there into %d part(s) more, each fitted with its own initial state", l.Dropped, len(l.Breaks)))
 	}
 
 	// Saturation.
@@ -215,7 +249,7 @@ func prepare(l *Log, sat Saturation, holdout float64) (*data, error) {
 // command edges by up to the jitter, and the rate integrates those
 // errors into a drift that grows along the whole segment. The rate, a
 // sample of a continuous signal, is interpolated linearly at t_k.
-func resample(p *data, t, u, y []float64, T float64) {
+func resample(p *data, t, u, y, r []float64, T float64) {
 	if len(t) == 0 {
 		return
 	}
@@ -252,6 +286,9 @@ func resample(p *data, t, u, y []float64, T float64) {
 		p.t = append(p.t, tk)
 		p.u = append(p.u, area/T)
 		p.y = append(p.y, yk)
+		if r != nil {
+			p.r = append(p.r, average(t, r, tk, T))
+		}
 	}
 }
 
@@ -304,4 +341,29 @@ func saturated(u []float64, sat Saturation) []bool {
 	mark(func(v float64) bool { return v >= hi-tol })
 	mark(func(v float64) bool { return v <= lo+tol })
 	return bad
+}
+
+// average returns the mean over [tk, tk+T) of x held from each timestamp
+// of t to the next, as resample averages the command (an excitation is
+// added to the command, so it is prepared the same way).
+func average(t, x []float64, tk, T float64) float64 {
+	c, _ := slices.BinarySearch(t, tk)
+	if c == len(t) || t[c] > tk {
+		c--
+	}
+	c = max(c, 0)
+	end := tk + T
+	var area float64
+	for at := tk; at < end; {
+		next := end
+		if c+1 < len(t) && t[c+1] < end {
+			next = t[c+1]
+		}
+		area += float64(x[c] * (next - at))
+		at = next
+		if at < end {
+			c++
+		}
+	}
+	return area / T
 }
