@@ -71,7 +71,10 @@ each is fitted, and the nominal plant and the [axes.NAME.envelope] that
 covers every log's 95 % intervals are printed, with the per-log
 estimates as comments (modes are fitted on a single log only).
 
-With -o DIR the plots are written there: the measured and fitted rate,
+With -o DIR the TOML goes into DIR as <axis>_identified.toml instead of
+standard output (-o names where a verb's output goes, on every verb);
+progress and notes go to stderr. With --plots DIR the plots are written
+there: the measured and fitted rate,
 and the frequency-response estimate (magnitude, phase, coherence) with
 the model, without and with the modes, over it.
 
@@ -85,7 +88,8 @@ Examples:
       --command pid_pitch --rate gyro_pitch --rate-unit deg/s \
       flight.csv >> ridgeback.toml
   locusmith identify --excitation inject --modes 2 closed_loop.csv
-  locusmith identify --sensor --holdout 0.3 -o plots bench_roll.csv
+  locusmith identify --sensor --holdout 0.3 --plots plots bench_roll.csv
+  locusmith identify --axis pitch -o identified flight.csv
   locusmith identify --delimiter ';' --saturation=-0.5,0.5 flight.csv
   locusmith identify full.csv half.csv low_battery.csv
 
@@ -120,7 +124,8 @@ func runIdentify(args []string, stdout, stderr io.Writer) int {
 	maxDelay := fs.Float64("max-delay", ident.DefaultMaxDelay, "largest delay searched, s (up to 0.5)")
 	modes := fs.Int("modes", 2, "most lightly damped modes fitted above the low-order model (0 to 4; 0: none)")
 	crossover := fs.Float64("crossover-hz", 0, "crossover the notch suggestions are judged against, Hz (0: estimated, 1/(2π·(motor_tau + delay + gyro lag)))")
-	outDir := fs.StringP("output", "o", "", "write the plots into this directory: <axis>_identify.svg (measured vs fitted rate, residual; <axis>_identify_K.svg for the K-th of several logs) and, with modes, <axis>_frequency.svg (the frequency-response estimate with the model over it)")
+	toDir := fs.StringP("output", "o", "", "write the TOML into this directory as <axis>_identified.toml instead of standard output (created if missing), as every verb's -o names where its output goes")
+	outDir := fs.String("plots", "", "write the plots into this directory: <axis>_identify.svg (measured vs fitted rate, residual; <axis>_identify_K.svg for the K-th of several logs) and, with modes, <axis>_frequency.svg (the frequency-response estimate with the model over it)")
 	if done, code := parseFlags(fs, help, args, identifyHelp, stdout, stderr); done {
 		return code
 	}
@@ -203,8 +208,7 @@ func runIdentify(args []string, stdout, stderr io.Writer) int {
 		if *modes > 0 {
 			fmt.Fprintln(stderr, "locusmith identify: modes are fitted on one log at a time: run identify on a single log for them")
 		}
-		io.WriteString(stdout, unitNote+rng.TOML(*axis))
-		return exitOK
+		return identifyOutput(*toDir, *axis, unitNote+rng.TOML(*axis), stdout, stderr)
 	}
 	res := results[0]
 	out := unitNote + res.TOML(*axis, names[0])
@@ -233,7 +237,22 @@ func runIdentify(args []string, stdout, stderr io.Writer) int {
 			}
 		}
 	}
-	io.WriteString(stdout, out)
+	return identifyOutput(*toDir, *axis, out, stdout, stderr)
+}
+
+// identifyOutput prints the TOML on stdout, or with -o DIR writes it into
+// DIR as <axis>_identified.toml through the one file writer.
+func identifyOutput(dir, axis, toml string, stdout, stderr io.Writer) int {
+	if dir == "" {
+		io.WriteString(stdout, toml)
+		return exitOK
+	}
+	file := axis + "_identified.toml"
+	if err := writeFiles(dir, []emit.Source{{Name: file, Data: []byte(toml)}}); err != nil {
+		fmt.Fprintf(stderr, "locusmith identify: %s\n", shown(err.Error()))
+		return exitUsage
+	}
+	fmt.Fprintf(stderr, "locusmith identify: wrote %s\n", shown(filepath.Join(dir, file)))
 	return exitOK
 }
 

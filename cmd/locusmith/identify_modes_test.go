@@ -59,7 +59,7 @@ func TestIdentifyFrameMode(t *testing.T) {
 	tm, u, y, r := simLog(t, modeTruth, 1000, 30000, 0.008, 0.05, 0.02, 1)
 	path := writeSimCSV(t, t.TempDir(), "frame.csv", ",", 1, tm, u, y, r)
 	plots := t.TempDir()
-	code, out, errs := runCLI(t, "identify", "--excitation", "exc", "-o", plots, path)
+	code, out, errs := runCLI(t, "identify", "--excitation", "exc", "--plots", plots, path)
 	if code != exitOK {
 		t.Fatalf("exit %d\n%s", code, errs)
 	}

@@ -76,7 +76,7 @@ func identifyLog(t *testing.T, eff, tau float64, d int, seconds float64) string 
 func TestIdentifyRoundTrip(t *testing.T) {
 	log := identifyLog(t, 2400, 0.03, 2, 20)
 	dir := t.TempDir()
-	code, out, errs := runCLI(t, "identify", "--axis", "roll", "-o", dir, log)
+	code, out, errs := runCLI(t, "identify", "--axis", "roll", "--plots", dir, log)
 	if code != exitOK {
 		t.Fatalf("exit %d\n%s", code, errs)
 	}
@@ -205,5 +205,35 @@ func TestIdentifyHelp(t *testing.T) {
 		if !strings.Contains(out, want) {
 			t.Errorf("help lacks %q", want)
 		}
+	}
+}
+
+// TestIdentifyOutputDir: -o DIR means where the verb's output goes, as on
+// emit and report: the TOML is written into DIR as <axis>_identified.toml
+// (the same bytes it prints without -o), nothing goes to stdout, and the
+// plots need their own --plots.
+func TestIdentifyOutputDir(t *testing.T) {
+	log := identifyLog(t, 2400, 0.03, 2, 20)
+	_, printed, _ := runCLI(t, "identify", "--axis", "pitch", "--modes", "0", log)
+	dir := filepath.Join(t.TempDir(), "out")
+	code, out, errs := runCLI(t, "identify", "--axis", "pitch", "--modes", "0", "-o", dir, log)
+	if code != exitOK {
+		t.Fatalf("exit %d\n%s", code, errs)
+	}
+	if out != "" {
+		t.Errorf("stdout with -o: %q", out)
+	}
+	data, err := os.ReadFile(filepath.Join(dir, "pitch_identified.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if string(data) != printed {
+		t.Errorf("the file differs from what identify prints:\n%s\n---\n%s", data, printed)
+	}
+	if !strings.Contains(errs, "wrote "+filepath.Join(dir, "pitch_identified.toml")) {
+		t.Errorf("stderr does not say what was written:\n%s", errs)
+	}
+	if ents, _ := os.ReadDir(dir); len(ents) != 1 {
+		t.Errorf("%d files in %s, want the TOML alone (plots take --plots)", len(ents), dir)
 	}
 }
