@@ -221,7 +221,7 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "locusmith emit: removed %s, a temporary file an interrupted run left\n", shown(filepath.Join(*out, t)))
 	}
 	for _, w := range written {
-		fmt.Fprintf(stdout, "wrote %s\n", shown(filepath.Join(*out, w)))
+		fmt.Fprintf(stderr, "wrote %s\n", shown(filepath.Join(*out, w)))
 	}
 	if err != nil {
 		fmt.Fprintf(stderr, "locusmith emit: %s\n", shown(err.Error()))

@@ -188,7 +188,7 @@ func runReport(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "locusmith report: removed %s, a temporary file an interrupted run left\n", shown(filepath.Join(*out, t)))
 	}
 	for _, d := range dones {
-		fmt.Fprintf(stdout, "%s: wrote %s (%d plots) in %s\n", shown(d.path), d.page, d.plots, shown(*out))
+		fmt.Fprintf(stderr, "%s: wrote %s (%d plots) in %s\n", shown(d.path), d.page, d.plots, shown(*out))
 	}
 	for _, d := range dones {
 		for _, msg := range d.unmet {

@@ -23,8 +23,8 @@ func TestReportHTML(t *testing.T) {
 		if code != exitOK {
 			t.Fatalf("report --html: exit %d\n%s", code, errs)
 		}
-		if !strings.Contains(out, "burrow.md and burrow.html") {
-			t.Errorf("stdout %q does not name the page", out)
+		if !strings.Contains(errs, "burrow.md and burrow.html") || out != "" {
+			t.Errorf("stderr %q does not name the page, or stdout %q is not empty", errs, out)
 		}
 		b, err := os.ReadFile(filepath.Join(dir, "burrow.html"))
 		if err != nil {
