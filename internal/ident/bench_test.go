@@ -48,3 +48,33 @@ func BenchmarkIdentify(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkIdentifyModes is the whole of identify with modes on a 60 s
+// closed-loop log at 1 kHz of a plant with a 60 Hz frame mode (the
+// issue's target: at most 2 s, memory in proportion to the samples kept):
+// the low-order fit, the Welch spectra of the fitted and held-out parts
+// and the mode fit.
+func BenchmarkIdentifyModes(b *testing.B) {
+	const fs, n = 1000.0, 60000
+	p := modePlant{eff: 2400, tau: 0.02, delay: 0.002, hz: 60, zeta: 0.05}
+	u, y, r := closedLog(b, rand.New(rand.NewPCG(5, 7)), p, fs, n, 0.008, 0.05, 30)
+	l := &Log{File: "bench", Time: make([]float64, n), Command: u, Rate: y, Excitation: r}
+	for k := range n {
+		l.Time[k] = float64(k) / fs
+	}
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		res, err := Identify(l, Options{Holdout: 0.25})
+		if err != nil {
+			b.Fatal(err)
+		}
+		mr, err := res.FitModes(2)
+		if err != nil {
+			b.Fatal(err)
+		}
+		if len(mr.Modes) != 1 {
+			b.Fatalf("%d modes", len(mr.Modes))
+		}
+	}
+}
