@@ -865,6 +865,9 @@ func envMutations() []envMutation {
 // of the envelope against SciPy/NumPy (see the file's comment), and for
 // every axis that reports its spec met, SciPy's figures meet it too.
 func TestEnvelopeAgainstSciPy(t *testing.T) {
+	if testing.Short() {
+		t.Skip("rebuilds every example axis and its envelope in SciPy; skipped with -short (CI runs it)")
+	}
 	if _, err := pyref.Versions(); err != nil {
 		pyref.Run(t, "", nil, nil) // skips before designing, or fails under CI
 	}

@@ -172,6 +172,9 @@ window.addEventListener("load", function () {
 // Chromium: every figure must be laid out with a size and drawn (its
 // elements have extents), and a screenshot of the page must show ink.
 func TestHTMLInBrowser(t *testing.T) {
+	if testing.Short() {
+		t.Skip("loads the page in a browser; skipped with -short (CI runs it)")
+	}
 	bin := chromium(t)
 	files, err := Build(design(t, "../../examples/quadrotor.toml"))
 	if err != nil {

@@ -388,6 +388,9 @@ func checkLegendDrawn(t *testing.T, bp builtPlot) {
 // rsvg-convert (Debian's librsvg2-bin), as a reviewer's viewer would; it
 // is required under CI and skipped elsewhere when missing.
 func TestExamplePlotsRender(t *testing.T) {
+	if testing.Short() {
+		t.Skip("renders every plot with rsvg-convert; skipped with -short (CI runs it)")
+	}
 	bin, err := exec.LookPath("rsvg-convert")
 	if err != nil {
 		if os.Getenv("CI") == "true" {
