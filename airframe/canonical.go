@@ -63,23 +63,9 @@ func canonicalValue(b *strings.Builder, v any) {
 		}
 		b.WriteByte('}')
 	case []any:
-		b.WriteByte('[')
-		for i, e := range x {
-			if i > 0 {
-				b.WriteByte(',')
-			}
-			canonicalValue(b, e)
-		}
-		b.WriteByte(']')
+		canonicalList(b, len(x), func(i int) any { return x[i] })
 	case []map[string]any: // an array of tables, as some decoders give it
-		b.WriteByte('[')
-		for i, e := range x {
-			if i > 0 {
-				b.WriteByte(',')
-			}
-			canonicalValue(b, e)
-		}
-		b.WriteByte(']')
+		canonicalList(b, len(x), func(i int) any { return x[i] })
 	case string:
 		b.WriteString(strconv.Quote(x))
 	case bool:
@@ -104,4 +90,16 @@ func canonicalFloat(x float64) string {
 		return "-0"
 	}
 	return strconv.FormatFloat(x, 'g', -1, 64)
+}
+
+// canonicalList writes the n elements at(0) … at(n−1) as a list.
+func canonicalList(b *strings.Builder, n int, at func(int) any) {
+	b.WriteByte('[')
+	for i := range n {
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		canonicalValue(b, at(i))
+	}
+	b.WriteByte(']')
 }

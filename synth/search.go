@@ -861,7 +861,7 @@ func (sr *searcher) settleAll(c Controller) (float64, float64, error) {
 		if !c.Form.HasIntegral() && s.MaxSteadyError > 0 && math.Abs(1-e.Final1) > s.MaxSteadyError {
 			return c.B, math.Inf(1), nil
 		}
-		y0, y1, yb := make([]float64, e.N), make([]float64, e.N), make([]float64, e.N)
+		y0, y1 := make([]float64, e.N), make([]float64, e.N)
 		e.Respond(y0, y1)
 		for j, w := range sr.bs {
 			if !ok[j] {
@@ -872,10 +872,7 @@ func (sr *searcher) settleAll(c Controller) (float64, float64, error) {
 				ok[j] = false
 				continue
 			}
-			for k := range yb {
-				yb[k] = y0[k] + w*(y1[k]-y0[k])
-			}
-			st := lti.Settle(yb, e.H, f, s.Band)
+			st := weightedSettle(y0, y1, w, e.H, f, s.Band)
 			if !(st.Overshoot <= s.Overshoot) || !st.Settled {
 				ok[j] = false
 				continue

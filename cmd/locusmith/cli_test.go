@@ -673,6 +673,10 @@ func TestUsageErrors(t *testing.T) {
 		{[]string{"emit", "-o", ".", "--jobs", "-2", "x.toml"}, "--jobs -2: must be at least 1"},
 		{[]string{"report", "-o", ".", "-j", "0", "x.toml"}, "--jobs 0: must be at least 1"},
 		{[]string{"design", "-j", "many", "x.toml"}, "invalid argument"},
+		{[]string{"compare", "--tolerance", "0", "a.toml", "b.toml"}, "--tolerance 0: want a fraction of the limit in (0, 1]"},
+		{[]string{"compare", "--floor", "1.5", "a.toml", "b.toml"}, "--floor 1.5: want a fraction of the limit in (0, 1]"},
+		{[]string{"compare", "--tolerance", "NaN", "a.toml", "b.toml"}, "--tolerance NaN: want a fraction"},
+		{[]string{"compare", "a.toml"}, "want OLD and NEW, got 1 argument"},
 	}
 	for _, tc := range cases {
 		code, out, errs := runCLI(t, tc.args...)

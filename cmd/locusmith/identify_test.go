@@ -237,3 +237,29 @@ func TestIdentifyOutputDir(t *testing.T) {
 		t.Errorf("%d files in %s, want the TOML alone (plots take --plots)", len(ents), dir)
 	}
 }
+
+// TestIdentifyOutputDirUnwritable: -o naming a regular file (no directory
+// can be made there) is exit 2 with the path named, and nothing on stdout.
+func TestIdentifyOutputDirUnwritable(t *testing.T) {
+	log := identifyLog(t, 2400, 0.03, 2, 20)
+	blocker := filepath.Join(t.TempDir(), "file")
+	if err := os.WriteFile(blocker, []byte("x"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, out, errs := runCLI(t, "identify", "--modes", "0", "-o", blocker, log)
+	if code != exitUsage || out != "" || !strings.Contains(errs, blocker) {
+		t.Errorf("exit %d, stdout %q, stderr %q; want exit 2 naming %s", code, out, errs, blocker)
+	}
+}
+
+// TestIdentifyLogsDisagree: two logs of "one axis" whose effectiveness
+// differs 480-fold cannot be one plant's range (the envelope's scales stop
+// at ×0.1 and ×10): exit 1, the key named, nothing on stdout.
+func TestIdentifyLogsDisagree(t *testing.T) {
+	a := identifyLog(t, 2400, 0.03, 2, 20)
+	b := identifyLog(t, 5, 0.03, 2, 20)
+	code, out, errs := runCLI(t, "identify", a, b)
+	if code != exitUnmet || out != "" || !strings.Contains(errs, "gain_scale") {
+		t.Errorf("exit %d, stdout %q, stderr %q; want exit 1 naming gain_scale", code, out, errs)
+	}
+}
