@@ -292,6 +292,11 @@ func envAxes(t *testing.T) []envAxis {
 	for _, a := range envOwnAirframes {
 		srcs = append(srcs, src{a.name, a.toml})
 	}
+	// And the airframes of the brute-force reference (reference_test.go):
+	// every form, integrating and not, lightly damped, long delays.
+	for _, a := range refAirframes() {
+		srcs = append(srcs, src{a.name, a.toml})
+	}
 	var files []*airframe.File
 	for _, s := range srcs {
 		f, err := airframe.Parse(s.name, []byte(s.text))
