@@ -486,7 +486,11 @@ func specRows(d *discrete.Design) ([]Row, []string) {
 		if s.MaxNoiseGain > 0 {
 			note = "from the file"
 		}
-		rows = append(rows, Row{"noise gain", "≤ " + g4(nb), "command per rad/s, \\|C\\| between the crossover and Nyquist; " + note})
+		gain := "\\|C\\|"
+		if len(d.Plant.Sections) > 0 {
+			gain = "\\|C·F\\| (the controller behind the filter chain)"
+		}
+		rows = append(rows, Row{"noise gain", "≤ " + g4(nb), "command per rad/s, " + gain + " between the crossover and Nyquist; " + note})
 	}
 	rows = append(rows, Row{"plant envelope", envelopeText(d.Problem.Envelope), "every check holds at every plant of the box"})
 	var lines []string

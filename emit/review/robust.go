@@ -366,25 +366,8 @@ func sensitivityFigure(a *plotAxis) (*figure, error) {
 		lo = hi / 1e3
 	}
 	ws := logGrid(lo, hi, 800)
-	l := a.dloop
-	sDB, tDB, csDB, cDB := make([]float64, len(ws)), make([]float64, len(ws)), make([]float64, len(ws)), make([]float64, len(ws))
+	sDB, tDB, csDB, cDB, ms, wms, mt, wmt := sensitivityCurves(d, a.dloop, ws)
 	db := func(x float64) float64 { return float64(20 * math.Log10(x)) }
-	ms, wms, mt, wmt := 0.0, 0.0, 0.0, 0.0
-	for i, w := range ws {
-		L := l.at(w)
-		sn, cs := math.Sincos(w * l.T)
-		z := complex(cs, sn)
-		C := l.ctrl.Num.Eval(z) / l.ctrl.Den.Eval(z)
-		S := 1 / (1 + L)
-		sv, tv := cmplx.Abs(S), cmplx.Abs(L*S)
-		sDB[i], tDB[i], csDB[i], cDB[i] = db(sv), db(tv), db(cmplx.Abs(C*S)), db(cmplx.Abs(C))
-		if sv > ms {
-			ms, wms = sv, w
-		}
-		if tv > mt {
-			mt, wmt = tv, w
-		}
-	}
 	// The peaks as the verification refined them (between grid points).
 	if v := d.Envelope[0].Ms; isFinite(v) {
 		ms = v
@@ -431,8 +414,12 @@ func sensitivityFigure(a *plotAxis) (*figure, error) {
 
 	addLine(bottom, finiteXYs(ws, cDB), cSty)
 	addLine(bottom, finiteXYs(ws, csDB), csSty)
-	f.addSeen([]seen{lineIn(1, finiteXYs(ws, csDB))}, "|C·S|, measurement noise → command", thumbLine(csSty))
-	f.addSeen([]seen{lineIn(1, finiteXYs(ws, cDB))}, fmt.Sprintf("|C|, the controller alone: noise gain %s above the crossover", g(d.NoiseGain, 4)), thumbLine(cSty))
+	csName, cName := "|C·S|, measurement noise → command", "|C|, the controller alone"
+	if len(d.Plant.Sections) > 0 {
+		csName, cName = "|C·F·S|, measurement noise → command", "|C·F|, the controller behind the filter chain"
+	}
+	f.addSeen([]seen{lineIn(1, finiteXYs(ws, csDB))}, csName, thumbLine(csSty))
+	f.addSeen([]seen{lineIn(1, finiteXYs(ws, cDB))}, fmt.Sprintf("%s: noise gain %s above the crossover", cName, g(d.NoiseGain, 4)), thumbLine(cSty))
 	ymin, ymax := math.Inf(1), math.Inf(-1)
 	for _, v := range append(slices.Clone(csDB), cDB...) {
 		if isFinite(v) {
@@ -462,4 +449,31 @@ func sensitivityFigure(a *plotAxis) (*figure, error) {
 	f.add(fmt.Sprintf("Nyquist frequency π/T = %s", radsHz(ny)), thumbLine(nySty))
 	f.note = "1/Ms is the least distance of the loop's Nyquist curve to −1: the bound guarantees a gain margin of at least Ms/(Ms − 1) and a phase margin of at least 2·asin(1/(2·Ms))."
 	return f, nil
+}
+
+// sensitivityCurves returns, on ws, |S|, |T|, |C·F·S| and |C·F| in dB of
+// the nominal sampled loop l of design d (F the filter chain, 1 without
+// one), and the peaks of |S| and |T| on the grid with their frequencies.
+func sensitivityCurves(d *discrete.Design, l discreteLoop, ws []float64) (sDB, tDB, csDB, cDB []float64, ms, wms, mt, wmt float64) {
+	sDB, tDB, csDB, cDB = make([]float64, len(ws)), make([]float64, len(ws)), make([]float64, len(ws)), make([]float64, len(ws))
+	db := func(x float64) float64 { return float64(20 * math.Log10(x)) }
+	for i, w := range ws {
+		L := l.at(w)
+		sn, cs := math.Sincos(w * l.T)
+		z := complex(cs, sn)
+		// Measurement noise passes the filter chain before the
+		// controller: the noise gain is |C·F| (NoiseGain), and noise
+		// reaches the command through C·F·S.
+		C := l.ctrl.Num.Eval(z) / l.ctrl.Den.Eval(z) * d.Plant.Filter(z)
+		S := 1 / (1 + L)
+		sv, tv := cmplx.Abs(S), cmplx.Abs(L*S)
+		sDB[i], tDB[i], csDB[i], cDB[i] = db(sv), db(tv), db(cmplx.Abs(C*S)), db(cmplx.Abs(C))
+		if sv > ms {
+			ms, wms = sv, w
+		}
+		if tv > mt {
+			mt, wmt = tv, w
+		}
+	}
+	return sDB, tDB, csDB, cDB, ms, wms, mt, wmt
 }
