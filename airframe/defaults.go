@@ -251,10 +251,11 @@ const (
 
 	// MaxDelaySamples bounds the delay of the sampled loop in samples,
 	// compute_delay + (plant.delay + the high end of envelope.delay_add)
-	// · loop_hz: the closed loop carries one state per sample of delay,
-	// and its final verification (eigenvalues of the closed-loop matrix)
-	// costs the cube of the states. At both limits an axis designs in
-	// about 3 s of CPU time on the project's two-core machine (README,
+	// · loop_hz: a candidate of the search costs time linear in the
+	// delay, but the final verification's closed-loop poles are the
+	// eigenvalues of a matrix with one state per sample of delay, whose
+	// cost is the cube of the states. At both limits an axis designs in
+	// about 1 s of CPU time on the project's two-core machine (README,
 	// "Limits", with the measurements). A rate loop's delay is a few
 	// samples: 2-5 ms at 1-8 kHz is 2-40.
 	MaxDelaySamples = 256
@@ -263,7 +264,7 @@ const (
 	// 8 · settling_time · loop_hz samples (and 8 · disturbance_recovery ·
 	// loop_hz for the load step): the search simulates every candidate
 	// controller at every plant of the envelope over that horizon, so its
-	// cost grows with it. At both limits an axis designs in about 3 s
+	// cost grows with it. At both limits an axis designs in about 1 s
 	// (README, "Limits"). A rate loop settles in tens to
 	// hundreds of milliseconds: 0.15 s at 1 kHz is 1200 samples, 0.3 s at
 	// 8 kHz 19 200.

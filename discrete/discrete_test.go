@@ -972,6 +972,19 @@ func TestDCGainsMatchResolvent(t *testing.T) {
 			if math.Abs(g0-w0) > 1e-12*math.Abs(w0) || math.Abs(g1-w1) > 1e-12*math.Abs(w1) {
 				t.Errorf("%s d=%d: dcGains (%.15g, %.15g), resolvent (%.15g, %.15g)", form, d, g0, g1, w0, w1)
 			}
+			// The delay-free final values (finalValues) against the
+			// resolvent of the loop with its delay registers, for the
+			// compute delay alone and with whole samples of plant delay.
+			for _, whole := range []int{0, 5, 40} {
+				pd := pl
+				pd.Delay = whole
+				L0, L1 := newClosedLoop(pd, c0, d), newClosedLoop(pd, c1, d)
+				w0, w1 := resolvent(L0), resolvent(L1)
+				f0, f1 := finalValues(pd, c0, c1)
+				if math.Abs(f0-w0) > 1e-12*math.Abs(w0) || math.Abs(f1-w1) > 1e-12*math.Abs(w1) {
+					t.Errorf("%s d=%d, %d delay samples: finalValues (%.15g, %.15g), resolvent (%.15g, %.15g)", form, d, whole, f0, f1, w0, w1)
+				}
+			}
 		}
 	}
 	L := closedLoop{N: 2, A: []float64{1, 0, 0, 0.5}, B: []float64{1, 1}, Cy: []float64{1, 1}}
@@ -993,5 +1006,51 @@ func TestPairKernelsUpToDate(t *testing.T) {
 	}
 	if !bytes.Equal(got, want) {
 		t.Errorf("pairkernels_gen.go is stale: run %s", pairgen.Command)
+	}
+}
+
+// The stability test (Schur–Cohn up to maxSchurDegree, the winding number
+// beyond) against the eigenvalues of the closed-loop
+// state matrix (lti.Disc.Poles, checked against SciPy) on loops whose
+// slowest pole creeps towards z = 1 as the integral gain falls: an
+// integrating plant, long delays, and integral gains down to where the
+// slow pole is 1e-6 inside the circle and χ(1) is a few 1e-13. A stable
+// loop must not read as a root on the circle there; the threshold is
+// the rounding of Horner's evaluation (Higham, Accuracy and Stability of
+// Numerical Algorithms, §5.1, from memory), not a fixed fraction of the
+// coefficients.
+func TestStabilityMatchesEigenvaluesNearOne(t *testing.T) {
+	for _, D := range []int{4, 20, 50, 70, 255} {
+		for _, ki := range []float64{3e-3, 3e-4, 1e-4} {
+			p := demo(airframe.FormPID)
+			p.Plant.Delay = float64(D) / 8000
+			pl, err := NewPlant(p, 1.0/8000)
+			if err != nil {
+				t.Fatal(err)
+			}
+			c := synth.Controller{Form: airframe.FormPID, Kp: 0.003511, Ki: ki, Kd: 5.587e-05, Tf: 0.0001592, B: 1}
+			k, _, err := Realize(c, p.Ctrl, pl.T, math.NaN())
+			if err != nil {
+				t.Fatal(err)
+			}
+			ps, err := newClosedLoop(pl, linearize(k), 1).poles()
+			if err != nil {
+				t.Fatal(err)
+			}
+			m := stabilityMargin(ps)
+			if math.Abs(m) < 1e-9 {
+				t.Fatalf("D=%d ki=%g: the reference is undecided (margin %g)", D, ki, m)
+			}
+			nc, _, dc := k.TF()
+			if D+1+len(dc)+len(pl.den) > maxSchurDegree {
+				got := windingStable(lti.PolyMul(dc, pl.den).Trim(), lti.PolyMul(nc, pl.num).Trim(), D+1)
+				if got != (m > 0) {
+					t.Errorf("D=%d ki=%g: winding says stable %v, eigenvalues max |z| = 1 − %.3g", D, ki, got, m)
+				}
+			}
+			if got, err := stable(pl, k, 1); err != nil || got != (m > 0) {
+				t.Errorf("D=%d ki=%g: stable says %v (%v), eigenvalues max |z| = 1 − %.3g", D, ki, got, err, m)
+			}
+		}
 	}
 }

@@ -242,7 +242,7 @@ func cornerFigures(p airframe.Axis, c airframe.Corner, pl Plant, k Coeffs, d int
 	y := make([]float64, n)
 	simulate(pl, lin, d, y, nil)
 	f.Y = y
-	dc := newClosedLoop(pl, lin, d).dcGain()
+	dc, _ := finalValues(pl, lin, lin)
 	f.SteadyError = 1 - dc
 	f.Step = lti.StepMetrics(y, pl.T, dc, p.Spec.Band)
 	span := 8 * math.Max(p.Spec.SettlingTime, p.Spec.DisturbanceRecovery)

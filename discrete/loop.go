@@ -381,6 +381,18 @@ func (L closedLoop) dcGain() float64 {
 	return dc
 }
 
+// finalValues returns the final values of the true rate after a unit
+// setpoint step for the loops of c0 and c1 on plant pl (with any compute
+// delay), where c1 differs from c0 in its setpoint input alone (NaN where the
+// loop has a pole at z = 1). At z = 1 every delay is 1: in a steady state
+// each delay register holds the command, so the final values are those of
+// the loop without the delays, and their cost does not grow with the
+// delay (the delayed loop's elimination grows with its cube).
+func finalValues(pl Plant, c0, c1 linearCtrl) (float64, float64) {
+	pl.Delay = 0
+	return newClosedLoop(pl, c0, 0).dcGains(setpointInput(pl, c1, 0))
+}
+
 // dcGains returns the final values Cy (I − A)⁻¹ b of the true rate for the
 // loop's own input B and for b1 (a loop that differs only in the setpoint
 // input), by one real Gaussian elimination with both right-hand sides: the

@@ -232,9 +232,9 @@ func stable(pl Plant, k Coeffs, d int) (bool, error) {
 // (conjugate symmetry); χ has degree D + deg a (deg b ≤ that). The turn
 // is summed on 8 points per root of χ, and every step that turns by more
 // than 45° is split (recursively, 30 levels), so that a turn is never
-// aliased; a value of χ within rounding of zero is a root on the circle,
-// unstable. The cost grows linearly with D, where eigenvalues or the
-// Schur–Cohn recursion grow with D³ and D².
+// aliased; a value of χ within the rounding of its evaluation is a root
+// on the circle, unstable. The cost grows linearly with D, where
+// eigenvalues or the Schur–Cohn recursion grow with D³ and D².
 func windingStable(a, b lti.Poly, D int) bool {
 	n := D + len(a) - 1
 	if len(b)-1 > n || a[len(a)-1] == 0 {
@@ -251,7 +251,13 @@ func windingStable(a, b lti.Poly, D int) bool {
 		z := complexExp(th)
 		return a.Eval(z)*complexExp(float64(D)*th) + b.Eval(z)
 	}
-	tiny := 1e-13 * scale
+	// Horner's rounding on the unit circle is at most about 2·deg·u times
+	// the sum of the coefficients' magnitudes (Higham, Accuracy and
+	// Stability of Numerical Algorithms, §5.1, from memory), twice that
+	// for complex arithmetic; a value below the bound may be a root on
+	// the circle. A fixed 1e-13·scale called stable loops with a slow
+	// pole 1e-5 inside the circle unstable.
+	tiny := float64(4*(len(a)+len(b))+8) * 0x1p-53 * scale
 	var turn float64
 	ok := true
 	var split func(t0, t1 float64, v0, v1 complex128, depth int)
@@ -310,7 +316,7 @@ func (l *Loops) Step(c synth.Controller, i int) (synth.Evaluation, error) {
 	c1 := c0
 	c1.Dr = directSetpoint(k1)
 	e.N, e.H = horizon(l.p.Spec.SettlingTime, pl.T, nil, 4), pl.T
-	e.Final0, e.Final1 = newClosedLoop(pl, c0, l.d).dcGains(setpointInput(pl, c1, l.d))
+	e.Final0, e.Final1 = finalValues(pl, c0, c1)
 	e.Respond = newPairStepper(pl, c0, c1, l.d).run
 	return e, nil
 }

@@ -125,7 +125,7 @@ func verify(p airframe.Axis, pl Plant, k Coeffs, d int, maxStep float64) (Verifi
 	n := horizon(p.Spec.SettlingTime, pl.T, ps, 100)
 	v.Y, v.U = make([]float64, n), make([]float64, n)
 	simulate(pl, c, d, v.Y, v.U)
-	dc := L.dcGain()
+	dc, _ := finalValues(pl, c, c)
 	v.SteadyStateError = 1 - dc
 	v.Step = lti.StepMetrics(v.Y, pl.T, dc, p.Spec.Band)
 	if maxStep > 0 {

@@ -69,6 +69,15 @@ func (c Check) String() string {
 	if c.Worst != (airframe.Corner{}) && c.Worst != airframe.Nominal() {
 		where += ", " + CornerText(c.Worst)
 	}
+	if c.Name == "stable" && math.IsNaN(c.Value) {
+		// The winding-number test of a long delay gives a verdict, no
+		// radius.
+		s := "sampled loop unstable: a closed-loop pole on or outside the unit circle"
+		if where != "sampled loop" {
+			s += " (" + strings.TrimPrefix(where, "sampled loop, ") + ")"
+		}
+		return s
+	}
 	return fmt.Sprintf("%s %s %s %s (%s)", what, CheckValue(c.Name, c.Value), rel, CheckValue(c.Name, c.Limit), where)
 }
 
@@ -128,6 +137,9 @@ func CheckValue(name string, v float64) string {
 			return G4(100*v) + " %"
 		})
 	case "hold_rate":
+		if math.IsInf(v, 1) {
+			return "unbounded" // the integrator holds any rate
+		}
 		return finiteOr(v, func(v float64) string { return G4(v) + " rad/s" })
 	case "disturbance_recovery":
 		return finiteOr(v, func(v float64) string { return G4(v) + " s" })

@@ -532,7 +532,7 @@ func TestCornerAndCheckText(t *testing.T) {
 		{"steady_error", 0.015, "1.5 %"},
 		{"steady_error", 3e-16, "0 %"},
 		{"hold_rate", 12, "12 rad/s"},
-		{"hold_rate", math.Inf(1), "none"},
+		{"hold_rate", math.Inf(1), "unbounded"}, // as the metric table says
 		{"disturbance_recovery", 0.25, "0.25 s"},
 		{"max_sensitivity", 1.7, "1.7"},
 		{"noise_gain", 0.6513, "0.6513"},
@@ -540,6 +540,26 @@ func TestCornerAndCheckText(t *testing.T) {
 		if got := synth.CheckValue(c.name, c.v); got != c.want {
 			t.Errorf("CheckValue(%s, %v) = %q, want %q", c.name, c.v, got, c.want)
 		}
+	}
+	for _, c := range []struct {
+		x    float64
+		ok   bool
+		want string
+	}{
+		{0.9866, true, "|z| 0.9866"},
+		{0.99998896, true, "|z| 0.99999"}, // not "1" beside a pass
+		{1.0000004, false, "|z| 1.0000004"},
+		{1, false, "|z| 1"},
+		{math.NaN(), true, "all |z| < 1"}, // the winding-number verdict
+		{math.NaN(), false, "a pole |z| ≥ 1"},
+	} {
+		if got := tabRadius(c.x, c.ok); got != c.want {
+			t.Errorf("tabRadius(%v, %v) = %q, want %q", c.x, c.ok, got, c.want)
+		}
+	}
+	unstable := synth.Check{Name: "stable", Limit: 1, Value: math.NaN(), Worst: airframe.Corner{GainScale: 0.9, LagScale: 1}}
+	if got, want := unstable.String(), "sampled loop unstable: a closed-loop pole on or outside the unit circle (gain ×0.9)"; got != want {
+		t.Errorf("stable check without a radius: %q, want %q", got, want)
 	}
 	ck := synth.Check{Name: "settling_time", Limit: 0.15, Value: 0.1553, Upper: true, Worst: airframe.Corner{GainScale: 0.8, LagScale: 1.5}}
 	if got, want := ck.String(), "settling time 0.1553 s > 0.15 s (sampled loop, gain ×0.8, lag ×1.5)"; got != want {

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strconv"
 	"strings"
 
 	"locusmith/airframe"
@@ -211,7 +212,7 @@ func (t *tableWriter) metrics(d *discrete.Design) {
 	metric("gain margin", "gain_margin", tabDB(cv.Margins.GainDB), marg(&dv, gm, tabDB), marg(qv, gm, tabDB))
 	metric("crossover", "", tabRadps(cv.Margins.Crossover), marg(&dv, wc, tabRadps), marg(qv, wc, tabRadps))
 	metric("delay margin", "", tabSec(cv.Margins.DelayMargin), marg(&dv, dm, tabSec), marg(qv, dm, tabSec))
-	zText := func(x float64) string { return "|z| " + synth.G4(x) }
+	zText := func(x float64) string { return tabRadius(x, true) }
 	metric("stability (max)", "stable", "Re "+synth.G4(tabMaxRe(cv.Poles)), marg(&dv, maxZ, zText), marg(qv, maxZ, zText))
 	metric("sampling", "sampling", "", "ω/Nyquist "+synth.G4(tabSampling(checks)), "")
 	// The figures of the final verification at the nominal plant, and the
@@ -296,7 +297,10 @@ func (t *tableWriter) envelope(d *discrete.Design) {
 			at = "every plant"
 		}
 		if c.Name == "stable" {
-			v = "|z| " + v
+			v = tabRadius(c.Value, c.OK)
+			if math.IsNaN(c.Value) && c.OK {
+				at = "every plant"
+			}
 		}
 		t.line(wrow, tabCheckLabel(c.Name), v, tabSpec(c), tabPass(c.OK), at)
 	}
@@ -544,6 +548,25 @@ func tabPct(x float64) string {
 		}
 		return synth.G4(100*v) + " %"
 	})
+}
+
+// tabRadius writes the largest closed-loop pole radius |z|: with four
+// significant digits, or as many more as tell it from 1 (a slow pole
+// 1e-5 inside the circle reads "|z| 0.99999", not "|z| 1" beside a pass).
+// A radius the check did not compute (the winding-number test of a long
+// delay finds no roots) reads as the verdict.
+func tabRadius(x float64, ok bool) string {
+	if math.IsNaN(x) {
+		if ok {
+			return "all |z| < 1"
+		}
+		return "a pole |z| ≥ 1"
+	}
+	s := synth.G4(x)
+	for p := 5; s == "1" && x != 1 && p <= 17; p++ {
+		s = strconv.FormatFloat(x, 'g', p, 64)
+	}
+	return "|z| " + s
 }
 
 // tabUnbounded is f(x), or "unbounded" for +Inf (a rate the integrator
