@@ -402,7 +402,6 @@ func TestReference(t *testing.T) {
 // reaches 95 % there.
 func knownShort() map[string]float64 {
 	return map[string]float64{
-		"crawler_delay": 0.944, // pi, 15–20 samples of delay: 94.9 %
 		// pid under max_noise_gain 0.25: 52.3 %. The reference's best here
 		// passes at its Ki and b = 0.625 alone: Ki ×0.95 to ×1.02, or b
 		// ± 0.025, settle in 0.28–0.45 s against 0.2 s.

@@ -1888,7 +1888,7 @@ func (sr *searcher) polish(best cand, step []float64, judge judgeFunc) (cand, er
 		small := true
 		for d := range h {
 			h[d] /= 2
-			if h[d] >= nearStep {
+			if h[d] >= polishStep {
 				small = false
 			}
 		}
@@ -1898,6 +1898,11 @@ func (sr *searcher) polish(best cand, step []float64, judge judgeFunc) (cand, er
 	}
 	return best, nil
 }
+
+// polishStep is the last step of polish, in decades (0.23 %): a third of
+// nearStep, since the passing set's ridges are narrower than the pattern
+// search's last step.
+const polishStep = 0.001
 
 // cube returns the points of {−1, 0, 1}ⁿ but the origin.
 func cube(n int) [][]float64 {

@@ -8,7 +8,7 @@
 
 #include "gimbal_cam_rate.h"
 
-#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0x4728994c0d5dbc7c
+#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0xc5d466659f1b6b80
 #error "gimbal_cam_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

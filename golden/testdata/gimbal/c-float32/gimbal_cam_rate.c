@@ -8,7 +8,7 @@
 
 #include "gimbal_cam_rate.h"
 
-#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0x12e9a4b216099931
+#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0x6da6546f3b3b6e79
 #error "gimbal_cam_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

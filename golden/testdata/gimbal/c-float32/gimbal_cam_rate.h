@@ -8,14 +8,14 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
-// b = 0.525.
-//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5117, Ki = 7.542, Kd = 0.008606, Tf = 0.0006366 s,
+// b = 0.5.
+//   discretized tustin_prewarp (prewarped at 77.64 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03378 s); integrator limit 1;
 //   output [-1, 1].
 //   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
-//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
-//   gain margin 11.5 dB.
+//   Sampled loop: overshoot 0.109 %, settling 0.0707 s, phase margin
+//   44.2 deg, gain margin 11.4 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -65,21 +65,21 @@
 // gimbal_cam_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define GIMBAL_CAM_RATE_STAMP 0x12e9a4b216099931
+#define GIMBAL_CAM_RATE_STAMP 0x6da6546f3b3b6e79
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define GIMBAL_CAM_PITCH_KP               0.51722765f // P gain on the measurement
-#define GIMBAL_CAM_PITCH_KPB              0.27154452f // P gain on the setpoint (setpoint weight b times Kp)
-#define GIMBAL_CAM_PITCH_G0               0.0018467103f // integral: weight of the current error
-#define GIMBAL_CAM_PITCH_G01              0.0036934207f // integral: state increment per unit error
-#define GIMBAL_CAM_PITCH_KT               0.014834285f // anti-windup back-calculation gain T/Tt
+#define GIMBAL_CAM_PITCH_KP               0.5117446f // P gain on the measurement
+#define GIMBAL_CAM_PITCH_KPB              0.2558723f // P gain on the setpoint (setpoint weight b times Kp)
+#define GIMBAL_CAM_PITCH_G0               0.0018857585f // integral: weight of the current error
+#define GIMBAL_CAM_PITCH_G01              0.003771517f // integral: state increment per unit error
+#define GIMBAL_CAM_PITCH_KT               0.014801698f // anti-windup back-calculation gain T/Tt
 #define GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT 1.0f // largest |integrator state|, command units
-#define GIMBAL_CAM_PITCH_AD               0.43601033f // derivative filter: pole
-#define GIMBAL_CAM_PITCH_BD               9.463664f // derivative filter: gain
+#define GIMBAL_CAM_PITCH_AD               0.43600953f // derivative filter: pole
+#define GIMBAL_CAM_PITCH_BD               9.706343f // derivative filter: gain
 #define GIMBAL_CAM_PITCH_OUTPUT_LO        (-1.0f) // lowest command
 #define GIMBAL_CAM_PITCH_OUTPUT_HI        1.0f // highest command
 

@@ -8,14 +8,14 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
-// b = 0.525.
-//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5117, Ki = 7.542, Kd = 0.008606, Tf = 0.0006366 s,
+// b = 0.5.
+//   discretized tustin_prewarp (prewarped at 77.64 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03378 s); integrator limit 1;
 //   output [-1, 1].
 //   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
-//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
-//   gain margin 11.5 dB.
+//   Sampled loop: overshoot 0.109 %, settling 0.0707 s, phase margin
+//   44.2 deg, gain margin 11.4 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -61,14 +61,14 @@ package gimbalcamrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              float32 = 0.51722765   // P gain on the measurement
-	PitchKpB             float32 = 0.27154452   // P gain on the setpoint (setpoint weight b times Kp)
-	PitchG0              float32 = 0.0018467103 // integral: weight of the current error
-	PitchG01             float32 = 0.0036934207 // integral: state increment per unit error
-	PitchKt              float32 = 0.014834285  // anti-windup back-calculation gain T/Tt
+	PitchKp              float32 = 0.5117446    // P gain on the measurement
+	PitchKpB             float32 = 0.2558723    // P gain on the setpoint (setpoint weight b times Kp)
+	PitchG0              float32 = 0.0018857585 // integral: weight of the current error
+	PitchG01             float32 = 0.003771517  // integral: state increment per unit error
+	PitchKt              float32 = 0.014801698  // anti-windup back-calculation gain T/Tt
 	PitchIntegratorLimit float32 = 1.0          // largest |integrator state|, command units
-	PitchAd              float32 = 0.43601033   // derivative filter: pole
-	PitchBd              float32 = 9.463664     // derivative filter: gain
+	PitchAd              float32 = 0.43600953   // derivative filter: pole
+	PitchBd              float32 = 9.706343     // derivative filter: gain
 	PitchOutputLo        float32 = -1.0         // lowest command
 	PitchOutputHi        float32 = 1.0          // highest command
 )

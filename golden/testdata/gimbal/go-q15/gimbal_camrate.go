@@ -8,21 +8,21 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; q15 fixed
 // point (input full scale 3, output full scale 1).
 //
-// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
-// b = 0.525.
-//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5117, Ki = 7.542, Kd = 0.008606, Tf = 0.0006366 s,
+// b = 0.5.
+//   discretized tustin_prewarp (prewarped at 77.64 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03378 s); integrator limit 1;
 //   output [-1, 1].
 //   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
-//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
-//   gain margin 11.5 dB.
+//   Sampled loop: overshoot 0.109 %, settling 0.0707 s, phase margin
+//   44.2 deg, gain margin 11.4 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB Q0.15, Kp Q1.14, G0, G01, Kt
 //   Ad, Bd Q5.10, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 10, sum 10 fractional bits below the output
-//   LSB; minimum headroom 0.0749 bits (Kt*du (product)); saturating: command
-//   before saturation.
+//   LSB; minimum headroom 0.0563 bits (sum before saturation uu);
+//   saturating: command before saturation.
 //
 // Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
@@ -62,13 +62,13 @@ package gimbalcamrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int16 = 25423     // P gain on the measurement; Q1.14 = 1.552
-	PitchKpB             int16 = 26694     // P gain on the setpoint; Q0.15 = 0.8146
-	PitchG0              int16 = 23237     // integral: weight of the current error; Q-7.22 = 0.00554
-	PitchG01             int16 = 23237     // integral: state increment per unit error; Q-6.21 = 0.01108
-	PitchKt              int16 = 31110     // anti-windup back-calculation gain T/Tt; Q-6.21 = 0.01483
+	PitchKp              int16 = 25153     // P gain on the measurement; Q1.14 = 1.535
+	PitchKpB             int16 = 25153     // P gain on the setpoint; Q0.15 = 0.7676
+	PitchG0              int16 = 23728     // integral: weight of the current error; Q-7.22 = 0.005657
+	PitchG01             int16 = 23728     // integral: state increment per unit error; Q-6.21 = 0.01131
+	PitchKt              int16 = 31041     // anti-windup back-calculation gain T/Tt; Q-6.21 = 0.0148
 	PitchAd              int16 = 28574     // derivative filter: pole; Q-1.16 = 0.436
-	PitchBd              int16 = 29072     // derivative filter: gain; Q5.10 = 28.39
+	PitchBd              int16 = 29818     // derivative filter: gain; Q5.10 = 29.12
 	PitchOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	PitchOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
 	PitchIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB

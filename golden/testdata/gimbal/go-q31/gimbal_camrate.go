@@ -8,20 +8,20 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; q31 fixed
 // point (input full scale 3, output full scale 1).
 //
-// Axis pitch: pid, Kp = 0.5172, Ki = 7.386, Kd = 0.008391, Tf = 0.0006366 s,
-// b = 0.525.
-//   discretized tustin_prewarp (prewarped at 77.03 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.03371 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.5117, Ki = 7.542, Kd = 0.008606, Tf = 0.0006366 s,
+// b = 0.5.
+//   discretized tustin_prewarp (prewarped at 77.64 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.03378 s); integrator limit 1;
 //   output [-1, 1].
 //   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
-//   Sampled loop: overshoot 0 %, settling 0.0668 s, phase margin 43.2 deg,
-//   gain margin 11.5 dB.
+//   Sampled loop: overshoot 0.109 %, settling 0.0707 s, phase margin
+//   44.2 deg, gain margin 11.4 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB Q0.31, Kp Q1.30, G0, G01, Kt
 //   Ad, Bd Q5.26, Lo Q0.31, Hi Q0.31, IL Q1.62; states:
 //   integrator 31, derivative 26, sum 26 fractional bits below the output
-//   LSB; minimum headroom 0.0518 bits (integrator S + inc (before the
+//   LSB; minimum headroom 0.0376 bits (integrator S + inc (before the
 //   clamp)); saturating: command before saturation.
 //
 // Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
@@ -62,13 +62,13 @@ package gimbalcamrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int32 = 1666106883          // P gain on the measurement; Q1.30 = 1.552
-	PitchKpB             int32 = 1749412227          // P gain on the setpoint; Q0.31 = 0.8146
-	PitchG0              int32 = 1522859599          // integral: weight of the current error; Q-7.38 = 0.00554
-	PitchG01             int32 = 1522859599          // integral: state increment per unit error; Q-6.37 = 0.01108
-	PitchKt              int32 = 2038808590          // anti-windup back-calculation gain T/Tt; Q-6.37 = 0.01483
-	PitchAd              int32 = 1872650155          // derivative filter: pole; Q-1.32 = 0.436
-	PitchBd              int32 = 1905287190          // derivative filter: gain; Q5.26 = 28.39
+	PitchKp              int32 = 1648444867          // P gain on the measurement; Q1.30 = 1.535
+	PitchKpB             int32 = 1648444867          // P gain on the setpoint; Q0.31 = 0.7676
+	PitchG0              int32 = 1555059992          // integral: weight of the current error; Q-7.38 = 0.005657
+	PitchG01             int32 = 1555059992          // integral: state increment per unit error; Q-6.37 = 0.01131
+	PitchKt              int32 = 2034329902          // anti-windup back-calculation gain T/Tt; Q-6.37 = 0.0148
+	PitchAd              int32 = 1872646716          // derivative filter: pole; Q-1.32 = 0.436
+	PitchBd              int32 = 1954144945          // derivative filter: gain; Q5.26 = 29.12
 	PitchOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	PitchOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
 	PitchIntegratorLimit int64 = 4611686018427387904 // largest |integrator state|, 31 fractional bits below the output LSB

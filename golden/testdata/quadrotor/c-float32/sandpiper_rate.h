@@ -8,24 +8,24 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.03185, Ki = 0.4161, Kd = 0.0004517,
-// Tf = 0.001273 s, b = 0.1.
+// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
+// b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis roll: pid, Kp = 0.02654, Ki = 0.3468, Kd = 0.0003764,
+// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
 // Tf = 0.001273 s, b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -75,21 +75,21 @@
 // sandpiper_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0x267f14ee856630ed
+#define SANDPIPER_RATE_STAMP 0x8638c925392bcda8
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               0.031845003f // P gain on the measurement
-#define SANDPIPER_PITCH_KPB              0.0031845004f // P gain on the setpoint (setpoint weight b times Kp)
-#define SANDPIPER_PITCH_G0               0.00020805333f // integral: weight of the current error
-#define SANDPIPER_PITCH_G01              0.00041610666f // integral: state increment per unit error
-#define SANDPIPER_PITCH_KT               0.030352127f // anti-windup back-calculation gain T/Tt
+#define SANDPIPER_PITCH_KP               0.03190457f // P gain on the measurement
+#define SANDPIPER_PITCH_KPB              0.003190457f // P gain on the setpoint (setpoint weight b times Kp)
+#define SANDPIPER_PITCH_G0               0.00020850294f // integral: weight of the current error
+#define SANDPIPER_PITCH_G01              0.00041700588f // integral: state increment per unit error
+#define SANDPIPER_PITCH_KT               0.030288344f // anti-windup back-calculation gain T/Tt
 #define SANDPIPER_PITCH_INTEGRATOR_LIMIT 0.5f // largest |integrator state|, command units
 #define SANDPIPER_PITCH_AD               0.4360604f // derivative filter: pole
-#define SANDPIPER_PITCH_BD               0.25471762f // derivative filter: gain
+#define SANDPIPER_PITCH_BD               0.25634435f // derivative filter: gain
 #define SANDPIPER_PITCH_OUTPUT_LO        (-0.5f) // lowest command
 #define SANDPIPER_PITCH_OUTPUT_HI        0.5f // highest command
 
@@ -123,14 +123,14 @@ float sandpiper_pitch_step(sandpiper_pitch_state *s, float setpoint, float measu
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, float applied);
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               0.026537502f // P gain on the measurement
-#define SANDPIPER_ROLL_KPB              0.0026537501f // P gain on the setpoint (setpoint weight b times Kp)
-#define SANDPIPER_ROLL_G0               0.00017337778f // integral: weight of the current error
-#define SANDPIPER_ROLL_G01              0.00034675555f // integral: state increment per unit error
-#define SANDPIPER_ROLL_KT               0.030352127f // anti-windup back-calculation gain T/Tt
+#define SANDPIPER_ROLL_KP               0.026587142f // P gain on the measurement
+#define SANDPIPER_ROLL_KPB              0.002658714f // P gain on the setpoint (setpoint weight b times Kp)
+#define SANDPIPER_ROLL_G0               0.00017375244f // integral: weight of the current error
+#define SANDPIPER_ROLL_G01              0.0003475049f // integral: state increment per unit error
+#define SANDPIPER_ROLL_KT               0.030288344f // anti-windup back-calculation gain T/Tt
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT 0.5f // largest |integrator state|, command units
 #define SANDPIPER_ROLL_AD               0.4360604f // derivative filter: pole
-#define SANDPIPER_ROLL_BD               0.21226469f // derivative filter: gain
+#define SANDPIPER_ROLL_BD               0.21362028f // derivative filter: gain
 #define SANDPIPER_ROLL_OUTPUT_LO        (-0.5f) // lowest command
 #define SANDPIPER_ROLL_OUTPUT_HI        0.5f // highest command
 

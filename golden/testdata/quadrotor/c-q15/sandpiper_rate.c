@@ -8,7 +8,7 @@
 
 #include "sandpiper_rate.h"
 
-#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0x45adf731cb7f2417
+#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0x37638847679a2a57
 #error "sandpiper_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

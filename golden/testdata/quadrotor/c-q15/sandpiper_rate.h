@@ -8,34 +8,34 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q15 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.03185, Ki = 0.4161, Kd = 0.0004517,
-// Tf = 0.001273 s, b = 0.1.
+// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
+// b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB, Kp Q3.12, G0, G01, Kt
 //   Ad, Bd Q6.9, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 9, sum 9 fractional bits below the output LSB;
-//   minimum headroom 0.0421 bits (Kt*du (product)); saturating: command
+//   minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis roll: pid, Kp = 0.02654, Ki = 0.3468, Kd = 0.0003764,
+// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
 // Tf = 0.001273 s, b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB, Kp Q2.13, G0, G01, Kt
 //   Ad, Bd Q5.10, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 10, sum 10 fractional bits below the output
-//   LSB; minimum headroom 0.0421 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
 // Axis yaw: pi, Kp = 0.03591, Ki = 0.07782, b = 0.75.
@@ -78,20 +78,20 @@
 // sandpiper_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0x45adf731cb7f2417
+#define SANDPIPER_RATE_STAMP 0x37638847679a2a57
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               ((int16_t)16696) // P gain on the measurement; Q3.12 = 4.076
-#define SANDPIPER_PITCH_KPB              ((int16_t)26714) // P gain on the setpoint; Q-1.16 = 0.4076
-#define SANDPIPER_PITCH_G0               ((int16_t)27924) // integral: weight of the current error; Q-5.20 = 0.02663
-#define SANDPIPER_PITCH_G01              ((int16_t)27924) // integral: state increment per unit error; Q-4.19 = 0.05326
-#define SANDPIPER_PITCH_KT               ((int16_t)31827) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03035
+#define SANDPIPER_PITCH_KP               ((int16_t)16727) // P gain on the measurement; Q3.12 = 4.084
+#define SANDPIPER_PITCH_KPB              ((int16_t)26763) // P gain on the setpoint; Q-1.16 = 0.4084
+#define SANDPIPER_PITCH_G0               ((int16_t)27985) // integral: weight of the current error; Q-5.20 = 0.02669
+#define SANDPIPER_PITCH_G01              ((int16_t)27985) // integral: state increment per unit error; Q-4.19 = 0.05338
+#define SANDPIPER_PITCH_KT               ((int16_t)31760) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03029
 #define SANDPIPER_PITCH_AD               ((int16_t)28578) // derivative filter: pole; Q-1.16 = 0.4361
-#define SANDPIPER_PITCH_BD               ((int16_t)16693) // derivative filter: gain; Q6.9 = 32.6
+#define SANDPIPER_PITCH_BD               ((int16_t)16800) // derivative filter: gain; Q6.9 = 32.81
 #define SANDPIPER_PITCH_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define SANDPIPER_PITCH_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define SANDPIPER_PITCH_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB
@@ -123,13 +123,13 @@ int16_t sandpiper_pitch_step(sandpiper_pitch_state *s, int16_t setpoint, int16_t
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, int16_t applied);
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               ((int16_t)27827) // P gain on the measurement; Q2.13 = 3.397
-#define SANDPIPER_ROLL_KPB              ((int16_t)22261) // P gain on the setpoint; Q-1.16 = 0.3397
-#define SANDPIPER_ROLL_G0               ((int16_t)23270) // integral: weight of the current error; Q-5.20 = 0.02219
-#define SANDPIPER_ROLL_G01              ((int16_t)23270) // integral: state increment per unit error; Q-4.19 = 0.04438
-#define SANDPIPER_ROLL_KT               ((int16_t)31827) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03035
+#define SANDPIPER_ROLL_KP               ((int16_t)27879) // P gain on the measurement; Q2.13 = 3.403
+#define SANDPIPER_ROLL_KPB              ((int16_t)22303) // P gain on the setpoint; Q-1.16 = 0.3403
+#define SANDPIPER_ROLL_G0               ((int16_t)23321) // integral: weight of the current error; Q-5.20 = 0.02224
+#define SANDPIPER_ROLL_G01              ((int16_t)23321) // integral: state increment per unit error; Q-4.19 = 0.04448
+#define SANDPIPER_ROLL_KT               ((int16_t)31760) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03029
 #define SANDPIPER_ROLL_AD               ((int16_t)28578) // derivative filter: pole; Q-1.16 = 0.4361
-#define SANDPIPER_ROLL_BD               ((int16_t)27822) // derivative filter: gain; Q5.10 = 27.17
+#define SANDPIPER_ROLL_BD               ((int16_t)28000) // derivative filter: gain; Q5.10 = 27.34
 #define SANDPIPER_ROLL_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define SANDPIPER_ROLL_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB

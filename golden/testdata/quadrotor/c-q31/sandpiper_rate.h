@@ -8,34 +8,34 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q31 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.03185, Ki = 0.4161, Kd = 0.0004517,
-// Tf = 0.001273 s, b = 0.1.
+// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
+// b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
 //   scale*2^31); formats KpB, Kp Q3.28, G0, G01, Kt
 //   Ad, Bd Q6.25, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 25, sum 25 fractional bits below the output
-//   LSB; minimum headroom 0.0421 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis roll: pid, Kp = 0.02654, Ki = 0.3468, Kd = 0.0003764,
+// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
 // Tf = 0.001273 s, b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
 //   scale*2^31); formats KpB, Kp Q2.29, G0, G01, Kt
 //   Ad, Bd Q5.26, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 26, sum 26 fractional bits below the output
-//   LSB; minimum headroom 0.0421 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
 // Axis yaw: pi, Kp = 0.03591, Ki = 0.07782, b = 0.75.
@@ -78,20 +78,20 @@
 // sandpiper_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0x573fff075685972d
+#define SANDPIPER_RATE_STAMP 0x05bf821f65698ded
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               ((int32_t)1094185966) // P gain on the measurement; Q3.28 = 4.076
-#define SANDPIPER_PITCH_KPB              ((int32_t)1750697545) // P gain on the setpoint; Q-1.32 = 0.4076
-#define SANDPIPER_PITCH_G0               ((int32_t)1830056472) // integral: weight of the current error; Q-5.36 = 0.02663
-#define SANDPIPER_PITCH_G01              ((int32_t)1830056472) // integral: state increment per unit error; Q-4.35 = 0.05326
-#define SANDPIPER_PITCH_KT               ((int32_t)2085782289) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03035
+#define SANDPIPER_PITCH_KP               ((int32_t)1096232660) // P gain on the measurement; Q3.28 = 4.084
+#define SANDPIPER_PITCH_KPB              ((int32_t)1753972257) // P gain on the setpoint; Q-1.32 = 0.4084
+#define SANDPIPER_PITCH_G0               ((int32_t)1834011234) // integral: weight of the current error; Q-5.36 = 0.02669
+#define SANDPIPER_PITCH_G01              ((int32_t)1834011234) // integral: state increment per unit error; Q-4.35 = 0.05338
+#define SANDPIPER_PITCH_KT               ((int32_t)2081399110) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03029
 #define SANDPIPER_PITCH_AD               ((int32_t)1872865156) // derivative filter: pole; Q-1.32 = 0.4361
-#define SANDPIPER_PITCH_BD               ((int32_t)1094003884) // derivative filter: gain; Q6.25 = 32.6
+#define SANDPIPER_PITCH_BD               ((int32_t)1100990536) // derivative filter: gain; Q6.25 = 32.81
 #define SANDPIPER_PITCH_OUTPUT_LO        ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define SANDPIPER_PITCH_OUTPUT_HI        ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
 #define SANDPIPER_PITCH_INTEGRATOR_LIMIT INT64_C(2305843009213693952) // largest |integrator state|, 30 fractional bits below the output LSB
@@ -123,13 +123,13 @@ int32_t sandpiper_pitch_step(sandpiper_pitch_state *s, int32_t setpoint, int32_t
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, int32_t applied);
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               ((int32_t)1823643276) // P gain on the measurement; Q2.29 = 3.397
-#define SANDPIPER_ROLL_KPB              ((int32_t)1458914621) // P gain on the setpoint; Q-1.32 = 0.3397
-#define SANDPIPER_ROLL_G0               ((int32_t)1525047060) // integral: weight of the current error; Q-5.36 = 0.02219
-#define SANDPIPER_ROLL_G01              ((int32_t)1525047060) // integral: state increment per unit error; Q-4.35 = 0.04438
-#define SANDPIPER_ROLL_KT               ((int32_t)2085782289) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03035
+#define SANDPIPER_ROLL_KP               ((int32_t)1827054434) // P gain on the measurement; Q2.29 = 3.403
+#define SANDPIPER_ROLL_KPB              ((int32_t)1461643547) // P gain on the setpoint; Q-1.32 = 0.3403
+#define SANDPIPER_ROLL_G0               ((int32_t)1528342695) // integral: weight of the current error; Q-5.36 = 0.02224
+#define SANDPIPER_ROLL_G01              ((int32_t)1528342695) // integral: state increment per unit error; Q-4.35 = 0.04448
+#define SANDPIPER_ROLL_KT               ((int32_t)2081399110) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03029
 #define SANDPIPER_ROLL_AD               ((int32_t)1872865156) // derivative filter: pole; Q-1.32 = 0.4361
-#define SANDPIPER_ROLL_BD               ((int32_t)1823339806) // derivative filter: gain; Q5.26 = 27.17
+#define SANDPIPER_ROLL_BD               ((int32_t)1834984226) // derivative filter: gain; Q5.26 = 27.34
 #define SANDPIPER_ROLL_OUTPUT_LO        ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define SANDPIPER_ROLL_OUTPUT_HI        ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT INT64_C(2305843009213693952) // largest |integrator state|, 30 fractional bits below the output LSB

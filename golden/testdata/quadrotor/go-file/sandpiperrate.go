@@ -8,24 +8,24 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.03185, Ki = 0.4161, Kd = 0.0004517,
-// Tf = 0.001273 s, b = 0.1.
+// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
+// b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis roll: pid, Kp = 0.02654, Ki = 0.3468, Kd = 0.0003764,
+// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
 // Tf = 0.001273 s, b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -71,14 +71,14 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              float32 = 0.031845003   // P gain on the measurement
-	PitchKpB             float32 = 0.0031845004  // P gain on the setpoint (setpoint weight b times Kp)
-	PitchG0              float32 = 0.00020805333 // integral: weight of the current error
-	PitchG01             float32 = 0.00041610666 // integral: state increment per unit error
-	PitchKt              float32 = 0.030352127   // anti-windup back-calculation gain T/Tt
+	PitchKp              float32 = 0.03190457    // P gain on the measurement
+	PitchKpB             float32 = 0.003190457   // P gain on the setpoint (setpoint weight b times Kp)
+	PitchG0              float32 = 0.00020850294 // integral: weight of the current error
+	PitchG01             float32 = 0.00041700588 // integral: state increment per unit error
+	PitchKt              float32 = 0.030288344   // anti-windup back-calculation gain T/Tt
 	PitchIntegratorLimit float32 = 0.5           // largest |integrator state|, command units
 	PitchAd              float32 = 0.4360604     // derivative filter: pole
-	PitchBd              float32 = 0.25471762    // derivative filter: gain
+	PitchBd              float32 = 0.25634435    // derivative filter: gain
 	PitchOutputLo        float32 = -0.5          // lowest command
 	PitchOutputHi        float32 = 0.5           // highest command
 )
@@ -165,14 +165,14 @@ func (c *Pitch) Faults() uint32 {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              float32 = 0.026537502   // P gain on the measurement
-	RollKpB             float32 = 0.0026537501  // P gain on the setpoint (setpoint weight b times Kp)
-	RollG0              float32 = 0.00017337778 // integral: weight of the current error
-	RollG01             float32 = 0.00034675555 // integral: state increment per unit error
-	RollKt              float32 = 0.030352127   // anti-windup back-calculation gain T/Tt
+	RollKp              float32 = 0.026587142   // P gain on the measurement
+	RollKpB             float32 = 0.002658714   // P gain on the setpoint (setpoint weight b times Kp)
+	RollG0              float32 = 0.00017375244 // integral: weight of the current error
+	RollG01             float32 = 0.0003475049  // integral: state increment per unit error
+	RollKt              float32 = 0.030288344   // anti-windup back-calculation gain T/Tt
 	RollIntegratorLimit float32 = 0.5           // largest |integrator state|, command units
 	RollAd              float32 = 0.4360604     // derivative filter: pole
-	RollBd              float32 = 0.21226469    // derivative filter: gain
+	RollBd              float32 = 0.21362028    // derivative filter: gain
 	RollOutputLo        float32 = -0.5          // lowest command
 	RollOutputHi        float32 = 0.5           // highest command
 )

@@ -8,34 +8,34 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q15 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.03185, Ki = 0.4161, Kd = 0.0004517,
-// Tf = 0.001273 s, b = 0.1.
+// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
+// b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB, Kp Q3.12, G0, G01, Kt
 //   Ad, Bd Q6.9, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 9, sum 9 fractional bits below the output LSB;
-//   minimum headroom 0.0421 bits (Kt*du (product)); saturating: command
+//   minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis roll: pid, Kp = 0.02654, Ki = 0.3468, Kd = 0.0003764,
+// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
 // Tf = 0.001273 s, b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB, Kp Q2.13, G0, G01, Kt
 //   Ad, Bd Q5.10, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 10, sum 10 fractional bits below the output
-//   LSB; minimum headroom 0.0421 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
 // Axis yaw: pi, Kp = 0.03591, Ki = 0.07782, b = 0.75.
@@ -77,13 +77,13 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int16 = 16696     // P gain on the measurement; Q3.12 = 4.076
-	PitchKpB             int16 = 26714     // P gain on the setpoint; Q-1.16 = 0.4076
-	PitchG0              int16 = 27924     // integral: weight of the current error; Q-5.20 = 0.02663
-	PitchG01             int16 = 27924     // integral: state increment per unit error; Q-4.19 = 0.05326
-	PitchKt              int16 = 31827     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03035
+	PitchKp              int16 = 16727     // P gain on the measurement; Q3.12 = 4.084
+	PitchKpB             int16 = 26763     // P gain on the setpoint; Q-1.16 = 0.4084
+	PitchG0              int16 = 27985     // integral: weight of the current error; Q-5.20 = 0.02669
+	PitchG01             int16 = 27985     // integral: state increment per unit error; Q-4.19 = 0.05338
+	PitchKt              int16 = 31760     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03029
 	PitchAd              int16 = 28578     // derivative filter: pole; Q-1.16 = 0.4361
-	PitchBd              int16 = 16693     // derivative filter: gain; Q6.9 = 32.6
+	PitchBd              int16 = 16800     // derivative filter: gain; Q6.9 = 32.81
 	PitchOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	PitchOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
 	PitchIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB
@@ -153,13 +153,13 @@ func (c *Pitch) Applied(applied int16) {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              int16 = 27827     // P gain on the measurement; Q2.13 = 3.397
-	RollKpB             int16 = 22261     // P gain on the setpoint; Q-1.16 = 0.3397
-	RollG0              int16 = 23270     // integral: weight of the current error; Q-5.20 = 0.02219
-	RollG01             int16 = 23270     // integral: state increment per unit error; Q-4.19 = 0.04438
-	RollKt              int16 = 31827     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03035
+	RollKp              int16 = 27879     // P gain on the measurement; Q2.13 = 3.403
+	RollKpB             int16 = 22303     // P gain on the setpoint; Q-1.16 = 0.3403
+	RollG0              int16 = 23321     // integral: weight of the current error; Q-5.20 = 0.02224
+	RollG01             int16 = 23321     // integral: state increment per unit error; Q-4.19 = 0.04448
+	RollKt              int16 = 31760     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03029
 	RollAd              int16 = 28578     // derivative filter: pole; Q-1.16 = 0.4361
-	RollBd              int16 = 27822     // derivative filter: gain; Q5.10 = 27.17
+	RollBd              int16 = 28000     // derivative filter: gain; Q5.10 = 27.34
 	RollOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	RollOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
 	RollIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB

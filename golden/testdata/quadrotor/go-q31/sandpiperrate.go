@@ -8,34 +8,34 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q31 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.03185, Ki = 0.4161, Kd = 0.0004517,
-// Tf = 0.001273 s, b = 0.1.
+// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
+// b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB, Kp Q3.28, G0, G01, Kt
 //   Ad, Bd Q6.25, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 25, sum 25 fractional bits below the output
-//   LSB; minimum headroom 0.0421 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis roll: pid, Kp = 0.02654, Ki = 0.3468, Kd = 0.0003764,
+// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
 // Tf = 0.001273 s, b = 0.1.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03295 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.024 %, settling 0.131 s, phase margin
-//   41.6 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
+//   41.7 deg, gain margin 17.6 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB, Kp Q2.29, G0, G01, Kt
 //   Ad, Bd Q5.26, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 26, sum 26 fractional bits below the output
-//   LSB; minimum headroom 0.0421 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
 // Axis yaw: pi, Kp = 0.03591, Ki = 0.07782, b = 0.75.
@@ -77,13 +77,13 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int32 = 1094185966          // P gain on the measurement; Q3.28 = 4.076
-	PitchKpB             int32 = 1750697545          // P gain on the setpoint; Q-1.32 = 0.4076
-	PitchG0              int32 = 1830056472          // integral: weight of the current error; Q-5.36 = 0.02663
-	PitchG01             int32 = 1830056472          // integral: state increment per unit error; Q-4.35 = 0.05326
-	PitchKt              int32 = 2085782289          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03035
+	PitchKp              int32 = 1096232660          // P gain on the measurement; Q3.28 = 4.084
+	PitchKpB             int32 = 1753972257          // P gain on the setpoint; Q-1.32 = 0.4084
+	PitchG0              int32 = 1834011234          // integral: weight of the current error; Q-5.36 = 0.02669
+	PitchG01             int32 = 1834011234          // integral: state increment per unit error; Q-4.35 = 0.05338
+	PitchKt              int32 = 2081399110          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03029
 	PitchAd              int32 = 1872865156          // derivative filter: pole; Q-1.32 = 0.4361
-	PitchBd              int32 = 1094003884          // derivative filter: gain; Q6.25 = 32.6
+	PitchBd              int32 = 1100990536          // derivative filter: gain; Q6.25 = 32.81
 	PitchOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	PitchOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
 	PitchIntegratorLimit int64 = 2305843009213693952 // largest |integrator state|, 30 fractional bits below the output LSB
@@ -153,13 +153,13 @@ func (c *Pitch) Applied(applied int32) {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              int32 = 1823643276          // P gain on the measurement; Q2.29 = 3.397
-	RollKpB             int32 = 1458914621          // P gain on the setpoint; Q-1.32 = 0.3397
-	RollG0              int32 = 1525047060          // integral: weight of the current error; Q-5.36 = 0.02219
-	RollG01             int32 = 1525047060          // integral: state increment per unit error; Q-4.35 = 0.04438
-	RollKt              int32 = 2085782289          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03035
+	RollKp              int32 = 1827054434          // P gain on the measurement; Q2.29 = 3.403
+	RollKpB             int32 = 1461643547          // P gain on the setpoint; Q-1.32 = 0.3403
+	RollG0              int32 = 1528342695          // integral: weight of the current error; Q-5.36 = 0.02224
+	RollG01             int32 = 1528342695          // integral: state increment per unit error; Q-4.35 = 0.04448
+	RollKt              int32 = 2081399110          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03029
 	RollAd              int32 = 1872865156          // derivative filter: pole; Q-1.32 = 0.4361
-	RollBd              int32 = 1823339806          // derivative filter: gain; Q5.26 = 27.17
+	RollBd              int32 = 1834984226          // derivative filter: gain; Q5.26 = 27.34
 	RollOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	RollOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
 	RollIntegratorLimit int64 = 2305843009213693952 // largest |integrator state|, 30 fractional bits below the output LSB

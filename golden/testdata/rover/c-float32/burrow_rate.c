@@ -8,7 +8,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x71f3cd3d3b626f8d
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x496f59cabafeea0c
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

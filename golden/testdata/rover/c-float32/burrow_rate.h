@@ -17,10 +17,10 @@
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pd, Kp = 1.126, Kd = 0.03399, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 1.13, Kd = 0.03424, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.24 %, settling 0.189 s, phase margin 63.5 deg,
+//   Sampled loop: overshoot 4.21 %, settling 0.189 s, phase margin 63.5 deg,
 //   gain margin 20.3 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
@@ -61,7 +61,7 @@
 // burrow_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define BURROW_RATE_STAMP 0x71f3cd3d3b626f8d
+#define BURROW_RATE_STAMP 0x496f59cabafeea0c
 
 #ifdef __cplusplus
 extern "C" {
@@ -98,10 +98,10 @@ float burrow_pan_step(burrow_pan_state *s, float setpoint, float measured);
 void burrow_pan_applied(burrow_pan_state *s, float applied);
 
 // Axis yaw: coefficients and limits.
-#define BURROW_YAW_KP        1.1263701f // P gain on the measurement
-#define BURROW_YAW_KPB       1.1263701f // P gain on the setpoint (setpoint weight b times Kp)
+#define BURROW_YAW_KP        1.1296167f // P gain on the measurement
+#define BURROW_YAW_KPB       1.1296167f // P gain on the setpoint (setpoint weight b times Kp)
 #define BURROW_YAW_AD        0.7284895f // derivative filter: pole
-#define BURROW_YAW_BD        4.6142287f // derivative filter: gain
+#define BURROW_YAW_BD        4.6483865f // derivative filter: gain
 #define BURROW_YAW_OUTPUT_LO (-1.0f) // lowest command
 #define BURROW_YAW_OUTPUT_HI 1.0f // highest command
 

@@ -8,7 +8,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x2124006042f9c194
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x7edcd8ec02e31258
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

@@ -20,10 +20,10 @@
 //   output LSB; minimum headroom 0.0774 bits (lead state x); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 1.126, Kd = 0.03399, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 1.13, Kd = 0.03424, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.24 %, settling 0.189 s, phase margin 63.5 deg,
+//   Sampled loop: overshoot 4.21 %, settling 0.189 s, phase margin 63.5 deg,
 //   gain margin 20.3 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
@@ -58,7 +58,7 @@
 // burrow_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define BURROW_RATE_STAMP 0x2124006042f9c194
+#define BURROW_RATE_STAMP 0x7edcd8ec02e31258
 
 #ifdef __cplusplus
 extern "C" {
@@ -93,10 +93,10 @@ int16_t burrow_pan_step(burrow_pan_state *s, int16_t setpoint, int16_t measured)
 void burrow_pan_applied(burrow_pan_state *s, int16_t applied);
 
 // Axis yaw: coefficients and limits.
-#define BURROW_YAW_KP        ((int16_t)18454) // P gain on the measurement; Q7.8 = 72.09
-#define BURROW_YAW_KPB       ((int16_t)18454) // P gain on the setpoint; Q7.8 = 72.09
+#define BURROW_YAW_KP        ((int16_t)18508) // P gain on the measurement; Q7.8 = 72.3
+#define BURROW_YAW_KPB       ((int16_t)18508) // P gain on the setpoint; Q7.8 = 72.3
 #define BURROW_YAW_AD        ((int16_t)23871) // derivative filter: pole; Q0.15 = 0.7285
-#define BURROW_YAW_BD        ((int16_t)18900) // derivative filter: gain; Q9.6 = 295.3
+#define BURROW_YAW_BD        ((int16_t)19040) // derivative filter: gain; Q9.6 = 297.5
 #define BURROW_YAW_OUTPUT_LO ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define BURROW_YAW_OUTPUT_HI ((int16_t)32767) // highest command, raw; Q0.15 = 1
 

@@ -8,7 +8,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x204a7a5a42caaee3
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x72aff3404d53fe62
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

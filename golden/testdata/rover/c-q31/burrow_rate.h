@@ -20,10 +20,10 @@
 //   output LSB; minimum headroom 0.0773 bits (lead state x); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 1.126, Kd = 0.03399, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 1.13, Kd = 0.03424, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.24 %, settling 0.189 s, phase margin 63.5 deg,
+//   Sampled loop: overshoot 4.21 %, settling 0.189 s, phase margin 63.5 deg,
 //   gain margin 20.3 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
@@ -58,7 +58,7 @@
 // burrow_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define BURROW_RATE_STAMP 0x204a7a5a42caaee3
+#define BURROW_RATE_STAMP 0x72aff3404d53fe62
 
 #ifdef __cplusplus
 extern "C" {
@@ -93,10 +93,10 @@ int32_t burrow_pan_step(burrow_pan_state *s, int32_t setpoint, int32_t measured)
 void burrow_pan_applied(burrow_pan_state *s, int32_t applied);
 
 // Axis yaw: coefficients and limits.
-#define BURROW_YAW_KP        ((int32_t)1209430658) // P gain on the measurement; Q7.24 = 72.09
-#define BURROW_YAW_KPB       ((int32_t)1209430658) // P gain on the setpoint; Q7.24 = 72.09
+#define BURROW_YAW_KP        ((int32_t)1212916693) // P gain on the measurement; Q7.24 = 72.3
+#define BURROW_YAW_KPB       ((int32_t)1212916693) // P gain on the setpoint; Q7.24 = 72.3
 #define BURROW_YAW_AD        ((int32_t)1564419297) // derivative filter: pole; Q0.31 = 0.7285
-#define BURROW_YAW_BD        ((int32_t)1238622551) // derivative filter: gain; Q9.22 = 295.3
+#define BURROW_YAW_BD        ((int32_t)1247791744) // derivative filter: gain; Q9.22 = 297.5
 #define BURROW_YAW_OUTPUT_LO ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define BURROW_YAW_OUTPUT_HI ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
 

@@ -17,10 +17,10 @@
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pd, Kp = 1.126, Kd = 0.03399, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 1.13, Kd = 0.03424, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.24 %, settling 0.189 s, phase margin 63.5 deg,
+//   Sampled loop: overshoot 4.21 %, settling 0.189 s, phase margin 63.5 deg,
 //   gain margin 20.3 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
@@ -128,10 +128,10 @@ func (c *Pan) Faults() uint32 {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       float32 = 1.1263701 // P gain on the measurement
-	YawKpB      float32 = 1.1263701 // P gain on the setpoint (setpoint weight b times Kp)
+	YawKp       float32 = 1.1296167 // P gain on the measurement
+	YawKpB      float32 = 1.1296167 // P gain on the setpoint (setpoint weight b times Kp)
 	YawAd       float32 = 0.7284895 // derivative filter: pole
-	YawBd       float32 = 4.6142287 // derivative filter: gain
+	YawBd       float32 = 4.6483865 // derivative filter: gain
 	YawOutputLo float32 = -1.0      // lowest command
 	YawOutputHi float32 = 1.0       // highest command
 )

@@ -20,10 +20,10 @@
 //   output LSB; minimum headroom 0.0774 bits (lead state x); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 1.126, Kd = 0.03399, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 1.13, Kd = 0.03424, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.24 %, settling 0.189 s, phase margin 63.5 deg,
+//   Sampled loop: overshoot 4.21 %, settling 0.189 s, phase margin 63.5 deg,
 //   gain margin 20.3 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
@@ -106,10 +106,10 @@ func (c *Pan) Applied(applied int16) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       int16 = 18454  // P gain on the measurement; Q7.8 = 72.09
-	YawKpB      int16 = 18454  // P gain on the setpoint; Q7.8 = 72.09
+	YawKp       int16 = 18508  // P gain on the measurement; Q7.8 = 72.3
+	YawKpB      int16 = 18508  // P gain on the setpoint; Q7.8 = 72.3
 	YawAd       int16 = 23871  // derivative filter: pole; Q0.15 = 0.7285
-	YawBd       int16 = 18900  // derivative filter: gain; Q9.6 = 295.3
+	YawBd       int16 = 19040  // derivative filter: gain; Q9.6 = 297.5
 	YawOutputLo int16 = -32768 // lowest command, raw; Q0.15 = -1
 	YawOutputHi int16 = 32767  // highest command, raw; Q0.15 = 1
 )

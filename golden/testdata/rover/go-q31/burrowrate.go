@@ -20,10 +20,10 @@
 //   output LSB; minimum headroom 0.0773 bits (lead state x); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 1.126, Kd = 0.03399, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 1.13, Kd = 0.03424, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.24 %, settling 0.189 s, phase margin 63.5 deg,
+//   Sampled loop: overshoot 4.21 %, settling 0.189 s, phase margin 63.5 deg,
 //   gain margin 20.3 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
@@ -106,10 +106,10 @@ func (c *Pan) Applied(applied int32) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       int32 = 1209430658  // P gain on the measurement; Q7.24 = 72.09
-	YawKpB      int32 = 1209430658  // P gain on the setpoint; Q7.24 = 72.09
+	YawKp       int32 = 1212916693  // P gain on the measurement; Q7.24 = 72.3
+	YawKpB      int32 = 1212916693  // P gain on the setpoint; Q7.24 = 72.3
 	YawAd       int32 = 1564419297  // derivative filter: pole; Q0.31 = 0.7285
-	YawBd       int32 = 1238622551  // derivative filter: gain; Q9.22 = 295.3
+	YawBd       int32 = 1247791744  // derivative filter: gain; Q9.22 = 297.5
 	YawOutputLo int32 = -2147483648 // lowest command, raw; Q0.31 = -1
 	YawOutputHi int32 = 2147483647  // highest command, raw; Q0.31 = 1
 )
