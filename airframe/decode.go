@@ -19,7 +19,7 @@ func axisKeys() []string {
 	return []string{"plant", "sensor", "spec", "control", "envelope", "filter"}
 }
 func filterKeys() []string {
-	return []string{"kind", "at", "hz", "width_hz", "depth_db", "order", "damping"}
+	return []string{"kind", "at", "hz", "width_hz", "depth_db", "order", "damping", "goal"}
 }
 func zpkKeys() []string  { return []string{"gain", "poles", "zeros"} }
 func physKeys() []string { return []string{"effectiveness", "motor_tau"} }
@@ -188,7 +188,7 @@ func (c *checker) axis(name, key string, m map[string]any, lp loopInfo) Axis {
 		if modesOK {
 			modes = p.LightModes(0.9 * lp.hz / 2)
 		}
-		p.Filters = c.filters(t, lp, autoPlacer{modes: modes, ok: modesOK, env: p.Envelope, nyq: lp.hz / 2})
+		p.Filters = c.filters(t, lp, autoPlacer{modes: modes, ok: modesOK, env: p.Envelope, nyq: lp.hz / 2, noiseBound: p.Spec.MaxNoiseGain, specOK: specOK})
 	}
 	c.axisLimits(key, p, ok, t, lp)
 	return p
@@ -724,6 +724,12 @@ type autoPlacer struct {
 	ok    bool
 	env   Envelope
 	nyq   float64
+	// noiseBound is the spec's max_noise_gain (0: none), which a lowpass
+	// with hz = "auto" and goal = "noise" needs; specOK says whether the
+	// spec decoded (otherwise its problem is reported).
+	noiseBound float64
+	specOK     bool
+	lowpasses  int // lowpasses with hz = "auto" so far
 }
 
 // place returns the next mode, or false.
@@ -770,8 +776,18 @@ func (c *checker) filter(t *table, loopHz float64, auto *autoPlacer) (Filter, bo
 	if s, isStr := t.m["hz"].(string); isStr && s == "auto" {
 		switch {
 		case f.Kind == FilterLowpass:
-			c.fail(t.sub("hz"), s, `"auto" places a notch only: give the lowpass's cutoff in Hz, a number %s`, hzRule.allowed())
-			good = false
+			// The design chooses the cutoff (discrete.DesignAxis); until
+			// then the section sits at the top of the range it chooses
+			// from.
+			auto.lowpasses++
+			if auto.lowpasses > 1 {
+				c.fail(t.sub("hz"), s, `one lowpass per axis may have hz = "auto" (the design chooses one cutoff): give this one's cutoff in Hz, a number %s`, hzRule.allowed())
+				good = false
+				break
+			}
+			f.AutoHz, hzOK = true, loopHz > 0
+			f.Hz = round3(AutoLowpassTop * loopHz)
+			good = good && hzOK
 		case f.Kind == "" || !auto.ok:
 			good = false // the kind, the plant or the sensor is reported
 		default:
@@ -845,6 +861,19 @@ func (c *checker) filter(t *table, loopHz float64, auto *autoPlacer) (Filter, bo
 			ok: func(x float64) bool { return x >= minFilterDamping && x <= maxFilterDamping }}, false, defaultFilterDamping)
 		good = good && ok
 		f.Damping = d
+	}
+	if only("goal", lowpass && f.AutoHz, `kind = "lowpass" with hz = "auto"`) && lowpass && f.AutoHz {
+		def := GoalMargin
+		if auto.noiseBound > 0 {
+			def = GoalNoise
+		}
+		g, ok := t.enum("goal", def, GoalNoise, GoalMargin)
+		good = good && ok
+		f.Goal = g
+		if ok && g == GoalNoise && auto.specOK && !(auto.noiseBound > 0) {
+			c.fail(t.sub("goal"), g, `"noise" chooses the highest cutoff whose design meets spec.max_noise_gain, and the spec gives none: set [axes.NAME.spec] max_noise_gain, or use goal = "margin" (the lowest cutoff that keeps every check)`)
+			good = false
+		}
 	}
 	if good && loopHz > 0 {
 		// The rules above make every section realizable; a section that

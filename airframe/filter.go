@@ -45,10 +45,47 @@ type Filter struct {
 	// Damping is the second-order lowpass's damping ζ (1/√2: Butterworth);
 	// 0 otherwise.
 	Damping float64
-	// AutoHz says that the file asked for hz = "auto": Hz (and WidthHz,
-	// unless the file gave it) were placed on a lightly damped mode (see
-	// Axis.LightModes and NotchWidth).
+	// AutoHz says that the file asked for hz = "auto". On a notch, Hz
+	// (and WidthHz, unless the file gave it) were placed on a lightly
+	// damped mode (see Axis.LightModes and NotchWidth). On a lowpass the
+	// design chooses Hz as Goal asks (discrete.DesignAxis); until then Hz
+	// is the top of the range it chooses from, AutoLowpassTop · loop_hz.
 	AutoHz bool
+	// Goal is what an automatic lowpass's cutoff is chosen for: GoalNoise
+	// or GoalMargin; "" otherwise.
+	Goal string
+}
+
+// The goals of a lowpass with hz = "auto". Either cutoff is the edge of
+// the cutoffs whose design meets every check: a higher cutoff costs less
+// phase at the crossover (so more load rejection and margin), a lower
+// one passes less gyro noise to the command.
+const (
+	// GoalNoise takes the highest cutoff whose design meets every check,
+	// spec.max_noise_gain among them: no more filtering than the noise
+	// bound needs. The default when the spec gives max_noise_gain.
+	GoalNoise = "noise"
+	// GoalMargin takes the lowest cutoff whose design meets every check:
+	// as much filtering as the margins, the step and the rest allow. The
+	// default otherwise.
+	GoalMargin = "margin"
+)
+
+// AutoLowpassTop is the top of the cutoffs a lowpass with hz = "auto" is
+// chosen from, as a fraction of loop_hz: 0.9 × Nyquist, where a Tustin
+// section still lands its cutoff where asked (prewarped) and its phase
+// below the crossover is nearly that of a pure delay.
+const AutoLowpassTop = 0.45
+
+// AutoLowpassIndex returns the index in a.Filters of the lowpass with
+// hz = "auto", or −1.
+func (a Axis) AutoLowpassIndex() int {
+	for i, f := range a.Filters {
+		if f.Kind == FilterLowpass && f.AutoHz {
+			return i
+		}
+	}
+	return -1
 }
 
 // LightDamping is the damping below which a pole pair of the plant or the
@@ -194,10 +231,14 @@ func (f Filter) Describe() string {
 		}
 		return s
 	case FilterLowpass:
-		if f.Order == 1 {
-			return fmt.Sprintf("lowpass %g Hz, order 1", f.Hz)
+		hz := fmt.Sprintf("lowpass %g Hz", f.Hz)
+		if f.AutoHz {
+			hz = fmt.Sprintf("lowpass %g Hz (auto, goal %s)", f.Hz, f.Goal)
 		}
-		return fmt.Sprintf("lowpass %g Hz, order 2, damping %.4g", f.Hz, f.Damping)
+		if f.Order == 1 {
+			return hz + ", order 1"
+		}
+		return fmt.Sprintf("%s, order 2, damping %.4g", hz, f.Damping)
 	}
 	return string(f.Kind)
 }

@@ -117,6 +117,42 @@ func TestFilterAuto(t *testing.T) {
 	}
 }
 
+// hz = "auto" on a lowpass: the section waits at the top of the range
+// the design chooses from (0.45 · loop_hz, three digits), with the goal
+// the file gives, or "noise" when the spec bounds the noise gain and
+// "margin" when it does not.
+func TestAutoLowpassParse(t *testing.T) {
+	for _, c := range []struct {
+		name, table, spec, goal string
+	}{
+		{"default without a noise bound", "kind = \"lowpass\"\nhz = \"auto\"", "", GoalMargin},
+		{"default with a noise bound", "kind = \"lowpass\"\nhz = \"auto\"\norder = 1", "max_noise_gain = 0.5\n", GoalNoise},
+		{"margin asked with a noise bound", "kind = \"lowpass\"\nhz = \"auto\"\ngoal = \"margin\"", "max_noise_gain = 0.5\n", GoalMargin},
+	} {
+		src := strings.Replace(withFilters(c.table), "[axes.roll.spec]\n", "[axes.roll.spec]\n"+c.spec, 1)
+		f, err := Parse("x.toml", []byte(src))
+		if err != nil {
+			t.Fatalf("%s: %v", c.name, err)
+		}
+		a := f.Axes[0]
+		i := a.AutoLowpassIndex()
+		if i != 0 {
+			t.Fatalf("%s: AutoLowpassIndex %d, want 0", c.name, i)
+		}
+		got := a.Filters[i]
+		if !got.AutoHz || got.Goal != c.goal || got.Hz != 450 {
+			t.Errorf("%s: %+v, want auto at 450 Hz with goal %q", c.name, got, c.goal)
+		}
+	}
+	f, err := Parse("x.toml", []byte(withFilters("kind = \"lowpass\"\nhz = 100.0")))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if i := f.Axes[0].AutoLowpassIndex(); i != -1 {
+		t.Errorf("a lowpass with its cutoff given: AutoLowpassIndex %d, want -1", i)
+	}
+}
+
 func TestFilterMalformed(t *testing.T) {
 	cases := []struct {
 		name, src, want string
@@ -129,7 +165,11 @@ func TestFilterMalformed(t *testing.T) {
 		{"hz nan", withFilters("kind = \"lowpass\"\nhz = nan"), `axes.roll.filter[0].hz = nan: must be a finite number > 0`},
 		{"hz tiny", withFilters("kind = \"lowpass\"\nhz = 1e-12"), `axes.roll.filter[0].hz = 1e-12: the filter's frequency 2π·hz: magnitude`},
 		{"hz auto without a mode", withFilters("kind = \"notch\"\nhz = \"auto\"\nwidth_hz = 10.0"), `axes.roll.filter[0].hz = "auto": no lightly damped mode of the plant or sensor (a pole pair with damping below 0.2) below 0.9 × Nyquist (450 Hz) to centre the notch on: give the centre in Hz`},
-		{"hz auto on a lowpass", withFilters("kind = \"lowpass\"\nhz = \"auto\""), `axes.roll.filter[0].hz = "auto": "auto" places a notch only: give the lowpass's cutoff in Hz, a number > 0 and below Nyquist (loop_hz/2 = 500) (Hz)`},
+		{"two auto lowpasses", withFilters("kind = \"lowpass\"\nhz = \"auto\"", "kind = \"lowpass\"\nhz = \"auto\""), `axes.roll.filter[1].hz = "auto": one lowpass per axis may have hz = "auto" (the design chooses one cutoff): give this one's cutoff in Hz, a number > 0 and below Nyquist (loop_hz/2 = 500) (Hz)`},
+		{"goal noise without a bound", withFilters("kind = \"lowpass\"\nhz = \"auto\"\ngoal = \"noise\""), `axes.roll.filter[0].goal = "noise": "noise" chooses the highest cutoff whose design meets spec.max_noise_gain, and the spec gives none`},
+		{"goal unknown", withFilters("kind = \"lowpass\"\nhz = \"auto\"\ngoal = \"fast\""), `axes.roll.filter[0].goal = "fast": must be one of "noise", "margin"`},
+		{"goal with a cutoff", withFilters("kind = \"lowpass\"\nhz = 100.0\ngoal = \"margin\""), `axes.roll.filter[0].goal = "margin": only for kind = "lowpass" with hz = "auto"`},
+		{"goal on a notch", withFilters("kind = \"notch\"\nhz = 100.0\nwidth_hz = 10.0\ngoal = \"margin\""), `axes.roll.filter[0].goal = "margin": only for kind = "lowpass" with hz = "auto"`},
 		{"hz auto twice", strings.Replace(withFilters("kind = \"notch\"\nhz = \"auto\"", "kind = \"notch\"\nhz = \"auto\""), "effectiveness = 2000.0\nmotor_tau = 0.025\n", "gain = 5e9\npoles = [0.0, -40.0, [-12.0, 250.0]]\n", 1), `axes.roll.filter[1].hz = "auto": no lightly damped mode left (1 taken by the notches before)`},
 		{"hz string", withFilters("kind = \"notch\"\nhz = \"fast\"\nwidth_hz = 10.0"), `axes.roll.filter[0].hz = "fast": must be a number > 0 and below Nyquist (loop_hz/2 = 500) (Hz), not a string`},
 		{"width missing", withFilters("kind = \"notch\"\nhz = 100.0"), `axes.roll.filter[0].width_hz: required: a number > 0 and below hz = 100`},
@@ -145,7 +185,7 @@ func TestFilterMalformed(t *testing.T) {
 		{"damping small", withFilters("kind = \"lowpass\"\nhz = 100.0\ndamping = 0.01"), `axes.roll.filter[0].damping = 0.01: must be in [0.1, 2] (ζ; 0.7071 is the Butterworth section)`},
 		{"at derivative", withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0"), `axes.roll.filter[0].at = "derivative": a filter on the derivative path alone is not implemented yet: the derivative's first-order lowpass is control.derivative_lowpass_hz`},
 		{"at elsewhere", withFilters("kind = \"lowpass\"\nat = \"output\"\nhz = 100.0"), `axes.roll.filter[0].at = "output": must be one of "feedback", "derivative"`},
-		{"unknown key", withFilters("kind = \"lowpass\"\nhz = 100.0\nq = 2.0"), `axes.roll.filter[0].q = 2.0: unknown key; allowed in [axes.roll.filter[0]]: kind, at, hz, width_hz, depth_db, order, damping`},
+		{"unknown key", withFilters("kind = \"lowpass\"\nhz = 100.0\nq = 2.0"), `axes.roll.filter[0].q = 2.0: unknown key; allowed in [axes.roll.filter[0]]: kind, at, hz, width_hz, depth_db, order, damping, goal`},
 		{"second filter", withFilters("kind = \"lowpass\"\nhz = 100.0", "kind = \"notch\"\nhz = 80.0"), `axes.roll.filter[1].width_hz: required`},
 		{"too many", withFilters("kind = \"lowpass\"\nhz = 100.0", "kind = \"lowpass\"\nhz = 100.0", "kind = \"lowpass\"\nhz = 100.0", "kind = \"lowpass\"\nhz = 100.0", "kind = \"lowpass\"\nhz = 100.0"), `axes.roll.filter: 5 filters: at most 4 per axis`},
 		{"not an array", minimal + "\n[axes.roll.filter]\nkind = \"lowpass\"\nhz = 100.0\n", `axes.roll.filter: must be an array of tables [[axes.roll.filter]] (kind, at, hz, ...), not a table`},

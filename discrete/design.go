@@ -65,9 +65,16 @@ const (
 // When the plant has a lightly damped mode within a decade above the
 // crossover that no notch of the chain covers, the design is repeated
 // with a notch on it, and a warning suggests the notch with what it buys
-// (suggestNotch).
+// (suggestNotch). A lowpass with hz = "auto" gets the cutoff its goal
+// asks for (designAutoLowpass).
 func DesignAxis(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (*Design, error) {
-	d, err := designAxisOnly(p, loop, num)
+	var d *Design
+	var err error
+	if i := p.AutoLowpassIndex(); i >= 0 {
+		d, err = designAutoLowpass(p, loop, num, i)
+	} else {
+		d, err = designAxisOnly(p, loop, num)
+	}
 	if err != nil {
 		return nil, err
 	}

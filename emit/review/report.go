@@ -88,6 +88,8 @@ type FilterReport struct {
 	DepthDB             *float64  `json:"depth_db,omitempty"`
 	Order               int       `json:"order,omitempty"`
 	Damping             *float64  `json:"damping,omitempty"`
+	Auto                bool      `json:"auto,omitempty"`
+	Goal                string    `json:"goal,omitempty"`
 	B                   []float64 `json:"b"`
 	A                   []float64 `json:"a"`
 	PhaseAtCrossoverDeg *float64  `json:"phase_at_crossover_deg,omitempty"`
@@ -514,7 +516,7 @@ func jsonFilters(d *discrete.Design) []FilterReport {
 	var out []FilterReport
 	wc := d.Verif.Margins.Crossover
 	for i, f := range d.Problem.Filters {
-		r := FilterReport{Kind: string(f.Kind), At: f.At, Hz: jsonNum(f.Hz), Order: f.Order}
+		r := FilterReport{Kind: string(f.Kind), At: f.At, Hz: jsonNum(f.Hz), Order: f.Order, Auto: f.AutoHz, Goal: f.Goal}
 		if f.Kind == airframe.FilterNotch {
 			r.WidthHz = jsonNum(f.WidthHz)
 			if f.DepthDB > 0 {
