@@ -163,6 +163,10 @@ type BatchOptions struct {
 	// way holds no parsed file it is done with, and memory stays flat in
 	// the number of airframes (about 7 KB a file otherwise).
 	Release bool
+	// Unfiltered designs every axis with a filter chain again without
+	// it (Design.Unfiltered), for the review's comparison of what the
+	// chain buys: it doubles those axes' cost.
+	Unfiltered bool
 }
 
 // DesignAll designs the airframes with a bounded pool of workers and
@@ -194,7 +198,7 @@ func DesignEach(files []*airframe.File, o BatchOptions, fn func(i int, a *Airfra
 		go func() {
 			defer wg.Done()
 			for i := range next {
-				slots[i] <- designOne(files[i], o.KeepTraces)
+				slots[i] <- designOne(files[i], o.KeepTraces, o.Unfiltered)
 			}
 		}()
 	}
@@ -220,7 +224,7 @@ func DesignEach(files []*airframe.File, o BatchOptions, fn func(i int, a *Airfra
 	wg.Wait()
 }
 
-func designOne(f *airframe.File, keep bool) (a *Airframe) {
+func designOne(f *airframe.File, keep, unfiltered bool) (a *Airframe) {
 	defer func() {
 		if r := recover(); r != nil {
 			a = &Airframe{File: f}
@@ -230,6 +234,15 @@ func designOne(f *airframe.File, keep bool) (a *Airframe) {
 		}
 	}()
 	a = DesignAirframe(f)
+	if unfiltered {
+		var jobs []func()
+		for _, x := range a.Axes {
+			if d := x.Design; d != nil && len(d.Problem.Filters) > 0 {
+				jobs = append(jobs, d.designUnfiltered)
+			}
+		}
+		runAll(jobs)
+	}
 	if !keep {
 		for _, x := range a.Axes {
 			if x.Design != nil {

@@ -32,10 +32,28 @@ type Design struct {
 	loops     *Loops
 	// realizeWarnings are the discretization's notes.
 	realizeWarnings []string
+	// Unfiltered is the axis designed again without its filter chain
+	// (BatchOptions.Unfiltered), to show what the chain buys; nil
+	// otherwise, or with UnfilteredErr when no design came of it.
+	Unfiltered    *Design
+	UnfilteredErr error
 	// Num is the numeric realization in airframe.Numeric's type: coefficient
 	// table, fixed-point formats and proved ranges, the integer model, and
 	// the verification with quantized coefficients (see RealizeNumeric).
 	Num *Realization
+}
+
+// designUnfiltered sets d.Unfiltered: the same axis, loop and numeric
+// type without the filter chain, designed as DesignAxis designs (without
+// its traces: the review compares figures).
+func (d *Design) designUnfiltered() {
+	p := d.Problem
+	p.Filters = nil
+	u, err := DesignAxis(p, d.Loop, d.Numeric)
+	if err == nil {
+		u.DropTraces()
+	}
+	d.Unfiltered, d.UnfilteredErr = u, err
 }
 
 // OK reports whether every check passed.

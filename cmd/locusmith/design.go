@@ -63,7 +63,7 @@ func runDesign(args []string, stdout, stderr io.Writer) int {
 			_, werr = fmt.Fprintf(stdout, "{\n  \"version\": %q,\n  \"airframes\": [\n", version.Version)
 		}
 	}
-	designStream(files, *jobs, false, true, stderr, func(i int, a *discrete.Airframe) {
+	designStream(files, discrete.BatchOptions{Jobs: *jobs, Release: true}, stderr, func(i int, a *discrete.Airframe) {
 		for _, x := range a.Axes {
 			code = worst(code, axisStatus(x))
 		}

@@ -150,7 +150,7 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 	var all []emit.Source
 	var refused []string // file names not generated because of exit-1 failures
 	var stageErr error
-	designStream(files, *jobs, false, true, stderr, func(_ int, a *discrete.Airframe) {
+	designStream(files, discrete.BatchOptions{Jobs: *jobs, Release: true}, stderr, func(_ int, a *discrete.Airframe) {
 		srcs, warns, err := batch.Add(a)
 		for _, w := range warns {
 			fmt.Fprintf(stderr, "locusmith emit: warning: %s\n", w)

@@ -323,14 +323,13 @@ func jobsFlag(fs *pflag.FlagSet) *int {
 	return fs.IntP("jobs", "j", runtime.NumCPU(), "airframes designed at once (default: the number of CPUs)")
 }
 
-// designStream designs files with jobs workers and delivers each airframe
-// to fn in input order as soon as it is done, so that memory stays flat in
-// the number of airframes, showing a progress line on stderr when it is a
-// terminal and the batch is long (never in pipes or CI); with release it
-// also drops each parsed file from files once delivered (the caller must
-// not use files afterwards).
-func designStream(files []*airframe.File, jobs int, keepTraces, release bool, stderr io.Writer, fn func(int, *discrete.Airframe)) {
-	o := discrete.BatchOptions{Jobs: jobs, KeepTraces: keepTraces, Release: release}
+// designStream designs files with o.Jobs workers and delivers each
+// airframe to fn in input order as soon as it is done, so that memory
+// stays flat in the number of airframes, showing a progress line on
+// stderr when it is a terminal and the batch is long (never in pipes or
+// CI); with o.Release it also drops each parsed file from files once
+// delivered (the caller must not use files afterwards).
+func designStream(files []*airframe.File, o discrete.BatchOptions, stderr io.Writer, fn func(int, *discrete.Airframe)) {
 	if f, ok := stderr.(*os.File); ok && len(files) >= 20 && os.Getenv("CI") == "" {
 		if st, err := f.Stat(); err == nil && st.Mode()&os.ModeCharDevice != 0 {
 			o.Progress = func(done, total int) {

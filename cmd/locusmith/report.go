@@ -131,7 +131,7 @@ func runReport(args []string, stdout, stderr io.Writer) int {
 	var dones []done
 	var fail error
 	made := false
-	designStream(files, *jobs, true, true, stderr, func(i int, a *discrete.Airframe) {
+	designStream(files, discrete.BatchOptions{Jobs: *jobs, KeepTraces: true, Release: true, Unfiltered: true}, stderr, func(i int, a *discrete.Airframe) {
 		if fail != nil {
 			return
 		}

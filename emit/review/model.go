@@ -71,6 +71,10 @@ type AxisPage struct {
 	// the sampling and the delays, and what is left as margin.
 	Phase      []Row
 	PhaseTotal string
+	// Chain compares the design with the axis designed again without
+	// its filter chain: what the chain buys (nil without a chain, or
+	// when the comparison was not designed).
+	Chain      []ChainRow
 	Envelope   *EnvelopePage
 	CPoles     string
 	DPoles     string
@@ -279,6 +283,7 @@ func axisModel(airframe string, x discrete.Outcome) (AxisPage, []builtFigure) {
 	ar.Coeffs = coeffRows(d.Coeffs)
 	ar.Metrics, ar.Checks = metricRows(d)
 	ar.Phase, ar.PhaseTotal = phaseBudget(d)
+	ar.Chain = chainRows(d)
 	ar.Envelope = envelopePage(d)
 	ar.CPoles = polesText(c.Verif.Poles, "")
 	ar.DPoles = zPolesText(d.Verif.Poles, d.Plant.T)
@@ -819,6 +824,62 @@ func phaseBudget(d *discrete.Design) ([]Row, string) {
 		add("transport delay", -wc*tau, "−ωc·τ")
 	}
 	return rows, fmt.Sprintf("%s at the crossover %s (%s Hz); the phase margin left is %s", degs(total*deg), rads(wc), g4(wc/(2*math.Pi)), degs(d.Verif.Margins.PhaseDeg))
+}
+
+// ChainRow is a figure of the design with its filter chain and of the
+// same axis designed without it.
+type ChainRow struct {
+	Name, With, Without string
+}
+
+// chainRows compares d with d.Unfiltered, the axis designed again
+// without its filter chain: the verdict, the gains, and the worst value
+// over the envelope of the checks the chain moves (the margins, Ms, the
+// settling time), the noise gain and the nominal crossover.
+func chainRows(d *discrete.Design) []ChainRow {
+	if len(d.Problem.Filters) == 0 || (d.Unfiltered == nil && d.UnfilteredErr == nil) {
+		return nil
+	}
+	verdict := func(d *discrete.Design) string {
+		if d.OK() {
+			return "met"
+		}
+		var miss []string
+		for _, c := range d.Checks {
+			if !c.OK && !slices.Contains(miss, c.Name) {
+				miss = append(miss, c.Name)
+			}
+		}
+		return "not met (" + strings.Join(miss, ", ") + ")"
+	}
+	check := func(d *discrete.Design, name string) string {
+		for _, c := range d.Checks {
+			if c.Name == name {
+				return synth.CheckValue(name, c.Value)
+			}
+		}
+		return "–"
+	}
+	u := d.Unfiltered
+	if u == nil {
+		msg := mdText(strings.TrimPrefix(d.UnfilteredErr.Error(), "axis "+d.Problem.Name+": "))
+		return []ChainRow{{"spec", verdict(d), "no design: " + msg}}
+	}
+	rows := []ChainRow{
+		{"spec", verdict(d), verdict(u)},
+		{"gains", gainsText(d.Cont.Ctrl), gainsText(u.Cont.Ctrl)},
+	}
+	for _, c := range []struct{ label, name string }{
+		{"phase margin (worst)", "phase_margin"},
+		{"gain margin (worst)", "gain_margin"},
+		{"sensitivity peak Ms (worst)", "max_sensitivity"},
+		{"settling time (worst)", "settling_time"},
+	} {
+		rows = append(rows, ChainRow{c.label, check(d, c.name), check(u, c.name)})
+	}
+	return append(rows,
+		ChainRow{"noise gain", g4(d.NoiseGain), g4(u.NoiseGain)},
+		ChainRow{"crossover (nominal)", rads(d.Verif.Margins.Crossover), rads(u.Verif.Margins.Crossover)})
 }
 
 // specOf is the limit of the check named name, "≤ 1.7", or "–" when the
