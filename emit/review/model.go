@@ -74,15 +74,15 @@ type AxisPage struct {
 	// Chain compares the design with the axis designed again without
 	// its filter chain: what the chain buys (nil without a chain, or
 	// when the comparison was not designed).
-	Chain      []ChainRow
-	Envelope   *EnvelopePage
-	CPoles     string
-	DPoles     string
-	Fixed      *FixedPoint
-	Plots      []Plot
-	Notes      []string
-	Warnings   []string
-	OK         bool
+	Chain    []ChainRow
+	Envelope *EnvelopePage
+	CPoles   string
+	DPoles   string
+	Fixed    *FixedPoint
+	Plots    []Plot
+	Notes    []string
+	Warnings []string
+	OK       bool
 }
 
 // Row is a name and a value (and, in some tables, a unit or note).
