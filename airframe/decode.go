@@ -696,10 +696,6 @@ func (c *checker) filters(t *table, lp loopInfo, auto autoPlacer) []Filter {
 		c.fail(key, nil, "%s: at most %d per axis (each adds states to every check of the loop and a section to the generated step)", count(len(arr), "filter"), MaxFilters)
 		return nil
 	}
-	if lp.numOK && lp.numeric.Type.IsFixed() && len(arr) > 0 {
-		c.fail(key, nil, "filters are implemented for numeric.type = \"float32\" and \"float64\" only (numeric.type is %q): the fixed-point code has no proved bounds for them yet; use a float type, or model the filter in [%s] and leave it to the firmware", lp.numeric.Type, t.sub("sensor"))
-		return nil
-	}
 	var out []Filter
 	for i, e := range arr {
 		k := fmt.Sprintf("%s[%d]", key, i)

@@ -171,12 +171,13 @@ func designAxisOnly(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (
 // with a notch there, placed as hz = "auto" would place it (centre at the
 // mode, airframe.NotchWidth; three digits). It returns the suggestion with
 // what the notch buys, or "" when there is no such mode, the chain is
-// full, the numeric type has no filters, or the notch buys nothing
-// (neither a met spec nor a load-rejection gain larger by 5 %).
+// full, or the notch buys nothing (neither a met spec nor a
+// load-rejection gain larger by 5 %; in fixed point the second design's
+// proofs of the chain count among its checks).
 func suggestNotch(d *Design) string {
 	p, loop := d.Problem, d.Loop
 	wc := d.Verif.Margins.Crossover
-	if d.Numeric.Type.IsFixed() || len(p.Filters) >= airframe.MaxFilters || !(wc > 0) || math.IsInf(wc, 0) {
+	if len(p.Filters) >= airframe.MaxFilters || !(wc > 0) || math.IsInf(wc, 0) {
 		return ""
 	}
 	if wn := d.Cont.Target.OmegaN; wn > wc && !math.IsInf(wn, 0) {

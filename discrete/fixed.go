@@ -52,7 +52,22 @@ type QCoeff struct {
 //	clamp(x, lo, hi), satadd(a, b), satshl(x, n)   Clamp, SatAdd, SatShiftLeft
 //
 // Every shift count is a constant of the realization. States persist in
-// the state struct: S, Ud, Vp, E, Uu (A), Ua (D), Pending, Fresh.
+// the state struct: S, Ud, Vp, E, Uu (A), Ua (D), Pending, Fresh, and the
+// filter sections' X1, X2, Y1, Y2 (A).
+//
+// The feedback filter chain (Sections; none without one) runs first, on
+// the measurement, each section in direct form I (see FixedSection):
+//
+//	y = (A)y
+//	for each section, in the order of the chain:
+//	    v = mul(B0, y) + mul(B1, X1) + mul(B2, X2) − mul(A1, Y1) − mul(A2, Y2)
+//	    X2 = X1; X1 = y; Y2 = Y1; Y1 = v; y = v
+//	y = rsh(y, F of the last section)          // input LSB again
+//
+// (a first-order section has no B2, A2, X2, Y2; the sum is evaluated
+// left to right, each partial sum a proved bound). The controller below
+// then works on this y, an accumulator word: its bound (the chain's ℓ1
+// gain times the input full scale) may exceed the data word.
 //
 // PID family (p, pi, pd, pid):
 //
@@ -114,6 +129,9 @@ type Fixed struct {
 	FS, FD, FU int
 	// SatInc and SatInt select saturating adds in the integrator update.
 	SatInc, SatInt bool
+	// Sections is the feedback filter chain, in the order it runs; nil
+	// without one.
+	Sections []FixedSection
 }
 
 // FixedState is the memory of the integer controller between samples.
@@ -124,6 +142,9 @@ type FixedState struct {
 	Ua               int32
 	Pending          bool
 	Fresh            bool
+	// F holds the states X1, X2, Y1, Y2 of each filter section (X2 and
+	// Y2 stay 0 in a first-order section).
+	F [airframe.MaxFilters][4]int64
 }
 
 // Reset makes the transfer bumpless, as Reset of the reference model: the
@@ -137,9 +158,14 @@ type FixedState struct {
 //	form I:  q = (A)output * 2^FU − (mul(KpB, (A)measured) − mul(Kp, (A)measured))
 //	         S = clamp(satshl(q, FS − FU), −IL, IL)
 //	form D:  on the error: Fresh = true; on the measurement: Vp = −(A)measured
+//	each filter section: X1 = X2 = (A)measured * 2^FIn, Y1 = Y2 = (A)measured * 2^F
 //
 // (q is in the sum's format FU, as the step's proportional terms; the
 // saturating shift SatShiftLeft is exact under the clamp that follows.)
+// Each filter section starts at its steady state for a constant input
+// measured: its quantized DC gain is exactly 1 (see FixedSection), so its
+// input and its output both stand for measured, and the controller sees
+// no step at engagement.
 func (f *Fixed) Reset(s *FixedState, output, measured int32) {
 	switch f.W {
 	case 8:
@@ -153,6 +179,14 @@ func (f *Fixed) Reset(s *FixedState, output, measured int32) {
 
 func fixedReset[D, A Word](f *Fixed, s *FixedState, output, measured D) {
 	*s = FixedState{}
+	for k := range f.Sections {
+		q := &f.Sections[k]
+		in, out := int64(shl(A(measured), q.FIn)), int64(shl(A(measured), q.F))
+		s.F[k][0], s.F[k][2] = in, out
+		if q.Second {
+			s.F[k][1], s.F[k][3] = in, out
+		}
+	}
 	if f.Form == airframe.FormLead {
 		s.S = int64(shl(A(output), f.FU))
 		return
@@ -222,8 +256,33 @@ func addQ[A Word](a, b A, sat bool) A {
 	return a + b
 }
 
+// fixedChain runs the feedback filter chain on the raw measurement y and
+// returns its output at the input LSB (y itself without a chain).
+func fixedChain[D, A Word](f *Fixed, s *FixedState, y A) A {
+	if len(f.Sections) == 0 {
+		return y
+	}
+	for k := range f.Sections {
+		q, st := &f.Sections[k], &s.F[k]
+		x1, x2, y1, y2 := A(st[0]), A(st[1]), A(st[2]), A(st[3])
+		v := mulQ[D](&q.B0, y) + mulQ[D](&q.B1, x1)
+		if q.Second {
+			v += mulQ[D](&q.B2, x2)
+		}
+		v -= mulQ[D](&q.A1, y1)
+		if q.Second {
+			v -= mulQ[D](&q.A2, y2)
+			st[1], st[3] = int64(x1), int64(y1)
+		}
+		st[0], st[2] = int64(y), int64(v)
+		y = v
+	}
+	return RoundShift(y, f.Sections[len(f.Sections)-1].F)
+}
+
 // fixedStep is Step in the data word D and the accumulator word A.
-func fixedStep[D, A Word](f *Fixed, s *FixedState, r, y D) D {
+func fixedStep[D, A Word](f *Fixed, s *FixedState, r, yd D) D {
+	y := fixedChain[D](f, s, A(yd))
 	S, Ud, Vp, E, Uu, Ua := A(s.S), A(s.Ud), A(s.Vp), A(s.E), A(s.Uu), A(s.Ua)
 	lo, hi := A(f.Lo), A(f.Hi)
 	var uu, e A
@@ -231,7 +290,7 @@ func fixedStep[D, A Word](f *Fixed, s *FixedState, r, y D) D {
 		if s.Pending {
 			S = mulQ[D](&f.B1, E) - mulQ[D](&f.A1, Uu)
 		}
-		e = A(r) - A(y)
+		e = A(r) - y
 		uu = mulQ[D](&f.B0, e) + S
 	} else {
 		if s.Pending && f.Form.HasIntegral() {
@@ -249,14 +308,14 @@ func fixedStep[D, A Word](f *Fixed, s *FixedState, r, y D) D {
 			S = addQ(S, inc, f.SatInt)
 			S = Clamp(S, -A(f.IL), A(f.IL))
 		}
-		e = A(r) - A(y)
-		uu = mulQ[D](&f.KpB, A(r)) - mulQ[D](&f.Kp, A(y))
+		e = A(r) - y
+		uu = mulQ[D](&f.KpB, A(r)) - mulQ[D](&f.Kp, y)
 		if f.Form.HasIntegral() {
 			uu += RoundShift(S, f.FS-f.FU)
 			uu += mulQ[D](&f.G0, e)
 		}
 		if f.Form.HasDerivative() {
-			v := -A(y)
+			v := -y
 			if f.DerivativeOnError {
 				v = e
 			}

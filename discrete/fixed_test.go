@@ -111,6 +111,7 @@ type oracle struct {
 	Ua               *big.Int
 	Pending, Fresh   bool
 	max              map[string]*big.Int
+	F                [][4]*big.Int // the filter sections' X1, X2, Y1, Y2 (fixedfilter_test.go)
 }
 
 func newOracle(t *testing.T, f *Fixed) *oracle {
@@ -190,6 +191,7 @@ func (o *oracle) reset(output, measured int32) {
 	o.S, o.Ud, o.Vp, o.E, o.Uu, o.Ua = bi(0), bi(0), bi(0), bi(0), bi(0), bi(0)
 	o.Pending, o.Fresh = false, false
 	out, m := o.satD(output), o.satD(measured)
+	o.chainReset(m)
 	if f.Form == airframe.FormLead {
 		o.S = new(big.Int).Lsh(out, uint(f.FU))
 		return
@@ -211,7 +213,7 @@ func (o *oracle) reset(output, measured int32) {
 
 func (o *oracle) step(r32, y32 int32) int64 {
 	f := o.f
-	r, y := o.satD(r32), o.satD(y32)
+	r, y := o.satD(r32), o.chainStep(o.satD(y32))
 	var uu, e *big.Int
 	if f.Form == airframe.FormLead {
 		if o.Pending {

@@ -98,6 +98,12 @@ type Realization struct {
 	// signal-to-quantization-noise ratio, and the peak-to-peak output
 	// after the excitation with zero input (RestLSB) and its stated bound.
 	MaxErrorLSB, SQNRdB, RestLSB, RestBoundLSB float64
+	// FilterNoiseLSB is, for a fixed-point filter chain, the proved bound
+	// of its rounding error at its output (against the same chain in
+	// exact arithmetic with the quantized coefficients), in input LSB,
+	// before the output is rounded to the input LSB for the controller;
+	// 0 without a chain.
+	FilterNoiseLSB float64
 	// Checks are "overflow" (fixed point), the spec checks with quantized
 	// coefficients ("quantized_<metric>", float32 and fixed point) and
 	// "limit_cycle" (fixed point); Warnings explain failures.
@@ -184,7 +190,13 @@ func coefSpecs(k *Coeffs) []coefSpec {
 // formats give. The bounds, all in integer units and including the
 // rounding of every product (round-half-up errs by at most ½):
 //
-//   - e = r − y: 2^w − 1; each product K·x: |K_raw|·max|x|;
+//   - the filter chain's products, partial sums and outputs, and its
+//     output to the controller: ℓ1 norms of their paths from the input
+//     and from each section's rounding (FixedSection, filterBounds); the
+//     controller's measurement y is then bounded by the chain's output
+//     instead of the input full scale;
+//   - e = r − y: 2^w − 1 (with a chain, 2^(w−1) + max|y|); each product
+//     K·x: |K_raw|·max|x|;
 //   - the integrator: its clamp ±IL; its update S + inc by interval sums,
 //     with saturating adds where that exceeds the word (exact under the
 //     clamp that follows when the word holds 2·IL: a saturated sum is
@@ -309,6 +321,11 @@ type fixedPlan struct {
 	specs      []coefSpec
 	scaled     []float64 // each coefficient in raw units
 	overflow   []string  // possible wrap-arounds
+	// gains are the ℓ1 gains of the filter chain's paths (chainGains),
+	// and noise the bound of the chain's rounding at its output in input
+	// LSB at the chosen formats (filterBounds).
+	gains []sectionGains
+	noise float64
 }
 
 // scale returns the factor from a coefficient of kind k to raw units.
@@ -368,6 +385,15 @@ func realizeFixed(d *Design, w int, checkResolution bool) (*Realization, error) 
 		return nil, err
 	}
 	p.quantize()
+	if len(p.f.Sections) > 0 {
+		qs := make([]lti.Biquad, len(p.f.Sections))
+		for i := range p.f.Sections {
+			qs[i] = p.f.Sections[i].Biquad()
+		}
+		p.gains = chainGains(qs)
+		pl := d.Plant.WithSections(qs)
+		re.quantizedPlant = &pl
+	}
 	re.Ranges = p.chooseFormats()
 	re.Fixed = &p.f
 	re.QuantizedCoeffs = p.quantizedCoeffs()
@@ -379,6 +405,7 @@ func realizeFixed(d *Design, w int, checkResolution bool) (*Realization, error) 
 			minHead = math.Min(minHead, r.HeadroomBits)
 		}
 	}
+	re.FilterNoiseLSB = p.noise
 	re.Checks = append(re.Checks, synth.Check{Name: "overflow", Limit: 0, Value: minHead, OK: len(p.overflow) == 0})
 	re.Warnings = append(re.Warnings, p.overflow...)
 	if err := re.verifyQuantized(d, w); err != nil {
@@ -389,9 +416,22 @@ func realizeFixed(d *Design, w int, checkResolution bool) (*Realization, error) 
 		re.MaxErrorLSB, re.SQNRdB, re.RestLSB = acc.MaxErrorLSB, acc.SQNRdB, acc.RestLSB
 		re.RestBoundLSB = p.restBound()
 		ok := re.RestLSB <= re.RestBoundLSB
-		re.Checks = append(re.Checks, synth.Check{Name: "limit_cycle", Limit: re.RestBoundLSB, Value: re.RestLSB, Upper: true, OK: ok})
+		// The stated bound holds when the controller's input is 0 at rest:
+		// with a filter chain, when the chain's rounding stays below half
+		// an input LSB at its output, so that the rounded output of a
+		// chain at rest is exactly 0 (and exactly the measurement at
+		// engagement).
+		quiet := len(p.f.Sections) == 0 || p.noise < 0.5
+		re.Checks = append(re.Checks, synth.Check{Name: "limit_cycle", Limit: re.RestBoundLSB, Value: re.RestLSB, Upper: true, OK: ok && quiet})
 		if !ok {
 			re.Warnings = append(re.Warnings, fmt.Sprintf("limit_cycle: with zero input after the excitation the command still moves by %s LSB peak to peak (stated bound %s LSB)", fmtNum(re.RestLSB), fmtNum(re.RestBoundLSB)))
+		}
+		if !quiet {
+			way := "wider notches or higher cutoffs (poles further from the unit circle)"
+			if w < 32 {
+				way = "numeric.type = \"q31\", or " + way
+			}
+			re.Warnings = append(re.Warnings, fmt.Sprintf("limit_cycle: the filter chain's rounding can reach %s input LSB at its output (proved bound), not below half an LSB: at rest its output need not round to 0, and the controller may integrate what it leaves; way out: %s", fmtNum(p.noise), way))
 		}
 	}
 	return re, nil
@@ -433,10 +473,14 @@ func (p *fixedPlan) resolution(re *Realization) error {
 }
 
 // quantize fills the coefficients of p.f (except IL, which depends on the
-// integrator's format) at their most precise formats.
+// integrator's format) at their most precise formats, and the filter
+// sections' (quantizeSection).
 func (p *fixedPlan) quantize() {
 	k := p.d.Coeffs
 	p.f = Fixed{Type: p.d.Numeric.Type, W: p.w, Form: k.Form, AntiWindup: k.AntiWindup, DerivativeOnError: k.DerivativeOnError}
+	for _, q := range p.d.Plant.Sections {
+		p.f.Sections = append(p.f.Sections, quantizeSection(q, p.w))
+	}
 	p.specs = coefSpecs(&k)
 	p.scaled = make([]float64, len(p.specs))
 	for i, cs := range p.specs {
@@ -522,8 +566,20 @@ func (p *fixedPlan) chooseFormats() []Range {
 	if f.Form.HasDerivative() {
 		f.FD = min(f.FD, max(f.Bd.Frac, 0))
 	}
+	for k := range f.Sections {
+		f.Sections[k].F = w
+	}
 	var es []entry
-	for iter := 0; iter < 4*w; iter++ {
+	for iter := 0; iter < (4+len(f.Sections))*w; iter++ {
+		// Each section's output keeps at most N + FIn fractional bits, so
+		// that its products shift right (see FixedSection).
+		fin := 0
+		for k := range f.Sections {
+			q := &f.Sections[k]
+			q.FIn = fin
+			q.F = min(q.F, q.N+fin)
+			fin = q.F
+		}
 		if f.Form.HasIntegral() {
 			f.FU = min(f.FU, f.FS)
 		}
@@ -533,6 +589,12 @@ func (p *fixedPlan) chooseFormats() []Range {
 		es = p.bounds()
 		worst, by := -1, 0.0
 		for i, e := range es {
+			// A filter section without a bound (not stable with its
+			// quantized coefficients) takes everything after it: no
+			// format mends that, and the others still get theirs.
+			if len(f.Sections) > 0 && math.IsInf(e.Bound, 1) {
+				continue
+			}
 			if e.gov != nil && !e.Saturated && !fits(e.Bound, e.Capacity) {
 				if x := e.Bound / e.Capacity; x > by {
 					worst, by = i, x
@@ -549,9 +611,18 @@ func (p *fixedPlan) chooseFormats() []Range {
 		*g = max(0, *g-max(1, ceilLog2(by)))
 	}
 	rs := make([]Range, len(es))
+	unbounded := false
 	for i, e := range es {
 		rs[i] = e.Range
 		if !e.Saturated && !fits(e.Bound, e.Capacity) {
+			// A filter section without a bound leaves everything after
+			// it without one: its first row says why, once.
+			if math.IsInf(e.Bound, 1) {
+				if unbounded {
+					continue
+				}
+				unbounded = true
+			}
 			p.overflow = append(p.overflow, p.overflowMsg(e.Range))
 		}
 	}
@@ -560,6 +631,9 @@ func (p *fixedPlan) chooseFormats() []Range {
 
 // overflowMsg says which variable may wrap around and the ways out.
 func (p *fixedPlan) overflowMsg(r Range) string {
+	if strings.HasPrefix(r.Name, "filter ") {
+		return p.filterOverflowMsg(r)
+	}
 	var outs []string
 	if strings.HasPrefix(r.Name, "integrator") {
 		outs = append(outs, fmt.Sprintf("a smaller control.integrator_limit (now %s, %s times the output full scale)", fmtNum(p.d.Coeffs.IL), fmtNum(p.d.Coeffs.IL/p.fout)))
@@ -619,6 +693,13 @@ func (p *fixedPlan) bounds() []entry {
 	row := func(name, format string, bound, capacity float64, gov *int) entry {
 		return entry{Range: Range{Name: name, Format: format, Bound: bound, Capacity: capacity}, gov: gov}
 	}
+	// The measurement the controller gets: the raw input, or the filter
+	// chain's output (its ℓ1 gain may take it beyond the data word).
+	ymax, noise := p.filterBounds(func(e entry) { es = append(es, e) })
+	p.noise = noise
+	if len(f.Sections) > 0 {
+		emax = m + ymax
+	}
 	add(row("error e = r − y", accFmt(0), emax, capA, nil))
 	var uu, ul float64 // sum bound (FU units)
 	if f.Form == airframe.FormLead {
@@ -641,7 +722,7 @@ func (p *fixedPlan) bounds() []entry {
 		uu = ul
 	} else {
 		eKpB, tKpB := p.product("KpB·r", &f.KpB, m, 0, f.FU, nil)
-		eKp, tKp := p.product("Kp·y", &f.Kp, m, 0, f.FU, nil)
+		eKp, tKp := p.product("Kp·y", &f.Kp, ymax, 0, f.FU, nil)
 		add(eKpB)
 		add(eKp)
 		uu = tKpB + tKp
@@ -663,6 +744,9 @@ func (p *fixedPlan) bounds() []entry {
 		var ud float64
 		if f.Form.HasDerivative() {
 			vmax, dv := m, 2*m-1
+			if len(f.Sections) > 0 {
+				vmax, dv = ymax, 2*ymax
+			}
 			if f.DerivativeOnError {
 				vmax, dv = emax, 2*emax
 			}
@@ -797,7 +881,7 @@ func (p *fixedPlan) table() []Coefficient {
 		c.RelError = relErr(c.Quantized, v)
 		rows = append(rows, c)
 	}
-	return rows
+	return append(rows, p.sectionTable()...)
 }
 
 // restBound is the stated bound of the zero-input output movement: the
@@ -977,9 +1061,9 @@ type AccuracyResult struct {
 }
 
 // Accuracy runs the integer controller re.Fixed and the float64 reference
-// model (Step[float64] on the unquantized coefficients, fed the same
-// quantized inputs converted back to real values) on the standard
-// excitation, in four parts:
+// model (Step[float64] on the unquantized coefficients and filter
+// sections, fed the same quantized inputs converted back to real values)
+// on the standard excitation, in four parts:
 //
 //  1. setpoint steps to +a, 0, −a, 0 with a the largest power of two up to
 //     ½·ReferenceStep (so that the command stays within half its limit),
@@ -993,8 +1077,9 @@ type AccuracyResult struct {
 //     power of two;
 //  3. noise at the sensor's LSB: the raw measurement drawn uniformly from
 //     {−1, 0, 1} (a fixed seed), 300 samples;
-//  4. zero input, until the controller's slowest mode has decayed
-//     (20 time constants, 500 to 20000 samples).
+//  4. zero input, the filter chain (if any) put at rest first, until the
+//     controller's slowest mode has decayed (20 time constants, 500 to
+//     20000 samples).
 //
 // The outcome is deterministic and the same on every platform: the float
 // arithmetic converts every product explicitly (no fused multiply-add),
@@ -1012,6 +1097,7 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 	lsbOut := math.Ldexp(1, w-1) / fout // LSB per command unit
 	k := d.Coeffs
 	prm := ParamsOf[float64](k)
+	prm.Sections = SectionsOf[float64](d.Plant.Sections)
 	var st State[float64]
 	var fs FixedState
 	T := 1 / d.Loop.Hz
@@ -1032,8 +1118,9 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 		lim = math.Max(math.Abs(k.Lo), math.Abs(k.Hi))
 	}
 
-	// 1. Closed-loop setpoint steps.
-	pl := d.Plant
+	// 1. Closed-loop setpoint steps (both controllers run the filter
+	// chain themselves, on the measured rate before it).
+	pl := d.Plant.Unfiltered()
 	a := pow2Below(0.5 * re.ReferenceStep)
 	n1 := min(max(int(math.Round(1.5*d.Problem.Spec.SettlingTime/T)), 50), 2000)
 	x, xn := make([]float64, pl.N), make([]float64, pl.N)
@@ -1070,7 +1157,12 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 	}
 	cmax := 0.0
 	for i, om, r := 0, w0, rootPow2(w1/w0, 8); i <= 256; i, om = i+1, om*r {
-		cmax = math.Max(cmax, cmplx.Abs(numericFeedback(k, cmplx.Exp(complex(0, om*T)))))
+		z := cmplx.Exp(complex(0, om*T))
+		c := numericFeedback(k, z)
+		if len(d.Plant.Sections) > 0 {
+			c *= d.Plant.Filter(z) // the chain is in the measurement's path
+		}
+		cmax = math.Max(cmax, cmplx.Abs(c))
 	}
 	amp := 0.5 * fin
 	if cmax > 0 {
@@ -1106,6 +1198,12 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 		v *= slow
 	}
 	n4 = max(n4, minRestSamples)
+	// The filter chain at rest first, in both models: its own rest is
+	// proved (its rounding stays below half an input LSB, so a chain at
+	// rest gives exactly 0; see the limit_cycle check), and a narrow
+	// notch's linear decay, far slower than the controller's, is no limit
+	// cycle.
+	fs.F, st.F = [airframe.MaxFilters][4]int64{}, [airframe.MaxFilters][2]float64{}
 	lo, hi := math.Inf(1), math.Inf(-1)
 	for i := 0; i < n4; i++ {
 		step(0, 0)

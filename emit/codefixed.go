@@ -42,6 +42,10 @@ type codeFixed struct {
 	KpB, Kp, G0, G01, Kt, Ad, Bd, B0, B1, A1 codeQ
 	// Pow2FU is the accumulator literal 2^FU.
 	Pow2FU string
+	// ChainF is the fractional bits of the filter chain's output (its
+	// last section's F), rounded away before the controller; 0 without a
+	// chain.
+	ChainF int
 }
 
 // codeQ is one coefficient's product: the helper that forms it, the
@@ -207,8 +211,8 @@ func fixedConsts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
 	}
 	add(&ax.Lo, nil, "Lo", "OUTPUT_LO", "OutputLo", discrete.QCoeff{Raw: f.Lo}, "lowest command, raw")
 	add(&ax.Hi, nil, "Hi", "OUTPUT_HI", "OutputHi", discrete.QCoeff{Raw: f.Hi}, "highest command, raw")
-	if err != nil {
-		return err
+	if n := len(f.Sections); n > 0 {
+		fx.ChainF = f.Sections[n-1].F
 	}
 	if ax.HasI {
 		if f.IL < 0 || f.IL > (int64(1)<<(2*w-1))-1 {
@@ -223,6 +227,41 @@ func fixedConsts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
 	}
 	if ax.HasI && (fx.SatInt || ax.AWBackcalc && fx.SatInc) {
 		u.UsesSatAdd = true
+	}
+	if len(f.Sections) != len(d.Plant.Sections) {
+		return fmt.Errorf("the realization has %d filter sections, the design %d", len(f.Sections), len(d.Plant.Sections))
+	}
+	for i := range f.Sections {
+		q := &f.Sections[i]
+		if q.FIn < 0 || q.F < 0 || q.F > 2*w-2 {
+			return fmt.Errorf("filter %d: format shifts FIn %d, F %d", i+1, q.FIn, q.F)
+		}
+		n := i + 1
+		cf := codeFilter{N: n, Second: q.Second, X1: fmt.Sprintf("f%dx1", n), X2: fmt.Sprintf("f%dx2", n), Y1: fmt.Sprintf("f%dy1", n), Y2: fmt.Sprintf("f%dy2", n),
+			Fx: &codeFilterFx{FIn: q.FIn, F: q.F}}
+		if i < len(d.Problem.Filters) {
+			cf.Doc = commentText(d.Problem.Filters[i].Describe())
+		}
+		if q.FIn > 0 {
+			cf.Fx.Pow2In = pow2Lit(u, q.FIn)
+		}
+		if q.F > 0 {
+			cf.Fx.Pow2Out = pow2Lit(u, q.F)
+		}
+		c, g, what := fmt.Sprintf("F%d_", n), fmt.Sprintf("F%d", n), fmt.Sprintf("filter %d", n)
+		add(&cf.B0, &cf.Fx.B0, c+"B0", c+"B0", g+"B0", q.B0, what+": weight of the input")
+		add(&cf.B1, &cf.Fx.B1, c+"B1", c+"B1", g+"B1", q.B1, what+": weight of the last input")
+		if q.Second {
+			add(&cf.B2, &cf.Fx.B2, c+"B2", c+"B2", g+"B2", q.B2, what+": weight of the input two steps back")
+		}
+		add(&cf.A1, &cf.Fx.A1, c+"A1", c+"A1", g+"A1", q.A1, what+": feedback of the last output")
+		if q.Second {
+			add(&cf.A2, &cf.Fx.A2, c+"A2", c+"A2", g+"A2", q.A2, what+": feedback of the output two steps back")
+		}
+		ax.Filters = append(ax.Filters, cf)
+	}
+	if err != nil {
+		return err
 	}
 	fx.Pow2FU = pow2Lit(u, f.FU)
 	fx.summary = fixedSummary(u, d)
@@ -259,6 +298,7 @@ func fixedSummary(u *codeUnit, d *discrete.Design) string {
 	}
 	s := fmt.Sprintf("Numeric: %s (data %s, accumulators %s, raw = value/full scale*2^%d); formats %s; states: integrator %d, derivative %d, sum %d fractional bits below the output LSB",
 		re.Type, u.T, u.Wide, re.W-1, strings.Join(cs, ", "), re.Fixed.FS, re.Fixed.FD, re.Fixed.FU)
+	s += filterSummary(re)
 	if what != "" {
 		s += fmt.Sprintf("; minimum headroom %.3g bits (%s)", head, what)
 	}
@@ -266,6 +306,41 @@ func fixedSummary(u *codeUnit, d *discrete.Design) string {
 		s += "; saturating: " + strings.Join(sat, ", ")
 	}
 	return s + "."
+}
+
+// filterSummary is the part of the numeric line about the filter chain:
+// each section's coefficient format, its input and output formats and
+// the proved bound of its output, then the chain's output and the proved
+// bound of its rounding there ("" without a chain).
+func filterSummary(re *discrete.Realization) string {
+	f := re.Fixed
+	if len(f.Sections) == 0 {
+		return ""
+	}
+	var parts []string
+	var chain float64
+	for _, r := range re.Ranges {
+		switch {
+		case strings.HasPrefix(r.Name, "filter chain output"):
+			chain = r.Bound
+		case strings.HasPrefix(r.Name, "filter ") && strings.Contains(r.Name, " output y"):
+			var k int
+			if _, err := fmt.Sscanf(r.Name, "filter %d", &k); err != nil || k < 1 || k > len(f.Sections) {
+				continue
+			}
+			q := f.Sections[k-1]
+			parts = append(parts, fmt.Sprintf("%d. coefficients %s, input %d and output %d fractional bits below the input LSB, |output| <= %s x the input full scale",
+				k, fmt.Sprintf("Q%d.%d", re.W-1-q.N, q.N), q.FIn, q.F, codeNum(math.Ldexp(r.Bound, -(q.F+re.W-1)))))
+		}
+	}
+	s := fmt.Sprintf("; filter chain in direct form I, each product rounded once into its section's output format: %s; the chain's output, rounded to the input LSB for the controller, <= %s x the input full scale (l1 gain), its rounding error <= %s input LSB before that rounding",
+		strings.Join(parts, "; "), codeNum(math.Ldexp(chain, -(re.W-1))), codeMetric(re.FilterNoiseLSB))
+	if re.FilterNoiseLSB < 0.5 {
+		s += " (below half an LSB: no step at engagement, exactly 0 at rest)"
+	} else {
+		s += " (NOT below half an LSB: the chain may leave a limit cycle at rest)"
+	}
+	return s
 }
 
 // fixedModel adapts discrete.Fixed to the excitation driver.

@@ -327,9 +327,23 @@ type codeAxis struct {
 type codeFilter struct {
 	N                  int // 1-based position in the chain
 	B0, B1, B2, A1, A2 string
-	S1, S2             string // state field names
+	S1, S2             string // float: state field names (transposed direct form II)
 	Second             bool
 	Doc                string
+	// Fixed point (direct form I): the state field names of the last
+	// inputs and outputs, and the products and formats; nil for float.
+	X1, X2, Y1, Y2 string
+	Fx             *codeFilterFx
+}
+
+// codeFilterFx is the fixed-point arithmetic of one filter section (see
+// discrete.FixedSection): the product of each coefficient, the fractional
+// bits of its input and output below the input LSB, and the literals
+// 2^FIn and 2^F ("" for 0) with which _reset scales the measurement.
+type codeFilterFx struct {
+	B0, B1, B2, A1, A2 codeQ
+	FIn, F             int
+	Pow2In, Pow2Out    string
 }
 
 // codeConst is one named constant.
@@ -472,10 +486,6 @@ func newCodeAxis(u *codeUnit, num codeNumeric, x discrete.Outcome) (*codeAxis, e
 		default:
 			return nil, fmt.Errorf("axis %s: unknown anti-windup %q", x.Name, k.AntiWindup)
 		}
-	}
-	if u.Fixed && len(d.Plant.Sections) > 0 {
-		// The decoder refuses filters with a fixed-point type.
-		return nil, fmt.Errorf("axis %s: the fixed-point code has no filter chain", x.Name)
 	}
 	if u.Fixed {
 		ax.HasE = ax.HasI || ax.Lead

@@ -185,7 +185,6 @@ func badInputCatalogue(t *testing.T) []badInput {
 		{"filter order 4", withTable("[axes.roll.filter]", "kind = \"lowpass\"\nhz = 100.0\norder = 4"), "axes.roll.filter[0].order", "must be an integer in 1..2"},
 		{"filter hz auto", withTable("[axes.roll.filter]", "kind = \"notch\"\nhz = \"auto\"\nwidth_hz = 20.0"), "axes.roll.filter[0].hz", "no lightly damped mode of the plant or sensor (a pole pair with damping below 0.2)"},
 		{"filter on the derivative", withTable("[axes.roll.filter]", "kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0"), "axes.roll.filter[0].at", "control.derivative_lowpass_hz"},
-		{"filter fixed point", strings.Replace(withTable("[axes.roll.filter]", "kind = \"lowpass\"\nhz = 100.0"), "type = \"float32\"", "type = \"q15\"\ninput_full_scale = 20.0\noutput_full_scale = 1.0", 1), "axes.roll.filter", "filters are implemented for numeric.type = \"float32\" and \"float64\" only"},
 
 		// The whole file.
 		{"too many keys", manyKeys(6000), "", "keys and table headers, more than the 5184 an airframe file may have"},

@@ -28,6 +28,11 @@ func fixedStep(d *discrete.Design) (float64, []float64) {
 		return 0, nil
 	}
 	re, fx, pl := d.Num, d.Num.Fixed, d.Plant
+	if len(fx.Sections) > 0 {
+		// The integer controller runs the filter chain itself, on the
+		// measured rate before it.
+		pl = pl.Unfiltered()
+	}
 	w := fx.W
 	fin, fout := re.InputFullScale, re.OutputFullScale
 	a := 0.5 * re.ReferenceStep
@@ -88,6 +93,12 @@ func fixedNote(re *discrete.Realization) string {
 	if isFinite(re.MaxErrorLSB) && (re.MaxErrorLSB > 0 || re.SQNRdB > 0) {
 		s += "; against the float64 reference model on the standard excitation: largest output error " + g(re.MaxErrorLSB, 3) + " LSB, SQNR " + dbs(re.SQNRdB) +
 			", rest peak-to-peak " + g(re.RestLSB, 3) + " LSB (bound " + g(re.RestBoundLSB, 3) + ")"
+	}
+	if len(re.Fixed.Sections) > 0 {
+		s += "; the filter chain's rounding at its output is at most " + g(re.FilterNoiseLSB, 3) + " input LSB (proved)"
+		if re.FilterNoiseLSB < 0.5 {
+			s += ", below half an LSB: the controller sees no step at engagement and exactly 0 at rest"
+		}
 	}
 	return s
 }

@@ -276,6 +276,10 @@ type NumericReport struct {
 	SQNRdB               *float64 `json:"sqnr_db,omitempty"`
 	RestLSB              *float64 `json:"rest_lsb,omitempty"`
 	RestBoundLSB         *float64 `json:"rest_bound_lsb,omitempty"`
+	// FilterNoiseLSB is the proved bound of the fixed-point filter
+	// chain's rounding at its output, in input LSB; absent without a
+	// chain.
+	FilterNoiseLSB *float64 `json:"filter_noise_lsb,omitempty"`
 }
 
 // CoefficientReport is one coefficient: designed, as held by the code,
@@ -678,6 +682,9 @@ func jsonNumeric(n *discrete.Realization) *NumericReport {
 		nr.SQNRdB = jsonDigits(n.SQNRdB, 3)
 		nr.RestLSB = jsonNum(n.RestLSB)
 		nr.RestBoundLSB = jsonNum(n.RestBoundLSB)
+		if n.Fixed != nil && len(n.Fixed.Sections) > 0 {
+			nr.FilterNoiseLSB = jsonNum(n.FilterNoiseLSB)
+		}
 	}
 	return nr
 }

@@ -333,6 +333,9 @@ func (t *tableWriter) numeric(d *discrete.Design) {
 		n.Type, n.W, synth.G4(n.InputFullScale), synth.G4(n.OutputFullScale), synth.G4(n.InputResolutionBits), synth.G4(n.OutputResolutionBits))
 	t.line("             against the float64 model: max error %s LSB, SQNR %s dB, at rest %s LSB (bound %s)",
 		synth.G4(n.MaxErrorLSB), synth.G4(n.SQNRdB), synth.G4(n.RestLSB), synth.G4(n.RestBoundLSB))
+	if n.Fixed != nil && len(n.Fixed.Sections) > 0 {
+		t.line("             filter chain: rounding at its output at most %s input LSB (proved)", synth.G4(n.FilterNoiseLSB))
+	}
 	const crow = "  %-20s %-15s %-15s %-9s %s"
 	t.line(crow, "coefficient", "value", "quantized", "format", "rel error")
 	for _, c := range n.Coefficients {
