@@ -495,9 +495,6 @@ func newCodeAxis(u *codeUnit, num codeNumeric, x discrete.Outcome) (*codeAxis, e
 		ax.HasInc = ax.AWClamp
 		ax.HasFaults = true
 	}
-	ax.Doc = axisDoc(u, x, ax)
-	ax.ResetDoc = resetDoc(u, ax)
-	ax.AppliedDoc = appliedDoc(u, ax)
 	ax.VectorsName = "vectors" + ax.GoType
 	if u.Lang == LangC {
 		ax.VectorsName = ax.Prefix + "_vectors"
@@ -505,6 +502,11 @@ func newCodeAxis(u *codeUnit, num codeNumeric, x discrete.Outcome) (*codeAxis, e
 	if err := num.consts(u, ax, d); err != nil {
 		return nil, fmt.Errorf("axis %s: %w", x.Name, err)
 	}
+	// The docs after the constants, which fill the filter chain that the
+	// reset's doc describes.
+	ax.Doc = axisDoc(u, x, ax)
+	ax.ResetDoc = resetDoc(u, ax)
+	ax.AppliedDoc = appliedDoc(u, ax)
 	if u.Lang == LangC {
 		w := 0
 		for _, c := range ax.Consts {

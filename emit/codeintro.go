@@ -261,6 +261,10 @@ func resetText(u *codeUnit, ax *codeAxis) string {
 	default:
 		first, unused = "clears the state (a P controller has no memory)", "output and measured are not used"
 	}
+	if len(ax.Filters) > 0 {
+		// The chain reads measured.
+		unused = strings.TrimPrefix(strings.ReplaceAll(unused, "output and measured are not used", "output is not used"), "measured is not used")
+	}
 	parts := []string{first}
 	if len(ax.Filters) > 0 {
 		parts = append(parts, "the feedback filters start at rest at measured, so the controller sees no step")

@@ -58,7 +58,7 @@
 // compliant_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define COMPLIANT_RATE_STAMP 0xdc19db6e406f9356
+#define COMPLIANT_RATE_STAMP 0xa22669bfecc20344
 
 #ifdef __cplusplus
 extern "C" {
@@ -100,10 +100,12 @@ typedef struct {
 
 // compliant_pitch_reset makes the transfer bumpless: the next command is
 // output when the setpoint equals measured (the integrator takes output
-// minus the proportional part, within its limit); the derivative starts from
-// measured, so there is no derivative kick; output is also the command held
-// on a non-finite input until the first step; the fault count starts at 0,
-// or at 1 when output or measured is not finite, both being then taken as 0.
+// minus the proportional part, within its limit); the feedback filters start
+// at rest at measured, so the controller sees no step; the derivative starts
+// from measured, so there is no derivative kick; output is also the command
+// held on a non-finite input until the first step; the fault count starts at
+// 0, or at 1 when output or measured is not finite, both being then taken as
+// 0.
 void compliant_pitch_reset(compliant_pitch_state *s, double output, double measured);
 
 // compliant_pitch_step runs one sample and returns the command.

@@ -58,7 +58,7 @@
 // Content stamp: the first 64 bits of a SHA-256 of this header. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define COMPLIANT_RATE_STAMP 0xda5692edd05529cf
+#define COMPLIANT_RATE_STAMP 0xe82ff9a6ad4af202
 
 #ifdef __cplusplus
 extern "C" {
@@ -134,10 +134,12 @@ static inline float compliant_clamp(float x, float lo, float hi)
 
 // compliant_pitch_reset makes the transfer bumpless: the next command is
 // output when the setpoint equals measured (the integrator takes output
-// minus the proportional part, within its limit); the derivative starts from
-// measured, so there is no derivative kick; output is also the command held
-// on a non-finite input until the first step; the fault count starts at 0,
-// or at 1 when output or measured is not finite, both being then taken as 0.
+// minus the proportional part, within its limit); the feedback filters start
+// at rest at measured, so the controller sees no step; the derivative starts
+// from measured, so there is no derivative kick; output is also the command
+// held on a non-finite input until the first step; the fault count starts at
+// 0, or at 1 when output or measured is not finite, both being then taken as
+// 0.
 static inline void compliant_pitch_reset(compliant_pitch_state *s, float output, float measured)
 {
 	COMPLIANT_RATE_NO_CONTRACT

@@ -90,10 +90,11 @@ type Pitch struct {
 
 // Reset makes the transfer bumpless: the next command is output when the
 // setpoint equals measured (the integrator takes output minus the
-// proportional part, within its limit); the derivative starts from measured,
-// so there is no derivative kick; output is also the command held on a
-// non-finite input until the first step; the fault count starts at 0, or at
-// 1 when output or measured is not finite, both being then taken as 0.
+// proportional part, within its limit); the feedback filters start at rest
+// at measured, so the controller sees no step; the derivative starts from
+// measured, so there is no derivative kick; output is also the command held
+// on a non-finite input until the first step; the fault count starts at 0,
+// or at 1 when output or measured is not finite, both being then taken as 0.
 func (c *Pitch) Reset(output, measured float64) {
 	*c = Pitch{}
 	if !(output-output == measured-measured) {

@@ -8,7 +8,7 @@
 
 #include "compliant_fixed_rate.h"
 
-#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0x68b2a38be5c5905c
+#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0x33afff3b17372247
 #error "compliant_fixed_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

@@ -64,7 +64,7 @@
 // compliant_fixed_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define COMPLIANT_FIXED_RATE_STAMP 0x68b2a38be5c5905c
+#define COMPLIANT_FIXED_RATE_STAMP 0x33afff3b17372247
 
 #ifdef __cplusplus
 extern "C" {
@@ -111,8 +111,9 @@ typedef struct {
 
 // compliant_fixed_pitch_reset makes the transfer bumpless: the next command
 // is output when the setpoint equals measured (the integrator takes output
-// minus the proportional part, within its limit); the derivative starts from
-// measured, so there is no derivative kick.
+// minus the proportional part, within its limit); the feedback filters start
+// at rest at measured, so the controller sees no step; the derivative starts
+// from measured, so there is no derivative kick.
 void compliant_fixed_pitch_reset(compliant_fixed_pitch_state *s, int16_t output, int16_t measured);
 
 // compliant_fixed_pitch_step runs one sample and returns the command.

@@ -63,7 +63,7 @@
 // Content stamp: the first 64 bits of a SHA-256 of this header. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define COMPLIANT_FIXED_RATE_STAMP 0x13e5ed644d4c9376
+#define COMPLIANT_FIXED_RATE_STAMP 0x652fdb30f5e3a14d
 
 #ifdef __cplusplus
 extern "C" {
@@ -181,8 +181,9 @@ static inline int32_t compliant_fixed_clamp(int32_t x, int32_t lo, int32_t hi)
 
 // compliant_fixed_pitch_reset makes the transfer bumpless: the next command
 // is output when the setpoint equals measured (the integrator takes output
-// minus the proportional part, within its limit); the derivative starts from
-// measured, so there is no derivative kick.
+// minus the proportional part, within its limit); the feedback filters start
+// at rest at measured, so the controller sees no step; the derivative starts
+// from measured, so there is no derivative kick.
 static inline void compliant_fixed_pitch_reset(compliant_fixed_pitch_state *s, int16_t output, int16_t measured)
 {
 	// Filter 1 at its steady state for measured (its DC gain is exactly 1):

@@ -19,7 +19,7 @@
 
 #include "compliant_fixed_rate.h"
 
-#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0x13e5ed644d4c9376
+#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0x652fdb30f5e3a14d
 #error "compliant_fixed_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

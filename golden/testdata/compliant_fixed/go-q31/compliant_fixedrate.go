@@ -103,8 +103,9 @@ type Pitch struct {
 
 // Reset makes the transfer bumpless: the next command is output when the
 // setpoint equals measured (the integrator takes output minus the
-// proportional part, within its limit); the derivative starts from measured,
-// so there is no derivative kick.
+// proportional part, within its limit); the feedback filters start at rest
+// at measured, so the controller sees no step; the derivative starts from
+// measured, so there is no derivative kick.
 func (c *Pitch) Reset(output, measured int32) {
 	*c = Pitch{}
 	// Filter 1 at its steady state for measured (its DC gain is exactly 1):
