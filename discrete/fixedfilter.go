@@ -283,6 +283,10 @@ func pathL1(num poly, qs []lti.Biquad) float64 {
 	return math.Inf(1)
 }
 
+// Every product of the bounds is converted explicitly: the formats come
+// from them, and a fused multiply-add (arm64) must not move a bound across
+// a word's capacity (see the Style section of DEVELOPERS.md).
+
 // restBound bounds Σ_(k≥1)|h[n+k]| of stages qs in series once their
 // input has ended, from their states st (y[n], y[n−1] of each): each
 // stage's own response from its state, through the stages after it. A
@@ -294,8 +298,8 @@ func pathL1(num poly, qs []lti.Biquad) float64 {
 func restBound(qs []lti.Biquad, st [][2]float64, gain []float64) float64 {
 	rest := 0.0
 	for i, q := range qs {
-		next := math.Abs(q.A1*st[i][0] + q.A2*st[i][1])
-		r := gain[i] * (next + math.Abs(q.A2)*math.Abs(st[i][0]))
+		next := math.Abs(float64(q.A1*st[i][0]) + float64(q.A2*st[i][1]))
+		r := gain[i] * (next + float64(math.Abs(q.A2)*math.Abs(st[i][0])))
 		for l := i + 1; l < len(qs); l++ {
 			r *= gain[l]
 		}
@@ -314,7 +318,7 @@ func stageGain(q lti.Biquad) float64 {
 	if q.A2 == 0 {
 		return 1 / (1 - math.Abs(q.A1))
 	}
-	d := q.A1*q.A1 - 4*q.A2
+	d := float64(q.A1*q.A1) - float64(4*q.A2)
 	if d >= 0 {
 		r := math.Sqrt(d)
 		p1, p2 := math.Abs(-q.A1+r)/2, math.Abs(-q.A1-r)/2

@@ -12,6 +12,7 @@ import (
 	"locusmith/airframe"
 	"locusmith/internal/lti"
 	"locusmith/internal/pyref"
+	"locusmith/synth"
 )
 
 // fixedFilterCases designs axes with a feedback filter chain in q15 and
@@ -144,7 +145,7 @@ func TestFixedFilterBitExactAndWithinBounds(t *testing.T) {
 	}
 	for _, c := range fixedFilterCases(t) {
 		for _, ck := range c.re.Checks {
-			if (ck.Name == "overflow" || ck.Name == "limit_cycle") && !ck.OK {
+			if (ck.Name == "overflow" || ck.Name == "limit_cycle" || ck.Name == "filter_rounding") && !ck.OK {
 				t.Fatalf("%s: %s fails: %v", c.name, ck.Name, c.re.Warnings)
 			}
 		}
@@ -826,5 +827,43 @@ func TestNotchSuggestedFixedPoint(t *testing.T) {
 	}
 	if !found || again {
 		t.Errorf("suggestion %q among %q: %v; suggested again with the notch: %v", want, d0.Warnings, found, again)
+	}
+}
+
+// TestFixedFilterRoundingCheck: a notch low and narrow for q15 (10 Hz,
+// 1 Hz wide at 1 kHz: poles 0.003 inside the circle at 0.063 rad, its
+// recursion's ℓ1 gain above 3000) is stable once quantized, but its
+// rounding, through that gain, can reach half an input LSB at the
+// chain's output: the filter_rounding check fails with its warning; in
+// q31 the same notch's rounding is far below it.
+func TestFixedFilterRoundingCheck(t *testing.T) {
+	for _, tc := range []struct {
+		nt airframe.NumericType
+		ok bool
+	}{{airframe.Q15, false}, {airframe.Q31, true}} {
+		p := filterAxis()
+		p.Ctrl.Refine, p.Ctrl.ThirdPole = true, 5
+		p.Filters = []airframe.Filter{{Kind: airframe.FilterNotch, At: "feedback", Hz: 10, WidthHz: 1}}
+		d, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: tc.nt, InputFullScale: 20, OutputFullScale: 0.5})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var ck *synth.Check
+		for i := range d.Checks {
+			if d.Checks[i].Name == "filter_rounding" {
+				ck = &d.Checks[i]
+			}
+		}
+		if ck == nil || ck.OK != tc.ok || ck.Value != d.Num.FilterNoiseLSB || ck.Limit != 0.5 {
+			t.Fatalf("%s: check %+v, rounding bound %g", tc.nt, ck, d.Num.FilterNoiseLSB)
+		}
+		warned := false
+		for _, w := range d.Warnings {
+			warned = warned || strings.HasPrefix(w, "filter_rounding: the filter chain's rounding can reach")
+		}
+		if warned == tc.ok {
+			t.Errorf("%s: warning %v; warnings %q", tc.nt, warned, d.Warnings)
+		}
+		t.Logf("%s: rounding bound %.4g input LSB", tc.nt, ck.Value)
 	}
 }

@@ -104,9 +104,10 @@ type Realization struct {
 	// before the output is rounded to the input LSB for the controller;
 	// 0 without a chain.
 	FilterNoiseLSB float64
-	// Checks are "overflow" (fixed point), the spec checks with quantized
-	// coefficients ("quantized_<metric>", float32 and fixed point) and
-	// "limit_cycle" (fixed point); Warnings explain failures.
+	// Checks are "overflow" (fixed point), "filter_rounding" (fixed point
+	// with a filter chain), the spec checks with quantized coefficients
+	// ("quantized_<metric>", float32 and fixed point) and "limit_cycle"
+	// (fixed point); Warnings explain failures.
 	Checks   []synth.Check
 	Warnings []string
 }
@@ -408,6 +409,21 @@ func realizeFixed(d *Design, w int, checkResolution bool) (*Realization, error) 
 	re.FilterNoiseLSB = p.noise
 	re.Checks = append(re.Checks, synth.Check{Name: "overflow", Limit: 0, Value: minHead, OK: len(p.overflow) == 0})
 	re.Warnings = append(re.Warnings, p.overflow...)
+	if len(p.f.Sections) > 0 && len(p.overflow) == 0 {
+		// The chain's rounding must stay below half an input LSB at its
+		// output: the rounded output of a chain at rest is then exactly
+		// 0 (the limit_cycle bound of the controller holds) and exactly
+		// the measurement after _reset (no step at engagement).
+		ok := p.noise < 0.5
+		re.Checks = append(re.Checks, synth.Check{Name: "filter_rounding", Limit: 0.5, Value: p.noise, Upper: true, OK: ok})
+		if !ok {
+			way := "wider notches or higher cutoffs (poles further from the unit circle)"
+			if w < 32 {
+				way = "numeric.type = \"q31\", or " + way
+			}
+			re.Warnings = append(re.Warnings, fmt.Sprintf("filter_rounding: the filter chain's rounding can reach %s input LSB at its output (proved bound), not below half an LSB: at rest its output need not round to 0, and the controller may integrate what it leaves; way out: %s", fmtNum(p.noise), way))
+		}
+	}
 	if err := re.verifyQuantized(d, w); err != nil {
 		return nil, err
 	}
@@ -416,22 +432,9 @@ func realizeFixed(d *Design, w int, checkResolution bool) (*Realization, error) 
 		re.MaxErrorLSB, re.SQNRdB, re.RestLSB = acc.MaxErrorLSB, acc.SQNRdB, acc.RestLSB
 		re.RestBoundLSB = p.restBound()
 		ok := re.RestLSB <= re.RestBoundLSB
-		// The stated bound holds when the controller's input is 0 at rest:
-		// with a filter chain, when the chain's rounding stays below half
-		// an input LSB at its output, so that the rounded output of a
-		// chain at rest is exactly 0 (and exactly the measurement at
-		// engagement).
-		quiet := len(p.f.Sections) == 0 || p.noise < 0.5
-		re.Checks = append(re.Checks, synth.Check{Name: "limit_cycle", Limit: re.RestBoundLSB, Value: re.RestLSB, Upper: true, OK: ok && quiet})
+		re.Checks = append(re.Checks, synth.Check{Name: "limit_cycle", Limit: re.RestBoundLSB, Value: re.RestLSB, Upper: true, OK: ok})
 		if !ok {
 			re.Warnings = append(re.Warnings, fmt.Sprintf("limit_cycle: with zero input after the excitation the command still moves by %s LSB peak to peak (stated bound %s LSB)", fmtNum(re.RestLSB), fmtNum(re.RestBoundLSB)))
-		}
-		if !quiet {
-			way := "wider notches or higher cutoffs (poles further from the unit circle)"
-			if w < 32 {
-				way = "numeric.type = \"q31\", or " + way
-			}
-			re.Warnings = append(re.Warnings, fmt.Sprintf("limit_cycle: the filter chain's rounding can reach %s input LSB at its output (proved bound), not below half an LSB: at rest its output need not round to 0, and the controller may integrate what it leaves; way out: %s", fmtNum(p.noise), way))
 		}
 	}
 	return re, nil
@@ -1200,7 +1203,7 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 	n4 = max(n4, minRestSamples)
 	// The filter chain at rest first, in both models: its own rest is
 	// proved (its rounding stays below half an input LSB, so a chain at
-	// rest gives exactly 0; see the limit_cycle check), and a narrow
+	// rest gives exactly 0; the filter_rounding check), and a narrow
 	// notch's linear decay, far slower than the controller's, is no limit
 	// cycle.
 	fs.F, st.F = [airframe.MaxFilters][4]int64{}, [airframe.MaxFilters][2]float64{}

@@ -46,7 +46,7 @@ func TestFixedFilterGolden(t *testing.T) {
 		if len(d.Num.Fixed.Sections) != 2 || d.Num.FilterNoiseLSB >= 0.5 {
 			t.Fatalf("%s: %d sections, rounding bound %g LSB", nt, len(d.Num.Fixed.Sections), d.Num.FilterNoiseLSB)
 		}
-		for _, want := range []string{"overflow", "limit_cycle", "quantized_stable", "quantized_overshoot", "quantized_settling_time"} {
+		for _, want := range []string{"overflow", "filter_rounding", "limit_cycle", "quantized_stable", "quantized_overshoot", "quantized_settling_time"} {
 			found := false
 			for _, c := range d.Checks {
 				found = found || c.Name == want && c.OK

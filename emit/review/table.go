@@ -363,6 +363,8 @@ func tabCheckLabel(name string) string {
 		return "overflow headroom"
 	case "limit_cycle":
 		return "limit cycle at rest"
+	case "filter_rounding":
+		return "filter chain rounding"
 	case "max_sensitivity":
 		return "sensitivity peak Ms"
 	case "steady_error":
