@@ -4,7 +4,9 @@ import (
 	"bytes"
 	"fmt"
 	"os"
+	"os/exec"
 	"path/filepath"
+	"runtime"
 	"strings"
 	"testing"
 
@@ -231,6 +233,73 @@ func TestFixedFilterCLI(t *testing.T) {
 		}
 		if tc.code == 1 && !strings.Contains(out, "overflow: filter 1 (notch 100 Hz, -3 dB width 0.001 Hz) is not stable with its q15 coefficients") {
 			t.Errorf("%s: the overflow is not named:\n%s", tc.nt, out)
+		}
+	}
+}
+
+// TestFilterCodeAcrossArchitectures extends TestCrossArchDeterminism to
+// the filter chains: the compliant airframe in float64 (whose code
+// carries the sections' coefficients to the last bit: lti's design of
+// them must not fuse a multiply-add on arm64, which it once did in A2 of
+// the lowpass) and the fixed-point airframe in q31 (the formats chosen
+// from the ℓ1 bounds, the raw coefficients, the vectors of the integer
+// model): emit --vectors on the host and on arm64 under qemu-aarch64
+// must write the same bytes. The JSON report is not compared: the
+// accuracy run's float64 reference loop, through a lightly damped plant,
+// carries the matrix exponential's last-bit differences up to a few q31
+// LSB (DEVELOPERS.md, "Golden files"). Skips when qemu-aarch64 is
+// missing.
+func TestFilterCodeAcrossArchitectures(t *testing.T) {
+	t.Parallel()
+	if testing.Short() {
+		t.Skip("runs the designs under an emulator; skipped with -short")
+	}
+	emu := ""
+	if runtime.GOARCH != "arm64" {
+		p, err := exec.LookPath("qemu-aarch64")
+		if err != nil {
+			p, err = exec.LookPath("qemu-aarch64-static")
+		}
+		if err != nil {
+			t.Skip("qemu-aarch64 not found: install qemu-user (.ci/run does) to compare amd64 and arm64 output")
+		}
+		emu = p
+	}
+	host, arm := buildCLI(t, ""), buildCLI(t, "arm64")
+	work := t.TempDir()
+	for _, in := range []struct{ path, from, to string }{
+		{compliantPath, "type = \"float32\"", "type = \"float64\""},
+		{fixedFilterPath, "type = \"q15\"", "type = \"q31\""},
+	} {
+		src, err := os.ReadFile(in.path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Contains(src, []byte(in.from)) {
+			t.Fatalf("%s has no %s", in.path, in.from)
+		}
+		if err := os.WriteFile(filepath.Join(work, filepath.Base(in.path)), bytes.Replace(src, []byte(in.from), []byte(in.to), 1), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	outs := map[string]map[string][]byte{}
+	for _, who := range []struct{ name, emu, bin string }{{"host", "", host}, {"arm64", emu, arm}} {
+		o := filepath.Join(work, "out-"+who.name)
+		if err := os.Mkdir(o, 0o755); err != nil {
+			t.Fatal(err)
+		}
+		args := []string{"emit", "-o", o, "--vectors", "--allow-unmet", filepath.Base(compliantPath), filepath.Base(fixedFilterPath)}
+		if out, code, err := runCLI(work, who.emu, who.bin, args...); err != nil || code != 0 {
+			t.Fatalf("%s: exit %d, %v\n%s", who.name, code, err, out)
+		}
+		outs[who.name] = snapshot(t, o)
+	}
+	if len(outs["host"]) != 8 || len(outs["arm64"]) != len(outs["host"]) {
+		t.Fatalf("host wrote %d files, arm64 %d", len(outs["host"]), len(outs["arm64"]))
+	}
+	for name, want := range outs["host"] {
+		if got := outs["arm64"][name]; !bytes.Equal(got, want) {
+			t.Errorf("%s differs on arm64:\n%s", name, firstDiff(string(want), string(got)))
 		}
 	}
 }

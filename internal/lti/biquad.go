@@ -94,10 +94,11 @@ func Lowpass2(hz, zeta, fs float64) (Biquad, error) {
 		return Biquad{}, fmt.Errorf("%w: damping %g must be positive and finite", ErrFilter, zeta)
 	}
 	w2 := w * w
-	a0 := 1 + 2*zeta*w + w2
+	zw := float64(2 * zeta * w) // converted: no fused multiply-add (see Notch)
+	a0 := 1 + zw + w2
 	return Biquad{
 		B0: w2 / a0, B1: 2 * w2 / a0, B2: w2 / a0,
-		A1: 2 * (w2 - 1) / a0, A2: (1 - 2*zeta*w + w2) / a0,
+		A1: 2 * (w2 - 1) / a0, A2: (1 - zw + w2) / a0,
 	}, nil
 }
 
@@ -149,10 +150,14 @@ func Notch(hz, widthHz, depthDB, fs float64) (Biquad, error) {
 	}
 	w, _ := prewarp(hz, fs)
 	w2 := w * w
-	a0 := 1 + 2*zp*w + w2
+	// Each product converted on its own, so that no compiler fuses it
+	// with the sum (a multiply-add on arm64 would change the last bits
+	// of the coefficients, which the generated code carries).
+	pw, zw := float64(2*zp*w), float64(2*zz*w)
+	a0 := 1 + pw + w2
 	return Biquad{
-		B0: (1 + 2*zz*w + w2) / a0, B1: 2 * (w2 - 1) / a0, B2: (1 - 2*zz*w + w2) / a0,
-		A1: 2 * (w2 - 1) / a0, A2: (1 - 2*zp*w + w2) / a0,
+		B0: (1 + zw + w2) / a0, B1: 2 * (w2 - 1) / a0, B2: (1 - zw + w2) / a0,
+		A1: 2 * (w2 - 1) / a0, A2: (1 - pw + w2) / a0,
 	}, nil
 }
 
