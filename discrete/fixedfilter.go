@@ -330,8 +330,15 @@ func stageGain(q lti.Biquad) float64 {
 }
 
 // sectionPartialName returns the range-table name of the partial sum of
-// section k's terms ts up to term i (the output for the last).
+// section k's terms ts up to term i: "filter 1 sum B0·x + B1·x1", and for
+// the last, the output, "filter 1 output y (states y1, y2)".
 func sectionPartialName(k int, ts []sectionTerm, i int) string {
+	if i == len(ts)-1 {
+		if len(ts) == 3 {
+			return fmt.Sprintf("filter %d output y (state y1)", k+1)
+		}
+		return fmt.Sprintf("filter %d output y (states y1, y2)", k+1)
+	}
 	s := fmt.Sprintf("filter %d sum ", k+1)
 	for j := 0; j <= i; j++ {
 		t := ts[j]
@@ -343,13 +350,6 @@ func sectionPartialName(k int, ts []sectionTerm, i int) string {
 			s += " − "
 		}
 		s += t.name + "·" + t.operand()
-	}
-	if i == len(ts)-1 {
-		st := "y1, y2"
-		if len(ts) == 3 {
-			st = "y1"
-		}
-		return fmt.Sprintf("filter %d output y = %s (states %s)", k+1, s[len(fmt.Sprintf("filter %d sum ", k+1)):], st)
 	}
 	return s
 }
