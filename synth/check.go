@@ -113,7 +113,7 @@ func CheckValue(name string, v float64) string {
 	switch strings.TrimPrefix(name, "quantized_") {
 	case "overflow":
 		return G4(v) + " bits"
-	case "limit_cycle":
+	case "limit_cycle", "filter_rounding":
 		return G4(v) + " LSB"
 	case "overshoot":
 		return finiteOr(v, func(v float64) string {

@@ -914,7 +914,7 @@ func checkText(name string, v float64) string {
 		return "max \\|z\\| = " + g(v, 6)
 	case "overflow":
 		return fin(v, g4) + " bits"
-	case "limit_cycle":
+	case "limit_cycle", "filter_rounding":
 		return fin(v, g4) + " LSB"
 	}
 	return fin(v, g4)
