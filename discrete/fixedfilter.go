@@ -48,8 +48,9 @@ type FixedSection struct {
 }
 
 // Stable reports whether the quantized section's poles lie strictly
-// inside the unit circle (the Jury conditions, as lti.Biquad.Stable).
-func (q *FixedSection) Stable() bool { return q.Biquad().Stable() }
+// inside the unit circle (the Jury conditions, as lti.Biquad.Stable); a
+// section no format could hold (N < 0) is not.
+func (q *FixedSection) Stable() bool { return q.N >= 0 && q.Biquad().Stable() }
 
 // Biquad returns the quantized section's real coefficients, Raw·2^−N.
 func (q *FixedSection) Biquad() lti.Biquad {
@@ -97,7 +98,9 @@ func (t sectionTerm) operand() string {
 // Reset starts it in. B1 takes the correction because moving it keeps
 // B0 = B2 where the design has it (a full notch keeps its zeros on the
 // unit circle, only their angle moving by about 2^−n). The poles are
-// those of the rounded A1, A2.
+// those of the rounded A1, A2. A section no format holds (a coefficient
+// of 2^(w−1) or more: none of the chain's kinds, whose coefficients stay
+// below 4) comes back with N = −1, which Stable reports.
 func quantizeSection(q lti.Biquad, w int) FixedSection {
 	s := FixedSection{Second: q.B2 != 0 || q.A2 != 0}
 	xs := []float64{q.B0, q.B1, q.B2, q.A1, q.A2}
@@ -132,6 +135,7 @@ func quantizeSection(q lti.Biquad, w int) FixedSection {
 		}
 		return s
 	}
+	s.N = -1
 	return s
 }
 
@@ -368,8 +372,10 @@ func (p *fixedPlan) filterBounds(add func(entry)) (ymax, noise float64) {
 	accFmt := func(fr int) string { return qFormat(2*w, w-1+fr) }
 	es := make([]float64, len(f.Sections)) // rounding injected at each output, its own units
 	yb := make([]float64, len(f.Sections)) // output bounds, own units
+	unbounded := false                     // a section before is not stable
 	for k := range f.Sections {
 		q := &f.Sections[k]
+		unbounded = unbounded || !q.Stable()
 		ts := q.terms()
 		// The shifts (product sets them too) decide which products round.
 		rounded := make([]bool, len(ts))
@@ -398,6 +404,9 @@ func (p *fixedPlan) filterBounds(add func(entry)) (ymax, noise float64) {
 				b += float64(g.noise[i][j]*es[j]) * math.Ldexp(1, q.F-f.Sections[j].F)
 			}
 			b += float64(g.noise[i][k]*es[k]) + direct
+			if unbounded {
+				b = math.Inf(1)
+			}
 			bounds[i] = b
 		}
 		yb[k] = bounds[len(bounds)-1]
