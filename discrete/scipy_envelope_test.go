@@ -45,7 +45,10 @@ import (
 // weight, zpk plants with real poles, a complex pair and a zero, a
 // second-order zpk sensor, whole-sample and fractional transport delays,
 // and envelopes in gain, lag and delay (negative delay_add included), a
-// disturbance_recovery spec. The reference handles strictly proper
+// disturbance_recovery spec; with the examples and the golden compliant
+// airframe, feedback filter chains (notches, a second-order lowpass),
+// which the reference designs from their settings with signal.iirnotch
+// and signal.bilinear. The reference handles strictly proper
 // plants (no feedthrough), which every rate plant of the kind is.
 var envOwnAirframes = []struct{ name, toml string }{
 	{"tail_pitch.toml", `
@@ -210,13 +213,16 @@ type envRefCorner struct {
 	GM              jnum   `json:"gm"`
 	GainCrossovers  []jnum `json:"gain_crossovers"`
 	PhaseCrossovers []jnum `json:"phase_crossovers"`
-	Overshoot       jnum   `json:"overshoot"`
-	Settling        jnum   `json:"settling"`
-	Settled         bool   `json:"settled"`
-	SettleSlope     jnum   `json:"settle_slope"`
-	DlsimBatchDiff  jnum   `json:"dlsim_batch_diff"`
-	MsAt            jnum   `json:"ms_at"`
-	MtAt            jnum   `json:"mt_at"`
+	// ToolPCGain is |L| at each of the tool's phase crossovers, by the
+	// reference's own loop (see toolPhaseCrossovers).
+	ToolPCGain     []jnum `json:"tool_pc_gain"`
+	Overshoot      jnum   `json:"overshoot"`
+	Settling       jnum   `json:"settling"`
+	Settled        bool   `json:"settled"`
+	SettleSlope    jnum   `json:"settle_slope"`
+	DlsimBatchDiff jnum   `json:"dlsim_batch_diff"`
+	MsAt           jnum   `json:"ms_at"`
+	MtAt           jnum   `json:"mt_at"`
 	// Long holds the figures of the verdicts, over a record long enough
 	// for the slowest mode to decay to 1e-6.
 	Long struct {
@@ -282,6 +288,9 @@ func envAxes(t *testing.T) []envAxis {
 	if len(paths) != 3 {
 		t.Fatalf("want the three example airframes, found %v", paths)
 	}
+	// The golden compliant airframe: a notch and a second-order lowpass
+	// in float32 (the gimbal's notch is q15).
+	paths = append(paths, "../golden/testdata/compliant.toml")
 	for _, p := range paths {
 		b, err := os.ReadFile(p)
 		if err != nil {
@@ -317,6 +326,27 @@ func envAxes(t *testing.T) []envAxis {
 	return out
 }
 
+// toolPhaseCrossovers drops from the tool's phase crossovers ws those
+// where the reference's |L| (gains, one per crossover) is below 1e-3, as
+// the reference drops its own: a full notch's zero on the unit circle, or
+// a second-order lowpass's double zero at Nyquist, turns the phase by π
+// through |L| = 0, and beside such a zero the phase can swing across
+// −180° at a gain margin of 60 dB and more. No check binds there (gain
+// margin limits are tens of dB), and whether a grid meets those
+// crossings is a matter of its spacing.
+func toolPhaseCrossovers(ws []float64, gains []jnum) []float64 {
+	if len(gains) != len(ws) {
+		return ws // the reference did not evaluate them: compared as they are
+	}
+	var out []float64
+	for i, w := range ws {
+		if float64(gains[i]) >= 1e-3 {
+			out = append(out, w)
+		}
+	}
+	return out
+}
+
 // envRequest is the reference's input for the axes.
 func envRequest(axes []envAxis) map[string]any {
 	var reqs []map[string]any
@@ -324,12 +354,22 @@ func envRequest(axes []envAxis) map[string]any {
 		k := a.d.Coeffs
 		var corners [][3]float64
 		var ns, nd []int
+		var pcs [][]float64
 		for _, f := range a.d.Envelope {
 			corners = append(corners, [3]float64{f.Corner.GainScale, f.Corner.LagScale, f.Corner.DelayAdd})
+			pcs = append(pcs, append([]float64{}, f.Margins.PhaseCrossovers...))
 			ns, nd = append(ns, len(f.Y)), append(nd, len(f.YD))
 		}
+		// The chain's settings as the design took them (a notch's
+		// hz = "auto" resolved); the reference designs its sections
+		// from them itself.
+		var filters []map[string]any
+		for _, f := range a.d.Problem.Filters {
+			filters = append(filters, map[string]any{"kind": string(f.Kind), "hz": f.Hz, "width_hz": f.WidthHz,
+				"depth_db": f.DepthDB, "order": f.Order, "damping": f.Damping})
+		}
 		reqs = append(reqs, map[string]any{
-			"toml": a.toml, "axis": a.d.Problem.Name, "corners": corners, "n_step": ns, "n_dist": nd,
+			"toml": a.toml, "axis": a.d.Problem.Name, "corners": corners, "n_step": ns, "n_dist": nd, "filters": filters, "tool_pc": pcs,
 			"coeffs": map[string]float64{"kp": k.Kp, "kpb": k.KpB, "g0": k.G0, "g01": k.G01,
 				"ad": k.Ad, "bd": k.Bd, "b0": k.B0, "b1": k.B1, "a1": k.A1},
 		})
@@ -617,7 +657,7 @@ func compareEnvAxis(a envAxis, r envRefAxis, src string, agree envAgreement) []e
 			name string
 			got  []float64
 			want []jnum
-		}{{"gain", f.Margins.GainCrossovers, rc.GainCrossovers}, {"phase", f.Margins.PhaseCrossovers, rc.PhaseCrossovers}} {
+		}{{"gain", f.Margins.GainCrossovers, rc.GainCrossovers}, {"phase", toolPhaseCrossovers(f.Margins.PhaseCrossovers, rc.ToolPCGain), rc.PhaseCrossovers}} {
 			if len(c.got) != len(c.want) {
 				fail("crossovers", "%s: %d %s crossovers %v, %s freqz/brentq %d %v", at, len(c.got), c.name, c.got, src, len(c.want), c.want)
 				continue

@@ -91,7 +91,54 @@ def ss(z, p, k):
     return np.real(A), np.real(B), np.real(C), np.real(D)
 
 
-def sampled(pt, st, corner, T):
+def sections(filters, fs):
+    """The feedback filter chain as (b, a) pairs in z^-1, from the README's
+    definitions: a notch by signal.iirnotch (centre and -3 dB width of the
+    discrete filter at fs), a lowpass of order 1 by signal.butter, of
+    order 2 by signal.bilinear of wc^2/(s^2 + 2 zeta wc s + wc^2) with wc
+    prewarped so that the cutoff lands at hz (Tustin)."""
+    out = []
+    for f in filters:
+        if f["kind"] == "notch":
+            if f.get("depth_db", 0):
+                raise ValueError("the reference models full notches only")
+            out.append(signal.iirnotch(f["hz"], f["hz"] / f["width_hz"], fs=fs))
+        elif f["order"] == 1:
+            out.append(signal.butter(1, f["hz"], fs=fs))
+        else:
+            wc = 2 * fs * math.tan(math.pi * f["hz"] / fs)
+            z = f["damping"]
+            out.append(signal.bilinear([wc * wc], [1.0, 2 * z * wc, wc * wc], fs=fs))
+    return out
+
+
+def chain_at(secs, wT):
+    """The chain's response at wT rad/sample (signal.freqz)."""
+    h = np.ones(len(np.atleast_1d(wT)), dtype=complex)
+    for b, a in secs:
+        h = h * signal.freqz(b, a, worN=np.atleast_1d(wT))[1]
+    return h
+
+
+def with_chain(Phi, G0, G1, Cm, Cy, secs):
+    """The sampled plant with the chain on its measured output: each
+    section (signal.tf2ss of its b, a) is fed by the measured rate of the
+    step before it: xf' = Af xf + Bf ym, ym' = Cf xf + Df ym."""
+    for b, a in secs:
+        Af, Bf, Cf, Df = signal.tf2ss(b, a)
+        n, nf = Phi.shape[0], Af.shape[0]
+        P = np.zeros((n + nf, n + nf))
+        P[:n, :n] = Phi
+        P[n:, :n] = Bf @ Cm[None, :]
+        P[n:, n:] = Af
+        Phi = P
+        G0, G1 = np.append(G0, np.zeros(nf)), np.append(G1, np.zeros(nf))
+        Cm = np.concatenate([Df[0, 0] * Cm, Cf[0]])
+        Cy = np.append(Cy, np.zeros(nf))
+    return Phi, G0, G1, Cm, Cy
+
+
+def sampled(pt, st, corner, T, secs=()):
     """Phi, Gamma0, Gamma1, Cm, Cy and the whole samples m of the delay:
     x[k+1] = Phi x + Gamma0 w[k-m] + Gamma1 w[k-m-1] for the command w
     held at the plant input (Astrom & Wittenmark, Computer-Controlled
@@ -119,10 +166,10 @@ def sampled(pt, st, corner, T):
     D0 = np.zeros((2, 1))
     Phi, G0, _, _, _ = signal.cont2discrete((A, B, C, D0), T, method="zoh")
     if f == 0:
-        return Phi, G0[:, 0], np.zeros(len(Cy)), Cm, Cy, m
+        return with_chain(Phi, G0[:, 0], np.zeros(len(Cy)), Cm, Cy, secs) + (m,)
     Pa, Ga, _, _, _ = signal.cont2discrete((A, B, C, D0), T - f, method="zoh")
     _, Gf, _, _, _ = signal.cont2discrete((A, B, C, D0), f, method="zoh")
-    return Phi, Ga[:, 0], (Pa @ Gf)[:, 0], Cm, Cy, m
+    return with_chain(Phi, Ga[:, 0], (Pa @ Gf)[:, 0], Cm, Cy, secs) + (m,)
 
 
 def controller(form, on_error, c):
@@ -313,6 +360,13 @@ def margins(lw, L, Lf):
         lvl = -math.pi + 2 * math.pi * max(q[k], q[k + 1])
         a, pa = L[k], ph[k]
         x = optimize.brentq(lambda x: pa + np.angle(Lf(x) * np.conj(a)) - lvl, lw[k], lw[k + 1], xtol=1e-15, rtol=1e-15)
+        if abs(Lf(x)) < 1e-3:
+            # Beside a zero of L on the unit circle (a full notch's, a
+            # lowpass's at Nyquist) the phase jumps by pi through |L| = 0
+            # or swings across -180 deg at a gain margin of 60 dB and
+            # more: no crossover a check binds on (the Go side drops the
+            # tool's alike).
+            continue
         v = -20 * math.log10(abs(Lf(x)))
         pcs.append(math.exp(x))
         if abs(v) < abs(gm):
@@ -347,6 +401,7 @@ def axis_ref(ax, npts):
     box = [[g, l, dd] for g in env.get("gain_scale", [0.9, 1.1])
            for l in env.get("lag_scale", [1.0, 1.0]) for dd in env.get("delay_add", [0.0, 0.0])]
     c = ax["coeffs"]
+    secs = sections(ax.get("filters") or [], 1.0 / T)
     ctl = controller(form, on_error, c)
     nq, sq, dq = ctrl_q(form, on_error, c)
     ny = math.pi / T
@@ -361,7 +416,7 @@ def axis_ref(ax, npts):
     corners = []
     loops = []
     for i, cn in enumerate(ax["corners"]):
-        pl = sampled(at["plant"], at.get("sensor"), cn, T)
+        pl = sampled(at["plant"], at.get("sensor"), cn, T, secs)
         A, B, C, m = closed_loop(pl, ctl, d)
         loops.append((A, B, C, m))
         eig = np.linalg.eigvals(A)
@@ -410,6 +465,9 @@ def axis_ref(ax, npts):
         fig["grid_step"] = float(lw[1] - lw[0])
         pm, wc, gm, wp, gcs, pcs = margins(lw, L, Lf)
         fig.update(pm=fin(pm), wc=fin(wc), gm=fin(gm), wp=fin(wp), gain_crossovers=gcs, phase_crossovers=pcs)
+        # |L| at the tool's phase crossovers, so that both lists leave out
+        # the phase jumps through |L| = 0 (see margins).
+        fig["tool_pc_gain"] = [float(abs(Lf(math.log(w)))) for w in (ax.get("tool_pc") or [[]] * (i + 1))[i]]
         corners.append(fig)
 
     # Responses: every corner's setpoint step and unit load step, stepped
@@ -469,13 +527,13 @@ def axis_ref(ax, npts):
             fig.update(overshoot=ov, settling=st, settled=settled, settle_slope=fin(sl))
             fig["dist"] = dist_metrics(y2[:, 0], T, spec["disturbance_step"])
 
-    # Noise gain: max |C_fb| from the lowest gain crossover of all the
+    # Noise gain: max |C_fb·F| (F the filter chain) from the lowest gain crossover of all the
     # plants up to Nyquist, on the nominal grid plus the crossover itself.
     wl = min((f["gain_crossovers"][0] for f in corners if f["gain_crossovers"]), default=None)
     lw = np.linspace(math.log(lo), math.log(hi), npts[0])
     if wl is not None:
         lw = np.concatenate([[math.log(wl)], lw[lw > math.log(wl)]])
-    cv = np.abs(ctrl_at(np.exp(lw)))
+    cv = np.abs(ctrl_at(np.exp(lw)) * chain_at(secs, np.exp(lw) * T))
     ng, ngk, ngw = peak_on(lw[1:], cv[1:]) if len(lw) > 2 else (cv[0], 0.0, math.exp(lw[0]))
     if cv[0] >= ng:
         ng, ngk, ngw = float(cv[0]), 0.0, float(math.exp(lw[0]))
