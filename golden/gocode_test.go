@@ -1,6 +1,7 @@
 package golden
 
 import (
+	"errors"
 	"go/parser"
 	"go/token"
 	"os"
@@ -15,16 +16,26 @@ import (
 	"locusmith/emit"
 )
 
-// goTool returns the go command of the toolchain running the tests.
+// goTool returns the go command of the toolchain running the tests, or
+// skips.
 func goTool(t testing.TB) string {
 	t.Helper()
+	p, err := goCommand()
+	if err != nil {
+		t.Skip(err)
+	}
+	return p
+}
+
+// goCommand returns the go command of the toolchain running the tests.
+func goCommand() (string, error) {
 	p := filepath.Join(runtime.GOROOT(), "bin", "go")
 	if _, err := os.Stat(p); err != nil {
 		if p, err = exec.LookPath("go"); err != nil {
-			t.Skip("go command not found")
+			return "", errors.New("go command not found")
 		}
 	}
-	return p
+	return p, nil
 }
 
 // goModule writes pkgs (sources by directory) as the packages of one
