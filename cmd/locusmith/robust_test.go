@@ -503,7 +503,9 @@ func TestIdentifyHelpLimits(t *testing.T) {
 // item 8: a 3 GB input took 3 GB before the size check). The file here
 // is sparse, 256 MiB long; what the load allocates (runtime.MemStats,
 // not a time) must stay within a small multiple of the limit. The test
-// is not parallel, so no other test allocates meanwhile.
+// is not parallel, so no other test allocates meanwhile but the
+// goroutines of TestCrossArch that copy its processes' output, under 1 MB
+// in all against the 16 MB allowed here.
 func TestLoadReadsAtMostLimit(t *testing.T) {
 	p := filepath.Join(t.TempDir(), "huge.toml")
 	f, err := os.Create(p)
