@@ -114,7 +114,8 @@ func cLevels(ccs []string) []cLevel {
 // header-only variant is thus included from three translation units
 // linked together, which fails if a function had external linkage. A
 // variant whose golden files have no vector program gets the generated
-// one, whose main the link needs. The header must compile as C++ too.
+// one, whose main the link needs, and its qemu-arm stub, as --vectors
+// writes them. The header must compile as C++ too.
 //
 // With -short each file is built by the first host compiler at -O2 only,
 // and not as C++: the rest is a sweep over compilers, levels and
@@ -134,10 +135,13 @@ func TestCompileGoldenC(t *testing.T) {
 					v.vectors = true
 					gen := generate(t, p, v)
 					_, vec := cFiles(gen)
-					if len(vec) != 1 {
-						t.Fatalf("vector programs: %v", vec)
+					if len(vec) != 1 || qemuStub(gen) == "" {
+						t.Fatalf("vector programs: %v, qemu-arm stub %q", vec, qemuStub(gen))
 					}
-					srcs = append(srcs, sourceNamed(gen, vec[0]))
+					// With the stub too: the program is then the one
+					// TestCVectors builds from the generator's files,
+					// built once for both.
+					srcs = append(srcs, sourceNamed(gen, vec[0]), sourceNamed(gen, qemuStub(gen)))
 				}
 				prog, files := cProgram(t, srcs)
 				for _, l := range cLevels(ccs) {
