@@ -50,6 +50,7 @@ func fingerprint(as []*Airframe) []byte {
 // A batch gives the same per-file results as designing the files one by
 // one, whatever the number of workers, in input order.
 func TestBatchMatchesOneByOne(t *testing.T) {
+	t.Parallel()
 	n := 9
 	if testing.Short() {
 		n = 4 // still more airframes than the workers of the smaller pools
@@ -100,6 +101,7 @@ func TestBatchMatchesOneByOne(t *testing.T) {
 // DesignPair gives each version the designs DesignAirframe gives it, and
 // designs an axis the two share once: the same *Design in both.
 func TestDesignPair(t *testing.T) {
+	t.Parallel()
 	files := fleet(t, 2)
 	old := files[0]
 	// The new version: the old with one axis's settling limit changed.

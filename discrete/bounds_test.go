@@ -252,6 +252,7 @@ lead_zero = -30.0
 // (Skogestad & Postlethwaite; from memory) on the tool's figures of many
 // stable loops, and that the check catches a wrong Ms.
 func TestMarginBounds(t *testing.T) {
+	t.Parallel()
 	loops := collectLoops(t)
 	t.Run("hold", func(t *testing.T) {
 		// The test must see enough loops to mean something: about half

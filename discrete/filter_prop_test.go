@@ -76,6 +76,7 @@ func stepFigures(r filterLoopResult, band, T float64) (settling, overshoot float
 // the designs' sampled loops (filterLoopScript: ZOH by cont2discrete,
 // the notch by iirnotch, the step by dlsim).
 func TestNotchBuysGain(t *testing.T) {
+	t.Parallel()
 	loop := airframe.Loop{Hz: 1000, ComputeDelay: 1}
 	num := airframe.Numeric{Type: airframe.Float32}
 	p := compliantAxis()

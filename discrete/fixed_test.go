@@ -353,6 +353,7 @@ func excite(t *testing.T, c numCase, n int, each func(i int, fx *FixedState, o *
 // exact oracle on hostile input, and every intermediate against the proved
 // bound of the range table (which must name each of them).
 func TestFixedBitExactAndWithinBounds(t *testing.T) {
+	t.Parallel()
 	n := 20000
 	if testing.Short() {
 		n = 4000

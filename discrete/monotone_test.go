@@ -22,6 +22,7 @@ func TestLooserSpecStaysFeasible(t *testing.T) {
 	if testing.Short() {
 		t.Skip("21 designs; skipped with -short")
 	}
+	t.Parallel()
 	src, err := examples.FS.ReadFile("quadrotor.toml")
 	if err != nil {
 		t.Fatal(err)

@@ -107,6 +107,7 @@ func TestRoundShiftExhaustive8And16(t *testing.T) {
 // operand whose product (and left shift) fits the int16 accumulator, the
 // precondition the realization proves.
 func TestMulRoundExhaustive8(t *testing.T) {
+	t.Parallel()
 	ok := parallel(256, func(i int, e *exact) bool {
 		c := int64(i - 128)
 		for x := int64(math.MinInt16); x <= math.MaxInt16; x++ {
@@ -136,6 +137,7 @@ func TestMulRoundExhaustive8(t *testing.T) {
 // checked once and each shift on more than a million pairs; every shift
 // is also checked on all coefficients against a dense set of operands.
 func TestMulWideExhaustive8(t *testing.T) {
+	t.Parallel()
 	const w = 8
 	check := func(e *exact, c, x int64, sh int) bool {
 		want, fit := e.roundShift(e.mul(c, x), sh, 16)
@@ -238,6 +240,7 @@ func tie(rng *rand.Rand, n, bits int) int64 {
 const randomCases = 1_000_000
 
 func TestQHelpersRandom16And32(t *testing.T) {
+	t.Parallel()
 	n := randomCases
 	if testing.Short() {
 		n /= 20

@@ -160,6 +160,30 @@ func loadRefCase(af refAirframe) (refCase, error) {
 var refAssessed = []string{"stable", "overshoot", "settling_time", "phase_margin", "gain_margin", "max_sensitivity",
 	"steady_error", "hold_rate", "disturbance_recovery", "noise_gain"}
 
+// refDesigns holds the tool's design of each reference airframe as
+// written, made once per test binary: TestReference judges it against the
+// reference and TestEnvelopeAgainstSciPy re-simulates it in SciPy, and
+// one design serves both (16 designs that each took twice). Read them,
+// do not change them.
+var refDesigns sync.Map // airframe name → *refDesign
+
+// refDesign is one entry of refDesigns.
+type refDesign struct {
+	once sync.Once
+	d    *discrete.Design
+	err  error
+}
+
+// refToolDesign returns the tool's design of the reference airframe's
+// axis as written (discrete.DesignAxis, which DesignAirframe runs for
+// each axis), made once.
+func refToolDesign(rc refCase) (*discrete.Design, error) {
+	v, _ := refDesigns.LoadOrStore(rc.af.name, &refDesign{})
+	e := v.(*refDesign)
+	e.once.Do(func() { e.d, e.err = discrete.DesignAxis(rc.p, rc.file.Loop, rc.file.Numeric) })
+	return e.d, e.err
+}
+
 // toolOutcome designs the axis with the tool and returns its design, its
 // load-rejection gain and whether it passes every check the reference
 // judges.
@@ -168,6 +192,13 @@ func toolOutcome(rc refCase) (*discrete.Design, float64, bool, []string, error) 
 	if err != nil {
 		return nil, 0, false, nil, err
 	}
+	gain, ok, fails := judgeTool(d)
+	return d, gain, ok, fails, nil
+}
+
+// judgeTool returns the load-rejection gain of the tool's design d and
+// whether it passes every check the reference judges (and the failures).
+func judgeTool(d *discrete.Design) (float64, bool, []string) {
 	ok := d.Cont.Met
 	var fails []string
 	for _, c := range d.Checks {
@@ -176,7 +207,7 @@ func toolOutcome(rc refCase) (*discrete.Design, float64, bool, []string, error) 
 			fails = append(fails, c.String())
 		}
 	}
-	return d, refLoadGain(d.Cont.Ctrl), ok, fails, nil
+	return refLoadGain(d.Cont.Ctrl), ok, fails
 }
 
 // TestReferenceRegenerate recomputes the brute-force reference and writes
@@ -299,6 +330,7 @@ func readRef(name string) (*refFile, error) {
 // every check (it fails when a check changes meaning, or the reference is
 // stale).
 func TestReference(t *testing.T) {
+	t.Parallel()
 	for name := range knownShort() {
 		if !slices.ContainsFunc(refAirframes(), func(a refAirframe) bool { return a.name == name }) {
 			t.Errorf("knownShort names %s, which is not a reference airframe", name)
@@ -325,10 +357,11 @@ func TestReference(t *testing.T) {
 			if ref.NoiseRatio != 0 && ref.NoiseRatio != synth.NoiseRatio {
 				t.Fatalf("the reference judged noise against %g × the load-rejection gain, the search now %g: regenerate", ref.NoiseRatio, float64(synth.NoiseRatio))
 			}
-			d, gain, ok, fails, err := toolOutcome(rc)
+			d, err := refToolDesign(rc)
 			if err != nil {
 				t.Fatalf("tool: %v", err)
 			}
+			gain, ok, fails := judgeTool(d)
 			if !ref.Feasible {
 				// Nothing on the grid passes; the tool may still find a
 				// design between grid points, or report the closest one.

@@ -279,7 +279,11 @@ type envAxis struct {
 	d     *discrete.Design
 }
 
-// envAxes designs every axis of the examples and of envOwnAirframes.
+// envAxes designs every axis of the examples and of envOwnAirframes, and
+// takes those of the brute-force reference's airframes from refDesigns
+// (TestReference's designs: DesignAxis, what DesignAll runs for each
+// axis; TestBatchMatchesOneByOne holds the two paths to the same
+// results).
 func envAxes(t *testing.T) []envAxis {
 	t.Helper()
 	type src struct{ name, text string }
@@ -301,11 +305,6 @@ func envAxes(t *testing.T) []envAxis {
 	for _, a := range envOwnAirframes {
 		srcs = append(srcs, src{a.name, a.toml})
 	}
-	// And the airframes of the brute-force reference (reference_test.go):
-	// every form, integrating and not, lightly damped, long delays.
-	for _, a := range refAirframes() {
-		srcs = append(srcs, src{a.name, a.toml})
-	}
 	var files []*airframe.File
 	for _, s := range srcs {
 		f, err := airframe.Parse(s.name, []byte(s.text))
@@ -313,6 +312,30 @@ func envAxes(t *testing.T) []envAxis {
 			t.Fatalf("%s: %v", s.name, err)
 		}
 		files = append(files, f)
+	}
+	// The airframes of the brute-force reference (reference_test.go):
+	// every form, integrating and not, lightly damped, long delays.
+	// Their designs, one axis each, run beside the batch.
+	refs := refAirframes()
+	type refOut struct {
+		d   *discrete.Design
+		err error
+	}
+	refDone := make([]chan refOut, len(refs))
+	sem := make(chan struct{}, runtime.GOMAXPROCS(0))
+	for i, af := range refs {
+		refDone[i] = make(chan refOut, 1)
+		go func() {
+			sem <- struct{}{}
+			defer func() { <-sem }()
+			rc, err := loadRefCase(af)
+			if err != nil {
+				refDone[i] <- refOut{err: err}
+				return
+			}
+			d, err := refToolDesign(rc)
+			refDone[i] <- refOut{d, err}
+		}()
 	}
 	var out []envAxis
 	for i, a := range discrete.DesignAll(files, discrete.BatchOptions{Jobs: runtime.GOMAXPROCS(0), KeepTraces: true}) {
@@ -322,6 +345,13 @@ func envAxes(t *testing.T) []envAxis {
 			}
 			out = append(out, envAxis{label: srcs[i].name + "/" + x.Name, toml: srcs[i].text, d: x.Design})
 		}
+	}
+	for i, af := range refs {
+		r := <-refDone[i]
+		if r.err != nil || r.d == nil {
+			t.Fatalf("%s: %v", af.name, r.err)
+		}
+		out = append(out, envAxis{label: af.name + "/" + r.d.Problem.Name, toml: af.toml, d: r.d})
 	}
 	return out
 }
@@ -913,6 +943,7 @@ func TestEnvelopeAgainstSciPy(t *testing.T) {
 	if testing.Short() {
 		t.Skip("rebuilds every example axis and its envelope in SciPy; skipped with -short (CI runs it)")
 	}
+	t.Parallel()
 	if _, err := pyref.Versions(); err != nil {
 		pyref.Run(t, "", nil, nil) // skips before designing, or fails under CI
 	}

@@ -114,17 +114,20 @@ func cLevels(ccs []string) []cLevel {
 // header-only variant is thus included from three translation units
 // linked together, which fails if a function had external linkage. A
 // variant whose golden files have no vector program gets the generated
-// one, whose main the link needs. The header must compile as C++ too.
+// one, whose main the link needs, and its qemu-arm stub, as --vectors
+// writes them. The header must compile as C++ too.
 //
-// With -short each file is built by the first host compiler at -O2 only,
-// and not as C++: the rest is a sweep over compilers, levels and
-// languages, which the full suite runs.
+// With -short only each example's own arithmetic (the file variant) is
+// built, by the first host compiler at -O2, and not as C++: the rest is a
+// sweep over arithmetics, compilers, levels and languages, which the full
+// suite runs (and TestFormsMatrix runs every arithmetic, header-only
+// included, with every controller structure in -short too).
 func TestCompileGoldenC(t *testing.T) {
 	t.Parallel()
 	ccs := hostCompilers(t)
 	for _, p := range examplePaths(t) {
 		for _, v := range variants() {
-			if v.lang != emit.LangC {
+			if v.lang != emit.LangC || testing.Short() && v.name != "file" {
 				continue
 			}
 			t.Run(exampleName(p)+"/"+v.dir(), func(t *testing.T) {
@@ -134,10 +137,13 @@ func TestCompileGoldenC(t *testing.T) {
 					v.vectors = true
 					gen := generate(t, p, v)
 					_, vec := cFiles(gen)
-					if len(vec) != 1 {
-						t.Fatalf("vector programs: %v", vec)
+					if len(vec) != 1 || qemuStub(gen) == "" {
+						t.Fatalf("vector programs: %v, qemu-arm stub %q", vec, qemuStub(gen))
 					}
-					srcs = append(srcs, sourceNamed(gen, vec[0]))
+					// With the stub too: the program is then the one
+					// TestCVectors builds from the generator's files,
+					// built once for both.
+					srcs = append(srcs, sourceNamed(gen, vec[0]), sourceNamed(gen, qemuStub(gen)))
 				}
 				prog, files := cProgram(t, srcs)
 				for _, l := range cLevels(ccs) {
@@ -163,15 +169,15 @@ func TestCompileGoldenC(t *testing.T) {
 // variant with the host compilers (-O0 and -O2, strict flags, ISO C99 so
 // no floating-point contraction) and runs it: every output must equal the
 // reference model's bit for bit. A corrupted vector must make the program
-// fail, or the check could not fail; with -short that is shown on the
-// file's own arithmetic of each example (float and fixed-point vectors
-// both), not repeated for every variant.
+// fail, or the check could not fail. With -short: each example's own
+// arithmetic (float and fixed-point vectors both), by the first host
+// compiler at -O2, as TestCompileGoldenC has it.
 func TestCVectors(t *testing.T) {
 	t.Parallel()
 	ccs := hostCompilers(t)
 	for _, p := range examplePaths(t) {
 		for _, v := range variants() {
-			if v.lang != emit.LangC {
+			if v.lang != emit.LangC || testing.Short() && v.name != "file" {
 				continue
 			}
 			t.Run(exampleName(p)+"/"+v.dir(), func(t *testing.T) {
@@ -191,9 +197,6 @@ func TestCVectors(t *testing.T) {
 					}
 				}
 				// One flipped expectation must be caught.
-				if testing.Short() && v.name != "file" {
-					return
-				}
 				bad := append([]emit.Source{}, prog...)
 				for i, s := range bad {
 					if s.Name == vec[0] {

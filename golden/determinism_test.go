@@ -2,6 +2,7 @@ package golden
 
 import (
 	"bytes"
+	"context"
 	"fmt"
 	"os"
 	"os/exec"
@@ -9,7 +10,7 @@ import (
 	"regexp"
 	"runtime"
 	"sort"
-	"strings"
+	"sync"
 	"testing"
 
 	"locusmith/airframe"
@@ -50,16 +51,21 @@ func fixedCopy(t *testing.T, dir, p string, nt airframe.NumericType) string {
 
 // runCLI runs the binary (under the emulator when given) in dir.
 func runCLI(dir string, emu, bin string, args ...string) (string, int, error) {
+	return runCLIContext(context.Background(), dir, emu, bin, args...)
+}
+
+// runCLIContext is runCLI, killed when ctx is done.
+func runCLIContext(ctx context.Context, dir string, emu, bin string, args ...string) (string, int, error) {
 	if emu != "" {
 		args = append([]string{bin}, args...)
 		bin = emu
 	}
-	cmd := exec.Command(bin, args...)
+	cmd := exec.CommandContext(ctx, bin, args...)
 	cmd.Dir = dir
 	var out bytes.Buffer
 	cmd.Stdout, cmd.Stderr = &out, &out
 	err := cmd.Run()
-	if ee, ok := err.(*exec.ExitError); ok {
+	if ee, ok := err.(*exec.ExitError); ok && ctx.Err() == nil {
 		return out.String(), ee.ExitCode(), nil
 	}
 	return out.String(), 0, err
@@ -68,19 +74,28 @@ func runCLI(dir string, emu, bin string, args ...string) (string, int, error) {
 // snapshot reads every file of dir.
 func snapshot(t *testing.T, dir string) map[string][]byte {
 	t.Helper()
+	m, err := readFiles(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return m
+}
+
+// readFiles reads every file of dir.
+func readFiles(dir string) (map[string][]byte, error) {
 	m := map[string][]byte{}
 	es, err := os.ReadDir(dir)
 	if err != nil {
-		t.Fatal(err)
+		return nil, err
 	}
 	for _, e := range es {
 		b, err := os.ReadFile(filepath.Join(dir, e.Name()))
 		if err != nil {
-			t.Fatal(err)
+			return nil, err
 		}
 		m[e.Name()] = b
 	}
-	return m
+	return m, nil
 }
 
 // TestCrossArchDeterminism builds the CLI for the host and for arm64
@@ -91,8 +106,13 @@ func snapshot(t *testing.T, dir string) map[string][]byte {
 // fuse x*y + z on arm64 and not on amd64; a value that reached the
 // output through such a difference would show here). It also requires
 // two host runs to agree. Skips when qemu-aarch64 is missing.
+//
+// The emulated runs are the longest chain of this package (seconds of
+// CPU per airframe under the emulator), so they start before t.Parallel:
+// in the sequential phase of the test binary, beside everything else,
+// and not queued behind every other parallel test (-test.parallel is the
+// number of CPUs). The test waits for them after t.Parallel and compares.
 func TestCrossArchDeterminism(t *testing.T) {
-	t.Parallel()
 	if testing.Short() {
 		t.Skip("builds the CLI twice; skipped with -short")
 	}
@@ -107,13 +127,13 @@ func TestCrossArchDeterminism(t *testing.T) {
 		}
 		emu = p
 	}
-	host := buildCLI(t, "")
-	arm := buildCLI(t, "arm64")
 	work := t.TempDir()
 	if err := os.MkdirAll(filepath.Join(work, "examples"), 0o755); err != nil {
 		t.Fatal(err)
 	}
-	var inputs []string
+	// inputs are the examples as written and their copies in the other
+	// arithmetics (copies).
+	var inputs, copies []string
 	for _, p := range examplePaths(t) {
 		b, err := os.ReadFile(p)
 		if err != nil {
@@ -126,85 +146,141 @@ func TestCrossArchDeterminism(t *testing.T) {
 		inputs = append(inputs, rel)
 		for _, nt := range []airframe.NumericType{airframe.Float32, airframe.Q15, airframe.Q31} {
 			if design(t, p, "").File.Numeric.Type != nt {
-				inputs = append(inputs, fixedCopy(t, work, p, nt))
+				c := fixedCopy(t, work, p, nt)
+				inputs, copies = append(inputs, c), append(copies, c)
 			}
 		}
 	}
 	sort.Strings(inputs)
+	sort.Strings(copies)
+
+	ctx, cancel := context.WithCancel(context.Background())
+	var wg sync.WaitGroup
+	// Registered after TempDir, so it runs before the directory is
+	// removed: a test that stops early kills its runs and waits for them.
+	t.Cleanup(func() { cancel(); wg.Wait() })
+	// start runs f in the background; its result arrives on the channel.
+	start := func(f func() crossRun) <-chan crossRun {
+		ch := make(chan crossRun, 1)
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			ch <- f()
+		}()
+		return ch
+	}
+	// The two builds, in the background too; every run waits for them.
+	var host, arm string
+	var buildErr error
+	built := make(chan struct{})
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		defer close(built)
+		if host, buildErr = cliBuild(""); buildErr == nil {
+			arm, buildErr = cliBuild("arm64")
+		}
+	}()
 	// The design is the architecture-sensitive part (floating-point
 	// search and verification, the reference model behind the vectors);
 	// rendering it is string templating, the same on every CPU. So one
 	// language with the vectors covers the design and the numbers the
 	// vectors carry, which the Go vectors share with the C ones; the
-	// JSON report, every figure of the designs, is compared as well.
-	flagSets := [][]string{
-		{"--lang", "c", "--vectors"},
+	// JSON report, every figure of the designs, is compared as well: for
+	// the copies here, and for the examples as written by
+	// cmd/locusmith's TestCrossArch, which holds arm64's design --json of
+	// each example to its golden file (testdata/design_<example>.json,
+	// which TestJSONGolden holds the host to), so they are not designed
+	// under the emulator a second time here.
+	emitRun := func(name, emu string, bin *string) func() crossRun {
+		return func() crossRun {
+			if <-built; buildErr != nil {
+				return crossRun{err: buildErr}
+			}
+			o := filepath.Join(work, "out-c-vectors-"+name)
+			if err := os.Mkdir(o, 0o755); err != nil {
+				return crossRun{err: err}
+			}
+			args := append([]string{"emit", "-o", o, "--allow-unmet", "--lang", "c", "--vectors"}, inputs...)
+			out, code, err := runCLIContext(ctx, work, emu, *bin, args...)
+			if err != nil || code != 0 {
+				return crossRun{err: fmt.Errorf("%s: emit: exit %d, %v\n%s", name, code, err, out)}
+			}
+			files, err := readFiles(o)
+			return crossRun{files: files, err: err}
+		}
 	}
-	// The flag sets run side by side; the runs of one set (mostly under
-	// the emulator) one after the other.
-	for i, fl := range flagSets {
-		t.Run(fl[1]+strings.TrimPrefix(fl[2], "-"), func(t *testing.T) {
-			t.Parallel()
-			crossArchRuns(t, work, inputs, fl, i, host, emu, arm)
-		})
+	jsonRun := func(name, emu string, bin *string) func() crossRun {
+		return func() crossRun {
+			if <-built; buildErr != nil {
+				return crossRun{err: buildErr}
+			}
+			out, code, err := runCLIContext(ctx, work, emu, *bin, append([]string{"design", "--json"}, copies...)...)
+			if err != nil {
+				return crossRun{err: fmt.Errorf("%s: design --json: %v\n%s", name, err, out)}
+			}
+			return crossRun{files: map[string][]byte{"design.json": []byte(out)}, code: code}
+		}
 	}
+	armEmit := start(emitRun("arm64", emu, &arm))
+	armJSON := start(jsonRun("arm64", emu, &arm))
+	hostEmit := start(emitRun("host", "", &host))
+	againEmit := start(emitRun("host-again", "", &host))
+	hostJSON := start(jsonRun("host", "", &host))
+
+	t.Parallel()
+	t.Run("c-vectors", func(t *testing.T) {
+		ref := (<-hostEmit).must(t)
+		if len(ref) == 0 {
+			t.Fatal("emit --lang c --vectors: no files written")
+		}
+		for _, other := range []struct {
+			name string
+			ch   <-chan crossRun
+		}{{"host-again", againEmit}, {"arm64", armEmit}} {
+			got := (<-other.ch).must(t)
+			compareFiles(t, other.name+" emit --lang c --vectors", ref, got)
+		}
+	})
 	t.Run("json", func(t *testing.T) {
-		t.Parallel()
-		args := append([]string{"design", "--json"}, inputs...)
-		want, _, err := runCLI(work, "", host, args...)
-		if err != nil {
-			t.Fatal(err)
+		want, got := <-hostJSON, <-armJSON
+		w, g := want.must(t)["design.json"], got.must(t)["design.json"]
+		if want.code != got.code {
+			t.Errorf("design --json exits %d on the host, %d on arm64", want.code, got.code)
 		}
-		got, _, err := runCLI(work, emu, arm, args...)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if got != want {
-			t.Errorf("design --json differs between the host and arm64:\n%s", firstDiff(want, got))
+		if !bytes.Equal(g, w) {
+			t.Errorf("design --json differs between the host and arm64:\n%s", firstDiff(string(w), string(g)))
 		}
 	})
 }
 
-// crossArchRuns runs emit with the flags fl on inputs twice on the host
-// and once on arm64 under emu, each into its own directory out-i-WHO of
-// work, and requires the same files, byte for byte.
-func crossArchRuns(t *testing.T, work string, inputs, fl []string, i int, host, emu, arm string) {
-	outs := map[string]map[string][]byte{}
-	for _, who := range []struct{ name, emu, bin string }{{"host", "", host}, {"host-again", "", host}, {"arm64", emu, arm}} {
-		o := filepath.Join(work, fmt.Sprintf("out-%d-%s", i, who.name))
-		if err := os.Mkdir(o, 0o755); err != nil {
-			t.Fatal(err)
-		}
-		// Go takes one airframe per run (a package each).
-		batches := [][]string{inputs}
-		if fl[1] == "go" {
-			batches = nil
-			for _, in := range inputs {
-				batches = append(batches, []string{in})
-			}
-		}
-		for _, b := range batches {
-			args := append(append([]string{"emit", "-o", o, "--allow-unmet"}, fl...), b...)
-			out, code, err := runCLI(work, who.emu, who.bin, args...)
-			if err != nil || code != 0 {
-				t.Fatalf("%s %s: exit %d, %v\n%s", who.name, strings.Join(fl, " "), code, err, out)
-			}
-		}
-		outs[who.name] = snapshot(t, o)
+// crossRun is the outcome of one CLI run of TestCrossArchDeterminism: the
+// files it wrote (or its standard output) and its exit status.
+type crossRun struct {
+	files map[string][]byte
+	code  int
+	err   error
+}
+
+// must returns the files of the run, or fails the test with its error.
+func (r crossRun) must(t *testing.T) map[string][]byte {
+	t.Helper()
+	if r.err != nil {
+		t.Fatal(r.err)
 	}
-	ref := outs["host"]
-	if len(ref) == 0 {
-		t.Fatalf("%s: no files written", strings.Join(fl, " "))
+	return r.files
+}
+
+// compareFiles requires got to hold the files of ref, byte for byte, and
+// no others.
+func compareFiles(t *testing.T, what string, ref, got map[string][]byte) {
+	t.Helper()
+	if len(got) != len(ref) {
+		t.Errorf("%s: %d files, host %d", what, len(got), len(ref))
 	}
-	for _, other := range []string{"host-again", "arm64"} {
-		got := outs[other]
-		if len(got) != len(ref) {
-			t.Errorf("%s %s: %d files, host %d", other, strings.Join(fl, " "), len(got), len(ref))
-		}
-		for name, want := range ref {
-			if !bytes.Equal(got[name], want) {
-				t.Errorf("%s %s: %s differs from the host's output:\n%s", other, strings.Join(fl, " "), name, firstDiff(string(want), string(got[name])))
-			}
+	for name, want := range ref {
+		if !bytes.Equal(got[name], want) {
+			t.Errorf("%s: %s differs from the host's output:\n%s", what, name, firstDiff(string(want), string(got[name])))
 		}
 	}
 }

@@ -9,7 +9,6 @@ import (
 	"testing"
 
 	"locusmith/airframe"
-	"locusmith/discrete"
 	"locusmith/emit"
 	"locusmith/internal/version"
 )
@@ -103,16 +102,7 @@ func TestFormsMatrix(t *testing.T) {
 	gocmd := goTool(t)
 	gos := map[string][]emit.Source{}
 	for _, nt := range []string{"float32", "float64", "q15", "q31"} {
-		f, err := airframe.Parse("forms.toml", []byte(formsAirframe(nt)))
-		if err != nil {
-			t.Fatal(err)
-		}
-		a := discrete.DesignAirframe(f)
-		for _, x := range a.Axes {
-			if x.Err != nil {
-				t.Fatalf("%s: axis %s: %v", nt, x.Name, x.Err)
-			}
-		}
+		a := formsDesign(t, nt)
 		srcs, _, err := emit.GenerateCode(a, emit.CodeOptions{Lang: emit.LangGo, Vectors: true, AllowUnmet: true})
 		if err != nil {
 			t.Fatal(err)
@@ -164,7 +154,12 @@ func TestCommentInjection(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	a := discrete.DesignAirframe(f)
+	// The description and the path reach the comments only: the designs
+	// are those of the forms airframe (the same axes, loop and numeric
+	// type), made once for the package (formsDesign); the file is this one.
+	g := *formsDesign(t, "float32")
+	g.File = f
+	a := &g
 	for _, lang := range []emit.Lang{emit.LangC, emit.LangGo} {
 		srcs, _, err := emit.GenerateCode(a, emit.CodeOptions{Lang: lang, AllowUnmet: true})
 		if err != nil {

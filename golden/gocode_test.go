@@ -1,6 +1,9 @@
 package golden
 
 import (
+	"crypto/sha256"
+	"errors"
+	"fmt"
 	"go/parser"
 	"go/token"
 	"os"
@@ -15,16 +18,26 @@ import (
 	"locusmith/emit"
 )
 
-// goTool returns the go command of the toolchain running the tests.
+// goTool returns the go command of the toolchain running the tests, or
+// skips.
 func goTool(t testing.TB) string {
 	t.Helper()
+	p, err := goCommand()
+	if err != nil {
+		t.Skip(err)
+	}
+	return p
+}
+
+// goCommand returns the go command of the toolchain running the tests.
+func goCommand() (string, error) {
 	p := filepath.Join(runtime.GOROOT(), "bin", "go")
 	if _, err := os.Stat(p); err != nil {
 		if p, err = exec.LookPath("go"); err != nil {
-			t.Skip("go command not found")
+			return "", errors.New("go command not found")
 		}
 	}
-	return p
+	return p, nil
 }
 
 // goModule writes pkgs (sources by directory) as the packages of one
@@ -32,15 +45,30 @@ func goTool(t testing.TB) string {
 // command for every package, which builds them in parallel, rather than a
 // module and two go commands each. Every package must have tests, and each
 // must pass; a failure names the package, whose path ends in its
-// directory.
+// directory. A package whose files are byte for byte those of another
+// (an example's own arithmetic generated again as that arithmetic's
+// variant) is built and tested once, under the first directory name.
 func goModule(t *testing.T, gocmd, module string, pkgs map[string][]emit.Source, vet bool) {
 	t.Helper()
 	root := t.TempDir()
 	if err := os.WriteFile(filepath.Join(root, "go.mod"), []byte("module "+module+"\n\ngo 1.21\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
+	var all []string
+	for d := range pkgs {
+		all = append(all, d)
+	}
+	sort.Strings(all)
 	var dirs []string
-	for d, srcs := range pkgs {
+	seen := map[string]string{}
+	for _, d := range all {
+		srcs := pkgs[d]
+		key := sourcesKey(srcs)
+		if first, ok := seen[key]; ok {
+			t.Logf("%s: the same files as %s, tested there", d, first)
+			continue
+		}
+		seen[key] = d
 		dirs = append(dirs, d)
 		if err := os.MkdirAll(filepath.Join(root, d), 0o755); err != nil {
 			t.Fatal(err)
@@ -51,7 +79,6 @@ func goModule(t *testing.T, gocmd, module string, pkgs map[string][]emit.Source,
 			}
 		}
 	}
-	sort.Strings(dirs)
 	if vet {
 		if out, err := runGo(root, gocmd, "vet", "./..."); err != nil {
 			t.Fatalf("go vet: %v\n%s", err, out)
@@ -105,4 +132,16 @@ func TestGoCode(t *testing.T) {
 		}
 	}
 	goModule(t, gocmd, "generated.example/rate", pkgs, true)
+}
+
+// sourcesKey identifies a set of sources by their names and bytes.
+func sourcesKey(srcs []emit.Source) string {
+	sorted := append([]emit.Source(nil), srcs...)
+	sort.Slice(sorted, func(i, j int) bool { return sorted[i].Name < sorted[j].Name })
+	h := sha256.New()
+	for _, s := range sorted {
+		fmt.Fprintf(h, "%q %d\n", s.Name, len(s.Data))
+		h.Write(s.Data)
+	}
+	return string(h.Sum(nil))
 }

@@ -91,39 +91,73 @@ func fixedFullScale(f *airframe.File, a *discrete.Airframe) (in, out float64) {
 
 // designCache keeps the designs of one test binary: designing is the slow
 // part, and every variant of an example with the same arithmetic shares
-// one.
+// one. Each key is designed once, by the first test that asks; the lock
+// covers the map only, so tests that want other designs do not wait for
+// this one (parallel tests would otherwise make their designs one at a
+// time). The designs are shared: read them, do not change them.
 type designCache struct {
 	mu sync.Mutex
-	m  map[string]*discrete.Airframe
+	m  map[string]*designEntry
 }
 
-var designs = designCache{m: map[string]*discrete.Airframe{}}
+// designEntry is one design of the cache, made once.
+type designEntry struct {
+	once sync.Once
+	a    *discrete.Airframe
+	err  error
+}
+
+var designs = designCache{m: map[string]*designEntry{}}
+
+// get returns the design under key, made by build on the first call.
+// build returns an error rather than failing a test: the test that happens to
+// make a design must not leave the others a half-made entry.
+func (c *designCache) get(key string, build func() (*discrete.Airframe, error)) (*discrete.Airframe, error) {
+	c.mu.Lock()
+	e, ok := c.m[key]
+	if !ok {
+		e = &designEntry{}
+		c.m[key] = e
+	}
+	c.mu.Unlock()
+	e.once.Do(func() { e.a, e.err = build() })
+	return e.a, e.err
+}
 
 // design loads example p and designs it with numeric type nt ("" keeps
 // the file's).
 func design(t testing.TB, p string, nt airframe.NumericType) *discrete.Airframe {
 	t.Helper()
-	key := p + "|" + string(nt)
-	designs.mu.Lock()
-	defer designs.mu.Unlock()
-	if a, ok := designs.m[key]; ok {
-		return a
-	}
-	f, err := loadAirframe(p)
+	a, err := designOf(p, nt)
 	if err != nil {
 		t.Fatal(err)
 	}
-	a := discrete.DesignAirframe(f)
-	if nt != "" && nt != f.Numeric.Type {
+	return a
+}
+
+// designOf is design without a test: the file's own arithmetic is designed
+// once and serves nt when nt is the file's type, and gives the full
+// scales of a fixed-point nt when the file has none.
+func designOf(p string, nt airframe.NumericType) (*discrete.Airframe, error) {
+	return designs.get(p+"|"+string(nt), func() (*discrete.Airframe, error) {
+		f, err := loadAirframe(p)
+		if err != nil {
+			return nil, err
+		}
+		if nt == "" {
+			return discrete.DesignAirframe(f), nil
+		}
+		own, err := designOf(p, "")
+		if err != nil || nt == f.Numeric.Type {
+			return own, err
+		}
 		g := *f
 		g.Numeric.Type = nt
 		if nt.IsFixed() && (g.Numeric.InputFullScale == 0 || g.Numeric.OutputFullScale == 0) {
-			g.Numeric.InputFullScale, g.Numeric.OutputFullScale = fixedFullScale(f, a)
+			g.Numeric.InputFullScale, g.Numeric.OutputFullScale = fixedFullScale(f, own)
 		}
-		a = discrete.DesignAirframe(&g)
-	}
-	designs.m[key] = a
-	return a
+		return discrete.DesignAirframe(&g), nil
+	})
 }
 
 // generate renders example p in variant v. Unmet checks are allowed (and

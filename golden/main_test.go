@@ -58,6 +58,16 @@ var clis = struct {
 // as the test binary.
 func buildCLI(t testing.TB, goarch string) string {
 	t.Helper()
+	goTool(t) // skips without a go command
+	p, err := cliBuild(goarch)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return p
+}
+
+// cliBuild is buildCLI without a test, for a goroutine of one.
+func cliBuild(goarch string) (string, error) {
 	clis.mu.Lock()
 	b, ok := clis.m[goarch]
 	if !ok {
@@ -65,8 +75,12 @@ func buildCLI(t testing.TB, goarch string) string {
 		clis.m[goarch] = b
 	}
 	clis.mu.Unlock()
-	gocmd := goTool(t)
 	b.once.Do(func() {
+		gocmd, err := goCommand()
+		if err != nil {
+			b.err = err
+			return
+		}
 		dir, err := os.MkdirTemp("", "locusmith-cli-")
 		if err != nil {
 			b.err = err
@@ -87,9 +101,9 @@ func buildCLI(t testing.TB, goarch string) string {
 		b.err, b.out = err, string(out)
 	})
 	if b.err != nil {
-		t.Fatalf("build locusmith for %q: %v\n%s", goarch, b.err, b.out)
+		return "", fmt.Errorf("build locusmith for %q: %v\n%s", goarch, b.err, b.out)
 	}
-	return b.path
+	return b.path, nil
 }
 
 // cbuild is one C program, built once.

@@ -2,6 +2,8 @@ package main
 
 import (
 	"bytes"
+	"context"
+	"fmt"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -9,6 +11,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"sync"
 	"testing"
 
 	"locusmith/internal/fleet"
@@ -27,6 +30,11 @@ import (
 // TestJSONGolden checks on the host. Skips with -short, and when
 // qemu-aarch64 is missing unless CI=true (.ci/run installs qemu-user, so
 // a CI machine without it is a broken CI machine, not a reason to skip).
+//
+// The runs under the emulator take most of this package's time, so they
+// start in the background before t.Parallel, in the sequential phase of
+// the test binary, rather than once every parallel test before this one
+// has had its turn; the subtests wait for them and compare.
 func TestCrossArch(t *testing.T) {
 	if testing.Short() {
 		t.Skip("builds the CLI twice and runs it under an emulator; skipped with -short")
@@ -46,50 +54,11 @@ func TestCrossArch(t *testing.T) {
 			t.Skip("qemu-aarch64 not found: install qemu-user (.ci/run does) to compare amd64 and arm64")
 		}
 	}
-	t.Parallel()
 	dir := t.TempDir()
-	host := crossBin{name: "host", bin: buildFor(t, dir, "")}
-	arm := crossBin{name: "arm64", bin: buildFor(t, dir, "arm64"), emu: emu}
-	t.Run("report", func(t *testing.T) { reportCrossArch(t, dir, host, arm) })
-	t.Run("design-json", func(t *testing.T) { designJSONCrossArch(t, host, arm) })
-	t.Run("design-json-fleet", func(t *testing.T) { fleetCrossArch(t, dir, host, arm) })
-}
-
-// crossBin is a build of the CLI and the emulator that runs it ("" for
-// the host's own).
-type crossBin struct{ name, bin, emu string }
-
-// command returns the command running b with args in directory wd.
-func (b crossBin) command(wd string, args ...string) *exec.Cmd {
-	bin := b.bin
-	if b.emu != "" {
-		args = append([]string{b.bin}, args...)
-		bin = b.emu
+	root, err := filepath.Abs(filepath.Join("..", ".."))
+	if err != nil {
+		t.Fatal(err)
 	}
-	cmd := exec.Command(bin, args...)
-	cmd.Dir = wd
-	return cmd
-}
-
-// run runs b with args in wd and returns its stdout; any exit status but
-// 0 is fatal, with stderr shown (the inputs all meet their specs).
-func (b crossBin) run(t *testing.T, wd string, args ...string) []byte {
-	t.Helper()
-	cmd := b.command(wd, args...)
-	var out, errb bytes.Buffer
-	cmd.Stdout, cmd.Stderr = &out, &errb
-	if err := cmd.Run(); err != nil {
-		t.Fatalf("%s: locusmith %s: %v\n%s", b.name, strings.Join(args, " "), err, errb.String())
-	}
-	return out.Bytes()
-}
-
-// reportCrossArch runs `report` on every example with the host build
-// (twice) and the arm64 build and requires the same files byte for
-// byte. The root locus was drawn as polylines whose shape at a breakaway
-// point followed the last bits of the roots (gimbal_cam-yaw-locus*.svg
-// differed before plots.go drew it in canonical pieces).
-func reportCrossArch(t *testing.T, dir string, host, arm crossBin) {
 	inputs := examples(t)
 	for i, p := range inputs {
 		abs, err := filepath.Abs(p)
@@ -98,14 +67,159 @@ func reportCrossArch(t *testing.T, dir string, host, arm crossBin) {
 		}
 		inputs[i] = abs
 	}
-	outs := map[string]map[string][]byte{}
-	again := host
-	again.name = "host-again"
-	for _, who := range []crossBin{host, again, arm} {
-		out := filepath.Join(dir, "review-"+who.name)
-		who.run(t, dir, append([]string{"report", "-o", out}, inputs...)...)
-		outs[who.name] = readTree(t, out)
+	ctx, cancel := context.WithCancel(context.Background())
+	var wg sync.WaitGroup
+	// Registered after TempDir, so it runs first: a test that stops early
+	// kills its runs and waits for them before the directory goes.
+	t.Cleanup(func() { cancel(); wg.Wait() })
+	host := crossBin{name: "host"}
+	again := crossBin{name: "host-again"}
+	arm := crossBin{name: "arm64", emu: emu}
+	var buildErr error
+	built := make(chan struct{})
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		defer close(built)
+		if host.bin, buildErr = hostCLIBuild(); buildErr == nil {
+			again.bin = host.bin
+			arm.bin, buildErr = buildForErr(dir, "arm64")
+		}
+	}()
+	// start runs b with args in wd in the background, once the builds are
+	// there; its output arrives on the channel.
+	start := func(b *crossBin, wd string, args ...string) <-chan crossOut {
+		ch := make(chan crossOut, 1)
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			if <-built; buildErr != nil {
+				ch <- crossOut{err: buildErr}
+				return
+			}
+			out, err := b.output(ctx, wd, args...)
+			ch <- crossOut{out: out, err: err}
+		}()
+		return ch
 	}
+	// report: the host twice and arm64, each into its own directory.
+	reports := map[string]<-chan crossOut{}
+	for _, who := range []*crossBin{&arm, &host, &again} {
+		reports[who.name] = start(who, dir, append([]string{"report", "-o", filepath.Join(dir, "review-"+who.name)}, inputs...)...)
+	}
+	// design --json of each example from the repository root, as
+	// TestJSONGolden runs it, by both builds: each must print
+	// testdata/design_<example>.json byte for byte. (The examples alone
+	// are a weak probe: under the emulator they agreed already at
+	// ad0190f, before the numerics feeding output were made independent
+	// of fused multiply-add; fleetCrossArch finds a difference today.)
+	// golden's TestCrossArchDeterminism compares the JSON of their copies
+	// in the other arithmetics, and leaves these to this test.
+	type jsonRun struct {
+		name string
+		host <-chan crossOut
+		arm  <-chan crossOut
+	}
+	var jsons []jsonRun
+	for _, p := range examples(t) {
+		name := strings.TrimSuffix(filepath.Base(p), ".toml")
+		rel := "examples/" + name + ".toml"
+		jsons = append(jsons, jsonRun{name, start(&host, root, "design", "--json", rel), start(&arm, root, "design", "--json", rel)})
+	}
+
+	t.Parallel()
+	t.Run("report", func(t *testing.T) {
+		outs := map[string]map[string][]byte{}
+		for _, who := range []string{"host", "host-again", "arm64"} {
+			if r := <-reports[who]; r.err != nil {
+				t.Fatal(r.err)
+			}
+			outs[who] = readTree(t, filepath.Join(dir, "review-"+who))
+		}
+		reportCrossArch(t, outs)
+	})
+	t.Run("design-json", func(t *testing.T) {
+		for _, j := range jsons {
+			want, err := os.ReadFile(filepath.Join("testdata", "design_"+j.name+".json"))
+			if err != nil {
+				t.Fatal(err)
+			}
+			for _, r := range []struct {
+				who string
+				ch  <-chan crossOut
+			}{{"host", j.host}, {"arm64", j.arm}} {
+				got := <-r.ch
+				if got.err != nil {
+					t.Fatal(got.err)
+				}
+				if !bytes.Equal(got.out, want) {
+					t.Errorf("%s: design --json examples/%s.toml differs from testdata/design_%s.json:\n%s", r.who, j.name, j.name, firstDiff(string(want), string(got.out)))
+				}
+			}
+		}
+	})
+	t.Run("design-json-fleet", func(t *testing.T) {
+		if <-built; buildErr != nil {
+			t.Fatal(buildErr)
+		}
+		fleetCrossArch(t, dir, host, arm)
+	})
+}
+
+// crossBin is a build of the CLI and the emulator that runs it ("" for
+// the host's own).
+type crossBin struct{ name, bin, emu string }
+
+// command returns the command running b with args in directory wd, killed
+// when ctx is done.
+func (b crossBin) command(ctx context.Context, wd string, args ...string) *exec.Cmd {
+	bin := b.bin
+	if b.emu != "" {
+		args = append([]string{b.bin}, args...)
+		bin = b.emu
+	}
+	cmd := exec.CommandContext(ctx, bin, args...)
+	cmd.Dir = wd
+	return cmd
+}
+
+// run runs b with args in wd and returns its stdout; any exit status but
+// 0 is fatal, with stderr shown (the inputs all meet their specs).
+func (b crossBin) run(t *testing.T, wd string, args ...string) []byte {
+	t.Helper()
+	out, err := b.output(context.Background(), wd, args...)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return out
+}
+
+// output is run without a test: the error says which build, command and
+// stderr.
+func (b crossBin) output(ctx context.Context, wd string, args ...string) ([]byte, error) {
+	cmd := b.command(ctx, wd, args...)
+	var out, errb bytes.Buffer
+	cmd.Stdout, cmd.Stderr = &out, &errb
+	if err := cmd.Run(); err != nil {
+		return nil, fmt.Errorf("%s: locusmith %s: %v\n%s", b.name, strings.Join(args, " "), err, errb.String())
+	}
+	return out.Bytes(), nil
+}
+
+// crossOut is the outcome of one run of TestCrossArch: its stdout, or
+// the error.
+type crossOut struct {
+	out []byte
+	err error
+}
+
+// reportCrossArch requires the reports that `report` wrote on every
+// example with the host build (twice) and the arm64 build to be the same
+// files byte for byte. The root locus was drawn as polylines whose shape
+// at a breakaway point followed the last bits of the roots
+// (gimbal_cam-yaw-locus*.svg differed before plots.go drew it in
+// canonical pieces).
+func reportCrossArch(t *testing.T, outs map[string]map[string][]byte) {
 	ref := outs["host"]
 	if len(ref) < 3*10 {
 		t.Fatalf("the host wrote %d files; want a page and its plots per example", len(ref))
@@ -123,34 +237,6 @@ func reportCrossArch(t *testing.T, dir string, host, arm crossBin) {
 		for _, n := range names {
 			if !bytes.Equal(got[n], ref[n]) {
 				t.Errorf("%s: %s differs from the host's:\n%s", other, n, firstDiff(string(ref[n]), string(got[n])))
-			}
-		}
-	}
-}
-
-// designJSONCrossArch runs `design --json` on every example from the
-// repository root, as TestJSONGolden does, with the host and the arm64
-// build, and requires both to print testdata/design_<example>.json byte
-// for byte. (The examples alone are a weak probe: under the emulator
-// they agreed already at ad0190f, before the numerics feeding output
-// were made independent of fused multiply-add; fleetCrossArch finds a
-// difference today.)
-func designJSONCrossArch(t *testing.T, host, arm crossBin) {
-	root, err := filepath.Abs(filepath.Join("..", ".."))
-	if err != nil {
-		t.Fatal(err)
-	}
-	for _, p := range examples(t) {
-		name := strings.TrimSuffix(filepath.Base(p), ".toml")
-		want, err := os.ReadFile(filepath.Join("testdata", "design_"+name+".json"))
-		if err != nil {
-			t.Fatal(err)
-		}
-		rel := "examples/" + name + ".toml"
-		for _, who := range []crossBin{host, arm} {
-			got := who.run(t, root, "design", "--json", rel)
-			if !bytes.Equal(got, want) {
-				t.Errorf("%s: design --json %s differs from testdata/design_%s.json:\n%s", who.name, rel, name, firstDiff(string(want), string(got)))
 			}
 		}
 	}
@@ -195,28 +281,6 @@ func fleetCrossArch(t *testing.T, dir string, host, arm crossBin) {
 	if got := arm.run(t, fleetDir, args...); !bytes.Equal(got, ref) {
 		t.Errorf("arm64: design --json of fleet variants 1 to %d differs from the host's:\n%s", n-1, firstDiff(string(ref), string(got)))
 	}
-}
-
-// buildFor builds the CLI for goarch ("" for the host) into dir.
-func buildFor(t *testing.T, dir, goarch string) string {
-	t.Helper()
-	name := "locusmith-host"
-	env := os.Environ()
-	if goarch != "" {
-		name = "locusmith-" + goarch
-		env = append(env, "GOARCH="+goarch, "CGO_ENABLED=0")
-	}
-	bin := filepath.Join(dir, name)
-	goTool := filepath.Join(runtime.GOROOT(), "bin", "go")
-	if _, err := os.Stat(goTool); err != nil {
-		goTool = "go"
-	}
-	cmd := exec.Command(goTool, "build", "-o", bin, ".")
-	cmd.Env = env
-	if out, err := cmd.CombinedOutput(); err != nil {
-		t.Fatalf("go build %s: %v\n%s", goarch, err, out)
-	}
-	return bin
 }
 
 // readTree reads every file of dir.

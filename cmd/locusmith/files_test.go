@@ -167,7 +167,7 @@ func TestReportSignals(t *testing.T) {
 	}
 	t.Parallel()
 	dir := t.TempDir()
-	bin := buildFor(t, dir, "")
+	bin := hostCLI(t)
 	src, err := os.ReadFile(examples(t)[0])
 	if err != nil {
 		t.Fatal(err)

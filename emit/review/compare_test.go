@@ -36,7 +36,7 @@ func edit(t *testing.T, s, old, new string) string {
 
 func compareTexts(t *testing.T, oldText, newText string) *Comparison {
 	t.Helper()
-	c, err := Compare("old.toml", designText(t, "old.toml", oldText), "new.toml", designText(t, "new.toml", newText), 0, 0)
+	c, err := Compare("old.toml", sharedText(t, "old.toml", oldText), "new.toml", sharedText(t, "new.toml", newText), 0, 0)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -150,7 +150,7 @@ func TestComparePairs(t *testing.T) {
 		before: false, now: true, improved: []string{"checks.settling_time"},
 	}} {
 		t.Run(tc.name, func(t *testing.T) {
-			c, err := Compare(tc.name+"_old.toml", designText(t, "old.toml", tc.old), tc.name+"_new.toml", designText(t, "new.toml", tc.new), 0, 0)
+			c, err := Compare(tc.name+"_old.toml", sharedText(t, "old.toml", tc.old), tc.name+"_new.toml", sharedText(t, "new.toml", tc.new), 0, 0)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -341,7 +341,7 @@ func TestCompareInputs(t *testing.T) {
 // the discrete section; the checks are judged apart from the figures.
 func TestCompareEnvelopeKeys(t *testing.T) {
 	base := compareBase(t)
-	r, err := flatResults(designText(t, "demo.toml", base))
+	r, err := flatResults(sharedText(t, "demo.toml", base))
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -6,7 +6,6 @@ import (
 	"slices"
 	"testing"
 
-	"locusmith/airframe"
 	"locusmith/discrete"
 	"locusmith/internal/lti"
 	"locusmith/internal/pyref"
@@ -42,21 +41,6 @@ derivative_lowpass_hz = 60.0
 output_limit = [-0.5, 0.5]
 `
 
-func designText(t *testing.T, name, text string) *discrete.Airframe {
-	t.Helper()
-	f, err := airframe.Parse(name, []byte(text))
-	if err != nil {
-		t.Fatal(err)
-	}
-	a := discrete.DesignAirframe(f)
-	for _, x := range a.Axes {
-		if x.Err != nil {
-			t.Fatalf("%s: %v", x.Name, x.Err)
-		}
-	}
-	return a
-}
-
 // The sampled loop of the frequency-response plot and the z-plane map
 // against SciPy (Debian's python3-scipy, version in the log):
 // scipy.signal.cont2discrete with method "zoh" samples G·H, "bilinear"
@@ -66,7 +50,7 @@ func designText(t *testing.T, name, text string) *discrete.Airframe {
 // map's. 1e-8 relative: both sides evaluate the same rational functions
 // in double precision (the ZOH through the matrix exponential in both).
 func TestSampledLoopAgainstSciPy(t *testing.T) {
-	a := designText(t, "sampled_demo.toml", sampledDemo)
+	a := sharedText(t, "sampled_demo.toml", sampledDemo)
 	d := a.Axes[0].Design
 	if d.Coeffs.DerivativeMethod != discrete.Tustin {
 		t.Fatalf("derivative by %s, the test needs Tustin", d.Coeffs.DerivativeMethod)
@@ -169,7 +153,7 @@ func matchDist(got, want []complex128) float64 {
 // the double pole of a compute delay is only determined to about √eps.
 func TestSampledLoopMatchesVerification(t *testing.T) {
 	for _, path := range airframes(t) {
-		a := design(t, path)
+		a := sharedDesign(t, path)
 		for _, x := range a.Axes {
 			if x.Design == nil {
 				continue
@@ -229,7 +213,7 @@ func closeTo(a, b, rel float64) bool {
 func TestFixedStepFollowsReference(t *testing.T) {
 	n := 0
 	for _, path := range airframes(t) {
-		a := design(t, path)
+		a := sharedDesign(t, path)
 		for _, x := range a.Axes {
 			if x.Design == nil || x.Design.Num == nil || x.Design.Num.Fixed == nil {
 				continue

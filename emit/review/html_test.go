@@ -61,10 +61,7 @@ func htmlPages(t *testing.T) map[string]File {
 	t.Helper()
 	pages := map[string]File{}
 	for _, path := range airframes(t) {
-		files, err := Build(design(t, path))
-		if err != nil {
-			t.Fatal(err)
-		}
+		_, files := sharedBuild(t, path)
 		page, err := HTML(files)
 		if err != nil {
 			t.Fatalf("%s: %v", path, err)
@@ -176,10 +173,7 @@ func TestHTMLInBrowser(t *testing.T) {
 		t.Skip("loads the page in a browser; skipped with -short (CI runs it)")
 	}
 	bin := chromium(t)
-	files, err := Build(design(t, "../../examples/quadrotor.toml"))
-	if err != nil {
-		t.Fatal(err)
-	}
+	_, files := sharedBuild(t, "../../examples/quadrotor.toml")
 	page, err := HTML(files)
 	if err != nil {
 		t.Fatal(err)

@@ -11,7 +11,7 @@ import (
 func TestUnsafeNamesQuoted(t *testing.T) {
 	base := compareBase(t)
 	bad := "old\x1b[31m\u202etxt.toml"
-	c, err := Compare(bad, designText(t, bad, base), "new.toml", designText(t, "new.toml", base), 0, 0)
+	c, err := Compare(bad, sharedText(t, bad, base), "new.toml", sharedText(t, "new.toml", base), 0, 0)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -22,7 +22,7 @@ func TestUnsafeNamesQuoted(t *testing.T) {
 	if !strings.Contains(out, `\x1b[31m\u202etxt.toml"`) {
 		t.Errorf("compare text does not quote the name:\n%s", out)
 	}
-	page, _ := model(designText(t, bad, base))
+	page, _ := model(sharedText(t, bad, base))
 	if strings.ContainsAny(page.File, "\x1b\u202e") || !strings.Contains(page.File, `\u202e`) {
 		t.Errorf("report page's file: %q", page.File)
 	}

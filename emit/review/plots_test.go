@@ -46,7 +46,7 @@ func examplePlots(t *testing.T) []builtPlot {
 	}
 	var out []builtPlot
 	for _, path := range paths {
-		a := design(t, path)
+		a := sharedDesign(t, path)
 		for _, x := range a.Axes {
 			if x.Design == nil {
 				continue
@@ -526,15 +526,12 @@ func TestFloatPageNoFixedPoint(t *testing.T) {
 	paths, _ := filepath.Glob("../../examples/*.toml")
 	seen := 0
 	for _, path := range paths {
-		a := design(t, path)
+		a := sharedDesign(t, path)
 		if a.File.Numeric.Type != airframe.Float32 && a.File.Numeric.Type != airframe.Float64 {
 			continue
 		}
 		seen++
-		files, err := Build(a)
-		if err != nil {
-			t.Fatal(err)
-		}
+		_, files := sharedBuild(t, path)
 		md := string(files[0].Data)
 		for _, w := range []string{"### Fixed point", "LSB", "proved bound", "headroom"} {
 			if strings.Contains(md, w) {

@@ -149,7 +149,7 @@ form = "pi"
 // TestReportFields: each form reports the fields that apply to it and no
 // others; a margin that does not exist is omitted, not invented.
 func TestReportFields(t *testing.T) {
-	a := designInline(t, twoAxes)
+	a := sharedInline(t, twoAxes)
 	r := JSON([]*discrete.Airframe{a})
 	if r.Version != version.Version || len(r.Airframes) != 1 {
 		t.Fatalf("report header: %+v", r)
@@ -224,16 +224,16 @@ func TestReportFields(t *testing.T) {
 // with at most SignificantDigits significant digits, and is the same on
 // every run.
 func TestReportJSONText(t *testing.T) {
-	enc := func() []byte {
+	enc := func(a *discrete.Airframe) []byte {
 		var b bytes.Buffer
 		e := json.NewEncoder(&b)
 		e.SetIndent("", "  ")
-		if err := e.Encode(JSON([]*discrete.Airframe{designInline(t, twoAxes)})); err != nil {
+		if err := e.Encode(JSON([]*discrete.Airframe{a})); err != nil {
 			t.Fatal(err)
 		}
 		return b.Bytes()
 	}
-	a, b := enc(), enc()
+	a, b := enc(sharedInline(t, twoAxes)), enc(designInline(t, twoAxes))
 	if !bytes.Equal(a, b) {
 		t.Fatal("two reports of the same input differ")
 	}
@@ -314,7 +314,7 @@ func TestReportInfeasibleAxis(t *testing.T) {
 }
 
 func TestWriteTable(t *testing.T) {
-	a := designInline(t, twoAxes)
+	a := sharedInline(t, twoAxes)
 	var b1, b2 bytes.Buffer
 	if err := WriteTable(&b1, a); err != nil {
 		t.Fatal(err)
@@ -410,7 +410,7 @@ func TestDropTracesKeepsFigures(t *testing.T) {
 // lists every plant of the final verification, the nominal one first; and
 // every check names its worst plant.
 func TestReportRobustFields(t *testing.T) {
-	a := designInline(t, twoAxes)
+	a := sharedInline(t, twoAxes)
 	r := JSON([]*discrete.Airframe{a})
 	for i, x := range r.Airframes[0].Axes {
 		d := a.Axes[i].Design
@@ -577,7 +577,7 @@ func TestCornerAndCheckText(t *testing.T) {
 // (Franklin, Powell & Workman, Digital Control of Dynamic Systems, from
 // memory), each in degrees.
 func TestPhaseBudget(t *testing.T) {
-	a := design(t, "../../examples/quadrotor.toml")
+	a := sharedDesign(t, "../../examples/quadrotor.toml")
 	d := a.Axes[0].Design
 	const sensorHz = 100 // the example's first axis, lowpass_hz
 	rows, total := phaseBudget(d)

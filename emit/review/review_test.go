@@ -50,11 +50,7 @@ func airframes(t *testing.T) []string {
 // go test -update). The output must be a pure function of the input: it
 // is built twice and the two must be identical byte for byte.
 func TestGolden(t *testing.T) {
-	a := design(t, "testdata/review_demo.toml")
-	files, err := Build(a)
-	if err != nil {
-		t.Fatal(err)
-	}
+	_, files := sharedBuild(t, "testdata/review_demo.toml")
 	again, err := Build(design(t, "testdata/review_demo.toml"))
 	if err != nil {
 		t.Fatal(err)
@@ -194,11 +190,7 @@ var expectedSeries = map[string][]string{
 func TestSVGStructure(t *testing.T) {
 	linkRE := regexp.MustCompile(`!\[[^\]]*\]\(([^)]+)\)`)
 	for _, path := range airframes(t) {
-		a := design(t, path)
-		files, err := Build(a)
-		if err != nil {
-			t.Fatalf("%s: %v", path, err)
-		}
+		a, files := sharedBuild(t, path)
 		md := string(files[0].Data)
 		if files[0].Name != a.File.Airframe+".md" {
 			t.Fatalf("%s: first file %s", path, files[0].Name)
@@ -343,10 +335,7 @@ func TestMarkdownEscapes(t *testing.T) {
 	if got := mdCode("a`b|c"); got != "``a`b\\|c``" {
 		t.Errorf("mdCode = %q", got)
 	}
-	files, err := Build(design(t, "testdata/review_demo.toml"))
-	if err != nil {
-		t.Fatal(err)
-	}
+	_, files := sharedBuild(t, "testdata/review_demo.toml")
 	md := string(files[0].Data)
 	if !strings.Contains(md, `\| \*escaped\* \<text\>`) {
 		t.Errorf("the description is not escaped in the report")
@@ -471,11 +460,7 @@ func TestBuildWithoutTraces(t *testing.T) {
 // the nominal figures, the checks with their worst plants, and a row per
 // plant of the envelope.
 func TestMarkdownEnvelope(t *testing.T) {
-	a := design(t, "../../examples/quadrotor.toml")
-	files, err := Build(a)
-	if err != nil {
-		t.Fatal(err)
-	}
+	a, files := sharedBuild(t, "../../examples/quadrotor.toml")
 	md := string(files[0].Data)
 	for _, want := range []string{
 		"| sensitivity peak Ms | ≤ 1.7 | max \\|1/(1 + L)\\|: gain margin ≥ 2.43, phase margin ≥ 34.21° |",

@@ -15,7 +15,7 @@ import (
 // against the design's refined peak.
 func TestSensitivityNoiseCurve(t *testing.T) {
 	for _, path := range []string{"../../golden/testdata/compliant.toml", "../../examples/quadrotor.toml"} {
-		a := design(t, path)
+		a := sharedDesign(t, path)
 		for _, x := range a.Axes {
 			d := x.Design
 			if d == nil {

@@ -147,6 +147,7 @@ func TestModesCoverage(t *testing.T) {
 	if testing.Short() {
 		t.Skip("100 simulated logs; skipped with -short")
 	}
+	t.Parallel()
 	const fs, n, seg = 1000.0, 60000, 2048
 	rng := rand.New(rand.NewPCG(2026, 12))
 	found, coveredHz, coveredZeta := 0, 0, 0
