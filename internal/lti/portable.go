@@ -26,7 +26,9 @@ import (
 // they return what the standard library and Go's complex operators return
 // there, bit for bit, and every other CPU gets the same bits. Whatever
 // feeds a printed figure or generated code computes with them: the
-// outputs then do not depend on the CPU, and on amd64 nothing changed.
+// outputs then do not depend on the CPU, and on amd64 with AVX and FMA3
+// nothing changed, while an amd64 CPU without them, whose math.Exp rounds
+// differently, now prints what the others print.
 // The tests compare them with the standard library (bit for bit on
 // amd64) and with math/big.
 
@@ -114,7 +116,7 @@ const (
 )
 
 // Exp returns e^x as math.Exp computes it on amd64 with FMA (its
-// assembly takes that path on every x86-64 CPU with AVX2 and FMA3; the
+// assembly takes that path on every x86-64 CPU with AVX and FMA3; the
 // others get other last bits): Shibata's method, "Efficient evaluation
 // methods of elementary functions suitable for SIMD computation" (ISC
 // 2010, from memory of its use in Go's exp_amd64.s). With x = k·ln 2 + r
