@@ -26,7 +26,9 @@ import (
 // The cases it does not follow (larger matrices, entries that Dgeev would
 // rescale, a QR iteration that does not converge) go to mat.Eigen as
 // before. The routines are LAPACK's (Anderson et al., LAPACK Users' Guide,
-// from memory), as gonum translated them.
+// from memory) and follow, step for step, the Go translation in gonum
+// (gonum.org/v1/gonum/lapack/gonum, Copyright The Gonum Authors,
+// BSD 3-clause licence, a dependency of this module).
 
 // Machine constants of LAPACK's Dlamch for IEEE double precision.
 const (

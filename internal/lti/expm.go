@@ -15,7 +15,9 @@ import (
 // (Dgetf2, Dgetrs) in the order their amd64 kernels take, each of them
 // elementwise — with every product rounded before its sum. On amd64 it
 // equals mat.Exp bit for bit (the test checks it on many matrices), and
-// on every CPU it gives those bits.
+// on every CPU it gives those bits. The code it follows is gonum's
+// (gonum.org/v1/gonum/mat and lapack/gonum, Copyright The Gonum Authors,
+// BSD 3-clause licence, a dependency of this module).
 
 // errSingular reports a Padé denominator without an LU factorization.
 var errSingular = errors.New("lti: singular Padé denominator in the matrix exponential")
