@@ -178,8 +178,8 @@ func designJSONCrossArch(t *testing.T, host, arm crossBin) {
 // the standard library's elementary functions and gonum's matrix
 // exponential and eigenvalues differed in their last bits. The numerics
 // now round every product and compute those with lti's own (portable.go,
-// expm.go, eig.go), to amd64's bits: N = 60 passes (150 s for the fleet)
-// and N = 100 (300 s on a busy 2-core machine).
+// expm.go, eig.go), to amd64's bits: N = 60 passes (150 s for the fleet),
+// N = 100 (300 s on a busy 2-core machine) and N = 200 (660 s).
 func fleetCrossArch(t *testing.T, dir string, host, arm crossBin) {
 	n, _ := strconv.Atoi(os.Getenv("LOCUSMITH_CROSSARCH_FLEET"))
 	if n < 2 {
