@@ -834,8 +834,8 @@ func (c *checker) filter(t *table, loopHz float64, auto *autoPlacer) (Filter, bo
 		good = good && ok
 		if ok && notch {
 			f.WidthHz = w
-			if hzOK && loopHz > 0 && f.Hz+w/2 >= nyq {
-				c.fail(t.sub("width_hz"), t.m["width_hz"], "the band hz ± width_hz/2 = [%g, %g] Hz must lie below Nyquist (loop_hz/2 = %g Hz): narrow the notch or lower its centre", f.Hz-w/2, f.Hz+w/2, nyq)
+			if hzOK && loopHz > 0 && f.Hz+float64(w/2) >= nyq {
+				c.fail(t.sub("width_hz"), t.m["width_hz"], "the band hz ± width_hz/2 = [%g, %g] Hz must lie below Nyquist (loop_hz/2 = %g Hz): narrow the notch or lower its centre", f.Hz-float64(w/2), f.Hz+float64(w/2), nyq)
 				good = false
 			}
 		}

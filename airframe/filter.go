@@ -4,7 +4,6 @@ import (
 	"cmp"
 	"fmt"
 	"math"
-	"math/cmplx"
 	"slices"
 	"strconv"
 
@@ -114,7 +113,7 @@ func (a Axis) LightModes(maxHz float64) []Mode {
 		plant bool
 	}{{a.Plant.Model.Poles, true}, {a.Sensor.Poles, false}} {
 		for _, r := range src.poles {
-			w := cmplx.Abs(r)
+			w := lti.Abs(r)
 			if imag(r) <= 0 || w == 0 {
 				continue
 			}
@@ -153,7 +152,7 @@ func NotchWidth(m Mode, e Envelope, nyq float64) float64 {
 		e = e.Normalized()
 		w = math.Max(w, 1.5*(f/e.LagScale[0]-f/e.LagScale[1]))
 	}
-	w = math.Min(w, math.Min(0.9*f, 1.8*(0.9*nyq-f)))
+	w = math.Min(w, math.Min(0.9*f, 1.8*(float64(0.9*nyq)-f)))
 	return round3(w)
 }
 

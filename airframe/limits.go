@@ -3,7 +3,6 @@ package airframe
 import (
 	"fmt"
 	"math"
-	"math/cmplx"
 	"strconv"
 	"strings"
 	"unicode"
@@ -171,7 +170,7 @@ func (c *checker) axisLimits(key string, a Axis, ok axisOK, t *table, lp loopInf
 // delay and the transport delay tau at loop rate hz, a fraction of a
 // sample counted as a whole one (it adds a state too).
 func delaySamples(computeDelay int, tau, hz float64) int {
-	x := tau * hz
+	x := float64(tau * hz)
 	if x > 1e9 {
 		return math.MaxInt32
 	}
@@ -218,7 +217,7 @@ func (c *checker) gainScale(a Axis, t *table, key string, sub func(string, strin
 		best = math.Max(best, log10Mag(a.Plant.Model, complex(0, f*w))+log10Mag(a.Sensor, complex(0, f*w)))
 	}
 	scale := -best // log10 of the gain scale
-	if math.IsNaN(scale) || scale < math.Log10(minGainScale) || scale > math.Log10(maxGainScale) {
+	if math.IsNaN(scale) || scale < lti.Log10(minGainScale) || scale > lti.Log10(maxGainScale) {
 		pm, _ := t.m["plant"].(map[string]any)
 		k, v := sub("plant", "gain"), valueOrNil(pm["gain"])
 		unit := "command → rate gain"
@@ -236,15 +235,16 @@ func (c *checker) gainScale(a Axis, t *table, key string, sub func(string, strin
 // maxSampledNorm bounds ‖[A B]·T‖₁, the 1-norm of the matrix whose
 // exponential samples the plant and sensor at the loop rate (the design
 // realizes them section by section, lti.ZPK.CascadeSS and lti.Series,
-// and samples them with gonum's scaling-and-squaring mat.Exp, through
-// lti.ZOHDelay). The relative error of that exponential grows with the
-// norm: measured on the realization of a rate plant with a lowpass gyro
-// against the exact 1 of its integrator's entry, 4e-16 at a norm of 16,
-// 3.6e-12 at 1e5, 2.9e-11 at 1e6, 3.7e-9 at 1e8, 3e-8 at 1e9, 2.4e-4 at
-// 1e13; from about 1e12 on, the result may be NaN, and the design then
-// failed with "lti: non-finite value" naming no key. At 1e8 the sampled
-// loop keeps eight digits; the demo airframes stay below 200 (the
-// quadrotor's roll: (1/0.03 + 1.1·2400/0.03)·0.001 = 88).
+// and samples them with gonum's scaling-and-squaring mat.Exp, as lti's
+// expm computes it, through lti.ZOHDelay). The relative error of that
+// exponential grows with the norm: measured on the realization of a rate
+// plant with a lowpass gyro against the exact 1 of its integrator's
+// entry, 4e-16 at a norm of 16, 3.6e-12 at 1e5, 2.9e-11 at 1e6, 3.7e-9
+// at 1e8, 3e-8 at 1e9, 2.4e-4 at 1e13; from about 1e12 on, the result
+// may be NaN, and the design then failed with "lti: non-finite value"
+// naming no key. At 1e8 the sampled loop keeps eight digits; the demo
+// airframes stay below 200 (the quadrotor's roll: (1/0.03 +
+// 1.1·2400/0.03)·0.001 = 88).
 const maxSampledNorm = 1e8
 
 // sampledNorm returns ‖[A B]·T‖₁ of the plant and sensor of a at corner
@@ -306,19 +306,19 @@ func (c *checker) sampling(a Axis, t *table, hz float64, sub func(string, string
 	// The largest factor on the gain that keeps the bound: the norm does
 	// not fall as the gain grows, so bisect on its logarithm.
 	lo, hi := -40.0, 0.0
-	if worst(math.Pow(10, lo)) > maxSampledNorm {
+	if worst(lti.Pow(10, lo)) > maxSampledNorm {
 		c.fastRoot(a, hz, norm, sub, raw)
 		return
 	}
 	for range 60 {
 		mid := (lo + hi) / 2
-		if worst(math.Pow(10, mid)) <= maxSampledNorm {
+		if worst(lti.Pow(10, mid)) <= maxSampledNorm {
 			lo = mid
 		} else {
 			hi = mid
 		}
 	}
-	k := math.Pow(10, lo)
+	k := lti.Pow(10, lo)
 	key, what, most := sub("plant", "gain"), "the plant's gain", fmtLimit(math.Abs(a.Plant.Model.Gain)*k)
 	if phys {
 		key, what = sub("plant", "effectiveness"), "effectiveness"
@@ -340,7 +340,7 @@ func (c *checker) fastRoot(a Axis, hz, norm float64, sub func(string, string) st
 	consider := func(table, k string, rs []complex128, scale float64) {
 		m := raw(table, k)
 		for i, r := range rs {
-			if mag := cmplx.Abs(r) * scale; mag > best.mag {
+			if mag := lti.Abs(r) * scale; mag > best.mag {
 				key, val := sub(table, k), m
 				if arr, ok := m.([]any); ok {
 					idx := rootIndex(arr, i)
@@ -379,12 +379,12 @@ func keyBase(key string) string {
 // log10Mag returns log10 |z(s)| of the zero-pole-gain model, summed in
 // logarithms so that no product overflows.
 func log10Mag(z lti.ZPK, s complex128) float64 {
-	v := math.Log10(math.Abs(z.Gain))
+	v := lti.Log10(math.Abs(z.Gain))
 	for _, r := range z.Zeros {
-		v += math.Log10(cmplx.Abs(s - r))
+		v += lti.Log10(lti.Abs(s - r))
 	}
 	for _, r := range z.Poles {
-		v -= math.Log10(cmplx.Abs(s - r))
+		v -= lti.Log10(lti.Abs(s - r))
 	}
 	return v
 }
@@ -414,7 +414,7 @@ func (c *checker) sensorDC(a Axis, key string, sub func(string, string) string, 
 	}
 	hint := ""
 	const degPerRad = 180 / math.Pi
-	if math.Abs(dc/degPerRad-1) < 0.01 || math.Abs(dc*degPerRad-1) < 0.01 {
+	if math.Abs(dc/degPerRad-1) < 0.01 || math.Abs(float64(dc*degPerRad)-1) < 0.01 {
 		hint = fmt.Sprintf(" (%s is the factor between deg/s and rad/s: give the sensor in the setpoint's unit)", fmtLimit(dc))
 	}
 	c.fail(k, v, "%s%s; a sensor must measure the rate in the setpoint's unit: DC gain 1 within max_steady_error (gain · Π|zeros| / Π|poles| for real roots)", what, hint)
@@ -422,7 +422,7 @@ func (c *checker) sensorDC(a Axis, key string, sub func(string, string) string, 
 
 // rootProblem says why the nonzero pole or zero r cannot be used, or "".
 func rootProblem(r complex128) string {
-	a := cmplx.Abs(r)
+	a := lti.Abs(r)
 	switch {
 	case r == 0:
 		return ""

@@ -2,7 +2,6 @@ package airframe
 
 import (
 	"math"
-	"math/cmplx"
 	"slices"
 
 	"locusmith/internal/lti"
@@ -201,7 +200,7 @@ func (a Axis) At(c Corner) Axis {
 	for i, p := range m.Poles {
 		poles[i] = p
 		if p != 0 && c.LagScale != 1 {
-			poles[i] = p / complex(c.LagScale, 0)
+			poles[i] = lti.Div(p, complex(c.LagScale, 0))
 			gain /= c.LagScale
 		}
 	}
@@ -213,9 +212,9 @@ func (a Axis) At(c Corner) Axis {
 // OpenLoop returns G(s)·H(s)·e^(−sτ), the loop without the controller:
 // plant, sensor and transport delay.
 func (a Axis) OpenLoop(s complex128) complex128 {
-	v := a.Plant.Model.Eval(s) * a.Sensor.Eval(s)
+	v := lti.Mul(a.Plant.Model.Eval(s), a.Sensor.Eval(s))
 	if a.Plant.Delay > 0 {
-		v *= cmplx.Exp(-s * complex(a.Plant.Delay, 0))
+		v = lti.Mul(v, lti.CExp(lti.Mul(-s, complex(a.Plant.Delay, 0))))
 	}
 	return v
 }

@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"locusmith/airframe"
+	"locusmith/internal/lti"
 	"locusmith/synth"
 )
 
@@ -34,7 +35,7 @@ func autoCutoffs(p airframe.Axis, top float64) []float64 {
 	}
 	cs := []float64{top}
 	for k := 1; ; k++ {
-		c := airframe.Round3(top * math.Pow(10, -float64(k)/autoPerDecade))
+		c := airframe.Round3(top * lti.Pow(10, -float64(k)/autoPerDecade))
 		if c < lo {
 			break
 		}

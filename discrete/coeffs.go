@@ -6,6 +6,7 @@ import (
 	"strconv"
 
 	"locusmith/airframe"
+	"locusmith/internal/lti"
 	"locusmith/synth"
 )
 
@@ -113,7 +114,7 @@ func Realize(c synth.Controller, ctrl airframe.Control, T, crossover float64) (C
 			// between CPU architectures; 10 digits make tp reproducible.
 			w = snap10(w)
 			k.PrewarpOmega = w
-			tp = 2 * math.Tan(w*T/2) / w
+			tp = 2 * lti.Tan(w*T/2) / w
 		}
 	default:
 		return k, nil, fmt.Errorf("unknown discretization %q", ctrl.Discretize)

@@ -3,9 +3,9 @@ package discrete
 import (
 	"fmt"
 	"math"
-	"math/cmplx"
 
 	"locusmith/airframe"
+	"locusmith/internal/lti"
 	"locusmith/synth"
 )
 
@@ -264,7 +264,7 @@ func richerReach(p airframe.Axis, loop airframe.Loop) string {
 	if err != nil {
 		return ""
 	}
-	g0 := 1 / cmplx.Abs(q.OpenLoop(complex(0, t.OmegaN)))
+	g0 := 1 / lti.Abs(q.OpenLoop(complex(0, t.OmegaN)))
 	res, err := synth.Search(q.Continuous(), L, g0, t.OmegaN)
 	switch {
 	case err != nil:

@@ -127,24 +127,24 @@ func cmpDesc(a, b float64) int {
 // 1e-7 relative in ω.
 func goldenMax(f func(float64) float64, lo, hi float64) (float64, float64) {
 	const g = 0.6180339887498949
-	a, b := math.Log(lo), math.Log(hi)
-	c, d := b-g*(b-a), a+g*(b-a)
-	fc, fd := f(math.Exp(c)), f(math.Exp(d))
+	a, b := lti.Log(lo), lti.Log(hi)
+	c, d := b-float64(g*(b-a)), a+float64(g*(b-a))
+	fc, fd := f(lti.Exp(c)), f(lti.Exp(d))
 	for i := 0; i < 80 && b-a > 1e-7; i++ {
 		if fc >= fd {
 			b, d, fd = d, c, fc
-			c = b - g*(b-a)
-			fc = f(math.Exp(c))
+			c = b - float64(g*(b-a))
+			fc = f(lti.Exp(c))
 		} else {
 			a, c, fc = c, d, fd
-			d = a + g*(b-a)
-			fd = f(math.Exp(d))
+			d = a + float64(g*(b-a))
+			fd = f(lti.Exp(d))
 		}
 	}
 	if fc >= fd {
-		return math.Exp(c), fc
+		return lti.Exp(c), fc
 	}
-	return math.Exp(d), fd
+	return lti.Exp(d), fd
 }
 
 // loopAt returns ω ↦ L(e^(jωT)) of the sampled loop of k on pl.
@@ -153,20 +153,20 @@ func loopAt(pl Plant, k Coeffs, d int) func(w float64) complex128 {
 	return func(w float64) complex128 {
 		z := complexExp(w * pl.T)
 		n, den := feedbackRatio(k, cmplx.Conj(z))
-		return n / den * pl.evalMeasured(z) * complexExp(-D*w*pl.T)
+		return lti.Mul(lti.Mul(lti.Div(n, den), pl.evalMeasured(z)), complexExp(-D*w*pl.T))
 	}
 }
 
 // sensitivityPeaks returns Ms and Mt of the sampled loop of k on pl.
 func sensitivityPeaks(pl Plant, k Coeffs, d int, grid []float64) (ms, mt float64) {
 	L := loopAt(pl, k, d)
-	ms, _ = peakOn(grid, func(w float64) float64 { return 1 / cmplx.Abs(1+L(w)) })
-	mt, _ = peakOn(grid, func(w float64) float64 { l := L(w); return cmplx.Abs(l / (1 + l)) })
+	ms, _ = peakOn(grid, func(w float64) float64 { return 1 / lti.Abs(1+L(w)) })
+	mt, _ = peakOn(grid, func(w float64) float64 { l := L(w); return lti.Abs(lti.Div(l, 1+l)) })
 	// A loop with an integrator has T(1) = 1 at ω = 0, below the grid:
 	// there |T| is its limit 1, the supremum when it has no peak above.
 	// An integrator shows as |L| growing like 1/ω far below the grid.
 	if len(grid) > 0 {
-		a, b := cmplx.Abs(L(grid[0]*1e-3)), cmplx.Abs(L(grid[0]*1e-6))
+		a, b := lti.Abs(L(grid[0]*1e-3)), lti.Abs(L(grid[0]*1e-6))
 		if b > 1 && b > 100*a {
 			mt = math.Max(mt, 1)
 		}
@@ -198,9 +198,9 @@ func NoiseGain(k Coeffs, sections []lti.Biquad, grid []float64, lo float64) floa
 		z := complexExp(w * k.T)
 		c := feedback(k, z)
 		for _, q := range sections {
-			c *= q.Eval(z)
+			c = lti.Mul(c, q.Eval(z))
 		}
-		return cmplx.Abs(c)
+		return lti.Abs(c)
 	})
 	return v
 }

@@ -325,8 +325,9 @@ func stageGain(q lti.Biquad) float64 {
 	d := float64(q.A1*q.A1) - float64(4*q.A2)
 	if d >= 0 {
 		r := math.Sqrt(d)
-		p1, p2 := math.Abs(-q.A1+r)/2, math.Abs(-q.A1-r)/2
-		return 1 / ((1 - p1) * (1 - p2)) * (1 + l1Margin)
+		// x/2 is a product too: converted, so that 1 − p is not fused.
+		p1, p2 := float64(math.Abs(-q.A1+r)/2), float64(math.Abs(-q.A1-r)/2)
+		return 1 / float64((1-p1)*(1-p2)) * (1 + l1Margin)
 	}
 	r := math.Sqrt(q.A2)
 	sin := math.Sqrt(-d) / (2 * r) // sin θ, from r·sin θ = √(4·A2 − A1²)/2
@@ -401,7 +402,7 @@ func (p *fixedPlan) filterBounds(add func(entry)) (ymax, noise float64) {
 			}
 			b := float64(g.lin[i]*m) * math.Ldexp(1, q.F)
 			for j := 0; j < k; j++ {
-				b += float64(g.noise[i][j]*es[j]) * math.Ldexp(1, q.F-f.Sections[j].F)
+				b += float64(float64(g.noise[i][j]*es[j]) * math.Ldexp(1, q.F-f.Sections[j].F))
 			}
 			b += float64(g.noise[i][k]*es[k]) + direct
 			if unbounded {
@@ -443,7 +444,7 @@ func (p *fixedPlan) filterBounds(add func(entry)) (ymax, noise float64) {
 		if j == last {
 			v += es[j] // the output's own roundings of the current step
 		}
-		noise += v * math.Ldexp(1, -f.Sections[j].F)
+		noise += float64(v * math.Ldexp(1, -f.Sections[j].F))
 	}
 	ymax = float64(yb[last]*math.Ldexp(1, -f.Sections[last].F)) + half(f.Sections[last].F)
 	r := entry{Range: Range{Name: "filter chain output y (the controller's measurement)", Format: accFmt(0), Bound: ymax, Capacity: capA}}

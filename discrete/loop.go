@@ -32,7 +32,7 @@ func linearize(k Coeffs) linearCtrl {
 	if k.Form == airframe.FormLead {
 		// ul = B0 e + x; x' = B1 e − A1 ul = (B1 − A1 B0) e − A1 x.
 		buf := make([]float64, 4) // one allocation for the four vectors
-		buf[0], buf[1], buf[2], buf[3] = -k.A1, k.B1-k.A1*k.B0, -(k.B1 - k.A1*k.B0), 1
+		buf[0], buf[1], buf[2], buf[3] = -k.A1, k.B1-float64(k.A1*k.B0), -(k.B1 - float64(k.A1*k.B0)), 1
 		return linearCtrl{M: 1, Ac: buf[0:1:1], Br: buf[1:2:2], By: buf[2:3:3], Cc: buf[3:4:4], Dr: k.B0, Dy: -k.B0}
 	}
 	hasI, hasD := k.Form.HasIntegral(), k.Form.HasDerivative()
@@ -69,8 +69,8 @@ func linearize(k Coeffs) linearCtrl {
 		c.Br[iv], c.By[iv] = ar, ay
 		c.Cc[id] = k.Ad
 		c.Cc[iv] = -k.Bd
-		c.Dr += k.Bd * ar
-		c.Dy += k.Bd * ay
+		c.Dr += float64(k.Bd * ar)
+		c.Dy += float64(k.Bd * ay)
 	}
 	return c
 }
@@ -91,7 +91,7 @@ func directSetpoint(k Coeffs) float64 {
 		if k.DerivativeOnError {
 			ar = 1
 		}
-		dr += k.Bd * ar
+		dr += float64(k.Bd * ar)
 	}
 	return dr
 }
@@ -131,7 +131,7 @@ func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
 		copy(L.A[i*n:i*n+np], pl.A[i*np:(i+1)*np])
 		if d == 0 {
 			for j := 0; j < n; j++ {
-				L.A[i*n+j] += pl.B[i] * urow[j]
+				L.A[i*n+j] += float64(pl.B[i] * urow[j])
 			}
 		} else {
 			L.A[i*n+np+d-1] += pl.B[i]
@@ -152,7 +152,7 @@ func newClosedLoop(pl Plant, c linearCtrl, d int) closedLoop {
 			L.A[r*n+ic+j] = c.Ac[i*m+j]
 		}
 		for j := 0; j < np; j++ {
-			L.A[r*n+j] += c.By[i] * pl.Cm[j]
+			L.A[r*n+j] += float64(c.By[i] * pl.Cm[j])
 		}
 	}
 	L.B = B
@@ -226,21 +226,21 @@ func (s *stepper) run(y, u []float64) {
 	for t := range y {
 		var ym, yt float64
 		for j, v := range x[:np] {
-			ym += cm[j] * v
-			yt += cy[j] * v
+			ym += float64(cm[j] * v)
+			yt += float64(cy[j] * v)
 		}
 		y[t] = yt
-		cmd := dr + dy*ym
+		cmd := dr + float64(dy*ym)
 		for j, v := range xc[:m] {
-			cmd += cc[j] * v
+			cmd += float64(cc[j] * v)
 		}
 		if u != nil {
 			u[t] = cmd
 		}
 		for i := range xcn[:m] {
-			acc := cb[i] + cby[i]*ym
+			acc := cb[i] + float64(cby[i]*ym)
 			for j, a := range ca[i*m : i*m+m] {
-				acc += a * xc[j]
+				acc += float64(a * xc[j])
 			}
 			xcn[i] = acc
 		}
@@ -253,9 +253,9 @@ func (s *stepper) run(y, u []float64) {
 		ua := ring[r]
 		w = r
 		for i := range xn[:np] {
-			acc := pb[i] * ua
+			acc := float64(pb[i] * ua)
 			for j, a := range pa[i*np : i*np+np] {
-				acc += a * x[j]
+				acc += float64(a * x[j])
 			}
 			xn[i] = acc
 		}
@@ -312,17 +312,17 @@ func (p *pairCtrl) step(ym0, ym1 float64) (ua0, ua1 float64) {
 	m := c.M
 	ca, cb, cby, cc := c.Ac[:m*m], c.Br[:m], c.By[:m], c.Cc[:m]
 	xc0, xc1, xcn0, xcn1 := p.xc[0][:m], p.xc[1][:m], p.xcn[0][:m], p.xcn[1][:m]
-	cmd0, cmd1 := p.dr[0]+c.Dy*ym0, p.dr[1]+c.Dy*ym1
+	cmd0, cmd1 := p.dr[0]+float64(c.Dy*ym0), p.dr[1]+float64(c.Dy*ym1)
 	for j, a := range cc {
-		cmd0 += a * xc0[j]
-		cmd1 += a * xc1[j]
+		cmd0 += float64(a * xc0[j])
+		cmd1 += float64(a * xc1[j])
 	}
 	for i := range m {
-		acc0 := cb[i] + cby[i]*ym0
-		acc1 := cb[i] + cby[i]*ym1
+		acc0 := cb[i] + float64(cby[i]*ym0)
+		acc1 := cb[i] + float64(cby[i]*ym1)
 		for j, a := range ca[i*m : i*m+m] {
-			acc0 += a * xc0[j]
-			acc1 += a * xc1[j]
+			acc0 += float64(a * xc0[j])
+			acc1 += float64(a * xc1[j])
 		}
 		xcn0[i], xcn1[i] = acc0, acc1
 	}
@@ -351,20 +351,20 @@ func (s *pairStepper) run(y0, y1 []float64) {
 	for t := range y0 {
 		var ym0, yt0, ym1, yt1 float64
 		for j, a := range cm {
-			ym0 += a * x0[j]
-			ym1 += a * x1[j]
+			ym0 += float64(a * x0[j])
+			ym1 += float64(a * x1[j])
 		}
 		for j, a := range cy {
-			yt0 += a * x0[j]
-			yt1 += a * x1[j]
+			yt0 += float64(a * x0[j])
+			yt1 += float64(a * x1[j])
 		}
 		y0[t], y1[t] = yt0, yt1
 		ua0, ua1 := s.ctrl.step(ym0, ym1)
 		for i := range np {
-			acc0, acc1 := pb[i]*ua0, pb[i]*ua1
+			acc0, acc1 := float64(pb[i]*ua0), float64(pb[i]*ua1)
 			for j, a := range pa[i*np : i*np+np] {
-				acc0 += a * x0[j]
-				acc1 += a * x1[j]
+				acc0 += float64(a * x0[j])
+				acc1 += float64(a * x1[j])
 			}
 			xn0[i], xn1[i] = acc0, acc1
 		}
@@ -441,7 +441,7 @@ func (L closedLoop) dcGains(b1 []float64) (float64, float64) {
 				continue
 			}
 			for j := col + 1; j < w; j++ {
-				m[r*w+j] -= f * m[col*w+j]
+				m[r*w+j] -= float64(f * m[col*w+j])
 			}
 		}
 	}
@@ -451,10 +451,10 @@ func (L closedLoop) dcGains(b1 []float64) (float64, float64) {
 		for i := n - 1; i >= 0; i-- {
 			s := m[i*w+n+k]
 			for j := i + 1; j < n; j++ {
-				s -= m[i*w+j] * x[j]
+				s -= float64(m[i*w+j] * x[j])
 			}
 			x[i] = s * m[i*w+i]
-			dc[k] += L.Cy[i] * x[i]
+			dc[k] += float64(L.Cy[i] * x[i])
 		}
 		if math.IsNaN(dc[k]) || math.IsInf(dc[k], 0) {
 			dc[k] = nan
@@ -472,8 +472,8 @@ func (L closedLoop) dcGains(b1 []float64) (float64, float64) {
 // (the terms the form lacks are zero). It equals the linearized model's
 // transfer function (a test checks it) at a fraction of the cost.
 func feedback(k Coeffs, z complex128) complex128 {
-	n, d := feedbackRatio(k, 1/z)
-	return n / d
+	n, d := feedbackRatio(k, lti.Div(1, z))
+	return lti.Div(n, d)
 }
 
 // feedbackRatio returns C_fb as a ratio n/d at q = z⁻¹, each side kept as
@@ -486,7 +486,7 @@ func feedback(k Coeffs, z complex128) complex128 {
 //	lead:       n = B0 + B1·q,  d = 1 + A1·q
 func feedbackRatio(k Coeffs, q complex128) (n, d complex128) {
 	if k.Form == airframe.FormLead {
-		return complex(k.B0, 0) + complex(k.B1, 0)*q, 1 + complex(k.A1, 0)*q
+		return complex(k.B0, 0) + lti.Mul(complex(k.B1, 0), q), 1 + lti.Mul(complex(k.A1, 0), q)
 	}
 	hasI, hasD := k.Form.HasIntegral(), k.Form.HasDerivative()
 	fi, fd := complex(1, 0), complex(1, 0) // the integral's and the derivative's denominators
@@ -494,20 +494,20 @@ func feedbackRatio(k Coeffs, q complex128) (n, d complex128) {
 		fi = 1 - q
 	}
 	if hasD {
-		fd = 1 - complex(k.Ad, 0)*q
+		fd = 1 - lti.Mul(complex(k.Ad, 0), q)
 	}
 	p := complex(k.Kp, 0)
 	if hasI {
 		p += complex(k.G0, 0)
 	}
-	n = p * fi * fd
+	n = lti.Mul(lti.Mul(p, fi), fd)
 	if hasI {
-		n += complex(k.G01, 0) * q * fd
+		n += lti.Mul(lti.Mul(complex(k.G01, 0), q), fd)
 	}
 	if hasD {
-		n += complex(k.Bd, 0) * (1 - q) * fi
+		n += lti.Mul(lti.Mul(complex(k.Bd, 0), 1-q), fi)
 	}
-	return n, fi * fd
+	return n, lti.Mul(fi, fd)
 }
 
 // TF returns the linear controller as polynomials in z over a common
@@ -588,7 +588,7 @@ func schurStable(p lti.Poly) bool {
 		q := qs[:n]
 		scale := 0.0
 		for i := 0; i < n; i++ {
-			q[i] = a[n]*a[i+1] - a[0]*a[n-1-i]
+			q[i] = float64(a[n]*a[i+1]) - float64(a[0]*a[n-1-i])
 			scale = math.Max(scale, math.Abs(q[i]))
 		}
 		if !(scale > 0) || math.IsInf(scale, 0) {
@@ -615,7 +615,7 @@ func loopMargins(pl Plant, k Coeffs, d int, wlo float64) lti.Margins {
 		// Two decades below the integral zero Ki/Kp (G01 ≈ Ki·T).
 		lo = math.Min(lo, k.G01/T/k.Kp/100)
 	}
-	n := int(math.Ceil(20*math.Log10(ny/lo))) + 1
+	n := int(math.Ceil(20*lti.Log10(ny/lo))) + 1
 	// z⁻¹ = z̄ on the unit circle; the controller and the plant make one
 	// rational function, C·P = (Nc·Np)/(Dc·Dp), with one division, and the
 	// delay z^(−d−Delay) is a phase.
@@ -624,17 +624,15 @@ func loopMargins(pl Plant, k Coeffs, d int, wlo float64) lti.Margins {
 		return lti.LoopMargins(func(w float64) complex128 {
 			z := complexExp(w * T)
 			cn, cd := feedbackRatio(k, cmplx.Conj(z))
-			return cn / cd * pl.evalMeasured(z) * complexExp(-delay*w*T)
+			return lti.Mul(lti.Mul(lti.Div(cn, cd), pl.evalMeasured(z)), complexExp(-delay*w*T))
 		}, lo, ny*(1-1e-9), n)
 	}
 	return lti.LoopMargins(func(w float64) complex128 {
 		z := complexExp(w * T)
 		cn, cd := feedbackRatio(k, cmplx.Conj(z))
-		return cn * pl.num.Eval(z) / (cd * pl.den.Eval(z)) * complexExp(-delay*w*T)
+		return lti.Mul(lti.Div(lti.Mul(cn, pl.num.Eval(z)), lti.Mul(cd, pl.den.Eval(z))), complexExp(-delay*w*T))
 	}, lo, ny*(1-1e-9), n)
 }
 
-func complexExp(theta float64) complex128 {
-	s, c := math.Sincos(theta)
-	return complex(c, s)
-}
+// complexExp returns e^(jθ), the same bits on every CPU (lti.Cis).
+func complexExp(theta float64) complex128 { return lti.Cis(theta) }

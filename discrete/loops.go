@@ -93,7 +93,7 @@ func NewLoops(p airframe.Axis, loop airframe.Loop) (*Loops, error) {
 		o := make([]complex128, len(l.grid))
 		D := float64(l.d + pl.Delay)
 		for k, w := range l.grid {
-			o[k] = pl.evalUnfiltered(l.z[k]) * complexExp(-D*w*T)
+			o[k] = lti.Mul(pl.evalUnfiltered(l.z[k]), complexExp(-D*w*T))
 		}
 		l.open = append(l.open, o)
 	}
@@ -189,9 +189,9 @@ func (l *Loops) Ctrl(c synth.Controller, out []complex128) {
 	}
 	for i, z := range l.z {
 		n, d := feedbackRatio(k, cmplx.Conj(z))
-		out[i] = n / d
+		out[i] = lti.Div(n, d)
 		if l.filt != nil {
-			out[i] *= l.filt[i]
+			out[i] = lti.Mul(out[i], l.filt[i])
 		}
 	}
 }
@@ -249,7 +249,7 @@ func windingStable(a, b lti.Poly, D int) bool {
 	}
 	chi := func(th float64) complex128 {
 		z := complexExp(th)
-		return a.Eval(z)*complexExp(float64(D)*th) + b.Eval(z)
+		return lti.Mul(a.Eval(z), complexExp(float64(D)*th)) + b.Eval(z)
 	}
 	// Horner's rounding on the unit circle is at most about 2·deg·u times
 	// the sum of the coefficients' magnitudes (Higham, Accuracy and
@@ -265,14 +265,14 @@ func windingStable(a, b lti.Poly, D int) bool {
 		if !ok {
 			return
 		}
-		dph := cmplx.Phase(v1 / v0)
+		dph := lti.Phase(lti.Div(v1, v0))
 		if math.Abs(dph) <= math.Pi/4 || depth >= 30 {
 			turn += dph
 			return
 		}
 		tm := (t0 + t1) / 2
 		vm := chi(tm)
-		if cmplx.Abs(vm) <= tiny {
+		if lti.Abs(vm) <= tiny {
 			ok = false
 			return
 		}
@@ -281,13 +281,13 @@ func windingStable(a, b lti.Poly, D int) bool {
 	}
 	m := 8*n + 64
 	prev := chi(0)
-	if cmplx.Abs(prev) <= tiny {
+	if lti.Abs(prev) <= tiny {
 		return false
 	}
 	for j := 1; j <= m; j++ {
 		th := math.Pi * float64(j) / float64(m)
 		v := chi(th)
-		if cmplx.Abs(v) <= tiny {
+		if lti.Abs(v) <= tiny {
 			return false
 		}
 		split(math.Pi*float64(j-1)/float64(m), th, prev, v, 0)
@@ -353,18 +353,18 @@ func disturbance(pl Plant, c linearCtrl, d, n int) []float64 {
 	for t := 0; t < n; t++ {
 		var ym, yt float64
 		for j := 0; j < np; j++ {
-			ym += pl.Cm[j] * x[j]
-			yt += pl.Cy[j] * x[j]
+			ym += float64(pl.Cm[j] * x[j])
+			yt += float64(pl.Cy[j] * x[j])
 		}
 		y[t] = yt
-		cmd := c.Dy * ym
+		cmd := float64(c.Dy * ym)
 		for j := 0; j < m; j++ {
-			cmd += c.Cc[j] * xc[j]
+			cmd += float64(c.Cc[j] * xc[j])
 		}
 		for r := 0; r < m; r++ {
-			acc := c.By[r] * ym
+			acc := float64(c.By[r] * ym)
 			for j := 0; j < m; j++ {
-				acc += c.Ac[r*m+j] * xc[j]
+				acc += float64(c.Ac[r*m+j] * xc[j])
 			}
 			xcn[r] = acc
 		}
@@ -379,9 +379,9 @@ func disturbance(pl Plant, c linearCtrl, d, n int) []float64 {
 			ua++
 		}
 		for r := 0; r < np; r++ {
-			acc := pl.B[r] * ua
+			acc := float64(pl.B[r] * ua)
 			for j := 0; j < np; j++ {
-				acc += pl.A[r*np+j] * x[j]
+				acc += float64(pl.A[r*np+j] * x[j])
 			}
 			xn[r] = acc
 		}

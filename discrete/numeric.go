@@ -3,7 +3,6 @@ package discrete
 import (
 	"fmt"
 	"math"
-	"math/cmplx"
 	"math/rand/v2"
 	"strconv"
 	"strings"
@@ -455,8 +454,8 @@ func (p *fixedPlan) resolution(re *Realization) error {
 	}
 	re.ReferenceStep = aref
 	lsbIn, lsbOut := p.fin/p.m, p.fout/p.m
-	re.InputResolutionBits = math.Log2(band * aref / lsbIn)
-	re.OutputResolutionBits = math.Log2(band * lim / lsbOut)
+	re.InputResolutionBits = lti.Log2(band * aref / lsbIn)
+	re.OutputResolutionBits = lti.Log2(band * lim / lsbOut)
 	if !(band > 0) || !(lim > 0) {
 		return nil
 	}
@@ -524,7 +523,7 @@ func ceilLog2(x float64) int {
 func headroom(bound, capacity float64, bits int) float64 {
 	h := float64(bits)
 	if bound >= 1 {
-		h = math.Min(math.Log2(capacity/bound), h)
+		h = math.Min(lti.Log2(capacity/bound), h)
 	}
 	return h
 }
@@ -653,7 +652,7 @@ func (p *fixedPlan) overflowMsg(r Range) string {
 }
 
 func bitsName(capacity float64) string {
-	return fmt.Sprintf("%d-bit", int(math.Round(math.Log2(capacity+1)))+1)
+	return fmt.Sprintf("%d-bit", int(math.Round(lti.Log2(capacity+1)))+1)
 }
 
 // wideBound returns the largest intermediate of MulWide(c, x, sh) for
@@ -706,13 +705,13 @@ func (p *fixedPlan) bounds() []entry {
 	add(row("error e = r − y", accFmt(0), emax, capA, nil))
 	var uu, ul float64 // sum bound (FU units)
 	if f.Form == airframe.FormLead {
-		b0 := float64(f.B0.Raw) * math.Ldexp(1, -(f.B0.Frac-f.FU))
-		b1 := float64(f.B1.Raw) * math.Ldexp(1, -(f.B1.Frac-f.FU))
-		a1 := float64(f.A1.Raw) * math.Ldexp(1, -f.A1.Frac)
+		b0 := math.Ldexp(float64(f.B0.Raw), -(f.B0.Frac - f.FU))
+		b1 := math.Ldexp(float64(f.B1.Raw), -(f.B1.Frac - f.FU))
+		a1 := math.Ldexp(float64(f.A1.Raw), -f.A1.Frac)
 		ul = math.Inf(1)
 		if math.Abs(a1) < 1 {
 			l1 := math.Abs(b0) + math.Abs(b1-float64(a1*b0))/(1-math.Abs(a1))
-			ul = float64(l1*emax) + 1.5/(1-math.Abs(a1)) + m*math.Ldexp(1, f.FU)
+			ul = float64(l1*emax) + 1.5/(1-math.Abs(a1)) + float64(m*math.Ldexp(1, f.FU))
 		}
 		e0, _ := p.product("B0·e", &f.B0, emax, 0, f.FU, nil)
 		e1, _ := p.product("B1·E", &f.B1, emax, 0, f.FU, nil)
@@ -731,7 +730,7 @@ func (p *fixedPlan) bounds() []entry {
 		uu = tKpB + tKp
 		var ils float64
 		if f.Form.HasIntegral() {
-			r := row("reset: output − (KpB − Kp)·measured", accFmt(f.FU), m*math.Ldexp(1, f.FU)+tKpB+tKp, capA, &f.FU)
+			r := row("reset: output − (KpB − Kp)·measured", accFmt(f.FU), float64(m*math.Ldexp(1, f.FU))+tKpB+tKp, capA, &f.FU)
 			r.Note = "then shifted to the integrator's format with saturation, exact under its clamp"
 			add(r)
 			// A limit the word cannot hold must not pass as its
@@ -754,10 +753,10 @@ func (p *fixedPlan) bounds() []entry {
 				vmax, dv = emax, 2*emax
 			}
 			add(row("derivative input change v − v_prev", accFmt(0), dv, capA, nil))
-			a := float64(f.Ad.Raw) * math.Ldexp(1, -f.Ad.Frac)
+			a := math.Ldexp(float64(f.Ad.Raw), -f.Ad.Frac)
 			eBd, tBd := p.product("Bd·Δv", &f.Bd, dv, 0, f.FD, &f.FD)
 			add(eBd)
-			bd := float64(f.Bd.Raw) * math.Ldexp(1, -f.Bd.Shift)
+			bd := math.Ldexp(float64(f.Bd.Raw), -f.Bd.Shift)
 			ud = math.Inf(1)
 			if math.Abs(a) < 1 {
 				l1 := math.Abs(bd) * (1 + math.Abs(1-a)/(1-math.Abs(a)))
@@ -823,7 +822,7 @@ func (p *fixedPlan) bounds() []entry {
 	}
 	add(r)
 	for i := range es {
-		es[i].HeadroomBits = headroom(es[i].Bound, es[i].Capacity, int(math.Round(math.Log2(es[i].Capacity+1)))+1)
+		es[i].HeadroomBits = headroom(es[i].Bound, es[i].Capacity, int(math.Round(lti.Log2(es[i].Capacity+1)))+1)
 	}
 	return es
 }
@@ -1160,12 +1159,12 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 	}
 	cmax := 0.0
 	for i, om, r := 0, w0, rootPow2(w1/w0, 8); i <= 256; i, om = i+1, om*r {
-		z := cmplx.Exp(complex(0, om*T))
+		z := lti.Cis(om * T)
 		c := numericFeedback(k, z)
 		if len(d.Plant.Sections) > 0 {
-			c *= d.Plant.Filter(z) // the chain is in the measurement's path
+			c = lti.Mul(c, d.Plant.Filter(z)) // the chain is in the measurement's path
 		}
-		cmax = math.Max(cmax, cmplx.Abs(c))
+		cmax = math.Max(cmax, lti.Abs(c))
 	}
 	amp := 0.5 * fin
 	if cmax > 0 {
@@ -1217,7 +1216,7 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 	res.RestLSB = hi - lo
 	res.SQNRdB = math.Inf(1)
 	if sumE2 > 0 {
-		res.SQNRdB = 10 * math.Log10(sumU2/sumE2)
+		res.SQNRdB = 10 * lti.Log10(sumU2/sumE2)
 	}
 	return res
 }
@@ -1226,16 +1225,16 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 // the coefficients k, with q = z⁻¹: Kp + G0 + G01·q/(1 − q) +
 // Bd(1 − q)/(1 − Ad·q) for the PID family, (B0 + B1·q)/(1 + A1·q) for lead.
 func numericFeedback(k Coeffs, z complex128) complex128 {
-	q := 1 / z
+	q := lti.Div(1, z)
 	if k.Form == airframe.FormLead {
-		return (complex(k.B0, 0) + complex(k.B1, 0)*q) / (1 + complex(k.A1, 0)*q)
+		return lti.Div(complex(k.B0, 0)+lti.Mul(complex(k.B1, 0), q), 1+lti.Mul(complex(k.A1, 0), q))
 	}
 	v := complex(k.Kp, 0)
 	if k.Form.HasIntegral() {
-		v += complex(k.G0, 0) + complex(k.G01, 0)*q/(1-q)
+		v += complex(k.G0, 0) + lti.Div(lti.Mul(complex(k.G01, 0), q), 1-q)
 	}
 	if k.Form.HasDerivative() {
-		v += complex(k.Bd, 0) * (1 - q) / (1 - complex(k.Ad, 0)*q)
+		v += lti.Div(lti.Mul(complex(k.Bd, 0), 1-q), 1-lti.Mul(complex(k.Ad, 0), q))
 	}
 	return v
 }

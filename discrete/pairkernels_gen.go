@@ -14,20 +14,20 @@ func pair1x0(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0] * p0_0
-		y0[t] = Cy[0] * p0_0
-		ym1 := Cm[0] * p1_0
-		y1[t] = Cy[0] * p1_0
-		cmd0 := dr0 + dy*ym0
-		cmd1 := dr1 + dy*ym1
+		ym0 := rounded(Cm[0] * p0_0)
+		y0[t] = rounded(Cy[0] * p0_0)
+		ym1 := rounded(Cm[0] * p1_0)
+		y1[t] = rounded(Cy[0] * p1_0)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0 = B[0]*ua0 + A[0]*p0_0
-		p1_0 = B[0]*ua1 + A[0]*p1_0
+		p0_0 = rounded(B[0]*ua0) + rounded(A[0]*p0_0)
+		p1_0 = rounded(B[0]*ua1) + rounded(A[0]*p1_0)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -52,22 +52,22 @@ func pair1x1(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0] * p0_0
-		y0[t] = Cy[0] * p0_0
-		ym1 := Cm[0] * p1_0
-		y1[t] = Cy[0] * p1_0
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0
-		q0_0 = Br[0] + By[0]*ym0 + Ac[0]*q0_0
-		q1_0 = Br[0] + By[0]*ym1 + Ac[0]*q1_0
+		ym0 := rounded(Cm[0] * p0_0)
+		y0[t] = rounded(Cy[0] * p0_0)
+		ym1 := rounded(Cm[0] * p1_0)
+		y1[t] = rounded(Cy[0] * p1_0)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0 = B[0]*ua0 + A[0]*p0_0
-		p1_0 = B[0]*ua1 + A[0]*p1_0
+		p0_0 = rounded(B[0]*ua0) + rounded(A[0]*p0_0)
+		p1_0 = rounded(B[0]*ua1) + rounded(A[0]*p1_0)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -94,22 +94,22 @@ func pair1x2(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0] * p0_0
-		y0[t] = Cy[0] * p0_0
-		ym1 := Cm[0] * p1_0
-		y1[t] = Cy[0] * p1_0
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1
-		q0_0, q0_1 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1, Br[1]+By[1]*ym0+Ac[2]*q0_0+Ac[3]*q0_1
-		q1_0, q1_1 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1, Br[1]+By[1]*ym1+Ac[2]*q1_0+Ac[3]*q1_1
+		ym0 := rounded(Cm[0] * p0_0)
+		y0[t] = rounded(Cy[0] * p0_0)
+		ym1 := rounded(Cm[0] * p1_0)
+		y1[t] = rounded(Cy[0] * p1_0)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0 = B[0]*ua0 + A[0]*p0_0
-		p1_0 = B[0]*ua1 + A[0]*p1_0
+		p0_0 = rounded(B[0]*ua0) + rounded(A[0]*p0_0)
+		p1_0 = rounded(B[0]*ua1) + rounded(A[0]*p1_0)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -136,22 +136,22 @@ func pair1x3(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0] * p0_0
-		y0[t] = Cy[0] * p0_0
-		ym1 := Cm[0] * p1_0
-		y1[t] = Cy[0] * p1_0
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1 + Cc[2]*q0_2
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1 + Cc[2]*q1_2
-		q0_0, q0_1, q0_2 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1+Ac[2]*q0_2, Br[1]+By[1]*ym0+Ac[3]*q0_0+Ac[4]*q0_1+Ac[5]*q0_2, Br[2]+By[2]*ym0+Ac[6]*q0_0+Ac[7]*q0_1+Ac[8]*q0_2
-		q1_0, q1_1, q1_2 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1+Ac[2]*q1_2, Br[1]+By[1]*ym1+Ac[3]*q1_0+Ac[4]*q1_1+Ac[5]*q1_2, Br[2]+By[2]*ym1+Ac[6]*q1_0+Ac[7]*q1_1+Ac[8]*q1_2
+		ym0 := rounded(Cm[0] * p0_0)
+		y0[t] = rounded(Cy[0] * p0_0)
+		ym1 := rounded(Cm[0] * p1_0)
+		y1[t] = rounded(Cy[0] * p1_0)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0 = B[0]*ua0 + A[0]*p0_0
-		p1_0 = B[0]*ua1 + A[0]*p1_0
+		p0_0 = rounded(B[0]*ua0) + rounded(A[0]*p0_0)
+		p1_0 = rounded(B[0]*ua1) + rounded(A[0]*p1_0)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -173,20 +173,20 @@ func pair2x0(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1
-		cmd0 := dr0 + dy*ym0
-		cmd1 := dr1 + dy*ym1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1, B[1]*ua0+A[2]*p0_0+A[3]*p0_1
-		p1_0, p1_1 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1, B[1]*ua1+A[2]*p1_0+A[3]*p1_1
+		p0_0, p0_1 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1), rounded(B[1]*ua0)+rounded(A[2]*p0_0)+rounded(A[3]*p0_1)
+		p1_0, p1_1 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1), rounded(B[1]*ua1)+rounded(A[2]*p1_0)+rounded(A[3]*p1_1)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -211,22 +211,22 @@ func pair2x1(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0
-		q0_0 = Br[0] + By[0]*ym0 + Ac[0]*q0_0
-		q1_0 = Br[0] + By[0]*ym1 + Ac[0]*q1_0
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1, B[1]*ua0+A[2]*p0_0+A[3]*p0_1
-		p1_0, p1_1 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1, B[1]*ua1+A[2]*p1_0+A[3]*p1_1
+		p0_0, p0_1 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1), rounded(B[1]*ua0)+rounded(A[2]*p0_0)+rounded(A[3]*p0_1)
+		p1_0, p1_1 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1), rounded(B[1]*ua1)+rounded(A[2]*p1_0)+rounded(A[3]*p1_1)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -253,22 +253,22 @@ func pair2x2(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1
-		q0_0, q0_1 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1, Br[1]+By[1]*ym0+Ac[2]*q0_0+Ac[3]*q0_1
-		q1_0, q1_1 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1, Br[1]+By[1]*ym1+Ac[2]*q1_0+Ac[3]*q1_1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1, B[1]*ua0+A[2]*p0_0+A[3]*p0_1
-		p1_0, p1_1 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1, B[1]*ua1+A[2]*p1_0+A[3]*p1_1
+		p0_0, p0_1 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1), rounded(B[1]*ua0)+rounded(A[2]*p0_0)+rounded(A[3]*p0_1)
+		p1_0, p1_1 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1), rounded(B[1]*ua1)+rounded(A[2]*p1_0)+rounded(A[3]*p1_1)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -295,22 +295,22 @@ func pair2x3(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1 + Cc[2]*q0_2
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1 + Cc[2]*q1_2
-		q0_0, q0_1, q0_2 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1+Ac[2]*q0_2, Br[1]+By[1]*ym0+Ac[3]*q0_0+Ac[4]*q0_1+Ac[5]*q0_2, Br[2]+By[2]*ym0+Ac[6]*q0_0+Ac[7]*q0_1+Ac[8]*q0_2
-		q1_0, q1_1, q1_2 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1+Ac[2]*q1_2, Br[1]+By[1]*ym1+Ac[3]*q1_0+Ac[4]*q1_1+Ac[5]*q1_2, Br[2]+By[2]*ym1+Ac[6]*q1_0+Ac[7]*q1_1+Ac[8]*q1_2
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1, B[1]*ua0+A[2]*p0_0+A[3]*p0_1
-		p1_0, p1_1 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1, B[1]*ua1+A[2]*p1_0+A[3]*p1_1
+		p0_0, p0_1 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1), rounded(B[1]*ua0)+rounded(A[2]*p0_0)+rounded(A[3]*p0_1)
+		p1_0, p1_1 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1), rounded(B[1]*ua1)+rounded(A[2]*p1_0)+rounded(A[3]*p1_1)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -332,20 +332,20 @@ func pair3x0(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2
-		cmd0 := dr0 + dy*ym0
-		cmd1 := dr1 + dy*ym1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2, B[1]*ua0+A[3]*p0_0+A[4]*p0_1+A[5]*p0_2, B[2]*ua0+A[6]*p0_0+A[7]*p0_1+A[8]*p0_2
-		p1_0, p1_1, p1_2 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2, B[1]*ua1+A[3]*p1_0+A[4]*p1_1+A[5]*p1_2, B[2]*ua1+A[6]*p1_0+A[7]*p1_1+A[8]*p1_2
+		p0_0, p0_1, p0_2 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2), rounded(B[1]*ua0)+rounded(A[3]*p0_0)+rounded(A[4]*p0_1)+rounded(A[5]*p0_2), rounded(B[2]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)
+		p1_0, p1_1, p1_2 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2), rounded(B[1]*ua1)+rounded(A[3]*p1_0)+rounded(A[4]*p1_1)+rounded(A[5]*p1_2), rounded(B[2]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -370,22 +370,22 @@ func pair3x1(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0
-		q0_0 = Br[0] + By[0]*ym0 + Ac[0]*q0_0
-		q1_0 = Br[0] + By[0]*ym1 + Ac[0]*q1_0
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2, B[1]*ua0+A[3]*p0_0+A[4]*p0_1+A[5]*p0_2, B[2]*ua0+A[6]*p0_0+A[7]*p0_1+A[8]*p0_2
-		p1_0, p1_1, p1_2 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2, B[1]*ua1+A[3]*p1_0+A[4]*p1_1+A[5]*p1_2, B[2]*ua1+A[6]*p1_0+A[7]*p1_1+A[8]*p1_2
+		p0_0, p0_1, p0_2 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2), rounded(B[1]*ua0)+rounded(A[3]*p0_0)+rounded(A[4]*p0_1)+rounded(A[5]*p0_2), rounded(B[2]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)
+		p1_0, p1_1, p1_2 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2), rounded(B[1]*ua1)+rounded(A[3]*p1_0)+rounded(A[4]*p1_1)+rounded(A[5]*p1_2), rounded(B[2]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -412,22 +412,22 @@ func pair3x2(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1
-		q0_0, q0_1 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1, Br[1]+By[1]*ym0+Ac[2]*q0_0+Ac[3]*q0_1
-		q1_0, q1_1 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1, Br[1]+By[1]*ym1+Ac[2]*q1_0+Ac[3]*q1_1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2, B[1]*ua0+A[3]*p0_0+A[4]*p0_1+A[5]*p0_2, B[2]*ua0+A[6]*p0_0+A[7]*p0_1+A[8]*p0_2
-		p1_0, p1_1, p1_2 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2, B[1]*ua1+A[3]*p1_0+A[4]*p1_1+A[5]*p1_2, B[2]*ua1+A[6]*p1_0+A[7]*p1_1+A[8]*p1_2
+		p0_0, p0_1, p0_2 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2), rounded(B[1]*ua0)+rounded(A[3]*p0_0)+rounded(A[4]*p0_1)+rounded(A[5]*p0_2), rounded(B[2]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)
+		p1_0, p1_1, p1_2 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2), rounded(B[1]*ua1)+rounded(A[3]*p1_0)+rounded(A[4]*p1_1)+rounded(A[5]*p1_2), rounded(B[2]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -454,22 +454,22 @@ func pair3x3(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1 + Cc[2]*q0_2
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1 + Cc[2]*q1_2
-		q0_0, q0_1, q0_2 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1+Ac[2]*q0_2, Br[1]+By[1]*ym0+Ac[3]*q0_0+Ac[4]*q0_1+Ac[5]*q0_2, Br[2]+By[2]*ym0+Ac[6]*q0_0+Ac[7]*q0_1+Ac[8]*q0_2
-		q1_0, q1_1, q1_2 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1+Ac[2]*q1_2, Br[1]+By[1]*ym1+Ac[3]*q1_0+Ac[4]*q1_1+Ac[5]*q1_2, Br[2]+By[2]*ym1+Ac[6]*q1_0+Ac[7]*q1_1+Ac[8]*q1_2
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2, B[1]*ua0+A[3]*p0_0+A[4]*p0_1+A[5]*p0_2, B[2]*ua0+A[6]*p0_0+A[7]*p0_1+A[8]*p0_2
-		p1_0, p1_1, p1_2 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2, B[1]*ua1+A[3]*p1_0+A[4]*p1_1+A[5]*p1_2, B[2]*ua1+A[6]*p1_0+A[7]*p1_1+A[8]*p1_2
+		p0_0, p0_1, p0_2 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2), rounded(B[1]*ua0)+rounded(A[3]*p0_0)+rounded(A[4]*p0_1)+rounded(A[5]*p0_2), rounded(B[2]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)
+		p1_0, p1_1, p1_2 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2), rounded(B[1]*ua1)+rounded(A[3]*p1_0)+rounded(A[4]*p1_1)+rounded(A[5]*p1_2), rounded(B[2]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -491,20 +491,20 @@ func pair4x0(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3
-		cmd0 := dr0 + dy*ym0
-		cmd1 := dr1 + dy*ym1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3, B[1]*ua0+A[4]*p0_0+A[5]*p0_1+A[6]*p0_2+A[7]*p0_3, B[2]*ua0+A[8]*p0_0+A[9]*p0_1+A[10]*p0_2+A[11]*p0_3, B[3]*ua0+A[12]*p0_0+A[13]*p0_1+A[14]*p0_2+A[15]*p0_3
-		p1_0, p1_1, p1_2, p1_3 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3, B[1]*ua1+A[4]*p1_0+A[5]*p1_1+A[6]*p1_2+A[7]*p1_3, B[2]*ua1+A[8]*p1_0+A[9]*p1_1+A[10]*p1_2+A[11]*p1_3, B[3]*ua1+A[12]*p1_0+A[13]*p1_1+A[14]*p1_2+A[15]*p1_3
+		p0_0, p0_1, p0_2, p0_3 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3), rounded(B[1]*ua0)+rounded(A[4]*p0_0)+rounded(A[5]*p0_1)+rounded(A[6]*p0_2)+rounded(A[7]*p0_3), rounded(B[2]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3), rounded(B[3]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)
+		p1_0, p1_1, p1_2, p1_3 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3), rounded(B[1]*ua1)+rounded(A[4]*p1_0)+rounded(A[5]*p1_1)+rounded(A[6]*p1_2)+rounded(A[7]*p1_3), rounded(B[2]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3), rounded(B[3]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -529,22 +529,22 @@ func pair4x1(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0
-		q0_0 = Br[0] + By[0]*ym0 + Ac[0]*q0_0
-		q1_0 = Br[0] + By[0]*ym1 + Ac[0]*q1_0
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3, B[1]*ua0+A[4]*p0_0+A[5]*p0_1+A[6]*p0_2+A[7]*p0_3, B[2]*ua0+A[8]*p0_0+A[9]*p0_1+A[10]*p0_2+A[11]*p0_3, B[3]*ua0+A[12]*p0_0+A[13]*p0_1+A[14]*p0_2+A[15]*p0_3
-		p1_0, p1_1, p1_2, p1_3 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3, B[1]*ua1+A[4]*p1_0+A[5]*p1_1+A[6]*p1_2+A[7]*p1_3, B[2]*ua1+A[8]*p1_0+A[9]*p1_1+A[10]*p1_2+A[11]*p1_3, B[3]*ua1+A[12]*p1_0+A[13]*p1_1+A[14]*p1_2+A[15]*p1_3
+		p0_0, p0_1, p0_2, p0_3 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3), rounded(B[1]*ua0)+rounded(A[4]*p0_0)+rounded(A[5]*p0_1)+rounded(A[6]*p0_2)+rounded(A[7]*p0_3), rounded(B[2]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3), rounded(B[3]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)
+		p1_0, p1_1, p1_2, p1_3 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3), rounded(B[1]*ua1)+rounded(A[4]*p1_0)+rounded(A[5]*p1_1)+rounded(A[6]*p1_2)+rounded(A[7]*p1_3), rounded(B[2]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3), rounded(B[3]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -571,22 +571,22 @@ func pair4x2(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1
-		q0_0, q0_1 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1, Br[1]+By[1]*ym0+Ac[2]*q0_0+Ac[3]*q0_1
-		q1_0, q1_1 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1, Br[1]+By[1]*ym1+Ac[2]*q1_0+Ac[3]*q1_1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3, B[1]*ua0+A[4]*p0_0+A[5]*p0_1+A[6]*p0_2+A[7]*p0_3, B[2]*ua0+A[8]*p0_0+A[9]*p0_1+A[10]*p0_2+A[11]*p0_3, B[3]*ua0+A[12]*p0_0+A[13]*p0_1+A[14]*p0_2+A[15]*p0_3
-		p1_0, p1_1, p1_2, p1_3 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3, B[1]*ua1+A[4]*p1_0+A[5]*p1_1+A[6]*p1_2+A[7]*p1_3, B[2]*ua1+A[8]*p1_0+A[9]*p1_1+A[10]*p1_2+A[11]*p1_3, B[3]*ua1+A[12]*p1_0+A[13]*p1_1+A[14]*p1_2+A[15]*p1_3
+		p0_0, p0_1, p0_2, p0_3 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3), rounded(B[1]*ua0)+rounded(A[4]*p0_0)+rounded(A[5]*p0_1)+rounded(A[6]*p0_2)+rounded(A[7]*p0_3), rounded(B[2]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3), rounded(B[3]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)
+		p1_0, p1_1, p1_2, p1_3 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3), rounded(B[1]*ua1)+rounded(A[4]*p1_0)+rounded(A[5]*p1_1)+rounded(A[6]*p1_2)+rounded(A[7]*p1_3), rounded(B[2]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3), rounded(B[3]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -613,22 +613,22 @@ func pair4x3(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1 + Cc[2]*q0_2
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1 + Cc[2]*q1_2
-		q0_0, q0_1, q0_2 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1+Ac[2]*q0_2, Br[1]+By[1]*ym0+Ac[3]*q0_0+Ac[4]*q0_1+Ac[5]*q0_2, Br[2]+By[2]*ym0+Ac[6]*q0_0+Ac[7]*q0_1+Ac[8]*q0_2
-		q1_0, q1_1, q1_2 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1+Ac[2]*q1_2, Br[1]+By[1]*ym1+Ac[3]*q1_0+Ac[4]*q1_1+Ac[5]*q1_2, Br[2]+By[2]*ym1+Ac[6]*q1_0+Ac[7]*q1_1+Ac[8]*q1_2
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3, B[1]*ua0+A[4]*p0_0+A[5]*p0_1+A[6]*p0_2+A[7]*p0_3, B[2]*ua0+A[8]*p0_0+A[9]*p0_1+A[10]*p0_2+A[11]*p0_3, B[3]*ua0+A[12]*p0_0+A[13]*p0_1+A[14]*p0_2+A[15]*p0_3
-		p1_0, p1_1, p1_2, p1_3 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3, B[1]*ua1+A[4]*p1_0+A[5]*p1_1+A[6]*p1_2+A[7]*p1_3, B[2]*ua1+A[8]*p1_0+A[9]*p1_1+A[10]*p1_2+A[11]*p1_3, B[3]*ua1+A[12]*p1_0+A[13]*p1_1+A[14]*p1_2+A[15]*p1_3
+		p0_0, p0_1, p0_2, p0_3 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3), rounded(B[1]*ua0)+rounded(A[4]*p0_0)+rounded(A[5]*p0_1)+rounded(A[6]*p0_2)+rounded(A[7]*p0_3), rounded(B[2]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3), rounded(B[3]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)
+		p1_0, p1_1, p1_2, p1_3 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3), rounded(B[1]*ua1)+rounded(A[4]*p1_0)+rounded(A[5]*p1_1)+rounded(A[6]*p1_2)+rounded(A[7]*p1_3), rounded(B[2]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3), rounded(B[3]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -650,20 +650,20 @@ func pair5x0(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4
-		cmd0 := dr0 + dy*ym0
-		cmd1 := dr1 + dy*ym1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4, B[1]*ua0+A[5]*p0_0+A[6]*p0_1+A[7]*p0_2+A[8]*p0_3+A[9]*p0_4, B[2]*ua0+A[10]*p0_0+A[11]*p0_1+A[12]*p0_2+A[13]*p0_3+A[14]*p0_4, B[3]*ua0+A[15]*p0_0+A[16]*p0_1+A[17]*p0_2+A[18]*p0_3+A[19]*p0_4, B[4]*ua0+A[20]*p0_0+A[21]*p0_1+A[22]*p0_2+A[23]*p0_3+A[24]*p0_4
-		p1_0, p1_1, p1_2, p1_3, p1_4 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4, B[1]*ua1+A[5]*p1_0+A[6]*p1_1+A[7]*p1_2+A[8]*p1_3+A[9]*p1_4, B[2]*ua1+A[10]*p1_0+A[11]*p1_1+A[12]*p1_2+A[13]*p1_3+A[14]*p1_4, B[3]*ua1+A[15]*p1_0+A[16]*p1_1+A[17]*p1_2+A[18]*p1_3+A[19]*p1_4, B[4]*ua1+A[20]*p1_0+A[21]*p1_1+A[22]*p1_2+A[23]*p1_3+A[24]*p1_4
+		p0_0, p0_1, p0_2, p0_3, p0_4 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4), rounded(B[1]*ua0)+rounded(A[5]*p0_0)+rounded(A[6]*p0_1)+rounded(A[7]*p0_2)+rounded(A[8]*p0_3)+rounded(A[9]*p0_4), rounded(B[2]*ua0)+rounded(A[10]*p0_0)+rounded(A[11]*p0_1)+rounded(A[12]*p0_2)+rounded(A[13]*p0_3)+rounded(A[14]*p0_4), rounded(B[3]*ua0)+rounded(A[15]*p0_0)+rounded(A[16]*p0_1)+rounded(A[17]*p0_2)+rounded(A[18]*p0_3)+rounded(A[19]*p0_4), rounded(B[4]*ua0)+rounded(A[20]*p0_0)+rounded(A[21]*p0_1)+rounded(A[22]*p0_2)+rounded(A[23]*p0_3)+rounded(A[24]*p0_4)
+		p1_0, p1_1, p1_2, p1_3, p1_4 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4), rounded(B[1]*ua1)+rounded(A[5]*p1_0)+rounded(A[6]*p1_1)+rounded(A[7]*p1_2)+rounded(A[8]*p1_3)+rounded(A[9]*p1_4), rounded(B[2]*ua1)+rounded(A[10]*p1_0)+rounded(A[11]*p1_1)+rounded(A[12]*p1_2)+rounded(A[13]*p1_3)+rounded(A[14]*p1_4), rounded(B[3]*ua1)+rounded(A[15]*p1_0)+rounded(A[16]*p1_1)+rounded(A[17]*p1_2)+rounded(A[18]*p1_3)+rounded(A[19]*p1_4), rounded(B[4]*ua1)+rounded(A[20]*p1_0)+rounded(A[21]*p1_1)+rounded(A[22]*p1_2)+rounded(A[23]*p1_3)+rounded(A[24]*p1_4)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -688,22 +688,22 @@ func pair5x1(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0
-		q0_0 = Br[0] + By[0]*ym0 + Ac[0]*q0_0
-		q1_0 = Br[0] + By[0]*ym1 + Ac[0]*q1_0
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4, B[1]*ua0+A[5]*p0_0+A[6]*p0_1+A[7]*p0_2+A[8]*p0_3+A[9]*p0_4, B[2]*ua0+A[10]*p0_0+A[11]*p0_1+A[12]*p0_2+A[13]*p0_3+A[14]*p0_4, B[3]*ua0+A[15]*p0_0+A[16]*p0_1+A[17]*p0_2+A[18]*p0_3+A[19]*p0_4, B[4]*ua0+A[20]*p0_0+A[21]*p0_1+A[22]*p0_2+A[23]*p0_3+A[24]*p0_4
-		p1_0, p1_1, p1_2, p1_3, p1_4 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4, B[1]*ua1+A[5]*p1_0+A[6]*p1_1+A[7]*p1_2+A[8]*p1_3+A[9]*p1_4, B[2]*ua1+A[10]*p1_0+A[11]*p1_1+A[12]*p1_2+A[13]*p1_3+A[14]*p1_4, B[3]*ua1+A[15]*p1_0+A[16]*p1_1+A[17]*p1_2+A[18]*p1_3+A[19]*p1_4, B[4]*ua1+A[20]*p1_0+A[21]*p1_1+A[22]*p1_2+A[23]*p1_3+A[24]*p1_4
+		p0_0, p0_1, p0_2, p0_3, p0_4 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4), rounded(B[1]*ua0)+rounded(A[5]*p0_0)+rounded(A[6]*p0_1)+rounded(A[7]*p0_2)+rounded(A[8]*p0_3)+rounded(A[9]*p0_4), rounded(B[2]*ua0)+rounded(A[10]*p0_0)+rounded(A[11]*p0_1)+rounded(A[12]*p0_2)+rounded(A[13]*p0_3)+rounded(A[14]*p0_4), rounded(B[3]*ua0)+rounded(A[15]*p0_0)+rounded(A[16]*p0_1)+rounded(A[17]*p0_2)+rounded(A[18]*p0_3)+rounded(A[19]*p0_4), rounded(B[4]*ua0)+rounded(A[20]*p0_0)+rounded(A[21]*p0_1)+rounded(A[22]*p0_2)+rounded(A[23]*p0_3)+rounded(A[24]*p0_4)
+		p1_0, p1_1, p1_2, p1_3, p1_4 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4), rounded(B[1]*ua1)+rounded(A[5]*p1_0)+rounded(A[6]*p1_1)+rounded(A[7]*p1_2)+rounded(A[8]*p1_3)+rounded(A[9]*p1_4), rounded(B[2]*ua1)+rounded(A[10]*p1_0)+rounded(A[11]*p1_1)+rounded(A[12]*p1_2)+rounded(A[13]*p1_3)+rounded(A[14]*p1_4), rounded(B[3]*ua1)+rounded(A[15]*p1_0)+rounded(A[16]*p1_1)+rounded(A[17]*p1_2)+rounded(A[18]*p1_3)+rounded(A[19]*p1_4), rounded(B[4]*ua1)+rounded(A[20]*p1_0)+rounded(A[21]*p1_1)+rounded(A[22]*p1_2)+rounded(A[23]*p1_3)+rounded(A[24]*p1_4)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -730,22 +730,22 @@ func pair5x2(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1
-		q0_0, q0_1 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1, Br[1]+By[1]*ym0+Ac[2]*q0_0+Ac[3]*q0_1
-		q1_0, q1_1 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1, Br[1]+By[1]*ym1+Ac[2]*q1_0+Ac[3]*q1_1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4, B[1]*ua0+A[5]*p0_0+A[6]*p0_1+A[7]*p0_2+A[8]*p0_3+A[9]*p0_4, B[2]*ua0+A[10]*p0_0+A[11]*p0_1+A[12]*p0_2+A[13]*p0_3+A[14]*p0_4, B[3]*ua0+A[15]*p0_0+A[16]*p0_1+A[17]*p0_2+A[18]*p0_3+A[19]*p0_4, B[4]*ua0+A[20]*p0_0+A[21]*p0_1+A[22]*p0_2+A[23]*p0_3+A[24]*p0_4
-		p1_0, p1_1, p1_2, p1_3, p1_4 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4, B[1]*ua1+A[5]*p1_0+A[6]*p1_1+A[7]*p1_2+A[8]*p1_3+A[9]*p1_4, B[2]*ua1+A[10]*p1_0+A[11]*p1_1+A[12]*p1_2+A[13]*p1_3+A[14]*p1_4, B[3]*ua1+A[15]*p1_0+A[16]*p1_1+A[17]*p1_2+A[18]*p1_3+A[19]*p1_4, B[4]*ua1+A[20]*p1_0+A[21]*p1_1+A[22]*p1_2+A[23]*p1_3+A[24]*p1_4
+		p0_0, p0_1, p0_2, p0_3, p0_4 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4), rounded(B[1]*ua0)+rounded(A[5]*p0_0)+rounded(A[6]*p0_1)+rounded(A[7]*p0_2)+rounded(A[8]*p0_3)+rounded(A[9]*p0_4), rounded(B[2]*ua0)+rounded(A[10]*p0_0)+rounded(A[11]*p0_1)+rounded(A[12]*p0_2)+rounded(A[13]*p0_3)+rounded(A[14]*p0_4), rounded(B[3]*ua0)+rounded(A[15]*p0_0)+rounded(A[16]*p0_1)+rounded(A[17]*p0_2)+rounded(A[18]*p0_3)+rounded(A[19]*p0_4), rounded(B[4]*ua0)+rounded(A[20]*p0_0)+rounded(A[21]*p0_1)+rounded(A[22]*p0_2)+rounded(A[23]*p0_3)+rounded(A[24]*p0_4)
+		p1_0, p1_1, p1_2, p1_3, p1_4 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4), rounded(B[1]*ua1)+rounded(A[5]*p1_0)+rounded(A[6]*p1_1)+rounded(A[7]*p1_2)+rounded(A[8]*p1_3)+rounded(A[9]*p1_4), rounded(B[2]*ua1)+rounded(A[10]*p1_0)+rounded(A[11]*p1_1)+rounded(A[12]*p1_2)+rounded(A[13]*p1_3)+rounded(A[14]*p1_4), rounded(B[3]*ua1)+rounded(A[15]*p1_0)+rounded(A[16]*p1_1)+rounded(A[17]*p1_2)+rounded(A[18]*p1_3)+rounded(A[19]*p1_4), rounded(B[4]*ua1)+rounded(A[20]*p1_0)+rounded(A[21]*p1_1)+rounded(A[22]*p1_2)+rounded(A[23]*p1_3)+rounded(A[24]*p1_4)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -772,22 +772,22 @@ func pair5x3(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1 + Cc[2]*q0_2
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1 + Cc[2]*q1_2
-		q0_0, q0_1, q0_2 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1+Ac[2]*q0_2, Br[1]+By[1]*ym0+Ac[3]*q0_0+Ac[4]*q0_1+Ac[5]*q0_2, Br[2]+By[2]*ym0+Ac[6]*q0_0+Ac[7]*q0_1+Ac[8]*q0_2
-		q1_0, q1_1, q1_2 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1+Ac[2]*q1_2, Br[1]+By[1]*ym1+Ac[3]*q1_0+Ac[4]*q1_1+Ac[5]*q1_2, Br[2]+By[2]*ym1+Ac[6]*q1_0+Ac[7]*q1_1+Ac[8]*q1_2
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4, B[1]*ua0+A[5]*p0_0+A[6]*p0_1+A[7]*p0_2+A[8]*p0_3+A[9]*p0_4, B[2]*ua0+A[10]*p0_0+A[11]*p0_1+A[12]*p0_2+A[13]*p0_3+A[14]*p0_4, B[3]*ua0+A[15]*p0_0+A[16]*p0_1+A[17]*p0_2+A[18]*p0_3+A[19]*p0_4, B[4]*ua0+A[20]*p0_0+A[21]*p0_1+A[22]*p0_2+A[23]*p0_3+A[24]*p0_4
-		p1_0, p1_1, p1_2, p1_3, p1_4 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4, B[1]*ua1+A[5]*p1_0+A[6]*p1_1+A[7]*p1_2+A[8]*p1_3+A[9]*p1_4, B[2]*ua1+A[10]*p1_0+A[11]*p1_1+A[12]*p1_2+A[13]*p1_3+A[14]*p1_4, B[3]*ua1+A[15]*p1_0+A[16]*p1_1+A[17]*p1_2+A[18]*p1_3+A[19]*p1_4, B[4]*ua1+A[20]*p1_0+A[21]*p1_1+A[22]*p1_2+A[23]*p1_3+A[24]*p1_4
+		p0_0, p0_1, p0_2, p0_3, p0_4 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4), rounded(B[1]*ua0)+rounded(A[5]*p0_0)+rounded(A[6]*p0_1)+rounded(A[7]*p0_2)+rounded(A[8]*p0_3)+rounded(A[9]*p0_4), rounded(B[2]*ua0)+rounded(A[10]*p0_0)+rounded(A[11]*p0_1)+rounded(A[12]*p0_2)+rounded(A[13]*p0_3)+rounded(A[14]*p0_4), rounded(B[3]*ua0)+rounded(A[15]*p0_0)+rounded(A[16]*p0_1)+rounded(A[17]*p0_2)+rounded(A[18]*p0_3)+rounded(A[19]*p0_4), rounded(B[4]*ua0)+rounded(A[20]*p0_0)+rounded(A[21]*p0_1)+rounded(A[22]*p0_2)+rounded(A[23]*p0_3)+rounded(A[24]*p0_4)
+		p1_0, p1_1, p1_2, p1_3, p1_4 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4), rounded(B[1]*ua1)+rounded(A[5]*p1_0)+rounded(A[6]*p1_1)+rounded(A[7]*p1_2)+rounded(A[8]*p1_3)+rounded(A[9]*p1_4), rounded(B[2]*ua1)+rounded(A[10]*p1_0)+rounded(A[11]*p1_1)+rounded(A[12]*p1_2)+rounded(A[13]*p1_3)+rounded(A[14]*p1_4), rounded(B[3]*ua1)+rounded(A[15]*p1_0)+rounded(A[16]*p1_1)+rounded(A[17]*p1_2)+rounded(A[18]*p1_3)+rounded(A[19]*p1_4), rounded(B[4]*ua1)+rounded(A[20]*p1_0)+rounded(A[21]*p1_1)+rounded(A[22]*p1_2)+rounded(A[23]*p1_3)+rounded(A[24]*p1_4)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -809,20 +809,20 @@ func pair6x0(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5
-		cmd0 := dr0 + dy*ym0
-		cmd1 := dr1 + dy*ym1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5, B[1]*ua0+A[6]*p0_0+A[7]*p0_1+A[8]*p0_2+A[9]*p0_3+A[10]*p0_4+A[11]*p0_5, B[2]*ua0+A[12]*p0_0+A[13]*p0_1+A[14]*p0_2+A[15]*p0_3+A[16]*p0_4+A[17]*p0_5, B[3]*ua0+A[18]*p0_0+A[19]*p0_1+A[20]*p0_2+A[21]*p0_3+A[22]*p0_4+A[23]*p0_5, B[4]*ua0+A[24]*p0_0+A[25]*p0_1+A[26]*p0_2+A[27]*p0_3+A[28]*p0_4+A[29]*p0_5, B[5]*ua0+A[30]*p0_0+A[31]*p0_1+A[32]*p0_2+A[33]*p0_3+A[34]*p0_4+A[35]*p0_5
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5, B[1]*ua1+A[6]*p1_0+A[7]*p1_1+A[8]*p1_2+A[9]*p1_3+A[10]*p1_4+A[11]*p1_5, B[2]*ua1+A[12]*p1_0+A[13]*p1_1+A[14]*p1_2+A[15]*p1_3+A[16]*p1_4+A[17]*p1_5, B[3]*ua1+A[18]*p1_0+A[19]*p1_1+A[20]*p1_2+A[21]*p1_3+A[22]*p1_4+A[23]*p1_5, B[4]*ua1+A[24]*p1_0+A[25]*p1_1+A[26]*p1_2+A[27]*p1_3+A[28]*p1_4+A[29]*p1_5, B[5]*ua1+A[30]*p1_0+A[31]*p1_1+A[32]*p1_2+A[33]*p1_3+A[34]*p1_4+A[35]*p1_5
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5), rounded(B[1]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)+rounded(A[9]*p0_3)+rounded(A[10]*p0_4)+rounded(A[11]*p0_5), rounded(B[2]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)+rounded(A[16]*p0_4)+rounded(A[17]*p0_5), rounded(B[3]*ua0)+rounded(A[18]*p0_0)+rounded(A[19]*p0_1)+rounded(A[20]*p0_2)+rounded(A[21]*p0_3)+rounded(A[22]*p0_4)+rounded(A[23]*p0_5), rounded(B[4]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5), rounded(B[5]*ua0)+rounded(A[30]*p0_0)+rounded(A[31]*p0_1)+rounded(A[32]*p0_2)+rounded(A[33]*p0_3)+rounded(A[34]*p0_4)+rounded(A[35]*p0_5)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5), rounded(B[1]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)+rounded(A[9]*p1_3)+rounded(A[10]*p1_4)+rounded(A[11]*p1_5), rounded(B[2]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)+rounded(A[16]*p1_4)+rounded(A[17]*p1_5), rounded(B[3]*ua1)+rounded(A[18]*p1_0)+rounded(A[19]*p1_1)+rounded(A[20]*p1_2)+rounded(A[21]*p1_3)+rounded(A[22]*p1_4)+rounded(A[23]*p1_5), rounded(B[4]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5), rounded(B[5]*ua1)+rounded(A[30]*p1_0)+rounded(A[31]*p1_1)+rounded(A[32]*p1_2)+rounded(A[33]*p1_3)+rounded(A[34]*p1_4)+rounded(A[35]*p1_5)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -847,22 +847,22 @@ func pair6x1(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0
-		q0_0 = Br[0] + By[0]*ym0 + Ac[0]*q0_0
-		q1_0 = Br[0] + By[0]*ym1 + Ac[0]*q1_0
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5, B[1]*ua0+A[6]*p0_0+A[7]*p0_1+A[8]*p0_2+A[9]*p0_3+A[10]*p0_4+A[11]*p0_5, B[2]*ua0+A[12]*p0_0+A[13]*p0_1+A[14]*p0_2+A[15]*p0_3+A[16]*p0_4+A[17]*p0_5, B[3]*ua0+A[18]*p0_0+A[19]*p0_1+A[20]*p0_2+A[21]*p0_3+A[22]*p0_4+A[23]*p0_5, B[4]*ua0+A[24]*p0_0+A[25]*p0_1+A[26]*p0_2+A[27]*p0_3+A[28]*p0_4+A[29]*p0_5, B[5]*ua0+A[30]*p0_0+A[31]*p0_1+A[32]*p0_2+A[33]*p0_3+A[34]*p0_4+A[35]*p0_5
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5, B[1]*ua1+A[6]*p1_0+A[7]*p1_1+A[8]*p1_2+A[9]*p1_3+A[10]*p1_4+A[11]*p1_5, B[2]*ua1+A[12]*p1_0+A[13]*p1_1+A[14]*p1_2+A[15]*p1_3+A[16]*p1_4+A[17]*p1_5, B[3]*ua1+A[18]*p1_0+A[19]*p1_1+A[20]*p1_2+A[21]*p1_3+A[22]*p1_4+A[23]*p1_5, B[4]*ua1+A[24]*p1_0+A[25]*p1_1+A[26]*p1_2+A[27]*p1_3+A[28]*p1_4+A[29]*p1_5, B[5]*ua1+A[30]*p1_0+A[31]*p1_1+A[32]*p1_2+A[33]*p1_3+A[34]*p1_4+A[35]*p1_5
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5), rounded(B[1]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)+rounded(A[9]*p0_3)+rounded(A[10]*p0_4)+rounded(A[11]*p0_5), rounded(B[2]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)+rounded(A[16]*p0_4)+rounded(A[17]*p0_5), rounded(B[3]*ua0)+rounded(A[18]*p0_0)+rounded(A[19]*p0_1)+rounded(A[20]*p0_2)+rounded(A[21]*p0_3)+rounded(A[22]*p0_4)+rounded(A[23]*p0_5), rounded(B[4]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5), rounded(B[5]*ua0)+rounded(A[30]*p0_0)+rounded(A[31]*p0_1)+rounded(A[32]*p0_2)+rounded(A[33]*p0_3)+rounded(A[34]*p0_4)+rounded(A[35]*p0_5)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5), rounded(B[1]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)+rounded(A[9]*p1_3)+rounded(A[10]*p1_4)+rounded(A[11]*p1_5), rounded(B[2]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)+rounded(A[16]*p1_4)+rounded(A[17]*p1_5), rounded(B[3]*ua1)+rounded(A[18]*p1_0)+rounded(A[19]*p1_1)+rounded(A[20]*p1_2)+rounded(A[21]*p1_3)+rounded(A[22]*p1_4)+rounded(A[23]*p1_5), rounded(B[4]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5), rounded(B[5]*ua1)+rounded(A[30]*p1_0)+rounded(A[31]*p1_1)+rounded(A[32]*p1_2)+rounded(A[33]*p1_3)+rounded(A[34]*p1_4)+rounded(A[35]*p1_5)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -889,22 +889,22 @@ func pair6x2(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1
-		q0_0, q0_1 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1, Br[1]+By[1]*ym0+Ac[2]*q0_0+Ac[3]*q0_1
-		q1_0, q1_1 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1, Br[1]+By[1]*ym1+Ac[2]*q1_0+Ac[3]*q1_1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5, B[1]*ua0+A[6]*p0_0+A[7]*p0_1+A[8]*p0_2+A[9]*p0_3+A[10]*p0_4+A[11]*p0_5, B[2]*ua0+A[12]*p0_0+A[13]*p0_1+A[14]*p0_2+A[15]*p0_3+A[16]*p0_4+A[17]*p0_5, B[3]*ua0+A[18]*p0_0+A[19]*p0_1+A[20]*p0_2+A[21]*p0_3+A[22]*p0_4+A[23]*p0_5, B[4]*ua0+A[24]*p0_0+A[25]*p0_1+A[26]*p0_2+A[27]*p0_3+A[28]*p0_4+A[29]*p0_5, B[5]*ua0+A[30]*p0_0+A[31]*p0_1+A[32]*p0_2+A[33]*p0_3+A[34]*p0_4+A[35]*p0_5
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5, B[1]*ua1+A[6]*p1_0+A[7]*p1_1+A[8]*p1_2+A[9]*p1_3+A[10]*p1_4+A[11]*p1_5, B[2]*ua1+A[12]*p1_0+A[13]*p1_1+A[14]*p1_2+A[15]*p1_3+A[16]*p1_4+A[17]*p1_5, B[3]*ua1+A[18]*p1_0+A[19]*p1_1+A[20]*p1_2+A[21]*p1_3+A[22]*p1_4+A[23]*p1_5, B[4]*ua1+A[24]*p1_0+A[25]*p1_1+A[26]*p1_2+A[27]*p1_3+A[28]*p1_4+A[29]*p1_5, B[5]*ua1+A[30]*p1_0+A[31]*p1_1+A[32]*p1_2+A[33]*p1_3+A[34]*p1_4+A[35]*p1_5
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5), rounded(B[1]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)+rounded(A[9]*p0_3)+rounded(A[10]*p0_4)+rounded(A[11]*p0_5), rounded(B[2]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)+rounded(A[16]*p0_4)+rounded(A[17]*p0_5), rounded(B[3]*ua0)+rounded(A[18]*p0_0)+rounded(A[19]*p0_1)+rounded(A[20]*p0_2)+rounded(A[21]*p0_3)+rounded(A[22]*p0_4)+rounded(A[23]*p0_5), rounded(B[4]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5), rounded(B[5]*ua0)+rounded(A[30]*p0_0)+rounded(A[31]*p0_1)+rounded(A[32]*p0_2)+rounded(A[33]*p0_3)+rounded(A[34]*p0_4)+rounded(A[35]*p0_5)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5), rounded(B[1]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)+rounded(A[9]*p1_3)+rounded(A[10]*p1_4)+rounded(A[11]*p1_5), rounded(B[2]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)+rounded(A[16]*p1_4)+rounded(A[17]*p1_5), rounded(B[3]*ua1)+rounded(A[18]*p1_0)+rounded(A[19]*p1_1)+rounded(A[20]*p1_2)+rounded(A[21]*p1_3)+rounded(A[22]*p1_4)+rounded(A[23]*p1_5), rounded(B[4]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5), rounded(B[5]*ua1)+rounded(A[30]*p1_0)+rounded(A[31]*p1_1)+rounded(A[32]*p1_2)+rounded(A[33]*p1_3)+rounded(A[34]*p1_4)+rounded(A[35]*p1_5)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -931,22 +931,22 @@ func pair6x3(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1 + Cc[2]*q0_2
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1 + Cc[2]*q1_2
-		q0_0, q0_1, q0_2 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1+Ac[2]*q0_2, Br[1]+By[1]*ym0+Ac[3]*q0_0+Ac[4]*q0_1+Ac[5]*q0_2, Br[2]+By[2]*ym0+Ac[6]*q0_0+Ac[7]*q0_1+Ac[8]*q0_2
-		q1_0, q1_1, q1_2 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1+Ac[2]*q1_2, Br[1]+By[1]*ym1+Ac[3]*q1_0+Ac[4]*q1_1+Ac[5]*q1_2, Br[2]+By[2]*ym1+Ac[6]*q1_0+Ac[7]*q1_1+Ac[8]*q1_2
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5, B[1]*ua0+A[6]*p0_0+A[7]*p0_1+A[8]*p0_2+A[9]*p0_3+A[10]*p0_4+A[11]*p0_5, B[2]*ua0+A[12]*p0_0+A[13]*p0_1+A[14]*p0_2+A[15]*p0_3+A[16]*p0_4+A[17]*p0_5, B[3]*ua0+A[18]*p0_0+A[19]*p0_1+A[20]*p0_2+A[21]*p0_3+A[22]*p0_4+A[23]*p0_5, B[4]*ua0+A[24]*p0_0+A[25]*p0_1+A[26]*p0_2+A[27]*p0_3+A[28]*p0_4+A[29]*p0_5, B[5]*ua0+A[30]*p0_0+A[31]*p0_1+A[32]*p0_2+A[33]*p0_3+A[34]*p0_4+A[35]*p0_5
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5, B[1]*ua1+A[6]*p1_0+A[7]*p1_1+A[8]*p1_2+A[9]*p1_3+A[10]*p1_4+A[11]*p1_5, B[2]*ua1+A[12]*p1_0+A[13]*p1_1+A[14]*p1_2+A[15]*p1_3+A[16]*p1_4+A[17]*p1_5, B[3]*ua1+A[18]*p1_0+A[19]*p1_1+A[20]*p1_2+A[21]*p1_3+A[22]*p1_4+A[23]*p1_5, B[4]*ua1+A[24]*p1_0+A[25]*p1_1+A[26]*p1_2+A[27]*p1_3+A[28]*p1_4+A[29]*p1_5, B[5]*ua1+A[30]*p1_0+A[31]*p1_1+A[32]*p1_2+A[33]*p1_3+A[34]*p1_4+A[35]*p1_5
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5), rounded(B[1]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)+rounded(A[9]*p0_3)+rounded(A[10]*p0_4)+rounded(A[11]*p0_5), rounded(B[2]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)+rounded(A[16]*p0_4)+rounded(A[17]*p0_5), rounded(B[3]*ua0)+rounded(A[18]*p0_0)+rounded(A[19]*p0_1)+rounded(A[20]*p0_2)+rounded(A[21]*p0_3)+rounded(A[22]*p0_4)+rounded(A[23]*p0_5), rounded(B[4]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5), rounded(B[5]*ua0)+rounded(A[30]*p0_0)+rounded(A[31]*p0_1)+rounded(A[32]*p0_2)+rounded(A[33]*p0_3)+rounded(A[34]*p0_4)+rounded(A[35]*p0_5)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5), rounded(B[1]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)+rounded(A[9]*p1_3)+rounded(A[10]*p1_4)+rounded(A[11]*p1_5), rounded(B[2]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)+rounded(A[16]*p1_4)+rounded(A[17]*p1_5), rounded(B[3]*ua1)+rounded(A[18]*p1_0)+rounded(A[19]*p1_1)+rounded(A[20]*p1_2)+rounded(A[21]*p1_3)+rounded(A[22]*p1_4)+rounded(A[23]*p1_5), rounded(B[4]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5), rounded(B[5]*ua1)+rounded(A[30]*p1_0)+rounded(A[31]*p1_1)+rounded(A[32]*p1_2)+rounded(A[33]*p1_3)+rounded(A[34]*p1_4)+rounded(A[35]*p1_5)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -968,20 +968,20 @@ func pair7x0(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5 + Cm[6]*p0_6
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5 + Cy[6]*p0_6
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5 + Cm[6]*p1_6
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5 + Cy[6]*p1_6
-		cmd0 := dr0 + dy*ym0
-		cmd1 := dr1 + dy*ym1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5+A[6]*p0_6, B[1]*ua0+A[7]*p0_0+A[8]*p0_1+A[9]*p0_2+A[10]*p0_3+A[11]*p0_4+A[12]*p0_5+A[13]*p0_6, B[2]*ua0+A[14]*p0_0+A[15]*p0_1+A[16]*p0_2+A[17]*p0_3+A[18]*p0_4+A[19]*p0_5+A[20]*p0_6, B[3]*ua0+A[21]*p0_0+A[22]*p0_1+A[23]*p0_2+A[24]*p0_3+A[25]*p0_4+A[26]*p0_5+A[27]*p0_6, B[4]*ua0+A[28]*p0_0+A[29]*p0_1+A[30]*p0_2+A[31]*p0_3+A[32]*p0_4+A[33]*p0_5+A[34]*p0_6, B[5]*ua0+A[35]*p0_0+A[36]*p0_1+A[37]*p0_2+A[38]*p0_3+A[39]*p0_4+A[40]*p0_5+A[41]*p0_6, B[6]*ua0+A[42]*p0_0+A[43]*p0_1+A[44]*p0_2+A[45]*p0_3+A[46]*p0_4+A[47]*p0_5+A[48]*p0_6
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5+A[6]*p1_6, B[1]*ua1+A[7]*p1_0+A[8]*p1_1+A[9]*p1_2+A[10]*p1_3+A[11]*p1_4+A[12]*p1_5+A[13]*p1_6, B[2]*ua1+A[14]*p1_0+A[15]*p1_1+A[16]*p1_2+A[17]*p1_3+A[18]*p1_4+A[19]*p1_5+A[20]*p1_6, B[3]*ua1+A[21]*p1_0+A[22]*p1_1+A[23]*p1_2+A[24]*p1_3+A[25]*p1_4+A[26]*p1_5+A[27]*p1_6, B[4]*ua1+A[28]*p1_0+A[29]*p1_1+A[30]*p1_2+A[31]*p1_3+A[32]*p1_4+A[33]*p1_5+A[34]*p1_6, B[5]*ua1+A[35]*p1_0+A[36]*p1_1+A[37]*p1_2+A[38]*p1_3+A[39]*p1_4+A[40]*p1_5+A[41]*p1_6, B[6]*ua1+A[42]*p1_0+A[43]*p1_1+A[44]*p1_2+A[45]*p1_3+A[46]*p1_4+A[47]*p1_5+A[48]*p1_6
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6), rounded(B[1]*ua0)+rounded(A[7]*p0_0)+rounded(A[8]*p0_1)+rounded(A[9]*p0_2)+rounded(A[10]*p0_3)+rounded(A[11]*p0_4)+rounded(A[12]*p0_5)+rounded(A[13]*p0_6), rounded(B[2]*ua0)+rounded(A[14]*p0_0)+rounded(A[15]*p0_1)+rounded(A[16]*p0_2)+rounded(A[17]*p0_3)+rounded(A[18]*p0_4)+rounded(A[19]*p0_5)+rounded(A[20]*p0_6), rounded(B[3]*ua0)+rounded(A[21]*p0_0)+rounded(A[22]*p0_1)+rounded(A[23]*p0_2)+rounded(A[24]*p0_3)+rounded(A[25]*p0_4)+rounded(A[26]*p0_5)+rounded(A[27]*p0_6), rounded(B[4]*ua0)+rounded(A[28]*p0_0)+rounded(A[29]*p0_1)+rounded(A[30]*p0_2)+rounded(A[31]*p0_3)+rounded(A[32]*p0_4)+rounded(A[33]*p0_5)+rounded(A[34]*p0_6), rounded(B[5]*ua0)+rounded(A[35]*p0_0)+rounded(A[36]*p0_1)+rounded(A[37]*p0_2)+rounded(A[38]*p0_3)+rounded(A[39]*p0_4)+rounded(A[40]*p0_5)+rounded(A[41]*p0_6), rounded(B[6]*ua0)+rounded(A[42]*p0_0)+rounded(A[43]*p0_1)+rounded(A[44]*p0_2)+rounded(A[45]*p0_3)+rounded(A[46]*p0_4)+rounded(A[47]*p0_5)+rounded(A[48]*p0_6)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6), rounded(B[1]*ua1)+rounded(A[7]*p1_0)+rounded(A[8]*p1_1)+rounded(A[9]*p1_2)+rounded(A[10]*p1_3)+rounded(A[11]*p1_4)+rounded(A[12]*p1_5)+rounded(A[13]*p1_6), rounded(B[2]*ua1)+rounded(A[14]*p1_0)+rounded(A[15]*p1_1)+rounded(A[16]*p1_2)+rounded(A[17]*p1_3)+rounded(A[18]*p1_4)+rounded(A[19]*p1_5)+rounded(A[20]*p1_6), rounded(B[3]*ua1)+rounded(A[21]*p1_0)+rounded(A[22]*p1_1)+rounded(A[23]*p1_2)+rounded(A[24]*p1_3)+rounded(A[25]*p1_4)+rounded(A[26]*p1_5)+rounded(A[27]*p1_6), rounded(B[4]*ua1)+rounded(A[28]*p1_0)+rounded(A[29]*p1_1)+rounded(A[30]*p1_2)+rounded(A[31]*p1_3)+rounded(A[32]*p1_4)+rounded(A[33]*p1_5)+rounded(A[34]*p1_6), rounded(B[5]*ua1)+rounded(A[35]*p1_0)+rounded(A[36]*p1_1)+rounded(A[37]*p1_2)+rounded(A[38]*p1_3)+rounded(A[39]*p1_4)+rounded(A[40]*p1_5)+rounded(A[41]*p1_6), rounded(B[6]*ua1)+rounded(A[42]*p1_0)+rounded(A[43]*p1_1)+rounded(A[44]*p1_2)+rounded(A[45]*p1_3)+rounded(A[46]*p1_4)+rounded(A[47]*p1_5)+rounded(A[48]*p1_6)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -1006,22 +1006,22 @@ func pair7x1(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5 + Cm[6]*p0_6
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5 + Cy[6]*p0_6
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5 + Cm[6]*p1_6
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5 + Cy[6]*p1_6
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0
-		q0_0 = Br[0] + By[0]*ym0 + Ac[0]*q0_0
-		q1_0 = Br[0] + By[0]*ym1 + Ac[0]*q1_0
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5+A[6]*p0_6, B[1]*ua0+A[7]*p0_0+A[8]*p0_1+A[9]*p0_2+A[10]*p0_3+A[11]*p0_4+A[12]*p0_5+A[13]*p0_6, B[2]*ua0+A[14]*p0_0+A[15]*p0_1+A[16]*p0_2+A[17]*p0_3+A[18]*p0_4+A[19]*p0_5+A[20]*p0_6, B[3]*ua0+A[21]*p0_0+A[22]*p0_1+A[23]*p0_2+A[24]*p0_3+A[25]*p0_4+A[26]*p0_5+A[27]*p0_6, B[4]*ua0+A[28]*p0_0+A[29]*p0_1+A[30]*p0_2+A[31]*p0_3+A[32]*p0_4+A[33]*p0_5+A[34]*p0_6, B[5]*ua0+A[35]*p0_0+A[36]*p0_1+A[37]*p0_2+A[38]*p0_3+A[39]*p0_4+A[40]*p0_5+A[41]*p0_6, B[6]*ua0+A[42]*p0_0+A[43]*p0_1+A[44]*p0_2+A[45]*p0_3+A[46]*p0_4+A[47]*p0_5+A[48]*p0_6
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5+A[6]*p1_6, B[1]*ua1+A[7]*p1_0+A[8]*p1_1+A[9]*p1_2+A[10]*p1_3+A[11]*p1_4+A[12]*p1_5+A[13]*p1_6, B[2]*ua1+A[14]*p1_0+A[15]*p1_1+A[16]*p1_2+A[17]*p1_3+A[18]*p1_4+A[19]*p1_5+A[20]*p1_6, B[3]*ua1+A[21]*p1_0+A[22]*p1_1+A[23]*p1_2+A[24]*p1_3+A[25]*p1_4+A[26]*p1_5+A[27]*p1_6, B[4]*ua1+A[28]*p1_0+A[29]*p1_1+A[30]*p1_2+A[31]*p1_3+A[32]*p1_4+A[33]*p1_5+A[34]*p1_6, B[5]*ua1+A[35]*p1_0+A[36]*p1_1+A[37]*p1_2+A[38]*p1_3+A[39]*p1_4+A[40]*p1_5+A[41]*p1_6, B[6]*ua1+A[42]*p1_0+A[43]*p1_1+A[44]*p1_2+A[45]*p1_3+A[46]*p1_4+A[47]*p1_5+A[48]*p1_6
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6), rounded(B[1]*ua0)+rounded(A[7]*p0_0)+rounded(A[8]*p0_1)+rounded(A[9]*p0_2)+rounded(A[10]*p0_3)+rounded(A[11]*p0_4)+rounded(A[12]*p0_5)+rounded(A[13]*p0_6), rounded(B[2]*ua0)+rounded(A[14]*p0_0)+rounded(A[15]*p0_1)+rounded(A[16]*p0_2)+rounded(A[17]*p0_3)+rounded(A[18]*p0_4)+rounded(A[19]*p0_5)+rounded(A[20]*p0_6), rounded(B[3]*ua0)+rounded(A[21]*p0_0)+rounded(A[22]*p0_1)+rounded(A[23]*p0_2)+rounded(A[24]*p0_3)+rounded(A[25]*p0_4)+rounded(A[26]*p0_5)+rounded(A[27]*p0_6), rounded(B[4]*ua0)+rounded(A[28]*p0_0)+rounded(A[29]*p0_1)+rounded(A[30]*p0_2)+rounded(A[31]*p0_3)+rounded(A[32]*p0_4)+rounded(A[33]*p0_5)+rounded(A[34]*p0_6), rounded(B[5]*ua0)+rounded(A[35]*p0_0)+rounded(A[36]*p0_1)+rounded(A[37]*p0_2)+rounded(A[38]*p0_3)+rounded(A[39]*p0_4)+rounded(A[40]*p0_5)+rounded(A[41]*p0_6), rounded(B[6]*ua0)+rounded(A[42]*p0_0)+rounded(A[43]*p0_1)+rounded(A[44]*p0_2)+rounded(A[45]*p0_3)+rounded(A[46]*p0_4)+rounded(A[47]*p0_5)+rounded(A[48]*p0_6)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6), rounded(B[1]*ua1)+rounded(A[7]*p1_0)+rounded(A[8]*p1_1)+rounded(A[9]*p1_2)+rounded(A[10]*p1_3)+rounded(A[11]*p1_4)+rounded(A[12]*p1_5)+rounded(A[13]*p1_6), rounded(B[2]*ua1)+rounded(A[14]*p1_0)+rounded(A[15]*p1_1)+rounded(A[16]*p1_2)+rounded(A[17]*p1_3)+rounded(A[18]*p1_4)+rounded(A[19]*p1_5)+rounded(A[20]*p1_6), rounded(B[3]*ua1)+rounded(A[21]*p1_0)+rounded(A[22]*p1_1)+rounded(A[23]*p1_2)+rounded(A[24]*p1_3)+rounded(A[25]*p1_4)+rounded(A[26]*p1_5)+rounded(A[27]*p1_6), rounded(B[4]*ua1)+rounded(A[28]*p1_0)+rounded(A[29]*p1_1)+rounded(A[30]*p1_2)+rounded(A[31]*p1_3)+rounded(A[32]*p1_4)+rounded(A[33]*p1_5)+rounded(A[34]*p1_6), rounded(B[5]*ua1)+rounded(A[35]*p1_0)+rounded(A[36]*p1_1)+rounded(A[37]*p1_2)+rounded(A[38]*p1_3)+rounded(A[39]*p1_4)+rounded(A[40]*p1_5)+rounded(A[41]*p1_6), rounded(B[6]*ua1)+rounded(A[42]*p1_0)+rounded(A[43]*p1_1)+rounded(A[44]*p1_2)+rounded(A[45]*p1_3)+rounded(A[46]*p1_4)+rounded(A[47]*p1_5)+rounded(A[48]*p1_6)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -1048,22 +1048,22 @@ func pair7x2(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5 + Cm[6]*p0_6
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5 + Cy[6]*p0_6
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5 + Cm[6]*p1_6
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5 + Cy[6]*p1_6
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1
-		q0_0, q0_1 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1, Br[1]+By[1]*ym0+Ac[2]*q0_0+Ac[3]*q0_1
-		q1_0, q1_1 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1, Br[1]+By[1]*ym1+Ac[2]*q1_0+Ac[3]*q1_1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5+A[6]*p0_6, B[1]*ua0+A[7]*p0_0+A[8]*p0_1+A[9]*p0_2+A[10]*p0_3+A[11]*p0_4+A[12]*p0_5+A[13]*p0_6, B[2]*ua0+A[14]*p0_0+A[15]*p0_1+A[16]*p0_2+A[17]*p0_3+A[18]*p0_4+A[19]*p0_5+A[20]*p0_6, B[3]*ua0+A[21]*p0_0+A[22]*p0_1+A[23]*p0_2+A[24]*p0_3+A[25]*p0_4+A[26]*p0_5+A[27]*p0_6, B[4]*ua0+A[28]*p0_0+A[29]*p0_1+A[30]*p0_2+A[31]*p0_3+A[32]*p0_4+A[33]*p0_5+A[34]*p0_6, B[5]*ua0+A[35]*p0_0+A[36]*p0_1+A[37]*p0_2+A[38]*p0_3+A[39]*p0_4+A[40]*p0_5+A[41]*p0_6, B[6]*ua0+A[42]*p0_0+A[43]*p0_1+A[44]*p0_2+A[45]*p0_3+A[46]*p0_4+A[47]*p0_5+A[48]*p0_6
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5+A[6]*p1_6, B[1]*ua1+A[7]*p1_0+A[8]*p1_1+A[9]*p1_2+A[10]*p1_3+A[11]*p1_4+A[12]*p1_5+A[13]*p1_6, B[2]*ua1+A[14]*p1_0+A[15]*p1_1+A[16]*p1_2+A[17]*p1_3+A[18]*p1_4+A[19]*p1_5+A[20]*p1_6, B[3]*ua1+A[21]*p1_0+A[22]*p1_1+A[23]*p1_2+A[24]*p1_3+A[25]*p1_4+A[26]*p1_5+A[27]*p1_6, B[4]*ua1+A[28]*p1_0+A[29]*p1_1+A[30]*p1_2+A[31]*p1_3+A[32]*p1_4+A[33]*p1_5+A[34]*p1_6, B[5]*ua1+A[35]*p1_0+A[36]*p1_1+A[37]*p1_2+A[38]*p1_3+A[39]*p1_4+A[40]*p1_5+A[41]*p1_6, B[6]*ua1+A[42]*p1_0+A[43]*p1_1+A[44]*p1_2+A[45]*p1_3+A[46]*p1_4+A[47]*p1_5+A[48]*p1_6
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6), rounded(B[1]*ua0)+rounded(A[7]*p0_0)+rounded(A[8]*p0_1)+rounded(A[9]*p0_2)+rounded(A[10]*p0_3)+rounded(A[11]*p0_4)+rounded(A[12]*p0_5)+rounded(A[13]*p0_6), rounded(B[2]*ua0)+rounded(A[14]*p0_0)+rounded(A[15]*p0_1)+rounded(A[16]*p0_2)+rounded(A[17]*p0_3)+rounded(A[18]*p0_4)+rounded(A[19]*p0_5)+rounded(A[20]*p0_6), rounded(B[3]*ua0)+rounded(A[21]*p0_0)+rounded(A[22]*p0_1)+rounded(A[23]*p0_2)+rounded(A[24]*p0_3)+rounded(A[25]*p0_4)+rounded(A[26]*p0_5)+rounded(A[27]*p0_6), rounded(B[4]*ua0)+rounded(A[28]*p0_0)+rounded(A[29]*p0_1)+rounded(A[30]*p0_2)+rounded(A[31]*p0_3)+rounded(A[32]*p0_4)+rounded(A[33]*p0_5)+rounded(A[34]*p0_6), rounded(B[5]*ua0)+rounded(A[35]*p0_0)+rounded(A[36]*p0_1)+rounded(A[37]*p0_2)+rounded(A[38]*p0_3)+rounded(A[39]*p0_4)+rounded(A[40]*p0_5)+rounded(A[41]*p0_6), rounded(B[6]*ua0)+rounded(A[42]*p0_0)+rounded(A[43]*p0_1)+rounded(A[44]*p0_2)+rounded(A[45]*p0_3)+rounded(A[46]*p0_4)+rounded(A[47]*p0_5)+rounded(A[48]*p0_6)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6), rounded(B[1]*ua1)+rounded(A[7]*p1_0)+rounded(A[8]*p1_1)+rounded(A[9]*p1_2)+rounded(A[10]*p1_3)+rounded(A[11]*p1_4)+rounded(A[12]*p1_5)+rounded(A[13]*p1_6), rounded(B[2]*ua1)+rounded(A[14]*p1_0)+rounded(A[15]*p1_1)+rounded(A[16]*p1_2)+rounded(A[17]*p1_3)+rounded(A[18]*p1_4)+rounded(A[19]*p1_5)+rounded(A[20]*p1_6), rounded(B[3]*ua1)+rounded(A[21]*p1_0)+rounded(A[22]*p1_1)+rounded(A[23]*p1_2)+rounded(A[24]*p1_3)+rounded(A[25]*p1_4)+rounded(A[26]*p1_5)+rounded(A[27]*p1_6), rounded(B[4]*ua1)+rounded(A[28]*p1_0)+rounded(A[29]*p1_1)+rounded(A[30]*p1_2)+rounded(A[31]*p1_3)+rounded(A[32]*p1_4)+rounded(A[33]*p1_5)+rounded(A[34]*p1_6), rounded(B[5]*ua1)+rounded(A[35]*p1_0)+rounded(A[36]*p1_1)+rounded(A[37]*p1_2)+rounded(A[38]*p1_3)+rounded(A[39]*p1_4)+rounded(A[40]*p1_5)+rounded(A[41]*p1_6), rounded(B[6]*ua1)+rounded(A[42]*p1_0)+rounded(A[43]*p1_1)+rounded(A[44]*p1_2)+rounded(A[45]*p1_3)+rounded(A[46]*p1_4)+rounded(A[47]*p1_5)+rounded(A[48]*p1_6)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -1090,22 +1090,22 @@ func pair7x3(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5 + Cm[6]*p0_6
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5 + Cy[6]*p0_6
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5 + Cm[6]*p1_6
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5 + Cy[6]*p1_6
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1 + Cc[2]*q0_2
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1 + Cc[2]*q1_2
-		q0_0, q0_1, q0_2 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1+Ac[2]*q0_2, Br[1]+By[1]*ym0+Ac[3]*q0_0+Ac[4]*q0_1+Ac[5]*q0_2, Br[2]+By[2]*ym0+Ac[6]*q0_0+Ac[7]*q0_1+Ac[8]*q0_2
-		q1_0, q1_1, q1_2 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1+Ac[2]*q1_2, Br[1]+By[1]*ym1+Ac[3]*q1_0+Ac[4]*q1_1+Ac[5]*q1_2, Br[2]+By[2]*ym1+Ac[6]*q1_0+Ac[7]*q1_1+Ac[8]*q1_2
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5+A[6]*p0_6, B[1]*ua0+A[7]*p0_0+A[8]*p0_1+A[9]*p0_2+A[10]*p0_3+A[11]*p0_4+A[12]*p0_5+A[13]*p0_6, B[2]*ua0+A[14]*p0_0+A[15]*p0_1+A[16]*p0_2+A[17]*p0_3+A[18]*p0_4+A[19]*p0_5+A[20]*p0_6, B[3]*ua0+A[21]*p0_0+A[22]*p0_1+A[23]*p0_2+A[24]*p0_3+A[25]*p0_4+A[26]*p0_5+A[27]*p0_6, B[4]*ua0+A[28]*p0_0+A[29]*p0_1+A[30]*p0_2+A[31]*p0_3+A[32]*p0_4+A[33]*p0_5+A[34]*p0_6, B[5]*ua0+A[35]*p0_0+A[36]*p0_1+A[37]*p0_2+A[38]*p0_3+A[39]*p0_4+A[40]*p0_5+A[41]*p0_6, B[6]*ua0+A[42]*p0_0+A[43]*p0_1+A[44]*p0_2+A[45]*p0_3+A[46]*p0_4+A[47]*p0_5+A[48]*p0_6
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5+A[6]*p1_6, B[1]*ua1+A[7]*p1_0+A[8]*p1_1+A[9]*p1_2+A[10]*p1_3+A[11]*p1_4+A[12]*p1_5+A[13]*p1_6, B[2]*ua1+A[14]*p1_0+A[15]*p1_1+A[16]*p1_2+A[17]*p1_3+A[18]*p1_4+A[19]*p1_5+A[20]*p1_6, B[3]*ua1+A[21]*p1_0+A[22]*p1_1+A[23]*p1_2+A[24]*p1_3+A[25]*p1_4+A[26]*p1_5+A[27]*p1_6, B[4]*ua1+A[28]*p1_0+A[29]*p1_1+A[30]*p1_2+A[31]*p1_3+A[32]*p1_4+A[33]*p1_5+A[34]*p1_6, B[5]*ua1+A[35]*p1_0+A[36]*p1_1+A[37]*p1_2+A[38]*p1_3+A[39]*p1_4+A[40]*p1_5+A[41]*p1_6, B[6]*ua1+A[42]*p1_0+A[43]*p1_1+A[44]*p1_2+A[45]*p1_3+A[46]*p1_4+A[47]*p1_5+A[48]*p1_6
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6), rounded(B[1]*ua0)+rounded(A[7]*p0_0)+rounded(A[8]*p0_1)+rounded(A[9]*p0_2)+rounded(A[10]*p0_3)+rounded(A[11]*p0_4)+rounded(A[12]*p0_5)+rounded(A[13]*p0_6), rounded(B[2]*ua0)+rounded(A[14]*p0_0)+rounded(A[15]*p0_1)+rounded(A[16]*p0_2)+rounded(A[17]*p0_3)+rounded(A[18]*p0_4)+rounded(A[19]*p0_5)+rounded(A[20]*p0_6), rounded(B[3]*ua0)+rounded(A[21]*p0_0)+rounded(A[22]*p0_1)+rounded(A[23]*p0_2)+rounded(A[24]*p0_3)+rounded(A[25]*p0_4)+rounded(A[26]*p0_5)+rounded(A[27]*p0_6), rounded(B[4]*ua0)+rounded(A[28]*p0_0)+rounded(A[29]*p0_1)+rounded(A[30]*p0_2)+rounded(A[31]*p0_3)+rounded(A[32]*p0_4)+rounded(A[33]*p0_5)+rounded(A[34]*p0_6), rounded(B[5]*ua0)+rounded(A[35]*p0_0)+rounded(A[36]*p0_1)+rounded(A[37]*p0_2)+rounded(A[38]*p0_3)+rounded(A[39]*p0_4)+rounded(A[40]*p0_5)+rounded(A[41]*p0_6), rounded(B[6]*ua0)+rounded(A[42]*p0_0)+rounded(A[43]*p0_1)+rounded(A[44]*p0_2)+rounded(A[45]*p0_3)+rounded(A[46]*p0_4)+rounded(A[47]*p0_5)+rounded(A[48]*p0_6)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6), rounded(B[1]*ua1)+rounded(A[7]*p1_0)+rounded(A[8]*p1_1)+rounded(A[9]*p1_2)+rounded(A[10]*p1_3)+rounded(A[11]*p1_4)+rounded(A[12]*p1_5)+rounded(A[13]*p1_6), rounded(B[2]*ua1)+rounded(A[14]*p1_0)+rounded(A[15]*p1_1)+rounded(A[16]*p1_2)+rounded(A[17]*p1_3)+rounded(A[18]*p1_4)+rounded(A[19]*p1_5)+rounded(A[20]*p1_6), rounded(B[3]*ua1)+rounded(A[21]*p1_0)+rounded(A[22]*p1_1)+rounded(A[23]*p1_2)+rounded(A[24]*p1_3)+rounded(A[25]*p1_4)+rounded(A[26]*p1_5)+rounded(A[27]*p1_6), rounded(B[4]*ua1)+rounded(A[28]*p1_0)+rounded(A[29]*p1_1)+rounded(A[30]*p1_2)+rounded(A[31]*p1_3)+rounded(A[32]*p1_4)+rounded(A[33]*p1_5)+rounded(A[34]*p1_6), rounded(B[5]*ua1)+rounded(A[35]*p1_0)+rounded(A[36]*p1_1)+rounded(A[37]*p1_2)+rounded(A[38]*p1_3)+rounded(A[39]*p1_4)+rounded(A[40]*p1_5)+rounded(A[41]*p1_6), rounded(B[6]*ua1)+rounded(A[42]*p1_0)+rounded(A[43]*p1_1)+rounded(A[44]*p1_2)+rounded(A[45]*p1_3)+rounded(A[46]*p1_4)+rounded(A[47]*p1_5)+rounded(A[48]*p1_6)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -1127,20 +1127,20 @@ func pair8x0(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5 + Cm[6]*p0_6 + Cm[7]*p0_7
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5 + Cy[6]*p0_6 + Cy[7]*p0_7
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5 + Cm[6]*p1_6 + Cm[7]*p1_7
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5 + Cy[6]*p1_6 + Cy[7]*p1_7
-		cmd0 := dr0 + dy*ym0
-		cmd1 := dr1 + dy*ym1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6) + rounded(Cm[7]*p0_7)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6) + rounded(Cy[7]*p0_7)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6) + rounded(Cm[7]*p1_7)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6) + rounded(Cy[7]*p1_7)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5+A[6]*p0_6+A[7]*p0_7, B[1]*ua0+A[8]*p0_0+A[9]*p0_1+A[10]*p0_2+A[11]*p0_3+A[12]*p0_4+A[13]*p0_5+A[14]*p0_6+A[15]*p0_7, B[2]*ua0+A[16]*p0_0+A[17]*p0_1+A[18]*p0_2+A[19]*p0_3+A[20]*p0_4+A[21]*p0_5+A[22]*p0_6+A[23]*p0_7, B[3]*ua0+A[24]*p0_0+A[25]*p0_1+A[26]*p0_2+A[27]*p0_3+A[28]*p0_4+A[29]*p0_5+A[30]*p0_6+A[31]*p0_7, B[4]*ua0+A[32]*p0_0+A[33]*p0_1+A[34]*p0_2+A[35]*p0_3+A[36]*p0_4+A[37]*p0_5+A[38]*p0_6+A[39]*p0_7, B[5]*ua0+A[40]*p0_0+A[41]*p0_1+A[42]*p0_2+A[43]*p0_3+A[44]*p0_4+A[45]*p0_5+A[46]*p0_6+A[47]*p0_7, B[6]*ua0+A[48]*p0_0+A[49]*p0_1+A[50]*p0_2+A[51]*p0_3+A[52]*p0_4+A[53]*p0_5+A[54]*p0_6+A[55]*p0_7, B[7]*ua0+A[56]*p0_0+A[57]*p0_1+A[58]*p0_2+A[59]*p0_3+A[60]*p0_4+A[61]*p0_5+A[62]*p0_6+A[63]*p0_7
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5+A[6]*p1_6+A[7]*p1_7, B[1]*ua1+A[8]*p1_0+A[9]*p1_1+A[10]*p1_2+A[11]*p1_3+A[12]*p1_4+A[13]*p1_5+A[14]*p1_6+A[15]*p1_7, B[2]*ua1+A[16]*p1_0+A[17]*p1_1+A[18]*p1_2+A[19]*p1_3+A[20]*p1_4+A[21]*p1_5+A[22]*p1_6+A[23]*p1_7, B[3]*ua1+A[24]*p1_0+A[25]*p1_1+A[26]*p1_2+A[27]*p1_3+A[28]*p1_4+A[29]*p1_5+A[30]*p1_6+A[31]*p1_7, B[4]*ua1+A[32]*p1_0+A[33]*p1_1+A[34]*p1_2+A[35]*p1_3+A[36]*p1_4+A[37]*p1_5+A[38]*p1_6+A[39]*p1_7, B[5]*ua1+A[40]*p1_0+A[41]*p1_1+A[42]*p1_2+A[43]*p1_3+A[44]*p1_4+A[45]*p1_5+A[46]*p1_6+A[47]*p1_7, B[6]*ua1+A[48]*p1_0+A[49]*p1_1+A[50]*p1_2+A[51]*p1_3+A[52]*p1_4+A[53]*p1_5+A[54]*p1_6+A[55]*p1_7, B[7]*ua1+A[56]*p1_0+A[57]*p1_1+A[58]*p1_2+A[59]*p1_3+A[60]*p1_4+A[61]*p1_5+A[62]*p1_6+A[63]*p1_7
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6)+rounded(A[7]*p0_7), rounded(B[1]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3)+rounded(A[12]*p0_4)+rounded(A[13]*p0_5)+rounded(A[14]*p0_6)+rounded(A[15]*p0_7), rounded(B[2]*ua0)+rounded(A[16]*p0_0)+rounded(A[17]*p0_1)+rounded(A[18]*p0_2)+rounded(A[19]*p0_3)+rounded(A[20]*p0_4)+rounded(A[21]*p0_5)+rounded(A[22]*p0_6)+rounded(A[23]*p0_7), rounded(B[3]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5)+rounded(A[30]*p0_6)+rounded(A[31]*p0_7), rounded(B[4]*ua0)+rounded(A[32]*p0_0)+rounded(A[33]*p0_1)+rounded(A[34]*p0_2)+rounded(A[35]*p0_3)+rounded(A[36]*p0_4)+rounded(A[37]*p0_5)+rounded(A[38]*p0_6)+rounded(A[39]*p0_7), rounded(B[5]*ua0)+rounded(A[40]*p0_0)+rounded(A[41]*p0_1)+rounded(A[42]*p0_2)+rounded(A[43]*p0_3)+rounded(A[44]*p0_4)+rounded(A[45]*p0_5)+rounded(A[46]*p0_6)+rounded(A[47]*p0_7), rounded(B[6]*ua0)+rounded(A[48]*p0_0)+rounded(A[49]*p0_1)+rounded(A[50]*p0_2)+rounded(A[51]*p0_3)+rounded(A[52]*p0_4)+rounded(A[53]*p0_5)+rounded(A[54]*p0_6)+rounded(A[55]*p0_7), rounded(B[7]*ua0)+rounded(A[56]*p0_0)+rounded(A[57]*p0_1)+rounded(A[58]*p0_2)+rounded(A[59]*p0_3)+rounded(A[60]*p0_4)+rounded(A[61]*p0_5)+rounded(A[62]*p0_6)+rounded(A[63]*p0_7)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6)+rounded(A[7]*p1_7), rounded(B[1]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3)+rounded(A[12]*p1_4)+rounded(A[13]*p1_5)+rounded(A[14]*p1_6)+rounded(A[15]*p1_7), rounded(B[2]*ua1)+rounded(A[16]*p1_0)+rounded(A[17]*p1_1)+rounded(A[18]*p1_2)+rounded(A[19]*p1_3)+rounded(A[20]*p1_4)+rounded(A[21]*p1_5)+rounded(A[22]*p1_6)+rounded(A[23]*p1_7), rounded(B[3]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5)+rounded(A[30]*p1_6)+rounded(A[31]*p1_7), rounded(B[4]*ua1)+rounded(A[32]*p1_0)+rounded(A[33]*p1_1)+rounded(A[34]*p1_2)+rounded(A[35]*p1_3)+rounded(A[36]*p1_4)+rounded(A[37]*p1_5)+rounded(A[38]*p1_6)+rounded(A[39]*p1_7), rounded(B[5]*ua1)+rounded(A[40]*p1_0)+rounded(A[41]*p1_1)+rounded(A[42]*p1_2)+rounded(A[43]*p1_3)+rounded(A[44]*p1_4)+rounded(A[45]*p1_5)+rounded(A[46]*p1_6)+rounded(A[47]*p1_7), rounded(B[6]*ua1)+rounded(A[48]*p1_0)+rounded(A[49]*p1_1)+rounded(A[50]*p1_2)+rounded(A[51]*p1_3)+rounded(A[52]*p1_4)+rounded(A[53]*p1_5)+rounded(A[54]*p1_6)+rounded(A[55]*p1_7), rounded(B[7]*ua1)+rounded(A[56]*p1_0)+rounded(A[57]*p1_1)+rounded(A[58]*p1_2)+rounded(A[59]*p1_3)+rounded(A[60]*p1_4)+rounded(A[61]*p1_5)+rounded(A[62]*p1_6)+rounded(A[63]*p1_7)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -1165,22 +1165,22 @@ func pair8x1(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5 + Cm[6]*p0_6 + Cm[7]*p0_7
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5 + Cy[6]*p0_6 + Cy[7]*p0_7
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5 + Cm[6]*p1_6 + Cm[7]*p1_7
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5 + Cy[6]*p1_6 + Cy[7]*p1_7
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0
-		q0_0 = Br[0] + By[0]*ym0 + Ac[0]*q0_0
-		q1_0 = Br[0] + By[0]*ym1 + Ac[0]*q1_0
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6) + rounded(Cm[7]*p0_7)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6) + rounded(Cy[7]*p0_7)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6) + rounded(Cm[7]*p1_7)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6) + rounded(Cy[7]*p1_7)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5+A[6]*p0_6+A[7]*p0_7, B[1]*ua0+A[8]*p0_0+A[9]*p0_1+A[10]*p0_2+A[11]*p0_3+A[12]*p0_4+A[13]*p0_5+A[14]*p0_6+A[15]*p0_7, B[2]*ua0+A[16]*p0_0+A[17]*p0_1+A[18]*p0_2+A[19]*p0_3+A[20]*p0_4+A[21]*p0_5+A[22]*p0_6+A[23]*p0_7, B[3]*ua0+A[24]*p0_0+A[25]*p0_1+A[26]*p0_2+A[27]*p0_3+A[28]*p0_4+A[29]*p0_5+A[30]*p0_6+A[31]*p0_7, B[4]*ua0+A[32]*p0_0+A[33]*p0_1+A[34]*p0_2+A[35]*p0_3+A[36]*p0_4+A[37]*p0_5+A[38]*p0_6+A[39]*p0_7, B[5]*ua0+A[40]*p0_0+A[41]*p0_1+A[42]*p0_2+A[43]*p0_3+A[44]*p0_4+A[45]*p0_5+A[46]*p0_6+A[47]*p0_7, B[6]*ua0+A[48]*p0_0+A[49]*p0_1+A[50]*p0_2+A[51]*p0_3+A[52]*p0_4+A[53]*p0_5+A[54]*p0_6+A[55]*p0_7, B[7]*ua0+A[56]*p0_0+A[57]*p0_1+A[58]*p0_2+A[59]*p0_3+A[60]*p0_4+A[61]*p0_5+A[62]*p0_6+A[63]*p0_7
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5+A[6]*p1_6+A[7]*p1_7, B[1]*ua1+A[8]*p1_0+A[9]*p1_1+A[10]*p1_2+A[11]*p1_3+A[12]*p1_4+A[13]*p1_5+A[14]*p1_6+A[15]*p1_7, B[2]*ua1+A[16]*p1_0+A[17]*p1_1+A[18]*p1_2+A[19]*p1_3+A[20]*p1_4+A[21]*p1_5+A[22]*p1_6+A[23]*p1_7, B[3]*ua1+A[24]*p1_0+A[25]*p1_1+A[26]*p1_2+A[27]*p1_3+A[28]*p1_4+A[29]*p1_5+A[30]*p1_6+A[31]*p1_7, B[4]*ua1+A[32]*p1_0+A[33]*p1_1+A[34]*p1_2+A[35]*p1_3+A[36]*p1_4+A[37]*p1_5+A[38]*p1_6+A[39]*p1_7, B[5]*ua1+A[40]*p1_0+A[41]*p1_1+A[42]*p1_2+A[43]*p1_3+A[44]*p1_4+A[45]*p1_5+A[46]*p1_6+A[47]*p1_7, B[6]*ua1+A[48]*p1_0+A[49]*p1_1+A[50]*p1_2+A[51]*p1_3+A[52]*p1_4+A[53]*p1_5+A[54]*p1_6+A[55]*p1_7, B[7]*ua1+A[56]*p1_0+A[57]*p1_1+A[58]*p1_2+A[59]*p1_3+A[60]*p1_4+A[61]*p1_5+A[62]*p1_6+A[63]*p1_7
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6)+rounded(A[7]*p0_7), rounded(B[1]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3)+rounded(A[12]*p0_4)+rounded(A[13]*p0_5)+rounded(A[14]*p0_6)+rounded(A[15]*p0_7), rounded(B[2]*ua0)+rounded(A[16]*p0_0)+rounded(A[17]*p0_1)+rounded(A[18]*p0_2)+rounded(A[19]*p0_3)+rounded(A[20]*p0_4)+rounded(A[21]*p0_5)+rounded(A[22]*p0_6)+rounded(A[23]*p0_7), rounded(B[3]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5)+rounded(A[30]*p0_6)+rounded(A[31]*p0_7), rounded(B[4]*ua0)+rounded(A[32]*p0_0)+rounded(A[33]*p0_1)+rounded(A[34]*p0_2)+rounded(A[35]*p0_3)+rounded(A[36]*p0_4)+rounded(A[37]*p0_5)+rounded(A[38]*p0_6)+rounded(A[39]*p0_7), rounded(B[5]*ua0)+rounded(A[40]*p0_0)+rounded(A[41]*p0_1)+rounded(A[42]*p0_2)+rounded(A[43]*p0_3)+rounded(A[44]*p0_4)+rounded(A[45]*p0_5)+rounded(A[46]*p0_6)+rounded(A[47]*p0_7), rounded(B[6]*ua0)+rounded(A[48]*p0_0)+rounded(A[49]*p0_1)+rounded(A[50]*p0_2)+rounded(A[51]*p0_3)+rounded(A[52]*p0_4)+rounded(A[53]*p0_5)+rounded(A[54]*p0_6)+rounded(A[55]*p0_7), rounded(B[7]*ua0)+rounded(A[56]*p0_0)+rounded(A[57]*p0_1)+rounded(A[58]*p0_2)+rounded(A[59]*p0_3)+rounded(A[60]*p0_4)+rounded(A[61]*p0_5)+rounded(A[62]*p0_6)+rounded(A[63]*p0_7)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6)+rounded(A[7]*p1_7), rounded(B[1]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3)+rounded(A[12]*p1_4)+rounded(A[13]*p1_5)+rounded(A[14]*p1_6)+rounded(A[15]*p1_7), rounded(B[2]*ua1)+rounded(A[16]*p1_0)+rounded(A[17]*p1_1)+rounded(A[18]*p1_2)+rounded(A[19]*p1_3)+rounded(A[20]*p1_4)+rounded(A[21]*p1_5)+rounded(A[22]*p1_6)+rounded(A[23]*p1_7), rounded(B[3]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5)+rounded(A[30]*p1_6)+rounded(A[31]*p1_7), rounded(B[4]*ua1)+rounded(A[32]*p1_0)+rounded(A[33]*p1_1)+rounded(A[34]*p1_2)+rounded(A[35]*p1_3)+rounded(A[36]*p1_4)+rounded(A[37]*p1_5)+rounded(A[38]*p1_6)+rounded(A[39]*p1_7), rounded(B[5]*ua1)+rounded(A[40]*p1_0)+rounded(A[41]*p1_1)+rounded(A[42]*p1_2)+rounded(A[43]*p1_3)+rounded(A[44]*p1_4)+rounded(A[45]*p1_5)+rounded(A[46]*p1_6)+rounded(A[47]*p1_7), rounded(B[6]*ua1)+rounded(A[48]*p1_0)+rounded(A[49]*p1_1)+rounded(A[50]*p1_2)+rounded(A[51]*p1_3)+rounded(A[52]*p1_4)+rounded(A[53]*p1_5)+rounded(A[54]*p1_6)+rounded(A[55]*p1_7), rounded(B[7]*ua1)+rounded(A[56]*p1_0)+rounded(A[57]*p1_1)+rounded(A[58]*p1_2)+rounded(A[59]*p1_3)+rounded(A[60]*p1_4)+rounded(A[61]*p1_5)+rounded(A[62]*p1_6)+rounded(A[63]*p1_7)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -1207,22 +1207,22 @@ func pair8x2(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5 + Cm[6]*p0_6 + Cm[7]*p0_7
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5 + Cy[6]*p0_6 + Cy[7]*p0_7
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5 + Cm[6]*p1_6 + Cm[7]*p1_7
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5 + Cy[6]*p1_6 + Cy[7]*p1_7
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1
-		q0_0, q0_1 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1, Br[1]+By[1]*ym0+Ac[2]*q0_0+Ac[3]*q0_1
-		q1_0, q1_1 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1, Br[1]+By[1]*ym1+Ac[2]*q1_0+Ac[3]*q1_1
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6) + rounded(Cm[7]*p0_7)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6) + rounded(Cy[7]*p0_7)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6) + rounded(Cm[7]*p1_7)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6) + rounded(Cy[7]*p1_7)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5+A[6]*p0_6+A[7]*p0_7, B[1]*ua0+A[8]*p0_0+A[9]*p0_1+A[10]*p0_2+A[11]*p0_3+A[12]*p0_4+A[13]*p0_5+A[14]*p0_6+A[15]*p0_7, B[2]*ua0+A[16]*p0_0+A[17]*p0_1+A[18]*p0_2+A[19]*p0_3+A[20]*p0_4+A[21]*p0_5+A[22]*p0_6+A[23]*p0_7, B[3]*ua0+A[24]*p0_0+A[25]*p0_1+A[26]*p0_2+A[27]*p0_3+A[28]*p0_4+A[29]*p0_5+A[30]*p0_6+A[31]*p0_7, B[4]*ua0+A[32]*p0_0+A[33]*p0_1+A[34]*p0_2+A[35]*p0_3+A[36]*p0_4+A[37]*p0_5+A[38]*p0_6+A[39]*p0_7, B[5]*ua0+A[40]*p0_0+A[41]*p0_1+A[42]*p0_2+A[43]*p0_3+A[44]*p0_4+A[45]*p0_5+A[46]*p0_6+A[47]*p0_7, B[6]*ua0+A[48]*p0_0+A[49]*p0_1+A[50]*p0_2+A[51]*p0_3+A[52]*p0_4+A[53]*p0_5+A[54]*p0_6+A[55]*p0_7, B[7]*ua0+A[56]*p0_0+A[57]*p0_1+A[58]*p0_2+A[59]*p0_3+A[60]*p0_4+A[61]*p0_5+A[62]*p0_6+A[63]*p0_7
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5+A[6]*p1_6+A[7]*p1_7, B[1]*ua1+A[8]*p1_0+A[9]*p1_1+A[10]*p1_2+A[11]*p1_3+A[12]*p1_4+A[13]*p1_5+A[14]*p1_6+A[15]*p1_7, B[2]*ua1+A[16]*p1_0+A[17]*p1_1+A[18]*p1_2+A[19]*p1_3+A[20]*p1_4+A[21]*p1_5+A[22]*p1_6+A[23]*p1_7, B[3]*ua1+A[24]*p1_0+A[25]*p1_1+A[26]*p1_2+A[27]*p1_3+A[28]*p1_4+A[29]*p1_5+A[30]*p1_6+A[31]*p1_7, B[4]*ua1+A[32]*p1_0+A[33]*p1_1+A[34]*p1_2+A[35]*p1_3+A[36]*p1_4+A[37]*p1_5+A[38]*p1_6+A[39]*p1_7, B[5]*ua1+A[40]*p1_0+A[41]*p1_1+A[42]*p1_2+A[43]*p1_3+A[44]*p1_4+A[45]*p1_5+A[46]*p1_6+A[47]*p1_7, B[6]*ua1+A[48]*p1_0+A[49]*p1_1+A[50]*p1_2+A[51]*p1_3+A[52]*p1_4+A[53]*p1_5+A[54]*p1_6+A[55]*p1_7, B[7]*ua1+A[56]*p1_0+A[57]*p1_1+A[58]*p1_2+A[59]*p1_3+A[60]*p1_4+A[61]*p1_5+A[62]*p1_6+A[63]*p1_7
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6)+rounded(A[7]*p0_7), rounded(B[1]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3)+rounded(A[12]*p0_4)+rounded(A[13]*p0_5)+rounded(A[14]*p0_6)+rounded(A[15]*p0_7), rounded(B[2]*ua0)+rounded(A[16]*p0_0)+rounded(A[17]*p0_1)+rounded(A[18]*p0_2)+rounded(A[19]*p0_3)+rounded(A[20]*p0_4)+rounded(A[21]*p0_5)+rounded(A[22]*p0_6)+rounded(A[23]*p0_7), rounded(B[3]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5)+rounded(A[30]*p0_6)+rounded(A[31]*p0_7), rounded(B[4]*ua0)+rounded(A[32]*p0_0)+rounded(A[33]*p0_1)+rounded(A[34]*p0_2)+rounded(A[35]*p0_3)+rounded(A[36]*p0_4)+rounded(A[37]*p0_5)+rounded(A[38]*p0_6)+rounded(A[39]*p0_7), rounded(B[5]*ua0)+rounded(A[40]*p0_0)+rounded(A[41]*p0_1)+rounded(A[42]*p0_2)+rounded(A[43]*p0_3)+rounded(A[44]*p0_4)+rounded(A[45]*p0_5)+rounded(A[46]*p0_6)+rounded(A[47]*p0_7), rounded(B[6]*ua0)+rounded(A[48]*p0_0)+rounded(A[49]*p0_1)+rounded(A[50]*p0_2)+rounded(A[51]*p0_3)+rounded(A[52]*p0_4)+rounded(A[53]*p0_5)+rounded(A[54]*p0_6)+rounded(A[55]*p0_7), rounded(B[7]*ua0)+rounded(A[56]*p0_0)+rounded(A[57]*p0_1)+rounded(A[58]*p0_2)+rounded(A[59]*p0_3)+rounded(A[60]*p0_4)+rounded(A[61]*p0_5)+rounded(A[62]*p0_6)+rounded(A[63]*p0_7)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6)+rounded(A[7]*p1_7), rounded(B[1]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3)+rounded(A[12]*p1_4)+rounded(A[13]*p1_5)+rounded(A[14]*p1_6)+rounded(A[15]*p1_7), rounded(B[2]*ua1)+rounded(A[16]*p1_0)+rounded(A[17]*p1_1)+rounded(A[18]*p1_2)+rounded(A[19]*p1_3)+rounded(A[20]*p1_4)+rounded(A[21]*p1_5)+rounded(A[22]*p1_6)+rounded(A[23]*p1_7), rounded(B[3]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5)+rounded(A[30]*p1_6)+rounded(A[31]*p1_7), rounded(B[4]*ua1)+rounded(A[32]*p1_0)+rounded(A[33]*p1_1)+rounded(A[34]*p1_2)+rounded(A[35]*p1_3)+rounded(A[36]*p1_4)+rounded(A[37]*p1_5)+rounded(A[38]*p1_6)+rounded(A[39]*p1_7), rounded(B[5]*ua1)+rounded(A[40]*p1_0)+rounded(A[41]*p1_1)+rounded(A[42]*p1_2)+rounded(A[43]*p1_3)+rounded(A[44]*p1_4)+rounded(A[45]*p1_5)+rounded(A[46]*p1_6)+rounded(A[47]*p1_7), rounded(B[6]*ua1)+rounded(A[48]*p1_0)+rounded(A[49]*p1_1)+rounded(A[50]*p1_2)+rounded(A[51]*p1_3)+rounded(A[52]*p1_4)+rounded(A[53]*p1_5)+rounded(A[54]*p1_6)+rounded(A[55]*p1_7), rounded(B[7]*ua1)+rounded(A[56]*p1_0)+rounded(A[57]*p1_1)+rounded(A[58]*p1_2)+rounded(A[59]*p1_3)+rounded(A[60]*p1_4)+rounded(A[61]*p1_5)+rounded(A[62]*p1_6)+rounded(A[63]*p1_7)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w
@@ -1249,22 +1249,22 @@ func pair8x3(s *pairStepper, y0, y1 []float64) {
 	w := s.ctrl.w
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		ym0 := Cm[0]*p0_0 + Cm[1]*p0_1 + Cm[2]*p0_2 + Cm[3]*p0_3 + Cm[4]*p0_4 + Cm[5]*p0_5 + Cm[6]*p0_6 + Cm[7]*p0_7
-		y0[t] = Cy[0]*p0_0 + Cy[1]*p0_1 + Cy[2]*p0_2 + Cy[3]*p0_3 + Cy[4]*p0_4 + Cy[5]*p0_5 + Cy[6]*p0_6 + Cy[7]*p0_7
-		ym1 := Cm[0]*p1_0 + Cm[1]*p1_1 + Cm[2]*p1_2 + Cm[3]*p1_3 + Cm[4]*p1_4 + Cm[5]*p1_5 + Cm[6]*p1_6 + Cm[7]*p1_7
-		y1[t] = Cy[0]*p1_0 + Cy[1]*p1_1 + Cy[2]*p1_2 + Cy[3]*p1_3 + Cy[4]*p1_4 + Cy[5]*p1_5 + Cy[6]*p1_6 + Cy[7]*p1_7
-		cmd0 := dr0 + dy*ym0 + Cc[0]*q0_0 + Cc[1]*q0_1 + Cc[2]*q0_2
-		cmd1 := dr1 + dy*ym1 + Cc[0]*q1_0 + Cc[1]*q1_1 + Cc[2]*q1_2
-		q0_0, q0_1, q0_2 = Br[0]+By[0]*ym0+Ac[0]*q0_0+Ac[1]*q0_1+Ac[2]*q0_2, Br[1]+By[1]*ym0+Ac[3]*q0_0+Ac[4]*q0_1+Ac[5]*q0_2, Br[2]+By[2]*ym0+Ac[6]*q0_0+Ac[7]*q0_1+Ac[8]*q0_2
-		q1_0, q1_1, q1_2 = Br[0]+By[0]*ym1+Ac[0]*q1_0+Ac[1]*q1_1+Ac[2]*q1_2, Br[1]+By[1]*ym1+Ac[3]*q1_0+Ac[4]*q1_1+Ac[5]*q1_2, Br[2]+By[2]*ym1+Ac[6]*q1_0+Ac[7]*q1_1+Ac[8]*q1_2
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6) + rounded(Cm[7]*p0_7)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6) + rounded(Cy[7]*p0_7)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6) + rounded(Cm[7]*p1_7)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6) + rounded(Cy[7]*p1_7)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
 		ring0[w], ring1[w] = cmd0, cmd1
 		w++
 		if w == len(ring0) {
 			w = 0
 		}
 		ua0, ua1 := ring0[w], ring1[w]
-		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = B[0]*ua0+A[0]*p0_0+A[1]*p0_1+A[2]*p0_2+A[3]*p0_3+A[4]*p0_4+A[5]*p0_5+A[6]*p0_6+A[7]*p0_7, B[1]*ua0+A[8]*p0_0+A[9]*p0_1+A[10]*p0_2+A[11]*p0_3+A[12]*p0_4+A[13]*p0_5+A[14]*p0_6+A[15]*p0_7, B[2]*ua0+A[16]*p0_0+A[17]*p0_1+A[18]*p0_2+A[19]*p0_3+A[20]*p0_4+A[21]*p0_5+A[22]*p0_6+A[23]*p0_7, B[3]*ua0+A[24]*p0_0+A[25]*p0_1+A[26]*p0_2+A[27]*p0_3+A[28]*p0_4+A[29]*p0_5+A[30]*p0_6+A[31]*p0_7, B[4]*ua0+A[32]*p0_0+A[33]*p0_1+A[34]*p0_2+A[35]*p0_3+A[36]*p0_4+A[37]*p0_5+A[38]*p0_6+A[39]*p0_7, B[5]*ua0+A[40]*p0_0+A[41]*p0_1+A[42]*p0_2+A[43]*p0_3+A[44]*p0_4+A[45]*p0_5+A[46]*p0_6+A[47]*p0_7, B[6]*ua0+A[48]*p0_0+A[49]*p0_1+A[50]*p0_2+A[51]*p0_3+A[52]*p0_4+A[53]*p0_5+A[54]*p0_6+A[55]*p0_7, B[7]*ua0+A[56]*p0_0+A[57]*p0_1+A[58]*p0_2+A[59]*p0_3+A[60]*p0_4+A[61]*p0_5+A[62]*p0_6+A[63]*p0_7
-		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = B[0]*ua1+A[0]*p1_0+A[1]*p1_1+A[2]*p1_2+A[3]*p1_3+A[4]*p1_4+A[5]*p1_5+A[6]*p1_6+A[7]*p1_7, B[1]*ua1+A[8]*p1_0+A[9]*p1_1+A[10]*p1_2+A[11]*p1_3+A[12]*p1_4+A[13]*p1_5+A[14]*p1_6+A[15]*p1_7, B[2]*ua1+A[16]*p1_0+A[17]*p1_1+A[18]*p1_2+A[19]*p1_3+A[20]*p1_4+A[21]*p1_5+A[22]*p1_6+A[23]*p1_7, B[3]*ua1+A[24]*p1_0+A[25]*p1_1+A[26]*p1_2+A[27]*p1_3+A[28]*p1_4+A[29]*p1_5+A[30]*p1_6+A[31]*p1_7, B[4]*ua1+A[32]*p1_0+A[33]*p1_1+A[34]*p1_2+A[35]*p1_3+A[36]*p1_4+A[37]*p1_5+A[38]*p1_6+A[39]*p1_7, B[5]*ua1+A[40]*p1_0+A[41]*p1_1+A[42]*p1_2+A[43]*p1_3+A[44]*p1_4+A[45]*p1_5+A[46]*p1_6+A[47]*p1_7, B[6]*ua1+A[48]*p1_0+A[49]*p1_1+A[50]*p1_2+A[51]*p1_3+A[52]*p1_4+A[53]*p1_5+A[54]*p1_6+A[55]*p1_7, B[7]*ua1+A[56]*p1_0+A[57]*p1_1+A[58]*p1_2+A[59]*p1_3+A[60]*p1_4+A[61]*p1_5+A[62]*p1_6+A[63]*p1_7
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6)+rounded(A[7]*p0_7), rounded(B[1]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3)+rounded(A[12]*p0_4)+rounded(A[13]*p0_5)+rounded(A[14]*p0_6)+rounded(A[15]*p0_7), rounded(B[2]*ua0)+rounded(A[16]*p0_0)+rounded(A[17]*p0_1)+rounded(A[18]*p0_2)+rounded(A[19]*p0_3)+rounded(A[20]*p0_4)+rounded(A[21]*p0_5)+rounded(A[22]*p0_6)+rounded(A[23]*p0_7), rounded(B[3]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5)+rounded(A[30]*p0_6)+rounded(A[31]*p0_7), rounded(B[4]*ua0)+rounded(A[32]*p0_0)+rounded(A[33]*p0_1)+rounded(A[34]*p0_2)+rounded(A[35]*p0_3)+rounded(A[36]*p0_4)+rounded(A[37]*p0_5)+rounded(A[38]*p0_6)+rounded(A[39]*p0_7), rounded(B[5]*ua0)+rounded(A[40]*p0_0)+rounded(A[41]*p0_1)+rounded(A[42]*p0_2)+rounded(A[43]*p0_3)+rounded(A[44]*p0_4)+rounded(A[45]*p0_5)+rounded(A[46]*p0_6)+rounded(A[47]*p0_7), rounded(B[6]*ua0)+rounded(A[48]*p0_0)+rounded(A[49]*p0_1)+rounded(A[50]*p0_2)+rounded(A[51]*p0_3)+rounded(A[52]*p0_4)+rounded(A[53]*p0_5)+rounded(A[54]*p0_6)+rounded(A[55]*p0_7), rounded(B[7]*ua0)+rounded(A[56]*p0_0)+rounded(A[57]*p0_1)+rounded(A[58]*p0_2)+rounded(A[59]*p0_3)+rounded(A[60]*p0_4)+rounded(A[61]*p0_5)+rounded(A[62]*p0_6)+rounded(A[63]*p0_7)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6)+rounded(A[7]*p1_7), rounded(B[1]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3)+rounded(A[12]*p1_4)+rounded(A[13]*p1_5)+rounded(A[14]*p1_6)+rounded(A[15]*p1_7), rounded(B[2]*ua1)+rounded(A[16]*p1_0)+rounded(A[17]*p1_1)+rounded(A[18]*p1_2)+rounded(A[19]*p1_3)+rounded(A[20]*p1_4)+rounded(A[21]*p1_5)+rounded(A[22]*p1_6)+rounded(A[23]*p1_7), rounded(B[3]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5)+rounded(A[30]*p1_6)+rounded(A[31]*p1_7), rounded(B[4]*ua1)+rounded(A[32]*p1_0)+rounded(A[33]*p1_1)+rounded(A[34]*p1_2)+rounded(A[35]*p1_3)+rounded(A[36]*p1_4)+rounded(A[37]*p1_5)+rounded(A[38]*p1_6)+rounded(A[39]*p1_7), rounded(B[5]*ua1)+rounded(A[40]*p1_0)+rounded(A[41]*p1_1)+rounded(A[42]*p1_2)+rounded(A[43]*p1_3)+rounded(A[44]*p1_4)+rounded(A[45]*p1_5)+rounded(A[46]*p1_6)+rounded(A[47]*p1_7), rounded(B[6]*ua1)+rounded(A[48]*p1_0)+rounded(A[49]*p1_1)+rounded(A[50]*p1_2)+rounded(A[51]*p1_3)+rounded(A[52]*p1_4)+rounded(A[53]*p1_5)+rounded(A[54]*p1_6)+rounded(A[55]*p1_7), rounded(B[7]*ua1)+rounded(A[56]*p1_0)+rounded(A[57]*p1_1)+rounded(A[58]*p1_2)+rounded(A[59]*p1_3)+rounded(A[60]*p1_4)+rounded(A[61]*p1_5)+rounded(A[62]*p1_6)+rounded(A[63]*p1_7)
 	}
 	s.k += len(y0)
 	s.ctrl.w = w

@@ -3,7 +3,6 @@ package discrete
 import (
 	"fmt"
 	"math"
-	"math/cmplx"
 	"slices"
 
 	"locusmith/airframe"
@@ -130,7 +129,7 @@ func (p Plant) chainTF() (lti.Poly, lti.Poly) {
 		want := m.Eval(z)
 		// Relative to the path before the chain: at a notch's centre
 		// the whole path is ~0.
-		if got := num.Eval(z) / den.Eval(z); !(cmplx.Abs(got-want) <= 1e-7*cmplx.Abs(p.evalUnfiltered(z))) {
+		if got := lti.Div(num.Eval(z), den.Eval(z)); !(lti.Abs(got-want) <= 1e-7*lti.Abs(p.evalUnfiltered(z))) {
 			return nil, nil
 		}
 	}
@@ -215,14 +214,14 @@ func (p Plant) WithSections(qs []lti.Biquad) Plant {
 // SectionPhaseDeg returns the phase of the section q at w rad/s when it
 // runs at hz samples per second, in degrees: ∠q(e^(jωT)).
 func SectionPhaseDeg(q lti.Biquad, w, hz float64) float64 {
-	return cmplx.Phase(q.At(w/(2*math.Pi), hz)) * 180 / math.Pi
+	return lti.Phase(q.At(w/(2*math.Pi), hz)) * 180 / math.Pi
 }
 
 // Filter returns the response of the filter chain at z (1 without one).
 func (p Plant) Filter(z complex128) complex128 {
 	v := complex(1, 0)
 	for _, q := range p.Sections {
-		v *= q.Eval(z)
+		v = lti.Mul(v, q.Eval(z))
 	}
 	return v
 }
@@ -231,7 +230,7 @@ func (p Plant) Filter(z complex128) complex128 {
 // before the filter chain, without the whole-sample delay.
 func (p Plant) evalUnfiltered(z complex128) complex128 {
 	if p.uden != nil {
-		return p.unum.Eval(z) / p.uden.Eval(z)
+		return lti.Div(p.unum.Eval(z), p.uden.Eval(z))
 	}
 	return p.unf.Eval(z)
 }
@@ -253,7 +252,7 @@ func (p Plant) transferFunction() (lti.Poly, lti.Poly) {
 	for _, th := range []float64{1e-3, 0.01, 0.1, 0.5, 1, 2, 3} {
 		z := complexExp(th)
 		want := d.Eval(z)
-		if got := tf.Eval(z); !(cmplx.Abs(got-want) <= 1e-7*cmplx.Abs(want)) {
+		if got := tf.Eval(z); !(lti.Abs(got-want) <= 1e-7*lti.Abs(want)) {
 			return nil, nil
 		}
 	}
@@ -276,10 +275,10 @@ func (p Plant) evalMeasured(z complex128) complex128 {
 	if len(p.Sections) > 0 {
 		// The path before the chain times the sections: exact where the
 		// expanded polynomials would lose digits.
-		return p.evalUnfiltered(z) * p.Filter(z)
+		return lti.Mul(p.evalUnfiltered(z), p.Filter(z))
 	}
 	if p.den != nil {
-		return p.num.Eval(z) / p.den.Eval(z)
+		return lti.Div(p.num.Eval(z), p.den.Eval(z))
 	}
 	return p.measured().Eval(z)
 }

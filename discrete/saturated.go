@@ -34,7 +34,7 @@ func (d *Design) saturatedCheck() (synth.Check, bool) {
 // reached reports whether a command trace touched an output limit: the
 // saturating step is a saturating step only then.
 func reached(u []float64, lo, hi float64) bool {
-	tol := 1e-9 * (hi - lo)
+	tol := float64(1e-9 * (hi - lo))
 	for _, v := range u {
 		if v >= hi-tol || v <= lo+tol {
 			return true

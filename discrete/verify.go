@@ -3,7 +3,6 @@ package discrete
 import (
 	"fmt"
 	"math"
-	"math/cmplx"
 
 	"locusmith/airframe"
 	"locusmith/internal/lti"
@@ -66,8 +65,8 @@ type Saturated struct {
 func horizon(ts, T float64, poles []complex128, maxTs float64) int {
 	slow := math.Inf(1)
 	for _, z := range poles {
-		if a := cmplx.Abs(z); a > 0 && a < 1 {
-			if s := -math.Log(a) / T; s < slow {
+		if a := lti.Abs(z); a > 0 && a < 1 {
+			if s := -lti.Log(a) / T; s < slow {
 				slow = s
 			}
 		}
@@ -89,7 +88,7 @@ func horizon(ts, T float64, poles []complex128, maxTs float64) int {
 func stabilityMargin(ps []complex128) float64 {
 	m := 0.0
 	for _, z := range ps {
-		m = math.Max(m, cmplx.Abs(z))
+		m = math.Max(m, lti.Abs(z))
 	}
 	return 1 - m
 }
@@ -142,7 +141,7 @@ func spanOf(p airframe.Axis) (lo, hi float64) {
 	lo, hi = math.Inf(1), 0.0
 	for _, rs := range [][]complex128{p.Plant.Model.Poles, p.Plant.Model.Zeros, p.Sensor.Poles, p.Sensor.Zeros} {
 		for _, r := range rs {
-			if a := cmplx.Abs(r); a > 0 {
+			if a := lti.Abs(r); a > 0 {
 				lo, hi = math.Min(lo, a), math.Max(hi, a)
 			}
 		}
@@ -219,8 +218,8 @@ func (pl Plant) Run(d, n int, step func(measured float64) float64) (y, u []float
 	for i := 0; i < n; i++ {
 		var ym, yt float64
 		for j := 0; j < pl.N; j++ {
-			ym += pl.Cm[j] * xc[j]
-			yt += pl.Cy[j] * xc[j]
+			ym += float64(pl.Cm[j] * xc[j])
+			yt += float64(pl.Cy[j] * xc[j])
 		}
 		y[i] = yt
 		cmd := step(ym)
@@ -229,10 +228,10 @@ func (pl Plant) Run(d, n int, step func(measured float64) float64) (y, u []float
 		q[0] = cmd
 		ua := q[d]
 		for r := 0; r < pl.N; r++ {
-			acc := pl.B[r] * ua
+			acc := float64(pl.B[r] * ua)
 			row := pl.A[r*pl.N : (r+1)*pl.N]
 			for j, av := range row {
-				acc += av * xc[j]
+				acc += float64(av * xc[j])
 			}
 			xn[r] = acc
 		}

@@ -94,7 +94,7 @@ func excite(d *discrete.Design, m vecModel) error {
 	if !(small > 0) || math.IsInf(big, 0) || math.IsNaN(big) {
 		return fmt.Errorf("no input scale (small %g, big %g)", small, big)
 	}
-	alpha := T / float64(T+ts/4)
+	alpha := T / (T + float64(ts/4))
 	ylim := 0.95 * m.inputLimit()
 
 	var rng uint32 = 0x9e3779b9

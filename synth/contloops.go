@@ -2,7 +2,6 @@ package synth
 
 import (
 	"math"
-	"math/cmplx"
 	"slices"
 
 	"locusmith/airframe"
@@ -21,13 +20,13 @@ func FrequencyGrid(lo, hi float64, roots []complex128, tau float64) []float64 {
 	if !(lo > 0) || !(hi > lo) || math.IsInf(hi, 0) {
 		return nil
 	}
-	n := int(math.Ceil(perDecade*math.Log10(hi/lo))) + 1
+	n := int(math.Ceil(perDecade*lti.Log10(hi/lo))) + 1
 	ws := make([]float64, 0, n+64)
 	for i := 0; i < n; i++ {
-		ws = append(ws, lo*math.Pow(hi/lo, float64(i)/float64(n-1)))
+		ws = append(ws, lo*lti.Pow(hi/lo, float64(i)/float64(n-1)))
 	}
 	for _, r := range roots {
-		a := cmplx.Abs(r)
+		a := lti.Abs(r)
 		if a == 0 || imag(r) == 0 {
 			continue
 		}
@@ -37,7 +36,7 @@ func FrequencyGrid(lo, hi float64, roots []complex128, tau float64) []float64 {
 		}
 		z = math.Max(z, 1e-4)
 		for k := -24; k <= 24; k++ {
-			if w := a * (1 + float64(k)*z/8); w > lo && w < hi {
+			if w := a * (1 + float64(float64(k)*z/8)); w > lo && w < hi {
 				ws = append(ws, w)
 			}
 		}
@@ -45,7 +44,7 @@ func FrequencyGrid(lo, hi float64, roots []complex128, tau float64) []float64 {
 	if tau > 0 {
 		// Log spacing turns the delay's phase by ω·τ·(10^(1/40) − 1).
 		dw := 0.5 / tau
-		from := dw / (math.Pow(10, 1.0/perDecade) - 1)
+		from := dw / (lti.Pow(10, 1.0/perDecade) - 1)
 		for w := math.Max(from, lo); w < hi && len(ws) < maxGrid; w += dw {
 			ws = append(ws, w)
 		}

@@ -47,9 +47,9 @@ func (c Controller) TF() lti.TF {
 	case airframe.FormPI:
 		n = lti.Poly{c.Ki, c.Kp}
 	case airframe.FormPD:
-		n = lti.Poly{c.Kp, c.Kp*c.Tf + c.Kd}
+		n = lti.Poly{c.Kp, float64(c.Kp*c.Tf) + c.Kd}
 	case airframe.FormPID:
-		n = lti.Poly{c.Ki, c.Kp + c.Ki*c.Tf, c.Kp*c.Tf + c.Kd}
+		n = lti.Poly{c.Ki, c.Kp + float64(c.Ki*c.Tf), float64(c.Kp*c.Tf) + c.Kd}
 	case airframe.FormLead:
 		n = lti.Poly{-c.K * c.Zero, c.K}
 	}
@@ -69,9 +69,9 @@ func (c Controller) Setpoint() lti.TF {
 	case airframe.FormPI:
 		n = lti.Poly{c.Ki, c.B * c.Kp}
 	case airframe.FormPD:
-		n = lti.Poly{c.B * c.Kp, c.B*c.Kp*c.Tf + kd}
+		n = lti.Poly{c.B * c.Kp, float64(c.B*c.Kp*c.Tf) + kd}
 	case airframe.FormPID:
-		n = lti.Poly{c.Ki, c.B*c.Kp + c.Ki*c.Tf, c.B*c.Kp*c.Tf + kd}
+		n = lti.Poly{c.Ki, float64(c.B*c.Kp) + float64(c.Ki*c.Tf), float64(c.B*c.Kp*c.Tf) + kd}
 	case airframe.FormLead:
 		return c.TF()
 	}
@@ -82,14 +82,14 @@ func (c Controller) Setpoint() lti.TF {
 func (c Controller) Eval(s complex128) complex128 {
 	switch c.Form {
 	case airframe.FormLead:
-		return complex(c.K, 0) * (s - complex(c.Zero, 0)) / (s - complex(c.Pole, 0))
+		return lti.Div(lti.Mul(complex(c.K, 0), s-complex(c.Zero, 0)), s-complex(c.Pole, 0))
 	}
 	v := complex(c.Kp, 0)
 	if c.Form.HasIntegral() {
-		v += complex(c.Ki, 0) / s
+		v += lti.Div(complex(c.Ki, 0), s)
 	}
 	if c.Form.HasDerivative() {
-		v += complex(c.Kd, 0) * s / (complex(c.Tf, 0)*s + 1)
+		v += lti.Div(lti.Mul(complex(c.Kd, 0), s), lti.Mul(complex(c.Tf, 0), s)+1)
 	}
 	return v
 }

@@ -4,10 +4,10 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"math/cmplx"
 	"strings"
 
 	"locusmith/airframe"
+	"locusmith/internal/lti"
 )
 
 // Stage is one placement and its verification.
@@ -119,7 +119,7 @@ func DesignAxis(p airframe.Axis, L Loops) (*Design, error) {
 // 1/|G·H(jωn)| (with the delay, which does not change the magnitude).
 func searchScale(p airframe.Axis, t Target) (g0, w0 float64) {
 	w0 = t.OmegaN
-	return 1 / cmplx.Abs(p.OpenLoop(complex(0, w0))), w0
+	return 1 / lti.Abs(p.OpenLoop(complex(0, w0))), w0
 }
 
 func placeStage(p airframe.Axis, t Target, margins bool) (Stage, error) {
@@ -179,7 +179,7 @@ func reach(p airframe.Axis, zeta float64) string {
 	s0 := SigmaFromSettling(zeta, p.Spec.Band, p.Spec.SettlingTime)
 	best := 0.0
 	for k := 0; k < 60; k++ {
-		sigma := s0 * 1e-3 * math.Pow(10, float64(k)/15)
+		sigma := s0 * 1e-3 * lti.Pow(10, float64(k)/15)
 		if sigma > s0 {
 			break
 		}
@@ -194,6 +194,6 @@ func reach(p airframe.Axis, zeta float64) string {
 	if best == 0 {
 		return fmt.Sprintf("no target at ζ = %.3f gives positive gains and a stable loop", zeta)
 	}
-	ts := -math.Log(p.Spec.Band*math.Sqrt(1-zeta*zeta)) / best
+	ts := -lti.Log(p.Spec.Band*math.Sqrt(1-float64(zeta*zeta))) / best
 	return fmt.Sprintf("at this overshoot the form reaches about %.4g s settling (σ = %.4g rad/s)", ts, best)
 }

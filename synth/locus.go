@@ -149,12 +149,12 @@ func LoopLocus(num, den lti.Poly, kmax float64) (*Locus, error) {
 		}
 		if guess != nil {
 			for i, g := range guess {
-				z[i] = g / complex(w0, 0)
+				z[i] = lti.Div(g, complex(w0, 0))
 			}
 			if aberth(q, dq, z) {
 				r := make([]complex128, n)
 				for i := range z {
-					r[i] = z[i] * complex(w0, 0)
+					r[i] = lti.Mul(z[i], complex(w0, 0))
 				}
 				return r, nil
 			}
@@ -167,7 +167,7 @@ func LoopLocus(num, den lti.Poly, kmax float64) (*Locus, error) {
 			return nil, fmt.Errorf("%d roots at k = %.4g, want %d", len(r), k, n)
 		}
 		for i := range r {
-			r[i] *= complex(w0, 0)
+			r[i] = lti.Mul(r[i], complex(w0, 0))
 		}
 		return r, nil
 	}
@@ -175,7 +175,7 @@ func LoopLocus(num, den lti.Poly, kmax float64) (*Locus, error) {
 	// it per step, so a branch from an integrator is resolved too.
 	floor := 0.0
 	for _, r := range append(append([]complex128(nil), poles...), zeros...) {
-		if a := cmplx.Abs(r); a > 0 && (floor == 0 || a < floor) {
+		if a := lti.Abs(r); a > 0 && (floor == 0 || a < floor) {
 			floor = a
 		}
 	}
@@ -207,7 +207,7 @@ func LoopLocus(num, den lti.Poly, kmax float64) (*Locus, error) {
 			// Linear extrapolation along each branch.
 			f := complex((kn-k)/(k-prevK), 0)
 			for i := range cur {
-				guess[i] = cur[i] + (cur[i]-prev[i])*f
+				guess[i] = cur[i] + lti.Mul(cur[i]-prev[i], f)
 			}
 			g = guess
 		}
@@ -294,7 +294,7 @@ func aberth(q, dq lti.Poly, z []complex128) bool {
 			if dp == 0 {
 				return false
 			}
-			ratio := p / dp
+			ratio := lti.Div(p, dp)
 			// Σ 1/(z_i − z_j), with the reciprocal written out: Go's
 			// complex division guards Inf and NaN and is several times
 			// slower, and the guesses are distinct here.
@@ -308,7 +308,7 @@ func aberth(q, dq lti.Poly, z []complex128) bool {
 				}
 			}
 			sum := complex(sr, si)
-			w := ratio / (1 - ratio*sum)
+			w := lti.Div(ratio, 1-lti.Mul(ratio, sum))
 			if cmplx.IsNaN(w) || cmplx.IsInf(w) {
 				return false
 			}
@@ -337,8 +337,8 @@ func scaleOf(sets ...[]complex128) float64 {
 	s, c := 0.0, 0
 	for _, rs := range sets {
 		for _, r := range rs {
-			if a := cmplx.Abs(r); a > 0 {
-				s += math.Log(a)
+			if a := lti.Abs(r); a > 0 {
+				s += lti.Log(a)
 				c++
 			}
 		}
@@ -346,7 +346,7 @@ func scaleOf(sets ...[]complex128) float64 {
 	if c == 0 {
 		return 1
 	}
-	return math.Exp(s / float64(c))
+	return lti.Exp(s / float64(c))
 }
 
 // scalePoly returns the coefficients of p(ω0·ŝ).

@@ -104,11 +104,11 @@ func Disturbance(r Response, step float64) DisturbanceFigures {
 	f.Peak *= math.Abs(step)
 	// Trapezoidal ∫|y| dt.
 	for k := 1; k < len(r.Y); k++ {
-		f.IAE += (math.Abs(r.Y[k-1]) + math.Abs(r.Y[k])) / 2 * r.H
+		f.IAE += float64((math.Abs(r.Y[k-1]) + math.Abs(r.Y[k])) / 2 * r.H)
 	}
 	f.IAE *= math.Abs(step)
 	f.Final = r.Y[len(r.Y)-1] * step
-	band := RecoveryBand * f.Peak
+	band := float64(RecoveryBand * f.Peak)
 	if math.Abs(f.Final) > band || !(f.Peak > 0) {
 		return f
 	}

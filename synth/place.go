@@ -7,6 +7,7 @@ import (
 	"math/cmplx"
 
 	"locusmith/airframe"
+	"locusmith/internal/lti"
 )
 
 // AngleTerm is one pole, zero or delay of the loop seen from the target.
@@ -50,7 +51,7 @@ func NewWorking(p airframe.Axis, s complex128) Working {
 	add := func(kind, of string, at []complex128) {
 		for _, r := range at {
 			d := s - r
-			w.Terms = append(w.Terms, AngleTerm{Kind: kind, Of: of, At: r, AngleDeg: deg(cmplx.Phase(d)), Distance: cmplx.Abs(d)})
+			w.Terms = append(w.Terms, AngleTerm{Kind: kind, Of: of, At: r, AngleDeg: deg(lti.Phase(d)), Distance: lti.Abs(d)})
 		}
 	}
 	add("zero", "plant", p.Plant.Model.Zeros)
@@ -73,7 +74,7 @@ func NewWorking(p airframe.Axis, s complex128) Working {
 	}
 	w.LoopAngleDeg = sum
 	w.DeficiencyDeg = wrapDeg(-180 - sum)
-	w.LoopMagnitude = cmplx.Abs(p.OpenLoop(s))
+	w.LoopMagnitude = lti.Abs(p.OpenLoop(s))
 	w.NeededGain = 1 / w.LoopMagnitude
 	return w
 }
@@ -129,7 +130,7 @@ func Place(p airframe.Axis, t Target) (Controller, error) {
 	if L == 0 || cmplx.IsNaN(L) || cmplx.IsInf(L) {
 		return c, &InfeasibleError{Form: c.Form, Target: t, Reason: "the target is at an open-loop pole or zero"}
 	}
-	need := -1 / L // C(s*) that satisfies both conditions
+	need := lti.Div(-1, L) // C(s*) that satisfies both conditions
 	infeasible := func(why string) (Controller, error) {
 		return c, &InfeasibleError{Form: c.Form, Target: t, Reason: why}
 	}
@@ -137,29 +138,29 @@ func Place(p airframe.Axis, t Target) (Controller, error) {
 	case airframe.FormP:
 		return c, errNoTarget
 	case airframe.FormPI:
-		q := 1 / s
+		q := lti.Div(1, s)
 		c.Ki = imag(need) / imag(q)
-		c.Kp = real(need) - c.Ki*real(q)
+		c.Kp = real(need) - float64(c.Ki*real(q))
 	case airframe.FormPD:
-		phi := s / (complex(c.Tf, 0)*s + 1)
+		phi := lti.Div(s, lti.Mul(complex(c.Tf, 0), s)+1)
 		c.Kd = imag(need) / imag(phi)
-		c.Kp = real(need) - c.Kd*real(phi)
+		c.Kp = real(need) - float64(c.Kd*real(phi))
 	case airframe.FormPID:
-		q := 1 / s
-		phi := s / (complex(c.Tf, 0)*s + 1)
+		q := lti.Div(1, s)
+		phi := lti.Div(s, lti.Mul(complex(c.Tf, 0), s)+1)
 		s3 := -p.Ctrl.ThirdPole * t.Sigma
 		L3 := real(p.OpenLoop(complex(s3, 0)))
 		if L3 == 0 || math.IsNaN(L3) || math.IsInf(L3, 0) {
 			return infeasible(fmt.Sprintf("the third pole %.4g is at an open-loop pole or zero; change third_pole", s3))
 		}
-		if den := c.Tf*s3 + 1; math.Abs(den) < 1e-12 {
+		if den := float64(c.Tf*s3) + 1; math.Abs(den) < 1e-12 {
 			return infeasible(fmt.Sprintf("the third pole %.4g is at the derivative filter pole; change third_pole or derivative_lowpass_hz", s3))
 		}
 		// Rows: Re and Im of the target condition, then the third pole.
 		a := [3][3]float64{
 			{1, real(q), real(phi)},
 			{0, imag(q), imag(phi)},
-			{1, 1 / s3, s3 / (c.Tf*s3 + 1)},
+			{1, 1 / s3, s3 / (float64(c.Tf*s3) + 1)},
 		}
 		b := [3]float64{real(need), imag(need), -1 / L3}
 		x, ok := solve3(a, b)
@@ -170,8 +171,8 @@ func Place(p airframe.Axis, t Target) (Controller, error) {
 	case airframe.FormLead:
 		z := p.Ctrl.LeadZero
 		// ∠C(s*) = ∠(s*−z) − ∠(s*−p) must equal the deficiency θ.
-		theta := cmplx.Phase(need)
-		phiP := cmplx.Phase(s-complex(z, 0)) - theta
+		theta := lti.Phase(need)
+		phiP := lti.Phase(s-complex(z, 0)) - theta
 		for phiP <= 0 {
 			phiP += 2 * math.Pi
 		}
@@ -182,11 +183,11 @@ func Place(p airframe.Axis, t Target) (Controller, error) {
 			return infeasible(fmt.Sprintf("the controller must supply %.1f° at the target, and a real pole seen from the upper half plane subtends (0°, 180°) only", deg(theta)))
 		}
 		c.Zero = z
-		c.Pole = real(s) - imag(s)/math.Tan(phiP)
+		c.Pole = real(s) - imag(s)/lti.Tan(phiP)
 		if c.Pole >= 0 {
 			return infeasible(fmt.Sprintf("the compensator pole would be at %.4g, not in the left half plane", c.Pole))
 		}
-		c.K = cmplx.Abs(need) * cmplx.Abs(s-complex(c.Pole, 0)) / cmplx.Abs(s-complex(z, 0))
+		c.K = lti.Abs(need) * lti.Abs(s-complex(c.Pole, 0)) / lti.Abs(s-complex(z, 0))
 	default:
 		return c, fmt.Errorf("unknown controller form %q", c.Form)
 	}
@@ -219,20 +220,20 @@ func PlaceP(p airframe.Axis, zeta float64) (Controller, Target, error) {
 	if p.Ctrl.SetpointWeightSet {
 		c.B = p.Ctrl.SetpointWeight
 	}
-	dir := complex(-zeta, math.Sqrt(1-zeta*zeta))
+	dir := complex(-zeta, math.Sqrt(1-float64(zeta*zeta)))
 	lo, hi := frequencySpan(p)
 	const n = 400
 	type hit struct{ wn, k float64 }
 	var hits []hit
 	f := func(wn float64) float64 {
 		// Imaginary part of L normalized: zero on the real axis of the L-plane.
-		v := p.OpenLoop(complex(wn, 0) * dir)
-		return math.Atan2(imag(v), -real(v)) // 0 where ∠L = −180°
+		v := p.OpenLoop(lti.Mul(complex(wn, 0), dir))
+		return lti.Atan2(imag(v), -real(v)) // 0 where ∠L = −180°
 	}
 	prevW := lo
 	prev := f(lo)
 	for i := 1; i <= n; i++ {
-		w := lo * math.Pow(hi/lo, float64(i)/n)
+		w := lo * lti.Pow(hi/lo, float64(i)/n)
 		cur := f(w)
 		if prev == 0 || prev*cur < 0 && math.Abs(prev-cur) < math.Pi {
 			a, b, fa := prevW, w, prev
@@ -253,9 +254,9 @@ func PlaceP(p airframe.Axis, zeta float64) (Controller, Target, error) {
 				}
 			}
 			wn := math.Sqrt(a * b)
-			v := p.OpenLoop(complex(wn, 0) * dir)
+			v := p.OpenLoop(lti.Mul(complex(wn, 0), dir))
 			if real(v) < 0 {
-				hits = append(hits, hit{wn, 1 / cmplx.Abs(v)})
+				hits = append(hits, hit{wn, 1 / lti.Abs(v)})
 			}
 		}
 		prevW, prev = w, cur
@@ -288,7 +289,7 @@ func frequencySpan(p airframe.Axis) (lo, hi float64) {
 	lo, hi = math.Inf(1), 0.0
 	note := func(rs []complex128) {
 		for _, r := range rs {
-			if a := cmplx.Abs(r); a > 0 {
+			if a := lti.Abs(r); a > 0 {
 				lo, hi = math.Min(lo, a), math.Max(hi, a)
 			}
 		}
@@ -329,15 +330,15 @@ func solve3(a [3][3]float64, b [3]float64) ([3]float64, bool) {
 		for r := col + 1; r < 3; r++ {
 			f := a[r][col] / a[col][col]
 			for k := col; k < 3; k++ {
-				a[r][k] -= f * a[col][k]
+				a[r][k] -= float64(f * a[col][k])
 			}
-			b[r] -= f * b[col]
+			b[r] -= float64(f * b[col])
 		}
 	}
 	for r := 2; r >= 0; r-- {
 		s := b[r]
 		for k := r + 1; k < 3; k++ {
-			s -= a[r][k] * x[k]
+			s -= float64(a[r][k] * x[k])
 		}
 		x[r] = s / a[r][r]
 	}

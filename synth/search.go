@@ -4,7 +4,6 @@ import (
 	"cmp"
 	"fmt"
 	"math"
-	"math/cmplx"
 	"slices"
 	"strings"
 
@@ -166,8 +165,8 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 		z := p.Ctrl.LeadZero
 		// θ is the pole's distance ratio r = p/z > 1 (pole left of the
 		// zero); the grid spans r from 1.02 to 200.
-		return family{ref: []float64{1}, lo: []float64{math.Log10(1.02)}, hi: []float64{math.Log10(200)}, steps: []int{17},
-			xRef: g0, floor: []float64{math.Log10(1.02)},
+		return family{ref: []float64{1}, lo: []float64{lti.Log10(1.02)}, hi: []float64{lti.Log10(200)}, steps: []int{17},
+			xRef: g0, floor: []float64{lti.Log10(1.02)},
 			gain: func(th []float64, x float64) float64 { return x / th[0] },
 			ctrl: func(th []float64, x float64) Controller {
 				c := base
@@ -350,7 +349,7 @@ func newSearcher(p airframe.Axis, L Loops, g0, w0 float64) *searcher {
 func (sr *searcher) theta(u []float64) []float64 {
 	th := make([]float64, len(u))
 	for i := range u {
-		th[i] = sr.fam.ref[i] * math.Pow(10, u[i])
+		th[i] = sr.fam.ref[i] * lti.Pow(10, u[i])
 	}
 	return th
 }
@@ -412,11 +411,11 @@ func (sr *searcher) msBound() (float64, bool) {
 	for i := range sr.open {
 		P := sr.open[i]
 		for k := range P {
-			a := 1 + sr.a[k]*P[k]
-			c := sr.b[k] * P[k]
-			al := real(c)*real(c) + imag(c)*imag(c)
-			be := real(a)*real(c) + imag(a)*imag(c)
-			ga := real(a)*real(a) + imag(a)*imag(a) - r2
+			a := 1 + lti.Mul(sr.a[k], P[k])
+			c := lti.Mul(sr.b[k], P[k])
+			al := float64(real(c)*real(c)) + float64(imag(c)*imag(c))
+			be := float64(real(a)*real(c)) + float64(imag(a)*imag(c))
+			ga := float64(real(a)*real(a)) + float64(imag(a)*imag(a)) - r2
 			if !(al > 1e-300) {
 				// x has no effect here: fine or forbidden for every x.
 				if ga < 0 {
@@ -424,7 +423,7 @@ func (sr *searcher) msBound() (float64, bool) {
 				}
 				continue
 			}
-			disc := be*be - al*ga
+			disc := float64(be*be) - float64(al*ga)
 			if disc <= 0 {
 				continue
 			}
@@ -462,7 +461,7 @@ func (sr *searcher) freqFigures(x float64, stop bool) (pm, gm, noise float64, st
 	kc := len(sr.grid)
 	c := sr.lbuf
 	for k := range c {
-		c[k] = sr.a[k] + complex(x, 0)*sr.b[k]
+		c[k] = sr.a[k] + lti.Mul(complex(x, 0), sr.b[k])
 	}
 	n := len(sr.open)
 	for j := range n {
@@ -498,7 +497,7 @@ func (sr *searcher) noiseFrom(kc int) float64 {
 	// (the squares are never −0).
 	n2, nan := 0.0, false
 	for k := kc; k < len(c); k++ {
-		if v := real(c[k])*real(c[k]) + imag(c[k])*imag(c[k]); v > n2 {
+		if v := float64(real(c[k])*real(c[k])) + float64(imag(c[k])*imag(c[k])); v > n2 {
 			n2 = v
 		} else if v != v {
 			nan = true
@@ -516,7 +515,7 @@ func (sr *searcher) noiseFrom(kc int) float64 {
 func (sr *searcher) noiseAt(x float64) float64 {
 	c := sr.lbuf
 	for k := range c {
-		c[k] = sr.a[k] + complex(x, 0)*sr.b[k]
+		c[k] = sr.a[k] + lti.Mul(complex(x, 0), sr.b[k])
 	}
 	kc := len(sr.grid)
 	for i := range sr.open {
@@ -530,8 +529,8 @@ func (sr *searcher) noiseAt(x float64) float64 {
 func firstCrossover(c, P []complex128, none int) int {
 	var prevM float64
 	for k := range c {
-		L := c[k] * P[k]
-		m := real(L)*real(L) + imag(L)*imag(L) - 1
+		L := lti.Mul(c[k], P[k])
+		m := float64(real(L)*real(L)) + float64(imag(L)*imag(L)) - 1
 		if k > 0 && (prevM >= 0) != (m >= 0) {
 			return k - 1
 		}
@@ -553,13 +552,13 @@ func gridMargins(w []float64, c, P []complex128) (pm, gm float64, kc int) {
 	var prev complex128
 	var prevM float64
 	for k := range w {
-		L := c[k] * P[k]
-		m := real(L)*real(L) + imag(L)*imag(L) - 1
+		L := lti.Mul(c[k], P[k])
+		m := float64(real(L)*real(L)) + float64(imag(L)*imag(L)) - 1
 		if k > 0 {
 			if (prevM >= 0) != (m >= 0) {
 				t := prevM / (prevM - m)
-				Lc := prev + complex(t, 0)*(L-prev)
-				v := 180 + cmplx.Phase(Lc)*180/math.Pi
+				Lc := prev + lti.Mul(complex(t, 0), L-prev)
+				v := 180 + lti.Phase(Lc)*180/math.Pi
 				if v > 180 {
 					v -= 360
 				}
@@ -572,9 +571,9 @@ func gridMargins(w []float64, c, P []complex128) (pm, gm float64, kc int) {
 			}
 			if (imag(prev) >= 0) != (imag(L) >= 0) {
 				t := imag(prev) / (imag(prev) - imag(L))
-				re := real(prev) + t*(real(L)-real(prev))
+				re := real(prev) + float64(t*(real(L)-real(prev)))
 				if re < 0 {
-					g := -20 * math.Log10(-re)
+					g := -20 * lti.Log10(-re)
 					if math.Abs(g) < math.Abs(gm) {
 						gm = g
 					}
@@ -730,7 +729,7 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 			// gain may lie: three probes, from the top.
 			lo, hi := x*f, x*steps[i-1]
 			for _, t := range []float64{0.75, 0.5, 0.25} {
-				cp, err := sr.judgeAt(pt, lo*math.Pow(hi/lo, t))
+				cp, err := sr.judgeAt(pt, lo*lti.Pow(hi/lo, t))
 				if err != nil {
 					return c, err
 				}
@@ -867,7 +866,7 @@ func (sr *searcher) settleAll(c Controller) (float64, float64, error) {
 			if !ok[j] {
 				continue
 			}
-			f := e.Final0 + w*(e.Final1-e.Final0)
+			f := e.Final0 + float64(w*(e.Final1-e.Final0))
 			if !(f > 0) || math.IsInf(f, 0) {
 				ok[j] = false
 				continue
@@ -954,8 +953,8 @@ type weightWindow struct {
 
 func newWeightWindow(e *Evaluation, s airframe.Spec, bmin, bmax, beta float64) weightWindow {
 	w := weightWindow{lo: bmin, hi: bmax, f0: e.Final0, df: e.Final1 - e.Final0,
-		osHi: 1 + s.Overshoot*(1+beta), bandHi: 1 + s.Band, bandLo: 1 - s.Band, k0: e.N}
-	fmin, fmax := w.f0+bmin*w.df, w.f0+bmax*w.df
+		osHi: 1 + float64(s.Overshoot*(1+beta)), bandHi: 1 + s.Band, bandLo: 1 - s.Band, k0: e.N}
+	fmin, fmax := w.f0+float64(bmin*w.df), w.f0+float64(bmax*w.df)
 	w.ok = fmin > 0 && fmax > 0 && !math.IsInf(fmin, 0) && !math.IsInf(fmax, 0)
 	if t := s.SettlingTime * (1 + beta) / e.H; t < float64(e.N) {
 		w.k0 = int(math.Floor(t)) + 1
@@ -970,10 +969,10 @@ func (w *weightWindow) add(k int, y0, y1 float64) {
 		w.ok = false
 		return
 	}
-	w.bound(d-w.osHi*w.df, w.osHi*w.f0-y0)
+	w.bound(d-float64(w.osHi*w.df), float64(w.osHi*w.f0)-y0)
 	if k >= w.k0 {
-		w.bound(d-w.bandHi*w.df, w.bandHi*w.f0-y0)
-		w.bound(-(d - w.bandLo*w.df), y0-w.bandLo*w.f0)
+		w.bound(d-float64(w.bandHi*w.df), float64(w.bandHi*w.f0)-y0)
+		w.bound(-(d - float64(w.bandLo*w.df)), y0-float64(w.bandLo*w.f0))
 	}
 }
 
@@ -1075,7 +1074,7 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 			if w.ok && !w.admits(bj) {
 				continue
 			}
-			f := e.Final0 + bj*(e.Final1-e.Final0)
+			f := e.Final0 + float64(bj*(e.Final1-e.Final0))
 			if !(f > 0) || math.IsInf(f, 0) {
 				continue
 			}
@@ -1197,7 +1196,7 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 		// The weights of a positive final value are summarized together.
 		ws, fs, idx := sc.ws[:0], sc.fs[:0], sc.idx[:0]
 		for j, w := range bs {
-			f := e.Final0 + w*(e.Final1-e.Final0)
+			f := e.Final0 + float64(w*(e.Final1-e.Final0))
 			if !(f > 0) || math.IsInf(f, 0) {
 				worst[j] = math.Inf(1)
 				continue
@@ -1334,7 +1333,7 @@ func (sr *searcher) denseGrid(k int) [][]float64 {
 	for _, u := range pts {
 		coarse := true
 		for d := range u {
-			i := (u[d] - f.lo[d]) / (f.hi[d] - f.lo[d]) * float64(f.steps[d]-1)
+			i := float64((u[d] - f.lo[d]) / (f.hi[d] - f.lo[d]) * float64(f.steps[d]-1))
 			if math.Abs(i-math.Round(i)) > 1e-9 {
 				coarse = false
 			}
@@ -1863,9 +1862,9 @@ func (sr *searcher) polish(best cand, step []float64, judge judgeFunc) (cand, er
 		for _, dir := range cube(n + 1) {
 			u := slices.Clone(best.pt.u)
 			for d := 0; d < n; d++ {
-				u[d] += dir[d] * h[d]
+				u[d] += float64(dir[d] * h[d])
 			}
-			x := best.x * math.Pow(10, dir[n]*h[n])
+			x := best.x * lti.Pow(10, dir[n]*h[n])
 			if len(sr.fam.floor) > 0 && u[0] < sr.fam.floor[0] {
 				continue
 			}
@@ -2004,7 +2003,7 @@ func (sr *searcher) pattern(u []float64, grid []float64, try func(u []float64) (
 			}
 			v := slices.Clone(cur)
 			for d := range v {
-				v[d] += dir[d] * h[d]
+				v[d] += float64(dir[d] * h[d])
 			}
 			if !inside(v) {
 				continue

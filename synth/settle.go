@@ -34,20 +34,20 @@ func weightedSettle(y0, y1 []float64, b, h, final, band float64) lti.StepInfo {
 	var peak float64 // y(b) at pk
 	k := 0
 	for ; k < n; k++ {
-		if v := y0[k] + b*(y1[k]-y0[k]); !math.IsNaN(v) {
+		if v := y0[k] + float64(b*(y1[k]-y0[k])); !math.IsNaN(v) {
 			pk, peak = k, v
 			break
 		}
 	}
 	if dir > 0 {
 		for k++; k < n; k++ {
-			if v := y0[k] + b*(y1[k]-y0[k]); v > peak {
+			if v := y0[k] + float64(b*(y1[k]-y0[k])); v > peak {
 				pk, peak = k, v
 			}
 		}
 	} else {
 		for k++; k < n; k++ {
-			if v := y0[k] + b*(y1[k]-y0[k]); v < peak {
+			if v := y0[k] + float64(b*(y1[k]-y0[k])); v < peak {
 				pk, peak = k, v
 			}
 		}
@@ -81,7 +81,7 @@ func settleFrom(y0, y1 []float64, b, h, final, band float64, pk int, peak float6
 	tol := math.Abs(band * final)
 	last := -1
 	for k := n - 1; k >= 0; k-- {
-		v := y0[k] + b*(y1[k]-y0[k])
+		v := y0[k] + float64(b*(y1[k]-y0[k]))
 		if !(math.Abs(v-final) <= tol) {
 			last = k
 			break
@@ -93,8 +93,8 @@ func settleFrom(y0, y1 []float64, b, h, final, band float64, pk int, peak float6
 	case last == n-1:
 		si.Settling = tEnd
 	default:
-		v0 := y0[last] + b*(y1[last]-y0[last])
-		v1 := y0[last+1] + b*(y1[last+1]-y0[last+1])
+		v0 := y0[last] + float64(b*(y1[last]-y0[last]))
+		v1 := y0[last+1] + float64(b*(y1[last+1]-y0[last+1]))
 		e0, e1 := v0-final, v1-final
 		edge := tol
 		if e0 < 0 {
@@ -127,7 +127,7 @@ func weightedSettles(y0, y1, bs, finals []float64, h, band float64, out []lti.St
 	var pk [most]int
 	one := n == 0
 	for j := 0; j < len(bs) && !one; j++ {
-		v := y0[0] + bs[j]*(y1[0]-y0[0])
+		v := y0[0] + float64(bs[j]*(y1[0]-y0[0]))
 		one = math.IsNaN(v) || !(finals[j] > 0)
 		peak[j] = v
 	}
@@ -142,7 +142,7 @@ func weightedSettles(y0, y1, bs, finals []float64, h, band float64, out []lti.St
 	for k := 1; k < n; k++ {
 		a, d := y0[k], y1[k]-y0[k]
 		for j, b := range bs {
-			if v := a + b*d; v > peak[j] {
+			if v := a + float64(b*d); v > peak[j] {
 				pk[j], peak[j] = k, v
 			}
 		}

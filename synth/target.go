@@ -5,6 +5,7 @@ import (
 	"math"
 
 	"locusmith/airframe"
+	"locusmith/internal/lti"
 )
 
 // Target is a desired dominant closed-loop pole pair s = −σ ± jωd.
@@ -18,8 +19,8 @@ type Target struct {
 // ZetaFromOvershoot returns the damping ratio whose second-order step
 // overshoots by mp: ζ = −ln(Mp)/√(π² + ln²Mp).
 func ZetaFromOvershoot(mp float64) float64 {
-	l := math.Log(mp)
-	return -l / math.Sqrt(math.Pi*math.Pi+l*l)
+	l := lti.Log(mp)
+	return -l / math.Sqrt(math.Pi*math.Pi+float64(l*l))
 }
 
 // OvershootFromZeta is the inverse of ZetaFromOvershoot:
@@ -28,20 +29,20 @@ func OvershootFromZeta(zeta float64) float64 {
 	if zeta >= 1 {
 		return 0
 	}
-	return math.Exp(-zeta * math.Pi / math.Sqrt(1-zeta*zeta))
+	return lti.Exp(-zeta * math.Pi / math.Sqrt(1-float64(zeta*zeta)))
 }
 
 // SigmaFromSettling returns the decay rate σ for which the envelope
 // 1 + e^(−σt)/√(1−ζ²) of the second-order step enters the band at ts:
 // σ = −ln(band·√(1−ζ²))/ts.
 func SigmaFromSettling(zeta, band, ts float64) float64 {
-	return -math.Log(band*math.Sqrt(1-zeta*zeta)) / ts
+	return -lti.Log(band*math.Sqrt(1-float64(zeta*zeta))) / ts
 }
 
 // NewTarget returns the target for damping ζ in (0, 1) and decay rate σ > 0.
 func NewTarget(zeta, sigma float64) Target {
 	wn := sigma / zeta
-	wd := wn * math.Sqrt(1-zeta*zeta)
+	wd := wn * math.Sqrt(1-float64(zeta*zeta))
 	return Target{Zeta: zeta, OmegaN: wn, Sigma: sigma, Pole: complex(-sigma, wd)}
 }
 

@@ -130,7 +130,7 @@ func stepSystem(den lti.Poly, nums []lti.Poly, h float64) (lti.Disc, [][]float64
 	den = den.Trim()
 	w0 := 1.0
 	if deg := len(den) - 1; deg > 0 && den[0] != 0 {
-		w0 = math.Pow(math.Abs(den[0]/den[deg]), 1/float64(deg))
+		w0 = lti.Pow(math.Abs(den[0]/den[deg]), 1/float64(deg))
 	}
 	scale := func(p lti.Poly) lti.Poly {
 		q := make(lti.Poly, len(p))
@@ -183,7 +183,7 @@ func verify(p airframe.Axis, c Controller, t Target, margins bool) (Verification
 		return v, fmt.Errorf("closed-loop poles: %w", err)
 	}
 	v.Stable = allStable(v.Poles)
-	v.TargetResidual = cmplx.Abs(1 + c.Eval(t.Pole)*p.OpenLoop(t.Pole))
+	v.TargetResidual = lti.Abs(1 + lti.Mul(c.Eval(t.Pole), p.OpenLoop(t.Pole)))
 	v.Zeros = clZeros(p, c)
 	if margins {
 		v.Margins = loopMargins(p, c)
@@ -230,7 +230,7 @@ func loopMargins(p airframe.Axis, c Controller) lti.Margins {
 	lo, hi, n := marginSpan(p, c)
 	return lti.LoopMarginsFalling(func(w float64) complex128 {
 		s := complex(0, w)
-		return c.Eval(s) * p.OpenLoop(s)
+		return lti.Mul(c.Eval(s), p.OpenLoop(s))
 	}, lo, hi, n, fallingAbove(p, c))
 }
 
@@ -252,7 +252,7 @@ func fallingAbove(p airframe.Axis, c Controller) float64 {
 	rmax := 0.0
 	for _, rs := range [][]complex128{p.Plant.Model.Zeros, p.Plant.Model.Poles, p.Sensor.Zeros, p.Sensor.Poles, cz.Zeros, cz.Poles} {
 		for _, r := range rs {
-			rmax = math.Max(rmax, cmplx.Abs(r))
+			rmax = math.Max(rmax, lti.Abs(r))
 		}
 	}
 	if np <= nz || math.IsNaN(rmax) || math.IsInf(rmax, 0) {
@@ -260,7 +260,7 @@ func fallingAbove(p airframe.Axis, c Controller) float64 {
 	}
 	for K := 2.0; K <= 1e4; K *= 1.25 {
 		e := 1 / K
-		up, lo := (1+e)/((1-e)*(1-e)), (1-e)/((1+e)*(1+e)+e*e)
+		up, lo := (1+e)/((1-e)*(1-e)), (1-e)/(float64((1+e)*(1+e))+float64(e*e))
 		if float64(nz)*up <= float64(np)*lo {
 			return K * rmax
 		}
@@ -283,7 +283,7 @@ func marginSpan(p airframe.Axis, c Controller) (lo, hi float64, n int) {
 		lo = math.Min(lo, math.Min(-c.Zero, -c.Pole)/100)
 		hi = math.Max(hi, math.Max(-c.Zero, -c.Pole)*100)
 	}
-	return lo, hi, int(math.Ceil(24*math.Log10(hi/lo))) + 1
+	return lo, hi, int(math.Ceil(24*lti.Log10(hi/lo))) + 1
 }
 
 // DominanceRatio is the usual threshold for treating a pole pair as
@@ -301,7 +301,7 @@ func dominance(poles, zeros []complex128, t Target) (float64, []string) {
 	}
 	best := 0
 	for i, r := range poles {
-		if cmplx.Abs(r-t.Pole) < cmplx.Abs(poles[best]-t.Pole) {
+		if lti.Abs(r-t.Pole) < lti.Abs(poles[best]-t.Pole) {
 			best = i
 		}
 	}
@@ -366,27 +366,27 @@ func loopMag2(p airframe.Axis, c Controller) func(w float64) float64 {
 		num, den := g2, 1.0
 		for _, r := range zs {
 			d := w - imag(r)
-			num *= d*d + real(r)*real(r)
+			num *= float64(d*d) + float64(real(r)*real(r))
 		}
 		for _, r := range ps {
 			d := w - imag(r)
-			den *= d*d + real(r)*real(r)
+			den *= float64(d*d) + float64(real(r)*real(r))
 		}
 		var c2 float64
 		switch c.Form {
 		case airframe.FormLead:
-			c2 = c.K * c.K * (w*w + c.Zero*c.Zero) / (w*w + c.Pole*c.Pole)
+			c2 = c.K * c.K * (float64(w*w) + float64(c.Zero*c.Zero)) / (float64(w*w) + float64(c.Pole*c.Pole))
 		default:
 			re, im := c.Kp, 0.0
 			if c.Form.HasIntegral() {
 				im -= c.Ki / w
 			}
 			if c.Form.HasDerivative() {
-				q := 1 + w*w*c.Tf*c.Tf
+				q := 1 + float64(w*w*c.Tf*c.Tf)
 				re += c.Kd * w * w * c.Tf / q
 				im += c.Kd * w / q
 			}
-			c2 = re*re + im*im
+			c2 = float64(re*re) + float64(im*im)
 		}
 		return c2 * num / den
 	}

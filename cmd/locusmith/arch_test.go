@@ -21,13 +21,17 @@ import (
 // (CGO_ENABLED=0 GOARCH=arm64) once and compares what the two print and
 // write, arm64 under qemu-aarch64 (issue 14, item 10): every number of
 // `design --json` and of the review's SVGs must not depend on the CPU.
-// Go fuses x*y + z on arm64 and not on amd64, gonum's eigenvalue kernels
-// are assembly on amd64 only, and math.Exp, Log and Hypot are assembly
-// on amd64 and Go (or other assembly) elsewhere, so the last bits of the
-// designs' roots differ unless the numerics that feed output forbid
-// fusion and round before formatting. The outside reference is the
-// arm64 machine itself, emulated, and the JSON golden files that
-// TestJSONGolden checks on the host. Skips with -short, and when
+// Go fuses x*y + z on arm64 and not on amd64 (complex products and
+// quotients are such sums too), gonum's BLAS kernels are assembly on
+// amd64 only, and math.Exp, Log and Hypot are assembly on amd64 and Go
+// (or other assembly) elsewhere, so the last bits of the designs differ
+// unless the numerics that feed output round every product before its
+// sum and compute the elementary functions, the matrix exponential and
+// the eigenvalues in Go of their own (internal/lti: portable.go, expm.go,
+// eig.go; golden's TestNoFusedMultiplyAdd finds a fused sum without an
+// emulator). The outside reference is the arm64 machine itself,
+// emulated, and the JSON golden files that TestJSONGolden checks on the
+// host. Skips with -short, and when
 // qemu-aarch64 is missing unless CI=true (.ci/run installs qemu-user, so
 // a CI machine without it is a broken CI machine, not a reason to skip).
 //
@@ -248,15 +252,20 @@ func reportCrossArch(t *testing.T, outs map[string]map[string][]byte) {
 // the arm64 build and requires the same bytes. It runs when
 // LOCUSMITH_CROSSARCH_FLEET sets N (7 covers every slowing of every
 // example from the second variant on): under the emulator it costs
-// about 2 s per airframe, beyond the budget of a default test run. With
-// N = 7 it passes since internal/lti's margins search the crossovers with
-// exp and log of their own (portable.go): with math.Exp and math.Log,
+// about 2.5 s per airframe, beyond the budget of a default test run.
+// With N = 7 it passed once internal/lti's margins searched the
+// crossovers with exp and log of their own: with math.Exp and math.Log,
 // assembly on amd64 only, the continuous delay_margin of v2's pan axis
 // printed 0.08928880795 on amd64 and 0.08928880796 on arm64. With N = 60
-// one figure of 59 airframes still differs in its tenth digit (a phase
-// margin, 42.23598342 against …343): Go fuses the multiply-adds of a
-// complex product on arm64, and the loop's frequency response is made of
-// them.
+// 14 of the 59 airframes still differed in a tenth digit or more (the
+// first a phase margin, 42.23598342 against …343; v13's ki in its ninth,
+// the search having taken another path): Go fused the multiply-adds of
+// the numerics on arm64, complex products and quotients among them, and
+// the standard library's elementary functions and gonum's matrix
+// exponential and eigenvalues differed in their last bits. The numerics
+// now round every product and compute those with lti's own (portable.go,
+// expm.go, eig.go), to amd64's bits: N = 60 passes (150 s for the fleet),
+// N = 100 (300 s on a busy 2-core machine) and N = 200 (660 s).
 func fleetCrossArch(t *testing.T, dir string, host, arm crossBin) {
 	n, _ := strconv.Atoi(os.Getenv("LOCUSMITH_CROSSARCH_FLEET"))
 	if n < 2 {

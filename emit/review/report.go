@@ -17,13 +17,15 @@ import (
 
 // SignificantDigits is the precision of every number in the JSON report.
 //
-// The design is computed in float64, and the last bits of a result can
-// differ between CPU architectures (Go may fuse x*y+z into one FMA
-// instruction on arm64 and not on amd64) and between Go releases. Ten
+// The design is computed in float64, to the same bits on amd64 and arm64
+// (internal/lti's portable arithmetic: no fused multiply-add, elementary
+// functions, matrix exponential and eigenvalues of its own), but the last
+// bits of a result can differ between Go releases and compilers. Ten
 // significant digits are far more than any figure in the report means (a
 // settling time is resolved to 0.5 % of the spec) and far fewer than the 15–17
-// of a float64, so the report reads the same on every machine except when a
-// value falls within a few units of the 17th digit of a rounding boundary.
+// of a float64, so the report reads the same after such a change except
+// when a value falls within a few units of the 17th digit of a rounding
+// boundary.
 const SignificantDigits = 10
 
 // JSONReport is the report of `locusmith design --json` (README, "The JSON

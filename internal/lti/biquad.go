@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"math/cmplx"
 )
 
 // Biquad is a discrete second-order section in the form firmware runs it,
@@ -20,16 +19,16 @@ type Biquad struct {
 
 // Eval returns H(z).
 func (q Biquad) Eval(z complex128) complex128 {
-	zi := 1 / z
-	num := complex(q.B0, 0) + zi*(complex(q.B1, 0)+zi*complex(q.B2, 0))
-	den := 1 + zi*(complex(q.A1, 0)+zi*complex(q.A2, 0))
+	zi := Div(1, z)
+	num := complex(q.B0, 0) + Mul(zi, complex(q.B1, 0)+Mul(zi, complex(q.B2, 0)))
+	den := 1 + Mul(zi, complex(q.A1, 0)+Mul(zi, complex(q.A2, 0)))
 	return cdiv(num, den)
 }
 
 // At returns the frequency response at hz for the sample rate fs:
 // H(e^{jωT}) with ω = 2π·hz and T = 1/fs.
 func (q Biquad) At(hz, fs float64) complex128 {
-	return q.Eval(cmplx.Exp(complex(0, 2*math.Pi*hz/fs)))
+	return q.Eval(Cis(2 * math.Pi * hz / fs))
 }
 
 // DC returns H(1), the gain at zero frequency.
@@ -61,7 +60,7 @@ func prewarp(hz, fs float64) (float64, error) {
 	if !(hz > 0 && hz < fs/2) {
 		return 0, fmt.Errorf("%w: frequency %g Hz must be in (0, %g) Hz, below the Nyquist frequency", ErrFilter, hz, fs/2)
 	}
-	return math.Tan(math.Pi * hz / fs), nil
+	return Tan(math.Pi * hz / fs), nil
 }
 
 // Lowpass1 is the first-order lowpass 1/(s/ω + 1) with its cutoff at hz,
@@ -93,12 +92,11 @@ func Lowpass2(hz, zeta, fs float64) (Biquad, error) {
 	if !(zeta > 0) || math.IsInf(zeta, 0) {
 		return Biquad{}, fmt.Errorf("%w: damping %g must be positive and finite", ErrFilter, zeta)
 	}
-	w2 := w * w
-	zw := float64(2 * zeta * w) // converted: no fused multiply-add (see Notch)
-	a0 := 1 + zw + w2
+	w2 := float64(w * w)
+	a0 := 1 + float64(2*zeta*w) + w2
 	return Biquad{
 		B0: w2 / a0, B1: 2 * w2 / a0, B2: w2 / a0,
-		A1: 2 * (w2 - 1) / a0, A2: (1 - zw + w2) / a0,
+		A1: 2 * (w2 - 1) / a0, A2: (1 - float64(2*zeta*w) + w2) / a0,
 	}, nil
 }
 
@@ -120,7 +118,7 @@ func NotchDamping(hz, widthHz, fs float64) (float64, error) {
 	if !(widthHz > 0) || widthHz >= fs/2 {
 		return 0, fmt.Errorf("%w: notch width %g Hz must be in (0, %g) Hz", ErrFilter, widthHz, fs/2)
 	}
-	return math.Tan(math.Pi*widthHz/fs) / math.Sin(2*math.Pi*hz/fs), nil
+	return Tan(math.Pi*widthHz/fs) / Sin(2*math.Pi*hz/fs), nil
 }
 
 // Notch is the notch (s² + 2ζz·ω·s + ω²)/(s² + 2ζp·ω·s + ω²) centred at
@@ -146,18 +144,14 @@ func Notch(hz, widthHz, depthDB, fs float64) (Biquad, error) {
 	}
 	zz := 0.0
 	if !math.IsInf(depthDB, 1) {
-		zz = zp * math.Pow(10, -depthDB/20)
+		zz = zp * Pow(10, -depthDB/20)
 	}
 	w, _ := prewarp(hz, fs)
-	w2 := w * w
-	// Each product converted on its own, so that no compiler fuses it
-	// with the sum (a multiply-add on arm64 would change the last bits
-	// of the coefficients, which the generated code carries).
-	pw, zw := float64(2*zp*w), float64(2*zz*w)
-	a0 := 1 + pw + w2
+	w2 := float64(w * w)
+	a0 := 1 + float64(2*zp*w) + w2
 	return Biquad{
-		B0: (1 + zw + w2) / a0, B1: 2 * (w2 - 1) / a0, B2: (1 - zw + w2) / a0,
-		A1: 2 * (w2 - 1) / a0, A2: (1 - pw + w2) / a0,
+		B0: (1 + float64(2*zz*w) + w2) / a0, B1: 2 * (w2 - 1) / a0, B2: (1 - float64(2*zz*w) + w2) / a0,
+		A1: 2 * (w2 - 1) / a0, A2: (1 - float64(2*zp*w) + w2) / a0,
 	}, nil
 }
 
@@ -196,7 +190,7 @@ func NotchZPK(hz, widthHz, depthDB float64) (ZPK, error) {
 	zp := widthHz / (2 * hz)
 	zz := 0.0
 	if !math.IsInf(depthDB, 1) {
-		zz = zp * math.Pow(10, -depthDB/20)
+		zz = zp * Pow(10, -depthDB/20)
 	}
 	return ZPK{Gain: 1, Zeros: pair(w, zz), Poles: pair(w, zp)}, nil
 }
@@ -204,9 +198,9 @@ func NotchZPK(hz, widthHz, depthDB float64) (ZPK, error) {
 // pair returns the roots of s² + 2ζω·s + ω² (ω > 0, ζ ≥ 0).
 func pair(w, zeta float64) []complex128 {
 	if zeta >= 1 {
-		r := w * math.Sqrt(zeta*zeta-1)
-		return []complex128{complex(-zeta*w-r, 0), complex(-zeta*w+r, 0)}
+		r := float64(w * math.Sqrt(float64(zeta*zeta)-1))
+		return []complex128{complex(float64(-zeta*w)-r, 0), complex(float64(-zeta*w)+r, 0)}
 	}
-	im := w * math.Sqrt(1-zeta*zeta)
+	im := w * math.Sqrt(1-float64(zeta*zeta))
 	return []complex128{complex(-zeta*w, im), complex(-zeta*w, -im)}
 }

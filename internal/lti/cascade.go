@@ -58,7 +58,9 @@ func (z ZPK) CascadeSS() (SS, error) {
 	}
 	var secs []section
 	quad := func(a, b float64) Poly { return Poly{a * b, -(a + b), 1} }
-	pairPoly := func(r complex128) Poly { return Poly{real(r)*real(r) + imag(r)*imag(r), -2 * real(r), 1} }
+	pairPoly := func(r complex128) Poly {
+		return Poly{float64(real(r)*real(r)) + float64(imag(r)*imag(r)), -2 * real(r), 1}
+	}
 	for _, p := range pp {
 		s := section{den: pairPoly(p), num: Poly{1}, pair: p, isPair: true}
 		if len(zp) > 0 {
@@ -111,20 +113,20 @@ func (z ZPK) CascadeSS() (SS, error) {
 			p := -s.den[0]
 			n := make(Poly, 2)
 			copy(n, num)
-			sec = SS{N: 1, A: []float64{p}, B: []float64{1}, C: []float64{n[0] + n[1]*p}, D: n[1]}
+			sec = SS{N: 1, A: []float64{p}, B: []float64{1}, C: []float64{n[0] + float64(n[1]*p)}, D: n[1]}
 		case 3:
 			n := make(Poly, 3)
 			copy(n, num)
 			d := n[2]
-			r0, r1 := n[0]-d*s.den[0], n[1]-d*s.den[1] // remainder r1·s + r0 over the quadratic
+			r0, r1 := n[0]-float64(d*s.den[0]), n[1]-float64(d*s.den[1]) // remainder r1·s + r0 over the quadratic
 			if s.isPair {
 				sg, w := real(s.pair), imag(s.pair)
 				// C (sI − A)⁻¹ B = (c1·ω + c2·(s − σ))/Δ with B = [0, 1].
-				sec = SS{N: 2, A: []float64{sg, w, -w, sg}, B: []float64{0, 1}, C: []float64{(r0 + r1*sg) / w, r1}, D: d}
+				sec = SS{N: 2, A: []float64{sg, w, -w, sg}, B: []float64{0, 1}, C: []float64{(r0 + float64(r1*sg)) / w, r1}, D: d}
 			} else {
 				p1, p2 := s.reals[0], s.reals[1]
 				// x1' = p1·x1 + u, x2' = p2·x2 + x1: to x1 (s − p2)/Δ, to x2 1/Δ.
-				sec = SS{N: 2, A: []float64{p1, 0, 1, p2}, B: []float64{1, 0}, C: []float64{r1, r0 + r1*p2}, D: d}
+				sec = SS{N: 2, A: []float64{p1, 0, 1, p2}, B: []float64{1, 0}, C: []float64{r1, r0 + float64(r1*p2)}, D: d}
 			}
 		}
 		out = Series(out, sec)

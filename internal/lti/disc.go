@@ -3,8 +3,6 @@ package lti
 import (
 	"math"
 	"math/cmplx"
-
-	"gonum.org/v1/gonum/mat"
 )
 
 //go:generate go run locusmith/internal/lti/internal/kernelgen/gen
@@ -83,14 +81,14 @@ func simGeneric(n int, A, B, C []float64, D float64, y, u []float64) {
 	for k, uk := range u {
 		var acc float64
 		for i, c := range C {
-			acc += c * x[i]
+			acc += float64(c * x[i])
 		}
-		y[k] = acc + D*uk
+		y[k] = acc + float64(D*uk)
 		for i := 0; i < n; i++ {
 			row := A[i*n : i*n+n]
-			s := B[i] * uk
+			s := float64(B[i] * uk)
 			for j, a := range row {
-				s += a * x[j]
+				s += float64(a * x[j])
 			}
 			xn[i] = s
 		}
@@ -139,14 +137,14 @@ func stepGeneric(n int, A, B, C []float64, D float64, y []float64) {
 	for k := range y {
 		acc := D
 		for i, c := range C {
-			acc += c * x[i]
+			acc += float64(c * x[i])
 		}
 		y[k] = acc
 		for i := 0; i < n; i++ {
 			row := A[i*n : i*n+n]
 			s := B[i]
 			for j, a := range row {
-				s += a * x[j]
+				s += float64(a * x[j])
 			}
 			xn[i] = s
 		}
@@ -170,7 +168,7 @@ func (d Disc) Poles() ([]complex128, error) {
 	if d.N == 0 {
 		return []complex128{}, nil
 	}
-	ev, err := eigvals(mat.NewDense(d.N, d.N, append([]float64(nil), d.A...)))
+	ev, err := eigvals(d.N, d.A)
 	if err != nil {
 		return nil, err
 	}
@@ -224,15 +222,15 @@ func resolvent(n int, a, b, c []float64, dd float64, z complex128) complex128 {
 		}
 		// One division per pivot; the rows are eliminated and the
 		// unknowns solved with its reciprocal.
-		inv := 1 / m[col*w+col]
+		inv := Div(1, m[col*w+col])
 		m[col*w+col] = inv
 		for r := col + 1; r < n; r++ {
-			f := m[r*w+col] * inv
+			f := Mul(m[r*w+col], inv)
 			if f == 0 {
 				continue
 			}
 			for j := col + 1; j < w; j++ {
-				m[r*w+j] -= f * m[col*w+j]
+				m[r*w+j] -= Mul(f, m[col*w+j])
 			}
 		}
 	}
@@ -240,10 +238,10 @@ func resolvent(n int, a, b, c []float64, dd float64, z complex128) complex128 {
 	for i := n - 1; i >= 0; i-- {
 		s := m[i*w+n]
 		for j := i + 1; j < n; j++ {
-			s -= m[i*w+j] * v[j]
+			s -= Mul(m[i*w+j], v[j])
 		}
-		v[i] = s * m[i*w+i]
-		acc += complex(c[i], 0) * v[i]
+		v[i] = Mul(s, m[i*w+i])
+		acc += Mul(complex(c[i], 0), v[i])
 	}
 	return acc + complex(dd, 0)
 }
@@ -317,14 +315,14 @@ func (s *StepPair) Run(y0, y1 []float64) {
 	for k := range y0 {
 		v0, v1 := s.d0, s.d1
 		for i, xi := range x[:n] {
-			v0 += c0[i] * xi
-			v1 += c1[i] * xi
+			v0 += float64(c0[i] * xi)
+			v1 += float64(c1[i] * xi)
 		}
 		y0[k], y1[k] = v0, v1
 		for i := range n {
 			acc := b[i]
 			for j, aij := range a[i*n : i*n+n] {
-				acc += aij * x[j]
+				acc += float64(aij * x[j])
 			}
 			xn[i] = acc
 		}

@@ -9,6 +9,13 @@
 // NaN/Inf coefficients, zero periods) never panics: functions that can fail
 // return an error, the others return NaN.
 //
+// Every result has the same bits on every CPU, so that the designs built on
+// them print the same on amd64 and arm64: no product is fused with a sum
+// into a multiply-add, and complex products and quotients, the elementary
+// functions, the matrix exponential and the eigenvalues are the package's
+// own (portable.go, expm.go, eig.go), with the bits the standard library
+// and gonum give on amd64. Packages computing figures use them too.
+//
 // Conventions
 //
 //   - Poly holds ascending powers: p[i] multiplies s^i.

@@ -8,8 +8,8 @@ func step1(A, B, C []float64, D float64, y []float64) {
 	b0 := B[0]
 	c0 := C[0]
 	for k := range y {
-		y[k] = D + c0*x0
-		n0 := b0 + A[0]*x0
+		y[k] = D + float64(c0*x0)
+		n0 := b0 + float64(A[0]*x0)
 		x0 = n0
 	}
 }
@@ -22,8 +22,8 @@ func sim1(A, B, C []float64, D float64, y, u []float64) {
 	c0 := C[0]
 	for k := range y {
 		uk := u[k]
-		y[k] = c0*x0 + D*uk
-		n0 := b0*uk + A[0]*x0
+		y[k] = float64(c0*x0) + float64(D*uk)
+		n0 := float64(b0*uk) + float64(A[0]*x0)
 		x0 = n0
 	}
 }
@@ -34,9 +34,9 @@ func step2(A, B, C []float64, D float64, y []float64) {
 	b0, b1 := B[0], B[1]
 	c0, c1 := C[0], C[1]
 	for k := range y {
-		y[k] = D + c0*x0 + c1*x1
-		n0 := b0 + A[0]*x0 + A[1]*x1
-		n1 := b1 + A[2]*x0 + A[3]*x1
+		y[k] = D + float64(c0*x0) + float64(c1*x1)
+		n0 := b0 + float64(A[0]*x0) + float64(A[1]*x1)
+		n1 := b1 + float64(A[2]*x0) + float64(A[3]*x1)
 		x0, x1 = n0, n1
 	}
 }
@@ -49,9 +49,9 @@ func sim2(A, B, C []float64, D float64, y, u []float64) {
 	c0, c1 := C[0], C[1]
 	for k := range y {
 		uk := u[k]
-		y[k] = c0*x0 + c1*x1 + D*uk
-		n0 := b0*uk + A[0]*x0 + A[1]*x1
-		n1 := b1*uk + A[2]*x0 + A[3]*x1
+		y[k] = float64(c0*x0) + float64(c1*x1) + float64(D*uk)
+		n0 := float64(b0*uk) + float64(A[0]*x0) + float64(A[1]*x1)
+		n1 := float64(b1*uk) + float64(A[2]*x0) + float64(A[3]*x1)
 		x0, x1 = n0, n1
 	}
 }
@@ -62,10 +62,10 @@ func step3(A, B, C []float64, D float64, y []float64) {
 	b0, b1, b2 := B[0], B[1], B[2]
 	c0, c1, c2 := C[0], C[1], C[2]
 	for k := range y {
-		y[k] = D + c0*x0 + c1*x1 + c2*x2
-		n0 := b0 + A[0]*x0 + A[1]*x1 + A[2]*x2
-		n1 := b1 + A[3]*x0 + A[4]*x1 + A[5]*x2
-		n2 := b2 + A[6]*x0 + A[7]*x1 + A[8]*x2
+		y[k] = D + float64(c0*x0) + float64(c1*x1) + float64(c2*x2)
+		n0 := b0 + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2)
+		n1 := b1 + float64(A[3]*x0) + float64(A[4]*x1) + float64(A[5]*x2)
+		n2 := b2 + float64(A[6]*x0) + float64(A[7]*x1) + float64(A[8]*x2)
 		x0, x1, x2 = n0, n1, n2
 	}
 }
@@ -78,10 +78,10 @@ func sim3(A, B, C []float64, D float64, y, u []float64) {
 	c0, c1, c2 := C[0], C[1], C[2]
 	for k := range y {
 		uk := u[k]
-		y[k] = c0*x0 + c1*x1 + c2*x2 + D*uk
-		n0 := b0*uk + A[0]*x0 + A[1]*x1 + A[2]*x2
-		n1 := b1*uk + A[3]*x0 + A[4]*x1 + A[5]*x2
-		n2 := b2*uk + A[6]*x0 + A[7]*x1 + A[8]*x2
+		y[k] = float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(D*uk)
+		n0 := float64(b0*uk) + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2)
+		n1 := float64(b1*uk) + float64(A[3]*x0) + float64(A[4]*x1) + float64(A[5]*x2)
+		n2 := float64(b2*uk) + float64(A[6]*x0) + float64(A[7]*x1) + float64(A[8]*x2)
 		x0, x1, x2 = n0, n1, n2
 	}
 }
@@ -92,11 +92,11 @@ func step4(A, B, C []float64, D float64, y []float64) {
 	b0, b1, b2, b3 := B[0], B[1], B[2], B[3]
 	c0, c1, c2, c3 := C[0], C[1], C[2], C[3]
 	for k := range y {
-		y[k] = D + c0*x0 + c1*x1 + c2*x2 + c3*x3
-		n0 := b0 + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3
-		n1 := b1 + A[4]*x0 + A[5]*x1 + A[6]*x2 + A[7]*x3
-		n2 := b2 + A[8]*x0 + A[9]*x1 + A[10]*x2 + A[11]*x3
-		n3 := b3 + A[12]*x0 + A[13]*x1 + A[14]*x2 + A[15]*x3
+		y[k] = D + float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3)
+		n0 := b0 + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3)
+		n1 := b1 + float64(A[4]*x0) + float64(A[5]*x1) + float64(A[6]*x2) + float64(A[7]*x3)
+		n2 := b2 + float64(A[8]*x0) + float64(A[9]*x1) + float64(A[10]*x2) + float64(A[11]*x3)
+		n3 := b3 + float64(A[12]*x0) + float64(A[13]*x1) + float64(A[14]*x2) + float64(A[15]*x3)
 		x0, x1, x2, x3 = n0, n1, n2, n3
 	}
 }
@@ -109,11 +109,11 @@ func sim4(A, B, C []float64, D float64, y, u []float64) {
 	c0, c1, c2, c3 := C[0], C[1], C[2], C[3]
 	for k := range y {
 		uk := u[k]
-		y[k] = c0*x0 + c1*x1 + c2*x2 + c3*x3 + D*uk
-		n0 := b0*uk + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3
-		n1 := b1*uk + A[4]*x0 + A[5]*x1 + A[6]*x2 + A[7]*x3
-		n2 := b2*uk + A[8]*x0 + A[9]*x1 + A[10]*x2 + A[11]*x3
-		n3 := b3*uk + A[12]*x0 + A[13]*x1 + A[14]*x2 + A[15]*x3
+		y[k] = float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(D*uk)
+		n0 := float64(b0*uk) + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3)
+		n1 := float64(b1*uk) + float64(A[4]*x0) + float64(A[5]*x1) + float64(A[6]*x2) + float64(A[7]*x3)
+		n2 := float64(b2*uk) + float64(A[8]*x0) + float64(A[9]*x1) + float64(A[10]*x2) + float64(A[11]*x3)
+		n3 := float64(b3*uk) + float64(A[12]*x0) + float64(A[13]*x1) + float64(A[14]*x2) + float64(A[15]*x3)
 		x0, x1, x2, x3 = n0, n1, n2, n3
 	}
 }
@@ -124,12 +124,12 @@ func step5(A, B, C []float64, D float64, y []float64) {
 	b0, b1, b2, b3, b4 := B[0], B[1], B[2], B[3], B[4]
 	c0, c1, c2, c3, c4 := C[0], C[1], C[2], C[3], C[4]
 	for k := range y {
-		y[k] = D + c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4
-		n0 := b0 + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4
-		n1 := b1 + A[5]*x0 + A[6]*x1 + A[7]*x2 + A[8]*x3 + A[9]*x4
-		n2 := b2 + A[10]*x0 + A[11]*x1 + A[12]*x2 + A[13]*x3 + A[14]*x4
-		n3 := b3 + A[15]*x0 + A[16]*x1 + A[17]*x2 + A[18]*x3 + A[19]*x4
-		n4 := b4 + A[20]*x0 + A[21]*x1 + A[22]*x2 + A[23]*x3 + A[24]*x4
+		y[k] = D + float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4)
+		n0 := b0 + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4)
+		n1 := b1 + float64(A[5]*x0) + float64(A[6]*x1) + float64(A[7]*x2) + float64(A[8]*x3) + float64(A[9]*x4)
+		n2 := b2 + float64(A[10]*x0) + float64(A[11]*x1) + float64(A[12]*x2) + float64(A[13]*x3) + float64(A[14]*x4)
+		n3 := b3 + float64(A[15]*x0) + float64(A[16]*x1) + float64(A[17]*x2) + float64(A[18]*x3) + float64(A[19]*x4)
+		n4 := b4 + float64(A[20]*x0) + float64(A[21]*x1) + float64(A[22]*x2) + float64(A[23]*x3) + float64(A[24]*x4)
 		x0, x1, x2, x3, x4 = n0, n1, n2, n3, n4
 	}
 }
@@ -142,12 +142,12 @@ func sim5(A, B, C []float64, D float64, y, u []float64) {
 	c0, c1, c2, c3, c4 := C[0], C[1], C[2], C[3], C[4]
 	for k := range y {
 		uk := u[k]
-		y[k] = c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4 + D*uk
-		n0 := b0*uk + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4
-		n1 := b1*uk + A[5]*x0 + A[6]*x1 + A[7]*x2 + A[8]*x3 + A[9]*x4
-		n2 := b2*uk + A[10]*x0 + A[11]*x1 + A[12]*x2 + A[13]*x3 + A[14]*x4
-		n3 := b3*uk + A[15]*x0 + A[16]*x1 + A[17]*x2 + A[18]*x3 + A[19]*x4
-		n4 := b4*uk + A[20]*x0 + A[21]*x1 + A[22]*x2 + A[23]*x3 + A[24]*x4
+		y[k] = float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4) + float64(D*uk)
+		n0 := float64(b0*uk) + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4)
+		n1 := float64(b1*uk) + float64(A[5]*x0) + float64(A[6]*x1) + float64(A[7]*x2) + float64(A[8]*x3) + float64(A[9]*x4)
+		n2 := float64(b2*uk) + float64(A[10]*x0) + float64(A[11]*x1) + float64(A[12]*x2) + float64(A[13]*x3) + float64(A[14]*x4)
+		n3 := float64(b3*uk) + float64(A[15]*x0) + float64(A[16]*x1) + float64(A[17]*x2) + float64(A[18]*x3) + float64(A[19]*x4)
+		n4 := float64(b4*uk) + float64(A[20]*x0) + float64(A[21]*x1) + float64(A[22]*x2) + float64(A[23]*x3) + float64(A[24]*x4)
 		x0, x1, x2, x3, x4 = n0, n1, n2, n3, n4
 	}
 }
@@ -158,13 +158,13 @@ func step6(A, B, C []float64, D float64, y []float64) {
 	b0, b1, b2, b3, b4, b5 := B[0], B[1], B[2], B[3], B[4], B[5]
 	c0, c1, c2, c3, c4, c5 := C[0], C[1], C[2], C[3], C[4], C[5]
 	for k := range y {
-		y[k] = D + c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4 + c5*x5
-		n0 := b0 + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4 + A[5]*x5
-		n1 := b1 + A[6]*x0 + A[7]*x1 + A[8]*x2 + A[9]*x3 + A[10]*x4 + A[11]*x5
-		n2 := b2 + A[12]*x0 + A[13]*x1 + A[14]*x2 + A[15]*x3 + A[16]*x4 + A[17]*x5
-		n3 := b3 + A[18]*x0 + A[19]*x1 + A[20]*x2 + A[21]*x3 + A[22]*x4 + A[23]*x5
-		n4 := b4 + A[24]*x0 + A[25]*x1 + A[26]*x2 + A[27]*x3 + A[28]*x4 + A[29]*x5
-		n5 := b5 + A[30]*x0 + A[31]*x1 + A[32]*x2 + A[33]*x3 + A[34]*x4 + A[35]*x5
+		y[k] = D + float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4) + float64(c5*x5)
+		n0 := b0 + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4) + float64(A[5]*x5)
+		n1 := b1 + float64(A[6]*x0) + float64(A[7]*x1) + float64(A[8]*x2) + float64(A[9]*x3) + float64(A[10]*x4) + float64(A[11]*x5)
+		n2 := b2 + float64(A[12]*x0) + float64(A[13]*x1) + float64(A[14]*x2) + float64(A[15]*x3) + float64(A[16]*x4) + float64(A[17]*x5)
+		n3 := b3 + float64(A[18]*x0) + float64(A[19]*x1) + float64(A[20]*x2) + float64(A[21]*x3) + float64(A[22]*x4) + float64(A[23]*x5)
+		n4 := b4 + float64(A[24]*x0) + float64(A[25]*x1) + float64(A[26]*x2) + float64(A[27]*x3) + float64(A[28]*x4) + float64(A[29]*x5)
+		n5 := b5 + float64(A[30]*x0) + float64(A[31]*x1) + float64(A[32]*x2) + float64(A[33]*x3) + float64(A[34]*x4) + float64(A[35]*x5)
 		x0, x1, x2, x3, x4, x5 = n0, n1, n2, n3, n4, n5
 	}
 }
@@ -177,13 +177,13 @@ func sim6(A, B, C []float64, D float64, y, u []float64) {
 	c0, c1, c2, c3, c4, c5 := C[0], C[1], C[2], C[3], C[4], C[5]
 	for k := range y {
 		uk := u[k]
-		y[k] = c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4 + c5*x5 + D*uk
-		n0 := b0*uk + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4 + A[5]*x5
-		n1 := b1*uk + A[6]*x0 + A[7]*x1 + A[8]*x2 + A[9]*x3 + A[10]*x4 + A[11]*x5
-		n2 := b2*uk + A[12]*x0 + A[13]*x1 + A[14]*x2 + A[15]*x3 + A[16]*x4 + A[17]*x5
-		n3 := b3*uk + A[18]*x0 + A[19]*x1 + A[20]*x2 + A[21]*x3 + A[22]*x4 + A[23]*x5
-		n4 := b4*uk + A[24]*x0 + A[25]*x1 + A[26]*x2 + A[27]*x3 + A[28]*x4 + A[29]*x5
-		n5 := b5*uk + A[30]*x0 + A[31]*x1 + A[32]*x2 + A[33]*x3 + A[34]*x4 + A[35]*x5
+		y[k] = float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4) + float64(c5*x5) + float64(D*uk)
+		n0 := float64(b0*uk) + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4) + float64(A[5]*x5)
+		n1 := float64(b1*uk) + float64(A[6]*x0) + float64(A[7]*x1) + float64(A[8]*x2) + float64(A[9]*x3) + float64(A[10]*x4) + float64(A[11]*x5)
+		n2 := float64(b2*uk) + float64(A[12]*x0) + float64(A[13]*x1) + float64(A[14]*x2) + float64(A[15]*x3) + float64(A[16]*x4) + float64(A[17]*x5)
+		n3 := float64(b3*uk) + float64(A[18]*x0) + float64(A[19]*x1) + float64(A[20]*x2) + float64(A[21]*x3) + float64(A[22]*x4) + float64(A[23]*x5)
+		n4 := float64(b4*uk) + float64(A[24]*x0) + float64(A[25]*x1) + float64(A[26]*x2) + float64(A[27]*x3) + float64(A[28]*x4) + float64(A[29]*x5)
+		n5 := float64(b5*uk) + float64(A[30]*x0) + float64(A[31]*x1) + float64(A[32]*x2) + float64(A[33]*x3) + float64(A[34]*x4) + float64(A[35]*x5)
 		x0, x1, x2, x3, x4, x5 = n0, n1, n2, n3, n4, n5
 	}
 }
@@ -194,14 +194,14 @@ func step7(A, B, C []float64, D float64, y []float64) {
 	b0, b1, b2, b3, b4, b5, b6 := B[0], B[1], B[2], B[3], B[4], B[5], B[6]
 	c0, c1, c2, c3, c4, c5, c6 := C[0], C[1], C[2], C[3], C[4], C[5], C[6]
 	for k := range y {
-		y[k] = D + c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4 + c5*x5 + c6*x6
-		n0 := b0 + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4 + A[5]*x5 + A[6]*x6
-		n1 := b1 + A[7]*x0 + A[8]*x1 + A[9]*x2 + A[10]*x3 + A[11]*x4 + A[12]*x5 + A[13]*x6
-		n2 := b2 + A[14]*x0 + A[15]*x1 + A[16]*x2 + A[17]*x3 + A[18]*x4 + A[19]*x5 + A[20]*x6
-		n3 := b3 + A[21]*x0 + A[22]*x1 + A[23]*x2 + A[24]*x3 + A[25]*x4 + A[26]*x5 + A[27]*x6
-		n4 := b4 + A[28]*x0 + A[29]*x1 + A[30]*x2 + A[31]*x3 + A[32]*x4 + A[33]*x5 + A[34]*x6
-		n5 := b5 + A[35]*x0 + A[36]*x1 + A[37]*x2 + A[38]*x3 + A[39]*x4 + A[40]*x5 + A[41]*x6
-		n6 := b6 + A[42]*x0 + A[43]*x1 + A[44]*x2 + A[45]*x3 + A[46]*x4 + A[47]*x5 + A[48]*x6
+		y[k] = D + float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4) + float64(c5*x5) + float64(c6*x6)
+		n0 := b0 + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4) + float64(A[5]*x5) + float64(A[6]*x6)
+		n1 := b1 + float64(A[7]*x0) + float64(A[8]*x1) + float64(A[9]*x2) + float64(A[10]*x3) + float64(A[11]*x4) + float64(A[12]*x5) + float64(A[13]*x6)
+		n2 := b2 + float64(A[14]*x0) + float64(A[15]*x1) + float64(A[16]*x2) + float64(A[17]*x3) + float64(A[18]*x4) + float64(A[19]*x5) + float64(A[20]*x6)
+		n3 := b3 + float64(A[21]*x0) + float64(A[22]*x1) + float64(A[23]*x2) + float64(A[24]*x3) + float64(A[25]*x4) + float64(A[26]*x5) + float64(A[27]*x6)
+		n4 := b4 + float64(A[28]*x0) + float64(A[29]*x1) + float64(A[30]*x2) + float64(A[31]*x3) + float64(A[32]*x4) + float64(A[33]*x5) + float64(A[34]*x6)
+		n5 := b5 + float64(A[35]*x0) + float64(A[36]*x1) + float64(A[37]*x2) + float64(A[38]*x3) + float64(A[39]*x4) + float64(A[40]*x5) + float64(A[41]*x6)
+		n6 := b6 + float64(A[42]*x0) + float64(A[43]*x1) + float64(A[44]*x2) + float64(A[45]*x3) + float64(A[46]*x4) + float64(A[47]*x5) + float64(A[48]*x6)
 		x0, x1, x2, x3, x4, x5, x6 = n0, n1, n2, n3, n4, n5, n6
 	}
 }
@@ -214,14 +214,14 @@ func sim7(A, B, C []float64, D float64, y, u []float64) {
 	c0, c1, c2, c3, c4, c5, c6 := C[0], C[1], C[2], C[3], C[4], C[5], C[6]
 	for k := range y {
 		uk := u[k]
-		y[k] = c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4 + c5*x5 + c6*x6 + D*uk
-		n0 := b0*uk + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4 + A[5]*x5 + A[6]*x6
-		n1 := b1*uk + A[7]*x0 + A[8]*x1 + A[9]*x2 + A[10]*x3 + A[11]*x4 + A[12]*x5 + A[13]*x6
-		n2 := b2*uk + A[14]*x0 + A[15]*x1 + A[16]*x2 + A[17]*x3 + A[18]*x4 + A[19]*x5 + A[20]*x6
-		n3 := b3*uk + A[21]*x0 + A[22]*x1 + A[23]*x2 + A[24]*x3 + A[25]*x4 + A[26]*x5 + A[27]*x6
-		n4 := b4*uk + A[28]*x0 + A[29]*x1 + A[30]*x2 + A[31]*x3 + A[32]*x4 + A[33]*x5 + A[34]*x6
-		n5 := b5*uk + A[35]*x0 + A[36]*x1 + A[37]*x2 + A[38]*x3 + A[39]*x4 + A[40]*x5 + A[41]*x6
-		n6 := b6*uk + A[42]*x0 + A[43]*x1 + A[44]*x2 + A[45]*x3 + A[46]*x4 + A[47]*x5 + A[48]*x6
+		y[k] = float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4) + float64(c5*x5) + float64(c6*x6) + float64(D*uk)
+		n0 := float64(b0*uk) + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4) + float64(A[5]*x5) + float64(A[6]*x6)
+		n1 := float64(b1*uk) + float64(A[7]*x0) + float64(A[8]*x1) + float64(A[9]*x2) + float64(A[10]*x3) + float64(A[11]*x4) + float64(A[12]*x5) + float64(A[13]*x6)
+		n2 := float64(b2*uk) + float64(A[14]*x0) + float64(A[15]*x1) + float64(A[16]*x2) + float64(A[17]*x3) + float64(A[18]*x4) + float64(A[19]*x5) + float64(A[20]*x6)
+		n3 := float64(b3*uk) + float64(A[21]*x0) + float64(A[22]*x1) + float64(A[23]*x2) + float64(A[24]*x3) + float64(A[25]*x4) + float64(A[26]*x5) + float64(A[27]*x6)
+		n4 := float64(b4*uk) + float64(A[28]*x0) + float64(A[29]*x1) + float64(A[30]*x2) + float64(A[31]*x3) + float64(A[32]*x4) + float64(A[33]*x5) + float64(A[34]*x6)
+		n5 := float64(b5*uk) + float64(A[35]*x0) + float64(A[36]*x1) + float64(A[37]*x2) + float64(A[38]*x3) + float64(A[39]*x4) + float64(A[40]*x5) + float64(A[41]*x6)
+		n6 := float64(b6*uk) + float64(A[42]*x0) + float64(A[43]*x1) + float64(A[44]*x2) + float64(A[45]*x3) + float64(A[46]*x4) + float64(A[47]*x5) + float64(A[48]*x6)
 		x0, x1, x2, x3, x4, x5, x6 = n0, n1, n2, n3, n4, n5, n6
 	}
 }
@@ -232,15 +232,15 @@ func step8(A, B, C []float64, D float64, y []float64) {
 	b0, b1, b2, b3, b4, b5, b6, b7 := B[0], B[1], B[2], B[3], B[4], B[5], B[6], B[7]
 	c0, c1, c2, c3, c4, c5, c6, c7 := C[0], C[1], C[2], C[3], C[4], C[5], C[6], C[7]
 	for k := range y {
-		y[k] = D + c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4 + c5*x5 + c6*x6 + c7*x7
-		n0 := b0 + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4 + A[5]*x5 + A[6]*x6 + A[7]*x7
-		n1 := b1 + A[8]*x0 + A[9]*x1 + A[10]*x2 + A[11]*x3 + A[12]*x4 + A[13]*x5 + A[14]*x6 + A[15]*x7
-		n2 := b2 + A[16]*x0 + A[17]*x1 + A[18]*x2 + A[19]*x3 + A[20]*x4 + A[21]*x5 + A[22]*x6 + A[23]*x7
-		n3 := b3 + A[24]*x0 + A[25]*x1 + A[26]*x2 + A[27]*x3 + A[28]*x4 + A[29]*x5 + A[30]*x6 + A[31]*x7
-		n4 := b4 + A[32]*x0 + A[33]*x1 + A[34]*x2 + A[35]*x3 + A[36]*x4 + A[37]*x5 + A[38]*x6 + A[39]*x7
-		n5 := b5 + A[40]*x0 + A[41]*x1 + A[42]*x2 + A[43]*x3 + A[44]*x4 + A[45]*x5 + A[46]*x6 + A[47]*x7
-		n6 := b6 + A[48]*x0 + A[49]*x1 + A[50]*x2 + A[51]*x3 + A[52]*x4 + A[53]*x5 + A[54]*x6 + A[55]*x7
-		n7 := b7 + A[56]*x0 + A[57]*x1 + A[58]*x2 + A[59]*x3 + A[60]*x4 + A[61]*x5 + A[62]*x6 + A[63]*x7
+		y[k] = D + float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4) + float64(c5*x5) + float64(c6*x6) + float64(c7*x7)
+		n0 := b0 + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4) + float64(A[5]*x5) + float64(A[6]*x6) + float64(A[7]*x7)
+		n1 := b1 + float64(A[8]*x0) + float64(A[9]*x1) + float64(A[10]*x2) + float64(A[11]*x3) + float64(A[12]*x4) + float64(A[13]*x5) + float64(A[14]*x6) + float64(A[15]*x7)
+		n2 := b2 + float64(A[16]*x0) + float64(A[17]*x1) + float64(A[18]*x2) + float64(A[19]*x3) + float64(A[20]*x4) + float64(A[21]*x5) + float64(A[22]*x6) + float64(A[23]*x7)
+		n3 := b3 + float64(A[24]*x0) + float64(A[25]*x1) + float64(A[26]*x2) + float64(A[27]*x3) + float64(A[28]*x4) + float64(A[29]*x5) + float64(A[30]*x6) + float64(A[31]*x7)
+		n4 := b4 + float64(A[32]*x0) + float64(A[33]*x1) + float64(A[34]*x2) + float64(A[35]*x3) + float64(A[36]*x4) + float64(A[37]*x5) + float64(A[38]*x6) + float64(A[39]*x7)
+		n5 := b5 + float64(A[40]*x0) + float64(A[41]*x1) + float64(A[42]*x2) + float64(A[43]*x3) + float64(A[44]*x4) + float64(A[45]*x5) + float64(A[46]*x6) + float64(A[47]*x7)
+		n6 := b6 + float64(A[48]*x0) + float64(A[49]*x1) + float64(A[50]*x2) + float64(A[51]*x3) + float64(A[52]*x4) + float64(A[53]*x5) + float64(A[54]*x6) + float64(A[55]*x7)
+		n7 := b7 + float64(A[56]*x0) + float64(A[57]*x1) + float64(A[58]*x2) + float64(A[59]*x3) + float64(A[60]*x4) + float64(A[61]*x5) + float64(A[62]*x6) + float64(A[63]*x7)
 		x0, x1, x2, x3, x4, x5, x6, x7 = n0, n1, n2, n3, n4, n5, n6, n7
 	}
 }
@@ -253,15 +253,15 @@ func sim8(A, B, C []float64, D float64, y, u []float64) {
 	c0, c1, c2, c3, c4, c5, c6, c7 := C[0], C[1], C[2], C[3], C[4], C[5], C[6], C[7]
 	for k := range y {
 		uk := u[k]
-		y[k] = c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4 + c5*x5 + c6*x6 + c7*x7 + D*uk
-		n0 := b0*uk + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4 + A[5]*x5 + A[6]*x6 + A[7]*x7
-		n1 := b1*uk + A[8]*x0 + A[9]*x1 + A[10]*x2 + A[11]*x3 + A[12]*x4 + A[13]*x5 + A[14]*x6 + A[15]*x7
-		n2 := b2*uk + A[16]*x0 + A[17]*x1 + A[18]*x2 + A[19]*x3 + A[20]*x4 + A[21]*x5 + A[22]*x6 + A[23]*x7
-		n3 := b3*uk + A[24]*x0 + A[25]*x1 + A[26]*x2 + A[27]*x3 + A[28]*x4 + A[29]*x5 + A[30]*x6 + A[31]*x7
-		n4 := b4*uk + A[32]*x0 + A[33]*x1 + A[34]*x2 + A[35]*x3 + A[36]*x4 + A[37]*x5 + A[38]*x6 + A[39]*x7
-		n5 := b5*uk + A[40]*x0 + A[41]*x1 + A[42]*x2 + A[43]*x3 + A[44]*x4 + A[45]*x5 + A[46]*x6 + A[47]*x7
-		n6 := b6*uk + A[48]*x0 + A[49]*x1 + A[50]*x2 + A[51]*x3 + A[52]*x4 + A[53]*x5 + A[54]*x6 + A[55]*x7
-		n7 := b7*uk + A[56]*x0 + A[57]*x1 + A[58]*x2 + A[59]*x3 + A[60]*x4 + A[61]*x5 + A[62]*x6 + A[63]*x7
+		y[k] = float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4) + float64(c5*x5) + float64(c6*x6) + float64(c7*x7) + float64(D*uk)
+		n0 := float64(b0*uk) + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4) + float64(A[5]*x5) + float64(A[6]*x6) + float64(A[7]*x7)
+		n1 := float64(b1*uk) + float64(A[8]*x0) + float64(A[9]*x1) + float64(A[10]*x2) + float64(A[11]*x3) + float64(A[12]*x4) + float64(A[13]*x5) + float64(A[14]*x6) + float64(A[15]*x7)
+		n2 := float64(b2*uk) + float64(A[16]*x0) + float64(A[17]*x1) + float64(A[18]*x2) + float64(A[19]*x3) + float64(A[20]*x4) + float64(A[21]*x5) + float64(A[22]*x6) + float64(A[23]*x7)
+		n3 := float64(b3*uk) + float64(A[24]*x0) + float64(A[25]*x1) + float64(A[26]*x2) + float64(A[27]*x3) + float64(A[28]*x4) + float64(A[29]*x5) + float64(A[30]*x6) + float64(A[31]*x7)
+		n4 := float64(b4*uk) + float64(A[32]*x0) + float64(A[33]*x1) + float64(A[34]*x2) + float64(A[35]*x3) + float64(A[36]*x4) + float64(A[37]*x5) + float64(A[38]*x6) + float64(A[39]*x7)
+		n5 := float64(b5*uk) + float64(A[40]*x0) + float64(A[41]*x1) + float64(A[42]*x2) + float64(A[43]*x3) + float64(A[44]*x4) + float64(A[45]*x5) + float64(A[46]*x6) + float64(A[47]*x7)
+		n6 := float64(b6*uk) + float64(A[48]*x0) + float64(A[49]*x1) + float64(A[50]*x2) + float64(A[51]*x3) + float64(A[52]*x4) + float64(A[53]*x5) + float64(A[54]*x6) + float64(A[55]*x7)
+		n7 := float64(b7*uk) + float64(A[56]*x0) + float64(A[57]*x1) + float64(A[58]*x2) + float64(A[59]*x3) + float64(A[60]*x4) + float64(A[61]*x5) + float64(A[62]*x6) + float64(A[63]*x7)
 		x0, x1, x2, x3, x4, x5, x6, x7 = n0, n1, n2, n3, n4, n5, n6, n7
 	}
 }
@@ -272,16 +272,16 @@ func step9(A, B, C []float64, D float64, y []float64) {
 	b0, b1, b2, b3, b4, b5, b6, b7, b8 := B[0], B[1], B[2], B[3], B[4], B[5], B[6], B[7], B[8]
 	c0, c1, c2, c3, c4, c5, c6, c7, c8 := C[0], C[1], C[2], C[3], C[4], C[5], C[6], C[7], C[8]
 	for k := range y {
-		y[k] = D + c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4 + c5*x5 + c6*x6 + c7*x7 + c8*x8
-		n0 := b0 + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4 + A[5]*x5 + A[6]*x6 + A[7]*x7 + A[8]*x8
-		n1 := b1 + A[9]*x0 + A[10]*x1 + A[11]*x2 + A[12]*x3 + A[13]*x4 + A[14]*x5 + A[15]*x6 + A[16]*x7 + A[17]*x8
-		n2 := b2 + A[18]*x0 + A[19]*x1 + A[20]*x2 + A[21]*x3 + A[22]*x4 + A[23]*x5 + A[24]*x6 + A[25]*x7 + A[26]*x8
-		n3 := b3 + A[27]*x0 + A[28]*x1 + A[29]*x2 + A[30]*x3 + A[31]*x4 + A[32]*x5 + A[33]*x6 + A[34]*x7 + A[35]*x8
-		n4 := b4 + A[36]*x0 + A[37]*x1 + A[38]*x2 + A[39]*x3 + A[40]*x4 + A[41]*x5 + A[42]*x6 + A[43]*x7 + A[44]*x8
-		n5 := b5 + A[45]*x0 + A[46]*x1 + A[47]*x2 + A[48]*x3 + A[49]*x4 + A[50]*x5 + A[51]*x6 + A[52]*x7 + A[53]*x8
-		n6 := b6 + A[54]*x0 + A[55]*x1 + A[56]*x2 + A[57]*x3 + A[58]*x4 + A[59]*x5 + A[60]*x6 + A[61]*x7 + A[62]*x8
-		n7 := b7 + A[63]*x0 + A[64]*x1 + A[65]*x2 + A[66]*x3 + A[67]*x4 + A[68]*x5 + A[69]*x6 + A[70]*x7 + A[71]*x8
-		n8 := b8 + A[72]*x0 + A[73]*x1 + A[74]*x2 + A[75]*x3 + A[76]*x4 + A[77]*x5 + A[78]*x6 + A[79]*x7 + A[80]*x8
+		y[k] = D + float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4) + float64(c5*x5) + float64(c6*x6) + float64(c7*x7) + float64(c8*x8)
+		n0 := b0 + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4) + float64(A[5]*x5) + float64(A[6]*x6) + float64(A[7]*x7) + float64(A[8]*x8)
+		n1 := b1 + float64(A[9]*x0) + float64(A[10]*x1) + float64(A[11]*x2) + float64(A[12]*x3) + float64(A[13]*x4) + float64(A[14]*x5) + float64(A[15]*x6) + float64(A[16]*x7) + float64(A[17]*x8)
+		n2 := b2 + float64(A[18]*x0) + float64(A[19]*x1) + float64(A[20]*x2) + float64(A[21]*x3) + float64(A[22]*x4) + float64(A[23]*x5) + float64(A[24]*x6) + float64(A[25]*x7) + float64(A[26]*x8)
+		n3 := b3 + float64(A[27]*x0) + float64(A[28]*x1) + float64(A[29]*x2) + float64(A[30]*x3) + float64(A[31]*x4) + float64(A[32]*x5) + float64(A[33]*x6) + float64(A[34]*x7) + float64(A[35]*x8)
+		n4 := b4 + float64(A[36]*x0) + float64(A[37]*x1) + float64(A[38]*x2) + float64(A[39]*x3) + float64(A[40]*x4) + float64(A[41]*x5) + float64(A[42]*x6) + float64(A[43]*x7) + float64(A[44]*x8)
+		n5 := b5 + float64(A[45]*x0) + float64(A[46]*x1) + float64(A[47]*x2) + float64(A[48]*x3) + float64(A[49]*x4) + float64(A[50]*x5) + float64(A[51]*x6) + float64(A[52]*x7) + float64(A[53]*x8)
+		n6 := b6 + float64(A[54]*x0) + float64(A[55]*x1) + float64(A[56]*x2) + float64(A[57]*x3) + float64(A[58]*x4) + float64(A[59]*x5) + float64(A[60]*x6) + float64(A[61]*x7) + float64(A[62]*x8)
+		n7 := b7 + float64(A[63]*x0) + float64(A[64]*x1) + float64(A[65]*x2) + float64(A[66]*x3) + float64(A[67]*x4) + float64(A[68]*x5) + float64(A[69]*x6) + float64(A[70]*x7) + float64(A[71]*x8)
+		n8 := b8 + float64(A[72]*x0) + float64(A[73]*x1) + float64(A[74]*x2) + float64(A[75]*x3) + float64(A[76]*x4) + float64(A[77]*x5) + float64(A[78]*x6) + float64(A[79]*x7) + float64(A[80]*x8)
 		x0, x1, x2, x3, x4, x5, x6, x7, x8 = n0, n1, n2, n3, n4, n5, n6, n7, n8
 	}
 }
@@ -294,16 +294,16 @@ func sim9(A, B, C []float64, D float64, y, u []float64) {
 	c0, c1, c2, c3, c4, c5, c6, c7, c8 := C[0], C[1], C[2], C[3], C[4], C[5], C[6], C[7], C[8]
 	for k := range y {
 		uk := u[k]
-		y[k] = c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4 + c5*x5 + c6*x6 + c7*x7 + c8*x8 + D*uk
-		n0 := b0*uk + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4 + A[5]*x5 + A[6]*x6 + A[7]*x7 + A[8]*x8
-		n1 := b1*uk + A[9]*x0 + A[10]*x1 + A[11]*x2 + A[12]*x3 + A[13]*x4 + A[14]*x5 + A[15]*x6 + A[16]*x7 + A[17]*x8
-		n2 := b2*uk + A[18]*x0 + A[19]*x1 + A[20]*x2 + A[21]*x3 + A[22]*x4 + A[23]*x5 + A[24]*x6 + A[25]*x7 + A[26]*x8
-		n3 := b3*uk + A[27]*x0 + A[28]*x1 + A[29]*x2 + A[30]*x3 + A[31]*x4 + A[32]*x5 + A[33]*x6 + A[34]*x7 + A[35]*x8
-		n4 := b4*uk + A[36]*x0 + A[37]*x1 + A[38]*x2 + A[39]*x3 + A[40]*x4 + A[41]*x5 + A[42]*x6 + A[43]*x7 + A[44]*x8
-		n5 := b5*uk + A[45]*x0 + A[46]*x1 + A[47]*x2 + A[48]*x3 + A[49]*x4 + A[50]*x5 + A[51]*x6 + A[52]*x7 + A[53]*x8
-		n6 := b6*uk + A[54]*x0 + A[55]*x1 + A[56]*x2 + A[57]*x3 + A[58]*x4 + A[59]*x5 + A[60]*x6 + A[61]*x7 + A[62]*x8
-		n7 := b7*uk + A[63]*x0 + A[64]*x1 + A[65]*x2 + A[66]*x3 + A[67]*x4 + A[68]*x5 + A[69]*x6 + A[70]*x7 + A[71]*x8
-		n8 := b8*uk + A[72]*x0 + A[73]*x1 + A[74]*x2 + A[75]*x3 + A[76]*x4 + A[77]*x5 + A[78]*x6 + A[79]*x7 + A[80]*x8
+		y[k] = float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4) + float64(c5*x5) + float64(c6*x6) + float64(c7*x7) + float64(c8*x8) + float64(D*uk)
+		n0 := float64(b0*uk) + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4) + float64(A[5]*x5) + float64(A[6]*x6) + float64(A[7]*x7) + float64(A[8]*x8)
+		n1 := float64(b1*uk) + float64(A[9]*x0) + float64(A[10]*x1) + float64(A[11]*x2) + float64(A[12]*x3) + float64(A[13]*x4) + float64(A[14]*x5) + float64(A[15]*x6) + float64(A[16]*x7) + float64(A[17]*x8)
+		n2 := float64(b2*uk) + float64(A[18]*x0) + float64(A[19]*x1) + float64(A[20]*x2) + float64(A[21]*x3) + float64(A[22]*x4) + float64(A[23]*x5) + float64(A[24]*x6) + float64(A[25]*x7) + float64(A[26]*x8)
+		n3 := float64(b3*uk) + float64(A[27]*x0) + float64(A[28]*x1) + float64(A[29]*x2) + float64(A[30]*x3) + float64(A[31]*x4) + float64(A[32]*x5) + float64(A[33]*x6) + float64(A[34]*x7) + float64(A[35]*x8)
+		n4 := float64(b4*uk) + float64(A[36]*x0) + float64(A[37]*x1) + float64(A[38]*x2) + float64(A[39]*x3) + float64(A[40]*x4) + float64(A[41]*x5) + float64(A[42]*x6) + float64(A[43]*x7) + float64(A[44]*x8)
+		n5 := float64(b5*uk) + float64(A[45]*x0) + float64(A[46]*x1) + float64(A[47]*x2) + float64(A[48]*x3) + float64(A[49]*x4) + float64(A[50]*x5) + float64(A[51]*x6) + float64(A[52]*x7) + float64(A[53]*x8)
+		n6 := float64(b6*uk) + float64(A[54]*x0) + float64(A[55]*x1) + float64(A[56]*x2) + float64(A[57]*x3) + float64(A[58]*x4) + float64(A[59]*x5) + float64(A[60]*x6) + float64(A[61]*x7) + float64(A[62]*x8)
+		n7 := float64(b7*uk) + float64(A[63]*x0) + float64(A[64]*x1) + float64(A[65]*x2) + float64(A[66]*x3) + float64(A[67]*x4) + float64(A[68]*x5) + float64(A[69]*x6) + float64(A[70]*x7) + float64(A[71]*x8)
+		n8 := float64(b8*uk) + float64(A[72]*x0) + float64(A[73]*x1) + float64(A[74]*x2) + float64(A[75]*x3) + float64(A[76]*x4) + float64(A[77]*x5) + float64(A[78]*x6) + float64(A[79]*x7) + float64(A[80]*x8)
 		x0, x1, x2, x3, x4, x5, x6, x7, x8 = n0, n1, n2, n3, n4, n5, n6, n7, n8
 	}
 }
@@ -314,17 +314,17 @@ func step10(A, B, C []float64, D float64, y []float64) {
 	b0, b1, b2, b3, b4, b5, b6, b7, b8, b9 := B[0], B[1], B[2], B[3], B[4], B[5], B[6], B[7], B[8], B[9]
 	c0, c1, c2, c3, c4, c5, c6, c7, c8, c9 := C[0], C[1], C[2], C[3], C[4], C[5], C[6], C[7], C[8], C[9]
 	for k := range y {
-		y[k] = D + c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4 + c5*x5 + c6*x6 + c7*x7 + c8*x8 + c9*x9
-		n0 := b0 + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4 + A[5]*x5 + A[6]*x6 + A[7]*x7 + A[8]*x8 + A[9]*x9
-		n1 := b1 + A[10]*x0 + A[11]*x1 + A[12]*x2 + A[13]*x3 + A[14]*x4 + A[15]*x5 + A[16]*x6 + A[17]*x7 + A[18]*x8 + A[19]*x9
-		n2 := b2 + A[20]*x0 + A[21]*x1 + A[22]*x2 + A[23]*x3 + A[24]*x4 + A[25]*x5 + A[26]*x6 + A[27]*x7 + A[28]*x8 + A[29]*x9
-		n3 := b3 + A[30]*x0 + A[31]*x1 + A[32]*x2 + A[33]*x3 + A[34]*x4 + A[35]*x5 + A[36]*x6 + A[37]*x7 + A[38]*x8 + A[39]*x9
-		n4 := b4 + A[40]*x0 + A[41]*x1 + A[42]*x2 + A[43]*x3 + A[44]*x4 + A[45]*x5 + A[46]*x6 + A[47]*x7 + A[48]*x8 + A[49]*x9
-		n5 := b5 + A[50]*x0 + A[51]*x1 + A[52]*x2 + A[53]*x3 + A[54]*x4 + A[55]*x5 + A[56]*x6 + A[57]*x7 + A[58]*x8 + A[59]*x9
-		n6 := b6 + A[60]*x0 + A[61]*x1 + A[62]*x2 + A[63]*x3 + A[64]*x4 + A[65]*x5 + A[66]*x6 + A[67]*x7 + A[68]*x8 + A[69]*x9
-		n7 := b7 + A[70]*x0 + A[71]*x1 + A[72]*x2 + A[73]*x3 + A[74]*x4 + A[75]*x5 + A[76]*x6 + A[77]*x7 + A[78]*x8 + A[79]*x9
-		n8 := b8 + A[80]*x0 + A[81]*x1 + A[82]*x2 + A[83]*x3 + A[84]*x4 + A[85]*x5 + A[86]*x6 + A[87]*x7 + A[88]*x8 + A[89]*x9
-		n9 := b9 + A[90]*x0 + A[91]*x1 + A[92]*x2 + A[93]*x3 + A[94]*x4 + A[95]*x5 + A[96]*x6 + A[97]*x7 + A[98]*x8 + A[99]*x9
+		y[k] = D + float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4) + float64(c5*x5) + float64(c6*x6) + float64(c7*x7) + float64(c8*x8) + float64(c9*x9)
+		n0 := b0 + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4) + float64(A[5]*x5) + float64(A[6]*x6) + float64(A[7]*x7) + float64(A[8]*x8) + float64(A[9]*x9)
+		n1 := b1 + float64(A[10]*x0) + float64(A[11]*x1) + float64(A[12]*x2) + float64(A[13]*x3) + float64(A[14]*x4) + float64(A[15]*x5) + float64(A[16]*x6) + float64(A[17]*x7) + float64(A[18]*x8) + float64(A[19]*x9)
+		n2 := b2 + float64(A[20]*x0) + float64(A[21]*x1) + float64(A[22]*x2) + float64(A[23]*x3) + float64(A[24]*x4) + float64(A[25]*x5) + float64(A[26]*x6) + float64(A[27]*x7) + float64(A[28]*x8) + float64(A[29]*x9)
+		n3 := b3 + float64(A[30]*x0) + float64(A[31]*x1) + float64(A[32]*x2) + float64(A[33]*x3) + float64(A[34]*x4) + float64(A[35]*x5) + float64(A[36]*x6) + float64(A[37]*x7) + float64(A[38]*x8) + float64(A[39]*x9)
+		n4 := b4 + float64(A[40]*x0) + float64(A[41]*x1) + float64(A[42]*x2) + float64(A[43]*x3) + float64(A[44]*x4) + float64(A[45]*x5) + float64(A[46]*x6) + float64(A[47]*x7) + float64(A[48]*x8) + float64(A[49]*x9)
+		n5 := b5 + float64(A[50]*x0) + float64(A[51]*x1) + float64(A[52]*x2) + float64(A[53]*x3) + float64(A[54]*x4) + float64(A[55]*x5) + float64(A[56]*x6) + float64(A[57]*x7) + float64(A[58]*x8) + float64(A[59]*x9)
+		n6 := b6 + float64(A[60]*x0) + float64(A[61]*x1) + float64(A[62]*x2) + float64(A[63]*x3) + float64(A[64]*x4) + float64(A[65]*x5) + float64(A[66]*x6) + float64(A[67]*x7) + float64(A[68]*x8) + float64(A[69]*x9)
+		n7 := b7 + float64(A[70]*x0) + float64(A[71]*x1) + float64(A[72]*x2) + float64(A[73]*x3) + float64(A[74]*x4) + float64(A[75]*x5) + float64(A[76]*x6) + float64(A[77]*x7) + float64(A[78]*x8) + float64(A[79]*x9)
+		n8 := b8 + float64(A[80]*x0) + float64(A[81]*x1) + float64(A[82]*x2) + float64(A[83]*x3) + float64(A[84]*x4) + float64(A[85]*x5) + float64(A[86]*x6) + float64(A[87]*x7) + float64(A[88]*x8) + float64(A[89]*x9)
+		n9 := b9 + float64(A[90]*x0) + float64(A[91]*x1) + float64(A[92]*x2) + float64(A[93]*x3) + float64(A[94]*x4) + float64(A[95]*x5) + float64(A[96]*x6) + float64(A[97]*x7) + float64(A[98]*x8) + float64(A[99]*x9)
 		x0, x1, x2, x3, x4, x5, x6, x7, x8, x9 = n0, n1, n2, n3, n4, n5, n6, n7, n8, n9
 	}
 }
@@ -337,17 +337,17 @@ func sim10(A, B, C []float64, D float64, y, u []float64) {
 	c0, c1, c2, c3, c4, c5, c6, c7, c8, c9 := C[0], C[1], C[2], C[3], C[4], C[5], C[6], C[7], C[8], C[9]
 	for k := range y {
 		uk := u[k]
-		y[k] = c0*x0 + c1*x1 + c2*x2 + c3*x3 + c4*x4 + c5*x5 + c6*x6 + c7*x7 + c8*x8 + c9*x9 + D*uk
-		n0 := b0*uk + A[0]*x0 + A[1]*x1 + A[2]*x2 + A[3]*x3 + A[4]*x4 + A[5]*x5 + A[6]*x6 + A[7]*x7 + A[8]*x8 + A[9]*x9
-		n1 := b1*uk + A[10]*x0 + A[11]*x1 + A[12]*x2 + A[13]*x3 + A[14]*x4 + A[15]*x5 + A[16]*x6 + A[17]*x7 + A[18]*x8 + A[19]*x9
-		n2 := b2*uk + A[20]*x0 + A[21]*x1 + A[22]*x2 + A[23]*x3 + A[24]*x4 + A[25]*x5 + A[26]*x6 + A[27]*x7 + A[28]*x8 + A[29]*x9
-		n3 := b3*uk + A[30]*x0 + A[31]*x1 + A[32]*x2 + A[33]*x3 + A[34]*x4 + A[35]*x5 + A[36]*x6 + A[37]*x7 + A[38]*x8 + A[39]*x9
-		n4 := b4*uk + A[40]*x0 + A[41]*x1 + A[42]*x2 + A[43]*x3 + A[44]*x4 + A[45]*x5 + A[46]*x6 + A[47]*x7 + A[48]*x8 + A[49]*x9
-		n5 := b5*uk + A[50]*x0 + A[51]*x1 + A[52]*x2 + A[53]*x3 + A[54]*x4 + A[55]*x5 + A[56]*x6 + A[57]*x7 + A[58]*x8 + A[59]*x9
-		n6 := b6*uk + A[60]*x0 + A[61]*x1 + A[62]*x2 + A[63]*x3 + A[64]*x4 + A[65]*x5 + A[66]*x6 + A[67]*x7 + A[68]*x8 + A[69]*x9
-		n7 := b7*uk + A[70]*x0 + A[71]*x1 + A[72]*x2 + A[73]*x3 + A[74]*x4 + A[75]*x5 + A[76]*x6 + A[77]*x7 + A[78]*x8 + A[79]*x9
-		n8 := b8*uk + A[80]*x0 + A[81]*x1 + A[82]*x2 + A[83]*x3 + A[84]*x4 + A[85]*x5 + A[86]*x6 + A[87]*x7 + A[88]*x8 + A[89]*x9
-		n9 := b9*uk + A[90]*x0 + A[91]*x1 + A[92]*x2 + A[93]*x3 + A[94]*x4 + A[95]*x5 + A[96]*x6 + A[97]*x7 + A[98]*x8 + A[99]*x9
+		y[k] = float64(c0*x0) + float64(c1*x1) + float64(c2*x2) + float64(c3*x3) + float64(c4*x4) + float64(c5*x5) + float64(c6*x6) + float64(c7*x7) + float64(c8*x8) + float64(c9*x9) + float64(D*uk)
+		n0 := float64(b0*uk) + float64(A[0]*x0) + float64(A[1]*x1) + float64(A[2]*x2) + float64(A[3]*x3) + float64(A[4]*x4) + float64(A[5]*x5) + float64(A[6]*x6) + float64(A[7]*x7) + float64(A[8]*x8) + float64(A[9]*x9)
+		n1 := float64(b1*uk) + float64(A[10]*x0) + float64(A[11]*x1) + float64(A[12]*x2) + float64(A[13]*x3) + float64(A[14]*x4) + float64(A[15]*x5) + float64(A[16]*x6) + float64(A[17]*x7) + float64(A[18]*x8) + float64(A[19]*x9)
+		n2 := float64(b2*uk) + float64(A[20]*x0) + float64(A[21]*x1) + float64(A[22]*x2) + float64(A[23]*x3) + float64(A[24]*x4) + float64(A[25]*x5) + float64(A[26]*x6) + float64(A[27]*x7) + float64(A[28]*x8) + float64(A[29]*x9)
+		n3 := float64(b3*uk) + float64(A[30]*x0) + float64(A[31]*x1) + float64(A[32]*x2) + float64(A[33]*x3) + float64(A[34]*x4) + float64(A[35]*x5) + float64(A[36]*x6) + float64(A[37]*x7) + float64(A[38]*x8) + float64(A[39]*x9)
+		n4 := float64(b4*uk) + float64(A[40]*x0) + float64(A[41]*x1) + float64(A[42]*x2) + float64(A[43]*x3) + float64(A[44]*x4) + float64(A[45]*x5) + float64(A[46]*x6) + float64(A[47]*x7) + float64(A[48]*x8) + float64(A[49]*x9)
+		n5 := float64(b5*uk) + float64(A[50]*x0) + float64(A[51]*x1) + float64(A[52]*x2) + float64(A[53]*x3) + float64(A[54]*x4) + float64(A[55]*x5) + float64(A[56]*x6) + float64(A[57]*x7) + float64(A[58]*x8) + float64(A[59]*x9)
+		n6 := float64(b6*uk) + float64(A[60]*x0) + float64(A[61]*x1) + float64(A[62]*x2) + float64(A[63]*x3) + float64(A[64]*x4) + float64(A[65]*x5) + float64(A[66]*x6) + float64(A[67]*x7) + float64(A[68]*x8) + float64(A[69]*x9)
+		n7 := float64(b7*uk) + float64(A[70]*x0) + float64(A[71]*x1) + float64(A[72]*x2) + float64(A[73]*x3) + float64(A[74]*x4) + float64(A[75]*x5) + float64(A[76]*x6) + float64(A[77]*x7) + float64(A[78]*x8) + float64(A[79]*x9)
+		n8 := float64(b8*uk) + float64(A[80]*x0) + float64(A[81]*x1) + float64(A[82]*x2) + float64(A[83]*x3) + float64(A[84]*x4) + float64(A[85]*x5) + float64(A[86]*x6) + float64(A[87]*x7) + float64(A[88]*x8) + float64(A[89]*x9)
+		n9 := float64(b9*uk) + float64(A[90]*x0) + float64(A[91]*x1) + float64(A[92]*x2) + float64(A[93]*x3) + float64(A[94]*x4) + float64(A[95]*x5) + float64(A[96]*x6) + float64(A[97]*x7) + float64(A[98]*x8) + float64(A[99]*x9)
 		x0, x1, x2, x3, x4, x5, x6, x7, x8, x9 = n0, n1, n2, n3, n4, n5, n6, n7, n8, n9
 	}
 }

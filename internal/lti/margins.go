@@ -98,7 +98,7 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 		n = 2
 	}
 	eval := func(lw float64) complex128 { return L(exp(lw)) }
-	l0, l1 := log(wmin), log(wmax)
+	l0, l1 := Log(wmin), Log(wmax)
 	// Grid points are evaluated when the sweep reaches them.
 	grid := make([]marginPoint, n)
 	done := 0
@@ -126,14 +126,14 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 	if first < 0 {
 		return m
 	}
-	ph0 := cmplx.Phase(grid[first].L)
+	ph0 := Phase(grid[first].L)
 	for j := first + 1; j < n; j++ {
 		if at(j).ok {
-			slope := (log(cmplx.Abs(grid[j].L)) - log(cmplx.Abs(grid[first].L))) / (grid[j].lw - grid[first].lw)
+			slope := (Log(Abs(grid[j].L)) - Log(Abs(grid[first].L))) / (grid[j].lw - grid[first].lw)
 			typ := math.Round(-slope)
 			if math.Abs(typ) <= 8 {
-				target := -typ * math.Pi / 2
-				ph0 += 2 * math.Pi * math.Round((target-ph0)/(2*math.Pi))
+				target := float64(-typ * math.Pi / 2)
+				ph0 += float64(2 * math.Pi * math.Round((target-ph0)/(2*math.Pi)))
 			}
 			break
 		}
@@ -142,7 +142,7 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 	// The refined, unwrapped samples are produced in ascending frequency
 	// and each consecutive pair is examined for crossings as it appears,
 	// so no list of them is kept.
-	wrapDeg := func(x float64) float64 { return x - 360*math.Ceil((x-180)/360) }
+	wrapDeg := func(x float64) float64 { return x - float64(360*math.Ceil((x-180)/360)) }
 	bestGM, bestPM := math.Inf(1), math.Inf(1)
 	var tail marginPoint // the last sample produced
 	pair := func(a, b marginPoint) {
@@ -150,12 +150,12 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 			return
 		}
 		// Gain crossover.
-		ga, gb := log(cmplx.Abs(a.L)), log(cmplx.Abs(b.L))
+		ga, gb := Log(Abs(a.L)), Log(Abs(b.L))
 		if (ga >= 0) != (gb >= 0) {
-			lw := crossing(a.lw, b.lw, func(x float64) float64 { return log(cmplx.Abs(eval(x))) })
+			lw := crossing(a.lw, b.lw, func(x float64) float64 { return Log(Abs(eval(x))) })
 			w := exp(lw)
 			z := eval(lw)
-			ph := a.ph + cmplx.Phase(z*cmplx.Conj(a.L))
+			ph := a.ph + Phase(Mul(z, cmplx.Conj(a.L)))
 			pm := wrapDeg(180 + ph*180/math.Pi)
 			m.GainCrossovers = append(m.GainCrossovers, w)
 			if math.Abs(pm) < math.Abs(bestPM) {
@@ -168,13 +168,13 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 		qa := math.Floor((a.ph + math.Pi) / (2 * math.Pi))
 		qb := math.Floor((b.ph + math.Pi) / (2 * math.Pi))
 		if qa != qb {
-			lvl := -math.Pi + 2*math.Pi*math.Max(qa, qb)
+			lvl := -math.Pi + float64(2*math.Pi*math.Max(qa, qb))
 			aL, aph := a.L, a.ph
 			lw := crossing(a.lw, b.lw, func(x float64) float64 {
-				return aph + cmplx.Phase(eval(x)*cmplx.Conj(aL)) - lvl
+				return aph + Phase(Mul(eval(x), cmplx.Conj(aL))) - lvl
 			})
 			w := exp(lw)
-			gm := -20 * log10(cmplx.Abs(eval(lw)))
+			gm := -20 * Log10(Abs(eval(lw)))
 			m.PhaseCrossovers = append(m.PhaseCrossovers, w)
 			if math.Abs(gm) < math.Abs(bestGM) {
 				bestGM = gm
@@ -210,7 +210,7 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 			return
 		}
 		if budget <= 0 {
-			b.ph = a.ph + cmplx.Phase(b.L*cmplx.Conj(a.L))
+			b.ph = a.ph + Phase(Mul(b.L, cmplx.Conj(a.L)))
 			emit(b)
 			return
 		}
@@ -218,12 +218,12 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 		z := eval(mid)
 		mp := marginPoint{lw: mid, L: z, ok: finiteNZ(z)}
 		if !mp.ok {
-			b.ph = a.ph + cmplx.Phase(b.L*cmplx.Conj(a.L))
+			b.ph = a.ph + Phase(Mul(b.L, cmplx.Conj(a.L)))
 			emit(mp, b)
 			return
 		}
-		d1 := cmplx.Phase(z * cmplx.Conj(a.L))
-		d2 := cmplx.Phase(b.L * cmplx.Conj(z))
+		d1 := Phase(Mul(z, cmplx.Conj(a.L)))
+		d2 := Phase(Mul(b.L, cmplx.Conj(z)))
 		mp.ph = a.ph + d1
 		budget--
 		if depth < 40 && budget > 0 && (math.Abs(d1) > maxStep || math.Abs(d2) > maxStep || math.Abs(slope)*(b.lw-a.lw) > maxStep) {
@@ -238,10 +238,10 @@ func LoopMarginsFalling(L func(w float64) complex128, wmin, wmax float64, n int,
 		emit(mp, b)
 	}
 	last := tail
-	lwf := log(wf)
+	lwf := Log(wf)
 	for j := first + 1; j < n; j++ {
 		if last.ok && last.lw >= lwf && !math.IsInf(bestGM, 1) {
-			if a := cmplx.Abs(last.L); a < 1 && -20*log10(a) > math.Abs(bestGM) {
+			if a := Abs(last.L); a < 1 && -20*Log10(a) > math.Abs(bestGM) {
 				break
 			}
 		}
@@ -317,9 +317,9 @@ func GainCrossovers(mag2 func(w float64) float64, wmin, wmax float64, n int) []f
 		return nil
 	}
 	n = max(n, 2)
-	f := func(lw float64) float64 { return 0.5 * log(mag2(exp(lw))) }
+	f := func(lw float64) float64 { return 0.5 * Log(mag2(exp(lw))) }
 	m := 2*n - 1
-	l0, l1 := log(wmin), log(wmax)
+	l0, l1 := Log(wmin), Log(wmax)
 	ratio := exp((l1 - l0) / float64(m-1))
 	var out []float64
 	ok := func(v float64) bool { return v > 0 && !math.IsInf(v, 0) }
@@ -333,7 +333,7 @@ func GainCrossovers(mag2 func(w float64) float64, wmin, wmax float64, n int) []f
 			prev = math.NaN()
 		} else {
 			if ok(prev) && (prev >= 1) != (v >= 1) {
-				out = append(out, exp(crossing(log(prevW), log(w), f)))
+				out = append(out, exp(crossing(Log(prevW), Log(w), f)))
 			}
 			prevW, prev = w, v
 		}

@@ -5,8 +5,6 @@ import (
 	"math"
 	"math/cmplx"
 	"sort"
-
-	"gonum.org/v1/gonum/mat"
 )
 
 // Poly is a real polynomial, ascending powers: p[i] multiplies s^i.
@@ -38,20 +36,23 @@ func (p Poly) Trim() Poly {
 // Deg is the degree after trimming trailing zeros; -1 for the zero polynomial.
 func (p Poly) Deg() int { return len(p.Trim()) - 1 }
 
-// Eval evaluates p at complex s by Horner's rule. The zero polynomial gives 0.
+// Eval evaluates p at complex s by Horner's rule, each product rounded
+// before its sum (Mul), so the same bits on every CPU. The zero polynomial
+// gives 0.
 func (p Poly) Eval(s complex128) complex128 {
 	var r complex128
 	for i := len(p) - 1; i >= 0; i-- {
-		r = r*s + complex(p[i], 0)
+		r = Mul(r, s) + complex(p[i], 0)
 	}
 	return r
 }
 
-// At evaluates p at real x by Horner's rule.
+// At evaluates p at real x by Horner's rule, each product rounded before
+// its sum.
 func (p Poly) At(x float64) float64 {
 	var r float64
 	for i := len(p) - 1; i >= 0; i-- {
-		r = r*x + p[i]
+		r = float64(r*x) + p[i]
 	}
 	return r
 }
@@ -99,7 +100,7 @@ func PolyMul(a, b Poly) Poly {
 	c := make(Poly, len(a)+len(b)-1)
 	for i, x := range a {
 		for j, y := range b {
-			c[i+j] += x * y
+			c[i+j] += float64(x * y)
 		}
 	}
 	return c
@@ -127,7 +128,7 @@ const conjTol = 1e-6
 const realTol = 1e-12
 
 func isRealRoot(r complex128) bool {
-	return math.Abs(imag(r)) <= realTol*math.Max(1, cmplx.Abs(r))
+	return math.Abs(imag(r)) <= realTol*math.Max(1, Abs(r))
 }
 
 // FromRoots returns the monic polynomial Π(s − r_i). Real roots (imaginary
@@ -156,17 +157,17 @@ func FromRoots(r []complex128) (Poly, error) {
 			if used[j] {
 				continue
 			}
-			if d := cmplx.Abs(r[j] - cmplx.Conj(z)); d < bestD {
+			if d := Abs(r[j] - cmplx.Conj(z)); d < bestD {
 				best, bestD = j, d
 			}
 		}
-		if best < 0 || bestD > conjTol*math.Max(1, cmplx.Abs(z)) {
+		if best < 0 || bestD > conjTol*math.Max(1, Abs(z)) {
 			return nil, ErrNotConj
 		}
 		used[best] = true
 		w := cmplx.Conj(r[best])
 		re, im := (real(z)+real(w))/2, (imag(z)+imag(w))/2
-		p = PolyMul(p, Poly{re*re + im*im, -2 * re, 1})
+		p = PolyMul(p, Poly{float64(re*re) + float64(im*im), -2 * re, 1})
 	}
 	return p, nil
 }
@@ -174,8 +175,9 @@ func FromRoots(r []complex128) (Poly, error) {
 // Roots returns the roots of p, sorted by SortRoots. Roots at s = 0 (trailing
 // low-order zero coefficients) are extracted exactly first; degree-1 factors
 // are solved directly; otherwise the roots are the eigenvalues of the
-// companion matrix (gonum mat.Eigen, which balances first — the same method
-// as numpy.roots). A constant polynomial has no roots (empty, nil error).
+// companion matrix (eigvals: gonum's mat.Eigen, which balances first — the
+// same method as numpy.roots — with the same bits on every CPU). A constant
+// polynomial has no roots (empty, nil error).
 // Errors: ErrZeroPoly for the zero polynomial, ErrNonFinite for NaN/Inf
 // coefficients, ErrEigenFailed if the QR iteration does not converge.
 //
@@ -202,14 +204,14 @@ func (p Poly) Roots() ([]complex128, error) {
 		roots = append(roots, complex(-q[0]/q[1], 0))
 	case n >= 2:
 		lead := q[n]
-		c := mat.NewDense(n, n, nil)
+		c := make([]float64, n*n)
 		for j := 0; j < n; j++ {
-			c.Set(0, j, -q[n-1-j]/lead)
+			c[j] = -q[n-1-j] / lead
 		}
 		for i := 1; i < n; i++ {
-			c.Set(i, i-1, 1)
+			c[i*n+i-1] = 1
 		}
-		ev, err := eigvals(c)
+		ev, err := eigvals(n, c)
 		if err != nil {
 			return nil, err
 		}
@@ -217,24 +219,6 @@ func (p Poly) Roots() ([]complex128, error) {
 	}
 	SortRoots(roots)
 	return roots, nil
-}
-
-// eigvals returns the eigenvalues of a square dense matrix (unsorted).
-func eigvals(a *mat.Dense) ([]complex128, error) {
-	r, _ := a.Dims()
-	if r == 0 {
-		return []complex128{}, nil
-	}
-	for _, v := range a.RawMatrix().Data {
-		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, ErrNonFinite
-		}
-	}
-	var e mat.Eigen
-	if !e.Factorize(a, mat.EigenNone) {
-		return nil, ErrEigenFailed
-	}
-	return e.Values(nil), nil
 }
 
 // SortRoots puts r in the package's deterministic order, in place:
@@ -265,11 +249,11 @@ func SortRoots(r []complex128) {
 			if used[j] || !(imag(w) < 0) {
 				continue
 			}
-			if d := cmplx.Abs(w - cmplx.Conj(z)); d < bestD {
+			if d := Abs(w - cmplx.Conj(z)); d < bestD {
 				best, bestD = j, d
 			}
 		}
-		if best < 0 || !(bestD <= conjTol*math.Max(1, cmplx.Abs(z))) {
+		if best < 0 || !(bestD <= conjTol*math.Max(1, Abs(z))) {
 			continue
 		}
 		used[best] = true
@@ -322,12 +306,12 @@ func RootDistance(got, want []complex128) float64 {
 	for _, w := range want {
 		bi, bd := -1, math.Inf(1)
 		for i, g := range got {
-			if !used[i] && cmplx.Abs(g-w) < bd {
-				bi, bd = i, cmplx.Abs(g-w)
+			if !used[i] && Abs(g-w) < bd {
+				bi, bd = i, Abs(g-w)
 			}
 		}
 		used[bi] = true
-		worst = math.Max(worst, bd/math.Max(1, cmplx.Abs(w)))
+		worst = math.Max(worst, bd/math.Max(1, Abs(w)))
 	}
 	return worst
 }
@@ -353,7 +337,7 @@ func (p Poly) Hurwitz() bool {
 	if !(p[0] != 0) || !p.IsFinite() {
 		return false // a root at 0, or NaN
 	}
-	w0 := math.Pow(math.Abs(p[0]/p[n]), 1/float64(n))
+	w0 := Pow(math.Abs(p[0]/p[n]), 1/float64(n))
 	// Descending coefficients of p(ω0·ŝ), leading one positive.
 	c := make([]float64, n+1)
 	f := 1.0
@@ -383,7 +367,7 @@ func (p Poly) Hurwitz() bool {
 		}
 		next := make([]float64, w)
 		for j := 0; j+1 < w; j++ {
-			next[j] = (cur[0]*prev[j+1] - prev[0]*cur[j+1]) / cur[0]
+			next[j] = (float64(cur[0]*prev[j+1]) - float64(prev[0]*cur[j+1])) / cur[0]
 		}
 		prev, cur = cur, next
 	}

@@ -2,8 +2,6 @@ package lti
 
 import (
 	"math"
-
-	"gonum.org/v1/gonum/mat"
 )
 
 // SS is a continuous SISO state-space model
@@ -57,7 +55,7 @@ func (t TF) SS() (SS, error) {
 	s := SS{N: n, A: make([]float64, n*n), B: make([]float64, n), C: make([]float64, n), D: b[n]}
 	for j := 0; j < n; j++ {
 		s.A[j] = -t.Den[n-1-j]
-		s.C[j] = b[n-1-j] - s.D*t.Den[n-1-j]
+		s.C[j] = b[n-1-j] - float64(s.D*t.Den[n-1-j])
 	}
 	for i := 1; i < n; i++ {
 		s.A[i*n+i-1] = 1
@@ -76,7 +74,7 @@ func (s SS) Poles() ([]complex128, error) {
 	if s.N == 0 {
 		return []complex128{}, nil
 	}
-	ev, err := eigvals(mat.NewDense(s.N, s.N, append([]float64(nil), s.A...)))
+	ev, err := eigvals(s.N, s.A)
 	if err != nil {
 		return nil, err
 	}
@@ -93,37 +91,37 @@ func (s SS) Eval(z complex128) complex128 {
 }
 
 // expAug returns Φ = e^{Aη} and Γ = ∫_0^η e^{Aσ}dσ B from the exponential of
-// the augmented matrix [[A B];[0 0]]·η (Van Loan), via gonum mat.Exp. It
-// fails with ErrNonFinite when the scaled matrix overflows (mat.Exp would
-// otherwise try to square Inf times).
+// the augmented matrix [[A B];[0 0]]·η (Van Loan), by expm (gonum's mat.Exp
+// with the same bits on every CPU). It fails with ErrNonFinite when the
+// scaled matrix overflows (the squaring would multiply Inf).
 func expAug(n int, a, b []float64, eta float64) (phi, gam []float64, err error) {
 	m := n + 1
-	aug := mat.NewDense(m, m, nil)
+	aug := make([]float64, m*m)
 	for i := 0; i < n; i++ {
 		for j := 0; j < n; j++ {
-			aug.Set(i, j, a[i*n+j]*eta)
+			aug[i*m+j] = a[i*n+j] * eta
 		}
-		aug.Set(i, n, b[i]*eta)
+		aug[i*m+n] = b[i] * eta
 	}
-	if nrm := mat.Norm(aug, 1); math.IsNaN(nrm) || math.IsInf(nrm, 0) {
+	if nrm := norm1(m, aug); math.IsNaN(nrm) || math.IsInf(nrm, 0) {
 		return nil, nil, ErrNonFinite
 	}
-	var e mat.Dense
-	e.Exp(aug)
+	e, err := expm(m, aug)
+	if err != nil {
+		return nil, nil, err
+	}
 	phi = make([]float64, n*n)
 	gam = make([]float64, n)
 	for i := 0; i < n; i++ {
-		for j := 0; j < n; j++ {
-			phi[i*n+j] = e.At(i, j)
-		}
-		gam[i] = e.At(i, n)
+		copy(phi[i*n:i*n+n], e[i*m:i*m+n])
+		gam[i] = e[i*m+n]
 	}
 	return phi, gam, nil
 }
 
 // ZOH returns the exact zero-order-hold equivalent with sample period T:
-// Φ = e^{AT}, Γ = ∫_0^T e^{Aη}dη B, read off exp([[A B];[0 0]]·T) (gonum
-// mat.Exp); C and D are unchanged. Equals scipy.signal.cont2discrete(...,
+// Φ = e^{AT}, Γ = ∫_0^T e^{Aη}dη B, read off exp([[A B];[0 0]]·T) (expm,
+// gonum's mat.Exp); C and D are unchanged. Equals scipy.signal.cont2discrete(...,
 // method='zoh').
 func ZOH(s SS, T float64) (Disc, error) {
 	if err := s.check(); err != nil {
@@ -205,7 +203,7 @@ func ZOHDelay(s SS, T, tau float64) (Disc, error) {
 		for i := 0; i < n; i++ {
 			var acc float64
 			for j := 0; j < n; j++ {
-				acc += phiA[i*n+j] * gf[j]
+				acc += float64(phiA[i*n+j] * gf[j])
 			}
 			gam1[i] = acc
 		}
@@ -266,7 +264,7 @@ func SplitDelay(tau, T float64) (d int, f float64) {
 		return 0, 0
 	}
 	q := math.Floor(tau / T)
-	f = tau - q*T
+	f = tau - float64(q*T)
 	if f < 1e-12*T {
 		f = 0
 	} else if T-f < 1e-12*T {

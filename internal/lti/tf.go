@@ -15,11 +15,11 @@ type ZPK struct {
 func (z ZPK) Eval(s complex128) complex128 {
 	num := complex(z.Gain, 0)
 	for _, r := range z.Zeros {
-		num *= s - r
+		num = Mul(num, s-r)
 	}
 	den := complex(1, 0)
 	for _, r := range z.Poles {
-		den *= s - r
+		den = Mul(den, s-r)
 	}
 	return cdiv(num, den)
 }
@@ -33,7 +33,7 @@ func cdiv(num, den complex128) complex128 {
 		}
 		return cmplx.Inf()
 	}
-	return num / den
+	return Div(num, den)
 }
 
 // TF converts to polynomial form: Num = k·FromRoots(Zeros), Den =

@@ -20,6 +20,12 @@
 // the output sums at +0, so a sum of negative zeros is +0 there and −0 in
 // a kernel; the two compare equal.) Reordering any term breaks this;
 // TestPairStepperMatchesStepper in package discrete checks every kernel.
+// Every product is rounded before its sum, rounded(a*x), as the
+// reference loops' float64(a*x) is, so that no compiler fuses it with the
+// sum into a multiply-add (Go does on arm64): the kernels give the same
+// bits on every CPU (see lti's portable.go). rounded is float64(x) where
+// the compiler may fuse and x itself on amd64 below GOAMD64=v3, where it
+// never does and the conversions would cost the kernels registers.
 package pairgen
 
 import (
@@ -89,14 +95,14 @@ func kernel(b *bytes.Buffer, p, m int) {
 	}
 	for l := range 2 {
 		// Command: Dr r + Dy ym + Cc xc, with r = 1.
-		first := fmt.Sprintf("dr%d + dy*ym%d", l, l)
+		first := fmt.Sprintf("dr%d + rounded(dy*ym%d)", l, l)
 		fmt.Fprintf(b, "\t\tcmd%d := %s\n", l, sum(append([]string{first}, dot("Cc", 0, ctrl(l, m))...)))
 	}
 	for l := range 2 {
 		// Controller update: Br r + By ym + Ac xc, with r = 1.
 		if m > 0 {
 			next := seq(m, func(i int) string {
-				first := fmt.Sprintf("Br[%d] + By[%d]*ym%d", i, i, l)
+				first := fmt.Sprintf("Br[%d] + rounded(By[%d]*ym%d)", i, i, l)
 				return sum(append([]string{first}, dot("Ac", i*m, ctrl(l, m))...))
 			})
 			fmt.Fprintf(b, "\t\t%s = %s\n", list(ctrl(l, m)), list(next))
@@ -111,7 +117,7 @@ func kernel(b *bytes.Buffer, p, m int) {
 	for l := range 2 {
 		// Plant update: B ua + A x, ua the command of D samples ago.
 		next := seq(p, func(i int) string {
-			first := fmt.Sprintf("B[%d]*ua%d", i, l)
+			first := fmt.Sprintf("rounded(B[%d]*ua%d)", i, l)
 			return sum(append([]string{first}, dot("A", i*p, plant(l, p))...))
 		})
 		fmt.Fprintf(b, "\t\t%s = %s\n", list(plant(l, p)), list(next))
@@ -159,7 +165,7 @@ func ctrl(l, n int) []string {
 // dot returns the products a[off+j]*v[j] of the row of matrix a that
 // starts at element off and the vector v, in order of j.
 func dot(a string, off int, v []string) []string {
-	return seq(len(v), func(j int) string { return fmt.Sprintf("%s[%d]*%s", a, off+j, v[j]) })
+	return seq(len(v), func(j int) string { return fmt.Sprintf("rounded(%s[%d]*%s)", a, off+j, v[j]) })
 }
 
 // elems returns s[0], …, s[n-1].

@@ -20,7 +20,10 @@
 // bit for bit. (The one exception: the generic simulation starts its
 // output sum at +0, so a sum of negative zeros is +0 there and −0 in the
 // kernel; the two compare equal.) Reordering any term breaks this;
-// TestKernelsMatchGeneric in package lti checks every N.
+// TestKernelsMatchGeneric in package lti checks every N. Every product is
+// converted, float64(a*x), as in the generic loops, so that no compiler
+// fuses it with the sum into a multiply-add (Go does on arm64): the
+// kernels give the same bits on every CPU (see lti's portable.go).
 package kernelgen
 
 import (
@@ -76,19 +79,19 @@ func kernel(b *bytes.Buffer, n int, sim bool) {
 	fmt.Fprintf(b, "\t%s := %s\n", list(names("b", n)), list(elems("B", n)))
 	fmt.Fprintf(b, "\t%s := %s\n", list(names("c", n)), list(elems("C", n)))
 	b.WriteString("\tfor k := range y {\n")
-	out := seq(n, func(i int) string { return fmt.Sprintf("c%d*x%d", i, i) })
+	out := seq(n, func(i int) string { return fmt.Sprintf("float64(c%d*x%d)", i, i) })
 	if sim {
 		b.WriteString("\t\tuk := u[k]\n")
-		fmt.Fprintf(b, "\t\ty[k] = %s + D*uk\n", sum(out))
+		fmt.Fprintf(b, "\t\ty[k] = %s + float64(D*uk)\n", sum(out))
 	} else {
 		fmt.Fprintf(b, "\t\ty[k] = D + %s\n", sum(out))
 	}
 	for i := range n {
 		first := fmt.Sprintf("b%d", i)
 		if sim {
-			first += "*uk"
+			first = fmt.Sprintf("float64(b%d*uk)", i)
 		}
-		row := seq(n, func(j int) string { return fmt.Sprintf("A[%d]*x%d", i*n+j, j) })
+		row := seq(n, func(j int) string { return fmt.Sprintf("float64(A[%d]*x%d)", i*n+j, j) })
 		fmt.Fprintf(b, "\t\tn%d := %s + %s\n", i, first, sum(row))
 	}
 	fmt.Fprintf(b, "\t\t%s = %s\n", list(x), list(names("n", n)))
