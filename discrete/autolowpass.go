@@ -147,7 +147,7 @@ func designAutoLowpass(p airframe.Axis, loop airframe.Loop, num airframe.Numeric
 	note := fmt.Sprintf("lowpass hz = \"auto\" (goal %s): %g Hz, the %s cutoff of %s (%d a decade) whose design meets every check", f.Goal, cs[pick], edge, span, autoPerDecade)
 	switch {
 	case next >= 0 && designs[next] != nil:
-		note += fmt.Sprintf("; at %g Hz the design misses %s", cs[next], strings.Join(failedChecks(designs[next]), ", "))
+		note += fmt.Sprintf("; at %g Hz the design misses %s", cs[next], strings.Join(designs[next].FailedChecks(), ", "))
 	case next >= 0:
 		note += fmt.Sprintf("; at %g Hz there is no design: %v", cs[next], errs[next])
 	default:
@@ -155,17 +155,6 @@ func designAutoLowpass(p airframe.Axis, loop airframe.Loop, num airframe.Numeric
 	}
 	d.Warnings = append(d.Warnings, note)
 	return d, nil
-}
-
-// failedChecks names the checks d fails.
-func failedChecks(d *Design) []string {
-	var out []string
-	for _, c := range d.Checks {
-		if !c.OK && !slices.Contains(out, c.Name) {
-			out = append(out, c.Name)
-		}
-	}
-	return out
 }
 
 func abs(n int) int {

@@ -3,6 +3,7 @@ package discrete
 import (
 	"fmt"
 	"math"
+	"slices"
 
 	"locusmith/airframe"
 	"locusmith/internal/lti"
@@ -54,6 +55,17 @@ func (d *Design) designUnfiltered() {
 		u.DropTraces()
 	}
 	d.Unfiltered, d.UnfilteredErr = u, err
+}
+
+// FailedChecks names the checks d fails, each once, in check order.
+func (d *Design) FailedChecks() []string {
+	var out []string
+	for _, c := range d.Checks {
+		if !c.OK && !slices.Contains(out, c.Name) {
+			out = append(out, c.Name)
+		}
+	}
+	return out
 }
 
 // OK reports whether every check passed.

@@ -1,6 +1,7 @@
 package review
 
 import (
+	"errors"
 	"os"
 	"strings"
 	"testing"
@@ -54,6 +55,13 @@ func TestChainRows(t *testing.T) {
 	}
 	if !strings.Contains(gainsText(u.Cont.Ctrl), "Ki = 0.0094") {
 		t.Errorf("without the chain: %s, the README says Ki = 0.0094", gainsText(u.Cont.Ctrl))
+	}
+	// When the axis without its chain has no design, the row says why,
+	// without the "axis NAME: " prefix, escaped for Markdown.
+	failed := *d
+	failed.Unfiltered, failed.UnfilteredErr = nil, errors.New("axis pitch: no controller of the form keeps max_sensitivity")
+	if rows := chainRows(&failed); len(rows) != 1 || rows[0].With != "met" || rows[0].Without != `no design: no controller of the form keeps max\_sensitivity` {
+		t.Errorf("comparison without an unfiltered design: %+v", rows)
 	}
 	// Without the option, or without a chain: no comparison.
 	plain := discrete.DesignAirframe(f).Axes[0].Design

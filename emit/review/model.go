@@ -844,13 +844,7 @@ func chainRows(d *discrete.Design) []ChainRow {
 		if d.OK() {
 			return "met"
 		}
-		var miss []string
-		for _, c := range d.Checks {
-			if !c.OK && !slices.Contains(miss, c.Name) {
-				miss = append(miss, c.Name)
-			}
-		}
-		return "not met (" + strings.Join(miss, ", ") + ")"
+		return "not met (" + strings.Join(d.FailedChecks(), ", ") + ")"
 	}
 	check := func(d *discrete.Design, name string) string {
 		for _, c := range d.Checks {
@@ -862,7 +856,7 @@ func chainRows(d *discrete.Design) []ChainRow {
 	}
 	u := d.Unfiltered
 	if u == nil {
-		msg := mdText(strings.TrimPrefix(d.UnfilteredErr.Error(), "axis "+d.Problem.Name+": "))
+		msg := mdText(discrete.Outcome{Name: d.Problem.Name, Err: d.UnfilteredErr}.ErrorText())
 		return []ChainRow{{"spec", verdict(d), "no design: " + msg}}
 	}
 	rows := []ChainRow{
