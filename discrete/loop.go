@@ -277,6 +277,21 @@ type pairStepper struct {
 	x, xn [2][]float64
 	ctrl  pairCtrl
 	k     int
+	// chain is the feedback filter chain run section by section (see
+	// runChain), nil without one; sec holds its states, lane by lane (the
+	// last states of the plant's, which x then leaves at zero).
+	chain []chainSection
+	sec   [2][]float64
+}
+
+// chainSection is one filter section in the state-space form of
+// SectionSS, with states s[at:at+n]: out = d·v + s₀;
+// s₀' = a₀₀·s₀ + a₀₁·s₁ + b₀·v; s₁' = a₁₀·s₀ + b₁·v (n = 2), or
+// s₀' = a₀₀·s₀ + b₀·v (n = 1).
+type chainSection struct {
+	at, n                 int
+	a00, a01, a10, b0, b1 float64
+	d                     float64
 }
 
 // pairCtrl is the controller and the command delay line of both lanes.
@@ -302,7 +317,42 @@ func newPairStepper(pl Plant, c0, c1 linearCtrl, d int) *pairStepper {
 		s.ctrl.xc[l], s.ctrl.xcn[l] = buf[2*np:2*np+m], buf[2*np+m:2*np+2*m]
 		s.ctrl.ring[l] = buf[2*np+2*m:]
 	}
+	if s.chain = chainOf(pl); s.chain != nil {
+		n := pl.N - pl.unf.N
+		buf := make([]float64, 2*n)
+		s.sec = [2][]float64{buf[:n:n], buf[n:]}
+	}
 	return s
+}
+
+// chainOf returns the filter sections of pl in the order the measured
+// rate runs through them, with the index of each one's first state in
+// the sections' own state (pairStepper.sec), or
+// nil when pl has none (or its states do not follow the layout of
+// withSection, which the dense loops of run then handle).
+func chainOf(pl Plant) []chainSection {
+	if len(pl.Sections) == 0 {
+		return nil
+	}
+	n0 := pl.unf.N
+	if len(pl.unf.C) != n0 || len(pl.unf.A) != n0*n0 || len(pl.unf.B) != n0 {
+		return nil
+	}
+	at := 0
+	cs := make([]chainSection, 0, len(pl.Sections))
+	for _, q := range pl.Sections {
+		a, b, c, d := SectionSS(q)
+		sec := chainSection{at: at, n: len(c), a00: a[0], b0: b[0], d: d}
+		if sec.n == 2 {
+			sec.a01, sec.a10, sec.b1 = a[1], a[2], b[1]
+		}
+		cs = append(cs, sec)
+		at += sec.n
+	}
+	if n0+at != pl.N {
+		return nil
+	}
+	return cs
 }
 
 // step takes the measured rates of both lanes, updates the controllers and
@@ -340,6 +390,10 @@ func (p *pairCtrl) step(ym0, ym1 float64) (ua0, ua1 float64) {
 // run writes the true rate of the next len(y0) samples of the two loops
 // into y0 and y1 (len(y1) = len(y0)).
 func (s *pairStepper) run(y0, y1 []float64) {
+	if s.chain != nil {
+		s.runChain(y0, y1)
+		return
+	}
 	if pairKernel(s, y0, y1) {
 		return
 	}
@@ -349,29 +403,99 @@ func (s *pairStepper) run(y0, y1 []float64) {
 	x0, x1, xn0, xn1 := s.x[0][:np], s.x[1][:np], s.xn[0][:np], s.xn[1][:np]
 	y1 = y1[:len(y0)]
 	for t := range y0 {
-		var ym0, yt0, ym1, yt1 float64
-		for j, a := range cm {
-			ym0 += float64(a * x0[j])
-			ym1 += float64(a * x1[j])
-		}
-		for j, a := range cy {
-			yt0 += float64(a * x0[j])
-			yt1 += float64(a * x1[j])
-		}
-		y0[t], y1[t] = yt0, yt1
+		ym0, ym1 := pairDot(cm, x0, x1)
+		y0[t], y1[t] = pairDot(cy, x0, x1)
 		ua0, ua1 := s.ctrl.step(ym0, ym1)
-		for i := range np {
-			acc0, acc1 := float64(pb[i]*ua0), float64(pb[i]*ua1)
-			for j, a := range pa[i*np : i*np+np] {
-				acc0 += float64(a * x0[j])
-				acc1 += float64(a * x1[j])
-			}
-			xn0[i], xn1[i] = acc0, acc1
-		}
+		pairUpdate(pa, pb, x0, x1, xn0, xn1, ua0, ua1)
 		x0, xn0, x1, xn1 = xn0, x0, xn1, x1
 	}
 	s.k += len(y0)
 	s.x, s.xn = [2][]float64{x0, x1}, [2][]float64{xn0, xn1}
+}
+
+// runChain is run for a plant with a feedback filter chain: the plant
+// before the chain as a dense state space, then the sections on the
+// measured rate (chainPair), as the code runs the chain. The dense loops
+// of run on the whole state would multiply the zeros above the chain's
+// diagonal blocks and repeat the measured rate's row in every section's;
+// here a sample costs the plant's square plus a few operations a
+// section. The two agree to rounding (the same equations, associated
+// otherwise). Plants of up to 4 states before the chain with controllers
+// of up to 3 run in unrolled kernels (chain<p>x<m> of pairkernels_gen.go).
+func (s *pairStepper) runChain(y0, y1 []float64) {
+	if !chainKernel(s, y0, y1) {
+		s.runChainLoops(y0, y1)
+	}
+}
+
+// runChainLoops is runChain in loops, for any size; the kernels compute
+// exactly what it does.
+func (s *pairStepper) runChainLoops(y0, y1 []float64) {
+	pl := &s.pl
+	n0 := pl.unf.N
+	pa, pb, cm, cy := pl.unf.A[:n0*n0], pl.unf.B[:n0], pl.unf.C[:n0], pl.Cy[:n0]
+	x0, x1, xn0, xn1 := s.x[0][:n0], s.x[1][:n0], s.xn[0][:n0], s.xn[1][:n0]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0, ym1 := pairDot(cm, x0, x1)
+		y0[t], y1[t] = pairDot(cy, x0, x1)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		ua0, ua1 := s.ctrl.step(ym0, ym1)
+		pairUpdate(pa, pb, x0, x1, xn0, xn1, ua0, ua1)
+		x0, xn0, x1, xn1 = xn0, x0, xn1, x1
+	}
+	s.k += len(y0)
+	s.x, s.xn = [2][]float64{x0, x1}, [2][]float64{xn0, xn1}
+}
+
+// pairDot returns c·x0 and c·x1, summed from +0 in order.
+func pairDot(c, x0, x1 []float64) (float64, float64) {
+	var v0, v1 float64
+	x0, x1 = x0[:len(c)], x1[:len(c)]
+	for j, a := range c {
+		v0 += float64(a * x0[j])
+		v1 += float64(a * x1[j])
+	}
+	return v0, v1
+}
+
+// pairUpdate writes the next plant states of both lanes, xn = A·x + B·ua,
+// each row summed from the input's term in order (len(b) states).
+func pairUpdate(a, b, x0, x1, xn0, xn1 []float64, ua0, ua1 float64) {
+	n := len(b)
+	for i := range n {
+		acc0, acc1 := float64(b[i]*ua0), float64(b[i]*ua1)
+		for j, v := range a[i*n : i*n+n] {
+			acc0 += float64(v * x0[j])
+			acc1 += float64(v * x1[j])
+		}
+		xn0[i], xn1[i] = acc0, acc1
+	}
+}
+
+// chainPair runs the measured rates ym0 and ym1 of both lanes through the
+// filter sections, whose states are s0 and s1 (updated in place), and
+// returns the filtered rates.
+func chainPair(chain []chainSection, s0, s1 []float64, ym0, ym1 float64) (float64, float64) {
+	for i := range chain {
+		c := &chain[i]
+		k := c.at
+		s00, s10 := s0[k], s1[k]
+		if c.n == 2 {
+			s01, s11 := s0[k+1], s1[k+1]
+			s0[k] = float64(c.b0*ym0) + float64(c.a00*s00) + float64(c.a01*s01)
+			s1[k] = float64(c.b0*ym1) + float64(c.a00*s10) + float64(c.a01*s11)
+			s0[k+1] = float64(c.b1*ym0) + float64(c.a10*s00)
+			s1[k+1] = float64(c.b1*ym1) + float64(c.a10*s10)
+		} else {
+			s0[k] = float64(c.b0*ym0) + float64(c.a00*s00)
+			s1[k] = float64(c.b0*ym1) + float64(c.a00*s10)
+		}
+		ym0 = float64(c.d*ym0) + s00
+		ym1 = float64(c.d*ym1) + s10
+	}
+	return ym0, ym1
 }
 
 // dcGain returns the final value of the true rate after a unit setpoint

@@ -1274,8 +1274,677 @@ func pair8x3(s *pairStepper, y0, y1 []float64) {
 	xc1[0], xc1[1], xc1[2] = q1_0, q1_1, q1_2
 }
 
-// pairKernel runs the unrolled kernel for the stepper's sizes and
-// reports whether there is one.
+func chain1x0(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:1], pl.unf.B[:1], pl.unf.C[:1], pl.Cy[:1]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:1]
+	p0_0 := x0[0]
+	x1 := s.x[1][:1]
+	p1_0 := x1[0]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0] * p0_0)
+		y0[t] = rounded(Cy[0] * p0_0)
+		ym1 := rounded(Cm[0] * p1_0)
+		y1[t] = rounded(Cy[0] * p1_0)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0 = rounded(B[0]*ua0) + rounded(A[0]*p0_0)
+		p1_0 = rounded(B[0]*ua1) + rounded(A[0]*p1_0)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0] = p0_0
+	x1[0] = p1_0
+}
+
+func chain1x1(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:1], pl.unf.B[:1], pl.unf.C[:1], pl.Cy[:1]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:1], c.Br[:1], c.By[:1], c.Cc[:1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:1]
+	p0_0 := x0[0]
+	xc0 := s.ctrl.xc[0][:1]
+	q0_0 := xc0[0]
+	x1 := s.x[1][:1]
+	p1_0 := x1[0]
+	xc1 := s.ctrl.xc[1][:1]
+	q1_0 := xc1[0]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0] * p0_0)
+		y0[t] = rounded(Cy[0] * p0_0)
+		ym1 := rounded(Cm[0] * p1_0)
+		y1[t] = rounded(Cy[0] * p1_0)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0 = rounded(B[0]*ua0) + rounded(A[0]*p0_0)
+		p1_0 = rounded(B[0]*ua1) + rounded(A[0]*p1_0)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0] = p0_0
+	xc0[0] = q0_0
+	x1[0] = p1_0
+	xc1[0] = q1_0
+}
+
+func chain1x2(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:1], pl.unf.B[:1], pl.unf.C[:1], pl.Cy[:1]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:4], c.Br[:2], c.By[:2], c.Cc[:2]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:1]
+	p0_0 := x0[0]
+	xc0 := s.ctrl.xc[0][:2]
+	q0_0, q0_1 := xc0[0], xc0[1]
+	x1 := s.x[1][:1]
+	p1_0 := x1[0]
+	xc1 := s.ctrl.xc[1][:2]
+	q1_0, q1_1 := xc1[0], xc1[1]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0] * p0_0)
+		y0[t] = rounded(Cy[0] * p0_0)
+		ym1 := rounded(Cm[0] * p1_0)
+		y1[t] = rounded(Cy[0] * p1_0)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0 = rounded(B[0]*ua0) + rounded(A[0]*p0_0)
+		p1_0 = rounded(B[0]*ua1) + rounded(A[0]*p1_0)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0] = p0_0
+	xc0[0], xc0[1] = q0_0, q0_1
+	x1[0] = p1_0
+	xc1[0], xc1[1] = q1_0, q1_1
+}
+
+func chain1x3(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:1], pl.unf.B[:1], pl.unf.C[:1], pl.Cy[:1]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:9], c.Br[:3], c.By[:3], c.Cc[:3]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:1]
+	p0_0 := x0[0]
+	xc0 := s.ctrl.xc[0][:3]
+	q0_0, q0_1, q0_2 := xc0[0], xc0[1], xc0[2]
+	x1 := s.x[1][:1]
+	p1_0 := x1[0]
+	xc1 := s.ctrl.xc[1][:3]
+	q1_0, q1_1, q1_2 := xc1[0], xc1[1], xc1[2]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0] * p0_0)
+		y0[t] = rounded(Cy[0] * p0_0)
+		ym1 := rounded(Cm[0] * p1_0)
+		y1[t] = rounded(Cy[0] * p1_0)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0 = rounded(B[0]*ua0) + rounded(A[0]*p0_0)
+		p1_0 = rounded(B[0]*ua1) + rounded(A[0]*p1_0)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0] = p0_0
+	xc0[0], xc0[1], xc0[2] = q0_0, q0_1, q0_2
+	x1[0] = p1_0
+	xc1[0], xc1[1], xc1[2] = q1_0, q1_1, q1_2
+}
+
+func chain2x0(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:4], pl.unf.B[:2], pl.unf.C[:2], pl.Cy[:2]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:2]
+	p0_0, p0_1 := x0[0], x0[1]
+	x1 := s.x[1][:2]
+	p1_0, p1_1 := x1[0], x1[1]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1), rounded(B[1]*ua0)+rounded(A[2]*p0_0)+rounded(A[3]*p0_1)
+		p1_0, p1_1 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1), rounded(B[1]*ua1)+rounded(A[2]*p1_0)+rounded(A[3]*p1_1)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1] = p0_0, p0_1
+	x1[0], x1[1] = p1_0, p1_1
+}
+
+func chain2x1(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:4], pl.unf.B[:2], pl.unf.C[:2], pl.Cy[:2]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:1], c.Br[:1], c.By[:1], c.Cc[:1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:2]
+	p0_0, p0_1 := x0[0], x0[1]
+	xc0 := s.ctrl.xc[0][:1]
+	q0_0 := xc0[0]
+	x1 := s.x[1][:2]
+	p1_0, p1_1 := x1[0], x1[1]
+	xc1 := s.ctrl.xc[1][:1]
+	q1_0 := xc1[0]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1), rounded(B[1]*ua0)+rounded(A[2]*p0_0)+rounded(A[3]*p0_1)
+		p1_0, p1_1 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1), rounded(B[1]*ua1)+rounded(A[2]*p1_0)+rounded(A[3]*p1_1)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1] = p0_0, p0_1
+	xc0[0] = q0_0
+	x1[0], x1[1] = p1_0, p1_1
+	xc1[0] = q1_0
+}
+
+func chain2x2(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:4], pl.unf.B[:2], pl.unf.C[:2], pl.Cy[:2]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:4], c.Br[:2], c.By[:2], c.Cc[:2]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:2]
+	p0_0, p0_1 := x0[0], x0[1]
+	xc0 := s.ctrl.xc[0][:2]
+	q0_0, q0_1 := xc0[0], xc0[1]
+	x1 := s.x[1][:2]
+	p1_0, p1_1 := x1[0], x1[1]
+	xc1 := s.ctrl.xc[1][:2]
+	q1_0, q1_1 := xc1[0], xc1[1]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1), rounded(B[1]*ua0)+rounded(A[2]*p0_0)+rounded(A[3]*p0_1)
+		p1_0, p1_1 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1), rounded(B[1]*ua1)+rounded(A[2]*p1_0)+rounded(A[3]*p1_1)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1] = p0_0, p0_1
+	xc0[0], xc0[1] = q0_0, q0_1
+	x1[0], x1[1] = p1_0, p1_1
+	xc1[0], xc1[1] = q1_0, q1_1
+}
+
+func chain2x3(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:4], pl.unf.B[:2], pl.unf.C[:2], pl.Cy[:2]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:9], c.Br[:3], c.By[:3], c.Cc[:3]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:2]
+	p0_0, p0_1 := x0[0], x0[1]
+	xc0 := s.ctrl.xc[0][:3]
+	q0_0, q0_1, q0_2 := xc0[0], xc0[1], xc0[2]
+	x1 := s.x[1][:2]
+	p1_0, p1_1 := x1[0], x1[1]
+	xc1 := s.ctrl.xc[1][:3]
+	q1_0, q1_1, q1_2 := xc1[0], xc1[1], xc1[2]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1), rounded(B[1]*ua0)+rounded(A[2]*p0_0)+rounded(A[3]*p0_1)
+		p1_0, p1_1 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1), rounded(B[1]*ua1)+rounded(A[2]*p1_0)+rounded(A[3]*p1_1)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1] = p0_0, p0_1
+	xc0[0], xc0[1], xc0[2] = q0_0, q0_1, q0_2
+	x1[0], x1[1] = p1_0, p1_1
+	xc1[0], xc1[1], xc1[2] = q1_0, q1_1, q1_2
+}
+
+func chain3x0(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:9], pl.unf.B[:3], pl.unf.C[:3], pl.Cy[:3]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:3]
+	p0_0, p0_1, p0_2 := x0[0], x0[1], x0[2]
+	x1 := s.x[1][:3]
+	p1_0, p1_1, p1_2 := x1[0], x1[1], x1[2]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2), rounded(B[1]*ua0)+rounded(A[3]*p0_0)+rounded(A[4]*p0_1)+rounded(A[5]*p0_2), rounded(B[2]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)
+		p1_0, p1_1, p1_2 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2), rounded(B[1]*ua1)+rounded(A[3]*p1_0)+rounded(A[4]*p1_1)+rounded(A[5]*p1_2), rounded(B[2]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2] = p0_0, p0_1, p0_2
+	x1[0], x1[1], x1[2] = p1_0, p1_1, p1_2
+}
+
+func chain3x1(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:9], pl.unf.B[:3], pl.unf.C[:3], pl.Cy[:3]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:1], c.Br[:1], c.By[:1], c.Cc[:1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:3]
+	p0_0, p0_1, p0_2 := x0[0], x0[1], x0[2]
+	xc0 := s.ctrl.xc[0][:1]
+	q0_0 := xc0[0]
+	x1 := s.x[1][:3]
+	p1_0, p1_1, p1_2 := x1[0], x1[1], x1[2]
+	xc1 := s.ctrl.xc[1][:1]
+	q1_0 := xc1[0]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2), rounded(B[1]*ua0)+rounded(A[3]*p0_0)+rounded(A[4]*p0_1)+rounded(A[5]*p0_2), rounded(B[2]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)
+		p1_0, p1_1, p1_2 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2), rounded(B[1]*ua1)+rounded(A[3]*p1_0)+rounded(A[4]*p1_1)+rounded(A[5]*p1_2), rounded(B[2]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2] = p0_0, p0_1, p0_2
+	xc0[0] = q0_0
+	x1[0], x1[1], x1[2] = p1_0, p1_1, p1_2
+	xc1[0] = q1_0
+}
+
+func chain3x2(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:9], pl.unf.B[:3], pl.unf.C[:3], pl.Cy[:3]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:4], c.Br[:2], c.By[:2], c.Cc[:2]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:3]
+	p0_0, p0_1, p0_2 := x0[0], x0[1], x0[2]
+	xc0 := s.ctrl.xc[0][:2]
+	q0_0, q0_1 := xc0[0], xc0[1]
+	x1 := s.x[1][:3]
+	p1_0, p1_1, p1_2 := x1[0], x1[1], x1[2]
+	xc1 := s.ctrl.xc[1][:2]
+	q1_0, q1_1 := xc1[0], xc1[1]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2), rounded(B[1]*ua0)+rounded(A[3]*p0_0)+rounded(A[4]*p0_1)+rounded(A[5]*p0_2), rounded(B[2]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)
+		p1_0, p1_1, p1_2 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2), rounded(B[1]*ua1)+rounded(A[3]*p1_0)+rounded(A[4]*p1_1)+rounded(A[5]*p1_2), rounded(B[2]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2] = p0_0, p0_1, p0_2
+	xc0[0], xc0[1] = q0_0, q0_1
+	x1[0], x1[1], x1[2] = p1_0, p1_1, p1_2
+	xc1[0], xc1[1] = q1_0, q1_1
+}
+
+func chain3x3(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:9], pl.unf.B[:3], pl.unf.C[:3], pl.Cy[:3]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:9], c.Br[:3], c.By[:3], c.Cc[:3]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:3]
+	p0_0, p0_1, p0_2 := x0[0], x0[1], x0[2]
+	xc0 := s.ctrl.xc[0][:3]
+	q0_0, q0_1, q0_2 := xc0[0], xc0[1], xc0[2]
+	x1 := s.x[1][:3]
+	p1_0, p1_1, p1_2 := x1[0], x1[1], x1[2]
+	xc1 := s.ctrl.xc[1][:3]
+	q1_0, q1_1, q1_2 := xc1[0], xc1[1], xc1[2]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2), rounded(B[1]*ua0)+rounded(A[3]*p0_0)+rounded(A[4]*p0_1)+rounded(A[5]*p0_2), rounded(B[2]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)
+		p1_0, p1_1, p1_2 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2), rounded(B[1]*ua1)+rounded(A[3]*p1_0)+rounded(A[4]*p1_1)+rounded(A[5]*p1_2), rounded(B[2]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2] = p0_0, p0_1, p0_2
+	xc0[0], xc0[1], xc0[2] = q0_0, q0_1, q0_2
+	x1[0], x1[1], x1[2] = p1_0, p1_1, p1_2
+	xc1[0], xc1[1], xc1[2] = q1_0, q1_1, q1_2
+}
+
+func chain4x0(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:16], pl.unf.B[:4], pl.unf.C[:4], pl.Cy[:4]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:4]
+	p0_0, p0_1, p0_2, p0_3 := x0[0], x0[1], x0[2], x0[3]
+	x1 := s.x[1][:4]
+	p1_0, p1_1, p1_2, p1_3 := x1[0], x1[1], x1[2], x1[3]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3), rounded(B[1]*ua0)+rounded(A[4]*p0_0)+rounded(A[5]*p0_1)+rounded(A[6]*p0_2)+rounded(A[7]*p0_3), rounded(B[2]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3), rounded(B[3]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)
+		p1_0, p1_1, p1_2, p1_3 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3), rounded(B[1]*ua1)+rounded(A[4]*p1_0)+rounded(A[5]*p1_1)+rounded(A[6]*p1_2)+rounded(A[7]*p1_3), rounded(B[2]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3), rounded(B[3]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3] = p0_0, p0_1, p0_2, p0_3
+	x1[0], x1[1], x1[2], x1[3] = p1_0, p1_1, p1_2, p1_3
+}
+
+func chain4x1(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:16], pl.unf.B[:4], pl.unf.C[:4], pl.Cy[:4]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:1], c.Br[:1], c.By[:1], c.Cc[:1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:4]
+	p0_0, p0_1, p0_2, p0_3 := x0[0], x0[1], x0[2], x0[3]
+	xc0 := s.ctrl.xc[0][:1]
+	q0_0 := xc0[0]
+	x1 := s.x[1][:4]
+	p1_0, p1_1, p1_2, p1_3 := x1[0], x1[1], x1[2], x1[3]
+	xc1 := s.ctrl.xc[1][:1]
+	q1_0 := xc1[0]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3), rounded(B[1]*ua0)+rounded(A[4]*p0_0)+rounded(A[5]*p0_1)+rounded(A[6]*p0_2)+rounded(A[7]*p0_3), rounded(B[2]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3), rounded(B[3]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)
+		p1_0, p1_1, p1_2, p1_3 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3), rounded(B[1]*ua1)+rounded(A[4]*p1_0)+rounded(A[5]*p1_1)+rounded(A[6]*p1_2)+rounded(A[7]*p1_3), rounded(B[2]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3), rounded(B[3]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3] = p0_0, p0_1, p0_2, p0_3
+	xc0[0] = q0_0
+	x1[0], x1[1], x1[2], x1[3] = p1_0, p1_1, p1_2, p1_3
+	xc1[0] = q1_0
+}
+
+func chain4x2(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:16], pl.unf.B[:4], pl.unf.C[:4], pl.Cy[:4]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:4], c.Br[:2], c.By[:2], c.Cc[:2]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:4]
+	p0_0, p0_1, p0_2, p0_3 := x0[0], x0[1], x0[2], x0[3]
+	xc0 := s.ctrl.xc[0][:2]
+	q0_0, q0_1 := xc0[0], xc0[1]
+	x1 := s.x[1][:4]
+	p1_0, p1_1, p1_2, p1_3 := x1[0], x1[1], x1[2], x1[3]
+	xc1 := s.ctrl.xc[1][:2]
+	q1_0, q1_1 := xc1[0], xc1[1]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3), rounded(B[1]*ua0)+rounded(A[4]*p0_0)+rounded(A[5]*p0_1)+rounded(A[6]*p0_2)+rounded(A[7]*p0_3), rounded(B[2]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3), rounded(B[3]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)
+		p1_0, p1_1, p1_2, p1_3 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3), rounded(B[1]*ua1)+rounded(A[4]*p1_0)+rounded(A[5]*p1_1)+rounded(A[6]*p1_2)+rounded(A[7]*p1_3), rounded(B[2]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3), rounded(B[3]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3] = p0_0, p0_1, p0_2, p0_3
+	xc0[0], xc0[1] = q0_0, q0_1
+	x1[0], x1[1], x1[2], x1[3] = p1_0, p1_1, p1_2, p1_3
+	xc1[0], xc1[1] = q1_0, q1_1
+}
+
+func chain4x3(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:16], pl.unf.B[:4], pl.unf.C[:4], pl.Cy[:4]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:9], c.Br[:3], c.By[:3], c.Cc[:3]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:4]
+	p0_0, p0_1, p0_2, p0_3 := x0[0], x0[1], x0[2], x0[3]
+	xc0 := s.ctrl.xc[0][:3]
+	q0_0, q0_1, q0_2 := xc0[0], xc0[1], xc0[2]
+	x1 := s.x[1][:4]
+	p1_0, p1_1, p1_2, p1_3 := x1[0], x1[1], x1[2], x1[3]
+	xc1 := s.ctrl.xc[1][:3]
+	q1_0, q1_1, q1_2 := xc1[0], xc1[1], xc1[2]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3), rounded(B[1]*ua0)+rounded(A[4]*p0_0)+rounded(A[5]*p0_1)+rounded(A[6]*p0_2)+rounded(A[7]*p0_3), rounded(B[2]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3), rounded(B[3]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)
+		p1_0, p1_1, p1_2, p1_3 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3), rounded(B[1]*ua1)+rounded(A[4]*p1_0)+rounded(A[5]*p1_1)+rounded(A[6]*p1_2)+rounded(A[7]*p1_3), rounded(B[2]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3), rounded(B[3]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3] = p0_0, p0_1, p0_2, p0_3
+	xc0[0], xc0[1], xc0[2] = q0_0, q0_1, q0_2
+	x1[0], x1[1], x1[2], x1[3] = p1_0, p1_1, p1_2, p1_3
+	xc1[0], xc1[1], xc1[2] = q1_0, q1_1, q1_2
+}
+
+// pairKernel runs the unrolled kernel for the stepper's sizes (the plant's
+// states, the controller's)
+// and reports whether there is one.
 func pairKernel(s *pairStepper, y0, y1 []float64) bool {
 	switch s.pl.N*4 + s.ctrl.c.M {
 	case 4:
@@ -1342,6 +2011,49 @@ func pairKernel(s *pairStepper, y0, y1 []float64) bool {
 		pair8x2(s, y0, y1)
 	case 35:
 		pair8x3(s, y0, y1)
+	default:
+		return false
+	}
+	return true
+}
+
+// chainKernel runs the unrolled kernel for the stepper's sizes (the plant's
+// states before its filter chain, the controller's)
+// and reports whether there is one.
+func chainKernel(s *pairStepper, y0, y1 []float64) bool {
+	switch s.pl.unf.N*4 + s.ctrl.c.M {
+	case 4:
+		chain1x0(s, y0, y1)
+	case 5:
+		chain1x1(s, y0, y1)
+	case 6:
+		chain1x2(s, y0, y1)
+	case 7:
+		chain1x3(s, y0, y1)
+	case 8:
+		chain2x0(s, y0, y1)
+	case 9:
+		chain2x1(s, y0, y1)
+	case 10:
+		chain2x2(s, y0, y1)
+	case 11:
+		chain2x3(s, y0, y1)
+	case 12:
+		chain3x0(s, y0, y1)
+	case 13:
+		chain3x1(s, y0, y1)
+	case 14:
+		chain3x2(s, y0, y1)
+	case 15:
+		chain3x3(s, y0, y1)
+	case 16:
+		chain4x0(s, y0, y1)
+	case 17:
+		chain4x1(s, y0, y1)
+	case 18:
+		chain4x2(s, y0, y1)
+	case 19:
+		chain4x3(s, y0, y1)
 	default:
 		return false
 	}
