@@ -41,10 +41,10 @@ type Comparison struct {
 	Airframe [2]string `json:"airframe"` // old and new airframe names
 	// Tolerance and Floor are the thresholds the regressions were judged
 	// by, as fractions of a check's limit.
-	Tolerance float64        `json:"tolerance"`
-	Floor     float64        `json:"floor"`
-	Verdict   []AxisVerdict  `json:"verdict"`
-	Inputs    []InputChange  `json:"inputs"`
+	Tolerance float64       `json:"tolerance"`
+	Floor     float64       `json:"floor"`
+	Verdict   []AxisVerdict `json:"verdict"`
+	Inputs    []InputChange `json:"inputs"`
 	// Filters are the filters of the feedback chains added, removed or
 	// changed, on the axes of both versions.
 	Filters []FilterChange `json:"filters"`
