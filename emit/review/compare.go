@@ -41,11 +41,14 @@ type Comparison struct {
 	Airframe [2]string `json:"airframe"` // old and new airframe names
 	// Tolerance and Floor are the thresholds the regressions were judged
 	// by, as fractions of a check's limit.
-	Tolerance float64        `json:"tolerance"`
-	Floor     float64        `json:"floor"`
-	Verdict   []AxisVerdict  `json:"verdict"`
-	Inputs    []InputChange  `json:"inputs"`
-	Results   []ResultChange `json:"results"`
+	Tolerance float64       `json:"tolerance"`
+	Floor     float64       `json:"floor"`
+	Verdict   []AxisVerdict `json:"verdict"`
+	Inputs    []InputChange `json:"inputs"`
+	// Filters are the filters of the feedback chains added, removed or
+	// changed, on the axes of both versions.
+	Filters []FilterChange `json:"filters"`
+	Results []ResultChange `json:"results"`
 	// Regressions and Improvements count the axes' together.
 	Regressions  int `json:"regressions"`
 	Improvements int `json:"improvements"`
@@ -70,6 +73,33 @@ type InputChange struct {
 	Old any    `json:"old"`
 	New any    `json:"new"`
 }
+
+// FilterChange is a filter of an axis's feedback chain that was added,
+// removed or changed, by its place in the chain (Filter 1 is the first
+// the measured rate passes, axes.NAME.filter[0] in the file). The
+// settings are those the design ran (a centre or cutoff with hz = "auto"
+// as placed or chosen), which the changed inputs alone do not show: an
+// "auto" that moves is the same input. Old and New describe the filter
+// (null where it is absent), Fields name the settings that differ (for a
+// change), and the phases are the filter's at the crossover of the
+// nominal sampled loop of each version (null where absent).
+type FilterChange struct {
+	Axis        string   `json:"axis"`
+	Filter      int      `json:"filter"`
+	Change      string   `json:"change"` // "added", "removed" or "changed"
+	Old         *string  `json:"old"`
+	New         *string  `json:"new"`
+	Fields      []string `json:"fields,omitempty"`
+	OldPhaseDeg *float64 `json:"old_phase_at_crossover_deg"`
+	NewPhaseDeg *float64 `json:"new_phase_at_crossover_deg"`
+}
+
+// The changes of a filter.
+const (
+	FilterAdded   = "added"
+	FilterRemoved = "removed"
+	FilterChanged = "changed"
+)
 
 // The classes of a result change.
 const (
@@ -125,6 +155,7 @@ func Compare(oldName string, oldA *discrete.Airframe, newName string, newA *disc
 	c := &Comparison{Old: oldName, New: newName, Airframe: [2]string{oldA.File.Airframe, newA.File.Airframe},
 		Tolerance: tol, Floor: floor, Verdict: []AxisVerdict{}, Inputs: []InputChange{}, Results: []ResultChange{}}
 	c.Inputs = diffInputs(flattenTOML("", oldA.File.Raw), flattenTOML("", newA.File.Raw))
+	c.Filters = diffFilters(oldA, newA)
 	ro, err := flatResults(oldA)
 	if err != nil {
 		return nil, err
@@ -218,6 +249,127 @@ func unionKeys[V any](ms ...map[string]V) []string {
 	return keys
 }
 
+// chainOf returns the feedback filter chain of each axis of a, as the
+// design ran it (Design.Problem.Filters: an automatic cutoff chosen), or
+// as the file gives it when the axis did not design, with each filter's
+// phase at the crossover (nil without a design or a crossover).
+func chainOf(a *discrete.Airframe) map[string][]chainFilter {
+	out := map[string][]chainFilter{}
+	for _, ax := range a.File.Axes {
+		var fs []chainFilter
+		for _, f := range ax.Filters {
+			fs = append(fs, chainFilter{f: f})
+		}
+		out[ax.Name] = fs
+	}
+	for _, x := range a.Axes {
+		if x.Design == nil {
+			continue
+		}
+		var fs []chainFilter
+		rs := jsonFilters(x.Design)
+		for i, f := range x.Design.Problem.Filters {
+			cf := chainFilter{f: f}
+			if i < len(rs) {
+				cf.phase = rs[i].PhaseAtCrossoverDeg
+			}
+			fs = append(fs, cf)
+		}
+		out[x.Name] = fs
+	}
+	return out
+}
+
+// chainFilter is a filter of a chain and its phase at the crossover.
+type chainFilter struct {
+	f     airframe.Filter
+	phase *float64
+}
+
+// filterFields returns the settings of a filter by the names of the JSON
+// report (FilterReport), in its order; a setting that does not apply to
+// the kind is absent, as there.
+func filterFields(f airframe.Filter) [][2]string {
+	num := func(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
+	out := [][2]string{{"kind", string(f.Kind)}, {"at", f.At}, {"hz", num(f.Hz)}}
+	if f.Kind == airframe.FilterNotch {
+		out = append(out, [2]string{"width_hz", num(f.WidthHz)})
+		if f.DepthDB > 0 {
+			out = append(out, [2]string{"depth_db", num(f.DepthDB)})
+		}
+	}
+	if f.Order > 0 {
+		out = append(out, [2]string{"order", strconv.Itoa(f.Order)})
+	}
+	if f.Order == 2 {
+		out = append(out, [2]string{"damping", num(f.Damping)})
+	}
+	return append(out, [2]string{"auto", strconv.FormatBool(f.AutoHz)}, [2]string{"goal", f.Goal})
+}
+
+// changedFields names the settings in which two filters differ (a
+// setting present on one side only differs too).
+func changedFields(o, n airframe.Filter) []string {
+	of, nf := filterFields(o), filterFields(n)
+	val := func(fs [][2]string, k string) (string, bool) {
+		for _, f := range fs {
+			if f[0] == k {
+				return f[1], true
+			}
+		}
+		return "", false
+	}
+	var out []string
+	for _, k := range []string{"kind", "at", "hz", "width_hz", "depth_db", "order", "damping", "auto", "goal"} {
+		ov, oin := val(of, k)
+		nv, nin := val(nf, k)
+		if oin != nin || ov != nv {
+			out = append(out, k)
+		}
+	}
+	return out
+}
+
+// diffFilters lists the filters added, removed or changed, place by
+// place, on the axes both versions have (an axis added or removed is a
+// result of its own, with every filter it has).
+func diffFilters(oldA, newA *discrete.Airframe) []FilterChange {
+	out := []FilterChange{}
+	oc, nc := chainOf(oldA), chainOf(newA)
+	for _, ax := range unionKeys(oc, nc) {
+		os, oin := oc[ax]
+		ns, nin := nc[ax]
+		if !oin || !nin {
+			continue
+		}
+		for i := 0; i < max(len(os), len(ns)); i++ {
+			ch := FilterChange{Axis: ax, Filter: i + 1}
+			if i < len(os) {
+				d := os[i].f.Describe()
+				ch.Old, ch.OldPhaseDeg = &d, os[i].phase
+			}
+			if i < len(ns) {
+				d := ns[i].f.Describe()
+				ch.New, ch.NewPhaseDeg = &d, ns[i].phase
+			}
+			switch {
+			case ch.Old == nil:
+				ch.Change = FilterAdded
+			case ch.New == nil:
+				ch.Change = FilterRemoved
+			default:
+				ch.Fields = changedFields(os[i].f, ns[i].f)
+				if len(ch.Fields) == 0 {
+					continue
+				}
+				ch.Change = FilterChanged
+			}
+			out = append(out, ch)
+		}
+	}
+	return out
+}
+
 // axisResults is one axis's report: its figures flattened (path → value,
 // the checks apart), its checks by name, and its warnings.
 type axisResults struct {
@@ -284,6 +436,14 @@ func flattenJSON(prefix string, v any, out map[string]any) {
 			flattenJSON(join(k), e, out)
 		}
 	case []any:
+		if prefix == "filters" {
+			// The filter chain, by place (filters[0].hz), as the
+			// file's keys and the filter changes number it.
+			for i, e := range x {
+				flattenJSON(fmt.Sprintf("%s[%d]", prefix, i), e, out)
+			}
+			return
+		}
 		keys := make([]string, len(x))
 		named := len(x) > 0
 		for i, e := range x {
@@ -613,6 +773,13 @@ func (c *Comparison) WriteText(w io.Writer) error {
 			p("  %-*s  %s → %s", kw, ch.Key, inputText(ch.Old), inputText(ch.New))
 		}
 	}
+	if len(c.Filters) > 0 {
+		p("")
+		p("filter chain changed (%d):", len(c.Filters))
+		for _, f := range c.Filters {
+			p("  %s", filterChangeText(f))
+		}
+	}
 	if len(c.Results) == 0 {
 		p("")
 		p("results: unchanged")
@@ -650,6 +817,32 @@ func (c *Comparison) WriteText(w io.Writer) error {
 	p("")
 	p("%s", countText(c.Regressions, "regression"))
 	return bw.Flush()
+}
+
+// filterChangeText writes a filter change: "roll filter 1 added: notch
+// 150 Hz, -3 dB width 40 Hz; phase at the crossover −0.7504°", a change
+// with the settings that differ and both sides.
+func filterChangeText(f FilterChange) string {
+	desc := func(s *string) string {
+		if s == nil {
+			return "(absent)"
+		}
+		return *s
+	}
+	deg := func(v *float64) string {
+		if v == nil {
+			return "(none)"
+		}
+		return synth.G4(*v) + "°"
+	}
+	head := fmt.Sprintf("%s filter %d %s", f.Axis, f.Filter, f.Change)
+	switch f.Change {
+	case FilterAdded:
+		return fmt.Sprintf("%s: %s; phase at the crossover %s", head, desc(f.New), deg(f.NewPhaseDeg))
+	case FilterRemoved:
+		return fmt.Sprintf("%s: %s; phase at the crossover %s", head, desc(f.Old), deg(f.OldPhaseDeg))
+	}
+	return fmt.Sprintf("%s (%s): %s → %s; phase at the crossover %s → %s", head, strings.Join(f.Fields, ", "), desc(f.Old), desc(f.New), deg(f.OldPhaseDeg), deg(f.NewPhaseDeg))
 }
 
 // countText writes "no regressions", "1 regression", "3 regressions".
@@ -772,6 +965,8 @@ func valueText(key string, v any) string {
 		return g + " dB"
 	case strings.Contains(leaf, "time") || leaf == "delay_margin" || leaf == "derivative_tau" || leaf == "tracking_time":
 		return g + " s"
+	case leaf == "hz" || strings.HasSuffix(leaf, "_hz"):
+		return g + " Hz"
 	case leaf == "crossover" || leaf == "omega_n" || leaf == "prewarp_omega":
 		return g + " rad/s"
 	case leaf == "overshoot" || strings.HasSuffix(leaf, "_error") || leaf == "overshoot_no_antiwindup":

@@ -371,3 +371,111 @@ func TestCompareEnvelopeKeys(t *testing.T) {
 		t.Errorf("the plants are not summed up:\n%s", out)
 	}
 }
+
+// Filter changes are listed place by place, with the settings the design
+// ran and each filter's phase at the crossover (the JSON report's, which
+// TestFilterReportAgainstSciPy holds to SciPy): a notch added, the same
+// notch moved and a lowpass added behind it, a lowpass's order changed,
+// the notch removed; and the chain's figures are results keyed by place
+// (filters[0].hz), not one opaque array.
+func TestCompareFilters(t *testing.T) {
+	base := compareBase(t)
+	notch := func(hz string) string {
+		return "\n[[axes.roll.filter]]\nkind = \"notch\"\nhz = " + hz + "\nwidth_hz = 40.0\n"
+	}
+	const lowpass = "\n[[axes.roll.filter]]\nkind = \"lowpass\"\nhz = 300.0\n"
+	withNotch := base + notch("150.0")
+	moved := base + notch("160.0") + lowpass
+	firstOrder := base + notch("160.0") + strings.Replace(lowpass, "hz = 300.0", "hz = 300.0\norder = 1", 1)
+	phaseOf := func(text string, i int) *float64 {
+		return jsonFilters(sharedText(t, "f.toml", text).Axes[0].Design)[i].PhaseAtCrossoverDeg
+	}
+	str := func(s string) *string { return &s }
+	const n150, n160 = "notch 150 Hz, -3 dB width 40 Hz", "notch 160 Hz, -3 dB width 40 Hz"
+	const lp2, lp1 = "lowpass 300 Hz, order 2, damping 0.7071", "lowpass 300 Hz, order 1"
+	for _, tc := range []struct {
+		name     string
+		old, new string
+		want     []FilterChange
+		text     []string
+	}{{
+		name: "notch added", old: base, new: withNotch,
+		want: []FilterChange{{Axis: "roll", Filter: 1, Change: FilterAdded, New: str(n150), NewPhaseDeg: phaseOf(withNotch, 0)}},
+		text: []string{"filter chain changed (1):\n  roll filter 1 added: " + n150 + "; phase at the crossover "},
+	}, {
+		name: "notch moved, lowpass added", old: withNotch, new: moved,
+		want: []FilterChange{
+			{Axis: "roll", Filter: 1, Change: FilterChanged, Old: str(n150), New: str(n160), Fields: []string{"hz"}, OldPhaseDeg: phaseOf(withNotch, 0), NewPhaseDeg: phaseOf(moved, 0)},
+			{Axis: "roll", Filter: 2, Change: FilterAdded, New: str(lp2), NewPhaseDeg: phaseOf(moved, 1)},
+		},
+		text: []string{"  roll filter 1 changed (hz): " + n150 + " → " + n160 + "; phase at the crossover ", "  roll filter 2 added: " + lp2 + ";"},
+	}, {
+		name: "lowpass order", old: moved, new: firstOrder,
+		want: []FilterChange{{Axis: "roll", Filter: 2, Change: FilterChanged, Old: str(lp2), New: str(lp1), Fields: []string{"order", "damping"}, OldPhaseDeg: phaseOf(moved, 1), NewPhaseDeg: phaseOf(firstOrder, 1)}},
+		text: []string{"  roll filter 2 changed (order, damping): " + lp2 + " → " + lp1 + ";"},
+	}, {
+		name: "notch removed", old: withNotch, new: base,
+		want: []FilterChange{{Axis: "roll", Filter: 1, Change: FilterRemoved, Old: str(n150), OldPhaseDeg: phaseOf(withNotch, 0)}},
+		text: []string{"  roll filter 1 removed: " + n150 + "; phase at the crossover "},
+	}, {
+		name: "unchanged", old: moved, new: moved,
+		want: []FilterChange{},
+	}} {
+		t.Run(tc.name, func(t *testing.T) {
+			c := compareTexts(t, tc.old, tc.new)
+			if diff := cmp.Diff(tc.want, c.Filters); diff != "" {
+				t.Errorf("filter changes (-want +got):\n%s", diff)
+			}
+			out := textOf(t, c)
+			for _, w := range tc.text {
+				if !strings.Contains(out, w) {
+					t.Errorf("text lacks %q:\n%s", w, out)
+				}
+			}
+			if len(tc.want) == 0 && strings.Contains(out, "filter chain changed") {
+				t.Errorf("no change, but the text lists one:\n%s", out)
+			}
+		})
+	}
+	// The figures of the chain are results by place; a moved notch moves
+	// its centre and coefficients.
+	c := compareTexts(t, withNotch, moved)
+	if ch := findResult(c, "roll", "filters[0].hz"); ch == nil || ch.Old != 150.0 || ch.New != 160.0 || ch.Class != Neutral {
+		t.Errorf("filters[0].hz: %+v", ch)
+	}
+	if ch := findResult(c, "roll", "filters[1].kind"); ch == nil || ch.Old != nil || ch.New != "lowpass" {
+		t.Errorf("filters[1].kind: %+v", ch)
+	}
+	for _, k := range []string{"filters[0].b", "filters[0].phase_at_crossover_deg"} {
+		if findResult(c, "roll", k) == nil {
+			t.Errorf("%s not among the results", k)
+		}
+	}
+	if findResult(c, "roll", "filters") != nil {
+		t.Error("the chain is compared as one array")
+	}
+
+	// A notch with hz = "auto" follows the mode it is placed on: the
+	// demo gimbal's mount mode moved from |p| = 500 to 442.3 rad/s
+	// changes no filter key of the file, but the notch the design runs
+	// moves from 79.6 Hz (500/2π, the README's figure) to 70.4 Hz.
+	gpath := "../../examples/gimbal.toml"
+	data, err := os.ReadFile(gpath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	g := edit(t, string(data), "[-25.0, 499.4]", "[-25.0, 441.6]")
+	gc, err := Compare("gimbal.toml", sharedDesign(t, gpath), "moved.toml", sharedText(t, "moved.toml", g), 0, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, in := range gc.Inputs {
+		if strings.Contains(in.Key, "filter") {
+			t.Errorf("input %s changed", in.Key)
+		}
+	}
+	if len(gc.Filters) != 1 || gc.Filters[0].Change != FilterChanged || !slices.Equal(gc.Filters[0].Fields, []string{"hz", "width_hz"}) ||
+		!strings.HasPrefix(*gc.Filters[0].Old, "notch 79.6 Hz (auto)") || !strings.HasPrefix(*gc.Filters[0].New, "notch 70.4 Hz (auto)") {
+		t.Errorf("the moved auto notch: %+v", gc.Filters)
+	}
+}

@@ -71,6 +71,10 @@ type AxisPage struct {
 	// the sampling and the delays, and what is left as margin.
 	Phase      []Row
 	PhaseTotal string
+	// ChainPhase is the feedback filter chain's share of it, the
+	// filters together, and its gain at the crossover ("" without a
+	// chain or a crossover).
+	ChainPhase string
 	// Chain compares the design with the axis designed again without
 	// its filter chain: what the chain buys (nil without a chain, or
 	// when the comparison was not designed).
@@ -283,6 +287,7 @@ func axisModel(airframe string, x discrete.Outcome) (AxisPage, []builtFigure) {
 	ar.Coeffs = coeffRows(d.Coeffs)
 	ar.Metrics, ar.Checks = metricRows(d)
 	ar.Phase, ar.PhaseTotal = phaseBudget(d)
+	ar.ChainPhase = chainPhase(d)
 	ar.Chain = chainRows(d)
 	ar.Envelope = envelopePage(d)
 	ar.CPoles = polesText(c.Verif.Poles, "")
@@ -824,6 +829,23 @@ func phaseBudget(d *discrete.Design) ([]Row, string) {
 		add("transport delay", -wc*tau, "−ωc·τ")
 	}
 	return rows, fmt.Sprintf("%s at the crossover %s (%s Hz); the phase margin left is %s", degs(total*deg), rads(wc), g4(wc/(2*math.Pi)), degs(d.Verif.Margins.PhaseDeg))
+}
+
+// chainPhase is the filter chain's phase at the crossover of the nominal
+// sampled loop, all its filters together (the sum of their rows in the
+// phase budget), and its gain there, which moves the crossover:
+// "−6.1°, gain −0.1853 dB (its 2 filters together)". It is "" without a
+// chain or a crossover.
+func chainPhase(d *discrete.Design) string {
+	db, deg, ok := chainAtCrossover(d)
+	if !ok {
+		return ""
+	}
+	who := "its one filter"
+	if n := len(d.Plant.Sections); n > 1 {
+		who = fmt.Sprintf("its %d filters together", n)
+	}
+	return fmt.Sprintf("%s, gain %s (%s)", degs(deg), dbs(db), who)
 }
 
 // ChainRow is a figure of the design with its filter chain and of the

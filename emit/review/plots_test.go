@@ -138,7 +138,8 @@ var timeKinds = map[string]bool{"step": true, "envelope": true, "saturated": tru
 //     turn and a half, and shows the critical line and the phase at the
 //     crossover, which differ by the phase margin (PM = 180° + ∠L(jωc),
 //     the handbook definition); PM and GM are written on the plot;
-//   - the frequency plots carry a Hz axis (ω = 2πf);
+//   - the frequency plots (the loop's, the sensitivity functions', the
+//     filter chain's) carry a Hz axis (ω = 2πf);
 //   - the s- and z-plane panels have one scale on both axes, and their
 //     shaded region is the second-order guide, not a pass/fail region;
 //   - every legend entry's marker or line style is drawn in a panel (no
@@ -165,7 +166,7 @@ func TestExamplePlots(t *testing.T) {
 		case "bode":
 			checkPhaseAxis(t, bp, doc.texts)
 			fallthrough
-		case "sensitivity":
+		case "sensitivity", "filters":
 			if !f.hz[0] || !containsText(doc.texts, "Hz") {
 				t.Errorf("%s: no Hz axis", bp.name)
 			}

@@ -116,6 +116,7 @@ func plotMakers() []plotMaker {
 		{"saturated", "Large setpoint step against the output limits, with and without anti-windup", saturatedFigure},
 		{"disturbance", "Load-disturbance step at every plant of the envelope, with the recovery", disturbanceFigure},
 		{"bode", "Loop frequency response with margins", bodeFigure},
+		{"filters", "The feedback filter chain's own magnitude and phase, discrete as it runs and continuous, with the crossover and each filter's centre or cutoff", chainFigure},
 		{"sensitivity", "Sensitivity functions |S|, |T| and |C·S| of the nominal sampled loop against their bounds", sensitivityFigure},
 		{"zplane", "z-plane map of the sampled closed loop", zFigure},
 	}

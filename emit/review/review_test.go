@@ -177,6 +177,8 @@ var expectedSeries = map[string][]string{
 	"disturbance": {`^nominal plant$`, `^recovery band ±2 % of the nominal peak [0-9.e−]+ rad/s$`},
 	"sensitivity": {`^\|S\| = \|1/\(1 \+ L\)\|, peak Ms = [0-9.]+ at `, `^\|T\| = \|L/\(1 \+ L\)\|, peak Mt = [0-9.]+ at `, `^bound Ms ≤ [0-9.]+ \(`,
 		`^\|C·S\|, measurement noise → command$`, `^\|C\|, the controller alone: noise gain `, `^Nyquist frequency π/T = `},
+	"filters": {`^discrete chain F\(e\^\(jωT\)\) at [0-9.]+ Hz, as the code runs it$`, `^continuous counterparts F\(jω\)$`, `^1: (notch|lowpass) [0-9.]+ Hz.*, at [0-9.]+ rad/s \([0-9.]+ Hz\)$`,
+		`^gain crossover ωc = [0-9.]+ rad/s \([0-9.]+ Hz\) of the sampled loop: \|F\| = −?[0-9.e−]+ dB, ∠F = −?[0-9.e−]+°$`, `^Nyquist frequency π/T = `},
 	// An axis with a filter chain: the noise curves are |C·F·S| and |C·F|.
 	"sensitivity-chain": {`^\|S\| = \|1/\(1 \+ L\)\|, peak Ms = [0-9.]+ at `, `^\|T\| = \|L/\(1 \+ L\)\|, peak Mt = [0-9.]+ at `, `^bound Ms ≤ [0-9.]+ \(`,
 		`^\|C·F·S\|, measurement noise → command$`, `^\|C·F\|, the controller behind the filter chain: noise gain `, `^Nyquist frequency π/T = `},
