@@ -282,6 +282,42 @@ type pairStepper struct {
 	// last states of the plant's, which x then leaves at zero).
 	chain []chainSection
 	sec   [2][]float64
+	// rows are the spans of nonzero entries of the plant matrix that the
+	// loops multiply (pl.A, or pl.unf.A before a chain), when the loops
+	// run it and the spans gain (see sparseRows); nil otherwise.
+	rows *sparseRows
+}
+
+// sparseRows holds, for each row i of an n×n matrix, the span of
+// columns lo[i] ≤ j < hi[i] outside which its entries are zero. The plant
+// of a cascade realization (lti.ZPK.CascadeSS) is block lower triangular,
+// and so is its matrix exponential: about half its entries lie right of
+// the spans, and the dense loops multiply them for nothing.
+type sparseRows struct {
+	lo, hi []int
+}
+
+// sparseOf returns the spans of the n×n matrix a, or nil when they cover
+// more than three quarters of it (the dense loops are then as fast).
+func sparseOf(a []float64, n int) *sparseRows {
+	r := &sparseRows{lo: make([]int, n), hi: make([]int, n)}
+	cover := 0
+	for i := range n {
+		row := a[i*n : i*n+n]
+		lo, hi := 0, n
+		for lo < n && row[lo] == 0 {
+			lo++
+		}
+		for hi > lo && row[hi-1] == 0 {
+			hi--
+		}
+		r.lo[i], r.hi[i] = lo, hi
+		cover += hi - lo
+	}
+	if 4*cover > 3*n*n {
+		return nil
+	}
+	return r
 }
 
 // chainSection is one filter section in the state-space form of
@@ -317,10 +353,17 @@ func newPairStepper(pl Plant, c0, c1 linearCtrl, d int) *pairStepper {
 		s.ctrl.xc[l], s.ctrl.xcn[l] = buf[2*np:2*np+m], buf[2*np+m:2*np+2*m]
 		s.ctrl.ring[l] = buf[2*np+2*m:]
 	}
+	a, n := pl.A, pl.N
 	if s.chain = chainOf(pl); s.chain != nil {
-		n := pl.N - pl.unf.N
-		buf := make([]float64, 2*n)
-		s.sec = [2][]float64{buf[:n:n], buf[n:]}
+		ns := pl.N - pl.unf.N
+		buf := make([]float64, 2*ns)
+		s.sec = [2][]float64{buf[:ns:ns], buf[ns:]}
+		a, n = pl.unf.A, pl.unf.N
+	}
+	// The unrolled kernels take the plants of up to 8 states (4 before a
+	// chain); the loops take the rest.
+	if n > 8 || s.chain != nil && n > 4 {
+		s.rows = sparseOf(a, n)
 	}
 	return s
 }
@@ -406,11 +449,37 @@ func (s *pairStepper) run(y0, y1 []float64) {
 		ym0, ym1 := pairDot(cm, x0, x1)
 		y0[t], y1[t] = pairDot(cy, x0, x1)
 		ua0, ua1 := s.ctrl.step(ym0, ym1)
-		pairUpdate(pa, pb, x0, x1, xn0, xn1, ua0, ua1)
+		s.update(pa, pb, x0, x1, xn0, xn1, ua0, ua1)
 		x0, xn0, x1, xn1 = xn0, x0, xn1, x1
 	}
 	s.k += len(y0)
 	s.x, s.xn = [2][]float64{x0, x1}, [2][]float64{xn0, xn1}
+}
+
+// update is pairUpdate, over each row's span of the plant matrix a when
+// the stepper has them (rows). Skipping a zero product changes no sum
+// while the states are finite (x + 0 = x; at most the sign of a zero sum
+// differs); a diverging response that reaches an infinite state can turn
+// NaN in other rows than the dense loops', and fails either way.
+func (s *pairStepper) update(a, b, x0, x1, xn0, xn1 []float64, ua0, ua1 float64) {
+	r := s.rows
+	if r == nil {
+		pairUpdate(a, b, x0, x1, xn0, xn1, ua0, ua1)
+		return
+	}
+	n := len(b)
+	for i := range n {
+		acc0, acc1 := float64(b[i]*ua0), float64(b[i]*ua1)
+		lo, hi := r.lo[i], r.hi[i]
+		row := a[i*n+lo : i*n+hi]
+		s0, s1 := x0[lo:hi], x1[lo:hi]
+		s0, s1 = s0[:len(row)], s1[:len(row)]
+		for j, v := range row {
+			acc0 += float64(v * s0[j])
+			acc1 += float64(v * s1[j])
+		}
+		xn0[i], xn1[i] = acc0, acc1
+	}
 }
 
 // runChain is run for a plant with a feedback filter chain: the plant
@@ -442,7 +511,7 @@ func (s *pairStepper) runChainLoops(y0, y1 []float64) {
 		y0[t], y1[t] = pairDot(cy, x0, x1)
 		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
 		ua0, ua1 := s.ctrl.step(ym0, ym1)
-		pairUpdate(pa, pb, x0, x1, xn0, xn1, ua0, ua1)
+		s.update(pa, pb, x0, x1, xn0, xn1, ua0, ua1)
 		x0, xn0, x1, xn1 = xn0, x0, xn1, x1
 	}
 	s.k += len(y0)
