@@ -984,14 +984,15 @@ func TestPairStepperMatchesStepper(t *testing.T) {
 // that the single stepper runs, associated otherwise, so the two agree to
 // rounding: within 1e-12 of the response's peak, for chains of one to
 // three sections of either order, every form, compute delays 0 to 2, and
-// plants of 3, 4, 5 and 7 states before the chain (the unrolled kernels
-// up to 4, the loops beyond). The kernels are the loops bit for bit.
+// plants of 3, 4, 5, 7 and 9 states before the chain (the unrolled
+// kernels up to 8, the loops beyond). The kernels are the loops bit for
+// bit.
 func TestChainStepperMatchesDense(t *testing.T) {
 	kernels := 0
-	for _, extra := range []int{0, 1, 2, 4} {
+	for _, extra := range []int{0, 1, 2, 4, 6} {
 		testChainStepper(t, extra, &kernels)
 	}
-	if want := 2 * 3 * len(airframe.Forms()) * 3; kernels != want {
+	if want := 4 * 3 * len(airframe.Forms()) * 3; kernels != want {
 		t.Errorf("%d runs through a chain kernel, want %d", kernels, want)
 	}
 }

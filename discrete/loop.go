@@ -360,9 +360,9 @@ func newPairStepper(pl Plant, c0, c1 linearCtrl, d int) *pairStepper {
 		s.sec = [2][]float64{buf[:ns:ns], buf[ns:]}
 		a, n = pl.unf.A, pl.unf.N
 	}
-	// The unrolled kernels take the plants of up to 8 states (4 before a
-	// chain); the loops take the rest.
-	if n > 8 || s.chain != nil && n > 4 {
+	// The unrolled kernels take the plants of up to 8 states (before a
+	// chain, if any); the loops take the rest.
+	if n > 8 {
 		s.rows = sparseOf(a, n)
 	}
 	return s
@@ -489,7 +489,7 @@ func (s *pairStepper) update(a, b, x0, x1, xn0, xn1 []float64, ua0, ua1 float64)
 // diagonal blocks and repeat the measured rate's row in every section's;
 // here a sample costs the plant's square plus a few operations a
 // section. The two agree to rounding (the same equations, associated
-// otherwise). Plants of up to 4 states before the chain with controllers
+// otherwise). Plants of up to 8 states before the chain with controllers
 // of up to 3 run in unrolled kernels (chain<p>x<m> of pairkernels_gen.go).
 func (s *pairStepper) runChain(y0, y1 []float64) {
 	if !chainKernel(s, y0, y1) {

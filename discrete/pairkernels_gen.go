@@ -1942,6 +1942,674 @@ func chain4x3(s *pairStepper, y0, y1 []float64) {
 	xc1[0], xc1[1], xc1[2] = q1_0, q1_1, q1_2
 }
 
+func chain5x0(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:25], pl.unf.B[:5], pl.unf.C[:5], pl.Cy[:5]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:5]
+	p0_0, p0_1, p0_2, p0_3, p0_4 := x0[0], x0[1], x0[2], x0[3], x0[4]
+	x1 := s.x[1][:5]
+	p1_0, p1_1, p1_2, p1_3, p1_4 := x1[0], x1[1], x1[2], x1[3], x1[4]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4), rounded(B[1]*ua0)+rounded(A[5]*p0_0)+rounded(A[6]*p0_1)+rounded(A[7]*p0_2)+rounded(A[8]*p0_3)+rounded(A[9]*p0_4), rounded(B[2]*ua0)+rounded(A[10]*p0_0)+rounded(A[11]*p0_1)+rounded(A[12]*p0_2)+rounded(A[13]*p0_3)+rounded(A[14]*p0_4), rounded(B[3]*ua0)+rounded(A[15]*p0_0)+rounded(A[16]*p0_1)+rounded(A[17]*p0_2)+rounded(A[18]*p0_3)+rounded(A[19]*p0_4), rounded(B[4]*ua0)+rounded(A[20]*p0_0)+rounded(A[21]*p0_1)+rounded(A[22]*p0_2)+rounded(A[23]*p0_3)+rounded(A[24]*p0_4)
+		p1_0, p1_1, p1_2, p1_3, p1_4 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4), rounded(B[1]*ua1)+rounded(A[5]*p1_0)+rounded(A[6]*p1_1)+rounded(A[7]*p1_2)+rounded(A[8]*p1_3)+rounded(A[9]*p1_4), rounded(B[2]*ua1)+rounded(A[10]*p1_0)+rounded(A[11]*p1_1)+rounded(A[12]*p1_2)+rounded(A[13]*p1_3)+rounded(A[14]*p1_4), rounded(B[3]*ua1)+rounded(A[15]*p1_0)+rounded(A[16]*p1_1)+rounded(A[17]*p1_2)+rounded(A[18]*p1_3)+rounded(A[19]*p1_4), rounded(B[4]*ua1)+rounded(A[20]*p1_0)+rounded(A[21]*p1_1)+rounded(A[22]*p1_2)+rounded(A[23]*p1_3)+rounded(A[24]*p1_4)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4] = p0_0, p0_1, p0_2, p0_3, p0_4
+	x1[0], x1[1], x1[2], x1[3], x1[4] = p1_0, p1_1, p1_2, p1_3, p1_4
+}
+
+func chain5x1(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:25], pl.unf.B[:5], pl.unf.C[:5], pl.Cy[:5]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:1], c.Br[:1], c.By[:1], c.Cc[:1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:5]
+	p0_0, p0_1, p0_2, p0_3, p0_4 := x0[0], x0[1], x0[2], x0[3], x0[4]
+	xc0 := s.ctrl.xc[0][:1]
+	q0_0 := xc0[0]
+	x1 := s.x[1][:5]
+	p1_0, p1_1, p1_2, p1_3, p1_4 := x1[0], x1[1], x1[2], x1[3], x1[4]
+	xc1 := s.ctrl.xc[1][:1]
+	q1_0 := xc1[0]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4), rounded(B[1]*ua0)+rounded(A[5]*p0_0)+rounded(A[6]*p0_1)+rounded(A[7]*p0_2)+rounded(A[8]*p0_3)+rounded(A[9]*p0_4), rounded(B[2]*ua0)+rounded(A[10]*p0_0)+rounded(A[11]*p0_1)+rounded(A[12]*p0_2)+rounded(A[13]*p0_3)+rounded(A[14]*p0_4), rounded(B[3]*ua0)+rounded(A[15]*p0_0)+rounded(A[16]*p0_1)+rounded(A[17]*p0_2)+rounded(A[18]*p0_3)+rounded(A[19]*p0_4), rounded(B[4]*ua0)+rounded(A[20]*p0_0)+rounded(A[21]*p0_1)+rounded(A[22]*p0_2)+rounded(A[23]*p0_3)+rounded(A[24]*p0_4)
+		p1_0, p1_1, p1_2, p1_3, p1_4 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4), rounded(B[1]*ua1)+rounded(A[5]*p1_0)+rounded(A[6]*p1_1)+rounded(A[7]*p1_2)+rounded(A[8]*p1_3)+rounded(A[9]*p1_4), rounded(B[2]*ua1)+rounded(A[10]*p1_0)+rounded(A[11]*p1_1)+rounded(A[12]*p1_2)+rounded(A[13]*p1_3)+rounded(A[14]*p1_4), rounded(B[3]*ua1)+rounded(A[15]*p1_0)+rounded(A[16]*p1_1)+rounded(A[17]*p1_2)+rounded(A[18]*p1_3)+rounded(A[19]*p1_4), rounded(B[4]*ua1)+rounded(A[20]*p1_0)+rounded(A[21]*p1_1)+rounded(A[22]*p1_2)+rounded(A[23]*p1_3)+rounded(A[24]*p1_4)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4] = p0_0, p0_1, p0_2, p0_3, p0_4
+	xc0[0] = q0_0
+	x1[0], x1[1], x1[2], x1[3], x1[4] = p1_0, p1_1, p1_2, p1_3, p1_4
+	xc1[0] = q1_0
+}
+
+func chain5x2(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:25], pl.unf.B[:5], pl.unf.C[:5], pl.Cy[:5]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:4], c.Br[:2], c.By[:2], c.Cc[:2]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:5]
+	p0_0, p0_1, p0_2, p0_3, p0_4 := x0[0], x0[1], x0[2], x0[3], x0[4]
+	xc0 := s.ctrl.xc[0][:2]
+	q0_0, q0_1 := xc0[0], xc0[1]
+	x1 := s.x[1][:5]
+	p1_0, p1_1, p1_2, p1_3, p1_4 := x1[0], x1[1], x1[2], x1[3], x1[4]
+	xc1 := s.ctrl.xc[1][:2]
+	q1_0, q1_1 := xc1[0], xc1[1]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4), rounded(B[1]*ua0)+rounded(A[5]*p0_0)+rounded(A[6]*p0_1)+rounded(A[7]*p0_2)+rounded(A[8]*p0_3)+rounded(A[9]*p0_4), rounded(B[2]*ua0)+rounded(A[10]*p0_0)+rounded(A[11]*p0_1)+rounded(A[12]*p0_2)+rounded(A[13]*p0_3)+rounded(A[14]*p0_4), rounded(B[3]*ua0)+rounded(A[15]*p0_0)+rounded(A[16]*p0_1)+rounded(A[17]*p0_2)+rounded(A[18]*p0_3)+rounded(A[19]*p0_4), rounded(B[4]*ua0)+rounded(A[20]*p0_0)+rounded(A[21]*p0_1)+rounded(A[22]*p0_2)+rounded(A[23]*p0_3)+rounded(A[24]*p0_4)
+		p1_0, p1_1, p1_2, p1_3, p1_4 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4), rounded(B[1]*ua1)+rounded(A[5]*p1_0)+rounded(A[6]*p1_1)+rounded(A[7]*p1_2)+rounded(A[8]*p1_3)+rounded(A[9]*p1_4), rounded(B[2]*ua1)+rounded(A[10]*p1_0)+rounded(A[11]*p1_1)+rounded(A[12]*p1_2)+rounded(A[13]*p1_3)+rounded(A[14]*p1_4), rounded(B[3]*ua1)+rounded(A[15]*p1_0)+rounded(A[16]*p1_1)+rounded(A[17]*p1_2)+rounded(A[18]*p1_3)+rounded(A[19]*p1_4), rounded(B[4]*ua1)+rounded(A[20]*p1_0)+rounded(A[21]*p1_1)+rounded(A[22]*p1_2)+rounded(A[23]*p1_3)+rounded(A[24]*p1_4)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4] = p0_0, p0_1, p0_2, p0_3, p0_4
+	xc0[0], xc0[1] = q0_0, q0_1
+	x1[0], x1[1], x1[2], x1[3], x1[4] = p1_0, p1_1, p1_2, p1_3, p1_4
+	xc1[0], xc1[1] = q1_0, q1_1
+}
+
+func chain5x3(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:25], pl.unf.B[:5], pl.unf.C[:5], pl.Cy[:5]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:9], c.Br[:3], c.By[:3], c.Cc[:3]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:5]
+	p0_0, p0_1, p0_2, p0_3, p0_4 := x0[0], x0[1], x0[2], x0[3], x0[4]
+	xc0 := s.ctrl.xc[0][:3]
+	q0_0, q0_1, q0_2 := xc0[0], xc0[1], xc0[2]
+	x1 := s.x[1][:5]
+	p1_0, p1_1, p1_2, p1_3, p1_4 := x1[0], x1[1], x1[2], x1[3], x1[4]
+	xc1 := s.ctrl.xc[1][:3]
+	q1_0, q1_1, q1_2 := xc1[0], xc1[1], xc1[2]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4), rounded(B[1]*ua0)+rounded(A[5]*p0_0)+rounded(A[6]*p0_1)+rounded(A[7]*p0_2)+rounded(A[8]*p0_3)+rounded(A[9]*p0_4), rounded(B[2]*ua0)+rounded(A[10]*p0_0)+rounded(A[11]*p0_1)+rounded(A[12]*p0_2)+rounded(A[13]*p0_3)+rounded(A[14]*p0_4), rounded(B[3]*ua0)+rounded(A[15]*p0_0)+rounded(A[16]*p0_1)+rounded(A[17]*p0_2)+rounded(A[18]*p0_3)+rounded(A[19]*p0_4), rounded(B[4]*ua0)+rounded(A[20]*p0_0)+rounded(A[21]*p0_1)+rounded(A[22]*p0_2)+rounded(A[23]*p0_3)+rounded(A[24]*p0_4)
+		p1_0, p1_1, p1_2, p1_3, p1_4 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4), rounded(B[1]*ua1)+rounded(A[5]*p1_0)+rounded(A[6]*p1_1)+rounded(A[7]*p1_2)+rounded(A[8]*p1_3)+rounded(A[9]*p1_4), rounded(B[2]*ua1)+rounded(A[10]*p1_0)+rounded(A[11]*p1_1)+rounded(A[12]*p1_2)+rounded(A[13]*p1_3)+rounded(A[14]*p1_4), rounded(B[3]*ua1)+rounded(A[15]*p1_0)+rounded(A[16]*p1_1)+rounded(A[17]*p1_2)+rounded(A[18]*p1_3)+rounded(A[19]*p1_4), rounded(B[4]*ua1)+rounded(A[20]*p1_0)+rounded(A[21]*p1_1)+rounded(A[22]*p1_2)+rounded(A[23]*p1_3)+rounded(A[24]*p1_4)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4] = p0_0, p0_1, p0_2, p0_3, p0_4
+	xc0[0], xc0[1], xc0[2] = q0_0, q0_1, q0_2
+	x1[0], x1[1], x1[2], x1[3], x1[4] = p1_0, p1_1, p1_2, p1_3, p1_4
+	xc1[0], xc1[1], xc1[2] = q1_0, q1_1, q1_2
+}
+
+func chain6x0(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:36], pl.unf.B[:6], pl.unf.C[:6], pl.Cy[:6]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:6]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5]
+	x1 := s.x[1][:6]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5), rounded(B[1]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)+rounded(A[9]*p0_3)+rounded(A[10]*p0_4)+rounded(A[11]*p0_5), rounded(B[2]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)+rounded(A[16]*p0_4)+rounded(A[17]*p0_5), rounded(B[3]*ua0)+rounded(A[18]*p0_0)+rounded(A[19]*p0_1)+rounded(A[20]*p0_2)+rounded(A[21]*p0_3)+rounded(A[22]*p0_4)+rounded(A[23]*p0_5), rounded(B[4]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5), rounded(B[5]*ua0)+rounded(A[30]*p0_0)+rounded(A[31]*p0_1)+rounded(A[32]*p0_2)+rounded(A[33]*p0_3)+rounded(A[34]*p0_4)+rounded(A[35]*p0_5)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5), rounded(B[1]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)+rounded(A[9]*p1_3)+rounded(A[10]*p1_4)+rounded(A[11]*p1_5), rounded(B[2]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)+rounded(A[16]*p1_4)+rounded(A[17]*p1_5), rounded(B[3]*ua1)+rounded(A[18]*p1_0)+rounded(A[19]*p1_1)+rounded(A[20]*p1_2)+rounded(A[21]*p1_3)+rounded(A[22]*p1_4)+rounded(A[23]*p1_5), rounded(B[4]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5), rounded(B[5]*ua1)+rounded(A[30]*p1_0)+rounded(A[31]*p1_1)+rounded(A[32]*p1_2)+rounded(A[33]*p1_3)+rounded(A[34]*p1_4)+rounded(A[35]*p1_5)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5
+}
+
+func chain6x1(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:36], pl.unf.B[:6], pl.unf.C[:6], pl.Cy[:6]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:1], c.Br[:1], c.By[:1], c.Cc[:1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:6]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5]
+	xc0 := s.ctrl.xc[0][:1]
+	q0_0 := xc0[0]
+	x1 := s.x[1][:6]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5]
+	xc1 := s.ctrl.xc[1][:1]
+	q1_0 := xc1[0]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5), rounded(B[1]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)+rounded(A[9]*p0_3)+rounded(A[10]*p0_4)+rounded(A[11]*p0_5), rounded(B[2]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)+rounded(A[16]*p0_4)+rounded(A[17]*p0_5), rounded(B[3]*ua0)+rounded(A[18]*p0_0)+rounded(A[19]*p0_1)+rounded(A[20]*p0_2)+rounded(A[21]*p0_3)+rounded(A[22]*p0_4)+rounded(A[23]*p0_5), rounded(B[4]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5), rounded(B[5]*ua0)+rounded(A[30]*p0_0)+rounded(A[31]*p0_1)+rounded(A[32]*p0_2)+rounded(A[33]*p0_3)+rounded(A[34]*p0_4)+rounded(A[35]*p0_5)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5), rounded(B[1]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)+rounded(A[9]*p1_3)+rounded(A[10]*p1_4)+rounded(A[11]*p1_5), rounded(B[2]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)+rounded(A[16]*p1_4)+rounded(A[17]*p1_5), rounded(B[3]*ua1)+rounded(A[18]*p1_0)+rounded(A[19]*p1_1)+rounded(A[20]*p1_2)+rounded(A[21]*p1_3)+rounded(A[22]*p1_4)+rounded(A[23]*p1_5), rounded(B[4]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5), rounded(B[5]*ua1)+rounded(A[30]*p1_0)+rounded(A[31]*p1_1)+rounded(A[32]*p1_2)+rounded(A[33]*p1_3)+rounded(A[34]*p1_4)+rounded(A[35]*p1_5)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5
+	xc0[0] = q0_0
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5
+	xc1[0] = q1_0
+}
+
+func chain6x2(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:36], pl.unf.B[:6], pl.unf.C[:6], pl.Cy[:6]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:4], c.Br[:2], c.By[:2], c.Cc[:2]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:6]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5]
+	xc0 := s.ctrl.xc[0][:2]
+	q0_0, q0_1 := xc0[0], xc0[1]
+	x1 := s.x[1][:6]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5]
+	xc1 := s.ctrl.xc[1][:2]
+	q1_0, q1_1 := xc1[0], xc1[1]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5), rounded(B[1]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)+rounded(A[9]*p0_3)+rounded(A[10]*p0_4)+rounded(A[11]*p0_5), rounded(B[2]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)+rounded(A[16]*p0_4)+rounded(A[17]*p0_5), rounded(B[3]*ua0)+rounded(A[18]*p0_0)+rounded(A[19]*p0_1)+rounded(A[20]*p0_2)+rounded(A[21]*p0_3)+rounded(A[22]*p0_4)+rounded(A[23]*p0_5), rounded(B[4]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5), rounded(B[5]*ua0)+rounded(A[30]*p0_0)+rounded(A[31]*p0_1)+rounded(A[32]*p0_2)+rounded(A[33]*p0_3)+rounded(A[34]*p0_4)+rounded(A[35]*p0_5)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5), rounded(B[1]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)+rounded(A[9]*p1_3)+rounded(A[10]*p1_4)+rounded(A[11]*p1_5), rounded(B[2]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)+rounded(A[16]*p1_4)+rounded(A[17]*p1_5), rounded(B[3]*ua1)+rounded(A[18]*p1_0)+rounded(A[19]*p1_1)+rounded(A[20]*p1_2)+rounded(A[21]*p1_3)+rounded(A[22]*p1_4)+rounded(A[23]*p1_5), rounded(B[4]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5), rounded(B[5]*ua1)+rounded(A[30]*p1_0)+rounded(A[31]*p1_1)+rounded(A[32]*p1_2)+rounded(A[33]*p1_3)+rounded(A[34]*p1_4)+rounded(A[35]*p1_5)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5
+	xc0[0], xc0[1] = q0_0, q0_1
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5
+	xc1[0], xc1[1] = q1_0, q1_1
+}
+
+func chain6x3(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:36], pl.unf.B[:6], pl.unf.C[:6], pl.Cy[:6]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:9], c.Br[:3], c.By[:3], c.Cc[:3]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:6]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5]
+	xc0 := s.ctrl.xc[0][:3]
+	q0_0, q0_1, q0_2 := xc0[0], xc0[1], xc0[2]
+	x1 := s.x[1][:6]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5]
+	xc1 := s.ctrl.xc[1][:3]
+	q1_0, q1_1, q1_2 := xc1[0], xc1[1], xc1[2]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5), rounded(B[1]*ua0)+rounded(A[6]*p0_0)+rounded(A[7]*p0_1)+rounded(A[8]*p0_2)+rounded(A[9]*p0_3)+rounded(A[10]*p0_4)+rounded(A[11]*p0_5), rounded(B[2]*ua0)+rounded(A[12]*p0_0)+rounded(A[13]*p0_1)+rounded(A[14]*p0_2)+rounded(A[15]*p0_3)+rounded(A[16]*p0_4)+rounded(A[17]*p0_5), rounded(B[3]*ua0)+rounded(A[18]*p0_0)+rounded(A[19]*p0_1)+rounded(A[20]*p0_2)+rounded(A[21]*p0_3)+rounded(A[22]*p0_4)+rounded(A[23]*p0_5), rounded(B[4]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5), rounded(B[5]*ua0)+rounded(A[30]*p0_0)+rounded(A[31]*p0_1)+rounded(A[32]*p0_2)+rounded(A[33]*p0_3)+rounded(A[34]*p0_4)+rounded(A[35]*p0_5)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5), rounded(B[1]*ua1)+rounded(A[6]*p1_0)+rounded(A[7]*p1_1)+rounded(A[8]*p1_2)+rounded(A[9]*p1_3)+rounded(A[10]*p1_4)+rounded(A[11]*p1_5), rounded(B[2]*ua1)+rounded(A[12]*p1_0)+rounded(A[13]*p1_1)+rounded(A[14]*p1_2)+rounded(A[15]*p1_3)+rounded(A[16]*p1_4)+rounded(A[17]*p1_5), rounded(B[3]*ua1)+rounded(A[18]*p1_0)+rounded(A[19]*p1_1)+rounded(A[20]*p1_2)+rounded(A[21]*p1_3)+rounded(A[22]*p1_4)+rounded(A[23]*p1_5), rounded(B[4]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5), rounded(B[5]*ua1)+rounded(A[30]*p1_0)+rounded(A[31]*p1_1)+rounded(A[32]*p1_2)+rounded(A[33]*p1_3)+rounded(A[34]*p1_4)+rounded(A[35]*p1_5)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5
+	xc0[0], xc0[1], xc0[2] = q0_0, q0_1, q0_2
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5
+	xc1[0], xc1[1], xc1[2] = q1_0, q1_1, q1_2
+}
+
+func chain7x0(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:49], pl.unf.B[:7], pl.unf.C[:7], pl.Cy[:7]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:7]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6]
+	x1 := s.x[1][:7]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6), rounded(B[1]*ua0)+rounded(A[7]*p0_0)+rounded(A[8]*p0_1)+rounded(A[9]*p0_2)+rounded(A[10]*p0_3)+rounded(A[11]*p0_4)+rounded(A[12]*p0_5)+rounded(A[13]*p0_6), rounded(B[2]*ua0)+rounded(A[14]*p0_0)+rounded(A[15]*p0_1)+rounded(A[16]*p0_2)+rounded(A[17]*p0_3)+rounded(A[18]*p0_4)+rounded(A[19]*p0_5)+rounded(A[20]*p0_6), rounded(B[3]*ua0)+rounded(A[21]*p0_0)+rounded(A[22]*p0_1)+rounded(A[23]*p0_2)+rounded(A[24]*p0_3)+rounded(A[25]*p0_4)+rounded(A[26]*p0_5)+rounded(A[27]*p0_6), rounded(B[4]*ua0)+rounded(A[28]*p0_0)+rounded(A[29]*p0_1)+rounded(A[30]*p0_2)+rounded(A[31]*p0_3)+rounded(A[32]*p0_4)+rounded(A[33]*p0_5)+rounded(A[34]*p0_6), rounded(B[5]*ua0)+rounded(A[35]*p0_0)+rounded(A[36]*p0_1)+rounded(A[37]*p0_2)+rounded(A[38]*p0_3)+rounded(A[39]*p0_4)+rounded(A[40]*p0_5)+rounded(A[41]*p0_6), rounded(B[6]*ua0)+rounded(A[42]*p0_0)+rounded(A[43]*p0_1)+rounded(A[44]*p0_2)+rounded(A[45]*p0_3)+rounded(A[46]*p0_4)+rounded(A[47]*p0_5)+rounded(A[48]*p0_6)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6), rounded(B[1]*ua1)+rounded(A[7]*p1_0)+rounded(A[8]*p1_1)+rounded(A[9]*p1_2)+rounded(A[10]*p1_3)+rounded(A[11]*p1_4)+rounded(A[12]*p1_5)+rounded(A[13]*p1_6), rounded(B[2]*ua1)+rounded(A[14]*p1_0)+rounded(A[15]*p1_1)+rounded(A[16]*p1_2)+rounded(A[17]*p1_3)+rounded(A[18]*p1_4)+rounded(A[19]*p1_5)+rounded(A[20]*p1_6), rounded(B[3]*ua1)+rounded(A[21]*p1_0)+rounded(A[22]*p1_1)+rounded(A[23]*p1_2)+rounded(A[24]*p1_3)+rounded(A[25]*p1_4)+rounded(A[26]*p1_5)+rounded(A[27]*p1_6), rounded(B[4]*ua1)+rounded(A[28]*p1_0)+rounded(A[29]*p1_1)+rounded(A[30]*p1_2)+rounded(A[31]*p1_3)+rounded(A[32]*p1_4)+rounded(A[33]*p1_5)+rounded(A[34]*p1_6), rounded(B[5]*ua1)+rounded(A[35]*p1_0)+rounded(A[36]*p1_1)+rounded(A[37]*p1_2)+rounded(A[38]*p1_3)+rounded(A[39]*p1_4)+rounded(A[40]*p1_5)+rounded(A[41]*p1_6), rounded(B[6]*ua1)+rounded(A[42]*p1_0)+rounded(A[43]*p1_1)+rounded(A[44]*p1_2)+rounded(A[45]*p1_3)+rounded(A[46]*p1_4)+rounded(A[47]*p1_5)+rounded(A[48]*p1_6)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6
+}
+
+func chain7x1(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:49], pl.unf.B[:7], pl.unf.C[:7], pl.Cy[:7]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:1], c.Br[:1], c.By[:1], c.Cc[:1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:7]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6]
+	xc0 := s.ctrl.xc[0][:1]
+	q0_0 := xc0[0]
+	x1 := s.x[1][:7]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6]
+	xc1 := s.ctrl.xc[1][:1]
+	q1_0 := xc1[0]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6), rounded(B[1]*ua0)+rounded(A[7]*p0_0)+rounded(A[8]*p0_1)+rounded(A[9]*p0_2)+rounded(A[10]*p0_3)+rounded(A[11]*p0_4)+rounded(A[12]*p0_5)+rounded(A[13]*p0_6), rounded(B[2]*ua0)+rounded(A[14]*p0_0)+rounded(A[15]*p0_1)+rounded(A[16]*p0_2)+rounded(A[17]*p0_3)+rounded(A[18]*p0_4)+rounded(A[19]*p0_5)+rounded(A[20]*p0_6), rounded(B[3]*ua0)+rounded(A[21]*p0_0)+rounded(A[22]*p0_1)+rounded(A[23]*p0_2)+rounded(A[24]*p0_3)+rounded(A[25]*p0_4)+rounded(A[26]*p0_5)+rounded(A[27]*p0_6), rounded(B[4]*ua0)+rounded(A[28]*p0_0)+rounded(A[29]*p0_1)+rounded(A[30]*p0_2)+rounded(A[31]*p0_3)+rounded(A[32]*p0_4)+rounded(A[33]*p0_5)+rounded(A[34]*p0_6), rounded(B[5]*ua0)+rounded(A[35]*p0_0)+rounded(A[36]*p0_1)+rounded(A[37]*p0_2)+rounded(A[38]*p0_3)+rounded(A[39]*p0_4)+rounded(A[40]*p0_5)+rounded(A[41]*p0_6), rounded(B[6]*ua0)+rounded(A[42]*p0_0)+rounded(A[43]*p0_1)+rounded(A[44]*p0_2)+rounded(A[45]*p0_3)+rounded(A[46]*p0_4)+rounded(A[47]*p0_5)+rounded(A[48]*p0_6)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6), rounded(B[1]*ua1)+rounded(A[7]*p1_0)+rounded(A[8]*p1_1)+rounded(A[9]*p1_2)+rounded(A[10]*p1_3)+rounded(A[11]*p1_4)+rounded(A[12]*p1_5)+rounded(A[13]*p1_6), rounded(B[2]*ua1)+rounded(A[14]*p1_0)+rounded(A[15]*p1_1)+rounded(A[16]*p1_2)+rounded(A[17]*p1_3)+rounded(A[18]*p1_4)+rounded(A[19]*p1_5)+rounded(A[20]*p1_6), rounded(B[3]*ua1)+rounded(A[21]*p1_0)+rounded(A[22]*p1_1)+rounded(A[23]*p1_2)+rounded(A[24]*p1_3)+rounded(A[25]*p1_4)+rounded(A[26]*p1_5)+rounded(A[27]*p1_6), rounded(B[4]*ua1)+rounded(A[28]*p1_0)+rounded(A[29]*p1_1)+rounded(A[30]*p1_2)+rounded(A[31]*p1_3)+rounded(A[32]*p1_4)+rounded(A[33]*p1_5)+rounded(A[34]*p1_6), rounded(B[5]*ua1)+rounded(A[35]*p1_0)+rounded(A[36]*p1_1)+rounded(A[37]*p1_2)+rounded(A[38]*p1_3)+rounded(A[39]*p1_4)+rounded(A[40]*p1_5)+rounded(A[41]*p1_6), rounded(B[6]*ua1)+rounded(A[42]*p1_0)+rounded(A[43]*p1_1)+rounded(A[44]*p1_2)+rounded(A[45]*p1_3)+rounded(A[46]*p1_4)+rounded(A[47]*p1_5)+rounded(A[48]*p1_6)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6
+	xc0[0] = q0_0
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6
+	xc1[0] = q1_0
+}
+
+func chain7x2(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:49], pl.unf.B[:7], pl.unf.C[:7], pl.Cy[:7]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:4], c.Br[:2], c.By[:2], c.Cc[:2]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:7]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6]
+	xc0 := s.ctrl.xc[0][:2]
+	q0_0, q0_1 := xc0[0], xc0[1]
+	x1 := s.x[1][:7]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6]
+	xc1 := s.ctrl.xc[1][:2]
+	q1_0, q1_1 := xc1[0], xc1[1]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6), rounded(B[1]*ua0)+rounded(A[7]*p0_0)+rounded(A[8]*p0_1)+rounded(A[9]*p0_2)+rounded(A[10]*p0_3)+rounded(A[11]*p0_4)+rounded(A[12]*p0_5)+rounded(A[13]*p0_6), rounded(B[2]*ua0)+rounded(A[14]*p0_0)+rounded(A[15]*p0_1)+rounded(A[16]*p0_2)+rounded(A[17]*p0_3)+rounded(A[18]*p0_4)+rounded(A[19]*p0_5)+rounded(A[20]*p0_6), rounded(B[3]*ua0)+rounded(A[21]*p0_0)+rounded(A[22]*p0_1)+rounded(A[23]*p0_2)+rounded(A[24]*p0_3)+rounded(A[25]*p0_4)+rounded(A[26]*p0_5)+rounded(A[27]*p0_6), rounded(B[4]*ua0)+rounded(A[28]*p0_0)+rounded(A[29]*p0_1)+rounded(A[30]*p0_2)+rounded(A[31]*p0_3)+rounded(A[32]*p0_4)+rounded(A[33]*p0_5)+rounded(A[34]*p0_6), rounded(B[5]*ua0)+rounded(A[35]*p0_0)+rounded(A[36]*p0_1)+rounded(A[37]*p0_2)+rounded(A[38]*p0_3)+rounded(A[39]*p0_4)+rounded(A[40]*p0_5)+rounded(A[41]*p0_6), rounded(B[6]*ua0)+rounded(A[42]*p0_0)+rounded(A[43]*p0_1)+rounded(A[44]*p0_2)+rounded(A[45]*p0_3)+rounded(A[46]*p0_4)+rounded(A[47]*p0_5)+rounded(A[48]*p0_6)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6), rounded(B[1]*ua1)+rounded(A[7]*p1_0)+rounded(A[8]*p1_1)+rounded(A[9]*p1_2)+rounded(A[10]*p1_3)+rounded(A[11]*p1_4)+rounded(A[12]*p1_5)+rounded(A[13]*p1_6), rounded(B[2]*ua1)+rounded(A[14]*p1_0)+rounded(A[15]*p1_1)+rounded(A[16]*p1_2)+rounded(A[17]*p1_3)+rounded(A[18]*p1_4)+rounded(A[19]*p1_5)+rounded(A[20]*p1_6), rounded(B[3]*ua1)+rounded(A[21]*p1_0)+rounded(A[22]*p1_1)+rounded(A[23]*p1_2)+rounded(A[24]*p1_3)+rounded(A[25]*p1_4)+rounded(A[26]*p1_5)+rounded(A[27]*p1_6), rounded(B[4]*ua1)+rounded(A[28]*p1_0)+rounded(A[29]*p1_1)+rounded(A[30]*p1_2)+rounded(A[31]*p1_3)+rounded(A[32]*p1_4)+rounded(A[33]*p1_5)+rounded(A[34]*p1_6), rounded(B[5]*ua1)+rounded(A[35]*p1_0)+rounded(A[36]*p1_1)+rounded(A[37]*p1_2)+rounded(A[38]*p1_3)+rounded(A[39]*p1_4)+rounded(A[40]*p1_5)+rounded(A[41]*p1_6), rounded(B[6]*ua1)+rounded(A[42]*p1_0)+rounded(A[43]*p1_1)+rounded(A[44]*p1_2)+rounded(A[45]*p1_3)+rounded(A[46]*p1_4)+rounded(A[47]*p1_5)+rounded(A[48]*p1_6)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6
+	xc0[0], xc0[1] = q0_0, q0_1
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6
+	xc1[0], xc1[1] = q1_0, q1_1
+}
+
+func chain7x3(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:49], pl.unf.B[:7], pl.unf.C[:7], pl.Cy[:7]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:9], c.Br[:3], c.By[:3], c.Cc[:3]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:7]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6]
+	xc0 := s.ctrl.xc[0][:3]
+	q0_0, q0_1, q0_2 := xc0[0], xc0[1], xc0[2]
+	x1 := s.x[1][:7]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6]
+	xc1 := s.ctrl.xc[1][:3]
+	q1_0, q1_1, q1_2 := xc1[0], xc1[1], xc1[2]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6), rounded(B[1]*ua0)+rounded(A[7]*p0_0)+rounded(A[8]*p0_1)+rounded(A[9]*p0_2)+rounded(A[10]*p0_3)+rounded(A[11]*p0_4)+rounded(A[12]*p0_5)+rounded(A[13]*p0_6), rounded(B[2]*ua0)+rounded(A[14]*p0_0)+rounded(A[15]*p0_1)+rounded(A[16]*p0_2)+rounded(A[17]*p0_3)+rounded(A[18]*p0_4)+rounded(A[19]*p0_5)+rounded(A[20]*p0_6), rounded(B[3]*ua0)+rounded(A[21]*p0_0)+rounded(A[22]*p0_1)+rounded(A[23]*p0_2)+rounded(A[24]*p0_3)+rounded(A[25]*p0_4)+rounded(A[26]*p0_5)+rounded(A[27]*p0_6), rounded(B[4]*ua0)+rounded(A[28]*p0_0)+rounded(A[29]*p0_1)+rounded(A[30]*p0_2)+rounded(A[31]*p0_3)+rounded(A[32]*p0_4)+rounded(A[33]*p0_5)+rounded(A[34]*p0_6), rounded(B[5]*ua0)+rounded(A[35]*p0_0)+rounded(A[36]*p0_1)+rounded(A[37]*p0_2)+rounded(A[38]*p0_3)+rounded(A[39]*p0_4)+rounded(A[40]*p0_5)+rounded(A[41]*p0_6), rounded(B[6]*ua0)+rounded(A[42]*p0_0)+rounded(A[43]*p0_1)+rounded(A[44]*p0_2)+rounded(A[45]*p0_3)+rounded(A[46]*p0_4)+rounded(A[47]*p0_5)+rounded(A[48]*p0_6)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6), rounded(B[1]*ua1)+rounded(A[7]*p1_0)+rounded(A[8]*p1_1)+rounded(A[9]*p1_2)+rounded(A[10]*p1_3)+rounded(A[11]*p1_4)+rounded(A[12]*p1_5)+rounded(A[13]*p1_6), rounded(B[2]*ua1)+rounded(A[14]*p1_0)+rounded(A[15]*p1_1)+rounded(A[16]*p1_2)+rounded(A[17]*p1_3)+rounded(A[18]*p1_4)+rounded(A[19]*p1_5)+rounded(A[20]*p1_6), rounded(B[3]*ua1)+rounded(A[21]*p1_0)+rounded(A[22]*p1_1)+rounded(A[23]*p1_2)+rounded(A[24]*p1_3)+rounded(A[25]*p1_4)+rounded(A[26]*p1_5)+rounded(A[27]*p1_6), rounded(B[4]*ua1)+rounded(A[28]*p1_0)+rounded(A[29]*p1_1)+rounded(A[30]*p1_2)+rounded(A[31]*p1_3)+rounded(A[32]*p1_4)+rounded(A[33]*p1_5)+rounded(A[34]*p1_6), rounded(B[5]*ua1)+rounded(A[35]*p1_0)+rounded(A[36]*p1_1)+rounded(A[37]*p1_2)+rounded(A[38]*p1_3)+rounded(A[39]*p1_4)+rounded(A[40]*p1_5)+rounded(A[41]*p1_6), rounded(B[6]*ua1)+rounded(A[42]*p1_0)+rounded(A[43]*p1_1)+rounded(A[44]*p1_2)+rounded(A[45]*p1_3)+rounded(A[46]*p1_4)+rounded(A[47]*p1_5)+rounded(A[48]*p1_6)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6
+	xc0[0], xc0[1], xc0[2] = q0_0, q0_1, q0_2
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6
+	xc1[0], xc1[1], xc1[2] = q1_0, q1_1, q1_2
+}
+
+func chain8x0(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:64], pl.unf.B[:8], pl.unf.C[:8], pl.Cy[:8]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:8]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6], x0[7]
+	x1 := s.x[1][:8]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6], x1[7]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6) + rounded(Cm[7]*p0_7)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6) + rounded(Cy[7]*p0_7)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6) + rounded(Cm[7]*p1_7)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6) + rounded(Cy[7]*p1_7)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0)
+		cmd1 := dr1 + rounded(dy*ym1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6)+rounded(A[7]*p0_7), rounded(B[1]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3)+rounded(A[12]*p0_4)+rounded(A[13]*p0_5)+rounded(A[14]*p0_6)+rounded(A[15]*p0_7), rounded(B[2]*ua0)+rounded(A[16]*p0_0)+rounded(A[17]*p0_1)+rounded(A[18]*p0_2)+rounded(A[19]*p0_3)+rounded(A[20]*p0_4)+rounded(A[21]*p0_5)+rounded(A[22]*p0_6)+rounded(A[23]*p0_7), rounded(B[3]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5)+rounded(A[30]*p0_6)+rounded(A[31]*p0_7), rounded(B[4]*ua0)+rounded(A[32]*p0_0)+rounded(A[33]*p0_1)+rounded(A[34]*p0_2)+rounded(A[35]*p0_3)+rounded(A[36]*p0_4)+rounded(A[37]*p0_5)+rounded(A[38]*p0_6)+rounded(A[39]*p0_7), rounded(B[5]*ua0)+rounded(A[40]*p0_0)+rounded(A[41]*p0_1)+rounded(A[42]*p0_2)+rounded(A[43]*p0_3)+rounded(A[44]*p0_4)+rounded(A[45]*p0_5)+rounded(A[46]*p0_6)+rounded(A[47]*p0_7), rounded(B[6]*ua0)+rounded(A[48]*p0_0)+rounded(A[49]*p0_1)+rounded(A[50]*p0_2)+rounded(A[51]*p0_3)+rounded(A[52]*p0_4)+rounded(A[53]*p0_5)+rounded(A[54]*p0_6)+rounded(A[55]*p0_7), rounded(B[7]*ua0)+rounded(A[56]*p0_0)+rounded(A[57]*p0_1)+rounded(A[58]*p0_2)+rounded(A[59]*p0_3)+rounded(A[60]*p0_4)+rounded(A[61]*p0_5)+rounded(A[62]*p0_6)+rounded(A[63]*p0_7)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6)+rounded(A[7]*p1_7), rounded(B[1]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3)+rounded(A[12]*p1_4)+rounded(A[13]*p1_5)+rounded(A[14]*p1_6)+rounded(A[15]*p1_7), rounded(B[2]*ua1)+rounded(A[16]*p1_0)+rounded(A[17]*p1_1)+rounded(A[18]*p1_2)+rounded(A[19]*p1_3)+rounded(A[20]*p1_4)+rounded(A[21]*p1_5)+rounded(A[22]*p1_6)+rounded(A[23]*p1_7), rounded(B[3]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5)+rounded(A[30]*p1_6)+rounded(A[31]*p1_7), rounded(B[4]*ua1)+rounded(A[32]*p1_0)+rounded(A[33]*p1_1)+rounded(A[34]*p1_2)+rounded(A[35]*p1_3)+rounded(A[36]*p1_4)+rounded(A[37]*p1_5)+rounded(A[38]*p1_6)+rounded(A[39]*p1_7), rounded(B[5]*ua1)+rounded(A[40]*p1_0)+rounded(A[41]*p1_1)+rounded(A[42]*p1_2)+rounded(A[43]*p1_3)+rounded(A[44]*p1_4)+rounded(A[45]*p1_5)+rounded(A[46]*p1_6)+rounded(A[47]*p1_7), rounded(B[6]*ua1)+rounded(A[48]*p1_0)+rounded(A[49]*p1_1)+rounded(A[50]*p1_2)+rounded(A[51]*p1_3)+rounded(A[52]*p1_4)+rounded(A[53]*p1_5)+rounded(A[54]*p1_6)+rounded(A[55]*p1_7), rounded(B[7]*ua1)+rounded(A[56]*p1_0)+rounded(A[57]*p1_1)+rounded(A[58]*p1_2)+rounded(A[59]*p1_3)+rounded(A[60]*p1_4)+rounded(A[61]*p1_5)+rounded(A[62]*p1_6)+rounded(A[63]*p1_7)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6], x0[7] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6], x1[7] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7
+}
+
+func chain8x1(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:64], pl.unf.B[:8], pl.unf.C[:8], pl.Cy[:8]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:1], c.Br[:1], c.By[:1], c.Cc[:1]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:8]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6], x0[7]
+	xc0 := s.ctrl.xc[0][:1]
+	q0_0 := xc0[0]
+	x1 := s.x[1][:8]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6], x1[7]
+	xc1 := s.ctrl.xc[1][:1]
+	q1_0 := xc1[0]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6) + rounded(Cm[7]*p0_7)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6) + rounded(Cy[7]*p0_7)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6) + rounded(Cm[7]*p1_7)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6) + rounded(Cy[7]*p1_7)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0)
+		q0_0 = Br[0] + rounded(By[0]*ym0) + rounded(Ac[0]*q0_0)
+		q1_0 = Br[0] + rounded(By[0]*ym1) + rounded(Ac[0]*q1_0)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6)+rounded(A[7]*p0_7), rounded(B[1]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3)+rounded(A[12]*p0_4)+rounded(A[13]*p0_5)+rounded(A[14]*p0_6)+rounded(A[15]*p0_7), rounded(B[2]*ua0)+rounded(A[16]*p0_0)+rounded(A[17]*p0_1)+rounded(A[18]*p0_2)+rounded(A[19]*p0_3)+rounded(A[20]*p0_4)+rounded(A[21]*p0_5)+rounded(A[22]*p0_6)+rounded(A[23]*p0_7), rounded(B[3]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5)+rounded(A[30]*p0_6)+rounded(A[31]*p0_7), rounded(B[4]*ua0)+rounded(A[32]*p0_0)+rounded(A[33]*p0_1)+rounded(A[34]*p0_2)+rounded(A[35]*p0_3)+rounded(A[36]*p0_4)+rounded(A[37]*p0_5)+rounded(A[38]*p0_6)+rounded(A[39]*p0_7), rounded(B[5]*ua0)+rounded(A[40]*p0_0)+rounded(A[41]*p0_1)+rounded(A[42]*p0_2)+rounded(A[43]*p0_3)+rounded(A[44]*p0_4)+rounded(A[45]*p0_5)+rounded(A[46]*p0_6)+rounded(A[47]*p0_7), rounded(B[6]*ua0)+rounded(A[48]*p0_0)+rounded(A[49]*p0_1)+rounded(A[50]*p0_2)+rounded(A[51]*p0_3)+rounded(A[52]*p0_4)+rounded(A[53]*p0_5)+rounded(A[54]*p0_6)+rounded(A[55]*p0_7), rounded(B[7]*ua0)+rounded(A[56]*p0_0)+rounded(A[57]*p0_1)+rounded(A[58]*p0_2)+rounded(A[59]*p0_3)+rounded(A[60]*p0_4)+rounded(A[61]*p0_5)+rounded(A[62]*p0_6)+rounded(A[63]*p0_7)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6)+rounded(A[7]*p1_7), rounded(B[1]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3)+rounded(A[12]*p1_4)+rounded(A[13]*p1_5)+rounded(A[14]*p1_6)+rounded(A[15]*p1_7), rounded(B[2]*ua1)+rounded(A[16]*p1_0)+rounded(A[17]*p1_1)+rounded(A[18]*p1_2)+rounded(A[19]*p1_3)+rounded(A[20]*p1_4)+rounded(A[21]*p1_5)+rounded(A[22]*p1_6)+rounded(A[23]*p1_7), rounded(B[3]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5)+rounded(A[30]*p1_6)+rounded(A[31]*p1_7), rounded(B[4]*ua1)+rounded(A[32]*p1_0)+rounded(A[33]*p1_1)+rounded(A[34]*p1_2)+rounded(A[35]*p1_3)+rounded(A[36]*p1_4)+rounded(A[37]*p1_5)+rounded(A[38]*p1_6)+rounded(A[39]*p1_7), rounded(B[5]*ua1)+rounded(A[40]*p1_0)+rounded(A[41]*p1_1)+rounded(A[42]*p1_2)+rounded(A[43]*p1_3)+rounded(A[44]*p1_4)+rounded(A[45]*p1_5)+rounded(A[46]*p1_6)+rounded(A[47]*p1_7), rounded(B[6]*ua1)+rounded(A[48]*p1_0)+rounded(A[49]*p1_1)+rounded(A[50]*p1_2)+rounded(A[51]*p1_3)+rounded(A[52]*p1_4)+rounded(A[53]*p1_5)+rounded(A[54]*p1_6)+rounded(A[55]*p1_7), rounded(B[7]*ua1)+rounded(A[56]*p1_0)+rounded(A[57]*p1_1)+rounded(A[58]*p1_2)+rounded(A[59]*p1_3)+rounded(A[60]*p1_4)+rounded(A[61]*p1_5)+rounded(A[62]*p1_6)+rounded(A[63]*p1_7)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6], x0[7] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7
+	xc0[0] = q0_0
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6], x1[7] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7
+	xc1[0] = q1_0
+}
+
+func chain8x2(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:64], pl.unf.B[:8], pl.unf.C[:8], pl.Cy[:8]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:4], c.Br[:2], c.By[:2], c.Cc[:2]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:8]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6], x0[7]
+	xc0 := s.ctrl.xc[0][:2]
+	q0_0, q0_1 := xc0[0], xc0[1]
+	x1 := s.x[1][:8]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6], x1[7]
+	xc1 := s.ctrl.xc[1][:2]
+	q1_0, q1_1 := xc1[0], xc1[1]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6) + rounded(Cm[7]*p0_7)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6) + rounded(Cy[7]*p0_7)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6) + rounded(Cm[7]*p1_7)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6) + rounded(Cy[7]*p1_7)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1)
+		q0_0, q0_1 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1), Br[1]+rounded(By[1]*ym0)+rounded(Ac[2]*q0_0)+rounded(Ac[3]*q0_1)
+		q1_0, q1_1 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1), Br[1]+rounded(By[1]*ym1)+rounded(Ac[2]*q1_0)+rounded(Ac[3]*q1_1)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6)+rounded(A[7]*p0_7), rounded(B[1]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3)+rounded(A[12]*p0_4)+rounded(A[13]*p0_5)+rounded(A[14]*p0_6)+rounded(A[15]*p0_7), rounded(B[2]*ua0)+rounded(A[16]*p0_0)+rounded(A[17]*p0_1)+rounded(A[18]*p0_2)+rounded(A[19]*p0_3)+rounded(A[20]*p0_4)+rounded(A[21]*p0_5)+rounded(A[22]*p0_6)+rounded(A[23]*p0_7), rounded(B[3]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5)+rounded(A[30]*p0_6)+rounded(A[31]*p0_7), rounded(B[4]*ua0)+rounded(A[32]*p0_0)+rounded(A[33]*p0_1)+rounded(A[34]*p0_2)+rounded(A[35]*p0_3)+rounded(A[36]*p0_4)+rounded(A[37]*p0_5)+rounded(A[38]*p0_6)+rounded(A[39]*p0_7), rounded(B[5]*ua0)+rounded(A[40]*p0_0)+rounded(A[41]*p0_1)+rounded(A[42]*p0_2)+rounded(A[43]*p0_3)+rounded(A[44]*p0_4)+rounded(A[45]*p0_5)+rounded(A[46]*p0_6)+rounded(A[47]*p0_7), rounded(B[6]*ua0)+rounded(A[48]*p0_0)+rounded(A[49]*p0_1)+rounded(A[50]*p0_2)+rounded(A[51]*p0_3)+rounded(A[52]*p0_4)+rounded(A[53]*p0_5)+rounded(A[54]*p0_6)+rounded(A[55]*p0_7), rounded(B[7]*ua0)+rounded(A[56]*p0_0)+rounded(A[57]*p0_1)+rounded(A[58]*p0_2)+rounded(A[59]*p0_3)+rounded(A[60]*p0_4)+rounded(A[61]*p0_5)+rounded(A[62]*p0_6)+rounded(A[63]*p0_7)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6)+rounded(A[7]*p1_7), rounded(B[1]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3)+rounded(A[12]*p1_4)+rounded(A[13]*p1_5)+rounded(A[14]*p1_6)+rounded(A[15]*p1_7), rounded(B[2]*ua1)+rounded(A[16]*p1_0)+rounded(A[17]*p1_1)+rounded(A[18]*p1_2)+rounded(A[19]*p1_3)+rounded(A[20]*p1_4)+rounded(A[21]*p1_5)+rounded(A[22]*p1_6)+rounded(A[23]*p1_7), rounded(B[3]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5)+rounded(A[30]*p1_6)+rounded(A[31]*p1_7), rounded(B[4]*ua1)+rounded(A[32]*p1_0)+rounded(A[33]*p1_1)+rounded(A[34]*p1_2)+rounded(A[35]*p1_3)+rounded(A[36]*p1_4)+rounded(A[37]*p1_5)+rounded(A[38]*p1_6)+rounded(A[39]*p1_7), rounded(B[5]*ua1)+rounded(A[40]*p1_0)+rounded(A[41]*p1_1)+rounded(A[42]*p1_2)+rounded(A[43]*p1_3)+rounded(A[44]*p1_4)+rounded(A[45]*p1_5)+rounded(A[46]*p1_6)+rounded(A[47]*p1_7), rounded(B[6]*ua1)+rounded(A[48]*p1_0)+rounded(A[49]*p1_1)+rounded(A[50]*p1_2)+rounded(A[51]*p1_3)+rounded(A[52]*p1_4)+rounded(A[53]*p1_5)+rounded(A[54]*p1_6)+rounded(A[55]*p1_7), rounded(B[7]*ua1)+rounded(A[56]*p1_0)+rounded(A[57]*p1_1)+rounded(A[58]*p1_2)+rounded(A[59]*p1_3)+rounded(A[60]*p1_4)+rounded(A[61]*p1_5)+rounded(A[62]*p1_6)+rounded(A[63]*p1_7)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6], x0[7] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7
+	xc0[0], xc0[1] = q0_0, q0_1
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6], x1[7] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7
+	xc1[0], xc1[1] = q1_0, q1_1
+}
+
+func chain8x3(s *pairStepper, y0, y1 []float64) {
+	pl, c := &s.pl, &s.ctrl.c
+	A, B, Cm, Cy := pl.unf.A[:64], pl.unf.B[:8], pl.unf.C[:8], pl.Cy[:8]
+	chain, sec0, sec1 := s.chain, s.sec[0], s.sec[1]
+	Ac, Br, By, Cc := c.Ac[:9], c.Br[:3], c.By[:3], c.Cc[:3]
+	dr0, dr1, dy := s.ctrl.dr[0], s.ctrl.dr[1], c.Dy
+	x0 := s.x[0][:8]
+	p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 := x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6], x0[7]
+	xc0 := s.ctrl.xc[0][:3]
+	q0_0, q0_1, q0_2 := xc0[0], xc0[1], xc0[2]
+	x1 := s.x[1][:8]
+	p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 := x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6], x1[7]
+	xc1 := s.ctrl.xc[1][:3]
+	q1_0, q1_1, q1_2 := xc1[0], xc1[1], xc1[2]
+	ring0, ring1 := s.ctrl.ring[0], s.ctrl.ring[1][:len(s.ctrl.ring[0])]
+	w := s.ctrl.w
+	y1 = y1[:len(y0)]
+	for t := range y0 {
+		ym0 := rounded(Cm[0]*p0_0) + rounded(Cm[1]*p0_1) + rounded(Cm[2]*p0_2) + rounded(Cm[3]*p0_3) + rounded(Cm[4]*p0_4) + rounded(Cm[5]*p0_5) + rounded(Cm[6]*p0_6) + rounded(Cm[7]*p0_7)
+		y0[t] = rounded(Cy[0]*p0_0) + rounded(Cy[1]*p0_1) + rounded(Cy[2]*p0_2) + rounded(Cy[3]*p0_3) + rounded(Cy[4]*p0_4) + rounded(Cy[5]*p0_5) + rounded(Cy[6]*p0_6) + rounded(Cy[7]*p0_7)
+		ym1 := rounded(Cm[0]*p1_0) + rounded(Cm[1]*p1_1) + rounded(Cm[2]*p1_2) + rounded(Cm[3]*p1_3) + rounded(Cm[4]*p1_4) + rounded(Cm[5]*p1_5) + rounded(Cm[6]*p1_6) + rounded(Cm[7]*p1_7)
+		y1[t] = rounded(Cy[0]*p1_0) + rounded(Cy[1]*p1_1) + rounded(Cy[2]*p1_2) + rounded(Cy[3]*p1_3) + rounded(Cy[4]*p1_4) + rounded(Cy[5]*p1_5) + rounded(Cy[6]*p1_6) + rounded(Cy[7]*p1_7)
+		ym0, ym1 = chainPair(chain, sec0, sec1, ym0, ym1)
+		cmd0 := dr0 + rounded(dy*ym0) + rounded(Cc[0]*q0_0) + rounded(Cc[1]*q0_1) + rounded(Cc[2]*q0_2)
+		cmd1 := dr1 + rounded(dy*ym1) + rounded(Cc[0]*q1_0) + rounded(Cc[1]*q1_1) + rounded(Cc[2]*q1_2)
+		q0_0, q0_1, q0_2 = Br[0]+rounded(By[0]*ym0)+rounded(Ac[0]*q0_0)+rounded(Ac[1]*q0_1)+rounded(Ac[2]*q0_2), Br[1]+rounded(By[1]*ym0)+rounded(Ac[3]*q0_0)+rounded(Ac[4]*q0_1)+rounded(Ac[5]*q0_2), Br[2]+rounded(By[2]*ym0)+rounded(Ac[6]*q0_0)+rounded(Ac[7]*q0_1)+rounded(Ac[8]*q0_2)
+		q1_0, q1_1, q1_2 = Br[0]+rounded(By[0]*ym1)+rounded(Ac[0]*q1_0)+rounded(Ac[1]*q1_1)+rounded(Ac[2]*q1_2), Br[1]+rounded(By[1]*ym1)+rounded(Ac[3]*q1_0)+rounded(Ac[4]*q1_1)+rounded(Ac[5]*q1_2), Br[2]+rounded(By[2]*ym1)+rounded(Ac[6]*q1_0)+rounded(Ac[7]*q1_1)+rounded(Ac[8]*q1_2)
+		ring0[w], ring1[w] = cmd0, cmd1
+		w++
+		if w == len(ring0) {
+			w = 0
+		}
+		ua0, ua1 := ring0[w], ring1[w]
+		p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7 = rounded(B[0]*ua0)+rounded(A[0]*p0_0)+rounded(A[1]*p0_1)+rounded(A[2]*p0_2)+rounded(A[3]*p0_3)+rounded(A[4]*p0_4)+rounded(A[5]*p0_5)+rounded(A[6]*p0_6)+rounded(A[7]*p0_7), rounded(B[1]*ua0)+rounded(A[8]*p0_0)+rounded(A[9]*p0_1)+rounded(A[10]*p0_2)+rounded(A[11]*p0_3)+rounded(A[12]*p0_4)+rounded(A[13]*p0_5)+rounded(A[14]*p0_6)+rounded(A[15]*p0_7), rounded(B[2]*ua0)+rounded(A[16]*p0_0)+rounded(A[17]*p0_1)+rounded(A[18]*p0_2)+rounded(A[19]*p0_3)+rounded(A[20]*p0_4)+rounded(A[21]*p0_5)+rounded(A[22]*p0_6)+rounded(A[23]*p0_7), rounded(B[3]*ua0)+rounded(A[24]*p0_0)+rounded(A[25]*p0_1)+rounded(A[26]*p0_2)+rounded(A[27]*p0_3)+rounded(A[28]*p0_4)+rounded(A[29]*p0_5)+rounded(A[30]*p0_6)+rounded(A[31]*p0_7), rounded(B[4]*ua0)+rounded(A[32]*p0_0)+rounded(A[33]*p0_1)+rounded(A[34]*p0_2)+rounded(A[35]*p0_3)+rounded(A[36]*p0_4)+rounded(A[37]*p0_5)+rounded(A[38]*p0_6)+rounded(A[39]*p0_7), rounded(B[5]*ua0)+rounded(A[40]*p0_0)+rounded(A[41]*p0_1)+rounded(A[42]*p0_2)+rounded(A[43]*p0_3)+rounded(A[44]*p0_4)+rounded(A[45]*p0_5)+rounded(A[46]*p0_6)+rounded(A[47]*p0_7), rounded(B[6]*ua0)+rounded(A[48]*p0_0)+rounded(A[49]*p0_1)+rounded(A[50]*p0_2)+rounded(A[51]*p0_3)+rounded(A[52]*p0_4)+rounded(A[53]*p0_5)+rounded(A[54]*p0_6)+rounded(A[55]*p0_7), rounded(B[7]*ua0)+rounded(A[56]*p0_0)+rounded(A[57]*p0_1)+rounded(A[58]*p0_2)+rounded(A[59]*p0_3)+rounded(A[60]*p0_4)+rounded(A[61]*p0_5)+rounded(A[62]*p0_6)+rounded(A[63]*p0_7)
+		p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7 = rounded(B[0]*ua1)+rounded(A[0]*p1_0)+rounded(A[1]*p1_1)+rounded(A[2]*p1_2)+rounded(A[3]*p1_3)+rounded(A[4]*p1_4)+rounded(A[5]*p1_5)+rounded(A[6]*p1_6)+rounded(A[7]*p1_7), rounded(B[1]*ua1)+rounded(A[8]*p1_0)+rounded(A[9]*p1_1)+rounded(A[10]*p1_2)+rounded(A[11]*p1_3)+rounded(A[12]*p1_4)+rounded(A[13]*p1_5)+rounded(A[14]*p1_6)+rounded(A[15]*p1_7), rounded(B[2]*ua1)+rounded(A[16]*p1_0)+rounded(A[17]*p1_1)+rounded(A[18]*p1_2)+rounded(A[19]*p1_3)+rounded(A[20]*p1_4)+rounded(A[21]*p1_5)+rounded(A[22]*p1_6)+rounded(A[23]*p1_7), rounded(B[3]*ua1)+rounded(A[24]*p1_0)+rounded(A[25]*p1_1)+rounded(A[26]*p1_2)+rounded(A[27]*p1_3)+rounded(A[28]*p1_4)+rounded(A[29]*p1_5)+rounded(A[30]*p1_6)+rounded(A[31]*p1_7), rounded(B[4]*ua1)+rounded(A[32]*p1_0)+rounded(A[33]*p1_1)+rounded(A[34]*p1_2)+rounded(A[35]*p1_3)+rounded(A[36]*p1_4)+rounded(A[37]*p1_5)+rounded(A[38]*p1_6)+rounded(A[39]*p1_7), rounded(B[5]*ua1)+rounded(A[40]*p1_0)+rounded(A[41]*p1_1)+rounded(A[42]*p1_2)+rounded(A[43]*p1_3)+rounded(A[44]*p1_4)+rounded(A[45]*p1_5)+rounded(A[46]*p1_6)+rounded(A[47]*p1_7), rounded(B[6]*ua1)+rounded(A[48]*p1_0)+rounded(A[49]*p1_1)+rounded(A[50]*p1_2)+rounded(A[51]*p1_3)+rounded(A[52]*p1_4)+rounded(A[53]*p1_5)+rounded(A[54]*p1_6)+rounded(A[55]*p1_7), rounded(B[7]*ua1)+rounded(A[56]*p1_0)+rounded(A[57]*p1_1)+rounded(A[58]*p1_2)+rounded(A[59]*p1_3)+rounded(A[60]*p1_4)+rounded(A[61]*p1_5)+rounded(A[62]*p1_6)+rounded(A[63]*p1_7)
+	}
+	s.k += len(y0)
+	s.ctrl.w = w
+	x0[0], x0[1], x0[2], x0[3], x0[4], x0[5], x0[6], x0[7] = p0_0, p0_1, p0_2, p0_3, p0_4, p0_5, p0_6, p0_7
+	xc0[0], xc0[1], xc0[2] = q0_0, q0_1, q0_2
+	x1[0], x1[1], x1[2], x1[3], x1[4], x1[5], x1[6], x1[7] = p1_0, p1_1, p1_2, p1_3, p1_4, p1_5, p1_6, p1_7
+	xc1[0], xc1[1], xc1[2] = q1_0, q1_1, q1_2
+}
+
 // pairKernel runs the unrolled kernel for the stepper's sizes (the plant's
 // states, the controller's)
 // and reports whether there is one.
@@ -2054,6 +2722,38 @@ func chainKernel(s *pairStepper, y0, y1 []float64) bool {
 		chain4x2(s, y0, y1)
 	case 19:
 		chain4x3(s, y0, y1)
+	case 20:
+		chain5x0(s, y0, y1)
+	case 21:
+		chain5x1(s, y0, y1)
+	case 22:
+		chain5x2(s, y0, y1)
+	case 23:
+		chain5x3(s, y0, y1)
+	case 24:
+		chain6x0(s, y0, y1)
+	case 25:
+		chain6x1(s, y0, y1)
+	case 26:
+		chain6x2(s, y0, y1)
+	case 27:
+		chain6x3(s, y0, y1)
+	case 28:
+		chain7x0(s, y0, y1)
+	case 29:
+		chain7x1(s, y0, y1)
+	case 30:
+		chain7x2(s, y0, y1)
+	case 31:
+		chain7x3(s, y0, y1)
+	case 32:
+		chain8x0(s, y0, y1)
+	case 33:
+		chain8x1(s, y0, y1)
+	case 34:
+		chain8x2(s, y0, y1)
+	case 35:
+		chain8x3(s, y0, y1)
 	default:
 		return false
 	}

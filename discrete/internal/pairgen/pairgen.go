@@ -2,7 +2,7 @@
 // paired unit-step simulation of pairStepper.run (two lanes of the sampled
 // rate loop that differ only in the controller's direct setpoint gain)
 // unrolled for plants of 1 to 8 states and controllers of 0 to 3, and
-// for plants of 1 to 4 states before a feedback filter chain
+// for plants of 1 to 8 states before a feedback filter chain
 // (pairStepper.runChain, the chain run by chainPair) with the same
 // controllers.
 //
@@ -50,7 +50,7 @@ const (
 	maxP = 8
 	maxM = 3
 	// maxChainP bounds the plant before a filter chain.
-	maxChainP = 4
+	maxChainP = 8
 )
 
 // Source returns the gofmt'ed source of pairkernels_gen.go.
