@@ -83,6 +83,10 @@ func NewLoops(p airframe.Axis, loop airframe.Loop) (*Loops, error) {
 		}
 		maxDelay = max(maxDelay, pl.Delay)
 	}
+	if z, ok := p.Ctrl.DerivativeZPK(); ok {
+		// The grid resolves the derivative filters' notches and peaks.
+		roots = append(append(roots, z.Poles...), z.Zeros...)
+	}
 	// The delay z^(−D) turns the phase like a transport delay of D·T.
 	l.grid = synth.FrequencyGrid(lo, ny*(1-1e-9), roots, float64(l.d+maxDelay+1)*T)
 	l.z = make([]complex128, len(l.grid))
