@@ -156,7 +156,7 @@ func (l *Loops) realize(c synth.Controller) (Coeffs, error) {
 func sameController(a, b synth.Controller) bool {
 	same := func(x, y float64) bool { return math.Float64bits(x) == math.Float64bits(y) }
 	return a.Form == b.Form && a.DerivativeOnError == b.DerivativeOnError && same(a.Kp, b.Kp) && same(a.Ki, b.Ki) &&
-		same(a.Kd, b.Kd) && same(a.Tf, b.Tf) && same(a.B, b.B) && same(a.K, b.K) && same(a.Zero, b.Zero) && same(a.Pole, b.Pole)
+		same(a.Kd, b.Kd) && same(a.Tf, b.Tf) && same(a.B, b.B) && same(a.K, b.K) && same(a.Zero, b.Zero) && same(a.Pole, b.Pole) && a.DF == b.DF
 }
 
 // realizeNew is realize without its memory of the last controller.
