@@ -188,7 +188,15 @@ func (c *checker) axis(name, key string, m map[string]any, lp loopInfo) Axis {
 		if modesOK {
 			modes = p.LightModes(0.9 * lp.hz / 2)
 		}
-		p.Filters = c.filters(t, lp, autoPlacer{modes: modes, ok: modesOK, env: p.Envelope, nyq: lp.hz / 2, noiseBound: p.Spec.MaxNoiseGain, specOK: specOK})
+		fs := c.filters(t, lp, autoPlacer{modes: modes, ok: modesOK, env: p.Envelope, nyq: lp.hz / 2, noiseBound: p.Spec.MaxNoiseGain, specOK: specOK,
+			form: p.Ctrl.Form, numeric: lp.numeric.Type, numOK: lp.numOK})
+		for _, f := range fs {
+			if f.At == FilterAtDerivative {
+				p.Ctrl.DerivativeFilters = append(p.Ctrl.DerivativeFilters, f)
+			} else {
+				p.Filters = append(p.Filters, f)
+			}
+		}
 	}
 	c.axisLimits(key, p, ok, t, lp)
 	return p
@@ -726,6 +734,13 @@ type autoPlacer struct {
 	noiseBound float64
 	specOK     bool
 	lowpasses  int // lowpasses with hz = "auto" so far
+	// form is the control's form (the default when the file's is
+	// invalid, which is reported there), which must have a derivative for
+	// a filter at = "derivative"; numeric the numeric type (numOK: valid),
+	// which must be a float type for one.
+	form    Form
+	numeric NumericType
+	numOK   bool
 }
 
 // place returns the next mode, or false.
@@ -751,15 +766,21 @@ func (c *checker) filter(t *table, loopHz float64, auto *autoPlacer) (Filter, bo
 		good = false
 	}
 	if t.has("at") {
-		at, ok := t.enum("at", defaultFilterAt, FilterAtFeedback, "derivative")
+		at, ok := t.enum("at", defaultFilterAt, FilterAtFeedback, FilterAtDerivative)
 		switch {
 		case !ok:
 			good = false
-		case at == "derivative":
-			c.fail(t.sub("at"), at, `a filter on the derivative path alone is not implemented yet: the derivative's first-order lowpass is control.derivative_lowpass_hz; "feedback" (the measured rate, before the controller) is allowed`)
+		case at == FilterAtDerivative && !auto.form.HasDerivative():
+			c.fail(t.sub("at"), at, `only for forms with a derivative ("pd", "pid"; form is %q): a derivative filter acts on the derivative term alone; "feedback" (the measured rate, before the controller) is allowed`, auto.form)
 			good = false
+		case at == FilterAtDerivative && auto.numOK && auto.numeric.IsFixed():
+			c.fail(t.sub("at"), at, `not available with numeric.type = %q: derivative filters are generated in float32 and float64 only (their fixed-point bounds are not proved); use at = "feedback", or a float type`, auto.numeric)
+			good = false
+		default:
+			f.At = at
 		}
 	}
+	deriv := f.At == FilterAtDerivative
 
 	nyq := loopHz / 2
 	hzRule := numRule{desc: "> 0", unit: "Hz", ok: isPositive}
@@ -771,6 +792,12 @@ func (c *checker) filter(t *table, loopHz float64, auto *autoPlacer) (Filter, bo
 	autoWidth := 0.0
 	if s, isStr := t.m["hz"].(string); isStr && s == "auto" {
 		switch {
+		case deriv:
+			// An automatic notch centres on a mode of the plant, which the
+			// P and I terms would still pass; an automatic lowpass's cutoff
+			// is chosen for the feedback chain's noise and phase.
+			c.fail(t.sub("hz"), s, `"auto" is for filters at = "feedback" (a notch on a plant mode must act on every term; the automatic lowpass is the gyro's): give the derivative filter's frequency in Hz, a number %s`, hzRule.allowed())
+			good = false
 		case f.Kind == FilterLowpass:
 			// The design chooses the cutoff (discrete.DesignAxis); until
 			// then the section sits at the top of the range it chooses
@@ -857,6 +884,10 @@ func (c *checker) filter(t *table, loopHz float64, auto *autoPlacer) (Filter, bo
 			ok: func(x float64) bool { return x >= minFilterDamping && x <= maxFilterDamping }}, false, defaultFilterDamping)
 		good = good && ok
 		f.Damping = d
+	}
+	if deriv && lowpass && orderOK && f.Order == 1 {
+		c.fail(t.sub("order"), valueOrNil(t.m["order"]), `a first-order lowpass on the derivative is control.derivative_lowpass_hz, which the derivative always has: set that key, or use order = 2 (a second-order section after it) here`)
+		good = false
 	}
 	if only("goal", lowpass && f.AutoHz, `kind = "lowpass" with hz = "auto"`) && lowpass && f.AutoHz {
 		def := GoalMargin

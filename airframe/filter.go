@@ -19,16 +19,26 @@ const (
 	FilterNotch   FilterKind = "notch"
 )
 
-// FilterAtFeedback is the only place a filter of the list may sit for
-// now: on the measured rate, before the controller.
-const FilterAtFeedback = "feedback"
+// The places a filter of the list may sit.
+const (
+	// FilterAtFeedback is on the measured rate, before the controller:
+	// every term of the controller sees the filtered rate.
+	FilterAtFeedback = "feedback"
+	// FilterAtDerivative is on the derivative term of a pd or pid alone,
+	// after its first-order lowpass (control.derivative_lowpass_hz): the
+	// derivative, which amplifies gyro noise most, is filtered harder
+	// without the phase cost reaching the P and I terms.
+	FilterAtDerivative = "derivative"
+)
 
 // Filter is one [[axes.NAME.filter]] table: a discrete section the
 // measured rate runs through before the controller sees it. The sections
 // of an axis run in file order.
 type Filter struct {
 	Kind FilterKind
-	// At is where the filter sits: "feedback" (the measured rate).
+	// At is where the filter sits: FilterAtFeedback (the measured rate;
+	// in Axis.Filters) or FilterAtDerivative (the derivative term; in
+	// Control.DerivativeFilters).
 	At string
 	// Hz is the lowpass cutoff or the notch centre.
 	Hz float64
@@ -240,6 +250,41 @@ func (f Filter) Describe() string {
 		return fmt.Sprintf("%s, order 2, damping %.4g", hz, f.Damping)
 	}
 	return string(f.Kind)
+}
+
+// DerivativeZPK returns the continuous counterpart of the derivative
+// filters in series, for the continuous controller; ok is false without
+// derivative filters (or when one cannot be formed, which Parse has ruled
+// out).
+func (c Control) DerivativeZPK() (lti.ZPK, bool) {
+	if len(c.DerivativeFilters) == 0 {
+		return lti.ZPK{}, false
+	}
+	out := lti.ZPK{Gain: 1}
+	for _, f := range c.DerivativeFilters {
+		z, err := f.ZPK()
+		if err != nil {
+			return lti.ZPK{}, false
+		}
+		out.Gain *= z.Gain
+		out.Zeros = append(out.Zeros, z.Zeros...)
+		out.Poles = append(out.Poles, z.Poles...)
+	}
+	return out, true
+}
+
+// DerivativeSections returns the discrete sections of the derivative
+// filters at the sample rate fs, in the order they run (nil without any).
+func (c Control) DerivativeSections(fs float64) ([]lti.Biquad, error) {
+	var qs []lti.Biquad
+	for i, f := range c.DerivativeFilters {
+		q, err := f.Section(fs)
+		if err != nil {
+			return nil, fmt.Errorf("derivative filter %d: %w", i+1, err)
+		}
+		qs = append(qs, q)
+	}
+	return qs, nil
 }
 
 // FeedbackZPK returns the sensor in series with the continuous

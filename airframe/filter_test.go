@@ -3,8 +3,11 @@ package airframe
 import (
 	"errors"
 	"math"
+	"slices"
 	"strings"
 	"testing"
+
+	"locusmith/internal/lti"
 )
 
 // withFilters appends [[axes.roll.filter]] tables to minimal (loop_hz
@@ -208,7 +211,18 @@ func TestFilterMalformed(t *testing.T) {
 		{"order on a notch", withFilters("kind = \"notch\"\nhz = 100.0\nwidth_hz = 10.0\norder = 2"), `axes.roll.filter[0].order = 2: only for kind = "lowpass" (kind is "notch")`},
 		{"damping order 1", withFilters("kind = \"lowpass\"\nhz = 100.0\norder = 1\ndamping = 0.5"), `axes.roll.filter[0].damping = 0.5: only for kind = "lowpass" with order = 2`},
 		{"damping small", withFilters("kind = \"lowpass\"\nhz = 100.0\ndamping = 0.01"), `axes.roll.filter[0].damping = 0.01: must be in [0.1, 2] (ζ; 0.7071 is the Butterworth section)`},
-		{"at derivative", withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0"), `axes.roll.filter[0].at = "derivative": a filter on the derivative path alone is not implemented yet: the derivative's first-order lowpass is control.derivative_lowpass_hz`},
+		// Derivative filters: only where there is a derivative, in float,
+		// with a frequency in Hz, and no first-order lowpass (which is
+		// control.derivative_lowpass_hz).
+		{"at derivative on a pi", withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0") + "\n[axes.roll.control]\nform = \"pi\"\n", `axes.roll.filter[0].at = "derivative": only for forms with a derivative ("pd", "pid"; form is "pi")`},
+		{"at derivative on a lead", withFilters("kind = \"notch\"\nat = \"derivative\"\nhz = 100.0\nwidth_hz = 20.0") + "\n[axes.roll.control]\nform = \"lead\"\nlead_zero = -10.0\n", `axes.roll.filter[0].at = "derivative": only for forms with a derivative ("pd", "pid"; form is "lead")`},
+		{"at derivative in q15", strings.Replace(withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0"), "loop_hz = 1000\n", "loop_hz = 1000\n[numeric]\ntype = \"q15\"\ninput_full_scale = 20.0\noutput_full_scale = 1.0\n", 1), `axes.roll.filter[0].at = "derivative": not available with numeric.type = "q15": derivative filters are generated in float32 and float64 only`},
+		{"at derivative in q31", strings.Replace(withFilters("kind = \"notch\"\nat = \"derivative\"\nhz = 100.0\nwidth_hz = 20.0"), "loop_hz = 1000\n", "loop_hz = 1000\n[numeric]\ntype = \"q31\"\ninput_full_scale = 20.0\noutput_full_scale = 1.0\n", 1), `axes.roll.filter[0].at = "derivative": not available with numeric.type = "q31"`},
+		{"derivative lowpass order 1", withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0\norder = 1"), `axes.roll.filter[0].order = 1: a first-order lowpass on the derivative is control.derivative_lowpass_hz, which the derivative always has: set that key, or use order = 2`},
+		{"derivative hz auto", withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = \"auto\""), `axes.roll.filter[0].hz = "auto": "auto" is for filters at = "feedback"`},
+		{"derivative notch hz auto", withFilters("kind = \"notch\"\nat = \"derivative\"\nhz = \"auto\""), `axes.roll.filter[0].hz = "auto": "auto" is for filters at = "feedback"`},
+		{"derivative notch beyond Nyquist", withFilters("kind = \"notch\"\nat = \"derivative\"\nhz = 600.0\nwidth_hz = 20.0"), `axes.roll.filter[0].hz = 600.0: must be > 0 and below Nyquist (loop_hz/2 = 500)`},
+		{"too many with derivative", withFilters("kind = \"lowpass\"\nhz = 100.0", "kind = \"lowpass\"\nhz = 100.0", "kind = \"lowpass\"\nhz = 100.0", "kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0", "kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0"), `axes.roll.filter: 5 filters: at most 4 per axis`},
 		{"at elsewhere", withFilters("kind = \"lowpass\"\nat = \"output\"\nhz = 100.0"), `axes.roll.filter[0].at = "output": must be one of "feedback", "derivative"`},
 		{"unknown key", withFilters("kind = \"lowpass\"\nhz = 100.0\nq = 2.0"), `axes.roll.filter[0].q = 2.0: unknown key; allowed in [axes.roll.filter[0]]: kind, at, hz, width_hz, depth_db, order, damping, goal`},
 		{"second filter", withFilters("kind = \"lowpass\"\nhz = 100.0", "kind = \"notch\"\nhz = 80.0"), `axes.roll.filter[1].width_hz: required`},
@@ -227,5 +241,55 @@ func TestFilterMalformed(t *testing.T) {
 				t.Errorf("error does not say %q; got:\n%s", tc.want, err)
 			}
 		})
+	}
+}
+
+// TestDerivativeFilterParse: filters at = "derivative" go to the
+// control's list, in file order, the feedback ones to the axis's chain;
+// the continuous counterparts multiply.
+func TestDerivativeFilterParse(t *testing.T) {
+	src := withFilters(
+		"kind = \"lowpass\"\nat = \"derivative\"\nhz = 80.0",
+		"kind = \"notch\"\nhz = 118.0\nwidth_hz = 30",
+		"kind = \"notch\"\nat = \"derivative\"\nhz = 150.0\nwidth_hz = 40.0\ndepth_db = 12.0",
+	)
+	f, err := Parse("x.toml", []byte(src))
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := f.Axes[0]
+	if want := []Filter{{Kind: FilterNotch, At: "feedback", Hz: 118, WidthHz: 30}}; !slices.Equal(a.Filters, want) {
+		t.Errorf("feedback filters %+v, want %+v", a.Filters, want)
+	}
+	want := []Filter{
+		{Kind: FilterLowpass, At: "derivative", Hz: 80, Order: 2, Damping: 1 / math.Sqrt2},
+		{Kind: FilterNotch, At: "derivative", Hz: 150, WidthHz: 40, DepthDB: 12},
+	}
+	if !slices.Equal(a.Ctrl.DerivativeFilters, want) {
+		t.Errorf("derivative filters %+v, want %+v", a.Ctrl.DerivativeFilters, want)
+	}
+	z, ok := a.Ctrl.DerivativeZPK()
+	if !ok || len(z.Poles) != 4 || len(z.Zeros) != 2 {
+		t.Fatalf("derivative ZPK %+v, %v: want 4 poles and 2 zeros", z, ok)
+	}
+	// At s = 0 the product of unit-DC-gain sections is 1; at the notch's
+	// centre a partial notch of 12 dB leaves 10^(−12/20) (the definition
+	// of depth_db), times the lowpass's gain there, 1/√(1 + (f/fc)⁴) for
+	// a Butterworth second-order section (textbook, from memory).
+	if g := z.Eval(0); lti.Abs(g-1) > 1e-12 {
+		t.Errorf("DC gain %v, want 1", g)
+	}
+	w := 2 * math.Pi * 150
+	wantMag := math.Pow(10, -12.0/20) / math.Sqrt(1+math.Pow(150.0/80, 4))
+	if g := lti.Abs(z.Eval(complex(0, w))); math.Abs(g-wantMag) > 1e-9 {
+		t.Errorf("|H(j2π·150)| = %v, want %v", g, wantMag)
+	}
+	// A pd takes them too; the list may hold only derivative filters.
+	g, err := Parse("x.toml", []byte(withFilters("kind = \"notch\"\nat = \"derivative\"\nhz = 150.0\nwidth_hz = 40.0")+"\n[axes.roll.control]\nform = \"pd\"\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(g.Axes[0].Ctrl.DerivativeFilters) != 1 || g.Axes[0].Filters != nil {
+		t.Errorf("pd: %+v, %+v", g.Axes[0].Ctrl.DerivativeFilters, g.Axes[0].Filters)
 	}
 }

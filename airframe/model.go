@@ -158,6 +158,11 @@ type Control struct {
 	TrackingTime float64
 	// Discretize is "tustin", "tustin_prewarp", "backward" or "forward".
 	Discretize string
+	// DerivativeFilters are the [[axes.NAME.filter]] tables with
+	// at = "derivative" (pd and pid only), in file order: sections on the
+	// derivative term after its first-order lowpass. They belong to the
+	// controller, so every stage that realizes it sees them.
+	DerivativeFilters []Filter
 }
 
 // Tf returns the derivative filter time constant in seconds,

@@ -67,6 +67,10 @@ type Coeffs struct {
 	AntiWindup        AntiWindup
 	Kt                float64 // back-calculation gain T/Tt
 	Tt                float64 // tracking time, s
+	// DSections are the derivative filters (pd, pid), run on ud in
+	// transposed direct form II before it joins the command (dfilter.go);
+	// nil without them. Shared between copies of Coeffs, never modified.
+	DSections []lti.Biquad
 }
 
 // Realize discretizes the continuous controller c at period T.
@@ -182,6 +186,14 @@ func Realize(c synth.Controller, ctrl airframe.Control, T, crossover float64) (C
 			k.Ad = tf / (tf + T)
 			k.Bd = c.Kd / (tf + T)
 		}
+		// The derivative filters, Tustin prewarped at their own
+		// frequencies (the feedback chain's rule), whatever the rule of
+		// the rest.
+		qs, err := ctrl.DerivativeSections(1 / T)
+		if err != nil {
+			return k, nil, err
+		}
+		k.DSections = qs
 	}
 	return k, warns, nil
 }

@@ -45,11 +45,11 @@ type Design struct {
 }
 
 // designUnfiltered sets d.Unfiltered: the same axis, loop and numeric
-// type without the filter chain, designed as DesignAxis designs (without
+// type without the filter chain and the derivative filters, designed as DesignAxis designs (without
 // its traces: the review compares figures).
 func (d *Design) designUnfiltered() {
 	p := d.Problem
-	p.Filters = nil
+	p.Filters, p.Ctrl.DerivativeFilters = nil, nil
 	u, err := DesignAxis(p, d.Loop, d.Numeric)
 	if err == nil {
 		u.DropTraces()
@@ -189,7 +189,7 @@ func designAxisOnly(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (
 func suggestNotch(d *Design) string {
 	p, loop := d.Problem, d.Loop
 	wc := d.Verif.Margins.Crossover
-	if len(p.Filters) >= airframe.MaxFilters || !(wc > 0) || math.IsInf(wc, 0) {
+	if len(p.Filters)+len(p.Ctrl.DerivativeFilters) >= airframe.MaxFilters || !(wc > 0) || math.IsInf(wc, 0) {
 		return ""
 	}
 	if wn := d.Cont.Target.OmegaN; wn > wc && !math.IsInf(wn, 0) {

@@ -35,6 +35,9 @@ func linearize(k Coeffs) linearCtrl {
 		buf[0], buf[1], buf[2], buf[3] = -k.A1, k.B1-float64(k.A1*k.B0), -(k.B1 - float64(k.A1*k.B0)), 1
 		return linearCtrl{M: 1, Ac: buf[0:1:1], Br: buf[1:2:2], By: buf[2:3:3], Cc: buf[3:4:4], Dr: k.B0, Dy: -k.B0}
 	}
+	if len(k.DSections) > 0 {
+		return linearizeDerivative(k) // dfilter.go
+	}
 	hasI, hasD := k.Form.HasIntegral(), k.Form.HasDerivative()
 	m := 0
 	is, id, iv := -1, -1, -1
@@ -81,6 +84,9 @@ func linearize(k Coeffs) linearCtrl {
 func directSetpoint(k Coeffs) float64 {
 	if k.Form == airframe.FormLead {
 		return k.B0
+	}
+	if len(k.DSections) > 0 {
+		return linearize(k).Dr
 	}
 	dr := k.KpB
 	if k.Form.HasIntegral() {
@@ -681,6 +687,9 @@ func feedbackRatio(k Coeffs, q complex128) (n, d complex128) {
 	if k.Form == airframe.FormLead {
 		return complex(k.B0, 0) + lti.Mul(complex(k.B1, 0), q), 1 + lti.Mul(complex(k.A1, 0), q)
 	}
+	if len(k.DSections) > 0 {
+		return feedbackRatioDerivative(k, q) // dfilter.go
+	}
 	hasI, hasD := k.Form.HasIntegral(), k.Form.HasDerivative()
 	fi, fd := complex(1, 0), complex(1, 0) // the integral's and the derivative's denominators
 	if hasI {
@@ -716,6 +725,9 @@ func (k Coeffs) TF() (num, setNum, den lti.Poly) {
 	if k.Form == airframe.FormLead {
 		n := lti.Poly{k.B1, k.B0}
 		return n, n, lti.Poly{k.A1, 1}
+	}
+	if len(k.DSections) > 0 {
+		return k.tfDerivative() // dfilter.go
 	}
 	den = lti.Poly{1}
 	iDen, dDen := lti.Poly{-1, 1}, lti.Poly{-k.Ad, 1}

@@ -83,6 +83,10 @@ func NewLoops(p airframe.Axis, loop airframe.Loop) (*Loops, error) {
 		}
 		maxDelay = max(maxDelay, pl.Delay)
 	}
+	if z, ok := p.Ctrl.DerivativeZPK(); ok {
+		// The grid resolves the derivative filters' notches and peaks.
+		roots = append(append(roots, z.Poles...), z.Zeros...)
+	}
 	// The delay z^(−D) turns the phase like a transport delay of D·T.
 	l.grid = synth.FrequencyGrid(lo, ny*(1-1e-9), roots, float64(l.d+maxDelay+1)*T)
 	l.z = make([]complex128, len(l.grid))
@@ -152,7 +156,7 @@ func (l *Loops) realize(c synth.Controller) (Coeffs, error) {
 func sameController(a, b synth.Controller) bool {
 	same := func(x, y float64) bool { return math.Float64bits(x) == math.Float64bits(y) }
 	return a.Form == b.Form && a.DerivativeOnError == b.DerivativeOnError && same(a.Kp, b.Kp) && same(a.Ki, b.Ki) &&
-		same(a.Kd, b.Kd) && same(a.Tf, b.Tf) && same(a.B, b.B) && same(a.K, b.K) && same(a.Zero, b.Zero) && same(a.Pole, b.Pole)
+		same(a.Kd, b.Kd) && same(a.Tf, b.Tf) && same(a.B, b.B) && same(a.K, b.K) && same(a.Zero, b.Zero) && same(a.Pole, b.Pole) && a.DF == b.DF
 }
 
 // realizeNew is realize without its memory of the last controller.

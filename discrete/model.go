@@ -22,6 +22,9 @@ type Params[T Float] struct {
 	// Sections is the feedback filter chain, run on the measured rate
 	// before the controller; nil without one.
 	Sections []Section[T]
+	// DSections are the derivative filters, run on the filtered
+	// derivative before it joins the command; nil without them.
+	DSections []Section[T]
 }
 
 // Section is one filter section of the feedback chain rounded to T, run in
@@ -49,6 +52,7 @@ func ParamsOf[T Float](k Coeffs) Params[T] {
 		Kp: T(k.Kp), KpB: T(k.KpB), G0: T(k.G0), G01: T(k.G01), Kt: T(k.Kt),
 		Ad: T(k.Ad), Bd: T(k.Bd), B0: T(k.B0), B1: T(k.B1), A1: T(k.A1),
 		Lo: T(k.Lo), Hi: T(k.Hi), IL: T(k.IL),
+		DSections: SectionsOf[T](k.DSections),
 	}
 }
 
@@ -59,7 +63,8 @@ func ParamsOf[T Float](k Coeffs) Params[T] {
 // Which fields a form uses (the emitted code declares only these): S for
 // pi, pid and lead (the lead's filter state x); Ud and Vp for pd and pid;
 // Inc for conditional integration (AWClamp); Fresh for a derivative on
-// the error; Ua and Faults for every form.
+// the error; Ua and Faults for every form; F for each feedback filter,
+// D for each derivative filter.
 type State[T Float] struct {
 	S      T      // integrator (lead: the filter state x)
 	Ud     T      // derivative filter output
@@ -70,6 +75,9 @@ type State[T Float] struct {
 	Fresh  bool   // after Reset with the derivative on the error: prime Vp at the next step
 	// F holds the states (s1, s2) of each filter section of the chain.
 	F [airframe.MaxFilters][2]T
+	// D holds the states (s1, s2) of each derivative filter; their rest
+	// is 0, the derivative's value at a constant measurement.
+	D [airframe.MaxFilters][2]T
 }
 
 // finite reports whether x is neither NaN nor infinite: x − x is +0 for
@@ -111,6 +119,8 @@ func Reset[T Float](p *Params[T], s *State[T], output, measured T) {
 			s.F[i][1] = T(q.B2*measured) - T(q.A2*measured)
 		}
 	}
+	// The derivative filters stay at 0 (the zeroed state): at rest with
+	// their input, the derivative of a constant measurement, at 0.
 	if p.Form == airframe.FormLead {
 		// ul = B0·e + x, and e = 0 at engagement.
 		s.S = output
@@ -220,7 +230,22 @@ func Step[T Float](p *Params[T], s *State[T], r, y T) T {
 		}
 		s.Ud = T(p.Ad*s.Ud) + T(p.Bd*(v-s.Vp))
 		s.Vp = v
-		uu += s.Ud
+		// The derivative filters, each section in transposed direct
+		// form II as the feedback chain's: the command takes the last
+		// one's output in place of Ud.
+		d := s.Ud
+		for i, q := range p.DSections {
+			f := &s.D[i]
+			w := d
+			d = T(q.B0*w) + f[0]
+			if q.Second {
+				f[0] = T(q.B1*w) - T(q.A1*d) + f[1]
+				f[1] = T(q.B2*w) - T(q.A2*d)
+			} else {
+				f[0] = T(q.B1*w) - T(q.A1*d)
+			}
+		}
+		uu += d
 	}
 	u := clamp(uu, p.Lo, p.Hi)
 	if p.Form.HasIntegral() {

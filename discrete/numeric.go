@@ -295,6 +295,33 @@ func realizeFloat(d *Design) (*Realization, error) {
 		pl := d.Plant.WithSections(qs)
 		re.quantizedPlant = &pl
 	}
+	// The derivative filters' coefficients (D1_B0 …), as the code holds
+	// them: part of the controller, so the quantized loop takes them in
+	// its coefficients.
+	if len(d.Coeffs.DSections) > 0 {
+		kq.DSections = nil
+		for i, q := range d.Coeffs.DSections {
+			r := q
+			for _, c := range []struct {
+				name     string
+				v        float64
+				dst      *float64
+				optional bool
+			}{{"B0", q.B0, &r.B0, false}, {"B1", q.B1, &r.B1, false}, {"B2", q.B2, &r.B2, true}, {"A1", q.A1, &r.A1, false}, {"A2", q.A2, &r.A2, true}} {
+				qv := c.v
+				if t == airframe.Float32 {
+					qv = float64(float32(c.v))
+				}
+				*c.dst = qv
+				if c.optional && q.B2 == 0 && q.A2 == 0 {
+					continue
+				}
+				re.Coefficients = append(re.Coefficients, Coefficient{Name: fmt.Sprintf("D%d_%s", i+1, c.name), Value: c.v, Quantized: qv, RelError: relErr(qv, c.v), Format: string(t)})
+			}
+			kq.DSections = append(kq.DSections, r)
+		}
+		re.QuantizedCoeffs = kq
+	}
 	if t == airframe.Float32 {
 		if err := re.verifyQuantized(d, 0); err != nil {
 			return nil, err
@@ -364,6 +391,11 @@ func quantCoeff(x float64, w, nmax int) (raw int64, n int) {
 // realizeFixed realizes d with w-bit data and 2w-bit accumulators; the
 // tests turn the resolution rule off to study the 8-bit analogue.
 func realizeFixed(d *Design, w int, checkResolution bool) (*Realization, error) {
+	if len(d.Coeffs.DSections) > 0 {
+		// The decoder refuses them; a Design built by hand is told so.
+		return nil, &InputError{Key: "numeric.type", Value: strconv.Quote(string(d.Numeric.Type)),
+			Msg: `derivative filters (at = "derivative") are realized in float32 and float64 only`}
+	}
 	num := d.Numeric
 	for _, fs := range []struct {
 		key string
@@ -1234,7 +1266,12 @@ func numericFeedback(k Coeffs, z complex128) complex128 {
 		v += complex(k.G0, 0) + lti.Div(lti.Mul(complex(k.G01, 0), q), 1-q)
 	}
 	if k.Form.HasDerivative() {
-		v += lti.Div(lti.Mul(complex(k.Bd, 0), 1-q), 1-lti.Mul(complex(k.Ad, 0), q))
+		dt := lti.Div(lti.Mul(complex(k.Bd, 0), 1-q), 1-lti.Mul(complex(k.Ad, 0), q))
+		if len(k.DSections) > 0 {
+			nf, df := sectionsRatio(k.DSections, q)
+			dt = lti.Mul(dt, lti.Div(nf, df))
+		}
+		v += dt
 	}
 	return v
 }

@@ -2614,6 +2614,9 @@ func chain8x3(s *pairStepper, y0, y1 []float64) {
 // states, the controller's)
 // and reports whether there is one.
 func pairKernel(s *pairStepper, y0, y1 []float64) bool {
+	if s.ctrl.c.M > 3 {
+		return false
+	}
 	switch s.pl.N*4 + s.ctrl.c.M {
 	case 4:
 		pair1x0(s, y0, y1)
@@ -2689,6 +2692,9 @@ func pairKernel(s *pairStepper, y0, y1 []float64) bool {
 // states before its filter chain, the controller's)
 // and reports whether there is one.
 func chainKernel(s *pairStepper, y0, y1 []float64) bool {
+	if s.ctrl.c.M > 3 {
+		return false
+	}
 	switch s.pl.unf.N*4 + s.ctrl.c.M {
 	case 4:
 		chain1x0(s, y0, y1)

@@ -94,6 +94,9 @@ func codeCoeffs(k discrete.Coeffs) discrete.Coeffs {
 	for _, p := range []*float64{&k.Kp, &k.KpB, &k.G0, &k.G01, &k.Ad, &k.Bd, &k.B0, &k.B1, &k.A1, &k.Lo, &k.Hi, &k.IL, &k.Kt} {
 		*p = plusZero(*p)
 	}
+	if len(k.DSections) > 0 {
+		k.DSections = codeSections(k.DSections) // a copy: Coeffs share theirs
+	}
 	return k
 }
 
@@ -189,6 +192,24 @@ func floatConsts[T discrete.Float](u *codeUnit, ax *codeAxis, d *discrete.Design
 			add(&f.A2, c+"A2", g+"A2", q.A2, what+": feedback of the output two steps back")
 		}
 		ax.Filters = append(ax.Filters, f)
+	}
+	for i, q := range p.DSections {
+		f := codeFilter{N: i + 1, Second: q.Second, S1: fmt.Sprintf("d%ds1", i+1), S2: fmt.Sprintf("d%ds2", i+1)}
+		if fs := d.Problem.Ctrl.DerivativeFilters; i < len(fs) {
+			f.Doc = commentText(fs[i].Describe())
+		}
+		c, g := fmt.Sprintf("D%d_", i+1), fmt.Sprintf("D%d", i+1)
+		what := fmt.Sprintf("derivative filter %d", i+1)
+		add(&f.B0, c+"B0", g+"B0", q.B0, what+": weight of the input")
+		add(&f.B1, c+"B1", g+"B1", q.B1, what+": weight of the last input")
+		if q.Second {
+			add(&f.B2, c+"B2", g+"B2", q.B2, what+": weight of the input two steps back")
+		}
+		add(&f.A1, c+"A1", g+"A1", q.A1, what+": feedback of the last output")
+		if q.Second {
+			add(&f.A2, c+"A2", g+"A2", q.A2, what+": feedback of the output two steps back")
+		}
+		ax.DFilters = append(ax.DFilters, f)
 	}
 	return err
 }

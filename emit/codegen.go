@@ -319,6 +319,9 @@ type codeAxis struct {
 	Fx                                       *codeFixed // fixed-point details; nil for float
 	// Filters is the feedback filter chain, in the order it runs.
 	Filters []codeFilter
+	// DFilters are the derivative filters (float only), in the order
+	// they run on the filtered derivative.
+	DFilters []codeFilter
 }
 
 // codeFilter is one section of the feedback filter chain: the names of
@@ -549,6 +552,9 @@ func StepOps(k discrete.Coeffs, sections ...lti.Biquad) int {
 	for _, q := range sections {
 		ax.Filters = append(ax.Filters, codeFilter{Second: q.B2 != 0 || q.A2 != 0})
 	}
+	for _, q := range k.DSections {
+		ax.DFilters = append(ax.DFilters, codeFilter{Second: q.B2 != 0 || q.A2 != 0})
+	}
 	ax.DOnError = ax.HasD && k.DerivativeOnError
 	ax.AWClamp = ax.HasI && k.AntiWindup == discrete.AWClamp
 	ax.AWBackcalc = ax.HasI && k.AntiWindup == discrete.AWBackcalc
@@ -593,6 +599,12 @@ func arithmeticOps(ax *codeAxis) int {
 			n++ // −y
 		}
 		n += 4 + 1 // Ad·ud + Bd·(v − vp); + ud
+		for _, f := range ax.DFilters {
+			n += 5 // as a feedback section
+			if f.Second {
+				n += 4
+			}
+		}
 	}
 	return n + clampOps
 }

@@ -203,6 +203,18 @@ func axisSummary(add, indent func(string), u *codeUnit, x discrete.Outcome, ax *
 		}
 		indent("Feedback filter chain on the measured rate, before the controller: " + strings.Join(parts, "; ") + ".")
 	}
+	if fs := d.Problem.Ctrl.DerivativeFilters; len(fs) > 0 {
+		wc := d.Verif.Margins.Crossover
+		var parts []string
+		for i, f := range fs {
+			t := fmt.Sprintf("%d. %s", i+1, f.Describe())
+			if i < len(k.DSections) && wc > 0 && !math.IsInf(wc, 0) {
+				t += fmt.Sprintf(" (phase %s deg at the crossover)", codeMetric(discrete.SectionPhaseDeg(k.DSections[i], wc, d.Loop.Hz)))
+			}
+			parts = append(parts, t)
+		}
+		indent("Derivative filters on the derivative term alone, after its first-order lowpass: " + strings.Join(parts, "; ") + ".")
+	}
 	t := c.Target
 	indent(fmt.Sprintf("Target: zeta = %s, wn = %s rad/s, s* = %s +/- j%s rad/s.", codeMetric(t.Zeta), codeMetric(t.OmegaN), codeMetric(real(t.Pole)), codeMetric(math.Abs(imag(t.Pole)))))
 	v := d.Verif
@@ -274,6 +286,9 @@ func resetText(u *codeUnit, ax *codeAxis) string {
 			parts = append(parts, "the derivative starts from the first step's error, so there is no derivative kick")
 		} else {
 			parts = append(parts, "the derivative starts from measured, so there is no derivative kick")
+		}
+		if len(ax.DFilters) > 0 {
+			parts = append(parts, "the derivative filters start at rest at 0")
 		}
 	}
 	switch {

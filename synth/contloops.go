@@ -83,6 +83,10 @@ func ContinuousLoops(p airframe.Axis) Loops {
 		roots = append(append(append(roots, a.Plant.Model.Poles...), a.Plant.Model.Zeros...), a.Sensor.Poles...)
 		tau = math.Max(tau, a.Plant.Delay)
 	}
+	if z, ok := p.Ctrl.DerivativeZPK(); ok {
+		// The grid resolves the derivative filters' notches and peaks.
+		roots = append(append(roots, z.Poles...), z.Zeros...)
+	}
 	if tf := p.Ctrl.Tf(); p.Ctrl.Form.HasDerivative() && tf > 0 {
 		hi = math.Max(hi, 100/tf)
 	}

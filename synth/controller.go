@@ -21,10 +21,34 @@ type Controller struct {
 	B                 float64 // setpoint weight on P
 	DerivativeOnError bool
 	K, Zero, Pole     float64 // lead form only
+	// DF is the continuous counterpart of the derivative filters
+	// (airframe.Control.DerivativeFilters) in series after the
+	// derivative's own lowpass: the derivative term is
+	// Kd·s/(Tf·s + 1)·DF(s). Nil without them. It comes from the file, is
+	// shared by every controller of a design and never modified.
+	DF *lti.TF
+}
+
+// NewController returns the controller of form p.Ctrl with no gains set:
+// its fixed parts (derivative filter, setpoint weight 1, where the
+// derivative acts), which the placement and the search fill in.
+func NewController(p airframe.Axis) Controller {
+	c := Controller{Form: p.Ctrl.Form, Tf: p.Ctrl.Tf(), B: 1, DerivativeOnError: p.Ctrl.DerivativeOnError}
+	if z, ok := p.Ctrl.DerivativeZPK(); ok && p.Ctrl.Form.HasDerivative() {
+		if t, err := z.TF(); err == nil {
+			c.DF = &t
+		}
+	}
+	return c
 }
 
 // den returns the common denominator of C and F.
 func (c Controller) den() lti.Poly {
+	if c.DF != nil && c.Form.HasDerivative() {
+		d := c
+		d.DF = nil
+		return lti.PolyMul(d.den(), c.DF.Den)
+	}
 	switch c.Form {
 	case airframe.FormPI:
 		return lti.Poly{0, 1}
@@ -38,8 +62,34 @@ func (c Controller) den() lti.Poly {
 	return lti.Poly{1}
 }
 
+// withDF returns the numerator of the feedback (setpoint: true) path
+// with the derivative filter: the terms without the derivative over
+// DF's denominator, and the derivative's (kd·s over the form's
+// denominator, with kd as that path weights it) through DF's numerator.
+func (c Controller) withDF(setpoint bool) lti.Poly {
+	c0 := c
+	c0.DF, c0.Kd = nil, 0
+	n0 := c0.TF().Num
+	if setpoint {
+		n0 = c0.Setpoint().Num
+	}
+	kd := c.Kd
+	if setpoint && !c.DerivativeOnError {
+		kd = 0
+	}
+	// Kd·s/(Tf·s + 1) over the form's denominator: Kd·s (pd), Kd·s² (pid).
+	t := lti.Poly{0, kd}
+	if c.Form == airframe.FormPID {
+		t = lti.Poly{0, 0, kd}
+	}
+	return lti.PolyAdd(lti.PolyMul(n0, c.DF.Den), lti.PolyMul(t, c.DF.Num))
+}
+
 // TF returns the feedback path C(s).
 func (c Controller) TF() lti.TF {
+	if c.DF != nil && c.Form.HasDerivative() {
+		return lti.TF{Num: c.withDF(false), Den: c.den()}
+	}
 	var n lti.Poly
 	switch c.Form {
 	case airframe.FormP:
@@ -58,6 +108,9 @@ func (c Controller) TF() lti.TF {
 
 // Setpoint returns the setpoint path F(s), over the same denominator as C.
 func (c Controller) Setpoint() lti.TF {
+	if c.DF != nil && c.Form.HasDerivative() {
+		return lti.TF{Num: c.withDF(true), Den: c.den()}
+	}
 	var n lti.Poly
 	kd := 0.0
 	if c.DerivativeOnError {
@@ -89,7 +142,11 @@ func (c Controller) Eval(s complex128) complex128 {
 		v += lti.Div(complex(c.Ki, 0), s)
 	}
 	if c.Form.HasDerivative() {
-		v += lti.Div(lti.Mul(complex(c.Kd, 0), s), lti.Mul(complex(c.Tf, 0), s)+1)
+		d := lti.Div(lti.Mul(complex(c.Kd, 0), s), lti.Mul(complex(c.Tf, 0), s)+1)
+		if c.DF != nil {
+			d = lti.Mul(d, lti.Div(c.DF.Num.Eval(s), c.DF.Den.Eval(s)))
+		}
+		v += d
 	}
 	return v
 }
@@ -118,7 +175,16 @@ func (c Controller) HighFrequencyGain() float64 {
 		return math.Abs(c.K)
 	case airframe.FormPD, airframe.FormPID:
 		if c.Tf > 0 {
-			return c.Kp + c.Kd/c.Tf
+			d := c.Kd / c.Tf
+			if c.DF != nil {
+				// DF(j∞): a notch passes, a lowpass stops.
+				n, m := c.DF.Num.Trim(), c.DF.Den.Trim()
+				d = 0
+				if len(n) == len(m) {
+					d = math.Abs(c.Kd / c.Tf * n[len(n)-1] / m[len(m)-1])
+				}
+			}
+			return c.Kp + d
 		}
 		return math.Inf(1)
 	}

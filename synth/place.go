@@ -121,7 +121,7 @@ var errNoTarget = errors.New("the p form places on the damping line, not at a ta
 // from the magnitude condition. Negative gains are refused: they would not
 // fly.
 func Place(p airframe.Axis, t Target) (Controller, error) {
-	c := Controller{Form: p.Ctrl.Form, Tf: p.Ctrl.Tf(), B: 1, DerivativeOnError: p.Ctrl.DerivativeOnError}
+	c := NewController(p)
 	if p.Ctrl.SetpointWeightSet {
 		c.B = p.Ctrl.SetpointWeight
 	}
@@ -142,12 +142,12 @@ func Place(p airframe.Axis, t Target) (Controller, error) {
 		c.Ki = imag(need) / imag(q)
 		c.Kp = real(need) - float64(c.Ki*real(q))
 	case airframe.FormPD:
-		phi := lti.Div(s, lti.Mul(complex(c.Tf, 0), s)+1)
+		phi := c.derivBasis(s)
 		c.Kd = imag(need) / imag(phi)
 		c.Kp = real(need) - float64(c.Kd*real(phi))
 	case airframe.FormPID:
 		q := lti.Div(1, s)
-		phi := lti.Div(s, lti.Mul(complex(c.Tf, 0), s)+1)
+		phi := c.derivBasis(s)
 		s3 := -p.Ctrl.ThirdPole * t.Sigma
 		L3 := real(p.OpenLoop(complex(s3, 0)))
 		if L3 == 0 || math.IsNaN(L3) || math.IsInf(L3, 0) {
@@ -156,11 +156,15 @@ func Place(p airframe.Axis, t Target) (Controller, error) {
 		if den := float64(c.Tf*s3) + 1; math.Abs(den) < 1e-12 {
 			return infeasible(fmt.Sprintf("the third pole %.4g is at the derivative filter pole; change third_pole or derivative_lowpass_hz", s3))
 		}
+		phi3 := s3 / (float64(c.Tf*s3) + 1)
+		if c.DF != nil {
+			phi3 = real(c.derivBasis(complex(s3, 0)))
+		}
 		// Rows: Re and Im of the target condition, then the third pole.
 		a := [3][3]float64{
 			{1, real(q), real(phi)},
 			{0, imag(q), imag(phi)},
-			{1, 1 / s3, s3 / (float64(c.Tf*s3) + 1)},
+			{1, 1 / s3, phi3},
 		}
 		b := [3]float64{real(need), imag(need), -1 / L3}
 		x, ok := solve3(a, b)
@@ -372,4 +376,14 @@ func allStable(ps []complex128) bool {
 		}
 	}
 	return true
+}
+
+// derivBasis is the derivative term per unit Kd at s, s/(Tf·s + 1)·DF(s):
+// the column of Kd in the placement equations.
+func (c Controller) derivBasis(s complex128) complex128 {
+	phi := lti.Div(s, lti.Mul(complex(c.Tf, 0), s)+1)
+	if c.DF != nil {
+		phi = lti.Mul(phi, lti.Div(c.DF.Num.Eval(s), c.DF.Den.Eval(s)))
+	}
+	return phi
 }

@@ -133,7 +133,7 @@ type family struct {
 // newFamily sets up the search of form f around the gain scale g0 of the
 // loop at the frequency w0: |C| ≈ g0 puts the crossover near w0.
 func newFamily(p airframe.Axis, g0, w0 float64) family {
-	base := Controller{Form: p.Ctrl.Form, Tf: p.Ctrl.Tf(), B: 1, DerivativeOnError: p.Ctrl.DerivativeOnError}
+	base := NewController(p)
 	one := func(th []float64, x float64) float64 { return x }
 	switch p.Ctrl.Form {
 	case airframe.FormP:

@@ -184,7 +184,8 @@ func badInputCatalogue(t *testing.T) []badInput {
 		{"filter notch band", withTable("[axes.roll.filter]", "kind = \"notch\"\nhz = 450.0\nwidth_hz = 150.0"), "axes.roll.filter[0].width_hz", "the band hz ± width_hz/2 = [375, 525] Hz must lie below Nyquist"},
 		{"filter order 4", withTable("[axes.roll.filter]", "kind = \"lowpass\"\nhz = 100.0\norder = 4"), "axes.roll.filter[0].order", "must be an integer in 1..2"},
 		{"filter hz auto", withTable("[axes.roll.filter]", "kind = \"notch\"\nhz = \"auto\"\nwidth_hz = 20.0"), "axes.roll.filter[0].hz", "no lightly damped mode of the plant or sensor (a pole pair with damping below 0.2)"},
-		{"filter on the derivative", withTable("[axes.roll.filter]", "kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0"), "axes.roll.filter[0].at", "control.derivative_lowpass_hz"},
+		{"first-order lowpass on the derivative", withTable("[axes.roll.filter]", "kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0\norder = 1"), "axes.roll.filter[0].order", "control.derivative_lowpass_hz"},
+		{"automatic filter on the derivative", withTable("[axes.roll.filter]", "kind = \"lowpass\"\nat = \"derivative\"\nhz = \"auto\""), "axes.roll.filter[0].hz", `"auto" is for filters at = "feedback"`},
 
 		// The whole file.
 		{"too many keys", manyKeys(6000), "", "keys and table headers, more than the 5184 an airframe file may have"},

@@ -149,3 +149,75 @@ func TestFilterReportAgainstSciPy(t *testing.T) {
 		t.Errorf("phase budget has %d filter rows, want 4: %v", n, rows)
 	}
 }
+
+// TestDerivativeFilterReport: derivative filters follow the feedback chain
+// in the JSON's filter list with "at": "derivative", their coefficients
+// and phase against SciPy 1.10's own designs (filterScript), the
+// coefficient table has their rows (D1_B0 …), and the text table lists
+// them.
+func TestDerivativeFilterReport(t *testing.T) {
+	src := strings.SplitN(filtersAirframe, "[[axes.roll.filter]]", 2)[0] + `[[axes.roll.filter]]
+kind = "lowpass"
+hz = 180.0
+[[axes.roll.filter]]
+kind = "lowpass"
+at = "derivative"
+hz = 70.0
+[[axes.roll.filter]]
+kind = "notch"
+at = "derivative"
+hz = 160.0
+width_hz = 40.0
+depth_db = 10.0
+`
+	f, err := airframe.Parse("dfiltered.toml", []byte(src))
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := discrete.DesignAirframe(f)
+	r := JSON([]*discrete.Airframe{a}).Airframes[0].Axes[0]
+	if r.Error != "" {
+		t.Fatal(r.Error)
+	}
+	fs := r.Filters
+	if len(fs) != 3 || fs[0].At != "feedback" || fs[1].At != "derivative" || fs[2].At != "derivative" || fs[1].Order != 2 || fs[2].DepthDB == nil {
+		t.Fatalf("filters %+v", fs)
+	}
+	wc := *r.Discrete.Crossover
+	ins := []map[string]any{{"kind": "lowpass", "hz": 180.0, "order": 2}, {"kind": "lowpass", "hz": 70.0, "order": 2},
+		{"kind": "notch", "hz": 160.0, "width_hz": 40.0, "depth_db": 10.0}}
+	var ref []struct {
+		B, A  []float64
+		Phase float64
+	}
+	pyref.Run(t, filterScript, map[string]any{"fs": 1000.0, "wc": wc, "filters": ins}, &ref)
+	for i, x := range fs {
+		// As TestFilterReportAgainstSciPy: 10 digits against double
+		// precision, and the phase to 1e-7 degree.
+		for j := 0; j < 3; j++ {
+			if math.Abs(x.B[j]-ref[i].B[j]) > 5e-10*2 || math.Abs(x.A[j]-ref[i].A[j]) > 5e-10*2 {
+				t.Errorf("filter %d: b %v a %v, SciPy b %v a %v", i+1, x.B, x.A, ref[i].B, ref[i].A)
+				break
+			}
+		}
+		if x.PhaseAtCrossoverDeg == nil || math.Abs(*x.PhaseAtCrossoverDeg-ref[i].Phase) > 1e-7 {
+			t.Errorf("filter %d: phase at the crossover %v°, SciPy %g°", i+1, x.PhaseAtCrossoverDeg, ref[i].Phase)
+		}
+	}
+	names := map[string]bool{}
+	for _, c := range r.Numeric.Coefficients {
+		names[c.Name] = true
+	}
+	for _, n := range []string{"D1_B0", "D1_A2", "D2_B2", "D2_A1"} {
+		if !names[n] {
+			t.Errorf("coefficient %s missing: %v", n, names)
+		}
+	}
+	var b strings.Builder
+	if err := WriteTable(&b, a); err != nil {
+		t.Fatal(err)
+	}
+	if want := "D2. " + f.Axes[0].Ctrl.DerivativeFilters[1].Describe() + ", on the derivative: phase"; !strings.Contains(b.String(), want) {
+		t.Errorf("table lacks %q:\n%s", want, b.String())
+	}
+}

@@ -517,11 +517,23 @@ func jsonDiscrete(d *discrete.Design) *DiscreteReport {
 	return dr
 }
 
-// jsonFilters reports the filter chain of d (nil without one).
+// jsonFilters reports the filter chain of d, then its derivative filters
+// (nil without any).
 func jsonFilters(d *discrete.Design) []FilterReport {
 	var out []FilterReport
 	wc := d.Verif.Margins.Crossover
-	for i, f := range d.Problem.Filters {
+	fs := append(append([]airframe.Filter(nil), d.Problem.Filters...), d.Problem.Ctrl.DerivativeFilters...)
+	nf := len(d.Problem.Filters)
+	section := func(i int) (lti.Biquad, bool) {
+		switch {
+		case i < nf && i < len(d.Plant.Sections):
+			return d.Plant.Sections[i], true
+		case i >= nf && i-nf < len(d.Coeffs.DSections):
+			return d.Coeffs.DSections[i-nf], true
+		}
+		return lti.Biquad{}, false
+	}
+	for i, f := range fs {
 		r := FilterReport{Kind: string(f.Kind), At: f.At, Hz: jsonNum(f.Hz), Order: f.Order, Auto: f.AutoHz, Goal: f.Goal}
 		if f.Kind == airframe.FilterNotch {
 			r.WidthHz = jsonNum(f.WidthHz)
@@ -532,8 +544,7 @@ func jsonFilters(d *discrete.Design) []FilterReport {
 		if f.Order == 2 {
 			r.Damping = jsonNum(f.Damping)
 		}
-		if i < len(d.Plant.Sections) {
-			q := d.Plant.Sections[i]
+		if q, ok := section(i); ok {
 			r.B = []float64{roundSig(q.B0), roundSig(q.B1), roundSig(q.B2)}
 			r.A = []float64{1, roundSig(q.A1), roundSig(q.A2)}
 			if wc > 0 && !math.IsInf(wc, 0) {

@@ -111,6 +111,17 @@ func (t *tableWriter) axis(a *discrete.Airframe, x discrete.Outcome) {
 		}
 		t.line("%s%d. %s%s", lead, i+1, f.Describe(), ph)
 	}
+	for i, f := range d.Problem.Ctrl.DerivativeFilters {
+		ph := ""
+		if wc := d.Verif.Margins.Crossover; i < len(d.Coeffs.DSections) && wc > 0 && !math.IsInf(wc, 0) {
+			ph = fmt.Sprintf(": phase %s at the crossover", tabDeg(discrete.SectionPhaseDeg(d.Coeffs.DSections[i], wc, d.Loop.Hz)))
+		}
+		lead := "           "
+		if i == 0 && len(d.Problem.Filters) == 0 {
+			lead = "  filters  "
+		}
+		t.line("%sD%d. %s, on the derivative%s", lead, i+1, f.Describe(), ph)
+	}
 	t.line("")
 	t.metrics(d)
 	t.envelope(d)

@@ -158,12 +158,14 @@ func kernel(b *bytes.Buffer, p, m int, chain bool) {
 }
 
 // dispatch writes the function fn that picks the kernel <prefix><p>x<m>
-// by the case number n*(maxM+1) + M, unique for M <= maxM, where n is the
-// expression of the plant's states (what the kernels unroll).
+// by the case number n*(maxM+1) + M, unique for M <= maxM (a larger
+// controller, such as one with derivative filters, has none), where n is
+// the expression of the plant's states (what the kernels unroll).
 func dispatch(b *bytes.Buffer, prefix, fn, n string, most int, what string) {
 	fmt.Fprintf(b, "// %s runs the unrolled kernel for the stepper's sizes (the plant's\n", fn)
 	fmt.Fprintf(b, "// states%s, the controller's)\n// and reports whether there is one.\n", what)
 	fmt.Fprintf(b, "func %s(s *pairStepper, y0, y1 []float64) bool {\n", fn)
+	fmt.Fprintf(b, "\tif s.ctrl.c.M > %d {\n\t\treturn false\n\t}\n", maxM)
 	fmt.Fprintf(b, "\tswitch %s*%d + s.ctrl.c.M {\n", n, maxM+1)
 	for p := 1; p <= most; p++ {
 		for m := 0; m <= maxM; m++ {
