@@ -5,7 +5,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
-	"strings"
+	"strconv"
 
 	"locusmith/airframe"
 	"locusmith/internal/lti"
@@ -359,12 +359,15 @@ func (sr *searcher) theta(u []float64) []float64 {
 	return th
 }
 
+// key is the cache key of shape u: its parameters to six decimals (of a
+// decade), so that shapes reached by different paths of the search meet.
 func key(u []float64) string {
-	var b strings.Builder
+	b := make([]byte, 0, 12*len(u))
 	for _, v := range u {
-		fmt.Fprintf(&b, "%.6f,", v)
+		b = strconv.AppendFloat(b, v, 'f', 6, 64)
+		b = append(b, ',')
 	}
-	return b.String()
+	return string(b)
 }
 
 // basis writes A = C(θ, 0) and B = C(θ, 1) − C(θ, 0) on the grid.
@@ -647,7 +650,7 @@ func relShort(v, limit float64) float64 {
 // they allow, found in closed form for Ms and by bisection for the
 // margins and the noise gain.
 func (sr *searcher) screen(u []float64) *point {
-	k := key(u) + fmt.Sprint(sr.noiseB)
+	k := key(u) + strconv.FormatFloat(sr.noiseB, 'g', -1, 64)
 	if pt, ok := sr.cache[k]; ok {
 		return pt
 	}
