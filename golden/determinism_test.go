@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"fmt"
+	"io"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -56,19 +57,26 @@ func runCLI(dir string, emu, bin string, args ...string) (string, int, error) {
 
 // runCLIContext is runCLI, killed when ctx is done.
 func runCLIContext(ctx context.Context, dir string, emu, bin string, args ...string) (string, int, error) {
+	var out bytes.Buffer
+	code, err := runCLIInto(ctx, &out, &out, dir, emu, bin, args...)
+	return out.String(), code, err
+}
+
+// runCLIInto is runCLIContext with standard output and error written to
+// stdout and stderr.
+func runCLIInto(ctx context.Context, stdout, stderr io.Writer, dir string, emu, bin string, args ...string) (int, error) {
 	if emu != "" {
 		args = append([]string{bin}, args...)
 		bin = emu
 	}
 	cmd := exec.CommandContext(ctx, bin, args...)
 	cmd.Dir = dir
-	var out bytes.Buffer
-	cmd.Stdout, cmd.Stderr = &out, &out
+	cmd.Stdout, cmd.Stderr = stdout, stderr
 	err := cmd.Run()
 	if ee, ok := err.(*exec.ExitError); ok && ctx.Err() == nil {
-		return out.String(), ee.ExitCode(), nil
+		return ee.ExitCode(), nil
 	}
-	return out.String(), 0, err
+	return 0, err
 }
 
 // snapshot reads every file of dir.
@@ -100,8 +108,9 @@ func readFiles(dir string) (map[string][]byte, error) {
 
 // TestCrossArchDeterminism builds the CLI for the host and for arm64
 // (CGO_ENABLED=0 GOARCH=arm64), runs both (arm64 under qemu-aarch64) on
-// every example in every arithmetic (the file's, float32, q15, q31) and
-// language, and requires byte-identical files: the output is a pure
+// every example in every arithmetic (the file's, float32, q15, q31), and
+// requires byte-identical C files with vectors and JSON reports of the
+// designs: the output is a pure
 // function of the input and the tool version, whatever the CPU (Go may
 // fuse x*y + z on arm64 and not on amd64; a value that reached the
 // output through such a difference would show here). It also requires
@@ -132,8 +141,8 @@ func TestCrossArchDeterminism(t *testing.T) {
 		t.Fatal(err)
 	}
 	// inputs are the examples as written and their copies in the other
-	// arithmetics (copies).
-	var inputs, copies []string
+	// arithmetics.
+	var inputs []string
 	for _, p := range examplePaths(t) {
 		b, err := os.ReadFile(p)
 		if err != nil {
@@ -146,13 +155,11 @@ func TestCrossArchDeterminism(t *testing.T) {
 		inputs = append(inputs, rel)
 		for _, nt := range []airframe.NumericType{airframe.Float32, airframe.Q15, airframe.Q31} {
 			if design(t, p, "").File.Numeric.Type != nt {
-				c := fixedCopy(t, work, p, nt)
-				inputs, copies = append(inputs, c), append(copies, c)
+				inputs = append(inputs, fixedCopy(t, work, p, nt))
 			}
 		}
 	}
 	sort.Strings(inputs)
-	sort.Strings(copies)
 
 	ctx, cancel := context.WithCancel(context.Background())
 	var wg sync.WaitGroup
@@ -186,12 +193,10 @@ func TestCrossArchDeterminism(t *testing.T) {
 	// rendering it is string templating, the same on every CPU. So one
 	// language with the vectors covers the design and the numbers the
 	// vectors carry, which the Go vectors share with the C ones; the
-	// JSON report, every figure of the designs, is compared as well: for
-	// the copies here, and for the examples as written by
-	// cmd/locusmith's TestCrossArch, which holds arm64's design --json of
-	// each example to its golden file (testdata/design_<example>.json,
-	// which TestJSONGolden holds the host to), so they are not designed
-	// under the emulator a second time here.
+	// JSON report of the same designs (emit --json), every figure of
+	// them, is compared as well, for the examples and their copies: one
+	// design of each under the emulator. (TestJSONGolden holds the host's
+	// report of each example to its golden file.)
 	emitRun := func(name, emu string, bin *string) func() crossRun {
 		return func() crossRun {
 			if <-built; buildErr != nil {
@@ -201,55 +206,40 @@ func TestCrossArchDeterminism(t *testing.T) {
 			if err := os.Mkdir(o, 0o755); err != nil {
 				return crossRun{err: err}
 			}
-			args := append([]string{"emit", "-o", o, "--allow-unmet", "--lang", "c", "--vectors"}, inputs...)
-			out, code, err := runCLIContext(ctx, work, emu, *bin, args...)
+			args := append([]string{"emit", "-o", o, "--allow-unmet", "--lang", "c", "--vectors", "--json"}, inputs...)
+			var stdout, stderr bytes.Buffer
+			code, err := runCLIInto(ctx, &stdout, &stderr, work, emu, *bin, args...)
 			if err != nil || code != 0 {
-				return crossRun{err: fmt.Errorf("%s: emit: exit %d, %v\n%s", name, code, err, out)}
+				return crossRun{err: fmt.Errorf("%s: emit: exit %d, %v\n%s", name, code, err, stderr.String())}
 			}
 			files, err := readFiles(o)
-			return crossRun{files: files, err: err}
-		}
-	}
-	jsonRun := func(name, emu string, bin *string) func() crossRun {
-		return func() crossRun {
-			if <-built; buildErr != nil {
-				return crossRun{err: buildErr}
-			}
-			out, code, err := runCLIContext(ctx, work, emu, *bin, append([]string{"design", "--json"}, copies...)...)
-			if err != nil {
-				return crossRun{err: fmt.Errorf("%s: design --json: %v\n%s", name, err, out)}
-			}
-			return crossRun{files: map[string][]byte{"design.json": []byte(out)}, code: code}
+			return crossRun{files: files, json: stdout.Bytes(), err: err}
 		}
 	}
 	armEmit := start(emitRun("arm64", emu, &arm))
-	armJSON := start(jsonRun("arm64", emu, &arm))
 	hostEmit := start(emitRun("host", "", &host))
 	againEmit := start(emitRun("host-again", "", &host))
-	hostJSON := start(jsonRun("host", "", &host))
 
 	t.Parallel()
 	t.Run("c-vectors", func(t *testing.T) {
-		ref := (<-hostEmit).must(t)
+		host := <-hostEmit
+		ref := host.must(t)
 		if len(ref) == 0 {
 			t.Fatal("emit --lang c --vectors: no files written")
+		}
+		if !bytes.Contains(host.json, []byte(`"airframes"`)) {
+			t.Fatalf("emit --json printed no report:\n%s", host.json)
 		}
 		for _, other := range []struct {
 			name string
 			ch   <-chan crossRun
 		}{{"host-again", againEmit}, {"arm64", armEmit}} {
-			got := (<-other.ch).must(t)
+			r := <-other.ch
+			got := r.must(t)
 			compareFiles(t, other.name+" emit --lang c --vectors", ref, got)
-		}
-	})
-	t.Run("json", func(t *testing.T) {
-		want, got := <-hostJSON, <-armJSON
-		w, g := want.must(t)["design.json"], got.must(t)["design.json"]
-		if want.code != got.code {
-			t.Errorf("design --json exits %d on the host, %d on arm64", want.code, got.code)
-		}
-		if !bytes.Equal(g, w) {
-			t.Errorf("design --json differs between the host and arm64:\n%s", firstDiff(string(w), string(g)))
+			if !bytes.Equal(r.json, host.json) {
+				t.Errorf("%s: the JSON report (emit --json) differs from the host's:\n%s", other.name, firstDiff(string(host.json), string(r.json)))
+			}
 		}
 	})
 }
@@ -258,7 +248,7 @@ func TestCrossArchDeterminism(t *testing.T) {
 // files it wrote (or its standard output) and its exit status.
 type crossRun struct {
 	files map[string][]byte
-	code  int
+	json  []byte // the JSON report the run printed (emit --json)
 	err   error
 }
 

@@ -83,7 +83,15 @@ func buildForErr(dir, goarch string) (string, error) {
 	if _, err := os.Stat(goTool); err != nil {
 		goTool = "go"
 	}
+	// The package's own directory, not the working directory: builds run
+	// in the background while a sequential test (TestJSONGolden) may
+	// have moved the process to the repository root.
+	_, self, _, ok := runtime.Caller(0)
+	if !ok {
+		return "", fmt.Errorf("go build %s: the test's source directory is unknown", goarch)
+	}
 	cmd := exec.Command(goTool, "build", "-o", bin, ".")
+	cmd.Dir = filepath.Dir(self)
 	cmd.Env = env
 	if out, err := cmd.CombinedOutput(); err != nil {
 		return "", fmt.Errorf("go build %s: %v\n%s", goarch, err, out)

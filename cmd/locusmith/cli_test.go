@@ -601,6 +601,8 @@ func keysOf(m map[string]any) []string {
 // TestJSONGolden compares the JSON report of each example byte for byte
 // with testdata/design_<example>.json; -update rewrites them. It runs from
 // the repository root so that the report names the files as a user would.
+// The second design of each, for determinism, is emit --json's, which
+// prints the same report.
 func TestJSONGolden(t *testing.T) {
 	paths := examples(t)
 	t.Chdir("../..")
@@ -613,9 +615,14 @@ func TestJSONGolden(t *testing.T) {
 			if code != exitOK {
 				t.Fatalf("exit %d\n%s", code, errs)
 			}
-			// Determinism: a second run gives the same bytes.
-			if _, again, _ := runCLI(t, "design", "--json", rel); again != out {
-				t.Fatalf("two runs of design --json %s differ", rel)
+			// Determinism: a second run gives the same bytes; emit --json
+			// prints what design --json does.
+			ecode, again, eerrs := runCLI(t, "emit", "-o", t.TempDir(), "--json", rel)
+			if ecode != exitOK {
+				t.Fatalf("emit --json: exit %d\n%s", ecode, eerrs)
+			}
+			if again != out {
+				t.Fatalf("emit --json %s differs from design --json:\n%s", rel, firstDiff(out, again))
 			}
 			if *update {
 				if err := os.MkdirAll(filepath.Dir(golden), 0o755); err != nil {
@@ -671,6 +678,7 @@ func TestUsageErrors(t *testing.T) {
 		{[]string{"help", "fly"}, `unknown verb "fly"`},
 		{[]string{"design", "-j", "0", "x.toml"}, "--jobs 0: must be at least 1"},
 		{[]string{"emit", "-o", ".", "--jobs", "-2", "x.toml"}, "--jobs -2: must be at least 1"},
+		{[]string{"emit", "-o", ".", "--json", "--check", "x.toml"}, "--json and --check"},
 		{[]string{"report", "-o", ".", "-j", "0", "x.toml"}, "--jobs 0: must be at least 1"},
 		{[]string{"design", "-j", "many", "x.toml"}, "invalid argument"},
 		{[]string{"compare", "--tolerance", "0", "a.toml", "b.toml"}, "--tolerance 0: want a fraction of the limit in (0, 1]"},

@@ -54,50 +54,80 @@ func runDesign(args []string, stdout, stderr io.Writer) int {
 	// Each airframe is printed as soon as it and those before it are
 	// designed, and then dropped: memory stays flat in the batch size.
 	var werr error
+	var js *jsonStream
 	if *asJSON {
-		// The document of emit.Report, written one airframe at a time
-		// in the same layout as encoding the whole report at once.
-		if len(files) == 0 {
-			werr = writeJSON(stdout, review.JSON(nil), "")
-		} else {
-			_, werr = fmt.Fprintf(stdout, "{\n  \"version\": %q,\n  \"airframes\": [\n", version.Version)
-		}
+		js = newJSONStream(stdout, len(files))
 	}
 	designStream(files, discrete.BatchOptions{Jobs: *jobs, Release: true}, stderr, func(i int, a *discrete.Airframe) {
 		for _, x := range a.Axes {
 			code = worst(code, axisStatus(x))
 		}
-		if werr == nil {
-			if *asJSON {
-				if i > 0 {
-					_, werr = io.WriteString(stdout, ",\n")
-				}
-				if werr == nil {
-					_, werr = io.WriteString(stdout, "    ")
-				}
-				if werr == nil {
-					werr = writeJSON(stdout, review.JSON([]*discrete.Airframe{a}).Airframes[0], "    ")
-				}
-			} else {
-				werr = review.WriteTable(stdout, shownPath(a))
-			}
+		if js != nil {
+			js.add(a)
+		} else if werr == nil {
+			werr = review.WriteTable(stdout, shownPath(a))
 		}
 		for _, msg := range a.Unmet() {
 			fmt.Fprintf(stderr, "%s: %s\n", shown(a.File.Path), msg)
 		}
 	})
-	if werr == nil && len(files) > 0 {
-		if *asJSON {
-			_, werr = io.WriteString(stdout, "\n  ]\n}\n")
-		} else {
-			_, werr = fmt.Fprintln(stdout, "Results are model-based and do not replace flight testing: bench-test with\npropellers off, fly tethered first, follow local aviation rules and have the\ndesign reviewed by a qualified person before flight.")
-		}
+	switch {
+	case js != nil:
+		werr = js.end()
+	case werr == nil && len(files) > 0:
+		_, werr = fmt.Fprintln(stdout, "Results are model-based and do not replace flight testing: bench-test with\npropellers off, fly tethered first, follow local aviation rules and have the\ndesign reviewed by a qualified person before flight.")
 	}
 	if werr != nil {
 		fmt.Fprintf(stderr, "locusmith design: write: %v\n", werr)
 		return exitUsage
 	}
 	return code
+}
+
+// jsonStream writes the JSON report (the document of review.JSON) one
+// airframe at a time, in the layout of encoding the whole report at once,
+// so that a batch need not be held in memory; the first write error
+// stops it.
+type jsonStream struct {
+	w   io.Writer
+	n   int // airframes written
+	err error
+}
+
+// newJSONStream starts the report of files airframes on w (all of it
+// when there are none).
+func newJSONStream(w io.Writer, files int) *jsonStream {
+	s := &jsonStream{w: w}
+	if files == 0 {
+		s.err = writeJSON(w, review.JSON(nil), "")
+		s.n = -1
+		return s
+	}
+	_, s.err = fmt.Fprintf(w, "{\n  \"version\": %q,\n  \"airframes\": [\n", version.Version)
+	return s
+}
+
+// add writes airframe a's entry.
+func (s *jsonStream) add(a *discrete.Airframe) {
+	if s.err != nil {
+		return
+	}
+	sep := "    "
+	if s.n > 0 {
+		sep = ",\n    "
+	}
+	s.n++
+	if _, s.err = io.WriteString(s.w, sep); s.err == nil {
+		s.err = writeJSON(s.w, review.JSON([]*discrete.Airframe{a}).Airframes[0], "    ")
+	}
+}
+
+// end closes the document and returns the first write error.
+func (s *jsonStream) end() error {
+	if s.err == nil && s.n >= 0 {
+		_, s.err = io.WriteString(s.w, "\n  ]\n}\n")
+	}
+	return s.err
 }
 
 // writeJSON writes v indented by two spaces under prefix, without HTML

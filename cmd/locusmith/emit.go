@@ -12,7 +12,7 @@ import (
 )
 
 const emitHelp = `Usage: locusmith emit -o DIR [--lang c|go] [--c-header-only] [--vectors]
-                      [--check] [--allow-unmet] FILE...
+                      [--check] [--allow-unmet] [--json] FILE...
 
 Design and verify every axis of each airframe file, then write the rate
 controllers as source code into DIR:
@@ -39,6 +39,10 @@ checks did fail; a build that must go on can ignore that status).
 <airframe>rate_vectors_test.go) that runs the generated code on a standard
 excitation and exits non-zero at the first output that differs from
 locusmith's reference model by one bit.
+
+--json also prints the JSON report of the designs on standard output,
+byte for byte what design --json prints for the same files (one design
+for both; not with --check).
 
 --check writes nothing: it regenerates in memory and compares with DIR,
 listing stale, missing and unexpected files (a file whose first line says
@@ -76,6 +80,7 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 	vectors := fs.Bool("vectors", false, "also write the test-vector program")
 	check := fs.Bool("check", false, "write nothing; compare with DIR and exit 1 on any difference")
 	allowUnmet := fs.Bool("allow-unmet", false, "write airframes whose design checks fail, marked in the header")
+	asJSON := fs.Bool("json", false, "also print the JSON report of the designs (as design --json)")
 	jobs := jobsFlag(fs)
 	if done, code := parseFlags(fs, help, args, emitHelp, stdout, stderr); done {
 		return code
@@ -95,6 +100,9 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 	}
 	if *out == "" {
 		return usage("no output directory: -o DIR is required")
+	}
+	if *asJSON && *check {
+		return usage("--json and --check: --check prints its findings on standard output; give one")
 	}
 	if *jobs < 1 {
 		return usage("--jobs %d: must be at least 1", *jobs)
@@ -150,7 +158,14 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 	var all []emit.Source
 	var refused []string // file names not generated because of exit-1 failures
 	var stageErr error
+	var js *jsonStream
+	if *asJSON {
+		js = newJSONStream(stdout, len(files))
+	}
 	designStream(files, discrete.BatchOptions{Jobs: *jobs, Release: true}, stderr, func(_ int, a *discrete.Airframe) {
+		if js != nil {
+			js.add(a)
+		}
 		srcs, warns, err := batch.Add(a)
 		for _, w := range warns {
 			fmt.Fprintf(stderr, "locusmith emit: warning: %s\n", w)
@@ -184,6 +199,12 @@ func runEmit(args []string, stdout, stderr io.Writer) int {
 			stageErr = st.Add(srcs)
 		}
 	})
+	if js != nil {
+		if err := js.end(); err != nil {
+			fmt.Fprintf(stderr, "locusmith emit: write the JSON report: %v\n", err)
+			code = exitUsage
+		}
+	}
 	if code == exitUsage {
 		if st != nil {
 			st.Abort()
