@@ -274,6 +274,9 @@ type searcher struct {
 	// judged counts the controllers given to timeChecks; a run belongs to
 	// the controller of its count.
 	judged int
+	// seen holds the judgments that do not depend on the order of the
+	// search (see judgeAt), by shape and gain.
+	seen map[seenKey]cand
 	// stuck says that the last scored failure (timeChecks) could not
 	// settle: its response at the best weight was still outside the band
 	// at the end of its record, or grew a million times past the
@@ -336,7 +339,7 @@ func (sr *searcher) ran(i int) *stepRun {
 
 func newSearcher(p airframe.Axis, L Loops, g0, w0 float64) *searcher {
 	sr := &searcher{p: p, L: L, fam: newFamily(p, g0, w0), grid: L.Grid(), bs: weights(p),
-		cache: map[string]*point{}, nearest: map[string]cand{}, noiseB: math.Inf(1)}
+		cache: map[string]*point{}, nearest: map[string]cand{}, seen: map[seenKey]cand{}, noiseB: math.Inf(1)}
 	sr.ncorn = len(L.Corners())
 	for i := 0; i < L.Primary(); i++ {
 		sr.open = append(sr.open, L.Open(i))
@@ -794,6 +797,11 @@ func (sr *searcher) judgeAt(pt *point, x float64) (cand, error) {
 	if sr.fine {
 		sr.fineLeft--
 	}
+	k := seenKey{pt, math.Float64bits(x)}
+	if c, ok := sr.seen[k]; ok {
+		sr.note(c)
+		return c, nil
+	}
 	c := cand{pt: pt, x: x, settle: math.NaN()}
 	c.ctrl = sr.fam.ctrl(pt.th, x)
 	c.gain = sr.fam.gain(pt.th, x)
@@ -820,8 +828,22 @@ func (sr *searcher) judgeAt(pt *point, x float64) (cand, error) {
 		}
 	}
 	c.ok = len(c.fails) == 0
+	// A pass is a pass whenever it is judged again; so is a failure once
+	// a passing design is known, when failures are no longer scored. A
+	// failure before that is scored at the plant that failed last, which
+	// depends on the order of the search, and is judged afresh.
+	if c.ok || sr.haveOK {
+		sr.seen[k] = c
+	}
 	sr.note(c)
 	return c, nil
+}
+
+// seenKey names a judgment: the shape (the search keeps one point per
+// shape) and the gain, bit for bit.
+type seenKey struct {
+	pt *point
+	x  uint64
 }
 
 // note keeps the closest candidate, the best passing one and the reach.
