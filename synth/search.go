@@ -203,6 +203,10 @@ type point struct {
 	noise0 float64
 	fviol  float64 // when xf = 0: how far the frequency checks miss
 	why    string  // when xf = 0: the check that stops it
+	// stuckTop says that the shape failed without settling at xf, judged
+	// before any passing design (maximize's first pass): the first of the
+	// stuckRun its line may take.
+	stuckTop bool
 }
 
 // cand is a full judgment: a controller and whether it passes everything.
@@ -728,6 +732,9 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 	}
 	var c cand
 	stuck, probed := 0, false
+	if pt.stuckTop && x < pt.xf {
+		stuck = 1
+	}
 	for i, f := range steps {
 		var err error
 		if c, err = sr.judgeAt(pt, x*f); err != nil {
@@ -1672,6 +1679,7 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 			return best, false, err
 		}
 		failed[i] = !c.ok
+		pt.stuckTop = !c.ok && !sr.haveOK && !sr.fine && sr.stuck
 		if c.ok && (!have || obj.score(c) > obj.score(best)) {
 			best, have = c, true
 		}
