@@ -1274,22 +1274,38 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 	}
 
 	// 4. Zero input.
+	const maxRest = 20000
+	decay := func(slow float64) int { // slow^n ≤ e^−20, counted by multiplication
+		n := 0
+		for v := 1.0; v > 2.061153622438558e-09 && n < maxRest; n++ {
+			v *= slow
+		}
+		return n
+	}
 	slow := 0.0
 	switch {
 	case k.Form == airframe.FormLead:
 		slow = math.Abs(k.A1)
 	case k.Form.HasDerivative():
 		slow = math.Abs(k.Ad)
-		// The derivative sections decay at the radius of their poles.
-		for _, q := range k.DSections {
-			slow = math.Max(slow, poleRadius(q))
-		}
 	}
-	n4 := 0 // slow^n4 ≤ e^−20, counted by multiplication
-	for v := 1.0; v > 2.061153622438558e-09 && n4 < 20000; n4++ {
-		v *= slow
+	n4 := max(decay(slow), minRestSamples)
+	// The derivative sections decay at the radius of their poles: the
+	// tail waits for them when it can. A section slower than the longest
+	// tail (a derivative notch far narrower than the loop rate resolves)
+	// is put at rest first with the derivative, as the feedback chain
+	// below: its linear decay is no limit cycle, and its rest is the
+	// proved bound (dfilterBounds) that restBound states.
+	dslow := 0.0
+	for _, q := range k.DSections {
+		dslow = math.Max(dslow, poleRadius(q))
 	}
-	n4 = max(n4, minRestSamples)
+	if nd := decay(dslow); nd < maxRest {
+		n4 = max(n4, nd)
+	} else {
+		fs.Ud, fs.Vp, fs.D = 0, 0, [airframe.MaxFilters][4]int64{}
+		st.Ud, st.Vp, st.D = 0, 0, [airframe.MaxFilters][2]float64{}
+	}
 	// The filter chain at rest first, in both models: its own rest is
 	// proved (its rounding stays below half an input LSB, so a chain at
 	// rest gives exactly 0; the filter_rounding check), and a narrow

@@ -2,6 +2,8 @@ package golden
 
 import (
 	"encoding/json"
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -77,6 +79,67 @@ func TestFixedDFilterHeaderAndJSON(t *testing.T) {
 			if !strings.Contains(string(js), want) {
 				t.Errorf("%s: JSON: %q missing", nt, want)
 			}
+		}
+	}
+}
+
+// TestFixedDFilterCLI: an axis whose derivative notch is too narrow for
+// q15 coefficients (its poles round onto the unit circle) exits 1 with
+// an overflow that names the derivative filter; in q31 the same notch is
+// proved and the design exits 0.
+func TestFixedDFilterCLI(t *testing.T) {
+	const src = `airframe = "dnotch"
+description = "demo data: an invented axis with a derivative notch narrower than q15 resolves"
+loop_hz = 1000.0
+compute_delay = 1
+
+[numeric]
+type = "q15"
+input_full_scale = 20.0
+output_full_scale = 0.5
+
+[axes.pitch.plant]
+effectiveness = 2400.0
+motor_tau = 0.03
+
+[axes.pitch.sensor]
+lowpass_hz = 100.0
+
+[axes.pitch.spec]
+settling_time = 0.15
+overshoot = 0.10
+
+[axes.pitch.control]
+form = "pid"
+antiwindup = "none"
+derivative_lowpass_hz = 125.0
+output_limit = [-0.5, 0.5]
+
+[[axes.pitch.filter]]
+kind = "notch"
+at = "derivative"
+hz = 100.0
+width_hz = 0.001
+`
+	bin := buildCLI(t, "")
+	for _, tc := range []struct {
+		nt   string
+		code int
+	}{{"q15", 1}, {"q31", 0}} {
+		dir := t.TempDir()
+		p := filepath.Join(dir, "dnotch.toml")
+		if err := os.WriteFile(p, []byte(strings.Replace(src, `type = "q15"`, `type = "`+tc.nt+`"`, 1)), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		out, code, err := runCLI(dir, "", bin, "design", p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if code != tc.code {
+			t.Errorf("%s: exit %d, want %d\n%s", tc.nt, code, tc.code, out)
+		}
+		if tc.code == 1 && !strings.Contains(out, "overflow: derivative filter 1 (notch 100 Hz, -3 dB width 0.001 Hz) is not stable with its q15 coefficients") {
+			t.Errorf("%s: the overflow is not named:\n%s", tc.nt, out)
 		}
 	}
 }
