@@ -189,7 +189,7 @@ func (c *checker) axis(name, key string, m map[string]any, lp loopInfo) Axis {
 			modes = p.LightModes(0.9 * lp.hz / 2)
 		}
 		fs := c.filters(t, lp, autoPlacer{modes: modes, ok: modesOK, env: p.Envelope, nyq: lp.hz / 2, noiseBound: p.Spec.MaxNoiseGain, specOK: specOK,
-			form: p.Ctrl.Form, numeric: lp.numeric.Type, numOK: lp.numOK})
+			form: p.Ctrl.Form})
 		for _, f := range fs {
 			if f.At == FilterAtDerivative {
 				p.Ctrl.DerivativeFilters = append(p.Ctrl.DerivativeFilters, f)
@@ -736,11 +736,8 @@ type autoPlacer struct {
 	lowpasses  int // lowpasses with hz = "auto" so far
 	// form is the control's form (the default when the file's is
 	// invalid, which is reported there), which must have a derivative for
-	// a filter at = "derivative"; numeric the numeric type (numOK: valid),
-	// which must be a float type for one.
-	form    Form
-	numeric NumericType
-	numOK   bool
+	// a filter at = "derivative".
+	form Form
 }
 
 // place returns the next mode, or false.
@@ -772,9 +769,6 @@ func (c *checker) filter(t *table, loopHz float64, auto *autoPlacer) (Filter, bo
 			good = false
 		case at == FilterAtDerivative && !auto.form.HasDerivative():
 			c.fail(t.sub("at"), at, `only for forms with a derivative ("pd", "pid"; form is %q): a derivative filter acts on the derivative term alone; "feedback" (the measured rate, before the controller) is allowed`, auto.form)
-			good = false
-		case at == FilterAtDerivative && auto.numOK && auto.numeric.IsFixed():
-			c.fail(t.sub("at"), at, `not available with numeric.type = %q: derivative filters are generated in float32 and float64 only (their fixed-point bounds are not proved); use at = "feedback", or a float type`, auto.numeric)
 			good = false
 		default:
 			f.At = at

@@ -211,13 +211,11 @@ func TestFilterMalformed(t *testing.T) {
 		{"order on a notch", withFilters("kind = \"notch\"\nhz = 100.0\nwidth_hz = 10.0\norder = 2"), `axes.roll.filter[0].order = 2: only for kind = "lowpass" (kind is "notch")`},
 		{"damping order 1", withFilters("kind = \"lowpass\"\nhz = 100.0\norder = 1\ndamping = 0.5"), `axes.roll.filter[0].damping = 0.5: only for kind = "lowpass" with order = 2`},
 		{"damping small", withFilters("kind = \"lowpass\"\nhz = 100.0\ndamping = 0.01"), `axes.roll.filter[0].damping = 0.01: must be in [0.1, 2] (ζ; 0.7071 is the Butterworth section)`},
-		// Derivative filters: only where there is a derivative, in float,
-		// with a frequency in Hz, and no first-order lowpass (which is
+		// Derivative filters: only where there is a derivative, with a
+		// frequency in Hz, and no first-order lowpass (which is
 		// control.derivative_lowpass_hz).
 		{"at derivative on a pi", withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0") + "\n[axes.roll.control]\nform = \"pi\"\n", `axes.roll.filter[0].at = "derivative": only for forms with a derivative ("pd", "pid"; form is "pi")`},
 		{"at derivative on a lead", withFilters("kind = \"notch\"\nat = \"derivative\"\nhz = 100.0\nwidth_hz = 20.0") + "\n[axes.roll.control]\nform = \"lead\"\nlead_zero = -10.0\n", `axes.roll.filter[0].at = "derivative": only for forms with a derivative ("pd", "pid"; form is "lead")`},
-		{"at derivative in q15", strings.Replace(withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0"), "loop_hz = 1000\n", "loop_hz = 1000\n[numeric]\ntype = \"q15\"\ninput_full_scale = 20.0\noutput_full_scale = 1.0\n", 1), `axes.roll.filter[0].at = "derivative": not available with numeric.type = "q15": derivative filters are generated in float32 and float64 only`},
-		{"at derivative in q31", strings.Replace(withFilters("kind = \"notch\"\nat = \"derivative\"\nhz = 100.0\nwidth_hz = 20.0"), "loop_hz = 1000\n", "loop_hz = 1000\n[numeric]\ntype = \"q31\"\ninput_full_scale = 20.0\noutput_full_scale = 1.0\n", 1), `axes.roll.filter[0].at = "derivative": not available with numeric.type = "q31"`},
 		{"derivative lowpass order 1", withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0\norder = 1"), `axes.roll.filter[0].order = 1: a first-order lowpass on the derivative is control.derivative_lowpass_hz, which the derivative always has: set that key, or use order = 2`},
 		{"derivative hz auto", withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = \"auto\""), `axes.roll.filter[0].hz = "auto": "auto" is for filters at = "feedback"`},
 		{"derivative notch hz auto", withFilters("kind = \"notch\"\nat = \"derivative\"\nhz = \"auto\""), `axes.roll.filter[0].hz = "auto": "auto" is for filters at = "feedback"`},
@@ -291,5 +289,18 @@ func TestDerivativeFilterParse(t *testing.T) {
 	}
 	if len(g.Axes[0].Ctrl.DerivativeFilters) != 1 || g.Axes[0].Filters != nil {
 		t.Errorf("pd: %+v, %+v", g.Axes[0].Ctrl.DerivativeFilters, g.Axes[0].Filters)
+	}
+	// Every numeric type takes them: q15 and q31 run them in direct form
+	// I with proved bounds (discrete.FixedSection).
+	for _, nt := range []string{"q15", "q31"} {
+		q := strings.Replace(withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = 100.0"), "loop_hz = 1000\n",
+			"loop_hz = 1000\n[numeric]\ntype = \""+nt+"\"\ninput_full_scale = 20.0\noutput_full_scale = 1.0\n", 1)
+		g, err := Parse("x.toml", []byte(q))
+		if err != nil {
+			t.Fatalf("%s: %v", nt, err)
+		}
+		if len(g.Axes[0].Ctrl.DerivativeFilters) != 1 || string(g.Numeric.Type) != nt {
+			t.Errorf("%s: %+v, numeric %q", nt, g.Axes[0].Ctrl.DerivativeFilters, g.Numeric.Type)
+		}
 	}
 }

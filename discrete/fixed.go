@@ -91,10 +91,19 @@ type QCoeff struct {
 //	    if Fresh: Vp = v; Fresh = false
 //	    Ud = mul(Ad, Ud) + mul(Bd, v − Vp)     // FD
 //	    Vp = v
-//	    uu = uu + rsh(Ud, FD − FU)
+//	    d = Ud
+//	    for each derivative section (DSections), in order:
+//	        w = mul(B0, d) + mul(B1, X1) + mul(B2, X2) − mul(A1, Y1) − mul(A2, Y2)
+//	        X2 = X1; X1 = d; Y2 = Y1; Y1 = w; d = w
+//	    uu = uu + rsh(d, FDF − FU)             // FDF: the last section's F, or FD
 //	u = (D)clamp(rsh(uu, FU), Lo, Hi)         // output LSB
 //	E = e; Uu = uu; Ua = u; Pending = true
 //	return u
+//
+// The derivative sections are the feedback chain's direct form I on the
+// D term: their formats (FIn, F) count fractional bits below the output
+// LSB, the first section's input is Ud (FIn = FD), and their states
+// start at 0, the D term's rest.
 //
 // Lead form (x is kept in S, in FU):
 //
@@ -132,6 +141,9 @@ type Fixed struct {
 	// Sections is the feedback filter chain, in the order it runs; nil
 	// without one.
 	Sections []FixedSection
+	// DSections are the derivative filters, run on Ud in this order; nil
+	// without them. Their FIn and F are below the output LSB.
+	DSections []FixedSection
 }
 
 // FixedState is the memory of the integer controller between samples.
@@ -145,6 +157,9 @@ type FixedState struct {
 	// F holds the states X1, X2, Y1, Y2 of each filter section (X2 and
 	// Y2 stay 0 in a first-order section).
 	F [airframe.MaxFilters][4]int64
+	// D holds the states X1, X2, Y1, Y2 of each derivative section; 0 at
+	// rest (the D term of a constant measurement).
+	D [airframe.MaxFilters][4]int64
 }
 
 // Reset makes the transfer bumpless, as Reset of the reference model: the
@@ -159,6 +174,7 @@ type FixedState struct {
 //	         S = clamp(satshl(q, FS − FU), −IL, IL)
 //	form D:  on the error: Fresh = true; on the measurement: Vp = −(A)measured
 //	each filter section: X1 = X2 = (A)measured * 2^FIn, Y1 = Y2 = (A)measured * 2^F
+//	each derivative section: 0 (the zeroed state: the rest of the D term)
 //
 // (q is in the sum's format FU, as the step's proportional terms; the
 // saturating shift SatShiftLeft is exact under the clamp that follows.)
@@ -262,10 +278,17 @@ func fixedChain[D, A Word](f *Fixed, s *FixedState, y A) A {
 	if len(f.Sections) == 0 {
 		return y
 	}
-	for k := range f.Sections {
-		q, st := &f.Sections[k], &s.F[k]
+	y = runSections[D](f.Sections, s.F[:], y)
+	return RoundShift(y, f.Sections[len(f.Sections)-1].F)
+}
+
+// runSections runs the direct form I sections qs, whose states are st, on
+// x and returns the last one's output in its format.
+func runSections[D, A Word](qs []FixedSection, st [][4]int64, x A) A {
+	for k := range qs {
+		q, st := &qs[k], &st[k]
 		x1, x2, y1, y2 := A(st[0]), A(st[1]), A(st[2]), A(st[3])
-		v := mulQ[D](&q.B0, y) + mulQ[D](&q.B1, x1)
+		v := mulQ[D](&q.B0, x) + mulQ[D](&q.B1, x1)
 		if q.Second {
 			v += mulQ[D](&q.B2, x2)
 		}
@@ -274,10 +297,19 @@ func fixedChain[D, A Word](f *Fixed, s *FixedState, y A) A {
 			v -= mulQ[D](&q.A2, y2)
 			st[1], st[3] = int64(x1), int64(y1)
 		}
-		st[0], st[2] = int64(y), int64(v)
-		y = v
+		st[0], st[2] = int64(x), int64(v)
+		x = v
 	}
-	return RoundShift(y, f.Sections[len(f.Sections)-1].F)
+	return x
+}
+
+// dChainF is the format of the D term where it joins the sum: the last
+// derivative section's F, or FD without them.
+func (f *Fixed) dChainF() int {
+	if n := len(f.DSections); n > 0 {
+		return f.DSections[n-1].F
+	}
+	return f.FD
 }
 
 // fixedStep is Step in the data word D and the accumulator word A.
@@ -324,7 +356,11 @@ func fixedStep[D, A Word](f *Fixed, s *FixedState, r, yd D) D {
 			}
 			Ud = mulQ[D](&f.Ad, Ud) + mulQ[D](&f.Bd, v-Vp)
 			Vp = v
-			uu += RoundShift(Ud, f.FD-f.FU)
+			d := Ud
+			if len(f.DSections) > 0 {
+				d = runSections[D](f.DSections, s.D[:], d)
+			}
+			uu += RoundShift(d, f.dChainF()-f.FU)
 		}
 	}
 	u := Clamp(RoundShift(uu, f.FU), lo, hi)

@@ -112,6 +112,7 @@ type oracle struct {
 	Pending, Fresh   bool
 	max              map[string]*big.Int
 	F                [][4]*big.Int // the filter sections' X1, X2, Y1, Y2 (fixedfilter_test.go)
+	D                [][4]*big.Int // the derivative sections' (dfixed_test.go)
 }
 
 func newOracle(t *testing.T, f *Fixed) *oracle {
@@ -190,6 +191,7 @@ func (o *oracle) reset(output, measured int32) {
 	f := o.f
 	o.S, o.Ud, o.Vp, o.E, o.Uu, o.Ua = bi(0), bi(0), bi(0), bi(0), bi(0), bi(0)
 	o.Pending, o.Fresh = false, false
+	o.D = nil
 	out, m := o.satD(output), o.satD(measured)
 	o.chainReset(m)
 	if f.Form == airframe.FormLead {
@@ -283,7 +285,8 @@ func (o *oracle) step(r32, y32 int32) int64 {
 			o.Ud = new(big.Int).Add(o.mul("Ad·Ud", f.Ad, o.Ud), o.mul("Bd·Δv", f.Bd, dv))
 			o.rec("derivative state Ud", o.Ud)
 			o.Vp = v
-			uu.Add(uu, rsh(o.Ud, f.FD-f.FU))
+			d := o.dchainStep(o.Ud)
+			uu.Add(uu, rsh(d, f.dChainF()-f.FU))
 			o.rec("sum before saturation uu", uu)
 		}
 	}

@@ -338,13 +338,19 @@ func stageGain(q lti.Biquad) float64 {
 // section k's terms ts up to term i: "filter 1 sum B0·x + B1·x1", and for
 // the last, the output, "filter 1 output y (states y1, y2)".
 func sectionPartialName(k int, ts []sectionTerm, i int) string {
+	return chainPartialName("filter", k, ts, i)
+}
+
+// chainPartialName is sectionPartialName for the chain named prefix
+// ("filter" for the feedback chain, "derivative filter" for the D path).
+func chainPartialName(prefix string, k int, ts []sectionTerm, i int) string {
 	if i == len(ts)-1 {
 		if len(ts) == 3 {
-			return fmt.Sprintf("filter %d output y (state y1)", k+1)
+			return fmt.Sprintf("%s %d output y (state y1)", prefix, k+1)
 		}
-		return fmt.Sprintf("filter %d output y (states y1, y2)", k+1)
+		return fmt.Sprintf("%s %d output y (states y1, y2)", prefix, k+1)
 	}
-	s := fmt.Sprintf("filter %d sum ", k+1)
+	s := fmt.Sprintf("%s %d sum ", prefix, k+1)
 	for j := 0; j <= i; j++ {
 		t := ts[j]
 		switch {
@@ -359,23 +365,44 @@ func sectionPartialName(k int, ts []sectionTerm, i int) string {
 	return s
 }
 
-// filterBounds adds the rows of the filter chain to the range table at
-// the current formats and returns the bound of the chain's output at the
-// input LSB (what the controller gets as its measurement) and of its
-// rounding noise there before the final rounding, both in input LSB.
-// Without a chain it returns m and 0.
-func (p *fixedPlan) filterBounds(add func(entry)) (ymax, noise float64) {
-	f := &p.f
-	if len(f.Sections) == 0 {
-		return p.m, 0
-	}
-	w, m, capA := p.w, p.m, p.capA
+// chainRun describes a run of direct form I sections for sectionBounds:
+// the sections, the gains of the chain they are the end of (gains[off+k]
+// belongs to secs[k]; the first off entries are stages before them, such
+// as the derivative's own filter, whose rounding pre[j] enters at their
+// output in a format of preF[j] fractional bits), the bound in of the
+// chain's input (the unit of the gains' ℓ1 norms), and the bound x0 of
+// the first section's input operand in its own integer units, with the
+// format that governs it (nil: none).
+type chainRun struct {
+	prefix string
+	secs   []FixedSection
+	gains  []sectionGains
+	off    int
+	pre    []float64
+	preF   []int
+	in     float64
+	x0     float64
+	x0gov  *int
+	// ownGov makes each section's F govern its B products too: their
+	// shift N + FIn − F grows as F falls, which brings a split product
+	// (MulWide) of a wide operand within the accumulator. The D path
+	// needs it, its input Ud spanning the accumulator; the feedback
+	// chain's first input is a data word, whose products always fit.
+	ownGov bool
+}
+
+// sectionBounds adds the rows of every product, partial sum and output of
+// the sections of c to the range table at the current formats, and returns
+// the rounding injected at each section's output per step (its own units)
+// and the bound of each output (its own units).
+func (p *fixedPlan) sectionBounds(c chainRun, add func(entry)) (es, yb []float64) {
+	w, capA := p.w, p.capA
 	accFmt := func(fr int) string { return qFormat(2*w, w-1+fr) }
-	es := make([]float64, len(f.Sections)) // rounding injected at each output, its own units
-	yb := make([]float64, len(f.Sections)) // output bounds, own units
-	unbounded := false                     // a section before is not stable
-	for k := range f.Sections {
-		q := &f.Sections[k]
+	es = make([]float64, len(c.secs))
+	yb = make([]float64, len(c.secs))
+	unbounded := false // a section before is not stable
+	for k := range c.secs {
+		q := &c.secs[k]
 		unbounded = unbounded || !q.Stable()
 		ts := q.terms()
 		// The shifts (product sets them too) decide which products round.
@@ -390,7 +417,7 @@ func (p *fixedPlan) filterBounds(add func(entry)) (ymax, noise float64) {
 				es[k] += 0.5
 			}
 		}
-		g := p.gains[k]
+		g := c.gains[c.off+k]
 		bounds := make([]float64, len(ts)-1)
 		direct := 0.0
 		if rounded[0] {
@@ -400,24 +427,29 @@ func (p *fixedPlan) filterBounds(add func(entry)) (ymax, noise float64) {
 			if rounded[i+1] {
 				direct += 0.5
 			}
-			b := float64(g.lin[i]*m) * math.Ldexp(1, q.F)
-			for j := 0; j < k; j++ {
-				b += float64(float64(g.noise[i][j]*es[j]) * math.Ldexp(1, q.F-f.Sections[j].F))
+			b := float64(g.lin[i]*c.in) * math.Ldexp(1, q.F)
+			for j := 0; j < c.off; j++ {
+				b += float64(float64(g.noise[i][j]*c.pre[j]) * math.Ldexp(1, q.F-c.preF[j]))
 			}
-			b += float64(g.noise[i][k]*es[k]) + direct
+			for j := 0; j < k; j++ {
+				b += float64(float64(g.noise[i][c.off+j]*es[j]) * math.Ldexp(1, q.F-c.secs[j].F))
+			}
+			b += float64(g.noise[i][c.off+k]*es[k]) + direct
 			if unbounded {
 				b = math.Inf(1)
 			}
 			bounds[i] = b
 		}
 		yb[k] = bounds[len(bounds)-1]
-		xb := m
-		var xgov *int
+		xb, xgov := c.x0, c.x0gov
 		if k > 0 {
-			xb, xgov = yb[k-1], &f.Sections[k-1].F
+			xb, xgov = yb[k-1], &c.secs[k-1].F
+		}
+		if c.ownGov {
+			xgov = &q.F
 		}
 		for _, t := range ts {
-			name := fmt.Sprintf("filter %d %s·%s", k+1, t.name, t.operand())
+			name := fmt.Sprintf("%s %d %s·%s", c.prefix, k+1, t.name, t.operand())
 			var e entry
 			if t.input {
 				e, _ = p.product(name, t.k, xb, q.FIn, q.F, xgov)
@@ -427,9 +459,12 @@ func (p *fixedPlan) filterBounds(add func(entry)) (ymax, noise float64) {
 			add(e)
 		}
 		for i, b := range bounds {
-			r := entry{Range: Range{Name: sectionPartialName(k, ts, i+1), Format: accFmt(q.F), Bound: b, Capacity: capA}, gov: &q.F}
+			r := entry{Range: Range{Name: chainPartialName(c.prefix, k, ts, i+1), Format: accFmt(q.F), Bound: b, Capacity: capA}, gov: &q.F}
 			if i == len(bounds)-1 {
 				r.Note = "ℓ1 norm of the chain up to here times the input full scale, plus the roundings through their paths"
+				if c.off > 0 {
+					r.Note = "ℓ1 norm of the derivative and its filters up to here times max|v|, plus the roundings through their paths"
+				}
 				if !q.Stable() {
 					r.Note = "not stable with its quantized coefficients: no bound"
 				}
@@ -437,6 +472,20 @@ func (p *fixedPlan) filterBounds(add func(entry)) (ymax, noise float64) {
 			add(r)
 		}
 	}
+	return es, yb
+}
+
+// filterBounds adds the rows of the filter chain to the range table at
+// the current formats and returns the bound of the chain's output at the
+// input LSB (what the controller gets as its measurement) and of its
+// rounding noise there before the final rounding, both in input LSB.
+// Without a chain it returns m and 0.
+func (p *fixedPlan) filterBounds(add func(entry)) (ymax, noise float64) {
+	f := &p.f
+	if len(f.Sections) == 0 {
+		return p.m, 0
+	}
+	es, yb := p.sectionBounds(chainRun{prefix: "filter", secs: f.Sections, gains: p.gains, in: p.m, x0: p.m}, add)
 	last := len(f.Sections) - 1
 	for j := range f.Sections {
 		g := p.gains[last].noise[len(p.gains[last].noise)-1]
@@ -447,33 +496,88 @@ func (p *fixedPlan) filterBounds(add func(entry)) (ymax, noise float64) {
 		noise += float64(v * math.Ldexp(1, -f.Sections[j].F))
 	}
 	ymax = float64(yb[last]*math.Ldexp(1, -f.Sections[last].F)) + half(f.Sections[last].F)
-	r := entry{Range: Range{Name: "filter chain output y (the controller's measurement)", Format: accFmt(0), Bound: ymax, Capacity: capA}}
+	r := entry{Range: Range{Name: "filter chain output y (the controller's measurement)", Format: qFormat(2*p.w, p.w-1), Bound: ymax, Capacity: p.capA}}
 	r.Note = "the last section's output rounded to the input LSB"
 	add(r)
 	return ymax, noise
 }
 
+// derivativeStage is the derivative's own first-order filter as the
+// first stage of the D path's chain, from its quantized coefficients:
+// Ud/v = bd·(1 − z⁻¹)/(1 − ad·z⁻¹), with bd = Bd·2^−Frac in output LSB per
+// input LSB (the format FD does not enter: it scales Ud's integer units,
+// which the rows apply).
+func (p *fixedPlan) derivativeStage() lti.Biquad {
+	f := &p.f
+	bd := math.Ldexp(float64(f.Bd.Raw), -f.Bd.Frac)
+	ad := math.Ldexp(float64(f.Ad.Raw), -f.Ad.Frac)
+	return lti.Biquad{B0: bd, B1: -bd, A1: -ad}
+}
+
+// dfilterBounds adds the rows of the derivative sections to the range
+// table at the current formats and returns the bound of the last one's
+// output (its own units, F below the output LSB), the bound of the D
+// path's output at rest (zero input after any history, once the linear
+// response has decayed) and the bound of its rounding error (against the
+// same path in exact arithmetic with the quantized coefficients), both in
+// output LSB. vmax bounds the derivative's input v and ud the state Ud
+// (FD units).
+//
+// The path from v is the derivative's own stage followed by the
+// sections: the ℓ1 norm of that product bounds every node for any v
+// within ±vmax, the reset's history included (after Reset the first Δv is
+// v − Vp with Vp = −measured, a value v had: the node at step n is then
+// Σ c_k·v[k] over k ≥ −1, whose Σ|c_k| = Σ_(j≤n)|g[j] − g[j−1]| + |g[n]| is
+// at most the ℓ1 norm of g·(1 − z⁻¹), g the path from Δv, because
+// |g[n]| = |Σ_(j>n)(g[j] − g[j−1])|).
+func (p *fixedPlan) dfilterBounds(add func(entry), vmax, ud float64) (yb, rest, noise float64) {
+	f := &p.f
+	eud := half(f.Ad.Shift) + half(f.Bd.Shift) // Ud's two rounded products
+	es, ybs := p.sectionBounds(chainRun{prefix: "derivative filter", secs: f.DSections, gains: p.dgains, off: 1,
+		pre: []float64{eud}, preF: []int{f.FD}, in: vmax, x0: ud, ownGov: true}, add)
+	last := len(f.DSections) - 1
+	g := p.dgains[last+1].noise[len(p.dgains[last+1].noise)-1]
+	// At rest Bd·Δv = 0 is exact: Ud rounds only Ad·Ud.
+	rest = float64(float64(g[0]*half(f.Ad.Shift)) * math.Ldexp(1, -f.FD))
+	noise = float64(float64(g[0]*eud) * math.Ldexp(1, -f.FD))
+	for j := range f.DSections {
+		v := float64(g[j+1] * es[j])
+		if j == last {
+			v += es[j] // the output's own roundings of the current step
+		}
+		v = float64(v * math.Ldexp(1, -f.DSections[j].F))
+		rest += v
+		noise += v
+	}
+	return ybs[last], rest, noise
+}
+
 // sectionTable returns the coefficient rows of the filter sections,
-// F<k>_B0 … F<k>_A2 as in the float table: designed, quantized (after the
-// DC correction of B1), in the section's format.
+// F<k>_B0 … F<k>_A2 as in the float table, then those of the derivative
+// sections, D<k>_B0 …: designed, quantized (after the DC correction of
+// B1), in the section's format.
 func (p *fixedPlan) sectionTable() []Coefficient {
 	var rows []Coefficient
-	for k := range p.f.Sections {
-		q := &p.f.Sections[k]
-		d := p.d.Plant.Sections[k]
-		for _, c := range []struct {
-			name string
-			v    float64
-			k    *QCoeff
-		}{{"B0", d.B0, &q.B0}, {"B1", d.B1, &q.B1}, {"B2", d.B2, &q.B2}, {"A1", d.A1, &q.A1}, {"A2", d.A2, &q.A2}} {
-			if !q.Second && (c.name == "B2" || c.name == "A2") {
-				continue // a first-order section has no B2, A2
+	add := func(tag string, qs []FixedSection, ds []lti.Biquad) {
+		for k := range qs {
+			q := &qs[k]
+			d := ds[k]
+			for _, c := range []struct {
+				name string
+				v    float64
+				k    *QCoeff
+			}{{"B0", d.B0, &q.B0}, {"B1", d.B1, &q.B1}, {"B2", d.B2, &q.B2}, {"A1", d.A1, &q.A1}, {"A2", d.A2, &q.A2}} {
+				if !q.Second && (c.name == "B2" || c.name == "A2") {
+					continue // a first-order section has no B2, A2
+				}
+				qv := math.Ldexp(float64(c.k.Raw), -q.N)
+				rows = append(rows, Coefficient{Name: fmt.Sprintf("%s%d_%s", tag, k+1, c.name), Value: c.v, Quantized: qv, RelError: relErr(qv, c.v),
+					Format: qFormat(p.w, q.N), Scaled: c.v, Raw: c.k.Raw, FracBits: q.N, Bits: p.w})
 			}
-			qv := math.Ldexp(float64(c.k.Raw), -q.N)
-			rows = append(rows, Coefficient{Name: fmt.Sprintf("F%d_%s", k+1, c.name), Value: c.v, Quantized: qv, RelError: relErr(qv, c.v),
-				Format: qFormat(p.w, q.N), Scaled: c.v, Raw: c.k.Raw, FracBits: q.N, Bits: p.w})
 		}
 	}
+	add("F", p.f.Sections, p.d.Plant.Sections)
+	add("D", p.f.DSections, p.d.Coeffs.DSections)
 	return rows
 }
 
@@ -498,10 +602,53 @@ func (p *fixedPlan) filterOverflowMsg(r Range) string {
 		name, fmtNum(r.Bound), bitsName(r.Capacity), fmtNum(r.Capacity), r.Format, p.filterWayOut())
 }
 
+// dfilterOverflowMsg is filterOverflowMsg for the derivative sections.
+func (p *fixedPlan) dfilterOverflowMsg(r Range) string {
+	var k int
+	what := ""
+	fs := p.d.Problem.Ctrl.DerivativeFilters
+	name := r.Name
+	if _, err := fmt.Sscanf(r.Name, "derivative filter %d", &k); err == nil && k >= 1 && k <= len(fs) {
+		what = " (" + fs[k-1].Describe() + ")"
+		if k <= len(p.f.DSections) && !p.f.DSections[k-1].Stable() {
+			return fmt.Sprintf("overflow: derivative filter %d%s is not stable with its %s coefficients (poles on or outside the unit circle), so %s has no bound; way out: %s",
+				k, what, p.d.Numeric.Type, r.Name, p.dfilterWayOut())
+		}
+		head := fmt.Sprintf("derivative filter %d", k)
+		name = head + what + name[len(head):]
+	}
+	return fmt.Sprintf("overflow: %s can reach %s but its %s word holds %s (%s); way out: %s",
+		name, fmtNum(r.Bound), bitsName(r.Capacity), fmtNum(r.Capacity), r.Format, p.dfilterWayOut())
+}
+
+func (p *fixedPlan) dfilterWayOut() string {
+	s := fmt.Sprintf("a wider notch or a higher cutoff (poles further from the unit circle), or a smaller numeric.input_full_scale or a larger numeric.output_full_scale (the derivative's gain acts in raw units times in_fs/out_fs = %s)", fmtNum(p.fin/p.fout))
+	if p.w < 32 {
+		s = "numeric.type = \"q31\" (32-bit data, 64-bit accumulators), or " + s
+	}
+	return s
+}
+
 func (p *fixedPlan) filterWayOut() string {
 	s := "a wider notch or a higher cutoff (poles further from the unit circle)"
 	if p.w < 32 {
 		s = "numeric.type = \"q31\" (32-bit data, 64-bit accumulators), or " + s
 	}
 	return s
+}
+
+// poleRadius returns the largest pole radius of section q: √A2 for a
+// complex pair, the larger root's magnitude for real poles, |A1| for a
+// first-order section. The accuracy run's zero-input tail lasts until
+// the slowest pole of the controller has decayed.
+func poleRadius(q lti.Biquad) float64 {
+	if q.A2 == 0 {
+		return math.Abs(q.A1)
+	}
+	d := float64(q.A1*q.A1) - float64(4*q.A2)
+	if d < 0 {
+		return math.Sqrt(q.A2)
+	}
+	r := math.Sqrt(d)
+	return math.Max(math.Abs(-q.A1+r), math.Abs(-q.A1-r)) / 2
 }

@@ -95,19 +95,30 @@ func (o *oracle) chainStep(y *big.Int) *big.Int {
 	if len(f.Sections) == 0 {
 		return y
 	}
-	if o.F == nil {
-		for range f.Sections {
-			o.F = append(o.F, [4]*big.Int{bi(0), bi(0), bi(0), bi(0)})
+	y = o.sectionsStep("filter", f.Sections, &o.F, y)
+	out := rsh(y, f.Sections[len(f.Sections)-1].F)
+	o.rec("filter chain output y (the controller's measurement)", out)
+	return out
+}
+
+// sectionsStep runs the direct form I sections secs, with states *sts
+// (zero when nil), on x in exact arithmetic and returns the last output
+// in its format, recording every product and partial sum under the
+// range table's names of the chain prefix.
+func (o *oracle) sectionsStep(prefix string, secs []FixedSection, sts *[][4]*big.Int, y *big.Int) *big.Int {
+	if *sts == nil {
+		for range secs {
+			*sts = append(*sts, [4]*big.Int{bi(0), bi(0), bi(0), bi(0)})
 		}
 	}
-	for k := range f.Sections {
-		q := &f.Sections[k]
-		st := &o.F[k]
+	for k := range secs {
+		q := &secs[k]
+		st := &(*sts)[k]
 		ts := q.terms()
 		var sum *big.Int
 		for i, t := range ts {
 			x := map[string]*big.Int{"x": y, "x1": st[0], "x2": st[1], "y1": st[2], "y2": st[3]}[t.operand()]
-			p := o.mul(fmt.Sprintf("filter %d %s·%s", k+1, t.name, t.operand()), *t.k, x)
+			p := o.mul(fmt.Sprintf("%s %d %s·%s", prefix, k+1, t.name, t.operand()), *t.k, x)
 			switch {
 			case i == 0:
 				sum = p
@@ -117,7 +128,7 @@ func (o *oracle) chainStep(y *big.Int) *big.Int {
 				sum = new(big.Int).Sub(sum, p)
 			}
 			if i > 0 {
-				o.rec(sectionPartialName(k, ts, i), sum)
+				o.rec(chainPartialName(prefix, k, ts, i), sum)
 			}
 		}
 		if q.Second {
@@ -126,9 +137,16 @@ func (o *oracle) chainStep(y *big.Int) *big.Int {
 		st[0], st[2] = y, sum
 		y = sum
 	}
-	out := rsh(y, f.Sections[len(f.Sections)-1].F)
-	o.rec("filter chain output y (the controller's measurement)", out)
-	return out
+	return y
+}
+
+// dchainStep runs the derivative sections on Ud in exact arithmetic and
+// returns the D term in the format of the last (Ud without them).
+func (o *oracle) dchainStep(ud *big.Int) *big.Int {
+	if len(o.f.DSections) == 0 {
+		return ud
+	}
+	return o.sectionsStep("derivative filter", o.f.DSections, &o.D, ud)
 }
 
 // TestFixedFilterBitExactAndWithinBounds drives the integer controllers

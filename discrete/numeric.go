@@ -103,6 +103,13 @@ type Realization struct {
 	// before the output is rounded to the input LSB for the controller;
 	// 0 without a chain.
 	FilterNoiseLSB float64
+	// DFilterNoiseLSB is, for fixed-point derivative filters, the proved
+	// bound of the rounding error of the D path (the derivative's own
+	// filter and the sections) at the last section's output, against the
+	// same path in exact arithmetic with the quantized coefficients, in
+	// output LSB; 0 without them. The limit_cycle bound takes the part of
+	// it that remains at rest.
+	DFilterNoiseLSB float64
 	// Checks are "overflow" (fixed point), "filter_rounding" (fixed point
 	// with a filter chain), the spec checks with quantized coefficients
 	// ("quantized_<metric>", float32 and fixed point) and "limit_cycle"
@@ -353,6 +360,12 @@ type fixedPlan struct {
 	// LSB at the chosen formats (filterBounds).
 	gains []sectionGains
 	noise float64
+	// dgains are the ℓ1 gains of the D path: the derivative's own stage
+	// (derivativeStage) then the derivative sections; drest the bound of
+	// the D path's output at rest and dnoise of its rounding, in output
+	// LSB (dfilterBounds).
+	dgains        []sectionGains
+	drest, dnoise float64
 }
 
 // scale returns the factor from a coefficient of kind k to raw units.
@@ -391,11 +404,6 @@ func quantCoeff(x float64, w, nmax int) (raw int64, n int) {
 // realizeFixed realizes d with w-bit data and 2w-bit accumulators; the
 // tests turn the resolution rule off to study the 8-bit analogue.
 func realizeFixed(d *Design, w int, checkResolution bool) (*Realization, error) {
-	if len(d.Coeffs.DSections) > 0 {
-		// The decoder refuses them; a Design built by hand is told so.
-		return nil, &InputError{Key: "numeric.type", Value: strconv.Quote(string(d.Numeric.Type)),
-			Msg: `derivative filters (at = "derivative") are realized in float32 and float64 only`}
-	}
 	num := d.Numeric
 	for _, fs := range []struct {
 		key string
@@ -426,6 +434,13 @@ func realizeFixed(d *Design, w int, checkResolution bool) (*Realization, error) 
 		pl := d.Plant.WithSections(qs)
 		re.quantizedPlant = &pl
 	}
+	if len(p.f.DSections) > 0 {
+		qs := []lti.Biquad{p.derivativeStage()}
+		for i := range p.f.DSections {
+			qs = append(qs, p.f.DSections[i].Biquad())
+		}
+		p.dgains = chainGains(qs)
+	}
 	re.Ranges = p.chooseFormats()
 	re.Fixed = &p.f
 	re.QuantizedCoeffs = p.quantizedCoeffs()
@@ -438,6 +453,7 @@ func realizeFixed(d *Design, w int, checkResolution bool) (*Realization, error) 
 		}
 	}
 	re.FilterNoiseLSB = p.noise
+	re.DFilterNoiseLSB = p.dnoise
 	re.Checks = append(re.Checks, synth.Check{Name: "overflow", Limit: 0, Value: minHead, OK: len(p.overflow) == 0})
 	re.Warnings = append(re.Warnings, p.overflow...)
 	if len(p.f.Sections) > 0 && len(p.overflow) == 0 {
@@ -514,6 +530,11 @@ func (p *fixedPlan) quantize() {
 	p.f = Fixed{Type: p.d.Numeric.Type, W: p.w, Form: k.Form, AntiWindup: k.AntiWindup, DerivativeOnError: k.DerivativeOnError}
 	for _, q := range p.d.Plant.Sections {
 		p.f.Sections = append(p.f.Sections, quantizeSection(q, p.w))
+	}
+	if k.Form.HasDerivative() {
+		for _, q := range k.DSections {
+			p.f.DSections = append(p.f.DSections, quantizeSection(q, p.w))
+		}
 	}
 	p.specs = coefSpecs(&k)
 	p.scaled = make([]float64, len(p.specs))
@@ -603,8 +624,11 @@ func (p *fixedPlan) chooseFormats() []Range {
 	for k := range f.Sections {
 		f.Sections[k].F = w
 	}
+	for k := range f.DSections {
+		f.DSections[k].F = w
+	}
 	var es []entry
-	for iter := 0; iter < (4+len(f.Sections))*w; iter++ {
+	for iter := 0; iter < (4+len(f.Sections)+len(f.DSections))*w; iter++ {
 		// Each section's output keeps at most N + FIn fractional bits, so
 		// that its products shift right (see FixedSection).
 		fin := 0
@@ -618,7 +642,17 @@ func (p *fixedPlan) chooseFormats() []Range {
 			f.FU = min(f.FU, f.FS)
 		}
 		if f.Form.HasDerivative() {
-			f.FU = min(f.FU, f.FD)
+			// The derivative sections likewise, from Ud's format FD on
+			// (below the output LSB); the sum takes the last one's
+			// output with a right shift.
+			fin := f.FD
+			for k := range f.DSections {
+				q := &f.DSections[k]
+				q.FIn = fin
+				q.F = min(q.F, q.N+fin)
+				fin = q.F
+			}
+			f.FU = min(f.FU, f.FD, f.dChainF())
 		}
 		es = p.bounds()
 		worst, by := -1, 0.0
@@ -626,7 +660,7 @@ func (p *fixedPlan) chooseFormats() []Range {
 			// A filter section without a bound (not stable with its
 			// quantized coefficients) takes everything after it: no
 			// format mends that, and the others still get theirs.
-			if len(f.Sections) > 0 && math.IsInf(e.Bound, 1) {
+			if len(f.Sections)+len(f.DSections) > 0 && math.IsInf(e.Bound, 1) {
 				continue
 			}
 			if e.gov != nil && !e.Saturated && !fits(e.Bound, e.Capacity) {
@@ -667,6 +701,9 @@ func (p *fixedPlan) chooseFormats() []Range {
 func (p *fixedPlan) overflowMsg(r Range) string {
 	if strings.HasPrefix(r.Name, "filter ") {
 		return p.filterOverflowMsg(r)
+	}
+	if strings.HasPrefix(r.Name, "derivative filter ") {
+		return p.dfilterOverflowMsg(r)
 	}
 	var outs []string
 	if strings.HasPrefix(r.Name, "integrator") {
@@ -800,7 +837,14 @@ func (p *fixedPlan) bounds() []entry {
 			r := row("derivative state Ud", accFmt(f.FD), ud, capA, &f.FD)
 			r.Note = "ℓ1 norm of Bd(1 − z⁻¹)/(1 − Ad·z⁻¹) times max|v|, plus rounding"
 			add(r)
-			uu += float64(ud*math.Ldexp(1, f.FU-f.FD)) + half(f.FD-f.FU)
+			p.drest = 0
+			if len(f.DSections) > 0 {
+				// The D term that joins the sum is the last derivative
+				// section's output.
+				ud, p.drest, p.dnoise = p.dfilterBounds(add, vmax, ud)
+			}
+			fd := f.dChainF()
+			uu += float64(ud*math.Ldexp(1, f.FU-fd)) + half(fd-f.FU)
 		}
 		if f.Form.HasIntegral() {
 			// The integrator rows need the sum's bound (for du).
@@ -875,6 +919,12 @@ func (p *fixedPlan) quantizedCoeffs() Coeffs {
 	for _, cs := range p.specs {
 		*cs.val(&kq) = p.quantizedValue(cs)
 	}
+	if len(p.f.DSections) > 0 {
+		kq.DSections = make([]lti.Biquad, len(p.f.DSections)) // not the design's
+		for i := range p.f.DSections {
+			kq.DSections[i] = p.f.DSections[i].Biquad()
+		}
+	}
 	return kq
 }
 
@@ -931,6 +981,10 @@ func (p *fixedPlan) restBound() float64 {
 	switch {
 	case f.Form == airframe.FormLead:
 		a, fr = float64(f.A1.Raw)*math.Ldexp(1, -f.A1.Frac), f.FU
+	case f.Form.HasDerivative() && len(f.DSections) > 0:
+		// Ud's deadband and the sections' own roundings through their
+		// paths to the D term (dfilterBounds).
+		return math.Ceil(float64(2*p.drest)) + 1
 	case f.Form.HasDerivative():
 		a, fr = float64(f.Ad.Raw)*math.Ldexp(1, -f.Ad.Frac), f.FD
 	default:
@@ -1220,6 +1274,14 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 	}
 
 	// 4. Zero input.
+	const maxRest = 20000
+	decay := func(slow float64) int { // slow^n ≤ e^−20, counted by multiplication
+		n := 0
+		for v := 1.0; v > 2.061153622438558e-09 && n < maxRest; n++ {
+			v *= slow
+		}
+		return n
+	}
 	slow := 0.0
 	switch {
 	case k.Form == airframe.FormLead:
@@ -1227,11 +1289,23 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 	case k.Form.HasDerivative():
 		slow = math.Abs(k.Ad)
 	}
-	n4 := 0 // slow^n4 ≤ e^−20, counted by multiplication
-	for v := 1.0; v > 2.061153622438558e-09 && n4 < 20000; n4++ {
-		v *= slow
+	n4 := max(decay(slow), minRestSamples)
+	// The derivative sections decay at the radius of their poles: the
+	// tail waits for them when it can. A section slower than the longest
+	// tail (a derivative notch far narrower than the loop rate resolves)
+	// is put at rest first with the derivative, as the feedback chain
+	// below: its linear decay is no limit cycle, and its rest is the
+	// proved bound (dfilterBounds) that restBound states.
+	dslow := 0.0
+	for _, q := range k.DSections {
+		dslow = math.Max(dslow, poleRadius(q))
 	}
-	n4 = max(n4, minRestSamples)
+	if nd := decay(dslow); nd < maxRest {
+		n4 = max(n4, nd)
+	} else {
+		fs.Ud, fs.Vp, fs.D = 0, 0, [airframe.MaxFilters][4]int64{}
+		st.Ud, st.Vp, st.D = 0, 0, [airframe.MaxFilters][2]float64{}
+	}
 	// The filter chain at rest first, in both models: its own rest is
 	// proved (its rounding stays below half an input LSB, so a chain at
 	// rest gives exactly 0; the filter_rounding check), and a narrow

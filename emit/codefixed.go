@@ -46,6 +46,9 @@ type codeFixed struct {
 	// last section's F), rounded away before the controller; 0 without a
 	// chain.
 	ChainF int
+	// ShDF is the shift of the D term into the sum with derivative
+	// filters: the last derivative section's F − FU.
+	ShDF int
 }
 
 // codeQ is one coefficient's product: the helper that forms it, the
@@ -260,6 +263,33 @@ func fixedConsts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
 		}
 		ax.Filters = append(ax.Filters, cf)
 	}
+	if n := len(f.DSections); n > 0 && n != len(d.Coeffs.DSections) {
+		return fmt.Errorf("the realization has %d derivative sections, the design %d", n, len(d.Coeffs.DSections))
+	}
+	for i := range f.DSections {
+		q := &f.DSections[i]
+		if q.FIn < 0 || q.F < 0 || q.F > 2*w-2 || q.F < f.FU {
+			return fmt.Errorf("derivative filter %d: format shifts FIn %d, F %d (sum %d)", i+1, q.FIn, q.F, f.FU)
+		}
+		n := i + 1
+		cf := codeFilter{N: n, Second: q.Second, X1: fmt.Sprintf("d%dx1", n), X2: fmt.Sprintf("d%dx2", n), Y1: fmt.Sprintf("d%dy1", n), Y2: fmt.Sprintf("d%dy2", n),
+			Fx: &codeFilterFx{FIn: q.FIn, F: q.F}}
+		if fs := d.Problem.Ctrl.DerivativeFilters; i < len(fs) {
+			cf.Doc = commentText(fs[i].Describe())
+		}
+		c, g, what := fmt.Sprintf("D%d_", n), fmt.Sprintf("D%d", n), fmt.Sprintf("derivative filter %d", n)
+		add(&cf.B0, &cf.Fx.B0, c+"B0", c+"B0", g+"B0", q.B0, what+": weight of the input")
+		add(&cf.B1, &cf.Fx.B1, c+"B1", c+"B1", g+"B1", q.B1, what+": weight of the last input")
+		if q.Second {
+			add(&cf.B2, &cf.Fx.B2, c+"B2", c+"B2", g+"B2", q.B2, what+": weight of the input two steps back")
+		}
+		add(&cf.A1, &cf.Fx.A1, c+"A1", c+"A1", g+"A1", q.A1, what+": feedback of the last output")
+		if q.Second {
+			add(&cf.A2, &cf.Fx.A2, c+"A2", c+"A2", g+"A2", q.A2, what+": feedback of the output two steps back")
+		}
+		ax.DFilters = append(ax.DFilters, cf)
+		fx.ShDF = q.F - f.FU
+	}
 	if err != nil {
 		return err
 	}
@@ -299,6 +329,7 @@ func fixedSummary(u *codeUnit, d *discrete.Design) string {
 	s := fmt.Sprintf("Numeric: %s (data %s, accumulators %s, raw = value/full scale*2^%d); formats %s; states: integrator %d, derivative %d, sum %d fractional bits below the output LSB",
 		re.Type, u.T, u.Wide, re.W-1, strings.Join(cs, ", "), re.Fixed.FS, re.Fixed.FD, re.Fixed.FU)
 	s += filterSummary(re)
+	s += dfilterSummary(re)
 	if what != "" {
 		s += fmt.Sprintf("; minimum headroom %.3g bits (%s)", head, what)
 	}
@@ -341,6 +372,32 @@ func filterSummary(re *discrete.Realization) string {
 		s += " (NOT below half an LSB: the chain may leave a limit cycle at rest)"
 	}
 	return s
+}
+
+// dfilterSummary is the part of the numeric line about the derivative
+// filters: each section's coefficient format, its input and output
+// formats below the output LSB and the proved bound of its output, then
+// the proved bound of the D path's rounding ("" without them).
+func dfilterSummary(re *discrete.Realization) string {
+	f := re.Fixed
+	if len(f.DSections) == 0 {
+		return ""
+	}
+	var parts []string
+	for _, r := range re.Ranges {
+		var k int
+		if !strings.HasPrefix(r.Name, "derivative filter ") || !strings.Contains(r.Name, " output y") {
+			continue
+		}
+		if _, err := fmt.Sscanf(r.Name, "derivative filter %d", &k); err != nil || k < 1 || k > len(f.DSections) {
+			continue
+		}
+		q := f.DSections[k-1]
+		parts = append(parts, fmt.Sprintf("%d. coefficients %s, input %d and output %d fractional bits below the output LSB, |output| <= %s x the output full scale",
+			k, fmt.Sprintf("Q%d.%d", re.W-1-q.N, q.N), q.FIn, q.F, codeNum(math.Ldexp(r.Bound, -(q.F+re.W-1)))))
+	}
+	return fmt.Sprintf("; derivative filters in direct form I on the D term, each product rounded once into its section's output format, at rest 0: %s; the D term's rounding error <= %s output LSB (l1 bounds from the derivative's input)",
+		strings.Join(parts, "; "), codeMetric(re.DFilterNoiseLSB))
 }
 
 // fixedModel adapts discrete.Fixed to the excitation driver.

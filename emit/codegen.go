@@ -319,14 +319,14 @@ type codeAxis struct {
 	Fx                                       *codeFixed // fixed-point details; nil for float
 	// Filters is the feedback filter chain, in the order it runs.
 	Filters []codeFilter
-	// DFilters are the derivative filters (float only), in the order
+	// DFilters are the derivative filters, in the order
 	// they run on the filtered derivative.
 	DFilters []codeFilter
 }
 
-// codeFilter is one section of the feedback filter chain: the names of
-// its constants and states, whether it has the second state, and its
-// description for the comment.
+// codeFilter is one section of the feedback filter chain or of the
+// derivative filters: the names of its constants and states, whether it
+// has the second state, and its description for the comment.
 type codeFilter struct {
 	N                  int // 1-based position in the chain
 	B0, B1, B2, A1, A2 string
@@ -341,8 +341,10 @@ type codeFilter struct {
 
 // codeFilterFx is the fixed-point arithmetic of one filter section (see
 // discrete.FixedSection): the product of each coefficient, the fractional
-// bits of its input and output below the input LSB, and the literals
-// 2^FIn and 2^F ("" for 0) with which _reset scales the measurement.
+// bits of its input and output below the input LSB (a derivative
+// section's: below the output LSB), and the literals 2^FIn and 2^F (""
+// for 0) with which _reset scales the measurement (feedback sections
+// only: the derivative sections start at 0).
 type codeFilterFx struct {
 	B0, B1, B2, A1, A2 codeQ
 	FIn, F             int

@@ -16,12 +16,14 @@ import (
 // formsAirframe is an airframe (demo data: an invented quadrotor-like
 // plant) with one axis per controller structure the generator handles:
 // every form, every anti-windup, the derivative on the measurement and on
-// the error, every discretization, and for the float types a PID behind
-// a feedback filter chain of every kind of section (a full and a partial
-// notch, a second- and a first-order lowpass), a PID with derivative
-// filters (a second-order lowpass and a partial notch on the derivative,
-// a first-order lowpass on the measured rate) and a PD with a full notch
-// on a derivative on the error. The examples cover only some of them.
+// the error, every discretization, for the float types a PID behind a
+// feedback filter chain of every kind of section (a full and a partial
+// notch, a second- and a first-order lowpass; the fixed-point chain has
+// its own airframe, compliant_fixed.toml), and in every type a PID with
+// derivative filters (a second-order lowpass and a partial notch on the
+// derivative, a first-order lowpass on the measured rate) and a PD with a
+// full notch on a derivative on the error. The examples cover only some
+// of them.
 func formsAirframe(numeric string) string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "airframe = \"forms\"\ndescription = \"demo data: one axis per controller structure\"\nloop_hz = 1000.0\ncompute_delay = 1\n\n[numeric]\ntype = %q\n", numeric)
@@ -42,10 +44,10 @@ func formsAirframe(numeric string) string {
 	}
 	float := numeric == "float32" || numeric == "float64"
 	if float {
-		axes = append(axes, struct{ name, control string }{"pid_filt", `form = "pid"` + "\nantiwindup = \"backcalc\""},
-			struct{ name, control string }{"pid_dfilt", `form = "pid"` + "\nantiwindup = \"clamp\""},
-			struct{ name, control string }{"pd_dfilt", `form = "pd"` + "\nderivative_on = \"error\""})
+		axes = append(axes, struct{ name, control string }{"pid_filt", `form = "pid"` + "\nantiwindup = \"backcalc\""})
 	}
+	axes = append(axes, struct{ name, control string }{"pid_dfilt", `form = "pid"` + "\nantiwindup = \"clamp\""},
+		struct{ name, control string }{"pd_dfilt", `form = "pd"` + "\nderivative_on = \"error\""})
 	for _, a := range axes {
 		fmt.Fprintf(&b, `
 [axes.%[1]s.plant]
@@ -86,7 +88,9 @@ depth_db = 20.0
 kind = "lowpass"
 hz = 400.0
 order = 1
-
+`)
+	}
+	b.WriteString(`
 [[axes.pid_dfilt.filter]]
 kind = "lowpass"
 at = "derivative"
@@ -110,7 +114,6 @@ at = "derivative"
 hz = 200.0
 width_hz = 50.0
 `)
-	}
 	return b.String()
 }
 
