@@ -173,6 +173,25 @@ func clamp[T Float](x, lo, hi T) T {
 	return lo
 }
 
+// floatSections runs x through the sections qs, each in transposed direct
+// form II (Oppenheim & Schafer; from memory): out = B0·w + s1, then
+// s1 = B1·w − A1·out + s2 and s2 = B2·w − A2·out, with their states in
+// st; it returns the last one's output.
+func floatSections[T Float](qs []Section[T], st *[airframe.MaxFilters][2]T, x T) T {
+	for i, q := range qs {
+		f := &st[i]
+		w := x
+		x = T(q.B0*w) + f[0]
+		if q.Second {
+			f[0] = T(q.B1*w) - T(q.A1*x) + f[1]
+			f[1] = T(q.B2*w) - T(q.A2*x)
+		} else {
+			f[0] = T(q.B1*w) - T(q.A1*x)
+		}
+	}
+	return x
+}
+
 // Step is the reference model: one sample of the controller, in the exact
 // operation order of the emitted code. Every product is converted to T
 // explicitly so that no compiler fuses it with the following add (Go spec:
@@ -192,21 +211,9 @@ func Step[T Float](p *Params[T], s *State[T], r, y T) T {
 		s.fault()
 		return s.Ua
 	}
-	// The feedback filter chain, each section in transposed direct form
-	// II (Oppenheim & Schafer; from memory): out = B0·w + s1, then
-	// s1 = B1·w − A1·out + s2 and s2 = B2·w − A2·out. The controller sees
-	// the chain's output as the measured rate.
-	for i, q := range p.Sections {
-		f := &s.F[i]
-		w := y
-		y = T(q.B0*w) + f[0]
-		if q.Second {
-			f[0] = T(q.B1*w) - T(q.A1*y) + f[1]
-			f[1] = T(q.B2*w) - T(q.A2*y)
-		} else {
-			f[0] = T(q.B1*w) - T(q.A1*y)
-		}
-	}
+	// The feedback filter chain: the controller sees its output as the
+	// measured rate.
+	y = floatSections(p.Sections, &s.F, y)
 	if p.Form == airframe.FormLead {
 		e := r - y
 		ul := T(p.B0*e) + s.S
@@ -230,22 +237,9 @@ func Step[T Float](p *Params[T], s *State[T], r, y T) T {
 		}
 		s.Ud = T(p.Ad*s.Ud) + T(p.Bd*(v-s.Vp))
 		s.Vp = v
-		// The derivative filters, each section in transposed direct
-		// form II as the feedback chain's: the command takes the last
-		// one's output in place of Ud.
-		d := s.Ud
-		for i, q := range p.DSections {
-			f := &s.D[i]
-			w := d
-			d = T(q.B0*w) + f[0]
-			if q.Second {
-				f[0] = T(q.B1*w) - T(q.A1*d) + f[1]
-				f[1] = T(q.B2*w) - T(q.A2*d)
-			} else {
-				f[0] = T(q.B1*w) - T(q.A1*d)
-			}
-		}
-		uu += d
+		// The derivative filters: the command takes the last one's
+		// output in place of Ud.
+		uu += floatSections(p.DSections, &s.D, s.Ud)
 	}
 	u := clamp(uu, p.Lo, p.Hi)
 	if p.Form.HasIntegral() {

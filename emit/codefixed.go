@@ -231,6 +231,21 @@ func fixedConsts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
 	if ax.HasI && (fx.SatInt || ax.AWBackcalc && fx.SatInc) {
 		u.UsesSatAdd = true
 	}
+	// section names filter n's coefficients (prefix F or D) and adds
+	// them to cf.
+	section := func(cf *codeFilter, prefix, what string, q *discrete.FixedSection) {
+		c, g := fmt.Sprintf("%s%d_", prefix, cf.N), fmt.Sprintf("%s%d", prefix, cf.N)
+		what = fmt.Sprintf("%s %d", what, cf.N)
+		add(&cf.B0, &cf.Fx.B0, c+"B0", c+"B0", g+"B0", q.B0, what+": weight of the input")
+		add(&cf.B1, &cf.Fx.B1, c+"B1", c+"B1", g+"B1", q.B1, what+": weight of the last input")
+		if q.Second {
+			add(&cf.B2, &cf.Fx.B2, c+"B2", c+"B2", g+"B2", q.B2, what+": weight of the input two steps back")
+		}
+		add(&cf.A1, &cf.Fx.A1, c+"A1", c+"A1", g+"A1", q.A1, what+": feedback of the last output")
+		if q.Second {
+			add(&cf.A2, &cf.Fx.A2, c+"A2", c+"A2", g+"A2", q.A2, what+": feedback of the output two steps back")
+		}
+	}
 	if len(f.Sections) != len(d.Plant.Sections) {
 		return fmt.Errorf("the realization has %d filter sections, the design %d", len(f.Sections), len(d.Plant.Sections))
 	}
@@ -251,16 +266,7 @@ func fixedConsts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
 		if q.F > 0 {
 			cf.Fx.Pow2Out = pow2Lit(u, q.F)
 		}
-		c, g, what := fmt.Sprintf("F%d_", n), fmt.Sprintf("F%d", n), fmt.Sprintf("filter %d", n)
-		add(&cf.B0, &cf.Fx.B0, c+"B0", c+"B0", g+"B0", q.B0, what+": weight of the input")
-		add(&cf.B1, &cf.Fx.B1, c+"B1", c+"B1", g+"B1", q.B1, what+": weight of the last input")
-		if q.Second {
-			add(&cf.B2, &cf.Fx.B2, c+"B2", c+"B2", g+"B2", q.B2, what+": weight of the input two steps back")
-		}
-		add(&cf.A1, &cf.Fx.A1, c+"A1", c+"A1", g+"A1", q.A1, what+": feedback of the last output")
-		if q.Second {
-			add(&cf.A2, &cf.Fx.A2, c+"A2", c+"A2", g+"A2", q.A2, what+": feedback of the output two steps back")
-		}
+		section(&cf, "F", "filter", q)
 		ax.Filters = append(ax.Filters, cf)
 	}
 	if n := len(f.DSections); n > 0 && n != len(d.Coeffs.DSections) {
@@ -277,16 +283,7 @@ func fixedConsts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
 		if fs := d.Problem.Ctrl.DerivativeFilters; i < len(fs) {
 			cf.Doc = commentText(fs[i].Describe())
 		}
-		c, g, what := fmt.Sprintf("D%d_", n), fmt.Sprintf("D%d", n), fmt.Sprintf("derivative filter %d", n)
-		add(&cf.B0, &cf.Fx.B0, c+"B0", c+"B0", g+"B0", q.B0, what+": weight of the input")
-		add(&cf.B1, &cf.Fx.B1, c+"B1", c+"B1", g+"B1", q.B1, what+": weight of the last input")
-		if q.Second {
-			add(&cf.B2, &cf.Fx.B2, c+"B2", c+"B2", g+"B2", q.B2, what+": weight of the input two steps back")
-		}
-		add(&cf.A1, &cf.Fx.A1, c+"A1", c+"A1", g+"A1", q.A1, what+": feedback of the last output")
-		if q.Second {
-			add(&cf.A2, &cf.Fx.A2, c+"A2", c+"A2", g+"A2", q.A2, what+": feedback of the output two steps back")
-		}
+		section(&cf, "D", "derivative filter", q)
 		ax.DFilters = append(ax.DFilters, cf)
 		fx.ShDF = q.F - f.FU
 	}

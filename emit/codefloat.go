@@ -175,13 +175,11 @@ func floatConsts[T discrete.Float](u *codeUnit, ax *codeAxis, d *discrete.Design
 	}
 	add(&ax.Lo, "OUTPUT_LO", "OutputLo", p.Lo, "lowest command")
 	add(&ax.Hi, "OUTPUT_HI", "OutputHi", p.Hi, "highest command")
-	for i, q := range p.Sections {
-		f := codeFilter{N: i + 1, Second: q.Second, S1: fmt.Sprintf("f%ds1", i+1), S2: fmt.Sprintf("f%ds2", i+1)}
-		if i < len(d.Problem.Filters) {
-			f.Doc = commentText(d.Problem.Filters[i].Describe())
-		}
-		c, g := fmt.Sprintf("F%d_", i+1), fmt.Sprintf("F%d", i+1)
-		what := fmt.Sprintf("filter %d", i+1)
+	// section names filter n's coefficients (prefix F or D) and adds
+	// them to f.
+	section := func(f *codeFilter, prefix, what string, q discrete.Section[T]) {
+		c, g := fmt.Sprintf("%s%d_", prefix, f.N), fmt.Sprintf("%s%d", prefix, f.N)
+		what = fmt.Sprintf("%s %d", what, f.N)
 		add(&f.B0, c+"B0", g+"B0", q.B0, what+": weight of the input")
 		add(&f.B1, c+"B1", g+"B1", q.B1, what+": weight of the last input")
 		if q.Second {
@@ -191,6 +189,13 @@ func floatConsts[T discrete.Float](u *codeUnit, ax *codeAxis, d *discrete.Design
 		if q.Second {
 			add(&f.A2, c+"A2", g+"A2", q.A2, what+": feedback of the output two steps back")
 		}
+	}
+	for i, q := range p.Sections {
+		f := codeFilter{N: i + 1, Second: q.Second, S1: fmt.Sprintf("f%ds1", i+1), S2: fmt.Sprintf("f%ds2", i+1)}
+		if i < len(d.Problem.Filters) {
+			f.Doc = commentText(d.Problem.Filters[i].Describe())
+		}
+		section(&f, "F", "filter", q)
 		ax.Filters = append(ax.Filters, f)
 	}
 	for i, q := range p.DSections {
@@ -198,17 +203,7 @@ func floatConsts[T discrete.Float](u *codeUnit, ax *codeAxis, d *discrete.Design
 		if fs := d.Problem.Ctrl.DerivativeFilters; i < len(fs) {
 			f.Doc = commentText(fs[i].Describe())
 		}
-		c, g := fmt.Sprintf("D%d_", i+1), fmt.Sprintf("D%d", i+1)
-		what := fmt.Sprintf("derivative filter %d", i+1)
-		add(&f.B0, c+"B0", g+"B0", q.B0, what+": weight of the input")
-		add(&f.B1, c+"B1", g+"B1", q.B1, what+": weight of the last input")
-		if q.Second {
-			add(&f.B2, c+"B2", g+"B2", q.B2, what+": weight of the input two steps back")
-		}
-		add(&f.A1, c+"A1", g+"A1", q.A1, what+": feedback of the last output")
-		if q.Second {
-			add(&f.A2, c+"A2", g+"A2", q.A2, what+": feedback of the output two steps back")
-		}
+		section(&f, "D", "derivative filter", q)
 		ax.DFilters = append(ax.DFilters, f)
 	}
 	return err
