@@ -2,6 +2,7 @@ package discrete
 
 import (
 	"fmt"
+	"os"
 	"testing"
 
 	"locusmith/airframe"
@@ -76,5 +77,27 @@ func BenchmarkCandidateDelay(b *testing.B) {
 				l.Ctrl(c, out)
 			}
 		})
+	}
+}
+
+// BenchmarkSlowestAirframe designs testdata/slowest.toml, the slowest
+// valid airframe the project has built (see the file): the README's
+// limits table, against a target of 2 s.
+func BenchmarkSlowestAirframe(b *testing.B) {
+	data, err := os.ReadFile("testdata/slowest.toml")
+	if err != nil {
+		b.Fatal(err)
+	}
+	f, err := airframe.Parse("slowest.toml", data)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	for b.Loop() {
+		for _, p := range f.Axes {
+			if _, err := DesignAxis(p, f.Loop, f.Numeric); err != nil {
+				b.Fatal(err)
+			}
+		}
 	}
 }
