@@ -47,8 +47,10 @@ import (
 // and envelopes in gain, lag and delay (negative delay_add included), a
 // disturbance_recovery spec; with the examples and the golden compliant
 // airframe, feedback filter chains (notches, a second-order lowpass),
-// which the reference designs from their settings with signal.iirnotch
-// and signal.bilinear. The reference handles strictly proper
+// and, in octo_dfilt, filters on the derivative path (a second-order
+// lowpass and a notch on a PID's derivative, a notch on a PD's on the
+// error), which the reference designs from their settings with
+// signal.iirnotch and signal.bilinear. The reference handles strictly proper
 // plants (no feedthrough), which every rate plant of the kind is.
 var envOwnAirframes = []struct{ name, toml string }{
 	{"tail_pitch.toml", `
@@ -164,6 +166,72 @@ discretize = "backward"
 
 [axes.yaw.envelope]
 delay_add = [0.0, 0.002]
+`},
+	{"octo_dfilt.toml", `
+airframe = "octo_dfilt"
+description = "demo data: invented octocopter with filters on the derivative path; not a real vehicle"
+loop_hz = 2000.0
+compute_delay = 1
+
+[axes.roll.plant]
+effectiveness = 1800.0
+motor_tau = 0.025
+delay = 0.0015
+
+[axes.roll.sensor]
+lowpass_hz = 150.0
+
+[axes.roll.spec]
+settling_time = 0.15
+overshoot = 0.1
+min_phase_margin = 40.0
+min_gain_margin = 6.0
+
+[axes.roll.control]
+form = "pid"
+output_limit = [-0.5, 0.5]
+
+[axes.roll.envelope]
+gain_scale = [0.85, 1.15]
+lag_scale = [0.9, 1.2]
+
+[[axes.roll.filter]]
+kind = "lowpass"
+at = "derivative"
+hz = 70.0
+
+[[axes.roll.filter]]
+kind = "notch"
+at = "derivative"
+hz = 180.0
+width_hz = 60.0
+
+[axes.pitch.plant]
+effectiveness = 1500.0
+motor_tau = 0.04
+delay = 0.002
+
+[axes.pitch.spec]
+settling_time = 0.18
+overshoot = 0.1
+min_phase_margin = 40.0
+min_gain_margin = 6.0
+
+[axes.pitch.control]
+form = "pd"
+derivative_on = "error"
+
+[[axes.pitch.filter]]
+kind = "notch"
+at = "derivative"
+hz = 250.0
+width_hz = 80.0
+
+[[axes.pitch.filter]]
+kind = "lowpass"
+at = "feedback"
+hz = 300.0
+order = 2
 `},
 }
 
@@ -393,13 +461,17 @@ func envRequest(axes []envAxis) map[string]any {
 		// The chain's settings as the design took them (a notch's
 		// hz = "auto" resolved); the reference designs its sections
 		// from them itself.
-		var filters []map[string]any
-		for _, f := range a.d.Problem.Filters {
-			filters = append(filters, map[string]any{"kind": string(f.Kind), "hz": f.Hz, "width_hz": f.WidthHz,
-				"depth_db": f.DepthDB, "order": f.Order, "damping": f.Damping})
+		settings := func(fs []airframe.Filter) []map[string]any {
+			var out []map[string]any
+			for _, f := range fs {
+				out = append(out, map[string]any{"kind": string(f.Kind), "hz": f.Hz, "width_hz": f.WidthHz,
+					"depth_db": f.DepthDB, "order": f.Order, "damping": f.Damping})
+			}
+			return out
 		}
+		filters, dfilters := settings(a.d.Problem.Filters), settings(a.d.Problem.Ctrl.DerivativeFilters)
 		reqs = append(reqs, map[string]any{
-			"toml": a.toml, "axis": a.d.Problem.Name, "corners": corners, "n_step": ns, "n_dist": nd, "filters": filters, "tool_pc": pcs,
+			"toml": a.toml, "axis": a.d.Problem.Name, "corners": corners, "n_step": ns, "n_dist": nd, "filters": filters, "dfilters": dfilters, "tool_pc": pcs,
 			"coeffs": map[string]float64{"kp": k.Kp, "kpb": k.KpB, "g0": k.G0, "g01": k.G01,
 				"ad": k.Ad, "bd": k.Bd, "b0": k.B0, "b1": k.B1, "a1": k.A1},
 		})

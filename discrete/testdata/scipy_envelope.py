@@ -6,6 +6,7 @@
 # Input (stdin, JSON): {"grid": [nominal points, corner points], "axes": [
 #   {"toml": airframe file text, "axis": name,
 #    "coeffs": {kp, kpb, g0, g01, ad, bd, b0, b1, a1},
+#    "filters", "dfilters": the feedback and derivative filters' settings,
 #    "corners": [[gain_scale, lag_scale, delay_add], ...] (nominal first),
 #    "n_step": [...], "n_dist": [...]  (samples per corner)}]}
 # Output (stdout, JSON): versions and, per axis, the spec with the README's
@@ -172,13 +173,16 @@ def sampled(pt, st, corner, T, secs=()):
     return with_chain(Phi, Ga[:, 0], (Pa @ Gf)[:, 0], Cm, Cy, secs) + (m,)
 
 
-def controller(form, on_error, c):
+def controller(form, on_error, c, dsecs=()):
     """The controller of discrete.Coeffs as xc' = Ac xc + Br r + By y,
     u = Cc xc + Dr r + Dy y, from its difference equations:
       e = r - y;  v = e (on error) or -y;  ud = Ad ud + Bd (v - vp)
-      u = KpB r - Kp y + s + G0 e + ud;  s' = s + G01 e;  vp' = v
-      lead: ul = B0 e + x;  x' = B1 e - A1 ul.
-    The states are s, ud (its previous value), vp; or x. Index of s."""
+      u = KpB r - Kp y + s + G0 e + dd;  s' = s + G01 e;  vp' = v
+      lead: ul = B0 e + x;  x' = B1 e - A1 ul,
+    where dd is ud through the derivative filters dsecs (the README: each
+    (b, a) in turn, in signal.tf2ss's realization), ud itself without.
+    The states are s, ud (its previous value), vp and the filters'; or x.
+    Index of s."""
     if form == "lead":
         B0, B1, A1 = c["b0"], c["b1"], c["a1"]
         # x' = B1 e - A1 (B0 e + x)
@@ -186,7 +190,8 @@ def controller(form, on_error, c):
                 np.array([1.0]), B0, -B0, None)
     hasI, hasD = form in ("pi", "pid"), form in ("pd", "pid")
     names = (["s"] if hasI else []) + (["ud", "vp"] if hasD else [])
-    n = len(names)
+    dss = [signal.tf2ss(b, a) for b, a in dsecs] if hasD else []
+    n = len(names) + sum(A.shape[0] for A, _, _, _ in dss)
     Ac, Br, By, Cc = np.zeros((n, n)), np.zeros(n), np.zeros(n), np.zeros(n)
     Dr, Dy = c["kpb"], -c["kp"]
     if hasI:
@@ -204,15 +209,31 @@ def controller(form, on_error, c):
         Ac[i, i], Ac[i, j] = Ad, -Bd
         Br[i], By[i] = Bd * vr, Bd * vy
         Br[j], By[j] = vr, vy
-        Cc[i], Cc[j] = Ad, -Bd
-        Dr += Bd * vr
-        Dy += Bd * vy
+        # The signal into the next filter (ud_new first) as a row over
+        # the states and weights on r and y.
+        wx, wr, wy = np.zeros(n), Bd * vr, Bd * vy
+        wx[i], wx[j] = Ad, -Bd
+        k = len(names)
+        for Af, Bf, Cf, Df in dss:
+            nf = Af.shape[0]
+            Ac[k:k + nf, :] += np.outer(Bf[:, 0], wx)
+            Ac[k:k + nf, k:k + nf] += Af
+            Br[k:k + nf] += Bf[:, 0] * wr
+            By[k:k + nf] += Bf[:, 0] * wy
+            ox = Df[0, 0] * wx
+            ox[k:k + nf] += Cf[0]
+            wx, wr, wy = ox, Df[0, 0] * wr, Df[0, 0] * wy
+            k += nf
+        Cc += wx
+        Dr += wr
+        Dy += wy
     return Ac, Br, By, Cc, Dr, Dy, (names.index("s") if hasI else None)
 
 
-def ctrl_q(form, on_error, c):
+def ctrl_q(form, on_error, c, dsecs=()):
     """C_fb(q) = u/(-y) and the setpoint path F(q) over a common
-    denominator, as coefficient lists in ascending powers of q = z^-1."""
+    denominator, as coefficient lists in ascending powers of q = z^-1;
+    the derivative term times the derivative filters' b/a."""
     P = np.polynomial.polynomial
     if form == "lead":
         n = np.array([c["b0"], c["b1"]])
@@ -221,14 +242,17 @@ def ctrl_q(form, on_error, c):
     one = np.array([1.0])
     dI = np.array([1.0, -1.0]) if hasI else one
     dD = np.array([1.0, -c["ad"]]) if hasD else one
-    den = P.polymul(dI, dD)
+    fb, fa = one, one
+    for b, a in (dsecs if hasD else []):
+        fb, fa = P.polymul(fb, b), P.polymul(fa, a)
+    den = P.polymul(P.polymul(dI, dD), fa)
     num = c["kp"] * den
     setn = c["kpb"] * den
     if hasI:
-        t = P.polymul([c["g0"], c["g01"] - c["g0"]], dD)
+        t = P.polymul([c["g0"], c["g01"] - c["g0"]], P.polymul(dD, fa))
         num, setn = P.polyadd(num, t), P.polyadd(setn, t)
     if hasD:
-        t = P.polymul(c["bd"] * np.array([1.0, -1.0]), dI)
+        t = P.polymul(c["bd"] * np.array([1.0, -1.0]), P.polymul(dI, fb))
         num = P.polyadd(num, t)
         if on_error:
             setn = P.polyadd(setn, t)
@@ -402,8 +426,9 @@ def axis_ref(ax, npts):
            for l in env.get("lag_scale", [1.0, 1.0]) for dd in env.get("delay_add", [0.0, 0.0])]
     c = ax["coeffs"]
     secs = sections(ax.get("filters") or [], 1.0 / T)
-    ctl = controller(form, on_error, c)
-    nq, sq, dq = ctrl_q(form, on_error, c)
+    dsecs = sections(ax.get("dfilters") or [], 1.0 / T)
+    ctl = controller(form, on_error, c, dsecs)
+    nq, sq, dq = ctrl_q(form, on_error, c, dsecs)
     ny = math.pi / T
     lo = ny * 1e-6
     if form in ("pi", "pid") and c["kp"] > 0 and c["g01"] > 0:
