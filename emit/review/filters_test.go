@@ -220,4 +220,31 @@ depth_db = 10.0
 	if want := "D2. " + f.Axes[0].Ctrl.DerivativeFilters[1].Describe() + ", on the derivative: phase"; !strings.Contains(b.String(), want) {
 		t.Errorf("table lacks %q:\n%s", want, b.String())
 	}
+	// The review names them in the controller's description and lists
+	// their coefficients in the table of the difference equations, as
+	// the JSON gives them (held to SciPy above).
+	pg, _ := model(a)
+	ax := pg.Axes[0]
+	for _, df := range f.Axes[0].Ctrl.DerivativeFilters {
+		if !strings.Contains(ax.Controller, df.Describe()) {
+			t.Errorf("the controller's description lacks %q: %s", df.Describe(), ax.Controller)
+		}
+	}
+	rows := map[string]string{}
+	for _, row := range ax.Coeffs {
+		rows[row.Name] = row.Value
+	}
+	for i, x := range fs {
+		c := []string{"F1_", "D1_", "D2_"}[i]
+		for j, name := range []string{"B0", "B1", "B2"} {
+			if got, want := rows[c+name], g(x.B[j], 7); got != want {
+				t.Errorf("review row %s%s = %q, JSON %q", c, name, got, want)
+			}
+		}
+		for j, name := range []string{"A1", "A2"} {
+			if got, want := rows[c+name], g(x.A[j+1], 7); got != want {
+				t.Errorf("review row %s%s = %q, JSON %q", c, name, got, want)
+			}
+		}
+	}
 }

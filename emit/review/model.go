@@ -10,6 +10,7 @@ import (
 
 	"locusmith/airframe"
 	"locusmith/discrete"
+	"locusmith/internal/lti"
 	"locusmith/internal/version"
 	"locusmith/synth"
 )
@@ -284,7 +285,7 @@ func axisModel(airframe string, x discrete.Outcome) (AxisPage, []builtFigure) {
 	ar.Spec, ar.Targets = specRows(d)
 	ar.Working = workingOf(d)
 	ar.Gains = gainRows(c)
-	ar.Coeffs = coeffRows(d.Coeffs)
+	ar.Coeffs = coeffRows(d)
 	ar.Metrics, ar.Checks = metricRows(d)
 	ar.Phase, ar.PhaseTotal = phaseBudget(d)
 	ar.ChainPhase = chainPhase(d)
@@ -336,6 +337,13 @@ func formText(d *discrete.Design) string {
 		}
 		parts = append(parts, fmt.Sprintf("%s controller with the derivative filtered at %s Hz (Tf = %s s), %s",
 			strings.ToUpper(string(c.Form)), g(p.Ctrl.DerivativeLowpassHz, 4), g(c.Tf, 4), on))
+		if fs := p.Ctrl.DerivativeFilters; len(fs) > 0 {
+			ds := make([]string, len(fs))
+			for i, f := range fs {
+				ds[i] = f.Describe()
+			}
+			parts = append(parts, "the derivative term then through "+strings.Join(ds, ", then ")+" (on the derivative alone)")
+		}
 	case airframe.FormLead:
 		parts = append(parts, "lead compensator K(s − z)/(s − p) on the error")
 	}
@@ -637,9 +645,31 @@ func gainRows(c *synth.Design) []Row {
 	return rows
 }
 
-func coeffRows(k discrete.Coeffs) []Row {
+func coeffRows(d *discrete.Design) []Row {
+	k := d.Coeffs
 	var rows []Row
 	add := func(name string, v float64, note string) { rows = append(rows, Row{name, g(v, 7), note}) }
+	// section adds filter n's coefficients (names as in the generated
+	// code: F for the feedback chain, D for the derivative path).
+	section := func(prefix string, n int, q lti.Biquad, what string) {
+		c := fmt.Sprintf("%s%d_", prefix, n)
+		add(c+"B0", q.B0, what+": weight of the input")
+		add(c+"B1", q.B1, "weight of the last input")
+		if q.B2 != 0 || q.A2 != 0 {
+			add(c+"B2", q.B2, "weight of the input two steps back")
+		}
+		add(c+"A1", q.A1, "feedback of the last output")
+		if q.B2 != 0 || q.A2 != 0 {
+			add(c+"A2", q.A2, "feedback of the output two steps back")
+		}
+	}
+	for i, q := range d.Plant.Sections {
+		what := fmt.Sprintf("filter %d", i+1)
+		if i < len(d.Problem.Filters) {
+			what += " (" + d.Problem.Filters[i].Describe() + ")"
+		}
+		section("F", i+1, q, what)
+	}
 	if k.Form == airframe.FormLead {
 		add("B0", k.B0, "ul = B0·e + x")
 		add("B1", k.B1, "x ← B1·e − A1·ul")
@@ -658,6 +688,13 @@ func coeffRows(k discrete.Coeffs) []Row {
 		if k.Form.HasDerivative() {
 			add("Ad", k.Ad, "derivative filter pole")
 			add("Bd", k.Bd, "derivative filter gain")
+			for i, q := range k.DSections {
+				what := fmt.Sprintf("derivative filter %d", i+1)
+				if fs := d.Problem.Ctrl.DerivativeFilters; i < len(fs) {
+					what += " (" + fs[i].Describe() + ")"
+				}
+				section("D", i+1, q, what)
+			}
 		}
 	}
 	add("Lo", k.Lo, "output limit")
