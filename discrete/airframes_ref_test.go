@@ -422,5 +422,34 @@ lead_zero = -30.0
 gain_scale = [0.8, 1.25]
 delay_add = [-0.002, 0.004]
 `},
+		// A PI whose feasible set is a few per cent wide in Kp and Ki (a
+		// slow, delayed plant against a tight phase margin): the search
+		// for a small feasible set needs more than a thousand judgments
+		// to reach it (found among random airframes; a budget of 1500
+		// called it infeasible).
+		{"arm_narrow_pi", `
+airframe = "arm_narrow_pi"
+description = "demo data: invented slow, delayed actuator arm under a PI at 2 kHz; not a real vehicle"
+loop_hz = 2000.0
+compute_delay = 1
+
+[axes.roll.plant]
+effectiveness = 392.86
+motor_tau = 0.035624
+delay = 0.00854
+
+[axes.roll.sensor]
+lowpass_hz = 58.55
+
+[axes.roll.spec]
+settling_time = 0.28592
+overshoot = 0.09989
+min_phase_margin = 49.88
+min_gain_margin = 6.0
+
+[axes.roll.control]
+form = "pi"
+output_limit = [-0.5, 0.5]
+`},
 	}
 }

@@ -148,10 +148,12 @@ func TestAutoLowpassMatchesBruteForce(t *testing.T) {
 }
 
 // A noise bound no cutoff meets: the design at the top of the range,
-// failing, with a note.
+// failing, with a note. (At 0.08 and 0.05 the search finds designs at
+// some cutoffs since its budget for a small feasible set grew; 0.02 is
+// well below them.)
 func TestAutoLowpassNonePasses(t *testing.T) {
 	t.Parallel()
-	p, loop, num := autoAxis(t, true, "max_noise_gain = 0.08\n", "")
+	p, loop, num := autoAxis(t, true, "max_noise_gain = 0.02\n", "")
 	d, err := DesignAxis(p, loop, num)
 	if err != nil {
 		t.Fatal(err)

@@ -84,10 +84,17 @@ const NoiseRatio = 20
 const maxLined = 16
 
 // fineBudget bounds the judgments of the search for a small feasible set
-// (the descent and the denser grid), which runs when the coarse grid finds
-// no passing design: about a second on the slowest axes, and an infeasible
-// spec is then reported with the closest design found.
-const fineBudget = 1500
+// (the descents, a quarter each, and the denser grid), which runs when the
+// coarse grid finds no passing design; an infeasible spec is then
+// reported with the closest design found. A descent that walks the fine
+// line of x (64 gains) at each shape it tries needs more than a thousand
+// judgments to reach a feasible set a few per cent wide in Kp and Ki: of
+// 40 random PI and PID airframes of plausible rate plants, a budget of
+// 1500 called one infeasible that has a design (arm_narrow_pi among the
+// reference airframes of package discrete). An infeasible verdict costs
+// 0.1 s on the demo quadrotor's roll, and 13 s on the slowest airframe
+// the project has built (testdata/slowest.toml in package discrete).
+const fineBudget = 6000
 
 // unboundedMs is the sensitivity bound of the search when the spec gives
 // none: |1 + L| ≥ 1/20, a distance from −1 that only stops the line of x
