@@ -300,6 +300,37 @@ func TestUnmetSpecExit1(t *testing.T) {
 	}
 }
 
+// TestEmitJSONUnmet: emit --json prints the JSON report of a design that
+// fails its checks as design --json does, byte for byte and with the same
+// exit status 1, whether or not --allow-unmet writes its code; without it
+// nothing is written.
+func TestEmitJSONUnmet(t *testing.T) {
+	dir := t.TempDir()
+	p := writeFile(t, dir, "strict.toml", edit(t, "min_phase_margin = 40.0", "min_phase_margin = 85.0"))
+	dcode, want, _ := runCLI(t, "design", "--json", p)
+	if dcode != exitUnmet {
+		t.Fatalf("design --json: exit %d, want 1", dcode)
+	}
+	for _, allow := range []bool{false, true} {
+		out := filepath.Join(dir, fmt.Sprint("gen-", allow))
+		args := []string{"emit", "-o", out, "--json", p}
+		if allow {
+			args = append(args, "--allow-unmet")
+		}
+		code, got, errs := runCLI(t, args...)
+		if code != exitUnmet {
+			t.Errorf("emit --json (allow-unmet %v): exit %d, want 1\n%s", allow, code, errs)
+		}
+		if got != want {
+			t.Errorf("emit --json (allow-unmet %v) differs from design --json:\n%s", allow, firstDiff(want, got))
+		}
+		es, _ := os.ReadDir(out)
+		if written := len(es) > 0; written != allow {
+			t.Errorf("emit --json (allow-unmet %v): %d files written", allow, len(es))
+		}
+	}
+}
+
 func TestExamplesDesign(t *testing.T) {
 	for _, p := range examples(t) {
 		t.Run(filepath.Base(p), func(t *testing.T) {
