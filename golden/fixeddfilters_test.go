@@ -2,6 +2,7 @@ package golden
 
 import (
 	"encoding/json"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
@@ -78,6 +79,22 @@ func TestFixedDFilterHeaderAndJSON(t *testing.T) {
 		for _, want := range []string{`"at":"derivative"`, `"name":"D1_B0"`, `"name":"D2_A2"`, `"name":"derivative filter 2 output y (states y1, y2)"`, `"name":"derivative filter 1 sum B0·x + B1·x1"`} {
 			if !strings.Contains(string(js), want) {
 				t.Errorf("%s: JSON: %q missing", nt, want)
+			}
+		}
+		// The D term's proved rounding bound: the header's figure, in
+		// the JSON too (the bound itself is held to 256-bit math/big in
+		// discrete's TestFixedDFilterRounding).
+		for _, x := range review.JSON([]*discrete.Airframe{a}).Airframes[0].Axes {
+			if !strings.Contains(x.Axis, "dfilt") {
+				continue
+			}
+			v := x.Numeric.DerivativeFilterNoiseLSB
+			if v == nil || !(*v > 0) {
+				t.Errorf("%s %s: derivative_filter_noise_lsb %v, want the proved bound", nt, x.Axis, v)
+				continue
+			}
+			if want := fmt.Sprintf("the D term's rounding error <= %.3g", *v); !strings.Contains(h, want) {
+				t.Errorf("%s %s: JSON's derivative_filter_noise_lsb %g is not the header's (%q missing)", nt, x.Axis, *v, want)
 			}
 		}
 	}

@@ -282,6 +282,10 @@ type NumericReport struct {
 	// chain's rounding at its output, in input LSB; absent without a
 	// chain.
 	FilterNoiseLSB *float64 `json:"filter_noise_lsb,omitempty"`
+	// DerivativeFilterNoiseLSB is the proved bound of the fixed-point
+	// derivative filters' rounding in the D term, in output LSB; absent
+	// without them.
+	DerivativeFilterNoiseLSB *float64 `json:"derivative_filter_noise_lsb,omitempty"`
 }
 
 // CoefficientReport is one coefficient: designed, as held by the code,
@@ -697,6 +701,9 @@ func jsonNumeric(n *discrete.Realization) *NumericReport {
 		nr.RestBoundLSB = jsonNum(n.RestBoundLSB)
 		if n.Fixed != nil && len(n.Fixed.Sections) > 0 {
 			nr.FilterNoiseLSB = jsonNum(n.FilterNoiseLSB)
+		}
+		if n.Fixed != nil && len(n.Fixed.DSections) > 0 {
+			nr.DerivativeFilterNoiseLSB = jsonNum(n.DFilterNoiseLSB)
 		}
 	}
 	return nr
