@@ -26,7 +26,7 @@ func parseErr(t *testing.T, src string) string {
 // compute_delay + ⌈(plant.delay + delay_add high end)·loop_hz⌉ samples,
 // is at most MaxDelaySamples; exactly at it the file is valid, one
 // sample more is an error naming the key, the count and the longest
-// delay allowed (issue 14, item 7). The counts are worked by hand from
+// delay allowed. The counts are worked by hand from
 // the formula.
 func TestDelaySampleLimit(t *testing.T) {
 	with := func(hz float64, cd int, delay string, add string) string {
@@ -71,7 +71,7 @@ func TestDelaySampleLimit(t *testing.T) {
 
 // TestHorizonLimit: 8 · settling_time · loop_hz (and 8 ·
 // disturbance_recovery · loop_hz) samples are at most MaxHorizonSamples,
-// and the settling time spans at least 2 samples (issue 14, item 7).
+// and the settling time spans at least 2 samples.
 func TestHorizonLimit(t *testing.T) {
 	atLimit := float64(MaxHorizonSamples) / 8 / 1000 // s at 1 kHz
 	cases := []struct {
@@ -99,7 +99,7 @@ func TestHorizonLimit(t *testing.T) {
 // TestFloat32Limits: what a float32 constant holds (IEEE 754 binary32:
 // smallest normal 2^−126 = 1.1754944e−38, largest 3.4028235e+38, the
 // values of C's FLT_MIN and FLT_MAX) bounds the output and integrator
-// limits of a float32 controller, and only of one (issue 14, item 11).
+// limits of a float32 controller, and only of one.
 func TestFloat32Limits(t *testing.T) {
 	if lo, hi := float64(minNormalFloat32), float64(maxFloat32); lo != float64(float32(1.17549435e-38)) || hi != float64(float32(3.40282347e+38)) {
 		t.Fatalf("float32 range %g..%g, want FLT_MIN 1.17549435e-38 and FLT_MAX 3.40282347e+38 (C11 5.2.4.2.2)", float64(minNormalFloat32), float64(maxFloat32))
@@ -131,7 +131,7 @@ func TestFloat32Limits(t *testing.T) {
 }
 
 // TestGainScale: 1/|G·H| near the spec's bandwidth ω = 4/settling_time
-// must lie in [1e-12, 1e12] (issue 14, item 11). For the minimal plant,
+// must lie in [1e-12, 1e12]. For the minimal plant,
 // G(jω) = e/(jω(τjω + 1)) with e = 2000, τ = 0.025 and settling 0.15 s,
 // ω = 26.67 rad/s: |G| at ω/2 = 13.33 is 2000/(13.33·√(1 + 0.333²)) =
 // 142.3 (by hand), the largest of ω/2, ω and 2ω; so the scale is
@@ -168,7 +168,7 @@ func TestGainScale(t *testing.T) {
 // TestSensorDCGain: the loop regulates the measured rate, so a sensor
 // whose DC gain H(0) differs from 1 by more than max_steady_error leaves
 // the true rate at setpoint/H(0); such a sensor is an error naming
-// sensor.gain (issue 14, item 11). H(0) = gain·Π(−z)/Π(−p), worked by
+// sensor.gain. H(0) = gain·Π(−z)/Π(−p), worked by
 // hand: gain 500 with a pole at −500 is 1; with −400 it is 1.25.
 func TestSensorDCGain(t *testing.T) {
 	cases := []struct {
@@ -202,7 +202,7 @@ func TestSensorDCGain(t *testing.T) {
 // TestKeyCountBound: countKeys bounds the keys of a file from above (every
 // key and table header counted, strings and comments skipped), so that a
 // valid file is never refused, and a file of many keys is refused before
-// the TOML decoder's quadratic key check runs (issue 14, item 12).
+// the TOML decoder's quadratic key check runs.
 func TestKeyCountBound(t *testing.T) {
 	cases := []struct {
 		src  string

@@ -6,7 +6,7 @@ import (
 )
 
 // TestSamplingNorm: the plant and sensor must sample accurately at
-// loop_hz, ‖[A B]·T‖₁ ≤ maxSampledNorm (issue 14, item 11: values that
+// loop_hz, ‖[A B]·T‖₁ ≤ maxSampledNorm (values that
 // passed validation made the design fail with "lti: non-finite value"
 // naming no key). The bounds are worked by hand from the realization
 // (lti.ZPK.CascadeSS, lti.Series): for effectiveness e, motor_tau τ and a

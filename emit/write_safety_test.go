@@ -13,8 +13,8 @@ import (
 	"testing"
 )
 
-// The writer touches only regular files of its output directory (issue
-// 14, item 8): a symbolic link named like an output is neither read (its
+// The writer touches only regular files of its output directory: a
+// symbolic link named like an output is neither read (its
 // target would show in the --check diff), nor replaced, nor followed; a
 // named pipe is not opened (it would block), a directory not read. Each
 // is an error naming the path and what it is, and nothing is written.
@@ -133,7 +133,7 @@ func TestReadOutputBounded(t *testing.T) {
 	}
 }
 
-// Interrupted writes (issue 14, item 9): the temporary files a killed run
+// Interrupted writes: the temporary files a killed run
 // leaves (.NAME.tmp-DIGITS, and the probe files of earlier versions,
 // .locusmith-probe-DIGITS) make --check report the directory as not up
 // to date, and the next write removes those of the names it is given,
@@ -201,7 +201,7 @@ func (permFS) CreateTemp(dir, pattern string) (tempFile, error) {
 	return nil, &fs.PathError{Op: "open", Path: filepath.Join(dir, pattern), Err: fs.ErrPermission}
 }
 
-// A read-only output directory (issue 14, item 12) is fine when nothing
+// A read-only output directory is fine when nothing
 // needs writing, and an error naming it as not writable, with nothing
 // changed, when something does. The directory check does not ask for
 // write permission.

@@ -565,9 +565,8 @@ func TestStepCost(t *testing.T) {
 			continue
 		}
 		// The twins, with the constants of the axes they copy.
-		// The targets: at most 1.1 times the hand-written function (issue
-		// 14), and 1.3 times for the PID behind its filter chain (issue
-		// 15), in instructions and in cycles of the longest path.
+		// The targets: at most 1.1 times the hand-written function,
+		// and 1.3 times for the PID behind its filter chain, in instructions and in cycles of the longest path.
 		for _, tw := range []struct {
 			axis, src, fn string
 			limit         float64

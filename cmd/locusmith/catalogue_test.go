@@ -109,7 +109,7 @@ func badInputCatalogue(t *testing.T) []badInput {
 		{"zpk gain tiny", plantZPK("gain = 1e-300\npoles = [0.0, -33.0]"), "axes.roll.plant.gain", "hold gain scales in [1e-12, 1e+12]"},
 		{"zpk gain zero", plantZPK("gain = 0.0\npoles = [0.0, -33.0]"), "axes.roll.plant.gain", "must be ≠ 0"},
 
-		// Delay samples and horizons (issue 14, item 7).
+		// Delay samples and horizons.
 		{"delay samples", edit(t, "delay = 0.002", "delay = 0.3"), "axes.roll.plant.delay", "the sampled loop would carry 301 samples of delay (compute_delay 1 + (plant.delay 0.3 s) · loop_hz 1000), more than the 256 that bound the design's cost: at this loop rate and compute delay the delay may be at most 0.255 s"},
 		{"delay samples with the envelope", withTable("axes.roll.envelope", "delay_add = [0, 0.3]"), "axes.roll.plant.delay", "(compute_delay 1 + (plant.delay 0.002 s + envelope.delay_add high end 0.3 s) · loop_hz 1000), more than the 256"},
 		{"delay samples at 1 MHz", edit(t, "loop_hz = 1000.0", "loop_hz = 1e6"), "axes.roll.plant.delay", "the sampled loop would carry 2001 samples of delay"},
@@ -200,7 +200,7 @@ func badInputCatalogue(t *testing.T) []badInput {
 // TestBadInputCatalogue runs every kind of bad input of the catalogue
 // through design and emit: exit status 2, a message that names the file
 // and the key and says what is allowed, nothing on stdout, and nothing
-// written (issue 14, checks: at least 80 kinds).
+// written (at least 80 kinds).
 func TestBadInputCatalogue(t *testing.T) {
 	cases := badInputCatalogue(t)
 	keyed := 0

@@ -15,7 +15,7 @@ import (
 	"time"
 )
 
-// Inputs that are not regular files (issue 14, item 8): a named pipe
+// Inputs that are not regular files: a named pipe
 // would block the open until a writer came (the run hung), /dev/zero
 // never ends (the run ran out of memory), a directory is no input. Each
 // is exit 2 at once, naming the file and what it is, for every verb that
@@ -60,7 +60,7 @@ func TestInputNotRegular(t *testing.T) {
 	}
 }
 
-// The output directory (issue 14, item 8): a symbolic link named like a
+// The output directory: a symbolic link named like a
 // generated file is not followed — --check printed its target in the
 // diff (a link to the process's environment file printed its
 // variables) — nor replaced: exit 2 naming it, its target unread and
@@ -97,7 +97,7 @@ func TestEmitRefusesLinkInOutput(t *testing.T) {
 	}
 }
 
-// Interrupted writes (issue 14, item 9): the temporary files a killed
+// Interrupted writes: the temporary files a killed
 // run leaves make --check exit 1 and list them, and the next emit
 // removes them and says so.
 func TestEmitStaleTemporaries(t *testing.T) {
@@ -127,8 +127,8 @@ func TestEmitStaleTemporaries(t *testing.T) {
 	}
 }
 
-// A read-only output directory where everything is up to date is fine
-// (issue 14, item 12); one that needs a write is exit 2, "not writable".
+// A read-only output directory where everything is up to date is fine;
+// one that needs a write is exit 2, "not writable".
 // The permission bits do not stop root, so the test needs another user
 // (emit's TestReadOnlyOutputDir covers the writer itself as root).
 func TestEmitReadOnlyDir(t *testing.T) {
@@ -155,7 +155,7 @@ func TestEmitReadOnlyDir(t *testing.T) {
 }
 
 // SIGHUP, like SIGTERM and SIGINT, ends a run that holds temporary files
-// cleanly (issue 14, item 9): report writes each airframe's files to
+// cleanly: report writes each airframe's files to
 // temporary files as it goes and renames them at the end, so a signal
 // part way removes them, leaves the old report as it was, and exits 2; a
 // SIGKILL leaves them, and the next run removes them. The signal is sent

@@ -23,7 +23,7 @@ import (
 	"locusmith/internal/ident"
 )
 
-// Tests of issue 14, items 8, 9, 11 and 12, that the other test files do
+// Tests of the tool's bounds and robustness that the other test files do
 // not make: the identify verb on hostile logs and file names, file names
 // that would drive the terminal, read-only output directories, signals
 // to emit, the bounded read of an input, valid files the design could
@@ -211,8 +211,8 @@ func modTimes(t *testing.T, dir string) map[string]time.Time {
 	return m
 }
 
-// A read-only output directory where everything is up to date (issue 14,
-// item 12; it failed even then): emit, emit --check and report succeed
+// A read-only output directory where everything is up to date (it
+// once failed even then): emit, emit --check and report succeed
 // and change nothing; a run that must write is exit 2, "not writable",
 // with the directory as it was and no temporary file. As a whole
 // process, as another user when the test runs as root (whom the
@@ -280,7 +280,7 @@ func TestReadOnlyOutputDirProcess(t *testing.T) {
 }
 
 // SIGHUP, SIGTERM and SIGINT reaching emit while it holds temporary files
-// (issue 14, item 9: SIGHUP left them for ever) remove them and leave the
+// (SIGHUP once left them for ever) remove them and leave the
 // old files as they were, exit 2; a SIGKILL there leaves them, emit
 // --check lists them (exit 1), and the next emit removes them and says
 // so. emit is held in that window, every changed file written to its
@@ -381,8 +381,8 @@ func TestEmitSignalsRemoveTemporaries(t *testing.T) {
 
 // moreBadInputs are kinds of bad input beyond the catalogue of
 // catalogue_test.go: values that passed validation and then made the
-// design fail with "lti: non-finite value", naming no key (issue 14,
-// item 11). The bounds are worked by hand in airframe's
+// design fail with "lti: non-finite value", naming no key. The
+// bounds are worked by hand in airframe's
 // TestSamplingNorm.
 func moreBadInputs(t *testing.T) []badInput {
 	withGyro := func(eff string) string {
@@ -432,7 +432,7 @@ func TestBadInputNothingWritten(t *testing.T) {
 
 // TestValidFilesSample: every file that passes validation has a plant and
 // sensor that the design can sample at loop_hz, at every corner of the
-// envelope (issue 14, item 11: extreme but valid gains, time constants
+// envelope (extreme but valid gains, time constants
 // and loop rates made the design fail later with "lti: non-finite
 // value", a message naming no key, while the file was called valid).
 // Files are drawn from a fixed seed over the valid range of the keys
@@ -499,8 +499,8 @@ func TestIdentifyHelpLimits(t *testing.T) {
 	}
 }
 
-// An airframe file is read to at most MaxFileBytes+1 bytes (issue 14,
-// item 8: a 3 GB input took 3 GB before the size check). The file here
+// An airframe file is read to at most MaxFileBytes+1 bytes (a
+// 3 GB input once took 3 GB before the size check). The file here
 // is sparse, 256 MiB long; what the load allocates (runtime.MemStats,
 // not a time) must stay within a small multiple of the limit. The test
 // is not parallel, so no other test allocates meanwhile but the
@@ -533,7 +533,7 @@ func TestLoadReadsAtMostLimit(t *testing.T) {
 
 // A sensor whose DC gain is not 1 but within max_steady_error (beyond it
 // the file is refused, see the catalogue) gets a note saying what the
-// loop then regulates (issue 14, item 11). H(0) = 101/100 = 1.01 by hand;
+// loop then regulates. H(0) = 101/100 = 1.01 by hand;
 // the true rate settles at setpoint/1.01, 1 − 1/1.01 = 0.990 % below; a
 // lowpass sensor has H(0) = 1 and no note.
 func TestSensorGainNote(t *testing.T) {

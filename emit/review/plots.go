@@ -297,7 +297,7 @@ const locusGrid = 4096
 
 // locusPieces returns the root-locus branches as the pieces a reader
 // sees, in an order that depends on nothing but their points, so that the
-// SVG is the same on every CPU (issue 14, item 10).
+// SVG is the same on every CPU.
 //
 // Where two branches meet on the real axis (a break-in or breakaway
 // point), the roots move like √(k − k₀), and which branch continues

@@ -21,8 +21,8 @@ const MaxSamples = 1 << 20
 // MaxLineBytes is the longest line of a log, in bytes. A logged row is a
 // few dozen bytes per column; 64 KiB holds thousands of columns. Without
 // a bound the CSV reader holds a whole line, however long: a file of one
-// 150 MB line took 1.4 GB before its first field was refused (issue 14,
-// item 12: memory O(samples kept), not O(file)).
+// 150 MB line took 1.4 GB before its first field was refused
+// (memory O(samples kept), not O(file)).
 const MaxLineBytes = 1 << 16
 
 // Bounds of the median sample interval of a log, s: the loop rates of the

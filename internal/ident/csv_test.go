@@ -44,7 +44,7 @@ func TestReadCSV(t *testing.T) {
 }
 
 // TestReadCSVNaNSplits: a row with NaN in a selected column is skipped
-// and the log split there (issue 17, item 5), whichever column holds it;
+// and the log split there, whichever column holds it;
 // a NaN in an unselected column is nothing; the other rows are read as
 // they are (hand-made rows: the expected values are the rows themselves).
 func TestReadCSVNaNSplits(t *testing.T) {

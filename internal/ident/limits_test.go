@@ -7,7 +7,7 @@ import (
 	"testing"
 )
 
-// A line is at most MaxLineBytes long (issue 14, item 12: the CSV reader
+// A line is at most MaxLineBytes long (the CSV reader once
 // held a whole line, and a file of one 150 MB line took 1.4 GB): exactly
 // at the bound the log reads, one byte more is an input error naming
 // the line, and the reader stops there, having read no more than the
