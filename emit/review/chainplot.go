@@ -19,7 +19,7 @@ import (
 // magnitude in dB and its phase in degrees, NaN where the phase is not
 // defined (on a full notch's zero).
 type chainPoint struct {
-	w, db, deg float64
+	db, deg float64
 }
 
 // tinyGain is the magnitude below which a section is taken to sit on its
@@ -44,7 +44,7 @@ func discreteChain(qs []lti.Biquad, w, T float64) chainPoint {
 		}
 		ph += lti.Phase(h)
 	}
-	return newChainPoint(w, v, ph)
+	return newChainPoint(v, ph)
 }
 
 // offPanelDB stands for −∞ dB (a full notch's centre, evaluated exactly
@@ -53,12 +53,12 @@ func discreteChain(qs []lti.Biquad, w, T float64) chainPoint {
 const offPanelDB = -400
 
 // newChainPoint is the point of the response v with phase ph (rad).
-func newChainPoint(w float64, v complex128, ph float64) chainPoint {
+func newChainPoint(v complex128, ph float64) chainPoint {
 	db := float64(20 * lti.Log10(lti.Abs(v)))
 	if math.IsInf(db, -1) {
 		db = offPanelDB
 	}
-	return chainPoint{w: w, db: db, deg: float64(ph * (180 / math.Pi))}
+	return chainPoint{db: db, deg: float64(ph * (180 / math.Pi))}
 }
 
 // continuousChain is discreteChain for the continuous counterparts zs
@@ -74,7 +74,7 @@ func continuousChain(zs []lti.ZPK, w float64) chainPoint {
 		}
 		ph += lti.Phase(h)
 	}
-	return newChainPoint(w, v, ph)
+	return newChainPoint(v, ph)
 }
 
 // chainGrid is the frequency grid of the chain's plot: n points spaced

@@ -249,15 +249,20 @@ func unionKeys[V any](ms ...map[string]V) []string {
 	return keys
 }
 
-// chainOf returns the feedback filter chain of each axis of a, as the
-// design ran it (Design.Problem.Filters: an automatic cutoff chosen), or
-// as the file gives it when the axis did not design, with each filter's
-// phase at the crossover (nil without a design or a crossover).
+// chainOf returns the filters of each axis of a in the order of the JSON
+// report's filters list (the feedback chain, then the derivative
+// filters), as the design ran them (Design.Problem: an automatic cutoff
+// chosen), or as the file gives them when the axis did not design, with
+// each filter's phase at the crossover (nil without a design or a
+// crossover).
 func chainOf(a *discrete.Airframe) map[string][]chainFilter {
 	out := map[string][]chainFilter{}
+	all := func(p airframe.Axis) []airframe.Filter {
+		return append(append([]airframe.Filter(nil), p.Filters...), p.Ctrl.DerivativeFilters...)
+	}
 	for _, ax := range a.File.Axes {
 		var fs []chainFilter
-		for _, f := range ax.Filters {
+		for _, f := range all(ax) {
 			fs = append(fs, chainFilter{f: f})
 		}
 		out[ax.Name] = fs
@@ -268,7 +273,7 @@ func chainOf(a *discrete.Airframe) map[string][]chainFilter {
 		}
 		var fs []chainFilter
 		rs := jsonFilters(x.Design)
-		for i, f := range x.Design.Problem.Filters {
+		for i, f := range all(x.Design.Problem) {
 			cf := chainFilter{f: f}
 			if i < len(rs) {
 				cf.phase = rs[i].PhaseAtCrossoverDeg
@@ -284,6 +289,15 @@ func chainOf(a *discrete.Airframe) map[string][]chainFilter {
 type chainFilter struct {
 	f     airframe.Filter
 	phase *float64
+}
+
+// describe is the filter's description, marked when it acts on the
+// derivative alone.
+func (c chainFilter) describe() string {
+	if c.f.At == airframe.FilterAtDerivative {
+		return c.f.Describe() + ", on the derivative"
+	}
+	return c.f.Describe()
 }
 
 // filterFields returns the settings of a filter by the names of the JSON
@@ -345,11 +359,11 @@ func diffFilters(oldA, newA *discrete.Airframe) []FilterChange {
 		for i := 0; i < max(len(os), len(ns)); i++ {
 			ch := FilterChange{Axis: ax, Filter: i + 1}
 			if i < len(os) {
-				d := os[i].f.Describe()
+				d := os[i].describe()
 				ch.Old, ch.OldPhaseDeg = &d, os[i].phase
 			}
 			if i < len(ns) {
-				d := ns[i].f.Describe()
+				d := ns[i].describe()
 				ch.New, ch.NewPhaseDeg = &d, ns[i].phase
 			}
 			switch {
@@ -437,8 +451,9 @@ func flattenJSON(prefix string, v any, out map[string]any) {
 		}
 	case []any:
 		if prefix == "filters" {
-			// The filter chain, by place (filters[0].hz), as the
-			// file's keys and the filter changes number it.
+			// The filters by place (filters[0].hz): the feedback
+			// chain, then the derivative filters, as the filter
+			// changes number them.
 			for i, e := range x {
 				flattenJSON(fmt.Sprintf("%s[%d]", prefix, i), e, out)
 			}

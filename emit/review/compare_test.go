@@ -387,6 +387,8 @@ func TestCompareFilters(t *testing.T) {
 	withNotch := base + notch("150.0")
 	moved := base + notch("160.0") + lowpass
 	firstOrder := base + notch("160.0") + strings.Replace(lowpass, "hz = 300.0", "hz = 300.0\norder = 1", 1)
+	withDeriv := withNotch + "\n[[axes.roll.filter]]\nkind = \"lowpass\"\nat = \"derivative\"\nhz = 80.0\n"
+	const dlp = "lowpass 80 Hz, order 2, damping 0.7071, on the derivative"
 	phaseOf := func(text string, i int) *float64 {
 		return jsonFilters(sharedText(t, "f.toml", text).Axes[0].Design)[i].PhaseAtCrossoverDeg
 	}
@@ -418,6 +420,12 @@ func TestCompareFilters(t *testing.T) {
 		want: []FilterChange{{Axis: "roll", Filter: 1, Change: FilterRemoved, Old: str(n150), OldPhaseDeg: phaseOf(withNotch, 0)}},
 		text: []string{"  roll filter 1 removed: " + n150 + "; phase at the crossover "},
 	}, {
+		// A derivative filter is numbered after the feedback chain, as
+		// in the JSON's filters list.
+		name: "derivative lowpass added", old: withNotch, new: withDeriv,
+		want: []FilterChange{{Axis: "roll", Filter: 2, Change: FilterAdded, New: str(dlp), NewPhaseDeg: phaseOf(withDeriv, 1)}},
+		text: []string{"  roll filter 2 added: " + dlp + ";"},
+	}, {
 		name: "unchanged", old: moved, new: moved,
 		want: []FilterChange{},
 	}} {
@@ -445,6 +453,9 @@ func TestCompareFilters(t *testing.T) {
 	}
 	if ch := findResult(c, "roll", "filters[1].kind"); ch == nil || ch.Old != nil || ch.New != "lowpass" {
 		t.Errorf("filters[1].kind: %+v", ch)
+	}
+	if ch := findResult(compareTexts(t, withNotch, withDeriv), "roll", "filters[1].at"); ch == nil || ch.Old != nil || ch.New != "derivative" {
+		t.Errorf("filters[1].at with a derivative filter added: %+v", ch)
 	}
 	for _, k := range []string{"filters[0].b", "filters[0].phase_at_crossover_deg"} {
 		if findResult(c, "roll", k) == nil {
