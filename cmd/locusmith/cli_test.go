@@ -303,7 +303,8 @@ func TestUnmetSpecExit1(t *testing.T) {
 // TestEmitJSONUnmet: emit --json prints the JSON report of a design that
 // fails its checks as design --json does, byte for byte and with the same
 // exit status 1, whether or not --allow-unmet writes its code; without it
-// nothing is written.
+// nothing is written. A file that does not load stops the run with no
+// JSON at all.
 func TestEmitJSONUnmet(t *testing.T) {
 	dir := t.TempDir()
 	p := writeFile(t, dir, "strict.toml", edit(t, "min_phase_margin = 40.0", "min_phase_margin = 85.0"))
@@ -328,6 +329,14 @@ func TestEmitJSONUnmet(t *testing.T) {
 		if written := len(es) > 0; written != allow {
 			t.Errorf("emit --json (allow-unmet %v): %d files written", allow, len(es))
 		}
+	}
+	// A file that does not load refuses the run before any design: exit
+	// 2, no JSON, nothing written (design --json prints the others).
+	bad := writeFile(t, dir, "bad.toml", edit(t, "loop_hz = 1000.0", "loop_hz = -1.0"))
+	out := filepath.Join(dir, "gen-bad")
+	code, got, errs := runCLI(t, "emit", "-o", out, "--json", bad, p)
+	if code != exitUsage || got != "" || !strings.Contains(errs, "nothing written") {
+		t.Errorf("emit --json with a bad file: exit %d, stdout %q, stderr %q; want 2, none, nothing written", code, got, errs)
 	}
 }
 

@@ -42,7 +42,8 @@ locusmith's reference model by one bit.
 
 --json also prints the JSON report of the designs on standard output,
 byte for byte what design --json prints for the same files (one design
-for both; not with --check).
+for both; not with --check). A run refused before the designs (a file
+that does not load, status 2) prints none.
 
 --check writes nothing: it regenerates in memory and compares with DIR,
 listing stale, missing and unexpected files (a file whose first line says
