@@ -11,6 +11,7 @@ import (
 	"locusmith/discrete"
 	"locusmith/emit"
 	"locusmith/emit/review"
+	"locusmith/synth"
 )
 
 // TestFixedDFilterHeaderAndJSON: the forms airframe's axes with
@@ -84,6 +85,10 @@ func TestFixedDFilterHeaderAndJSON(t *testing.T) {
 		// The D term's proved rounding bound: the header's figure, in
 		// the JSON too (the bound itself is held to 256-bit math/big in
 		// discrete's TestFixedDFilterRounding).
+		var table strings.Builder
+		if err := review.WriteTable(&table, a); err != nil {
+			t.Fatal(err)
+		}
 		for _, x := range review.JSON([]*discrete.Airframe{a}).Airframes[0].Axes {
 			if !strings.Contains(x.Axis, "dfilt") {
 				continue
@@ -96,6 +101,17 @@ func TestFixedDFilterHeaderAndJSON(t *testing.T) {
 			if want := fmt.Sprintf("the D term's rounding error <= %.3g", *v); !strings.Contains(h, want) {
 				t.Errorf("%s %s: JSON's derivative_filter_noise_lsb %g is not the header's (%q missing)", nt, x.Axis, *v, want)
 			}
+			// The text table and the review give it too.
+			if want := "derivative filters: rounding in the D term at most " + synth.G4(*v) + " output LSB"; !strings.Contains(table.String(), want) {
+				t.Errorf("%s %s: the table lacks %q", nt, x.Axis, want)
+			}
+		}
+		files, err := review.Build(a)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if md := string(files[0].Data); !strings.Contains(md, "the derivative filters' rounding in the D term is at most") {
+			t.Errorf("%s: the review does not give the derivative filters' rounding bound", nt)
 		}
 	}
 }

@@ -100,5 +100,8 @@ func fixedNote(re *discrete.Realization) string {
 			s += ", below half an LSB: the controller sees no step at engagement and exactly 0 at rest"
 		}
 	}
+	if len(re.Fixed.DSections) > 0 {
+		s += "; the derivative filters' rounding in the D term is at most " + g(re.DFilterNoiseLSB, 3) + " output LSB (proved)"
+	}
 	return s
 }

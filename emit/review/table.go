@@ -347,6 +347,9 @@ func (t *tableWriter) numeric(d *discrete.Design) {
 	if n.Fixed != nil && len(n.Fixed.Sections) > 0 {
 		t.line("             filter chain: rounding at its output at most %s input LSB (proved)", synth.G4(n.FilterNoiseLSB))
 	}
+	if n.Fixed != nil && len(n.Fixed.DSections) > 0 {
+		t.line("             derivative filters: rounding in the D term at most %s output LSB (proved)", synth.G4(n.DFilterNoiseLSB))
+	}
 	const crow = "  %-20s %-15s %-15s %-9s %s"
 	t.line(crow, "coefficient", "value", "quantized", "format", "rel error")
 	for _, c := range n.Coefficients {
