@@ -164,8 +164,9 @@ func (c *checker) axis(name, key string, m map[string]any, lp loopInfo) Axis {
 		cm = map[string]any{} // absent (or not a table, reported): all defaults
 	}
 	p.Ctrl, ok.limit, ok.ilim = c.control(c.newTable(t.sub("control"), cm, controlKeys()...), lp.hz)
-	specOK := false
+	specOK, noiseKey := false, false
 	if sm := t.subtable("spec", true, "settling_time, overshoot, ..."); sm != nil {
+		_, noiseKey = sm["max_noise_gain"]
 		lim := specLimits{outputLimit: p.Ctrl.OutputLimit, outputLimitOK: ok.limit, inputFullScale: lp.numeric.InputFullScale}
 		p.Spec, ok.settling, ok.recovery, ok.steady = c.spec(c.newTable(t.sub("spec"), sm, specKeys()...), lim)
 		specOK = true
@@ -188,7 +189,7 @@ func (c *checker) axis(name, key string, m map[string]any, lp loopInfo) Axis {
 		if modesOK {
 			modes = p.LightModes(0.9 * lp.hz / 2)
 		}
-		fs := c.filters(t, lp, autoPlacer{modes: modes, ok: modesOK, env: p.Envelope, nyq: lp.hz / 2, noiseBound: p.Spec.MaxNoiseGain, specOK: specOK,
+		fs := c.filters(t, lp, autoPlacer{modes: modes, ok: modesOK, env: p.Envelope, nyq: lp.hz / 2, noiseBound: p.Spec.MaxNoiseGain, noNoiseKey: specOK && !noiseKey,
 			form: p.Ctrl.Form})
 		for _, f := range fs {
 			if f.At == FilterAtDerivative {
@@ -729,10 +730,11 @@ type autoPlacer struct {
 	env   Envelope
 	nyq   float64
 	// noiseBound is the spec's max_noise_gain (0: none), which a lowpass
-	// with hz = "auto" and goal = "noise" needs; specOK says whether the
-	// spec decoded (otherwise its problem is reported).
+	// with hz = "auto" and goal = "noise" needs; noNoiseKey says that the
+	// spec decoded without the key (a spec that did not, or a bad key, is
+	// reported there).
 	noiseBound float64
-	specOK     bool
+	noNoiseKey bool
 	lowpasses  int // lowpasses with hz = "auto" so far
 	// form is the control's form (the default when the file's is
 	// invalid, which is reported there), which must have a derivative for
@@ -883,7 +885,9 @@ func (c *checker) filter(t *table, loopHz float64, auto *autoPlacer) (Filter, bo
 		c.fail(t.sub("order"), valueOrNil(t.m["order"]), `a first-order lowpass on the derivative is control.derivative_lowpass_hz, which the derivative always has: set that key, or use order = 2 (a second-order section after it) here`)
 		good = false
 	}
-	if only("goal", lowpass && f.AutoHz, `kind = "lowpass" with hz = "auto"`) && lowpass && f.AutoHz {
+	// goal belongs to a lowpass whose file asks hz = "auto", whether or
+	// not that was accepted (a refusal is reported at hz).
+	if only("goal", lowpass && t.m["hz"] == "auto", `kind = "lowpass" with hz = "auto"`) && lowpass && f.AutoHz {
 		def := GoalMargin
 		if auto.noiseBound > 0 {
 			def = GoalNoise
@@ -891,7 +895,7 @@ func (c *checker) filter(t *table, loopHz float64, auto *autoPlacer) (Filter, bo
 		g, ok := t.enum("goal", def, GoalNoise, GoalMargin)
 		good = good && ok
 		f.Goal = g
-		if ok && g == GoalNoise && auto.specOK && !(auto.noiseBound > 0) {
+		if ok && g == GoalNoise && auto.noNoiseKey {
 			c.fail(t.sub("goal"), g, `"noise" chooses the highest cutoff whose design meets spec.max_noise_gain, and the spec gives none: set [axes.NAME.spec] max_noise_gain, or use goal = "margin" (the lowest cutoff that keeps every check)`)
 			good = false
 		}

@@ -242,6 +242,32 @@ func TestFilterMalformed(t *testing.T) {
 	}
 }
 
+// One mistake, one message: a goal beside a refused hz = "auto", and
+// goal = "noise" beside a max_noise_gain that is itself wrong, add no
+// second error that contradicts the file.
+func TestFilterErrorsDoNotPileUp(t *testing.T) {
+	for _, tc := range []struct{ name, src, want, not string }{
+		{"goal beside a second auto lowpass",
+			withFilters("kind = \"lowpass\"\nhz = \"auto\"", "kind = \"lowpass\"\nhz = \"auto\"\ngoal = \"margin\""),
+			`axes.roll.filter[1].hz = "auto": one lowpass per axis`, `filter[1].goal`},
+		{"goal beside an auto derivative lowpass",
+			withFilters("kind = \"lowpass\"\nat = \"derivative\"\nhz = \"auto\"\ngoal = \"margin\""),
+			`axes.roll.filter[0].hz = "auto": "auto" is for filters at = "feedback"`, `filter[0].goal`},
+		{"goal noise beside a bad bound",
+			strings.Replace(withFilters("kind = \"lowpass\"\nhz = \"auto\"\ngoal = \"noise\""), "[axes.roll.spec]", "[axes.roll.spec]\nmax_noise_gain = -1.0", 1),
+			`axes.roll.spec.max_noise_gain = -1.0: must be > 0`, `the spec gives none`},
+	} {
+		_, err := Parse("x.toml", []byte(tc.src))
+		if err == nil || !strings.Contains(err.Error(), tc.want) {
+			t.Errorf("%s: error %v, want %q", tc.name, err, tc.want)
+			continue
+		}
+		if strings.Contains(err.Error(), tc.not) {
+			t.Errorf("%s: a second message contradicts the file (%q):\n%s", tc.name, tc.not, err)
+		}
+	}
+}
+
 // TestDerivativeFilterParse: filters at = "derivative" go to the
 // control's list, in file order, the feedback ones to the axis's chain;
 // the continuous counterparts multiply.
