@@ -237,7 +237,7 @@ func designOne(f *airframe.File, keep, unfiltered bool) (a *Airframe) {
 	if unfiltered {
 		var jobs []func()
 		for _, x := range a.Axes {
-			if d := x.Design; d != nil && len(d.Problem.Filters)+len(d.Problem.Ctrl.DerivativeFilters) > 0 {
+			if d := x.Design; d != nil && len(d.Problem.Filters) > 0 {
 				jobs = append(jobs, d.designUnfiltered)
 			}
 		}

@@ -45,11 +45,12 @@ type Design struct {
 }
 
 // designUnfiltered sets d.Unfiltered: the same axis, loop and numeric
-// type without the filter chain and the derivative filters, designed as DesignAxis designs (without
-// its traces: the review compares figures).
+// type without the feedback filter chain (its derivative filters kept),
+// designed as DesignAxis designs (without its traces: the review compares
+// figures).
 func (d *Design) designUnfiltered() {
 	p := d.Problem
-	p.Filters, p.Ctrl.DerivativeFilters = nil, nil
+	p.Filters = nil
 	u, err := DesignAxis(p, d.Loop, d.Numeric)
 	if err == nil {
 		u.DropTraces()

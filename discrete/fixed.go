@@ -356,11 +356,8 @@ func fixedStep[D, A Word](f *Fixed, s *FixedState, r, yd D) D {
 			}
 			Ud = mulQ[D](&f.Ad, Ud) + mulQ[D](&f.Bd, v-Vp)
 			Vp = v
-			d := Ud
-			if len(f.DSections) > 0 {
-				d = runSections[D](f.DSections, s.D[:], d)
-			}
-			uu += RoundShift(d, f.dChainF()-f.FU)
+			// The derivative filters, if any, run on Ud.
+			uu += RoundShift(runSections[D](f.DSections, s.D[:], Ud), f.dChainF()-f.FU)
 		}
 	}
 	u := Clamp(RoundShift(uu, f.FU), lo, hi)

@@ -334,15 +334,11 @@ func stageGain(q lti.Biquad) float64 {
 	return math.Min(1/((1-r)*(1-r)), 1/((1-r)*sin)) * (1 + l1Margin)
 }
 
-// sectionPartialName returns the range-table name of the partial sum of
-// section k's terms ts up to term i: "filter 1 sum B0·x + B1·x1", and for
-// the last, the output, "filter 1 output y (states y1, y2)".
-func sectionPartialName(k int, ts []sectionTerm, i int) string {
-	return chainPartialName("filter", k, ts, i)
-}
-
-// chainPartialName is sectionPartialName for the chain named prefix
-// ("filter" for the feedback chain, "derivative filter" for the D path).
+// chainPartialName returns the range-table name of the partial sum of
+// section k's terms ts up to term i in the chain named prefix ("filter"
+// for the feedback chain, "derivative filter" for the D path): "filter 1
+// sum B0·x + B1·x1", and for the last, the output, "filter 1 output y
+// (states y1, y2)".
 func chainPartialName(prefix string, k int, ts []sectionTerm, i int) string {
 	if i == len(ts)-1 {
 		if len(ts) == 3 {
@@ -382,7 +378,6 @@ type chainRun struct {
 	preF   []int
 	in     float64
 	x0     float64
-	x0gov  *int
 	// ownGov makes each section's F govern its B products too: their
 	// shift N + FIn − F grows as F falls, which brings a split product
 	// (MulWide) of a wide operand within the accumulator. The D path
@@ -441,7 +436,8 @@ func (p *fixedPlan) sectionBounds(c chainRun, add func(entry)) (es, yb []float64
 			bounds[i] = b
 		}
 		yb[k] = bounds[len(bounds)-1]
-		xb, xgov := c.x0, c.x0gov
+		xb := c.x0
+		var xgov *int
 		if k > 0 {
 			xb, xgov = yb[k-1], &c.secs[k-1].F
 		}

@@ -233,7 +233,7 @@ func floatChainNodes(f *Fixed, u []float64) map[string][]float64 {
 					sum -= p
 				}
 				if i > 0 {
-					name := sectionPartialName(k, ts, i)
+					name := chainPartialName("filter", k, ts, i)
 					out[name] = append(out[name], sum)
 				}
 			}
@@ -505,7 +505,7 @@ func TestFixedFilterAgainstSciPy(t *testing.T) {
 					want += out.Noise[k][i][j] * es[j] * math.Ldexp(1, q.F-f.Sections[j].F)
 				}
 				want += out.Noise[k][i][k]*es[k] + direct
-				name := sectionPartialName(k, ts, i+1)
+				name := chainPartialName("filter", k, ts, i+1)
 				got, ok := rows[name]
 				if !ok || math.Abs(got/want-1) > 2e-6 || got < want {
 					t.Errorf("%s: %s: bound %.10g, from SciPy's ℓ1 norms %.10g", c.name, name, got, want)

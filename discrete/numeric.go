@@ -1329,7 +1329,8 @@ func Accuracy(d *Design, re *Realization) AccuracyResult {
 
 // numericFeedback is the controller's feedback path C_fb(z) = u/(−y) of
 // the coefficients k, with q = z⁻¹: Kp + G0 + G01·q/(1 − q) +
-// Bd(1 − q)/(1 − Ad·q) for the PID family, (B0 + B1·q)/(1 + A1·q) for lead.
+// Bd(1 − q)/(1 − Ad·q)·Nf(q)/Df(q) for the PID family (Nf/Df the
+// derivative sections, 1 without), (B0 + B1·q)/(1 + A1·q) for lead.
 func numericFeedback(k Coeffs, z complex128) complex128 {
 	q := lti.Div(1, z)
 	if k.Form == airframe.FormLead {

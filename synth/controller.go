@@ -167,7 +167,9 @@ func (c Controller) Series() (lti.ZPK, error) {
 }
 
 // HighFrequencyGain is |C(j∞)|, the gain from sensor noise at high frequency
-// to the command: Kp + Kd/Tf for the PID family, K for lead. Refinement
+// to the command: Kp + Kd/Tf for the PID family (the Kd/Tf term times
+// |DF(j∞)| with derivative filters: a notch passes it, a lowpass stops
+// it), K for lead. Refinement
 // minimizes it, as it sets how much gyro noise reaches the actuators.
 func (c Controller) HighFrequencyGain() float64 {
 	switch c.Form {
@@ -179,9 +181,10 @@ func (c Controller) HighFrequencyGain() float64 {
 			if c.DF != nil {
 				// DF(j∞): a notch passes, a lowpass stops.
 				n, m := c.DF.Num.Trim(), c.DF.Den.Trim()
-				d = 0
-				if len(n) == len(m) {
-					d = math.Abs(c.Kd / c.Tf * n[len(n)-1] / m[len(m)-1])
+				if len(n) != len(m) {
+					d = 0
+				} else {
+					d = math.Abs(d * n[len(n)-1] / m[len(m)-1])
 				}
 			}
 			return c.Kp + d
