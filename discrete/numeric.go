@@ -271,70 +271,53 @@ func realizeFloat(d *Design) (*Realization, error) {
 		*cs.val(&kq) = q
 		re.Coefficients = append(re.Coefficients, Coefficient{Name: cs.name, Value: v, Quantized: q, RelError: relErr(q, v), Format: string(t)})
 	}
-	re.QuantizedCoeffs = kq
-	// The filter chain's coefficients, as the code holds them; with
-	// float32 the loop is verified again with them rounded too (a narrow
-	// notch far below Nyquist has poles close to the unit circle, where
-	// the rounding of A1 and A2 moves them most).
-	var qs []lti.Biquad
-	for i, q := range d.Plant.Sections {
-		var r lti.Biquad
-		for _, c := range []struct {
-			name     string
-			v        float64
-			dst      *float64
-			optional bool
-		}{{"B0", q.B0, &r.B0, false}, {"B1", q.B1, &r.B1, false}, {"B2", q.B2, &r.B2, true}, {"A1", q.A1, &r.A1, false}, {"A2", q.A2, &r.A2, true}} {
-			v := c.v
-			qv := v
-			if t == airframe.Float32 {
-				qv = float64(float32(v))
-			}
-			*c.dst = qv
-			if c.optional && q.B2 == 0 && q.A2 == 0 {
-				continue // a first-order section has no B2, A2
-			}
-			re.Coefficients = append(re.Coefficients, Coefficient{Name: fmt.Sprintf("F%d_%s", i+1, c.name), Value: v, Quantized: qv, RelError: relErr(qv, v), Format: string(t)})
-		}
-		qs = append(qs, r)
-	}
+	// The filter sections' coefficients, as the code holds them: the
+	// feedback chain's (F1_B0 …), and the derivative filters' (D1_B0 …),
+	// which are part of the controller's coefficients. With float32 the
+	// loop is verified again with them rounded too (a narrow notch far
+	// below Nyquist has poles close to the unit circle, where the
+	// rounding of A1 and A2 moves them most).
+	qs := re.roundSections("F", d.Plant.Sections)
 	if len(qs) > 0 && t == airframe.Float32 {
 		pl := d.Plant.WithSections(qs)
 		re.quantizedPlant = &pl
 	}
-	// The derivative filters' coefficients (D1_B0 …), as the code holds
-	// them: part of the controller, so the quantized loop takes them in
-	// its coefficients.
-	if len(d.Coeffs.DSections) > 0 {
-		kq.DSections = nil
-		for i, q := range d.Coeffs.DSections {
-			r := q
-			for _, c := range []struct {
-				name     string
-				v        float64
-				dst      *float64
-				optional bool
-			}{{"B0", q.B0, &r.B0, false}, {"B1", q.B1, &r.B1, false}, {"B2", q.B2, &r.B2, true}, {"A1", q.A1, &r.A1, false}, {"A2", q.A2, &r.A2, true}} {
-				qv := c.v
-				if t == airframe.Float32 {
-					qv = float64(float32(c.v))
-				}
-				*c.dst = qv
-				if c.optional && q.B2 == 0 && q.A2 == 0 {
-					continue
-				}
-				re.Coefficients = append(re.Coefficients, Coefficient{Name: fmt.Sprintf("D%d_%s", i+1, c.name), Value: c.v, Quantized: qv, RelError: relErr(qv, c.v), Format: string(t)})
-			}
-			kq.DSections = append(kq.DSections, r)
-		}
-		re.QuantizedCoeffs = kq
-	}
+	kq.DSections = re.roundSections("D", d.Coeffs.DSections)
+	re.QuantizedCoeffs = kq
 	if t == airframe.Float32 {
 		if err := re.verifyQuantized(d, 0); err != nil {
 			return nil, err
 		}
 	}
 	return re, nil
+}
+
+// roundSections returns the sections qs as the code holds them (rounded
+// to float32 for that type) and adds their coefficients to the table,
+// named <tag><n>_B0 …; a first-order section has no B2 or A2 row.
+func (re *Realization) roundSections(tag string, qs []lti.Biquad) []lti.Biquad {
+	var out []lti.Biquad
+	for i, q := range qs {
+		r := q
+		for _, c := range []struct {
+			name     string
+			v        float64
+			dst      *float64
+			optional bool
+		}{{"B0", q.B0, &r.B0, false}, {"B1", q.B1, &r.B1, false}, {"B2", q.B2, &r.B2, true}, {"A1", q.A1, &r.A1, false}, {"A2", q.A2, &r.A2, true}} {
+			qv := c.v
+			if re.Type == airframe.Float32 {
+				qv = float64(float32(c.v))
+			}
+			*c.dst = qv
+			if c.optional && q.B2 == 0 && q.A2 == 0 {
+				continue
+			}
+			re.Coefficients = append(re.Coefficients, Coefficient{Name: fmt.Sprintf("%s%d_%s", tag, i+1, c.name), Value: c.v, Quantized: qv, RelError: relErr(qv, c.v), Format: string(re.Type)})
+		}
+		out = append(out, r)
+	}
+	return out
 }
 
 func relErr(q, v float64) float64 {
