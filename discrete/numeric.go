@@ -292,6 +292,18 @@ func realizeFloat(d *Design) (*Realization, error) {
 	return re, nil
 }
 
+// Check returns the realization's check named name, and whether it made
+// one (filter_rounding, for one, is made only for a chain whose bounds
+// hold).
+func (re *Realization) Check(name string) (synth.Check, bool) {
+	for _, c := range re.Checks {
+		if c.Name == name {
+			return c, true
+		}
+	}
+	return synth.Check{}, false
+}
+
 // roundSections returns the sections qs as the code holds them (rounded
 // to float32 for that type) and adds their coefficients to the table,
 // named <tag><n>_B0 …; a first-order section has no B2 or A2 row.

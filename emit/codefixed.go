@@ -363,9 +363,11 @@ func filterSummary(re *discrete.Realization) string {
 	}
 	s := fmt.Sprintf("; filter chain in direct form I, each product rounded once into its section's output format: %s; the chain's output, rounded to the input LSB for the controller, <= %s x the input full scale (l1 gain), its rounding error <= %s input LSB before that rounding",
 		strings.Join(parts, "; "), codeNum(math.Ldexp(chain, -(re.W-1))), codeMetric(re.FilterNoiseLSB))
-	if re.FilterNoiseLSB < 0.5 {
+	// The verdict is the filter_rounding check's, made only when the
+	// bounds hold (no overflow).
+	if c, ok := re.Check("filter_rounding"); ok && c.OK {
 		s += " (below half an LSB: no step at engagement, exactly 0 at rest)"
-	} else {
+	} else if ok {
 		s += " (NOT below half an LSB: the chain may leave a limit cycle at rest)"
 	}
 	return s

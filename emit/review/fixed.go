@@ -96,7 +96,7 @@ func fixedNote(re *discrete.Realization) string {
 	}
 	if len(re.Fixed.Sections) > 0 {
 		s += "; the filter chain's rounding at its output is at most " + g(re.FilterNoiseLSB, 3) + " input LSB (proved)"
-		if re.FilterNoiseLSB < 0.5 {
+		if c, ok := re.Check("filter_rounding"); ok && c.OK {
 			s += ", below half an LSB: the controller sees no step at engagement and exactly 0 at rest"
 		}
 	}
