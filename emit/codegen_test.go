@@ -292,4 +292,16 @@ func TestStepOpsCounts(t *testing.T) {
 	if got := StepOps(k, lti.Biquad{B0: 0.2, B1: 0.4, B2: 0.2, A1: -0.5, A2: 0.2}, lti.Biquad{B0: 0.5, B1: 0.5}); got != 30 {
 		t.Errorf("StepOps(PI backcalc, 2 sections) = %d, want 30", got)
 	}
+	// The same as a PID on the measurement: 16 + −y (1) + Ad·ud +
+	// Bd·(v − vp) (4) + ud (1) = 22; with the two sections on the
+	// derivative instead, 22 + 9 + 5.
+	kd := k
+	kd.Form, kd.DerivativeOnError = airframe.FormPID, false
+	if got := StepOps(kd); got != 22 {
+		t.Errorf("StepOps(PID backcalc) = %d, want 22", got)
+	}
+	kd.DSections = []lti.Biquad{{B0: 0.2, B1: 0.4, B2: 0.2, A1: -0.5, A2: 0.2}, {B0: 0.5, B1: 0.5}}
+	if got := StepOps(kd); got != 36 {
+		t.Errorf("StepOps(PID backcalc, 2 derivative sections) = %d, want 36", got)
+	}
 }
