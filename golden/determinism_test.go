@@ -10,6 +10,7 @@ import (
 	"path/filepath"
 	"regexp"
 	"runtime"
+	"slices"
 	"sort"
 	"sync"
 	"testing"
@@ -48,6 +49,64 @@ func fixedCopy(t *testing.T, dir, p string, nt airframe.NumericType) string {
 		t.Fatal(err)
 	}
 	return name
+}
+
+// crossCopy is an example to run again in another arithmetic.
+type crossCopy struct {
+	path string
+	nt   airframe.NumericType
+}
+
+// crossCopies picks the copies of the examples that TestCrossArchDeterminism
+// runs besides the examples as written: enough that every controller form
+// of the examples is emitted in each of float32, q15 and q31 at least once
+// (each form has its own realization, rounding and reference model in
+// each arithmetic), taking the examples whose host design needed the
+// least search work (judgments times the states each simulates) first. The search itself is the same in every
+// arithmetic and is compared on the examples as written; a copy of every
+// example in every arithmetic would design each again under the emulator,
+// which emulates floating point in software (about 40 times the host's
+// time here), for no code path the copies below do not already take.
+func crossCopies(t *testing.T, paths []string) []crossCopy {
+	t.Helper()
+	type form struct {
+		f  airframe.Form
+		nt airframe.NumericType
+	}
+	covered := map[form]bool{}
+	cost := map[string]int{}
+	forms := map[string][]airframe.Form{}
+	for _, p := range paths {
+		a := design(t, p, "")
+		for _, x := range a.Axes {
+			if x.Design == nil {
+				t.Fatalf("%s: axis %s: %v", p, x.Name, x.Err)
+			}
+			f := x.Design.Problem.Ctrl.Form
+			covered[form{f, a.File.Numeric.Type}] = true
+			forms[p] = append(forms[p], f)
+			// The search's judgments times the states each simulates.
+			cost[p] += x.Design.Cont.Search.Evaluations * (x.Design.Plant.N + x.Design.Plant.Delay)
+		}
+	}
+	t.Logf("search work of the examples: %v", cost)
+	order := slices.Clone(paths)
+	sort.SliceStable(order, func(i, j int) bool { return cost[order[i]] < cost[order[j]] })
+	var cs []crossCopy
+	for _, p := range order {
+		for _, nt := range []airframe.NumericType{airframe.Float32, airframe.Q15, airframe.Q31} {
+			adds := false
+			for _, f := range forms[p] {
+				if !covered[form{f, nt}] {
+					covered[form{f, nt}], adds = true, true
+				}
+			}
+			if adds {
+				cs = append(cs, crossCopy{p, nt})
+			}
+		}
+	}
+	return cs
 }
 
 // runCLI runs the binary (under the emulator when given) in dir.
@@ -108,7 +167,7 @@ func readFiles(dir string) (map[string][]byte, error) {
 
 // TestCrossArchDeterminism builds the CLI for the host and for arm64
 // (CGO_ENABLED=0 GOARCH=arm64), runs both (arm64 under qemu-aarch64) on
-// every example in every arithmetic (the file's, float32, q15, q31), and
+// every example and on the copies of crossCopies in other arithmetics, and
 // requires byte-identical C files with vectors and JSON reports of the
 // designs: the output is a pure
 // function of the input and the tool version, whatever the CPU (Go may
@@ -140,8 +199,8 @@ func TestCrossArchDeterminism(t *testing.T) {
 	if err := os.MkdirAll(filepath.Join(work, "examples"), 0o755); err != nil {
 		t.Fatal(err)
 	}
-	// inputs are the examples as written and their copies in the other
-	// arithmetics.
+	// inputs are the examples as written and the copies crossCopies
+	// picks in the other arithmetics.
 	var inputs []string
 	for _, p := range examplePaths(t) {
 		b, err := os.ReadFile(p)
@@ -153,11 +212,10 @@ func TestCrossArchDeterminism(t *testing.T) {
 			t.Fatal(err)
 		}
 		inputs = append(inputs, rel)
-		for _, nt := range []airframe.NumericType{airframe.Float32, airframe.Q15, airframe.Q31} {
-			if design(t, p, "").File.Numeric.Type != nt {
-				inputs = append(inputs, fixedCopy(t, work, p, nt))
-			}
-		}
+	}
+	for _, c := range crossCopies(t, examplePaths(t)) {
+		inputs = append(inputs, fixedCopy(t, work, c.path, c.nt))
+		t.Logf("also %s in %s", filepath.Base(c.path), c.nt)
 	}
 	sort.Strings(inputs)
 

@@ -67,6 +67,14 @@ func run(t testing.TB, dir string, name string, args ...string) string {
 }
 
 func runErr(dir string, name string, args ...string) (string, error) {
+	if out, ok, err := compiled(dir, name, args); ok {
+		return out, err
+	}
+	return runUncached(dir, name, args...)
+}
+
+// runUncached is runErr without the compiler cache.
+func runUncached(dir string, name string, args ...string) (string, error) {
 	ctx, cancel := context.WithTimeout(context.Background(), 5*time.Minute)
 	defer cancel()
 	cmd := exec.CommandContext(ctx, name, args...)

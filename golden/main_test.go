@@ -173,3 +173,157 @@ func buildC(t testing.TB, cc string, flags []string, srcs []emit.Source, files [
 	}
 	return b.dir
 }
+
+// ccache holds the products of the C compilers' successful runs (objects
+// and programs), so that a compile the tests repeat (the same compiler,
+// arguments and sources: the flags matrix, the forms and the examples are
+// built by several tests) runs once per test binary. The entries live in
+// cbuilds.dir.
+var ccache = struct {
+	mu sync.Mutex
+	n  int
+	m  map[string]*ccEntry
+}{m: map[string]*ccEntry{}}
+
+// ccEntry is one cached compiler run: the product's bytes are in file.
+type ccEntry struct {
+	once sync.Once
+	file string
+	mode os.FileMode
+	out  string
+	ok   bool
+}
+
+// compilers are the programs whose runs ccache keeps.
+var compilers = map[string]bool{"gcc": true, "cc": true, "clang": true, "arm-none-eabi-gcc": true}
+
+// compiled runs the compiler name with args in dir through ccache, when it
+// is one and writes one product (-o): it returns the compiler's output,
+// true and its error once it has run it, or found its product in the
+// cache and copied it into dir; false when the caller is to run the
+// command itself. A run that fails is not kept. The key is the compiler, the
+// arguments (dir written as "."), and the bytes of every .c and .h file in
+// dir (what #include "..." can read) and of every file an argument names
+// besides the product; system headers and libraries do not change while
+// the tests run.
+func compiled(dir, name string, args []string) (string, bool, error) {
+	if !compilers[filepath.Base(name)] {
+		return "", false, nil
+	}
+	prod := ""
+	for i, a := range args {
+		if a == "-o" && i+1 < len(args) {
+			prod = args[i+1]
+		}
+	}
+	if prod == "" {
+		return "", false, nil
+	}
+	h := sha256.New()
+	fmt.Fprintf(h, "%q\n", name)
+	for _, a := range args {
+		fmt.Fprintf(h, "%q\n", strings.ReplaceAll(a, dir, "."))
+	}
+	hashFile := func(label, p string) bool {
+		b, err := os.ReadFile(p)
+		if err != nil {
+			return false
+		}
+		fmt.Fprintf(h, "%q %d\n", label, len(b))
+		h.Write(b)
+		return true
+	}
+	es, err := os.ReadDir(dir)
+	if err != nil {
+		return "", false, nil
+	}
+	for _, e := range es {
+		if n := e.Name(); e.Type().IsRegular() && (strings.HasSuffix(n, ".c") || strings.HasSuffix(n, ".h")) {
+			if !hashFile(n, filepath.Join(dir, n)) {
+				return "", false, nil
+			}
+		}
+	}
+	for _, a := range args {
+		if a == prod || strings.HasPrefix(a, "-") {
+			continue
+		}
+		p := a
+		if !filepath.IsAbs(p) {
+			p = filepath.Join(dir, p)
+		}
+		if fi, err := os.Stat(p); err == nil && fi.Mode().IsRegular() {
+			if !hashFile(strings.ReplaceAll(a, dir, "."), p) {
+				return "", false, nil
+			}
+		}
+	}
+	key := hex.EncodeToString(h.Sum(nil))
+	cbuilds.mu.Lock()
+	if cbuilds.dir == "" {
+		d, err := os.MkdirTemp("", "locusmith-cbuild-")
+		if err != nil {
+			cbuilds.mu.Unlock()
+			return "", false, nil
+		}
+		cbuilds.dir = d
+	}
+	root := cbuilds.dir
+	cbuilds.mu.Unlock()
+	ccache.mu.Lock()
+	e, ok := ccache.m[key]
+	if !ok {
+		ccache.n++
+		e = &ccEntry{file: filepath.Join(root, fmt.Sprintf("cc-%d", ccache.n))}
+		ccache.m[key] = e
+	}
+	ccache.mu.Unlock()
+	out := filepath.Join(dir, prod)
+	if filepath.IsAbs(prod) {
+		out = prod
+	}
+	ran := false
+	var runOut string
+	var runErr error
+	e.once.Do(func() {
+		ran = true
+		runOut, runErr = runUncached(dir, name, args...)
+		if runErr != nil {
+			return
+		}
+		o := runOut
+		fi, err := os.Stat(out)
+		if err != nil || copyFile(e.file, out, fi.Mode()) != nil {
+			return
+		}
+		e.out, e.mode, e.ok = o, fi.Mode(), true
+	})
+	if !e.ok {
+		// Not kept: a failed run, reported as it is, or a product that
+		// could not be stored. A test waiting on another's failed run
+		// runs the compiler itself.
+		if ran {
+			ccache.mu.Lock()
+			delete(ccache.m, key)
+			ccache.mu.Unlock()
+			return runOut, true, runErr
+		}
+		return "", false, nil
+	}
+	if ran {
+		return e.out, true, nil
+	}
+	if copyFile(out, e.file, e.mode) != nil {
+		return "", false, nil
+	}
+	return e.out, true, nil
+}
+
+// copyFile writes a copy of src to dst with mode perm.
+func copyFile(dst, src string, perm os.FileMode) error {
+	b, err := os.ReadFile(src)
+	if err != nil {
+		return err
+	}
+	return os.WriteFile(dst, b, perm)
+}

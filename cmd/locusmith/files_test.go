@@ -257,7 +257,9 @@ func TestReportSignals(t *testing.T) {
 	if len(left) == 0 {
 		t.Fatal("SIGKILL left no temporary file to clean up")
 	}
-	out, err := exec.Command(bin, append([]string{"report", "-o", review}, inputs...)...).CombinedOutput()
+	// The next run (of one file: the clean-up does not depend on what
+	// the run reports) removes what the killed one left.
+	out, err := exec.Command(bin, "report", "-o", review, inputs[0]).CombinedOutput()
 	if err != nil || !strings.Contains(string(out), "a temporary file an interrupted run left") {
 		t.Errorf("the run after a SIGKILL: %v\n%s", err, out)
 	}
