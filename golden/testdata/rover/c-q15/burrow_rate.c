@@ -8,7 +8,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x7edcd8ec02e31258
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x19479ead32a37b07
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 
@@ -112,11 +112,11 @@ int16_t burrow_yaw_step(burrow_yaw_state *s, int16_t setpoint, int16_t measured)
 {
 	const int32_t r = setpoint;
 	const int32_t y = measured;
-	int32_t uu = burrow_mul(BURROW_YAW_KPB, r, 2) - burrow_mul(BURROW_YAW_KP, y, 2);
+	int32_t uu = burrow_mul(BURROW_YAW_KPB, r, 3) - burrow_mul(BURROW_YAW_KP, y, 3);
 	const int32_t v = -y;
 	s->ud = burrow_mulw(BURROW_YAW_AD, s->ud, 15) + burrow_mul(BURROW_YAW_BD, v - s->vp, 0);
 	s->vp = v;
-	uu = uu + s->ud;
+	uu = uu + burrow_rsh(s->ud, 1);
 	const int16_t u = (int16_t)burrow_clamp(burrow_rsh(uu, 6), BURROW_YAW_OUTPUT_LO, BURROW_YAW_OUTPUT_HI);
 	s->ua = u;
 	return u;

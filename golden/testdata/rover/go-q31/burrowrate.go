@@ -8,28 +8,28 @@
 // Rate loop at 500 Hz (T = 0.002 s), compute delay 1 sample; q31 fixed point
 // (input full scale 64, output full scale 1).
 //
-// Axis pan: lead, K = 0.1136, zero -40 rad/s, pole -40.8 rad/s.
+// Axis pan: lead, K = 0.1001, zero -40 rad/s, pole -40.8 rad/s.
 //   discretized tustin; output [-1, 1].
 //   Target: zeta = 0.627, wn = 26.6 rad/s, s* = -16.6 +/- j20.7 rad/s.
-//   Sampled loop: overshoot 2.46 %, settling 0.196 s, phase margin 66.4 deg,
-//   gain margin 19.7 dB.
+//   Sampled loop: overshoot 0.985 %, settling 0.149 s, phase margin
+//   68.9 deg, gain margin 20.8 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats B0 Q3.28, B1 Q3.28, A1 Q0.31, Lo Q0.31, Hi Q0.31;
 //   states: integrator 32, derivative 32, sum 27 fractional bits below the
-//   output LSB; minimum headroom 0.0773 bits (lead state x); saturating:
+//   output LSB; minimum headroom 0.118 bits (A1*ul (product)); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 1.13, Kd = 0.03424, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 0.9503, Kd = 0.02528, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.21 %, settling 0.189 s, phase margin 63.5 deg,
-//   gain margin 20.3 dB.
+//   Sampled loop: overshoot 4.08 %, settling 0.21 s, phase margin 64.7 deg,
+//   gain margin 22.2 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
-//   scale*2^31); formats KpB Q7.24, Kp Q7.24, Ad Q0.31, Bd Q9.22, Lo Q0.31,
-//   Hi Q0.31; states: integrator 32, derivative 22, sum 22 fractional bits
-//   below the output LSB; minimum headroom 0.457 bits (Ad*Ud (product));
+//   scale*2^31); formats KpB Q6.25, Kp Q6.25, Ad Q0.31, Bd Q8.23, Lo Q0.31,
+//   Hi Q0.31; states: integrator 32, derivative 23, sum 22 fractional bits
+//   below the output LSB; minimum headroom 0.221 bits (derivative state Ud);
 //   saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
@@ -57,8 +57,8 @@ package burrowrate
 
 // Coefficients and limits of axis pan.
 const (
-	PanB0       int32 = 1949946473  // lead: weight of the current error; Q3.28 = 7.264
-	PanB1       int32 = -1799950591 // lead: weight of the last error; Q3.28 = -6.705
+	PanB0       int32 = 1717893743  // lead: weight of the current error; Q3.28 = 6.4
+	PanB1       int32 = -1585748071 // lead: weight of the last error; Q3.28 = -5.907
 	PanA1       int32 = -1979118289 // lead: weight of the last unsaturated output; Q0.31 = -0.9216
 	PanOutputLo int32 = -2147483648 // lowest command, raw; Q0.31 = -1
 	PanOutputHi int32 = 2147483647  // highest command, raw; Q0.31 = 1
@@ -106,10 +106,10 @@ func (c *Pan) Applied(applied int32) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       int32 = 1212916693  // P gain on the measurement; Q7.24 = 72.3
-	YawKpB      int32 = 1212916693  // P gain on the setpoint; Q7.24 = 72.3
+	YawKp       int32 = 2040653341  // P gain on the measurement; Q6.25 = 60.82
+	YawKpB      int32 = 2040653341  // P gain on the setpoint; Q6.25 = 60.82
 	YawAd       int32 = 1564419297  // derivative filter: pole; Q0.31 = 0.7285
-	YawBd       int32 = 1247791744  // derivative filter: gain; Q9.22 = 297.5
+	YawBd       int32 = 1842636816  // derivative filter: gain; Q8.23 = 219.7
 	YawOutputLo int32 = -2147483648 // lowest command, raw; Q0.31 = -1
 	YawOutputHi int32 = 2147483647  // highest command, raw; Q0.31 = 1
 )
@@ -117,7 +117,7 @@ const (
 // Yaw is the state of the burrow rate controller of axis yaw (PD with
 // filtered derivative). Call Reset before the first Step.
 type Yaw struct {
-	ud int64 // filtered derivative term, 22 fractional bits below the output LSB
+	ud int64 // filtered derivative term, 23 fractional bits below the output LSB
 	vp int64 // derivative input of the last step, input LSB
 	ua int32 // command applied, last step
 }
@@ -133,11 +133,11 @@ func (c *Yaw) Reset(output, measured int32) {
 func (c *Yaw) Step(setpoint, measured int32) int32 {
 	r := int64(setpoint)
 	y := int64(measured)
-	uu := mul(YawKpB, r, 2) - mul(YawKp, y, 2)
+	uu := mul(YawKpB, r, 3) - mul(YawKp, y, 3)
 	v := -y
 	c.ud = mulw(YawAd, c.ud, 31) + mul(YawBd, v-c.vp, 0)
 	c.vp = v
-	uu = uu + c.ud
+	uu = uu + rsh(c.ud, 1)
 	u := int32(clamp(rsh(uu, 22), int64(YawOutputLo), int64(YawOutputHi)))
 	c.ua = u
 	return u
