@@ -59,6 +59,16 @@ type codeQ struct {
 	Shift int
 }
 
+// codeDFI is one fixed-point filter section as the templates code_c_dfi
+// and code_go_dfi write it: the section, the variable it filters (In),
+// the temporary of its output (Out), in C of the accumulator's type
+// (Acc), and the indentation of its lines, so that the feedback chain and
+// the derivative filters share one text.
+type codeDFI struct {
+	codeFilter
+	Acc, In, Out, Ind string
+}
+
 // codeFixedFuncs are the template functions of the fixed-point templates.
 func codeFixedFuncs() map[string]any {
 	return map[string]any{
@@ -91,6 +101,13 @@ func codeFixedFuncs() map[string]any {
 				return "", fmt.Errorf("negative format shift %d of %s", n, x)
 			}
 			return fmt.Sprintf("%s(%s, %d)", u.SatShl, x, n), nil
+		},
+		// dfi is the argument of the direct-form-I section templates
+		// (code_c_dfi, code_go_dfi): section f run on the value of in
+		// into the temporary out (of C type acc), its lines indented by
+		// ind.
+		"dfi": func(f codeFilter, acc, in, out, ind string) codeDFI {
+			return codeDFI{codeFilter: f, Acc: acc, In: in, Out: out, Ind: ind}
 		},
 		// add renders a + b, saturating when sat is set.
 		"add": func(u *codeUnit, sat bool, a, b string) string {
