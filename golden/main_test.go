@@ -189,7 +189,6 @@ var ccache = struct {
 type ccEntry struct {
 	once sync.Once
 	file string
-	mode os.FileMode
 	out  string
 	ok   bool
 }
@@ -216,7 +215,8 @@ func compiled(dir, name string, args []string) (string, bool, error) {
 			prod = args[i+1]
 		}
 	}
-	if prod == "" {
+	if prod == "" || filepath.IsAbs(prod) || strings.Contains(prod, "..") {
+		// Only products inside dir (not /dev/null, say).
 		return "", false, nil
 	}
 	h := sha256.New()
@@ -279,9 +279,6 @@ func compiled(dir, name string, args []string) (string, bool, error) {
 	}
 	ccache.mu.Unlock()
 	out := filepath.Join(dir, prod)
-	if filepath.IsAbs(prod) {
-		out = prod
-	}
 	ran := false
 	var runOut string
 	var runErr error
@@ -292,11 +289,10 @@ func compiled(dir, name string, args []string) (string, bool, error) {
 			return
 		}
 		o := runOut
-		fi, err := os.Stat(out)
-		if err != nil || copyFile(e.file, out, fi.Mode()) != nil {
+		if copyFile(e.file, out) != nil {
 			return
 		}
-		e.out, e.mode, e.ok = o, fi.Mode(), true
+		e.out, e.ok = o, true
 	})
 	if !e.ok {
 		// Not kept: a failed run, reported as it is, or a product that
@@ -313,17 +309,16 @@ func compiled(dir, name string, args []string) (string, bool, error) {
 	if ran {
 		return e.out, true, nil
 	}
-	if copyFile(out, e.file, e.mode) != nil {
+	if copyFile(out, e.file) != nil {
 		return "", false, nil
 	}
 	return e.out, true, nil
 }
 
-// copyFile writes a copy of src to dst with mode perm.
-func copyFile(dst, src string, perm os.FileMode) error {
-	b, err := os.ReadFile(src)
-	if err != nil {
-		return err
-	}
-	return os.WriteFile(dst, b, perm)
+// copyFile copies src to dst, with its mode, in a cp process: a program
+// this process wrote itself could still be open for writing in a child
+// that another test forks at that moment, and running it would then fail
+// with "text file busy".
+func copyFile(dst, src string) error {
+	return exec.Command("cp", "-p", src, dst).Run()
 }
