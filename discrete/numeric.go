@@ -503,16 +503,20 @@ func (p *fixedPlan) resolution(re *Realization) error {
 		return nil
 	}
 	// The decisions compare the spans with 2^4 LSB directly (exact), the
-	// bits are for the report.
+	// bits are for the report. q15 can move to q31; q31 has no wider type.
+	wider := ""
+	if p.d.Numeric.Type == airframe.Q15 {
+		wider = ", or q31"
+	}
 	if band*aref/lsbIn < 16 {
 		return &InputError{Key: "numeric.input_full_scale", Value: fmtNum(p.fin), Msg: fmt.Sprintf(
-			"leaves %.1f bits (< 4) of resolution for the smallest step the spec needs on axis %s: the settling band ±%s of the reference step %s (the largest the loop follows without saturating the command) spans %.3g LSB of %s; use a full scale of at most %s, or q31",
-			re.InputResolutionBits, d.Problem.Name, fmtNum(band*aref), fmtNum(aref), band*aref/lsbIn, fmtNum(lsbIn), fmtNum(band*aref*p.m/16))}
+			"leaves %.1f bits (< 4) of resolution for the smallest step the spec needs on axis %s: the settling band ±%s of the reference step %s (the largest the loop follows without saturating the command) spans %.3g LSB of %s; use a full scale of at most %s%s",
+			re.InputResolutionBits, d.Problem.Name, fmtNum(band*aref), fmtNum(aref), band*aref/lsbIn, fmtNum(lsbIn), fmtNum(band*aref*p.m/16), wider)}
 	}
 	if band*lim/lsbOut < 16 {
 		return &InputError{Key: "numeric.output_full_scale", Value: fmtNum(p.fout), Msg: fmt.Sprintf(
-			"leaves %.1f bits (< 4) of command resolution on axis %s: the band ±%s of the output limit %s spans %.3g LSB of %s; use a full scale of at most %s, or q31",
-			re.OutputResolutionBits, d.Problem.Name, fmtNum(band*lim), fmtNum(lim), band*lim/lsbOut, fmtNum(lsbOut), fmtNum(band*lim*p.m/16))}
+			"leaves %.1f bits (< 4) of command resolution on axis %s: the band ±%s of the output limit %s spans %.3g LSB of %s; use a full scale of at most %s%s",
+			re.OutputResolutionBits, d.Problem.Name, fmtNum(band*lim), fmtNum(lim), band*lim/lsbOut, fmtNum(lsbOut), fmtNum(band*lim*p.m/16), wider)}
 	}
 	return nil
 }

@@ -412,6 +412,8 @@ func TestNumericInputErrors(t *testing.T) {
 	}{
 		{"input full scale too coarse", airframe.Numeric{Type: airframe.Q15, InputFullScale: 20000, OutputFullScale: 1}, "numeric.input_full_scale", "bits (< 4) of resolution"},
 		{"output full scale too coarse", airframe.Numeric{Type: airframe.Q15, InputFullScale: 100, OutputFullScale: 2000}, "numeric.output_full_scale", "bits (< 4) of command resolution"},
+		{"q31 input full scale too coarse", airframe.Numeric{Type: airframe.Q31, InputFullScale: 1e9, OutputFullScale: 1}, "numeric.input_full_scale", "bits (< 4) of resolution"},
+		{"q31 output full scale too coarse", airframe.Numeric{Type: airframe.Q31, InputFullScale: 100, OutputFullScale: 1e8}, "numeric.output_full_scale", "bits (< 4) of command resolution"},
 		{"limit beyond output full scale", airframe.Numeric{Type: airframe.Q31, InputFullScale: 100, OutputFullScale: 0.5}, "numeric.output_full_scale", "cannot hold the limit"},
 		{"zero full scale", airframe.Numeric{Type: airframe.Q15, InputFullScale: 0, OutputFullScale: 1}, "numeric.input_full_scale", "finite number > 0"},
 		{"infinite full scale", airframe.Numeric{Type: airframe.Q31, InputFullScale: 100, OutputFullScale: math.Inf(1)}, "numeric.output_full_scale", "finite number > 0"},
@@ -427,6 +429,10 @@ func TestNumericInputErrors(t *testing.T) {
 		}
 		if ie.Key != tc.key || !strings.Contains(ie.Msg, tc.msg) || !strings.Contains(err.Error(), tc.key+" = ") {
 			t.Errorf("%s: %v", tc.name, err)
+		}
+		// The wider type is a remedy only from q15.
+		if strings.Contains(tc.msg, "bits (< 4)") && strings.HasSuffix(ie.Msg, ", or q31") != (tc.num.Type == airframe.Q15) {
+			t.Errorf("%s: %q: suggests q31 from %s", tc.name, ie.Msg, tc.num.Type)
 		}
 	}
 	// The 20000 rad/s q15 case in numbers: LSB 20000/2^15 ≈ 0.61, against
