@@ -439,12 +439,5 @@ func knownShort() map[string]float64 {
 		// its Ki and b = 0.625 alone: Ki ×0.95 to ×1.02, or b
 		// ± 0.025, settle in 0.28–0.45 s against 0.2 s.
 		"hexa_noise_pitch": 0.518,
-		// pid: 58.8 %. The search's designs of the largest Ki pass its
-		// grid's Ms but exceed Ms 1.7 by about 0.1 % in the exact
-		// verification, where a lower Ki misses the settling limit; the
-		// search again under a tightened Ms finds Ki 1.59 against the
-		// reference's 2.70 (the first of its other passing designs that
-		// passes everything, 1.05).
-		"winch_slow_pid": 0.583,
 	}
 }

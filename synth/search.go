@@ -1989,15 +1989,45 @@ func (sr *searcher) descend(cl cand, step []float64, judge judgeFunc) error {
 }
 
 // rescue searches for a small feasible set from a near miss cl (the
-// closest design seen, or a fast-settling one): local grids in the shape and the gain together (polish's, but down the
-// violation), down to polishStep, with at most budget judgments. The
-// descents move the shape alone and search each shape's line of x from
-// the top by steps; a feasible set a per cent wide in both (random
-// airframes of our own had such sets, found by the brute-force
-// reference, with the closest design a fraction of a per cent from them)
-// lies between their steps.
+// closest design seen, or a fast-settling one), with at most budget
+// judgments: local grids in the shape and the gain together (polish's,
+// but down the violation, to polishStep), then a fine scan of the near
+// miss's own line of x. The descents move the shape alone and search
+// each shape's line of x from the top by steps; a feasible set a per
+// cent wide in both (random airframes of our own had such sets, found by
+// the brute-force reference, with the closest design a fraction of a per
+// cent from them) lies between their steps.
 func (sr *searcher) rescue(cl cand, step []float64, judge judgeFunc, budget int) error {
 	stop := sr.fineLeft - budget
+	start := cl
+	if err := sr.rescueGrids(cl, step, judge, stop); err != nil || sr.haveOK {
+		return err
+	}
+	// Then the near miss's own line of x, finely: a window of passing x
+	// a per cent or two wide beside it (the settling time jumps where a
+	// ripple of the response leaves the band) lies across the descent's
+	// path, which a local grid's first step jumps over (a p, whose only
+	// parameter is x, had one 2 % above its closest design).
+	pt := start.pt
+	sr.basis(pt.th)
+	lo, hi := start.x/rescueSpan, math.Min(start.x*rescueSpan, pt.xf)
+	for x := lo; x <= hi && !sr.haveOK && sr.fineLeft > max(stop, 0); x *= rescueStep {
+		if _, err := judge(pt, x, false, nil); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// rescueSpan and rescueStep are the span (a factor either side) and the
+// step of rescue's scan of a near miss's line of x: 180 judgments.
+const (
+	rescueSpan = 1.25
+	rescueStep = 1.0025
+)
+
+// rescueGrids is rescue's local grids, while sr.fineLeft is above stop.
+func (sr *searcher) rescueGrids(cl cand, step []float64, judge judgeFunc, stop int) error {
 	n := len(cl.pt.u)
 	h := make([]float64, n+1)
 	for d := 0; d < n; d++ {
