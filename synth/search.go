@@ -1615,37 +1615,43 @@ type judgeFunc func(pt *point, x float64, shrink bool, worth func(x float64) boo
 // leastNoise finds the least noise gain with which a form without an
 // integral meets every other check. Its noise gain grows with x (Kp, or
 // K), so on each shape the line of x is scanned upward from 1 % of the
-// frequency checks' largest x, by factors of 1.03, to the first x that
-// passes, and the step below it is bisected (in log x, to a factor of
-// 1.03^(1/16), under 0.2 %); then a pattern search over the shapes goes
-// down from the best. The default bound is NoiseFactor times this noise
-// gain, so a coarse scan loosens it: the least lies where a line's
-// passing window (the step response leaves the settling band on either
-// side of it) narrows to a few per cent of x, which coarser steps jump
-// over. On the demo rover's pd, steps of 1.15 found a least noise gain
-// 30 % above a brute-force grid's, steps of 1.07 11 % above; steps of
-// 1.03 find it (TestLeastNoiseAgainstBruteForce). Once a least is known,
-// a line stops where its noise gain reaches it, so the finer scan costs
-// a few judgments per line.
+// frequency checks' largest x, by factors of 1.15, to the first x that
+// passes, and the step below it is bisected (in log x, four times); a
+// pattern search over the shapes goes down from the best. Then the same
+// again by factors of 1.03, judging only where the noise gain lies within
+// a factor 1.3 below the least found. The default bound is NoiseFactor
+// times this noise gain, so a coarse scan loosens it: the least lies
+// where a line's passing window (the step response leaves the settling
+// band on either side of it) narrows to a few per cent of x, which
+// coarser steps jump over. On the demo rover's pd, steps of 1.15 alone
+// found a least noise gain 30 % above a brute-force grid's, and steps of
+// 1.03 over each whole line cost three times the judgments
+// (TestLeastNoiseAgainstBruteForce).
 func (sr *searcher) leastNoise(grid [][]float64, step []float64, judge judgeFunc) (cand, bool, error) {
 	var best cand
 	have := false
-	// up judges shape pt from below; it stops once the noise gain
+	// up judges shape pt from below by factors of ratio, from the first
+	// x whose noise gain reaches floor; it stops once the noise gain
 	// reaches the best one's.
-	up := func(pt *point) (cand, bool, error) {
+	up := func(pt *point, ratio, floor float64) (cand, bool, error) {
 		if !(pt.xf > 0) {
 			return cand{}, false, nil
 		}
-		lo := 0.0 // the last x that failed
-		for x := pt.xf * 0.01; x <= pt.xf*(1+1e-9); x *= 1.03 {
-			sr.basis(pt.th)
-			if n := sr.noiseAt(x); have && n >= best.noise {
+		sr.basis(pt.th)
+		lo := 0.0 // the last x judged that failed
+		for x := pt.xf * 0.01; x <= pt.xf*(1+1e-9); x *= ratio {
+			n := sr.noiseAt(x)
+			if have && n >= best.noise {
 				return cand{}, false, nil
+			}
+			if n < floor {
+				continue
 			}
 			c, err := judge(pt, x, false, nil)
 			if err != nil {
 				return c, false, err
 			}
+			sr.basis(pt.th)
 			if !c.ok {
 				lo = x
 				continue
@@ -1656,6 +1662,7 @@ func (sr *searcher) leastNoise(grid [][]float64, step []float64, judge judgeFunc
 				if err != nil {
 					return m, false, err
 				}
+				sr.basis(pt.th)
 				if m.ok {
 					c = m
 				} else {
@@ -1666,28 +1673,45 @@ func (sr *searcher) leastNoise(grid [][]float64, step []float64, judge judgeFunc
 		}
 		return cand{}, false, nil
 	}
-	for _, u := range grid {
-		c, ok, err := up(sr.screen(u))
-		if err != nil {
-			return best, false, err
+	// scan runs up over the grid and a pattern search from the best.
+	scan := func(ratio float64, floor func() float64) error {
+		for _, u := range grid {
+			c, ok, err := up(sr.screen(u), ratio, floor())
+			if err != nil {
+				return err
+			}
+			if ok && (!have || c.noise < best.noise) {
+				best, have = c, true
+			}
 		}
-		if ok && (!have || c.noise < best.noise) {
-			best, have = c, true
+		if !have {
+			return nil
 		}
+		return sr.pattern(best.pt.u, step, func(u []float64) (bool, error) {
+			c, ok, err := up(sr.screen(u), ratio, floor())
+			if err != nil || !ok || c.noise >= best.noise*(1-1e-6) {
+				return false, err
+			}
+			best = c
+			return true, nil
+		})
 	}
-	if !have {
-		return best, false, nil
+	if err := scan(leastCoarse, func() float64 { return 0 }); err != nil || !have {
+		return best, have, err
 	}
-	err := sr.pattern(best.pt.u, step, func(u []float64) (bool, error) {
-		c, ok, err := up(sr.screen(u))
-		if err != nil || !ok || c.noise >= best.noise*(1-1e-6) {
-			return false, err
-		}
-		best = c
-		return true, nil
-	})
+	// Then finely, within leastBand below the best noise gain.
+	err := scan(leastFine, func() float64 { return best.noise / leastBand })
 	return best, true, err
 }
+
+// The scans of leastNoise: by factors of leastCoarse over each whole
+// line, then by leastFine where the noise gain is within a factor
+// leastBand below the least found.
+const (
+	leastCoarse = 1.15
+	leastFine   = 1.03
+	leastBand   = 1.3
+)
 
 // objective scores a passing design: the search keeps the largest score.
 // upper bounds the score of any design on the shape pt (at most its

@@ -8,7 +8,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x761d41804c7e8d98
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x67230ab7fba8eafc
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

@@ -8,7 +8,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x3a3fa93c0132ed1a
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x592d70fe86722799
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

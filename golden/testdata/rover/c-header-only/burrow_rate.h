@@ -8,19 +8,19 @@
 // Rate loop at 500 Hz (T = 0.002 s), compute delay 1 sample; float64
 // arithmetic.
 //
-// Axis pan: lead, K = 0.1001, zero -40 rad/s, pole -40.8 rad/s.
+// Axis pan: lead, K = 0.1005, zero -40 rad/s, pole -40.8 rad/s.
 //   discretized tustin; output [-1, 1].
 //   Target: zeta = 0.627, wn = 26.6 rad/s, s* = -16.6 +/- j20.7 rad/s.
-//   Sampled loop: overshoot 0.985 %, settling 0.149 s, phase margin
-//   68.9 deg, gain margin 20.8 dB.
+//   Sampled loop: overshoot 1.03 %, settling 0.148 s, phase margin 68.8 deg,
+//   gain margin 20.8 dB.
 //   Checks: all met.
 //   Numeric: float64, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pd, Kp = 0.9503, Kd = 0.02528, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 0.9498, Kd = 0.02527, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.08 %, settling 0.21 s, phase margin 64.7 deg,
+//   Sampled loop: overshoot 4.08 %, settling 0.211 s, phase margin 64.7 deg,
 //   gain margin 22.2 dB.
 //   Checks: all met.
 //   Numeric: float64, coefficients rounded to nearest; no fixed-point
@@ -61,15 +61,15 @@
 // Content stamp: the first 64 bits of a SHA-256 of this header. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define BURROW_RATE_STAMP 0x5770e80a1b05f8fc
+#define BURROW_RATE_STAMP 0x834fc74ae21195ab
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pan: coefficients and limits.
-#define BURROW_PAN_B0        0.09999457649500385 // lead: weight of the current error
-#define BURROW_PAN_B1        (-0.09230268599538817) // lead: weight of the last error
+#define BURROW_PAN_B0        0.10044808774019985 // lead: weight of the current error
+#define BURROW_PAN_B1        (-0.09272131176018447) // lead: weight of the last error
 #define BURROW_PAN_A1        (-0.9215987701767872) // lead: weight of the last unsaturated output
 #define BURROW_PAN_OUTPUT_LO (-1.0) // lowest command
 #define BURROW_PAN_OUTPUT_HI 1.0 // highest command
@@ -83,10 +83,10 @@ typedef struct {
 } burrow_pan_state;
 
 // Axis yaw: coefficients and limits.
-#define BURROW_YAW_KP        0.9502532618 // P gain on the measurement
-#define BURROW_YAW_KPB       0.9502532618 // P gain on the setpoint (setpoint weight b times Kp)
+#define BURROW_YAW_KP        0.9497593841 // P gain on the measurement
+#define BURROW_YAW_KPB       0.9497593841 // P gain on the setpoint (setpoint weight b times Kp)
 #define BURROW_YAW_AD        0.7284895036846828 // derivative filter: pole
-#define BURROW_YAW_BD        3.432178527821445 // derivative filter: gain
+#define BURROW_YAW_BD        3.4303947120059686 // derivative filter: gain
 #define BURROW_YAW_OUTPUT_LO (-1.0) // lowest command
 #define BURROW_YAW_OUTPUT_HI 1.0 // highest command
 

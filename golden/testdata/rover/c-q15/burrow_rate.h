@@ -8,11 +8,11 @@
 // Rate loop at 500 Hz (T = 0.002 s), compute delay 1 sample; q15 fixed point
 // (input full scale 64, output full scale 1).
 //
-// Axis pan: lead, K = 0.1001, zero -40 rad/s, pole -40.8 rad/s.
+// Axis pan: lead, K = 0.1005, zero -40 rad/s, pole -40.8 rad/s.
 //   discretized tustin; output [-1, 1].
 //   Target: zeta = 0.627, wn = 26.6 rad/s, s* = -16.6 +/- j20.7 rad/s.
-//   Sampled loop: overshoot 0.985 %, settling 0.149 s, phase margin
-//   68.9 deg, gain margin 20.8 dB.
+//   Sampled loop: overshoot 1.03 %, settling 0.148 s, phase margin 68.8 deg,
+//   gain margin 20.8 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats B0 Q3.12, B1 Q3.12, A1 Q0.15, Lo Q0.15, Hi Q0.15;
@@ -20,16 +20,16 @@
 //   output LSB; minimum headroom 0.118 bits (A1*ul (product)); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 0.9503, Kd = 0.02528, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 0.9498, Kd = 0.02527, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.08 %, settling 0.21 s, phase margin 64.7 deg,
+//   Sampled loop: overshoot 4.08 %, settling 0.211 s, phase margin 64.7 deg,
 //   gain margin 22.2 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB Q6.9, Kp Q6.9, Ad Q0.15, Bd Q8.7, Lo Q0.15, Hi
 //   Q0.15; states: integrator 16, derivative 7, sum 6 fractional bits below
-//   the output LSB; minimum headroom 0.221 bits (derivative state Ud);
+//   the output LSB; minimum headroom 0.222 bits (derivative state Ud);
 //   saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
@@ -58,15 +58,15 @@
 // burrow_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define BURROW_RATE_STAMP 0x19479ead32a37b07
+#define BURROW_RATE_STAMP 0x0cb393584bbdcad1
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pan: coefficients and limits.
-#define BURROW_PAN_B0        ((int16_t)26213) // lead: weight of the current error; Q3.12 = 6.4
-#define BURROW_PAN_B1        ((int16_t)-24197) // lead: weight of the last error; Q3.12 = -5.907
+#define BURROW_PAN_B0        ((int16_t)26332) // lead: weight of the current error; Q3.12 = 6.429
+#define BURROW_PAN_B1        ((int16_t)-24306) // lead: weight of the last error; Q3.12 = -5.934
 #define BURROW_PAN_A1        ((int16_t)-30199) // lead: weight of the last unsaturated output; Q0.15 = -0.9216
 #define BURROW_PAN_OUTPUT_LO ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define BURROW_PAN_OUTPUT_HI ((int16_t)32767) // highest command, raw; Q0.15 = 1
@@ -93,10 +93,10 @@ int16_t burrow_pan_step(burrow_pan_state *s, int16_t setpoint, int16_t measured)
 void burrow_pan_applied(burrow_pan_state *s, int16_t applied);
 
 // Axis yaw: coefficients and limits.
-#define BURROW_YAW_KP        ((int16_t)31138) // P gain on the measurement; Q6.9 = 60.82
-#define BURROW_YAW_KPB       ((int16_t)31138) // P gain on the setpoint; Q6.9 = 60.82
+#define BURROW_YAW_KP        ((int16_t)31122) // P gain on the measurement; Q6.9 = 60.78
+#define BURROW_YAW_KPB       ((int16_t)31122) // P gain on the setpoint; Q6.9 = 60.78
 #define BURROW_YAW_AD        ((int16_t)23871) // derivative filter: pole; Q0.15 = 0.7285
-#define BURROW_YAW_BD        ((int16_t)28116) // derivative filter: gain; Q8.7 = 219.7
+#define BURROW_YAW_BD        ((int16_t)28102) // derivative filter: gain; Q8.7 = 219.5
 #define BURROW_YAW_OUTPUT_LO ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define BURROW_YAW_OUTPUT_HI ((int16_t)32767) // highest command, raw; Q0.15 = 1
 

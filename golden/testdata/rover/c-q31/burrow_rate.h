@@ -8,11 +8,11 @@
 // Rate loop at 500 Hz (T = 0.002 s), compute delay 1 sample; q31 fixed point
 // (input full scale 64, output full scale 1).
 //
-// Axis pan: lead, K = 0.1001, zero -40 rad/s, pole -40.8 rad/s.
+// Axis pan: lead, K = 0.1005, zero -40 rad/s, pole -40.8 rad/s.
 //   discretized tustin; output [-1, 1].
 //   Target: zeta = 0.627, wn = 26.6 rad/s, s* = -16.6 +/- j20.7 rad/s.
-//   Sampled loop: overshoot 0.985 %, settling 0.149 s, phase margin
-//   68.9 deg, gain margin 20.8 dB.
+//   Sampled loop: overshoot 1.03 %, settling 0.148 s, phase margin 68.8 deg,
+//   gain margin 20.8 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
 //   scale*2^31); formats B0 Q3.28, B1 Q3.28, A1 Q0.31, Lo Q0.31, Hi Q0.31;
@@ -20,16 +20,16 @@
 //   output LSB; minimum headroom 0.118 bits (A1*ul (product)); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 0.9503, Kd = 0.02528, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 0.9498, Kd = 0.02527, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.08 %, settling 0.21 s, phase margin 64.7 deg,
+//   Sampled loop: overshoot 4.08 %, settling 0.211 s, phase margin 64.7 deg,
 //   gain margin 22.2 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
 //   scale*2^31); formats KpB Q6.25, Kp Q6.25, Ad Q0.31, Bd Q8.23, Lo Q0.31,
 //   Hi Q0.31; states: integrator 32, derivative 23, sum 22 fractional bits
-//   below the output LSB; minimum headroom 0.221 bits (derivative state Ud);
+//   below the output LSB; minimum headroom 0.222 bits (derivative state Ud);
 //   saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
@@ -58,15 +58,15 @@
 // burrow_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define BURROW_RATE_STAMP 0xe574a9609f76b0b5
+#define BURROW_RATE_STAMP 0x7fbd5a6529ef6ba5
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pan: coefficients and limits.
-#define BURROW_PAN_B0        ((int32_t)1717893743) // lead: weight of the current error; Q3.28 = 6.4
-#define BURROW_PAN_B1        ((int32_t)-1585748071) // lead: weight of the last error; Q3.28 = -5.907
+#define BURROW_PAN_B0        ((int32_t)1725685007) // lead: weight of the current error; Q3.28 = 6.429
+#define BURROW_PAN_B1        ((int32_t)-1592940007) // lead: weight of the last error; Q3.28 = -5.934
 #define BURROW_PAN_A1        ((int32_t)-1979118289) // lead: weight of the last unsaturated output; Q0.31 = -0.9216
 #define BURROW_PAN_OUTPUT_LO ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define BURROW_PAN_OUTPUT_HI ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
@@ -93,10 +93,10 @@ int32_t burrow_pan_step(burrow_pan_state *s, int32_t setpoint, int32_t measured)
 void burrow_pan_applied(burrow_pan_state *s, int32_t applied);
 
 // Axis yaw: coefficients and limits.
-#define BURROW_YAW_KP        ((int32_t)2040653341) // P gain on the measurement; Q6.25 = 60.82
-#define BURROW_YAW_KPB       ((int32_t)2040653341) // P gain on the setpoint; Q6.25 = 60.82
+#define BURROW_YAW_KP        ((int32_t)2039592747) // P gain on the measurement; Q6.25 = 60.78
+#define BURROW_YAW_KPB       ((int32_t)2039592747) // P gain on the setpoint; Q6.25 = 60.78
 #define BURROW_YAW_AD        ((int32_t)1564419297) // derivative filter: pole; Q0.31 = 0.7285
-#define BURROW_YAW_BD        ((int32_t)1842636816) // derivative filter: gain; Q8.23 = 219.7
+#define BURROW_YAW_BD        ((int32_t)1841679138) // derivative filter: gain; Q8.23 = 219.5
 #define BURROW_YAW_OUTPUT_LO ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define BURROW_YAW_OUTPUT_HI ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
 

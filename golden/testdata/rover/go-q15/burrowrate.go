@@ -8,11 +8,11 @@
 // Rate loop at 500 Hz (T = 0.002 s), compute delay 1 sample; q15 fixed point
 // (input full scale 64, output full scale 1).
 //
-// Axis pan: lead, K = 0.1001, zero -40 rad/s, pole -40.8 rad/s.
+// Axis pan: lead, K = 0.1005, zero -40 rad/s, pole -40.8 rad/s.
 //   discretized tustin; output [-1, 1].
 //   Target: zeta = 0.627, wn = 26.6 rad/s, s* = -16.6 +/- j20.7 rad/s.
-//   Sampled loop: overshoot 0.985 %, settling 0.149 s, phase margin
-//   68.9 deg, gain margin 20.8 dB.
+//   Sampled loop: overshoot 1.03 %, settling 0.148 s, phase margin 68.8 deg,
+//   gain margin 20.8 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats B0 Q3.12, B1 Q3.12, A1 Q0.15, Lo Q0.15, Hi Q0.15;
@@ -20,16 +20,16 @@
 //   output LSB; minimum headroom 0.118 bits (A1*ul (product)); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 0.9503, Kd = 0.02528, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 0.9498, Kd = 0.02527, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.08 %, settling 0.21 s, phase margin 64.7 deg,
+//   Sampled loop: overshoot 4.08 %, settling 0.211 s, phase margin 64.7 deg,
 //   gain margin 22.2 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB Q6.9, Kp Q6.9, Ad Q0.15, Bd Q8.7, Lo Q0.15, Hi
 //   Q0.15; states: integrator 16, derivative 7, sum 6 fractional bits below
-//   the output LSB; minimum headroom 0.221 bits (derivative state Ud);
+//   the output LSB; minimum headroom 0.222 bits (derivative state Ud);
 //   saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
@@ -57,8 +57,8 @@ package burrowrate
 
 // Coefficients and limits of axis pan.
 const (
-	PanB0       int16 = 26213  // lead: weight of the current error; Q3.12 = 6.4
-	PanB1       int16 = -24197 // lead: weight of the last error; Q3.12 = -5.907
+	PanB0       int16 = 26332  // lead: weight of the current error; Q3.12 = 6.429
+	PanB1       int16 = -24306 // lead: weight of the last error; Q3.12 = -5.934
 	PanA1       int16 = -30199 // lead: weight of the last unsaturated output; Q0.15 = -0.9216
 	PanOutputLo int16 = -32768 // lowest command, raw; Q0.15 = -1
 	PanOutputHi int16 = 32767  // highest command, raw; Q0.15 = 1
@@ -106,10 +106,10 @@ func (c *Pan) Applied(applied int16) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       int16 = 31138  // P gain on the measurement; Q6.9 = 60.82
-	YawKpB      int16 = 31138  // P gain on the setpoint; Q6.9 = 60.82
+	YawKp       int16 = 31122  // P gain on the measurement; Q6.9 = 60.78
+	YawKpB      int16 = 31122  // P gain on the setpoint; Q6.9 = 60.78
 	YawAd       int16 = 23871  // derivative filter: pole; Q0.15 = 0.7285
-	YawBd       int16 = 28116  // derivative filter: gain; Q8.7 = 219.7
+	YawBd       int16 = 28102  // derivative filter: gain; Q8.7 = 219.5
 	YawOutputLo int16 = -32768 // lowest command, raw; Q0.15 = -1
 	YawOutputHi int16 = 32767  // highest command, raw; Q0.15 = 1
 )
