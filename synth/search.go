@@ -2088,14 +2088,7 @@ func (sr *searcher) rescueGrids(cl cand, step []float64, judge judgeFunc, stop i
 		if moved {
 			continue
 		}
-		small := true
-		for d := range h {
-			h[d] /= 2
-			if h[d] >= polishStep {
-				small = false
-			}
-		}
-		if small {
+		if halve(h, polishStep) {
 			return nil
 		}
 	}
@@ -2182,14 +2175,7 @@ func (sr *searcher) polish(best cand, step []float64, judge judgeFunc) (cand, er
 		if moved {
 			continue
 		}
-		small := true
-		for d := range h {
-			h[d] /= 2
-			if h[d] >= polishStep {
-				small = false
-			}
-		}
-		if small {
+		if halve(h, polishStep) {
 			break
 		}
 	}
@@ -2200,6 +2186,19 @@ func (sr *searcher) polish(best cand, step []float64, judge judgeFunc) (cand, er
 // nearStep, since the passing set's ridges are narrower than the pattern
 // search's last step.
 const polishStep = 0.001
+
+// halve halves every step of h and reports whether all are now below
+// least.
+func halve(h []float64, least float64) bool {
+	small := true
+	for d := range h {
+		h[d] /= 2
+		if h[d] >= least {
+			small = false
+		}
+	}
+	return small
+}
 
 // cube returns the points of {−1, 0, 1}ⁿ but the origin.
 func cube(n int) [][]float64 {
@@ -2317,14 +2316,7 @@ func (sr *searcher) pattern(u []float64, grid []float64, try func(u []float64) (
 		if moved {
 			continue
 		}
-		small := true
-		for d := range h {
-			h[d] /= 2
-			if h[d] >= nearStep {
-				small = false
-			}
-		}
-		if small {
+		if halve(h, nearStep) {
 			return nil
 		}
 	}
