@@ -291,7 +291,10 @@ func fixedConsts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
 	}
 	for i := range f.DSections {
 		q := &f.DSections[i]
-		if q.FIn < 0 || q.F < 0 || q.F > 2*w-2 || q.F < f.FU {
+		// Each section's output format is the next one's input; only the
+		// last one's reaches the sum, shifted right to its format FU.
+		last := i == len(f.DSections)-1
+		if q.FIn < 0 || q.F < 0 || q.F > 2*w-2 || last && q.F < f.FU {
 			return fmt.Errorf("derivative filter %d: format shifts FIn %d, F %d (sum %d)", i+1, q.FIn, q.F, f.FU)
 		}
 		n := i + 1
@@ -302,7 +305,9 @@ func fixedConsts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
 		}
 		section(&cf, "D", "derivative filter", q)
 		ax.DFilters = append(ax.DFilters, cf)
-		fx.ShDF = q.F - f.FU
+	}
+	if n := len(f.DSections); n > 0 {
+		fx.ShDF = f.DSections[n-1].F - f.FU
 	}
 	if err != nil {
 		return err

@@ -8,6 +8,7 @@ import (
 	"strings"
 	"testing"
 
+	"locusmith/airframe"
 	"locusmith/discrete"
 	"locusmith/emit"
 	"locusmith/emit/review"
@@ -173,6 +174,79 @@ width_hz = 0.001
 		}
 		if tc.code == 1 && !strings.Contains(out, "overflow: derivative filter 1 (notch 100 Hz, -3 dB width 0.001 Hz) is not stable with its q15 coefficients") {
 			t.Errorf("%s: the overflow is not named:\n%s", tc.nt, out)
+		}
+	}
+}
+
+// TestFixedDFilterMiddleFormat: derivative filters where a middle
+// section's output format lies below the format of the sum (a lightly
+// damped lowpass at 480 Hz before one at 10 Hz; demo data). Only the last
+// section's output reaches the sum (the reference model shifts it from
+// its own format), so the generator takes such a chain; it used to refuse
+// it ("format shifts") although design passed it. The C program's vectors
+// match the model bit for bit, in q15 and q31.
+func TestFixedDFilterMiddleFormat(t *testing.T) {
+	t.Parallel()
+	cc := hostCompilers(t)[0]
+	for _, nt := range []string{"q15", "q31"} {
+		src := `airframe = "dfmid"
+description = "demo data: invented axis whose derivative filters change format mid-chain; not a real vehicle"
+loop_hz = 1000.0
+
+[numeric]
+type = "` + nt + `"
+input_full_scale = 64.0
+output_full_scale = 1.0
+
+[axes.roll.plant]
+effectiveness = 2000.0
+motor_tau = 0.03
+delay = 0.002
+
+[axes.roll.sensor]
+lowpass_hz = 100.0
+
+[axes.roll.spec]
+settling_time = 0.25
+overshoot = 0.10
+
+[axes.roll.control]
+form = "pid"
+antiwindup = "clamp"
+output_limit = [-0.5, 0.5]
+
+[[axes.roll.filter]]
+kind = "lowpass"
+at = "derivative"
+hz = 480
+damping = 0.1
+
+[[axes.roll.filter]]
+kind = "lowpass"
+at = "derivative"
+hz = 10
+`
+		f, err := airframe.Parse("dfmid.toml", []byte(src))
+		if err != nil {
+			t.Fatal(err)
+		}
+		a := discrete.DesignAirframe(f)
+		d := a.Axes[0].Design
+		if d == nil || !d.OK() {
+			t.Fatalf("%s: not designed or unmet: %v", nt, a.Axes[0].Err)
+		}
+		fx := d.Num.Fixed
+		if len(fx.DSections) != 2 || fx.DSections[0].F >= fx.FU {
+			t.Fatalf("%s: the case does not test a middle section below the sum's format: %+v, FU %d", nt, fx.DSections, fx.FU)
+		}
+		srcs, _, err := emit.GenerateCode(a, emit.CodeOptions{Lang: emit.LangC, Vectors: true})
+		if err != nil {
+			t.Fatalf("%s: %v", nt, err)
+		}
+		ctrl, vec := cFiles(srcs)
+		dir := buildC(t, cc, append(append([]string{}, strictC...), "-O2"), srcs, append(vec, ctrl...))
+		if out := run(t, dir, filepath.Join(dir, "prog")); !strings.Contains(out, "vectors match") {
+			t.Errorf("%s: %s", nt, out)
 		}
 	}
 }
