@@ -70,14 +70,7 @@ func (d *Design) FailedChecks() []string {
 }
 
 // OK reports whether every check passed.
-func (d *Design) OK() bool {
-	for _, c := range d.Checks {
-		if !c.OK {
-			return false
-		}
-	}
-	return true
-}
+func (d *Design) OK() bool { return checksOK(d.Checks) }
 
 // Sampling rules of thumb (Åström & Wittenmark, Computer-Controlled
 // Systems, choice of sampling period, from memory): ωc·T between about
@@ -327,8 +320,13 @@ func (d *Design) mend(cp airframe.Axis, L *Loops) error {
 	}
 	if q, ok := tightened(cp, origChecks); ok {
 		saved := *cd
+		// Under the noise bound in force, not a default of its own.
+		q.Spec.MaxNoiseGain = d.noiseBound()
 		if again, err := synth.DesignAxis(q, L); err == nil && again.Met && again.Refined {
+			// Reported against the file's spec, with the bound it had.
 			again.Problem = cp
+			again.Recheck()
+			again.Search.NoiseBound = saved.Search.NoiseBound
 			*cd = *again
 			if err := d.realize(); err != nil {
 				return err

@@ -439,5 +439,12 @@ func knownShort() map[string]float64 {
 		// its Ki and b = 0.625 alone: Ki ×0.95 to ×1.02, or b
 		// ± 0.025, settle in 0.28–0.45 s against 0.2 s.
 		"hexa_noise_pitch": 0.518,
+		// pid: 58.8 %. The search's designs of the largest Ki pass its
+		// grid's Ms but exceed Ms 1.7 by about 0.1 % in the exact
+		// verification, where a lower Ki misses the settling limit; the
+		// search again under Ms tightened past the exact figure (and
+		// the same noise bound) finds Ki 1.59, where the reference's best
+		// (Ki 2.70) lies just inside the untightened bound.
+		"winch_slow_pid": 0.583,
 	}
 }

@@ -154,11 +154,17 @@ func verifyStage(p airframe.Axis, t Target, c Controller, margins bool) (Stage, 
 
 // finish fills the checks and collects warnings of the chosen stage.
 func (d *Design) finish() {
-	d.Checks = SpecChecks(d.Problem.Spec, d.Verif.Stable, maxReal(d.Verif.Poles), d.Verif.Step.Overshoot, d.Verif.Step.Settling, d.Verif.Margins.PhaseDeg, d.Verif.Margins.GainDB)
+	d.Recheck()
 	d.Warnings = append(d.Warnings, d.Verif.Warnings...)
 	if e := d.Verif.SteadyStateError; d.Verif.Stable && math.Abs(e) > d.Problem.Spec.Band {
 		d.Warnings = append(d.Warnings, fmt.Sprintf("steady-state error %.3g %% of the setpoint (the %s form has no integral action on this plant); the settling check is against the final value", 100*e, d.Problem.Ctrl.Form))
 	}
+}
+
+// Recheck judges the chosen stage against Problem's spec again, for a
+// design whose Problem was replaced after the search.
+func (d *Design) Recheck() {
+	d.Checks = SpecChecks(d.Problem.Spec, d.Verif.Stable, maxReal(d.Verif.Poles), d.Verif.Step.Overshoot, d.Verif.Step.Settling, d.Verif.Margins.PhaseDeg, d.Verif.Margins.GainDB)
 }
 
 func maxReal(ps []complex128) float64 {
