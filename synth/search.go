@@ -2022,9 +2022,10 @@ func (sr *searcher) descend(cl cand, step []float64, judge judgeFunc) error {
 // the brute-force reference, with the closest design a fraction of a per
 // cent from them) lies between their steps.
 func (sr *searcher) rescue(cl cand, step []float64, judge judgeFunc, budget int) error {
-	stop := sr.fineLeft - budget
-	start := cl
-	if err := sr.rescueGrids(cl, step, judge, stop); err != nil || sr.haveOK {
+	stop := max(sr.fineLeft-budget, 0)
+	done := func() bool { return sr.haveOK || sr.fineLeft <= stop }
+	lower := func(c, cur cand) bool { return c.viol < cur.viol }
+	if _, err := sr.localGrids(cl, step, judge, lower, nil, done, math.MaxInt); err != nil || sr.haveOK {
 		return err
 	}
 	// Then the near miss's own line of x, finely: a window of passing x
@@ -2032,10 +2033,10 @@ func (sr *searcher) rescue(cl cand, step []float64, judge judgeFunc, budget int)
 	// ripple of the response leaves the band) lies across the descent's
 	// path, which a local grid's first step jumps over (a p, whose only
 	// parameter is x, had one 2 % above its closest design).
-	pt := start.pt
+	pt := cl.pt
 	sr.basis(pt.th)
-	lo, hi := start.x/rescueSpan, math.Min(start.x*rescueSpan, pt.xf)
-	for x := lo; x <= hi && !sr.haveOK && sr.fineLeft > max(stop, 0); x *= rescueStep {
+	lo, hi := cl.x/rescueSpan, math.Min(cl.x*rescueSpan, pt.xf)
+	for x := lo; x <= hi && !done(); x *= rescueStep {
 		if _, err := judge(pt, x, false, nil); err != nil {
 			return err
 		}
@@ -2049,51 +2050,6 @@ const (
 	rescueSpan = 1.25
 	rescueStep = 1.0025
 )
-
-// rescueGrids is rescue's local grids, while sr.fineLeft is above stop.
-func (sr *searcher) rescueGrids(cl cand, step []float64, judge judgeFunc, stop int) error {
-	n := len(cl.pt.u)
-	h := make([]float64, n+1)
-	for d := 0; d < n; d++ {
-		h[d] = step[d] / 4
-	}
-	h[n] = 0.02 // the gain, in decades (4.7 %)
-	for !sr.haveOK && sr.fineLeft > max(stop, 0) {
-		moved := false
-		for _, dir := range cube(n + 1) {
-			if sr.haveOK || sr.fineLeft <= max(stop, 0) {
-				return nil
-			}
-			u := slices.Clone(cl.pt.u)
-			for d := 0; d < n; d++ {
-				u[d] += float64(dir[d] * h[d])
-			}
-			if len(sr.fam.floor) > 0 && u[0] < sr.fam.floor[0] {
-				continue
-			}
-			x := cl.x * lti.Pow(10, dir[n]*h[n])
-			pt := sr.screen(u)
-			if !(pt.xf > 0) || x > pt.xf {
-				continue
-			}
-			sr.basis(pt.th)
-			c, err := judge(pt, x, false, nil)
-			if err != nil {
-				return err
-			}
-			if c.viol < cl.viol {
-				cl, moved = c, true
-			}
-		}
-		if moved {
-			continue
-		}
-		if halve(h, polishStep) {
-			return nil
-		}
-	}
-	return nil
-}
 
 // climb judges shape pt at x0 and, when it passes, climbs its line of x by
 // factors of 1.08 up to the frequency checks' largest x, then narrows the
@@ -2140,46 +2096,63 @@ func (sr *searcher) climb(pt *point, x0 float64, judge judgeFunc) (cand, error) 
 // gain its line search stepped over. Each local grid has three points per
 // parameter (the centre and a step either side, in log units); it is laid
 // again around each better design found, and at half the step when none,
-// down to nearStep. Only points whose gain beats the best are judged.
+// down to polishStep (localGrids). Only points whose gain beats the best
+// are judged.
 func (sr *searcher) polish(best cand, step []float64, judge judgeFunc) (cand, error) {
-	n := len(best.pt.u)
+	beats := func(c, cur cand) bool { return c.ok && c.gain > cur.gain*(1+1e-6) }
+	skip := func(pt *point, x float64, cur cand) bool { return sr.fam.gain(pt.th, x) <= cur.gain*(1+1e-6) }
+	return sr.localGrids(best, step, judge, beats, skip, nil, 60)
+}
+
+// localGrids walks from c over local grids in the shape and the gain
+// together: three points per parameter (the centre and a step either
+// side, in log units; a quarter of the pattern search's step in the
+// shape, 0.02 decades in the gain), each point that better finds better
+// than the current one becoming the current one, the grid laid again
+// around the current one after a move and at half the step when none,
+// down to polishStep, for at most grids grids. skip (nil: none) leaves a
+// point unjudged; done (nil: never) ends the walk. It returns the current
+// design at the end.
+func (sr *searcher) localGrids(c cand, step []float64, judge judgeFunc, better func(c, cur cand) bool,
+	skip func(pt *point, x float64, cur cand) bool, done func() bool, grids int) (cand, error) {
+	n := len(c.pt.u)
 	h := make([]float64, n+1)
 	for d := 0; d < n; d++ {
 		h[d] = step[d] / 4
 	}
 	h[n] = 0.02 // the gain, in decades (4.7 %)
-	for grids := 0; grids < 60; grids++ {
+	for g := 0; g < grids && (done == nil || !done()); g++ {
 		moved := false
 		for _, dir := range cube(n + 1) {
-			u := slices.Clone(best.pt.u)
+			if done != nil && done() {
+				return c, nil
+			}
+			u := slices.Clone(c.pt.u)
 			for d := 0; d < n; d++ {
 				u[d] += float64(dir[d] * h[d])
 			}
-			x := best.x * lti.Pow(10, dir[n]*h[n])
 			if len(sr.fam.floor) > 0 && u[0] < sr.fam.floor[0] {
 				continue
 			}
+			x := c.x * lti.Pow(10, dir[n]*h[n])
 			pt := sr.screen(u)
-			if !(pt.xf > 0) || x > pt.xf || sr.fam.gain(pt.th, x) <= best.gain*(1+1e-6) {
+			if !(pt.xf > 0) || x > pt.xf || skip != nil && skip(pt, x, c) {
 				continue
 			}
 			sr.basis(pt.th)
-			c, err := judge(pt, x, false, nil)
+			cd, err := judge(pt, x, false, nil)
 			if err != nil {
-				return best, err
+				return c, err
 			}
-			if c.ok && c.gain > best.gain*(1+1e-6) {
-				best, moved = c, true
+			if better(cd, c) {
+				c, moved = cd, true
 			}
 		}
-		if moved {
-			continue
-		}
-		if halve(h, polishStep) {
+		if !moved && halve(h, polishStep) {
 			break
 		}
 	}
-	return best, nil
+	return c, nil
 }
 
 // polishStep is the last step of polish, in decades (0.23 %): a third of
