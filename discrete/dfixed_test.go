@@ -485,12 +485,13 @@ func TestFixedDFilterAgainstSciPy(t *testing.T) {
 			f.Step(&s, 0, y)
 			worst = math.Max(worst, math.Abs(float64(s.D[last][2])*fl-out.Y[i]))
 		}
-		// lfilter's own rounding: float64 on terms of a few full scales
-		// times the path's gain (below 2^12 output LSB per input LSB
-		// here), some ten operations a sample per stage, through
-		// recursions of ℓ1 gain below 2^8: below 2^−20 of the full scale
-		// in output LSB (3·10^−2 in q15, far below it in practice).
-		lim := c.re.DFilterNoiseLSB + math.Ldexp(m*gs[len(gs)-1].lin[len(gs[len(gs)-1].lin)-1], -30)
+		// lfilter's own rounding: float64 (2^−53 relative) on terms of a
+		// few full scales times the path's gain (the last ℓ1 gain of the
+		// range table, in output LSB per input LSB), some ten operations
+		// a sample per stage, through recursions of ℓ1 gain below 2^8:
+		// below 2^−40 of the full scale times that gain, as for the
+		// feedback chain (TestFixedFilterAgainstSciPy).
+		lim := c.re.DFilterNoiseLSB + math.Ldexp(m*gs[len(gs)-1].lin[len(gs[len(gs)-1].lin)-1], -40)
 		if worst > lim {
 			t.Errorf("%s: integer D path vs SciPy: %.4g LSB > proved rounding bound %.4g", c.name, worst, lim)
 		}

@@ -28,10 +28,12 @@ import (
 func TestFixedDFilterHeaderAndJSON(t *testing.T) {
 	for _, nt := range []string{"q15", "q31"} {
 		a := formsDesign(t, nt)
+		seen := 0
 		for _, x := range a.Axes {
 			if x.Name != "pid_dfilt" && x.Name != "pd_dfilt" {
 				continue
 			}
+			seen++
 			d := x.Design
 			if d == nil || !d.OK() {
 				t.Fatalf("%s %s: not designed or unmet", nt, x.Name)
@@ -48,6 +50,9 @@ func TestFixedDFilterHeaderAndJSON(t *testing.T) {
 					t.Errorf("%s %s: check %s missing or failing", nt, x.Name, want)
 				}
 			}
+		}
+		if seen != 2 {
+			t.Fatalf("%s: %d axes with derivative filters in the forms airframe, want pid_dfilt and pd_dfilt", nt, seen)
 		}
 		srcs, _, err := emit.GenerateCode(a, emit.CodeOptions{Lang: emit.LangC, AllowUnmet: true})
 		if err != nil {
@@ -90,10 +95,12 @@ func TestFixedDFilterHeaderAndJSON(t *testing.T) {
 		if err := review.WriteTable(&table, a); err != nil {
 			t.Fatal(err)
 		}
+		judged := 0
 		for _, x := range review.JSON([]*discrete.Airframe{a}).Airframes[0].Axes {
 			if !strings.Contains(x.Axis, "dfilt") {
 				continue
 			}
+			judged++
 			v := x.Numeric.DerivativeFilterNoiseLSB
 			if v == nil || !(*v > 0) {
 				t.Errorf("%s %s: derivative_filter_noise_lsb %v, want the proved bound", nt, x.Axis, v)
@@ -106,6 +113,9 @@ func TestFixedDFilterHeaderAndJSON(t *testing.T) {
 			if want := "derivative filters: rounding in the D term at most " + synth.G4(*v) + " output LSB"; !strings.Contains(table.String(), want) {
 				t.Errorf("%s %s: the table lacks %q", nt, x.Axis, want)
 			}
+		}
+		if judged != 2 {
+			t.Errorf("%s: the JSON has %d axes with derivative filters, want 2", nt, judged)
 		}
 		files, err := review.Build(a)
 		if err != nil {

@@ -204,7 +204,8 @@ var compilers = map[string]bool{"gcc": true, "cc": true, "clang": true, "arm-non
 // arguments (dir written as "."), and the bytes of every .c and .h file in
 // dir (what #include "..." can read) and of every file an argument names
 // besides the product; system headers and libraries do not change while
-// the tests run.
+// the tests run. Compiles with inputs or outputs beyond these are not
+// cached.
 func compiled(dir, name string, args []string) (string, bool, error) {
 	if !compilers[filepath.Base(name)] {
 		return "", false, nil
@@ -218,6 +219,19 @@ func compiled(dir, name string, args []string) (string, bool, error) {
 	if prod == "" || filepath.IsAbs(prod) || strings.Contains(prod, "..") {
 		// Only products inside dir (not /dev/null, say).
 		return "", false, nil
+	}
+	for _, a := range args {
+		// Inputs the key cannot see (include directories, linker
+		// scripts and options, dependency files, debug paths): run such
+		// a compile every time.
+		for _, p := range []string{"-I", "-include", "-T", "-M", "-g", "-save-temps", "--coverage", "-fstack-usage"} {
+			if strings.HasPrefix(a, p) {
+				return "", false, nil
+			}
+		}
+		if strings.HasPrefix(a, "-Wl,") && a != "-Wl,--no-warn-rwx-segments" {
+			return "", false, nil
+		}
 	}
 	h := sha256.New()
 	fmt.Fprintf(h, "%q\n", name)
