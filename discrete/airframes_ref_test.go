@@ -647,11 +647,9 @@ output_limit = [-1.0, 1.0]
 `},
 		// Found among random airframes of our own, judged infeasible by the
 		// tool and feasible by this reference: a PID whose search designs
-		// all exceed Ms by about 0.1 % in the exact verification, where a
-		// lower Ki misses the settling limit; the search again under a
-		// tightened Ms makes it pass, short of the reference's Ki
-		// (knownShort; the first of its other passing designs that passes
-		// everything had 39 %).
+		// all exceeded Ms by about 0.1 % in the exact verification (the
+		// search judged Ms on its grid then), where a lower Ki misses the
+		// settling limit; short of the reference's Ki (knownShort).
 		{"winch_slow_pid", `
 airframe = "winch_slow_pid"
 description = "demo data: invented winch drive with a slow motor at a 4 kHz loop under a PID; not a real vehicle"

@@ -200,6 +200,31 @@ func (l *Loops) Ctrl(c synth.Controller, out []complex128) {
 	}
 }
 
+// OpenAt is Open at the frequency w (rad/s), off the grid.
+func (l *Loops) OpenAt(i int, w float64) complex128 {
+	pl := l.plants[i]
+	D := float64(l.d + pl.Delay)
+	return lti.Mul(pl.evalUnfiltered(complexExp(w*l.T)), complexExp(-D*w*l.T))
+}
+
+// CtrlAt returns Ctrl's C·F of c at any frequency w (rad/s), off the grid.
+func (l *Loops) CtrlAt(c synth.Controller) func(w float64) complex128 {
+	k, err := l.realizeLinear(c)
+	pl := l.plants[0]
+	return func(w float64) complex128 {
+		if err != nil {
+			return cmplx.NaN()
+		}
+		z := complexExp(w * l.T)
+		n, d := feedbackRatio(k, cmplx.Conj(z))
+		v := lti.Div(n, d)
+		if l.filt != nil {
+			v = lti.Mul(v, pl.Filter(z))
+		}
+		return v
+	}
+}
+
 // Stable reports whether the sampled loop of c at corner i is stable.
 func (l *Loops) Stable(c synth.Controller, i int) (bool, error) {
 	k, err := l.realize(c)

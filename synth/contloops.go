@@ -117,6 +117,14 @@ func (l *contLoops) Ctrl(c Controller, out []complex128) {
 	}
 }
 
+func (l *contLoops) OpenAt(i int, w float64) complex128 {
+	return l.axes[i].OpenLoop(complex(0, w))
+}
+
+func (l *contLoops) CtrlAt(c Controller) func(w float64) complex128 {
+	return func(w float64) complex128 { return c.Eval(complex(0, w)) }
+}
+
 func (l *contLoops) Stable(c Controller, i int) (bool, error) {
 	cl, err := newClosedLoop(l.axes[i], c)
 	if err != nil {

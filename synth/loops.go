@@ -36,6 +36,11 @@ type Loops interface {
 	// (len(out) = len(Grid())). C is linear in the gains (Kp, Ki, Kd, or
 	// K for a lead of fixed zero and pole), which the search relies on.
 	Ctrl(c Controller, out []complex128)
+	// OpenAt is Open at any frequency w (rad/s) of the grid's span, and
+	// CtrlAt returns Ctrl's C at any such frequency: a sensitivity peak
+	// falls between grid points, where the search refines it.
+	OpenAt(i int, w float64) complex128
+	CtrlAt(c Controller) func(w float64) complex128
 	// Stable reports whether the closed loop of c at corner i is stable,
 	// by an exact test.
 	Stable(c Controller, i int) (bool, error)

@@ -8,7 +8,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x7fbd5a6529ef6ba5
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x79c0e5f2649fdf6b
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

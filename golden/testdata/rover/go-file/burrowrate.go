@@ -17,11 +17,11 @@
 //   Numeric: float64, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pd, Kp = 0.9498, Kd = 0.02527, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 0.9541, Kd = 0.0255, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.08 %, settling 0.211 s, phase margin 64.7 deg,
-//   gain margin 22.2 dB.
+//   Sampled loop: overshoot 4.08 %, settling 0.21 s, phase margin 64.7 deg,
+//   gain margin 22.1 dB.
 //   Checks: all met.
 //   Numeric: float64, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -128,10 +128,10 @@ func (c *Pan) Faults() uint32 {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       float64 = 0.9497593841       // P gain on the measurement
-	YawKpB      float64 = 0.9497593841       // P gain on the setpoint (setpoint weight b times Kp)
+	YawKp       float64 = 0.9541084108       // P gain on the measurement
+	YawKpB      float64 = 0.9541084108       // P gain on the setpoint (setpoint weight b times Kp)
 	YawAd       float64 = 0.7284895036846828 // derivative filter: pole
-	YawBd       float64 = 3.4303947120059686 // derivative filter: gain
+	YawBd       float64 = 3.4616356138419615 // derivative filter: gain
 	YawOutputLo float64 = -1.0               // lowest command
 	YawOutputHi float64 = 1.0                // highest command
 )
