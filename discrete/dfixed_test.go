@@ -665,3 +665,42 @@ func TestFixedDFilterUnprovable(t *testing.T) {
 		}
 	}
 }
+
+// TestSectionOverflowMessages: the overflow message of a section's
+// quantity names the chain, the section with its figures, the bound and
+// the word, and the chain's own ways out: the feedback chain's (a wider
+// notch or a higher cutoff), the derivative chain's with its full-scale
+// ratio too (the derivative's gain acts in raw units times in_fs/out_fs);
+// q31 is offered below 32 bits only.
+func TestSectionOverflowMessages(t *testing.T) {
+	lp, err := lti.Lowpass2(200, 0.7071, 1000)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, w := range []int{16, 32} {
+		p := filterAxis()
+		p.Filters = []airframe.Filter{{Kind: airframe.FilterLowpass, At: "feedback", Hz: 200, Order: 2, Damping: 0.7071}}
+		p.Ctrl.DerivativeFilters = []airframe.Filter{{Kind: airframe.FilterLowpass, At: "derivative", Hz: 200, Order: 2, Damping: 0.7071}}
+		nt := airframe.Q15
+		if w == 32 {
+			nt = airframe.Q31
+		}
+		fp := &fixedPlan{d: &Design{Problem: p, Numeric: airframe.Numeric{Type: nt}}, w: w, fin: 20, fout: 0.5,
+			f: Fixed{Sections: []FixedSection{quantizeSection(lp, w)}, DSections: []FixedSection{quantizeSection(lp, w)}}}
+		q31 := `numeric.type = "q31" (32-bit data, 64-bit accumulators), or `
+		if w == 32 {
+			q31 = ""
+		}
+		for _, c := range []struct{ name, want string }{
+			{"filter 1 sum", "overflow: filter 1 (" + p.Filters[0].Describe() + ") sum can reach 40000 but its 16-bit word holds 32767 (Q3.12); way out: " +
+				q31 + "a wider notch or a higher cutoff (poles further from the unit circle)"},
+			{"derivative filter 1 sum", "overflow: derivative filter 1 (" + p.Ctrl.DerivativeFilters[0].Describe() + ") sum can reach 40000 but its 16-bit word holds 32767 (Q3.12); way out: " +
+				q31 + "a wider notch or a higher cutoff (poles further from the unit circle), or a smaller numeric.input_full_scale or a larger numeric.output_full_scale (the derivative's gain acts in raw units times in_fs/out_fs = 40)"},
+		} {
+			got := fp.overflowMsg(Range{Name: c.name, Bound: 40000, Capacity: 32767, Format: "Q3.12"})
+			if got != c.want {
+				t.Errorf("%d bits, %s:\n got %s\nwant %s", w, c.name, got, c.want)
+			}
+		}
+	}
+}

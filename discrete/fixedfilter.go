@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 
+	"locusmith/airframe"
 	"locusmith/internal/lti"
 )
 
@@ -577,44 +578,24 @@ func (p *fixedPlan) sectionTable() []Coefficient {
 	return rows
 }
 
-// filterOverflowMsg says which quantity of which filter section may wrap
-// around, and the ways out.
-func (p *fixedPlan) filterOverflowMsg(r Range) string {
+// sectionOverflowMsg says which quantity of which section of a chain may
+// wrap around, and the ways out: head names the chain's sections
+// ("filter", "derivative filter"), fs and qs are the chain's filters and
+// its sections as the code holds them.
+func (p *fixedPlan) sectionOverflowMsg(r Range, head string, fs []airframe.Filter, qs []FixedSection, wayOut string) string {
 	var k int
-	what := ""
-	if _, err := fmt.Sscanf(r.Name, "filter %d", &k); err == nil && k >= 1 && k <= len(p.d.Problem.Filters) {
-		what = " (" + p.d.Problem.Filters[k-1].Describe() + ")"
-		if k <= len(p.f.Sections) && !p.f.Sections[k-1].Stable() {
-			return fmt.Sprintf("overflow: filter %d%s is not stable with its %s coefficients (poles on or outside the unit circle), so %s has no bound; way out: %s",
-				k, what, p.d.Numeric.Type, r.Name, p.filterWayOut())
-		}
-	}
 	name := r.Name
-	if what != "" {
-		head := fmt.Sprintf("filter %d", k)
-		name = head + what + name[len(head):]
+	if _, err := fmt.Sscanf(r.Name, head+" %d", &k); err == nil && k >= 1 && k <= len(fs) {
+		what := " (" + fs[k-1].Describe() + ")"
+		if k <= len(qs) && !qs[k-1].Stable() {
+			return fmt.Sprintf("overflow: %s %d%s is not stable with its %s coefficients (poles on or outside the unit circle), so %s has no bound; way out: %s",
+				head, k, what, p.d.Numeric.Type, r.Name, wayOut)
+		}
+		lead := fmt.Sprintf("%s %d", head, k)
+		name = lead + what + name[len(lead):]
 	}
 	return fmt.Sprintf("overflow: %s can reach %s but its %s word holds %s (%s); way out: %s",
-		name, fmtNum(r.Bound), bitsName(r.Capacity), fmtNum(r.Capacity), r.Format, p.filterWayOut())
-}
-
-// dfilterOverflowMsg is filterOverflowMsg for the derivative sections.
-func (p *fixedPlan) dfilterOverflowMsg(r Range) string {
-	var k int
-	what := ""
-	fs := p.d.Problem.Ctrl.DerivativeFilters
-	name := r.Name
-	if _, err := fmt.Sscanf(r.Name, "derivative filter %d", &k); err == nil && k >= 1 && k <= len(fs) {
-		what = " (" + fs[k-1].Describe() + ")"
-		if k <= len(p.f.DSections) && !p.f.DSections[k-1].Stable() {
-			return fmt.Sprintf("overflow: derivative filter %d%s is not stable with its %s coefficients (poles on or outside the unit circle), so %s has no bound; way out: %s",
-				k, what, p.d.Numeric.Type, r.Name, p.dfilterWayOut())
-		}
-		head := fmt.Sprintf("derivative filter %d", k)
-		name = head + what + name[len(head):]
-	}
-	return fmt.Sprintf("overflow: %s can reach %s but its %s word holds %s (%s); way out: %s",
-		name, fmtNum(r.Bound), bitsName(r.Capacity), fmtNum(r.Capacity), r.Format, p.dfilterWayOut())
+		name, fmtNum(r.Bound), bitsName(r.Capacity), fmtNum(r.Capacity), r.Format, wayOut)
 }
 
 func (p *fixedPlan) dfilterWayOut() string {

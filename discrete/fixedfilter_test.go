@@ -747,7 +747,19 @@ func TestFixedFilterUnstableQuantized(t *testing.T) {
 	if !failed || msg == "" || n != 1 || d.OK() {
 		t.Errorf("q15: overflow failed %v, warning %q, %d overflow warnings, ok %v; warnings %q", failed, msg, n, d.OK(), d.Warnings)
 	}
+	// The chain's rounding bound is not called proved where the
+	// overflow check fails (the report and the table print this).
+	if got := d.Num.RoundingProof(); got != "holds only without overflow, not proved here" {
+		t.Errorf("q15: the rounding bound reads %q", got)
+	}
 	t.Log(msg)
+	d31, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Q31, InputFullScale: 20, OutputFullScale: 0.5})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if c, ok := d31.Num.Check("overflow"); !ok || !c.OK || d31.Num.RoundingProof() != "proved" {
+		t.Errorf("q31: overflow check %+v (present %v), the rounding bound reads %q", c, ok, d31.Num.RoundingProof())
+	}
 }
 
 // TestQuantizeSection checks the quantization rule on the sections of

@@ -304,6 +304,17 @@ func (re *Realization) Check(name string) (synth.Check, bool) {
 	return synth.Check{}, false
 }
 
+// RoundingProof says how the rounding bounds of a fixed-point filter
+// chain stand: "proved" when the overflow check passes, else that they
+// hold only without overflow, which the bounds of this design do not
+// prove (a wrapped sum breaks every bound derived from the sums).
+func (re *Realization) RoundingProof() string {
+	if c, ok := re.Check("overflow"); ok && c.OK {
+		return "proved"
+	}
+	return "holds only without overflow, not proved here"
+}
+
 // roundSections returns the sections qs as the code holds them (rounded
 // to float32 for that type) and adds their coefficients to the table,
 // named <tag><n>_B0 …; a first-order section has no B2 or A2 row.
@@ -699,10 +710,10 @@ func (p *fixedPlan) chooseFormats() []Range {
 // overflowMsg says which variable may wrap around and the ways out.
 func (p *fixedPlan) overflowMsg(r Range) string {
 	if strings.HasPrefix(r.Name, "filter ") {
-		return p.filterOverflowMsg(r)
+		return p.sectionOverflowMsg(r, "filter", p.d.Problem.Filters, p.f.Sections, p.filterWayOut())
 	}
 	if strings.HasPrefix(r.Name, "derivative filter ") {
-		return p.dfilterOverflowMsg(r)
+		return p.sectionOverflowMsg(r, "derivative filter", p.d.Problem.Ctrl.DerivativeFilters, p.f.DSections, p.dfilterWayOut())
 	}
 	var outs []string
 	if strings.HasPrefix(r.Name, "integrator") {

@@ -799,9 +799,21 @@ func (c *Comparison) WriteText(w io.Writer) error {
 		p("")
 		p("results: unchanged")
 	}
+	// The figures of a filter added or removed as a whole are told by the
+	// filter chain's changes above; the text counts them.
+	whole := map[string]bool{}
+	for _, f := range c.Filters {
+		if f.Change != FilterChanged {
+			whole[fmt.Sprintf("%s filters[%d].", f.Axis, f.Filter-1)] = true
+		}
+	}
+	wholeOf := func(ch ResultChange) bool {
+		i := strings.IndexByte(ch.Key, '.')
+		return i > 0 && strings.HasPrefix(ch.Key, "filters[") && whole[ch.Axis+" "+ch.Key[:i+1]]
+	}
 	for _, class := range []string{Regression, Improvement, Neutral} {
 		var rows [][3]string
-		plants := 0
+		plants, filters := 0, 0
 		for _, ch := range c.Results {
 			if ch.Class != class {
 				continue
@@ -810,20 +822,27 @@ func (c *Comparison) WriteText(w io.Writer) error {
 				plants++
 				continue
 			}
+			if wholeOf(ch) {
+				filters++
+				continue
+			}
 			rows = append(rows, [3]string{ch.Axis, ch.Key, changeText(ch)})
 		}
-		if len(rows) == 0 && plants == 0 {
+		if len(rows) == 0 && plants == 0 && filters == 0 {
 			continue
 		}
 		title := map[string]string{Regression: "regressions", Improvement: "improvements", Neutral: "other changes"}[class]
 		p("")
-		p("%s (%d):", title, len(rows)+plants)
+		p("%s (%d):", title, len(rows)+plants+filters)
 		kw := 0
 		for _, r := range rows {
 			kw = max(kw, len(r[0])+1+len(r[1]))
 		}
 		for _, r := range rows {
 			p("  %-*s  %s", kw, r[0]+" "+r[1], r[2])
+		}
+		if filters > 0 {
+			p("  %d figures of the filters added or removed (see the filter chain's changes, and --json)", filters)
 		}
 		if plants > 0 {
 			p("  %d figures of the envelope's plants (see --json)", plants)

@@ -465,6 +465,13 @@ func TestCompareFilters(t *testing.T) {
 	if findResult(c, "roll", "filters") != nil {
 		t.Error("the chain is compared as one array")
 	}
+	// The text tells an added filter once, in the chain's changes: its
+	// figures are counted among the other changes, not listed; a filter
+	// changed in place keeps its figures listed.
+	out := textOf(t, c)
+	if strings.Contains(out, "filters[1].") || !strings.Contains(out, "figures of the filters added or removed") || !strings.Contains(out, "roll filters[0].hz") {
+		t.Errorf("an added filter's figures are listed, or a changed one's are not:\n%s", out)
+	}
 
 	// A notch with hz = "auto" follows the mode it is placed on: the
 	// demo gimbal's mount mode moved from |p| = 500 to 442.3 rad/s

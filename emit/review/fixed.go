@@ -95,13 +95,13 @@ func fixedNote(re *discrete.Realization) string {
 			", rest peak-to-peak " + g(re.RestLSB, 3) + " LSB (bound " + g(re.RestBoundLSB, 3) + ")"
 	}
 	if len(re.Fixed.Sections) > 0 {
-		s += "; the filter chain's rounding at its output is at most " + g(re.FilterNoiseLSB, 3) + " input LSB (proved)"
+		s += "; the filter chain's rounding at its output is at most " + g(re.FilterNoiseLSB, 3) + " input LSB (" + re.RoundingProof() + ")"
 		if c, ok := re.Check("filter_rounding"); ok && c.OK {
 			s += ", below half an LSB: the controller sees no step at engagement and exactly 0 at rest"
 		}
 	}
 	if len(re.Fixed.DSections) > 0 {
-		s += "; the derivative filters' rounding in the D term is at most " + g(re.DFilterNoiseLSB, 3) + " output LSB (proved)"
+		s += "; the derivative filters' rounding in the D term is at most " + g(re.DFilterNoiseLSB, 3) + " output LSB (" + re.RoundingProof() + ")"
 	}
 	return s
 }

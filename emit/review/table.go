@@ -345,10 +345,10 @@ func (t *tableWriter) numeric(d *discrete.Design) {
 	t.line("             against the float64 model: max error %s LSB, SQNR %s dB, at rest %s LSB (bound %s)",
 		synth.G4(n.MaxErrorLSB), synth.G4(n.SQNRdB), synth.G4(n.RestLSB), synth.G4(n.RestBoundLSB))
 	if n.Fixed != nil && len(n.Fixed.Sections) > 0 {
-		t.line("             filter chain: rounding at its output at most %s input LSB (proved)", synth.G4(n.FilterNoiseLSB))
+		t.line("             filter chain: rounding at its output at most %s input LSB (%s)", synth.G4(n.FilterNoiseLSB), n.RoundingProof())
 	}
 	if n.Fixed != nil && len(n.Fixed.DSections) > 0 {
-		t.line("             derivative filters: rounding in the D term at most %s output LSB (proved)", synth.G4(n.DFilterNoiseLSB))
+		t.line("             derivative filters: rounding in the D term at most %s output LSB (%s)", synth.G4(n.DFilterNoiseLSB), n.RoundingProof())
 	}
 	const crow = "  %-20s %-15s %-15s %-9s %s"
 	t.line(crow, "coefficient", "value", "quantized", "format", "rel error")
