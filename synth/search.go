@@ -903,15 +903,20 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 	case shrink:
 		steps = shrinkSteps()
 	}
-	var c cand
+	var c, low cand
 	stuck, probed := 0, false
 	if pt.stuckTop && x < pt.xf {
 		stuck = 1
 	}
 	for i, f := range steps {
-		var err error
-		if c, err = sr.judgeAt(pt, x*f); err != nil {
-			return c, err
+		if probed && i == len(steps)-1 {
+			// Judged already, by the probe.
+			c = low
+		} else {
+			var err error
+			if c, err = sr.judgeAt(pt, x*f); err != nil {
+				return c, err
+			}
 		}
 		// Before the first passing design, a line that cannot settle at
 		// stuckRun gains in a row is judged at its lowest gain, and gives
@@ -922,8 +927,8 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 				stuck = 0
 			}
 			if stuck >= stuckRun && i+2 < len(steps) {
-				low, err := sr.judgeAt(pt, x*steps[len(steps)-1])
-				if err != nil {
+				var err error
+				if low, err = sr.judgeAt(pt, x*steps[len(steps)-1]); err != nil {
 					return low, err
 				}
 				if !low.ok && sr.stuck {
@@ -974,13 +979,13 @@ const stuckRun = 4
 // judgeAt judges shape pt at gain x (its basis set): stability at every
 // plant by the exact test, then the time checks.
 func (sr *searcher) judgeAt(pt *point, x float64) (cand, error) {
-	if sr.fine {
-		sr.fineLeft--
-	}
 	k := seenKey{pt, math.Float64bits(x)}
 	if c, ok := sr.seen[k]; ok {
-		sr.note(c)
+		// Noted when it was judged; a lookup costs no budget.
 		return c, nil
+	}
+	if sr.fine {
+		sr.fineLeft--
 	}
 	c := cand{pt: pt, x: x, settle: math.NaN()}
 	c.ctrl = sr.fam.ctrl(pt.th, x)
