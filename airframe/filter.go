@@ -253,24 +253,22 @@ func (f Filter) Describe() string {
 }
 
 // DerivativeZPK returns the continuous counterpart of the derivative
-// filters in series, for the continuous controller; ok is false without
-// derivative filters (or when one cannot be formed, which Parse has ruled
-// out).
-func (c Control) DerivativeZPK() (lti.ZPK, bool) {
-	if len(c.DerivativeFilters) == 0 {
-		return lti.ZPK{}, false
-	}
+// filters in series, for the continuous controller: 1 (no poles, no
+// zeros) without derivative filters, an error when one cannot be formed
+// (which Parse rules out for a file; the design stages check it for an
+// Axis built otherwise).
+func (c Control) DerivativeZPK() (lti.ZPK, error) {
 	out := lti.ZPK{Gain: 1}
-	for _, f := range c.DerivativeFilters {
+	for i, f := range c.DerivativeFilters {
 		z, err := f.ZPK()
 		if err != nil {
-			return lti.ZPK{}, false
+			return lti.ZPK{}, fmt.Errorf("derivative filter %d: %w", i+1, err)
 		}
 		out.Gain *= z.Gain
 		out.Zeros = append(out.Zeros, z.Zeros...)
 		out.Poles = append(out.Poles, z.Poles...)
 	}
-	return out, true
+	return out, nil
 }
 
 // DerivativeSections returns the discrete sections of the derivative

@@ -292,9 +292,9 @@ func TestDerivativeFilterParse(t *testing.T) {
 	if !slices.Equal(a.Ctrl.DerivativeFilters, want) {
 		t.Errorf("derivative filters %+v, want %+v", a.Ctrl.DerivativeFilters, want)
 	}
-	z, ok := a.Ctrl.DerivativeZPK()
-	if !ok || len(z.Poles) != 4 || len(z.Zeros) != 2 {
-		t.Fatalf("derivative ZPK %+v, %v: want 4 poles and 2 zeros", z, ok)
+	z, err := a.Ctrl.DerivativeZPK()
+	if err != nil || len(z.Poles) != 4 || len(z.Zeros) != 2 {
+		t.Fatalf("derivative ZPK %+v, %v: want 4 poles and 2 zeros", z, err)
 	}
 	// At s = 0 the product of unit-DC-gain sections is 1; at the notch's
 	// centre a partial notch of 12 dB leaves 10^(−12/20) (the definition

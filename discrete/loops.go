@@ -77,16 +77,20 @@ func NewLoops(p airframe.Axis, loop airframe.Loop) (*Loops, error) {
 		roots = append(append(append(roots, a.Plant.Model.Poles...), a.Plant.Model.Zeros...), a.Sensor.Poles...)
 		if c == airframe.Nominal() && len(a.Filters) > 0 {
 			// The grid resolves the filters' notches and peaks too.
-			if h, err := a.FeedbackZPK(); err == nil {
-				roots = append(append(roots, h.Poles...), h.Zeros...)
+			h, err := a.FeedbackZPK()
+			if err != nil {
+				return nil, err
 			}
+			roots = append(append(roots, h.Poles...), h.Zeros...)
 		}
 		maxDelay = max(maxDelay, pl.Delay)
 	}
-	if z, ok := p.Ctrl.DerivativeZPK(); ok {
-		// The grid resolves the derivative filters' notches and peaks.
-		roots = append(append(roots, z.Poles...), z.Zeros...)
+	// The grid resolves the derivative filters' notches and peaks.
+	z, err := p.Ctrl.DerivativeZPK()
+	if err != nil {
+		return nil, err
 	}
+	roots = append(append(roots, z.Poles...), z.Zeros...)
 	// The delay z^(−D) turns the phase like a transport delay of D·T.
 	l.grid = synth.FrequencyGrid(lo, ny*(1-1e-9), roots, float64(l.d+maxDelay+1)*T)
 	l.z = make([]complex128, len(l.grid))

@@ -83,8 +83,9 @@ func ContinuousLoops(p airframe.Axis) Loops {
 		roots = append(append(append(roots, a.Plant.Model.Poles...), a.Plant.Model.Zeros...), a.Sensor.Poles...)
 		tau = math.Max(tau, a.Plant.Delay)
 	}
-	if z, ok := p.Ctrl.DerivativeZPK(); ok {
-		// The grid resolves the derivative filters' notches and peaks.
+	// The grid resolves the derivative filters' notches and peaks
+	// (DesignAxis has rejected filters that cannot be formed).
+	if z, err := p.Ctrl.DerivativeZPK(); err == nil {
 		roots = append(append(roots, z.Poles...), z.Zeros...)
 	}
 	if tf := p.Ctrl.Tf(); p.Ctrl.Form.HasDerivative() && tf > 0 {

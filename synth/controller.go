@@ -1,6 +1,7 @@
 package synth
 
 import (
+	"fmt"
 	"math"
 	"strconv"
 
@@ -32,14 +33,32 @@ type Controller struct {
 // NewController returns the controller of form p.Ctrl with no gains set:
 // its fixed parts (derivative filter, setpoint weight 1, where the
 // derivative acts), which the placement and the search fill in.
+// DesignAxis has rejected derivative filters that cannot be formed
+// (derivativeTF).
 func NewController(p airframe.Axis) Controller {
 	c := Controller{Form: p.Ctrl.Form, Tf: p.Ctrl.Tf(), B: 1, DerivativeOnError: p.Ctrl.DerivativeOnError}
-	if z, ok := p.Ctrl.DerivativeZPK(); ok && p.Ctrl.Form.HasDerivative() {
-		if t, err := z.TF(); err == nil {
-			c.DF = &t
-		}
+	if t, err := derivativeTF(p.Ctrl); err == nil {
+		c.DF = t
 	}
 	return c
+}
+
+// derivativeTF returns the derivative filters of ctl in series as a
+// transfer function, nil without any (or for a form without a
+// derivative).
+func derivativeTF(ctl airframe.Control) (*lti.TF, error) {
+	if len(ctl.DerivativeFilters) == 0 || !ctl.Form.HasDerivative() {
+		return nil, nil
+	}
+	z, err := ctl.DerivativeZPK()
+	if err != nil {
+		return nil, err
+	}
+	t, err := z.TF()
+	if err != nil {
+		return nil, fmt.Errorf("derivative filters: %w", err)
+	}
+	return &t, nil
 }
 
 // den returns the common denominator of C and F.

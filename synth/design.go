@@ -60,6 +60,9 @@ func DesignAxis(p airframe.Axis, L Loops) (*Design, error) {
 	if err != nil {
 		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
 	}
+	if _, err := derivativeTF(p.Ctrl); err != nil {
+		return nil, fmt.Errorf("axis %s: %w", p.Name, err)
+	}
 	d := &Design{Problem: p}
 	// With refinement the textbook stage is reported by its step alone,
 	// so its margin sweep is skipped.

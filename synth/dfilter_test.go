@@ -2,6 +2,7 @@ package synth
 
 import (
 	"math"
+	"strings"
 	"math/cmplx"
 	"testing"
 
@@ -92,5 +93,19 @@ print(json.dumps({"C": c(hc), "F": c(hf)}))
 		if r := cmplx.Abs(1 + pc.Eval(tg.Pole)*p.OpenLoop(tg.Pole)); r > 1e-9 {
 			t.Errorf("%s: |1 + C·L| at s* = %.3g", form, r)
 		}
+	}
+}
+
+// TestDerivativeFilterUnformable: an Axis built in code (not parsed) with
+// a derivative filter that cannot be formed, a notch of no width, is an
+// error of the design naming the filter, not a controller
+// designed without it.
+func TestDerivativeFilterUnformable(t *testing.T) {
+	p := dfiltProblem(airframe.FormPID)
+	p.Ctrl.Refine = true
+	p.Ctrl.DerivativeFilters[1].WidthHz = 0
+	_, err := DesignAxis(p, ContinuousLoops(p))
+	if err == nil || !strings.Contains(err.Error(), "derivative filter 2") {
+		t.Errorf("DesignAxis: %v, want an error naming derivative filter 2", err)
 	}
 }
