@@ -2,8 +2,8 @@ package synth
 
 import (
 	"math"
-	"strings"
 	"math/cmplx"
+	"strings"
 	"testing"
 
 	"locusmith/airframe"
