@@ -25,12 +25,20 @@ var hostBuild struct {
 
 // TestMain removes the host build after the tests.
 func TestMain(m *testing.M) {
+	// go test starts the binary in the package's directory; tests may
+	// move the process later (TestJSONGolden).
+	if wd, err := os.Getwd(); err == nil {
+		pkgDir = wd
+	}
 	code := m.Run()
 	if hostBuild.dir != "" {
 		os.RemoveAll(hostBuild.dir)
 	}
 	os.Exit(code)
 }
+
+// pkgDir is the package's directory, where TestMain started.
+var pkgDir string
 
 // hostCLI returns the host build of the CLI (buildFor's, shared), or fails
 // the test.
@@ -85,13 +93,13 @@ func buildForErr(dir, goarch string) (string, error) {
 	}
 	// The package's own directory, not the working directory: builds run
 	// in the background while a sequential test (TestJSONGolden) may
-	// have moved the process to the repository root.
-	_, self, _, ok := runtime.Caller(0)
-	if !ok {
-		return "", fmt.Errorf("go build %s: the test's source directory is unknown", goarch)
+	// have moved the process to the repository root. (The source file's
+	// path from runtime.Caller is no directory under -trimpath.)
+	if pkgDir == "" {
+		return "", fmt.Errorf("go build %s: the test's package directory is unknown", goarch)
 	}
 	cmd := exec.Command(goTool, "build", "-o", bin, ".")
-	cmd.Dir = filepath.Dir(self)
+	cmd.Dir = pkgDir
 	cmd.Env = env
 	if out, err := cmd.CombinedOutput(); err != nil {
 		return "", fmt.Errorf("go build %s: %v\n%s", goarch, err, out)
