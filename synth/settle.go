@@ -61,7 +61,6 @@ func settleFrom(y0, y1 []float64, b, h, final, band float64, pk int, peak float6
 	nan := math.NaN()
 	si := lti.StepInfo{Final: final, Peak: nan, PeakTime: nan, Overshoot: nan, Settling: nan, Rise: nan}
 	n := len(y0)
-	tEnd := float64(n-1) * h
 	dir := 1.0
 	if final < 0 {
 		dir = -1
@@ -87,27 +86,13 @@ func settleFrom(y0, y1 []float64, b, h, final, band float64, pk int, peak float6
 			break
 		}
 	}
-	switch {
-	case last < 0:
-		si.Settling = 0
-	case last == n-1:
-		si.Settling = tEnd
-	default:
+	var e0, e1 float64
+	if last >= 0 && last < n-1 {
 		v0 := y0[last] + float64(b*(y1[last]-y0[last]))
 		v1 := y0[last+1] + float64(b*(y1[last+1]-y0[last+1]))
-		e0, e1 := v0-final, v1-final
-		edge := tol
-		if e0 < 0 {
-			edge = -tol
-		}
-		th := 0.0
-		if !math.IsNaN(e0) && e0 != e1 {
-			th = (e0 - edge) / (e0 - e1)
-			th = math.Max(0, math.Min(1, th))
-		}
-		si.Settling = (float64(last) + th) * h
+		e0, e1 = v0-final, v1-final
 	}
-	si.Settled = last < n-1 && si.Settling <= 0.9*tEnd
+	si.Settling, si.Settled = lti.SettleExit(last, n, e0, e1, tol, h)
 	return si
 }
 

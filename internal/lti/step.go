@@ -52,7 +52,6 @@ func Settle(y []float64, h, final, band float64) StepInfo {
 	if n == 0 {
 		return si
 	}
-	tEnd := float64(n-1) * h
 
 	// Peak.
 	dir := 1.0
@@ -88,13 +87,30 @@ func Settle(y []float64, h, final, band float64) StepInfo {
 			break
 		}
 	}
+	var e0, e1 float64
+	if last >= 0 && last < n-1 {
+		e0, e1 = y[last]-final, y[last+1]-final
+	}
+	si.Settling, si.Settled = SettleExit(last, n, e0, e1, tol, h)
+	return si
+}
+
+// SettleExit returns the settling time and whether the response settled,
+// from the last sample (index last, −1 for none) of n outside the band
+// ±tol about the final value, e0 and e1 the errors of that sample and the
+// next: the exit from the band interpolated linearly between them, the
+// end of the record when the last sample is outside, and settled when
+// the exit comes before 90 % of the record (a later one is not seen to
+// stay inside).
+func SettleExit(last, n int, e0, e1, tol, h float64) (float64, bool) {
+	tEnd := float64(n-1) * h
+	var t float64
 	switch {
 	case last < 0:
-		si.Settling = 0
+		t = 0
 	case last == n-1:
-		si.Settling = tEnd
+		t = tEnd
 	default:
-		e0, e1 := y[last]-final, y[last+1]-final
 		edge := tol
 		if e0 < 0 {
 			edge = -tol
@@ -104,10 +120,9 @@ func Settle(y []float64, h, final, band float64) StepInfo {
 			th = (e0 - edge) / (e0 - e1)
 			th = math.Max(0, math.Min(1, th))
 		}
-		si.Settling = (float64(last) + th) * h
+		t = (float64(last) + th) * h
 	}
-	si.Settled = last < n-1 && si.Settling <= 0.9*tEnd
-	return si
+	return t, last < n-1 && t <= 0.9*tEnd
 }
 
 // crossTime is the first (interpolated) time at which y/final reaches p.
