@@ -112,3 +112,94 @@ func TestMsExactAgainstDenseSweep(t *testing.T) {
 	}
 	t.Logf("%d lines; the grid's bound alone exceeds Ms by more than 1e-6 on %d", lines, gridOver)
 }
+
+// denseNoise is a brute-force reference of the noise gain of c over the
+// plants of l: the lowest gain crossover over the plants found on 2000
+// points a decade and bisected, then the largest |C| from there up on the
+// same points.
+func denseNoise(l Loops, c Controller) float64 {
+	g := l.Grid()
+	lo, hi := math.Log(g[0]), math.Log(g[len(g)-1])
+	n := int(2000*(hi-lo)/math.Ln10) + 1
+	at := func(k int) float64 { return math.Exp(lo + (hi-lo)*float64(k)/float64(n-1)) }
+	ctrl := l.CtrlAt(c)
+	wc := math.Inf(1)
+	for i := 0; i < l.Primary(); i++ {
+		m := func(w float64) float64 { return cmplx.Abs(ctrl(w)*l.OpenAt(i, w)) - 1 }
+		for k := 1; k < n && at(k-1) < wc; k++ {
+			if (m(at(k-1)) >= 0) != (m(at(k)) >= 0) {
+				a, b := at(k-1), at(k)
+				for it := 0; it < 60; it++ {
+					if mid := math.Sqrt(a * b); (m(mid) >= 0) == (m(a) >= 0) {
+						a = mid
+					} else {
+						b = mid
+					}
+				}
+				wc = math.Min(wc, a)
+				break
+			}
+		}
+	}
+	if math.IsInf(wc, 1) {
+		wc = g[0]
+	}
+	v := cmplx.Abs(ctrl(wc))
+	for k := 0; k < n; k++ {
+		if w := at(k); w > wc {
+			v = math.Max(v, cmplx.Abs(ctrl(w)))
+		}
+	}
+	return v
+}
+
+// TestNoiseFromCrossover: the search's noise gain (noiseAt, |C| from the
+// lowest gain crossover up, C interpolated at the crossover between its
+// grid points) against the brute-force denseNoise, on the PI and PID
+// lines of the coarse grid at a third of their frequency checks' top:
+// within 0.5 % (the chord between grid points 6 % apart), where |C| at the
+// grid point below the crossover, which the search took before, is more
+// than 1 % high on some lines (a PI's |C| falls with frequency).
+func TestNoiseFromCrossover(t *testing.T) {
+	lines, high, worst := 0, 0, 0.0
+	for _, form := range []airframe.Form{airframe.FormPI, airframe.FormPID} {
+		for _, delay := range []float64{0, 0.002} {
+			p := demoProblem(form, delay)
+			p.Envelope = airframe.Envelope{GainScale: [2]float64{0.8, 1.25}, LagScale: [2]float64{1, 1}}
+			l := ContinuousLoops(p)
+			tg, err := TargetFromSpec(p.Spec)
+			if err != nil {
+				t.Fatal(err)
+			}
+			sr := newSearcher(p, l, 1/lti.Abs(p.OpenLoop(complex(0, tg.OmegaN))), tg.OmegaN)
+			for _, u := range sr.gridPoints() {
+				pt := sr.screen(u)
+				if !(pt.xf > 0) {
+					continue
+				}
+				x := pt.xf / 3
+				sr.basis(pt.th)
+				got := sr.noiseAt(x)
+				want := denseNoise(l, sr.fam.ctrl(pt.th, x))
+				lines++
+				worst = math.Max(worst, math.Abs(got/want-1))
+				if math.Abs(got/want-1) > 5e-3 {
+					t.Errorf("%s delay %g, shape %v, x %g: noise gain %.6g, dense sweep %.6g", form, delay, pt.th, x, got, want)
+				}
+				// The grid point below the crossover.
+				c := sr.lbuf
+				kc := crossing{k: len(sr.grid)}
+				for i := range sr.open {
+					kc = firstCrossover(c, sr.open[i], kc)
+				}
+				if kc.k < len(c) && lti.Abs(c[kc.k]) > want*1.01 {
+					high++
+				}
+			}
+		}
+	}
+	if lines < 40 || high == 0 {
+		t.Errorf("%d lines, %d where the grid point below the crossover is more than 1 %% high: the check has no teeth", lines, high)
+	}
+	t.Logf("%d lines, largest difference %.2g; the grid point below the crossover is more than 1 %% high on %d", lines, worst, high)
+}

@@ -8,7 +8,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x389cb4d949a3359a
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0xccaa9d778e7e9a3a
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

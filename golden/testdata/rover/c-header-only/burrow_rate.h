@@ -17,10 +17,10 @@
 //   Numeric: float64, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pd, Kp = 0.9541, Kd = 0.0255, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 0.955, Kd = 0.02552, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.08 %, settling 0.21 s, phase margin 64.7 deg,
+//   Sampled loop: overshoot 4.09 %, settling 0.21 s, phase margin 64.6 deg,
 //   gain margin 22.1 dB.
 //   Checks: all met.
 //   Numeric: float64, coefficients rounded to nearest; no fixed-point
@@ -61,7 +61,7 @@
 // Content stamp: the first 64 bits of a SHA-256 of this header. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define BURROW_RATE_STAMP 0x714cac0ed416a676
+#define BURROW_RATE_STAMP 0xd574e06aa7656b11
 
 #ifdef __cplusplus
 extern "C" {
@@ -83,10 +83,10 @@ typedef struct {
 } burrow_pan_state;
 
 // Axis yaw: coefficients and limits.
-#define BURROW_YAW_KP        0.9541084108 // P gain on the measurement
-#define BURROW_YAW_KPB       0.9541084108 // P gain on the setpoint (setpoint weight b times Kp)
+#define BURROW_YAW_KP        0.9550054648 // P gain on the measurement
+#define BURROW_YAW_KPB       0.9550054648 // P gain on the setpoint (setpoint weight b times Kp)
 #define BURROW_YAW_AD        0.7284895036846828 // derivative filter: pole
-#define BURROW_YAW_BD        3.4616356138419615 // derivative filter: gain
+#define BURROW_YAW_BD        3.4648902481727624 // derivative filter: gain
 #define BURROW_YAW_OUTPUT_LO (-1.0) // lowest command
 #define BURROW_YAW_OUTPUT_HI 1.0 // highest command
 

@@ -8,7 +8,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x7fd767f259716995
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x80c4f61d60ae4d8a
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

@@ -8,7 +8,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x79c0e5f2649fdf6b
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0xe49f055b5846f020
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

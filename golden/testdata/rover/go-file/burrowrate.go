@@ -17,10 +17,10 @@
 //   Numeric: float64, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pd, Kp = 0.9541, Kd = 0.0255, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 0.955, Kd = 0.02552, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.08 %, settling 0.21 s, phase margin 64.7 deg,
+//   Sampled loop: overshoot 4.09 %, settling 0.21 s, phase margin 64.6 deg,
 //   gain margin 22.1 dB.
 //   Checks: all met.
 //   Numeric: float64, coefficients rounded to nearest; no fixed-point
@@ -128,10 +128,10 @@ func (c *Pan) Faults() uint32 {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       float64 = 0.9541084108       // P gain on the measurement
-	YawKpB      float64 = 0.9541084108       // P gain on the setpoint (setpoint weight b times Kp)
+	YawKp       float64 = 0.9550054648       // P gain on the measurement
+	YawKpB      float64 = 0.9550054648       // P gain on the setpoint (setpoint weight b times Kp)
 	YawAd       float64 = 0.7284895036846828 // derivative filter: pole
-	YawBd       float64 = 3.4616356138419615 // derivative filter: gain
+	YawBd       float64 = 3.4648902481727624 // derivative filter: gain
 	YawOutputLo float64 = -1.0               // lowest command
 	YawOutputHi float64 = 1.0                // highest command
 )

@@ -17,10 +17,10 @@
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pd, Kp = 0.9541, Kd = 0.0255, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 0.955, Kd = 0.02552, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.08 %, settling 0.21 s, phase margin 64.7 deg,
+//   Sampled loop: overshoot 4.09 %, settling 0.21 s, phase margin 64.6 deg,
 //   gain margin 22.1 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
@@ -128,12 +128,12 @@ func (c *Pan) Faults() uint32 {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       float32 = 0.9541084 // P gain on the measurement
-	YawKpB      float32 = 0.9541084 // P gain on the setpoint (setpoint weight b times Kp)
-	YawAd       float32 = 0.7284895 // derivative filter: pole
-	YawBd       float32 = 3.4616356 // derivative filter: gain
-	YawOutputLo float32 = -1.0      // lowest command
-	YawOutputHi float32 = 1.0       // highest command
+	YawKp       float32 = 0.95500547 // P gain on the measurement
+	YawKpB      float32 = 0.95500547 // P gain on the setpoint (setpoint weight b times Kp)
+	YawAd       float32 = 0.7284895  // derivative filter: pole
+	YawBd       float32 = 3.4648902  // derivative filter: gain
+	YawOutputLo float32 = -1.0       // lowest command
+	YawOutputHi float32 = 1.0        // highest command
 )
 
 // Yaw is the state of the burrow rate controller of axis yaw (PD with

@@ -20,16 +20,16 @@
 //   output LSB; minimum headroom 0.118 bits (A1*ul (product)); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 0.9541, Kd = 0.0255, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 0.955, Kd = 0.02552, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.08 %, settling 0.21 s, phase margin 64.7 deg,
+//   Sampled loop: overshoot 4.09 %, settling 0.21 s, phase margin 64.6 deg,
 //   gain margin 22.1 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB Q6.9, Kp Q6.9, Ad Q0.15, Bd Q8.7, Lo Q0.15, Hi
 //   Q0.15; states: integrator 16, derivative 7, sum 6 fractional bits below
-//   the output LSB; minimum headroom 0.209 bits (derivative state Ud);
+//   the output LSB; minimum headroom 0.207 bits (derivative state Ud);
 //   saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
@@ -106,10 +106,10 @@ func (c *Pan) Applied(applied int16) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       int16 = 31264  // P gain on the measurement; Q6.9 = 61.06
-	YawKpB      int16 = 31264  // P gain on the setpoint; Q6.9 = 61.06
+	YawKp       int16 = 31294  // P gain on the measurement; Q6.9 = 61.12
+	YawKpB      int16 = 31294  // P gain on the setpoint; Q6.9 = 61.12
 	YawAd       int16 = 23871  // derivative filter: pole; Q0.15 = 0.7285
-	YawBd       int16 = 28358  // derivative filter: gain; Q8.7 = 221.5
+	YawBd       int16 = 28384  // derivative filter: gain; Q8.7 = 221.8
 	YawOutputLo int16 = -32768 // lowest command, raw; Q0.15 = -1
 	YawOutputHi int16 = 32767  // highest command, raw; Q0.15 = 1
 )

@@ -20,16 +20,16 @@
 //   output LSB; minimum headroom 0.118 bits (A1*ul (product)); saturating:
 //   command before saturation.
 //
-// Axis yaw: pd, Kp = 0.9541, Kd = 0.0255, Tf = 0.006366 s, b = 1.
+// Axis yaw: pd, Kp = 0.955, Kd = 0.02552, Tf = 0.006366 s, b = 1.
 //   discretized tustin; derivative on the measurement; output [-1, 1].
 //   Target: zeta = 0.591, wn = 21.7 rad/s, s* = -12.8 +/- j17.5 rad/s.
-//   Sampled loop: overshoot 4.08 %, settling 0.21 s, phase margin 64.7 deg,
+//   Sampled loop: overshoot 4.09 %, settling 0.21 s, phase margin 64.6 deg,
 //   gain margin 22.1 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB Q6.25, Kp Q6.25, Ad Q0.31, Bd Q8.23, Lo Q0.31,
 //   Hi Q0.31; states: integrator 32, derivative 23, sum 22 fractional bits
-//   below the output LSB; minimum headroom 0.209 bits (derivative state Ud);
+//   below the output LSB; minimum headroom 0.207 bits (derivative state Ud);
 //   saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
@@ -106,10 +106,10 @@ func (c *Pan) Applied(applied int32) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp       int32 = 2048932211  // P gain on the measurement; Q6.25 = 61.06
-	YawKpB      int32 = 2048932211  // P gain on the setpoint; Q6.25 = 61.06
+	YawKp       int32 = 2050858619  // P gain on the measurement; Q6.25 = 61.12
+	YawKpB      int32 = 2050858619  // P gain on the setpoint; Q6.25 = 61.12
 	YawAd       int32 = 1564419297  // derivative filter: pole; Q0.31 = 0.7285
-	YawBd       int32 = 1858451469  // derivative filter: gain; Q8.23 = 221.5
+	YawBd       int32 = 1860198788  // derivative filter: gain; Q8.23 = 221.8
 	YawOutputLo int32 = -2147483648 // lowest command, raw; Q0.31 = -1
 	YawOutputHi int32 = 2147483647  // highest command, raw; Q0.31 = 1
 )
