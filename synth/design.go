@@ -159,9 +159,32 @@ func verifyStage(p airframe.Axis, t Target, c Controller, margins bool) (Stage, 
 func (d *Design) finish() {
 	d.Recheck()
 	d.Warnings = append(d.Warnings, d.Verif.Warnings...)
+	if w := leadNote(d.Ctrl); w != "" {
+		d.Warnings = append(d.Warnings, w)
+	}
 	if e := d.Verif.SteadyStateError; d.Verif.Stable && math.Abs(e) > d.Problem.Spec.Band {
 		d.Warnings = append(d.Warnings, fmt.Sprintf("steady-state error %.3g %% of the setpoint (the %s form has no integral action on this plant); the settling check is against the final value", 100*e, d.Problem.Ctrl.Form))
 	}
+}
+
+// leadNear is the pole-to-zero ratio of a lead below which leadNote
+// calls it a gain: its phase lead, at most asin((r − 1)/(r + 1)), is
+// then under 1.4° (the classical lead's maximum phase; from memory).
+const leadNear = 1.05
+
+// leadNote says, for a lead whose pole lies within leadNear of its zero,
+// that it acts as a gain: the search found no phase lead worth its noise
+// gain, and a p controller of about the same gain would do the same.
+func leadNote(c Controller) string {
+	if c.Form != airframe.FormLead || !(c.Zero < 0) || !(c.Pole < 0) {
+		return ""
+	}
+	r := c.Pole / c.Zero
+	if !(r < leadNear) {
+		return ""
+	}
+	return fmt.Sprintf("the lead's pole lies within %.3g %% of its zero (phase lead at most %.2g°): it acts as a gain of about %.4g, and a p controller would do the same with one state less",
+		100*(r-1), math.Asin((r-1)/(r+1))*180/math.Pi, c.K)
 }
 
 // Recheck judges the chosen stage against Problem's spec again, for a
