@@ -6,7 +6,6 @@ import (
 	"math/big"
 	"math/cmplx"
 	"strings"
-	"sync"
 	"testing"
 
 	"locusmith/airframe"
@@ -22,18 +21,8 @@ import (
 // test binary and shared (no test changes them).
 func fixedDFilterCases(t testing.TB) []numCase {
 	t.Helper()
-	dfOnce.Do(func() { dfMemo, dfErr = makeFixedDFilterCases() })
-	if dfErr != nil {
-		t.Fatal(dfErr)
-	}
-	return dfMemo
+	return dfMemo.get(t, makeFixedDFilterCases)
 }
-
-var (
-	dfOnce sync.Once
-	dfMemo []numCase
-	dfErr  error
-)
 
 func makeFixedDFilterCases() ([]numCase, error) {
 	lp2 := airframe.Filter{Kind: airframe.FilterLowpass, At: "derivative", Hz: 80, Order: 2, Damping: 1 / math.Sqrt2}

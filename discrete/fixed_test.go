@@ -38,18 +38,28 @@ type numCase struct {
 // them): each design is a pure function of its inputs.
 func numCases(t testing.TB) []numCase {
 	t.Helper()
-	numCasesOnce.Do(func() { numCasesMemo, numCasesErr = makeNumCases() })
-	if numCasesErr != nil {
-		t.Fatal(numCasesErr)
-	}
-	return numCasesMemo
+	return numMemo.get(t, makeNumCases)
 }
 
-var (
-	numCasesOnce sync.Once
-	numCasesMemo []numCase
-	numCasesErr  error
-)
+// caseMemo makes a set of cases once per test binary, for every test that
+// reads them.
+type caseMemo struct {
+	once sync.Once
+	cs   []numCase
+	err  error
+}
+
+// get returns the cases, made by mk on the first call, or fails t.
+func (m *caseMemo) get(t testing.TB, mk func() ([]numCase, error)) []numCase {
+	t.Helper()
+	m.once.Do(func() { m.cs, m.err = mk() })
+	if m.err != nil {
+		t.Fatal(m.err)
+	}
+	return m.cs
+}
+
+var numMemo, ffMemo, dfMemo caseMemo
 
 func makeNumCases() ([]numCase, error) {
 	var cs []numCase

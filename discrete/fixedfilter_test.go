@@ -6,7 +6,6 @@ import (
 	"math/big"
 	"math/cmplx"
 	"strings"
-	"sync"
 	"testing"
 
 	"locusmith/airframe"
@@ -24,18 +23,8 @@ import (
 // test binary and shared (no test changes them).
 func fixedFilterCases(t testing.TB) []numCase {
 	t.Helper()
-	ffOnce.Do(func() { ffMemo, ffErr = makeFixedFilterCases() })
-	if ffErr != nil {
-		t.Fatal(ffErr)
-	}
-	return ffMemo
+	return ffMemo.get(t, makeFixedFilterCases)
 }
-
-var (
-	ffOnce sync.Once
-	ffMemo []numCase
-	ffErr  error
-)
 
 func makeFixedFilterCases() ([]numCase, error) {
 	notch := airframe.Filter{Kind: airframe.FilterNotch, At: "feedback", Hz: 118, WidthHz: 30}
