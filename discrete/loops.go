@@ -79,7 +79,7 @@ func NewLoops(p airframe.Axis, loop airframe.Loop) (*Loops, error) {
 			// The grid resolves the filters' notches and peaks too.
 			h, err := a.FeedbackZPK()
 			if err != nil {
-				return nil, err
+				return nil, fmt.Errorf("feedback filters: %w", err)
 			}
 			roots = append(append(roots, h.Poles...), h.Zeros...)
 		}
@@ -88,7 +88,7 @@ func NewLoops(p airframe.Axis, loop airframe.Loop) (*Loops, error) {
 	// The grid resolves the derivative filters' notches and peaks.
 	z, err := p.Ctrl.DerivativeZPK()
 	if err != nil {
-		return nil, err
+		return nil, fmt.Errorf("derivative filters: %w", err)
 	}
 	roots = append(append(roots, z.Poles...), z.Zeros...)
 	// The delay z^(−D) turns the phase like a transport delay of D·T.

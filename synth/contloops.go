@@ -84,7 +84,7 @@ func ContinuousLoops(p airframe.Axis) Loops {
 		tau = math.Max(tau, a.Plant.Delay)
 	}
 	// The grid resolves the derivative filters' notches and peaks
-	// (DesignAxis has rejected filters that cannot be formed).
+	// (DesignAxis rejects filters that cannot be formed).
 	if z, err := p.Ctrl.DerivativeZPK(); err == nil {
 		roots = append(append(roots, z.Poles...), z.Zeros...)
 	}

@@ -33,7 +33,7 @@ type Controller struct {
 // NewController returns the controller of form p.Ctrl with no gains set:
 // its fixed parts (derivative filter, setpoint weight 1, where the
 // derivative acts), which the placement and the search fill in.
-// DesignAxis has rejected derivative filters that cannot be formed
+// DesignAxis rejects derivative filters that cannot be formed
 // (derivativeTF).
 func NewController(p airframe.Axis) Controller {
 	c := Controller{Form: p.Ctrl.Form, Tf: p.Ctrl.Tf(), B: 1, DerivativeOnError: p.Ctrl.DerivativeOnError}

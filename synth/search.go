@@ -490,10 +490,10 @@ func lineBound(a, c complex128, r2 float64) (float64, bool) {
 
 // msNear is how far above the line's Ms bound on the grid (relative) a
 // grid frequency's own bound may lie and still be refined between its
-// neighbours by msExact: the grid's 40 points a decade (and the denser
-// points at resonances) leave |1 + L| within a few tenths of a per cent
-// of its minimum between them.
-const msNear = 0.05
+// neighbours by msExact: between the grid's 40 points a decade (and the
+// denser points at resonances) the bound falls by up to about 4 % (a
+// dense sweep over the coarse grid's lines of a PID found so much).
+const msNear = 0.1
 
 // msInside is how far inside the Ms bound (relative) msExact puts the
 // line's bound: a design on the bound itself has an Ms that independent
@@ -503,12 +503,13 @@ const msNear = 0.05
 const msInside = 1e-6
 
 // msExact returns the line's Ms bound between grid points too, from xg,
-// the bound on the grid (msBound, finite and positive): at each plant,
+// the bound on the grid (msBound, finite and positive), on the shape of
+// the basis in force (basis): at each plant,
 // each grid frequency whose own bound is least among its neighbours and
 // within msNear of xg is refined by minimizing the bound over the two
 // grid intervals around it (Brent's method in log ω). A design at the
-// grid's bound can exceed Ms by a few tenths of a per cent between grid
-// points, which the exact verification finds; the search then has to
+// grid's bound can exceed Ms between grid points (by 0.1 % to a few per
+// cent), which the exact verification finds; the search then has to
 // lower a design it judged on the wrong bound, out of a small feasible
 // set (winch_slow_pid among the reference airframes of package
 // discrete).
@@ -533,8 +534,13 @@ func (sr *searcher) msExact(xg float64) float64 {
 			B := c1(w) - A
 			Pw := sr.L.OpenAt(i, w)
 			v, ok := lineBound(1+lti.Mul(A, Pw), lti.Mul(B, Pw), r2)
-			if !ok || math.IsNaN(v) {
+			switch {
+			case !ok:
 				return 0
+			case math.IsNaN(v):
+				// No figure here (on an undamped pole, say): as the
+				// grid's bound, no bound.
+				return math.Inf(1)
 			}
 			return v
 		}
@@ -553,7 +559,7 @@ func (sr *searcher) msExact(xg float64) float64 {
 // brentMin returns the least value of f(e^t) that Brent's method finds
 // for t in [a, b] from the start t0 (Brent, Algorithms for Minimization
 // without Derivatives, 1973, ch. 5: golden-section steps, parabolic
-// steps where they behave; from memory), to 1e-7 in t, at most 40
+// steps where they behave; from memory), to 1e-7 in t, at most 41
 // evaluations. The least value seen is returned, so it is never above
 // f(e^t0).
 func brentMin(f func(w float64) float64, a, b, t0 float64) float64 {
@@ -752,9 +758,10 @@ func firstCrossover(c, P []complex128, none crossing) crossing {
 // gridMargins returns the phase and gain margins of L = C·P on the grid
 // (of each kind the crossing nearest the critical point, as
 // lti.LoopMargins reports them, with L interpolated linearly between grid
-// points), and the first gain crossover (k = len(w) when none). A gain crossover is a sign change of |L|² − 1; a phase crossover
-// (∠L = −180° + k·360°) a sign change of Im L where Re L < 0. Angles and
-// logarithms are taken at the crossings only.
+// points), and the first gain crossover (k = len(w) when none). A gain
+// crossover is a sign change of |L|² − 1; a phase crossover (∠L = −180°
+// + k·360°) a sign change of Im L where Re L < 0. Angles and logarithms
+// are taken at the crossings only.
 func gridMargins(w []float64, c, P []complex128) (pm, gm float64, kc crossing) {
 	pm, gm = math.Inf(1), math.Inf(1)
 	kc = crossing{k: len(w)}
@@ -825,12 +832,12 @@ func (sr *searcher) freqVerdict(x, pm, gm, noise float64) (bool, float64, string
 		v += relShort(gm, s.MinGainMargin)
 		why = "gain_margin"
 	}
-	if noise > sr.noiseB {
+	if !(noise <= sr.noiseB) {
 		v += noise/sr.noiseB - 1
 		why = "noise_gain"
 	}
 	if sr.ratioB > 0 {
-		if lim := sr.ratioB * sr.fam.gain(sr.th, x); noise > lim {
+		if lim := sr.ratioB * sr.fam.gain(sr.th, x); !(noise <= lim) {
 			v += noise/lim - 1
 			why = "noise_gain"
 		}
@@ -885,10 +892,11 @@ func (sr *searcher) screen(u []float64) *point {
 		}
 		x = lo
 	}
-	if x == xms && x > 0 && !math.IsInf(x, 1) {
-		// Ms binds: its bound between grid points, where x = 0 itself
-		// can exceed Ms.
-		if x = sr.msExact(x); !(x > 0) {
+	if xms > 0 && !math.IsInf(xms, 1) && x > float64(xms*(1-msNear)) {
+		// Ms may bind (the margins' bisection can stop just below the
+		// grid's bound, above the exact one): its bound between grid
+		// points, where x = 0 itself can exceed Ms.
+		if x = math.Min(x, sr.msExact(xms)); !(x > 0) {
 			pt.why, pt.fviol = "max_sensitivity", 1
 			return pt
 		}
