@@ -293,9 +293,7 @@ func (d *Design) mend(cp airframe.Axis, L *Loops) error {
 	cd := d.Cont
 	orig, origChecks := cd.Ctrl, d.checks()
 	set := func(c synth.Controller) error {
-		cd.Ctrl = c
-		var err error
-		if cd.Stage, err = synth.Restage(cp, cd.Stage, cd.Ctrl); err != nil {
+		if err := cd.Adjust(c); err != nil {
 			return err
 		}
 		return d.realize()

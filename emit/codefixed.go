@@ -49,6 +49,9 @@ type codeFixed struct {
 	// ShDF is the shift of the D term into the sum with derivative
 	// filters: the last derivative section's F − FU.
 	ShDF int
+	// Proved says that the overflow check passes: the bounds of the
+	// ranges, and the rounding bounds derived from them, hold.
+	Proved bool
 }
 
 // codeQ is one coefficient's product: the helper that forms it, the
@@ -168,7 +171,8 @@ func fixedConsts(u *codeUnit, ax *codeAxis, d *discrete.Design) error {
 		return fmt.Errorf("realization has %d-bit words, the code %d", f.W, u.Bits)
 	}
 	w := f.W
-	fx := &codeFixed{FU: f.FU, FS: f.FS, FD: f.FD, ShS: f.FS - f.FU, ShD: f.FD - f.FU, SatInc: f.SatInc, SatInt: f.SatInt}
+	fx := &codeFixed{FU: f.FU, FS: f.FS, FD: f.FD, ShS: f.FS - f.FU, ShD: f.FD - f.FU, SatInc: f.SatInc, SatInt: f.SatInt,
+		Proved: d.Num.RoundingProof() == "proved"}
 	for _, sh := range []int{f.FU, f.FS, f.FD} {
 		if sh < 0 || sh > w {
 			return fmt.Errorf("format shift %d outside [0, %d]", sh, w)
@@ -383,8 +387,8 @@ func filterSummary(re *discrete.Realization) string {
 				k, fmt.Sprintf("Q%d.%d", re.W-1-q.N, q.N), q.FIn, q.F, codeNum(math.Ldexp(r.Bound, -(q.F+re.W-1)))))
 		}
 	}
-	s := fmt.Sprintf("; filter chain in direct form I, each product rounded once into its section's output format: %s; the chain's output, rounded to the input LSB for the controller, <= %s x the input full scale (l1 gain), its rounding error <= %s input LSB before that rounding",
-		strings.Join(parts, "; "), codeNum(math.Ldexp(chain, -(re.W-1))), codeMetric(re.FilterNoiseLSB))
+	s := fmt.Sprintf("; filter chain in direct form I, each product rounded once into its section's output format: %s; the chain's output, rounded to the input LSB for the controller, <= %s x the input full scale (l1 gain), its rounding error <= %s input LSB before that rounding, %s",
+		strings.Join(parts, "; "), codeNum(math.Ldexp(chain, -(re.W-1))), codeMetric(re.FilterNoiseLSB), re.RoundingProof())
 	// The verdict is the filter_rounding check's, made only when the
 	// bounds hold (no overflow).
 	if c, ok := re.Check("filter_rounding"); ok && c.OK {
@@ -417,8 +421,8 @@ func dfilterSummary(re *discrete.Realization) string {
 		parts = append(parts, fmt.Sprintf("%d. coefficients %s, input %d and output %d fractional bits below the output LSB, |output| <= %s x the output full scale",
 			k, fmt.Sprintf("Q%d.%d", re.W-1-q.N, q.N), q.FIn, q.F, codeNum(math.Ldexp(r.Bound, -(q.F+re.W-1)))))
 	}
-	return fmt.Sprintf("; derivative filters in direct form I on the D term, each product rounded once into its section's output format, at rest 0: %s; the D term's rounding error <= %s output LSB (l1 bounds from the derivative's input)",
-		strings.Join(parts, "; "), codeMetric(re.DFilterNoiseLSB))
+	return fmt.Sprintf("; derivative filters in direct form I on the D term, each product rounded once into its section's output format, at rest 0: %s; the D term's rounding error <= %s output LSB (l1 bounds from the derivative's input; %s)",
+		strings.Join(parts, "; "), codeMetric(re.DFilterNoiseLSB), re.RoundingProof())
 }
 
 // fixedModel adapts discrete.Fixed to the excitation driver.

@@ -543,3 +543,46 @@ func TestEmitOutputDirVanishes(t *testing.T) {
 		}
 	}
 }
+
+// TestCLIUnprovedChain: a q15 airframe whose notch is so narrow (0.001 Hz
+// at 100 Hz) that its poles round onto the unit circle has no overflow
+// proof; written with --allow-unmet, its header and code do not call the
+// chain's rounding bound or its partial sums' bounds proved.
+func TestCLIUnprovedChain(t *testing.T) {
+	t.Parallel()
+	dir := cliWork(t)
+	src, err := os.ReadFile(filepath.Join(dir, "examples", "gimbal.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	text := strings.Replace(string(src), "kind = \"notch\"\nhz = \"auto\"", "kind = \"notch\"\nhz = 100.0\nwidth_hz = 0.001", 1)
+	if text == string(src) {
+		t.Fatal("the gimbal's automatic notch is not where the test edits it")
+	}
+	p := filepath.Join(dir, "examples", "narrow.toml")
+	if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out, code := emitCLI(t, dir, "-o", "gen", "--allow-unmet", p)
+	if code != 1 || !strings.Contains(out, "overflow") {
+		t.Fatalf("exit %d, want 1 with the overflow named:\n%s", code, out)
+	}
+	h, err := os.ReadFile(filepath.Join(dir, "gen", "gimbal_cam_rate.h"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	c, err := os.ReadFile(filepath.Join(dir, "gen", "gimbal_cam_rate.c"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The comments' words, without their line breaks.
+	words := func(b []byte) string {
+		return strings.Join(strings.Fields(strings.ReplaceAll(string(b), "//", " ")), " ")
+	}
+	if hw := words(h); !strings.Contains(hw, "holds only without overflow, not proved here") || strings.Contains(hw, "rounding, proved") {
+		t.Errorf("the header calls the chain's rounding bound proved")
+	}
+	if cw := words(c); !strings.Contains(cw, "bounds that hold only without overflow") || strings.Contains(cw, "their proved bounds") {
+		t.Errorf("the code calls the chain's partial sums' bounds proved")
+	}
+}

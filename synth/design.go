@@ -36,6 +36,9 @@ type Design struct {
 	Search   Result
 	Checks   []Check
 	Warnings []string
+	// pre are the warnings given before the chosen stage was judged
+	// (finish), which Adjust keeps.
+	pre []string
 }
 
 // OK reports whether every check passed.
@@ -139,10 +142,17 @@ func placeStage(p airframe.Axis, t Target, margins bool) (Stage, error) {
 	return verifyStage(p, t, c, margins)
 }
 
-// Restage verifies the stage st again with the controller c (a design
-// adjusted after the search), keeping its target.
-func Restage(p airframe.Axis, st Stage, c Controller) (Stage, error) {
-	return verifyStage(p, st.Target, c, true)
+// Adjust replaces the chosen controller with c (a design adjusted after
+// the search) and verifies and judges it again, keeping its target: its
+// checks and the warnings about it describe c.
+func (d *Design) Adjust(c Controller) error {
+	st, err := verifyStage(d.Problem, d.Stage.Target, c, true)
+	if err != nil {
+		return err
+	}
+	d.Stage = st
+	d.finish()
+	return nil
 }
 
 // verifyStage verifies the placed controller; without margins the
@@ -158,7 +168,10 @@ func verifyStage(p airframe.Axis, t Target, c Controller, margins bool) (Stage, 
 // finish fills the checks and collects warnings of the chosen stage.
 func (d *Design) finish() {
 	d.Recheck()
-	d.Warnings = append(d.Warnings, d.Verif.Warnings...)
+	if d.pre == nil {
+		d.pre = append([]string{}, d.Warnings...)
+	}
+	d.Warnings = append(append([]string(nil), d.pre...), d.Verif.Warnings...)
 	if w := leadNote(d.Ctrl); w != "" {
 		d.Warnings = append(d.Warnings, w)
 	}
@@ -169,7 +182,10 @@ func (d *Design) finish() {
 
 // leadNear is the pole-to-zero ratio of a lead below which leadNote
 // calls it a gain: its phase lead, at most asin((r − 1)/(r + 1)), is
-// then under 1.4° (the classical lead's maximum phase; from memory).
+// then under 1.4°. (The lead (s + z)/(s + p) with p = r·z has the phase
+// atan(ω/z) − atan(ω/p), largest at ω = √(z·p) where its sine is
+// (r − 1)/(r + 1): the classical lead design formula, e.g. Ogata, Modern
+// Control Engineering, lead compensation; from memory.)
 const leadNear = 1.05
 
 // leadNote says, for a lead whose pole lies within leadNear of its zero,
@@ -179,8 +195,9 @@ func leadNote(c Controller) string {
 	if c.Form != airframe.FormLead || !(c.Zero < 0) || !(c.Pole < 0) {
 		return ""
 	}
+	// A ratio below 1 is a lag (refine = false keeps the textbook's).
 	r := c.Pole / c.Zero
-	if !(r < leadNear) {
+	if !(r >= 1 && r < leadNear) {
 		return ""
 	}
 	return fmt.Sprintf("the lead's pole lies within %.3g %% of its zero (phase lead at most %.2g°): it acts as a gain of about %.4g, and a p controller would do the same with one state less",

@@ -601,7 +601,8 @@ func TestFallingMarginsMatchFull(t *testing.T) {
 // TestLeadNote: a lead whose pole lies within 5 % of its zero is called a
 // gain, with its largest phase lead asin((r − 1)/(r + 1)) (the classical
 // lead's maximum phase, from memory: r = 1.02 gives 0.567°); a real lead,
-// or another form, gets no note.
+// a lag (pole right of the zero, which refine = false can keep), or
+// another form, gets no note.
 func TestLeadNote(t *testing.T) {
 	c := Controller{Form: airframe.FormLead, K: 0.1005, Zero: -40, Pole: -40.8}
 	want := "the lead's pole lies within 2 % of its zero (phase lead at most 0.57°): it acts as a gain of about 0.1005, and a p controller would do the same with one state less"
@@ -610,6 +611,8 @@ func TestLeadNote(t *testing.T) {
 	}
 	for _, c := range []Controller{
 		{Form: airframe.FormLead, K: 1, Zero: -40, Pole: -44},
+		{Form: airframe.FormLead, K: 1, Zero: -40, Pole: -5}, // a lag (refine = false)
+		{Form: airframe.FormLead, K: 1, Zero: -40, Pole: -39.9},
 		{Form: airframe.FormPI, Kp: 1, Ki: 1},
 	} {
 		if got := leadNote(c); got != "" {

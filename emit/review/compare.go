@@ -92,6 +92,10 @@ type FilterChange struct {
 	Fields      []string `json:"fields,omitempty"`
 	OldPhaseDeg *float64 `json:"old_phase_at_crossover_deg"`
 	NewPhaseDeg *float64 `json:"new_phase_at_crossover_deg"`
+	// keys are the prefixes of the results that belong to a filter added
+	// or removed as a whole (its place in the filters list, its section's
+	// coefficients and ranges), which the text counts instead of listing.
+	keys []string
 }
 
 // The changes of a filter.
@@ -369,8 +373,10 @@ func diffFilters(oldA, newA *discrete.Airframe) []FilterChange {
 			switch {
 			case ch.Old == nil:
 				ch.Change = FilterAdded
+				ch.keys = sectionKeys(ns, i)
 			case ch.New == nil:
 				ch.Change = FilterRemoved
+				ch.keys = sectionKeys(os, i)
 			default:
 				ch.Fields = changedFields(os[i].f, ns[i].f)
 				if len(ch.Fields) == 0 {
@@ -382,6 +388,24 @@ func diffFilters(oldA, newA *discrete.Airframe) []FilterChange {
 		}
 	}
 	return out
+}
+
+// sectionKeys returns the prefixes of the results of filter i of chain
+// fs: filters[i] of the JSON report's list, and the section's
+// coefficients (F<k>_, D<k>_) and ranges ("filter k …", "derivative
+// filter k …") of the numeric realization, numbered within its own chain.
+func sectionKeys(fs []chainFilter, i int) []string {
+	k := 1
+	for _, f := range fs[:i] {
+		if f.f.At == fs[i].f.At {
+			k++
+		}
+	}
+	coef, rng := "F", "filter"
+	if fs[i].f.At == airframe.FilterAtDerivative {
+		coef, rng = "D", "derivative filter"
+	}
+	return []string{fmt.Sprintf("filters[%d].", i), fmt.Sprintf("numeric.coefficients.%s%d_", coef, k), fmt.Sprintf("numeric.ranges.%s %d ", rng, k)}
 }
 
 // axisResults is one axis's report: its figures flattened (path → value,
@@ -801,15 +825,18 @@ func (c *Comparison) WriteText(w io.Writer) error {
 	}
 	// The figures of a filter added or removed as a whole are told by the
 	// filter chain's changes above; the text counts them.
-	whole := map[string]bool{}
-	for _, f := range c.Filters {
-		if f.Change != FilterChanged {
-			whole[fmt.Sprintf("%s filters[%d].", f.Axis, f.Filter-1)] = true
-		}
-	}
 	wholeOf := func(ch ResultChange) bool {
-		i := strings.IndexByte(ch.Key, '.')
-		return i > 0 && strings.HasPrefix(ch.Key, "filters[") && whole[ch.Axis+" "+ch.Key[:i+1]]
+		for _, f := range c.Filters {
+			if f.Axis != ch.Axis {
+				continue
+			}
+			for _, k := range f.keys {
+				if strings.HasPrefix(ch.Key, k) {
+					return true
+				}
+			}
+		}
+		return false
 	}
 	for _, class := range []string{Regression, Improvement, Neutral} {
 		var rows [][3]string

@@ -11,6 +11,7 @@ import (
 	"testing"
 
 	"github.com/google/go-cmp/cmp"
+	"github.com/google/go-cmp/cmp/cmpopts"
 )
 
 // compareBase is the base airframe of the revision pairs (demo data,
@@ -431,7 +432,7 @@ func TestCompareFilters(t *testing.T) {
 	}} {
 		t.Run(tc.name, func(t *testing.T) {
 			c := compareTexts(t, tc.old, tc.new)
-			if diff := cmp.Diff(tc.want, c.Filters); diff != "" {
+			if diff := cmp.Diff(tc.want, c.Filters, cmpopts.IgnoreUnexported(FilterChange{})); diff != "" {
 				t.Errorf("filter changes (-want +got):\n%s", diff)
 			}
 			out := textOf(t, c)
@@ -471,6 +472,20 @@ func TestCompareFilters(t *testing.T) {
 	out := textOf(t, c)
 	if strings.Contains(out, "filters[1].") || !strings.Contains(out, "figures of the filters added or removed") || !strings.Contains(out, "roll filters[0].hz") {
 		t.Errorf("an added filter's figures are listed, or a changed one's are not:\n%s", out)
+	}
+	// In fixed point the section's coefficients and ranges too, numbered
+	// within its own chain (F2_, "filter 2 "), the moved filter's kept.
+	q15 := func(s string) string {
+		return edit(t, s, `type = "float32"`, "type = \"q15\"\ninput_full_scale = 20.0\noutput_full_scale = 1.0")
+	}
+	cq := compareTexts(t, q15(withNotch), q15(moved))
+	if len(cq.Filters) != 2 {
+		t.Fatalf("q15: filter changes %+v", cq.Filters)
+	}
+	outq := textOf(t, cq)
+	if strings.Contains(outq, "numeric.coefficients.F2_") || strings.Contains(outq, "numeric.ranges.filter 2 ") ||
+		findResult(cq, "roll", "numeric.coefficients.F2_B0.value") == nil || !strings.Contains(outq, "numeric.coefficients.F1_") {
+		t.Errorf("q15: the added section's figures are listed (or absent from the results), or the moved one's are not listed:\n%s", outq)
 	}
 
 	// A notch with hz = "auto" follows the mode it is placed on: the

@@ -19,7 +19,7 @@
 
 #include "compliant_fixed_rate.h"
 
-#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0x33afff3b17372247
+#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0xc0fe723e5ff88763
 #error "compliant_fixed_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

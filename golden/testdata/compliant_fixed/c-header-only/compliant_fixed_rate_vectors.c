@@ -19,7 +19,7 @@
 
 #include "compliant_fixed_rate.h"
 
-#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0x652fdb30f5e3a14d
+#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0x880b57946c9fb28e
 #error "compliant_fixed_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

@@ -34,9 +34,9 @@
 //   input LSB, |output| <= 2.128 x the input full scale; the chain's output,
 //   rounded to the input LSB for the controller, <= 2.128 x the input full
 //   scale (l1 gain), its rounding error <= 0.0167 input LSB before that
-//   rounding (below half an LSB: no step at engagement, exactly 0 at rest);
-//   minimum headroom 0.117 bits (filter 1 A1*y1 (product)); saturating:
-//   command before saturation.
+//   rounding, proved (below half an LSB: no step at engagement, exactly 0 at
+//   rest); minimum headroom 0.117 bits (filter 1 A1*y1 (product));
+//   saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
 // engagement (bumpless: the next command starts from output, the derivative

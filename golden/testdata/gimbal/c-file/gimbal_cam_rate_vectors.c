@@ -19,7 +19,7 @@
 
 #include "gimbal_cam_rate.h"
 
-#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0x404246159eeeb132
+#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0xe0a5abe1ad6dc167
 #error "gimbal_cam_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

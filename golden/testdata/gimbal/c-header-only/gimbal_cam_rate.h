@@ -30,7 +30,7 @@
 //   fractional bits below the input LSB, |output| <= 2.185 x the input full
 //   scale; the chain's output, rounded to the input LSB for the controller,
 //   <= 2.185 x the input full scale (l1 gain), its rounding error <= 0.0167
-//   input LSB before that rounding (below half an LSB: no step at
+//   input LSB before that rounding, proved (below half an LSB: no step at
 //   engagement, exactly 0 at rest); minimum headroom 0.0237 bits
 //   (Bd*<U+0394>v (product)); saturating: command before saturation.
 //
@@ -72,7 +72,7 @@
 // Content stamp: the first 64 bits of a SHA-256 of this header. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define GIMBAL_CAM_RATE_STAMP 0xd3baaa03e83d6cca
+#define GIMBAL_CAM_RATE_STAMP 0x9c13c95562c07f72
 
 #ifdef __cplusplus
 extern "C" {

@@ -30,8 +30,8 @@
 //   fractional bits below the input LSB, |output| <= 2.185 x the input full
 //   scale; the chain's output, rounded to the input LSB for the controller,
 //   <= 2.185 x the input full scale (l1 gain), its rounding error <=
-//   2.54e-07 input LSB before that rounding (below half an LSB: no step at
-//   engagement, exactly 0 at rest); minimum headroom 0.0237 bits
+//   2.54e-07 input LSB before that rounding, proved (below half an LSB: no
+//   step at engagement, exactly 0 at rest); minimum headroom 0.0237 bits
 //   (Bd*<U+0394>v (product)); saturating: command before saturation.
 //
 // Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
@@ -73,7 +73,7 @@
 // gimbal_cam_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define GIMBAL_CAM_RATE_STAMP 0xf6f0e36db80e447a
+#define GIMBAL_CAM_RATE_STAMP 0xc6a4416f913f97cf
 
 #ifdef __cplusplus
 extern "C" {

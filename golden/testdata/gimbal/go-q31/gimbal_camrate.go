@@ -30,8 +30,8 @@
 //   fractional bits below the input LSB, |output| <= 2.185 x the input full
 //   scale; the chain's output, rounded to the input LSB for the controller,
 //   <= 2.185 x the input full scale (l1 gain), its rounding error <=
-//   2.54e-07 input LSB before that rounding (below half an LSB: no step at
-//   engagement, exactly 0 at rest); minimum headroom 0.0237 bits
+//   2.54e-07 input LSB before that rounding, proved (below half an LSB: no
+//   step at engagement, exactly 0 at rest); minimum headroom 0.0237 bits
 //   (Bd*<U+0394>v (product)); saturating: command before saturation.
 //
 // Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
