@@ -25,9 +25,15 @@ var hostBuild struct {
 
 // TestMain removes the host build after the tests.
 func TestMain(m *testing.M) {
-	// go test starts the binary in the package's directory; tests may
-	// move the process later (TestJSONGolden).
-	if wd, err := os.Getwd(); err == nil {
+	// The source's directory where the binary knows it (not under
+	// -trimpath), else the working directory go test starts the binary
+	// in; tests may move the process later (TestJSONGolden).
+	if _, self, _, ok := runtime.Caller(0); ok && filepath.IsAbs(self) {
+		if _, err := os.Stat(self); err == nil {
+			pkgDir = filepath.Dir(self)
+		}
+	}
+	if wd, err := os.Getwd(); err == nil && pkgDir == "" {
 		pkgDir = wd
 	}
 	code := m.Run()
