@@ -2,6 +2,7 @@ package review
 
 import (
 	"bufio"
+	"cmp"
 	"encoding/json"
 	"fmt"
 	"io"
@@ -348,9 +349,13 @@ func changedFields(o, n airframe.Filter) []string {
 	return out
 }
 
-// diffFilters lists the filters added, removed or changed, place by
-// place, on the axes both versions have (an axis added or removed is a
-// result of its own, with every filter it has).
+// diffFilters lists the filters added, removed or changed on the axes
+// both versions have (an axis added or removed is a result of its own,
+// with every filter it has): place by place within each chain, the
+// feedback chain and the derivative filters, so that a filter added to
+// one chain does not move the other's; each is numbered by its place in
+// the JSON report's filters list (of the new version, of the old one for
+// a filter removed).
 func diffFilters(oldA, newA *discrete.Airframe) []FilterChange {
 	out := []FilterChange{}
 	oc, nc := chainOf(oldA), chainOf(newA)
@@ -360,31 +365,49 @@ func diffFilters(oldA, newA *discrete.Airframe) []FilterChange {
 		if !oin || !nin {
 			continue
 		}
-		for i := 0; i < max(len(os), len(ns)); i++ {
-			ch := FilterChange{Axis: ax, Filter: i + 1}
-			if i < len(os) {
-				d := os[i].describe()
-				ch.Old, ch.OldPhaseDeg = &d, os[i].phase
-			}
-			if i < len(ns) {
-				d := ns[i].describe()
-				ch.New, ch.NewPhaseDeg = &d, ns[i].phase
-			}
-			switch {
-			case ch.Old == nil:
-				ch.Change = FilterAdded
-				ch.keys = sectionKeys(ns, i)
-			case ch.New == nil:
-				ch.Change = FilterRemoved
-				ch.keys = sectionKeys(os, i)
-			default:
-				ch.Fields = changedFields(os[i].f, ns[i].f)
-				if len(ch.Fields) == 0 {
-					continue
+		var chs []FilterChange
+		for _, at := range []string{airframe.FilterAtFeedback, airframe.FilterAtDerivative} {
+			oi, ni := placesAt(os, at), placesAt(ns, at)
+			for j := 0; j < max(len(oi), len(ni)); j++ {
+				var ch FilterChange
+				if j < len(oi) {
+					d := os[oi[j]].describe()
+					ch.Old, ch.OldPhaseDeg, ch.Filter = &d, os[oi[j]].phase, oi[j]+1
 				}
-				ch.Change = FilterChanged
+				if j < len(ni) {
+					d := ns[ni[j]].describe()
+					ch.New, ch.NewPhaseDeg, ch.Filter = &d, ns[ni[j]].phase, ni[j]+1
+				}
+				ch.Axis = ax
+				switch {
+				case ch.Old == nil:
+					ch.Change = FilterAdded
+					ch.keys = sectionKeys(ns, ni[j])
+				case ch.New == nil:
+					ch.Change = FilterRemoved
+					ch.keys = sectionKeys(os, oi[j])
+				default:
+					ch.Fields = changedFields(os[oi[j]].f, ns[ni[j]].f)
+					if len(ch.Fields) == 0 {
+						continue
+					}
+					ch.Change = FilterChanged
+				}
+				chs = append(chs, ch)
 			}
-			out = append(out, ch)
+		}
+		slices.SortStableFunc(chs, func(a, b FilterChange) int { return cmp.Compare(a.Filter, b.Filter) })
+		out = append(out, chs...)
+	}
+	return out
+}
+
+// placesAt returns the places in fs of the filters at at, in order.
+func placesAt(fs []chainFilter, at string) []int {
+	var out []int
+	for i, f := range fs {
+		if f.f.At == at {
+			out = append(out, i)
 		}
 	}
 	return out

@@ -427,6 +427,12 @@ func TestCompareFilters(t *testing.T) {
 		want: []FilterChange{{Axis: "roll", Filter: 2, Change: FilterAdded, New: str(dlp), NewPhaseDeg: phaseOf(withDeriv, 1)}},
 		text: []string{"  roll filter 2 added: " + dlp + ";"},
 	}, {
+		// A feedback filter added ahead of a derivative one moves the
+		// latter's place in the list, not its chain: one change.
+		name: "feedback lowpass added before a derivative one", old: withDeriv, new: withNotch + lowpass + withDeriv[len(withNotch):],
+		want: []FilterChange{{Axis: "roll", Filter: 2, Change: FilterAdded, New: str(lp2), NewPhaseDeg: phaseOf(withNotch+lowpass+withDeriv[len(withNotch):], 1)}},
+		text: []string{"filter chain changed (1):\n  roll filter 2 added: " + lp2 + ";"},
+	}, {
 		name: "unchanged", old: moved, new: moved,
 		want: []FilterChange{},
 	}} {
