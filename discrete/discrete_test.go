@@ -714,7 +714,11 @@ func FuzzDesignAtRate(f *testing.F) {
 		}
 		if d.OK() {
 			for _, c := range d.Checks {
-				if math.IsNaN(c.Value) {
+				// stable has no value where a loop of more than
+				// maxSchurDegree states is judged by its winding number
+				// (the README's contract); the nominal loop's poles are
+				// still computed.
+				if math.IsNaN(c.Value) && !(c.Name == "stable" && d.Verif.Stable && !math.IsNaN(d.Verif.StabilityMargin)) {
 					t.Fatalf("check %s passed with NaN", c.Name)
 				}
 			}
