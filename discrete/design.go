@@ -273,7 +273,10 @@ func richerReach(p airframe.Axis, loop airframe.Loop) string {
 
 // mend handles a design that the search found passing and the exact
 // verification finds short by a hair in a frequency check: the search
-// judged those on its grid and with the prewarp at the textbook target.
+// judged the margins and the noise gain on its grid (Ms between grid
+// points too, but only at the envelope's corners, not at the plants in
+// between), and a tustin_prewarp controller with the prewarp at the
+// textbook target.
 // In order, it takes the first that passes every check of
 //
 //   - the design with its load-rejection gain lowered by steps of 0.5 %

@@ -242,17 +242,19 @@ type cand struct {
 
 // searcher holds the data of one search.
 type searcher struct {
-	p           airframe.Axis
-	L           Loops
-	fam         family
-	grid        []float64
-	open        [][]complex128
-	ncorn       int
-	bs          []float64
-	noiseB      float64 // noise bound in force (+Inf: none)
-	a, b        []complex128
-	lbuf        []complex128
-	bk          []float64 // scratch of msExact
+	p      airframe.Axis
+	L      Loops
+	fam    family
+	grid   []float64
+	open   [][]complex128
+	ncorn  int
+	bs     []float64
+	noiseB float64 // noise bound in force (+Inf: none)
+	a, b   []complex128
+	lbuf   []complex128
+	// bk holds msBound's bound at each grid frequency of each plant of
+	// the last shape it bounded (plant by plant), which msExact refines.
+	bk          []float64
 	cache       map[string]*point
 	closest     cand
 	haveClosest bool
@@ -430,6 +432,7 @@ func sameBits(u, v []float64) bool {
 func (sr *searcher) msBound() (float64, bool) {
 	r2 := sr.msR2()
 	xmax := math.Inf(1)
+	sr.bk = sr.bk[:0]
 	for i := range sr.open {
 		P := sr.open[i]
 		for k := range P {
@@ -438,6 +441,7 @@ func (sr *searcher) msBound() (float64, bool) {
 				return 0, false
 			}
 			xmax = math.Min(xmax, x)
+			sr.bk = append(sr.bk, x)
 		}
 	}
 	return snap(xmax), true
@@ -503,8 +507,8 @@ const msNear = 0.1
 const msInside = 1e-6
 
 // msExact returns the line's Ms bound between grid points too, from xg,
-// the bound on the grid (msBound, finite and positive), on the shape of
-// the basis in force (basis): at each plant,
+// the bound on the grid (msBound, finite and positive, just run on the
+// shape of the basis in force): at each plant,
 // each grid frequency whose own bound is least among its neighbours and
 // within msNear of xg is refined by minimizing the bound over the two
 // grid intervals around it (Brent's method in log ω). A design at the
@@ -518,17 +522,8 @@ func (sr *searcher) msExact(xg float64) float64 {
 	ca, c1 := sr.L.CtrlAt(sr.fam.ctrl(sr.th, 0)), sr.L.CtrlAt(sr.fam.ctrl(sr.th, 1))
 	x := xg
 	n := len(sr.grid)
-	bk := sr.bk[:0]
 	for i := range sr.open {
-		P := sr.open[i]
-		bk = bk[:0]
-		for k := range P {
-			v, ok := lineBound(1+lti.Mul(sr.a[k], P[k]), lti.Mul(sr.b[k], P[k]), r2)
-			if !ok {
-				v = 0
-			}
-			bk = append(bk, v)
-		}
+		bk := sr.bk[i*n : (i+1)*n]
 		at := func(w float64) float64 {
 			A := ca(w)
 			B := c1(w) - A
@@ -552,7 +547,6 @@ func (sr *searcher) msExact(xg float64) float64 {
 			x = math.Min(x, brentMin(at, lti.Log(lo), lti.Log(hi), lti.Log(sr.grid[k])))
 		}
 	}
-	sr.bk = bk
 	return x
 }
 
