@@ -439,14 +439,5 @@ func knownShort() map[string]float64 {
 		// its Ki and b = 0.625 alone: Ki ×0.95 to ×1.02, or b
 		// ± 0.025, settle in 0.28–0.45 s against 0.2 s.
 		"hexa_noise_pitch": 0.518,
-		// pid: 58.8 %. The search's line of Ki now stops at the exact Ms
-		// (it stopped at the grid's, 0.1 % over, before), and its best is
-		// Ki 1.59: the designs of larger Ki (the reference's 2.70, and a
-		// 4.39 the search finds under the default noise bound) are
-		// slivers a few per cent wide in every gain, which the coarse
-		// grid's lines step over (on the grid's line nearest the
-		// reference's best, only Ki 1.55–1.58 passes between 1.3 and
-		// 4.2, by steps of 2 %).
-		"winch_slow_pid": 0.583,
 	}
 }

@@ -23,11 +23,11 @@
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09075, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
 //   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
-//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   Sampled loop: overshoot 0.0357 %, settling 0.104 s, phase margin
 //   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
@@ -68,7 +68,7 @@
 // gimbal_cam_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define GIMBAL_CAM_RATE_STAMP 0x06bef645b3d14301
+#define GIMBAL_CAM_RATE_STAMP 0xa207fe9a5fed90bc
 
 #ifdef __cplusplus
 extern "C" {
@@ -126,8 +126,8 @@ void gimbal_cam_pitch_applied(gimbal_cam_pitch_state *s, float applied);
 // Axis yaw: coefficients and limits.
 #define GIMBAL_CAM_YAW_KP               0.010680312f // P gain on the measurement
 #define GIMBAL_CAM_YAW_KPB              0.0069422033f // P gain on the setpoint (setpoint weight b times Kp)
-#define GIMBAL_CAM_YAW_G0               2.265201e-05f // integral: weight of the current error
-#define GIMBAL_CAM_YAW_G01              4.530402e-05f // integral: state increment per unit error
+#define GIMBAL_CAM_YAW_G0               2.268778e-05f // integral: weight of the current error
+#define GIMBAL_CAM_YAW_G01              4.537556e-05f // integral: state increment per unit error
 #define GIMBAL_CAM_YAW_INTEGRATOR_LIMIT 1.0f // largest |integrator state|, command units
 #define GIMBAL_CAM_YAW_OUTPUT_LO        (-1.0f) // lowest command
 #define GIMBAL_CAM_YAW_OUTPUT_HI        1.0f // highest command

@@ -34,17 +34,17 @@
 //   engagement, exactly 0 at rest); minimum headroom 0.0237 bits
 //   (Bd*<U+0394>v (product)); saturating: command before saturation.
 //
-// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09075, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
 //   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
-//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   Sampled loop: overshoot 0.0357 %, settling 0.104 s, phase margin
 //   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB, Kp, G0, G01, Lo
 //   Q0.15, Hi Q0.15, IL Q2.29; states: integrator 14, derivative 16, sum 14
-//   fractional bits below the output LSB; minimum headroom 0.845 bits (G0*e
+//   fractional bits below the output LSB; minimum headroom 0.843 bits (G0*e
 //   (product)); saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
@@ -178,8 +178,8 @@ func (c *Pitch) Applied(applied int16) {
 const (
 	YawKp              int16 = 16799     // P gain on the measurement; Q-4.19 = 0.03204
 	YawKpB             int16 = 21838     // P gain on the setpoint; Q-5.20 = 0.02083
-	YawG0              int16 = 18242     // integral: weight of the current error; Q-13.28 = 6.796e-05
-	YawG01             int16 = 18242     // integral: state increment per unit error; Q-12.27 = 0.0001359
+	YawG0              int16 = 18271     // integral: weight of the current error; Q-13.28 = 6.806e-05
+	YawG01             int16 = 18271     // integral: state increment per unit error; Q-12.27 = 0.0001361
 	YawOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	YawOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
 	YawIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB

@@ -23,11 +23,11 @@
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09075, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
 //   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
-//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   Sampled loop: overshoot 0.0357 %, settling 0.104 s, phase margin
 //   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
@@ -177,8 +177,8 @@ func (c *Pitch) Faults() uint32 {
 const (
 	YawKp              float32 = 0.010680312  // P gain on the measurement
 	YawKpB             float32 = 0.0069422033 // P gain on the setpoint (setpoint weight b times Kp)
-	YawG0              float32 = 2.265201e-05 // integral: weight of the current error
-	YawG01             float32 = 4.530402e-05 // integral: state increment per unit error
+	YawG0              float32 = 2.268778e-05 // integral: weight of the current error
+	YawG01             float32 = 4.537556e-05 // integral: state increment per unit error
 	YawIntegratorLimit float32 = 1.0          // largest |integrator state|, command units
 	YawOutputLo        float32 = -1.0         // lowest command
 	YawOutputHi        float32 = 1.0          // highest command

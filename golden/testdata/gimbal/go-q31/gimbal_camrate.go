@@ -34,17 +34,17 @@
 //   step at engagement, exactly 0 at rest); minimum headroom 0.0237 bits
 //   (Bd*<U+0394>v (product)); saturating: command before saturation.
 //
-// Axis yaw: pi, Kp = 0.01068, Ki = 0.09061, b = 0.65.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09075, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
 //   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
-//   Sampled loop: overshoot 0.00867 %, settling 0.104 s, phase margin
+//   Sampled loop: overshoot 0.0357 %, settling 0.104 s, phase margin
 //   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB, Kp, G0, G01, Lo
 //   Q0.31, Hi Q0.31, IL Q1.62; states: integrator 31, derivative 32, sum 31
-//   fractional bits below the output LSB; minimum headroom 0.845 bits (G0*e
+//   fractional bits below the output LSB; minimum headroom 0.843 bits (G0*e
 //   (product)); saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
@@ -178,8 +178,8 @@ func (c *Pitch) Applied(applied int32) {
 const (
 	YawKp              int32 = 1100918239          // P gain on the measurement; Q-4.35 = 0.03204
 	YawKpB             int32 = 1431193710          // P gain on the setpoint; Q-5.36 = 0.02083
-	YawG0              int32 = 1195495124          // integral: weight of the current error; Q-13.44 = 6.796e-05
-	YawG01             int32 = 1195495124          // integral: state increment per unit error; Q-12.43 = 0.0001359
+	YawG0              int32 = 1197382898          // integral: weight of the current error; Q-13.44 = 6.806e-05
+	YawG01             int32 = 1197382898          // integral: state increment per unit error; Q-12.43 = 0.0001361
 	YawOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	YawOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
 	YawIntegratorLimit int64 = 4611686018427387904 // largest |integrator state|, 31 fractional bits below the output LSB

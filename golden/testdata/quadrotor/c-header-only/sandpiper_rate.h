@@ -30,12 +30,12 @@
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.03591, Ki = 0.07782, b = 0.75.
-//   discretized tustin; anti-windup backcalc (Tt = 0.4614 s); integrator
+// Axis yaw: pi, Kp = 0.03591, Ki = 0.08381, b = 0.725.
+//   discretized tustin; anti-windup backcalc (Tt = 0.4284 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.657 %, settling 0.256 s, phase margin
-//   55.2 deg, gain margin 24.8 dB.
+//   Sampled loop: overshoot 0.472 %, settling 0.264 s, phase margin
+//   54.3 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -75,7 +75,7 @@
 // Content stamp: the first 64 bits of a SHA-256 of this header. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0x03ecdbb65c1e9da6
+#define SANDPIPER_RATE_STAMP 0x97530d4d00fe4691
 
 #ifdef __cplusplus
 extern "C" {
@@ -127,10 +127,10 @@ typedef struct {
 
 // Axis yaw: coefficients and limits.
 #define SANDPIPER_YAW_KP               0.035906356f // P gain on the measurement
-#define SANDPIPER_YAW_KPB              0.026929766f // P gain on the setpoint (setpoint weight b times Kp)
-#define SANDPIPER_YAW_G0               3.8911523e-05f // integral: weight of the current error
-#define SANDPIPER_YAW_G01              7.7823046e-05f // integral: state increment per unit error
-#define SANDPIPER_YAW_KT               0.0021673893f // anti-windup back-calculation gain T/Tt
+#define SANDPIPER_YAW_KPB              0.026032107f // P gain on the setpoint (setpoint weight b times Kp)
+#define SANDPIPER_YAW_G0               4.1904343e-05f // integral: weight of the current error
+#define SANDPIPER_YAW_G01              8.3808685e-05f // integral: state increment per unit error
+#define SANDPIPER_YAW_KT               0.0023340906f // anti-windup back-calculation gain T/Tt
 #define SANDPIPER_YAW_INTEGRATOR_LIMIT 0.3f // largest |integrator state|, command units
 #define SANDPIPER_YAW_OUTPUT_LO        (-0.3f) // lowest command
 #define SANDPIPER_YAW_OUTPUT_HI        0.3f // highest command

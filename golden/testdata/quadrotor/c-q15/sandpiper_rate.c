@@ -8,7 +8,7 @@
 
 #include "sandpiper_rate.h"
 
-#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0x37638847679a2a57
+#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0x89d7670e260b7ab9
 #error "sandpiper_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

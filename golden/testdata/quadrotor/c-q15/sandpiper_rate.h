@@ -38,19 +38,18 @@
 //   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis yaw: pi, Kp = 0.03591, Ki = 0.07782, b = 0.75.
-//   discretized tustin; anti-windup backcalc (Tt = 0.4614 s); integrator
+// Axis yaw: pi, Kp = 0.03591, Ki = 0.08381, b = 0.725.
+//   discretized tustin; anti-windup backcalc (Tt = 0.4284 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.657 %, settling 0.256 s, phase margin
-//   55.2 deg, gain margin 24.8 dB.
+//   Sampled loop: overshoot 0.472 %, settling 0.264 s, phase margin
+//   54.3 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
 //   Lo Q0.15, Hi Q0.15, IL Q0.31; states: integrator 16, derivative
 //   16, sum 12 fractional bits below the output LSB; minimum headroom
-//   0.642 bits (integrator S + inc (before the clamp)); saturating: command
-//   before saturation.
+//   0.543 bits (G0*e (product)); saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
 // engagement (bumpless: the next command starts from output, the derivative
@@ -78,7 +77,7 @@
 // sandpiper_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0x37638847679a2a57
+#define SANDPIPER_RATE_STAMP 0x89d7670e260b7ab9
 
 #ifdef __cplusplus
 extern "C" {
@@ -162,10 +161,10 @@ void sandpiper_roll_applied(sandpiper_roll_state *s, int16_t applied);
 
 // Axis yaw: coefficients and limits.
 #define SANDPIPER_YAW_KP               ((int16_t)18825) // P gain on the measurement; Q3.12 = 4.596
-#define SANDPIPER_YAW_KPB              ((int16_t)28238) // P gain on the setpoint; Q2.13 = 3.447
-#define SANDPIPER_YAW_G0               ((int16_t)20890) // integral: weight of the current error; Q-7.22 = 0.004981
-#define SANDPIPER_YAW_G01              ((int16_t)20890) // integral: state increment per unit error; Q-6.21 = 0.009961
-#define SANDPIPER_YAW_KT               ((int16_t)18181) // anti-windup back-calculation gain T/Tt; Q-8.23 = 0.002167
+#define SANDPIPER_YAW_KPB              ((int16_t)27297) // P gain on the setpoint; Q2.13 = 3.332
+#define SANDPIPER_YAW_G0               ((int16_t)22497) // integral: weight of the current error; Q-7.22 = 0.005364
+#define SANDPIPER_YAW_G01              ((int16_t)22497) // integral: state increment per unit error; Q-6.21 = 0.01073
+#define SANDPIPER_YAW_KT               ((int16_t)19580) // anti-windup back-calculation gain T/Tt; Q-8.23 = 0.002334
 #define SANDPIPER_YAW_OUTPUT_LO        ((int16_t)-19661) // lowest command, raw; Q0.15 = -0.6
 #define SANDPIPER_YAW_OUTPUT_HI        ((int16_t)19661) // highest command, raw; Q0.15 = 0.6
 #define SANDPIPER_YAW_INTEGRATOR_LIMIT ((int32_t)1288490189) // largest |integrator state|, 16 fractional bits below the output LSB

@@ -30,12 +30,12 @@
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.03591, Ki = 0.07782, b = 0.75.
-//   discretized tustin; anti-windup backcalc (Tt = 0.4614 s); integrator
+// Axis yaw: pi, Kp = 0.03591, Ki = 0.08381, b = 0.725.
+//   discretized tustin; anti-windup backcalc (Tt = 0.4284 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.657 %, settling 0.256 s, phase margin
-//   55.2 deg, gain margin 24.8 dB.
+//   Sampled loop: overshoot 0.472 %, settling 0.264 s, phase margin
+//   54.3 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -260,10 +260,10 @@ func (c *Roll) Faults() uint32 {
 // Coefficients and limits of axis yaw.
 const (
 	YawKp              float32 = 0.035906356   // P gain on the measurement
-	YawKpB             float32 = 0.026929766   // P gain on the setpoint (setpoint weight b times Kp)
-	YawG0              float32 = 3.8911523e-05 // integral: weight of the current error
-	YawG01             float32 = 7.7823046e-05 // integral: state increment per unit error
-	YawKt              float32 = 0.0021673893  // anti-windup back-calculation gain T/Tt
+	YawKpB             float32 = 0.026032107   // P gain on the setpoint (setpoint weight b times Kp)
+	YawG0              float32 = 4.1904343e-05 // integral: weight of the current error
+	YawG01             float32 = 8.3808685e-05 // integral: state increment per unit error
+	YawKt              float32 = 0.0023340906  // anti-windup back-calculation gain T/Tt
 	YawIntegratorLimit float32 = 0.3           // largest |integrator state|, command units
 	YawOutputLo        float32 = -0.3          // lowest command
 	YawOutputHi        float32 = 0.3           // highest command

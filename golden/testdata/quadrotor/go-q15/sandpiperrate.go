@@ -38,19 +38,18 @@
 //   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis yaw: pi, Kp = 0.03591, Ki = 0.07782, b = 0.75.
-//   discretized tustin; anti-windup backcalc (Tt = 0.4614 s); integrator
+// Axis yaw: pi, Kp = 0.03591, Ki = 0.08381, b = 0.725.
+//   discretized tustin; anti-windup backcalc (Tt = 0.4284 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.657 %, settling 0.256 s, phase margin
-//   55.2 deg, gain margin 24.8 dB.
+//   Sampled loop: overshoot 0.472 %, settling 0.264 s, phase margin
+//   54.3 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
 //   Lo Q0.15, Hi Q0.15, IL Q0.31; states: integrator 16, derivative
 //   16, sum 12 fractional bits below the output LSB; minimum headroom
-//   0.642 bits (integrator S + inc (before the clamp)); saturating: command
-//   before saturation.
+//   0.543 bits (G0*e (product)); saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
 // engagement (bumpless: the next command starts from output, the derivative
@@ -230,10 +229,10 @@ func (c *Roll) Applied(applied int16) {
 // Coefficients and limits of axis yaw.
 const (
 	YawKp              int16 = 18825      // P gain on the measurement; Q3.12 = 4.596
-	YawKpB             int16 = 28238      // P gain on the setpoint; Q2.13 = 3.447
-	YawG0              int16 = 20890      // integral: weight of the current error; Q-7.22 = 0.004981
-	YawG01             int16 = 20890      // integral: state increment per unit error; Q-6.21 = 0.009961
-	YawKt              int16 = 18181      // anti-windup back-calculation gain T/Tt; Q-8.23 = 0.002167
+	YawKpB             int16 = 27297      // P gain on the setpoint; Q2.13 = 3.332
+	YawG0              int16 = 22497      // integral: weight of the current error; Q-7.22 = 0.005364
+	YawG01             int16 = 22497      // integral: state increment per unit error; Q-6.21 = 0.01073
+	YawKt              int16 = 19580      // anti-windup back-calculation gain T/Tt; Q-8.23 = 0.002334
 	YawOutputLo        int16 = -19661     // lowest command, raw; Q0.15 = -0.6
 	YawOutputHi        int16 = 19661      // highest command, raw; Q0.15 = 0.6
 	YawIntegratorLimit int32 = 1288490189 // largest |integrator state|, 16 fractional bits below the output LSB

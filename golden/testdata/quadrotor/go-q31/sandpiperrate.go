@@ -38,19 +38,18 @@
 //   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis yaw: pi, Kp = 0.03591, Ki = 0.07782, b = 0.75.
-//   discretized tustin; anti-windup backcalc (Tt = 0.4614 s); integrator
+// Axis yaw: pi, Kp = 0.03591, Ki = 0.08381, b = 0.725.
+//   discretized tustin; anti-windup backcalc (Tt = 0.4284 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.657 %, settling 0.256 s, phase margin
-//   55.2 deg, gain margin 24.8 dB.
+//   Sampled loop: overshoot 0.472 %, settling 0.264 s, phase margin
+//   54.3 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
 //   Lo Q0.31, Hi Q0.31, IL Q0.63; states: integrator 32, derivative
 //   32, sum 28 fractional bits below the output LSB; minimum headroom
-//   0.642 bits (integrator S + inc (before the clamp)); saturating: command
-//   before saturation.
+//   0.543 bits (G0*e (product)); saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
 // engagement (bumpless: the next command starts from output, the derivative
@@ -230,10 +229,10 @@ func (c *Roll) Applied(applied int32) {
 // Coefficients and limits of axis yaw.
 const (
 	YawKp              int32 = 1233732940          // P gain on the measurement; Q3.28 = 4.596
-	YawKpB             int32 = 1850599410          // P gain on the setpoint; Q2.29 = 3.447
-	YawG0              int32 = 1369077446          // integral: weight of the current error; Q-7.38 = 0.004981
-	YawG01             int32 = 1369077446          // integral: state increment per unit error; Q-6.37 = 0.009961
-	YawKt              int32 = 1191534785          // anti-windup back-calculation gain T/Tt; Q-8.39 = 0.002167
+	YawKpB             int32 = 1788912763          // P gain on the setpoint; Q2.29 = 3.332
+	YawG0              int32 = 1474377927          // integral: weight of the current error; Q-7.38 = 0.005364
+	YawG01             int32 = 1474377927          // integral: state increment per unit error; Q-6.37 = 0.01073
+	YawKt              int32 = 1283179846          // anti-windup back-calculation gain T/Tt; Q-8.39 = 0.002334
 	YawOutputLo        int32 = -1288490189         // lowest command, raw; Q0.31 = -0.6
 	YawOutputHi        int32 = 1288490189          // highest command, raw; Q0.31 = 0.6
 	YawIntegratorLimit int64 = 5534023222112865280 // largest |integrator state|, 32 fractional bits below the output LSB
