@@ -19,32 +19,25 @@ func TestLooserNoiseBoundNoWorse(t *testing.T) {
 	if testing.Short() {
 		names = map[string]bool{"winch_slow_pid": true}
 	}
-	for _, af := range refAirframes() {
-		if !names[af.name] {
-			continue
+	forKneeCases(t, names, func(t *testing.T, rc refCase, d *discrete.Design) {
+		loose := rc
+		loose.p.Spec.MaxNoiseGain = 1.01 * d.Cont.Search.NoiseBound
+		dl, gain, ok, fails, err := toolOutcome(loose)
+		if err != nil {
+			t.Fatal(err)
 		}
-		t.Run(af.name, func(t *testing.T) {
-			t.Parallel()
-			rc, d := kneeCase(t, af)
-			loose := rc
-			loose.p.Spec.MaxNoiseGain = 1.01 * d.Cont.Search.NoiseBound
-			dl, gain, ok, fails, err := toolOutcome(loose)
-			if err != nil {
-				t.Fatal(err)
-			}
-			if !ok {
-				t.Fatalf("under max_noise_gain %g (the default %g + 1 %%) the design fails: %v", loose.p.Spec.MaxNoiseGain, d.Cont.Search.NoiseBound, fails)
-			}
-			// The pattern search's last step moves Ki by 0.7 %
-			// (synth's nearStep of 0.003 decades).
-			want := refLoadGain(d.Cont.Ctrl) * (1 - 0.007)
-			if gain < want {
-				t.Errorf("Ki %.6g under max_noise_gain %g, below the default bound's %.6g (bound %g)", gain, loose.p.Spec.MaxNoiseGain, refLoadGain(d.Cont.Ctrl), d.Cont.Search.NoiseBound)
-			}
-			t.Logf("default bound %.6g: Ki %.6g; 1 %% looser: Ki %.6g (%d judgments against %d)", d.Cont.Search.NoiseBound, refLoadGain(d.Cont.Ctrl), gain,
-				dl.Cont.Search.Evaluations, d.Cont.Search.Evaluations)
-		})
-	}
+		if !ok {
+			t.Fatalf("under max_noise_gain %g (the default %g + 1 %%) the design fails: %v", loose.p.Spec.MaxNoiseGain, d.Cont.Search.NoiseBound, fails)
+		}
+		// The pattern search's last step moves Ki by 0.7 %
+		// (synth's nearStep of 0.003 decades).
+		want := refLoadGain(d.Cont.Ctrl) * (1 - 0.007)
+		if gain < want {
+			t.Errorf("Ki %.6g under max_noise_gain %g, below the default bound's %.6g (bound %g)", gain, loose.p.Spec.MaxNoiseGain, refLoadGain(d.Cont.Ctrl), d.Cont.Search.NoiseBound)
+		}
+		t.Logf("default bound %.6g: Ki %.6g; 1 %% looser: Ki %.6g (%d judgments against %d)", d.Cont.Search.NoiseBound, refLoadGain(d.Cont.Ctrl), gain,
+			dl.Cont.Search.Evaluations, d.Cont.Search.Evaluations)
+	})
 }
 
 // TestKneeNotDominatedOnItsLine: the default design of a pi or pid (the
@@ -52,8 +45,9 @@ func TestLooserNoiseBoundNoWorse(t *testing.T) {
 // its own shape: with Kp and Kd held, a brute-force scan of Ki upward by
 // 2 % steps to 2.5 times the design's (every setpoint weight of the
 // search's grid within 0.05 of the design's) finds no passing controller
-// of 2 % more Ki (NearBest) within the design's noise bound. Before the search scanned the knee's line
-// (synth's scanKnee), joint_compliant designed Ki 0.154 where its shape
+// of 2 % more Ki (NearBest) within the design's noise bound. Before the
+// search scanned the knee's line (synth's scanKnee), joint_compliant
+// designed Ki 0.154 where its shape
 // passes again at Ki 0.322–0.332, past a failing band. The checks are
 // discrete.Assess's, the reference's judge, independent of the search.
 func TestKneeNotDominatedOnItsLine(t *testing.T) {
@@ -61,45 +55,51 @@ func TestKneeNotDominatedOnItsLine(t *testing.T) {
 		t.Skip("judges 200 controllers over the envelope; skipped with -short")
 	}
 	names := map[string]bool{"joint_compliant": true}
-	for _, af := range refAirframes() {
-		if !names[af.name] {
-			continue
-		}
-		t.Run(af.name, func(t *testing.T) {
-			t.Parallel()
-			rc, d := kneeCase(t, af)
-			nb := d.Cont.Search.NoiseBound
-			c0 := d.Cont.Ctrl
-			n := 0
-			for ki := c0.Ki * (1 + synth.NearBest); ki < 2.5*c0.Ki; ki *= 1.02 {
-				for b := 1.0; b >= 0; b -= 0.025 {
-					if b > c0.B+0.05+1e-9 || b < c0.B-0.05-1e-9 {
-						continue
-					}
-					c := c0
-					c.Ki, c.B = ki, b
-					cs, err := discrete.Assess(rc.p, rc.file.Loop, c, nb)
-					if err != nil {
-						t.Fatal(err)
-					}
-					n++
-					ok := true
-					for _, x := range cs {
-						ok = ok && x.OK
-					}
-					if ok {
-						t.Fatalf("Ki %.6g (b %.3f) passes on the design's shape within its noise bound %.6g: the design's Ki %.6g is dominated", ki, b, nb, c0.Ki)
-					}
+	forKneeCases(t, names, func(t *testing.T, rc refCase, d *discrete.Design) {
+		nb := d.Cont.Search.NoiseBound
+		c0 := d.Cont.Ctrl
+		n := 0
+		for ki := c0.Ki * (1 + synth.NearBest); ki < 2.5*c0.Ki; ki *= 1.02 {
+			for b := 1.0; b >= 0; b -= 0.025 {
+				if b > c0.B+0.05+1e-9 || b < c0.B-0.05-1e-9 {
+					continue
+				}
+				c := c0
+				c.Ki, c.B = ki, b
+				cs, err := discrete.Assess(rc.p, rc.file.Loop, c, nb)
+				if err != nil {
+					t.Fatal(err)
+				}
+				n++
+				ok := true
+				for _, x := range cs {
+					ok = ok && x.OK
+				}
+				if ok {
+					t.Fatalf("Ki %.6g (b %.3f) passes on the design's shape within its noise bound %.6g: the design's Ki %.6g is dominated", ki, b, nb, c0.Ki)
 				}
 			}
-			t.Logf("Ki %.6g (b %.3f): no passing Ki from %.6g to %.6g on its shape (%d controllers judged)", c0.Ki, c0.B, c0.Ki*(1+synth.NearBest), 2.5*c0.Ki, n)
-		})
+		}
+		t.Logf("Ki %.6g (b %.3f): no passing Ki from %.6g to %.6g on its shape (%d controllers judged)", c0.Ki, c0.B, c0.Ki*(1+synth.NearBest), 2.5*c0.Ki, n)
+	})
+}
+
+// forKneeCases runs f in parallel subtests on the named reference
+// airframes, each a pi or pid under the default noise bound (its knee),
+// with the tool's design, which must pass.
+func forKneeCases(t *testing.T, names map[string]bool, f func(t *testing.T, rc refCase, d *discrete.Design)) {
+	for _, af := range refAirframes() {
+		if names[af.name] {
+			t.Run(af.name, func(t *testing.T) {
+				t.Parallel()
+				rc, d := kneeCase(t, af)
+				f(t, rc, d)
+			})
+		}
 	}
 }
 
-// kneeCase loads reference airframe af, a pi or pid under the default
-// noise bound (its knee), and returns it with the tool's design, which
-// must pass.
+// kneeCase loads reference airframe af and designs it (see forKneeCases).
 func kneeCase(t *testing.T, af refAirframe) (refCase, *discrete.Design) {
 	t.Helper()
 	rc, err := loadRefCase(af)
