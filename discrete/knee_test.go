@@ -47,9 +47,9 @@ func TestLooserNoiseBoundNoWorse(t *testing.T) {
 // search's grid within 0.05 of the design's) finds no passing controller
 // of 2 % more Ki (NearBest) within the design's noise bound. Before the
 // search scanned the knee's line (synth's scanKnee), joint_compliant
-// designed Ki 0.154 where its shape
-// passes again at Ki 0.322–0.332, past a failing band. The checks are
-// discrete.Assess's, the reference's judge, independent of the search.
+// designed Ki 0.154 where its shape passes again at Ki 0.322–0.332, past
+// a failing band. The checks are discrete.Assess's, the reference's
+// judge, independent of the search.
 func TestKneeNotDominatedOnItsLine(t *testing.T) {
 	if testing.Short() {
 		t.Skip("judges 200 controllers over the envelope; skipped with -short")
