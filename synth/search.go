@@ -51,6 +51,16 @@ import (
 // then a denser grid, within fineBudget judgments (see maximize). Forms
 // without an integral reach that search too when their scan for the
 // least noise gain passes nowhere.
+//
+// The passing set on one line of x can be several windows, a few per
+// cent wide, past failing bands (a settling time jumps where a ripple of
+// the response leaves the band): the knee behind the default noise bound
+// has its own line scanned finely before it sets the bound (scanKnee),
+// the design's line and its neighbours' are scanned below their tops
+// (scanAbove), and where the scan moved the knee both knees are refined.
+// Under a noise bound of the file the search starts from the knee found
+// without it when that meets the bound (freeKnee), so that loosening the
+// bound never lowers the design's gain below the default's.
 
 // NoiseFactor sets the default noise bound of the forms without an
 // integral (p, pd, lead): at most NoiseFactor times the least noise gain
