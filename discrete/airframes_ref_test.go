@@ -704,5 +704,38 @@ min_phase_margin = 30.0
 form = "p"
 output_limit = [-1.0, 0.5]
 `},
+		// Found by a brute-force scan of each design's own line of Ki
+		// among random airframes of our own: a pid whose line passes again
+		// 6.6 % above the design, past a failing band, further below the
+		// top of the line than scanAbove's fine steps reached.
+		{"flexarm_notch_roll", `
+airframe = "flexarm_notch_roll"
+description = "demo data: invented arm joint with a lightly damped mode (460 rad/s, damping 0.17) behind an automatic notch at a 2 kHz loop under a PID; not a real product"
+loop_hz = 2000.0
+
+[numeric]
+type = "float32"
+
+[axes.roll.plant]
+gain = 8.582e+05
+poles = [0.0, -43.36, [-80.41, 460]]
+
+[axes.roll.sensor]
+lowpass_hz = 356.6
+
+[axes.roll.spec]
+settling_time = 0.185
+overshoot = 0.1
+min_phase_margin = 45.0
+min_gain_margin = 6.0
+
+[axes.roll.control]
+form = "pid"
+output_limit = [-0.5, 0.5]
+
+[[axes.roll.filter]]
+kind = "notch"
+hz = "auto"
+`},
 	}
 }

@@ -2460,8 +2460,8 @@ func (sr *searcher) localGrids(c cand, step []float64, judge judgeFunc, better f
 // steps of the line searches skipped: on the best design's shape and its
 // two neighbours in each shape parameter (an eighth of the pattern
 // search's step), each line of x from the top the frequency checks allow
-// down to the best's gain, by steps of scanStep; the first that passes on
-// a line is the largest there. The passing set of the time checks can be
+// down to the best's gain, by the steps of lineStep; the first that
+// passes on a line is the largest there. The passing set of the time checks can be
 // a window a few per cent wide in the gain above a failing band (a
 // settling time jumps where a ripple leaves the band), which the line
 // searches' steps of 7 and 8 % step over (on arm_narrow_pi among the
@@ -2488,7 +2488,7 @@ func (sr *searcher) scanAbove(best cand, step []float64, judge judgeFunc) (cand,
 			continue
 		}
 		sr.basis(pt.th)
-		for i, x := 0, pt.xf; i < maxScan && sr.fam.gain(pt.th, x) > out.gain*(1+1e-6); i, x = i+1, x*scanStep {
+		for i, x := 0, pt.xf; i < maxScan+maxCoarseScan && sr.fam.gain(pt.th, x) > out.gain*(1+1e-6); i, x = i+1, x*lineStep(i) {
 			c, err := judge(pt, x, false, nil)
 			if err != nil {
 				return out, err
@@ -2503,8 +2503,8 @@ func (sr *searcher) scanAbove(best cand, step []float64, judge judgeFunc) (cand,
 }
 
 // scanKnee scans the knee's line of x (its shape, without a noise bound)
-// from the top the frequency checks allow down to the knee: by scanStep
-// for maxScan gains, then by kneeStep. The first design that passes is
+// from the top the frequency checks allow down to the knee, by the steps
+// of lineStep. The first design that passes is
 // the largest on the line; it replaces the knee when its Ki/N² is
 // larger. The passing set in Ki on one shape can be several windows: on
 // joint_compliant (a lightly damped joint among the reference airframes
@@ -2520,7 +2520,7 @@ func (sr *searcher) scanKnee(knee cand, judge judgeFunc) (cand, error) {
 	sr.basis(pt.th)
 	score := func(c cand) float64 { return c.gain / (c.noise * c.noise) }
 	x := pt.xf
-	for i := 0; x > knee.x*(1+1e-6); i++ {
+	for i := 0; i < maxScan+maxCoarseScan && x > knee.x*(1+1e-6); i, x = i+1, x*lineStep(i) {
 		c, err := judge(pt, x, false, nil)
 		if err != nil {
 			return knee, err
@@ -2531,22 +2531,32 @@ func (sr *searcher) scanKnee(knee cand, judge judgeFunc) (cand, error) {
 			}
 			return knee, nil
 		}
-		if i < maxScan {
-			x *= scanStep
-		} else {
-			x *= kneeStep
-		}
 	}
 	return knee, nil
 }
 
-// kneeStep is scanKnee's step below its first maxScan gains (1.5 %): it
-// finds every window at least that wide.
-const kneeStep = 0.985
+// lineStep is the factor from the i-th gain of a line's scan (scanAbove,
+// scanKnee) to the next: scanStep for the first maxScan gains, then
+// coarseScanStep.
+func lineStep(i int) float64 {
+	if i < maxScan {
+		return scanStep
+	}
+	return coarseScanStep
+}
 
-// scanStep and maxScan are the step of scanAbove's lines (0.5 %, a
-// quarter of the narrowest window seen) and the most gains it judges on
-// one line (to 27 % below its top).
+// coarseScanStep and maxCoarseScan are the step of a line's scan below
+// its first maxScan gains (1.5 %: it finds every window at least that
+// wide) and the most gains it judges there (to 98 % below the top with
+// the first maxScan).
+const (
+	coarseScanStep = 0.985
+	maxCoarseScan  = 192
+)
+
+// scanStep and maxScan are the first step of scanAbove's and scanKnee's
+// lines (0.5 %, a quarter of the narrowest window seen) and the most
+// gains judged by it (to 27 % below the top).
 const (
 	scanStep = 0.995
 	maxScan  = 64
