@@ -57,10 +57,11 @@ import (
 // the response leaves the band): the knee behind the default noise bound
 // has its own line scanned finely before it sets the bound (scanKnee),
 // the design's line and its neighbours' are scanned below their tops
-// (scanAbove), and where the scan moved the knee both knees are refined.
-// Under a noise bound of the file the search starts from the knee found
-// without it when that meets the bound (freeKnee), so that loosening the
-// bound never lowers the design's gain below the default's.
+// (scanAbove), and where the scan moved the knee both knees are refined
+// (kneeDesign). Under a noise bound of the file the search starts from
+// the design the default bound would give when that meets the bound
+// (freeDesign), so that loosening the bound never lowers the design's
+// gain below the default's.
 
 // NoiseFactor sets the default noise bound of the forms without an
 // integral (p, pd, lead): at most NoiseFactor times the least noise gain
@@ -1698,21 +1699,20 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 	// that bound (it passes there too), which makes a small feasible set
 	// no harder to find than under the default.
 	explicit := p.Spec.MaxNoiseGain > 0
-	var first, other cand // other: a second start for refine
-	haveOther := false
-	found := false
+	var first cand
+	found, refined := false, false
 	var err error
 	if p.Ctrl.Form.HasIntegral() {
-		bounded := true
+		more := true
 		if explicit {
-			first, found, bounded, err = sr.freeKnee(g0, w0, func() { evals++ })
+			first, found, more, err = sr.freeDesign(g0, w0, func() { evals++ })
 		}
-		if err == nil && bounded {
-			k, kf, kerr := sr.maximize(grid, step, judge, sr.perNoisePower(), nil)
-			if kf && (!found || k.gain > first.gain) {
+		if err == nil && more {
+			var k cand
+			var kf bool
+			if k, kf, err = sr.maximize(grid, step, judge, sr.perNoisePower(), nil); kf && (!found || k.gain > first.gain) {
 				first, found = k, true
 			}
-			err = kerr
 		}
 	} else {
 		first, found, err = sr.leastNoise(grid, step, judge)
@@ -1734,25 +1734,11 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		res.NoiseBound = p.Spec.MaxNoiseGain
 		sr.ratioB = 0
 	case found && p.Ctrl.Form.HasIntegral():
-		// The knee's design is also the design of the largest Ki under
-		// its own noise gain: a design of more Ki and no more noise would
-		// have a larger Ki/N². So the knee is the design, once its own
-		// line has been scanned above it for a window its search stepped
-		// over (the bound set below would end that line at the knee).
-		knee := first
-		if first, err = sr.scanKnee(first, judge); err != nil {
+		if best, err = sr.kneeDesign(first, step, judge); err != nil {
 			return res, err
 		}
-		res.NoiseBound = first.noise * (1 + 1e-9)
-		sr.noiseB = res.NoiseBound
-		best, ok = first, true
-		if first.x != knee.x && knee.noise <= sr.noiseB {
-			// Both are refined below: the pattern and polish steps
-			// that end at a local best from one need not from the
-			// other (the review golden's demo pan: Ki 0.0953 from the
-			// knee its search found, 0.0852 from the scanned one).
-			other, haveOther = knee, true
-		}
+		res.NoiseBound = sr.noiseB
+		ok, refined = true, true
 	case found:
 		res.NoiseBound = NoiseFactor * first.noise
 		sr.noiseB, sr.ratioB = res.NoiseBound, 0
@@ -1797,16 +1783,9 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		}
 		return res, nil
 	}
-	if best, err = sr.refine(best, step, judge); err != nil {
-		return res, err
-	}
-	if haveOther {
-		c, err := sr.refine(other, step, judge)
-		if err != nil {
+	if !refined {
+		if best, err = sr.refine(best, step, judge); err != nil {
 			return res, err
-		}
-		if c.gain > best.gain {
-			best = c
 		}
 	}
 	best, err = sr.quietest(best, step, judge)
@@ -1837,22 +1816,52 @@ func (sr *searcher) refine(c cand, step []float64, judge judgeFunc) (cand, error
 	return sr.polish(better, step, judge)
 }
 
-// freeKnee returns a first design under the file's noise bound from the
-// knee of the trade-off between load rejection and noise found without
-// that bound (the design the default bound would be set by). Under the
-// file's bound the knee's own search is bounded too, and takes another
-// path through the grid: on a reference airframe (winch_slow_pid of
-// package discrete) a bound 1 % looser than the default one led it to a
-// knee of Ki 1.59, where the default's is 4.39, and the search for the
-// largest Ki from there found no more. When the free knee meets the
-// bound it is the first design, and a bound at least as loose as the
-// default never designs a lower Ki than the default; otherwise the first
-// design is the best of the knee's shape under the bound (if any), and
-// bounded says that the knee's search under the bound should run too.
-// Without any free knee the bounded search has nothing to find either
-// (the bound only removes designs), and bounded is false. tick counts
-// each judgment.
-func (sr *searcher) freeKnee(g0, w0 float64, tick func()) (c cand, found, bounded bool, err error) {
+// kneeDesign returns the design of the default noise bound from the knee
+// k of the trade-off between load rejection and noise (the largest
+// Ki/N²), and sets that bound (sr.noiseB): the knee's design is also the
+// design of the largest Ki under its own noise gain, since a design of
+// more Ki and no more noise would have a larger Ki/N². Its own line is
+// first scanned above it for a window the knee's search stepped over
+// (scanKnee; the bound would end that line at the knee), and the design
+// is then refined (refine) from the knee found and, where the scan moved
+// it, from the knee the scan found too, the better kept: the local
+// steps that end at a local best from one need not from the other (the
+// review golden's demo pan: Ki 0.0953 from the first, 0.0852 from the
+// second). The tie-break toward less noise (quietest) is left to the
+// caller.
+func (sr *searcher) kneeDesign(k cand, step []float64, judge judgeFunc) (cand, error) {
+	first, err := sr.scanKnee(k, judge)
+	if err != nil {
+		return first, err
+	}
+	sr.noiseB = first.noise * (1 + 1e-9)
+	best, err := sr.refine(first, step, judge)
+	if err != nil || first.x == k.x || !(k.noise <= sr.noiseB) {
+		return best, err
+	}
+	c, err := sr.refine(k, step, judge)
+	if err == nil && c.gain > best.gain {
+		best = c
+	}
+	return best, err
+}
+
+// freeDesign returns a first design under the file's noise bound from
+// the design the default bound would give (kneeDesign on a searcher
+// without the file's bound). Under the file's bound the knee's own search
+// is bounded too and takes another path through the grid: on a reference
+// airframe (winch_slow_pid of package discrete) a bound 1 % looser than
+// the default one led it to a knee of Ki 1.59, where the default's design
+// has 4.39, and the search for the largest Ki from there found no more.
+// When the default's design meets the bound it is the first design, and a
+// bound at least as loose as the default never designs a lower Ki than
+// the default (but for the tie-break toward less noise); otherwise the
+// first design is the best of its shape under the bound (if any). more
+// says that the knee's search under the bound should run too (the first
+// design is not the default's own); without a default design the bounded
+// search has nothing to find either (the bound only removes designs), and
+// more is false. tick counts each judgment.
+func (sr *searcher) freeDesign(g0, w0 float64, tick func()) (c cand, found, more bool, err error) {
 	q := sr.p
 	q.Spec.MaxNoiseGain = 0
 	free := newSearcher(q, sr.L, g0, w0)
@@ -1860,12 +1869,16 @@ func (sr *searcher) freeKnee(g0, w0 float64, tick func()) (c cand, found, bounde
 		tick()
 		return free.judge(pt, x, shrink, worth)
 	}
-	k, ok, err := free.maximize(free.gridPoints(), free.gridStep(), judge, free.perNoisePower(), nil)
+	step := free.gridStep()
+	k, ok, err := free.maximize(free.gridPoints(), step, judge, free.perNoisePower(), nil)
 	if err != nil || !ok {
 		return cand{}, false, false, err
 	}
-	// The knee's shape on the bounded searcher's point, whose line of x
-	// the bound ends at or below the knee's gain.
+	if k, err = free.kneeDesign(k, step, judge); err != nil {
+		return cand{}, false, false, err
+	}
+	// The same shape on the bounded searcher's point, whose line of x
+	// the bound ends at or below the design's gain.
 	pt := sr.screen(k.pt.u)
 	if !(pt.xf > 0) {
 		return cand{}, false, true, nil
@@ -2517,8 +2530,7 @@ func (sr *searcher) scanKnee(knee cand, judge judgeFunc) (cand, error) {
 	if !(pt.xf > knee.x) {
 		return knee, nil
 	}
-	sr.basis(pt.th)
-	score := func(c cand) float64 { return c.gain / (c.noise * c.noise) }
+	score := sr.perNoisePower().score
 	x := pt.xf
 	for i := 0; i < maxScan+maxCoarseScan && x > knee.x*(1+1e-6); i, x = i+1, x*lineStep(i) {
 		c, err := judge(pt, x, false, nil)
@@ -2546,9 +2558,9 @@ func lineStep(i int) float64 {
 }
 
 // coarseScanStep and maxCoarseScan are the step of a line's scan below
-// its first maxScan gains (1.5 %: it finds every window at least that
-// wide) and the most gains it judges there (to 98 % below the top with
-// the first maxScan).
+// its first maxScan gains (1.5 %: it finds every window at least 1.6 %
+// wide) and the most gains it judges there (with the first maxScan, to
+// 96 % below the top).
 const (
 	coarseScanStep = 0.985
 	maxCoarseScan  = 192
