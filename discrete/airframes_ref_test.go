@@ -710,7 +710,7 @@ output_limit = [-1.0, 0.5]
 		// top of the line than scanAbove's fine steps reached.
 		{"flexarm_notch_roll", `
 airframe = "flexarm_notch_roll"
-description = "demo data: invented arm joint with a lightly damped mode (460 rad/s, damping 0.17) behind an automatic notch at a 2 kHz loop under a PID; not a real product"
+description = "demo data: invented arm joint with a lightly damped mode (467 rad/s, damping 0.17) behind an automatic notch at a 2 kHz loop under a PID; not a real product"
 loop_hz = 2000.0
 
 [numeric]
