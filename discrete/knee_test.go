@@ -11,10 +11,10 @@ import (
 // fall when the bound is loosened (a maximum over a larger set; a fact of
 // optimization), so a max_noise_gain 1 % above the default bound must
 // design at least the default's Ki (but for the tie-break toward less
-// noise, NearBest). Before the search started an explicit bound from the
-// design of the default one (synth's freeDesign), winch_slow_pid designed
-// Ki 4.39 under the default bound and 1.59 under one 1 % looser, and
-// joint_compliant 0.509 and 0.169.
+// noise, NearBest). Before the search kept, under an explicit bound, the
+// design of the default one where it meets it (synth's freeDesign),
+// winch_slow_pid designed Ki 4.39 under the default bound and 1.59 under
+// one 1 % looser, and joint_compliant 0.509 and 0.169.
 func TestLooserNoiseBoundNoWorse(t *testing.T) {
 	names := map[string]bool{"winch_slow_pid": true, "crawler_delay": true, "quad_slow_roll": true,
 		"joint_compliant": true, "flexarm_notch_roll": true}

@@ -58,10 +58,10 @@ import (
 // has its own line scanned finely before it sets the bound (scanKnee),
 // the design's line and its neighbours' are scanned below their tops
 // (scanAbove), and where the scan moved the knee both knees are refined
-// (kneeDesign). Under a noise bound of the file the search starts from
-// the design the default bound would give when that meets the bound
-// (freeDesign), so that loosening the bound never lowers the design's
-// gain below the default's.
+// (kneeDesign). Under a noise bound of the file the search keeps the
+// better of its own design and the design the default bound would give,
+// where that meets the bound (freeDesign), so that loosening the bound
+// never lowers the design's gain below the default's.
 
 // NoiseFactor sets the default noise bound of the forms without an
 // integral (p, pd, lead): at most NoiseFactor times the least noise gain
@@ -1703,17 +1703,7 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 	found, refined := false, false
 	var err error
 	if p.Ctrl.Form.HasIntegral() {
-		more := true
-		if explicit {
-			first, found, more, err = sr.freeDesign(g0, w0, func() { evals++ })
-		}
-		if err == nil && more {
-			var k cand
-			var kf bool
-			if k, kf, err = sr.maximize(grid, step, judge, sr.perNoisePower(), nil); kf && (!found || k.gain > first.gain) {
-				first, found = k, true
-			}
-		}
+		first, found, err = sr.maximize(grid, step, judge, sr.perNoisePower(), nil)
 	} else {
 		first, found, err = sr.leastNoise(grid, step, judge)
 		if err == nil && !found {
@@ -1753,6 +1743,17 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		}
 		if best, ok, err = sr.maximize(grid, step, judge, sr.loadGain(), seed); err != nil {
 			return res, err
+		}
+	}
+	if explicit && p.Ctrl.Form.HasIntegral() {
+		// The design the default bound would give, where it meets the
+		// file's bound (see freeDesign).
+		fd, fdOK, err := sr.freeDesign(g0, w0, func() { evals++ })
+		if err != nil {
+			return res, err
+		}
+		if fdOK && (!ok || fd.gain > best.gain) {
+			best, ok = fd, true
 		}
 	}
 	res.Evaluations = evals
@@ -1846,22 +1847,18 @@ func (sr *searcher) kneeDesign(k cand, step []float64, judge judgeFunc) (cand, e
 	return best, err
 }
 
-// freeDesign returns a first design under the file's noise bound from
-// the design the default bound would give (kneeDesign on a searcher
-// without the file's bound). Under the file's bound the knee's own search
-// is bounded too and takes another path through the grid: on a reference
+// freeDesign returns the design the default noise bound would give
+// (kneeDesign on a searcher without the file's bound), judged again under
+// the file's bound when it meets it, else the best of its shape's line
+// under the bound (found false when none passes). Under the file's bound
+// the searches take other paths through the grid: on a reference
 // airframe (winch_slow_pid of package discrete) a bound 1 % looser than
-// the default one led it to a knee of Ki 1.59, where the default's design
-// has 4.39, and the search for the largest Ki from there found no more.
-// When the default's design meets the bound it is the first design, and a
-// bound at least as loose as the default never designs a lower Ki than
-// the default (but for the tie-break toward less noise); otherwise the
-// first design is the best of its shape under the bound (if any). more
-// says that the knee's search under the bound should run too (the first
-// design is not the default's own); without a default design the bounded
-// search has nothing to find either (the bound only removes designs), and
-// more is false. tick counts each judgment.
-func (sr *searcher) freeDesign(g0, w0 float64, tick func()) (c cand, found, more bool, err error) {
+// the default one designed Ki 1.59, where the default's design has 4.39.
+// The search keeps the better of this and its own design under the
+// bound, so a bound at least as loose as the default never designs a
+// lower Ki than the default (but for the tie-break toward less noise).
+// tick counts each judgment.
+func (sr *searcher) freeDesign(g0, w0 float64, tick func()) (cand, bool, error) {
 	q := sr.p
 	q.Spec.MaxNoiseGain = 0
 	free := newSearcher(q, sr.L, g0, w0)
@@ -1872,16 +1869,16 @@ func (sr *searcher) freeDesign(g0, w0 float64, tick func()) (c cand, found, more
 	step := free.gridStep()
 	k, ok, err := free.maximize(free.gridPoints(), step, judge, free.perNoisePower(), nil)
 	if err != nil || !ok {
-		return cand{}, false, false, err
+		return cand{}, false, err
 	}
 	if k, err = free.kneeDesign(k, step, judge); err != nil {
-		return cand{}, false, false, err
+		return cand{}, false, err
 	}
 	// The same shape on the bounded searcher's point, whose line of x
 	// the bound ends at or below the design's gain.
 	pt := sr.screen(k.pt.u)
 	if !(pt.xf > 0) {
-		return cand{}, false, true, nil
+		return cand{}, false, nil
 	}
 	exact := k.noise <= sr.noiseB
 	x := pt.xf
@@ -1889,13 +1886,11 @@ func (sr *searcher) freeDesign(g0, w0 float64, tick func()) (c cand, found, more
 		x = math.Min(k.x, pt.xf)
 	}
 	tick()
-	if c, err = sr.judge(pt, x, !exact, nil); err != nil {
-		return cand{}, false, false, err
+	c, err := sr.judge(pt, x, !exact, nil)
+	if err != nil || !c.ok || !(c.noise <= sr.noiseB) {
+		return cand{}, false, err
 	}
-	if !c.ok || !(c.noise <= sr.noiseB) {
-		return cand{}, false, true, nil
-	}
-	return c, true, !exact || c.x < k.x*(1-1e-9), nil
+	return c, true, nil
 }
 
 // maxAlternates bounds Result.Alternates.
