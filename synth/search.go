@@ -2469,10 +2469,10 @@ func (sr *searcher) localGrids(c cand, step []float64, judge judgeFunc, better f
 // two neighbours in each shape parameter (an eighth of the pattern
 // search's step), each line of x from the top the frequency checks allow
 // down to the best's gain, by the steps of lineStep; the first that
-// passes on a line is the largest there. The passing set of the time checks can be
-// a window a few per cent wide in the gain above a failing band (a
-// settling time jumps where a ripple leaves the band), which the line
-// searches' steps of 7 and 8 % step over (on arm_narrow_pi among the
+// passes on a line is the largest there. The passing set of the time
+// checks can be a window a few per cent wide in the gain above a failing
+// band (a settling time jumps where a ripple leaves the band), which the
+// line searches' steps of 7 and 8 % step over (on arm_narrow_pi among the
 // reference airframes of package discrete a window 2 % wide lies 13 %
 // above the best design they found). It returns the best design found,
 // best itself when none beats it.
@@ -2512,9 +2512,9 @@ func (sr *searcher) scanAbove(best cand, step []float64, judge judgeFunc) (cand,
 
 // scanKnee scans the knee's line of x (its shape, without a noise bound)
 // from the top the frequency checks allow down to the knee, by the steps
-// of lineStep. The first design that passes is
-// the largest on the line; it replaces the knee when its Ki/N² is
-// larger. The passing set in Ki on one shape can be several windows: on
+// of lineStep. The first design that passes is the largest on the line;
+// it replaces the knee when its Ki/N² is larger. The passing set in Ki on
+// one shape can be several windows: on
 // joint_compliant (a lightly damped joint among the reference airframes
 // of package discrete) the knee's shape passes at Ki 0.154 and again at
 // 0.322–0.332 (setpoint weight 0.95), past a failing band the line
