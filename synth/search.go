@@ -1747,14 +1747,26 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 	}
 	if explicit && p.Ctrl.Form.HasIntegral() {
 		// The design the default bound would give, where it meets the
-		// file's bound (see freeDesign).
+		// file's bound (see freeDesign), against the search's own,
+		// both refined.
+		if ok {
+			if best, err = sr.refine(best, step, judge); err != nil {
+				return res, err
+			}
+		}
 		fd, fdOK, err := sr.freeDesign(g0, w0, func() { evals++ })
 		if err != nil {
 			return res, err
 		}
 		if fdOK && (!ok || fd.gain > best.gain) {
-			best, ok = fd, true
+			if fd, err = sr.refine(fd, step, judge); err != nil {
+				return res, err
+			}
+			if !ok || fd.gain > best.gain {
+				best, ok = fd, true
+			}
 		}
+		refined = true
 	}
 	res.Evaluations = evals
 	if !ok {
@@ -1821,15 +1833,15 @@ func (sr *searcher) refine(c cand, step []float64, judge judgeFunc) (cand, error
 // k of the trade-off between load rejection and noise (the largest
 // Ki/N²), and sets that bound (sr.noiseB): the knee's design is also the
 // design of the largest Ki under its own noise gain, since a design of
-// more Ki and no more noise would have a larger Ki/N². Its own line is
-// first scanned above it for a window the knee's search stepped over
-// (scanKnee; the bound would end that line at the knee), and the design
-// is then refined (refine) from the knee found and, where the scan moved
-// it, from the knee the scan found too, the better kept: the local
-// steps that end at a local best from one need not from the other (the
-// review golden's demo pan: Ki 0.0953 from the first, 0.0852 from the
-// second). The tie-break toward less noise (quietest) is left to the
-// caller.
+// more Ki and no more noise would have a larger Ki/N². The knee's own
+// line is first scanned above it for a window its search stepped over
+// (scanKnee; the bound would end that line at the knee), and the knee
+// the scan leaves sets the bound and is refined (refine). Where the scan
+// moved the knee and k meets that bound, k is refined too and the better
+// design kept: the local steps that end at a local best from one need
+// not from the other (the review golden's demo pan: Ki 0.0953 from k,
+// 0.0852 from the scanned knee). The tie-break toward less noise
+// (quietest) is left to the caller.
 func (sr *searcher) kneeDesign(k cand, step []float64, judge judgeFunc) (cand, error) {
 	first, err := sr.scanKnee(k, judge)
 	if err != nil {
@@ -1849,8 +1861,9 @@ func (sr *searcher) kneeDesign(k cand, step []float64, judge judgeFunc) (cand, e
 
 // freeDesign returns the design the default noise bound would give
 // (kneeDesign on a searcher without the file's bound), judged again under
-// the file's bound when it meets it, else the best of its shape's line
-// under the bound (found false when none passes). Under the file's bound
+// the file's bound when it meets it, else the first design of its shape's
+// line that passes from the top the bound allows down by the line
+// search's steps (found false when none passes). Under the file's bound
 // the searches take other paths through the grid: on a reference
 // airframe (winch_slow_pid of package discrete) a bound 1 % looser than
 // the default one designed Ki 1.59, where the default's design has 4.39.
@@ -1883,7 +1896,18 @@ func (sr *searcher) freeDesign(g0, w0 float64, tick func()) (cand, bool, error) 
 	exact := k.noise <= sr.noiseB
 	x := pt.xf
 	if exact {
-		x = math.Min(k.x, pt.xf)
+		x = k.x
+		if k.x > pt.xf {
+			// screen's bisection of the noise bound ends up to 0.5 %
+			// below where the bound is reached: a design whose noise is
+			// the bound itself (a file that pins the reported default)
+			// lies above the point's xf, and is checked exactly there
+			// (its Ms bound holds, the same on both searchers).
+			sr.basis(pt.th)
+			if ok, _, _ := sr.freqOK(k.x); !ok {
+				x = pt.xf
+			}
+		}
 	}
 	tick()
 	c, err := sr.judge(pt, x, !exact, nil)
