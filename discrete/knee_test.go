@@ -56,13 +56,12 @@ func TestLooserNoiseBoundNoWorse(t *testing.T) {
 // 2 % steps to 2.5 times the design's (every setpoint weight of the
 // search's grid within 0.05 of the design's) finds no passing controller
 // within the design's noise bound 2 % (NearBest) above the best the
-// design may stand for. Before the
-// search scanned the knee's line (synth's scanKnee), joint_compliant
-// designed Ki 0.154 where its shape passes again at Ki 0.322–0.332, past
-// a failing band; before its line scans went below 27 % under the top
-// (lineStep), flexarm_notch_roll designed Ki 669.6 where its line passes
-// at 713.7. The checks are discrete.Assess's, the reference's judge,
-// independent of the search.
+// design may stand for. Before the search scanned the knee's line
+// (synth's scanKnee), joint_compliant designed Ki 0.154 where its shape
+// passes again at Ki 0.322–0.332, past a failing band; before its line
+// scans went below 27 % under the top (lineStep), flexarm_notch_roll
+// designed Ki 669.6 where its line passes at 713.7. The checks are
+// discrete.Assess's, the reference's judge, independent of the search.
 func TestNotDominatedOnItsLine(t *testing.T) {
 	if testing.Short() {
 		t.Skip("judges 450 controllers over the envelope; skipped with -short")
