@@ -2492,8 +2492,8 @@ func (sr *searcher) localGrids(c cand, step []float64, judge judgeFunc, better f
 // steps of the line searches skipped: on the best design's shape and its
 // two neighbours in each shape parameter (an eighth of the pattern
 // search's step), each line of x from the top the frequency checks allow
-// down to the best's gain, by the steps of lineStep; the first that
-// passes on a line is the largest there. The passing set of the time
+// down to the best's gain (scanLine); the first that passes on a line is
+// the largest there. The passing set of the time
 // checks can be a window a few per cent wide in the gain above a failing
 // band (a settling time jumps where a ripple leaves the band), which the
 // line searches' steps of 7 and 8 % step over (on arm_narrow_pi among the
@@ -2519,26 +2519,36 @@ func (sr *searcher) scanAbove(best cand, step []float64, judge judgeFunc) (cand,
 		if !(pt.xf > 0) {
 			continue
 		}
-		sr.basis(pt.th)
-		for i, x := 0, pt.xf; i < maxScan+maxCoarseScan && sr.fam.gain(pt.th, x) > out.gain*(1+1e-6); i, x = i+1, x*lineStep(i) {
-			c, err := judge(pt, x, false, nil)
-			if err != nil {
-				return out, err
-			}
-			if c.ok {
-				out = c
-				break
-			}
+		c, ok, err := sr.scanLine(pt, out.gain, judge)
+		if err != nil {
+			return out, err
+		}
+		if ok {
+			out = c
 		}
 	}
 	return out, nil
 }
 
+// scanLine judges pt's line of x from the top the frequency checks allow
+// down, by the steps of lineStep, while the load-rejection gain stays
+// above floor, and returns the first design that passes (the largest on
+// the line that the steps see), if any.
+func (sr *searcher) scanLine(pt *point, floor float64, judge judgeFunc) (cand, bool, error) {
+	x := pt.xf
+	for i := 0; i < maxScan+maxCoarseScan && sr.fam.gain(pt.th, x) > floor*(1+1e-6); i, x = i+1, x*lineStep(i) {
+		c, err := judge(pt, x, false, nil)
+		if err != nil || c.ok {
+			return c, err == nil, err
+		}
+	}
+	return cand{}, false, nil
+}
+
 // scanKnee scans the knee's line of x (its shape, without a noise bound)
-// from the top the frequency checks allow down to the knee, by the steps
-// of lineStep. The first design that passes is the largest on the line;
-// it replaces the knee when its Ki/N² is larger. The passing set in Ki on
-// one shape can be several windows: on
+// down to the knee (scanLine). The first design that passes is the
+// largest on the line; it replaces the knee when its Ki/N² is larger.
+// The passing set in Ki on one shape can be several windows: on
 // joint_compliant (a lightly damped joint among the reference airframes
 // of package discrete) the knee's shape passes at Ki 0.154 and again at
 // 0.322–0.332 (setpoint weight 0.95), past a failing band the line
@@ -2549,25 +2559,15 @@ func (sr *searcher) scanKnee(knee cand, judge judgeFunc) (cand, error) {
 	if !(pt.xf > knee.x) {
 		return knee, nil
 	}
-	score := sr.perNoisePower().score
-	x := pt.xf
-	for i := 0; i < maxScan+maxCoarseScan && x > knee.x*(1+1e-6); i, x = i+1, x*lineStep(i) {
-		c, err := judge(pt, x, false, nil)
-		if err != nil {
-			return knee, err
-		}
-		if c.ok {
-			if score(c) > score(knee) {
-				return c, nil
-			}
-			return knee, nil
-		}
+	c, ok, err := sr.scanLine(pt, knee.gain, judge)
+	if score := sr.perNoisePower().score; err != nil || !ok || !(score(c) > score(knee)) {
+		return knee, err
 	}
-	return knee, nil
+	return c, nil
 }
 
-// lineStep is the factor from the i-th gain of a line's scan (scanAbove,
-// scanKnee) to the next: scanStep for the first maxScan gains, then
+// lineStep is the factor from the i-th gain of a line's scan (scanLine)
+// to the next: scanStep for the first maxScan gains, then
 // coarseScanStep.
 func lineStep(i int) float64 {
 	if i < maxScan {
@@ -2585,9 +2585,9 @@ const (
 	maxCoarseScan  = 192
 )
 
-// scanStep and maxScan are the first step of scanAbove's and scanKnee's
-// lines (0.5 %, a quarter of the narrowest window seen) and the most
-// gains judged by it (to 27 % below the top).
+// scanStep and maxScan are the first step of scanLine (0.5 %, a quarter
+// of the narrowest window seen) and the most gains judged by it (to 27 %
+// below the top).
 const (
 	scanStep = 0.995
 	maxScan  = 64
