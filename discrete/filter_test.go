@@ -465,3 +465,16 @@ func TestFilterRealization(t *testing.T) {
 		t.Errorf("WithSections of the plant's own sections differs from the plant")
 	}
 }
+
+// TestFeedbackFilterUnformable: an Axis built in code (not parsed, so
+// not validated) with a feedback filter that cannot be formed, a notch
+// of no width, is an error of the design naming the filter and what is
+// allowed, not a panic or a loop designed without it.
+func TestFeedbackFilterUnformable(t *testing.T) {
+	p := demo(airframe.FormPID)
+	p.Filters = []airframe.Filter{{Kind: airframe.FilterNotch, At: "feedback", Hz: 250, WidthHz: 0}}
+	_, err := DesignAxis(p, airframe.Loop{Hz: 1000, ComputeDelay: 1}, airframe.Numeric{Type: airframe.Float32})
+	if err == nil || !strings.Contains(err.Error(), "filter[0]") || !strings.Contains(err.Error(), "must be in") {
+		t.Errorf("DesignAxis: %v, want an error naming filter[0] and its allowed width", err)
+	}
+}
