@@ -737,5 +737,31 @@ output_limit = [-0.5, 0.5]
 kind = "notch"
 hz = "auto"
 `},
+		// Found by a campaign of random airframes of our own: a pd whose
+		// feasible set lies against the noise-ratio bound (Kd/(Tf·Kp) close
+		// to 19), between the coarse grid's derivative shares; the search
+		// called it infeasible until the grid held the bound itself.
+		{"pd_ratio_edge_roll", `
+airframe = "pd_ratio_edge_roll"
+description = "demo data: invented slow-motored airframe under a pd with a 5 ms delay; roll; not a real vehicle"
+loop_hz = 1000.0
+
+[axes.roll.plant]
+effectiveness = 2917.0
+motor_tau = 0.05872
+delay = 0.005
+
+[axes.roll.sensor]
+lowpass_hz = 220.7
+
+[axes.roll.spec]
+settling_time = 0.355
+overshoot = 0.05
+min_phase_margin = 40.0
+
+[axes.roll.control]
+form = "pd"
+output_limit = [-1.0, 1.0]
+`},
 	}
 }

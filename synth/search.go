@@ -42,8 +42,9 @@ import (
 // bisection, and the time checks by steps. So one evaluation answers, for
 // a whole line of controllers, how far it can go; the search needs a grid
 // over the shape only (two dimensions at most): a coarse structured grid
-// over several decades around the plant's own gain scale, then a pattern
-// search (halving steps down to NearStep) from the best point.
+// over several decades around the plant's own gain scale (for a pd or a
+// lead, with the shape at the NoiseRatio limit itself, family.edge), then
+// a pattern search (halving steps down to NearStep) from the best point.
 //
 // When no shape of the grid passes, the feasible set, if any, is small:
 // descents down the violation from the closest shapes, then local grids
@@ -153,8 +154,15 @@ type family struct {
 	// floor, when set, bounds each shape parameter below (in the log
 	// units of lo and hi): a lead's pole must stay left of its zero.
 	floor []float64
-	ctrl  func(th []float64, x float64) Controller
-	gain  func(th []float64, x float64) float64 // the load-rejection gain
+	// edge, when set, is the shape (in the log units of lo and hi) where
+	// the noise gain meets NoiseRatio times the load-rejection gain. The
+	// coarse grid holds it besides its even points: the noise-ratio
+	// bound is a constraint of the search, and a small feasible set lies
+	// against it when more derivative (or lead) phase is what settles
+	// the loop.
+	edge []float64
+	ctrl func(th []float64, x float64) Controller
+	gain func(th []float64, x float64) float64 // the load-rejection gain
 }
 
 // newFamily sets up the search of form f around the gain scale g0 of the
@@ -183,6 +191,7 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 		// ρ alone.
 		tf := p.Ctrl.Tf()
 		return family{ref: []float64{1}, lo: []float64{-2}, hi: []float64{2}, steps: []int{17}, xRef: g0, gain: one,
+			edge: []float64{ratioEdge(NoiseRatio - 1)},
 			ctrl: func(th []float64, x float64) Controller {
 				c := base
 				c.Kp, c.Kd = x, th[0]*tf*x
@@ -193,7 +202,7 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 		// θ is the pole's distance ratio r = p/z > 1 (pole left of the
 		// zero); the grid spans r from 1.02 to 200.
 		return family{ref: []float64{1}, lo: []float64{lti.Log10(1.02)}, hi: []float64{lti.Log10(200)}, steps: []int{17},
-			xRef: g0, floor: []float64{lti.Log10(1.02)},
+			xRef: g0, floor: []float64{lti.Log10(1.02)}, edge: []float64{ratioEdge(NoiseRatio)},
 			gain: func(th []float64, x float64) float64 { return x / th[0] },
 			ctrl: func(th []float64, x float64) Controller {
 				c := base
@@ -1600,7 +1609,17 @@ func (sr *searcher) gridPoints() [][]float64 {
 		}
 		pts = next
 	}
+	if f.edge != nil {
+		pts = append(pts, slices.Clone(f.edge))
+	}
 	return pts
+}
+
+// ratioEdge returns log10 of the shape r a hair inside the noise-ratio
+// bound r ≤ lim, where the noise gain computed on the sampled loop still
+// meets it after rounding.
+func ratioEdge(lim float64) float64 {
+	return lti.Log10(lim * (1 - 1e-9))
 }
 
 // denseGrid returns the shapes of a grid k times as dense as the coarse
