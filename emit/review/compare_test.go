@@ -105,22 +105,24 @@ func TestComparePairs(t *testing.T) {
 		regressed, improved []string
 		clean               bool
 	}{{
-		// A retune that improves: the gyro lowpass raised from 60 to
-		// 100 Hz costs less phase at the crossover, so the same checks
-		// hold with a lower noise gain; nothing gets worse.
+		// A retune that gets nothing worse: the gyro lowpass raised from
+		// 60 to 100 Hz costs less phase at the crossover, so the same
+		// checks hold with a lower noise gain (4.6 % lower, under the 5 %
+		// that makes an improvement) and a larger Ki.
 		name: "gyro_lowpass_raised", old: edit(t, base, "lowpass_hz = 100.0", "lowpass_hz = 60.0"), new: base,
-		before: true, now: true, improved: []string{"checks.noise_gain"}, clean: true,
+		before: true, now: true, clean: true,
 	}, {
 		// A retune that regresses a margin: with the settling limit
 		// relaxed from 0.15 to 0.2 s the design spends the slack on a
-		// lower noise gain, and the phase margin comes to within the floor
-		// of its limit; load rejection gets worse.
+		// lower noise gain, and the overshoot comes closer to its limit
+		// by more than 5 % of it; load rejection gets worse.
 		name: "settling_relaxed", old: base, new: edit(t, base, "settling_time = 0.15", "settling_time = 0.2"),
-		before: true, now: true, regressed: []string{"checks.phase_margin", objectiveKey}, improved: []string{"checks.noise_gain"},
+		before: true, now: true, regressed: []string{"checks.overshoot", objectiveKey}, improved: []string{"checks.noise_gain"},
 	}, {
-		// A check newly failing: a phase margin of 89° is out of reach.
+		// A check newly failing: with a phase margin of 89° the closest
+		// design cannot settle in time.
 		name: "phase_margin_unreachable", old: base, new: edit(t, base, "min_phase_margin = 40.0", "min_phase_margin = 89.0"),
-		before: true, now: false, regressed: []string{"checks.phase_margin"},
+		before: true, now: false, regressed: []string{"checks.settling_time"},
 	}, {
 		// The envelope widened from ±10 % to ±30 % plant gain: every
 		// check still holds, with more margin, but only with a far smaller
@@ -137,13 +139,14 @@ func TestComparePairs(t *testing.T) {
 		// A notch added to the filter chain at 150 Hz, well above the
 		// crossover (42 rad/s, 6.7 Hz): its phase lag there, about
 		// 2·ζ·(f/f0)/(1 − (f/f0)²) rad with ζ = width/(2·f0) (the notch's
-		// low-frequency phase, from its transfer function), 0.7°, takes
-		// the phase margin to within the floor of its 40° limit: a
-		// regression, though every check still holds. Its keys are
-		// compared one by one, under the index the file's messages use
+		// low-frequency phase, from its transfer function), 0.7°, is
+		// taken up by the redesign: every check holds, the phase margin
+		// where it was (40.21° → 40.15°, within 5 % of its 40° limit
+		// before and after), and nothing regresses. Its keys are compared
+		// one by one, under the index the file's messages use
 		// (axes.roll.filter[0].hz).
 		name: "notch_added", old: base, new: base + "\n[[axes.roll.filter]]\nkind = \"notch\"\nat = \"feedback\"\nhz = 150.0\nwidth_hz = 40.0\n",
-		before: true, now: true, regressed: []string{"checks.phase_margin"},
+		before: true, now: true, clean: true,
 	}, {
 		// The form changed from a PI, which cannot meet the settling
 		// limit over the envelope, to a PID, which can.

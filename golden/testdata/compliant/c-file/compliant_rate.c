@@ -8,7 +8,7 @@
 
 #include "compliant_rate.h"
 
-#if !defined(COMPLIANT_RATE_STAMP) || COMPLIANT_RATE_STAMP != 0x3ee7ca0751f50406
+#if !defined(COMPLIANT_RATE_STAMP) || COMPLIANT_RATE_STAMP != 0x977365989232da31
 #error "compliant_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

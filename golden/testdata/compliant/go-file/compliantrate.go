@@ -8,17 +8,17 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.01921, Ki = 0.1772, Kd = 0.0003146,
-// Tf = 0.001273 s, b = 0.425.
+// Axis pitch: pid, Kp = 0.0203, Ki = 0.2092, Kd = 0.0003122,
+// Tf = 0.001273 s, b = 0.34.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.04213 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03863 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Feedback filter chain on the measured rate, before the controller: 1.
-//   notch 40 Hz (auto), -3 dB width 16 Hz (phase -3.24 deg at the
-//   crossover); 2. lowpass 200 Hz, order 2, damping 0.7071 (phase -1.94 deg
-//   at the crossover).
+//   notch 40 Hz (auto), -3 dB width 16 Hz (phase -3.35 deg at the
+//   crossover); 2. lowpass 200 Hz, order 2, damping 0.7071 (phase -2 deg at
+//   the crossover).
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 7.52e-06 %, settling 0.131 s, phase margin
-//   49.3 deg, gain margin 11.7 dB.
+//   Sampled loop: overshoot 0.000147 %, settling 0.131 s, phase margin
+//   46 deg, gain margin 11.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -54,26 +54,26 @@ package compliantrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              float32 = 0.019208115   // P gain on the measurement
-	PitchKpB             float32 = 0.008163449   // P gain on the setpoint (setpoint weight b times Kp)
-	PitchG0              float32 = 8.862424e-05  // integral: weight of the current error
-	PitchG01             float32 = 0.00017724848 // integral: state increment per unit error
-	PitchKt              float32 = 0.023735935   // anti-windup back-calculation gain T/Tt
-	PitchIntegratorLimit float32 = 0.5           // largest |integrator state|, command units
-	PitchAd              float32 = 0.4360604     // derivative filter: pole
-	PitchBd              float32 = 0.17741995    // derivative filter: gain
-	PitchOutputLo        float32 = -0.5          // lowest command
-	PitchOutputHi        float32 = 0.5           // highest command
-	PitchF1B0            float32 = 0.9521018     // filter 1: weight of the input
-	PitchF1B1            float32 = -1.8443795    // filter 1: weight of the last input
-	PitchF1B2            float32 = 0.9521018     // filter 1: weight of the input two steps back
-	PitchF1A1            float32 = -1.8443795    // filter 1: feedback of the last output
-	PitchF1A2            float32 = 0.9042036     // filter 1: feedback of the output two steps back
-	PitchF2B0            float32 = 0.20657209    // filter 2: weight of the input
-	PitchF2B1            float32 = 0.41314417    // filter 2: weight of the last input
-	PitchF2B2            float32 = 0.20657209    // filter 2: weight of the input two steps back
-	PitchF2A1            float32 = -0.36952737   // filter 2: feedback of the last output
-	PitchF2A2            float32 = 0.19581571    // filter 2: feedback of the output two steps back
+	PitchKp              float32 = 0.020299973    // P gain on the measurement
+	PitchKpB             float32 = 0.006901991    // P gain on the setpoint (setpoint weight b times Kp)
+	PitchG0              float32 = 0.000104622064 // integral: weight of the current error
+	PitchG01             float32 = 0.00020924413  // integral: state increment per unit error
+	PitchKt              float32 = 0.025888579    // anti-windup back-calculation gain T/Tt
+	PitchIntegratorLimit float32 = 0.5            // largest |integrator state|, command units
+	PitchAd              float32 = 0.4360604      // derivative filter: pole
+	PitchBd              float32 = 0.17606354     // derivative filter: gain
+	PitchOutputLo        float32 = -0.5           // lowest command
+	PitchOutputHi        float32 = 0.5            // highest command
+	PitchF1B0            float32 = 0.9521018      // filter 1: weight of the input
+	PitchF1B1            float32 = -1.8443795     // filter 1: weight of the last input
+	PitchF1B2            float32 = 0.9521018      // filter 1: weight of the input two steps back
+	PitchF1A1            float32 = -1.8443795     // filter 1: feedback of the last output
+	PitchF1A2            float32 = 0.9042036      // filter 1: feedback of the output two steps back
+	PitchF2B0            float32 = 0.20657209     // filter 2: weight of the input
+	PitchF2B1            float32 = 0.41314417     // filter 2: weight of the last input
+	PitchF2B2            float32 = 0.20657209     // filter 2: weight of the input two steps back
+	PitchF2A1            float32 = -0.36952737    // filter 2: feedback of the last output
+	PitchF2A2            float32 = 0.19581571     // filter 2: feedback of the output two steps back
 )
 
 // Pitch is the state of the compliant rate controller of axis pitch (PID

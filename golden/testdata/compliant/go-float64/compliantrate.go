@@ -8,17 +8,17 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; float64
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.01921, Ki = 0.1772, Kd = 0.0003146,
-// Tf = 0.001273 s, b = 0.425.
+// Axis pitch: pid, Kp = 0.0203, Ki = 0.2092, Kd = 0.0003122,
+// Tf = 0.001273 s, b = 0.34.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.04213 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03863 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Feedback filter chain on the measured rate, before the controller: 1.
-//   notch 40 Hz (auto), -3 dB width 16 Hz (phase -3.24 deg at the
-//   crossover); 2. lowpass 200 Hz, order 2, damping 0.7071 (phase -1.94 deg
-//   at the crossover).
+//   notch 40 Hz (auto), -3 dB width 16 Hz (phase -3.35 deg at the
+//   crossover); 2. lowpass 200 Hz, order 2, damping 0.7071 (phase -2 deg at
+//   the crossover).
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 7.52e-06 %, settling 0.131 s, phase margin
-//   49.3 deg, gain margin 11.7 dB.
+//   Sampled loop: overshoot 0.000147 %, settling 0.131 s, phase margin
+//   46 deg, gain margin 11.7 dB.
 //   Checks: all met.
 //   Numeric: float64, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -54,14 +54,14 @@ package compliantrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              float64 = 0.01920811504        // P gain on the measurement
-	PitchKpB             float64 = 0.008163448892       // P gain on the setpoint (setpoint weight b times Kp)
-	PitchG0              float64 = 8.862424495e-05      // integral: weight of the current error
-	PitchG01             float64 = 0.0001772484899      // integral: state increment per unit error
-	PitchKt              float64 = 0.02373593469984171  // anti-windup back-calculation gain T/Tt
+	PitchKp              float64 = 0.02029997343        // P gain on the measurement
+	PitchKpB             float64 = 0.0069019909662      // P gain on the setpoint (setpoint weight b times Kp)
+	PitchG0              float64 = 0.0001046220609      // integral: weight of the current error
+	PitchG01             float64 = 0.0002092441218      // integral: state increment per unit error
+	PitchKt              float64 = 0.02588857906020256  // anti-windup back-calculation gain T/Tt
 	PitchIntegratorLimit float64 = 0.5                  // largest |integrator state|, command units
 	PitchAd              float64 = 0.4360603998372933   // derivative filter: pole
-	PitchBd              float64 = 0.17741995258739846  // derivative filter: gain
+	PitchBd              float64 = 0.1760635402477447   // derivative filter: gain
 	PitchOutputLo        float64 = -0.5                 // lowest command
 	PitchOutputHi        float64 = 0.5                  // highest command
 	PitchF1B0            float64 = 0.9521017968695105   // filter 1: weight of the input

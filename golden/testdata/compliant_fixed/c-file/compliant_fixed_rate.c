@@ -8,7 +8,7 @@
 
 #include "compliant_fixed_rate.h"
 
-#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0xc0fe723e5ff88763
+#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0x092eb7df97e53c0c
 #error "compliant_fixed_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 
@@ -100,7 +100,7 @@ void compliant_fixed_pitch_reset(compliant_fixed_pitch_state *s, int16_t output,
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	const int32_t q = (int32_t)output * ((int32_t)1 << 10) - (compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KPB, (int32_t)measured, 6) - compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KP, (int32_t)measured, 5));
+	const int32_t q = (int32_t)output * ((int32_t)1 << 10) - (compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KPB, (int32_t)measured, 7) - compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KP, (int32_t)measured, 5));
 	s->integ = compliant_fixed_clamp(compliant_fixed_satshl(q, 4), -COMPLIANT_FIXED_PITCH_INTEGRATOR_LIMIT, COMPLIANT_FIXED_PITCH_INTEGRATOR_LIMIT);
 	s->ud = 0;
 	s->vp = -(int32_t)measured;
@@ -155,7 +155,7 @@ int16_t compliant_fixed_pitch_step(compliant_fixed_pitch_state *s, int16_t setpo
 		s->integ = compliant_fixed_clamp(s->integ, -COMPLIANT_FIXED_PITCH_INTEGRATOR_LIMIT, COMPLIANT_FIXED_PITCH_INTEGRATOR_LIMIT);
 	}
 	const int32_t e = r - y;
-	int32_t uu = compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KPB, r, 6) - compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KP, y, 5);
+	int32_t uu = compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KPB, r, 7) - compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KP, y, 5);
 	uu = uu + compliant_fixed_rsh(s->integ, 4);
 	uu = uu + compliant_fixed_mulw(COMPLIANT_FIXED_PITCH_G0, e, 13);
 	const int32_t v = -y;

@@ -9,20 +9,20 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q15 fixed
 // point (input full scale 16, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.01921, Ki = 0.1772, Kd = 0.0003146,
-// Tf = 0.001273 s, b = 0.425.
+// Axis pitch: pid, Kp = 0.0203, Ki = 0.2092, Kd = 0.0003122,
+// Tf = 0.001273 s, b = 0.34.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.04213 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03863 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Feedback filter chain on the measured rate, before the controller: 1.
-//   notch 40 Hz (auto), -3 dB width 16 Hz (phase -3.24 deg at the
-//   crossover); 2. lowpass 200 Hz, order 2, damping 0.7071 (phase -1.94 deg
-//   at the crossover).
+//   notch 40 Hz (auto), -3 dB width 16 Hz (phase -3.35 deg at the
+//   crossover); 2. lowpass 200 Hz, order 2, damping 0.7071 (phase -2 deg at
+//   the crossover).
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 7.52e-06 %, settling 0.131 s, phase margin
-//   49.3 deg, gain margin 11.7 dB.
+//   Sampled loop: overshoot 0.000147 %, settling 0.131 s, phase margin
+//   46 deg, gain margin 11.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
-//   scale*2^15); formats KpB, Kp Q0.15, G0, G01, Kt
+//   scale*2^15); formats KpB, Kp Q0.15, G0, G01, Kt
 //   Ad, Bd Q3.12, Lo Q0.15, Hi Q0.15, IL Q2.29, F1_B0 Q1.14,
 //   F1_B1 Q1.14, F1_B2 Q1.14, F1_A1 Q1.14, F1_A2 Q1.14, F2_B0 Q0.15, F2_B1
 //   Q0.15, F2_B2 Q0.15, F2_A1 Q0.15, F2_A2 Q0.15; states: integrator 14,
@@ -64,20 +64,20 @@
 // compliant_fixed_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define COMPLIANT_FIXED_RATE_STAMP 0xc0fe723e5ff88763
+#define COMPLIANT_FIXED_RATE_STAMP 0x092eb7df97e53c0c
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define COMPLIANT_FIXED_PITCH_KP               ((int16_t)20141) // P gain on the measurement; Q0.15 = 0.6147
-#define COMPLIANT_FIXED_PITCH_KPB              ((int16_t)17120) // P gain on the setpoint; Q-1.16 = 0.2612
-#define COMPLIANT_FIXED_PITCH_G0               ((int16_t)23790) // integral: weight of the current error; Q-8.23 = 0.002836
-#define COMPLIANT_FIXED_PITCH_G01              ((int16_t)23790) // integral: state increment per unit error; Q-7.22 = 0.005672
-#define COMPLIANT_FIXED_PITCH_KT               ((int16_t)24889) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.02374
+#define COMPLIANT_FIXED_PITCH_KP               ((int16_t)21286) // P gain on the measurement; Q0.15 = 0.6496
+#define COMPLIANT_FIXED_PITCH_KPB              ((int16_t)28949) // P gain on the setpoint; Q-2.17 = 0.2209
+#define COMPLIANT_FIXED_PITCH_G0               ((int16_t)28084) // integral: weight of the current error; Q-8.23 = 0.003348
+#define COMPLIANT_FIXED_PITCH_G01              ((int16_t)28084) // integral: state increment per unit error; Q-7.22 = 0.006696
+#define COMPLIANT_FIXED_PITCH_KT               ((int16_t)27146) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.02589
 #define COMPLIANT_FIXED_PITCH_AD               ((int16_t)28578) // derivative filter: pole; Q-1.16 = 0.4361
-#define COMPLIANT_FIXED_PITCH_BD               ((int16_t)23255) // derivative filter: gain; Q3.12 = 5.677
+#define COMPLIANT_FIXED_PITCH_BD               ((int16_t)23077) // derivative filter: gain; Q3.12 = 5.634
 #define COMPLIANT_FIXED_PITCH_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define COMPLIANT_FIXED_PITCH_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define COMPLIANT_FIXED_PITCH_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB

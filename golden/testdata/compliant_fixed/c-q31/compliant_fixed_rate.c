@@ -8,7 +8,7 @@
 
 #include "compliant_fixed_rate.h"
 
-#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0x854d113d81ecb9bf
+#if !defined(COMPLIANT_FIXED_RATE_STAMP) || COMPLIANT_FIXED_RATE_STAMP != 0xb3fa8f1e45a18601
 #error "compliant_fixed_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 
@@ -100,7 +100,7 @@ void compliant_fixed_pitch_reset(compliant_fixed_pitch_state *s, int32_t output,
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	const int64_t q = (int64_t)output * ((int64_t)1 << 26) - (compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KPB, (int64_t)measured, 6) - compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KP, (int64_t)measured, 5));
+	const int64_t q = (int64_t)output * ((int64_t)1 << 26) - (compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KPB, (int64_t)measured, 7) - compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KP, (int64_t)measured, 5));
 	s->integ = compliant_fixed_clamp(compliant_fixed_satshl(q, 5), -COMPLIANT_FIXED_PITCH_INTEGRATOR_LIMIT, COMPLIANT_FIXED_PITCH_INTEGRATOR_LIMIT);
 	s->ud = 0;
 	s->vp = -(int64_t)measured;
@@ -155,7 +155,7 @@ int32_t compliant_fixed_pitch_step(compliant_fixed_pitch_state *s, int32_t setpo
 		s->integ = compliant_fixed_clamp(s->integ, -COMPLIANT_FIXED_PITCH_INTEGRATOR_LIMIT, COMPLIANT_FIXED_PITCH_INTEGRATOR_LIMIT);
 	}
 	const int64_t e = r - y;
-	int64_t uu = compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KPB, r, 6) - compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KP, y, 5);
+	int64_t uu = compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KPB, r, 7) - compliant_fixed_mul(COMPLIANT_FIXED_PITCH_KP, y, 5);
 	uu = uu + compliant_fixed_rsh(s->integ, 5);
 	uu = uu + compliant_fixed_mulw(COMPLIANT_FIXED_PITCH_G0, e, 13);
 	const int64_t v = -y;

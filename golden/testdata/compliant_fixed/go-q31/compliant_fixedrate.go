@@ -9,20 +9,20 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q31 fixed
 // point (input full scale 16, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.01921, Ki = 0.1772, Kd = 0.0003146,
-// Tf = 0.001273 s, b = 0.425.
+// Axis pitch: pid, Kp = 0.0203, Ki = 0.2092, Kd = 0.0003122,
+// Tf = 0.001273 s, b = 0.34.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.04213 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03863 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Feedback filter chain on the measured rate, before the controller: 1.
-//   notch 40 Hz (auto), -3 dB width 16 Hz (phase -3.24 deg at the
-//   crossover); 2. lowpass 200 Hz, order 2, damping 0.7071 (phase -1.94 deg
-//   at the crossover).
+//   notch 40 Hz (auto), -3 dB width 16 Hz (phase -3.35 deg at the
+//   crossover); 2. lowpass 200 Hz, order 2, damping 0.7071 (phase -2 deg at
+//   the crossover).
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 7.52e-06 %, settling 0.131 s, phase margin
-//   49.3 deg, gain margin 11.7 dB.
+//   Sampled loop: overshoot 0.000147 %, settling 0.131 s, phase margin
+//   46 deg, gain margin 11.7 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
-//   scale*2^31); formats KpB, Kp Q0.31, G0, G01, Kt
+//   scale*2^31); formats KpB, Kp Q0.31, G0, G01, Kt
 //   Ad, Bd Q3.28, Lo Q0.31, Hi Q0.31, IL Q1.62, F1_B0 Q1.30,
 //   F1_B1 Q1.30, F1_B2 Q1.30, F1_A1 Q1.30, F1_A2 Q1.30, F2_B0 Q0.31, F2_B1
 //   Q0.31, F2_B2 Q0.31, F2_A1 Q0.31, F2_A2 Q0.31; states: integrator 31,
@@ -63,13 +63,13 @@ package compliantfixedrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int32 = 1319971615          // P gain on the measurement; Q0.31 = 0.6147
-	PitchKpB             int32 = 1121975872          // P gain on the setpoint; Q-1.32 = 0.2612
-	PitchG0              int32 = 1559094205          // integral: weight of the current error; Q-8.39 = 0.002836
-	PitchG01             int32 = 1559094205          // integral: state increment per unit error; Q-7.38 = 0.005672
-	PitchKt              int32 = 1631121012          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.02374
+	PitchKp              int32 = 1395003552          // P gain on the measurement; Q0.31 = 0.6496
+	PitchKpB             int32 = 1897204831          // P gain on the setpoint; Q-2.33 = 0.2209
+	PitchG0              int32 = 1840530760          // integral: weight of the current error; Q-8.39 = 0.003348
+	PitchG01             int32 = 1840530760          // integral: state increment per unit error; Q-7.38 = 0.006696
+	PitchKt              int32 = 1779049606          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.02589
 	PitchAd              int32 = 1872865156          // derivative filter: pole; Q-1.32 = 0.4361
-	PitchBd              int32 = 1524025788          // derivative filter: gain; Q3.28 = 5.677
+	PitchBd              int32 = 1512374295          // derivative filter: gain; Q3.28 = 5.634
 	PitchOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	PitchOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
 	PitchIntegratorLimit int64 = 4611686018427387904 // largest |integrator state|, 31 fractional bits below the output LSB
@@ -123,7 +123,7 @@ func (c *Pitch) Reset(output, measured int32) {
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	q := int64(output)*(1<<26) - (mul(PitchKpB, int64(measured), 6) - mul(PitchKp, int64(measured), 5))
+	q := int64(output)*(1<<26) - (mul(PitchKpB, int64(measured), 7) - mul(PitchKp, int64(measured), 5))
 	c.integ = clamp(satshl(q, 5), -PitchIntegratorLimit, PitchIntegratorLimit)
 	c.vp = -int64(measured)
 }
@@ -165,7 +165,7 @@ func (c *Pitch) Step(setpoint, measured int32) int32 {
 		c.integ = clamp(c.integ, -PitchIntegratorLimit, PitchIntegratorLimit)
 	}
 	e := r - y
-	uu := mul(PitchKpB, r, 6) - mul(PitchKp, y, 5)
+	uu := mul(PitchKpB, r, 7) - mul(PitchKp, y, 5)
 	uu = uu + rsh(c.integ, 5)
 	uu = uu + mulw(PitchG0, e, 13)
 	v := -y

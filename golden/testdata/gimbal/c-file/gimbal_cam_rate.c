@@ -8,7 +8,7 @@
 
 #include "gimbal_cam_rate.h"
 
-#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0xf58aa33472b0ffa8
+#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0xfc1bf39638715a71
 #error "gimbal_cam_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

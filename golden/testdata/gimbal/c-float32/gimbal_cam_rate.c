@@ -8,7 +8,7 @@
 
 #include "gimbal_cam_rate.h"
 
-#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0xa207fe9a5fed90bc
+#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0x567cf5fa50588124
 #error "gimbal_cam_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

@@ -8,26 +8,26 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.6865, Ki = 11.96, Kd = 0.009303, Tf = 0.0006366 s,
-// b = 0.525.
-//   discretized tustin_prewarp (prewarped at 89.48 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.0279 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.6795, Ki = 11.89, Kd = 0.00925, Tf = 0.0006366 s,
+// b = 0.51.
+//   discretized tustin_prewarp (prewarped at 88.86 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.02789 s); integrator limit 1;
 //   output [-1, 1].
 //   Feedback filter chain on the measured rate, before the controller: 1.
-//   notch 79.6 Hz (auto), -3 dB width 31.8 Hz (phase -4.25 deg at the
+//   notch 79.6 Hz (auto), -3 dB width 31.8 Hz (phase -4.22 deg at the
 //   crossover).
 //   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
-//   Sampled loop: overshoot 1.75 %, settling 0.0503 s, phase margin
-//   43.3 deg, gain margin 8.88 dB.
+//   Sampled loop: overshoot 1.26 %, settling 0.052 s, phase margin 43.4 deg,
+//   gain margin 8.94 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.01068, Ki = 0.09075, b = 0.65.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09101, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
 //   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
-//   Sampled loop: overshoot 0.0357 %, settling 0.104 s, phase margin
+//   Sampled loop: overshoot 0.086 %, settling 0.104 s, phase margin
 //   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
@@ -68,21 +68,21 @@
 // gimbal_cam_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define GIMBAL_CAM_RATE_STAMP 0xa207fe9a5fed90bc
+#define GIMBAL_CAM_RATE_STAMP 0x567cf5fa50588124
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define GIMBAL_CAM_PITCH_KP               0.6864992f // P gain on the measurement
-#define GIMBAL_CAM_PITCH_KPB              0.36041206f // P gain on the setpoint (setpoint weight b times Kp)
-#define GIMBAL_CAM_PITCH_G0               0.002989361f // integral: weight of the current error
-#define GIMBAL_CAM_PITCH_G01              0.005978722f // integral: state increment per unit error
-#define GIMBAL_CAM_PITCH_KT               0.017923813f // anti-windup back-calculation gain T/Tt
+#define GIMBAL_CAM_PITCH_KP               0.6794698f // P gain on the measurement
+#define GIMBAL_CAM_PITCH_KPB              0.3465296f // P gain on the setpoint (setpoint weight b times Kp)
+#define GIMBAL_CAM_PITCH_G0               0.002974171f // integral: weight of the current error
+#define GIMBAL_CAM_PITCH_G01              0.005948342f // integral: state increment per unit error
+#define GIMBAL_CAM_PITCH_KT               0.017930113f // anti-windup back-calculation gain T/Tt
 #define GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT 1.0f // largest |integrator state|, command units
-#define GIMBAL_CAM_PITCH_AD               0.43599284f // derivative filter: pole
-#define GIMBAL_CAM_PITCH_BD               10.492701f // derivative filter: gain
+#define GIMBAL_CAM_PITCH_AD               0.4359938f // derivative filter: pole
+#define GIMBAL_CAM_PITCH_BD               10.432078f // derivative filter: gain
 #define GIMBAL_CAM_PITCH_OUTPUT_LO        (-1.0f) // lowest command
 #define GIMBAL_CAM_PITCH_OUTPUT_HI        1.0f // highest command
 #define GIMBAL_CAM_PITCH_F1_B0            0.9523874f // filter 1: weight of the input
@@ -126,8 +126,8 @@ void gimbal_cam_pitch_applied(gimbal_cam_pitch_state *s, float applied);
 // Axis yaw: coefficients and limits.
 #define GIMBAL_CAM_YAW_KP               0.010680312f // P gain on the measurement
 #define GIMBAL_CAM_YAW_KPB              0.0069422033f // P gain on the setpoint (setpoint weight b times Kp)
-#define GIMBAL_CAM_YAW_G0               2.268778e-05f // integral: weight of the current error
-#define GIMBAL_CAM_YAW_G01              4.537556e-05f // integral: state increment per unit error
+#define GIMBAL_CAM_YAW_G0               2.2753175e-05f // integral: weight of the current error
+#define GIMBAL_CAM_YAW_G01              4.550635e-05f // integral: state increment per unit error
 #define GIMBAL_CAM_YAW_INTEGRATOR_LIMIT 1.0f // largest |integrator state|, command units
 #define GIMBAL_CAM_YAW_OUTPUT_LO        (-1.0f) // lowest command
 #define GIMBAL_CAM_YAW_OUTPUT_HI        1.0f // highest command

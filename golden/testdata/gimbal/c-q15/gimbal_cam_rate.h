@@ -8,17 +8,17 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; q15 fixed
 // point (input full scale 3, output full scale 1).
 //
-// Axis pitch: pid, Kp = 0.6865, Ki = 11.96, Kd = 0.009303, Tf = 0.0006366 s,
-// b = 0.525.
-//   discretized tustin_prewarp (prewarped at 89.48 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.0279 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.6795, Ki = 11.89, Kd = 0.00925, Tf = 0.0006366 s,
+// b = 0.51.
+//   discretized tustin_prewarp (prewarped at 88.86 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.02789 s); integrator limit 1;
 //   output [-1, 1].
 //   Feedback filter chain on the measured rate, before the controller: 1.
-//   notch 79.6 Hz (auto), -3 dB width 31.8 Hz (phase -4.25 deg at the
+//   notch 79.6 Hz (auto), -3 dB width 31.8 Hz (phase -4.22 deg at the
 //   crossover).
 //   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
-//   Sampled loop: overshoot 1.75 %, settling 0.0503 s, phase margin
-//   43.3 deg, gain margin 8.88 dB.
+//   Sampled loop: overshoot 1.26 %, settling 0.052 s, phase margin 43.4 deg,
+//   gain margin 8.94 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB Q1.14, Kp Q2.13, G0, G01, Kt
@@ -31,20 +31,20 @@
 //   scale; the chain's output, rounded to the input LSB for the controller,
 //   <= 2.185 x the input full scale (l1 gain), its rounding error <= 0.0167
 //   input LSB before that rounding, proved (below half an LSB: no step at
-//   engagement, exactly 0 at rest); minimum headroom 0.0237 bits
+//   engagement, exactly 0 at rest); minimum headroom 0.0321 bits
 //   (Bd*<U+0394>v (product)); saturating: command before saturation.
 //
-// Axis yaw: pi, Kp = 0.01068, Ki = 0.09075, b = 0.65.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09101, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
 //   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
-//   Sampled loop: overshoot 0.0357 %, settling 0.104 s, phase margin
+//   Sampled loop: overshoot 0.086 %, settling 0.104 s, phase margin
 //   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB, Kp, G0, G01, Lo
 //   Q0.15, Hi Q0.15, IL Q2.29; states: integrator 14, derivative 16, sum 14
-//   fractional bits below the output LSB; minimum headroom 0.843 bits (G0*e
+//   fractional bits below the output LSB; minimum headroom 0.839 bits (G0*e
 //   (product)); saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
@@ -73,20 +73,20 @@
 // gimbal_cam_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define GIMBAL_CAM_RATE_STAMP 0xf58aa33472b0ffa8
+#define GIMBAL_CAM_RATE_STAMP 0xfc1bf39638715a71
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define GIMBAL_CAM_PITCH_KP               ((int16_t)16871) // P gain on the measurement; Q2.13 = 2.059
-#define GIMBAL_CAM_PITCH_KPB              ((int16_t)17715) // P gain on the setpoint; Q1.14 = 1.081
-#define GIMBAL_CAM_PITCH_G0               ((int16_t)18807) // integral: weight of the current error; Q-6.21 = 0.008968
-#define GIMBAL_CAM_PITCH_G01              ((int16_t)18807) // integral: state increment per unit error; Q-5.20 = 0.01794
-#define GIMBAL_CAM_PITCH_KT               ((int16_t)18794) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.01792
+#define GIMBAL_CAM_PITCH_KP               ((int16_t)16699) // P gain on the measurement; Q2.13 = 2.038
+#define GIMBAL_CAM_PITCH_KPB              ((int16_t)17033) // P gain on the setpoint; Q1.14 = 1.04
+#define GIMBAL_CAM_PITCH_G0               ((int16_t)18712) // integral: weight of the current error; Q-6.21 = 0.008923
+#define GIMBAL_CAM_PITCH_G01              ((int16_t)18712) // integral: state increment per unit error; Q-5.20 = 0.01785
+#define GIMBAL_CAM_PITCH_KT               ((int16_t)18801) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.01793
 #define GIMBAL_CAM_PITCH_AD               ((int16_t)28573) // derivative filter: pole; Q-1.16 = 0.436
-#define GIMBAL_CAM_PITCH_BD               ((int16_t)32234) // derivative filter: gain; Q5.10 = 31.48
+#define GIMBAL_CAM_PITCH_BD               ((int16_t)32047) // derivative filter: gain; Q5.10 = 31.3
 #define GIMBAL_CAM_PITCH_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define GIMBAL_CAM_PITCH_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define GIMBAL_CAM_PITCH_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB
@@ -128,8 +128,8 @@ void gimbal_cam_pitch_applied(gimbal_cam_pitch_state *s, int16_t applied);
 // Axis yaw: coefficients and limits.
 #define GIMBAL_CAM_YAW_KP               ((int16_t)16799) // P gain on the measurement; Q-4.19 = 0.03204
 #define GIMBAL_CAM_YAW_KPB              ((int16_t)21838) // P gain on the setpoint; Q-5.20 = 0.02083
-#define GIMBAL_CAM_YAW_G0               ((int16_t)18271) // integral: weight of the current error; Q-13.28 = 6.806e-05
-#define GIMBAL_CAM_YAW_G01              ((int16_t)18271) // integral: state increment per unit error; Q-12.27 = 0.0001361
+#define GIMBAL_CAM_YAW_G0               ((int16_t)18323) // integral: weight of the current error; Q-13.28 = 6.826e-05
+#define GIMBAL_CAM_YAW_G01              ((int16_t)18323) // integral: state increment per unit error; Q-12.27 = 0.0001365
 #define GIMBAL_CAM_YAW_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define GIMBAL_CAM_YAW_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define GIMBAL_CAM_YAW_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB

@@ -8,26 +8,26 @@
 // Rate loop at 2000 Hz (T = 0.0005 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.6865, Ki = 11.96, Kd = 0.009303, Tf = 0.0006366 s,
-// b = 0.525.
-//   discretized tustin_prewarp (prewarped at 89.48 rad/s); derivative on the
-//   measurement; anti-windup backcalc (Tt = 0.0279 s); integrator limit 1;
+// Axis pitch: pid, Kp = 0.6795, Ki = 11.89, Kd = 0.00925, Tf = 0.0006366 s,
+// b = 0.51.
+//   discretized tustin_prewarp (prewarped at 88.86 rad/s); derivative on the
+//   measurement; anti-windup backcalc (Tt = 0.02789 s); integrator limit 1;
 //   output [-1, 1].
 //   Feedback filter chain on the measured rate, before the controller: 1.
-//   notch 79.6 Hz (auto), -3 dB width 31.8 Hz (phase -4.25 deg at the
+//   notch 79.6 Hz (auto), -3 dB width 31.8 Hz (phase -4.22 deg at the
 //   crossover).
 //   Target: zeta = 0.69, wn = 76.7 rad/s, s* = -52.9 +/- j55.5 rad/s.
-//   Sampled loop: overshoot 1.75 %, settling 0.0503 s, phase margin
-//   43.3 deg, gain margin 8.88 dB.
+//   Sampled loop: overshoot 1.26 %, settling 0.052 s, phase margin 43.4 deg,
+//   gain margin 8.94 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.01068, Ki = 0.09075, b = 0.65.
+// Axis yaw: pi, Kp = 0.01068, Ki = 0.09101, b = 0.65.
 //   discretized tustin; anti-windup clamp; integrator limit 1; output [-1,
 //   1].
 //   Target: zeta = 0.69, wn = 51.1 rad/s, s* = -35.3 +/- j37 rad/s.
-//   Sampled loop: overshoot 0.0357 %, settling 0.104 s, phase margin
+//   Sampled loop: overshoot 0.086 %, settling 0.104 s, phase margin
 //   54.6 deg, gain margin 25.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
@@ -64,14 +64,14 @@ package gimbalcamrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              float32 = 0.6864992   // P gain on the measurement
-	PitchKpB             float32 = 0.36041206  // P gain on the setpoint (setpoint weight b times Kp)
-	PitchG0              float32 = 0.002989361 // integral: weight of the current error
-	PitchG01             float32 = 0.005978722 // integral: state increment per unit error
-	PitchKt              float32 = 0.017923813 // anti-windup back-calculation gain T/Tt
+	PitchKp              float32 = 0.6794698   // P gain on the measurement
+	PitchKpB             float32 = 0.3465296   // P gain on the setpoint (setpoint weight b times Kp)
+	PitchG0              float32 = 0.002974171 // integral: weight of the current error
+	PitchG01             float32 = 0.005948342 // integral: state increment per unit error
+	PitchKt              float32 = 0.017930113 // anti-windup back-calculation gain T/Tt
 	PitchIntegratorLimit float32 = 1.0         // largest |integrator state|, command units
-	PitchAd              float32 = 0.43599284  // derivative filter: pole
-	PitchBd              float32 = 10.492701   // derivative filter: gain
+	PitchAd              float32 = 0.4359938   // derivative filter: pole
+	PitchBd              float32 = 10.432078   // derivative filter: gain
 	PitchOutputLo        float32 = -1.0        // lowest command
 	PitchOutputHi        float32 = 1.0         // highest command
 	PitchF1B0            float32 = 0.9523874   // filter 1: weight of the input
@@ -175,13 +175,13 @@ func (c *Pitch) Faults() uint32 {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp              float32 = 0.010680312  // P gain on the measurement
-	YawKpB             float32 = 0.0069422033 // P gain on the setpoint (setpoint weight b times Kp)
-	YawG0              float32 = 2.268778e-05 // integral: weight of the current error
-	YawG01             float32 = 4.537556e-05 // integral: state increment per unit error
-	YawIntegratorLimit float32 = 1.0          // largest |integrator state|, command units
-	YawOutputLo        float32 = -1.0         // lowest command
-	YawOutputHi        float32 = 1.0          // highest command
+	YawKp              float32 = 0.010680312   // P gain on the measurement
+	YawKpB             float32 = 0.0069422033  // P gain on the setpoint (setpoint weight b times Kp)
+	YawG0              float32 = 2.2753175e-05 // integral: weight of the current error
+	YawG01             float32 = 4.550635e-05  // integral: state increment per unit error
+	YawIntegratorLimit float32 = 1.0           // largest |integrator state|, command units
+	YawOutputLo        float32 = -1.0          // lowest command
+	YawOutputHi        float32 = 1.0           // highest command
 )
 
 // Yaw is the state of the gimbal_cam rate controller of axis yaw (PI). Call

@@ -8,34 +8,34 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
-// b = 0.1.
+// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
-// Tf = 0.001273 s, b = 0.1.
+// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.03591, Ki = 0.08381, b = 0.725.
-//   discretized tustin; anti-windup backcalc (Tt = 0.4284 s); integrator
+// Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
+//   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.472 %, settling 0.264 s, phase margin
-//   54.3 deg, gain margin 24.7 dB.
+//   Sampled loop: overshoot 0.168 %, settling 0.289 s, phase margin
+//   52.4 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -75,21 +75,21 @@
 // sandpiper_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0x68564da2d6dd53b4
+#define SANDPIPER_RATE_STAMP 0x29fdf53aa4e85e32
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               0.03190457f // P gain on the measurement
-#define SANDPIPER_PITCH_KPB              0.003190457f // P gain on the setpoint (setpoint weight b times Kp)
-#define SANDPIPER_PITCH_G0               0.00020850294f // integral: weight of the current error
-#define SANDPIPER_PITCH_G01              0.00041700588f // integral: state increment per unit error
-#define SANDPIPER_PITCH_KT               0.030288344f // anti-windup back-calculation gain T/Tt
+#define SANDPIPER_PITCH_KP               0.03250829f // P gain on the measurement
+#define SANDPIPER_PITCH_KPB              0.0029257461f // P gain on the setpoint (setpoint weight b times Kp)
+#define SANDPIPER_PITCH_G0               0.00021583018f // integral: weight of the current error
+#define SANDPIPER_PITCH_G01              0.00043166036f // integral: state increment per unit error
+#define SANDPIPER_PITCH_KT               0.030943133f // anti-windup back-calculation gain T/Tt
 #define SANDPIPER_PITCH_INTEGRATOR_LIMIT 0.5f // largest |integrator state|, command units
 #define SANDPIPER_PITCH_AD               0.4360604f // derivative filter: pole
-#define SANDPIPER_PITCH_BD               0.25634435f // derivative filter: gain
+#define SANDPIPER_PITCH_BD               0.25424138f // derivative filter: gain
 #define SANDPIPER_PITCH_OUTPUT_LO        (-0.5f) // lowest command
 #define SANDPIPER_PITCH_OUTPUT_HI        0.5f // highest command
 
@@ -123,14 +123,14 @@ float sandpiper_pitch_step(sandpiper_pitch_state *s, float setpoint, float measu
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, float applied);
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               0.026587142f // P gain on the measurement
-#define SANDPIPER_ROLL_KPB              0.002658714f // P gain on the setpoint (setpoint weight b times Kp)
-#define SANDPIPER_ROLL_G0               0.00017375244f // integral: weight of the current error
-#define SANDPIPER_ROLL_G01              0.0003475049f // integral: state increment per unit error
-#define SANDPIPER_ROLL_KT               0.030288344f // anti-windup back-calculation gain T/Tt
+#define SANDPIPER_ROLL_KP               0.027090242f // P gain on the measurement
+#define SANDPIPER_ROLL_KPB              0.0024381217f // P gain on the setpoint (setpoint weight b times Kp)
+#define SANDPIPER_ROLL_G0               0.00017985849f // integral: weight of the current error
+#define SANDPIPER_ROLL_G01              0.00035971697f // integral: state increment per unit error
+#define SANDPIPER_ROLL_KT               0.030943133f // anti-windup back-calculation gain T/Tt
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT 0.5f // largest |integrator state|, command units
 #define SANDPIPER_ROLL_AD               0.4360604f // derivative filter: pole
-#define SANDPIPER_ROLL_BD               0.21362028f // derivative filter: gain
+#define SANDPIPER_ROLL_BD               0.21186781f // derivative filter: gain
 #define SANDPIPER_ROLL_OUTPUT_LO        (-0.5f) // lowest command
 #define SANDPIPER_ROLL_OUTPUT_HI        0.5f // highest command
 
@@ -164,11 +164,11 @@ float sandpiper_roll_step(sandpiper_roll_state *s, float setpoint, float measure
 void sandpiper_roll_applied(sandpiper_roll_state *s, float applied);
 
 // Axis yaw: coefficients and limits.
-#define SANDPIPER_YAW_KP               0.035906356f // P gain on the measurement
-#define SANDPIPER_YAW_KPB              0.026032107f // P gain on the setpoint (setpoint weight b times Kp)
-#define SANDPIPER_YAW_G0               4.1904343e-05f // integral: weight of the current error
-#define SANDPIPER_YAW_G01              8.3808685e-05f // integral: state increment per unit error
-#define SANDPIPER_YAW_KT               0.0023340906f // anti-windup back-calculation gain T/Tt
+#define SANDPIPER_YAW_KP               0.03542517f // P gain on the measurement
+#define SANDPIPER_YAW_KPB              0.023380611f // P gain on the setpoint (setpoint weight b times Kp)
+#define SANDPIPER_YAW_G0               4.811527e-05f // integral: weight of the current error
+#define SANDPIPER_YAW_G01              9.623054e-05f // integral: state increment per unit error
+#define SANDPIPER_YAW_KT               0.0027164456f // anti-windup back-calculation gain T/Tt
 #define SANDPIPER_YAW_INTEGRATOR_LIMIT 0.3f // largest |integrator state|, command units
 #define SANDPIPER_YAW_OUTPUT_LO        (-0.3f) // lowest command
 #define SANDPIPER_YAW_OUTPUT_HI        0.3f // highest command

@@ -8,7 +8,7 @@
 
 #include "sandpiper_rate.h"
 
-#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0x89d7670e260b7ab9
+#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0xe753be11bae49862
 #error "sandpiper_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

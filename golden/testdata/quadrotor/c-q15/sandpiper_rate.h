@@ -8,48 +8,48 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q15 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
-// b = 0.1.
+// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB, Kp Q3.12, G0, G01, Kt
 //   Ad, Bd Q6.9, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 9, sum 9 fractional bits below the output LSB;
-//   minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
+//   minimum headroom 0.0143 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
-// Tf = 0.001273 s, b = 0.1.
+// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB, Kp Q2.13, G0, G01, Kt
 //   Ad, Bd Q5.10, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 10, sum 10 fractional bits below the output
-//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0143 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis yaw: pi, Kp = 0.03591, Ki = 0.08381, b = 0.725.
-//   discretized tustin; anti-windup backcalc (Tt = 0.4284 s); integrator
+// Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
+//   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.472 %, settling 0.264 s, phase margin
-//   54.3 deg, gain margin 24.7 dB.
+//   Sampled loop: overshoot 0.168 %, settling 0.289 s, phase margin
+//   52.4 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
 //   Lo Q0.15, Hi Q0.15, IL Q0.31; states: integrator 16, derivative
 //   16, sum 12 fractional bits below the output LSB; minimum headroom
-//   0.543 bits (G0*e (product)); saturating: command before saturation.
+//   0.343 bits (G0*e (product)); saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
 // engagement (bumpless: the next command starts from output, the derivative
@@ -77,20 +77,20 @@
 // sandpiper_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0x89d7670e260b7ab9
+#define SANDPIPER_RATE_STAMP 0xe753be11bae49862
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               ((int16_t)16727) // P gain on the measurement; Q3.12 = 4.084
-#define SANDPIPER_PITCH_KPB              ((int16_t)26763) // P gain on the setpoint; Q-1.16 = 0.4084
-#define SANDPIPER_PITCH_G0               ((int16_t)27985) // integral: weight of the current error; Q-5.20 = 0.02669
-#define SANDPIPER_PITCH_G01              ((int16_t)27985) // integral: state increment per unit error; Q-4.19 = 0.05338
-#define SANDPIPER_PITCH_KT               ((int16_t)31760) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03029
+#define SANDPIPER_PITCH_KP               ((int16_t)17044) // P gain on the measurement; Q3.12 = 4.161
+#define SANDPIPER_PITCH_KPB              ((int16_t)24543) // P gain on the setpoint; Q-1.16 = 0.3745
+#define SANDPIPER_PITCH_G0               ((int16_t)28968) // integral: weight of the current error; Q-5.20 = 0.02763
+#define SANDPIPER_PITCH_G01              ((int16_t)28968) // integral: state increment per unit error; Q-4.19 = 0.05525
+#define SANDPIPER_PITCH_KT               ((int16_t)32446) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03094
 #define SANDPIPER_PITCH_AD               ((int16_t)28578) // derivative filter: pole; Q-1.16 = 0.4361
-#define SANDPIPER_PITCH_BD               ((int16_t)16800) // derivative filter: gain; Q6.9 = 32.81
+#define SANDPIPER_PITCH_BD               ((int16_t)16662) // derivative filter: gain; Q6.9 = 32.54
 #define SANDPIPER_PITCH_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define SANDPIPER_PITCH_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define SANDPIPER_PITCH_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB
@@ -122,13 +122,13 @@ int16_t sandpiper_pitch_step(sandpiper_pitch_state *s, int16_t setpoint, int16_t
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, int16_t applied);
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               ((int16_t)27879) // P gain on the measurement; Q2.13 = 3.403
-#define SANDPIPER_ROLL_KPB              ((int16_t)22303) // P gain on the setpoint; Q-1.16 = 0.3403
-#define SANDPIPER_ROLL_G0               ((int16_t)23321) // integral: weight of the current error; Q-5.20 = 0.02224
-#define SANDPIPER_ROLL_G01              ((int16_t)23321) // integral: state increment per unit error; Q-4.19 = 0.04448
-#define SANDPIPER_ROLL_KT               ((int16_t)31760) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03029
+#define SANDPIPER_ROLL_KP               ((int16_t)28406) // P gain on the measurement; Q2.13 = 3.468
+#define SANDPIPER_ROLL_KPB              ((int16_t)20452) // P gain on the setpoint; Q-1.16 = 0.3121
+#define SANDPIPER_ROLL_G0               ((int16_t)24140) // integral: weight of the current error; Q-5.20 = 0.02302
+#define SANDPIPER_ROLL_G01              ((int16_t)24140) // integral: state increment per unit error; Q-4.19 = 0.04604
+#define SANDPIPER_ROLL_KT               ((int16_t)32446) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03094
 #define SANDPIPER_ROLL_AD               ((int16_t)28578) // derivative filter: pole; Q-1.16 = 0.4361
-#define SANDPIPER_ROLL_BD               ((int16_t)28000) // derivative filter: gain; Q5.10 = 27.34
+#define SANDPIPER_ROLL_BD               ((int16_t)27770) // derivative filter: gain; Q5.10 = 27.12
 #define SANDPIPER_ROLL_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define SANDPIPER_ROLL_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB
@@ -160,11 +160,11 @@ int16_t sandpiper_roll_step(sandpiper_roll_state *s, int16_t setpoint, int16_t m
 void sandpiper_roll_applied(sandpiper_roll_state *s, int16_t applied);
 
 // Axis yaw: coefficients and limits.
-#define SANDPIPER_YAW_KP               ((int16_t)18825) // P gain on the measurement; Q3.12 = 4.596
-#define SANDPIPER_YAW_KPB              ((int16_t)27297) // P gain on the setpoint; Q2.13 = 3.332
-#define SANDPIPER_YAW_G0               ((int16_t)22497) // integral: weight of the current error; Q-7.22 = 0.005364
-#define SANDPIPER_YAW_G01              ((int16_t)22497) // integral: state increment per unit error; Q-6.21 = 0.01073
-#define SANDPIPER_YAW_KT               ((int16_t)19580) // anti-windup back-calculation gain T/Tt; Q-8.23 = 0.002334
+#define SANDPIPER_YAW_KP               ((int16_t)18573) // P gain on the measurement; Q3.12 = 4.534
+#define SANDPIPER_YAW_KPB              ((int16_t)24516) // P gain on the setpoint; Q2.13 = 2.993
+#define SANDPIPER_YAW_G0               ((int16_t)25832) // integral: weight of the current error; Q-7.22 = 0.006159
+#define SANDPIPER_YAW_G01              ((int16_t)25832) // integral: state increment per unit error; Q-6.21 = 0.01232
+#define SANDPIPER_YAW_KT               ((int16_t)22787) // anti-windup back-calculation gain T/Tt; Q-8.23 = 0.002716
 #define SANDPIPER_YAW_OUTPUT_LO        ((int16_t)-19661) // lowest command, raw; Q0.15 = -0.6
 #define SANDPIPER_YAW_OUTPUT_HI        ((int16_t)19661) // highest command, raw; Q0.15 = 0.6
 #define SANDPIPER_YAW_INTEGRATOR_LIMIT ((int32_t)1288490189) // largest |integrator state|, 16 fractional bits below the output LSB

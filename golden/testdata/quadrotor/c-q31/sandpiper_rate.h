@@ -8,48 +8,48 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q31 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
-// b = 0.1.
+// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
 //   scale*2^31); formats KpB, Kp Q3.28, G0, G01, Kt
 //   Ad, Bd Q6.25, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 25, sum 25 fractional bits below the output
-//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0142 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
-// Tf = 0.001273 s, b = 0.1.
+// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
 //   scale*2^31); formats KpB, Kp Q2.29, G0, G01, Kt
 //   Ad, Bd Q5.26, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 26, sum 26 fractional bits below the output
-//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0142 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis yaw: pi, Kp = 0.03591, Ki = 0.08381, b = 0.725.
-//   discretized tustin; anti-windup backcalc (Tt = 0.4284 s); integrator
+// Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
+//   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.472 %, settling 0.264 s, phase margin
-//   54.3 deg, gain margin 24.7 dB.
+//   Sampled loop: overshoot 0.168 %, settling 0.289 s, phase margin
+//   52.4 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
 //   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
 //   Lo Q0.31, Hi Q0.31, IL Q0.63; states: integrator 32, derivative
 //   32, sum 28 fractional bits below the output LSB; minimum headroom
-//   0.543 bits (G0*e (product)); saturating: command before saturation.
+//   0.343 bits (G0*e (product)); saturating: command before saturation.
 //
 // Per axis: _reset(s, output, measured) before the first step and on every
 // engagement (bumpless: the next command starts from output, the derivative
@@ -77,20 +77,20 @@
 // sandpiper_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0x971042377f0a1e15
+#define SANDPIPER_RATE_STAMP 0xf4f80ab04fce28a8
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               ((int32_t)1096232660) // P gain on the measurement; Q3.28 = 4.084
-#define SANDPIPER_PITCH_KPB              ((int32_t)1753972257) // P gain on the setpoint; Q-1.32 = 0.4084
-#define SANDPIPER_PITCH_G0               ((int32_t)1834011234) // integral: weight of the current error; Q-5.36 = 0.02669
-#define SANDPIPER_PITCH_G01              ((int32_t)1834011234) // integral: state increment per unit error; Q-4.35 = 0.05338
-#define SANDPIPER_PITCH_KT               ((int32_t)2081399110) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03029
+#define SANDPIPER_PITCH_KP               ((int32_t)1116976353) // P gain on the measurement; Q3.28 = 4.161
+#define SANDPIPER_PITCH_KPB              ((int32_t)1608445949) // P gain on the setpoint; Q-1.32 = 0.3745
+#define SANDPIPER_PITCH_G0               ((int32_t)1898462362) // integral: weight of the current error; Q-5.36 = 0.02763
+#define SANDPIPER_PITCH_G01              ((int32_t)1898462362) // integral: state increment per unit error; Q-4.35 = 0.05525
+#define SANDPIPER_PITCH_KT               ((int32_t)2126395862) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03094
 #define SANDPIPER_PITCH_AD               ((int32_t)1872865156) // derivative filter: pole; Q-1.32 = 0.4361
-#define SANDPIPER_PITCH_BD               ((int32_t)1100990536) // derivative filter: gain; Q6.25 = 32.81
+#define SANDPIPER_PITCH_BD               ((int32_t)1091958360) // derivative filter: gain; Q6.25 = 32.54
 #define SANDPIPER_PITCH_OUTPUT_LO        ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define SANDPIPER_PITCH_OUTPUT_HI        ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
 #define SANDPIPER_PITCH_INTEGRATOR_LIMIT INT64_C(2305843009213693952) // largest |integrator state|, 30 fractional bits below the output LSB
@@ -122,13 +122,13 @@ int32_t sandpiper_pitch_step(sandpiper_pitch_state *s, int32_t setpoint, int32_t
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, int32_t applied);
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               ((int32_t)1827054434) // P gain on the measurement; Q2.29 = 3.403
-#define SANDPIPER_ROLL_KPB              ((int32_t)1461643547) // P gain on the setpoint; Q-1.32 = 0.3403
-#define SANDPIPER_ROLL_G0               ((int32_t)1528342695) // integral: weight of the current error; Q-5.36 = 0.02224
-#define SANDPIPER_ROLL_G01              ((int32_t)1528342695) // integral: state increment per unit error; Q-4.35 = 0.04448
-#define SANDPIPER_ROLL_KT               ((int32_t)2081399110) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03029
+#define SANDPIPER_ROLL_KP               ((int32_t)1861627256) // P gain on the measurement; Q2.29 = 3.468
+#define SANDPIPER_ROLL_KPB              ((int32_t)1340371624) // P gain on the setpoint; Q-1.32 = 0.3121
+#define SANDPIPER_ROLL_G0               ((int32_t)1582051968) // integral: weight of the current error; Q-5.36 = 0.02302
+#define SANDPIPER_ROLL_G01              ((int32_t)1582051968) // integral: state increment per unit error; Q-4.35 = 0.04604
+#define SANDPIPER_ROLL_KT               ((int32_t)2126395862) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03094
 #define SANDPIPER_ROLL_AD               ((int32_t)1872865156) // derivative filter: pole; Q-1.32 = 0.4361
-#define SANDPIPER_ROLL_BD               ((int32_t)1834984226) // derivative filter: gain; Q5.26 = 27.34
+#define SANDPIPER_ROLL_BD               ((int32_t)1819930600) // derivative filter: gain; Q5.26 = 27.12
 #define SANDPIPER_ROLL_OUTPUT_LO        ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define SANDPIPER_ROLL_OUTPUT_HI        ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT INT64_C(2305843009213693952) // largest |integrator state|, 30 fractional bits below the output LSB
@@ -160,11 +160,11 @@ int32_t sandpiper_roll_step(sandpiper_roll_state *s, int32_t setpoint, int32_t m
 void sandpiper_roll_applied(sandpiper_roll_state *s, int32_t applied);
 
 // Axis yaw: coefficients and limits.
-#define SANDPIPER_YAW_KP               ((int32_t)1233732940) // P gain on the measurement; Q3.28 = 4.596
-#define SANDPIPER_YAW_KPB              ((int32_t)1788912763) // P gain on the setpoint; Q2.29 = 3.332
-#define SANDPIPER_YAW_G0               ((int32_t)1474377927) // integral: weight of the current error; Q-7.38 = 0.005364
-#define SANDPIPER_YAW_G01              ((int32_t)1474377927) // integral: state increment per unit error; Q-6.37 = 0.01073
-#define SANDPIPER_YAW_KT               ((int32_t)1283179846) // anti-windup back-calculation gain T/Tt; Q-8.39 = 0.002334
+#define SANDPIPER_YAW_KP               ((int32_t)1217199556) // P gain on the measurement; Q3.28 = 4.534
+#define SANDPIPER_YAW_KPB              ((int32_t)1606703414) // P gain on the setpoint; Q2.29 = 2.993
+#define SANDPIPER_YAW_G0               ((int32_t)1692905612) // integral: weight of the current error; Q-7.38 = 0.006159
+#define SANDPIPER_YAW_G01              ((int32_t)1692905612) // integral: state increment per unit error; Q-6.37 = 0.01232
+#define SANDPIPER_YAW_KT               ((int32_t)1493381714) // anti-windup back-calculation gain T/Tt; Q-8.39 = 0.002716
 #define SANDPIPER_YAW_OUTPUT_LO        ((int32_t)-1288490189) // lowest command, raw; Q0.31 = -0.6
 #define SANDPIPER_YAW_OUTPUT_HI        ((int32_t)1288490189) // highest command, raw; Q0.31 = 0.6
 #define SANDPIPER_YAW_INTEGRATOR_LIMIT INT64_C(5534023222112865280) // largest |integrator state|, 32 fractional bits below the output LSB

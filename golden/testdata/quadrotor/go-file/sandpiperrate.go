@@ -8,34 +8,34 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
-// b = 0.1.
+// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
-// Tf = 0.001273 s, b = 0.1.
+// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.03591, Ki = 0.08381, b = 0.725.
-//   discretized tustin; anti-windup backcalc (Tt = 0.4284 s); integrator
+// Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
+//   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.472 %, settling 0.264 s, phase margin
-//   54.3 deg, gain margin 24.7 dB.
+//   Sampled loop: overshoot 0.168 %, settling 0.289 s, phase margin
+//   52.4 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -71,14 +71,14 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              float32 = 0.03190457    // P gain on the measurement
-	PitchKpB             float32 = 0.003190457   // P gain on the setpoint (setpoint weight b times Kp)
-	PitchG0              float32 = 0.00020850294 // integral: weight of the current error
-	PitchG01             float32 = 0.00041700588 // integral: state increment per unit error
-	PitchKt              float32 = 0.030288344   // anti-windup back-calculation gain T/Tt
+	PitchKp              float32 = 0.03250829    // P gain on the measurement
+	PitchKpB             float32 = 0.0029257461  // P gain on the setpoint (setpoint weight b times Kp)
+	PitchG0              float32 = 0.00021583018 // integral: weight of the current error
+	PitchG01             float32 = 0.00043166036 // integral: state increment per unit error
+	PitchKt              float32 = 0.030943133   // anti-windup back-calculation gain T/Tt
 	PitchIntegratorLimit float32 = 0.5           // largest |integrator state|, command units
 	PitchAd              float32 = 0.4360604     // derivative filter: pole
-	PitchBd              float32 = 0.25634435    // derivative filter: gain
+	PitchBd              float32 = 0.25424138    // derivative filter: gain
 	PitchOutputLo        float32 = -0.5          // lowest command
 	PitchOutputHi        float32 = 0.5           // highest command
 )
@@ -165,14 +165,14 @@ func (c *Pitch) Faults() uint32 {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              float32 = 0.026587142   // P gain on the measurement
-	RollKpB             float32 = 0.002658714   // P gain on the setpoint (setpoint weight b times Kp)
-	RollG0              float32 = 0.00017375244 // integral: weight of the current error
-	RollG01             float32 = 0.0003475049  // integral: state increment per unit error
-	RollKt              float32 = 0.030288344   // anti-windup back-calculation gain T/Tt
+	RollKp              float32 = 0.027090242   // P gain on the measurement
+	RollKpB             float32 = 0.0024381217  // P gain on the setpoint (setpoint weight b times Kp)
+	RollG0              float32 = 0.00017985849 // integral: weight of the current error
+	RollG01             float32 = 0.00035971697 // integral: state increment per unit error
+	RollKt              float32 = 0.030943133   // anti-windup back-calculation gain T/Tt
 	RollIntegratorLimit float32 = 0.5           // largest |integrator state|, command units
 	RollAd              float32 = 0.4360604     // derivative filter: pole
-	RollBd              float32 = 0.21362028    // derivative filter: gain
+	RollBd              float32 = 0.21186781    // derivative filter: gain
 	RollOutputLo        float32 = -0.5          // lowest command
 	RollOutputHi        float32 = 0.5           // highest command
 )
@@ -259,14 +259,14 @@ func (c *Roll) Faults() uint32 {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp              float32 = 0.035906356   // P gain on the measurement
-	YawKpB             float32 = 0.026032107   // P gain on the setpoint (setpoint weight b times Kp)
-	YawG0              float32 = 4.1904343e-05 // integral: weight of the current error
-	YawG01             float32 = 8.3808685e-05 // integral: state increment per unit error
-	YawKt              float32 = 0.0023340906  // anti-windup back-calculation gain T/Tt
-	YawIntegratorLimit float32 = 0.3           // largest |integrator state|, command units
-	YawOutputLo        float32 = -0.3          // lowest command
-	YawOutputHi        float32 = 0.3           // highest command
+	YawKp              float32 = 0.03542517   // P gain on the measurement
+	YawKpB             float32 = 0.023380611  // P gain on the setpoint (setpoint weight b times Kp)
+	YawG0              float32 = 4.811527e-05 // integral: weight of the current error
+	YawG01             float32 = 9.623054e-05 // integral: state increment per unit error
+	YawKt              float32 = 0.0027164456 // anti-windup back-calculation gain T/Tt
+	YawIntegratorLimit float32 = 0.3          // largest |integrator state|, command units
+	YawOutputLo        float32 = -0.3         // lowest command
+	YawOutputHi        float32 = 0.3          // highest command
 )
 
 // Yaw is the state of the sandpiper rate controller of axis yaw (PI). Call

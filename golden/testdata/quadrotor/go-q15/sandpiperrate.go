@@ -8,48 +8,48 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q15 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
-// b = 0.1.
+// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB, Kp Q3.12, G0, G01, Kt
 //   Ad, Bd Q6.9, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 9, sum 9 fractional bits below the output LSB;
-//   minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
+//   minimum headroom 0.0143 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
-// Tf = 0.001273 s, b = 0.1.
+// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB, Kp Q2.13, G0, G01, Kt
 //   Ad, Bd Q5.10, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 10, sum 10 fractional bits below the output
-//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0143 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis yaw: pi, Kp = 0.03591, Ki = 0.08381, b = 0.725.
-//   discretized tustin; anti-windup backcalc (Tt = 0.4284 s); integrator
+// Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
+//   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.472 %, settling 0.264 s, phase margin
-//   54.3 deg, gain margin 24.7 dB.
+//   Sampled loop: overshoot 0.168 %, settling 0.289 s, phase margin
+//   52.4 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
 //   Lo Q0.15, Hi Q0.15, IL Q0.31; states: integrator 16, derivative
 //   16, sum 12 fractional bits below the output LSB; minimum headroom
-//   0.543 bits (G0*e (product)); saturating: command before saturation.
+//   0.343 bits (G0*e (product)); saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
 // engagement (bumpless: the next command starts from output, the derivative
@@ -76,13 +76,13 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int16 = 16727     // P gain on the measurement; Q3.12 = 4.084
-	PitchKpB             int16 = 26763     // P gain on the setpoint; Q-1.16 = 0.4084
-	PitchG0              int16 = 27985     // integral: weight of the current error; Q-5.20 = 0.02669
-	PitchG01             int16 = 27985     // integral: state increment per unit error; Q-4.19 = 0.05338
-	PitchKt              int16 = 31760     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03029
+	PitchKp              int16 = 17044     // P gain on the measurement; Q3.12 = 4.161
+	PitchKpB             int16 = 24543     // P gain on the setpoint; Q-1.16 = 0.3745
+	PitchG0              int16 = 28968     // integral: weight of the current error; Q-5.20 = 0.02763
+	PitchG01             int16 = 28968     // integral: state increment per unit error; Q-4.19 = 0.05525
+	PitchKt              int16 = 32446     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03094
 	PitchAd              int16 = 28578     // derivative filter: pole; Q-1.16 = 0.4361
-	PitchBd              int16 = 16800     // derivative filter: gain; Q6.9 = 32.81
+	PitchBd              int16 = 16662     // derivative filter: gain; Q6.9 = 32.54
 	PitchOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	PitchOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
 	PitchIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB
@@ -152,13 +152,13 @@ func (c *Pitch) Applied(applied int16) {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              int16 = 27879     // P gain on the measurement; Q2.13 = 3.403
-	RollKpB             int16 = 22303     // P gain on the setpoint; Q-1.16 = 0.3403
-	RollG0              int16 = 23321     // integral: weight of the current error; Q-5.20 = 0.02224
-	RollG01             int16 = 23321     // integral: state increment per unit error; Q-4.19 = 0.04448
-	RollKt              int16 = 31760     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03029
+	RollKp              int16 = 28406     // P gain on the measurement; Q2.13 = 3.468
+	RollKpB             int16 = 20452     // P gain on the setpoint; Q-1.16 = 0.3121
+	RollG0              int16 = 24140     // integral: weight of the current error; Q-5.20 = 0.02302
+	RollG01             int16 = 24140     // integral: state increment per unit error; Q-4.19 = 0.04604
+	RollKt              int16 = 32446     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03094
 	RollAd              int16 = 28578     // derivative filter: pole; Q-1.16 = 0.4361
-	RollBd              int16 = 28000     // derivative filter: gain; Q5.10 = 27.34
+	RollBd              int16 = 27770     // derivative filter: gain; Q5.10 = 27.12
 	RollOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	RollOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
 	RollIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB
@@ -228,11 +228,11 @@ func (c *Roll) Applied(applied int16) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp              int16 = 18825      // P gain on the measurement; Q3.12 = 4.596
-	YawKpB             int16 = 27297      // P gain on the setpoint; Q2.13 = 3.332
-	YawG0              int16 = 22497      // integral: weight of the current error; Q-7.22 = 0.005364
-	YawG01             int16 = 22497      // integral: state increment per unit error; Q-6.21 = 0.01073
-	YawKt              int16 = 19580      // anti-windup back-calculation gain T/Tt; Q-8.23 = 0.002334
+	YawKp              int16 = 18573      // P gain on the measurement; Q3.12 = 4.534
+	YawKpB             int16 = 24516      // P gain on the setpoint; Q2.13 = 2.993
+	YawG0              int16 = 25832      // integral: weight of the current error; Q-7.22 = 0.006159
+	YawG01             int16 = 25832      // integral: state increment per unit error; Q-6.21 = 0.01232
+	YawKt              int16 = 22787      // anti-windup back-calculation gain T/Tt; Q-8.23 = 0.002716
 	YawOutputLo        int16 = -19661     // lowest command, raw; Q0.15 = -0.6
 	YawOutputHi        int16 = 19661      // highest command, raw; Q0.15 = 0.6
 	YawIntegratorLimit int32 = 1288490189 // largest |integrator state|, 16 fractional bits below the output LSB

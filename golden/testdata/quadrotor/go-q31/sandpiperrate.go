@@ -8,48 +8,48 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q31 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.0319, Ki = 0.417, Kd = 0.0004546, Tf = 0.001273 s,
-// b = 0.1.
+// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB, Kp Q3.28, G0, G01, Kt
 //   Ad, Bd Q6.25, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 25, sum 25 fractional bits below the output
-//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0142 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis roll: pid, Kp = 0.02659, Ki = 0.3475, Kd = 0.0003788,
-// Tf = 0.001273 s, b = 0.1.
+// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
+// Tf = 0.001273 s, b = 0.09.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03302 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0229 %, settling 0.131 s, phase margin
-//   41.7 deg, gain margin 17.6 dB.
+//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
+//   40.7 deg, gain margin 17.5 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB, Kp Q2.29, G0, G01, Kt
 //   Ad, Bd Q5.26, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 26, sum 26 fractional bits below the output
-//   LSB; minimum headroom 0.0451 bits (Kt*du (product)); saturating: command
+//   LSB; minimum headroom 0.0142 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis yaw: pi, Kp = 0.03591, Ki = 0.08381, b = 0.725.
-//   discretized tustin; anti-windup backcalc (Tt = 0.4284 s); integrator
+// Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
+//   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.472 %, settling 0.264 s, phase margin
-//   54.3 deg, gain margin 24.7 dB.
+//   Sampled loop: overshoot 0.168 %, settling 0.289 s, phase margin
+//   52.4 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
 //   Lo Q0.31, Hi Q0.31, IL Q0.63; states: integrator 32, derivative
 //   32, sum 28 fractional bits below the output LSB; minimum headroom
-//   0.543 bits (G0*e (product)); saturating: command before saturation.
+//   0.343 bits (G0*e (product)); saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
 // engagement (bumpless: the next command starts from output, the derivative
@@ -76,13 +76,13 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int32 = 1096232660          // P gain on the measurement; Q3.28 = 4.084
-	PitchKpB             int32 = 1753972257          // P gain on the setpoint; Q-1.32 = 0.4084
-	PitchG0              int32 = 1834011234          // integral: weight of the current error; Q-5.36 = 0.02669
-	PitchG01             int32 = 1834011234          // integral: state increment per unit error; Q-4.35 = 0.05338
-	PitchKt              int32 = 2081399110          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03029
+	PitchKp              int32 = 1116976353          // P gain on the measurement; Q3.28 = 4.161
+	PitchKpB             int32 = 1608445949          // P gain on the setpoint; Q-1.32 = 0.3745
+	PitchG0              int32 = 1898462362          // integral: weight of the current error; Q-5.36 = 0.02763
+	PitchG01             int32 = 1898462362          // integral: state increment per unit error; Q-4.35 = 0.05525
+	PitchKt              int32 = 2126395862          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03094
 	PitchAd              int32 = 1872865156          // derivative filter: pole; Q-1.32 = 0.4361
-	PitchBd              int32 = 1100990536          // derivative filter: gain; Q6.25 = 32.81
+	PitchBd              int32 = 1091958360          // derivative filter: gain; Q6.25 = 32.54
 	PitchOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	PitchOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
 	PitchIntegratorLimit int64 = 2305843009213693952 // largest |integrator state|, 30 fractional bits below the output LSB
@@ -152,13 +152,13 @@ func (c *Pitch) Applied(applied int32) {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              int32 = 1827054434          // P gain on the measurement; Q2.29 = 3.403
-	RollKpB             int32 = 1461643547          // P gain on the setpoint; Q-1.32 = 0.3403
-	RollG0              int32 = 1528342695          // integral: weight of the current error; Q-5.36 = 0.02224
-	RollG01             int32 = 1528342695          // integral: state increment per unit error; Q-4.35 = 0.04448
-	RollKt              int32 = 2081399110          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03029
+	RollKp              int32 = 1861627256          // P gain on the measurement; Q2.29 = 3.468
+	RollKpB             int32 = 1340371624          // P gain on the setpoint; Q-1.32 = 0.3121
+	RollG0              int32 = 1582051968          // integral: weight of the current error; Q-5.36 = 0.02302
+	RollG01             int32 = 1582051968          // integral: state increment per unit error; Q-4.35 = 0.04604
+	RollKt              int32 = 2126395862          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03094
 	RollAd              int32 = 1872865156          // derivative filter: pole; Q-1.32 = 0.4361
-	RollBd              int32 = 1834984226          // derivative filter: gain; Q5.26 = 27.34
+	RollBd              int32 = 1819930600          // derivative filter: gain; Q5.26 = 27.12
 	RollOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	RollOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
 	RollIntegratorLimit int64 = 2305843009213693952 // largest |integrator state|, 30 fractional bits below the output LSB
@@ -228,11 +228,11 @@ func (c *Roll) Applied(applied int32) {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp              int32 = 1233732940          // P gain on the measurement; Q3.28 = 4.596
-	YawKpB             int32 = 1788912763          // P gain on the setpoint; Q2.29 = 3.332
-	YawG0              int32 = 1474377927          // integral: weight of the current error; Q-7.38 = 0.005364
-	YawG01             int32 = 1474377927          // integral: state increment per unit error; Q-6.37 = 0.01073
-	YawKt              int32 = 1283179846          // anti-windup back-calculation gain T/Tt; Q-8.39 = 0.002334
+	YawKp              int32 = 1217199556          // P gain on the measurement; Q3.28 = 4.534
+	YawKpB             int32 = 1606703414          // P gain on the setpoint; Q2.29 = 2.993
+	YawG0              int32 = 1692905612          // integral: weight of the current error; Q-7.38 = 0.006159
+	YawG01             int32 = 1692905612          // integral: state increment per unit error; Q-6.37 = 0.01232
+	YawKt              int32 = 1493381714          // anti-windup back-calculation gain T/Tt; Q-8.39 = 0.002716
 	YawOutputLo        int32 = -1288490189         // lowest command, raw; Q0.31 = -0.6
 	YawOutputHi        int32 = 1288490189          // highest command, raw; Q0.31 = 0.6
 	YawIntegratorLimit int64 = 5534023222112865280 // largest |integrator state|, 32 fractional bits below the output LSB
