@@ -1286,6 +1286,12 @@ func newSureWindow(e *Evaluation, s airframe.Spec, bmin, bmax float64) weightWin
 	if t := float64(s.SettlingTime*(1-1e-8)) / e.H; t < float64(e.N) {
 		w.k0 = max(int(math.Floor(t)), 0)
 	}
+	// A response counts as settled only with its exit in the first 90 %
+	// of the record (lti.SettleExit); the search's records are four
+	// settling times long, far past that.
+	if float64(w.k0) > 0.9*float64(e.N-1) {
+		w.ok = false
+	}
 	return w
 }
 

@@ -116,3 +116,63 @@ func TestTimeMet(t *testing.T) {
 		}
 	}
 }
+
+// TestSureWindow: every weight the sure window holds (newSureWindow) meets
+// the time spec by the exact step summary (weightedSettle and timeMet, the
+// former checked against lti.Settle above), so fastTimeChecks may skip
+// the summary for it. On random damped responses of both weights, with
+// final values that move with b, and settling limits that fall between
+// samples and on them; every weight by 0.001 is tried. The test also
+// asks that the window hold some weights and that a weight it leaves out
+// can still pass (the window is sufficient, not exact), so that it shows
+// both sides.
+func TestSureWindow(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 11))
+	held, left := 0, 0
+	for trial := range 300 {
+		n := 200 + rng.IntN(800)
+		h := 0.001
+		zeta, wn := 0.3+0.6*rng.Float64(), 20+80*rng.Float64()
+		wd := wn * math.Sqrt(1-zeta*zeta)
+		f0, f1 := 1.0, 1.0
+		if trial%3 == 0 {
+			f0, f1 = 0.8+0.2*rng.Float64(), 1.0 // a plant without integral action
+		}
+		a1 := 3 * rng.Float64()
+		y0, y1 := make([]float64, n), make([]float64, n)
+		for k := range y0 {
+			tk := float64(k) * h
+			env := math.Exp(-zeta * wn * tk)
+			y0[k] = f0 * (1 - env*(math.Cos(wd*tk)+0.3*math.Sin(wd*tk)))
+			y1[k] = f1 * (1 - env*(math.Cos(wd*tk)-a1*math.Sin(wd*tk)))
+		}
+		ts := (2 + 6*rng.Float64()) / (zeta * wn)
+		if trial%4 == 0 {
+			ts = h * math.Round(ts/h) // on a sample
+		}
+		s := airframe.Spec{SettlingTime: ts, Overshoot: 0.02 + 0.2*rng.Float64(), Band: 0.02}
+		e := Evaluation{N: n, H: h, Final0: f0, Final1: f1}
+		w := newSureWindow(&e, s, 0, 1)
+		for k := range n {
+			w.add(k, y0[k], y1[k])
+		}
+		for i := 0; i <= 1000; i++ {
+			b := float64(i) / 1000
+			f := f0 + b*(f1-f0)
+			met := timeMet(s, weightedSettle(y0, y1, b, h, f, s.Band))
+			switch {
+			case w.surely(b) && !met:
+				t.Fatalf("trial %d: b = %g is in the sure window [%g, %g] but misses the spec: %+v",
+					trial, b, w.lo, w.hi, weightedSettle(y0, y1, b, h, f, s.Band))
+			case w.surely(b):
+				held++
+			case met:
+				left++
+			}
+		}
+	}
+	if held == 0 || left == 0 {
+		t.Errorf("the window held %d passing weights and left out %d: want both", held, left)
+	}
+	t.Logf("%d passing weights held by the window, %d passing ones left to the summary", held, left)
+}
