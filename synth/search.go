@@ -1252,6 +1252,9 @@ type weightWindow struct {
 	k0                   int // first sample held to the band
 	f0, df               float64
 	osHi, bandHi, bandLo float64
+	// The products of the inequalities that do not change from sample to
+	// sample (see seal): osHi·dF, osHi·F0 and so on.
+	osDF, osF0, hiDF, hiF0, loDF, loF0 float64
 	// ok is false where the test does not apply: a final value not
 	// positive over the admitted weights or a non-finite sample.
 	ok bool
@@ -1265,6 +1268,7 @@ func newWeightWindow(e *Evaluation, s airframe.Spec, bmin, bmax, beta float64) w
 	if t := s.SettlingTime * (1 + beta) / e.H; t < float64(e.N) {
 		w.k0 = int(math.Floor(t)) + 1
 	}
+	w.seal()
 	return w
 }
 
@@ -1292,6 +1296,7 @@ func newSureWindow(e *Evaluation, s airframe.Spec, bmin, bmax float64) weightWin
 	if float64(w.k0) > 0.9*float64(e.N-1) {
 		w.ok = false
 	}
+	w.seal()
 	return w
 }
 
@@ -1304,15 +1309,40 @@ func (w *weightWindow) surely(b float64) bool {
 // add narrows the window by sample k of the responses for b = 0 and 1.
 func (w *weightWindow) add(k int, y0, y1 float64) {
 	d := y1 - y0
-	if math.IsNaN(y0) || math.IsNaN(d) || math.IsInf(y0, 0) || math.IsInf(d, 0) {
+	// x − x is 0 for a finite x and NaN for NaN and ±Inf.
+	if !(y0-y0 == 0 && d-d == 0) {
 		w.ok = false
 		return
 	}
-	w.bound(d-float64(w.osHi*w.df), float64(w.osHi*w.f0)-y0)
-	if k >= w.k0 {
-		w.bound(d-float64(w.bandHi*w.df), float64(w.bandHi*w.f0)-y0)
-		w.bound(-(d - float64(w.bandLo*w.df)), y0-float64(w.bandLo*w.f0))
+	w.narrow(k, y0, d)
+}
+
+// addBoth is add on w and v with one test of the samples.
+func (w *weightWindow) addBoth(v *weightWindow, k int, y0, y1 float64) {
+	d := y1 - y0
+	if !(y0-y0 == 0 && d-d == 0) {
+		w.ok, v.ok = false, false
+		return
 	}
+	w.narrow(k, y0, d)
+	v.narrow(k, y0, d)
+}
+
+// narrow applies the inequalities of sample k, y0 and d = y1 − y0 finite.
+func (w *weightWindow) narrow(k int, y0, d float64) {
+	w.bound(d-w.osDF, w.osF0-y0)
+	if k >= w.k0 {
+		w.bound(d-w.hiDF, w.hiF0-y0)
+		w.bound(-(d - w.loDF), y0-w.loF0)
+	}
+}
+
+// seal computes the window's constant products, each rounded on its own
+// as the inequalities of add were written.
+func (w *weightWindow) seal() {
+	w.osDF, w.osF0 = float64(w.osHi*w.df), float64(w.osHi*w.f0)
+	w.hiDF, w.hiF0 = float64(w.bandHi*w.df), float64(w.bandHi*w.f0)
+	w.loDF, w.loF0 = float64(w.bandLo*w.df), float64(w.bandLo*w.f0)
 }
 
 // bound applies a·b ≤ c, dividing only when the bound tightens.
@@ -1395,8 +1425,7 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 			e.Respond(y0[k:m], y1[k:m])
 			for ; k < m; k++ {
 				if w.ok {
-					w.add(k, y0[k], y1[k])
-					sure.add(k, y0[k], y1[k])
+					w.addBoth(&sure, k, y0[k], y1[k])
 				}
 			}
 			r.k = k
