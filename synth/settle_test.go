@@ -121,15 +121,18 @@ func TestTimeMet(t *testing.T) {
 // the time spec by the exact step summary (weightedSettle and timeMet, the
 // former checked against lti.Settle above), so fastTimeChecks may skip
 // the summary for it. On random damped responses of both weights, with
-// final values that move with b, and settling limits that fall between
-// samples and on them; every weight by 0.001 is tried. The test also
-// asks that the window hold some weights and that a weight it leaves out
-// can still pass (the window is sufficient, not exact), so that it shows
-// both sides.
+// final values that move with b, admitted ranges of b narrower than
+// [0, 1], settling limits that fall between samples and on them, records
+// too short to call a response settled, non-finite samples, and an
+// overshoot or band too small for the window's margins (1e-10); every
+// weight by 0.001 is tried. The samples go through addBoth, as in the
+// search. The test also asks that the window hold some weights and that
+// a weight it leaves out can still pass (the window is sufficient, not
+// exact), so that it shows both sides.
 func TestSureWindow(t *testing.T) {
 	rng := rand.New(rand.NewPCG(7, 11))
 	held, left := 0, 0
-	for trial := range 300 {
+	for trial := range 400 {
 		n := 200 + rng.IntN(800)
 		h := 0.001
 		zeta, wn := 0.3+0.6*rng.Float64(), 20+80*rng.Float64()
@@ -151,20 +154,41 @@ func TestSureWindow(t *testing.T) {
 			ts = h * math.Round(ts/h) // on a sample
 		}
 		s := airframe.Spec{SettlingTime: ts, Overshoot: 0.02 + 0.2*rng.Float64(), Band: 0.02}
+		switch trial % 10 {
+		case 5:
+			s.Overshoot = 1e-10
+		case 6:
+			s.Band = 1e-10
+		case 7:
+			y0[rng.IntN(n)] = math.NaN()
+		case 8:
+			y1[rng.IntN(n)] = math.Inf(-1)
+		}
+		bmin, bmax := 0.0, 1.0
+		if trial%2 == 1 {
+			bmin, bmax = 0.3*rng.Float64(), 0.7+0.3*rng.Float64()
+		}
 		e := Evaluation{N: n, H: h, Final0: f0, Final1: f1}
-		w := newSureWindow(&e, s, 0, 1)
+		w := newWeightWindow(&e, s, bmin, bmax, 0)
+		sure := newSureWindow(&e, s, bmin, bmax)
 		for k := range n {
-			w.add(k, y0[k], y1[k])
+			if w.ok {
+				w.addBoth(&sure, k, y0[k], y1[k])
+			}
 		}
 		for i := 0; i <= 1000; i++ {
 			b := float64(i) / 1000
-			f := f0 + b*(f1-f0)
-			met := timeMet(s, weightedSettle(y0, y1, b, h, f, s.Band))
+			if b < bmin || b > bmax {
+				continue
+			}
+			f := f0 + float64(b*(f1-f0))
+			st := weightedSettle(y0, y1, b, h, f, s.Band)
+			met := timeMet(s, st)
+			in := w.ok && sure.surely(b)
 			switch {
-			case w.surely(b) && !met:
-				t.Fatalf("trial %d: b = %g is in the sure window [%g, %g] but misses the spec: %+v",
-					trial, b, w.lo, w.hi, weightedSettle(y0, y1, b, h, f, s.Band))
-			case w.surely(b):
+			case in && !met:
+				t.Fatalf("trial %d: b = %g is in the sure window [%g, %g] but misses the spec: %+v", trial, b, sure.lo, sure.hi, st)
+			case in:
 				held++
 			case met:
 				left++
@@ -175,4 +199,23 @@ func TestSureWindow(t *testing.T) {
 		t.Errorf("the window held %d passing weights and left out %d: want both", held, left)
 	}
 	t.Logf("%d passing weights held by the window, %d passing ones left to the summary", held, left)
+
+	// An overshoot limit so small that rounding 1 + os·(1 − 1e-6) uses up
+	// the margin: a response with one sample at the window's own top,
+	// whose overshoot is computed above the limit.
+	const n = 400
+	s := airframe.Spec{SettlingTime: 0.1, Overshoot: 1.00002e-10, Band: 0.02}
+	y := make([]float64, n)
+	for k := range y {
+		y[k] = 1
+	}
+	y[10] = 1 + float64(s.Overshoot*(1-1e-6))
+	e := Evaluation{N: n, H: 0.001, Final0: 1, Final1: 1}
+	w, sure := newWeightWindow(&e, s, 0, 1, 0), newSureWindow(&e, s, 0, 1)
+	for k := range n {
+		w.addBoth(&sure, k, y[k], y[k])
+	}
+	if st := weightedSettle(y, y, 1, e.H, 1, s.Band); sure.surely(1) && !timeMet(s, st) {
+		t.Errorf("overshoot limit 1.00002e-10: the sure window holds b = 1, whose overshoot %g misses it", st.Overshoot)
+	}
 }
