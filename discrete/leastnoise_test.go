@@ -29,11 +29,10 @@ import (
 //
 // The demo rover's yaw (pd) found 5.36 against the grid's 4.19 while the
 // search scanned each line by steps of 1.15; it now finds 4.13 (the grid
-// above: 4.14). The p of
-// the reference airframe mast_p is the second case. The third,
-// pd_edge_pitch, found 0.930 while the coarse grid of the search held
-// only the derivative shares 10 and 17.8 below the bound: its least lies
-// against the bound (ρ 18–19, 0.702).
+// above: 4.14). The p of the reference airframe mast_p is the second
+// case. The third, pd_edge_pitch, found 0.930 while the coarse grid of
+// the search held only the derivative shares 10 and 17.8 below the
+// bound: its least lies against the bound (ρ 18–19, 0.702).
 func TestLeastNoiseAgainstBruteForce(t *testing.T) {
 	if testing.Short() {
 		t.Skip("a brute force of a few thousand judgments per axis; skipped with -short")
