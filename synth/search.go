@@ -1302,7 +1302,9 @@ func newSureWindow(e *Evaluation, s airframe.Spec, bmin, bmax float64) weightWin
 	fmin, fmax := w.f0+float64(bmin*w.df), w.f0+float64(bmax*w.df)
 	w.ok = fmin > 0 && fmax > 0 && !math.IsInf(fmin, 0) && !math.IsInf(fmax, 0) &&
 		s.Overshoot >= 1e-6 && s.Band >= 1e-6
-	w.mag = math.Max(math.Abs(fmin), math.Abs(fmax))
+	// The constant products of the inequalities round by a unit in the
+	// last place of F0 and dF too.
+	w.mag = math.Max(math.Max(math.Abs(fmin), math.Abs(fmax)), math.Max(math.Abs(w.f0), math.Abs(w.df)))
 	w.room = float64(1e-6*math.Min(s.Overshoot, s.Band)) * math.Min(fmin, fmax)
 	if t := float64(s.SettlingTime*(1-1e-8)) / e.H; t < float64(e.N) {
 		w.k0 = max(int(math.Floor(t)), 0)
@@ -1324,19 +1326,10 @@ func (w *weightWindow) surely(b float64) bool {
 	return w.ok && b >= w.lo && b <= w.hi && float64(1e-13*w.mag) < w.room
 }
 
-// add narrows the window by sample k of the responses for b = 0 and 1.
-func (w *weightWindow) add(k int, y0, y1 float64) {
-	d := y1 - y0
-	// x − x is 0 for a finite x and NaN for NaN and ±Inf.
-	if !(y0-y0 == 0 && d-d == 0) {
-		w.ok = false
-		return
-	}
-	w.narrow(k, y0, d)
-}
-
-// addBoth is add on w and the sure window v with one test of the
-// samples; v also keeps the largest magnitude it has seen.
+// addBoth narrows w and the sure window v by sample k of the responses
+// for b = 0 and 1, with one test that both are finite (x − x is 0 for a
+// finite x and NaN for NaN and ±Inf); v also keeps the largest magnitude
+// it has seen.
 func (w *weightWindow) addBoth(v *weightWindow, k int, y0, y1 float64) {
 	d := y1 - y0
 	if !(y0-y0 == 0 && d-d == 0) {
@@ -1984,7 +1977,8 @@ func (sr *searcher) refine(c cand, step []float64, judge judgeFunc) (cand, error
 // from (1 down to 0 by 0.005; see refineWeights).
 const fineWeights = 201
 
-// maxWeightRounds bounds the refinements of refineWeights.
+// maxWeightRounds bounds the refinements of refineWeights and of
+// quietestAbove.
 const maxWeightRounds = 3
 
 // refineWeights refines the passing design c again with the setpoint
@@ -2044,7 +2038,7 @@ func (sr *searcher) refineWeights(c cand, step []float64, judge judgeFunc) (cand
 // design kept: the local steps that end at a local best from one need
 // not from the other (the review golden's demo pan: Ki 0.0953 from k,
 // 0.0852 from the scanned knee). The tie-break toward less noise
-// (quietest) is left to the caller.
+// (quietestAbove) is left to the caller.
 func (sr *searcher) kneeDesign(k cand, step []float64, judge judgeFunc) (cand, error) {
 	first, err := sr.scanKnee(k, judge)
 	if err != nil {

@@ -123,8 +123,9 @@ func TestTimeMet(t *testing.T) {
 // the summary for it. On random damped responses of both weights, with
 // final values that move with b, admitted ranges of b narrower than
 // [0, 1], settling limits that fall between samples and on them, records
-// too short to call a response settled, non-finite samples, and an
-// overshoot or band too small for the window's margins (1e-10); every
+// too short to call a response settled, non-finite samples, an
+// overshoot or band too small for the window's margins (1e-10), and final
+// values of a billion that nearly cancel at the admitted weight; every
 // weight by 0.001 is tried. The samples go through addBoth, as in the
 // search. The test also asks that the window hold some weights and that
 // a weight it leaves out can still pass (the window is sufficient, not
@@ -215,7 +216,41 @@ func TestSureWindow(t *testing.T) {
 	for k := range n {
 		w.addBoth(&sure, k, y[k], y[k])
 	}
-	if st := weightedSettle(y, y, 1, e.H, 1, s.Band); sure.surely(1) && !timeMet(s, st) {
+	st := weightedSettle(y, y, 1, e.H, 1, s.Band)
+	if timeMet(s, st) {
+		t.Fatalf("overshoot limit 1.00002e-10: the trap's response meets the spec (overshoot %g); the case tests nothing", st.Overshoot)
+	}
+	if sure.surely(1) {
 		t.Errorf("overshoot limit 1.00002e-10: the sure window holds b = 1, whose overshoot %g misses it", st.Overshoot)
+	}
+
+	// Final values of a billion in magnitude that nearly cancel at the
+	// admitted weight (F(0.5) = 1): the constant products of the window's
+	// inequalities round by far more than its margin, and a sample at the
+	// top of the window misses the overshoot limit.
+	e = Evaluation{N: n, H: 0.001, Final0: 1e9, Final1: 2 - 1e9}
+	s = airframe.Spec{SettlingTime: 0.1, Overshoot: 0.02, Band: 0.02}
+	y0, y1 := make([]float64, n), make([]float64, n)
+	for k := range y0 {
+		y0[k], y1[k] = 0, 2
+	}
+	misses := 0
+	for range 2000 {
+		// A spike at the overshoot limit, from 5e-8 below it to 1.5e-7
+		// above: the ulp of 1e9 is 1.2e-7, the window's margin 2e-8.
+		y1[10] = 2*(1+s.Overshoot) + float64(4e-7*(rng.Float64()-0.25))
+		w, sure = newWeightWindow(&e, s, 0.5, 0.5, 0), newSureWindow(&e, s, 0.5, 0.5)
+		for k := range n {
+			w.addBoth(&sure, k, y0[k], y1[k])
+		}
+		if !timeMet(s, weightedSettle(y0, y1, 0.5, e.H, 1, s.Band)) {
+			misses++
+			if sure.surely(0.5) {
+				t.Fatalf("final values ±1e9: the sure window holds b = 0.5, whose spike %.17g misses the spec", y1[10])
+			}
+		}
+	}
+	if misses == 0 {
+		t.Errorf("final values ±1e9: no spike missed the spec; the case tests nothing")
 	}
 }
