@@ -1338,7 +1338,14 @@ func (w *weightWindow) addBoth(v *weightWindow, k int, y0, y1 float64) {
 	}
 	w.narrow(k, y0, d)
 	v.narrow(k, y0, d)
-	v.mag = math.Max(v.mag, math.Max(math.Abs(y0), math.Abs(d)))
+	// Both are finite here: plain comparisons (math.Max also orders NaN
+	// and ±0, at a cost in this loop).
+	if a := math.Abs(y0); a > v.mag {
+		v.mag = a
+	}
+	if a := math.Abs(d); a > v.mag {
+		v.mag = a
+	}
 }
 
 // narrow applies the inequalities of sample k, y0 and d = y1 − y0 finite.
