@@ -63,11 +63,10 @@ import (
 // times as dense as the search's (refineWeights), since the weight that
 // settles in time can be a narrow window that moves with the gain, and
 // the line of the quieter design the tie-break takes is scanned above
-// the best too (quietestAbove). Under
-// a noise bound of the file the search keeps the better of its own design
-// and the design the default bound would give, where that meets the bound
-// (freeDesign), so that loosening the bound never lowers the design's
-// gain below the default's.
+// the best too (quietestAbove). Under a noise bound of the file the
+// search keeps the better of its own design and the design the default
+// bound would give, where that meets the bound (freeDesign), so that
+// loosening the bound never lowers the design's gain below the default's.
 
 // NoiseFactor sets the default noise bound of the forms without an
 // integral (p, pd, lead): at most NoiseFactor times the least noise gain
@@ -143,9 +142,23 @@ func weights(p airframe.Axis) []float64 {
 	if !p.Ctrl.Form.HasIntegral() {
 		return []float64{1}
 	}
-	bs := make([]float64, 41)
+	return evenWeights(coarseWeights)
+}
+
+// coarseWeights is how many setpoint weights the search chooses from (1
+// down to 0 by 0.025), and fineWeights how many its last refinement does
+// (by 0.005; see refineWeights). Every coarse weight is a fine one, bit
+// for bit (j/40 and 5j/200 round alike).
+const (
+	coarseWeights = 41
+	fineWeights   = 201
+)
+
+// evenWeights returns n setpoint weights from 1 down to 0 in even steps.
+func evenWeights(n int) []float64 {
+	bs := make([]float64, n)
 	for i := range bs {
-		bs[i] = 1 - float64(i)/40
+		bs[i] = 1 - float64(i)/float64(n-1)
 	}
 	return bs
 }
@@ -1235,18 +1248,17 @@ func (sr *searcher) holdWeight(c Controller) float64 {
 }
 
 // weightWindow is a necessary condition on the setpoint weight b for a
-// response within a violation bound β of the time spec (newWeightWindow;
-// newSureWindow makes a sufficient one for the spec itself): the interval
-// [lo, hi] (within the admitted [bmin, bmax]) of weights whose response,
-// at every sample seen so far, is at most (1 + os')·F with os' = os·(1+β),
-// and inside the settling band at every sample after Ts' = Ts·(1+β).
+// response that meets the time spec (newWeightWindow; newSureWindow makes
+// a sufficient one): the interval [lo, hi] (within the admitted [bmin,
+// bmax]) of weights whose response, at every sample seen so far, is at
+// most (1 + os)·F, and inside the settling band at every sample after Ts.
 //
-// A response with timeViolation ≤ β has overshoot ≤ os' and settling time
-// ≤ Ts'; its last sample outside the band is then at or before Ts' (the
-// interpolated exit is after that sample), so every weight with violation
-// ≤ β is in the window, and only those need a step summary. Each sample
-// gives linear inequalities in b: with d = y1 − y0 and F(b) = F0 + b·dF > 0,
-// the peak bound y ≤ (1 + os')·F reads b·(d − (1 + os')·dF) ≤ (1 + os')·F0
+// A response that meets the spec has overshoot ≤ os and settling time
+// ≤ Ts; its last sample outside the band is then at or before Ts (the
+// interpolated exit is after that sample), so every passing weight is in
+// the window, and only those need a step summary. Each sample gives
+// linear inequalities in b: with d = y1 − y0 and F(b) = F0 + b·dF > 0,
+// the peak bound y ≤ (1 + os)·F reads b·(d − (1 + os)·dF) ≤ (1 + os)·F0
 // − y0, and the band |y − F| ≤ band·F reads b·(d − (1 + band)·dF) ≤
 // (1 + band)·F0 − y0 and −b·(d − (1 − band)·dF) ≤ y0 − (1 − band)·F0. Their
 // intersection is an interval, kept in one pass.
@@ -1270,16 +1282,25 @@ type weightWindow struct {
 	mag, room float64
 }
 
-func newWeightWindow(e *Evaluation, s airframe.Spec, bmin, bmax, beta float64) weightWindow {
-	w := weightWindow{lo: bmin, hi: bmax, f0: e.Final0, df: e.Final1 - e.Final0,
-		osHi: 1 + float64(s.Overshoot*(1+beta)), bandHi: 1 + s.Band, bandLo: 1 - s.Band, k0: e.N}
-	fmin, fmax := w.f0+float64(bmin*w.df), w.f0+float64(bmax*w.df)
-	w.ok = fmin > 0 && fmax > 0 && !math.IsInf(fmin, 0) && !math.IsInf(fmax, 0)
-	if t := s.SettlingTime * (1 + beta) / e.H; t < float64(e.N) {
+func newWeightWindow(e *Evaluation, s airframe.Spec, bmin, bmax float64) weightWindow {
+	w, _, _ := window(e, bmin, bmax, s.Overshoot, s.Band)
+	if t := s.SettlingTime / e.H; t < float64(e.N) {
 		w.k0 = int(math.Floor(t)) + 1
 	}
-	w.seal()
 	return w
+}
+
+// window returns the window of weights in [bmin, bmax] under the
+// overshoot os and the band, with no sample seen and every sample held
+// to the band (k0 = N; the caller sets k0), and the final values at bmin
+// and bmax; ok says whether both are positive and finite.
+func window(e *Evaluation, bmin, bmax, os, band float64) (w weightWindow, fmin, fmax float64) {
+	w = weightWindow{lo: bmin, hi: bmax, f0: e.Final0, df: e.Final1 - e.Final0,
+		osHi: 1 + os, bandHi: 1 + band, bandLo: 1 - band, k0: e.N}
+	fmin, fmax = w.f0+float64(bmin*w.df), w.f0+float64(bmax*w.df)
+	w.ok = fmin > 0 && fmax > 0 && !math.IsInf(fmin, 0) && !math.IsInf(fmax, 0)
+	w.seal()
+	return w, fmin, fmax
 }
 
 // newSureWindow returns the window of the weights that surely meet the
@@ -1296,12 +1317,8 @@ func newWeightWindow(e *Evaluation, s airframe.Spec, bmin, bmax, beta float64) w
 // band is below 1e-6 gets no sure window.
 func newSureWindow(e *Evaluation, s airframe.Spec, bmin, bmax float64) weightWindow {
 	const tight = 1 - 1e-6
-	sb := float64(s.Band * tight)
-	w := weightWindow{lo: bmin, hi: bmax, f0: e.Final0, df: e.Final1 - e.Final0,
-		osHi: 1 + float64(s.Overshoot*tight), bandHi: 1 + sb, bandLo: 1 - sb, k0: e.N}
-	fmin, fmax := w.f0+float64(bmin*w.df), w.f0+float64(bmax*w.df)
-	w.ok = fmin > 0 && fmax > 0 && !math.IsInf(fmin, 0) && !math.IsInf(fmax, 0) &&
-		s.Overshoot >= 1e-6 && s.Band >= 1e-6
+	w, fmin, fmax := window(e, bmin, bmax, float64(s.Overshoot*tight), float64(s.Band*tight))
+	w.ok = w.ok && s.Overshoot >= 1e-6 && s.Band >= 1e-6
 	// The constant products of the inequalities round by a unit in the
 	// last place of F0 and dF too.
 	w.mag = math.Max(math.Max(math.Abs(fmin), math.Abs(fmax)), math.Max(math.Abs(w.f0), math.Abs(w.df)))
@@ -1316,7 +1333,6 @@ func newSureWindow(e *Evaluation, s airframe.Spec, bmin, bmax float64) weightWin
 	if float64(float64(w.k0)*e.H) > 0.9*float64(float64(e.N-1)*e.H) {
 		w.ok = false
 	}
-	w.seal()
 	return w
 }
 
@@ -1357,8 +1373,7 @@ func (w *weightWindow) narrow(k int, y0, d float64) {
 	}
 }
 
-// seal computes the window's constant products, each rounded on its own
-// as the inequalities of add were written.
+// seal computes the window's constant products, each rounded on its own.
 func (w *weightWindow) seal() {
 	w.osDF, w.osF0 = float64(w.osHi*w.df), float64(w.osHi*w.f0)
 	w.hiDF, w.hiF0 = float64(w.bandHi*w.df), float64(w.bandHi*w.f0)
@@ -1390,16 +1405,6 @@ func (w *weightWindow) admits(b float64) bool {
 	return b >= w.lo-windowSlack && b <= w.hi+windowSlack
 }
 
-// admitsAny reports whether one of the weights ws is in the window.
-func (w *weightWindow) admitsAny(ws []float64) bool {
-	for _, b := range ws {
-		if w.admits(b) {
-			return true
-		}
-	}
-	return false
-}
-
 // fastTimeChecks is timeChecks once a passing design is known, when a
 // failing candidate's violation no longer matters: only the weights
 // still passing at every plant so far are followed, each plant's
@@ -1426,7 +1431,7 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 		r := sr.run(i, e)
 		y0, y1 := r.y0, r.y1
 		bmin, bmax := sr.bs[alive[len(alive)-1]], sr.bs[alive[0]]
-		w := newWeightWindow(&e, s, bmin, bmax, 0)
+		w := newWeightWindow(&e, s, bmin, bmax)
 		sure := newSureWindow(&e, s, bmin, bmax)
 		admits := func() bool {
 			for _, j := range alive {
@@ -1980,10 +1985,6 @@ func (sr *searcher) refine(c cand, step []float64, judge judgeFunc) (cand, error
 	return sr.polish(better, step, judge)
 }
 
-// fineWeights is how many setpoint weights the last refinement chooses
-// from (1 down to 0 by 0.005; see refineWeights).
-const fineWeights = 201
-
 // maxWeightRounds bounds the refinements of refineWeights and of
 // quietestAbove.
 const maxWeightRounds = 3
@@ -2007,11 +2008,7 @@ func (sr *searcher) refineWeights(c cand, step []float64, judge judgeFunc) (cand
 	if len(sr.bs) < 2 || c.pt == nil {
 		return c, nil // the file's weight, or b = 1 for forms without an integral
 	}
-	bs := make([]float64, fineWeights)
-	for i := range bs {
-		bs[i] = 1 - float64(i)/float64(fineWeights-1)
-	}
-	sr.bs = bs
+	sr.bs = evenWeights(fineWeights)
 	// The judgments so far chose among the coarse weights.
 	clear(sr.seen)
 	f, err := judge(c.pt, c.x, false, nil)

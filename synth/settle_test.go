@@ -170,7 +170,7 @@ func TestSureWindow(t *testing.T) {
 			bmin, bmax = 0.3*rng.Float64(), 0.7+0.3*rng.Float64()
 		}
 		e := Evaluation{N: n, H: h, Final0: f0, Final1: f1}
-		w := newWeightWindow(&e, s, bmin, bmax, 0)
+		w := newWeightWindow(&e, s, bmin, bmax)
 		sure := newSureWindow(&e, s, bmin, bmax)
 		for k := range n {
 			if w.ok {
@@ -212,7 +212,7 @@ func TestSureWindow(t *testing.T) {
 	}
 	y[10] = 1 + float64(s.Overshoot*(1-1e-6))
 	e := Evaluation{N: n, H: 0.001, Final0: 1, Final1: 1}
-	w, sure := newWeightWindow(&e, s, 0, 1, 0), newSureWindow(&e, s, 0, 1)
+	w, sure := newWeightWindow(&e, s, 0, 1), newSureWindow(&e, s, 0, 1)
 	for k := range n {
 		w.addBoth(&sure, k, y[k], y[k])
 	}
@@ -239,7 +239,7 @@ func TestSureWindow(t *testing.T) {
 		// A spike at the overshoot limit, from 5e-8 below it to 1.5e-7
 		// above: the ulp of 1e9 is 1.2e-7, the window's margin 2e-8.
 		y1[10] = 2*(1+s.Overshoot) + float64(4e-7*(rng.Float64()-0.25))
-		w, sure = newWeightWindow(&e, s, 0.5, 0.5, 0), newSureWindow(&e, s, 0.5, 0.5)
+		w, sure = newWeightWindow(&e, s, 0.5, 0.5), newSureWindow(&e, s, 0.5, 0.5)
 		for k := range n {
 			w.addBoth(&sure, k, y0[k], y1[k])
 		}
