@@ -217,6 +217,17 @@ func TestCrossArchDeterminism(t *testing.T) {
 		inputs = append(inputs, fixedCopy(t, work, c.path, c.nt))
 		t.Logf("also %s in %s", filepath.Base(c.path), c.nt)
 	}
+	// And a pid whose design rides its noise bound (synth's ride, where
+	// the search rescales a shape by a ratio of noise gains): the
+	// rescaled shapes must round alike on both architectures.
+	b, err := os.ReadFile(filepath.Join("testdata", "cross", "ride_pid_roll.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(filepath.Join(work, "ride_pid_roll.toml"), b, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	inputs = append(inputs, "ride_pid_roll.toml")
 	sort.Strings(inputs)
 
 	ctx, cancel := context.WithCancel(context.Background())

@@ -154,6 +154,20 @@ func denseNoise(l Loops, c Controller) float64 {
 	return v
 }
 
+// demoSearcher returns the searcher of demoProblem's form and delay over
+// a plant gain envelope of [0.8, 1.25], and its loops.
+func demoSearcher(t *testing.T, form airframe.Form, delay float64) (*searcher, Loops) {
+	t.Helper()
+	p := demoProblem(form, delay)
+	p.Envelope = airframe.Envelope{GainScale: [2]float64{0.8, 1.25}, LagScale: [2]float64{1, 1}}
+	l := ContinuousLoops(p)
+	tg, err := TargetFromSpec(p.Spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return newSearcher(p, l, 1/lti.Abs(p.OpenLoop(complex(0, tg.OmegaN))), tg.OmegaN), l
+}
+
 // TestNoiseFromCrossover: the search's noise gain (noiseAt, |C| from the
 // lowest gain crossover up, C interpolated at the crossover between its
 // grid points) against the brute-force denseNoise, on the PI and PID
@@ -165,14 +179,7 @@ func TestNoiseFromCrossover(t *testing.T) {
 	lines, high, worst := 0, 0, 0.0
 	for _, form := range []airframe.Form{airframe.FormPI, airframe.FormPID} {
 		for _, delay := range []float64{0, 0.002} {
-			p := demoProblem(form, delay)
-			p.Envelope = airframe.Envelope{GainScale: [2]float64{0.8, 1.25}, LagScale: [2]float64{1, 1}}
-			l := ContinuousLoops(p)
-			tg, err := TargetFromSpec(p.Spec)
-			if err != nil {
-				t.Fatal(err)
-			}
-			sr := newSearcher(p, l, 1/lti.Abs(p.OpenLoop(complex(0, tg.OmegaN))), tg.OmegaN)
+			sr, l := demoSearcher(t, form, delay)
 			for _, u := range sr.gridPoints() {
 				pt := sr.screen(u)
 				if !(pt.xf > 0) {

@@ -1,0 +1,60 @@
+package synth
+
+import (
+	"slices"
+	"testing"
+
+	"locusmith/airframe"
+)
+
+// TestRideHugsTheBound: ride, from the PID shapes of the coarse grid
+// that a noise bound closes or stops short of a gain x, returns a shape
+// of the same derivative share and a lower n that admits x, whose noise
+// gain at x meets the bound by the brute-force sweep denseNoise (within
+// its 0.5 % agreement with noiseAt, TestNoiseFromCrossover), and that
+// lies against the bound: 0.002 decade more n no longer admits x. The
+// bound is 0.9 of the median noise gain of the grid's shapes at their
+// top, which puts its edge about 0.05 decade of n below a row of the
+// grid; x is half the top of the shape a grid step lower in n.
+func TestRideHugsTheBound(t *testing.T) {
+	sr, l := demoSearcher(t, airframe.FormPID, 0.002)
+	var noises []float64
+	for _, u := range sr.gridPoints() {
+		if pt := sr.screen(u); pt.xf > 0 {
+			noises = append(noises, pt.noise)
+		}
+	}
+	slices.Sort(noises)
+	sr.noiseB = 0.9 * noises[len(noises)/2]
+	if !sr.rides() {
+		t.Fatal("a pid under a noise bound does not ride")
+	}
+	rode, tight := 0, 0
+	for _, u := range sr.gridPoints() {
+		below := sr.screen([]float64{u[0] - sr.gridStep()[0], u[1]})
+		if !(below.xf > 0) {
+			continue
+		}
+		x := below.xf / 2
+		pt := sr.ride(u, x)
+		if pt == nil {
+			continue
+		}
+		rode++
+		if pt.xf < x || pt.u[1] != u[1] || !(pt.u[0] < u[0]) || pt.u[0] < u[0]-rideSpan {
+			t.Errorf("shape %v, x %g: rode to %v with top %g", u, x, pt.u, pt.xf)
+			continue
+		}
+		if n := denseNoise(l, sr.fam.ctrl(pt.th, x)); n > sr.noiseB*1.005 {
+			t.Errorf("shape %v, x %g: rode to %v, noise gain %g (dense sweep) above the bound %g", u, x, pt.u, n, sr.noiseB)
+		}
+		up := []float64{pt.u[0] + 0.002, pt.u[1]}
+		if q := sr.screen(up); q.xf < x {
+			tight++
+		}
+	}
+	if rode < 5 || tight < rode*9/10 {
+		t.Errorf("%d shapes rode, %d of them against the bound: the check has no teeth", rode, tight)
+	}
+	t.Logf("%d shapes rode, %d within 0.002 decade of the bound; bound %g", rode, tight, sr.noiseB)
+}
