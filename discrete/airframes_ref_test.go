@@ -800,7 +800,7 @@ output_limit = [-1.0, 1.0]
 		// default noise bound hug that bound, with n within 0.01 decade of
 		// it over a decade of derivative share, an edge the local grids'
 		// steps could not follow: 85.2 % of the reference until they rode
-		// the bound (synth's ride), 101.7 % since.
+		// the bound (synth's ride), 101.9 % since.
 		{"lift_filtered_pid", `
 airframe = "lift_filtered_pid"
 description = "demo data: invented lifting platform pitch with a mode at 199 rad/s behind a lowpass and an automatic notch under a PID at a 400 Hz loop; not a real vehicle"

@@ -434,7 +434,7 @@ func TestReference(t *testing.T) {
 // of its grid, was at 52.4 % and is at 155 % since the last refinement
 // chooses among setpoint weights by 0.005; lift_filtered_pid, a pid
 // behind two filters whose best designs hug the default noise bound, was
-// at 85.2 % and is at 101.7 % since the local grids ride that bound.)
+// at 85.2 % and is at 101.9 % since the local grids ride that bound.)
 func knownShort() map[string]float64 {
 	return map[string]float64{}
 }

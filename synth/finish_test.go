@@ -61,31 +61,36 @@ func TestRideHugsTheBound(t *testing.T) {
 
 // TestUndominated: the design is replaced by a passing design of the
 // search that beats it in gain and noise both (noise gains within a
-// millionth tie), never by one above the noise bound, a failing one or
-// one of less gain, and not at all for a form without an integral.
+// millionth of it tie), never by one above the noise bound, a failing
+// one or one of less gain, and not at all for a form without an
+// integral.
 func TestUndominated(t *testing.T) {
 	pt := &point{}
 	c := func(gain, noise float64, ok bool) cand { return cand{pt: pt, gain: gain, noise: noise, ok: ok} }
 	best := c(1, 1, true)
+	atBound := c(1, 2, true)
 	for _, tc := range []struct {
 		name    string
 		form    airframe.Form
+		start   cand
 		passing []cand
 		want    cand
 	}{
-		{"none better", airframe.FormPID, []cand{c(0.99, 0.9, true), c(1.2, 1.01, true)}, best},
-		{"quieter at the same gain", airframe.FormPI, []cand{c(1, 0.95, true)}, c(1, 0.95, true)},
-		{"more gain at a tie", airframe.FormPID, []cand{c(1.02, 1+5e-7, true)}, c(1.02, 1+5e-7, true)},
-		{"more gain, a hair more noise", airframe.FormPID, []cand{c(1.02, 1+2e-6, true)}, best},
-		{"both, the last that beats the one before", airframe.FormPID,
+		{"none better", airframe.FormPID, best, []cand{c(0.99, 0.9, true), c(1.2, 1.01, true)}, best},
+		{"quieter at the same gain", airframe.FormPI, best, []cand{c(1, 0.95, true)}, c(1, 0.95, true)},
+		{"more gain at a tie", airframe.FormPID, best, []cand{c(1.02, 1+5e-7, true)}, c(1.02, 1+5e-7, true)},
+		{"more gain, a hair more noise", airframe.FormPID, best, []cand{c(1.02, 1+2e-6, true)}, best},
+		{"both, the last that beats the one before", airframe.FormPID, best,
 			[]cand{c(1.01, 0.99, true), c(1.005, 0.98, true), c(1.03, 0.98, true)}, c(1.03, 0.98, true)},
-		{"above the bound", airframe.FormPID, []cand{c(1.1, 2.5, true)}, best},
-		{"failing", airframe.FormPID, []cand{c(1.1, 0.5, false)}, best},
-		{"no integral", airframe.FormPD, []cand{c(1.1, 0.5, true)}, best},
+		{"a tie above the bound", airframe.FormPID, atBound, []cand{c(1.1, 2+5e-7, true)}, atBound},
+		{"a chain of ties drifting above the start", airframe.FormPID, best,
+			[]cand{c(1.01, 1+9e-7, true), c(1.02, 1+1.8e-6, true)}, c(1.01, 1+9e-7, true)},
+		{"failing", airframe.FormPID, best, []cand{c(1.1, 0.5, false)}, best},
+		{"no integral", airframe.FormPD, best, []cand{c(1.1, 0.5, true)}, best},
 	} {
 		sr := &searcher{noiseB: 2, passing: tc.passing}
 		sr.p.Ctrl.Form = tc.form
-		if got := sr.undominated(best); got.gain != tc.want.gain || got.noise != tc.want.noise {
+		if got := sr.undominated(tc.start); got.gain != tc.want.gain || got.noise != tc.want.noise {
 			t.Errorf("%s: gain %g noise %g, want gain %g noise %g", tc.name, got.gain, got.noise, tc.want.gain, tc.want.noise)
 		}
 	}
