@@ -152,10 +152,12 @@ func kneeCase(t *testing.T, af refAirframe) (refCase, *discrete.Design) {
 // bound's own design meets (the default bound itself, as a file that pins
 // the reported default has it, or one just above that design's noise
 // gain) must design: that design is a witness, so an infeasible verdict
-// would be false (a fact of optimization: the feasible set is not
-// empty). Two airframes of random campaigns of our own where the search
-// under such a bound found no design at all, before it took the default
-// search's own designs under the file's bound (synth's freeDesign).
+// would be false, and the largest Ki under the bound is at least the
+// default design's (a fact of optimization: the feasible set holds that
+// design). Two airframes of random campaigns of our own (camp90_37_roll
+// and camp71_58's roll, renamed) where the search under such a bound
+// found no design at all, before it took the default search's own
+// designs under the file's bound (synth's freeDesign).
 func TestTighterNoiseBoundFindsTheDefault(t *testing.T) {
 	if testing.Short() {
 		t.Skip("designs each airframe three times, twice under a bound of the file; skipped with -short")
@@ -250,6 +252,12 @@ output_limit = [-0.5, 0.5]
 					t.Errorf("max_noise_gain %.10g (the default bound %.10g; its design's noise gain %.10g, Ki %.6g): no design, %v",
 						b, nb, noise, d.Cont.Ctrl.Ki, dq.Cont.Search.Fails)
 					continue
+				}
+				// The default's design meets the bound, so the largest Ki
+				// under it is at least the default's; the design may give
+				// up NearBest of it to the tie-break toward less noise.
+				if want := d.Cont.Ctrl.Ki * (1 - synth.NearBest) * (1 - 1e-9); dq.Cont.Ctrl.Ki < want {
+					t.Errorf("max_noise_gain %.10g: Ki %.6g, below the default's %.6g by more than the tie-break", b, dq.Cont.Ctrl.Ki, d.Cont.Ctrl.Ki)
 				}
 				t.Logf("max_noise_gain %.10g: Ki %.6g (the default's %.6g)", b, dq.Cont.Ctrl.Ki, d.Cont.Ctrl.Ki)
 			}
