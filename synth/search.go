@@ -29,22 +29,26 @@ import (
 //
 // How the search cannot miss a small feasible set: the controller is
 // linear in its gains, C = A + x·B, where x is the gain that the objective
-// grows with (Ki, Kp, or K) and A, B depend on the others, the shape θ
-// (Kp and Kd for a pid, Kp for a pi, Kd for a pd, the pole for a lead).
-// For a fixed shape, the Ms bound |1 + (A + x·B)·P| ≥ 1/Ms at each
-// frequency of the grid and each plant is a quadratic inequality in x,
-// solved in closed form; the largest x reachable from x = 0 without
-// crossing the bound is exact on the grid, and where Ms binds it is
-// refined between grid points (msExact), so that the search judges the
-// Ms the final verification finds; since the Nyquist curve
-// cannot reach −1 without entering the Ms circle, every x below it keeps
-// the stability of x = 0. The margins and the noise gain then lower x by
-// bisection, and the time checks by steps. So one evaluation answers, for
-// a whole line of controllers, how far it can go; the search needs a grid
-// over the shape only (two dimensions at most): a coarse structured grid
-// over several decades around the plant's own gain scale (for a pd or a
-// lead, with the shape at the NoiseRatio limit itself, family.edge), then
-// a pattern search (halving steps down to NearStep) from the best point.
+// grows with (Ki, Kp, or K) and A, B depend on the others, the shape θ (Kp
+// and Kd for a pid, Kp for a pi, Kd for a pd, the pole for a lead). For a
+// fixed shape, the Ms bound |1 + (A + x·B)·P| ≥ 1/Ms at each frequency of
+// the grid and each plant is a quadratic inequality in x, solved in closed
+// form; the largest x reachable from x = 0 without crossing the bound is
+// exact on the grid, and where Ms binds it is refined between grid points
+// (msExact), so that the search judges the Ms the final verification
+// finds; since the Nyquist curve cannot reach −1 without entering the Ms
+// circle, every x below it keeps the stability of x = 0. (An open gap: a
+// shape whose Ms bound x = 0 itself violates is shut, though larger x can
+// meet it, the admissible x then an interval that does not start at 0; on
+// a random airframe of our own a pid meets Ms ≤ 2 at Ki 5.4 on a shape
+// whose Ki → 0 does not, and the search calls the spec infeasible.) The
+// margins and the noise gain then lower x by bisection, and the time
+// checks by steps. So one evaluation answers, for a whole line of
+// controllers, how far it can go; the search needs a grid over the shape
+// only (two dimensions at most): a coarse structured grid over several
+// decades around the plant's own gain scale (for a pd or a lead, with the
+// shape at the NoiseRatio limit itself, family.edge), then a pattern
+// search (halving steps down to NearStep) from the best point.
 //
 // When no shape of the grid passes, the feasible set, if any, is small:
 // descents down the violation from the closest shapes, then local grids
