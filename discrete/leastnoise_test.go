@@ -76,11 +76,10 @@ func TestLeastNoiseAgainstBruteForce(t *testing.T) {
 			least := d.Cont.Search.NoiseBound / synth.NoiseFactor
 			tf := p.Ctrl.Tf()
 			kp0 := d.Cont.Ctrl.Kp
-			rhos := []float64{0}
+			var rhos []float64
 			if pd {
 				edge := (synth.NoiseRatio - 1) * (1 - 1e-9)
 				rho0 := d.Cont.Ctrl.Kd / (tf * kp0)
-				rhos = rhos[:0]
 				for j := -8; j <= 8; j++ {
 					if r := rho0 * math.Pow(1.05, float64(j)); r <= edge {
 						rhos = append(rhos, r)
@@ -89,6 +88,8 @@ func TestLeastNoiseAgainstBruteForce(t *testing.T) {
 				for j := 0; j <= 10; j++ {
 					rhos = append(rhos, edge/math.Pow(1.05, float64(j)))
 				}
+			} else {
+				rhos = []float64{0}
 			}
 			bf, at := math.Inf(1), synth.Controller{}
 			assessed := 0

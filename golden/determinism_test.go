@@ -199,35 +199,30 @@ func TestCrossArchDeterminism(t *testing.T) {
 	if err := os.MkdirAll(filepath.Join(work, "examples"), 0o755); err != nil {
 		t.Fatal(err)
 	}
-	// inputs are the examples as written and the copies crossCopies
-	// picks in the other arithmetics.
+	// inputs are the examples as written, the copies crossCopies picks
+	// in the other arithmetics, and a pid whose design rides its noise
+	// bound (synth's ride, where the search rescales a shape by a ratio
+	// of noise gains): the rescaled shapes must round alike on both
+	// architectures.
 	var inputs []string
-	for _, p := range examplePaths(t) {
-		b, err := os.ReadFile(p)
+	copyIn := func(src, rel string) {
+		b, err := os.ReadFile(src)
 		if err != nil {
 			t.Fatal(err)
 		}
-		rel := filepath.Join("examples", filepath.Base(p))
 		if err := os.WriteFile(filepath.Join(work, rel), b, 0o644); err != nil {
 			t.Fatal(err)
 		}
 		inputs = append(inputs, rel)
 	}
+	for _, p := range examplePaths(t) {
+		copyIn(p, filepath.Join("examples", filepath.Base(p)))
+	}
 	for _, c := range crossCopies(t, examplePaths(t)) {
 		inputs = append(inputs, fixedCopy(t, work, c.path, c.nt))
 		t.Logf("also %s in %s", filepath.Base(c.path), c.nt)
 	}
-	// And a pid whose design rides its noise bound (synth's ride, where
-	// the search rescales a shape by a ratio of noise gains): the
-	// rescaled shapes must round alike on both architectures.
-	b, err := os.ReadFile(filepath.Join("testdata", "cross", "ride_pid_roll.toml"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	if err := os.WriteFile(filepath.Join(work, "ride_pid_roll.toml"), b, 0o644); err != nil {
-		t.Fatal(err)
-	}
-	inputs = append(inputs, "ride_pid_roll.toml")
+	copyIn(filepath.Join("testdata", "cross", "ride_pid_roll.toml"), "ride_pid_roll.toml")
 	sort.Strings(inputs)
 
 	ctx, cancel := context.WithCancel(context.Background())

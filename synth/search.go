@@ -72,10 +72,12 @@ import (
 // its best designs hug the bound along an edge that the grids' fixed
 // steps cannot follow. The design is last replaced by a design the
 // search judged on its way that beats it in gain and noise both, if any
-// (undominated). Under a noise bound of the file the
-// search keeps the better of its own design and the design the default
-// bound would give, where that meets the bound (freeDesign), so that
-// loosening the bound never lowers the design's gain below the default's.
+// (undominated). Under a noise bound of the file the search keeps the
+// better of its own design and the design the default bound would give,
+// or the best the default search passed under the file's bound
+// (freeDesign), so that loosening the bound never lowers the design's
+// gain below the default's and a bound the default's design meets is
+// never called infeasible.
 
 // NoiseFactor sets the default noise bound of the forms without an
 // integral (p, pd, lead): at most NoiseFactor times the least noise gain
@@ -362,7 +364,6 @@ type searcher struct {
 type scoreBuf struct {
 	bs, worst, slow, ws, fs []float64
 	osOK, unsettled         []bool
-	sure                    []bool // fastTimeChecks: passes by the sure window
 	idx                     []int
 	sts                     []lti.StepInfo
 }
@@ -372,7 +373,6 @@ func (b *scoreBuf) grow(n int) {
 	if cap(b.worst) < n {
 		b.worst, b.slow, b.ws, b.fs = make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
 		b.osOK, b.unsettled, b.idx, b.sts = make([]bool, n), make([]bool, n), make([]int, n), make([]lti.StepInfo, n)
-		b.sure = make([]bool, n)
 	}
 }
 
@@ -1274,12 +1274,12 @@ func (sr *searcher) holdWeight(c Controller) float64 {
 // (1 + band)·F0 − y0 and −b·(d − (1 − band)·dF) ≤ y0 − (1 − band)·F0. Their
 // intersection is an interval, kept in one pass.
 type weightWindow struct {
-	lo, hi               float64
-	k0                   int // first sample held to the band
-	f0, df               float64
-	osHi, bandHi, bandLo float64
+	lo, hi float64
+	k0     int // first sample held to the band
+	f0, df float64
 	// The products of the inequalities that do not change from sample to
-	// sample (see seal): osHi·dF, osHi·F0 and so on.
+	// sample, each rounded on its own (see window): (1 + os)·dF,
+	// (1 + os)·F0 and so on.
 	osDF, osF0, hiDF, hiF0, loDF, loF0 float64
 	// ok is false where the test does not apply: a final value not
 	// positive over the admitted weights, a non-finite sample, or (for
@@ -1306,11 +1306,13 @@ func newWeightWindow(e *Evaluation, s airframe.Spec, bmin, bmax float64) weightW
 // to the band (k0 = N; the caller sets k0), and the final values at bmin
 // and bmax; ok says whether both are positive and finite.
 func window(e *Evaluation, bmin, bmax, os, band float64) (w weightWindow, fmin, fmax float64) {
-	w = weightWindow{lo: bmin, hi: bmax, f0: e.Final0, df: e.Final1 - e.Final0,
-		osHi: 1 + os, bandHi: 1 + band, bandLo: 1 - band, k0: e.N}
+	w = weightWindow{lo: bmin, hi: bmax, f0: e.Final0, df: e.Final1 - e.Final0, k0: e.N}
 	fmin, fmax = w.f0+float64(bmin*w.df), w.f0+float64(bmax*w.df)
 	w.ok = fmin > 0 && fmax > 0 && !math.IsInf(fmin, 0) && !math.IsInf(fmax, 0)
-	w.seal()
+	osHi, bandHi, bandLo := 1+os, 1+band, 1-band
+	w.osDF, w.osF0 = float64(osHi*w.df), float64(osHi*w.f0)
+	w.hiDF, w.hiF0 = float64(bandHi*w.df), float64(bandHi*w.f0)
+	w.loDF, w.loF0 = float64(bandLo*w.df), float64(bandLo*w.f0)
 	return w, fmin, fmax
 }
 
@@ -1382,13 +1384,6 @@ func (w *weightWindow) narrow(k int, y0, d float64) {
 		w.bound(d-w.hiDF, w.hiF0-y0)
 		w.bound(-(d - w.loDF), y0-w.loF0)
 	}
-}
-
-// seal computes the window's constant products, each rounded on its own.
-func (w *weightWindow) seal() {
-	w.osDF, w.osF0 = float64(w.osHi*w.df), float64(w.osHi*w.f0)
-	w.hiDF, w.hiF0 = float64(w.bandHi*w.df), float64(w.bandHi*w.f0)
-	w.loDF, w.loF0 = float64(w.bandLo*w.df), float64(w.bandLo*w.f0)
 }
 
 // bound applies a·b ≤ c, dividing only when the bound tightens.
@@ -1475,7 +1470,7 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 		// window holds pass; the others are summarized together.
 		sc := &sr.score
 		sc.grow(len(alive))
-		held, ws, fs, sured := alive[:0], sc.ws[:0], sc.fs[:0], sc.sure[:0]
+		held, ws, fs := alive[:0], sc.ws[:0], sc.fs[:0]
 		for _, j := range alive {
 			bj := sr.bs[j]
 			if w.ok && !w.admits(bj) {
@@ -1485,8 +1480,8 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 			if !(f > 0) || math.IsInf(f, 0) {
 				continue
 			}
-			held, sured = append(held, j), append(sured, w.ok && sure.surely(bj))
-			if !sured[len(sured)-1] {
+			held = append(held, j)
+			if !sure.surely(bj) {
 				ws, fs = append(ws, bj), append(fs, f)
 			}
 		}
@@ -1494,8 +1489,8 @@ func (sr *searcher) fastTimeChecks(c Controller, bh float64) (b float64, ok bool
 		weightedSettles(y0, y1, ws, fs, e.H, s.Band, sts)
 		next := held[:0]
 		m := 0
-		for i, j := range held {
-			if sured[i] {
+		for _, j := range held {
+			if sure.surely(sr.bs[j]) {
 				next = append(next, j)
 				continue
 			}
@@ -1974,11 +1969,11 @@ func (sr *searcher) finish(c cand, step []float64, judge judgeFunc) (cand, error
 // quietest shape is a neighbour the refinement did not scan, and its line
 // can pass again above the best, past a failing band. Where it does, the
 // design found there is refined, and the quietest taken again (at most
-// maxWeightRounds times). On the compliant joint of the reference the
+// maxRounds times). On the compliant joint of the reference the
 // quietest shape passed at Ki 0.533–0.543 (b 0.92), above the best's
 // 0.519 and 6 % above the design's 0.509.
 func (sr *searcher) quietestAbove(best cand, step []float64, judge judgeFunc) (cand, error) {
-	for range maxWeightRounds {
+	for range maxRounds {
 		q, err := sr.quietest(best, step, judge)
 		if err != nil || q.pt == nil {
 			return q, err
@@ -2012,9 +2007,9 @@ func (sr *searcher) refine(c cand, step []float64, judge judgeFunc) (cand, error
 	return sr.polish(better, step, judge)
 }
 
-// maxWeightRounds bounds the refinements of refineWeights, of
-// quietestAbove and of rideFrom.
-const maxWeightRounds = 3
+// maxRounds bounds the refinements of quietestAbove and of
+// whileRaising (refineWeights, rideFrom).
+const maxRounds = 3
 
 // refineWeights refines the passing design c again with the setpoint
 // weights five times as dense as the search's (steps of 0.005 instead of
@@ -2044,17 +2039,21 @@ func (sr *searcher) refineWeights(c cand, step []float64, judge judgeFunc) (cand
 	}
 	// Refined again while that raises the gain: the ridge can lead on
 	// past where one refinement ends.
-	for range maxWeightRounds {
-		r, err := sr.refine(f, step, judge)
-		if err != nil {
-			return f, err
+	return whileRaising(f, func(c cand) (cand, error) { return sr.refine(c, step, judge) })
+}
+
+// whileRaising applies step to c again while that raises the gain, at
+// most maxRounds times, and returns the last design that raised it
+// (c where none did, or where step fails).
+func whileRaising(c cand, step func(cand) (cand, error)) (cand, error) {
+	for range maxRounds {
+		next, err := step(c)
+		if err != nil || !(next.gain > c.gain) {
+			return c, err
 		}
-		if !(r.gain > f.gain) {
-			break
-		}
-		f = r
+		c = next
 	}
-	return f, nil
+	return c, nil
 }
 
 // kneeDesign returns the design of the default noise bound from the knee
@@ -2138,7 +2137,7 @@ func (sr *searcher) freeDesign(g0, w0 float64, tick func()) (cand, bool, error) 
 	found := false
 	var under cand
 	for _, c := range free.passing {
-		if c.ok && c.pt != nil && c.noise <= sr.noiseB && (!found || c.gain > under.gain) {
+		if c.noise <= sr.noiseB && (!found || c.gain > under.gain) {
 			under, found = c, true
 		}
 	}
@@ -2832,18 +2831,11 @@ const (
 )
 
 // rideFrom polishes c with the local grids riding the noise bound, again
-// while that raises the gain (at most maxWeightRounds times).
+// while that raises the gain (at most maxRounds times).
 func (sr *searcher) rideFrom(c cand, step []float64, judge judgeFunc) (cand, error) {
 	sr.riding = true
 	defer func() { sr.riding = false }()
-	for range maxWeightRounds {
-		next, err := sr.polish(c, step, judge)
-		if err != nil || !(next.gain > c.gain) {
-			return c, err
-		}
-		c = next
-	}
-	return c, nil
+	return whileRaising(c, func(c cand) (cand, error) { return sr.polish(c, step, judge) })
 }
 
 // rides reports whether ride applies: a pid under a noise bound.
@@ -2853,7 +2845,7 @@ func (sr *searcher) rides() bool {
 
 // rideUp is the last stage of a pid's search under a noise bound: the
 // polish again from the design c, its local grids riding the bound (see
-// ride), while that raises the gain (at most maxWeightRounds times).
+// ride), while that raises the gain (at most maxRounds times).
 // The tie-break toward less noise is applied to what that finds (quiet
 // is the tie-break's design from c): quiet stays where it is within
 // NearBest of the best gain found and has less noise. Only this stage

@@ -201,9 +201,10 @@ func TestSureWindow(t *testing.T) {
 	}
 	t.Logf("%d passing weights held by the window, %d passing ones left to the summary", held, left)
 
-	// An overshoot limit so small that rounding 1 + os·(1 − 1e-6) uses up
-	// the margin: a response with one sample at the window's own top,
-	// whose overshoot is computed above the limit.
+	// An overshoot limit below 1e-6, where rounding 1 + os·(1 − 1e-6)
+	// would use up the margin: newSureWindow holds no weight then, and a
+	// response with one sample at the window's own top, whose overshoot
+	// is computed above the limit, is left to the summary.
 	const n = 400
 	s := airframe.Spec{SettlingTime: 0.1, Overshoot: 1.00002e-10, Band: 0.02}
 	y := make([]float64, n)
