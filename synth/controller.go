@@ -244,6 +244,12 @@ func (c Controller) Snap() Controller {
 	return c
 }
 
+// snapUp is snap rounded up: a ten-digit value not below x (x > 0
+// finite). x·(1 + 1e-9) rounds to ten digits within 5e-10 of itself.
+func snapUp(x float64) float64 {
+	return snap(float64(x * (1 + 1e-9)))
+}
+
 func snap(x float64) float64 {
 	if x == 0 || math.IsNaN(x) || math.IsInf(x, 0) {
 		return x

@@ -86,11 +86,12 @@ func TestMsExactAgainstDenseSweep(t *testing.T) {
 		for _, u := range sr.gridPoints() {
 			th := sr.theta(u)
 			sr.basis(th)
-			xg, ok := sr.msBound()
-			if !ok || math.IsInf(xg, 1) || !(xg > 0) {
+			lo, xg, ok := sr.msBound()
+			if !ok || lo > 0 || math.IsInf(xg, 1) || !(xg > 0) {
+				// Lines that start above 0: TestMsInterval.
 				continue
 			}
-			x := sr.msExact(xg)
+			x := sr.msExact(0, xg)
 			lines++
 			if x == 0 {
 				// Shut between grid points: x = 0 itself exceeds Ms (less the
@@ -210,4 +211,114 @@ func TestNoiseFromCrossover(t *testing.T) {
 		t.Errorf("%d lines, %d where the grid point below the crossover is more than 1 %% high: the check has no teeth", lines, high)
 	}
 	t.Logf("%d lines, largest difference %.2g; the grid point below the crossover is more than 1 %% high on %d", lines, worst, high)
+}
+
+// TestMsInterval: a line whose start x = 0 exceeds Ms but whose gain
+// brings Ms down (the integral's phase turns the Nyquist curve away from
+// −1 near its closest approach) has its admissible interval [lo, hi]
+// above 0; msBound, loExact and msExact against a brute-force bisection
+// of denseMs along the line. The plant is an integrating one with a slow
+// motor and a long delay (a random campaign airframe of our own, made
+// continuous), the shapes pids around one whose Ms falls from 1.5899 at
+// Ki = 0 to 1.5861 at Ki = 8; each shape's Ms bound lies 40 % of the way
+// down from its peak at Ki = 0 to its peak at Ki = 4. The start lies
+// where the peak meets Ms·(1 − msInside) (to 1e-4 in x: the peak falls by
+// only about 5e-4 a unit of Ki), the peak at the start and at the end lies
+// within [Ms·(1 − 2e-6), Ms], every x below the start exceeds Ms and
+// every x between the ends meets it. Some lines' grids do not see the
+// start above 0 and are left out; 10 of the 25 must be judged.
+func TestMsInterval(t *testing.T) {
+	p := demoProblem(airframe.FormPID, 0.0035)
+	tau := 0.07918
+	p.Plant.Model = lti.ZPK{Gain: 590.7 / tau, Poles: []complex128{0, complex(-1/tau, 0)}}
+	p.Sensor = lti.ZPK{Gain: 2 * math.Pi * 356.1, Poles: []complex128{complex(-2*math.Pi*356.1, 0)}}
+	p.Envelope = airframe.Envelope{GainScale: [2]float64{1, 1}, LagScale: [2]float64{1, 1}}
+	l := ContinuousLoops(p)
+	sr := newSearcher(p, l, 0.365, 51.4)
+	peak := func(th []float64, x float64) float64 { return denseMs(l, sr.fam.ctrl(th, x)) }
+	lines, gridLow := 0, 0
+	for _, n := range []float64{7.0, 7.3, 7.61, 7.9, 8.2} {
+		for _, rho := range []float64{15, 17, 19, 21, 23} {
+			th := []float64{n, rho}
+			m0, m4 := peak(th, 0), peak(th, 4)
+			if !(m4 < m0) {
+				continue
+			}
+			ms := m0 - 0.4*(m0-m4)
+			sr.p.Spec.MaxSensitivity = ms
+			inside := ms * (1 - msInside)
+			sr.basis(th)
+			lo, hi, ok := sr.msBound()
+			if !ok || !(lo > 0) || math.IsInf(hi, 1) {
+				// The grid does not see the start above 0 (the peak at
+				// x = 0 lies between its points): msExact shuts the line
+				// (TestMsExactAgainstDenseSweep).
+				continue
+			}
+			xl := snapUp(sr.loExact(lo))
+			xh := sr.msExact(xl, hi)
+			if !(xh > xl) {
+				t.Errorf("shape %v, Ms %.10g: interval [%g, %g] empty", th, ms, xl, xh)
+				continue
+			}
+			lines++
+			if peak(th, lo) > ms*(1+1e-6) {
+				gridLow++
+			}
+			// The brute-force start: bisection of peak − Ms·(1 − msInside)
+			// between 0 (above) and the end (below).
+			a, b := 0.0, xh
+			for it := 0; it < 80; it++ {
+				if m := 0.5 * (a + b); peak(th, m) > inside {
+					a = m
+				} else {
+					b = m
+				}
+			}
+			if math.Abs(xl/b-1) > 1e-4 {
+				t.Errorf("shape %v, Ms %.10g: start %.10g, brute force %.10g", th, ms, xl, b)
+			}
+			for _, x := range []float64{xl, xh} {
+				if got := peak(th, x); got > ms || got < ms*(1-2e-6) {
+					t.Errorf("shape %v: Ms at %.10g (of [%.10g, %.10g]) is %.10g, want within [%.10g, %.10g]", th, x, xl, xh, got, ms*(1-2e-6), ms)
+				}
+			}
+			for i := 1; i < 20; i++ {
+				if x := xl * float64(i) / 20; !(peak(th, x) > inside) {
+					t.Errorf("shape %v: Ms at %.10g below the start %.10g is %.10g, within the bound", th, x, xl, peak(th, x))
+				}
+				if x := xl + (xh-xl)*float64(i)/20; peak(th, x) > ms {
+					t.Errorf("shape %v: Ms at %.10g inside [%.10g, %.10g] is %.10g", th, x, xl, xh, peak(th, x))
+				}
+			}
+		}
+	}
+	if lines < 10 || gridLow == 0 {
+		t.Errorf("%d lines start above 0, the grid's start alone exceeds Ms on %d: the check has no teeth", lines, gridLow)
+	}
+	t.Logf("%d lines start above 0; the grid's start alone exceeds Ms by more than 1e-6 on %d", lines, gridLow)
+}
+
+// TestChainEnd: the least x ≥ 0 in no gap, by hand.
+func TestChainEnd(t *testing.T) {
+	inf := math.Inf(1)
+	for _, c := range []struct {
+		gaps []gap
+		want float64
+	}{
+		{nil, 0},
+		{[]gap{{1, 2}, {inf, inf}}, 0},
+		{[]gap{{-1, 0}}, 0},
+		{[]gap{{-1, 2}}, 2},
+		{[]gap{{0, 2}}, 2},
+		{[]gap{{3, 5}, {-1, 2}, {2, 4}}, 5},
+		{[]gap{{3, 5}, {-1, 2}, {2.5, 4}}, 2},
+		{[]gap{{-1, 2}, {1, 3}, {3, 6}, {7, 8}}, 6},
+		{[]gap{{math.Inf(-1), inf}}, inf},
+	} {
+		var scratch []gap
+		if got := chainEnd(c.gaps, &scratch); got != c.want {
+			t.Errorf("chainEnd(%v) = %g, want %g", c.gaps, got, c.want)
+		}
+	}
 }

@@ -33,15 +33,15 @@ import (
 // and Kd for a pid, Kp for a pi, Kd for a pd, the pole for a lead). For a
 // fixed shape, the Ms bound |1 + (A + x·B)·P| ≥ 1/Ms at each frequency of
 // the grid and each plant is a quadratic inequality in x, solved in closed
-// form; the largest x reachable from x = 0 without crossing the bound is
-// exact on the grid, and where Ms binds it is refined between grid points
-// (msExact), so that the search judges the Ms the final verification
-// finds; since the Nyquist curve cannot reach −1 without entering the Ms
-// circle, every x below it keeps the stability of x = 0. (An open gap: a
-// shape whose Ms bound x = 0 itself violates is shut, though larger x can
-// meet it, the admissible x then an interval that does not start at 0; on
-// a random airframe of our own a pid meets Ms ≤ 2 at Ki 5.4 on a shape
-// whose Ki → 0 does not, and the search calls the spec infeasible.) The
+// form; the first interval of x ≥ 0 that keeps the bound is exact on the
+// grid, and its ends are refined between grid points (loExact, msExact),
+// so that the search judges the Ms the final verification finds. It
+// mostly starts at x = 0; where x = 0 itself exceeds Ms (on a random
+// airframe of our own a pid meets Ms ≤ 2 from Ki ≈ 1, not below), it
+// starts higher, and gains below its start fail Ms without a judgment.
+// Since the Nyquist curve cannot reach −1 without entering the Ms circle,
+// every x of the interval has the stability of any one of them: that of
+// x = 0, or, for an interval above 0, of one gain tested exactly. The
 // margins and the noise gain then lower x by bisection, and the time
 // checks by steps. So one evaluation answers, for a whole line of
 // controllers, how far it can go; the search needs a grid over the shape
@@ -260,15 +260,15 @@ func newFamily(p airframe.Axis, g0, w0 float64) family {
 // frequency checks allow (xf, 0 when none), the noise gain there, and the
 // violation of the frequency checks at a small x when none.
 type point struct {
-	u     []float64 // log10 of θ/ref
-	th    []float64
-	xf    float64
+	u  []float64 // log10 of θ/ref
+	th []float64
+	xf float64
+	// xlo is where the line's admissible interval starts (0 but where Ms
+	// fails at x = 0): gains below it fail Ms.
+	xlo   float64
 	noise float64 // at xf
-	// noise0 is the noise gain as x → 0, a floor of the noise gain on the
-	// shape.
-	noise0 float64
-	fviol  float64 // when xf = 0: how far the frequency checks miss
-	why    string  // when xf = 0: the check that stops it
+	fviol float64 // when xf = 0: how far the frequency checks miss
+	why   string  // when xf = 0: the check that stops it
 	// stuckTop says that the shape failed without settling at xf, judged
 	// before any passing design (maximize's first pass): the first of the
 	// stuckRun its line may take.
@@ -305,6 +305,8 @@ type searcher struct {
 	// bk holds msBound's bound at each grid frequency of each plant of
 	// the last shape it bounded (plant by plant), which msExact refines.
 	bk          []float64
+	gaps        []gap // msBound's gap at each grid frequency, as bk
+	sorted      []gap // msBound's scratch
 	cache       map[string]*point
 	closest     cand
 	haveClosest bool
@@ -478,25 +480,68 @@ func sameBits(u, v []float64) bool {
 	return true
 }
 
-// msBound returns the largest x ≥ 0 such that every x' in [0, x) keeps
-// |1 + (A + x'·B)·P| ≥ 1/Ms at every grid frequency and plant (+Inf when
-// nothing bounds it), and false when x = 0 itself violates the bound.
-func (sr *searcher) msBound() (float64, bool) {
+// msBound returns the first interval [lo, hi] of x ≥ 0 on which every x
+// keeps |1 + (A + x·B)·P| ≥ 1/Ms at every grid frequency and plant (hi
+// +Inf when nothing bounds it from above), and false when there is none.
+//
+// At one frequency the bound fails on an open interval of x (lineGap).
+// Mostly none holds x = 0 and lo = 0; the first interval then ends at the
+// least gap above 0. On some shapes x = 0 itself exceeds Ms (a PD whose
+// Nyquist curve passes near −1, pushed away by the integral's phase), and
+// the admissible set starts above 0: lo is the end of the chain of gaps
+// that overlap from 0 up.
+func (sr *searcher) msBound() (lo, hi float64, ok bool) {
 	r2 := sr.msR2()
-	xmax := math.Inf(1)
-	sr.bk = sr.bk[:0]
+	hi = math.Inf(1)
+	sr.bk, sr.gaps = sr.bk[:0], sr.gaps[:0]
+	holds0 := false
 	for i := range sr.open {
 		P := sr.open[i]
 		for k := range P {
-			x, ok := lineBound(1+lti.Mul(sr.a[k], P[k]), lti.Mul(sr.b[k], P[k]), r2)
-			if !ok {
-				return 0, false
-			}
-			xmax = math.Min(xmax, x)
-			sr.bk = append(sr.bk, x)
+			g := lineGap(1+lti.Mul(sr.a[k], P[k]), lti.Mul(sr.b[k], P[k]), r2)
+			sr.gaps = append(sr.gaps, g)
+			holds0 = holds0 || g.holds(0)
 		}
 	}
-	return snap(xmax), true
+	if holds0 {
+		if lo = chainEnd(sr.gaps, &sr.sorted); math.IsInf(lo, 1) {
+			return 0, 0, false
+		}
+	}
+	for _, g := range sr.gaps {
+		v := math.Inf(1)
+		if g[0] > lo {
+			v = g[0]
+		}
+		sr.bk = append(sr.bk, v)
+		hi = math.Min(hi, v)
+	}
+	return lo, snap(hi), true
+}
+
+// gap is an open interval of x, (gap[0], gap[1]); empty as (+Inf, +Inf).
+type gap [2]float64
+
+// holds reports whether x lies in the gap.
+func (g gap) holds(x float64) bool { return g[0] <= x && x < g[1] }
+
+// chainEnd returns the least x ≥ 0 in no gap: starting from 0, the end of
+// each gap that holds the current x, taken in order of their starts. The
+// gaps are copied into *scratch and sorted there.
+func chainEnd(gaps []gap, scratch *[]gap) float64 {
+	s := append((*scratch)[:0], gaps...)
+	*scratch = s
+	slices.SortFunc(s, func(a, b gap) int { return cmp.Compare(a[0], b[0]) })
+	x := 0.0
+	for _, g := range s {
+		if g[0] > x {
+			break
+		}
+		if g[1] > x {
+			x = g[1]
+		}
+	}
+	return x
 }
 
 // msR2 is 1/Ms² of the bound in force.
@@ -510,23 +555,28 @@ func (sr *searcher) msR2() float64 {
 	return 1 / (ms * ms)
 }
 
-// lineBound returns the largest x such that every x' in [0, x) keeps
-// |a + x'·c|² ≥ r2 (+Inf when nothing bounds it), and false when x = 0
-// itself violates it.
+// lineGap returns the open interval of x where |a + x·c|² < r2: empty
+// (+Inf, +Inf) when there is none or a figure is not a number (on an
+// undamped pole, say), (−Inf, +Inf) when x has no effect and the bound
+// fails.
 //
 // The condition reads α·x² + 2β·x + γ ≥ 0 with α = |c|², β = Re(ā·c),
 // γ = |a|² − r²: it fails between the roots when β² > α·γ.
-func lineBound(a, c complex128, r2 float64) (float64, bool) {
+func lineGap(a, c complex128, r2 float64) gap {
+	none := gap{math.Inf(1), math.Inf(1)}
 	al := float64(real(c)*real(c)) + float64(imag(c)*imag(c))
 	be := float64(real(a)*real(c)) + float64(imag(a)*imag(c))
 	ga := float64(real(a)*real(a)) + float64(imag(a)*imag(a)) - r2
 	if !(al > 1e-300) {
 		// x has no effect here: fine or forbidden for every x.
-		return math.Inf(1), !(ga < 0)
+		if ga < 0 {
+			return gap{math.Inf(-1), math.Inf(1)}
+		}
+		return none
 	}
 	disc := float64(be*be) - float64(al*ga)
-	if disc <= 0 {
-		return math.Inf(1), true
+	if !(disc > 0) {
+		return none
 	}
 	sq := math.Sqrt(disc)
 	// Roots (−β ∓ √disc)/α, computed without cancellation.
@@ -535,13 +585,10 @@ func lineBound(a, c complex128, r2 float64) (float64, bool) {
 	if x1 > x2 {
 		x1, x2 = x2, x1
 	}
-	switch {
-	case x2 <= 0:
-		return math.Inf(1), true
-	case x1 <= 0:
-		return 0, false
+	if math.IsNaN(x1) || math.IsNaN(x2) {
+		return none
 	}
-	return x1, true
+	return gap{x1, x2}
 }
 
 // msNear is how far above the line's Ms bound on the grid (relative) a
@@ -558,9 +605,10 @@ const msNear = 0.1
 // verdict would hang on their rounding.
 const msInside = 1e-6
 
-// msExact returns the line's Ms bound between grid points too, from xg,
-// the bound on the grid (msBound, finite and positive, just run on the
-// shape of the basis in force): at each plant,
+// msExact returns the end of the line's admissible interval between grid
+// points too, from lo and xg, the interval on the grid (msBound, xg finite
+// and positive, just run on the shape of the basis in force; lo refined by
+// loExact): at each plant,
 // each grid frequency whose own bound is least among its neighbours and
 // within msNear of xg is refined by minimizing the bound over the two
 // grid intervals around it (Brent's method in log ω). A design at the
@@ -569,7 +617,7 @@ const msInside = 1e-6
 // lower a design it judged on the wrong bound, out of a small feasible
 // set (winch_slow_pid among the reference airframes of package
 // discrete).
-func (sr *searcher) msExact(xg float64) float64 {
+func (sr *searcher) msExact(lo, xg float64) float64 {
 	r2 := sr.msR2() / ((1 - msInside) * (1 - msInside))
 	ca, c1 := sr.L.CtrlAt(sr.fam.ctrl(sr.th, 0)), sr.L.CtrlAt(sr.fam.ctrl(sr.th, 1))
 	x := xg
@@ -577,26 +625,63 @@ func (sr *searcher) msExact(xg float64) float64 {
 	for i := range sr.open {
 		bk := sr.bk[i*n : (i+1)*n]
 		at := func(w float64) float64 {
-			A := ca(w)
-			B := c1(w) - A
-			Pw := sr.L.OpenAt(i, w)
-			v, ok := lineBound(1+lti.Mul(A, Pw), lti.Mul(B, Pw), r2)
+			g := sr.gapAt(ca, c1, i, w, r2)
 			switch {
-			case !ok:
-				return 0
-			case math.IsNaN(v):
-				// No figure here (on an undamped pole, say): as the
-				// grid's bound, no bound.
-				return math.Inf(1)
+			case g[0] > lo:
+				return g[0]
+			case g.holds(lo):
+				return lo
 			}
-			return v
+			return math.Inf(1)
 		}
 		for k, v := range bk {
 			if !(v <= float64(xg*(1+msNear))) || (k > 0 && bk[k-1] < v) || (k+1 < n && bk[k+1] < v) {
 				continue
 			}
-			lo, hi := sr.grid[max(k-1, 0)], sr.grid[min(k+1, n-1)]
-			x = math.Min(x, brentMin(at, lti.Log(lo), lti.Log(hi), lti.Log(sr.grid[k])))
+			a, b := sr.grid[max(k-1, 0)], sr.grid[min(k+1, n-1)]
+			x = math.Min(x, brentMin(at, lti.Log(a), lti.Log(b), lti.Log(sr.grid[k])))
+		}
+	}
+	return x
+}
+
+// gapAt is lineGap at frequency w and plant i off the grid, for the
+// controllers' responses ca (x = 0) and c1 (x = 1).
+func (sr *searcher) gapAt(ca, c1 func(float64) complex128, i int, w, r2 float64) gap {
+	A := ca(w)
+	B := c1(w) - A
+	Pw := sr.L.OpenAt(i, w)
+	return lineGap(1+lti.Mul(A, Pw), lti.Mul(B, Pw), r2)
+}
+
+// loExact returns the start of the line's admissible interval between
+// grid points too, from lo, the start on the grid (msBound, positive, just
+// run on the shape of the basis in force): at each plant, each grid
+// frequency whose gap ends within msNear below lo (or above it) at a local
+// greatest end is refined by maximizing the gap's end over the two grid
+// intervals around it, as msExact does for the interval's end, with the
+// bound msInside inside Ms. Gaps that start above lo are left to msExact.
+func (sr *searcher) loExact(lo float64) float64 {
+	r2 := sr.msR2() / ((1 - msInside) * (1 - msInside))
+	ca, c1 := sr.L.CtrlAt(sr.fam.ctrl(sr.th, 0)), sr.L.CtrlAt(sr.fam.ctrl(sr.th, 1))
+	x := lo
+	n := len(sr.grid)
+	end := func(g gap) float64 {
+		if g[0] <= lo && g[1] > 0 {
+			return g[1]
+		}
+		return 0
+	}
+	for i := range sr.open {
+		gs := sr.gaps[i*n : (i+1)*n]
+		at := func(w float64) float64 { return -end(sr.gapAt(ca, c1, i, w, r2)) }
+		for k, g := range gs {
+			v := end(g)
+			if !(v >= float64(lo*(1-msNear))) || (k > 0 && end(gs[k-1]) > v) || (k+1 < n && end(gs[k+1]) > v) {
+				continue
+			}
+			a, b := sr.grid[max(k-1, 0)], sr.grid[min(k+1, n-1)]
+			x = math.Max(x, -brentMin(at, lti.Log(a), lti.Log(b), lti.Log(sr.grid[k])))
 		}
 	}
 	return x
@@ -911,17 +996,35 @@ func (sr *searcher) screen(u []float64) *point {
 	pt := &point{u: slices.Clone(u), th: sr.theta(u)}
 	sr.cache[k] = pt
 	sr.basis(pt.th)
-	xms, ok := sr.msBound()
+	lo, xms, ok := sr.msBound()
+	if ok && lo > 0 {
+		// Ms fails at x = 0: the line starts at lo, refined between grid
+		// points and rounded up.
+		lo = snapUp(sr.loExact(lo))
+		ok = lo < xms
+	}
 	if !ok {
 		pt.why, pt.fviol = "max_sensitivity", 1
 		return pt
 	}
+	if lo > 0 {
+		// No plant's Nyquist curve crosses the Ms circle, and so −1, on
+		// [lo, xms]: one gain in it tells the stability of all. An
+		// interval past one where Ms fails is often that of a loop
+		// unstable throughout (its curve circles −1 at a distance).
+		st, err := sr.stableAt(pt.th, math.Min(float64(lo*(1+1e-3)), float64(0.5*(lo+xms))))
+		if err != nil || !st {
+			pt.why, pt.fviol = "stable", 1
+			return pt
+		}
+	}
+	pt.xlo = lo
 	cap := 1e4 * sr.fam.xRef
 	x := math.Min(xms, cap)
 	if !sr.freqPass(x) {
 		// The margins and the noise gain are assumed to improve as x falls
 		// (less integral or proportional action): bisect on [small, x].
-		small := math.Min(x*1e-4, sr.fam.xRef*1e-4)
+		small := math.Max(math.Min(x*1e-4, sr.fam.xRef*1e-4), lo)
 		okS, vS, whyS := sr.freqOK(small)
 		if !okS {
 			pt.why, pt.fviol = whyS, vS
@@ -942,7 +1045,7 @@ func (sr *searcher) screen(u []float64) *point {
 		// Ms may bind (the margins' bisection can stop just below the
 		// grid's bound, above the exact one): its bound between grid
 		// points, where x = 0 itself can exceed Ms.
-		if x = math.Min(x, sr.msExact(xms)); !(x > 0) {
+		if x = math.Min(x, sr.msExact(pt.xlo, xms)); !(x > pt.xlo) {
 			pt.why, pt.fviol = "max_sensitivity", 1
 			return pt
 		}
@@ -952,8 +1055,19 @@ func (sr *searcher) screen(u []float64) *point {
 	pt.xf = snap(x)
 	x = pt.xf
 	pt.noise = sr.noiseAt(x)
-	pt.noise0 = sr.noiseAt(x * 1e-6)
 	return pt
+}
+
+// stableAt reports whether the loop with shape th at gain x is stable at
+// every plant of the frequency checks, by the exact test.
+func (sr *searcher) stableAt(th []float64, x float64) (bool, error) {
+	c := sr.fam.ctrl(th, x)
+	for i := range sr.open {
+		if ok, err := sr.L.Stable(c, i); err != nil || !ok {
+			return false, err
+		}
+	}
+	return true, nil
 }
 
 // shrinkSteps are the fractions of the frequency checks' largest gain that
@@ -1074,6 +1188,14 @@ func (sr *searcher) judgeAt(pt *point, x float64) (cand, error) {
 	c.ctrl = sr.fam.ctrl(pt.th, x)
 	c.gain = sr.fam.gain(pt.th, x)
 	c.noise = sr.noiseAt(x)
+	if x < pt.xlo {
+		// Below the line's admissible interval: Ms fails (msBound), and
+		// at every lower gain too.
+		c.viol, c.fails = 1+(pt.xlo-x)/pt.xlo, []string{"max_sensitivity"}
+		sr.stuck = true
+		sr.note(c)
+		return c, nil
+	}
 	// The time checks first: most candidates fail them, and an unstable
 	// loop cannot pass them (its response leaves the band), so the exact
 	// stability test is needed only for a candidate that passes, where it
@@ -1658,6 +1780,29 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 	if !c.Form.HasIntegral() && s.MaxSteadyError > 0 && steady > s.MaxSteadyError {
 		viol += steady/s.MaxSteadyError - 1
 		fails = append(fails, "steady_error")
+	}
+	if s.DisturbanceRecovery > 0 {
+		// A miss of the step is scored on the load step too, at the same
+		// plants: without it, a gain too low to recover from a load
+		// in time looked as close as one that does (a random pid of our
+		// own: Ki 0.06, recovering never, scored 0.001 like Ki 2, which
+		// recovers; the search for a small feasible set went down to the
+		// former).
+		for _, i := range plants {
+			r, err := sr.L.Disturb(c, i, 4*math.Max(s.DisturbanceRecovery, s.SettlingTime))
+			if err != nil {
+				return b, viol, fails, settle, err
+			}
+			if d := Disturbance(r, 1); !(d.Recovery <= s.DisturbanceRecovery) {
+				v := 1.0
+				if !math.IsInf(d.Recovery, 1) {
+					v = d.Recovery/s.DisturbanceRecovery - 1
+				}
+				viol += v
+				fails = append(fails, "disturbance_recovery")
+				break
+			}
+		}
 	}
 	return b, viol, fails, settle, nil
 }

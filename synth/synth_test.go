@@ -27,8 +27,8 @@ func demoProblem(form airframe.Form, delay float64) airframe.Axis {
 }
 
 // Percent overshoot against damping ratio: the standard second-order table
-// (Nise, airframe.Control Systems Engineering, the %OS–ζ relation; Ogata, Modern
-// airframe.Control Engineering; values from memory, to the three decimals printed
+// (Nise, Control Systems Engineering, the %OS–ζ relation; Ogata, Modern
+// Control Engineering; values from memory, to the three decimals printed
 // there).
 func TestZetaFromOvershootTable(t *testing.T) {
 	for _, c := range []struct{ mp, zeta float64 }{
