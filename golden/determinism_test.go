@@ -202,8 +202,9 @@ func TestCrossArchDeterminism(t *testing.T) {
 	// inputs are the examples as written, the copies crossCopies picks
 	// in the other arithmetics, and a pid whose design rides its noise
 	// bound (synth's ride, where the search rescales a shape by a ratio
-	// of noise gains): the rescaled shapes must round alike on both
-	// architectures.
+	// of noise gains) and one whose lines start above Ki = 0 (synth's
+	// loExact, a Brent search for the start): the rescaled shapes and the
+	// starts must round alike on both architectures.
 	var inputs []string
 	copyIn := func(src, rel string) {
 		b, err := os.ReadFile(src)
@@ -222,7 +223,9 @@ func TestCrossArchDeterminism(t *testing.T) {
 		inputs = append(inputs, fixedCopy(t, work, c.path, c.nt))
 		t.Logf("also %s in %s", filepath.Base(c.path), c.nt)
 	}
-	copyIn(filepath.Join("testdata", "cross", "ride_pid_roll.toml"), "ride_pid_roll.toml")
+	for _, name := range []string{"ride_pid_roll.toml", "msstart_pid_roll.toml"} {
+		copyIn(filepath.Join("testdata", "cross", name), name)
+	}
 	sort.Strings(inputs)
 
 	ctx, cancel := context.WithCancel(context.Background())
