@@ -77,7 +77,11 @@ import (
 // or the best the default search passed under the file's bound
 // (freeDesign), so that loosening the bound never lowers the design's
 // gain below the default's and a bound the default's design meets is
-// never called infeasible.
+// never called infeasible. The last stages (finish) end at different
+// designs from different starts: they run from the knee's design and
+// from the largest gain under the knee's bound searched over the whole
+// grid (widen), or, under a bound of the file, from the search's own
+// design and the default's, and the better is kept.
 
 // NoiseFactor sets the default noise bound of the forms without an
 // integral (p, pd, lead): at most NoiseFactor times the least noise gain
@@ -1974,7 +1978,7 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 	// that bound (it passes there too), which makes a small feasible set
 	// no harder to find than under the default.
 	explicit := p.Spec.MaxNoiseGain > 0
-	var first cand
+	var first, alt cand
 	found, refined := false, false
 	var err error
 	if p.Ctrl.Form.HasIntegral() {
@@ -2000,6 +2004,9 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		sr.ratioB = 0
 	case found && p.Ctrl.Form.HasIntegral():
 		if best, err = sr.kneeDesign(first, step, judge); err != nil {
+			return res, err
+		}
+		if alt, err = sr.widen(best, grid, step, judge); err != nil {
 			return res, err
 		}
 		res.NoiseBound = sr.noiseB
@@ -2037,9 +2044,12 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 			if fd, err = sr.refine(fd, step, judge); err != nil {
 				return res, err
 			}
-			if !ok || fd.gain > best.gain {
-				best, ok = fd, true
-			}
+		}
+		switch {
+		case fdOK && (!ok || fd.gain > best.gain):
+			alt, best, ok = best, fd, true
+		case fdOK:
+			alt = fd
 		}
 		refined = true
 	}
@@ -2078,6 +2088,18 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 	}
 	if best, err = sr.finish(best, step, judge); err != nil {
 		return res, err
+	}
+	if alt.ok {
+		// The last stages end at different designs from different
+		// starts: from the knee's design and from the largest gain
+		// under its bound, the better.
+		a, err := sr.finish(alt, step, judge)
+		if err != nil {
+			return res, err
+		}
+		if a.gain > best.gain {
+			best = a
+		}
 	}
 	res.Evaluations = evals
 	res.Ctrl, res.Met = best.ctrl.Snap(), true
@@ -2229,6 +2251,20 @@ func (sr *searcher) kneeDesign(k cand, step []float64, judge judgeFunc) (cand, e
 		best = c
 	}
 	return best, err
+}
+
+// widen returns the design of the largest gain under the bound the knee
+// set, searched over the whole grid from the knee's design best
+// (maximize) and refined, where it beats best (ok false where not).
+func (sr *searcher) widen(best cand, grid [][]float64, step []float64, judge judgeFunc) (cand, error) {
+	w, ok, err := sr.maximize(grid, step, judge, sr.loadGain(), &best)
+	if err != nil || !ok || !(w.gain > best.gain) {
+		return cand{}, err
+	}
+	if w, err = sr.refine(w, step, judge); err != nil || !(w.gain > best.gain) {
+		return cand{}, err
+	}
+	return w, nil
 }
 
 // freeDesign returns the design the default noise bound would give

@@ -106,11 +106,12 @@ func TestComparePairs(t *testing.T) {
 		clean               bool
 	}{{
 		// A retune that gets nothing worse: the gyro lowpass raised from
-		// 60 to 100 Hz costs less phase at the crossover, so the same
-		// checks hold with a lower noise gain (5.1 % lower, just past the
-		// 5 % that makes an improvement) and a larger Ki (0.3464 → 0.3597).
-		name: "gyro_lowpass_raised", old: edit(t, base, "lowpass_hz = 100.0", "lowpass_hz = 60.0"), new: base,
-		before: true, now: true, clean: true, improved: []string{"checks.noise_gain"},
+		// 50 to 100 Hz costs less phase at the crossover, so the same
+		// checks hold with a larger Ki (0.3361 → 0.3671) and a lower
+		// noise gain (0.3428 → 0.326): the load step's integrated error
+		// falls by 7.1 %, past the 5 % that makes an improvement.
+		name: "gyro_lowpass_raised", old: edit(t, base, "lowpass_hz = 100.0", "lowpass_hz = 50.0"), new: base,
+		before: true, now: true, clean: true, improved: []string{"discrete.disturbance.iae"},
 	}, {
 		// A retune that regresses a margin: with the settling limit
 		// relaxed from 0.15 to 0.2 s the design spends the slack on a

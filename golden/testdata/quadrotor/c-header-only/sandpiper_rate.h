@@ -8,24 +8,24 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
-// Tf = 0.001273 s, b = 0.09.
+// Axis pitch: pid, Kp = 0.0329, Ki = 0.4405, Kd = 0.0004563,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
-// Tf = 0.001273 s, b = 0.09.
+// Axis roll: pid, Kp = 0.02742, Ki = 0.3671, Kd = 0.0003802,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -75,21 +75,21 @@
 // Content stamp: the first 64 bits of a SHA-256 of this header. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0xf6f032933aa7b37f
+#define SANDPIPER_RATE_STAMP 0x7269f1eff6bf100a
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               0.03250829f // P gain on the measurement
-#define SANDPIPER_PITCH_KPB              0.0029257461f // P gain on the setpoint (setpoint weight b times Kp)
-#define SANDPIPER_PITCH_G0               0.00021583018f // integral: weight of the current error
-#define SANDPIPER_PITCH_G01              0.00043166036f // integral: state increment per unit error
-#define SANDPIPER_PITCH_KT               0.030943133f // anti-windup back-calculation gain T/Tt
+#define SANDPIPER_PITCH_KP               0.032900497f // P gain on the measurement
+#define SANDPIPER_PITCH_KPB              0.0023030348f // P gain on the setpoint (setpoint weight b times Kp)
+#define SANDPIPER_PITCH_G0               0.0002202547f // integral: weight of the current error
+#define SANDPIPER_PITCH_G01              0.0004405094f // integral: state increment per unit error
+#define SANDPIPER_PITCH_KT               0.031071814f // anti-windup back-calculation gain T/Tt
 #define SANDPIPER_PITCH_INTEGRATOR_LIMIT 0.5f // largest |integrator state|, command units
 #define SANDPIPER_PITCH_AD               0.4360604f // derivative filter: pole
-#define SANDPIPER_PITCH_BD               0.25424138f // derivative filter: gain
+#define SANDPIPER_PITCH_BD               0.25730875f // derivative filter: gain
 #define SANDPIPER_PITCH_OUTPUT_LO        (-0.5f) // lowest command
 #define SANDPIPER_PITCH_OUTPUT_HI        0.5f // highest command
 
@@ -104,14 +104,14 @@ typedef struct {
 } sandpiper_pitch_state;
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               0.027090242f // P gain on the measurement
-#define SANDPIPER_ROLL_KPB              0.0024381217f // P gain on the setpoint (setpoint weight b times Kp)
-#define SANDPIPER_ROLL_G0               0.00017985849f // integral: weight of the current error
-#define SANDPIPER_ROLL_G01              0.00035971697f // integral: state increment per unit error
-#define SANDPIPER_ROLL_KT               0.030943133f // anti-windup back-calculation gain T/Tt
+#define SANDPIPER_ROLL_KP               0.02741708f // P gain on the measurement
+#define SANDPIPER_ROLL_KPB              0.0019191956f // P gain on the setpoint (setpoint weight b times Kp)
+#define SANDPIPER_ROLL_G0               0.00018354559f // integral: weight of the current error
+#define SANDPIPER_ROLL_G01              0.00036709118f // integral: state increment per unit error
+#define SANDPIPER_ROLL_KT               0.031071814f // anti-windup back-calculation gain T/Tt
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT 0.5f // largest |integrator state|, command units
 #define SANDPIPER_ROLL_AD               0.4360604f // derivative filter: pole
-#define SANDPIPER_ROLL_BD               0.21186781f // derivative filter: gain
+#define SANDPIPER_ROLL_BD               0.21442395f // derivative filter: gain
 #define SANDPIPER_ROLL_OUTPUT_LO        (-0.5f) // lowest command
 #define SANDPIPER_ROLL_OUTPUT_HI        0.5f // highest command
 

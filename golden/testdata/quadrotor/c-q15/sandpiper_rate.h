@@ -8,35 +8,35 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q15 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
-// Tf = 0.001273 s, b = 0.09.
+// Axis pitch: pid, Kp = 0.0329, Ki = 0.4405, Kd = 0.0004563,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
 //   scale*2^15); formats KpB, Kp Q3.12, G0, G01, Kt
 //   Ad, Bd Q6.9, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 9, sum 9 fractional bits below the output LSB;
-//   minimum headroom 0.0143 bits (Kt*du (product)); saturating: command
+//   minimum headroom 0.00828 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
-// Tf = 0.001273 s, b = 0.09.
+// Axis roll: pid, Kp = 0.02742, Ki = 0.3671, Kd = 0.0003802,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16_t, accumulators int32_t, raw = value/full
-//   scale*2^15); formats KpB, Kp Q2.13, G0, G01, Kt
+//   scale*2^15); formats KpB, Kp Q2.13, G0, G01, Kt
 //   Ad, Bd Q5.10, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 10, sum 10 fractional bits below the output
-//   LSB; minimum headroom 0.0143 bits (Kt*du (product)); saturating: command
-//   before saturation.
+//   LSB; minimum headroom 0.00828 bits (Kt*du (product)); saturating:
+//   command before saturation.
 //
 // Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
 //   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
@@ -77,20 +77,20 @@
 // sandpiper_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0xe753be11bae49862
+#define SANDPIPER_RATE_STAMP 0xd91a40652208e830
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               ((int16_t)17044) // P gain on the measurement; Q3.12 = 4.161
-#define SANDPIPER_PITCH_KPB              ((int16_t)24543) // P gain on the setpoint; Q-1.16 = 0.3745
-#define SANDPIPER_PITCH_G0               ((int16_t)28968) // integral: weight of the current error; Q-5.20 = 0.02763
-#define SANDPIPER_PITCH_G01              ((int16_t)28968) // integral: state increment per unit error; Q-4.19 = 0.05525
-#define SANDPIPER_PITCH_KT               ((int16_t)32446) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03094
+#define SANDPIPER_PITCH_KP               ((int16_t)17249) // P gain on the measurement; Q3.12 = 4.211
+#define SANDPIPER_PITCH_KPB              ((int16_t)19319) // P gain on the setpoint; Q-1.16 = 0.2948
+#define SANDPIPER_PITCH_G0               ((int16_t)29562) // integral: weight of the current error; Q-5.20 = 0.02819
+#define SANDPIPER_PITCH_G01              ((int16_t)29562) // integral: state increment per unit error; Q-4.19 = 0.05639
+#define SANDPIPER_PITCH_KT               ((int16_t)32581) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03107
 #define SANDPIPER_PITCH_AD               ((int16_t)28578) // derivative filter: pole; Q-1.16 = 0.4361
-#define SANDPIPER_PITCH_BD               ((int16_t)16662) // derivative filter: gain; Q6.9 = 32.54
+#define SANDPIPER_PITCH_BD               ((int16_t)16863) // derivative filter: gain; Q6.9 = 32.94
 #define SANDPIPER_PITCH_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define SANDPIPER_PITCH_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define SANDPIPER_PITCH_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB
@@ -122,13 +122,13 @@ int16_t sandpiper_pitch_step(sandpiper_pitch_state *s, int16_t setpoint, int16_t
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, int16_t applied);
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               ((int16_t)28406) // P gain on the measurement; Q2.13 = 3.468
-#define SANDPIPER_ROLL_KPB              ((int16_t)20452) // P gain on the setpoint; Q-1.16 = 0.3121
-#define SANDPIPER_ROLL_G0               ((int16_t)24140) // integral: weight of the current error; Q-5.20 = 0.02302
-#define SANDPIPER_ROLL_G01              ((int16_t)24140) // integral: state increment per unit error; Q-4.19 = 0.04604
-#define SANDPIPER_ROLL_KT               ((int16_t)32446) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03094
+#define SANDPIPER_ROLL_KP               ((int16_t)28749) // P gain on the measurement; Q2.13 = 3.509
+#define SANDPIPER_ROLL_KPB              ((int16_t)32199) // P gain on the setpoint; Q-2.17 = 0.2457
+#define SANDPIPER_ROLL_G0               ((int16_t)24635) // integral: weight of the current error; Q-5.20 = 0.02349
+#define SANDPIPER_ROLL_G01              ((int16_t)24635) // integral: state increment per unit error; Q-4.19 = 0.04699
+#define SANDPIPER_ROLL_KT               ((int16_t)32581) // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03107
 #define SANDPIPER_ROLL_AD               ((int16_t)28578) // derivative filter: pole; Q-1.16 = 0.4361
-#define SANDPIPER_ROLL_BD               ((int16_t)27770) // derivative filter: gain; Q5.10 = 27.12
+#define SANDPIPER_ROLL_BD               ((int16_t)28105) // derivative filter: gain; Q5.10 = 27.45
 #define SANDPIPER_ROLL_OUTPUT_LO        ((int16_t)-32768) // lowest command, raw; Q0.15 = -1
 #define SANDPIPER_ROLL_OUTPUT_HI        ((int16_t)32767) // highest command, raw; Q0.15 = 1
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT ((int32_t)536870912) // largest |integrator state|, 14 fractional bits below the output LSB

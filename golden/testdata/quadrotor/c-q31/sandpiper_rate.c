@@ -8,7 +8,7 @@
 
 #include "sandpiper_rate.h"
 
-#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0xf4f80ab04fce28a8
+#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0x43aa48b5e1679975
 #error "sandpiper_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 
@@ -137,7 +137,7 @@ void sandpiper_roll_reset(sandpiper_roll_state *s, int32_t output, int32_t measu
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	const int64_t q = (int64_t)output * ((int64_t)1 << 26) - (sandpiper_mul(SANDPIPER_ROLL_KPB, (int64_t)measured, 6) - sandpiper_mul(SANDPIPER_ROLL_KP, (int64_t)measured, 3));
+	const int64_t q = (int64_t)output * ((int64_t)1 << 26) - (sandpiper_mul(SANDPIPER_ROLL_KPB, (int64_t)measured, 7) - sandpiper_mul(SANDPIPER_ROLL_KP, (int64_t)measured, 3));
 	s->integ = sandpiper_clamp(sandpiper_satshl(q, 4), -SANDPIPER_ROLL_INTEGRATOR_LIMIT, SANDPIPER_ROLL_INTEGRATOR_LIMIT);
 	s->ud = 0;
 	s->vp = -(int64_t)measured;
@@ -161,7 +161,7 @@ int32_t sandpiper_roll_step(sandpiper_roll_state *s, int32_t setpoint, int32_t m
 		s->integ = sandpiper_clamp(s->integ, -SANDPIPER_ROLL_INTEGRATOR_LIMIT, SANDPIPER_ROLL_INTEGRATOR_LIMIT);
 	}
 	const int64_t e = r - y;
-	int64_t uu = sandpiper_mul(SANDPIPER_ROLL_KPB, r, 6) - sandpiper_mul(SANDPIPER_ROLL_KP, y, 3);
+	int64_t uu = sandpiper_mul(SANDPIPER_ROLL_KPB, r, 7) - sandpiper_mul(SANDPIPER_ROLL_KP, y, 3);
 	uu = uu + sandpiper_rsh(s->integ, 4);
 	uu = uu + sandpiper_mul(SANDPIPER_ROLL_G0, e, 10);
 	const int64_t v = -y;

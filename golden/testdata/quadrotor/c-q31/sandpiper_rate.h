@@ -8,35 +8,35 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q31 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
-// Tf = 0.001273 s, b = 0.09.
+// Axis pitch: pid, Kp = 0.0329, Ki = 0.4405, Kd = 0.0004563,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
 //   scale*2^31); formats KpB, Kp Q3.28, G0, G01, Kt
 //   Ad, Bd Q6.25, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 25, sum 25 fractional bits below the output
-//   LSB; minimum headroom 0.0142 bits (Kt*du (product)); saturating: command
-//   before saturation.
+//   LSB; minimum headroom 0.00825 bits (Kt*du (product)); saturating:
+//   command before saturation.
 //
-// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
-// Tf = 0.001273 s, b = 0.09.
+// Axis roll: pid, Kp = 0.02742, Ki = 0.3671, Kd = 0.0003802,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32_t, accumulators int64_t, raw = value/full
-//   scale*2^31); formats KpB, Kp Q2.29, G0, G01, Kt
+//   scale*2^31); formats KpB, Kp Q2.29, G0, G01, Kt
 //   Ad, Bd Q5.26, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 26, sum 26 fractional bits below the output
-//   LSB; minimum headroom 0.0142 bits (Kt*du (product)); saturating: command
-//   before saturation.
+//   LSB; minimum headroom 0.00825 bits (Kt*du (product)); saturating:
+//   command before saturation.
 //
 // Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
 //   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
@@ -77,20 +77,20 @@
 // sandpiper_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0xf4f80ab04fce28a8
+#define SANDPIPER_RATE_STAMP 0x43aa48b5e1679975
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
 // Axis pitch: coefficients and limits.
-#define SANDPIPER_PITCH_KP               ((int32_t)1116976353) // P gain on the measurement; Q3.28 = 4.161
-#define SANDPIPER_PITCH_KPB              ((int32_t)1608445949) // P gain on the setpoint; Q-1.32 = 0.3745
-#define SANDPIPER_PITCH_G0               ((int32_t)1898462362) // integral: weight of the current error; Q-5.36 = 0.02763
-#define SANDPIPER_PITCH_G01              ((int32_t)1898462362) // integral: state increment per unit error; Q-4.35 = 0.05525
-#define SANDPIPER_PITCH_KT               ((int32_t)2126395862) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03094
+#define SANDPIPER_PITCH_KP               ((int32_t)1130452484) // P gain on the measurement; Q3.28 = 4.211
+#define SANDPIPER_PITCH_KPB              ((int32_t)1266106782) // P gain on the setpoint; Q-1.32 = 0.2948
+#define SANDPIPER_PITCH_G0               ((int32_t)1937380860) // integral: weight of the current error; Q-5.36 = 0.02819
+#define SANDPIPER_PITCH_G01              ((int32_t)1937380860) // integral: state increment per unit error; Q-4.35 = 0.05639
+#define SANDPIPER_PITCH_KT               ((int32_t)2135238830) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03107
 #define SANDPIPER_PITCH_AD               ((int32_t)1872865156) // derivative filter: pole; Q-1.32 = 0.4361
-#define SANDPIPER_PITCH_BD               ((int32_t)1091958360) // derivative filter: gain; Q6.25 = 32.54
+#define SANDPIPER_PITCH_BD               ((int32_t)1105132653) // derivative filter: gain; Q6.25 = 32.94
 #define SANDPIPER_PITCH_OUTPUT_LO        ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define SANDPIPER_PITCH_OUTPUT_HI        ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
 #define SANDPIPER_PITCH_INTEGRATOR_LIMIT INT64_C(2305843009213693952) // largest |integrator state|, 30 fractional bits below the output LSB
@@ -122,13 +122,13 @@ int32_t sandpiper_pitch_step(sandpiper_pitch_state *s, int32_t setpoint, int32_t
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, int32_t applied);
 
 // Axis roll: coefficients and limits.
-#define SANDPIPER_ROLL_KP               ((int32_t)1861627256) // P gain on the measurement; Q2.29 = 3.468
-#define SANDPIPER_ROLL_KPB              ((int32_t)1340371624) // P gain on the setpoint; Q-1.32 = 0.3121
-#define SANDPIPER_ROLL_G0               ((int32_t)1582051968) // integral: weight of the current error; Q-5.36 = 0.02302
-#define SANDPIPER_ROLL_G01              ((int32_t)1582051968) // integral: state increment per unit error; Q-4.35 = 0.04604
-#define SANDPIPER_ROLL_KT               ((int32_t)2126395862) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03094
+#define SANDPIPER_ROLL_KP               ((int32_t)1884087473) // P gain on the measurement; Q2.29 = 3.509
+#define SANDPIPER_ROLL_KPB              ((int32_t)2110177970) // P gain on the setpoint; Q-2.33 = 0.2457
+#define SANDPIPER_ROLL_G0               ((int32_t)1614484050) // integral: weight of the current error; Q-5.36 = 0.02349
+#define SANDPIPER_ROLL_G01              ((int32_t)1614484050) // integral: state increment per unit error; Q-4.35 = 0.04699
+#define SANDPIPER_ROLL_KT               ((int32_t)2135238829) // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03107
 #define SANDPIPER_ROLL_AD               ((int32_t)1872865156) // derivative filter: pole; Q-1.32 = 0.4361
-#define SANDPIPER_ROLL_BD               ((int32_t)1819930600) // derivative filter: gain; Q5.26 = 27.12
+#define SANDPIPER_ROLL_BD               ((int32_t)1841887755) // derivative filter: gain; Q5.26 = 27.45
 #define SANDPIPER_ROLL_OUTPUT_LO        ((int32_t)(-2147483647 - 1)) // lowest command, raw; Q0.31 = -1
 #define SANDPIPER_ROLL_OUTPUT_HI        ((int32_t)2147483647) // highest command, raw; Q0.31 = 1
 #define SANDPIPER_ROLL_INTEGRATOR_LIMIT INT64_C(2305843009213693952) // largest |integrator state|, 30 fractional bits below the output LSB

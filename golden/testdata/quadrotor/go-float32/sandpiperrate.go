@@ -8,24 +8,24 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; float32
 // arithmetic.
 //
-// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
-// Tf = 0.001273 s, b = 0.09.
+// Axis pitch: pid, Kp = 0.0329, Ki = 0.4405, Kd = 0.0004563,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
-// Tf = 0.001273 s, b = 0.09.
+// Axis roll: pid, Kp = 0.02742, Ki = 0.3671, Kd = 0.0003802,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -71,16 +71,16 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              float32 = 0.03250829    // P gain on the measurement
-	PitchKpB             float32 = 0.0029257461  // P gain on the setpoint (setpoint weight b times Kp)
-	PitchG0              float32 = 0.00021583018 // integral: weight of the current error
-	PitchG01             float32 = 0.00043166036 // integral: state increment per unit error
-	PitchKt              float32 = 0.030943133   // anti-windup back-calculation gain T/Tt
-	PitchIntegratorLimit float32 = 0.5           // largest |integrator state|, command units
-	PitchAd              float32 = 0.4360604     // derivative filter: pole
-	PitchBd              float32 = 0.25424138    // derivative filter: gain
-	PitchOutputLo        float32 = -0.5          // lowest command
-	PitchOutputHi        float32 = 0.5           // highest command
+	PitchKp              float32 = 0.032900497  // P gain on the measurement
+	PitchKpB             float32 = 0.0023030348 // P gain on the setpoint (setpoint weight b times Kp)
+	PitchG0              float32 = 0.0002202547 // integral: weight of the current error
+	PitchG01             float32 = 0.0004405094 // integral: state increment per unit error
+	PitchKt              float32 = 0.031071814  // anti-windup back-calculation gain T/Tt
+	PitchIntegratorLimit float32 = 0.5          // largest |integrator state|, command units
+	PitchAd              float32 = 0.4360604    // derivative filter: pole
+	PitchBd              float32 = 0.25730875   // derivative filter: gain
+	PitchOutputLo        float32 = -0.5         // lowest command
+	PitchOutputHi        float32 = 0.5          // highest command
 )
 
 // Pitch is the state of the sandpiper rate controller of axis pitch (PID
@@ -165,14 +165,14 @@ func (c *Pitch) Faults() uint32 {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              float32 = 0.027090242   // P gain on the measurement
-	RollKpB             float32 = 0.0024381217  // P gain on the setpoint (setpoint weight b times Kp)
-	RollG0              float32 = 0.00017985849 // integral: weight of the current error
-	RollG01             float32 = 0.00035971697 // integral: state increment per unit error
-	RollKt              float32 = 0.030943133   // anti-windup back-calculation gain T/Tt
+	RollKp              float32 = 0.02741708    // P gain on the measurement
+	RollKpB             float32 = 0.0019191956  // P gain on the setpoint (setpoint weight b times Kp)
+	RollG0              float32 = 0.00018354559 // integral: weight of the current error
+	RollG01             float32 = 0.00036709118 // integral: state increment per unit error
+	RollKt              float32 = 0.031071814   // anti-windup back-calculation gain T/Tt
 	RollIntegratorLimit float32 = 0.5           // largest |integrator state|, command units
 	RollAd              float32 = 0.4360604     // derivative filter: pole
-	RollBd              float32 = 0.21186781    // derivative filter: gain
+	RollBd              float32 = 0.21442395    // derivative filter: gain
 	RollOutputLo        float32 = -0.5          // lowest command
 	RollOutputHi        float32 = 0.5           // highest command
 )

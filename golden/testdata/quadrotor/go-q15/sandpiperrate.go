@@ -8,35 +8,35 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q15 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
-// Tf = 0.001273 s, b = 0.09.
+// Axis pitch: pid, Kp = 0.0329, Ki = 0.4405, Kd = 0.0004563,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB, Kp Q3.12, G0, G01, Kt
 //   Ad, Bd Q6.9, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 9, sum 9 fractional bits below the output LSB;
-//   minimum headroom 0.0143 bits (Kt*du (product)); saturating: command
+//   minimum headroom 0.00828 bits (Kt*du (product)); saturating: command
 //   before saturation.
 //
-// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
-// Tf = 0.001273 s, b = 0.09.
+// Axis roll: pid, Kp = 0.02742, Ki = 0.3671, Kd = 0.0003802,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
-//   scale*2^15); formats KpB, Kp Q2.13, G0, G01, Kt
+//   scale*2^15); formats KpB, Kp Q2.13, G0, G01, Kt
 //   Ad, Bd Q5.10, Lo Q0.15, Hi Q0.15, IL Q2.29; states:
 //   integrator 14, derivative 10, sum 10 fractional bits below the output
-//   LSB; minimum headroom 0.0143 bits (Kt*du (product)); saturating: command
-//   before saturation.
+//   LSB; minimum headroom 0.00828 bits (Kt*du (product)); saturating:
+//   command before saturation.
 //
 // Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
 //   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
@@ -76,13 +76,13 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int16 = 17044     // P gain on the measurement; Q3.12 = 4.161
-	PitchKpB             int16 = 24543     // P gain on the setpoint; Q-1.16 = 0.3745
-	PitchG0              int16 = 28968     // integral: weight of the current error; Q-5.20 = 0.02763
-	PitchG01             int16 = 28968     // integral: state increment per unit error; Q-4.19 = 0.05525
-	PitchKt              int16 = 32446     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03094
+	PitchKp              int16 = 17249     // P gain on the measurement; Q3.12 = 4.211
+	PitchKpB             int16 = 19319     // P gain on the setpoint; Q-1.16 = 0.2948
+	PitchG0              int16 = 29562     // integral: weight of the current error; Q-5.20 = 0.02819
+	PitchG01             int16 = 29562     // integral: state increment per unit error; Q-4.19 = 0.05639
+	PitchKt              int16 = 32581     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03107
 	PitchAd              int16 = 28578     // derivative filter: pole; Q-1.16 = 0.4361
-	PitchBd              int16 = 16662     // derivative filter: gain; Q6.9 = 32.54
+	PitchBd              int16 = 16863     // derivative filter: gain; Q6.9 = 32.94
 	PitchOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	PitchOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
 	PitchIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB
@@ -152,13 +152,13 @@ func (c *Pitch) Applied(applied int16) {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              int16 = 28406     // P gain on the measurement; Q2.13 = 3.468
-	RollKpB             int16 = 20452     // P gain on the setpoint; Q-1.16 = 0.3121
-	RollG0              int16 = 24140     // integral: weight of the current error; Q-5.20 = 0.02302
-	RollG01             int16 = 24140     // integral: state increment per unit error; Q-4.19 = 0.04604
-	RollKt              int16 = 32446     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03094
+	RollKp              int16 = 28749     // P gain on the measurement; Q2.13 = 3.509
+	RollKpB             int16 = 32199     // P gain on the setpoint; Q-2.17 = 0.2457
+	RollG0              int16 = 24635     // integral: weight of the current error; Q-5.20 = 0.02349
+	RollG01             int16 = 24635     // integral: state increment per unit error; Q-4.19 = 0.04699
+	RollKt              int16 = 32581     // anti-windup back-calculation gain T/Tt; Q-5.20 = 0.03107
 	RollAd              int16 = 28578     // derivative filter: pole; Q-1.16 = 0.4361
-	RollBd              int16 = 27770     // derivative filter: gain; Q5.10 = 27.12
+	RollBd              int16 = 28105     // derivative filter: gain; Q5.10 = 27.45
 	RollOutputLo        int16 = -32768    // lowest command, raw; Q0.15 = -1
 	RollOutputHi        int16 = 32767     // highest command, raw; Q0.15 = 1
 	RollIntegratorLimit int32 = 536870912 // largest |integrator state|, 14 fractional bits below the output LSB
@@ -185,7 +185,7 @@ func (c *Roll) Reset(output, measured int16) {
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	q := int32(output)*(1<<10) - (mul(RollKpB, int32(measured), 6) - mul(RollKp, int32(measured), 3))
+	q := int32(output)*(1<<10) - (mul(RollKpB, int32(measured), 7) - mul(RollKp, int32(measured), 3))
 	c.integ = clamp(satshl(q, 4), -RollIntegratorLimit, RollIntegratorLimit)
 	c.vp = -int32(measured)
 }
@@ -204,7 +204,7 @@ func (c *Roll) Step(setpoint, measured int16) int16 {
 		c.integ = clamp(c.integ, -RollIntegratorLimit, RollIntegratorLimit)
 	}
 	e := r - y
-	uu := mul(RollKpB, r, 6) - mul(RollKp, y, 3)
+	uu := mul(RollKpB, r, 7) - mul(RollKp, y, 3)
 	uu = uu + rsh(c.integ, 4)
 	uu = uu + mul(RollG0, e, 10)
 	v := -y

@@ -8,35 +8,35 @@
 // Rate loop at 1000 Hz (T = 0.001 s), compute delay 1 sample; q31 fixed
 // point (input full scale 64, output full scale 0.5).
 //
-// Axis pitch: pid, Kp = 0.03251, Ki = 0.4317, Kd = 0.0004508,
-// Tf = 0.001273 s, b = 0.09.
+// Axis pitch: pid, Kp = 0.0329, Ki = 0.4405, Kd = 0.0004563,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB, Kp Q3.28, G0, G01, Kt
 //   Ad, Bd Q6.25, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 25, sum 25 fractional bits below the output
-//   LSB; minimum headroom 0.0142 bits (Kt*du (product)); saturating: command
-//   before saturation.
+//   LSB; minimum headroom 0.00825 bits (Kt*du (product)); saturating:
+//   command before saturation.
 //
-// Axis roll: pid, Kp = 0.02709, Ki = 0.3597, Kd = 0.0003757,
-// Tf = 0.001273 s, b = 0.09.
+// Axis roll: pid, Kp = 0.02742, Ki = 0.3671, Kd = 0.0003802,
+// Tf = 0.001273 s, b = 0.07.
 //   discretized tustin; derivative on the measurement; anti-windup backcalc
-//   (Tt = 0.03232 s); integrator limit 0.5; output [-0.5, 0.5].
+//   (Tt = 0.03218 s); integrator limit 0.5; output [-0.5, 0.5].
 //   Target: zeta = 0.591, wn = 46.5 rad/s, s* = -27.5 +/- j37.5 rad/s.
-//   Sampled loop: overshoot 0.0313 %, settling 0.129 s, phase margin
-//   40.7 deg, gain margin 17.5 dB.
+//   Sampled loop: overshoot 0.0323 %, settling 0.13 s, phase margin
+//   40.6 deg, gain margin 17.4 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
-//   scale*2^31); formats KpB, Kp Q2.29, G0, G01, Kt
+//   scale*2^31); formats KpB, Kp Q2.29, G0, G01, Kt
 //   Ad, Bd Q5.26, Lo Q0.31, Hi Q0.31, IL Q2.61; states:
 //   integrator 30, derivative 26, sum 26 fractional bits below the output
-//   LSB; minimum headroom 0.0142 bits (Kt*du (product)); saturating: command
-//   before saturation.
+//   LSB; minimum headroom 0.00825 bits (Kt*du (product)); saturating:
+//   command before saturation.
 //
 // Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
 //   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
@@ -76,13 +76,13 @@ package sandpiperrate
 
 // Coefficients and limits of axis pitch.
 const (
-	PitchKp              int32 = 1116976353          // P gain on the measurement; Q3.28 = 4.161
-	PitchKpB             int32 = 1608445949          // P gain on the setpoint; Q-1.32 = 0.3745
-	PitchG0              int32 = 1898462362          // integral: weight of the current error; Q-5.36 = 0.02763
-	PitchG01             int32 = 1898462362          // integral: state increment per unit error; Q-4.35 = 0.05525
-	PitchKt              int32 = 2126395862          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03094
+	PitchKp              int32 = 1130452484          // P gain on the measurement; Q3.28 = 4.211
+	PitchKpB             int32 = 1266106782          // P gain on the setpoint; Q-1.32 = 0.2948
+	PitchG0              int32 = 1937380860          // integral: weight of the current error; Q-5.36 = 0.02819
+	PitchG01             int32 = 1937380860          // integral: state increment per unit error; Q-4.35 = 0.05639
+	PitchKt              int32 = 2135238830          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03107
 	PitchAd              int32 = 1872865156          // derivative filter: pole; Q-1.32 = 0.4361
-	PitchBd              int32 = 1091958360          // derivative filter: gain; Q6.25 = 32.54
+	PitchBd              int32 = 1105132653          // derivative filter: gain; Q6.25 = 32.94
 	PitchOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	PitchOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
 	PitchIntegratorLimit int64 = 2305843009213693952 // largest |integrator state|, 30 fractional bits below the output LSB
@@ -152,13 +152,13 @@ func (c *Pitch) Applied(applied int32) {
 
 // Coefficients and limits of axis roll.
 const (
-	RollKp              int32 = 1861627256          // P gain on the measurement; Q2.29 = 3.468
-	RollKpB             int32 = 1340371624          // P gain on the setpoint; Q-1.32 = 0.3121
-	RollG0              int32 = 1582051968          // integral: weight of the current error; Q-5.36 = 0.02302
-	RollG01             int32 = 1582051968          // integral: state increment per unit error; Q-4.35 = 0.04604
-	RollKt              int32 = 2126395862          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03094
+	RollKp              int32 = 1884087473          // P gain on the measurement; Q2.29 = 3.509
+	RollKpB             int32 = 2110177970          // P gain on the setpoint; Q-2.33 = 0.2457
+	RollG0              int32 = 1614484050          // integral: weight of the current error; Q-5.36 = 0.02349
+	RollG01             int32 = 1614484050          // integral: state increment per unit error; Q-4.35 = 0.04699
+	RollKt              int32 = 2135238829          // anti-windup back-calculation gain T/Tt; Q-5.36 = 0.03107
 	RollAd              int32 = 1872865156          // derivative filter: pole; Q-1.32 = 0.4361
-	RollBd              int32 = 1819930600          // derivative filter: gain; Q5.26 = 27.12
+	RollBd              int32 = 1841887755          // derivative filter: gain; Q5.26 = 27.45
 	RollOutputLo        int32 = -2147483648         // lowest command, raw; Q0.31 = -1
 	RollOutputHi        int32 = 2147483647          // highest command, raw; Q0.31 = 1
 	RollIntegratorLimit int64 = 2305843009213693952 // largest |integrator state|, 30 fractional bits below the output LSB
@@ -185,7 +185,7 @@ func (c *Roll) Reset(output, measured int32) {
 	// The next command is output when the setpoint equals measured: the
 	// integrator takes output minus the proportional part, in the sum's
 	// format, then shifted (saturating, exact under the clamp) to its own.
-	q := int64(output)*(1<<26) - (mul(RollKpB, int64(measured), 6) - mul(RollKp, int64(measured), 3))
+	q := int64(output)*(1<<26) - (mul(RollKpB, int64(measured), 7) - mul(RollKp, int64(measured), 3))
 	c.integ = clamp(satshl(q, 4), -RollIntegratorLimit, RollIntegratorLimit)
 	c.vp = -int64(measured)
 }
@@ -204,7 +204,7 @@ func (c *Roll) Step(setpoint, measured int32) int32 {
 		c.integ = clamp(c.integ, -RollIntegratorLimit, RollIntegratorLimit)
 	}
 	e := r - y
-	uu := mul(RollKpB, r, 6) - mul(RollKp, y, 3)
+	uu := mul(RollKpB, r, 7) - mul(RollKp, y, 3)
 	uu = uu + rsh(c.integ, 4)
 	uu = uu + mul(RollG0, e, 10)
 	v := -y
