@@ -14,7 +14,8 @@ package discrete_test
 // plants, every form (p, pi, pd, pid, lead), the default envelope and
 // gain, lag and delay intervals, loop rates from 250 Hz to 8 kHz,
 // hold_rate (given, and by default from a Q15 input_full_scale), one
-// disturbance_recovery and one explicit max_noise_gain.
+// disturbance_recovery (two airframes), an explicit max_sensitivity of 2
+// (one) and an explicit max_noise_gain (one).
 
 // refAirframe is one airframe of the reference: its name (the file name of
 // its stored reference) and its TOML text.
@@ -843,7 +844,8 @@ hz = "auto"
 		// Found by a campaign of random airframes of our own: a pid on a
 		// slow motor with a long delay whose sensitivity peak at the upper
 		// corners barely meets Ms ≤ 2 in a set of shapes 0.05 decade wide;
-		// on the best shapes Ki → 0 exceeds Ms and Ki ≈ 3 to 5.4 meets it.
+		// on the best shapes Ki → 0 exceeds Ms and Ki from about 2.6 to
+		// 5.45 meets it (the line's admissible interval).
 		// The search called the spec infeasible (its closest design had
 		// Ki 0.06, recovering from no load step), until the line's
 		// admissible interval could start above 0 and a near miss of the

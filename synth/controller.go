@@ -244,8 +244,9 @@ func (c Controller) Snap() Controller {
 	return c
 }
 
-// snapUp is snap rounded up: a ten-digit value not below x (x > 0
-// finite). x·(1 + 1e-9) rounds to ten digits within 5e-10 of itself.
+// snapUp is snap rounded up: a ten-digit value not below x (x > 0;
+// +Inf stays +Inf). x·(1 + 1e-9) rounds to ten digits within 5e-10 of
+// itself.
 func snapUp(x float64) float64 {
 	return snap(float64(x * (1 + 1e-9)))
 }

@@ -37,12 +37,13 @@ import (
 // grid, and its ends are refined between grid points (loExact, msExact),
 // so that the search judges the Ms the final verification finds. It
 // mostly starts at x = 0; where x = 0 itself exceeds Ms (on a random
-// airframe of our own a pid meets Ms ≤ 2 from Ki ≈ 1, not below), it
-// starts higher, and gains below its start fail Ms without a judgment.
-// Since the Nyquist curve cannot reach −1 without entering the Ms circle,
-// every x of the interval has the stability of any one of them: that of
-// x = 0, or, for an interval above 0, of one gain tested exactly. The
-// margins and the noise gain then lower x by bisection, and the time
+// airframe of our own a pid's shape meets Ms ≤ 2 over its envelope from
+// Ki ≈ 2.6 on, not below), it starts higher, and gains below its start
+// fail Ms without a judgment. Since the Nyquist curve cannot reach −1
+// without entering the Ms circle, every x of the interval has, at each
+// plant, the stability of any one of them: that of x = 0, or, for an
+// interval above 0, of its start, tested exactly at the nominal plant
+// (the other plants are tested where a design passes). The margins and the noise gain then lower x by bisection, and the time
 // checks by steps. So one evaluation answers, for a whole line of
 // controllers, how far it can go; the search needs a grid over the shape
 // only (two dimensions at most): a coarse structured grid over several
@@ -132,8 +133,10 @@ const maxLined = 16
 // 40 random PI and PID airframes of plausible rate plants, a budget of
 // 1500 called one infeasible that has a design (arm_narrow_pi among the
 // reference airframes of package discrete). An infeasible verdict costs
-// 0.1 s on the demo quadrotor's roll, and 13 s on the slowest airframe
-// the project has built (testdata/slowest.toml in package discrete).
+// 0.1 s on the demo quadrotor's roll, and 17 s on the slowest airframe
+// the project has built (testdata/slowest.toml in package discrete; 13 s
+// before lines could start above x = 0, a quarter of it now the exact
+// stability test of such lines, at 256 delay samples).
 const fineBudget = 6000
 
 // unboundedMs is the sensitivity bound of the search when the spec gives
@@ -523,7 +526,10 @@ func (sr *searcher) msBound() (lo, hi float64, ok bool) {
 	return lo, snap(hi), true
 }
 
-// gap is an open interval of x, (gap[0], gap[1]); empty as (+Inf, +Inf).
+// gap is the interval of x where the Ms bound fails, (gap[0], gap[1]);
+// empty as (+Inf, +Inf). holds counts gap[0] in, a root where the bound
+// is just met, so that a chain of gaps is never left at one of its
+// roots.
 type gap [2]float64
 
 // holds reports whether x lies in the gap.
@@ -1013,10 +1019,15 @@ func (sr *searcher) screen(u []float64) *point {
 	}
 	if lo > 0 {
 		// No plant's Nyquist curve crosses the Ms circle, and so −1, on
-		// [lo, xms]: one gain in it tells the stability of all. An
+		// [lo, xms]: one gain in it tells the stability of all, at each
+		// plant. An
 		// interval past one where Ms fails is often that of a loop
 		// unstable throughout (its curve circles −1 at a distance).
-		st, err := sr.stableAt(pt.th, math.Min(float64(lo*(1+1e-3)), float64(0.5*(lo+xms))))
+		// (lo itself is admissible, loExact's bound lying inside Ms.) A
+		// test that cannot be made (an error) shuts the shape too: the
+		// screen has no error to return, and judgeAt's own test reports
+		// it where a gain of the shape is judged.
+		st, err := sr.stableAt(pt.th, lo)
 		if err != nil || !st {
 			pt.why, pt.fviol = "stable", 1
 			return pt
@@ -1025,6 +1036,11 @@ func (sr *searcher) screen(u []float64) *point {
 	pt.xlo = lo
 	cap := 1e4 * sr.fam.xRef
 	x := math.Min(xms, cap)
+	if !(x > lo) {
+		// The interval starts past the cap of an unbounded x.
+		pt.why, pt.fviol = "max_sensitivity", 1
+		return pt
+	}
 	if !sr.freqPass(x) {
 		// The margins and the noise gain are assumed to improve as x falls
 		// (less integral or proportional action): bisect on [small, x].
@@ -1063,15 +1079,12 @@ func (sr *searcher) screen(u []float64) *point {
 }
 
 // stableAt reports whether the loop with shape th at gain x is stable at
-// every plant of the frequency checks, by the exact test.
+// the nominal plant, by the exact test. The other plants are left to the
+// exact tests of judgeAt: this one only keeps the search off intervals of
+// a loop unstable throughout, and a test at each of a long-delayed
+// envelope's plants cost the slowest airframe 30 % more time.
 func (sr *searcher) stableAt(th []float64, x float64) (bool, error) {
-	c := sr.fam.ctrl(th, x)
-	for i := range sr.open {
-		if ok, err := sr.L.Stable(c, i); err != nil || !ok {
-			return false, err
-		}
-	}
-	return true, nil
+	return sr.L.Stable(sr.fam.ctrl(th, x), 0)
 }
 
 // shrinkSteps are the fractions of the frequency checks' largest gain that
@@ -1108,6 +1121,20 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 	stuck, probed := 0, false
 	if pt.stuckTop && x < pt.xf {
 		stuck = 1
+	}
+	if len(steps) > 1 && x*steps[len(steps)-1] < pt.xlo {
+		// The line starts above 0: its ladder ends at the start (and
+		// where x is below it, judgeAt turns the one judgment down).
+		k := 0
+		for k < len(steps) && x*steps[k] > pt.xlo {
+			k++
+		}
+		steps = steps[:k:k]
+		if k == 0 {
+			steps = append(steps, 1)
+		} else {
+			steps = append(steps, pt.xlo/x)
+		}
 	}
 	for i, f := range steps {
 		if probed && i == len(steps)-1 {
@@ -1165,7 +1192,8 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 
 // stuckRun is how many gains in a row down a shape's line of x may fail
 // without settling (searcher.stuck) before the line is judged at its
-// lowest gain and, unless that one settles, gives up, while no passing
+// lowest gain (of the ladder, or the line's start where that lies above)
+// and, unless that one settles, gives up, while no passing
 // design is known: then every failure is simulated over its whole record
 // and scored, the most expensive judgment. A shape whose proportional and
 // derivative gains are too low to settle within four times the settling
@@ -1185,6 +1213,13 @@ func (sr *searcher) judgeAt(pt *point, x float64) (cand, error) {
 		// Noted when it was judged; a lookup costs no budget.
 		return c, nil
 	}
+	if x < pt.xlo {
+		// Below the line's admissible interval: Ms fails (msBound), and
+		// at every lower gain too. Scored as a shut shape is, and neither
+		// judged (no budget) nor noted: it is no near miss.
+		sr.stuck = true
+		return cand{pt: pt, x: x, settle: math.NaN(), viol: 2, fails: []string{"max_sensitivity"}}, nil
+	}
 	if sr.fine {
 		sr.fineLeft--
 	}
@@ -1192,14 +1227,6 @@ func (sr *searcher) judgeAt(pt *point, x float64) (cand, error) {
 	c.ctrl = sr.fam.ctrl(pt.th, x)
 	c.gain = sr.fam.gain(pt.th, x)
 	c.noise = sr.noiseAt(x)
-	if x < pt.xlo {
-		// Below the line's admissible interval: Ms fails (msBound), and
-		// at every lower gain too.
-		c.viol, c.fails = 1+(pt.xlo-x)/pt.xlo, []string{"max_sensitivity"}
-		sr.stuck = true
-		sr.note(c)
-		return c, nil
-	}
 	// The time checks first: most candidates fail them, and an unstable
 	// loop cannot pass them (its response leaves the band), so the exact
 	// stability test is needed only for a candidate that passes, where it
@@ -1785,7 +1812,7 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 		viol += steady/s.MaxSteadyError - 1
 		fails = append(fails, "steady_error")
 	}
-	if s.DisturbanceRecovery > 0 {
+	if s.DisturbanceRecovery > 0 && !math.IsInf(viol, 1) {
 		// A miss of the step is scored on the load step too, at the same
 		// plants: without it, a gain too low to recover from a load
 		// in time looked as close as one that does (a random pid of our
@@ -2086,20 +2113,21 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 			return res, err
 		}
 	}
-	if best, err = sr.finish(best, step, judge); err != nil {
+	best, top, err := sr.finish(best, step, judge)
+	if err != nil {
 		return res, err
 	}
 	if alt.ok {
 		// The last stages end at different designs from different
-		// starts: from the knee's design and from the largest gain
-		// under its bound, the better.
-		a, err := sr.finish(alt, step, judge)
+		// starts (the knee's design and widen's, or the search's own
+		// and the default's under a bound of the file): the tie-break
+		// between the two, and the check for a design that beats the
+		// one taken, among those the second judged too.
+		a, ta, err := sr.finish(alt, step, judge)
 		if err != nil {
 			return res, err
 		}
-		if a.gain > best.gain {
-			best = a
-		}
+		best = sr.undominated(tieBreak(best, top, a, ta))
 	}
 	res.Evaluations = evals
 	res.Ctrl, res.Met = best.ctrl.Snap(), true
@@ -2114,20 +2142,49 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 // with the fine setpoint weights (refineWeights), the tie-break toward
 // less noise (quietestAbove), the ride on a pid's noise bound (rideUp)
 // and the check that no design the search judged beats it in gain and
-// noise both (undominated).
-func (sr *searcher) finish(c cand, step []float64, judge judgeFunc) (cand, error) {
+// noise both (undominated). It also returns the largest gain of the
+// designs it ends among: that of the refined design before the
+// tie-break, or of the final one where riding raised it.
+func (sr *searcher) finish(c cand, step []float64, judge judgeFunc) (cand, float64, error) {
 	c, err := sr.refineWeights(c, step, judge)
 	if err != nil {
-		return c, err
+		return c, c.gain, err
 	}
+	top := c.gain
 	quiet, err := sr.quietestAbove(c, step, judge)
 	if err != nil {
-		return c, err
+		return c, top, err
 	}
 	if c, err = sr.rideUp(c, quiet, step, judge); err != nil {
-		return c, err
+		return c, top, err
 	}
-	return sr.undominated(c), nil
+	c = sr.undominated(c)
+	return c, math.Max(top, c.gain), nil
+}
+
+// tieBreak returns, of two finished designs a and b whose last stages
+// ended among gains up to ta and tb, the one of less noise gain among
+// those within NearBest of the larger of ta and tb (the tie-break's rule;
+// noise gains within 1e-6 of each other tie, and the larger gain wins a
+// tie, a where equal), else the one of larger gain.
+func tieBreak(a cand, ta float64, b cand, tb float64) cand {
+	floor := math.Max(ta, tb) * (1 - NearBest)
+	aIn, bIn := !(a.gain < floor), !(b.gain < floor)
+	switch {
+	case aIn && bIn:
+		if b.noise < a.noise*(1-1e-6) || (!(b.noise > a.noise*(1+1e-6)) && b.gain > a.gain) {
+			return b
+		}
+		return a
+	case bIn:
+		return b
+	case aIn:
+		return a
+	}
+	if b.gain > a.gain {
+		return b
+	}
+	return a
 }
 
 // quietestAbove is quietest (the least noise gain among designs within
@@ -2255,7 +2312,8 @@ func (sr *searcher) kneeDesign(k cand, step []float64, judge judgeFunc) (cand, e
 
 // widen returns the design of the largest gain under the bound the knee
 // set, searched over the whole grid from the knee's design best
-// (maximize) and refined, where it beats best (ok false where not).
+// (maximize) and refined, where it beats best; a zero cand (ok false)
+// where it does not.
 func (sr *searcher) widen(best cand, grid [][]float64, step []float64, judge judgeFunc) (cand, error) {
 	w, ok, err := sr.maximize(grid, step, judge, sr.loadGain(), &best)
 	if err != nil || !ok || !(w.gain > best.gain) {
@@ -2312,7 +2370,7 @@ func (sr *searcher) freeDesign(g0, w0 float64, tick func()) (cand, bool, error) 
 	// camp90_37_roll (whose design has 2.4 % less noise than the default
 	// bound) and one 3 % below it on camp71_58 (whose design, 5.8 % below
 	// the bound, meets it) found no design at all before.
-	if _, err := free.finish(k, step, judge); err != nil {
+	if _, _, err := free.finish(k, step, judge); err != nil {
 		return cand{}, false, err
 	}
 	found := false
@@ -2434,6 +2492,9 @@ func (sr *searcher) leastNoise(grid [][]float64, step []float64, judge judgeFunc
 		sr.basis(pt.th)
 		lo := 0.0 // the last x judged that failed
 		for x := pt.xf * 0.01; x <= pt.xf*(1+1e-9); x *= ratio {
+			if x < pt.xlo {
+				continue // below the line's start: Ms fails
+			}
 			n := sr.noiseAt(x)
 			if have && n >= best.noise {
 				return cand{}, false, nil
@@ -2509,7 +2570,7 @@ const (
 
 // objective scores a passing design: the search keeps the largest score.
 // upper bounds the score of any design on the shape pt (at most its
-// frequency-checks gain xf, at least its noise gain at x → 0).
+// frequency-checks gain xf, at least the lowest noise gain of its line).
 type objective struct {
 	score func(c cand) float64
 	upper func(pt *point) float64
@@ -2691,7 +2752,8 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		// a ridge passes there or not at all, where a descent from the top
 		// of its line would step over the narrow band above the best.
 		target := obj.score(best) * (1 + 1e-4)
-		x0 := target / obj.at(pt, 1)
+		// (From the line's start where that lies above.)
+		x0 := math.Max(target/obj.at(pt, 1), pt.xlo)
 		if !(x0 > 0) || x0 > pt.xf {
 			return false, nil
 		}

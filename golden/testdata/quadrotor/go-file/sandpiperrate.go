@@ -30,12 +30,12 @@
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
 //
-// Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
-//   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
+// Axis yaw: pi, Kp = 0.03543, Ki = 0.0952, b = 0.665.
+//   discretized tustin; anti-windup backcalc (Tt = 0.3721 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.168 %, settling 0.289 s, phase margin
-//   52.4 deg, gain margin 24.7 dB.
+//   Sampled loop: overshoot 0.186 %, settling 0.287 s, phase margin
+//   52.5 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: float32, coefficients rounded to nearest; no fixed-point
 //   formats or range limits.
@@ -259,14 +259,14 @@ func (c *Roll) Faults() uint32 {
 
 // Coefficients and limits of axis yaw.
 const (
-	YawKp              float32 = 0.03542517   // P gain on the measurement
-	YawKpB             float32 = 0.023380611  // P gain on the setpoint (setpoint weight b times Kp)
-	YawG0              float32 = 4.811527e-05 // integral: weight of the current error
-	YawG01             float32 = 9.623054e-05 // integral: state increment per unit error
-	YawKt              float32 = 0.0027164456 // anti-windup back-calculation gain T/Tt
-	YawIntegratorLimit float32 = 0.3          // largest |integrator state|, command units
-	YawOutputLo        float32 = -0.3         // lowest command
-	YawOutputHi        float32 = 0.3          // highest command
+	YawKp              float32 = 0.03542517    // P gain on the measurement
+	YawKpB             float32 = 0.023557737   // P gain on the setpoint (setpoint weight b times Kp)
+	YawG0              float32 = 4.7599944e-05 // integral: weight of the current error
+	YawG01             float32 = 9.519989e-05  // integral: state increment per unit error
+	YawKt              float32 = 0.0026873515  // anti-windup back-calculation gain T/Tt
+	YawIntegratorLimit float32 = 0.3           // largest |integrator state|, command units
+	YawOutputLo        float32 = -0.3          // lowest command
+	YawOutputHi        float32 = 0.3           // highest command
 )
 
 // Yaw is the state of the sandpiper rate controller of axis yaw (PI). Call

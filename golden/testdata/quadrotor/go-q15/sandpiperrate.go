@@ -38,18 +38,18 @@
 //   LSB; minimum headroom 0.00828 bits (Kt*du (product)); saturating:
 //   command before saturation.
 //
-// Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
-//   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
+// Axis yaw: pi, Kp = 0.03543, Ki = 0.0952, b = 0.665.
+//   discretized tustin; anti-windup backcalc (Tt = 0.3721 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.168 %, settling 0.289 s, phase margin
-//   52.4 deg, gain margin 24.7 dB.
+//   Sampled loop: overshoot 0.186 %, settling 0.287 s, phase margin
+//   52.5 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: q15 (data int16, accumulators int32, raw = value/full
 //   scale*2^15); formats KpB Q2.13, Kp Q3.12, G0, G01, Kt
 //   Lo Q0.15, Hi Q0.15, IL Q0.31; states: integrator 16, derivative
 //   16, sum 12 fractional bits below the output LSB; minimum headroom
-//   0.343 bits (G0*e (product)); saturating: command before saturation.
+//   0.359 bits (G0*e (product)); saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
 // engagement (bumpless: the next command starts from output, the derivative
@@ -229,10 +229,10 @@ func (c *Roll) Applied(applied int16) {
 // Coefficients and limits of axis yaw.
 const (
 	YawKp              int16 = 18573      // P gain on the measurement; Q3.12 = 4.534
-	YawKpB             int16 = 24516      // P gain on the setpoint; Q2.13 = 2.993
-	YawG0              int16 = 25832      // integral: weight of the current error; Q-7.22 = 0.006159
-	YawG01             int16 = 25832      // integral: state increment per unit error; Q-6.21 = 0.01232
-	YawKt              int16 = 22787      // anti-windup back-calculation gain T/Tt; Q-8.23 = 0.002716
+	YawKpB             int16 = 24702      // P gain on the setpoint; Q2.13 = 3.015
+	YawG0              int16 = 25555      // integral: weight of the current error; Q-7.22 = 0.006093
+	YawG01             int16 = 25555      // integral: state increment per unit error; Q-6.21 = 0.01219
+	YawKt              int16 = 22543      // anti-windup back-calculation gain T/Tt; Q-8.23 = 0.002687
 	YawOutputLo        int16 = -19661     // lowest command, raw; Q0.15 = -0.6
 	YawOutputHi        int16 = 19661      // highest command, raw; Q0.15 = 0.6
 	YawIntegratorLimit int32 = 1288490189 // largest |integrator state|, 16 fractional bits below the output LSB

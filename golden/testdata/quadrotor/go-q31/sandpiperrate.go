@@ -38,18 +38,18 @@
 //   LSB; minimum headroom 0.00825 bits (Kt*du (product)); saturating:
 //   command before saturation.
 //
-// Axis yaw: pi, Kp = 0.03543, Ki = 0.09623, b = 0.66.
-//   discretized tustin; anti-windup backcalc (Tt = 0.3681 s); integrator
+// Axis yaw: pi, Kp = 0.03543, Ki = 0.0952, b = 0.665.
+//   discretized tustin; anti-windup backcalc (Tt = 0.3721 s); integrator
 //   limit 0.3; output [-0.3, 0.3].
 //   Target: zeta = 0.591, wn = 23.3 rad/s, s* = -13.8 +/- j18.8 rad/s.
-//   Sampled loop: overshoot 0.168 %, settling 0.289 s, phase margin
-//   52.4 deg, gain margin 24.7 dB.
+//   Sampled loop: overshoot 0.186 %, settling 0.287 s, phase margin
+//   52.5 deg, gain margin 24.7 dB.
 //   Checks: all met.
 //   Numeric: q31 (data int32, accumulators int64, raw = value/full
 //   scale*2^31); formats KpB Q2.29, Kp Q3.28, G0, G01, Kt
 //   Lo Q0.31, Hi Q0.31, IL Q0.63; states: integrator 32, derivative
 //   32, sum 28 fractional bits below the output LSB; minimum headroom
-//   0.343 bits (G0*e (product)); saturating: command before saturation.
+//   0.359 bits (G0*e (product)); saturating: command before saturation.
 //
 // Per axis: Reset(output, measured) before the first Step and on every
 // engagement (bumpless: the next command starts from output, the derivative
@@ -229,10 +229,10 @@ func (c *Roll) Applied(applied int32) {
 // Coefficients and limits of axis yaw.
 const (
 	YawKp              int32 = 1217199556          // P gain on the measurement; Q3.28 = 4.534
-	YawKpB             int32 = 1606703414          // P gain on the setpoint; Q2.29 = 2.993
-	YawG0              int32 = 1692905612          // integral: weight of the current error; Q-7.38 = 0.006159
-	YawG01             int32 = 1692905612          // integral: state increment per unit error; Q-6.37 = 0.01232
-	YawKt              int32 = 1493381714          // anti-windup back-calculation gain T/Tt; Q-8.39 = 0.002716
+	YawKpB             int32 = 1618875410          // P gain on the setpoint; Q2.29 = 3.015
+	YawG0              int32 = 1674774110          // integral: weight of the current error; Q-7.38 = 0.006093
+	YawG01             int32 = 1674774110          // integral: state increment per unit error; Q-6.37 = 0.01219
+	YawKt              int32 = 1477387170          // anti-windup back-calculation gain T/Tt; Q-8.39 = 0.002687
 	YawOutputLo        int32 = -1288490189         // lowest command, raw; Q0.31 = -0.6
 	YawOutputHi        int32 = 1288490189          // highest command, raw; Q0.31 = 0.6
 	YawIntegratorLimit int64 = 5534023222112865280 // largest |integrator state|, 32 fractional bits below the output LSB
