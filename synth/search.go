@@ -1133,7 +1133,8 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 		if k == 0 {
 			steps = append(steps, 1)
 		} else {
-			steps = append(steps, pt.xlo/x)
+			// A hair above, so that x times it cannot round below.
+			steps = append(steps, float64(pt.xlo/x)*(1+1e-12))
 		}
 	}
 	for i, f := range steps {
