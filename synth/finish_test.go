@@ -97,27 +97,25 @@ func TestUndominated(t *testing.T) {
 }
 
 // TestTieBreak: of two finished designs, the quietest within NearBest of
-// the larger gain either path found (the tie-break's own rule, package
-// doc), by hand.
+// the best gain found (the tie-break's own rule, package doc), by hand.
 func TestTieBreak(t *testing.T) {
 	c := func(gain, noise float64) cand { return cand{gain: gain, noise: noise} }
 	for _, tc := range []struct {
 		name  string
-		a     cand
-		ta    float64
-		b     cand
-		tb    float64
+		a, b  cand
+		top   float64
 		wantA bool
 	}{
-		{"the quieter of two within the band, though of less gain", c(0.981, 1), 1, c(0.99, 1.1), 0.99, true},
-		{"the quieter second", c(0.99, 1.1), 0.99, c(0.981, 1), 1, false},
-		{"one below the band of the other's top", c(0.95, 1), 1, c(0.99, 2), 0.99, false},
-		{"a tie in noise: the larger gain", c(0.99, 1), 1, c(1, 1+5e-7), 1, false},
-		{"a hair more noise loses", c(0.99, 1), 1, c(1, 1+2e-6), 1, true},
-		{"both below the band: the larger gain", c(0.9, 1), 1, c(0.95, 2), 1.05, false},
-		{"equal: the first", c(1, 1), 1, c(1, 1), 1, true},
+		{"the quieter of two within the band, though of less gain", c(0.981, 1), c(0.99, 1.1), 1, true},
+		{"the quieter second", c(0.99, 1.1), c(0.981, 1), 1, false},
+		{"one below the band of the best", c(0.95, 1), c(0.99, 2), 1, false},
+		{"a best found above both: one in its band", c(1.01, 2), c(1.0, 1), 1.03, true},
+		{"a tie in noise: the larger gain", c(0.99, 1), c(1, 1+5e-7), 1, false},
+		{"a hair more noise loses", c(0.99, 1), c(1, 1+2e-6), 1, true},
+		{"both below the band: the larger gain", c(0.9, 1), c(0.95, 2), 1.05, false},
+		{"equal: the first", c(1, 1), c(1, 1), 1, true},
 	} {
-		got := tieBreak(tc.a, tc.ta, tc.b, tc.tb)
+		got := tieBreak(tc.a, tc.b, tc.top)
 		want := tc.b
 		if tc.wantA {
 			want = tc.a

@@ -1025,8 +1025,8 @@ func (sr *searcher) screen(u []float64) *point {
 		// unstable throughout (its curve circles −1 at a distance).
 		// (lo itself is admissible, loExact's bound lying inside Ms.) A
 		// test that cannot be made (an error) shuts the shape too: the
-		// screen has no error to return, and judgeAt's own test reports
-		// it where a gain of the shape is judged.
+		// screen has no error to return, and a shape whose stability is
+		// unknown cannot give a design.
 		st, err := sr.stableAt(pt.th, lo)
 		if err != nil || !st {
 			pt.why, pt.fviol = "stable", 1
@@ -1124,18 +1124,16 @@ func (sr *searcher) judge(pt *point, x float64, shrink bool, worth func(x float6
 	}
 	if len(steps) > 1 && x*steps[len(steps)-1] < pt.xlo {
 		// The line starts above 0: its ladder ends at the start (and
-		// where x is below it, judgeAt turns the one judgment down).
+		// where x is below it, the ladder is the start alone: the line's
+		// gains from its start up to x were judged from its top).
+		// The start's step lies a hair above it, so that x times it
+		// cannot round below; the steps at or below it go.
+		at := float64(pt.xlo/x) * (1 + 1e-12)
 		k := 0
-		for k < len(steps) && x*steps[k] > pt.xlo {
+		for k < len(steps) && steps[k] > at {
 			k++
 		}
-		steps = steps[:k:k]
-		if k == 0 {
-			steps = append(steps, 1)
-		} else {
-			// A hair above, so that x times it cannot round below.
-			steps = append(steps, float64(pt.xlo/x)*(1+1e-12))
-		}
+		steps = append(steps[:k:k], at)
 	}
 	for i, f := range steps {
 		if probed && i == len(steps)-1 {
@@ -2114,21 +2112,21 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 			return res, err
 		}
 	}
-	best, top, err := sr.finish(best, step, judge)
-	if err != nil {
+	if best, err = sr.finish(best, step, judge); err != nil {
 		return res, err
 	}
 	if alt.ok {
 		// The last stages end at different designs from different
 		// starts (the knee's design and widen's, or the search's own
-		// and the default's under a bound of the file): the tie-break
-		// between the two, and the check for a design that beats the
-		// one taken, among those the second judged too.
-		a, ta, err := sr.finish(alt, step, judge)
+		// and the default's under a bound of the file): the tie-break's
+		// rule between the two, against the best gain of every passing
+		// design under the bound, and the check for a design that beats
+		// the one taken, among those the second judged too.
+		a, err := sr.finish(alt, step, judge)
 		if err != nil {
 			return res, err
 		}
-		best = sr.undominated(tieBreak(best, top, a, ta))
+		best = sr.undominated(tieBreak(best, a, sr.bestGain()))
 	}
 	res.Evaluations = evals
 	res.Ctrl, res.Met = best.ctrl.Snap(), true
@@ -2143,33 +2141,40 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 // with the fine setpoint weights (refineWeights), the tie-break toward
 // less noise (quietestAbove), the ride on a pid's noise bound (rideUp)
 // and the check that no design the search judged beats it in gain and
-// noise both (undominated). It also returns the largest gain of the
-// designs it ends among: that of the refined design before the
-// tie-break, or of the final one where riding raised it.
-func (sr *searcher) finish(c cand, step []float64, judge judgeFunc) (cand, float64, error) {
+// noise both (undominated).
+func (sr *searcher) finish(c cand, step []float64, judge judgeFunc) (cand, error) {
 	c, err := sr.refineWeights(c, step, judge)
 	if err != nil {
-		return c, c.gain, err
+		return c, err
 	}
-	top := c.gain
 	quiet, err := sr.quietestAbove(c, step, judge)
 	if err != nil {
-		return c, top, err
+		return c, err
 	}
 	if c, err = sr.rideUp(c, quiet, step, judge); err != nil {
-		return c, top, err
+		return c, err
 	}
-	c = sr.undominated(c)
-	return c, math.Max(top, c.gain), nil
+	return sr.undominated(c), nil
 }
 
-// tieBreak returns, of two finished designs a and b whose last stages
-// ended among gains up to ta and tb, the one of less noise gain among
-// those within NearBest of the larger of ta and tb (the tie-break's rule;
-// noise gains within 1e-6 of each other tie, and the larger gain wins a
-// tie, a where equal), else the one of larger gain.
-func tieBreak(a cand, ta float64, b cand, tb float64) cand {
-	floor := math.Max(ta, tb) * (1 - NearBest)
+// bestGain is the largest gain of the passing designs judged under the
+// noise bound in force: the best the search found.
+func (sr *searcher) bestGain() float64 {
+	g := 0.0
+	for _, c := range sr.passing {
+		if c.noise <= sr.noiseB && c.gain > g {
+			g = c.gain
+		}
+	}
+	return g
+}
+
+// tieBreak returns, of two finished designs a and b, the one of less
+// noise gain among those within NearBest of top, the best gain found (the
+// tie-break's rule; noise gains within 1e-6 of each other tie, and the
+// larger gain wins a tie, a where equal), else the one of larger gain.
+func tieBreak(a, b cand, top float64) cand {
+	floor := top * (1 - NearBest)
 	aIn, bIn := !(a.gain < floor), !(b.gain < floor)
 	switch {
 	case aIn && bIn:
@@ -2371,7 +2376,7 @@ func (sr *searcher) freeDesign(g0, w0 float64, tick func()) (cand, bool, error) 
 	// camp90_37_roll (whose design has 2.4 % less noise than the default
 	// bound) and one 3 % below it on camp71_58 (whose design, 5.8 % below
 	// the bound, meets it) found no design at all before.
-	if _, _, err := free.finish(k, step, judge); err != nil {
+	if _, err := free.finish(k, step, judge); err != nil {
 		return cand{}, false, err
 	}
 	found := false
@@ -3308,7 +3313,9 @@ func (sr *searcher) quietest(best cand, step []float64, judge judgeFunc) (cand, 
 		if !(g1 > 0) {
 			return 0, false
 		}
-		x := floor / g1
+		// (At least the line's start: above it the gain is larger, and
+		// still within the band where the start is below the best's.)
+		x := math.Max(floor/g1, pt.xlo)
 		return x, x <= pt.xf
 	}
 	// The best shape itself at the floor's gain.
