@@ -309,10 +309,10 @@ type searcher struct {
 	noiseB float64 // noise bound in force (+Inf: none)
 	a, b   []complex128
 	lbuf   []complex128
-	// bk holds msBound's bound at each grid frequency of each plant of
-	// the last shape it bounded (plant by plant), which msExact refines.
-	bk          []float64
-	gaps        []gap // msBound's gap at each grid frequency, as bk
+	// gaps holds msBound's gap at each grid frequency of each plant of
+	// the last shape it bounded (plant by plant), which loExact and
+	// msExact refine.
+	gaps        []gap
 	sorted      []gap // msBound's scratch
 	cache       map[string]*point
 	closest     cand
@@ -500,7 +500,7 @@ func sameBits(u, v []float64) bool {
 func (sr *searcher) msBound() (lo, hi float64, ok bool) {
 	r2 := sr.msR2()
 	hi = math.Inf(1)
-	sr.bk, sr.gaps = sr.bk[:0], sr.gaps[:0]
+	sr.gaps = sr.gaps[:0]
 	holds0 := false
 	for i := range sr.open {
 		P := sr.open[i]
@@ -516,12 +516,7 @@ func (sr *searcher) msBound() (lo, hi float64, ok bool) {
 		}
 	}
 	for _, g := range sr.gaps {
-		v := math.Inf(1)
-		if g[0] > lo {
-			v = g[0]
-		}
-		sr.bk = append(sr.bk, v)
-		hi = math.Min(hi, v)
+		hi = math.Min(hi, g.above(lo))
 	}
 	return lo, snap(hi), true
 }
@@ -534,6 +529,19 @@ type gap [2]float64
 
 // holds reports whether x lies in the gap.
 func (g gap) holds(x float64) bool { return g[0] <= x && x < g[1] }
+
+// above is the end that the gap puts to an interval of x starting at lo:
+// its start where that lies above lo, lo where it holds lo, +Inf where it
+// lies below.
+func (g gap) above(lo float64) float64 {
+	switch {
+	case g[0] > lo:
+		return g[0]
+	case g.holds(lo):
+		return lo
+	}
+	return math.Inf(1)
+}
 
 // chainEnd returns the least x ≥ 0 in no gap: starting from 0, the end of
 // each gap that holds the current x, taken in order of their starts. The
@@ -628,40 +636,42 @@ const msInside = 1e-6
 // set (winch_slow_pid among the reference airframes of package
 // discrete).
 func (sr *searcher) msExact(lo, xg float64) float64 {
-	r2 := sr.msR2() / ((1 - msInside) * (1 - msInside))
-	ca, c1 := sr.L.CtrlAt(sr.fam.ctrl(sr.th, 0)), sr.L.CtrlAt(sr.fam.ctrl(sr.th, 1))
+	off := sr.gapOff()
 	x := xg
 	n := len(sr.grid)
 	for i := range sr.open {
-		bk := sr.bk[i*n : (i+1)*n]
-		at := func(w float64) float64 {
-			g := sr.gapAt(ca, c1, i, w, r2)
-			switch {
-			case g[0] > lo:
-				return g[0]
-			case g.holds(lo):
-				return lo
-			}
-			return math.Inf(1)
-		}
-		for k, v := range bk {
-			if !(v <= float64(xg*(1+msNear))) || (k > 0 && bk[k-1] < v) || (k+1 < n && bk[k+1] < v) {
+		gs := sr.gaps[i*n : (i+1)*n]
+		at := func(w float64) float64 { return off(i, w).above(lo) }
+		for k, g := range gs {
+			v := g.above(lo)
+			if !(v <= float64(xg*(1+msNear))) || (k > 0 && gs[k-1].above(lo) < v) || (k+1 < n && gs[k+1].above(lo) < v) {
 				continue
 			}
-			a, b := sr.grid[max(k-1, 0)], sr.grid[min(k+1, n-1)]
-			x = math.Min(x, brentMin(at, lti.Log(a), lti.Log(b), lti.Log(sr.grid[k])))
+			x = math.Min(x, sr.brentAround(k, at))
 		}
 	}
 	return x
 }
 
-// gapAt is lineGap at frequency w and plant i off the grid, for the
-// controllers' responses ca (x = 0) and c1 (x = 1).
-func (sr *searcher) gapAt(ca, c1 func(float64) complex128, i int, w, r2 float64) gap {
-	A := ca(w)
-	B := c1(w) - A
-	Pw := sr.L.OpenAt(i, w)
-	return lineGap(1+lti.Mul(A, Pw), lti.Mul(B, Pw), r2)
+// gapOff returns lineGap at plant i and frequency w off the grid, for the
+// shape of the basis in force, with the bound msInside inside Ms.
+func (sr *searcher) gapOff() func(i int, w float64) gap {
+	r2 := sr.msR2() / ((1 - msInside) * (1 - msInside))
+	ca, c1 := sr.L.CtrlAt(sr.fam.ctrl(sr.th, 0)), sr.L.CtrlAt(sr.fam.ctrl(sr.th, 1))
+	return func(i int, w float64) gap {
+		A := ca(w)
+		B := c1(w) - A
+		Pw := sr.L.OpenAt(i, w)
+		return lineGap(1+lti.Mul(A, Pw), lti.Mul(B, Pw), r2)
+	}
+}
+
+// brentAround returns the least value of f over the two grid intervals
+// around grid point k (brentMin in log ω, from the point itself).
+func (sr *searcher) brentAround(k int, f func(w float64) float64) float64 {
+	n := len(sr.grid)
+	a, b := sr.grid[max(k-1, 0)], sr.grid[min(k+1, n-1)]
+	return brentMin(f, lti.Log(a), lti.Log(b), lti.Log(sr.grid[k]))
 }
 
 // loExact returns the start of the line's admissible interval between
@@ -672,8 +682,7 @@ func (sr *searcher) gapAt(ca, c1 func(float64) complex128, i int, w, r2 float64)
 // intervals around it, as msExact does for the interval's end, with the
 // bound msInside inside Ms. Gaps that start above lo are left to msExact.
 func (sr *searcher) loExact(lo float64) float64 {
-	r2 := sr.msR2() / ((1 - msInside) * (1 - msInside))
-	ca, c1 := sr.L.CtrlAt(sr.fam.ctrl(sr.th, 0)), sr.L.CtrlAt(sr.fam.ctrl(sr.th, 1))
+	off := sr.gapOff()
 	x := lo
 	n := len(sr.grid)
 	end := func(g gap) float64 {
@@ -684,14 +693,13 @@ func (sr *searcher) loExact(lo float64) float64 {
 	}
 	for i := range sr.open {
 		gs := sr.gaps[i*n : (i+1)*n]
-		at := func(w float64) float64 { return -end(sr.gapAt(ca, c1, i, w, r2)) }
+		at := func(w float64) float64 { return -end(off(i, w)) }
 		for k, g := range gs {
 			v := end(g)
 			if !(v >= float64(lo*(1-msNear))) || (k > 0 && end(gs[k-1]) > v) || (k+1 < n && end(gs[k+1]) > v) {
 				continue
 			}
-			a, b := sr.grid[max(k-1, 0)], sr.grid[min(k+1, n-1)]
-			x = math.Max(x, -brentMin(at, lti.Log(a), lti.Log(b), lti.Log(sr.grid[k])))
+			x = math.Max(x, -sr.brentAround(k, at))
 		}
 	}
 	return x
@@ -1020,14 +1028,16 @@ func (sr *searcher) screen(u []float64) *point {
 	if lo > 0 {
 		// No plant's Nyquist curve crosses the Ms circle, and so −1, on
 		// [lo, xms]: one gain in it tells the stability of all, at each
-		// plant. An
-		// interval past one where Ms fails is often that of a loop
-		// unstable throughout (its curve circles −1 at a distance).
-		// (lo itself is admissible, loExact's bound lying inside Ms.) A
-		// test that cannot be made (an error) shuts the shape too: the
-		// screen has no error to return, and a shape whose stability is
-		// unknown cannot give a design.
-		st, err := sr.stableAt(pt.th, lo)
+		// plant. An interval past one where Ms fails is often that of a
+		// loop unstable throughout (its curve circles −1 at a distance),
+		// which the search would judge in vain. So lo itself (admissible,
+		// loExact's bound lying inside Ms) is tested exactly at the
+		// nominal plant; the others are tested by judgeAt where a design
+		// passes. A test that cannot be made
+		// (an error) shuts the shape too: the screen has no error to
+		// return, and a shape whose stability is unknown cannot give a
+		// design.
+		st, err := sr.L.Stable(sr.fam.ctrl(pt.th, lo), 0)
 		if err != nil || !st {
 			pt.why, pt.fviol = "stable", 1
 			return pt
@@ -1076,15 +1086,6 @@ func (sr *searcher) screen(u []float64) *point {
 	x = pt.xf
 	pt.noise = sr.noiseAt(x)
 	return pt
-}
-
-// stableAt reports whether the loop with shape th at gain x is stable at
-// the nominal plant, by the exact test. The other plants are left to the
-// exact tests of judgeAt: this one only keeps the search off intervals of
-// a loop unstable throughout, and a test at each of a long-delayed
-// envelope's plants cost the slowest airframe 30 % more time.
-func (sr *searcher) stableAt(th []float64, x float64) (bool, error) {
-	return sr.L.Stable(sr.fam.ctrl(th, x), 0)
 }
 
 // shrinkSteps are the fractions of the frequency checks' largest gain that
@@ -2169,16 +2170,30 @@ func (sr *searcher) bestGain() float64 {
 	return g
 }
 
+// cmpNoise compares the noise gains n and m: −1 when n is lower by more
+// than 1e-6 (relative), +1 when higher by more, 0 when they tie. Noise
+// gains that close are one figure to a reviewer, and their order would
+// hang on the rounding of the grid's interpolation.
+func cmpNoise(n, m float64) int {
+	switch {
+	case n < m*(1-1e-6):
+		return -1
+	case n > m*(1+1e-6):
+		return 1
+	}
+	return 0
+}
+
 // tieBreak returns, of two finished designs a and b, the one of less
 // noise gain among those within NearBest of top, the best gain found (the
-// tie-break's rule; noise gains within 1e-6 of each other tie, and the
-// larger gain wins a tie, a where equal), else the one of larger gain.
+// tie-break's rule; noise gains tie as cmpNoise has it, and the larger
+// gain wins a tie, a where equal), else the one of larger gain.
 func tieBreak(a, b cand, top float64) cand {
 	floor := top * (1 - NearBest)
 	aIn, bIn := !(a.gain < floor), !(b.gain < floor)
 	switch {
 	case aIn && bIn:
-		if b.noise < a.noise*(1-1e-6) || (!(b.noise > a.noise*(1+1e-6)) && b.gain > a.gain) {
+		if d := cmpNoise(b.noise, a.noise); d < 0 || d == 0 && b.gain > a.gain {
 			return b
 		}
 		return a
@@ -3143,11 +3158,10 @@ func (sr *searcher) undominated(best cand) cand {
 		if !c.ok || c.pt == nil || !(c.noise <= sr.noiseB) {
 			continue
 		}
-		quieter := c.noise < q.noise*(1-1e-6)
 		// Ties are taken against best too, so that a chain of them
 		// cannot drift above its noise.
-		tie := !quieter && c.noise <= q.noise*(1+1e-6) && c.noise <= best.noise*(1+1e-6)
-		if quieter && c.gain >= q.gain || tie && c.gain > q.gain {
+		d := cmpNoise(c.noise, q.noise)
+		if d < 0 && c.gain >= q.gain || d == 0 && cmpNoise(c.noise, best.noise) <= 0 && c.gain > q.gain {
 			q = c
 		}
 	}
