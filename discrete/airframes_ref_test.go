@@ -883,5 +883,33 @@ gain_scale = [0.9, 1.25]
 lag_scale = [0.8, 1.3]
 delay_add = [0.0, 0.0005]
 `},
+		// A lead whose feasible set is a narrow valley running obliquely
+		// to the pole ratio and the gain (pole/zero 1.34 to 1.40 at gains
+		// 1000 to 1100, 5 % wide in the gain) beside a closest design at
+		// (1.27, 931): the search for a small feasible set reaches it only
+		// by scoring each pole by the best gain of its line (found among
+		// random airframes of our own, called infeasible before).
+		{"joint_valley_lead", `
+airframe = "joint_valley_lead"
+description = "demo data: invented robot joint with a damped resonance at 364 rad/s under a lead at a 4 kHz loop; not a real product"
+loop_hz = 4000.0
+
+[axes.joint.plant]
+gain = 242435.739846
+poles = [0.0, -54.218468, [-70.402716, 357.408101]]
+
+[axes.joint.sensor]
+lowpass_hz = 125.28132
+
+[axes.joint.spec]
+settling_time = 0.102348
+overshoot = 0.13227
+min_phase_margin = 37.732093
+min_gain_margin = 8.150169
+
+[axes.joint.control]
+form = "lead"
+lead_zero = -23.982513
+`},
 	}
 }
