@@ -884,11 +884,12 @@ lag_scale = [0.8, 1.3]
 delay_add = [0.0, 0.0005]
 `},
 		// A lead whose feasible set is a narrow valley running obliquely
-		// to the pole ratio and the gain (pole/zero 1.34 to 1.40 at gains
-		// 1000 to 1100, 5 % wide in the gain) beside a closest design at
-		// (1.27, 931): the search for a small feasible set reaches it only
-		// by scoring each pole by the best gain of its line (found among
-		// random airframes of our own, called infeasible before).
+		// to the pole ratio and the lead gain K (by discrete.Assess on a
+		// grid: K 1000–1050 at pole/zero 1.34, 1020–1160 at 1.353, 1080–
+		// 1120 at 1.40) beside a closest design at (1.27, 931): the search
+		// for a small feasible set reaches it by scoring each pole by the
+		// best gain of its line (synth's valley; found among random
+		// airframes of our own, called infeasible before).
 		{"joint_valley_lead", `
 airframe = "joint_valley_lead"
 description = "demo data: invented robot joint with a damped resonance at 364 rad/s under a lead at a 4 kHz loop; not a real product"

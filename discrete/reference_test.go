@@ -215,15 +215,16 @@ func judgeTool(d *discrete.Design) (float64, bool, []string) {
 // (1 for every airframe, or a comma-separated list of names).
 //
 // With LOCUSMITH_REFERENCE_FILES (a comma-separated list of one-axis
-// airframe files) it runs the reference on those files instead and
-// writes NAME.json beside each (NAME: the file's base name), for a
-// campaign on airframes outside the suite; the log compares the tool
-// with each reference.
+// airframe files; relative paths are taken from this package's directory,
+// where go test runs) it runs the reference on those files instead of
+// the suite's (LOCUSMITH_REFERENCE is then ignored) and writes PATH.json
+// beside each PATH.toml, for a campaign on airframes outside the suite;
+// the log gives the tool's gain beside each reference's best.
 func TestReferenceRegenerate(t *testing.T) {
 	sel := os.Getenv("LOCUSMITH_REFERENCE")
 	files := os.Getenv("LOCUSMITH_REFERENCE_FILES")
 	if sel == "" && files == "" {
-		t.Skip("set LOCUSMITH_REFERENCE=1 to regenerate the brute-force reference (minutes)")
+		t.Skip("set LOCUSMITH_REFERENCE=1 to regenerate the brute-force reference (minutes), or LOCUSMITH_REFERENCE_FILES to run it on airframe files")
 	}
 	afs, dir := refAirframes(), refDir
 	if files != "" {
@@ -236,8 +237,10 @@ func TestReferenceRegenerate(t *testing.T) {
 			afs = append(afs, refAirframe{name: strings.TrimSuffix(path, ".toml"), toml: string(data)})
 		}
 	}
-	if err := os.MkdirAll(refDir, 0o755); err != nil {
-		t.Fatal(err)
+	if files == "" {
+		if err := os.MkdirAll(refDir, 0o755); err != nil {
+			t.Fatal(err)
+		}
 	}
 	// One token per core: the airframes run at once, each judging a batch
 	// of candidates at a time, and every Assess holds a token.

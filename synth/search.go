@@ -1337,7 +1337,7 @@ func (sr *searcher) byReach() ([]cand, error) {
 	for i, c := range sr.reachers {
 		_, t, err := sr.settleAll(c.ctrl)
 		if err != nil {
-			return nil, err
+			return nil, fmt.Errorf("settling of a near miss at every plant: %w", err)
 		}
 		ts[i], idx[i] = t, i
 	}
@@ -2720,17 +2720,18 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		// closest ones that are not its neighbours: the violation can
 		// lead into a basin of near misses far from a small feasible set
 		// that a worse shape of the grid lies next to.
-		// Each descent has an equal share of the budget, and the denser
-		// grid below what they leave.
+		// Each descent has an equal share of the budget but lastRescue,
+		// and the denser grid below what they leave.
 		starts := sr.descentStarts(pts, maxDescents)
+		share := (fineBudget - lastRescue) / (len(starts) + 1)
 		for _, st := range starts {
 			if sr.haveOK {
 				break
 			}
 			left := sr.fineLeft
-			sr.fineLeft = fineBudget / (len(starts) + 1)
+			sr.fineLeft = share
 			err := sr.descend(st, step, judge)
-			sr.fineLeft = left - (fineBudget/(len(starts)+1) - sr.fineLeft)
+			sr.fineLeft = left - (share - sr.fineLeft)
 			if err != nil {
 				return best, false, err
 			}
@@ -2743,9 +2744,12 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		if sr.haveClosest && sr.closest.pt != nil {
 			near = append(near, sr.closest)
 		}
-		rs, err := sr.byReach()
-		if err != nil {
-			return best, false, err
+		var rs []cand
+		if !sr.haveOK {
+			var err error
+			if rs, err = sr.byReach(); err != nil {
+				return best, false, err
+			}
 		}
 		for _, c := range rs {
 			if len(near) < 3 && c.pt != nil && !slices.ContainsFunc(near, func(q cand) bool { return q.pt == c.pt && q.x == c.x }) {
@@ -2763,7 +2767,7 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 			if sr.haveOK {
 				break
 			}
-			if err := sr.rescue(c, step, judge, fineBudget/4/len(near)); err != nil {
+			if err := sr.rescue(c, step, judge, fineBudget/4/len(near), lastRescue); err != nil {
 				return best, false, err
 			}
 		}
@@ -2773,9 +2777,9 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		if !sr.haveOK {
 			// Then a grid of three times the density, each shape judged on
 			// the fine line of x.
-			// It leaves a reserve for a last rescue from the candidate
-			// that settles fastest at every plant, when the denser grid
-			// finds a new one: the feasible set often lies beside it.
+			// It stops at lastRescue left (give or take a line), for the
+			// walk along a valley from the candidate that settles fastest
+			// at every plant (valley).
 			for _, u := range sr.denseGrid(3) {
 				if sr.fineLeft <= lastRescue {
 					break
@@ -2868,8 +2872,10 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 	return best, true, nil
 }
 
-// lastRescue is the budget the denser grid of the search for a small
-// feasible set leaves for a last rescue (an eighth of fineBudget).
+// lastRescue is the budget of the search for a small feasible set kept
+// for its last stage, the walk along a valley (an eighth of fineBudget):
+// the descents share the rest, and the rescues and the denser grid stop
+// where it begins. The walk also takes what they leave above it.
 const lastRescue = fineBudget / 8
 
 // maxDescents is how many shapes of the grid the search for a small
@@ -2943,15 +2949,15 @@ func (sr *searcher) descend(cl cand, step []float64, judge judgeFunc) error {
 
 // rescue searches for a small feasible set from a near miss cl (the
 // closest design seen, or a fast-settling one), with at most budget
-// judgments: local grids in the shape and the gain together (polish's,
+// judgments and leaving at least keep of the search's: local grids in the shape and the gain together (polish's,
 // but down the violation, to polishStep), then a fine scan of the near
 // miss's own line of x. The descents move the shape alone and search
 // each shape's line of x from the top by steps; a feasible set a per
 // cent wide in both (random airframes of our own had such sets, found by
 // the brute-force reference, with the closest design a fraction of a per
 // cent from them) lies between their steps.
-func (sr *searcher) rescue(cl cand, step []float64, judge judgeFunc, budget int) error {
-	stop := max(sr.fineLeft-budget, 0)
+func (sr *searcher) rescue(cl cand, step []float64, judge judgeFunc, budget, keep int) error {
+	stop := max(sr.fineLeft-budget, keep)
 	done := func() bool { return sr.haveOK || sr.fineLeft <= stop }
 	lower := func(c, cur cand) bool { return c.viol < cur.viol }
 	if _, err := sr.localGrids(cl, step, judge, lower, nil, done, math.MaxInt); err != nil || sr.haveOK {
@@ -2978,13 +2984,16 @@ func (sr *searcher) rescue(cl cand, step []float64, judge judgeFunc, budget int)
 // and the gain, with the rest of the budget: each shape is scored by the
 // least violation over a scan of its line of x around the gain of the
 // current one (±30 % by 2 %, then ±2 % by 0.4 % around the least), and
-// the shape moves a step along one coordinate while that score falls,
-// the step halved when no move does (down to polishStep). A local grid
-// steps along the diagonal of its three points per parameter and misses
-// such a valley: on a lead of a random airframe of our own the feasible
-// set ran from (pole/zero 1.34, gain 1000) to (1.40, 1100), 5 % wide in
-// the gain, beside a closest design at (1.27, 931), and the local grids
-// and the lines of x by 7 % steps of the descents did not reach it.
+// the shape moves a step along one coordinate while that score falls
+// (not straight back), the step halved when no move does (down to
+// polishStep); a lead's pole stays left of its zero. A local grid steps
+// along the diagonals of its three points per parameter and misses such
+// a valley: on a lead of a random airframe of our own (the reference's
+// joint_valley_lead; a brute-force scan by discrete.Assess) the set
+// passes at pole/zero 1.34 for lead gains K 1000–1050, at 1.353 for
+// 1020–1160 and at 1.40 for 1080–1120, beside a closest design at
+// (1.27, 931), and neither the local grids nor the descents' lines of
+// x by 7 % steps reached it.
 func (sr *searcher) valley(cl cand, step []float64, judge judgeFunc) error {
 	done := func() bool { return sr.haveOK || sr.fineLeft <= 0 }
 	score := func(u []float64, x0 float64) (cand, error) {
@@ -3020,33 +3029,37 @@ func (sr *searcher) valley(cl cand, step []float64, judge judgeFunc) error {
 	for i := range d {
 		d[i] = step[i] / 4
 	}
+	// The move just made, not undone by the next (the shape it left
+	// scored higher): coordinate back, sign back.
+	back, backSg := -1, 0.0
 	for !done() {
 		moved := false
 		for i := range d {
 			for _, sg := range []float64{1, -1} {
-				if moved || done() {
+				if moved || done() || (i == back && sg == backSg) {
 					continue
 				}
 				u := slices.Clone(cur.pt.u)
 				u[i] += float64(sg * d[i])
+				if len(sr.fam.floor) > i && u[i] < sr.fam.floor[i] {
+					// A lead's pole stays left of its zero.
+					continue
+				}
 				c, err := score(u, cur.x)
 				if err != nil {
 					return err
 				}
 				if c.viol < cur.viol {
 					cur, moved = c, true
+					back, backSg = i, -sg
 				}
 			}
 		}
 		if moved {
 			continue
 		}
-		small := true
-		for i := range d {
-			d[i] /= 2
-			small = small && d[i] < polishStep
-		}
-		if small {
+		back = -1
+		if halve(d, polishStep) {
 			return nil
 		}
 	}
