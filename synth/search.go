@@ -299,12 +299,15 @@ type cand struct {
 
 // searcher holds the data of one search.
 type searcher struct {
-	p      airframe.Axis
-	L      Loops
-	fam    family
-	grid   []float64
-	open   [][]complex128
-	ncorn  int
+	p     airframe.Axis
+	L     Loops
+	fam   family
+	grid  []float64
+	open  [][]complex128
+	ncorn int
+	// small is set when a search found its first passing design only in
+	// the search for a small feasible set (maximize).
+	small  bool
 	bs     []float64
 	noiseB float64 // noise bound in force (+Inf: none)
 	a, b   []complex128
@@ -2161,7 +2164,38 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		res.NoiseBound = sr.ratioB * best.gain
 	}
 	res.Alternates = sr.alternates(best, res.NoiseBound)
+	if !explicit && p.Ctrl.Form.HasIntegral() && sr.small {
+		return pinnedToo(p, L, g0, w0, res)
+	}
 	return res, nil
+}
+
+// pinnedToo returns res, the default path's design of a pi or pid whose
+// first design came from the search for a small feasible set, or the
+// design the search finds under res's noise bound given as the file's
+// max_noise_gain where that has a load-rejection gain more than NearBest
+// above res's. In a small feasible set the default path's last stages
+// start from the one design the search found there, and the search
+// under a bound of the file, which starts again from its own first
+// design and from the default's (freeDesign), reaches further: on two
+// pi axes of random airframes of our own it designed Ki 4.5 % and 5.8 %
+// above the default path's under the same bound. Both designs meet the
+// same noise bound, so the result stands for the default bound. Cost:
+// this second search, only on such axes.
+func pinnedToo(p airframe.Axis, L Loops, g0, w0 float64, res Result) (Result, error) {
+	q := p
+	q.Spec.MaxNoiseGain = res.NoiseBound
+	r, err := Search(q, L, g0, w0)
+	if err != nil {
+		return res, fmt.Errorf("search under the default noise bound %g as the file's: %w", res.NoiseBound, err)
+	}
+	if !r.Met || !(r.Ctrl.Ki > res.Ctrl.Ki*(1+NearBest)) {
+		res.Evaluations += r.Evaluations
+		return res, nil
+	}
+	r.Evaluations += res.Evaluations
+	r.NoiseBound = res.NoiseBound
+	return r, nil
 }
 
 // finish is the last stages of a design c that passes: the refinement
@@ -2815,6 +2849,7 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 			return best, false, nil
 		}
 		best, have = sr.bestOK, true
+		sr.small = true
 	}
 	move := func(u []float64) (bool, error) {
 		pt := sr.screen(u)
