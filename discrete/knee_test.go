@@ -280,7 +280,8 @@ output_limit = [-0.5, 0.5]
 //   - narrow_pi_roll (rc100), a pi whose first design comes from the
 //     search for a small feasible set, designed Ki 0.06637 by default and
 //     0.06950 pinned (95.5 %) before such a design was searched for under
-//     the default bound as the file's too (synth's pinnedToo).
+//     the default bound as the file's too (synth's pinnedToo; the pinned
+//     design here is that search's, so the case guards that it runs).
 func TestDefaultAsGoodAsPinned(t *testing.T) {
 	if testing.Short() {
 		t.Skip("designs each airframe twice; skipped with -short")
