@@ -259,7 +259,7 @@ func richerReach(p airframe.Axis, loop airframe.Loop) string {
 		return ""
 	}
 	g0 := 1 / lti.Abs(q.OpenLoop(complex(0, t.OmegaN)))
-	res, err := synth.SearchVerdict(q.Continuous(), L, g0, t.OmegaN)
+	res, err := synth.Search(q.Continuous(), L, g0, t.OmegaN)
 	switch {
 	case err != nil:
 		return ""

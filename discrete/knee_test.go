@@ -269,26 +269,18 @@ output_limit = [-0.5, 0.5]
 // given in the file (max_noise_gain = the reported default) bound the
 // same set of designs, whose largest Ki is one number (a fact of
 // optimization). Both searches are heuristics that take different paths
-// through the grid, so this is a guard on airframes where they parted:
-// the default's design is held within the tie-break toward less noise
-// (NearBest) of the design under the pinned bound. Both are random
-// campaign airframes of our own, renamed:
-//   - twin_pid_roll (camp90_17's roll) designed Ki 0.1887 by default and
-//     0.1960 pinned (96.3 %) before the default's last stages ran from
-//     the largest Ki under the knee's bound as well as from the knee's
-//     design (synth's widen);
-//   - narrow_pi_roll (rc100), a pi whose first design comes from the
-//     search for a small feasible set, designed Ki 0.06637 by default and
-//     0.06950 pinned (95.5 %) before such a design was searched for under
-//     the default bound as the file's too (synth's pinnedToo; the pinned
-//     design here is that search's, so the case guards that it runs).
+// through the grid, so this is a guard on one airframe where they
+// parted: the default's design is held within the tie-break toward less
+// noise (NearBest) of the design under the pinned bound. A random campaign airframe of our own (camp90_17's roll,
+// renamed) designed Ki 0.1887 by default and 0.1960 pinned (96.3 %)
+// before the default's last stages ran from the largest Ki under the
+// knee's bound as well as from the knee's design (synth's widen).
 func TestDefaultAsGoodAsPinned(t *testing.T) {
 	if testing.Short() {
-		t.Skip("designs each airframe twice; skipped with -short")
+		t.Skip("designs the airframe twice; skipped with -short")
 	}
 	t.Parallel()
-	for _, tc := range []struct{ name, src string }{
-		{"twin_pid_roll", `
+	const src = `
 airframe = "twin_pid_roll"
 description = "demo data: invented multirotor roll at a 2 kHz loop in float32; not a real vehicle"
 loop_hz = 2000.0
@@ -317,52 +309,24 @@ output_limit = [-0.5, 0.5]
 gain_scale = [0.8, 1.0]
 lag_scale = [0.8, 1.0]
 delay_add = [0.0, 0.001]
-`},
-		{"narrow_pi_roll", `
-airframe = "narrow_pi_roll"
-description = "demo data: invented multirotor roll under a pi behind a low gyro lowpass; not a real vehicle"
-loop_hz = 2000.0
-
-[axes.roll.plant]
-effectiveness = 611.03671
-motor_tau = 0.020582
-delay = 0.001399
-
-[axes.roll.sensor]
-lowpass_hz = 32.465949
-
-[axes.roll.spec]
-settling_time = 0.160147
-overshoot = 0.160507
-min_phase_margin = 40.268327
-min_gain_margin = 7.635264
-
-[axes.roll.control]
-form = "pi"
-output_limit = [-0.3, 0.3]
-`},
-	} {
-		t.Run(tc.name, func(t *testing.T) {
-			t.Parallel()
-			f, err := airframe.Parse(tc.name+".toml", []byte(tc.src))
-			if err != nil {
-				t.Fatal(err)
-			}
-			p := f.Axes[0]
-			d, err := discrete.DesignAxis(p, f.Loop, f.Numeric)
-			if err != nil || !d.OK() {
-				t.Fatalf("the default bound's design: ok %v, %v", d != nil && d.OK(), err)
-			}
-			q := p
-			q.Spec.MaxNoiseGain = d.Cont.Search.NoiseBound
-			dq, err := discrete.DesignAxis(q, f.Loop, f.Numeric)
-			if err != nil || !dq.OK() {
-				t.Fatalf("under the pinned bound %.10g: ok %v, %v", q.Spec.MaxNoiseGain, dq != nil && dq.OK(), err)
-			}
-			if want := dq.Cont.Ctrl.Ki * (1 - synth.NearBest) * (1 - 1e-9); d.Cont.Ctrl.Ki < want {
-				t.Errorf("default Ki %.6g, below the pinned bound's %.6g by more than the tie-break", d.Cont.Ctrl.Ki, dq.Cont.Ctrl.Ki)
-			}
-			t.Logf("default Ki %.6g (bound %.10g), pinned %.6g", d.Cont.Ctrl.Ki, d.Cont.Search.NoiseBound, dq.Cont.Ctrl.Ki)
-		})
+`
+	f, err := airframe.Parse("twin_pid_roll.toml", []byte(src))
+	if err != nil {
+		t.Fatal(err)
 	}
+	p := f.Axes[0]
+	d, err := discrete.DesignAxis(p, f.Loop, f.Numeric)
+	if err != nil || !d.OK() {
+		t.Fatalf("the default bound's design: ok %v, %v", d != nil && d.OK(), err)
+	}
+	q := p
+	q.Spec.MaxNoiseGain = d.Cont.Search.NoiseBound
+	dq, err := discrete.DesignAxis(q, f.Loop, f.Numeric)
+	if err != nil || !dq.OK() {
+		t.Fatalf("under the pinned bound %.10g: ok %v, %v", q.Spec.MaxNoiseGain, dq != nil && dq.OK(), err)
+	}
+	if want := dq.Cont.Ctrl.Ki * (1 - synth.NearBest) * (1 - 1e-9); d.Cont.Ctrl.Ki < want {
+		t.Errorf("default Ki %.6g, below the pinned bound's %.6g by more than the tie-break", d.Cont.Ctrl.Ki, dq.Cont.Ctrl.Ki)
+	}
+	t.Logf("default Ki %.6g (bound %.10g), pinned %.6g", d.Cont.Ctrl.Ki, d.Cont.Search.NoiseBound, dq.Cont.Ctrl.Ki)
 }

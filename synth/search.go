@@ -299,16 +299,12 @@ type cand struct {
 
 // searcher holds the data of one search.
 type searcher struct {
-	p     airframe.Axis
-	L     Loops
-	fam   family
-	grid  []float64
-	open  [][]complex128
-	ncorn int
-	// small is set when a search without a seed (maximize) found its
-	// first passing design only in the search for a small feasible set;
-	// Search reads it for the default path's first design of a pi or pid.
-	small  bool
+	p      airframe.Axis
+	L      Loops
+	fam    family
+	grid   []float64
+	open   [][]complex128
+	ncorn  int
 	bs     []float64
 	noiseB float64 // noise bound in force (+Inf: none)
 	a, b   []complex128
@@ -2013,18 +2009,6 @@ type Result struct {
 // file). g0 and w0 set the scale of the search: a controller gain of g0
 // puts the crossover near w0.
 func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
-	return search(p, L, g0, w0, true)
-}
-
-// SearchVerdict is Search for its verdict alone (Met, Fails, Reach): it
-// skips the second search that can only raise the gain of a design met
-// (pinnedToo), for a caller that asks whether a form can meet the spec.
-func SearchVerdict(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
-	return search(p, L, g0, w0, false)
-}
-
-// search is Search; with raise false it skips pinnedToo.
-func search(p airframe.Axis, L Loops, g0, w0 float64, raise bool) (Result, error) {
 	if !(g0 > 0) || math.IsInf(g0, 0) || !(w0 > 0) || math.IsInf(w0, 0) {
 		return Result{}, fmt.Errorf("search scale: gain %g at %g rad/s is not usable", g0, w0)
 	}
@@ -2177,46 +2161,7 @@ func search(p airframe.Axis, L Loops, g0, w0 float64, raise bool) (Result, error
 		res.NoiseBound = sr.ratioB * best.gain
 	}
 	res.Alternates = sr.alternates(best, res.NoiseBound)
-	if raise && !explicit && p.Ctrl.Form.HasIntegral() && sr.small {
-		return pinnedToo(p, L, g0, w0, res)
-	}
 	return res, nil
-}
-
-// pinnedToo returns res, the default path's design of a pi or pid whose
-// first design came from the search for a small feasible set, or the
-// design the search finds under res's noise bound given as the file's
-// max_noise_gain where res's Ki is below that design's by more than the
-// tie-break's band (NearBest). In a small feasible set the default path's
-// last stages start from the one design the search found there, and the
-// search under a bound of the file, which starts again from its own
-// first design and from the default's (freeDesign), reaches further: on
-// two pi axes of random airframes of our own it designed Ki 4.7 % and
-// 2.4 % above the default path's under the same bound. Both designs meet
-// the same noise bound, so the result stands for the default bound.
-// Cost: the search for a small feasible set runs up to three more times
-// (the pinned search's own first design, its second search when the
-// first finds none under the bound, and freeDesign's), only on such
-// axes.
-func pinnedToo(p airframe.Axis, L Loops, g0, w0 float64, res Result) (Result, error) {
-	if nb := res.NoiseBound; !(nb > 0) || math.IsInf(nb, 1) {
-		// No bound to give as the file's (and a search under none would
-		// take the default path, and this, again).
-		return res, nil
-	}
-	q := p
-	q.Spec.MaxNoiseGain = res.NoiseBound
-	r, err := Search(q, L, g0, w0)
-	if err != nil {
-		return res, fmt.Errorf("search under the default noise bound %g as the file's: %w", res.NoiseBound, err)
-	}
-	if !r.Met || !(res.Ctrl.Ki < r.Ctrl.Ki*(1-NearBest)) {
-		res.Evaluations += r.Evaluations
-		return res, nil
-	}
-	r.Evaluations += res.Evaluations
-	r.NoiseBound = res.NoiseBound
-	return r, nil
 }
 
 // finish is the last stages of a design c that passes: the refinement
@@ -2870,7 +2815,6 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 			return best, false, nil
 		}
 		best, have = sr.bestOK, true
-		sr.small = true
 	}
 	move := func(u []float64) (bool, error) {
 		pt := sr.screen(u)
