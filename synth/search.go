@@ -43,8 +43,9 @@ import (
 // without entering the Ms circle, every x of the interval has, at each
 // plant, the stability of any one of them: that of x = 0, or, for an
 // interval above 0, of its start, tested exactly at the nominal plant
-// (the other plants are tested where a design passes). The margins and the noise gain then lower x by bisection, and the time
-// checks by steps. So one evaluation answers, for a whole line of
+// (the other plants are tested where a design passes). The margins and
+// the noise gain then lower x by bisection, and the time checks by
+// steps. So one evaluation answers, for a whole line of
 // controllers, how far it can go; the search needs a grid over the shape
 // only (two dimensions at most): a coarse structured grid over several
 // decades around the plant's own gain scale (for a pd or a lead, with the
@@ -1033,10 +1034,9 @@ func (sr *searcher) screen(u []float64) *point {
 		// which the search would judge in vain. So lo itself (admissible,
 		// loExact's bound lying inside Ms) is tested exactly at the
 		// nominal plant; the others are tested by judgeAt where a design
-		// passes. A test that cannot be made
-		// (an error) shuts the shape too: the screen has no error to
-		// return, and a shape whose stability is unknown cannot give a
-		// design.
+		// passes. A test that cannot be made (an error) shuts the shape
+		// too: the screen has no error to return, and a shape whose
+		// stability is unknown cannot give a design.
 		st, err := sr.L.Stable(sr.fam.ctrl(pt.th, lo), 0)
 		if err != nil || !st {
 			pt.why, pt.fviol = "stable", 1
@@ -1719,16 +1719,11 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 	if ok {
 		if s.DisturbanceRecovery > 0 {
 			for i := 0; i < sr.ncorn; i++ {
-				r, err := sr.L.Disturb(c, i, 4*math.Max(s.DisturbanceRecovery, s.SettlingTime))
+				v, err := sr.recoveryMiss(c, i)
 				if err != nil {
 					return b, viol, fails, settle, err
 				}
-				d := Disturbance(r, 1)
-				if !(d.Recovery <= s.DisturbanceRecovery) {
-					v := 1.0
-					if !math.IsInf(d.Recovery, 1) {
-						v = d.Recovery/s.DisturbanceRecovery - 1
-					}
+				if v != 0 {
 					return b, v, []string{"disturbance_recovery"}, settle, nil
 				}
 			}
@@ -1846,15 +1841,11 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 		// recovers; the search for a small feasible set went down to the
 		// former).
 		for _, i := range plants {
-			r, err := sr.L.Disturb(c, i, 4*math.Max(s.DisturbanceRecovery, s.SettlingTime))
+			v, err := sr.recoveryMiss(c, i)
 			if err != nil {
 				return b, viol, fails, settle, err
 			}
-			if d := Disturbance(r, 1); !(d.Recovery <= s.DisturbanceRecovery) {
-				v := 1.0
-				if !math.IsInf(d.Recovery, 1) {
-					v = d.Recovery/s.DisturbanceRecovery - 1
-				}
+			if v != 0 {
 				viol += v
 				fails = append(fails, "disturbance_recovery")
 				break
@@ -1862,6 +1853,26 @@ func (sr *searcher) timeChecks(c Controller) (b, viol float64, fails []string, s
 		}
 	}
 	return b, viol, fails, settle, nil
+}
+
+// recoveryMiss returns how far controller c misses disturbance_recovery
+// at plant i: 0 when the load step's deviation recovers in time, its
+// relative excess when later, 1 when never (NaN, a miss, where the
+// recovery time is not a number).
+func (sr *searcher) recoveryMiss(c Controller, i int) (float64, error) {
+	s := sr.p.Spec
+	r, err := sr.L.Disturb(c, i, 4*math.Max(s.DisturbanceRecovery, s.SettlingTime))
+	if err != nil {
+		return 0, err
+	}
+	d := Disturbance(r, 1)
+	switch {
+	case d.Recovery <= s.DisturbanceRecovery:
+		return 0, nil
+	case math.IsInf(d.Recovery, 1):
+		return 1, nil
+	}
+	return d.Recovery/s.DisturbanceRecovery - 1, nil
 }
 
 // timeViolation scores how far a step misses the time spec: the sum of
@@ -2745,8 +2756,8 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 			near = append(near, sr.closest)
 		}
 		var rs []cand
+		var err error
 		if !sr.haveOK {
-			var err error
 			if rs, err = sr.byReach(); err != nil {
 				return best, false, err
 			}
@@ -2756,23 +2767,20 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 				near = append(near, c)
 			}
 		}
-		// The near misses it judges on the way are not kept as the
-		// closest design or among the fastest-settling ones: a failing
-		// candidate's settling time is judged at two plants only, and
-		// the local variants of a near miss, fast there, crowded out the
-		// candidates an infeasible verdict reports (one reported 0.85 s
-		// where 0.25 s had been found).
-		closest, reachers := sr.closest, slices.Clone(sr.reachers)
-		for _, c := range near {
-			if sr.haveOK {
-				break
+		// The near misses it judges on the way are not kept (aside).
+		err = sr.aside(func() error {
+			for _, c := range near {
+				if sr.haveOK {
+					break
+				}
+				if err := sr.rescue(c, step, judge, fineBudget/4/len(near)); err != nil {
+					return err
+				}
 			}
-			if err := sr.rescue(c, step, judge, fineBudget/4/len(near), lastRescue); err != nil {
-				return best, false, err
-			}
-		}
-		if !sr.haveOK {
-			sr.closest, sr.reachers = closest, reachers
+			return nil
+		})
+		if err != nil {
+			return best, false, err
 		}
 		if !sr.haveOK {
 			// Then a grid of three times the density, each shape judged on
@@ -2802,12 +2810,8 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 				return best, false, err
 			}
 			if len(rs) > 0 && rs[0].pt != nil {
-				closest, reachers := sr.closest, slices.Clone(sr.reachers)
-				if err := sr.valley(rs[0], step, judge); err != nil {
+				if err := sr.aside(func() error { return sr.valley(rs[0], step, judge) }); err != nil {
 					return best, false, err
-				}
-				if !sr.haveOK {
-					sr.closest, sr.reachers = closest, reachers
 				}
 			}
 		}
@@ -2870,6 +2874,21 @@ func (sr *searcher) maximize(grid [][]float64, step []float64, judge judgeFunc, 
 		}
 	}
 	return best, true, nil
+}
+
+// aside runs f, a search for a small feasible set from near misses, and
+// unless it finds a passing design restores the closest design and the
+// fastest-settling ones to what they were: a failing candidate's settling
+// time is judged at two plants only, and the local variants of a near
+// miss, fast there, would crowd out the candidates an infeasible verdict
+// reports.
+func (sr *searcher) aside(f func() error) error {
+	closest, reachers := sr.closest, slices.Clone(sr.reachers)
+	err := f()
+	if !sr.haveOK {
+		sr.closest, sr.reachers = closest, reachers
+	}
+	return err
 }
 
 // lastRescue is the budget of the search for a small feasible set kept
@@ -2949,15 +2968,16 @@ func (sr *searcher) descend(cl cand, step []float64, judge judgeFunc) error {
 
 // rescue searches for a small feasible set from a near miss cl (the
 // closest design seen, or a fast-settling one), with at most budget
-// judgments and leaving at least keep of the search's: local grids in the shape and the gain together (polish's,
-// but down the violation, to polishStep), then a fine scan of the near
+// judgments and leaving at least lastRescue of the search's: local grids
+// in the shape and the gain together (polish's, but down the violation,
+// to polishStep), then a fine scan of the near
 // miss's own line of x. The descents move the shape alone and search
 // each shape's line of x from the top by steps; a feasible set a per
 // cent wide in both (random airframes of our own had such sets, found by
 // the brute-force reference, with the closest design a fraction of a per
 // cent from them) lies between their steps.
-func (sr *searcher) rescue(cl cand, step []float64, judge judgeFunc, budget, keep int) error {
-	stop := max(sr.fineLeft-budget, keep)
+func (sr *searcher) rescue(cl cand, step []float64, judge judgeFunc, budget int) error {
+	stop := max(sr.fineLeft-budget, lastRescue)
 	done := func() bool { return sr.haveOK || sr.fineLeft <= stop }
 	lower := func(c, cur cand) bool { return c.viol < cur.viol }
 	if _, err := sr.localGrids(cl, step, judge, lower, nil, done, math.MaxInt); err != nil || sr.haveOK {
