@@ -145,6 +145,13 @@ func designAxisOnly(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (
 	if c, ok := d.saturatedCheck(); ok {
 		d.Checks = append(d.Checks, c)
 	}
+	if cd.Refined && !cd.Met {
+		// The note names the checks the final verification finds failed.
+		search := synth.ClosestNote(p.Ctrl.Form, cd.Search.Fails, cd.Search.Reach)
+		if i := slices.Index(d.Warnings, search); i >= 0 && len(d.FailedChecks()) > 0 {
+			d.Warnings[i] = synth.ClosestNote(p.Ctrl.Form, d.FailedChecks(), cd.Search.Reach)
+		}
+	}
 	d.integratorReach()
 	// Numeric realization (numeric.go): its checks and warnings join the
 	// design's; bad numeric settings come back as an *InputError.

@@ -2,11 +2,13 @@ package discrete
 
 import (
 	"regexp"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
 
 	"locusmith/airframe"
+	"locusmith/synth"
 )
 
 // TestReachVerified: when no design of the form passes, the settling time
@@ -66,6 +68,7 @@ output_limit = [-0.5, 0.5]
 			if reach == "" {
 				t.Fatalf("no reach figure: %s", strings.Join(d.Warnings, "; "))
 			}
+			closestNote(t, d)
 			for _, ch := range d.Checks {
 				if ch.Name != "settling_time" {
 					continue
@@ -77,6 +80,115 @@ output_limit = [-0.5, 0.5]
 				return
 			}
 			t.Fatal("no settling_time check")
+		})
+	}
+}
+
+// closestNote checks that the note of a design with no passing controller
+// names the checks its final verification fails, each once, in check
+// order (the numeric realization's checks, which the search does not
+// judge, aside).
+func closestNote(t *testing.T, d *Design) {
+	t.Helper()
+	miss := regexp.MustCompile(`the closest one is reported \(it misses ([a-z_, ]+)\)`)
+	var named []string
+	for _, w := range d.Warnings {
+		if m := miss.FindStringSubmatch(w); m != nil {
+			named = strings.Split(m[1], ", ")
+		}
+	}
+	var failed []string
+	for _, ch := range d.Checks {
+		if !ch.OK && !slices.Contains(failed, ch.Name) && !slices.ContainsFunc(d.Num.Checks, func(q synth.Check) bool { return q.Name == ch.Name }) {
+			failed = append(failed, ch.Name)
+		}
+	}
+	if len(failed) == 0 || !slices.Equal(named, failed) {
+		t.Errorf("the note names %q; the verification fails %q", named, failed)
+	}
+}
+
+// TestClosestNoteNamesFinalChecks: the checks the note of an infeasible
+// spec names are those the final verification fails, not the search's
+// verdict: a pd whose search named the settling time too, which the final
+// verification passes (it fails only the steady-state error), and a pi on
+// a joint
+// whose closest design overshoots after the search's records end (the
+// search named settling_time and disturbance_recovery, the verification
+// fails the overshoot too).
+func TestClosestNoteNamesFinalChecks(t *testing.T) {
+	for _, c := range []struct{ name, src string }{
+		{"pd_steady_error", `airframe = "note_pd"
+description = "demo data: an invented random two-pole axis for a campaign; not a real vehicle"
+loop_hz = 2000.0
+
+[axes.a.plant]
+gain = 3565.054271
+poles = [-5.561342, -57.728997]
+delay = 0.001189
+
+[axes.a.sensor]
+lowpass_hz = 50.635834
+
+[axes.a.spec]
+settling_time = 0.194537
+overshoot = 0.171938
+min_phase_margin = 54.855597
+min_gain_margin = 7.842373
+
+[axes.a.control]
+form = "pd"
+output_limit = [-1.0, 1.0]
+
+[[axes.a.filter]]
+kind = "lowpass"
+hz = 17.658973
+order = 1
+`},
+		{"pi_late_overshoot", `airframe = "note_pi"
+description = "demo data: an invented random joint for a campaign; not a real vehicle"
+loop_hz = 250.0
+
+[axes.a.plant]
+gain = 451923.254172
+poles = [0.0, -10.812048, [-27.893831, 276.034846]]
+
+[axes.a.sensor]
+lowpass_hz = 100.0
+
+[axes.a.spec]
+settling_time = 0.09954
+overshoot = 0.062835
+min_phase_margin = 51.159351
+min_gain_margin = 5.980017
+disturbance_recovery = 0.291984
+
+[axes.a.control]
+form = "pi"
+output_limit = [-0.3, 0.3]
+
+[[axes.a.filter]]
+kind = "lowpass"
+hz = 65.49353
+order = 2
+
+[axes.a.envelope]
+gain_scale = [1.0, 1.0]
+`},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			f, err := airframe.Parse(c.name+".toml", []byte(c.src))
+			if err != nil {
+				t.Fatal(err)
+			}
+			d, err := DesignAxis(f.Axes[0], f.Loop, f.Numeric)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if d.Cont.Met {
+				t.Fatal("the search met the spec: the case no longer tests an infeasible one")
+			}
+			closestNote(t, d)
 		})
 	}
 }

@@ -110,11 +110,7 @@ func DesignAxis(p airframe.Axis, L Loops) (*Design, error) {
 		d.Textbook = &tb
 	}
 	if !res.Met {
-		msg := fmt.Sprintf("no %s design passes every check over the envelope; the closest one is reported (it misses %s)", p.Ctrl.Form, strings.Join(res.Fails, ", "))
-		if !math.IsNaN(res.Reach) {
-			msg += fmt.Sprintf("; with every other check met, %s reaches settling %.4g s", p.Ctrl.Form, res.Reach)
-		}
-		d.Warnings = append(d.Warnings, msg)
+		d.Warnings = append(d.Warnings, ClosestNote(p.Ctrl.Form, res.Fails, res.Reach))
 	}
 	d.finish()
 	return d, nil
@@ -245,4 +241,18 @@ func reach(p airframe.Axis, zeta float64) string {
 	}
 	ts := -lti.Log(p.Spec.Band*math.Sqrt(1-float64(zeta*zeta))) / best
 	return fmt.Sprintf("at this overshoot the form reaches about %.4g s settling (σ = %.4g rad/s)", ts, best)
+}
+
+// ClosestNote is the warning of an axis with no passing design: the
+// closest design is reported, with the checks it misses and, where known
+// (reach not NaN), the settling time the form reaches with every other
+// check met. The sampled-loop design states it again with the checks its
+// final verification finds failed, which can differ from the search's
+// (whose records are shorter).
+func ClosestNote(f airframe.Form, fails []string, reach float64) string {
+	msg := fmt.Sprintf("no %s design passes every check over the envelope; the closest one is reported (it misses %s)", f, strings.Join(fails, ", "))
+	if !math.IsNaN(reach) {
+		msg += fmt.Sprintf("; with every other check met, %s reaches settling %.4g s", f, reach)
+	}
+	return msg
 }
