@@ -14,10 +14,11 @@ import (
 	"locusmith/emit"
 )
 
-// strictC are the host compiler flags every generated C file must pass
-// (the list): ISO C99, every usual warning an error.
+// strictC are the host compiler flags every generated C file must pass:
+// ISO C99, every usual warning an error, and -Wfloat-equal, which
+// firmware built to strict coding rules often adds.
 var strictC = []string{"-std=c99", "-Wall", "-Wextra", "-Wpedantic", "-Wconversion", "-Wsign-conversion",
-	"-Wdouble-promotion", "-Wshadow", "-Werror"}
+	"-Wdouble-promotion", "-Wshadow", "-Wfloat-equal", "-Werror"}
 
 // Cortex-M flags: M4F with its single-precision FPU, and M0 without FPU.
 var (

@@ -300,7 +300,7 @@ void twin_backcalc_applied(twin_pid *c, float a);
 
 float twin_backcalc_step(twin_pid *c, float r, float y)
 {
-	if (!(r - r == 0.0f && y - y == 0.0f)) {
+	if (!(r - r + (y - y) >= 0.0f)) {
 		if (c->bad != UINT32_MAX) {
 			c->bad++;
 		}
@@ -320,7 +320,7 @@ float twin_backcalc_step(twin_pid *c, float r, float y)
 
 void twin_backcalc_applied(twin_pid *c, float a)
 {
-	if (a - a == 0.0f) {
+	if (a - a >= 0.0f) {
 		const float i = c->i + KT * (a - c->u);
 		c->i = i < -IL ? -IL : (i > IL ? IL : i);
 		c->u = a;
@@ -349,7 +349,7 @@ float twin_filt_step(twin_pidf *c, float r, float y);
 
 float twin_filt_step(twin_pidf *c, float r, float y)
 {
-	if (!(r - r == 0.0f && y - y == 0.0f)) {
+	if (!(r - r + (y - y) >= 0.0f)) {
 		if (c->bad != UINT32_MAX) {
 			c->bad++;
 		}
@@ -405,7 +405,7 @@ void twin_clamp_applied(twin_pide *c, float a);
 
 float twin_clamp_step(twin_pide *c, float r, float y)
 {
-	if (!(r - r == 0.0f && y - y == 0.0f)) {
+	if (!(r - r + (y - y) >= 0.0f)) {
 		if (c->bad != UINT32_MAX) {
 			c->bad++;
 		}
@@ -434,7 +434,7 @@ float twin_clamp_step(twin_pide *c, float r, float y)
 
 void twin_clamp_applied(twin_pide *c, float a)
 {
-	if (a - a == 0.0f) {
+	if (a - a >= 0.0f) {
 		if ((a < c->u && c->di > 0.0f) || (a > c->u && c->di < 0.0f)) {
 			const float i = c->i - c->di;
 			c->i = i < -IL ? -IL : (i > IL ? IL : i);

@@ -8,7 +8,7 @@
 
 #include "compliant_rate.h"
 
-#if !defined(COMPLIANT_RATE_STAMP) || COMPLIANT_RATE_STAMP != 0x977365989232da31
+#if !defined(COMPLIANT_RATE_STAMP) || COMPLIANT_RATE_STAMP != 0xd4e397e0c771a70b
 #error "compliant_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 
@@ -49,8 +49,10 @@ static float compliant_clamp(float x, float lo, float hi)
 void compliant_pitch_reset(compliant_pitch_state *s, float output, float measured)
 {
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -70,7 +72,7 @@ void compliant_pitch_reset(compliant_pitch_state *s, float output, float measure
 
 float compliant_pitch_step(compliant_pitch_state *s, float setpoint, float measured)
 {
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -113,7 +115,7 @@ float compliant_pitch_step(compliant_pitch_state *s, float setpoint, float measu
 
 void compliant_pitch_applied(compliant_pitch_state *s, float applied)
 {
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;

@@ -58,7 +58,7 @@
 // compliant_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define COMPLIANT_RATE_STAMP 0x977365989232da31
+#define COMPLIANT_RATE_STAMP 0xd4e397e0c771a70b
 
 #ifdef __cplusplus
 extern "C" {

@@ -21,7 +21,7 @@
 
 #include "compliant_rate.h"
 
-#if !defined(COMPLIANT_RATE_STAMP) || COMPLIANT_RATE_STAMP != 0x977365989232da31
+#if !defined(COMPLIANT_RATE_STAMP) || COMPLIANT_RATE_STAMP != 0xd4e397e0c771a70b
 #error "compliant_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

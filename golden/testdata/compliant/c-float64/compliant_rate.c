@@ -8,7 +8,7 @@
 
 #include "compliant_rate.h"
 
-#if !defined(COMPLIANT_RATE_STAMP) || COMPLIANT_RATE_STAMP != 0x35359f7cf6362c28
+#if !defined(COMPLIANT_RATE_STAMP) || COMPLIANT_RATE_STAMP != 0x72994cf6bb927404
 #error "compliant_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 
@@ -49,8 +49,10 @@ static double compliant_clamp(double x, double lo, double hi)
 void compliant_pitch_reset(compliant_pitch_state *s, double output, double measured)
 {
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0;
 		measured = 0.0;
 		s->faults = 1u;
@@ -70,7 +72,7 @@ void compliant_pitch_reset(compliant_pitch_state *s, double output, double measu
 
 double compliant_pitch_step(compliant_pitch_state *s, double setpoint, double measured)
 {
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -113,7 +115,7 @@ double compliant_pitch_step(compliant_pitch_state *s, double setpoint, double me
 
 void compliant_pitch_applied(compliant_pitch_state *s, double applied)
 {
-	if (!(applied - applied == 0.0)) {
+	if (!(applied - applied >= 0.0)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;

@@ -58,7 +58,7 @@
 // compliant_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define COMPLIANT_RATE_STAMP 0x35359f7cf6362c28
+#define COMPLIANT_RATE_STAMP 0x72994cf6bb927404
 
 #ifdef __cplusplus
 extern "C" {

@@ -21,7 +21,7 @@
 
 #include "compliant_rate.h"
 
-#if !defined(COMPLIANT_RATE_STAMP) || COMPLIANT_RATE_STAMP != 0x35359f7cf6362c28
+#if !defined(COMPLIANT_RATE_STAMP) || COMPLIANT_RATE_STAMP != 0x72994cf6bb927404
 #error "compliant_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

@@ -58,7 +58,7 @@
 // Content stamp: the first 64 bits of a SHA-256 of this header. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define COMPLIANT_RATE_STAMP 0x3d476d6867d743f6
+#define COMPLIANT_RATE_STAMP 0x084ff1b53aa8577b
 
 #ifdef __cplusplus
 extern "C" {
@@ -144,8 +144,10 @@ static inline void compliant_pitch_reset(compliant_pitch_state *s, float output,
 {
 	COMPLIANT_RATE_NO_CONTRACT
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -167,7 +169,7 @@ static inline void compliant_pitch_reset(compliant_pitch_state *s, float output,
 static inline float compliant_pitch_step(compliant_pitch_state *s, float setpoint, float measured)
 {
 	COMPLIANT_RATE_NO_CONTRACT
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -217,7 +219,7 @@ static inline float compliant_pitch_step(compliant_pitch_state *s, float setpoin
 static inline void compliant_pitch_applied(compliant_pitch_state *s, float applied)
 {
 	COMPLIANT_RATE_NO_CONTRACT
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;

@@ -8,7 +8,7 @@
 
 #include "gimbal_cam_rate.h"
 
-#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0x567cf5fa50588124
+#if !defined(GIMBAL_CAM_RATE_STAMP) || GIMBAL_CAM_RATE_STAMP != 0x65435e5919fc9ed0
 #error "gimbal_cam_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 
@@ -49,8 +49,10 @@ static float gimbal_cam_clamp(float x, float lo, float hi)
 void gimbal_cam_pitch_reset(gimbal_cam_pitch_state *s, float output, float measured)
 {
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -67,7 +69,7 @@ void gimbal_cam_pitch_reset(gimbal_cam_pitch_state *s, float output, float measu
 
 float gimbal_cam_pitch_step(gimbal_cam_pitch_state *s, float setpoint, float measured)
 {
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -103,7 +105,7 @@ float gimbal_cam_pitch_step(gimbal_cam_pitch_state *s, float setpoint, float mea
 
 void gimbal_cam_pitch_applied(gimbal_cam_pitch_state *s, float applied)
 {
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;
@@ -117,8 +119,10 @@ void gimbal_cam_pitch_applied(gimbal_cam_pitch_state *s, float applied)
 void gimbal_cam_yaw_reset(gimbal_cam_yaw_state *s, float output, float measured)
 {
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -131,7 +135,7 @@ void gimbal_cam_yaw_reset(gimbal_cam_yaw_state *s, float output, float measured)
 
 float gimbal_cam_yaw_step(gimbal_cam_yaw_state *s, float setpoint, float measured)
 {
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -156,7 +160,7 @@ float gimbal_cam_yaw_step(gimbal_cam_yaw_state *s, float setpoint, float measure
 
 void gimbal_cam_yaw_applied(gimbal_cam_yaw_state *s, float applied)
 {
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;

@@ -68,7 +68,7 @@
 // gimbal_cam_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define GIMBAL_CAM_RATE_STAMP 0x567cf5fa50588124
+#define GIMBAL_CAM_RATE_STAMP 0x65435e5919fc9ed0
 
 #ifdef __cplusplus
 extern "C" {

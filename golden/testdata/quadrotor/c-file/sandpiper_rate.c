@@ -8,7 +8,7 @@
 
 #include "sandpiper_rate.h"
 
-#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0x982aa32b4b9871a8
+#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0x1b10757ec24804e0
 #error "sandpiper_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 
@@ -49,8 +49,10 @@ static float sandpiper_clamp(float x, float lo, float hi)
 void sandpiper_pitch_reset(sandpiper_pitch_state *s, float output, float measured)
 {
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -64,7 +66,7 @@ void sandpiper_pitch_reset(sandpiper_pitch_state *s, float output, float measure
 
 float sandpiper_pitch_step(sandpiper_pitch_state *s, float setpoint, float measured)
 {
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -91,7 +93,7 @@ float sandpiper_pitch_step(sandpiper_pitch_state *s, float setpoint, float measu
 
 void sandpiper_pitch_applied(sandpiper_pitch_state *s, float applied)
 {
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;
@@ -105,8 +107,10 @@ void sandpiper_pitch_applied(sandpiper_pitch_state *s, float applied)
 void sandpiper_roll_reset(sandpiper_roll_state *s, float output, float measured)
 {
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -120,7 +124,7 @@ void sandpiper_roll_reset(sandpiper_roll_state *s, float output, float measured)
 
 float sandpiper_roll_step(sandpiper_roll_state *s, float setpoint, float measured)
 {
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -147,7 +151,7 @@ float sandpiper_roll_step(sandpiper_roll_state *s, float setpoint, float measure
 
 void sandpiper_roll_applied(sandpiper_roll_state *s, float applied)
 {
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;
@@ -161,8 +165,10 @@ void sandpiper_roll_applied(sandpiper_roll_state *s, float applied)
 void sandpiper_yaw_reset(sandpiper_yaw_state *s, float output, float measured)
 {
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -174,7 +180,7 @@ void sandpiper_yaw_reset(sandpiper_yaw_state *s, float output, float measured)
 
 float sandpiper_yaw_step(sandpiper_yaw_state *s, float setpoint, float measured)
 {
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -197,7 +203,7 @@ float sandpiper_yaw_step(sandpiper_yaw_state *s, float setpoint, float measured)
 
 void sandpiper_yaw_applied(sandpiper_yaw_state *s, float applied)
 {
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;

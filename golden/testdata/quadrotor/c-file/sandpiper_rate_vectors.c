@@ -21,7 +21,7 @@
 
 #include "sandpiper_rate.h"
 
-#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0x982aa32b4b9871a8
+#if !defined(SANDPIPER_RATE_STAMP) || SANDPIPER_RATE_STAMP != 0x1b10757ec24804e0
 #error "sandpiper_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

@@ -75,7 +75,7 @@
 // sandpiper_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0x982aa32b4b9871a8
+#define SANDPIPER_RATE_STAMP 0x1b10757ec24804e0
 
 #ifdef __cplusplus
 extern "C" {

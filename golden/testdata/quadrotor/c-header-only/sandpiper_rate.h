@@ -75,7 +75,7 @@
 // Content stamp: the first 64 bits of a SHA-256 of this header. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define SANDPIPER_RATE_STAMP 0x06cc4913f59ae7bd
+#define SANDPIPER_RATE_STAMP 0x57a3061407d76296
 
 #ifdef __cplusplus
 extern "C" {
@@ -187,8 +187,10 @@ static inline void sandpiper_pitch_reset(sandpiper_pitch_state *s, float output,
 {
 	SANDPIPER_RATE_NO_CONTRACT
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -204,7 +206,7 @@ static inline void sandpiper_pitch_reset(sandpiper_pitch_state *s, float output,
 static inline float sandpiper_pitch_step(sandpiper_pitch_state *s, float setpoint, float measured)
 {
 	SANDPIPER_RATE_NO_CONTRACT
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -238,7 +240,7 @@ static inline float sandpiper_pitch_step(sandpiper_pitch_state *s, float setpoin
 static inline void sandpiper_pitch_applied(sandpiper_pitch_state *s, float applied)
 {
 	SANDPIPER_RATE_NO_CONTRACT
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;
@@ -259,8 +261,10 @@ static inline void sandpiper_roll_reset(sandpiper_roll_state *s, float output, f
 {
 	SANDPIPER_RATE_NO_CONTRACT
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -276,7 +280,7 @@ static inline void sandpiper_roll_reset(sandpiper_roll_state *s, float output, f
 static inline float sandpiper_roll_step(sandpiper_roll_state *s, float setpoint, float measured)
 {
 	SANDPIPER_RATE_NO_CONTRACT
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -310,7 +314,7 @@ static inline float sandpiper_roll_step(sandpiper_roll_state *s, float setpoint,
 static inline void sandpiper_roll_applied(sandpiper_roll_state *s, float applied)
 {
 	SANDPIPER_RATE_NO_CONTRACT
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;
@@ -331,8 +335,10 @@ static inline void sandpiper_yaw_reset(sandpiper_yaw_state *s, float output, flo
 {
 	SANDPIPER_RATE_NO_CONTRACT
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -346,7 +352,7 @@ static inline void sandpiper_yaw_reset(sandpiper_yaw_state *s, float output, flo
 static inline float sandpiper_yaw_step(sandpiper_yaw_state *s, float setpoint, float measured)
 {
 	SANDPIPER_RATE_NO_CONTRACT
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -376,7 +382,7 @@ static inline float sandpiper_yaw_step(sandpiper_yaw_state *s, float setpoint, f
 static inline void sandpiper_yaw_applied(sandpiper_yaw_state *s, float applied)
 {
 	SANDPIPER_RATE_NO_CONTRACT
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;

@@ -61,7 +61,7 @@
 // burrow_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define BURROW_RATE_STAMP 0x1e8d98233d13a1c0
+#define BURROW_RATE_STAMP 0x4090794c0c36044f
 
 #ifdef __cplusplus
 extern "C" {

@@ -21,7 +21,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x1e8d98233d13a1c0
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x4090794c0c36044f
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 

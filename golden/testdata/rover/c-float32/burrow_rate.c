@@ -8,7 +8,7 @@
 
 #include "burrow_rate.h"
 
-#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0xccaa9d778e7e9a3a
+#if !defined(BURROW_RATE_STAMP) || BURROW_RATE_STAMP != 0x11d0e8c78e8c5a5b
 #error "burrow_rate.h is not the header this file was generated with (another run of locusmith, or an edited file): generate both again"
 #endif
 
@@ -49,8 +49,10 @@ static float burrow_clamp(float x, float lo, float hi)
 void burrow_pan_reset(burrow_pan_state *s, float output, float measured)
 {
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -61,7 +63,7 @@ void burrow_pan_reset(burrow_pan_state *s, float output, float measured)
 
 float burrow_pan_step(burrow_pan_state *s, float setpoint, float measured)
 {
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -79,7 +81,7 @@ float burrow_pan_step(burrow_pan_state *s, float setpoint, float measured)
 
 void burrow_pan_applied(burrow_pan_state *s, float applied)
 {
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;
@@ -92,8 +94,10 @@ void burrow_pan_applied(burrow_pan_state *s, float applied)
 void burrow_yaw_reset(burrow_yaw_state *s, float output, float measured)
 {
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0f)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0f;
 		measured = 0.0f;
 		s->faults = 1u;
@@ -105,7 +109,7 @@ void burrow_yaw_reset(burrow_yaw_state *s, float output, float measured)
 
 float burrow_yaw_step(burrow_yaw_state *s, float setpoint, float measured)
 {
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0f)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -125,7 +129,7 @@ float burrow_yaw_step(burrow_yaw_state *s, float setpoint, float measured)
 
 void burrow_yaw_applied(burrow_yaw_state *s, float applied)
 {
-	if (!(applied - applied == 0.0f)) {
+	if (!(applied - applied >= 0.0f)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;

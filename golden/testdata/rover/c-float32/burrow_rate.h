@@ -61,7 +61,7 @@
 // burrow_rate.c. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define BURROW_RATE_STAMP 0xccaa9d778e7e9a3a
+#define BURROW_RATE_STAMP 0x11d0e8c78e8c5a5b
 
 #ifdef __cplusplus
 extern "C" {

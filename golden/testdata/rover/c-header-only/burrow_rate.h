@@ -61,7 +61,7 @@
 // Content stamp: the first 64 bits of a SHA-256 of this header. Every file generated to be compiled with this header
 // checks it and stops the build when it differs, so that files of two runs
 // of locusmith cannot be built together.
-#define BURROW_RATE_STAMP 0xd574e06aa7656b11
+#define BURROW_RATE_STAMP 0x2645bb3a4259669a
 
 #ifdef __cplusplus
 extern "C" {
@@ -142,8 +142,10 @@ static inline void burrow_pan_reset(burrow_pan_state *s, double output, double m
 {
 	BURROW_RATE_NO_CONTRACT
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0;
 		measured = 0.0;
 		s->faults = 1u;
@@ -156,7 +158,7 @@ static inline void burrow_pan_reset(burrow_pan_state *s, double output, double m
 static inline double burrow_pan_step(burrow_pan_state *s, double setpoint, double measured)
 {
 	BURROW_RATE_NO_CONTRACT
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -178,7 +180,7 @@ static inline double burrow_pan_step(burrow_pan_state *s, double setpoint, doubl
 static inline void burrow_pan_applied(burrow_pan_state *s, double applied)
 {
 	BURROW_RATE_NO_CONTRACT
-	if (!(applied - applied == 0.0)) {
+	if (!(applied - applied >= 0.0)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;
@@ -197,8 +199,10 @@ static inline void burrow_yaw_reset(burrow_yaw_state *s, double output, double m
 {
 	BURROW_RATE_NO_CONTRACT
 	s->faults = 0u;
-	if (!(output - output == measured - measured)) {
-		// Not finite (NaN or infinite): start from zero, and count it.
+	if (!(output - output + (measured - measured) >= 0.0)) {
+		// Not finite (NaN or infinite; x - x is 0 for a finite x and NaN
+		// otherwise, and a NaN fails every comparison, with no == that
+		// -Wfloat-equal would flag): start from zero, and count it.
 		output = 0.0;
 		measured = 0.0;
 		s->faults = 1u;
@@ -212,7 +216,7 @@ static inline void burrow_yaw_reset(burrow_yaw_state *s, double output, double m
 static inline double burrow_yaw_step(burrow_yaw_state *s, double setpoint, double measured)
 {
 	BURROW_RATE_NO_CONTRACT
-	if (!(setpoint - setpoint == measured - measured)) {
+	if (!(setpoint - setpoint + (measured - measured) >= 0.0)) {
 		// Not finite (NaN or infinite): the state stays as it is and the
 		// last command is held.
 		if (s->faults != UINT32_MAX) {
@@ -236,7 +240,7 @@ static inline double burrow_yaw_step(burrow_yaw_state *s, double setpoint, doubl
 static inline void burrow_yaw_applied(burrow_yaw_state *s, double applied)
 {
 	BURROW_RATE_NO_CONTRACT
-	if (!(applied - applied == 0.0)) {
+	if (!(applied - applied >= 0.0)) {
 		// Not finite: ignored, and counted.
 		if (s->faults != UINT32_MAX) {
 			s->faults++;
