@@ -22,6 +22,16 @@ func TestCheckText(t *testing.T) {
 			"overshoot 12.5 % > 10 % (sampled loop, gain ×1.1)"},
 		{Check{Name: "hold_rate", Value: 22, Limit: 48, Worst: airframe.Nominal()},
 			"holdable rate 22 rad/s < 48 rad/s (sampled loop)"},
+		// A margin read off an unstable loop meets its limit and fails
+		// with the loop (SpecChecks): the margins of an unstable loop
+		// mean nothing (common practice), and "128.1° < 52.16°" would
+		// read as a contradiction.
+		{Check{Name: "phase_margin", Value: 128.1, Limit: 52.16},
+			"phase margin 128.1°, but the loop is unstable (sampled loop)"},
+		{Check{Name: "quantized_gain_margin", Value: 10.26, Limit: 8.765, Worst: airframe.Corner{GainScale: 0.9, LagScale: 1}},
+			"quantized_gain_margin 10.26 dB, but the loop is unstable (sampled loop, gain ×0.9)"},
+		{Check{Name: "phase_margin", Value: 40, Limit: 52.16},
+			"phase margin 40° < 52.16° (sampled loop)"},
 	} {
 		if got := c.ck.String(); got != c.want {
 			t.Errorf("%s: %q, want %q", c.ck.Name, got, c.want)

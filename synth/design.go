@@ -91,6 +91,10 @@ func DesignAxis(p airframe.Axis, L Loops) (*Design, error) {
 	if L == nil {
 		L = ContinuousLoops(p)
 	}
+	if reach, at, beyond := HoldReach(p, L.Corners()); beyond {
+		d.Warnings = append(d.Warnings, fmt.Sprintf("hold_rate %.4g rad/s is beyond any controller: at %s the plant's steady gain holds at most %.4g rad/s with the integrator at integrator_limit %.4g; the search designed for the other checks (lower hold_rate, or input_full_scale, its default, or raise integrator_limit and the output limits)",
+			p.Spec.HoldRate, CornerText(at), reach, p.Ctrl.IntegratorLimit))
+	}
 	g0, w0 := searchScale(p, t)
 	res, err := Search(p, L, g0, w0)
 	if err != nil {
@@ -255,4 +259,29 @@ func ClosestNote(f airframe.Form, fails []string, reach float64) string {
 		msg += fmt.Sprintf("; with every other check met, %s reaches settling %.4g s", f, reach)
 	}
 	return msg
+}
+
+// HoldReach returns the largest steady rate the plant holds at every
+// corner with the integrator at integrator_limit IL, IL·|G(0)| at the
+// corner where that is least (+Inf where every plant integrates), and
+// whether the spec's hold_rate lies beyond it (for a form with an
+// integral): at steady state the integrator carries r/G(0) whatever the
+// controller, so no design holds such a rate.
+func HoldReach(p airframe.Axis, corners []airframe.Corner) (reach float64, at airframe.Corner, beyond bool) {
+	reach, at = math.Inf(1), airframe.Nominal()
+	il := p.Ctrl.IntegratorLimit
+	if !p.Ctrl.Form.HasIntegral() || !(p.Spec.HoldRate > 0) || !(il > 0) {
+		return reach, at, false
+	}
+	for _, cn := range corners {
+		g0 := real(p.At(cn).Plant.Model.Eval(0))
+		if math.IsInf(g0, 0) || math.IsNaN(g0) || g0 == 0 {
+			continue
+		}
+		if r := il * math.Abs(g0); r < reach {
+			reach, at = r, cn
+		}
+	}
+	// The same comparison as the search's room IL/r − 1/|G(0)| < 0.
+	return reach, at, il/p.Spec.HoldRate-1/(reach/il) < 0
 }

@@ -1407,6 +1407,12 @@ func onlySettling(fails []string) bool {
 // holds the spec's hold_rate at every plant: at steady state it carries
 // (1/G(0) + (1 − b)·Kp)·r (H(0) = 1; 1/G(0) = 0 for a plant that
 // integrates), so b ≥ 1 − (IL/r − 1/G(0))/Kp; > 1 when no weight can.
+// Where a plant's own steady gain cannot hold r with the integrator at
+// its limit (IL/r < 1/|G(0)|: HoldReach), no controller holds it, and
+// the search leaves the hold rate out (−Inf) and designs for the other
+// checks: the final verification fails hold_rate whatever the design,
+// and a search that scored every candidate by that one miss reported an
+// arbitrary, even unstable, closest design.
 func (sr *searcher) holdWeight(c Controller) float64 {
 	r := sr.p.Spec.HoldRate
 	il := sr.p.Ctrl.IntegratorLimit
@@ -1428,8 +1434,10 @@ func (sr *searcher) holdWeight(c Controller) float64 {
 	need := math.Inf(-1)
 	for _, room := range sr.rooms {
 		if room < 0 {
-			return 2
+			return math.Inf(-1)
 		}
+	}
+	for _, room := range sr.rooms {
 		if c.Kp > 0 {
 			need = math.Max(need, 1-room/c.Kp)
 		}
