@@ -147,9 +147,10 @@ func designAxisOnly(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (
 	}
 	if cd.Refined && !cd.Met {
 		// The note names the checks the final verification finds failed.
-		search := synth.ClosestNote(p.Ctrl.Form, cd.Search.Fails, cd.Search.Reach)
+		r := cd.Search
+		search := synth.ClosestNote(p.Ctrl.Form, r.Fails, r.Reach, r.Record)
 		if i := slices.Index(d.Warnings, search); i >= 0 && len(d.FailedChecks()) > 0 {
-			d.Warnings[i] = synth.ClosestNote(p.Ctrl.Form, d.FailedChecks(), cd.Search.Reach)
+			d.Warnings[i] = synth.ClosestNote(p.Ctrl.Form, d.FailedChecks(), r.Reach, r.Record)
 		}
 	}
 	d.integratorReach()
@@ -274,6 +275,8 @@ func richerReach(p airframe.Axis, loop airframe.Loop) string {
 		return "a pid (derivative filter at loop_hz/8) meets every check over the envelope"
 	case !math.IsNaN(res.Reach):
 		return fmt.Sprintf("with every other check met, a pid reaches settling %.4g s", res.Reach)
+	case res.Record > 0:
+		return fmt.Sprintf("with every other check met, no pid design the search judged settled within its records (%.4g s)", res.Record)
 	}
 	return ""
 }

@@ -114,7 +114,7 @@ func DesignAxis(p airframe.Axis, L Loops) (*Design, error) {
 		d.Textbook = &tb
 	}
 	if !res.Met {
-		d.Warnings = append(d.Warnings, ClosestNote(p.Ctrl.Form, res.Fails, res.Reach))
+		d.Warnings = append(d.Warnings, ClosestNote(p.Ctrl.Form, res.Fails, res.Reach, res.Record))
 	}
 	d.finish()
 	return d, nil
@@ -250,15 +250,28 @@ func reach(p airframe.Axis, zeta float64) string {
 // ClosestNote is the warning of an axis with no passing design: the
 // closest design is reported, with the checks it misses and, where known
 // (reach not NaN), the settling time the form reaches with every other
-// check met. The sampled-loop design states it again with the checks its
-// final verification finds failed, which can differ from the search's
-// (whose records are shorter).
-func ClosestNote(f airframe.Form, fails []string, reach float64) string {
+// check met, or else (record > 0) that no such design settled within the
+// search's records of that span. The sampled-loop design states it again
+// with the checks its final verification finds failed, which can differ
+// from the search's (whose records are shorter).
+func ClosestNote(f airframe.Form, fails []string, reach, record float64) string {
 	msg := fmt.Sprintf("no %s design passes every check over the envelope; the closest one is reported (it misses %s)", f, strings.Join(fails, ", "))
-	if !math.IsNaN(reach) {
-		msg += fmt.Sprintf("; with every other check met, %s reaches settling %.4g s", f, reach)
-	}
+	msg += reachText(f, reach, record)
 	return msg
+}
+
+// reachText is the part of ClosestNote that says what form f reaches:
+// "; with every other check met, pi reaches settling 0.27 s", or "…, no
+// pi design the search judged settled within its records (0.3634 s)", or
+// nothing.
+func reachText(f airframe.Form, reach, record float64) string {
+	switch {
+	case !math.IsNaN(reach):
+		return fmt.Sprintf("; with every other check met, %s reaches settling %.4g s", f, reach)
+	case record > 0:
+		return fmt.Sprintf("; with every other check met, no %s design the search judged settled within its records (%.4g s)", f, record)
+	}
+	return ""
 }
 
 // HoldReach returns the largest steady rate the plant holds at every

@@ -2014,6 +2014,10 @@ type Result struct {
 	// (NaN when none); when the closest design misses only the settling
 	// time, it is the design of this figure.
 	Reach float64
+	// Record is the span (s) of the search's setpoint steps when it saw
+	// designs with every other check met and none settled within it
+	// (Reach NaN); 0 otherwise.
+	Record float64
 	// Evaluations counts the full judgments, for benchmarks.
 	Evaluations int
 	// Alternates are other designs the search found passing, largest
@@ -2136,6 +2140,13 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		at, reach, err := sr.reachAll()
 		if err != nil {
 			return res, err
+		}
+		if math.IsInf(reach, 1) && len(sr.reachers) > 0 {
+			e, err := sr.L.Step(sr.reachers[0].ctrl, 0)
+			if err != nil {
+				return res, err
+			}
+			res.Record = float64(e.N-1) * e.H
 		}
 		if !math.IsInf(reach, 1) {
 			res.Reach = reach
