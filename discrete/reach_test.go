@@ -47,17 +47,7 @@ min_phase_margin = 40.0
 form = "` + c.form + `"
 output_limit = [-0.5, 0.5]
 `
-			f, err := airframe.Parse("reach.toml", []byte(src))
-			if err != nil {
-				t.Fatal(err)
-			}
-			d, err := DesignAxis(f.Axes[0], f.Loop, f.Numeric)
-			if err != nil {
-				t.Fatal(err)
-			}
-			if d.Cont.Met {
-				t.Fatalf("%s met settling %s s: the case no longer tests an infeasible spec", c.form, c.settle)
-			}
+			d := infeasibleDesign(t, "reach.toml", src)
 			re := regexp.MustCompile(`, ` + c.form + ` reaches settling ([0-9.e+-]+) s`)
 			var reach string
 			for _, w := range d.Warnings {
@@ -112,12 +102,11 @@ func closestNote(t *testing.T, d *Design) {
 // spec names are those the final verification fails, not the search's
 // verdict: a pd whose search named the settling time too, which the final
 // verification passes (it fails only the steady-state error), and a pi on
-// a joint
-// whose closest design overshoots after the search's records end (the
-// search named settling_time and disturbance_recovery, the verification
-// fails the overshoot too).
+// a joint whose closest design overshoots after the search's records end
+// (the search named settling_time and disturbance_recovery, the
+// verification fails the overshoot too); and what the form reaches.
 func TestClosestNoteNamesFinalChecks(t *testing.T) {
-	for _, c := range []struct{ name, src string }{
+	for _, c := range []struct{ name, src, reach string }{
 		{"pd_steady_error", `airframe = "note_pd"
 description = "demo data: an invented random two-pole axis for a campaign; not a real vehicle"
 loop_hz = 2000.0
@@ -144,7 +133,7 @@ output_limit = [-1.0, 1.0]
 kind = "lowpass"
 hz = 17.658973
 order = 1
-`},
+`, ""},
 		{"pi_late_overshoot", `airframe = "note_pi"
 description = "demo data: an invented random joint for a campaign; not a real vehicle"
 loop_hz = 250.0
@@ -174,34 +163,14 @@ order = 2
 
 [axes.a.envelope]
 gain_scale = [1.0, 1.0]
-`},
-	} {
-		t.Run(c.name, func(t *testing.T) {
-			f, err := airframe.Parse(c.name+".toml", []byte(c.src))
-			if err != nil {
-				t.Fatal(err)
-			}
-			d, err := DesignAxis(f.Axes[0], f.Loop, f.Numeric)
-			if err != nil {
-				t.Fatal(err)
-			}
-			if d.Cont.Met {
-				t.Fatal("the search met the spec: the case no longer tests an infeasible one")
-			}
-			closestNote(t, d)
-		})
-	}
-}
-
-// TestReachBeyondRecord: where the search saw designs that meet every
-// check but the settling time and none settled within its records, the
-// note says so with the records' span instead of naming no reach. Source
-// of the figure: the search simulates ⌈4·Ts·loop_hz⌉ samples after the
-// step (horizon), 4·0.090838·500 = 181.7, so 182 samples of 2 ms, 0.364 s
-// (hand figure). The brute-force reference finds no passing pi on this
-// airframe either (a campaign of our own).
-func TestReachBeyondRecord(t *testing.T) {
-	src := `airframe = "record_probe"
+`, ""},
+		// Designs with every check met but the settling time, none of which
+		// settled within the search's records: the note says so with the
+		// records' span. The search simulates ⌈4·Ts·loop_hz⌉ = ⌈181.7⌉ =
+		// 182 samples of 2 ms after the step (horizon): 0.364 s (hand
+		// figure). The brute-force reference finds no passing pi on this
+		// airframe either (a campaign of our own).
+		{"pi_beyond_record", `airframe = "note_record"
 description = "demo data: an invented random joint for a campaign; not a real vehicle"
 loop_hz = 500.0
 
@@ -230,8 +199,23 @@ hz = "auto"
 kind = "lowpass"
 hz = 56.995948
 order = 2
-`
-	f, err := airframe.Parse("record.toml", []byte(src))
+`, "; with every other check met, no pi design the search judged settled within its records (0.364 s)"},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			d := infeasibleDesign(t, c.name+".toml", c.src)
+			closestNote(t, d)
+			if c.reach != "" && !slices.ContainsFunc(d.Warnings, func(w string) bool { return strings.HasSuffix(w, c.reach) }) {
+				t.Errorf("no note ending %q in %q", c.reach, d.Warnings)
+			}
+		})
+	}
+}
+
+// infeasibleDesign designs the one-axis airframe src, whose spec the
+// search must find infeasible (else the case no longer tests one).
+func infeasibleDesign(t *testing.T, name, src string) *Design {
+	t.Helper()
+	f, err := airframe.Parse(name, []byte(src))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -240,11 +224,7 @@ order = 2
 		t.Fatal(err)
 	}
 	if d.Cont.Met {
-		t.Fatal("the search met the spec: the case no longer tests an infeasible one")
+		t.Fatalf("%s: the search met the spec: the case no longer tests an infeasible one", name)
 	}
-	want := "; with every other check met, no pi design the search judged settled within its records (0.364 s)"
-	if !slices.ContainsFunc(d.Warnings, func(w string) bool { return strings.HasSuffix(w, want) }) {
-		t.Errorf("no note ending %q in %q", want, d.Warnings)
-	}
-	closestNote(t, d)
+	return d
 }
