@@ -149,7 +149,12 @@ func designAxisOnly(p airframe.Axis, loop airframe.Loop, num airframe.Numeric) (
 		// The note names the checks the final verification finds failed.
 		r := cd.Search
 		search := synth.ClosestNote(p.Ctrl.Form, r.Fails, r.Reach, r.Record)
-		if i := slices.Index(d.Warnings, search); i >= 0 && len(d.FailedChecks()) > 0 {
+		switch i := slices.Index(d.Warnings, search); {
+		case i < 0:
+		case len(d.FailedChecks()) == 0:
+			// The closest design passes the final verification after all.
+			d.Warnings = slices.Delete(d.Warnings, i, i+1)
+		default:
 			d.Warnings[i] = synth.ClosestNote(p.Ctrl.Form, d.FailedChecks(), r.Reach, r.Record)
 		}
 	}
@@ -276,7 +281,7 @@ func richerReach(p airframe.Axis, loop airframe.Loop) string {
 	case !math.IsNaN(res.Reach):
 		return fmt.Sprintf("with every other check met, a pid reaches settling %.4g s", res.Reach)
 	case res.Record > 0:
-		return fmt.Sprintf("with every other check met, no pid design the search judged settled within its records (%.4g s)", res.Record)
+		return fmt.Sprintf("with every other check met, no pid design the search judged settles within %.4g s", res.Record)
 	}
 	return ""
 }

@@ -68,6 +68,10 @@ order = 1
 	if got := held.FailedChecks(); !slices.Equal(got, []string{"hold_rate"}) {
 		t.Errorf("fails %v, want hold_rate alone", got)
 	}
+	if held.Cont.Met {
+		t.Error("the design is called met while its hold_rate fails")
+	}
+	closestNote(t, held)
 	if held.Cont.Stage.Ctrl != free.Cont.Stage.Ctrl {
 		t.Errorf("gains %+v, want those of the design without hold_rate %+v", held.Cont.Stage.Ctrl, free.Cont.Stage.Ctrl)
 	}

@@ -92,8 +92,12 @@ func DesignAxis(p airframe.Axis, L Loops) (*Design, error) {
 		L = ContinuousLoops(p)
 	}
 	if reach, at, beyond := HoldReach(p, L.Corners()); beyond {
-		d.Warnings = append(d.Warnings, fmt.Sprintf("hold_rate %.4g rad/s is beyond any controller: at %s the plant's steady gain holds at most %.4g rad/s with the integrator at integrator_limit %.4g; the search designed for the other checks (lower hold_rate, or input_full_scale, its default, or raise integrator_limit and the output limits)",
-			p.Spec.HoldRate, CornerText(at), reach, p.Ctrl.IntegratorLimit))
+		where := CornerText(at)
+		if at == airframe.Nominal() {
+			where = "the " + where
+		}
+		d.Warnings = append(d.Warnings, fmt.Sprintf("hold_rate %.4g rad/s is beyond any controller: at %s the plant's steady gain holds at most %.4g rad/s with the integrator at integrator_limit %.4g; the search designed for the other checks (lower hold_rate, which defaults to numeric.input_full_scale, or raise integrator_limit and the output limits)",
+			p.Spec.HoldRate, where, reach, p.Ctrl.IntegratorLimit))
 	}
 	g0, w0 := searchScale(p, t)
 	res, err := Search(p, L, g0, w0)
@@ -250,8 +254,8 @@ func reach(p airframe.Axis, zeta float64) string {
 // ClosestNote is the warning of an axis with no passing design: the
 // closest design is reported, with the checks it misses and, where known
 // (reach not NaN), the settling time the form reaches with every other
-// check met, or else (record > 0) that no such design settled within the
-// search's records of that span. The sampled-loop design states it again
+// check met, or else (record > 0) that no such design the search judged
+// settles within that time (Result.Record). The sampled-loop design states it again
 // with the checks its final verification finds failed, which can differ
 // from the search's (whose records are shorter).
 func ClosestNote(f airframe.Form, fails []string, reach, record float64) string {
@@ -262,14 +266,14 @@ func ClosestNote(f airframe.Form, fails []string, reach, record float64) string 
 
 // reachText is the part of ClosestNote that says what form f reaches:
 // "; with every other check met, pi reaches settling 0.27 s", or "…, no
-// pi design the search judged settled within its records (0.3634 s)", or
+// pi design the search judged settles within 0.3276 s", or
 // nothing.
 func reachText(f airframe.Form, reach, record float64) string {
 	switch {
 	case !math.IsNaN(reach):
 		return fmt.Sprintf("; with every other check met, %s reaches settling %.4g s", f, reach)
 	case record > 0:
-		return fmt.Sprintf("; with every other check met, no %s design the search judged settled within its records (%.4g s)", f, record)
+		return fmt.Sprintf("; with every other check met, no %s design the search judged settles within %.4g s", f, record)
 	}
 	return ""
 }
@@ -282,19 +286,48 @@ func reachText(f airframe.Form, reach, record float64) string {
 // controller, so no design holds such a rate.
 func HoldReach(p airframe.Axis, corners []airframe.Corner) (reach float64, at airframe.Corner, beyond bool) {
 	reach, at = math.Inf(1), airframe.Nominal()
-	il := p.Ctrl.IntegratorLimit
-	if !p.Ctrl.Form.HasIntegral() || !(p.Spec.HoldRate > 0) || !(il > 0) {
+	if !p.Ctrl.Form.HasIntegral() {
 		return reach, at, false
 	}
+	_, beyond = holdRooms(p, corners)
 	for _, cn := range corners {
-		g0 := real(p.At(cn).Plant.Model.Eval(0))
-		if math.IsInf(g0, 0) || math.IsNaN(g0) || g0 == 0 {
-			continue
-		}
-		if r := il * math.Abs(g0); r < reach {
-			reach, at = r, cn
+		if g0, ok := steadyGain(p, cn); ok {
+			if r := p.Ctrl.IntegratorLimit * math.Abs(g0); r < reach {
+				reach, at = r, cn
+			}
 		}
 	}
-	// The same comparison as the search's room IL/r − 1/|G(0)| < 0.
-	return reach, at, il/p.Spec.HoldRate-1/(reach/il) < 0
+	return reach, at, beyond
+}
+
+// holdRooms returns IL/r − |1/G(0)| at every corner (IL the integrator
+// limit, r the hold rate; 1/G(0) = 0 for a plant that integrates), the
+// room the setpoint weight's share (1 − b)·Kp·r has, and whether one is
+// negative; nil and false when the spec holds no rate.
+func holdRooms(p airframe.Axis, corners []airframe.Corner) ([]float64, bool) {
+	r, il := p.Spec.HoldRate, p.Ctrl.IntegratorLimit
+	if !(r > 0) || !(il > 0) {
+		return nil, false
+	}
+	rooms := make([]float64, 0, len(corners))
+	beyond := false
+	for _, cn := range corners {
+		inv := 0.0
+		if g0, ok := steadyGain(p, cn); ok {
+			inv = 1 / g0
+		}
+		// |inv + (1 − b)·Kp| ≤ IL/r with inv ≥ 0 for a plant of
+		// positive gain: (1 − b)·Kp ≤ IL/r − inv.
+		room := il/r - math.Abs(inv)
+		rooms = append(rooms, room)
+		beyond = beyond || room < 0
+	}
+	return rooms, beyond
+}
+
+// steadyGain returns the plant's G(0) at corner cn, and false where it is
+// not finite and nonzero (an integrator).
+func steadyGain(p airframe.Axis, cn airframe.Corner) (float64, bool) {
+	g0 := real(p.At(cn).Plant.Model.Eval(0))
+	return g0, !math.IsInf(g0, 0) && !math.IsNaN(g0) && g0 != 0
 }

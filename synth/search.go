@@ -337,8 +337,10 @@ type searcher struct {
 	alive []int
 	// score is the scratch of a scored failure (timeChecks).
 	score scoreBuf
-	// rooms are IL/r − |1/G(0)| at every plant (holdWeight).
-	rooms []float64
+	// rooms are IL/r − |1/G(0)| at every plant (holdWeight), and
+	// holdBeyond whether one is negative: no controller holds r there.
+	rooms      []float64
+	holdBeyond bool
 	// haveBasis says that a and b hold the basis of th.
 	haveBasis bool
 	// reachers are the candidates of the least settling times seen with
@@ -1356,47 +1358,62 @@ func (sr *searcher) byReach() ([]cand, error) {
 // the slowest settling time over every plant, and that weight; +Inf when
 // no weight does.
 func (sr *searcher) settleAll(c Controller) (float64, float64, error) {
+	b, t, _, err := sr.settleDetail(c)
+	return b, t, err
+}
+
+// settleDetail is settleAll, and whether an admitted weight meets every
+// condition of it at every plant but settling within the record (calm):
+// the controller's response is only too slow for the record.
+func (sr *searcher) settleDetail(c Controller) (float64, float64, bool, error) {
 	s := sr.p.Spec
 	bh := sr.holdWeight(c)
 	slow := make([]float64, len(sr.bs))
 	ok := make([]bool, len(sr.bs))
+	calm := make([]bool, len(sr.bs))
 	for j, w := range sr.bs {
 		ok[j] = w >= bh-1e-12
+		calm[j] = ok[j]
 	}
 	for i := 0; i < sr.ncorn; i++ {
 		e, err := sr.L.Step(c, i)
 		if err != nil {
-			return 0, 0, err
+			return 0, 0, false, err
 		}
 		if !c.Form.HasIntegral() && s.MaxSteadyError > 0 && math.Abs(1-e.Final1) > s.MaxSteadyError {
-			return c.B, math.Inf(1), nil
+			return c.B, math.Inf(1), false, nil
 		}
 		y0, y1 := make([]float64, e.N), make([]float64, e.N)
 		e.Respond(y0, y1)
 		for j, w := range sr.bs {
-			if !ok[j] {
+			if !calm[j] {
 				continue
 			}
 			f := e.Final0 + float64(w*(e.Final1-e.Final0))
 			if !(f > 0) || math.IsInf(f, 0) {
-				ok[j] = false
+				ok[j], calm[j] = false, false
 				continue
 			}
 			st := weightedSettle(y0, y1, w, e.H, f, s.Band)
-			if !(st.Overshoot <= s.Overshoot) || !st.Settled {
+			if !(st.Overshoot <= s.Overshoot) {
+				ok[j], calm[j] = false, false
+				continue
+			}
+			if !st.Settled {
 				ok[j] = false
 				continue
 			}
 			slow[j] = math.Max(slow[j], st.Settling)
 		}
 	}
-	b, best := c.B, math.Inf(1)
+	b, best, slowOnly := c.B, math.Inf(1), false
 	for j, w := range sr.bs {
 		if ok[j] && slow[j] < best {
 			b, best = w, slow[j]
 		}
+		slowOnly = slowOnly || calm[j] && !ok[j]
 	}
-	return b, best, nil
+	return b, best, slowOnly, nil
 }
 
 func onlySettling(fails []string) bool {
@@ -1421,21 +1438,11 @@ func (sr *searcher) holdWeight(c Controller) float64 {
 	}
 	if sr.rooms == nil {
 		// The room of each plant does not depend on the controller.
-		for _, cn := range sr.L.Corners() {
-			inv := 0.0
-			if g0 := real(sr.p.At(cn).Plant.Model.Eval(0)); !math.IsInf(g0, 0) && !math.IsNaN(g0) && g0 != 0 {
-				inv = 1 / g0
-			}
-			// |inv + (1 − b)·Kp| ≤ IL/r with inv ≥ 0 for a plant of
-			// positive gain: (1 − b)·Kp ≤ IL/r − inv.
-			sr.rooms = append(sr.rooms, il/r-math.Abs(inv))
-		}
+		sr.rooms, sr.holdBeyond = holdRooms(sr.p, sr.L.Corners())
 	}
 	need := math.Inf(-1)
-	for _, room := range sr.rooms {
-		if room < 0 {
-			return math.Inf(-1)
-		}
+	if sr.holdBeyond {
+		return need
 	}
 	for _, room := range sr.rooms {
 		if c.Kp > 0 {
@@ -2014,9 +2021,11 @@ type Result struct {
 	// (NaN when none); when the closest design misses only the settling
 	// time, it is the design of this figure.
 	Reach float64
-	// Record is the span (s) of the search's setpoint steps when it saw
-	// designs with every other check met and none settled within it
-	// (Reach NaN); 0 otherwise.
+	// Record is the time (s) by which none of the near misses the search
+	// kept (every other check met at the plants it scored) had settled,
+	// where one of them met the overshoot at every plant and was only too
+	// slow for the records (Reach NaN): 90 % of the records' span, where a
+	// response counts as settled (lti.StepMetrics); 0 otherwise.
 	Record float64
 	// Evaluations counts the full judgments, for benchmarks.
 	Evaluations int
@@ -2141,12 +2150,25 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		if err != nil {
 			return res, err
 		}
-		if math.IsInf(reach, 1) && len(sr.reachers) > 0 {
-			e, err := sr.L.Step(sr.reachers[0].ctrl, 0)
-			if err != nil {
-				return res, err
+		if math.IsInf(reach, 1) {
+			// Said only of a near miss whose response meets every
+			// condition at every plant but settling within the record.
+			for _, c := range sr.reachers {
+				_, _, slowOnly, err := sr.settleDetail(c.ctrl)
+				if err != nil {
+					return res, err
+				}
+				if slowOnly {
+					e, err := sr.L.Step(c.ctrl, 0)
+					if err != nil {
+						return res, err
+					}
+					// Settled means inside the band from 90 % of the
+					// record on (lti.StepMetrics).
+					res.Record = 0.9 * float64(float64(e.N-1)*e.H)
+					break
+				}
 			}
-			res.Record = float64(e.N-1) * e.H
 		}
 		if !math.IsInf(reach, 1) {
 			res.Reach = reach
@@ -2186,7 +2208,14 @@ func Search(p airframe.Axis, L Loops, g0, w0 float64) (Result, error) {
 		best = sr.undominated(tieBreak(best, a, sr.bestGain()))
 	}
 	res.Evaluations = evals
-	res.Ctrl, res.Met = best.ctrl.Snap(), true
+	// A hold rate beyond any controller fails the design whatever it is:
+	// the search designed for the other checks, and the design is not
+	// met (holdWeight).
+	_, beyond := holdRooms(p, L.Corners())
+	res.Ctrl, res.Met = best.ctrl.Snap(), !beyond || !p.Ctrl.Form.HasIntegral()
+	if !res.Met {
+		res.Fails = []string{"hold_rate"}
+	}
 	if sr.ratioB > 0 {
 		res.NoiseBound = sr.ratioB * best.gain
 	}

@@ -479,6 +479,16 @@ func FuzzDesign(f *testing.F) {
 		if !(eff > 0 && eff < 1e6 && tau > 1e-4 && tau < 10 && delay >= 0 && delay < 0.5 && hz >= 0 && hz < 1e4 && ts > 1e-3 && ts < 100 && os > 0.001 && os < 0.99) {
 			t.Skip()
 		}
+		if delay > ts/2 {
+			// A delay beyond half the settling time makes the spec
+			// infeasible, and the search for a small feasible set then
+			// spends its whole budget on the Padé-delayed loop: 4–6 s an
+			// input (1.3 s at half), over the fuzzing engine's limit of
+			// about 10 s an input once instrumented for coverage, which
+			// it reports as a hung process. The infeasible verdicts are
+			// tested in package discrete (reach_test.go).
+			t.Skip()
+		}
 		p := demoProblem(airframe.Forms()[int(form)%len(airframe.Forms())], delay)
 		p.Plant.Model = lti.ZPK{Gain: eff / tau, Poles: []complex128{0, complex(-1/tau, 0)}}
 		if hz > 0 {
