@@ -69,7 +69,6 @@ func (c Check) String() string {
 	if c.Worst != (airframe.Corner{}) && c.Worst != airframe.Nominal() {
 		where += ", " + CornerText(c.Worst)
 	}
-	stabilityOnly := false
 	if c.Name == "stable" && math.IsNaN(c.Value) {
 		// The winding-number test of a long delay gives a verdict, no
 		// radius.
@@ -81,14 +80,13 @@ func (c Check) String() string {
 	}
 	switch strings.TrimPrefix(c.Name, "quantized_") {
 	case "overshoot", "settling_time", "phase_margin", "gain_margin":
-		stabilityOnly = !c.OK && (c.Upper && c.Value <= c.Limit || !c.Upper && c.Value >= c.Limit)
-	}
-	if stabilityOnly {
-		// The figure meets its limit, and the check fails because the
-		// loop is unstable (SpecChecks): a margin read off the loop of
-		// an unstable plant ("phase margin 128.1° < 52.16°" read as a
-		// contradiction).
-		return fmt.Sprintf("%s %s, but the loop is unstable (%s)", what, CheckValue(c.Name, c.Value), where)
+		if !c.OK && (c.Upper && c.Value <= c.Limit || !c.Upper && c.Value >= c.Limit) {
+			// The figure meets its limit, and the check fails because
+			// the loop is unstable (SpecChecks): a margin read off the
+			// loop of an unstable plant ("phase margin 128.1° <
+			// 52.16°" read as a contradiction).
+			return fmt.Sprintf("%s %s, but the loop is unstable (%s)", what, CheckValue(c.Name, c.Value), where)
+		}
 	}
 	return fmt.Sprintf("%s %s %s %s (%s)", what, CheckValue(c.Name, c.Value), rel, CheckValue(c.Name, c.Limit), where)
 }
